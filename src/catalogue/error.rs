@@ -1,0 +1,61 @@
+//! Whole-file errors of catalogue reading (exit code 2). Row-level problems are not errors:
+//! they become quarantine entries.
+
+use std::path::PathBuf;
+
+/// A problem that stops a whole catalogue from being read.
+#[derive(Debug, thiserror::Error)]
+pub enum CatalogueError {
+    /// The file could not be opened or read.
+    #[error("{path}: cannot read: {reason}")]
+    Unreadable {
+        /// The file.
+        path: PathBuf,
+        /// What went wrong.
+        reason: String,
+    },
+    /// The extension names no supported format and `--format` was not given.
+    #[error("{path}: unknown file format (use --format csv|parquet|fits|votable|ecsv)")]
+    UnknownFormat {
+        /// The file.
+        path: PathBuf,
+    },
+    /// The file is not valid in its format (truncated, wrong header, …).
+    #[error("{path}: invalid {format} file: {reason}")]
+    Invalid {
+        /// The file.
+        path: PathBuf,
+        /// The format it was read as.
+        format: &'static str,
+        /// What is wrong.
+        reason: String,
+    },
+    /// A column that vetting needs is absent after applying the column map.
+    #[error("{path}: missing required column `{column}`")]
+    MissingColumn {
+        /// The file.
+        path: PathBuf,
+        /// The canonical column name.
+        column: String,
+    },
+    /// A column's unit cannot be parsed or does not fit the column's dimension.
+    #[error("{path}: column `{column}`: unknown or unsuitable unit `{unit}`: {reason}")]
+    BadUnit {
+        /// The file (or column map).
+        path: PathBuf,
+        /// The column.
+        column: String,
+        /// The unit string as given.
+        unit: String,
+        /// Why it was refused.
+        reason: String,
+    },
+    /// The column map is unreadable or has an unknown key.
+    #[error("{path}: column map: {reason}")]
+    BadMap {
+        /// The map file.
+        path: PathBuf,
+        /// What is wrong (names the key).
+        reason: String,
+    },
+}

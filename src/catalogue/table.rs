@@ -1,0 +1,118 @@
+//! The reader interface: every file format is read into one [`RawTable`] of untyped cells.
+//!
+//! Vetting works on raw cells so that a bad value can be quarantined with its original text,
+//! whatever the format. Readers only translate the file's own representation (text, binary
+//! numbers, nulls, units from the file's metadata); they never validate or convert units.
+
+use std::path::Path;
+
+use super::error::CatalogueError;
+
+/// One cell as the file holds it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Cell {
+    /// Empty text field, FITS `TNULL`/NaN, VOTable null, ECSV empty or masked value.
+    Missing,
+    /// A value the file stores as a number (binary formats). NaN is stored as [`Cell::Missing`]
+    /// only when the format defines NaN as null; otherwise it stays a number and vetting rejects it.
+    Number(f64),
+    /// A value the file stores as text (CSV always; string columns elsewhere), untrimmed.
+    Text(String),
+}
+
+/// A column's name and the metadata the file itself gives for it.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ColumnMeta {
+    /// Name as written in the file (for CSV, without a `[unit]` suffix).
+    pub name: String,
+    /// Unit string from the file's metadata (FITS `TUNIT`, VOTable `unit`, ECSV `unit`,
+    /// CSV header suffix `mass[jupiterMass]`), not yet parsed.
+    pub unit: Option<String>,
+    /// VOTable `ucd` attribute, if any (informative).
+    pub ucd: Option<String>,
+}
+
+/// One data row.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RawRow {
+    /// 1-based index of the data row in the file (the first data row is 1, whatever the
+    /// format); this is the `row` of `quarantine.csv` and the `source_row` of `accepted.csv`.
+    pub row_number: usize,
+    /// One cell per column of [`RawTable::columns`].
+    pub cells: Vec<Cell>,
+}
+
+/// A whole table, read once.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct RawTable {
+    /// Columns in file order.
+    pub columns: Vec<ColumnMeta>,
+    /// Data rows in file order. A row whose field count does not match the header is still
+    /// returned (padded with [`Cell::Missing`] or truncated) and flagged in `malformed`.
+    pub rows: Vec<RawRow>,
+    /// Row numbers of rows the reader could only partly parse, with the reason; vetting
+    /// quarantines them.
+    pub malformed: Vec<(usize, String)>,
+}
+
+/// Supported file formats.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Format {
+    /// Comma-separated text with one header line; `#` lines before it are comments.
+    Csv,
+    /// Apache Parquet.
+    Parquet,
+    /// FITS binary table (BINTABLE extension).
+    Fits,
+    /// IVOA VOTable (TABLEDATA, BINARY, BINARY2).
+    VoTable,
+    /// Astropy Enhanced CSV 1.0.
+    Ecsv,
+}
+
+impl Format {
+    /// Parses a `--format` value.
+    pub fn from_name(name: &str) -> Option<Format> {
+        match name.to_ascii_lowercase().as_str() {
+            "csv" => Some(Format::Csv),
+            "parquet" | "pq" => Some(Format::Parquet),
+            "fits" | "fit" | "fts" => Some(Format::Fits),
+            "votable" | "vot" | "xml" => Some(Format::VoTable),
+            "ecsv" => Some(Format::Ecsv),
+            _ => None,
+        }
+    }
+
+    /// Chooses the format from the file extension (`.csv`, `.parquet`, `.fits`/`.fit`/`.fts`,
+    /// `.vot`/`.xml`/`.votable`, `.ecsv`).
+    pub fn from_path(path: &Path) -> Option<Format> {
+        let ext = path.extension()?.to_str()?;
+        Format::from_name(ext)
+    }
+}
+
+/// Options a reader may need beyond the path.
+#[derive(Debug, Clone, Default)]
+pub struct ReadOptions {
+    /// Format override; `None` means choose by extension.
+    pub format: Option<Format>,
+    /// FITS HDU or VOTable TABLE to read, by name or 0-based index; `None` means the first table.
+    pub table: Option<String>,
+}
+
+/// Reads one file into a [`RawTable`], choosing the reader by format.
+pub fn read_table(path: &Path, opts: &ReadOptions) -> Result<RawTable, CatalogueError> {
+    let format = match opts.format {
+        Some(f) => f,
+        None => Format::from_path(path).ok_or_else(|| CatalogueError::UnknownFormat {
+            path: path.to_path_buf(),
+        })?,
+    };
+    match format {
+        Format::Csv => super::read_csv::read(path),
+        Format::Parquet => super::read_parquet::read(path),
+        Format::Fits => super::read_fits::read(path, opts.table.as_deref()),
+        Format::VoTable => super::read_votable::read(path, opts.table.as_deref()),
+        Format::Ecsv => super::read_ecsv::read(path),
+    }
+}

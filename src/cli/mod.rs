@@ -1,0 +1,273 @@
+//! The command-line shell: argument parsing, exit codes and one-line error messages.
+//!
+//! Each subcommand lives in its own file and only wires library calls together; no physics and
+//! no statistics are computed here. Exit codes are the contract of `../shared/CONVENTIONS.md`
+//! and are listed in the README.
+
+use clap::{Args, Parser, Subcommand};
+use std::path::PathBuf;
+
+use crate::theory::{Anisotropy, Axis};
+
+mod confront;
+mod merge;
+mod predict;
+mod run;
+mod vet;
+
+/// Process exit codes (documented in the README).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Exit {
+    /// Success.
+    Ok = 0,
+    /// Internal error: a bug, please report it.
+    Internal = 1,
+    /// Bad usage, unreadable or invalid input or config.
+    Usage = 2,
+    /// `run` found something new that needs a human (new tension, moved region).
+    Alarm = 3,
+    /// `vet --strict` quarantined rows.
+    Quarantined = 4,
+}
+
+/// An error that ends the command: its exit code and a one-line message with context.
+#[derive(Debug)]
+pub struct CliError {
+    /// Which exit code to use.
+    pub exit: Exit,
+    /// One line, naming the file, row and column where they are known.
+    pub message: String,
+}
+
+impl CliError {
+    /// Bad usage or invalid input (exit 2).
+    pub fn usage(message: impl Into<String>) -> Self {
+        Self {
+            exit: Exit::Usage,
+            message: message.into(),
+        }
+    }
+    /// A bug (exit 1).
+    pub fn internal(message: impl Into<String>) -> Self {
+        Self {
+            exit: Exit::Internal,
+            message: message.into(),
+        }
+    }
+}
+
+impl From<crate::output::OutputError> for CliError {
+    fn from(e: crate::output::OutputError) -> Self {
+        // An unwritable output folder is the user's environment, not a bug.
+        CliError::usage(e.to_string())
+    }
+}
+
+/// dwarfbound: which (Υ, τ) do your very-low-mass stars, brown dwarfs and white dwarfs still allow?
+#[derive(Debug, Parser)]
+#[command(name = "dwarfbound", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands of `../shared/CONVENTIONS.md`.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Read and vet catalogues; write accepted.csv and quarantine.csv.
+    Vet(VetArgs),
+    /// Theory only: bounds at one (Υ, τ) point or over a grid.
+    Predict(PredictArgs),
+    /// Vet, predict over a grid and confront: tensions, allowed region, maps, report.
+    Confront(ConfrontArgs),
+    /// The whole pipeline from one config file, with cache and run-to-run difference.
+    Run(RunArgs),
+    /// Combine shard outputs of a grid split with --shard I/N into one result.
+    Merge(MergeArgs),
+}
+
+/// Options shared by every command that reads catalogues.
+#[derive(Debug, Args, Clone)]
+pub struct ReadArgs {
+    /// Column map (TOML) renaming the file's columns to the canonical ones.
+    #[arg(long, value_name = "MAP.toml")]
+    pub map: Option<PathBuf>,
+    /// File format, overriding the file extension (csv, parquet, fits, votable, ecsv).
+    #[arg(long)]
+    pub format: Option<String>,
+}
+
+/// Arguments of `vet`.
+#[derive(Debug, Args)]
+pub struct VetArgs {
+    /// Catalogue files.
+    #[arg(required = true, value_name = "CATALOG")]
+    pub catalogs: Vec<PathBuf>,
+    #[command(flatten)]
+    pub read: ReadArgs,
+    /// Output folder for accepted.csv and quarantine.csv.
+    #[arg(long, default_value = "reports/vet")]
+    pub out: PathBuf,
+    /// Exit with code 4 if any row was quarantined.
+    #[arg(long)]
+    pub strict: bool,
+    /// Print the summary as JSON instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Theory options shared by `predict` and `confront`.
+#[derive(Debug, Args, Clone)]
+pub struct TheoryArgs {
+    /// Υ: a value (`0.1`) or a grid `start:stop:count` with inclusive ends.
+    #[arg(long, allow_hyphen_values = true, value_parser = parse_axis)]
+    pub upsilon: Option<Axis>,
+    /// τ: a value or a grid `start:stop:count` with inclusive ends.
+    #[arg(long, allow_hyphen_values = true, value_parser = parse_axis)]
+    pub tau: Option<Axis>,
+    /// Anisotropy ansatz that τ parametrises.
+    #[arg(long, value_enum, default_value_t = Anisotropy::DensitySquared)]
+    pub anisotropy: Anisotropy,
+    /// MMHB model: luminosity balance (default) or ignition temperature.
+    #[arg(long, value_name = "MODEL", default_value = "luminosity")]
+    pub mmhb_model: String,
+}
+
+/// Arguments of `predict`.
+#[derive(Debug, Args)]
+pub struct PredictArgs {
+    #[command(flatten)]
+    pub theory: TheoryArgs,
+    /// Print JSON instead of text (single point).
+    #[arg(long)]
+    pub json: bool,
+    /// Output folder for a grid (bounds.csv, bounds.svg, bounds.png).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+}
+
+/// Arguments of `confront`.
+#[derive(Debug, Args)]
+pub struct ConfrontArgs {
+    /// Catalogue files.
+    #[arg(required = true, value_name = "CATALOG")]
+    pub catalogs: Vec<PathBuf>,
+    #[command(flatten)]
+    pub read: ReadArgs,
+    #[command(flatten)]
+    pub theory: TheoryArgs,
+    /// Output folder.
+    #[arg(long, default_value = "reports/latest")]
+    pub out: PathBuf,
+}
+
+/// Arguments of `run`.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// Configuration file (TOML).
+    #[arg(value_name = "CONFIG.toml")]
+    pub config: PathBuf,
+    /// Compute only shard I of N of the grid, e.g. `2/4`.
+    #[arg(long, value_name = "I/N")]
+    pub shard: Option<String>,
+    /// Wait for another run's lock on the output folder instead of failing.
+    #[arg(long)]
+    pub wait: bool,
+}
+
+/// Arguments of `merge`.
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// Shard output folders.
+    #[arg(required = true, value_name = "DIR")]
+    pub dirs: Vec<PathBuf>,
+    /// Output folder for the merged result.
+    #[arg(long, default_value = "reports/latest")]
+    pub out: PathBuf,
+}
+
+/// Parses `start:stop:count` (inclusive ends) or a single value.
+pub fn parse_axis(s: &str) -> Result<Axis, String> {
+    let parts: Vec<&str> = s.split(':').collect();
+    let num = |t: &str| -> Result<f64, String> {
+        let v: f64 = t
+            .trim()
+            .parse()
+            .map_err(|_| format!("`{t}` is not a number"))?;
+        if v.is_finite() {
+            Ok(v)
+        } else {
+            Err(format!("`{t}` is not finite"))
+        }
+    };
+    match parts.as_slice() {
+        [v] => {
+            let v = num(v)?;
+            Ok(Axis {
+                start: v,
+                stop: v,
+                count: 1,
+            })
+        }
+        [a, b, n] => {
+            let count: usize = n
+                .trim()
+                .parse()
+                .map_err(|_| format!("count `{n}` is not a whole number"))?;
+            if count == 0 {
+                return Err("count must be at least 1".into());
+            }
+            let (start, stop) = (num(a)?, num(b)?);
+            if count > 1 && start >= stop {
+                return Err(format!("start {start} must be below stop {stop}"));
+            }
+            if count == 1 && start != stop {
+                return Err("a one-point grid needs start = stop".into());
+            }
+            Ok(Axis { start, stop, count })
+        }
+        _ => Err(format!(
+            "`{s}` is neither a value nor start:stop:count (e.g. -0.3:0.6:91)"
+        )),
+    }
+}
+
+/// Runs the parsed command line and returns the exit code to use.
+pub fn main_with(cli: Cli) -> Exit {
+    let result = match cli.command {
+        Command::Vet(a) => vet::run(a),
+        Command::Predict(a) => predict::run(a),
+        Command::Confront(a) => confront::run(a),
+        Command::Run(a) => run::run(a),
+        Command::Merge(a) => merge::run(a),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("dwarfbound: error: {}", e.message);
+            if e.exit == Exit::Internal {
+                eprintln!(
+                    "dwarfbound: this is a bug; please report it with the command line above"
+                );
+            }
+            e.exit
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn axis_parses_grid_and_scalar() {
+        let a = parse_axis("-0.3:0.6:91").unwrap();
+        assert_eq!((a.start, a.stop, a.count), (-0.3, 0.6, 91));
+        let b = parse_axis("0.1").unwrap();
+        assert_eq!((b.start, b.stop, b.count), (0.1, 0.1, 1));
+        assert!(parse_axis("1:0:3").is_err());
+        assert!(parse_axis("a:b:c").is_err());
+        assert!(parse_axis("0:1:0").is_err());
+    }
+}

@@ -1,0 +1,25 @@
+//! dwarfbound: confront catalogues of very-low-mass stars, brown dwarfs and white dwarfs with
+//! the mass limits predicted by stellar structure in scalar-tensor gravity with broken Vainshtein
+//! screening (parameter Υ) and pressure anisotropy (parameter τ).
+//!
+//! The modules follow the pipeline:
+//!
+//! * [`catalogue`] reads and vets catalogues (CSV, Parquet, FITS, VOTable, ECSV) into canonical
+//!   objects, quarantining bad rows with a reason;
+//! * [`theory`] solves the modified stellar-structure equations and evaluates the bounds over a
+//!   (Υ, τ) grid; it knows nothing of catalogues;
+//! * [`confront`] confronts every object with every grid point (likelihoods, allowed regions,
+//!   tensions, drivers);
+//! * [`report`] writes tables, maps and the human-readable report; it computes no physics;
+//! * [`cli`] is the thin command-line shell on top.
+//!
+//! [`constants`] holds every physical constant with its standard; [`output`] writes files
+//! atomically.
+
+pub mod catalogue;
+pub mod cli;
+pub mod confront;
+pub mod constants;
+pub mod output;
+pub mod report;
+pub mod theory;

@@ -1,0 +1,1 @@
+//! Writing results: tables, maps and the human-readable report. Computes no physics.
