@@ -21,5 +21,6 @@ pub mod cli;
 pub mod confront;
 pub mod constants;
 pub mod output;
+pub mod pipeline;
 pub mod report;
 pub mod theory;

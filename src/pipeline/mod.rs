@@ -1,0 +1,8 @@
+//! The pipeline: vet → predict → confront → report in one call, shared by `confront` and the
+//! nightly `run`, plus what unattended runs need (config, theory cache, run history, lock,
+//! shards). It only wires the public APIs of the stages together.
+
+pub mod cache;
+pub mod config;
+pub mod history;
+pub mod lock;
