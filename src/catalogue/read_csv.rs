@@ -1,15 +1,175 @@
-//! Reader for csv files into a [`RawTable`](super::table::RawTable).
+//! Reader for CSV files into a [`RawTable`](super::table::RawTable).
+//!
+//! Lines starting with `#` before the header are comments (the demo catalogues say there that
+//! their data are invented); after the header every line is data, so a row is never lost to a
+//! comment rule. A header cell `mass[jupiterMass]` names column `mass` with unit `jupiterMass`.
+//! A row with the wrong number of fields is kept (padded or cut) and flagged as malformed, so
+//! that vetting quarantines it with its row number. Hand-wired on the `csv` crate rather than
+//! polars because vetting needs every cell's raw text and every row, including broken ones.
+//!
+//! ```text
+//! # Invented data for a fictional survey.
+//! id,class,mass[jupiterMass],mass_err[jupiterMass]
+//! A-1,brown_dwarf,62,4
+//! ```
 
 use std::path::Path;
 
 use super::error::CatalogueError;
-use super::table::RawTable;
+use super::table::{Cell, ColumnMeta, RawRow, RawTable};
 
-/// Reads a csv file.
+/// Splits `mass[jupiterMass]` into (`mass`, `Some("jupiterMass")`); the unit runs from the first
+/// `[` to the last `]`, so that `mass[[solMass]]` carries the CDS log unit `[solMass]`.
+fn split_header(cell: &str) -> ColumnMeta {
+    let t = cell.trim();
+    if let (Some(open), true) = (t.find('['), t.ends_with(']')) {
+        if open > 0 {
+            return ColumnMeta {
+                name: t[..open].trim().to_string(),
+                unit: Some(t[open + 1..t.len() - 1].trim().to_string()),
+                ucd: None,
+            };
+        }
+    }
+    ColumnMeta {
+        name: t.to_string(),
+        unit: None,
+        ucd: None,
+    }
+}
+
+/// Reads a CSV file.
 pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
-    Err(CatalogueError::Invalid {
+    let bytes = std::fs::read(path).map_err(|e| CatalogueError::Unreadable {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    })?;
+    parse(path, &bytes)
+}
+
+/// Parses CSV bytes (split from [`read`] for tests).
+fn parse(path: &Path, bytes: &[u8]) -> Result<RawTable, CatalogueError> {
+    let invalid = |reason: String| CatalogueError::Invalid {
         path: path.to_path_buf(),
         format: "csv",
-        reason: "reader not built yet".into(),
-    })
+        reason,
+    };
+    let mut rest = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    // Skip comment and blank lines before the header.
+    loop {
+        let line_end = rest.iter().position(|&b| b == b'\n');
+        let line = &rest[..line_end.unwrap_or(rest.len())];
+        let is_blank = line.iter().all(|b| b.is_ascii_whitespace());
+        if line.first() == Some(&b'#') || (is_blank && line_end.is_some()) {
+            rest = &rest[line_end.map_or(rest.len(), |i| i + 1)..];
+        } else {
+            break;
+        }
+    }
+    if rest.iter().all(|b| b.is_ascii_whitespace()) {
+        return Err(invalid("no header line (the file is empty or only comments)".into()));
+    }
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(rest);
+    let mut records = reader.byte_records();
+    let header = match records.next() {
+        Some(Ok(h)) => h,
+        Some(Err(e)) => return Err(invalid(format!("header: {e}"))),
+        None => return Err(invalid("no header line".into())),
+    };
+    let mut columns = Vec::with_capacity(header.len());
+    for (i, h) in header.iter().enumerate() {
+        let h = std::str::from_utf8(h)
+            .map_err(|_| invalid(format!("header field {} is not valid UTF-8", i + 1)))?;
+        columns.push(split_header(h));
+    }
+    let ncols = columns.len();
+    let mut table = RawTable {
+        columns,
+        ..RawTable::default()
+    };
+    for (i, rec) in records.enumerate() {
+        let row_number = i + 1;
+        let rec = rec.map_err(|e| invalid(format!("data row {row_number}: {e}")))?;
+        let mut problem: Option<String> = None;
+        if rec.len() != ncols {
+            problem = Some(format!("expected {ncols} fields, found {}", rec.len()));
+        }
+        let mut cells = Vec::with_capacity(ncols);
+        for field in rec.iter().take(ncols) {
+            let text = match std::str::from_utf8(field) {
+                Ok(t) => t.to_string(),
+                Err(_) => {
+                    problem.get_or_insert_with(|| "not valid UTF-8".to_string());
+                    String::from_utf8_lossy(field).into_owned()
+                }
+            };
+            cells.push(if text.is_empty() {
+                Cell::Missing
+            } else {
+                Cell::Text(text)
+            });
+        }
+        cells.resize(ncols, Cell::Missing);
+        if let Some(p) = problem {
+            table.malformed.push((row_number, p));
+        }
+        table.rows.push(RawRow { row_number, cells });
+    }
+    Ok(table)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn p(s: &str) -> RawTable {
+        parse(Path::new("t.csv"), s.as_bytes()).unwrap()
+    }
+
+    #[test]
+    fn comments_units_and_short_rows() {
+        let t = p("# invented\n#\n\nid,mass[jupiterMass], radius \nA,1\nB,2,3\nC,4,5,6\n");
+        assert_eq!(t.columns[0].name, "id");
+        assert_eq!(t.columns[1].name, "mass");
+        assert_eq!(t.columns[1].unit.as_deref(), Some("jupiterMass"));
+        assert_eq!(t.columns[2].name, "radius");
+        assert_eq!(t.rows.len(), 3);
+        assert_eq!(t.rows[0].row_number, 1);
+        assert_eq!(t.rows[0].cells[2], Cell::Missing);
+        assert_eq!(t.rows[1].cells[2], Cell::Text("3".into()));
+        assert_eq!(
+            t.malformed,
+            vec![
+                (1, "expected 3 fields, found 2".to_string()),
+                (3, "expected 3 fields, found 4".to_string())
+            ]
+        );
+    }
+
+    #[test]
+    fn hash_after_header_is_data() {
+        let t = p("id,mass\n#1,0.1\n");
+        assert_eq!(t.rows.len(), 1);
+        assert_eq!(t.rows[0].cells[0], Cell::Text("#1".into()));
+    }
+
+    #[test]
+    fn log_unit_in_header_and_bom() {
+        let t = p("\u{feff}id,mass[[solMass]],m2[log10(solMass)]\n");
+        assert_eq!(t.columns[0].name, "id");
+        assert_eq!(t.columns[1].unit.as_deref(), Some("[solMass]"));
+        assert_eq!(t.columns[2].unit.as_deref(), Some("log10(solMass)"));
+        assert!(t.rows.is_empty());
+    }
+
+    #[test]
+    fn empty_file_is_invalid() {
+        for s in ["", "# only a comment\n", "\n\n"] {
+            let e = parse(Path::new("e.csv"), s.as_bytes()).unwrap_err();
+            assert!(e.to_string().contains("e.csv"), "{e}");
+        }
+    }
 }
