@@ -110,7 +110,10 @@ impl ColumnMap {
     }
 
     /// Parses and validates a map from TOML text; `source` names it in messages.
-    pub fn from_toml_str(text: &str, source: impl AsRef<Path>) -> Result<ColumnMap, CatalogueError> {
+    pub fn from_toml_str(
+        text: &str,
+        source: impl AsRef<Path>,
+    ) -> Result<ColumnMap, CatalogueError> {
         let path = source.as_ref().to_path_buf();
         let bad = |reason: String| CatalogueError::BadMap {
             path: path.clone(),
@@ -134,7 +137,9 @@ impl ColumnMap {
                 )));
             }
             if v.is_empty() {
-                return Err(bad(format!("[columns]: `{k}` maps to an empty column name")));
+                return Err(bad(format!(
+                    "[columns]: `{k}` maps to an empty column name"
+                )));
             }
         }
         for (k, v) in &raw.units {
@@ -231,7 +236,9 @@ table = "CATALOG"
     }
 
     fn err(text: &str) -> String {
-        ColumnMap::from_toml_str(text, "m.toml").unwrap_err().to_string()
+        ColumnMap::from_toml_str(text, "m.toml")
+            .unwrap_err()
+            .to_string()
     }
 
     #[test]

@@ -51,7 +51,9 @@ pub enum CatalogueError {
         reason: String,
     },
     /// The column map names a file column that the file does not have.
-    #[error("{path}: column `{column}` (mapped to `{canonical}` by the column map) is not in the file")]
+    #[error(
+        "{path}: column `{column}` (mapped to `{canonical}` by the column map) is not in the file"
+    )]
     MappedColumnAbsent {
         /// The file.
         path: PathBuf,

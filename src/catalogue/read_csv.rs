@@ -67,7 +67,9 @@ fn parse(path: &Path, bytes: &[u8]) -> Result<RawTable, CatalogueError> {
         }
     }
     if rest.iter().all(|b| b.is_ascii_whitespace()) {
-        return Err(invalid("no header line (the file is empty or only comments)".into()));
+        return Err(invalid(
+            "no header line (the file is empty or only comments)".into(),
+        ));
     }
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
@@ -163,6 +165,21 @@ mod tests {
         assert_eq!(t.columns[1].unit.as_deref(), Some("[solMass]"));
         assert_eq!(t.columns[2].unit.as_deref(), Some("log10(solMass)"));
         assert!(t.rows.is_empty());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(128))]
+        /// Arbitrary bytes never panic; every data row keeps the header's width.
+        #[test]
+        fn arbitrary_bytes_do_not_panic(bytes in proptest::collection::vec(
+            proptest::sample::select(b"ab,\"#\n\r \xff1".to_vec()), 0..200)) {
+            if let Ok(t) = parse(Path::new("f.csv"), &bytes) {
+                for (i, r) in t.rows.iter().enumerate() {
+                    proptest::prop_assert_eq!(r.row_number, i + 1);
+                    proptest::prop_assert_eq!(r.cells.len(), t.columns.len());
+                }
+            }
+        }
     }
 
     #[test]

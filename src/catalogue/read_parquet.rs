@@ -8,7 +8,10 @@
 //! defaults. Rows are numbered from 1 in file order.
 //!
 //! ```no_run
-//! # // Reading needs a file; see the tests for a round trip.
+//! use dwarfbound::catalogue::table::{read_table, ReadOptions};
+//! let table = read_table("survey.parquet".as_ref(), &ReadOptions::default())?;
+//! println!("{} columns, {} rows", table.columns.len(), table.rows.len());
+//! # Ok::<(), dwarfbound::catalogue::CatalogueError>(())
 //! ```
 
 use std::path::Path;

@@ -165,7 +165,7 @@ impl VetSummary {
                 count,
             })
             .collect();
-        quarantine_reasons.sort_by(|a, b| b.count.cmp(&a.count));
+        quarantine_reasons.sort_by_key(|r| std::cmp::Reverse(r.count));
         VetSummary {
             version: env!("CARGO_PKG_VERSION"),
             catalogues,
@@ -225,19 +225,19 @@ fn class_line(k: &ClassSummary) -> String {
         (Some(a), Some(b)) => format!("mass {}–{} Msun", sig4(a), sig4(b)),
         _ => "no masses".to_string(),
     };
-    let err = k
-        .median_mass_err_msun
-        .map_or("no errors".to_string(), |e| {
-            format!("median error {} Msun", sig4(e))
-        });
+    let err = k.median_mass_err_msun.map_or("no errors".to_string(), |e| {
+        format!("median error {} Msun", sig4(e))
+    });
+    let plural = |n: usize, word: &str| format!("{n} {word}{}", if n == 1 { "" } else { "s" });
     let limits = if k.limits > 0 {
-        format!(" ({} limits)", k.limits)
+        format!(" ({})", plural(k.limits, "limit"))
     } else {
         String::new()
     };
     format!(
-        "{:<12} {:>6} objects{limits}, {range}, {err}",
-        k.class, k.count
+        "{:<12} {:>12}{limits}, {range}, {err}",
+        k.class,
+        plural(k.count, "object")
     )
 }
 

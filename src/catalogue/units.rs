@@ -22,7 +22,7 @@
 //! let mjup = parse_for("jupiterMass", Quantity::Mass).unwrap();
 //! assert!((mjup.factor_to_canonical - 9.545e-4).abs() < 1e-6); // solar masses per Jupiter mass
 //! let km = parse_for("km", Quantity::Radius).unwrap();
-//! assert_eq!(km.factor_to_canonical, 1e3 / 6.957e8);
+//! assert!((km.factor_to_canonical / (1e3 / 6.957e8) - 1.0).abs() < 1e-15); // solar radii per km
 //! assert!(parse_for("km", Quantity::Mass).is_err()); // wrong dimension
 //! ```
 
@@ -445,7 +445,7 @@ mod tests {
         let mj = parse_for("jupiterMass", Quantity::Mass).unwrap();
         assert!(rel(mj.factor_to_canonical, 1.266_865_3e17 / 1.327_124_4e20) < 1e-15);
         // M☉/M_J = 1047.5655… (derived from the resolution's two GM values).
-        assert!(rel(1.0 / mj.factor_to_canonical, 1047.565_5) < 1e-7);
+        assert!(rel(1.0 / mj.factor_to_canonical, 1_047.565_5) < 1e-7);
         let me = parse_for("earthMass", Quantity::Mass).unwrap();
         assert!(rel(me.factor_to_canonical, 3.986_004e14 / 1.327_124_4e20) < 1e-15);
         // M☉/M_E = 332 946.08… (derived from the resolution's two GM values).
@@ -481,27 +481,50 @@ mod tests {
         // astropy wrote the CDS-style `1.8981246 10+27kg`.
         let u = parse_for("1.8981246e+27kg", Quantity::Mass).unwrap();
         assert!(rel(u.factor_to_canonical, mjup_msun()) < 1e-7);
+        // astropy 8.0.2: `u.R_jup.to_string('vounit')` is `71492000m` (IAU 2015 B3 R_J eq).
+        let rj = parse_for("71492000m", Quantity::Radius).unwrap();
+        assert!(rel(rj.factor_to_canonical, rjup_rsun()) < 1e-15);
         let old_style = parse_for("1.8981246 10+27kg", Quantity::Mass).unwrap();
         assert!(rel(old_style.factor_to_canonical, u.factor_to_canonical) < 1e-15);
     }
 
     #[test]
     fn prefixes_and_scale_factors() {
-        let km = parse_for("km", Quantity::Radius).unwrap().factor_to_canonical;
+        let km = parse_for("km", Quantity::Radius)
+            .unwrap()
+            .factor_to_canonical;
         assert!(rel(km, 1e3 / 6.957e8) < 1e-15);
-        let cm = parse_for("cm", Quantity::Radius).unwrap().factor_to_canonical;
+        let cm = parse_for("cm", Quantity::Radius)
+            .unwrap()
+            .factor_to_canonical;
         assert!(rel(cm, 1e-2 / 6.957e8) < 1e-15);
         for s in ["10+3m", "10**3m", "10^3 m", "1e3 m", "1000m", "10**+3 m"] {
             let f = parse_for(s, Quantity::Radius).unwrap().factor_to_canonical;
             assert!(rel(f, km) < 1e-15, "{s}");
         }
-        let mm = parse_for("10-3m", Quantity::Radius).unwrap().factor_to_canonical;
+        let mm = parse_for("10-3m", Quantity::Radius)
+            .unwrap()
+            .factor_to_canonical;
         assert!(rel(mm, 1e-3 / 6.957e8) < 1e-15);
         // Julian year of 365.25 d (IAU convention): 1 Gyr is exactly one canonical age unit.
-        assert_eq!(parse_for("Gyr", Quantity::Age).unwrap().factor_to_canonical, 1.0);
-        assert_eq!(parse_for("Myr", Quantity::Age).unwrap().factor_to_canonical, 1e-3);
-        assert_eq!(parse_for("Ga", Quantity::Age).unwrap().factor_to_canonical, 1.0);
-        assert!(rel(parse_for("yr", Quantity::Age).unwrap().factor_to_canonical, 1e-9) < 1e-15);
+        assert_eq!(
+            parse_for("Gyr", Quantity::Age).unwrap().factor_to_canonical,
+            1.0
+        );
+        assert_eq!(
+            parse_for("Myr", Quantity::Age).unwrap().factor_to_canonical,
+            1e-3
+        );
+        assert_eq!(
+            parse_for("Ga", Quantity::Age).unwrap().factor_to_canonical,
+            1.0
+        );
+        assert!(
+            rel(
+                parse_for("yr", Quantity::Age).unwrap().factor_to_canonical,
+                1e-9
+            ) < 1e-15
+        );
         assert_eq!(
             parse_for("h", Quantity::RotationPeriod)
                 .unwrap()
@@ -533,7 +556,12 @@ mod tests {
 
     #[test]
     fn log_forms_for_mass() {
-        for s in ["log10(solMass)", "log(solMass)", "[solMass]", "dex(solMass)"] {
+        for s in [
+            "log10(solMass)",
+            "log(solMass)",
+            "[solMass]",
+            "dex(solMass)",
+        ] {
             let u = parse_for(s, Quantity::Mass).unwrap();
             assert!(u.log10, "{s}");
             assert_eq!(u.factor_to_canonical, 1.0);

@@ -68,7 +68,8 @@
 //!
 //! # Units and errors
 //!
-//! A column's unit is, in order: the map's `[units]`, the file's own metadata, for an error
+//! A column's unit is, in order: the map's `[units]`, the file's own metadata (a blank unit
+//! counts as none), for an error
 //! column the unit of its value column (an error without its own unit is in the unit of the
 //! value, as in every catalogue we know), else the canonical default. An error on a
 //! logarithmic mass (`log10(solMass)`, `[solMass]`, `dex`) is converted to first order,
@@ -294,7 +295,11 @@ impl Layout {
 }
 
 /// Finds the canonical columns and their units; fails on whole-file problems.
-fn resolve(path: &Path, table: &RawTable, map: Option<&ColumnMap>) -> Result<Layout, CatalogueError> {
+fn resolve(
+    path: &Path,
+    table: &RawTable,
+    map: Option<&ColumnMap>,
+) -> Result<Layout, CatalogueError> {
     let mut layout = Layout::default();
     for canonical in super::colmap::CANONICAL_COLUMNS {
         let mapped = map.and_then(|m| m.columns.get(canonical));
@@ -500,6 +505,10 @@ impl RowView<'_> {
                 if !c.is_finite() {
                     return Err(self.fail(canonical, reason::NOT_FINITE));
                 }
+                if c <= 0.0 {
+                    // 10^v underflowed: no positive mass survives the conversion.
+                    return Err(self.fail(canonical, reason::NOT_POSITIVE));
+                }
                 Ok(Some(c))
             }
         }
@@ -521,6 +530,9 @@ impl RowView<'_> {
                 };
                 if !c.is_finite() {
                     return Err(self.fail(canonical, reason::NOT_FINITE));
+                }
+                if c <= 0.0 {
+                    return Err(self.fail(canonical, reason::NOT_POSITIVE));
                 }
                 Ok(Some(c))
             }
@@ -790,7 +802,16 @@ mod tests {
     #[test]
     fn every_reason_fires_on_its_row() {
         let t = table(
-            &["id", "class", "mass", "mass_err", "mass_limit", "radius", "age", "mu_e"],
+            &[
+                "id",
+                "class",
+                "mass",
+                "mass_err",
+                "mass_limit",
+                "radius",
+                "age",
+                "mu_e",
+            ],
             &[
                 &["a", "brown_dwarf", "0.05", "0.01", "", "", "", ""],
                 &["", "brown_dwarf", "0.05", "0.01", "", "", "", ""],
@@ -849,7 +870,14 @@ mod tests {
     #[test]
     fn split_errors_limits_and_log_masses() {
         let t = table(
-            &["id", "class", "mass[log10(solMass)]", "mass_err_lo", "mass_err_hi", "mass_limit"],
+            &[
+                "id",
+                "class",
+                "mass[log10(solMass)]",
+                "mass_err_lo",
+                "mass_err_hi",
+                "mass_limit",
+            ],
             &[
                 &["a", "brown_dwarf", "-1.3", "0.05", "0.1", ""],
                 &["b", "brown_dwarf", "-1.3", "0.05", "", ""],
@@ -900,13 +928,26 @@ mod tests {
         let err = e(table(&["id", "class", "mass_err"], &[]), None);
         assert!(matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass"));
         let err = e(table(&["id", "class", "mass"], &[]), None);
-        assert!(matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass_err"));
+        assert!(
+            matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass_err")
+        );
         let err = e(table(&["id", "class", "mass", "mass_err_lo"], &[]), None);
-        assert!(matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass_err_hi"));
-        let err = e(table(&["id", "class", "mass[furlong]", "mass_err"], &[]), None);
+        assert!(
+            matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass_err_hi")
+        );
+        let err = e(
+            table(&["id", "class", "mass[furlong]", "mass_err"], &[]),
+            None,
+        );
         let msg = err.to_string();
-        assert!(msg.contains("f.csv") && msg.contains("mass") && msg.contains("furlong"), "{msg}");
-        let err = e(table(&["id", "class", "mass", "mass_err", "mass"], &[]), None);
+        assert!(
+            msg.contains("f.csv") && msg.contains("mass") && msg.contains("furlong"),
+            "{msg}"
+        );
+        let err = e(
+            table(&["id", "class", "mass", "mass_err", "mass"], &[]),
+            None,
+        );
         assert!(matches!(err, CatalogueError::DuplicateColumn { .. }));
         let map = ColumnMap::from_toml_str("[columns]\nradius = \"r\"\n", "m.toml").unwrap();
         let err = e(table(&["id", "class", "mass", "mass_err"], &[]), Some(&map));
@@ -917,7 +958,10 @@ mod tests {
     fn malformed_rows_are_quarantined_with_reader_reason() {
         let mut t = table(
             &["id", "class", "mass", "mass_err"],
-            &[&["a", "white_dwarf", "0.6", "0.1"], &["b", "white_dwarf", "", ""]],
+            &[
+                &["a", "white_dwarf", "0.6", "0.1"],
+                &["b", "white_dwarf", "", ""],
+            ],
         );
         t.malformed.push((2, "expected 4 fields, found 2".into()));
         let got = reasons(&t, None);
@@ -947,6 +991,34 @@ mod tests {
             ..bad
         };
         assert!(check_reconciled(&good).is_ok());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+        /// Any mix of awkward cells: no panic, and rows in = accepted + quarantined.
+        #[test]
+        fn any_cells_reconcile(rows in proptest::collection::vec(
+            proptest::collection::vec(proptest::sample::select(vec![
+                "", " ", "a", "a", "b", "brown_dwarf", "white_dwarf", "hburning", "BD", "upper",
+                "lower", "0", "-1", "0.05", "0.6", "1e400", "nan", "-inf", "2.5", "x,y", "1e-300",
+                "-400",
+            ]), 9),
+            0..12,
+        )) {
+            let header = ["id", "class", "mass[log10(solMass)]", "mass_err_lo", "mass_err_hi",
+                "mass_limit", "radius", "age", "mu_e"];
+            let rows: Vec<Vec<&str>> = rows;
+            let refs: Vec<&[&str]> = rows.iter().map(Vec::as_slice).collect();
+            let t = table(&header, &refs);
+            let (objs, q, tally) = vet_table("p.csv", &t, None).unwrap();
+            proptest::prop_assert_eq!(tally.rows_in, objs.len() + q.len());
+            for o in &objs {
+                proptest::prop_assert!(o.mass_msun.is_finite() && o.mass_msun > 0.0);
+                for e in [o.mass_err_lo_msun, o.mass_err_hi_msun].into_iter().flatten() {
+                    proptest::prop_assert!(e.is_finite() && e > 0.0);
+                }
+            }
+        }
     }
 
     #[test]
