@@ -13,6 +13,7 @@
 //! A-1,brown_dwarf,62,4
 //! ```
 
+use std::io::{BufRead, Read};
 use std::path::Path;
 
 use super::error::CatalogueError;
@@ -38,39 +39,57 @@ fn split_header(cell: &str) -> ColumnMeta {
     }
 }
 
-/// Reads a CSV file.
+/// Reads a CSV file, streaming it: only the parsed table is held in memory.
 pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
-    let bytes = std::fs::read(path).map_err(|e| CatalogueError::Unreadable {
+    let file = std::fs::File::open(path).map_err(|e| CatalogueError::Unreadable {
         path: path.to_path_buf(),
         reason: e.to_string(),
     })?;
-    parse(path, &bytes)
+    parse_from(path, std::io::BufReader::new(file))
 }
 
-/// Parses CSV bytes (split from [`read`] for tests).
+/// Parses CSV bytes held in memory (tests).
+#[cfg(test)]
 fn parse(path: &Path, bytes: &[u8]) -> Result<RawTable, CatalogueError> {
+    parse_from(path, bytes)
+}
+
+/// Parses CSV from a buffered reader.
+fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, CatalogueError> {
     let invalid = |reason: String| CatalogueError::Invalid {
         path: path.to_path_buf(),
         format: "csv",
         reason,
     };
-    let mut rest = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
-    // Skip comment and blank lines before the header.
+    let unreadable = |e: std::io::Error| CatalogueError::Unreadable {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    };
+    // Skip comment and blank lines before the header; keep the header line to hand back.
+    let mut first = true;
+    let mut header_line = Vec::new();
     loop {
-        let line_end = rest.iter().position(|&b| b == b'\n');
-        let line = &rest[..line_end.unwrap_or(rest.len())];
-        let is_blank = line.iter().all(|b| b.is_ascii_whitespace());
-        if line.first() == Some(&b'#') || (is_blank && line_end.is_some()) {
-            rest = &rest[line_end.map_or(rest.len(), |i| i + 1)..];
-        } else {
+        header_line.clear();
+        let n = input
+            .read_until(b'\n', &mut header_line)
+            .map_err(unreadable)?;
+        if n == 0 {
+            return Err(invalid(
+                "no header line (the file is empty or only comments)".into(),
+            ));
+        }
+        if first {
+            first = false;
+            if header_line.starts_with(b"\xEF\xBB\xBF") {
+                header_line.drain(..3);
+            }
+        }
+        let is_blank = header_line.iter().all(|b| b.is_ascii_whitespace());
+        if header_line.first() != Some(&b'#') && !is_blank {
             break;
         }
     }
-    if rest.iter().all(|b| b.is_ascii_whitespace()) {
-        return Err(invalid(
-            "no header line (the file is empty or only comments)".into(),
-        ));
-    }
+    let rest = std::io::Cursor::new(header_line).chain(input);
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
@@ -94,7 +113,16 @@ fn parse(path: &Path, bytes: &[u8]) -> Result<RawTable, CatalogueError> {
     };
     for (i, rec) in records.enumerate() {
         let row_number = i + 1;
-        let rec = rec.map_err(|e| invalid(format!("data row {row_number}: {e}")))?;
+        let rec = rec.map_err(|e| {
+            if e.is_io_error() {
+                CatalogueError::Unreadable {
+                    path: path.to_path_buf(),
+                    reason: e.to_string(),
+                }
+            } else {
+                invalid(format!("data row {row_number}: {e}"))
+            }
+        })?;
         let mut problem: Option<String> = None;
         if rec.len() != ncols {
             problem = Some(format!("expected {ncols} fields, found {}", rec.len()));

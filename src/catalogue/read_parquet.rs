@@ -42,24 +42,32 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
     .map_err(|_| invalid("the Parquet reader failed on this file".into()))?
     .map_err(|e| invalid(one_line(&e.to_string())))?;
     let height = df.height();
-    let mut columns = Vec::with_capacity(df.width());
-    let mut by_column: Vec<Vec<Cell>> = Vec::with_capacity(df.width());
+    let width = df.width();
+    // Column by column into the rows, moving cells, so that at most one column exists twice.
+    let mut columns = Vec::with_capacity(width);
+    let mut rows: Vec<RawRow> = (0..height)
+        .map(|r| RawRow {
+            row_number: r + 1,
+            cells: Vec::with_capacity(width),
+        })
+        .collect();
     for col in df.columns() {
         let name = col.name().as_str().to_string();
         let cells = column_cells(col)
             .map_err(|e| invalid(format!("column `{name}`: {}", one_line(&e.to_string()))))?;
+        if cells.len() != height {
+            return Err(invalid(format!(
+                "column `{name}` has {} values for {height} rows",
+                cells.len()
+            )));
+        }
+        for (row, cell) in rows.iter_mut().zip(cells) {
+            row.cells.push(cell);
+        }
         columns.push(ColumnMeta {
             name,
             unit: None,
             ucd: None,
-        });
-        by_column.push(cells);
-    }
-    let mut rows = Vec::with_capacity(height);
-    for r in 0..height {
-        rows.push(RawRow {
-            row_number: r + 1,
-            cells: by_column.iter().map(|c| c[r].clone()).collect(),
         });
     }
     Ok(RawTable {
