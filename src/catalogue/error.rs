@@ -50,6 +50,38 @@ pub enum CatalogueError {
         /// Why it was refused.
         reason: String,
     },
+    /// The column map names a file column that the file does not have.
+    #[error(
+        "{path}: column `{column}` (mapped to `{canonical}` by the column map) is not in the file"
+    )]
+    MappedColumnAbsent {
+        /// The file.
+        path: PathBuf,
+        /// The canonical column.
+        canonical: String,
+        /// The file column the map names.
+        column: String,
+    },
+    /// Two columns of the file carry the name vetting needs, so the choice would be a guess.
+    #[error("{path}: column `{column}` appears more than once")]
+    DuplicateColumn {
+        /// The file.
+        path: PathBuf,
+        /// The repeated column name.
+        column: String,
+    },
+    /// Rows in ≠ accepted + quarantined: a bug in vetting, never the user's fault (exit 1).
+    #[error("{path}: internal error: {rows_in} rows in but {accepted} accepted + {quarantined} quarantined")]
+    Unreconciled {
+        /// The file.
+        path: PathBuf,
+        /// Data rows read.
+        rows_in: usize,
+        /// Rows accepted.
+        accepted: usize,
+        /// Rows quarantined.
+        quarantined: usize,
+    },
     /// The column map is unreadable or has an unknown key.
     #[error("{path}: column map: {reason}")]
     BadMap {
@@ -58,4 +90,12 @@ pub enum CatalogueError {
         /// What is wrong (names the key).
         reason: String,
     },
+}
+
+impl CatalogueError {
+    /// True for errors that are bugs in dwarfbound (exit 1) rather than problems of the input
+    /// (exit 2).
+    pub fn is_internal(&self) -> bool {
+        matches!(self, CatalogueError::Unreconciled { .. })
+    }
 }

@@ -1,12 +1,25 @@
 //! Catalogue reading and vetting: files in, canonical objects and quarantined rows out.
 //!
-//! Every format is read into a [`table::RawTable`] of raw cells; the column map renames columns
-//! to the canonical names of `../shared/CONVENTIONS.md`; vetting converts units and validates
-//! every row. A row is either accepted or quarantined with a reason, never dropped:
-//! rows in = rows accepted + rows quarantined.
+//! Every format is read into a [`table::RawTable`] of raw cells; the column map
+//! ([`colmap::ColumnMap`]) renames columns to the canonical names of `../shared/CONVENTIONS.md`;
+//! vetting ([`vet`]) converts units ([`units`]) and validates every row. A row is either accepted
+//! or quarantined with a reason, never dropped: rows in = rows accepted + rows quarantined.
+//! [`export`] writes `accepted.csv` and `quarantine.csv`, [`summary`] the printed summary.
+//!
+//! ```no_run
+//! use dwarfbound::catalogue::{table::ReadOptions, vet::vet_files};
+//! let vetted = vet_files(&["catalogs-demo/survey.csv".into()], None, &ReadOptions::default())?;
+//! println!("{} objects accepted", vetted.objects.len());
+//! # Ok::<(), dwarfbound::catalogue::CatalogueError>(())
+//! ```
 
+pub mod colmap;
 pub mod error;
+pub mod export;
+pub mod summary;
 pub mod table;
+pub mod units;
+pub mod vet;
 
 mod read_csv;
 mod read_ecsv;
@@ -14,4 +27,9 @@ mod read_fits;
 mod read_parquet;
 mod read_votable;
 
+pub use colmap::ColumnMap;
 pub use error::CatalogueError;
+pub use vet::{
+    vet_files, vet_table, CatalogueObject, CatalogueTally, MassLimit, ObjectClass, QuarantinedRow,
+    Vetted,
+};

@@ -1,0 +1,79 @@
+//! The vetting outputs as CSV bytes: `accepted.csv` and `quarantine.csv`.
+//!
+//! `accepted.csv` holds the canonical columns in their default units (M☉, R☉, Gyr, h), always
+//! with split mass errors (a symmetric error is written on both sides), plus `source_file` and
+//! `source_row`; it can be vetted again and gives the same objects. Floats are written with
+//! [`crate::output::fmt_f64`] so they round-trip; missing values are empty, never NaN.
+//!
+//! ```
+//! use dwarfbound::catalogue::export::{quarantine_csv, QUARANTINE_COLUMNS};
+//! let bytes = quarantine_csv(&[]).unwrap();
+//! assert_eq!(String::from_utf8(bytes).unwrap().trim_end(), QUARANTINE_COLUMNS.join(","));
+//! ```
+
+use super::vet::{CatalogueObject, QuarantinedRow};
+use crate::output::fmt_f64;
+
+/// Header of `accepted.csv`.
+pub const ACCEPTED_COLUMNS: [&str; 15] = [
+    "id",
+    "class",
+    "mass",
+    "mass_err_lo",
+    "mass_err_hi",
+    "mass_limit",
+    "radius",
+    "radius_err",
+    "age",
+    "age_err",
+    "rotation_period",
+    "mu_e",
+    "ref",
+    "source_file",
+    "source_row",
+];
+
+/// Header of `quarantine.csv` (`../shared/CONVENTIONS.md`).
+pub const QUARANTINE_COLUMNS: [&str; 5] = ["file", "row", "id", "column", "reason"];
+
+/// `accepted.csv` as bytes.
+pub fn accepted_csv(objects: &[CatalogueObject]) -> Result<Vec<u8>, csv::Error> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record(ACCEPTED_COLUMNS)?;
+    for o in objects {
+        w.write_record([
+            o.id.clone(),
+            o.class.label().to_string(),
+            fmt_f64(Some(o.mass_msun)),
+            fmt_f64(o.mass_err_lo_msun),
+            fmt_f64(o.mass_err_hi_msun),
+            o.mass_limit.label().to_string(),
+            fmt_f64(o.radius_rsun),
+            fmt_f64(o.radius_err_rsun),
+            fmt_f64(o.age_gyr),
+            fmt_f64(o.age_err_gyr),
+            fmt_f64(o.rotation_period_h),
+            fmt_f64(o.mu_e),
+            o.reference.clone().unwrap_or_default(),
+            o.source_file.clone(),
+            o.source_row.to_string(),
+        ])?;
+    }
+    w.into_inner().map_err(|e| e.into_error().into())
+}
+
+/// `quarantine.csv` as bytes.
+pub fn quarantine_csv(rows: &[QuarantinedRow]) -> Result<Vec<u8>, csv::Error> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record(QUARANTINE_COLUMNS)?;
+    for q in rows {
+        w.write_record([
+            q.file.as_str(),
+            &q.row.to_string(),
+            q.id.as_deref().unwrap_or(""),
+            &q.column,
+            &q.reason,
+        ])?;
+    }
+    w.into_inner().map_err(|e| e.into_error().into())
+}

@@ -1,0 +1,257 @@
+//! The vetting summary: counts per catalogue and per class, mass ranges, median errors and the
+//! quarantine reasons, as a serialisable struct and as plain text.
+//!
+//! Computed here rather than in the command line so that `vet`, `confront` and `run` print the
+//! same numbers.
+//!
+//! ```
+//! use dwarfbound::catalogue::summary::VetSummary;
+//! use dwarfbound::catalogue::vet::Vetted;
+//! let s = VetSummary::from_vetted(&Vetted::default());
+//! assert_eq!((s.rows_in, s.rows_accepted, s.rows_quarantined), (0, 0, 0));
+//! ```
+
+use std::collections::BTreeMap;
+use std::fmt::Write as _;
+
+use super::vet::{CatalogueObject, CatalogueTally, ObjectClass, Vetted};
+
+/// Accepted objects of one class.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ClassSummary {
+    /// Canonical class label.
+    pub class: &'static str,
+    /// Objects accepted.
+    pub count: usize,
+    /// Of which mass limits.
+    pub limits: usize,
+    /// Smallest mass (or limit), M☉; `None` when `count` is 0.
+    pub mass_min_msun: Option<f64>,
+    /// Largest mass (or limit), M☉.
+    pub mass_max_msun: Option<f64>,
+    /// Median 1σ mass error (mean of the two sides), M☉, over objects with errors.
+    pub median_mass_err_msun: Option<f64>,
+}
+
+/// One catalogue: its tally and its classes.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct CatalogueSummary {
+    /// The file.
+    pub path: String,
+    /// Data rows read.
+    pub rows_in: usize,
+    /// Rows accepted.
+    pub rows_accepted: usize,
+    /// Rows quarantined.
+    pub rows_quarantined: usize,
+    /// Per class, only classes with accepted objects.
+    pub classes: Vec<ClassSummary>,
+}
+
+/// How often a (column, reason) pair occurred.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct ReasonCount {
+    /// Column name in the file.
+    pub column: String,
+    /// Reason string.
+    pub reason: String,
+    /// Rows.
+    pub count: usize,
+}
+
+/// The whole summary.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct VetSummary {
+    /// dwarfbound version.
+    pub version: &'static str,
+    /// Per catalogue, in the order given.
+    pub catalogues: Vec<CatalogueSummary>,
+    /// Per class over all catalogues (every class, also empty ones).
+    pub classes: Vec<ClassSummary>,
+    /// Quarantine reasons, most frequent first.
+    pub quarantine_reasons: Vec<ReasonCount>,
+    /// Total rows read.
+    pub rows_in: usize,
+    /// Total accepted.
+    pub rows_accepted: usize,
+    /// Total quarantined.
+    pub rows_quarantined: usize,
+}
+
+fn median(mut v: Vec<f64>) -> Option<f64> {
+    if v.is_empty() {
+        return None;
+    }
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    Some(if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        0.5 * (v[n / 2 - 1] + v[n / 2])
+    })
+}
+
+fn class_summary<'a>(
+    class: ObjectClass,
+    objects: impl Iterator<Item = &'a CatalogueObject>,
+) -> ClassSummary {
+    let mut count = 0;
+    let mut limits = 0;
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    let mut errs = Vec::new();
+    for o in objects.filter(|o| o.class == class) {
+        count += 1;
+        if o.mass_limit != super::vet::MassLimit::None {
+            limits += 1;
+        }
+        lo = lo.min(o.mass_msun);
+        hi = hi.max(o.mass_msun);
+        if let (Some(a), Some(b)) = (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+            errs.push(0.5 * (a + b));
+        }
+    }
+    ClassSummary {
+        class: class.label(),
+        count,
+        limits,
+        mass_min_msun: (count > 0).then_some(lo),
+        mass_max_msun: (count > 0).then_some(hi),
+        median_mass_err_msun: median(errs),
+    }
+}
+
+impl VetSummary {
+    /// Summarises a vetting result.
+    pub fn from_vetted(v: &Vetted) -> VetSummary {
+        // Objects are in catalogue order, `rows_accepted` per catalogue (the same path may
+        // be given twice, so the path alone does not identify a catalogue's objects).
+        let mut start = 0;
+        let catalogues = v
+            .tallies
+            .iter()
+            .map(|t: &CatalogueTally| {
+                let end = (start + t.rows_accepted).min(v.objects.len());
+                let mine = &v.objects[start.min(end)..end];
+                start = end;
+                CatalogueSummary {
+                    path: t.path.clone(),
+                    rows_in: t.rows_in,
+                    rows_accepted: t.rows_accepted,
+                    rows_quarantined: t.rows_quarantined,
+                    classes: ObjectClass::ALL
+                        .iter()
+                        .map(|c| class_summary(*c, mine.iter()))
+                        .filter(|c| c.count > 0)
+                        .collect(),
+                }
+            })
+            .collect();
+        let classes = ObjectClass::ALL
+            .iter()
+            .map(|c| class_summary(*c, v.objects.iter()))
+            .collect();
+        let mut counts: BTreeMap<(String, String), usize> = BTreeMap::new();
+        for q in &v.quarantine {
+            *counts
+                .entry((q.column.clone(), q.reason.clone()))
+                .or_default() += 1;
+        }
+        let mut quarantine_reasons: Vec<ReasonCount> = counts
+            .into_iter()
+            .map(|((column, reason), count)| ReasonCount {
+                column,
+                reason,
+                count,
+            })
+            .collect();
+        quarantine_reasons.sort_by_key(|r| std::cmp::Reverse(r.count));
+        VetSummary {
+            version: env!("CARGO_PKG_VERSION"),
+            catalogues,
+            classes,
+            quarantine_reasons,
+            rows_in: v.tallies.iter().map(|t| t.rows_in).sum(),
+            rows_accepted: v.tallies.iter().map(|t| t.rows_accepted).sum(),
+            rows_quarantined: v.tallies.iter().map(|t| t.rows_quarantined).sum(),
+        }
+    }
+
+    /// Plain-text rendering for a terminal.
+    pub fn to_text(&self) -> String {
+        let mut s = String::new();
+        for c in &self.catalogues {
+            let _ = writeln!(
+                s,
+                "{}: {} rows in, {} accepted, {} quarantined",
+                c.path, c.rows_in, c.rows_accepted, c.rows_quarantined
+            );
+            for k in &c.classes {
+                let _ = writeln!(s, "  {}", class_line(k));
+            }
+        }
+        if self.catalogues.len() > 1 {
+            let _ = writeln!(
+                s,
+                "all catalogues: {} rows in, {} accepted, {} quarantined",
+                self.rows_in, self.rows_accepted, self.rows_quarantined
+            );
+            for k in self.classes.iter().filter(|k| k.count > 0) {
+                let _ = writeln!(s, "  {}", class_line(k));
+            }
+        }
+        if !self.quarantine_reasons.is_empty() {
+            let _ = writeln!(s, "quarantine reasons:");
+            for r in &self.quarantine_reasons {
+                let _ = writeln!(s, "  {:>5}  {}: {}", r.count, r.column, r.reason);
+            }
+        }
+        s
+    }
+}
+
+/// Four significant digits, plain notation where readable.
+fn sig4(x: f64) -> String {
+    let a = x.abs();
+    if a == 0.0 || !(1e-3..1e4).contains(&a) {
+        return format!("{x:.3e}");
+    }
+    let decimals = (3 - a.log10().floor() as i32).max(0) as usize;
+    format!("{x:.decimals$}")
+}
+
+fn class_line(k: &ClassSummary) -> String {
+    let range = match (k.mass_min_msun, k.mass_max_msun) {
+        (Some(a), Some(b)) => format!("mass {}–{} Msun", sig4(a), sig4(b)),
+        _ => "no masses".to_string(),
+    };
+    let err = k.median_mass_err_msun.map_or("no errors".to_string(), |e| {
+        format!("median error {} Msun", sig4(e))
+    });
+    let plural = |n: usize, word: &str| format!("{n} {word}{}", if n == 1 { "" } else { "s" });
+    let limits = if k.limits > 0 {
+        format!(" ({})", plural(k.limits, "limit"))
+    } else {
+        String::new()
+    };
+    format!(
+        "{:<12} {:>12}{limits}, {range}, {err}",
+        k.class,
+        plural(k.count, "object")
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn median_and_sig4() {
+        assert_eq!(median(vec![3.0, 1.0, 2.0]), Some(2.0));
+        assert_eq!(median(vec![4.0, 1.0, 2.0, 3.0]), Some(2.5));
+        assert_eq!(median(vec![]), None);
+        assert_eq!(sig4(0.08123), "0.08123");
+        assert_eq!(sig4(1.5), "1.500");
+        assert_eq!(sig4(1e-5), "1.000e-5");
+    }
+}

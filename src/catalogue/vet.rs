@@ -1,0 +1,1030 @@
+//! Vetting: raw tables in, canonical objects and quarantined rows out.
+//!
+//! Every data row ends up either as a [`CatalogueObject`] in canonical units (M☉, R☉, Gyr, h) or
+//! as exactly one [`QuarantinedRow`] naming the first column that fails, in the order of the
+//! table below. Rows in = accepted + quarantined, checked in code for every catalogue.
+//! Whole-file problems (missing column, bad unit, …) are a [`CatalogueError`] instead.
+//!
+//! ```
+//! use dwarfbound::catalogue::table::{Cell, ColumnMeta, RawRow, RawTable};
+//! use dwarfbound::catalogue::vet::vet_table;
+//! let col = |n: &str| ColumnMeta { name: n.into(), ..Default::default() };
+//! let t = |s: &str| Cell::Text(s.into());
+//! let table = RawTable {
+//!     columns: vec![col("id"), col("class"), col("mass"), col("mass_err")],
+//!     rows: vec![
+//!         RawRow { row_number: 1, cells: vec![t("A"), t("white_dwarf"), t("0.6"), t("0.02")] },
+//!         RawRow { row_number: 2, cells: vec![t("B"), t("white_dwarf"), t("2.6"), t("0.02")] },
+//!     ],
+//!     malformed: vec![],
+//! };
+//! let (objects, quarantine, tally) = vet_table("demo.csv", &table, None).unwrap();
+//! assert_eq!((objects.len(), quarantine.len(), tally.rows_in), (1, 1, 2));
+//! assert_eq!(quarantine[0].reason, "above 2.0 Msun, implausible for a white_dwarf");
+//! ```
+//!
+//! # Quarantine reasons
+//!
+//! Checks run in this order; the first failure is the row's one quarantine entry. The `column`
+//! of the entry is the column's name *in the file* (after the column map, the user can find it).
+//!
+//! | column | reason | when |
+//! |---|---|---|
+//! | `(row)` | `malformed row: …` (the reader's words, e.g. `expected 6 fields, found 5`) | the reader could only partly parse the row |
+//! | id | `missing id` | empty id |
+//! | id | `duplicate id within catalogue` | an earlier row of the same file has this id (the first one is kept) |
+//! | class | `missing class` | empty class |
+//! | class | `unknown class label` | neither canonical nor in the map's `[classes]` |
+//! | mass_limit | `unknown mass_limit value (expected empty, upper or lower)` | anything else |
+//! | mass | `missing mass` | empty mass |
+//! | any number | `not a number` | text that does not parse as a decimal number |
+//! | any number | `not finite` | NaN or ±infinity (also after unit conversion) |
+//! | mass | `not positive` | mass ≤ 0 in a linear unit |
+//! | mass_err (or mass_err_lo) | `missing mass error` | no error although `mass_limit` is empty |
+//! | mass_err_lo / mass_err_hi | `only one of mass_err_lo and mass_err_hi given` | a split error with one side empty |
+//! | mass_err, mass_err_lo, mass_err_hi | `not positive` | error ≤ 0 (also when given with a limit) |
+//! | radius, radius_err, age, age_err, rotation_period | `not positive` | value ≤ 0 |
+//! | mu_e | `mu_e outside [1, 3]` | μ_e < 1 or > 3 |
+//! | mass | `above 0.2 Msun, implausible for a brown_dwarf` | see thresholds |
+//! | mass | `above 1.0 Msun, implausible for the hburning sample` | see thresholds |
+//! | mass | `above 2.0 Msun, implausible for a white_dwarf` | see thresholds |
+//! | mass | `below 0.1 Msun, implausible for a white_dwarf` | see thresholds |
+//!
+//! # Plausibility thresholds (choices, not physics results)
+//!
+//! They catch unit mix-ups (Jupiter masses read as solar masses) and mislabelled classes, not
+//! physics: they are far outside any bound the theory can move.
+//! * `brown_dwarf` above 0.2 M☉: well above any hydrogen-burning limit (~0.07–0.08 M☉ in
+//!   standard gravity), so the label or the unit is wrong. No lower threshold: planetary-mass
+//!   objects are brown dwarfs for our purpose.
+//! * `hburning` above 1.0 M☉: dwarfbound tests very-low-mass stars; a solar-type star in such a
+//!   sample is almost surely a unit error. No lower threshold: a burning star below the
+//!   standard minimum mass is exactly the tension the tool looks for.
+//! * `white_dwarf` above 2.0 M☉ (beyond any Chandrasekhar-type limit the grid explores) or
+//!   below 0.1 M☉ (below any white dwarf a Hubble time can make).
+//!
+//! An upper limit is only checked against the lower threshold and a lower limit only against
+//! the upper ones, since only those can make the object implausible.
+//!
+//! # Units and errors
+//!
+//! A column's unit is, in order: the map's `[units]`, the file's own metadata (a blank unit
+//! counts as none), for an error
+//! column the unit of its value column (an error without its own unit is in the unit of the
+//! value, as in every catalogue we know), else the canonical default. An error on a
+//! logarithmic mass (`log10(solMass)`, `[solMass]`, `dex`) is converted to first order,
+//! σ_M = M ln(10) σ_log (the usual delta-method propagation, applied to each side of a split
+//! error); for σ_log = 0.1 dex this understates the upper side of the exact interval
+//! 10^(±σ) by about 11 %.
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+use super::colmap::{column_quantity, ColumnMap};
+use super::error::CatalogueError;
+use super::table::{read_table, Cell, RawTable, ReadOptions};
+use super::units::{self, Unit};
+
+/// Which kind of object a row describes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ObjectClass {
+    /// A star that burns hydrogen.
+    #[serde(rename = "hburning")]
+    HBurning,
+    /// A confirmed non-burning object.
+    BrownDwarf,
+    /// A white dwarf.
+    WhiteDwarf,
+}
+
+impl ObjectClass {
+    /// The canonical label (`hburning`, `brown_dwarf`, `white_dwarf`).
+    pub fn label(self) -> &'static str {
+        match self {
+            ObjectClass::HBurning => "hburning",
+            ObjectClass::BrownDwarf => "brown_dwarf",
+            ObjectClass::WhiteDwarf => "white_dwarf",
+        }
+    }
+
+    /// Parses a canonical label.
+    pub fn from_label(label: &str) -> Option<ObjectClass> {
+        match label {
+            "hburning" => Some(ObjectClass::HBurning),
+            "brown_dwarf" => Some(ObjectClass::BrownDwarf),
+            "white_dwarf" => Some(ObjectClass::WhiteDwarf),
+            _ => None,
+        }
+    }
+
+    /// All classes, in label order of the summary.
+    pub const ALL: [ObjectClass; 3] = [
+        ObjectClass::HBurning,
+        ObjectClass::BrownDwarf,
+        ObjectClass::WhiteDwarf,
+    ];
+}
+
+/// Whether `mass` is a measurement or a limit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MassLimit {
+    /// A measurement with errors.
+    None,
+    /// The true mass is at most `mass`.
+    Upper,
+    /// The true mass is at least `mass`.
+    Lower,
+}
+
+impl MassLimit {
+    /// The label of `accepted.csv` (empty, `upper`, `lower`).
+    pub fn label(self) -> &'static str {
+        match self {
+            MassLimit::None => "",
+            MassLimit::Upper => "upper",
+            MassLimit::Lower => "lower",
+        }
+    }
+}
+
+/// One accepted object in canonical units.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct CatalogueObject {
+    /// Identifier, unique within its catalogue.
+    pub id: String,
+    /// Class after the column map's relabelling.
+    pub class: ObjectClass,
+    /// Best mass estimate (or the limit), M☉.
+    pub mass_msun: f64,
+    /// 1σ error below the mass, M☉ (equal to the upper one for a symmetric error).
+    pub mass_err_lo_msun: Option<f64>,
+    /// 1σ error above the mass, M☉.
+    pub mass_err_hi_msun: Option<f64>,
+    /// Whether the mass is a limit.
+    pub mass_limit: MassLimit,
+    /// Radius, R☉.
+    pub radius_rsun: Option<f64>,
+    /// 1σ radius error, R☉.
+    pub radius_err_rsun: Option<f64>,
+    /// Age, Gyr.
+    pub age_gyr: Option<f64>,
+    /// 1σ age error, Gyr.
+    pub age_err_gyr: Option<f64>,
+    /// Rotation period, h.
+    pub rotation_period_h: Option<f64>,
+    /// Mean molecular weight per electron, if given (consumers default to 2).
+    pub mu_e: Option<f64>,
+    /// Free-text reference.
+    pub reference: Option<String>,
+    /// The catalogue file as given on the command line.
+    pub source_file: String,
+    /// 1-based data row in that file.
+    pub source_row: usize,
+}
+
+/// One rejected row.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct QuarantinedRow {
+    /// The catalogue file.
+    pub file: String,
+    /// 1-based data row.
+    pub row: usize,
+    /// The row's id, if it has one.
+    pub id: Option<String>,
+    /// The first failing column (its name in the file), or `(row)` for a malformed row.
+    pub column: String,
+    /// One of the reasons of the module table.
+    pub reason: String,
+}
+
+/// Row counts of one catalogue; `rows_in = rows_accepted + rows_quarantined`.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct CatalogueTally {
+    /// The catalogue file.
+    pub path: String,
+    /// Data rows read.
+    pub rows_in: usize,
+    /// Rows accepted.
+    pub rows_accepted: usize,
+    /// Rows quarantined.
+    pub rows_quarantined: usize,
+}
+
+/// Everything vetting produced for a set of catalogues, in file and row order.
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize)]
+pub struct Vetted {
+    /// Accepted objects.
+    pub objects: Vec<CatalogueObject>,
+    /// Rejected rows.
+    pub quarantine: Vec<QuarantinedRow>,
+    /// One tally per catalogue.
+    pub tallies: Vec<CatalogueTally>,
+}
+
+/// The stable reason strings of the module table.
+pub mod reason {
+    /// Prefix of a malformed row's reason.
+    pub const MALFORMED_PREFIX: &str = "malformed row: ";
+    /// Column name used for a malformed row.
+    pub const WHOLE_ROW: &str = "(row)";
+    /// Empty id.
+    pub const MISSING_ID: &str = "missing id";
+    /// Id seen earlier in the same file.
+    pub const DUPLICATE_ID: &str = "duplicate id within catalogue";
+    /// Empty class.
+    pub const MISSING_CLASS: &str = "missing class";
+    /// Class not canonical and not mapped.
+    pub const UNKNOWN_CLASS: &str = "unknown class label";
+    /// Bad `mass_limit`.
+    pub const UNKNOWN_LIMIT: &str = "unknown mass_limit value (expected empty, upper or lower)";
+    /// Empty mass.
+    pub const MISSING_MASS: &str = "missing mass";
+    /// Text that is not a number.
+    pub const NOT_A_NUMBER: &str = "not a number";
+    /// NaN or infinity.
+    pub const NOT_FINITE: &str = "not finite";
+    /// Zero or negative where a positive value is needed.
+    pub const NOT_POSITIVE: &str = "not positive";
+    /// No mass error for a measured mass.
+    pub const MISSING_MASS_ERROR: &str = "missing mass error";
+    /// Split error with one side empty.
+    pub const ONE_SIDED_ERROR: &str = "only one of mass_err_lo and mass_err_hi given";
+    /// μ_e out of range.
+    pub const MU_E_RANGE: &str = "mu_e outside [1, 3]";
+    /// Brown dwarf too heavy.
+    pub const BD_TOO_HEAVY: &str = "above 0.2 Msun, implausible for a brown_dwarf";
+    /// Hydrogen burner too heavy for a very-low-mass sample.
+    pub const HB_TOO_HEAVY: &str = "above 1.0 Msun, implausible for the hburning sample";
+    /// White dwarf too heavy.
+    pub const WD_TOO_HEAVY: &str = "above 2.0 Msun, implausible for a white_dwarf";
+    /// White dwarf too light.
+    pub const WD_TOO_LIGHT: &str = "below 0.1 Msun, implausible for a white_dwarf";
+}
+
+/// Brown dwarfs above this mass are quarantined, M☉ (a documented choice, see module doc).
+pub const BROWN_DWARF_MAX_MSUN: f64 = 0.2;
+/// Hydrogen burners above this mass are quarantined, M☉ (choice).
+pub const HBURNING_MAX_MSUN: f64 = 1.0;
+/// White dwarfs above this mass are quarantined, M☉ (choice).
+pub const WHITE_DWARF_MAX_MSUN: f64 = 2.0;
+/// White dwarfs below this mass are quarantined, M☉ (choice).
+pub const WHITE_DWARF_MIN_MSUN: f64 = 0.1;
+/// Accepted range of μ_e (choice: hydrogen gives 1, no composition gives more than ~2.2).
+pub const MU_E_RANGE: (f64, f64) = (1.0, 3.0);
+
+/// A resolved column: its index in the table, its name in the file, its unit.
+#[derive(Debug, Clone)]
+struct Col {
+    index: usize,
+    name: String,
+    unit: Option<Unit>,
+}
+
+/// The canonical columns found in one table.
+#[derive(Debug, Default)]
+struct Layout {
+    cols: HashMap<&'static str, Col>,
+}
+
+impl Layout {
+    fn get(&self, canonical: &str) -> Option<&Col> {
+        self.cols.get(canonical)
+    }
+}
+
+/// Finds the canonical columns and their units; fails on whole-file problems.
+fn resolve(
+    path: &Path,
+    table: &RawTable,
+    map: Option<&ColumnMap>,
+) -> Result<Layout, CatalogueError> {
+    let mut layout = Layout::default();
+    for canonical in super::colmap::CANONICAL_COLUMNS {
+        let mapped = map.and_then(|m| m.columns.get(canonical));
+        let name = mapped.map(String::as_str).unwrap_or(canonical);
+        let hits: Vec<usize> = table
+            .columns
+            .iter()
+            .enumerate()
+            .filter(|(_, c)| c.name == name)
+            .map(|(i, _)| i)
+            .collect();
+        match hits.as_slice() {
+            [] => {
+                if mapped.is_some() {
+                    return Err(CatalogueError::MappedColumnAbsent {
+                        path: path.to_path_buf(),
+                        canonical: canonical.to_string(),
+                        column: name.to_string(),
+                    });
+                }
+            }
+            [i] => {
+                layout.cols.insert(
+                    canonical,
+                    Col {
+                        index: *i,
+                        name: name.to_string(),
+                        unit: None,
+                    },
+                );
+            }
+            _ => {
+                return Err(CatalogueError::DuplicateColumn {
+                    path: path.to_path_buf(),
+                    column: name.to_string(),
+                })
+            }
+        }
+    }
+    let missing = |column: &str| CatalogueError::MissingColumn {
+        path: path.to_path_buf(),
+        column: column.to_string(),
+    };
+    for required in ["id", "class", "mass"] {
+        if layout.get(required).is_none() {
+            return Err(missing(required));
+        }
+    }
+    let (has_sym, has_lo, has_hi) = (
+        layout.get("mass_err").is_some(),
+        layout.get("mass_err_lo").is_some(),
+        layout.get("mass_err_hi").is_some(),
+    );
+    if has_lo && !has_hi {
+        return Err(missing("mass_err_hi"));
+    }
+    if has_hi && !has_lo {
+        return Err(missing("mass_err_lo"));
+    }
+    if !has_sym && !has_lo && layout.get("mass_limit").is_none() {
+        // Every row would need an error and none can have one.
+        return Err(missing("mass_err"));
+    }
+    // Units: value columns first, so that error columns can inherit.
+    let order = [
+        ("mass", None),
+        ("mass_err", Some("mass")),
+        ("mass_err_lo", Some("mass")),
+        ("mass_err_hi", Some("mass")),
+        ("radius", None),
+        ("radius_err", Some("radius")),
+        ("age", None),
+        ("age_err", Some("age")),
+        ("rotation_period", None),
+        ("mu_e", None),
+    ];
+    let mut unit_strings: HashMap<&str, String> = HashMap::new();
+    for (canonical, value_col) in order {
+        let Some(col) = layout.cols.get(canonical).cloned() else {
+            continue;
+        };
+        let quantity = column_quantity(canonical).unwrap_or(units::Quantity::Dimensionless);
+        let from_map = map.and_then(|m| m.units.get(canonical)).cloned();
+        let from_file = table.columns[col.index]
+            .unit
+            .as_ref()
+            .filter(|u| !u.trim().is_empty())
+            .cloned();
+        let inherited = value_col.and_then(|v| unit_strings.get(v).cloned());
+        let unit_str = from_map
+            .or(from_file)
+            .or(inherited)
+            .unwrap_or_else(|| quantity.canonical_unit().to_string());
+        let parsed = if value_col.is_some() {
+            units::parse_error_unit(&unit_str, quantity)
+        } else {
+            units::parse_for(&unit_str, quantity)
+        };
+        let unit = parsed.map_err(|e| CatalogueError::BadUnit {
+            path: path.to_path_buf(),
+            column: if col.name == canonical {
+                col.name.clone()
+            } else {
+                format!("{} ({canonical})", col.name)
+            },
+            unit: unit_str.clone(),
+            reason: e.0,
+        })?;
+        unit_strings.insert(canonical, unit_str);
+        if let Some(c) = layout.cols.get_mut(canonical) {
+            c.unit = Some(unit);
+        }
+    }
+    Ok(layout)
+}
+
+/// Text of a cell for text columns; `None` when empty.
+fn cell_text(cell: &Cell) -> Option<String> {
+    match cell {
+        Cell::Missing => None,
+        Cell::Text(s) => {
+            let t = s.trim();
+            (!t.is_empty()).then(|| t.to_string())
+        }
+        Cell::Number(v) => Some(if v.fract() == 0.0 && v.abs() < 1e15 {
+            format!("{}", *v as i64)
+        } else {
+            format!("{v}")
+        }),
+    }
+}
+
+/// A failed check: (file column name, reason).
+type Fail = (String, String);
+
+/// Number of a cell: `Ok(None)` when empty.
+fn cell_number(cell: &Cell) -> Result<Option<f64>, &'static str> {
+    let v = match cell {
+        Cell::Missing => return Ok(None),
+        Cell::Number(v) => *v,
+        Cell::Text(s) => {
+            let t = s.trim();
+            if t.is_empty() {
+                return Ok(None);
+            }
+            t.parse::<f64>().map_err(|_| reason::NOT_A_NUMBER)?
+        }
+    };
+    if v.is_finite() {
+        Ok(Some(v))
+    } else {
+        Err(reason::NOT_FINITE)
+    }
+}
+
+/// Row-level access to the resolved columns.
+struct RowView<'a> {
+    layout: &'a Layout,
+    cells: &'a [Cell],
+}
+
+impl RowView<'_> {
+    fn cell(&self, canonical: &str) -> Option<(&Col, &Cell)> {
+        let col = self.layout.get(canonical)?;
+        Some((col, self.cells.get(col.index).unwrap_or(&Cell::Missing)))
+    }
+
+    fn text(&self, canonical: &str) -> Option<String> {
+        self.cell(canonical).and_then(|(_, c)| cell_text(c))
+    }
+
+    fn fail(&self, canonical: &str, why: &str) -> Fail {
+        let name = self
+            .layout
+            .get(canonical)
+            .map_or(canonical.to_string(), |c| c.name.clone());
+        (name, why.to_string())
+    }
+
+    /// Raw number and unit of a column; `Ok(None)` when the column is absent or empty.
+    fn raw(&self, canonical: &str) -> Result<Option<(f64, Unit)>, Fail> {
+        let Some((col, cell)) = self.cell(canonical) else {
+            return Ok(None);
+        };
+        let v = cell_number(cell).map_err(|why| (col.name.clone(), why.to_string()))?;
+        let unit = col.unit.unwrap_or(Unit {
+            dimension: units::Dimension::Dimensionless,
+            factor_to_canonical: 1.0,
+            log10: false,
+        });
+        Ok(v.map(|v| (v, unit)))
+    }
+
+    /// A strictly positive linear quantity in canonical units.
+    fn positive(&self, canonical: &str) -> Result<Option<f64>, Fail> {
+        match self.raw(canonical)? {
+            None => Ok(None),
+            Some((v, unit)) => {
+                if v <= 0.0 && !unit.log10 {
+                    return Err(self.fail(canonical, reason::NOT_POSITIVE));
+                }
+                let c = unit.to_canonical(v);
+                if !c.is_finite() {
+                    return Err(self.fail(canonical, reason::NOT_FINITE));
+                }
+                if c <= 0.0 {
+                    // 10^v underflowed: no positive mass survives the conversion.
+                    return Err(self.fail(canonical, reason::NOT_POSITIVE));
+                }
+                Ok(Some(c))
+            }
+        }
+    }
+
+    /// A mass error in M☉, propagated through a logarithm if its unit is one.
+    fn mass_error(&self, canonical: &str, mass_msun: f64) -> Result<Option<f64>, Fail> {
+        match self.raw(canonical)? {
+            None => Ok(None),
+            Some((v, unit)) => {
+                if v <= 0.0 {
+                    return Err(self.fail(canonical, reason::NOT_POSITIVE));
+                }
+                let c = if unit.log10 {
+                    // Delta method: d(10^x) = 10^x ln(10) dx.
+                    mass_msun * std::f64::consts::LN_10 * v
+                } else {
+                    v * unit.factor_to_canonical
+                };
+                if !c.is_finite() {
+                    return Err(self.fail(canonical, reason::NOT_FINITE));
+                }
+                if c <= 0.0 {
+                    return Err(self.fail(canonical, reason::NOT_POSITIVE));
+                }
+                Ok(Some(c))
+            }
+        }
+    }
+}
+
+/// Vets one row (duplicate ids are handled by the caller).
+fn vet_row(
+    view: &RowView<'_>,
+    map: Option<&ColumnMap>,
+    path_label: &str,
+    row_number: usize,
+) -> Result<CatalogueObject, Fail> {
+    let id = view
+        .text("id")
+        .ok_or_else(|| view.fail("id", reason::MISSING_ID))?;
+    let label = view
+        .text("class")
+        .ok_or_else(|| view.fail("class", reason::MISSING_CLASS))?;
+    let canonical_label = match map {
+        Some(m) => m.class_label(&label),
+        None => ObjectClass::from_label(&label).map(ObjectClass::label),
+    };
+    let class = canonical_label
+        .and_then(ObjectClass::from_label)
+        .ok_or_else(|| view.fail("class", reason::UNKNOWN_CLASS))?;
+    let mass_limit = match view.text("mass_limit").as_deref() {
+        None => MassLimit::None,
+        Some("upper") => MassLimit::Upper,
+        Some("lower") => MassLimit::Lower,
+        Some(_) => return Err(view.fail("mass_limit", reason::UNKNOWN_LIMIT)),
+    };
+    let mass_msun = view
+        .positive("mass")?
+        .ok_or_else(|| view.fail("mass", reason::MISSING_MASS))?;
+
+    // Errors: split columns win over the symmetric one when a row has both.
+    let lo = view.mass_error("mass_err_lo", mass_msun)?;
+    let hi = view.mass_error("mass_err_hi", mass_msun)?;
+    let (err_lo, err_hi) = match (lo, hi) {
+        (Some(l), Some(h)) => (Some(l), Some(h)),
+        (Some(_), None) => return Err(view.fail("mass_err_hi", reason::ONE_SIDED_ERROR)),
+        (None, Some(_)) => return Err(view.fail("mass_err_lo", reason::ONE_SIDED_ERROR)),
+        (None, None) => {
+            let s = view.mass_error("mass_err", mass_msun)?;
+            (s, s)
+        }
+    };
+    if err_lo.is_none() && mass_limit == MassLimit::None {
+        let col = if view.layout.get("mass_err").is_some() {
+            "mass_err"
+        } else {
+            "mass_err_lo"
+        };
+        return Err(view.fail(col, reason::MISSING_MASS_ERROR));
+    }
+
+    let radius_rsun = view.positive("radius")?;
+    let radius_err_rsun = view.positive("radius_err")?;
+    let age_gyr = view.positive("age")?;
+    let age_err_gyr = view.positive("age_err")?;
+    let rotation_period_h = view.positive("rotation_period")?;
+    let mu_e = match view.raw("mu_e")? {
+        None => None,
+        Some((v, unit)) => {
+            let v = unit.to_canonical(v);
+            if !(MU_E_RANGE.0..=MU_E_RANGE.1).contains(&v) {
+                return Err(view.fail("mu_e", reason::MU_E_RANGE));
+            }
+            Some(v)
+        }
+    };
+
+    // Plausibility for the class (see module doc for which limits are checked against what).
+    let check_upper = mass_limit != MassLimit::Upper;
+    let check_lower = mass_limit != MassLimit::Lower;
+    let implausible = match class {
+        ObjectClass::BrownDwarf if check_upper && mass_msun > BROWN_DWARF_MAX_MSUN => {
+            Some(reason::BD_TOO_HEAVY)
+        }
+        ObjectClass::HBurning if check_upper && mass_msun > HBURNING_MAX_MSUN => {
+            Some(reason::HB_TOO_HEAVY)
+        }
+        ObjectClass::WhiteDwarf if check_upper && mass_msun > WHITE_DWARF_MAX_MSUN => {
+            Some(reason::WD_TOO_HEAVY)
+        }
+        ObjectClass::WhiteDwarf if check_lower && mass_msun < WHITE_DWARF_MIN_MSUN => {
+            Some(reason::WD_TOO_LIGHT)
+        }
+        _ => None,
+    };
+    if let Some(why) = implausible {
+        return Err(view.fail("mass", why));
+    }
+
+    Ok(CatalogueObject {
+        id,
+        class,
+        mass_msun,
+        mass_err_lo_msun: err_lo,
+        mass_err_hi_msun: err_hi,
+        mass_limit,
+        radius_rsun,
+        radius_err_rsun,
+        age_gyr,
+        age_err_gyr,
+        rotation_period_h,
+        mu_e,
+        reference: view.text("ref"),
+        source_file: path_label.to_string(),
+        source_row: row_number,
+    })
+}
+
+/// Checks rows in = accepted + quarantined (a typed error rather than a panic: it is a bug).
+pub fn check_reconciled(tally: &CatalogueTally) -> Result<(), CatalogueError> {
+    if tally.rows_in == tally.rows_accepted + tally.rows_quarantined {
+        Ok(())
+    } else {
+        Err(CatalogueError::Unreconciled {
+            path: PathBuf::from(&tally.path),
+            rows_in: tally.rows_in,
+            accepted: tally.rows_accepted,
+            quarantined: tally.rows_quarantined,
+        })
+    }
+}
+
+/// Vets one table read from `path_label`: whole-file checks, then every row.
+pub fn vet_table(
+    path_label: &str,
+    table: &RawTable,
+    map: Option<&ColumnMap>,
+) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
+    let path = Path::new(path_label);
+    let layout = resolve(path, table, map)?;
+    let malformed: HashMap<usize, &str> = table
+        .malformed
+        .iter()
+        .map(|(r, why)| (*r, why.as_str()))
+        .collect();
+    let mut seen_ids: HashMap<String, usize> = HashMap::new();
+    let mut objects = Vec::new();
+    let mut quarantine = Vec::new();
+    for row in &table.rows {
+        let view = RowView {
+            layout: &layout,
+            cells: &row.cells,
+        };
+        let id = view.text("id");
+        let mut quarantine_row = |column: String, why: String| {
+            quarantine.push(QuarantinedRow {
+                file: path_label.to_string(),
+                row: row.row_number,
+                id: id.clone(),
+                column,
+                reason: why,
+            })
+        };
+        if let Some(why) = malformed.get(&row.row_number) {
+            quarantine_row(
+                reason::WHOLE_ROW.to_string(),
+                format!("{}{why}", reason::MALFORMED_PREFIX),
+            );
+            continue;
+        }
+        if let Some(id) = &id {
+            if seen_ids.insert(id.clone(), row.row_number).is_some() {
+                let (c, w) = view.fail("id", reason::DUPLICATE_ID);
+                quarantine_row(c, w);
+                continue;
+            }
+        }
+        match vet_row(&view, map, path_label, row.row_number) {
+            Ok(obj) => objects.push(obj),
+            Err((c, w)) => quarantine_row(c, w),
+        }
+    }
+    let tally = CatalogueTally {
+        path: path_label.to_string(),
+        rows_in: table.rows.len(),
+        rows_accepted: objects.len(),
+        rows_quarantined: quarantine.len(),
+    };
+    check_reconciled(&tally)?;
+    Ok((objects, quarantine, tally))
+}
+
+/// Reads and vets every file in order. The map's `[options] table` applies when `opts` names
+/// no table. The first whole-file problem stops everything (exit 2 at the command line).
+pub fn vet_files(
+    paths: &[PathBuf],
+    map: Option<&ColumnMap>,
+    opts: &ReadOptions,
+) -> Result<Vetted, CatalogueError> {
+    let mut opts = opts.clone();
+    if opts.table.is_none() {
+        opts.table = map.and_then(|m| m.table.clone());
+    }
+    let mut out = Vetted::default();
+    for path in paths {
+        if let Err(e) = std::fs::metadata(path) {
+            return Err(CatalogueError::Unreadable {
+                path: path.clone(),
+                reason: e.to_string(),
+            });
+        }
+        let table = read_table(path, &opts)?;
+        let label = path.display().to_string();
+        let (objects, quarantine, tally) = vet_table(&label, &table, map)?;
+        out.objects.extend(objects);
+        out.quarantine.extend(quarantine);
+        out.tallies.push(tally);
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::table::{ColumnMeta, RawRow};
+    use super::*;
+
+    fn table(header: &[&str], rows: &[&[&str]]) -> RawTable {
+        RawTable {
+            columns: header
+                .iter()
+                .map(|h| {
+                    let (name, unit) = match h.split_once('[') {
+                        Some((n, u)) => (n, Some(u.trim_end_matches(']').to_string())),
+                        None => (*h, None),
+                    };
+                    ColumnMeta {
+                        name: name.to_string(),
+                        unit,
+                        ucd: None,
+                    }
+                })
+                .collect(),
+            rows: rows
+                .iter()
+                .enumerate()
+                .map(|(i, r)| RawRow {
+                    row_number: i + 1,
+                    cells: r
+                        .iter()
+                        .map(|s| {
+                            if s.is_empty() {
+                                Cell::Missing
+                            } else {
+                                Cell::Text(s.to_string())
+                            }
+                        })
+                        .collect(),
+                })
+                .collect(),
+            malformed: vec![],
+        }
+    }
+
+    fn reasons(t: &RawTable, map: Option<&ColumnMap>) -> Vec<(usize, String, String)> {
+        let (_, q, tally) = vet_table("t.csv", t, map).unwrap();
+        assert_eq!(tally.rows_in, tally.rows_accepted + tally.rows_quarantined);
+        q.into_iter().map(|q| (q.row, q.column, q.reason)).collect()
+    }
+
+    #[test]
+    fn every_reason_fires_on_its_row() {
+        let t = table(
+            &[
+                "id",
+                "class",
+                "mass",
+                "mass_err",
+                "mass_limit",
+                "radius",
+                "age",
+                "mu_e",
+            ],
+            &[
+                &["a", "brown_dwarf", "0.05", "0.01", "", "", "", ""],
+                &["", "brown_dwarf", "0.05", "0.01", "", "", "", ""],
+                &["a", "brown_dwarf", "0.05", "0.01", "", "", "", ""],
+                &["c", "", "0.05", "0.01", "", "", "", ""],
+                &["d", "BD", "0.05", "0.01", "", "", "", ""],
+                &["e", "brown_dwarf", "0.05", "0.01", "maybe", "", "", ""],
+                &["f", "brown_dwarf", "", "0.01", "", "", "", ""],
+                &["g", "brown_dwarf", "heavy", "0.01", "", "", "", ""],
+                &["h", "brown_dwarf", "nan", "0.01", "", "", "", ""],
+                &["i", "brown_dwarf", "-0.05", "0.01", "", "", "", ""],
+                &["j", "brown_dwarf", "0.05", "", "", "", "", ""],
+                &["k", "brown_dwarf", "0.05", "0", "", "", "", ""],
+                &["l", "brown_dwarf", "0.05", "0.01", "", "0", "", ""],
+                &["m", "brown_dwarf", "0.05", "0.01", "", "", "-1", ""],
+                &["n", "white_dwarf", "0.6", "0.01", "", "", "", "0.5"],
+                &["o", "brown_dwarf", "0.3", "0.01", "", "", "", ""],
+                &["p", "hburning", "1.2", "0.01", "", "", "", ""],
+                &["q", "white_dwarf", "2.1", "0.01", "", "", "", ""],
+                &["r", "white_dwarf", "0.05", "0.01", "", "", "", ""],
+                &["s", "white_dwarf", "0.6", "inf", "", "", "", ""],
+                &["t", "brown_dwarf", "0.3", "", "upper", "", "", ""],
+                &["u", "white_dwarf", "0.05", "", "lower", "", "", ""],
+                &["v", "hburning", "0.01", "0.001", "", "", "", ""],
+            ],
+        );
+        let got = reasons(&t, None);
+        let want: Vec<(usize, &str, &str)> = vec![
+            (2, "id", reason::MISSING_ID),
+            (3, "id", reason::DUPLICATE_ID),
+            (4, "class", reason::MISSING_CLASS),
+            (5, "class", reason::UNKNOWN_CLASS),
+            (6, "mass_limit", reason::UNKNOWN_LIMIT),
+            (7, "mass", reason::MISSING_MASS),
+            (8, "mass", reason::NOT_A_NUMBER),
+            (9, "mass", reason::NOT_FINITE),
+            (10, "mass", reason::NOT_POSITIVE),
+            (11, "mass_err", reason::MISSING_MASS_ERROR),
+            (12, "mass_err", reason::NOT_POSITIVE),
+            (13, "radius", reason::NOT_POSITIVE),
+            (14, "age", reason::NOT_POSITIVE),
+            (15, "mu_e", reason::MU_E_RANGE),
+            (16, "mass", reason::BD_TOO_HEAVY),
+            (17, "mass", reason::HB_TOO_HEAVY),
+            (18, "mass", reason::WD_TOO_HEAVY),
+            (19, "mass", reason::WD_TOO_LIGHT),
+            (20, "mass_err", reason::NOT_FINITE),
+        ];
+        let want: Vec<(usize, String, String)> = want
+            .into_iter()
+            .map(|(r, c, w)| (r, c.to_string(), w.to_string()))
+            .collect();
+        assert_eq!(got, want);
+    }
+
+    #[test]
+    fn split_errors_limits_and_log_masses() {
+        let t = table(
+            &[
+                "id",
+                "class",
+                "mass[log10(solMass)]",
+                "mass_err_lo",
+                "mass_err_hi",
+                "mass_limit",
+            ],
+            &[
+                &["a", "brown_dwarf", "-1.3", "0.05", "0.1", ""],
+                &["b", "brown_dwarf", "-1.3", "0.05", "", ""],
+                &["c", "brown_dwarf", "-1.3", "", "", "upper"],
+            ],
+        );
+        let (objs, q, _) = vet_table("t.csv", &t, None).unwrap();
+        assert_eq!(objs.len(), 2);
+        let m = 10f64.powf(-1.3);
+        assert!((objs[0].mass_msun - m).abs() < 1e-15);
+        // σ_M = M ln10 σ_log (delta method), each side separately.
+        let ln10 = std::f64::consts::LN_10;
+        assert!((objs[0].mass_err_lo_msun.unwrap() - m * ln10 * 0.05).abs() < 1e-15);
+        assert!((objs[0].mass_err_hi_msun.unwrap() - m * ln10 * 0.1).abs() < 1e-15);
+        assert_eq!(objs[1].mass_limit, MassLimit::Upper);
+        assert_eq!(objs[1].mass_err_lo_msun, None);
+        assert_eq!(q.len(), 1);
+        assert_eq!(
+            (q[0].column.as_str(), q[0].reason.as_str()),
+            ("mass_err_hi", reason::ONE_SIDED_ERROR)
+        );
+    }
+
+    #[test]
+    fn map_renames_relabels_and_sets_units() {
+        let map = ColumnMap::from_toml_str(
+            "[columns]\nid = \"name\"\nclass = \"type\"\nmass = \"m_jup\"\nmass_err = \"e\"\n\
+             [units]\nmass = \"jupiterMass\"\n[classes]\n\"BD\" = \"brown_dwarf\"\n",
+            "m.toml",
+        )
+        .unwrap();
+        let t = table(
+            &["name", "type", "m_jup", "e", "junk"],
+            &[&["x", "BD", "50", "5", "?"], &["y", "BD", "500", "5", "?"]],
+        );
+        let (objs, q, _) = vet_table("t.csv", &t, Some(&map)).unwrap();
+        let mj = crate::constants::mjup_msun();
+        assert_eq!(objs.len(), 1);
+        assert_eq!(objs[0].mass_msun, 50.0 * mj);
+        assert_eq!(objs[0].mass_err_hi_msun, Some(5.0 * mj)); // error inherits the mass unit
+        assert_eq!(q[0].column, "m_jup");
+        assert_eq!(q[0].reason, reason::BD_TOO_HEAVY);
+    }
+
+    #[test]
+    fn whole_file_problems() {
+        let e = |t: RawTable, map: Option<&ColumnMap>| vet_table("f.csv", &t, map).unwrap_err();
+        let err = e(table(&["id", "class", "mass_err"], &[]), None);
+        assert!(matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass"));
+        let err = e(table(&["id", "class", "mass"], &[]), None);
+        assert!(
+            matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass_err")
+        );
+        let err = e(table(&["id", "class", "mass", "mass_err_lo"], &[]), None);
+        assert!(
+            matches!(&err, CatalogueError::MissingColumn { column, .. } if column == "mass_err_hi")
+        );
+        let err = e(
+            table(&["id", "class", "mass[furlong]", "mass_err"], &[]),
+            None,
+        );
+        let msg = err.to_string();
+        assert!(
+            msg.contains("f.csv") && msg.contains("mass") && msg.contains("furlong"),
+            "{msg}"
+        );
+        let err = e(
+            table(&["id", "class", "mass", "mass_err", "mass"], &[]),
+            None,
+        );
+        assert!(matches!(err, CatalogueError::DuplicateColumn { .. }));
+        let map = ColumnMap::from_toml_str("[columns]\nradius = \"r\"\n", "m.toml").unwrap();
+        let err = e(table(&["id", "class", "mass", "mass_err"], &[]), Some(&map));
+        assert!(err.to_string().contains("`r`"), "{err}");
+    }
+
+    #[test]
+    fn malformed_rows_are_quarantined_with_reader_reason() {
+        let mut t = table(
+            &["id", "class", "mass", "mass_err"],
+            &[
+                &["a", "white_dwarf", "0.6", "0.1"],
+                &["b", "white_dwarf", "", ""],
+            ],
+        );
+        t.malformed.push((2, "expected 4 fields, found 2".into()));
+        let got = reasons(&t, None);
+        assert_eq!(
+            got,
+            vec![(
+                2,
+                "(row)".to_string(),
+                "malformed row: expected 4 fields, found 2".to_string()
+            )]
+        );
+    }
+
+    #[test]
+    fn reconciliation_check_is_typed() {
+        let bad = CatalogueTally {
+            path: "x.csv".into(),
+            rows_in: 3,
+            rows_accepted: 1,
+            rows_quarantined: 1,
+        };
+        let e = check_reconciled(&bad).unwrap_err();
+        assert!(e.is_internal());
+        assert!(e.to_string().contains("x.csv"));
+        let good = CatalogueTally {
+            rows_quarantined: 2,
+            ..bad
+        };
+        assert!(check_reconciled(&good).is_ok());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+        /// Any mix of awkward cells: no panic, and rows in = accepted + quarantined.
+        #[test]
+        fn any_cells_reconcile(rows in proptest::collection::vec(
+            proptest::collection::vec(proptest::sample::select(vec![
+                "", " ", "a", "a", "b", "brown_dwarf", "white_dwarf", "hburning", "BD", "upper",
+                "lower", "0", "-1", "0.05", "0.6", "1e400", "nan", "-inf", "2.5", "x,y", "1e-300",
+                "-400",
+            ]), 9),
+            0..12,
+        )) {
+            let header = ["id", "class", "mass[log10(solMass)]", "mass_err_lo", "mass_err_hi",
+                "mass_limit", "radius", "age", "mu_e"];
+            let rows: Vec<Vec<&str>> = rows;
+            let refs: Vec<&[&str]> = rows.iter().map(Vec::as_slice).collect();
+            let t = table(&header, &refs);
+            let (objs, q, tally) = vet_table("p.csv", &t, None).unwrap();
+            proptest::prop_assert_eq!(tally.rows_in, objs.len() + q.len());
+            for o in &objs {
+                proptest::prop_assert!(o.mass_msun.is_finite() && o.mass_msun > 0.0);
+                for e in [o.mass_err_lo_msun, o.mass_err_hi_msun].into_iter().flatten() {
+                    proptest::prop_assert!(e.is_finite() && e > 0.0);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn numeric_ids_print_as_integers() {
+        assert_eq!(cell_text(&Cell::Number(12345.0)).as_deref(), Some("12345"));
+        assert_eq!(cell_text(&Cell::Number(1.5)).as_deref(), Some("1.5"));
+        assert_eq!(cell_text(&Cell::Text("  x ".into())).as_deref(), Some("x"));
+    }
+}
