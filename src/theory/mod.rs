@@ -5,6 +5,8 @@
 //! Chandrasekhar mass, white-dwarf mass–radius relation, break-up period, Schönberg–Chandrasekhar
 //! fraction), with typed errors where no star exists.
 
+pub mod error;
+pub mod lane_emden;
 pub mod ode;
 
 use serde::{Deserialize, Serialize};
