@@ -4,7 +4,7 @@
 
 use dwarfbound::theory::error::TheoryError;
 use dwarfbound::theory::lane_emden::{
-    solve_lane_emden, LaneEmdenOptions, LaneEmdenSolution, ModifiedLaneEmden,
+    solve_lane_emden, LaneEmdenOptions, LaneEmdenSolution, ModifiedLaneEmden, SurfaceMethod,
 };
 use dwarfbound::theory::Anisotropy;
 use proptest::prelude::*;
@@ -251,6 +251,31 @@ fn against_independent_scipy_reference() {
         rows += 1;
     }
     assert_eq!(rows, 72);
+}
+
+#[test]
+fn surface_methods_agree() {
+    // structure.md §6 item 2 (computed there): event-plus-Newton and variable-swap surface
+    // location agree to ≤ 1e-10 on n ∈ {3/2, 3}, Υ ∈ {−0.5, −0.2, 0, 0.1, 0.3, 0.6},
+    // τ ∈ {−0.2, 0, 0.2}.
+    let mut en = LaneEmdenOptions::with_extra_powers(&[9.73]);
+    en.surface = SurfaceMethod::EventNewton;
+    let sw = LaneEmdenOptions::with_extra_powers(&[9.73]);
+    for n in [1.5, 3.0] {
+        for u in [-0.5, -0.2, 0.0, 0.1, 0.3, 0.6] {
+            for t in [-0.2, 0.0, 0.2] {
+                for ans in [Anisotropy::DensitySquared, Anisotropy::Gradient] {
+                    let le = ModifiedLaneEmden::new(n, u, t, ans).unwrap();
+                    let a = le.solve(&en).unwrap();
+                    let b = le.solve(&sw).unwrap();
+                    assert!(rel(a.xi1, b.xi1) < 1e-10, "{n} {u} {t} {ans:?}");
+                    assert!(rel(a.omega, b.omega) < 1e-10, "{n} {u} {t} {ans:?}");
+                    let (ja, jb) = (a.extra_integrals[0].1, b.extra_integrals[0].1);
+                    assert!(rel(ja, jb) < 1e-10, "{n} {u} {t} {ans:?}");
+                }
+            }
+        }
+    }
 }
 
 // ---------------------------------------------------------------------------------------------

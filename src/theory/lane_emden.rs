@@ -51,11 +51,30 @@ pub struct LaneEmdenOptions {
     /// Exponents k of extra integrals J_k = ∫₀^{ξ1} ξ² θ^k dξ, integrated as extra state
     /// components (at most [`MAX_EXTRA_INTEGRALS`]; `bounds.md` model A needs k = 9.73).
     pub extra_powers: Vec<f64>,
+    /// How the surface θ = 0 is reached.
+    pub surface: SurfaceMethod,
+}
+
+/// How the surface is located (`structure.md` §3.5.3; both agree to ≤ 1e-10).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SurfaceMethod {
+    /// Integrate in ξ until θ changes sign, find the root on the dense output, then one Newton
+    /// step ξ1 ← ξ_e − θ/θ′ (§3.5.3 method i). Near the surface θ^{n−1} makes θ″ singular for
+    /// 1 < n < 2 with Υ ≠ 0, so the steps that straddle it shrink to ~1e-5.
+    EventNewton,
+    /// Integrate in ξ down to θ = `theta_switch`, then take s = √θ as the independent variable
+    /// and integrate dξ/ds = 2s/θ′ (and μ, J_k alike) to s = 0 exactly (a variant of §3.5.3
+    /// method ii: in s the half-integer powers θ^{n−1} = s^{2n−2} are smooth, so it needs far
+    /// fewer steps). The default.
+    SqrtSwap {
+        /// θ at which the variable changes (0.05 in the spec's reference).
+        theta_switch: f64,
+    },
 }
 
 impl Default for LaneEmdenOptions {
     /// rtol 1e-12, atol 1e-14 (the reference tolerances of `structure.md` §3.5), ξ₀ = 1e-4,
-    /// ξ_max = 1e4, no extra integrals.
+    /// ξ_max = 1e4, no extra integrals, surface by [`SurfaceMethod::SqrtSwap`] at θ = 0.05.
     fn default() -> Self {
         Self {
             rtol: 1e-12,
@@ -63,6 +82,7 @@ impl Default for LaneEmdenOptions {
             xi_start: 1e-4,
             xi_max: 1e4,
             extra_powers: Vec::new(),
+            surface: SurfaceMethod::SqrtSwap { theta_switch: 0.05 },
         }
     }
 }
@@ -351,7 +371,7 @@ impl ModifiedLaneEmden {
     fn integrate<const N: usize>(
         &self,
         opts: &LaneEmdenOptions,
-        xi_target: Option<f64>,
+        theta_stop: f64,
     ) -> Result<(f64, [f64; N], Stop), TheoryError> {
         let powers: [f64; N] = std::array::from_fn(|i| {
             if i >= 2 {
@@ -382,9 +402,8 @@ impl ModifiedLaneEmden {
         });
         let mut oo = OdeOptions::<N>::new(opts.rtol, opts.atol, x0);
         oo.max_steps = 200_000;
-        let x_end = xi_target.unwrap_or(opts.xi_max);
-        let mut g = |_x: f64, y: &[f64; N]| y[0];
-        let sol = ode::solve(rhs, x0, y0, x_end, &oo, Some(&mut g))?;
+        let mut g = |_x: f64, y: &[f64; N]| y[0] - theta_stop;
+        let sol = ode::solve(rhs, x0, y0, opts.xi_max, &oo, Some(&mut g))?;
         Ok((sol.x, sol.y, sol.stop))
     }
 
@@ -410,6 +429,11 @@ impl ModifiedLaneEmden {
         if !(opts.xi_max > 1.0 && opts.xi_max.is_finite()) {
             return bad("xi_max", opts.xi_max, "must be finite and > 1");
         }
+        if let SurfaceMethod::SqrtSwap { theta_switch } = opts.surface {
+            if !(theta_switch > 0.0 && theta_switch <= 0.5) {
+                return bad("theta_switch", theta_switch, "must lie in (0, 0.5]");
+            }
+        }
         if !(opts.rtol > 0.0 && opts.atol > 0.0) {
             return bad("rtol", opts.rtol, "tolerances must be positive");
         }
@@ -430,25 +454,19 @@ impl ModifiedLaneEmden {
         &self,
         opts: &LaneEmdenOptions,
     ) -> Result<LaneEmdenSolution, TheoryError> {
-        let (xe, ye, stop) = self.integrate::<N>(opts, None)?;
+        let theta_stop = match opts.surface {
+            SurfaceMethod::EventNewton => 0.0,
+            SurfaceMethod::SqrtSwap { theta_switch } => theta_switch,
+        };
+        let (xe, ye, stop) = self.integrate::<N>(opts, theta_stop)?;
         if stop != Stop::Event {
             return Err(TheoryError::NoSurface { xi_reached: xe });
         }
-        // One Newton step from the event point (valid for n ≥ 1, §3.5.3): it removes what the
-        // dense-output root leaves of θ and carries μ and J_k along the tangent.
-        let mut xi1 = xe;
-        let mut y = ye;
-        if self.n >= 1.0 {
-            let [dt, dm] = self.derivatives(xe, ye[0], ye[1])?;
-            if dt < 0.0 && dt.is_finite() {
-                let dx = -ye[0] / dt;
-                xi1 = xe + dx;
-                y[1] += dm * dx;
-                for (i, k) in opts.extra_powers.iter().enumerate() {
-                    y[2 + i] += xe * xe * pos_pow(ye[0], *k) * dx;
-                }
-            }
-        }
+        let (xi1, y) = if theta_stop > 0.0 {
+            self.sqrt_swap::<N>(opts, xe, ye)?
+        } else {
+            self.newton_step::<N>(opts, xe, ye)?
+        };
         let omega = y[1];
         let [dt1, _] = self.derivatives(xi1, 0.0, omega)?;
         Ok(LaneEmdenSolution {
@@ -467,6 +485,78 @@ impl ModifiedLaneEmden {
                 .collect(),
             below_relativistic_bound: self.upsilon < UPSILON_RELATIVISTIC_MIN,
         })
+    }
+
+    /// One Newton step from the event point (valid for n ≥ 1, §3.5.3): it removes what the
+    /// dense-output root leaves of θ and carries μ and J_k along the tangent.
+    fn newton_step<const N: usize>(
+        &self,
+        opts: &LaneEmdenOptions,
+        xe: f64,
+        ye: [f64; N],
+    ) -> Result<(f64, [f64; N]), TheoryError> {
+        let mut xi1 = xe;
+        let mut y = ye;
+        if self.n >= 1.0 {
+            let [dt, dm] = self.derivatives(xe, ye[0], ye[1])?;
+            if dt < 0.0 && dt.is_finite() {
+                let dx = -ye[0] / dt;
+                xi1 = xe + dx;
+                y[1] += dm * dx;
+                for (i, k) in opts.extra_powers.iter().enumerate() {
+                    y[2 + i] += xe * xe * pos_pow(ye[0], *k) * dx;
+                }
+            }
+        }
+        Ok((xi1, y))
+    }
+
+    /// From θ = θ_switch at ξ_e to the surface with s = √θ as the independent variable; the
+    /// state becomes (ξ, μ, J_k…). θ′ < 0 there for every supported case (μ dominates the
+    /// numerator near the surface); a non-negative θ′ is refused rather than divided by.
+    fn sqrt_swap<const N: usize>(
+        &self,
+        opts: &LaneEmdenOptions,
+        xe: f64,
+        ye: [f64; N],
+    ) -> Result<(f64, [f64; N]), TheoryError> {
+        let n_extra = opts.extra_powers.len();
+        let powers: [f64; N] = std::array::from_fn(|i| {
+            if i >= 2 {
+                opts.extra_powers.get(i - 2).copied().unwrap_or(0.0)
+            } else {
+                0.0
+            }
+        });
+        let rhs = |s: f64, z: &[f64; N]| -> Result<[f64; N], TheoryError> {
+            let theta = s * s;
+            let xi = z[0];
+            let [dt, dm] = self.derivatives(xi, theta, z[1])?;
+            if dt.is_nan() || dt >= 0.0 {
+                return Err(TheoryError::NumericalFailure {
+                    xi,
+                    why: "θ′ ≥ 0 near the surface",
+                });
+            }
+            let dxi = 2.0 * s / dt;
+            let x2 = xi * xi;
+            Ok(std::array::from_fn(|i| match i {
+                0 => dxi,
+                1 => dm * dxi,
+                _ if i - 2 < n_extra => x2 * pos_pow(theta, powers[i]) * dxi,
+                _ => 0.0,
+            }))
+        };
+        let s0 = ye[0].max(0.0).sqrt();
+        let mut z0 = ye;
+        z0[0] = xe;
+        let mut oo = OdeOptions::<N>::new(opts.rtol, opts.atol, s0 / 16.0);
+        oo.max_steps = 200_000;
+        let sol = ode::solve(rhs, s0, z0, 0.0, &oo, None)?;
+        let mut y = sol.y;
+        let xi1 = y[0];
+        y[0] = 0.0;
+        Ok((xi1, y))
     }
 
     /// θ and μ at `count` equally spaced ξ in (0, ξ1] (the last point is the surface, θ = 0),
