@@ -8,6 +8,8 @@
 pub mod error;
 pub mod lane_emden;
 pub mod ode;
+pub mod rotation;
+pub mod white_dwarf;
 
 use serde::{Deserialize, Serialize};
 
