@@ -189,11 +189,8 @@ impl ChandrasekharEos {
         // u_c = y_c − 1 without cancellation.
         let u_c = x_c * x_c / (y_c + 1.0);
         let big_a = self.p * x_c.powi(3) * (1.0 / 3.0 + self.c) / 2.0;
-        let big_b = 0.75
-            * x_c
-            * y_c
-            * big_a
-            * (self.kappa * self.upsilon / 2.0 + self.p * (0.2 + self.c));
+        let big_b =
+            0.75 * x_c * y_c * big_a * (self.kappa * self.upsilon / 2.0 + self.p * (0.2 + self.c));
         let eta0 = if x_c > 1.0 {
             1e-4 / x_c
         } else {
@@ -359,8 +356,8 @@ impl WdMassRadius {
                 why: "needs log10_xc_max > log10_xc_min and ≥ 2 points per decade",
             });
         }
-        let count = ((opts.log10_xc_max - opts.log10_xc_min) * opts.points_per_decade as f64)
-            .ceil() as usize
+        let count = ((opts.log10_xc_max - opts.log10_xc_min) * opts.points_per_decade as f64).ceil()
+            as usize
             + 1;
         let mut log10_xc = Vec::with_capacity(count);
         let mut mass = Vec::with_capacity(count);
@@ -460,10 +457,7 @@ impl WdMassRadius {
         if m <= self.mass_dimless[0] {
             // n = 3/2 polytrope: m ∝ x_c^{3/2}, η ∝ x_c^{−1/2}.
             let r = (m / self.mass_dimless[0]).ln();
-            return (
-                ln_xc(0) + r / 1.5,
-                self.radius_dimless[0].ln() - r / 3.0,
-            );
+            return (ln_xc(0) + r / 1.5, self.radius_dimless[0].ln() - r / 3.0);
         }
         if m >= self.mass_dimless[n - 1] {
             // m = m_Ch(1 − k/x_c²) with k from the last model; η ∝ 1/x_c.
@@ -474,11 +468,19 @@ impl WdMassRadius {
         }
         let i = self.mass_dimless.partition_point(|v| *v <= m) - 1;
         // log10 of m and η at the nodes a degree-5 stencil around i can touch.
-        let lo = (i + 1).saturating_sub(LAGRANGE_POINTS / 2).min(n.saturating_sub(LAGRANGE_POINTS));
+        let lo = (i + 1)
+            .saturating_sub(LAGRANGE_POINTS / 2)
+            .min(n.saturating_sub(LAGRANGE_POINTS));
         let hi = (lo + LAGRANGE_POINTS).min(n);
         let xk = &self.log10_xc[lo..hi];
-        let ym: Vec<f64> = self.mass_dimless[lo..hi].iter().map(|v| v.log10()).collect();
-        let ye: Vec<f64> = self.radius_dimless[lo..hi].iter().map(|v| v.log10()).collect();
+        let ym: Vec<f64> = self.mass_dimless[lo..hi]
+            .iter()
+            .map(|v| v.log10())
+            .collect();
+        let ye: Vec<f64> = self.radius_dimless[lo..hi]
+            .iter()
+            .map(|v| v.log10())
+            .collect();
         let il = i - lo;
         let target = m.log10();
         let f = |t: f64| lagrange6(xk, &ym, il, t) - target;
