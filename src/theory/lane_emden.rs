@@ -110,7 +110,7 @@ pub struct ModifiedLaneEmden {
 }
 
 /// One solved polytrope: the surface and the constants derived from it, in true-G units.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct LaneEmdenSolution {
     /// Polytropic index.
     pub n: f64,
