@@ -351,6 +351,12 @@ fn typed_errors_at_existence_bounds() {
         ModifiedLaneEmden::new(1.5, f64::NAN, 0.0, Anisotropy::None),
         Err(TheoryError::InvalidParameter { .. })
     ));
+    // Very large Υ: θ ∝ ξ^{−4/3} creeps towards 0 without a surface (n = 3/2; from the
+    // asymptotic form of the §3.2 system, θ′ ≈ −(4/3)θ/ξ when the Υ terms dominate).
+    assert!(matches!(
+        solve_lane_emden(1.5, 50.0, 0.0, Anisotropy::None),
+        Err(TheoryError::NoSurface { .. })
+    ));
     // 0 < n < 1 at Υ = 0 is fine.
     let s = le(0.5, 0.0, 0.0, Anisotropy::None);
     assert!(s.xi1 > 2.4 && s.xi1 < 3.2);

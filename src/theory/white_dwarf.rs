@@ -223,6 +223,9 @@ impl ChandrasekharEos {
         // s = √u: dη/ds = 2s/u′, dm/ds = m′ dη/ds.
         let s0 = sol.y[0].max(0.0).sqrt();
         let rhs = |s: f64, z: &[f64; 2]| -> Result<[f64; 2], TheoryError> {
+            if z[0].is_nan() || z[0] > eta_max {
+                return Err(TheoryError::NoSurface { xi_reached: z[0] });
+            }
             let [du, dm] = self.derivatives(z[0], s * s, z[1])?;
             if du.is_nan() || du >= 0.0 {
                 return Err(TheoryError::NumericalFailure {
