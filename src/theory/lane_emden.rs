@@ -140,9 +140,12 @@ impl LaneEmdenSolution {
     }
 
     /// N_n of K = N_n G M^{(n−1)/n} R^{(3−n)/n}: [(4π)^{1/n}/(n+1)] ξ1^{(n−3)/n} ω^{−(n−1)/n}
-    /// (`structure.md` §3.4). Undefined (infinite) for n = 0.
+    /// (`structure.md` §3.4). For n = 0 (incompressible: no K relation) it is +∞.
     pub fn n_n(&self) -> f64 {
         let n = self.n;
+        if n == 0.0 {
+            return f64::INFINITY;
+        }
         (4.0 * std::f64::consts::PI).powf(1.0 / n) / (n + 1.0)
             * self.xi1.powf((n - 3.0) / n)
             * self.omega.powf(-(n - 1.0) / n)
