@@ -5,6 +5,8 @@
 //! Chandrasekhar mass, white-dwarf mass–radius relation, break-up period, Schönberg–Chandrasekhar
 //! fraction), with typed errors where no star exists.
 
+pub mod mmhb;
+
 use serde::{Deserialize, Serialize};
 
 /// The pressure-anisotropy ansatz that τ parametrises (`theory/structure.md` §2).
