@@ -6,6 +6,7 @@
 //! fraction), with typed errors where no star exists.
 
 pub mod mmhb;
+pub mod ode;
 
 use serde::{Deserialize, Serialize};
 
