@@ -344,3 +344,126 @@ fn anchoring_and_modes() {
     assert!(evaluate(&cfg, &bad, &standard(), 1.0).is_err());
     assert!(evaluate(&cfg, &standard(), &standard(), 0.0).is_err());
 }
+
+mod schonberg_chandrasekhar {
+    use super::assert_rel;
+    use dwarfbound::theory::mmhb::BoundError;
+    use dwarfbound::theory::schonberg::*;
+
+    const UPSILONS: [f64; 7] = [-0.3, -0.1, -0.05, 0.027, 0.05, 0.1, 0.3];
+
+    #[test]
+    fn bonnor_ebert_constant() {
+        // Verified: Bonnor 1956 (MNRAS 116, 351) / Ebert 1955 give 1.40 at ζ = 6.451;
+        // bounds.md §7.1 / §9 give 1.397660 at 6.450751 (computed).
+        let be = bonnor_ebert(0.0).unwrap();
+        assert_rel("C_BE", be.c_be, 1.397_660, 1e-6);
+        assert_rel("zeta_BE", be.zeta, 6.450_751, 1e-6);
+        assert_rel("C_BE vs Bonnor/Ebert 1.40", be.c_be, 1.40, 2.5e-3);
+        assert_rel("zeta_BE vs Bonnor/Ebert 6.451", be.zeta, 6.451, 1e-4);
+    }
+
+    #[test]
+    fn standard_gravity_fit_values() {
+        // bounds.md §7.1 (computed): q_fit for an n = 3 envelope.
+        for (lambda, want) in [
+            (0.3, 0.025_13),
+            (0.46, 0.064_61),
+            (0.5, 0.078_33),
+            (0.6, 0.120_40),
+            (1.0, 0.359_17),
+        ] {
+            let fit =
+                core_envelope_fit(lambda, 0.0, 3.0, InterfaceCondition::ContinuousPTilde).unwrap();
+            assert_rel("q_fit", fit.q, want, 1e-3);
+            assert!(
+                (6.4..9.0).contains(&fit.zeta_f),
+                "maximum near the Bonnor-Ebert point: {}",
+                fit.zeta_f
+            );
+        }
+        // Other envelope indices at λ = 0.5 (bounds.md §7.1, computed): 0.379 λ², 0.286 λ².
+        for (n, want) in [(2.5, 0.379), (3.25, 0.286)] {
+            let fit = core_envelope_fit(0.5, 0.0, n, InterfaceCondition::ContinuousPTilde).unwrap();
+            assert_rel("q_fit/lambda^2 vs n_env", fit.q / 0.25, want, 1.5e-3);
+        }
+    }
+
+    #[test]
+    fn modified_gravity_ratio_table() {
+        // bounds.md §7.2 table (computed), n_env = 3.
+        let tables: [(&str, [f64; 7]); 4] = [
+            (
+                "lambda 0.5 full fit",
+                [1.0922, 1.0295, 1.0146, 0.9922, 0.9857, 0.9716, 0.9178],
+            ),
+            (
+                "lambda 0.46 full fit",
+                [1.0889, 1.0285, 1.0141, 0.9925, 0.9862, 0.9726, 0.9204],
+            ),
+            (
+                "core factor only",
+                [1.0640, 1.0185, 1.0090, 0.9954, 0.9915, 0.9834, 0.9548],
+            ),
+            (
+                "lambda 0.5 jump ignored",
+                [1.1497, 1.0450, 1.0220, 0.9885, 0.9789, 0.9586, 0.8846],
+            ),
+        ];
+        let q0 = |lambda: f64| {
+            core_envelope_fit(lambda, 0.0, 3.0, InterfaceCondition::ContinuousPTilde)
+                .unwrap()
+                .q
+        };
+        let (q05, q046) = (q0(0.5), q0(0.46));
+        let c0 = bonnor_ebert(0.0).unwrap().c_be;
+        for (i, &u) in UPSILONS.iter().enumerate() {
+            let full = |lambda: f64, c| core_envelope_fit(lambda, u, 3.0, c).unwrap().q;
+            let got = [
+                full(0.5, InterfaceCondition::ContinuousPTilde) / q05,
+                full(0.46, InterfaceCondition::ContinuousPTilde) / q046,
+                (bonnor_ebert(u).unwrap().c_be / c0).sqrt(),
+                full(0.5, InterfaceCondition::ContinuousPressure) / q05,
+            ];
+            for ((name, want), g) in tables.iter().zip(got) {
+                assert_rel(name, g, want[i], 1e-3);
+            }
+        }
+    }
+
+    #[test]
+    fn reported_fraction_and_refusals() {
+        let p = ScParams::default();
+        let lambda = 0.62 / 1.33;
+        // Standard gravity: the classic 0.37 λ² (Schönberg & Chandrasekhar 1942), ≈ 0.080.
+        let q = sc_fraction(0.0, 0.0, &p, ScVariant::FullFit).unwrap();
+        assert_rel("q_SC(0)", q.q_sc, 0.37 * lambda * lambda, 1e-14);
+        assert_rel(
+            "q_SC(0) ≈ 0.080 (bounds.md §7, rounded)",
+            q.q_sc,
+            0.080,
+            6e-3,
+        );
+        // Υ ≠ 0: 0.37 λ² × the fit ratio at the default λ (definition, bounds.md §7.2).
+        let q1 = sc_fraction(0.1, 0.0, &p, ScVariant::FullFit).unwrap();
+        let ratio = core_envelope_fit(lambda, 0.1, 3.0, InterfaceCondition::ContinuousPTilde)
+            .unwrap()
+            .q
+            / core_envelope_fit(lambda, 0.0, 3.0, InterfaceCondition::ContinuousPTilde)
+                .unwrap()
+                .q;
+        assert_rel("q_SC ratio", q1.ratio, ratio, 1e-14);
+        assert!(q1.ratio < 1.0 && q1.ratio > 0.97);
+        let c1 = sc_fraction(0.1, 0.0, &p, ScVariant::CoreFactorOnly).unwrap();
+        assert_rel("core-factor-only ratio", c1.ratio, 0.9834, 1e-3);
+        // τ ≠ 0 is refused (bounds.md §7.2: not specified for anisotropy).
+        match sc_fraction(0.0, 0.1, &p, ScVariant::FullFit) {
+            Err(BoundError::NotSpecified { reason }) => {
+                assert!(reason.contains("not specified for anisotropy"), "{reason}")
+            }
+            other => panic!("expected a refusal, got {other:?}"),
+        }
+        // Υ at the existence bound: typed error, never NaN.
+        assert!(sc_fraction(-0.7, 0.0, &p, ScVariant::FullFit).is_err());
+    }
+}

@@ -7,6 +7,7 @@
 
 pub mod mmhb;
 pub mod ode;
+pub mod schonberg;
 
 use serde::{Deserialize, Serialize};
 
