@@ -336,6 +336,36 @@ fn anchoring_and_modes() {
     .unwrap();
     assert_eq!(raw_b.floor_msun, 0.014);
     assert_rel("raw B", raw_b.value_msun, 0.108_993_29, 1e-6);
+    // Optional model-difference term |Φ_A − Φ_B|·M_anchor in quadrature (bounds.md §4).
+    let le2 = PolytropeConstants {
+        xi1: 3.471_066_05,
+        omega: 2.985_460_63,
+        j_k: 0.188_646_04,
+        k: 9.73,
+    };
+    let with_diff = evaluate(
+        &MmhbConfig {
+            model_difference_in_floor: true,
+            ..cfg
+        },
+        &le2,
+        &standard(),
+        1.0,
+    )
+    .unwrap();
+    let diff = (1.123_710_73 - le2.omega / standard().omega).abs() * 0.075;
+    assert_rel(
+        "model difference",
+        with_diff.model_difference_msun.unwrap(),
+        diff,
+        1e-6,
+    );
+    assert_rel(
+        "floor with model difference",
+        with_diff.floor_msun,
+        0.005f64.hypot(diff),
+        1e-6,
+    );
     // Bad input is a typed error, never NaN.
     let bad = PolytropeConstants {
         omega: f64::NAN,

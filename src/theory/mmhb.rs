@@ -299,7 +299,7 @@ impl ModelAParams {
             }
         }
         let x = self.exponents();
-        if !(x.p > 0.0) {
+        if !(x.p.is_finite() && x.p > 0.0) {
             return Err(invalid(format!(
                 "model A needs p = p_HB - p_e > 0 (burning steeper in M than the surface), got p = {}",
                 x.p
@@ -725,6 +725,9 @@ pub struct MmhbConfig {
     pub model_a: ModelAParams,
     /// Parameters of model B.
     pub model_b: ModelBParams,
+    /// Add the model difference |Φ_A − Φ_B| × (anchor, or the raw standard-gravity value) to the
+    /// floor in quadrature (optional in `bounds.md` §4, for Υ far from zero; default off).
+    pub model_difference_in_floor: bool,
 }
 
 /// The MMHB bound at one (Υ, τ), with what a report must state about it.
@@ -732,7 +735,8 @@ pub struct MmhbConfig {
 pub struct MmhbBound {
     /// The bound used against data (anchored or raw), M☉.
     pub value_msun: f64,
-    /// 1σ theory floor, M☉.
+    /// 1σ theory floor, M☉ (the mode's floor, with the model difference in quadrature when
+    /// asked for).
     pub floor_msun: f64,
     /// The model.
     pub model: MmhbModel,
@@ -744,6 +748,8 @@ pub struct MmhbBound {
     pub raw_msun: f64,
     /// Φ = raw(Υ,τ)/raw(0,0) of the selected model.
     pub phi: f64,
+    /// The model-difference term included in `floor_msun`, M☉ (when asked for).
+    pub model_difference_msun: Option<f64>,
     /// Photospheric gravity factor used by model A (1 = exterior gravity).
     pub photosphere_g_factor: f64,
 }
@@ -769,6 +775,17 @@ pub fn evaluate(
         ),
     };
     let phi = finite_result("Phi", raw / raw0)?;
+    let phi_other = if config.model_difference_in_floor {
+        Some(match config.model {
+            MmhbModel::LuminosityBalance => phi_b(le, reference)?,
+            MmhbModel::IgnitionTemperature => {
+                model_a(le, &config.model_a, photosphere_g_factor)?.mmhb_msun
+                    / model_a(reference, &config.model_a, 1.0)?.mmhb_msun
+            }
+        })
+    } else {
+        None
+    };
     let (value, floor, anchor) = match config.mode {
         MmhbMode::Anchored {
             anchor_msun,
@@ -788,6 +805,12 @@ pub fn evaluate(
         }
         MmhbMode::Raw => (raw, config.model.raw_floor_msun(), None),
     };
+    let scale_msun = anchor.unwrap_or(raw0);
+    let model_difference_msun = phi_other.map(|o| (phi - o).abs() * scale_msun);
+    let floor = match model_difference_msun {
+        Some(d) => floor.hypot(d),
+        None => floor,
+    };
     Ok(MmhbBound {
         value_msun: value,
         floor_msun: floor,
@@ -796,6 +819,7 @@ pub fn evaluate(
         anchor_msun: anchor,
         raw_msun: raw,
         phi,
+        model_difference_msun,
         photosphere_g_factor,
     })
 }

@@ -190,7 +190,7 @@ fn q_at(
             2.0 * p_tilde / (1.0 / lambda + disc.sqrt())
         }
     };
-    if !(w_e > 0.0) {
+    if !(w_e.is_finite() && w_e > 0.0) {
         return Err(BoundError::NoConvergence {
             reason: format!("envelope density {w_e} not positive at zeta_f = {zeta_f}"),
         });
