@@ -5,9 +5,13 @@
 //! Chandrasekhar mass, white-dwarf mass–radius relation, break-up period, Schönberg–Chandrasekhar
 //! fraction), with typed errors where no star exists.
 
+pub mod error;
+pub mod lane_emden;
 pub mod mmhb;
 pub mod ode;
+pub mod rotation;
 pub mod schonberg;
+pub mod white_dwarf;
 
 use serde::{Deserialize, Serialize};
 
