@@ -151,7 +151,7 @@ pub fn bonnor_ebert(upsilon: f64) -> Result<BonnorEbert, BoundError> {
     })
 }
 
-/// The fitted fraction at one core edge ζ_f, and the envelope's mass integrals.
+/// The core mass fraction q = μ_f/μ₁ of the fit with the core cut at ζ_f (`bounds.md` §7.1 steps 1–4).
 fn q_at(
     lambda: f64,
     upsilon: f64,
