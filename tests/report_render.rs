@@ -147,7 +147,11 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 count: 31,
             },
             anisotropy: "quadratic in density".into(),
-            points_without_model: 6,
+            points_without_model: synthetic_map()
+                .delta_chi2
+                .iter()
+                .filter(|v| v.is_none())
+                .count(),
         },
         catalogues: vec![CatalogueSummary {
             path: "catalogs-demo/<script>alert(1)</script>.csv".into(),

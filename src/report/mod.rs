@@ -15,6 +15,7 @@
 //! # Ok(()) }
 //! ```
 
+mod bitmap_text;
 mod contour;
 mod document;
 mod html;

@@ -19,26 +19,28 @@
 
 use std::sync::OnceLock;
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
-use plotters::style::{FontDesc, FontFamily, FontStyle};
+use plotters::style::{FontDesc, FontFamily, FontStyle, FontTransform};
 
+use super::bitmap_text::{draw_text_glyphwise, FontMetrics};
 use super::contour::{region_loops, Loop};
 use super::input::{AllowedMap, BoundsCurves};
 use super::ReportError;
 
 /// The font family name under which the embedded font is registered. It doubles as the SVG
 /// `font-family` value, so a browser without DejaVu Sans falls back to its own sans-serif.
-const FONT: &str = "DejaVu Sans, sans-serif";
-static FONT_BYTES: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
+pub(crate) const FONT: &str = "DejaVu Sans, sans-serif";
+pub(crate) static FONT_BYTES: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
 
 /// Pixel size of the allowed-region map.
 pub const ALLOWED_SIZE: (u32, u32) = (1000, 720);
 /// Width of the bounds figure; its height grows with the number of panels.
 pub const BOUNDS_WIDTH: u32 = 1100;
 
-fn ensure_font() -> Result<(), ReportError> {
+pub(crate) fn ensure_font() -> Result<(), ReportError> {
     static REGISTERED: OnceLock<bool> = OnceLock::new();
     let ok = *REGISTERED.get_or_init(|| {
         plotters::style::register_font(FONT, FontStyle::Normal, FONT_BYTES).is_ok()
@@ -153,6 +155,90 @@ fn err<E: std::fmt::Display>(e: E) -> String {
     e.to_string()
 }
 
+/// How text is put on a figure: whole strings (SVG, where the viewer lays text out) or glyph by
+/// glyph with corrected bearings (PNG, see [`super::bitmap_text`]).
+#[derive(Clone, Copy)]
+struct Pen<'m> {
+    glyphs: Option<&'m FontMetrics<'static>>,
+}
+
+impl Pen<'_> {
+    fn text<DB: DrawingBackend>(
+        &self,
+        area: &DrawingArea<DB, Shift>,
+        text: &str,
+        style: &TextStyle<'_>,
+        pos: (i32, i32),
+    ) -> DrawResult {
+        match self.glyphs {
+            Some(m) => draw_text_glyphwise(area, text, style, pos, m),
+            None => area.draw_text(text, style, pos).map_err(err),
+        }
+    }
+}
+
+const SVG_PEN: Pen<'static> = Pen { glyphs: None };
+
+/// The PNG pen: glyph-wise text when the font's metrics can be read, else plotters' own.
+fn png_pen() -> Pen<'static> {
+    static METRICS: OnceLock<Option<FontMetrics<'static>>> = OnceLock::new();
+    Pen {
+        glyphs: METRICS
+            .get_or_init(|| FontMetrics::parse(FONT_BYTES))
+            .as_ref(),
+    }
+}
+
+/// Tick labels and axis descriptions, drawn with the pen (plotters' mesh draws only lines).
+#[allow(clippy::too_many_arguments)]
+fn draw_axis_text<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    chart: &ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+    ticks: (usize, usize),
+    decimals: (usize, usize),
+    x_desc: &str,
+    y_desc: &str,
+    sizes: (f64, f64),
+    pen: Pen<'_>,
+) -> DrawResult {
+    let spec = chart.as_coord_spec();
+    let (x_range, y_range) = (spec.get_x_range(), spec.get_y_range());
+    let label = text_style(sizes.0);
+    let (left, top) = chart.backend_coord(&(x_range.start, y_range.end));
+    let (right, bottom) = chart.backend_coord(&(x_range.end, y_range.start));
+    let (mut lowest_label_edge, mut leftmost_label_edge) = (bottom, left);
+    for x in spec.x_spec().key_points(ticks.0) {
+        let (px, _) = chart.backend_coord(&(x, y_range.start));
+        let style = label.pos(Pos::new(HPos::Center, VPos::Top));
+        pen.text(root, &fmt_tick(x, decimals.0), &style, (px, bottom + 9))?;
+        let (_, h) = root.estimate_text_size("0", &style).map_err(err)?;
+        lowest_label_edge = lowest_label_edge.max(bottom + 9 + h as i32);
+    }
+    for y in spec.y_spec().key_points(ticks.1) {
+        let (_, py) = chart.backend_coord(&(x_range.start, y));
+        let text = fmt_tick(y, decimals.1);
+        let style = label.pos(Pos::new(HPos::Right, VPos::Center));
+        pen.text(root, &text, &style, (left - 9, py))?;
+        let (w, _) = root.estimate_text_size(&text, &style).map_err(err)?;
+        leftmost_label_edge = leftmost_label_edge.min(left - 9 - w as i32);
+    }
+    let desc = text_style(sizes.1);
+    pen.text(
+        root,
+        x_desc,
+        &desc.pos(Pos::new(HPos::Center, VPos::Top)),
+        ((left + right) / 2, lowest_label_edge + 14),
+    )?;
+    pen.text(
+        root,
+        y_desc,
+        &desc
+            .transform(FontTransform::Rotate270)
+            .pos(Pos::new(HPos::Center, VPos::Bottom)),
+        (leftmost_label_edge - 10, (top + bottom) / 2),
+    )
+}
+
 /// Renders the allowed-region map as an SVG document.
 pub fn render_allowed_svg(map: &AllowedMap) -> Result<String, ReportError> {
     map.validate()?;
@@ -160,7 +246,7 @@ pub fn render_allowed_svg(map: &AllowedMap) -> Result<String, ReportError> {
     let mut out = String::new();
     {
         let root = SVGBackend::with_string(&mut out, ALLOWED_SIZE).into_drawing_area();
-        draw_allowed(&root, map)
+        draw_allowed(&root, map, SVG_PEN)
             .and_then(|_| root.present().map_err(err))
             .map_err(|message| ReportError::Draw {
                 plot: "allowed-region map (SVG)",
@@ -175,7 +261,7 @@ pub fn render_allowed_png(map: &AllowedMap) -> Result<Vec<u8>, ReportError> {
     map.validate()?;
     ensure_font()?;
     png_via_file(ALLOWED_SIZE, "allowed-region map (PNG)", |root| {
-        draw_allowed(root, map)
+        draw_allowed(root, map, png_pen())
     })
 }
 
@@ -187,7 +273,7 @@ pub fn render_bounds_svg(curves: &BoundsCurves) -> Result<String, ReportError> {
     let mut out = String::new();
     {
         let root = SVGBackend::with_string(&mut out, size).into_drawing_area();
-        draw_bounds(&root, curves)
+        draw_bounds(&root, curves, SVG_PEN)
             .and_then(|_| root.present().map_err(err))
             .map_err(|message| ReportError::Draw {
                 plot: "bounds figure (SVG)",
@@ -202,7 +288,7 @@ pub fn render_bounds_png(curves: &BoundsCurves) -> Result<Vec<u8>, ReportError> 
     curves.validate()?;
     ensure_font()?;
     png_via_file(bounds_size(curves), "bounds figure (PNG)", |root| {
-        draw_bounds(root, curves)
+        draw_bounds(root, curves, png_pen())
     })
 }
 
@@ -345,6 +431,7 @@ fn boxed_text<DB: DrawingBackend>(
     text: &str,
     pos: (i32, i32),
     size: f64,
+    pen: Pen<'_>,
 ) -> DrawResult {
     let style = text_style(size).pos(Pos::new(HPos::Left, VPos::Center));
     let (w, h) = area.estimate_text_size(text, &style).map_err(err)?;
@@ -365,7 +452,7 @@ fn boxed_text<DB: DrawingBackend>(
         INK.stroke_width(1),
     ))
     .map_err(err)?;
-    area.draw_text(text, &style, pos).map_err(err)
+    pen.text(area, text, &style, pos)
 }
 
 fn diamond(c: (i32, i32), r: i32) -> Vec<(i32, i32)> {
@@ -468,19 +555,22 @@ fn level_of(map: &AllowedMap, v: f64) -> Option<usize> {
     map.levels.iter().position(|l| v <= l.threshold)
 }
 
-fn draw_allowed<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, map: &AllowedMap) -> DrawResult {
+fn draw_allowed<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    map: &AllowedMap,
+    pen: Pen<'_>,
+) -> DrawResult {
     root.fill(&WHITE).map_err(err)?;
     let (width, height) = root.dim_in_pixel();
     let (chart_area, legend_area) = root.split_horizontally(width as i32 - 290);
     let chart_area = chart_area.margin(10, 10, 10, 10);
     let title = "Region of (Υ, τ) allowed by the catalogues";
-    chart_area
-        .draw_text(
-            title,
-            &text_style(23.0).pos(Pos::new(HPos::Center, VPos::Top)),
-            ((width as i32 - 290) / 2 - 10, 4),
-        )
-        .map_err(err)?;
+    pen.text(
+        &chart_area,
+        title,
+        &text_style(23.0).pos(Pos::new(HPos::Center, VPos::Top)),
+        ((width as i32 - 290) / 2 - 10, 4),
+    )?;
     let chart_area = chart_area.margin(38, 0, 0, 0);
 
     let (x_lo, x_hi) = axis_range(&map.upsilon);
@@ -590,24 +680,33 @@ fn draw_allowed<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, map: &Allowed
     // 3. Axes, ticks and faint grid lines over the fills.
     let xd = tick_decimals(x_hi - x_lo, 10);
     let yd = tick_decimals(y_hi - y_lo, 10);
-    let x_fmt = |v: &f64| fmt_tick(*v, xd);
-    let y_fmt = |v: &f64| fmt_tick(*v, yd);
-    let tau_desc = format!("τ (anisotropy strength, {})", map.anisotropy_name);
+    let tau_desc = format!(
+        "τ (anisotropy strength, {})",
+        truncate(&map.anisotropy_name, 40)
+    );
     chart
         .configure_mesh()
-        .x_desc("Υ (dimensionless)")
-        .y_desc(tau_desc)
-        .axis_desc_style(text_style(20.0))
-        .label_style(text_style(16.5))
         .x_labels(10)
         .y_labels(10)
-        .x_label_formatter(&x_fmt)
-        .y_label_formatter(&y_fmt)
+        // Labels are drawn by `draw_axis_text`; the style still must name a registered font.
+        .label_style(text_style(16.5))
+        .x_label_formatter(&|_| String::new())
+        .y_label_formatter(&|_| String::new())
         .bold_line_style(GRID_LINE.mix(0.35).stroke_width(1))
         .light_line_style(TRANSPARENT)
         .axis_style(INK.stroke_width(1))
         .draw()
         .map_err(err)?;
+    draw_axis_text(
+        root,
+        &chart,
+        (10, 10),
+        (xd, yd),
+        "Υ (dimensionless)",
+        &tau_desc,
+        (16.5, 20.0),
+        pen,
+    )?;
 
     // 4. Each class's own 95.45 % region, thin dashed outlines (pieces along the grid edge skipped).
     let outline_level = map.levels[1].threshold;
@@ -695,7 +794,7 @@ fn draw_allowed<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, map: &Allowed
             .max_by_key(|p| distance(p))
             .copied()
             .unwrap_or(candidates[0]);
-        boxed_text(root, label, pos, size)?;
+        boxed_text(root, label, pos, size, pen)?;
     }
 
     // 7. Legend.
@@ -705,6 +804,7 @@ fn draw_allowed<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, map: &Allowed
         any_missing,
         inside(map.standard_gravity),
         height,
+        pen,
     )
 }
 
@@ -714,6 +814,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
     any_missing: bool,
     standard_inside: bool,
     height: u32,
+    pen: Pen<'_>,
 ) -> DrawResult {
     let x0 = 8;
     let mut y = 62;
@@ -732,8 +833,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
         ))
         .map_err(err)
     };
-    area.draw_text("Joint region allowed at", &heading, (x0, y))
-        .map_err(err)?;
+    pen.text(area, "Joint region allowed at", &heading, (x0, y))?;
     y += 31;
     for (k, level) in map.levels.iter().enumerate() {
         swatch(y, LEVEL_FILLS[k])?;
@@ -742,13 +842,12 @@ fn draw_allowed_legend<DB: DrawingBackend>(
             truncate(&level.label, 14),
             level.threshold
         );
-        area.draw_text(&text, &body, (x0 + 44, y)).map_err(err)?;
+        pen.text(area, &text, &body, (x0 + 44, y))?;
         y += 30;
     }
     swatch(y, WHITE)?;
     let excluded = format!("excluded at {}", truncate(&map.levels[2].label, 14));
-    area.draw_text(&excluded, &body, (x0 + 44, y))
-        .map_err(err)?;
+    pen.text(area, &excluded, &body, (x0 + 44, y))?;
     y += 30;
     if any_missing {
         hatch(area, (x0, y - 9), (x0 + 34, y + 9), 7)?;
@@ -757,17 +856,20 @@ fn draw_allowed_legend<DB: DrawingBackend>(
             INK.stroke_width(1),
         ))
         .map_err(err)?;
-        area.draw_text("no model at these points", &body, (x0 + 44, y))
-            .map_err(err)?;
+        pen.text(area, "no model at these points", &body, (x0 + 44, y))?;
         y += 19;
-        area.draw_text("(no solution; not a constraint)", &small, (x0 + 44, y))
-            .map_err(err)?;
+        pen.text(
+            area,
+            "(no solution; not a constraint)",
+            &small,
+            (x0 + 44, y),
+        )?;
         y += 30;
     }
     if !map.class_outlines.is_empty() {
         y += 12;
         let text = format!("Each class alone, {}:", truncate(&map.levels[1].label, 14));
-        area.draw_text(&text, &heading, (x0, y)).map_err(err)?;
+        pen.text(area, &text, &heading, (x0, y))?;
         y += 31;
         for (ci, class) in map.class_outlines.iter().enumerate() {
             let look = &OUTLINE_LOOKS[ci % OUTLINE_LOOKS.len()];
@@ -778,8 +880,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
                 look.dashes,
                 2,
             )?;
-            area.draw_text(&truncate(&class.class_label, 22), &body, (x0 + 52, y))
-                .map_err(err)?;
+            pen.text(area, &truncate(&class.class_label, 22), &body, (x0 + 52, y))?;
             y += 29;
             if y > height as i32 - 150 {
                 break;
@@ -787,10 +888,11 @@ fn draw_allowed_legend<DB: DrawingBackend>(
         }
     }
     y += 12;
-    area.draw_text("Markers", &heading, (x0, y)).map_err(err)?;
+    pen.text(area, "Markers", &heading, (x0, y))?;
     y += 31;
     draw_best_fit_marker(area, (x0 + 17, y))?;
-    area.draw_text(
+    pen.text(
+        area,
         &format!(
             "best fit ({}, {})",
             short(map.best_fit.0),
@@ -798,8 +900,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
         ),
         &body,
         (x0 + 44, y),
-    )
-    .map_err(err)?;
+    )?;
     y += 33;
     draw_standard_marker(area, (x0 + 17, y))?;
     let sg = if standard_inside {
@@ -807,7 +908,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
     } else {
         "standard gravity: outside the grid".to_string()
     };
-    area.draw_text(&sg, &body, (x0 + 44, y)).map_err(err)?;
+    pen.text(area, &sg, &body, (x0 + 44, y))?;
     y += 30;
     let shown = map
         .disfavoured_below_upsilon
@@ -824,15 +925,14 @@ fn draw_allowed_legend<DB: DrawingBackend>(
             &[4.0, 3.0, 1.0, 3.0],
             1,
         )?;
-        area.draw_text(
+        pen.text(
+            area,
             &format!("Υ < {} disfavoured:", short(*u)),
             &body,
             (x0 + 44, y),
-        )
-        .map_err(err)?;
+        )?;
         y += 19;
-        area.draw_text(&truncate(label, 34), &small, (x0 + 44, y))
-            .map_err(err)?;
+        pen.text(area, &truncate(label, 34), &small, (x0 + 44, y))?;
     }
     Ok(())
 }
@@ -890,26 +990,27 @@ fn distinct_taus(curves: &BoundsCurves) -> Vec<f64> {
 fn draw_bounds<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     curves: &BoundsCurves,
+    pen: Pen<'_>,
 ) -> DrawResult {
     root.fill(&WHITE).map_err(err)?;
     let (width, _) = root.dim_in_pixel();
     let (main, legend) = root.split_horizontally(width as i32 - 190);
-    main.draw_text(
+    pen.text(
+        &main,
         "Predicted bounds against Υ at fixed τ",
         &text_style(23.0).pos(Pos::new(HPos::Center, VPos::Top)),
         ((width as i32 - 190) / 2, 8),
-    )
-    .map_err(err)?;
+    )?;
     let main = main.margin(46, 4, 4, 4);
     let panels = bound_panels(curves);
     let taus = distinct_taus(curves);
     if panels.is_empty() {
-        main.draw_text(
+        pen.text(
+            &main,
             "no bounds to show",
             &text_style(18.0).pos(Pos::new(HPos::Center, VPos::Center)),
             ((width as i32 - 190) / 2, 200),
-        )
-        .map_err(err)?;
+        )?;
         return Ok(());
     }
     let cols = panels.len().min(2);
@@ -937,12 +1038,12 @@ fn draw_bounds<DB: DrawingBackend>(
         y_lo -= pad;
         y_hi += pad;
         let area = area.margin(6, 10, 6, 14);
-        area.draw_text(
+        pen.text(
+            &area,
             &truncate(label, 40),
             &text_style(18.5).pos(Pos::new(HPos::Center, VPos::Top)),
             (area.dim_in_pixel().0 as i32 / 2 + 40, 0),
-        )
-        .map_err(err)?;
+        )?;
         let area = area.margin(26, 0, 0, 0);
         let mut chart = ChartBuilder::on(&area)
             .x_label_area_size(52)
@@ -952,23 +1053,28 @@ fn draw_bounds<DB: DrawingBackend>(
             .map_err(err)?;
         let xd = tick_decimals(x_hi - x_lo, 8);
         let yd = tick_decimals(y_hi - y_lo, 8);
-        let x_fmt = |v: &f64| fmt_tick(*v, xd);
-        let y_fmt = |v: &f64| fmt_tick(*v, yd);
         chart
             .configure_mesh()
-            .x_desc("Υ (dimensionless)")
-            .y_desc(format!("{} ({})", truncate(label, 30), truncate(unit, 12)))
-            .axis_desc_style(text_style(18.0))
-            .label_style(text_style(15.0))
             .x_labels(8)
             .y_labels(8)
-            .x_label_formatter(&x_fmt)
-            .y_label_formatter(&y_fmt)
+            .label_style(text_style(15.0))
+            .x_label_formatter(&|_| String::new())
+            .y_label_formatter(&|_| String::new())
             .bold_line_style(GRID_LINE.mix(0.3).stroke_width(1))
             .light_line_style(TRANSPARENT)
             .axis_style(INK.stroke_width(1))
             .draw()
             .map_err(err)?;
+        draw_axis_text(
+            root,
+            &chart,
+            (8, 8),
+            (xd, yd),
+            "Υ (dimensionless)",
+            &format!("{} ({})", truncate(label, 30), truncate(unit, 12)),
+            (15.0, 18.0),
+            pen,
+        )?;
         for &k in members {
             let s = &curves.series[k];
             let style_index = taus.iter().position(|&t| t == s.tau).unwrap_or(0);
@@ -1010,13 +1116,12 @@ fn draw_bounds<DB: DrawingBackend>(
     let x0 = 6;
     let mut y = 80;
     let body = text_style(16.0).pos(Pos::new(HPos::Left, VPos::Center));
-    legend
-        .draw_text(
-            "τ of each curve",
-            &text_style(17.5).pos(Pos::new(HPos::Left, VPos::Center)),
-            (x0, y),
-        )
-        .map_err(err)?;
+    pen.text(
+        &legend,
+        "τ of each curve",
+        &text_style(17.5).pos(Pos::new(HPos::Left, VPos::Center)),
+        (x0, y),
+    )?;
     y += 28;
     for (k, tau) in taus.iter().enumerate() {
         let colour = curve_colour(k, taus.len());
@@ -1029,9 +1134,12 @@ fn draw_bounds<DB: DrawingBackend>(
                 .draw(&PathElement::new(to_px(&piece), colour.stroke_width(2)))
                 .map_err(err)?;
         }
-        legend
-            .draw_text(&format!("τ = {}", short(*tau)), &body, (x0 + 54, y))
-            .map_err(err)?;
+        pen.text(
+            &legend,
+            &format!("τ = {}", short(*tau)),
+            &body,
+            (x0 + 54, y),
+        )?;
         y += 26;
     }
     Ok(())
