@@ -653,3 +653,42 @@ fn chromium_opens_the_report_cleanly() {
         std::fs::copy(&shot, Path::new(&keep).join("screenshot.png")).unwrap();
     }
 }
+
+#[test]
+fn best_fit_on_standard_gravity_keeps_both_markers() {
+    // Best fit exactly at (0, 0): both markers drawn (the diamond grows around the disc).
+    let mut map = synthetic_map();
+    map.best_fit = (0.0, 0.0);
+    let svg = render_allowed_svg(&map).unwrap();
+    assert!(svg.contains("standard gravity"));
+    keep_copy_file("coincident-allowed.png", &render_allowed_png(&map).unwrap());
+}
+
+fn keep_copy_file(name: &str, bytes: &[u8]) {
+    if let Ok(dir) = std::env::var("DWARFBOUND_REPORT_DEMO_DIR") {
+        std::fs::create_dir_all(&dir).unwrap();
+        std::fs::write(Path::new(&dir).join(name), bytes).unwrap();
+    }
+}
+
+#[test]
+fn one_sided_flat_likelihood_renders() {
+    // One-sided likelihoods are flat (Δχ² = 0) over wide regions and open at the grid edges;
+    // the filled regions must follow the grid edge there.
+    let mut map = synthetic_map();
+    let (upsilon, tau) = (map.upsilon.clone(), map.tau.clone());
+    map.delta_chi2 = tau
+        .iter()
+        .flat_map(|&t| {
+            upsilon.iter().map(move |&u| {
+                let a = ((t - 0.05) / 0.03).max(0.0);
+                let b = ((-0.1 - u) / 0.06).max(0.0);
+                Some(a * a + b * b)
+            })
+        })
+        .collect();
+    map.best_fit = (0.2, -0.1);
+    let png = render_allowed_png(&map).unwrap();
+    assert!(png.starts_with(PNG_SIGNATURE));
+    keep_copy_file("flat-allowed.png", &png);
+}

@@ -14,14 +14,16 @@ use super::document::{Block, Callout, Document, Inline, Para};
 use super::text::{escape_markdown, escape_markdown_at};
 use super::VOLATILE_MARKER;
 
-fn inline(para: &Para) -> String {
+/// Renders inline runs; `opens_block` when the text starts a paragraph or list item, where a
+/// leading `#`, `-` or `1.` would otherwise open a heading or a list (not so in table cells).
+fn inline(para: &Para, opens_block: bool) -> String {
     let mut out = String::new();
     for (k, run) in para.iter().enumerate() {
-        let esc = |s: &str| escape_markdown_at(s, k == 0);
+        let esc = |s: &str| escape_markdown_at(s, opens_block && k == 0);
         match run {
             Inline::Text(s) => out.push_str(&esc(s)),
             Inline::Strong(s) => {
-                let body = esc(s.trim_end());
+                let body = escape_markdown_at(s.trim_end(), false);
                 let trailing = &s[s.trim_end().len()..];
                 let _ = write!(out, "**{body}**{trailing}");
             }
@@ -62,12 +64,12 @@ fn block(out: &mut String, b: &Block, prefix: &str) {
             line("");
         }
         Block::Para(p) => {
-            line(&inline(p));
+            line(&inline(p, true));
             line("");
         }
         Block::List(items) => {
             for item in items {
-                line(&format!("- {}", inline(item)));
+                line(&format!("- {}", inline(item, true)));
             }
             line("");
         }
@@ -76,7 +78,10 @@ fn block(out: &mut String, b: &Block, prefix: &str) {
             rows,
             numeric,
         } => {
-            let head: Vec<String> = header.iter().map(|h| escape_markdown(h)).collect();
+            let head: Vec<String> = header
+                .iter()
+                .map(|h| escape_markdown_at(h, false))
+                .collect();
             line(&format!("| {} |", head.join(" | ")));
             let rule: Vec<&str> = (0..header.len())
                 .map(|k| {
@@ -89,7 +94,7 @@ fn block(out: &mut String, b: &Block, prefix: &str) {
                 .collect();
             line(&format!("| {} |", rule.join(" | ")));
             for row in rows {
-                let cells: Vec<String> = row.iter().map(inline).collect();
+                let cells: Vec<String> = row.iter().map(|c| inline(c, false)).collect();
                 line(&format!("| {} |", cells.join(" | ")));
             }
             line("");
@@ -127,7 +132,7 @@ fn block(out: &mut String, b: &Block, prefix: &str) {
             line("");
             line(&format!(
                 "{} Files: {}.svg, {}.png.",
-                inline(caption),
+                inline(caption, true),
                 kind.stem(),
                 kind.stem()
             ));

@@ -468,10 +468,11 @@ fn diamond(c: (i32, i32), r: i32) -> Vec<(i32, i32)> {
 fn draw_standard_marker<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     c: (i32, i32),
+    radius: i32,
 ) -> DrawResult {
-    area.draw(&Polygon::new(diamond(c, 9), WHITE.filled()))
+    area.draw(&Polygon::new(diamond(c, radius), WHITE.filled()))
         .map_err(err)?;
-    let mut outline = diamond(c, 9);
+    let mut outline = diamond(c, radius);
     outline.push(outline[0]);
     area.draw(&PathElement::new(outline, INK.stroke_width(2)))
         .map_err(err)?;
@@ -759,12 +760,14 @@ fn draw_allowed<DB: DrawingBackend>(
 
     // 6. Markers.
     let inside = |(u, t): (f64, f64)| u >= x_lo && u <= x_hi && t >= y_lo && t <= y_hi;
-    if inside(map.best_fit) {
-        draw_best_fit_marker(root, chart.backend_coord(&map.best_fit))?;
-    }
+    let best_px = chart.backend_coord(&map.best_fit);
     if inside(map.standard_gravity) {
         let c = chart.backend_coord(&map.standard_gravity);
-        draw_standard_marker(root, c)?;
+        // When the best fit sits on standard gravity, a larger diamond stays visible around the
+        // best-fit disc drawn on top of it.
+        let close = (c.0 - best_px.0).abs().max((c.1 - best_px.1).abs()) < 14;
+        let radius = if close && inside(map.best_fit) { 15 } else { 9 };
+        draw_standard_marker(root, c, radius)?;
         // Of four places around the marker, the one inside the plot farthest from the best fit.
         let label = "standard gravity";
         let size = 15.5;
@@ -774,12 +777,13 @@ fn draw_allowed<DB: DrawingBackend>(
         let (w, h) = (w as i32, h as i32);
         let (left, top) = chart.backend_coord(&(x_lo, y_hi));
         let (right, bottom) = chart.backend_coord(&(x_hi, y_lo));
-        let best = chart.backend_coord(&map.best_fit);
+        let best = best_px;
+        let gap = radius + 8;
         let candidates = [
-            (c.0 + 16, c.1),
-            (c.0 - 16 - w, c.1),
-            (c.0 - w / 2, c.1 - h - 12),
-            (c.0 - w / 2, c.1 + h + 12),
+            (c.0 + gap, c.1),
+            (c.0 - gap - w, c.1),
+            (c.0 - w / 2, c.1 - h / 2 - gap),
+            (c.0 - w / 2, c.1 + h / 2 + gap),
         ];
         let fits = |&(x, y): &(i32, i32)| {
             x - 4 > left && x + w + 4 < right && y - h / 2 - 4 > top && y + h / 2 + 4 < bottom
@@ -795,6 +799,9 @@ fn draw_allowed<DB: DrawingBackend>(
             .copied()
             .unwrap_or(candidates[0]);
         boxed_text(root, label, pos, size, pen)?;
+    }
+    if inside(map.best_fit) {
+        draw_best_fit_marker(root, best_px)?;
     }
 
     // 7. Legend.
@@ -902,7 +909,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
         (x0 + 44, y),
     )?;
     y += 33;
-    draw_standard_marker(area, (x0 + 17, y))?;
+    draw_standard_marker(area, (x0 + 17, y), 9)?;
     let sg = if standard_inside {
         "standard gravity (Υ = τ = 0)".to_string()
     } else {
