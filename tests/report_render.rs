@@ -492,6 +492,7 @@ fn degenerate_grids_still_render() {
         c.delta_chi2.truncate(n);
     }
     assert!(render_allowed_svg(&map).unwrap().len() > 1000);
+    keep_copy_file("one-row-allowed.png", &render_allowed_png(&map).unwrap());
     let mut empty = synthetic_map();
     empty.delta_chi2.iter_mut().for_each(|v| *v = None);
     assert!(render_allowed_png(&empty)

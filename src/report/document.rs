@@ -324,7 +324,7 @@ pub(crate) fn build(
         fmt_sig(lv[2].threshold, 5),
         lv[2].label
     ))];
-    if !map.class_outlines.is_empty() {
+    if !map.class_outlines.is_empty() && map.is_two_dimensional() {
         let parts: Vec<String> = map
             .class_outlines
             .iter()
@@ -336,6 +336,12 @@ pub(crate) fn build(
             lv[1].label,
             parts.join(", ")
         )));
+    }
+    if !map.is_two_dimensional() {
+        caption.push(t(
+            " The grid has a single row or column, so each point is drawn as a square in the \
+             colour of its level.",
+        ));
     }
     caption.push(t(
         " Diamond: standard gravity (Υ = τ = 0); circled cross: best fit.",
@@ -515,6 +521,7 @@ pub(crate) fn build(
                         .class_outlines
                         .iter()
                         .position(|o| o.class_label == c.class)
+                        .filter(|_| map.is_two_dimensional())
                         .map(|k| outline_style_name(k).to_string())
                         .unwrap_or_else(|| "—".into());
                     vec![

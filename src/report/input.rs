@@ -433,6 +433,12 @@ fn grid_values(name: &str, values: &[Option<f64>], expected: usize) -> Result<()
 }
 
 impl AllowedMap {
+    /// True when the map is drawn as regions with class outlines (both axes have two or more
+    /// values); a single row or column is drawn as one square per point instead.
+    pub fn is_two_dimensional(&self) -> bool {
+        self.upsilon.len() >= 2 && self.tau.len() >= 2
+    }
+
     /// Checks shapes, ordering and finiteness so drawing never meets NaN or a ragged grid.
     pub fn validate(&self) -> Result<(), ReportError> {
         ascending("allowed map Υ axis", &self.upsilon)?;

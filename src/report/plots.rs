@@ -585,7 +585,7 @@ fn draw_allowed<DB: DrawingBackend>(
 
     let nu = map.upsilon.len();
     let nt = map.tau.len();
-    let two_dimensional = nu >= 2 && nt >= 2;
+    let two_dimensional = map.is_two_dimensional();
 
     // 1. Filled levels, painted outermost first so nested loops land on top.
     if two_dimensional {
@@ -873,7 +873,8 @@ fn draw_allowed_legend<DB: DrawingBackend>(
         )?;
         y += 30;
     }
-    if !map.class_outlines.is_empty() {
+    // Outlines are drawn only on a two-dimensional grid.
+    if !map.class_outlines.is_empty() && map.is_two_dimensional() {
         y += 12;
         let text = format!("Each class alone, {}:", truncate(&map.levels[1].label, 14));
         pen.text(area, &text, &heading, (x0, y))?;
