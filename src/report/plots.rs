@@ -195,7 +195,6 @@ fn draw_axis_text<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     chart: &ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
     ticks: (usize, usize),
-    decimals: (usize, usize),
     x_desc: &str,
     y_desc: &str,
     sizes: (f64, f64),
@@ -207,14 +206,17 @@ fn draw_axis_text<DB: DrawingBackend>(
     let (left, top) = chart.backend_coord(&(x_range.start, y_range.end));
     let (right, bottom) = chart.backend_coord(&(x_range.end, y_range.start));
     let (mut lowest_label_edge, mut leftmost_label_edge) = (bottom, left);
-    for x in spec.x_spec().key_points(ticks.0) {
+    let x_ticks = spec.x_spec().key_points(ticks.0);
+    let y_ticks = spec.y_spec().key_points(ticks.1);
+    let decimals = (tick_decimals(&x_ticks), tick_decimals(&y_ticks));
+    for x in x_ticks {
         let (px, _) = chart.backend_coord(&(x, y_range.start));
         let style = label.pos(Pos::new(HPos::Center, VPos::Top));
         pen.text(root, &fmt_tick(x, decimals.0), &style, (px, bottom + 9))?;
         let (_, h) = root.estimate_text_size("0", &style).map_err(err)?;
         lowest_label_edge = lowest_label_edge.max(bottom + 9 + h as i32);
     }
-    for y in spec.y_spec().key_points(ticks.1) {
+    for y in y_ticks {
         let (_, py) = chart.backend_coord(&(x_range.start, y));
         let text = fmt_tick(y, decimals.1);
         let style = label.pos(Pos::new(HPos::Right, VPos::Center));
@@ -310,13 +312,25 @@ where
     std::fs::read(&path).map_err(|e| fail(e.to_string()))
 }
 
-/// Decimal places for tick labels on an axis spanning `span` with about `ticks` labels.
-fn tick_decimals(span: f64, ticks: usize) -> usize {
-    if span <= 0.0 || !span.is_finite() {
+/// The fewest decimal places that show every tick value exactly (to a millionth of the tick
+/// spacing), so labels neither repeat nor carry noise digits.
+fn tick_decimals(ticks: &[f64]) -> usize {
+    let spacing = ticks
+        .windows(2)
+        .map(|w| (w[1] - w[0]).abs())
+        .filter(|d| *d > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    if !spacing.is_finite() {
         return 2;
     }
-    let step = span / ticks.max(1) as f64;
-    (-step.log10().floor()).clamp(0.0, 8.0) as usize
+    (0..=10)
+        .find(|&d| {
+            let scale = 10f64.powi(d as i32);
+            ticks
+                .iter()
+                .all(|v| ((v * scale).round() / scale - v).abs() < spacing * 1e-6)
+        })
+        .unwrap_or(10)
 }
 
 fn fmt_tick(v: f64, decimals: usize) -> String {
@@ -679,8 +693,6 @@ fn draw_allowed<DB: DrawingBackend>(
     }
 
     // 3. Axes, ticks and faint grid lines over the fills.
-    let xd = tick_decimals(x_hi - x_lo, 10);
-    let yd = tick_decimals(y_hi - y_lo, 10);
     let tau_desc = format!(
         "τ (anisotropy strength, {})",
         truncate(&map.anisotropy_name, 40)
@@ -702,7 +714,6 @@ fn draw_allowed<DB: DrawingBackend>(
         root,
         &chart,
         (10, 10),
-        (xd, yd),
         "Υ (dimensionless)",
         &tau_desc,
         (16.5, 20.0),
@@ -1059,8 +1070,6 @@ fn draw_bounds<DB: DrawingBackend>(
             .margin_right(12)
             .build_cartesian_2d(x_lo..x_hi, y_lo..y_hi)
             .map_err(err)?;
-        let xd = tick_decimals(x_hi - x_lo, 8);
-        let yd = tick_decimals(y_hi - y_lo, 8);
         chart
             .configure_mesh()
             .x_labels(8)
@@ -1077,7 +1086,6 @@ fn draw_bounds<DB: DrawingBackend>(
             root,
             &chart,
             (8, 8),
-            (xd, yd),
             "Υ (dimensionless)",
             &format!("{} ({})", truncate(label, 30), truncate(unit, 12)),
             (15.0, 18.0),
@@ -1172,7 +1180,9 @@ mod tests {
     fn tick_labels_do_not_show_negative_zero() {
         assert_eq!(fmt_tick(-0.0001, 2), "0.00");
         assert_eq!(fmt_tick(-0.25, 2), "-0.25");
-        assert_eq!(tick_decimals(0.9, 10), 2);
+        assert_eq!(tick_decimals(&[-0.3, -0.2, -0.1, 0.0]), 1);
+        assert_eq!(tick_decimals(&[0.0725, 0.075, 0.0775]), 4);
+        assert_eq!(tick_decimals(&[1.0, 2.0]), 0);
     }
 
     #[test]
