@@ -91,3 +91,14 @@ fn types_fits_matches_astropy() {
     // Includes the second HDU: unsigned integers through TZERO, TSCAL/TZERO scaling, TNULL.
     check_all_with_prefix("types.fits");
 }
+
+#[test]
+fn catalogue_ecsv_matches_astropy() {
+    check_all_with_prefix("catalogue.ecsv");
+}
+
+#[test]
+fn types_ecsv_matches_astropy_space_and_comma() {
+    check_all_with_prefix("types.ecsv");
+    check_all_with_prefix("types_comma.ecsv");
+}
