@@ -102,3 +102,18 @@ fn types_ecsv_matches_astropy_space_and_comma() {
     check_all_with_prefix("types.ecsv");
     check_all_with_prefix("types_comma.ecsv");
 }
+
+#[test]
+fn catalogue_votables_match_astropy() {
+    // unit and ucd attributes as written; Jupiter masses come as astropy's `1.8981246e+27kg`.
+    check_all_with_prefix("catalogue_tabledata.vot");
+    check_all_with_prefix("catalogue_binary2.vot");
+}
+
+#[test]
+fn types_votables_match_astropy_all_serialisations() {
+    // TABLEDATA, BINARY2 (null flags) and BINARY (VALUES null); `#second` is the second TABLE.
+    check_all_with_prefix("types_tabledata.vot");
+    check_all_with_prefix("types_binary2.vot");
+    check_all_with_prefix("types_binary.vot");
+}
