@@ -259,7 +259,8 @@ def main():
     # are not powers of 10"), so the FITS file stores the masses converted to kg, as astropy advises.
     cat_fits = cat.copy()
     for n in ("mass", "mass_err_lo", "mass_err_hi"):
-        cat_fits[n] = cat_fits[n].to(u.kg)
+        # MaskedColumn.to() drops the mask; keep it.
+        cat_fits[n] = MaskedColumn(cat[n].to(u.kg).value, unit=u.kg, mask=cat[n].mask)
     hdu = fits.table_to_hdu(cat_fits)
     hdu.name = "CATALOGUE"
     p = os.path.join(OUT, "catalogue.fits")

@@ -57,6 +57,16 @@ pub fn read(path: &Path, table: Option<&str>) -> Result<RawTable, CatalogueError
         path: path.to_path_buf(),
         reason: e.to_string(),
     })?;
+    let invalid = |reason: String| CatalogueError::Invalid {
+        path: path.to_path_buf(),
+        format: "VOTable",
+        reason,
+    };
+    check_well_formed(BufReader::with_capacity(1 << 16, file)).map_err(invalid)?;
+    let file = File::open(path).map_err(|e| CatalogueError::Unreadable {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    })?;
     let reader = BufReader::with_capacity(1 << 16, file);
     // The parser is a dependency: should it panic on some malformed input, the file is
     // reported as invalid instead of taking the program down.
@@ -66,11 +76,190 @@ pub fn read(path: &Path, table: Option<&str>) -> Result<RawTable, CatalogueError
         Ok(Err(reason)) => reason,
         Err(_) => "the VOTable parser failed on malformed input".to_string(),
     };
-    Err(CatalogueError::Invalid {
-        path: path.to_path_buf(),
-        format: "VOTable",
-        reason,
-    })
+    Err(invalid(reason))
+}
+
+/// Checks that the XML elements are balanced, the document complete and every base64 STREAM
+/// clean, in one streaming pass. votable 0.7.0 loops forever when the file ends inside a
+/// BINARY/BINARY2 element (its inner loops discard the end-of-file event), and it ends a binary
+/// table silently, keeping the rows read so far, at a byte that is not base64; such files must
+/// be refused before it sees them. Not a full XML validator: names, nesting, comments, CDATA,
+/// processing instructions and quoted attribute values only.
+fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
+    let mut bytes = reader.bytes().peekable();
+    let mut line = 1usize;
+    let mut stack: Vec<Vec<u8>> = Vec::new();
+    let mut seen_root = false;
+    // Next byte, counting lines; `Ok(None)` at end of file.
+    let mut next = |line: &mut usize| -> Result<Option<u8>, String> {
+        match bytes.next() {
+            None => Ok(None),
+            Some(Ok(b)) => {
+                if b == b'\n' {
+                    *line += 1;
+                }
+                Ok(Some(b))
+            }
+            Some(Err(e)) => Err(format!("line {line}: {e}")),
+        }
+    };
+    let ended = |line: usize, inside: &str| format!("line {line}: the file ends inside {inside}");
+    // Inside a STREAM: count of base64 characters and of `=` padding seen. The crate stops
+    // silently at a byte that is not base64 and returns the rows read so far.
+    let mut stream: Option<(usize, usize)> = None;
+    loop {
+        let Some(b) = next(&mut line)? else { break };
+        if b != b'<' {
+            if let Some((count, padding)) = stream.as_mut() {
+                match b {
+                    b' ' | b'\t' | b'\n' | b'\r' => {}
+                    b'=' if *padding < 2 => {
+                        *padding += 1;
+                        *count += 1;
+                    }
+                    b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'+' | b'/' if *padding == 0 => {
+                        *count += 1
+                    }
+                    _ => {
+                        return Err(format!(
+                            "line {line}: byte 0x{b:02x} is not valid base64 inside a STREAM"
+                        ))
+                    }
+                }
+            }
+            continue;
+        }
+        let start_line = line;
+        let Some(first) = next(&mut line)? else {
+            return Err(ended(line, "a tag"));
+        };
+        match first {
+            b'!' | b'?' => {
+                // Comment, CDATA, DOCTYPE or processing instruction: skip to its end marker.
+                let mut head: Vec<u8> = Vec::new();
+                let (end, what): (&[u8], &str) = loop {
+                    let Some(c) = next(&mut line)? else {
+                        return Err(ended(line, "a markup declaration"));
+                    };
+                    head.push(c);
+                    if first == b'?' {
+                        break (b"?>", "a processing instruction");
+                    }
+                    if head.starts_with(b"--") {
+                        break (b"-->", "a comment");
+                    }
+                    if head.starts_with(b"[CDATA[") {
+                        break (b"]]>", "a CDATA section");
+                    }
+                    if !(b"--".starts_with(&head) || b"[CDATA[".starts_with(&head)) {
+                        break (b">", "a declaration");
+                    }
+                };
+                // The end marker must follow the opening one (`<!-->` is no complete comment).
+                let mut tail: Vec<u8> = if end == b">" || end == b"?>" {
+                    head
+                } else {
+                    Vec::new()
+                };
+                while !tail.ends_with(end) {
+                    let Some(c) = next(&mut line)? else {
+                        return Err(ended(line, what));
+                    };
+                    tail.push(c);
+                    if tail.len() > 3 {
+                        tail.remove(0);
+                    }
+                }
+            }
+            b'/' => {
+                let mut name = Vec::new();
+                loop {
+                    match next(&mut line)? {
+                        None => return Err(ended(line, "an end tag")),
+                        Some(b'>') => break,
+                        Some(c) if c.is_ascii_whitespace() => {}
+                        Some(c) => name.push(c),
+                    }
+                }
+                if name == b"STREAM" {
+                    if let Some((count, _)) = stream.take() {
+                        if count % 4 != 0 {
+                            return Err(format!(
+                                "line {start_line}: the base64 STREAM has {count} characters, \
+                                 not a multiple of 4 (cut or corrupted)"
+                            ));
+                        }
+                    }
+                }
+                match stack.pop() {
+                    Some(open) if open == name => {}
+                    Some(open) => {
+                        return Err(format!(
+                            "line {start_line}: </{}> closes <{}>",
+                            String::from_utf8_lossy(&name),
+                            String::from_utf8_lossy(&open)
+                        ))
+                    }
+                    None => {
+                        return Err(format!(
+                            "line {start_line}: </{}> closes nothing",
+                            String::from_utf8_lossy(&name)
+                        ))
+                    }
+                }
+            }
+            c => {
+                if !stack.is_empty() || !seen_root {
+                    seen_root = true;
+                } else {
+                    return Err(format!(
+                        "line {start_line}: a second root element after the document's end"
+                    ));
+                }
+                let mut name = vec![c];
+                let mut in_name = true;
+                let mut quote: Option<u8> = None;
+                let mut previous = c;
+                loop {
+                    let Some(c) = next(&mut line)? else {
+                        return Err(ended(line, "a start tag"));
+                    };
+                    if let Some(q) = quote {
+                        if c == q {
+                            quote = None;
+                        }
+                    } else if c == b'"' || c == b'\'' {
+                        quote = Some(c);
+                    } else if c == b'>' {
+                        break;
+                    }
+                    if in_name && (c.is_ascii_whitespace() || c == b'/' || c == b'>') {
+                        in_name = false;
+                    }
+                    if in_name {
+                        name.push(c);
+                    }
+                    previous = c;
+                }
+                if previous != b'/' {
+                    if name == b"STREAM" {
+                        stream = Some((0, 0));
+                    }
+                    stack.push(name);
+                }
+            }
+        }
+    }
+    if let Some(open) = stack.last() {
+        return Err(format!(
+            "the file ends before </{}> (truncated?)",
+            String::from_utf8_lossy(open)
+        ));
+    }
+    if !seen_root {
+        return Err("no XML element found".into());
+    }
+    Ok(())
 }
 
 /// Which TABLE the caller asked for.
@@ -273,6 +462,23 @@ fn to_cell(v: VOTableValue, null: Option<&str>) -> Cell {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn well_formedness_prescan() {
+        let ok = |s: &str| check_well_formed(s.as_bytes());
+        assert!(ok("<?xml version=\"1.0\"?><!-- c > --><A x='>'><B/><![CDATA[<C>]]></A>").is_ok());
+        assert!(ok("<!DOCTYPE x><A><!----></A>\n").is_ok());
+        assert!(ok("<A><B></A>").unwrap_err().contains("</A> closes <B>"));
+        assert!(ok("<A><B>").unwrap_err().contains("ends before </B>"));
+        assert!(ok("<A><!-- open").unwrap_err().contains("inside a comment"));
+        assert!(ok("<A attr=\"x").unwrap_err().contains("inside a start tag"));
+        assert!(ok("").unwrap_err().contains("no XML element"));
+        assert!(ok("<A/><B/>").is_err());
+        assert!(ok("<S><STREAM encoding='base64'>AAEC\n AA==</STREAM></S>").is_ok());
+        assert!(ok("<STREAM>AA\u{b3}C</STREAM>").unwrap_err().contains("base64"));
+        assert!(ok("<STREAM>AAE</STREAM>").unwrap_err().contains("multiple of 4"));
+        assert!(ok("<STREAM>AA=A</STREAM>").is_err());
+    }
 
     #[test]
     fn nulls_and_exact_longs() {
