@@ -31,7 +31,10 @@ fn error_of(name: &str, table: Option<&str>) -> String {
         message.contains(&path.display().to_string()),
         "{name}: message does not name the file: {message}"
     );
-    assert!(matches!(err, CatalogueError::Invalid { .. }), "{name}: {err:?}");
+    assert!(
+        matches!(err, CatalogueError::Invalid { .. }),
+        "{name}: {err:?}"
+    );
     message
 }
 
@@ -67,7 +70,10 @@ fn unknown_tables_are_refused_with_what_exists() {
     let m = error_of("catalogue.fits", Some("7"));
     assert!(m.contains("no HDU number 7"), "{m}");
     let m = error_of("types_tabledata.vot", Some("nope"));
-    assert!(m.contains("nope") && m.contains("types") && m.contains("second"), "{m}");
+    assert!(
+        m.contains("nope") && m.contains("types") && m.contains("second"),
+        "{m}"
+    );
     let m = error_of("types_tabledata.vot", Some("2"));
     assert!(m.contains("no TABLE number 2"), "{m}");
 }

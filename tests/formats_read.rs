@@ -48,17 +48,39 @@ fn check_file(key: &str, exp: &Value) {
     let got = read(file, table).unwrap_or_else(|e| panic!("{key}: {e}"));
     let columns = exp["columns"].as_array().unwrap();
     let names: Vec<&str> = got.columns.iter().map(|c| c.name.as_str()).collect();
-    let expected_names: Vec<&str> = columns.iter().map(|c| c["name"].as_str().unwrap()).collect();
+    let expected_names: Vec<&str> = columns
+        .iter()
+        .map(|c| c["name"].as_str().unwrap())
+        .collect();
     assert_eq!(names, expected_names, "{key}: column names");
     for (meta, c) in got.columns.iter().zip(columns) {
-        assert_eq!(meta.unit.as_deref(), c["unit"].as_str(), "{key}: unit of {}", meta.name);
-        assert_eq!(meta.ucd.as_deref(), c["ucd"].as_str(), "{key}: ucd of {}", meta.name);
+        assert_eq!(
+            meta.unit.as_deref(),
+            c["unit"].as_str(),
+            "{key}: unit of {}",
+            meta.name
+        );
+        assert_eq!(
+            meta.ucd.as_deref(),
+            c["ucd"].as_str(),
+            "{key}: ucd of {}",
+            meta.name
+        );
     }
     let rows = exp["rows"].as_array().unwrap();
     assert_eq!(got.rows.len(), rows.len(), "{key}: row count");
     for (i, (row, exp_row)) in got.rows.iter().zip(rows).enumerate() {
-        assert_eq!(row.row_number, i + 1, "{key}: row numbers are 1-based and in file order");
-        for ((cell, e), name) in row.cells.iter().zip(exp_row.as_array().unwrap()).zip(&names) {
+        assert_eq!(
+            row.row_number,
+            i + 1,
+            "{key}: row numbers are 1-based and in file order"
+        );
+        for ((cell, e), name) in row
+            .cells
+            .iter()
+            .zip(exp_row.as_array().unwrap())
+            .zip(&names)
+        {
             assert!(
                 cell_matches(e, cell),
                 "{key}: row {} column {name}: astropy wrote {e}, we read {cell:?}",
@@ -192,19 +214,43 @@ fn units_are_passed_through_as_written() {
         t.columns.into_iter().find(|c| c.name == col).unwrap().unit
     };
     assert_eq!(unit("catalogue.fits", "mass").as_deref(), Some("kg"));
-    assert_eq!(unit("catalogue_tabledata.vot", "mass").as_deref(), Some("1.8981246e+27kg"));
-    assert_eq!(unit("catalogue.ecsv", "mass").as_deref(), Some("jupiterMass"));
+    assert_eq!(
+        unit("catalogue_tabledata.vot", "mass").as_deref(),
+        Some("1.8981246e+27kg")
+    );
+    assert_eq!(
+        unit("catalogue.ecsv", "mass").as_deref(),
+        Some("jupiterMass")
+    );
     assert_eq!(unit("catalogue.ecsv", "radius").as_deref(), Some("km"));
     assert_eq!(unit("catalogue.ecsv", "id"), None);
-    assert_eq!(unit("broken/unknown_unit.ecsv", "radius").as_deref(), Some("furlong"));
+    assert_eq!(
+        unit("broken/unknown_unit.ecsv", "radius").as_deref(),
+        Some("furlong")
+    );
 }
 
 #[test]
 fn tables_are_chosen_by_name_or_index() {
     // FITS: HDU number (primary = 0) or EXTNAME, case-insensitively; VOTable: TABLE index or name.
-    assert_eq!(read("types.fits", Some("unsigned_scaled")).unwrap().columns.len(), 5);
+    assert_eq!(
+        read("types.fits", Some("unsigned_scaled"))
+            .unwrap()
+            .columns
+            .len(),
+        5
+    );
     assert_eq!(read("types.fits", Some("1")).unwrap().columns.len(), 8);
     assert_eq!(read("types.fits", None).unwrap().columns.len(), 8);
-    assert_eq!(read("types_binary2.vot", Some("1")).unwrap().columns[0].name, "k");
-    assert_eq!(read("types_binary2.vot", Some("types")).unwrap().columns.len(), 8);
+    assert_eq!(
+        read("types_binary2.vot", Some("1")).unwrap().columns[0].name,
+        "k"
+    );
+    assert_eq!(
+        read("types_binary2.vot", Some("types"))
+            .unwrap()
+            .columns
+            .len(),
+        8
+    );
 }

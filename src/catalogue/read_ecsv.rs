@@ -108,8 +108,8 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
             break line;
         }
     };
-    let header: Header = serde_norway::from_str(&yaml)
-        .map_err(|e| invalid(format!("YAML header: {e}")))?;
+    let header: Header =
+        serde_norway::from_str(&yaml).map_err(|e| invalid(format!("YAML header: {e}")))?;
     let delimiter = match header.delimiter.as_deref() {
         None | Some(" ") => ' ',
         Some(",") => ',',
@@ -378,7 +378,10 @@ mod tests {
     #[test]
     fn space_delimited_records() {
         // ECSV 1.0 (astropy APE 6): quoted "" is an empty value; runs of spaces separate.
-        assert_eq!(texts(r#"a  "b c" "" "x""y""#, ' '), ["a", "b c", "", "x\"y"]);
+        assert_eq!(
+            texts(r#"a  "b c" "" "x""y""#, ' '),
+            ["a", "b c", "", "x\"y"]
+        );
         assert_eq!(texts("  a b  ", ' '), ["a", "b"]);
     }
 
@@ -391,7 +394,10 @@ mod tests {
 
     #[test]
     fn bad_quotes() {
-        assert_eq!(split_record(r#"a "open"#, ' ').err(), Some(RecordError::OpenQuote));
+        assert_eq!(
+            split_record(r#"a "open"#, ' ').err(),
+            Some(RecordError::OpenQuote)
+        );
         assert!(matches!(
             split_record(r#""a"b c"#, ' '),
             Err(RecordError::AfterQuote(_))
@@ -400,13 +406,22 @@ mod tests {
 
     #[test]
     fn cells_follow_the_declared_type() {
-        assert_eq!(to_cell("0.1".into(), Kind::Float32), Cell::Number(f64::from(0.1f32)));
+        assert_eq!(
+            to_cell("0.1".into(), Kind::Float32),
+            Cell::Number(f64::from(0.1f32))
+        );
         assert_eq!(
             to_cell("9007199254740993".into(), Kind::Integer),
             Cell::Text("9007199254740993".into())
         );
-        assert_eq!(to_cell("abc".into(), Kind::Float64), Cell::Text("abc".into()));
+        assert_eq!(
+            to_cell("abc".into(), Kind::Float64),
+            Cell::Text("abc".into())
+        );
         assert_eq!(to_cell(String::new(), Kind::Text), Cell::Missing);
-        assert_eq!(to_cell("True".into(), Kind::Bool), Cell::Text("true".into()));
+        assert_eq!(
+            to_cell("True".into(), Kind::Bool),
+            Cell::Text("true".into())
+        );
     }
 }

@@ -257,7 +257,9 @@ fn read_header(r: &mut FitsReader, hdu: usize) -> Result<Option<Header>, Failure
         for chunk in block.chunks_exact(CARD) {
             number += 1;
             let keyword_bytes = &chunk[..8];
-            let keyword = String::from_utf8_lossy(keyword_bytes).trim_end().to_string();
+            let keyword = String::from_utf8_lossy(keyword_bytes)
+                .trim_end()
+                .to_string();
             if number == 1 {
                 let expected = if hdu == 0 { "SIMPLE" } else { "XTENSION" };
                 let simple_true = &chunk[8..10] == b"= "
@@ -288,9 +290,10 @@ fn read_header(r: &mut FitsReader, hdu: usize) -> Result<Option<Header>, Failure
                      (FITS Standard 4.0, §4.1.1; corrupted header?)"
                 ));
             }
-            if !keyword.bytes().all(|b| {
-                b.is_ascii_uppercase() || b.is_ascii_digit() || b == b'-' || b == b'_'
-            }) {
+            if !keyword
+                .bytes()
+                .all(|b| b.is_ascii_uppercase() || b.is_ascii_digit() || b == b'-' || b == b'_')
+            {
                 if keyword == "HIERARCH" {
                     continue;
                 }
@@ -385,10 +388,7 @@ fn read_from(r: &mut FitsReader, table: Option<&str>) -> Result<RawTable, Failur
     };
     let mut seen: Vec<String> = Vec::new();
     let mut hdu = 0usize;
-    loop {
-        let Some(header) = read_header(r, hdu)? else {
-            break;
-        };
+    while let Some(header) = read_header(r, hdu)? {
         let data_start = r.pos;
         let kind = if hdu == 0 {
             "primary".to_string()
@@ -589,9 +589,8 @@ fn read_bintable(r: &mut FitsReader, h: &Header, data_start: u64) -> Result<RawT
         let exact_zero = if scale == 1.0 {
             match zero_card {
                 None => Some(0),
-                Some(c) => parse_int(&c.raw).or_else(|| {
-                    (zero.fract() == 0.0 && zero.abs() < 1e30).then_some(zero as i128)
-                }),
+                Some(c) => parse_int(&c.raw)
+                    .or_else(|| (zero.fract() == 0.0 && zero.abs() < 1e30).then_some(zero as i128)),
             }
         } else {
             None
@@ -615,9 +614,9 @@ fn read_bintable(r: &mut FitsReader, h: &Header, data_start: u64) -> Result<RawT
             exact_zero,
             null: if kind.is_integer() { null } else { None },
         });
-        offset = offset.checked_add(width).ok_or_else(|| {
-            Failure::Invalid(format!("HDU {hdu}: row width overflows"))
-        })?;
+        offset = offset
+            .checked_add(width)
+            .ok_or_else(|| Failure::Invalid(format!("HDU {hdu}: row width overflows")))?;
     }
     if offset != row_bytes {
         return invalid(format!(
@@ -759,9 +758,7 @@ fn decode(col: &Column, bytes: &[u8]) -> Result<Cell, String> {
             }
             let parts: Result<Vec<String>, String> = bytes
                 .iter()
-                .map(|&b| {
-                    decode_one(b).map(|v| v.map_or("null".to_string(), |v| v.to_string()))
-                })
+                .map(|&b| decode_one(b).map(|v| v.map_or("null".to_string(), |v| v.to_string())))
                 .collect();
             Ok(Cell::Text(format!("[{}]", parts?.join(", "))))
         }

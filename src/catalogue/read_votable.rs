@@ -107,8 +107,7 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
     // Inside a STREAM: count of base64 characters and of `=` padding seen. The crate stops
     // silently at a byte that is not base64 and returns the rows read so far.
     let mut stream: Option<(usize, usize)> = None;
-    loop {
-        let Some(b) = next(&mut line)? else { break };
+    while let Some(b) = next(&mut line)? {
         if b != b'<' {
             if let Some((count, padding)) = stream.as_mut() {
                 match b {
@@ -471,12 +470,18 @@ mod tests {
         assert!(ok("<A><B></A>").unwrap_err().contains("</A> closes <B>"));
         assert!(ok("<A><B>").unwrap_err().contains("ends before </B>"));
         assert!(ok("<A><!-- open").unwrap_err().contains("inside a comment"));
-        assert!(ok("<A attr=\"x").unwrap_err().contains("inside a start tag"));
+        assert!(ok("<A attr=\"x")
+            .unwrap_err()
+            .contains("inside a start tag"));
         assert!(ok("").unwrap_err().contains("no XML element"));
         assert!(ok("<A/><B/>").is_err());
         assert!(ok("<S><STREAM encoding='base64'>AAEC\n AA==</STREAM></S>").is_ok());
-        assert!(ok("<STREAM>AA\u{b3}C</STREAM>").unwrap_err().contains("base64"));
-        assert!(ok("<STREAM>AAE</STREAM>").unwrap_err().contains("multiple of 4"));
+        assert!(ok("<STREAM>AA\u{b3}C</STREAM>")
+            .unwrap_err()
+            .contains("base64"));
+        assert!(ok("<STREAM>AAE</STREAM>")
+            .unwrap_err()
+            .contains("multiple of 4"));
         assert!(ok("<STREAM>AA=A</STREAM>").is_err());
     }
 
