@@ -423,6 +423,55 @@ fn owens_t_core(h: f64, a: f64, ah: f64) -> f64 {
     }
 }
 
+/// Largest h for which T(h, a) is computed unscaled and multiplied by e^{h²/2}; above it the
+/// Patefield–Tandy table uses only T2 and T3, whose scaled forms are exact.
+const SCALED_T_SWITCH: f64 = 4.8;
+
+/// e^{h²/2}·T(h, a) for h ≥ 0, a ≥ 0: Owen's T without its Gaussian factor, finite for any h.
+/// Needed for the log-space tail of the split-normal probability.
+pub fn owens_t_scaled(h: f64, a: f64) -> f64 {
+    let (h, a) = (h.abs(), a.abs());
+    if h <= SCALED_T_SWITCH {
+        return owens_t(h, a) * (0.5 * h * h).exp();
+    }
+    if a <= 1.0 {
+        // Row h > 4.8 of the Patefield–Tandy selection table: codes 9–12.
+        let ia = PT_ARANGE.iter().position(|&r| a <= r).unwrap_or(7);
+        let code = usize::from(PT_SELECT[14][ia]) - 1;
+        let m = PT_ORDER[code];
+        return if PT_METHOD[code] == 2 {
+            pt_t2_scaled(h, a, a * h, m)
+        } else {
+            pt_t3_scaled(h, a, a * h, m)
+        };
+    }
+    if a == f64::INFINITY {
+        return 0.5 * normal_sf_scaled(h);
+    }
+    // Owen's identity for a > 1, every term scaled by e^{h²/2}; the bracket carries
+    // e^{−a²h²/2}, hence the factor e^{−(a²−1)h²/2}.
+    let ah = a * h;
+    let bracket = 0.5 * normal_sf_scaled(ah) - normal_cdf(-h) * normal_sf_scaled(ah) - owens_t_scaled(ah, 1.0 / a);
+    0.5 * normal_sf_scaled(h) + (-0.5 * (a * a - 1.0) * h * h).exp() * bracket
+}
+
+/// e^{h²/2}·Q(h) = R(h)/√(2π), R Mills' ratio: erfc below h = 30 (relative error ≲ εh²/2),
+/// the asymptotic series (Abramowitz & Stegun 26.2.12) above.
+fn normal_sf_scaled(h: f64) -> f64 {
+    if h <= 30.0 {
+        normal_cdf(-h) * (0.5 * h * h).exp()
+    } else {
+        let inv_h2 = 1.0 / (h * h);
+        let mut term = 1.0;
+        let mut series = 1.0;
+        for k in 1..=8 {
+            term *= -((2 * k - 1) as f64) * inv_h2;
+            series += term;
+        }
+        ONE_OVER_SQRT_2PI / h * series
+    }
+}
+
 /// T1: the first m terms of Owen's series in powers of a (small h).
 fn pt_t1(h: f64, a: f64, m: u32) -> f64 {
     let hs = -0.5 * h * h;
@@ -450,6 +499,11 @@ fn pt_t1(h: f64, a: f64, m: u32) -> f64 {
 
 /// T2: power series of 1/(1+x²) to order 2m, integrated term by term (moderate h, small ah).
 fn pt_t2(h: f64, a: f64, ah: f64, m: u32) -> f64 {
+    pt_t2_scaled(h, a, ah, m) * (-0.5 * h * h).exp()
+}
+
+/// e^{h²/2}·T2, so that large h does not underflow.
+fn pt_t2_scaled(h: f64, a: f64, ah: f64, m: u32) -> f64 {
     let maxii = f64::from(2 * m + 1);
     let hs = h * h;
     let as_neg = -a * a;
@@ -461,7 +515,7 @@ fn pt_t2(h: f64, a: f64, ah: f64, m: u32) -> f64 {
     loop {
         value += z;
         if ii >= maxii {
-            return value * ONE_OVER_SQRT_2PI * (-0.5 * hs).exp();
+            return value * ONE_OVER_SQRT_2PI;
         }
         z = y * (vi - ii * z);
         vi *= as_neg;
@@ -471,6 +525,11 @@ fn pt_t2(h: f64, a: f64, ah: f64, m: u32) -> f64 {
 
 /// T3: as T2 with the series replaced by its Chebyshev economisation (coefficients PT_C2).
 fn pt_t3(h: f64, a: f64, ah: f64, m: u32) -> f64 {
+    pt_t3_scaled(h, a, ah, m) * (-0.5 * h * h).exp()
+}
+
+/// e^{h²/2}·T3.
+fn pt_t3_scaled(h: f64, a: f64, ah: f64, m: u32) -> f64 {
     let hs = h * h;
     let a2 = a * a;
     let y = 1.0 / hs;
@@ -484,7 +543,7 @@ fn pt_t3(h: f64, a: f64, ah: f64, m: u32) -> f64 {
         vi *= a2;
         ii += 2.0;
     }
-    value * ONE_OVER_SQRT_2PI * (-0.5 * hs).exp()
+    value * ONE_OVER_SQRT_2PI
 }
 
 /// T4: series in a² for large h and a close to 1.
@@ -545,156 +604,221 @@ fn ln_p_at_least(delta: f64, sm: f64, sp: f64, th: f64) -> f64 {
     if sm == sp {
         return ln_normal_cdf(delta / sm.hypot(th));
     }
-    let (p, magnitude) = split_closed_form(delta, sm, sp, th);
+    let (p, q, magnitude) = split_closed_form(delta, sm, sp, th);
     if p > 0.5 {
-        // Near 1: use the complement, which the mirrored closed form gives with small absolute
-        // error, so ln P = ln(1 − Q) keeps every digit of a tiny Q.
-        let (q, _) = split_closed_form(-delta, sp, sm, th);
+        // Near 1: use the complement, which the closed form gives with small absolute error,
+        // so ln P = ln(1 − Q) keeps every digit of a tiny Q.
         return (-q.clamp(0.0, 0.5)).ln_1p();
     }
-    // The closed form's rounding error is ~ε·magnitude; switch to quadrature when that is not
-    // negligible against P, or P is below the spec's threshold.
-    if p < QUADRATURE_BELOW_P || magnitude * 1e-4 > p || p <= 0.0 {
-        return ln_p_at_least_quadrature(delta, sm, sp, th);
+    // The closed form's rounding error is ~ε·magnitude: keep it while that is negligible
+    // against P and P is above the spec's threshold.
+    if p >= QUADRATURE_BELOW_P && magnitude * 1e-4 <= p {
+        return p.ln();
     }
-    p.ln()
+    if let Some(ln_p) = ln_p_wrong_side(delta, sm, sp, th) {
+        return ln_p;
+    }
+    ln_p_at_least_quadrature(delta, sm, sp, th)
 }
 
-/// The skew-normal closed form of `bounds.md` §8.1 for Pr(M − ε ≥ B), plus the sum of the
-/// magnitudes of its terms (for the rounding-error estimate).
+/// The skew-normal closed form of `bounds.md` §8.1: P = Pr(M − ε ≥ B), its complement Q computed
+/// from the same four terms (not as 1 − P, so a tiny Q keeps its digits), and the sum of the
+/// magnitudes of P's terms (for the rounding-error estimate).
 ///
 /// Each half of the split normal is a half-normal; its convolution with the Gaussian floor is a
-/// skew normal (Azzalini 1985, Scand. J. Statist. 12, 171), whose CDF is Φ(x) − 2T(x, α).
-fn split_closed_form(delta: f64, sm: f64, sp: f64, th: f64) -> (f64, f64) {
+/// skew normal (Azzalini 1985, Scand. J. Statist. 12, 171), whose CDF is Φ(x) − 2T(x, α):
+/// P = w₊[Φ(−z₊) + 2T(z₊, α₊)] + w₋[Φ(z₋) − 2T(z₋, α₋)],
+/// Q = w₊[Φ(z₊) − 2T(z₊, α₊)] + w₋[Φ(−z₋) + 2T(z₋, α₋)].
+fn split_closed_form(delta: f64, sm: f64, sp: f64, th: f64) -> (f64, f64, f64) {
     let total = sm + sp;
     let (w_minus, w_plus) = (sm / total, sp / total);
-    let mut p = 0.0;
-    let mut magnitude = 0.0;
+    let (mut p, mut q, mut magnitude) = (0.0, 0.0, 0.0);
     if w_plus > 0.0 {
-        let s_plus = sp.hypot(th);
-        let z_plus = -delta / s_plus;
-        let c = normal_cdf(-z_plus);
+        let z_plus = -delta / sp.hypot(th);
         let t = 2.0 * owens_t(z_plus, sp / th);
-        p += w_plus * (c + t);
-        magnitude += w_plus * (c + t.abs());
+        let (lo, hi) = (normal_cdf(-z_plus), normal_cdf(z_plus));
+        p += w_plus * (lo + t);
+        q += w_plus * (hi - t);
+        magnitude += w_plus * (lo + t.abs());
     }
     if w_minus > 0.0 {
-        let s_minus = sm.hypot(th);
-        let z_minus = delta / s_minus;
-        let c = normal_cdf(z_minus);
+        let z_minus = delta / sm.hypot(th);
         let t = 2.0 * owens_t(z_minus, sm / th);
-        p += w_minus * (c - t);
-        magnitude += w_minus * (c + t.abs());
+        let (lo, hi) = (normal_cdf(z_minus), normal_cdf(-z_minus));
+        p += w_minus * (lo - t);
+        q += w_minus * (hi + t);
+        magnitude += w_minus * (lo + t.abs());
     }
-    (p, magnitude)
+    (p, q, magnitude)
 }
 
-/// ln Pr(M − ε ≥ B) by adaptive Gauss–Kronrod quadrature over ε of the log-scaled integrand
-/// φ(ε)·S(B + th·ε), S the split normal's survival function (`bounds.md` §8.1 fallback).
+/// ln Pr(M − ε ≥ B) on the wrong side of the bound (d = B − m > 0), where the closed form
+/// would underflow or cancel, in log space:
 ///
-/// The integrand is log-concave, so its mode is found by bisection on the derivative; the range
-/// is cut where the integrand has fallen by e⁻⁶⁰ from the mode, and split at the mode and at the
-/// kink ε = (m − B)/th. Rule: QUADPACK's 7/15-point Gauss–Kronrod pair (Piessens et al. 1983).
-fn ln_p_at_least_quadrature(delta: f64, sm: f64, sp: f64, th: f64) -> f64 {
-    let sn = SplitSurvival::new(sm, sp);
-    let g = |eps: f64| -0.5 * eps * eps - LN_SQRT_2PI + sn.ln_survival(th * eps - delta);
-    let dg = |eps: f64| -eps - th * sn.hazard(th * eps - delta);
-    // Mode: g' is decreasing and g'(0) ≤ 0.
-    let mut hi = 0.0;
-    let mut lo = -1.0;
-    while dg(lo) <= 0.0 && lo > -1e6 {
-        hi = lo;
-        lo *= 2.0;
+/// * the upper half, A = Q(z₊) + 2T(z₊, α₊), has no cancellation and is taken as
+///   ln Q(z₊) + ln(1 + 2T̃/Q̃) with both functions scaled by e^{z₊²/2};
+/// * the lower half, L = Φ(z₋) − 2T(z₋, α₋), cancels; it equals 2[T(x, ∞) − T(x, α₋)] =
+///   (1/π)∫_{α₋}^∞ e^{−x²(1+s²)/2}/(1+s²) ds with x = |z₋| (Owen 1956's integral form), which is
+///   evaluated by quadrature with the factor e^{−x²(1+α₋²)/2} taken out (`bounds.md` §8.1:
+///   "quadrature of the log-scaled integrand").
+///
+/// Returns `None` when d ≤ 0 (never needed there for realistic widths).
+fn ln_p_wrong_side(delta: f64, sm: f64, sp: f64, th: f64) -> Option<f64> {
+    let d = -delta;
+    if !(d > 0.0) {
+        return None;
     }
+    let total = sm + sp;
+    let mut upper = f64::NEG_INFINITY;
+    if sp > 0.0 {
+        let z = d / sp.hypot(th);
+        let alpha = sp / th;
+        let ln_a = if z <= SCALED_T_SWITCH {
+            (normal_cdf(-z) + 2.0 * owens_t(z, alpha)).ln()
+        } else {
+            ln_normal_cdf(-z) + (2.0 * owens_t_scaled(z, alpha) / normal_sf_scaled(z)).ln_1p()
+        };
+        upper = (sp / total).ln() + ln_a;
+    }
+    let mut lower = f64::NEG_INFINITY;
+    if sm > 0.0 {
+        let x = d / sm.hypot(th);
+        let alpha = sm / th;
+        lower = (sm / total).ln() + ln_skew_normal_left_tail(x, alpha);
+    }
+    let max = upper.max(lower);
+    if !max.is_finite() {
+        return Some(max);
+    }
+    Some(max + ((upper - max).exp() + (lower - max).exp()).ln())
+}
+
+/// ln F_SN(−x; α) for x > 0, α ≥ 0: the skew-normal CDF far in its left tail, as
+/// −x²(1+α²)/2 − ln π + ln J, J = ∫₀^∞ exp(−x²(αt + t²/2))/(1 + (α+t)²) dt.
+///
+/// J's integrand is smooth, positive and decreasing, with decay scale 1/c, c = max(x²α, x);
+/// Gauss–Kronrod panels doubling in width from 1/(2c) cover it until the exponent passes −45.
+fn ln_skew_normal_left_tail(x: f64, alpha: f64) -> f64 {
+    let x2 = x * x;
+    let f = |t: f64| (-x2 * (alpha * t + 0.5 * t * t)).exp() / (1.0 + (alpha + t) * (alpha + t));
+    let c = (x2 * alpha).max(x);
+    let mut breaks = vec![0.0];
+    let mut t = 0.0;
+    let mut step = 0.5 / c;
     for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if mid <= lo || mid >= hi {
+        t += step;
+        breaks.push(t);
+        if x2 * (alpha * t + 0.5 * t * t) > 45.0 {
             break;
         }
-        if dg(mid) > 0.0 {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
+        step *= 2.0;
     }
-    let mode = 0.5 * (lo + hi);
+    let j = adaptive_gauss_kronrod(&f, &breaks, 1e-14);
+    -0.5 * x2 * (1.0 + alpha * alpha) - PI.ln() + j.ln()
+}
+
+/// ln Pr(M − ε ≥ B) by quadrature of log-scaled integrands (`bounds.md` §8.1 fallback).
+///
+/// The split normal is a mixture of two half-normals, so P = w₊ A + w₋ L with
+/// A = Pr(σ₊|Z₁| + σ_th Z₂ ≥ d) and L = Pr(σ_th Z₂ − σ₋|Z₁| ≥ d), d = B − m. Each is a
+/// one-dimensional integral over the half-normal variable u = |Z₁| of a smooth, log-concave,
+/// positive integrand 2φ(u)·Q((d ∓ σu)/σ_th): no cancellation, and every factor is kept in
+/// logarithms, so P far below the smallest double is still exact to ~1e-13 relative.
+fn ln_p_at_least_quadrature(delta: f64, sm: f64, sp: f64, th: f64) -> f64 {
+    let d = -delta;
+    let total = sm + sp;
+    let mut terms = [f64::NEG_INFINITY; 2];
+    if sp > 0.0 {
+        terms[0] = (sp / total).ln() + ln_half_normal_tail(d, -sp, th);
+    }
+    if sm > 0.0 {
+        terms[1] = (sm / total).ln() + ln_half_normal_tail(d, sm, th);
+    }
+    let max = terms[0].max(terms[1]);
+    if !max.is_finite() {
+        return max;
+    }
+    max + ((terms[0] - max).exp() + (terms[1] - max).exp()).ln()
+}
+
+/// ln ∫₀^∞ 2φ(u) Q((d + c·u)/σ_th) du = ln Pr(σ_th Z₂ − c|Z₁| ≥ d).
+///
+/// The log-integrand g is concave with g'' ≤ −1, so its mode is found by a safeguarded Newton
+/// iteration (analytic g′, g″ through the normal hazard φ/Q), panels are laid out geometrically
+/// from the mode on the scale of the local width until g has dropped by e⁻⁴⁵, and the panels go
+/// to the adaptive Gauss–Kronrod routine, which seldom needs to refine them.
+fn ln_half_normal_tail(d: f64, c: f64, th: f64) -> f64 {
+    let k = c / th;
+    let v = |u: f64| (d + c * u) / th;
+    // Normal hazard φ(v)/Q(v) = φ(v)/Φ(−v), in log form.
+    let hazard = |v: f64| (-0.5 * v * v - LN_SQRT_2PI - ln_normal_cdf(-v)).exp();
+    let g = |u: f64| LN_2 - 0.5 * u * u - LN_SQRT_2PI + ln_normal_cdf(-v(u));
+    let dg = |u: f64| -u - k * hazard(v(u));
+    let d2g = |u: f64| {
+        let vv = v(u);
+        let h = hazard(vv);
+        -1.0 - k * k * h * (h - vv).max(0.0)
+    };
+    // Mode on [0, ∞): g' is decreasing.
+    let mode = if dg(0.0) <= 0.0 {
+        0.0
+    } else {
+        let mut hi = 1.0;
+        while dg(hi) > 0.0 && hi < 1e8 {
+            hi *= 2.0;
+        }
+        let mut lo = 0.0;
+        let mut u = 0.5 * hi;
+        for _ in 0..100 {
+            let slope = dg(u);
+            if slope > 0.0 {
+                lo = u;
+            } else {
+                hi = u;
+            }
+            let newton = u - slope / d2g(u);
+            let next = if newton > lo && newton < hi { newton } else { 0.5 * (lo + hi) };
+            if (next - u).abs() <= 1e-15 * next.abs().max(1e-300) || hi - lo <= 4.0 * f64::EPSILON * hi {
+                u = next;
+                break;
+            }
+            u = next;
+        }
+        u
+    };
     let g_max = g(mode);
     if !g_max.is_finite() {
         return g_max;
     }
-    // g ≤ g_max − (ε − mode)²/2, so the integrand is below e⁻⁷² at distance 12.
-    let drop = 60.0;
-    let end = |dir: f64| {
-        let (mut inside, mut outside) = (mode, mode + dir * 12.0);
-        for _ in 0..100 {
-            let mid = 0.5 * (inside + outside);
-            if mid == inside || mid == outside {
-                break;
-            }
-            if g(mid) > g_max - drop {
-                inside = mid;
-            } else {
-                outside = mid;
-            }
+    let width = 1.0 / (-d2g(mode)).sqrt();
+    let drop = 45.0;
+    let mut breaks = vec![mode];
+    let mut step = 0.5 * width;
+    let mut x = mode;
+    for _ in 0..200 {
+        x += step;
+        breaks.push(x);
+        if g(x) < g_max - drop {
+            break;
         }
-        outside
-    };
-    let (left, right) = (end(-1.0), end(1.0));
-    let kink = delta / th;
-    let mut breaks = vec![left, mode, right];
-    if kink > left && kink < right && kink != mode {
-        breaks.push(kink);
+        step *= 2.0;
+    }
+    step = 0.5 * width;
+    x = mode;
+    for _ in 0..200 {
+        if x <= 0.0 {
+            break;
+        }
+        x = (x - step).max(0.0);
+        breaks.push(x);
+        if g(x) < g_max - drop {
+            break;
+        }
+        step *= 2.0;
     }
     breaks.sort_by(f64::total_cmp);
-    let f = |eps: f64| (g(eps) - g_max).exp();
-    let integral = adaptive_gauss_kronrod(&f, &breaks, 1e-14);
-    g_max + integral.ln()
-}
-
-/// Survival function of a split normal centred at 0 (in the variable u = x − m).
-struct SplitSurvival {
-    sm: f64,
-    sp: f64,
-    w_minus: f64,
-    w_plus: f64,
-    ln_density_peak: f64,
-}
-
-impl SplitSurvival {
-    fn new(sm: f64, sp: f64) -> Self {
-        let total = sm + sp;
-        Self {
-            sm,
-            sp,
-            w_minus: sm / total,
-            w_plus: sp / total,
-            ln_density_peak: (2.0 / total).ln() - LN_SQRT_2PI,
-        }
-    }
-
-    /// ln Pr(M − m ≥ u).
-    fn ln_survival(&self, u: f64) -> f64 {
-        if u >= 0.0 {
-            if self.sp == 0.0 {
-                return f64::NEG_INFINITY;
-            }
-            (2.0 * self.w_plus).ln() + ln_normal_cdf(-u / self.sp)
-        } else {
-            if self.sm == 0.0 {
-                return 0.0;
-            }
-            (-2.0 * self.w_minus * normal_cdf(u / self.sm)).ln_1p()
-        }
-    }
-
-    /// Hazard f(u)/S(u) in log-safe form.
-    fn hazard(&self, u: f64) -> f64 {
-        let s = if u >= 0.0 { self.sp } else { self.sm };
-        if s == 0.0 {
-            return if u >= 0.0 { f64::INFINITY } else { 0.0 };
-        }
-        (self.ln_density_peak - 0.5 * (u / s) * (u / s) - self.ln_survival(u)).exp()
-    }
+    let f = |u: f64| (g(u) - g_max).exp();
+    g_max + adaptive_gauss_kronrod(&f, &breaks, 1e-13).ln()
 }
 
 /// Kronrod nodes (positive half, largest first) and weights, and the embedded 7-point Gauss
@@ -726,22 +850,41 @@ const GK15_WG: [f64; 4] = [
     0.417_959_183_673_469_387_755_102_040_816_327,
 ];
 
-/// (Kronrod estimate, |Kronrod − Gauss|) on [a, b].
+/// (Kronrod estimate, error estimate) on [a, b], with QUADPACK's qk15 error heuristic
+/// resasc·min(1, (200|K − G|/resasc)^{3/2}) (Piessens et al. 1983), far less pessimistic than
+/// |K − G| itself, which only measures the 7-point rule's error.
 fn gk15(f: &dyn Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
     let c = 0.5 * (a + b);
     let h = 0.5 * (b - a);
     let fc = f(c);
+    let mut values = [0.0; 15];
+    values[7] = fc;
     let mut k = GK15_WK[7] * fc;
     let mut gs = GK15_WG[3] * fc;
     for j in 0..7 {
         let x = h * GK15_X[j];
-        let s = f(c - x) + f(c + x);
+        let (f1, f2) = (f(c - x), f(c + x));
+        values[j] = f1;
+        values[14 - j] = f2;
+        let s = f1 + f2;
         k += GK15_WK[j] * s;
         if j % 2 == 1 {
             gs += GK15_WG[j / 2] * s;
         }
     }
-    (k * h, ((k - gs) * h).abs())
+    let mean = 0.5 * k;
+    let mut resasc = GK15_WK[7] * (fc - mean).abs();
+    for j in 0..7 {
+        resasc += GK15_WK[j] * ((values[j] - mean).abs() + (values[14 - j] - mean).abs());
+    }
+    resasc *= h.abs();
+    let raw = ((k - gs) * h).abs();
+    let err = if resasc > 0.0 && raw > 0.0 {
+        resasc * (200.0 * raw / resasc).powf(1.5).min(1.0)
+    } else {
+        raw
+    };
+    (k * h, err)
 }
 
 /// Globally adaptive Gauss–Kronrod integration over consecutive breakpoints: the panel with
@@ -810,9 +953,43 @@ mod tests {
             (-0.1, 0.02, 0.05, 0.03),
             (-0.01, 0.003, 0.001, 0.002),
         ] {
-            let (p, _) = split_closed_form(delta, sm, sp, th);
+            let (p, _, _) = split_closed_form(delta, sm, sp, th);
             let q = ln_p_at_least_quadrature(delta, sm, sp, th).exp();
             assert!((p - q).abs() < 1e-12 * p.max(1e-3), "{delta} {sm} {sp} {th}: {p} vs {q}");
+        }
+    }
+
+    /// The log-space wrong-side formula and the general half-normal quadrature are two
+    /// independent routes to the same ln P; they must agree in relative terms far into the tail.
+    #[test]
+    fn wrong_side_formula_matches_quadrature() {
+        let widths = [0.0005f64, 0.001, 0.002, 0.004, 0.01, 0.03];
+        for &sm in &widths {
+            for &sp in &widths {
+                for &th in &[0.0005f64, 0.002, 0.005, 0.03] {
+                    for &k in &[2.0, 5.0, 7.0, 12.0, 40.0, 300.0] {
+                        let delta = -k * sm.max(sp).hypot(th);
+                        let a = ln_p_wrong_side(delta, sm, sp, th).unwrap();
+                        let q = ln_p_at_least_quadrature(delta, sm, sp, th);
+                        assert!(
+                            (a - q).abs() < 1e-12 * q.abs().max(1.0),
+                            "sm={sm} sp={sp} th={th} k={k}: {a} vs {q}"
+                        );
+                    }
+                }
+            }
+        }
+    }
+
+    /// e^{h²/2}T(h,a) against T(h,a)·e^{h²/2} where the latter does not underflow.
+    #[test]
+    fn scaled_owens_t_matches_unscaled() {
+        for &h in &[4.9, 6.0, 9.0, 15.0, 25.0, 35.0] {
+            for &a in &[0.01, 0.1, 0.3, 0.5, 0.8, 0.99, 1.0, 1.5, 4.0, 30.0] {
+                let direct = owens_t(h, a) * (0.5 * h * h).exp();
+                let scaled = owens_t_scaled(h, a);
+                assert!((direct - scaled).abs() < 1e-12 * scaled, "h={h} a={a}: {direct} vs {scaled}");
+            }
         }
     }
 }
