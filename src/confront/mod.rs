@@ -1,1 +1,6 @@
 //! Confrontation of vetted objects with the theory's bounds over a (Υ, τ) grid.
+
+pub mod drivers;
+pub mod prob;
+pub mod reduce;
+pub mod regions;

@@ -1,0 +1,185 @@
+//! Leave-one-out influence: which objects move the Υ interval at τ = 0, and by how much.
+//!
+//! Because ℓ is a sum over objects, removing object i is exact and cheap: the slice without it
+//! is χ² + 2 ln P_i along the slice (`theory/bounds.md` §8.6). Only objects whose −2 ln P_i
+//! exceeds a small threshold somewhere on the slice can move a crossing by more than that, so
+//! only they are recomputed. Each candidate's shift is the larger change of the two interval
+//! ends; an end that opens or closes counts as an infinite shift and is listed first. The
+//! per-object decomposition holds for the per-object theory floor (the default); with a shared
+//! floor the subtraction is an approximation and the report should say so.
+//!
+//! ```
+//! use dwarfbound::confront::drivers::{leave_one_out, DriverOptions, SliceClass};
+//! use dwarfbound::confront::prob::{ln_prob_consistent, MassKind, Measurement, Side};
+//! use dwarfbound::confront::regions::refine_axis;
+//! let fine = refine_axis(&[-1.0, 0.0, 1.0], 100).unwrap();
+//! let bound: Vec<f64> = fine.iter().map(|u| 0.075 * (1.0 + 0.2 * u)).collect();
+//! let m = |mass, side| Measurement {
+//!     mass_msun: mass, kind: MassKind::Measured { lo: 0.001, hi: 0.001 }, side, scale: 1.0 };
+//! let objects = [m(0.076, Side::AtLeast), m(0.074, Side::AtMost)];
+//! let chi2: Vec<f64> = bound.iter()
+//!     .map(|&b| -2.0 * objects.iter().map(|o| ln_prob_consistent(o, b, 0.001)).sum::<f64>())
+//!     .collect();
+//! let class = SliceClass { measurements: &objects, floor_msun: 0.001, bound_fine_msun: &bound };
+//! let report = leave_one_out(&fine, &chi2, &[class], &DriverOptions::default()).unwrap();
+//! assert_eq!(report.drivers.len(), 2);
+//! assert!(report.drivers[0].shift.is_infinite()); // each object alone closes one end
+//! ```
+
+use rayon::prelude::*;
+
+use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
+use super::regions::{interval_from_slice, Interval, Level};
+
+/// Settings of the driver analysis (`bounds.md` §8.6 defaults).
+#[derive(Debug, Clone, PartialEq)]
+pub struct DriverOptions {
+    /// Candidates are objects whose −2 ln P_i exceeds this somewhere on the slice (2e-3).
+    pub candidate_min_minus_two_ln_p: f64,
+    /// How many drivers to return (10).
+    pub top: usize,
+    /// The interval's level, 1 dof (95.45 %, Δχ² ≤ 4).
+    pub level: Level,
+}
+
+impl Default for DriverOptions {
+    fn default() -> Self {
+        Self {
+            candidate_min_minus_two_ln_p: 2e-3,
+            top: 10,
+            level: Level::Cl95,
+        }
+    }
+}
+
+/// One class on the τ = 0 slice: its objects, its floor and its bound at every point of the
+/// fine Υ axis (class values; each object applies its own scale).
+#[derive(Debug, Clone, Copy)]
+pub struct SliceClass<'a> {
+    /// All objects of the class, in the caller's order.
+    pub measurements: &'a [Measurement],
+    /// The class's theory floor, M☉.
+    pub floor_msun: f64,
+    /// The class bound B_c(Υ, 0) on the fine axis, M☉.
+    pub bound_fine_msun: &'a [f64],
+}
+
+/// One object's influence on the interval.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Driver {
+    /// Position of the class in the slice passed to [`leave_one_out`].
+    pub class: usize,
+    /// Position of the object within its class's measurements.
+    pub index: usize,
+    /// max(|Δlower|, |Δupper|) in Υ; +∞ when an end opens or closes.
+    pub shift: f64,
+    /// The interval without this object.
+    pub interval_without: Interval,
+    /// Largest −2 ln P_i along the slice (its weight in the fit).
+    pub max_minus_two_ln_p: f64,
+}
+
+/// The driver analysis of one slice.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DriverReport {
+    /// The interval with every object.
+    pub baseline: Interval,
+    /// Number of candidates examined.
+    pub n_candidates: usize,
+    /// The `top` largest shifts: infinite first, then decreasing; ties by (class, index).
+    pub drivers: Vec<Driver>,
+}
+
+/// Leave-one-out drivers of the Υ interval at τ = 0 (`bounds.md` §8.6).
+///
+/// `chi2_fine` is the full slice χ² on `upsilon_fine` (the same values the interval was taken
+/// from); each candidate's slice is recomputed exactly as χ² + 2 ln P_i, with its own minimum.
+pub fn leave_one_out(
+    upsilon_fine: &[f64],
+    chi2_fine: &[f64],
+    classes: &[SliceClass<'_>],
+    opts: &DriverOptions,
+) -> Result<DriverReport, StatsError> {
+    let n = upsilon_fine.len();
+    if n < 2 || chi2_fine.len() != n {
+        return Err(StatsError::InvalidInput(format!(
+            "the slice has {n} abscissae and {} χ² values",
+            chi2_fine.len()
+        )));
+    }
+    for (c, class) in classes.iter().enumerate() {
+        if class.bound_fine_msun.len() != n || class.bound_fine_msun.iter().any(|b| !b.is_finite()) {
+            return Err(StatsError::InvalidInput(format!(
+                "class {c}: the bound along the slice must have {n} finite values"
+            )));
+        }
+        for (i, m) in class.measurements.iter().enumerate() {
+            m.validate(i)?;
+        }
+    }
+    let dchi2 = opts.level.dchi2(1);
+    let baseline = interval_from_slice(upsilon_fine, chi2_fine, dchi2)?;
+    // Candidates: P_i is monotone in B, so its smallest value on the slice is at the extreme B.
+    let mut candidates: Vec<(usize, usize, f64)> = Vec::new();
+    for (c, class) in classes.iter().enumerate() {
+        let b_min = class.bound_fine_msun.iter().copied().fold(f64::INFINITY, f64::min);
+        let b_max = class.bound_fine_msun.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        for (i, m) in class.measurements.iter().enumerate() {
+            if !m.informative() {
+                continue;
+            }
+            let worst_b = match m.side {
+                Side::AtLeast => b_max,
+                Side::AtMost => b_min,
+            };
+            let weight = -2.0 * ln_prob_consistent(m, worst_b, class.floor_msun);
+            if weight > opts.candidate_min_minus_two_ln_p {
+                candidates.push((c, i, weight));
+            }
+        }
+    }
+    let mut drivers: Vec<Driver> = candidates
+        .par_iter()
+        .map(|&(c, i, weight)| {
+            let class = &classes[c];
+            let m = &class.measurements[i];
+            let without: Vec<f64> = chi2_fine
+                .iter()
+                .zip(class.bound_fine_msun)
+                .map(|(&chi2, &b)| chi2 + 2.0 * ln_prob_consistent(m, b, class.floor_msun))
+                .collect();
+            let interval_without = interval_from_slice(upsilon_fine, &without, dchi2)?;
+            let shift = end_shift(baseline.lower, interval_without.lower)
+                .max(end_shift(baseline.upper, interval_without.upper));
+            Ok(Driver {
+                class: c,
+                index: i,
+                shift,
+                interval_without,
+                max_minus_two_ln_p: weight,
+            })
+        })
+        .collect::<Result<_, StatsError>>()?;
+    drivers.sort_by(|a, b| {
+        b.shift
+            .total_cmp(&a.shift)
+            .then(a.class.cmp(&b.class))
+            .then(a.index.cmp(&b.index))
+    });
+    let n_candidates = drivers.len();
+    drivers.truncate(opts.top);
+    Ok(DriverReport {
+        baseline,
+        n_candidates,
+        drivers,
+    })
+}
+
+/// Change of one interval end; opening or closing is infinite.
+fn end_shift(before: Option<f64>, after: Option<f64>) -> f64 {
+    match (before, after) {
+        (Some(a), Some(b)) => (a - b).abs(),
+        (None, None) => 0.0,
+        _ => f64::INFINITY,
+    }
+}
