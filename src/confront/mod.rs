@@ -1,6 +1,7 @@
 //! Confrontation of vetted objects with the theory's bounds over a (Υ, τ) grid.
 
 pub mod drivers;
+pub mod engine;
 pub mod prob;
 pub mod reduce;
 pub mod regions;

@@ -4,5 +4,7 @@
 
 pub mod cache;
 pub mod config;
+pub mod confront;
 pub mod history;
 pub mod lock;
+mod report_input;

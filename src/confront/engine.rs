@@ -1,0 +1,442 @@
+//! The comparator: every vetted object against every grid point, without an N × G term.
+//!
+//! Each mass test depends on a grid point only through one scalar bound (the MMHB for
+//! `hburning` and `brown_dwarf`, the Chandrasekhar mass for `white_dwarf`), so each class is
+//! reduced once to a tabulated log-likelihood curve in the bound's value ([`ClassCurve`],
+//! `theory/bounds.md` §8.5) and the grid is evaluated by interpolation. White dwarfs with a
+//! measured radius also confront the modified mass–radius relation; that term depends on the
+//! object's own mass, so it is evaluated per object and grid point from the tabulated R(M).
+//!
+//! The engine sees the theory only through [`BoundSurface`], so it can be tested with simple
+//! synthetic bounds and knows nothing of how the bounds were solved.
+//!
+//! ```
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+//! use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
+//! struct Flat;
+//! impl BoundSurface for Flat {
+//!     fn upsilon(&self) -> &[f64] { &[-0.1, 0.0, 0.1] }
+//!     fn tau(&self) -> &[f64] { &[0.0] }
+//!     fn mmhb_msun(&self, i: usize) -> Option<f64> { Some(0.075 * (1.0 + 0.1 * self.upsilon()[i])) }
+//!     fn chandrasekhar_mu2_msun(&self, _i: usize) -> Option<f64> { Some(1.4563) }
+//!     fn wd_radius_rsun(&self, _i: usize, _m: f64, _mu_e: f64) -> Option<f64> { None }
+//! }
+//! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
+//!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
+//!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
+//!     rotation_period_h: None, mu_e: None, reference: None, source_file: "a.csv".into(), source_row: 1 };
+//! let c = confront(&[star], &Flat, &EngineOptions::default()).unwrap();
+//! assert_eq!(c.joint.len(), 3);
+//! ```
+
+use rayon::prelude::*;
+
+use super::prob::{ln_prob_consistent, tension_sigma, MassKind, Measurement, Side, StatsError};
+use super::reduce::{ClassCurve, ReduceOptions};
+use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+
+/// The bounds over the grid, as the comparator needs them. Index `i` runs over grid points in
+/// row-major order: τ outer, Υ inner (`i = j_tau * n_upsilon + i_upsilon`).
+pub trait BoundSurface: Sync {
+    /// Υ values (ascending).
+    fn upsilon(&self) -> &[f64];
+    /// τ values (ascending).
+    fn tau(&self) -> &[f64];
+    /// The MMHB used for confronting data at point `i`, M☉; `None` where no model exists.
+    fn mmhb_msun(&self, i: usize) -> Option<f64>;
+    /// The Chandrasekhar mass for μe = 2 at point `i`, M☉ (other μe scale as 4/μe²).
+    fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64>;
+    /// The white-dwarf radius at `mass_msun` for `mu_e` at point `i`, R☉; `None` above the
+    /// maximum mass or where no model exists.
+    fn wd_radius_rsun(&self, i: usize, mass_msun: f64, mu_e: f64) -> Option<f64>;
+}
+
+/// Choices of the comparison (defaults from `theory/bounds.md` §4–§5 and `structure.md` §4.6).
+#[derive(Debug, Clone, PartialEq)]
+pub struct EngineOptions {
+    /// Theory floor of the MMHB (1σ), M☉.
+    pub mmhb_floor_msun: f64,
+    /// Theory floor of the Chandrasekhar mass (1σ) for μe = 2, M☉.
+    pub chandrasekhar_floor_msun: f64,
+    /// Fractional theory floor on predicted white-dwarf radii.
+    pub wd_radius_floor_fraction: f64,
+    /// Objects of the MMHB classes younger than this are left out of the MMHB test, Gyr.
+    pub age_min_mmhb_gyr: f64,
+    /// Keep young objects in the MMHB test anyway.
+    pub include_young: bool,
+    /// Leave objects without an age out of the MMHB test.
+    pub exclude_age_unknown: bool,
+    /// Default μe of white dwarfs without one.
+    pub default_mu_e: f64,
+    /// Tabulation of the class curves.
+    pub reduce: ReduceOptions,
+}
+
+impl Default for EngineOptions {
+    fn default() -> Self {
+        Self {
+            mmhb_floor_msun: 0.005,
+            chandrasekhar_floor_msun: 0.03,
+            wd_radius_floor_fraction: 0.03,
+            age_min_mmhb_gyr: 1.0,
+            include_young: false,
+            exclude_age_unknown: false,
+            default_mu_e: 2.0,
+            reduce: ReduceOptions::default(),
+        }
+    }
+}
+
+/// Which term of the likelihood an object feeds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Term {
+    /// `hburning` against the MMHB (M ≥ B).
+    HBurning,
+    /// `brown_dwarf` against the MMHB (M ≤ B).
+    BrownDwarf,
+    /// `white_dwarf` against the Chandrasekhar mass (M ≤ B).
+    WhiteDwarfMass,
+    /// `white_dwarf` radius against the modified mass–radius relation.
+    WhiteDwarfRadius,
+}
+
+impl Term {
+    /// All terms in output order.
+    pub const ALL: [Term; 4] = [
+        Term::HBurning,
+        Term::BrownDwarf,
+        Term::WhiteDwarfMass,
+        Term::WhiteDwarfRadius,
+    ];
+
+    /// Name used in outputs (`grid.csv` column suffixes, the report).
+    pub fn name(self) -> &'static str {
+        match self {
+            Term::HBurning => "hburning",
+            Term::BrownDwarf => "brown_dwarf",
+            Term::WhiteDwarfMass => "white_dwarf",
+            Term::WhiteDwarfRadius => "white_dwarf_radius",
+        }
+    }
+
+    fn index(self) -> usize {
+        self as usize
+    }
+}
+
+/// How one object enters the comparison.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ObjectUse {
+    /// Index into the caller's object list.
+    pub index: usize,
+    /// The mass test it feeds (`None` if left out).
+    pub mass_term: Option<Term>,
+    /// The statistics' view of its mass.
+    pub measurement: Measurement,
+    /// Whether it feeds the mass–radius term.
+    pub radius_term: bool,
+    /// Why it is left out of its mass test, if it is (`young`, `age_unknown`).
+    pub excluded: Option<String>,
+    /// Flags for `objects.csv` (`young`, `age_unknown`, `limit_uninformative`).
+    pub flags: Vec<String>,
+    /// μe used for a white dwarf.
+    pub mu_e: f64,
+}
+
+/// The result over the grid.
+#[derive(Debug)]
+pub struct Confrontation {
+    /// Number of Υ values.
+    pub n_upsilon: usize,
+    /// Number of τ values.
+    pub n_tau: usize,
+    /// −2 ln L per term and grid point (`None` where no model exists).
+    pub per_term: [Vec<Option<f64>>; 4],
+    /// Joint −2 ln L per grid point.
+    pub joint: Vec<Option<f64>>,
+    /// How each object was used.
+    pub uses: Vec<ObjectUse>,
+    /// The class curves of the mass terms (for errors, counts and per-object evaluation).
+    pub curves: Vec<(Term, ClassCurve)>,
+}
+
+/// Maps a catalogue object to the statistics' measurement for its class.
+pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
+    let side = match o.class {
+        ObjectClass::HBurning => Side::AtLeast,
+        ObjectClass::BrownDwarf | ObjectClass::WhiteDwarf => Side::AtMost,
+    };
+    let sigma = match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+        (Some(a), Some(b)) => Some(a.max(b)),
+        (Some(a), None) | (None, Some(a)) => Some(a),
+        (None, None) => None,
+    };
+    let kind = match o.mass_limit {
+        MassLimit::None => MassKind::Measured {
+            lo: o.mass_err_lo_msun.unwrap_or(0.0),
+            hi: o.mass_err_hi_msun.or(o.mass_err_lo_msun).unwrap_or(0.0),
+        },
+        MassLimit::Upper => MassKind::UpperLimit { sigma },
+        MassLimit::Lower => MassKind::LowerLimit { sigma },
+    };
+    let scale = match o.class {
+        ObjectClass::WhiteDwarf => 4.0 / (mu_e * mu_e),
+        _ => 1.0,
+    };
+    Measurement {
+        mass_msun: o.mass_msun,
+        kind,
+        side,
+        scale,
+    }
+}
+
+/// Decides how each object enters the comparison (age rule of `bounds.md` §5).
+pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse> {
+    objects
+        .iter()
+        .enumerate()
+        .map(|(index, o)| {
+            let mu_e = o.mu_e.unwrap_or(opts.default_mu_e);
+            let measurement = measurement_of(o, mu_e);
+            let mut flags = Vec::new();
+            let mut excluded = None;
+            let term = match o.class {
+                ObjectClass::HBurning => Term::HBurning,
+                ObjectClass::BrownDwarf => Term::BrownDwarf,
+                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
+            };
+            if term != Term::WhiteDwarfMass {
+                match o.age_gyr {
+                    Some(age) if age < opts.age_min_mmhb_gyr => {
+                        flags.push("young".to_string());
+                        if !opts.include_young {
+                            excluded = Some(format!(
+                                "young (age {age} Gyr < {} Gyr)",
+                                opts.age_min_mmhb_gyr
+                            ));
+                        }
+                    }
+                    Some(_) => {}
+                    None => {
+                        flags.push("age_unknown".to_string());
+                        if opts.exclude_age_unknown {
+                            excluded = Some("age unknown".to_string());
+                        }
+                    }
+                }
+            }
+            if !measurement.informative() {
+                flags.push("limit_uninformative".to_string());
+            }
+            let radius_term = o.class == ObjectClass::WhiteDwarf
+                && o.mass_limit == MassLimit::None
+                && o.radius_rsun.is_some()
+                && o.radius_err_rsun.is_some();
+            ObjectUse {
+                index,
+                mass_term: if excluded.is_some() { None } else { Some(term) },
+                measurement,
+                radius_term,
+                excluded,
+                flags,
+                mu_e,
+            }
+        })
+        .collect()
+}
+
+/// Why a comparison could not be made.
+#[derive(Debug, thiserror::Error)]
+pub enum EngineError {
+    /// The statistics refused an input.
+    #[error(transparent)]
+    Stats(#[from] StatsError),
+    /// The grid is empty or inconsistent.
+    #[error("invalid grid: {0}")]
+    Grid(String),
+}
+
+/// Runs the comparison over the whole grid.
+pub fn confront(
+    objects: &[CatalogueObject],
+    surface: &dyn BoundSurface,
+    opts: &EngineOptions,
+) -> Result<Confrontation, EngineError> {
+    let (nu, nt) = (surface.upsilon().len(), surface.tau().len());
+    let n = nu * nt;
+    if n == 0 {
+        return Err(EngineError::Grid("the grid has no points".into()));
+    }
+    let uses = plan(objects, opts);
+    let mmhb: Vec<Option<f64>> = (0..n).map(|i| surface.mmhb_msun(i)).collect();
+    let chandra: Vec<Option<f64>> = (0..n).map(|i| surface.chandrasekhar_mu2_msun(i)).collect();
+
+    let mut curves = Vec::new();
+    for (term, values, floor) in [
+        (Term::HBurning, &mmhb, opts.mmhb_floor_msun),
+        (Term::BrownDwarf, &mmhb, opts.mmhb_floor_msun),
+        (Term::WhiteDwarfMass, &chandra, opts.chandrasekhar_floor_msun),
+    ] {
+        let ms: Vec<Measurement> = uses
+            .iter()
+            .filter(|u| u.mass_term == Some(term))
+            .map(|u| u.measurement)
+            .collect();
+        if ms.is_empty() {
+            continue;
+        }
+        let finite: Vec<f64> = values.iter().flatten().copied().collect();
+        let Some(range) = super::reduce::bound_range(&finite) else {
+            continue;
+        };
+        curves.push((term, ClassCurve::build(&ms, floor, range, &opts.reduce)?));
+    }
+
+    let mut per_term: [Vec<Option<f64>>; 4] = Default::default();
+    for t in Term::ALL {
+        per_term[t.index()] = vec![Some(0.0); n];
+    }
+    for (term, curve) in &curves {
+        let values = if *term == Term::WhiteDwarfMass {
+            &chandra
+        } else {
+            &mmhb
+        };
+        per_term[term.index()] = values
+            .iter()
+            .map(|b| b.map(|b| -2.0 * curve.eval(b)))
+            .collect();
+    }
+    let radius_objects: Vec<(usize, f64)> = uses
+        .iter()
+        .filter(|u| u.radius_term)
+        .map(|u| (u.index, u.mu_e))
+        .collect();
+    if !radius_objects.is_empty() {
+        per_term[Term::WhiteDwarfRadius.index()] = (0..n)
+            .into_par_iter()
+            .map(|i| {
+                chandra[i]?;
+                let mut sum = 0.0;
+                for &(k, mu_e) in &radius_objects {
+                    sum += -2.0 * ln_radius_likelihood(&objects[k], mu_e, i, surface, opts);
+                }
+                Some(sum)
+            })
+            .collect();
+    }
+    // A point is usable only where every bound that some object needs exists.
+    let joint = (0..n)
+        .map(|i| {
+            if mmhb[i].is_none() || chandra[i].is_none() {
+                return None;
+            }
+            let mut s = 0.0;
+            for t in Term::ALL {
+                s += per_term[t.index()][i]?;
+            }
+            Some(s)
+        })
+        .collect();
+    for t in Term::ALL {
+        for i in 0..n {
+            if mmhb[i].is_none() || chandra[i].is_none() {
+                per_term[t.index()][i] = None;
+            }
+        }
+    }
+    Ok(Confrontation {
+        n_upsilon: nu,
+        n_tau: nt,
+        per_term,
+        joint,
+        uses,
+        curves,
+    })
+}
+
+/// Smallest log-likelihood a radius term can contribute (keeps −2 ln L finite where the whole
+/// mass range of an object lies above the maximum mass).
+pub const LN_L_RADIUS_FLOOR: f64 = -1e4;
+
+/// Number of nodes of the mass quadrature of the radius term.
+const RADIUS_QUADRATURE_NODES: usize = 41;
+
+/// ln of the likelihood of a white dwarf's measured radius at grid point `i`, marginalised
+/// over its true mass: ∫ p(M | mass measurement) N(R_obs; R(M), σ(M)) dM over the masses that
+/// have a model (M below the maximum mass). σ(M)² = σ_R² + (f R(M))², f the fractional floor.
+/// The mass density is the split normal of the measurement (Gaussian when symmetric).
+pub fn ln_radius_likelihood(
+    o: &CatalogueObject,
+    mu_e: f64,
+    i: usize,
+    surface: &dyn BoundSurface,
+    opts: &EngineOptions,
+) -> f64 {
+    let (Some(r_obs), Some(r_err)) = (o.radius_rsun, o.radius_err_rsun) else {
+        return 0.0;
+    };
+    let lo = o.mass_err_lo_msun.unwrap_or(0.0);
+    let hi = o.mass_err_hi_msun.or(o.mass_err_lo_msun).unwrap_or(0.0);
+    let m0 = o.mass_msun;
+    let gauss = |m: f64| -> Option<f64> {
+        let r = surface.wd_radius_rsun(i, m, mu_e)?;
+        let s2 = r_err * r_err + (opts.wd_radius_floor_fraction * r).powi(2);
+        let z = (r_obs - r) / s2.sqrt();
+        Some((-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt())
+    };
+    if lo <= 0.0 && hi <= 0.0 {
+        return match gauss(m0) {
+            Some(p) if p > 0.0 => p.ln().max(LN_L_RADIUS_FLOOR),
+            _ => LN_L_RADIUS_FLOOR,
+        };
+    }
+    // Composite Simpson over [m0 − 6σ₋, m0 + 6σ₊] of the split-normal density times the radius
+    // Gaussian; the density's normalisation is 2/(√(2π)(σ₋+σ₊)).
+    let (a, b) = (m0 - 6.0 * lo, m0 + 6.0 * hi);
+    let nodes = RADIUS_QUADRATURE_NODES;
+    let h = (b - a) / (nodes - 1) as f64;
+    let norm = 2.0 / ((2.0 * std::f64::consts::PI).sqrt() * (lo + hi));
+    let mut total = 0.0;
+    for k in 0..nodes {
+        let m = a + h * k as f64;
+        if m <= 0.0 {
+            continue;
+        }
+        let s = if m < m0 { lo } else { hi };
+        let dens = norm * (-0.5 * ((m - m0) / s).powi(2)).exp();
+        let w = if k == 0 || k == nodes - 1 {
+            1.0
+        } else if k % 2 == 1 {
+            4.0
+        } else {
+            2.0
+        };
+        if let Some(g) = gauss(m) {
+            total += w * dens * g;
+        }
+    }
+    total *= h / 3.0;
+    if total > 0.0 {
+        total.ln().max(LN_L_RADIUS_FLOOR)
+    } else {
+        LN_L_RADIUS_FLOOR
+    }
+}
+
+/// ln P of one object's mass test against a bound value of its class (scaled by μe for white
+/// dwarfs), with the class floor; `None` if the object has no mass test.
+pub fn ln_p_object(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
+    let floor = match u.mass_term? {
+        Term::WhiteDwarfMass => opts.chandrasekhar_floor_msun,
+        _ => opts.mmhb_floor_msun,
+    };
+    // The measurement's own scale (μe of a white dwarf) is applied inside.
+    Some(ln_prob_consistent(&u.measurement, class_bound_msun, floor))
+}
+
+/// Tension in σ of one object against its class bound (see [`ln_p_object`]).
+pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
+    ln_p_object(u, class_bound_msun, opts).map(tension_sigma)
+}
