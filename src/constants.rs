@@ -30,6 +30,8 @@ pub const M_H_G: f64 = 1.673_557_5e-24;
 
 /// Nominal solar mass parameter (GM)☉, m³ s⁻² (IAU 2015 Resolution B3).
 pub const GM_SUN_NOMINAL_M3_S2: f64 = 1.327_124_4e20;
+/// Nominal solar luminosity L☉, W (IAU 2015 Resolution B3).
+pub const L_SUN_NOMINAL_W: f64 = 3.828e26;
 /// Nominal solar radius R☉, m (IAU 2015 Resolution B3).
 pub const R_SUN_NOMINAL_M: f64 = 6.957e8;
 /// Nominal equatorial Jupiter radius, m (IAU 2015 Resolution B3).

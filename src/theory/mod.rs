@@ -5,6 +5,12 @@
 //! Chandrasekhar mass, white-dwarf mass–radius relation, break-up period, Schönberg–Chandrasekhar
 //! fraction), with typed errors where no star exists.
 
+pub mod error;
+pub mod lane_emden;
+pub mod mmhb;
+pub mod ode;
+pub mod schonberg;
+
 use serde::{Deserialize, Serialize};
 
 /// The pressure-anisotropy ansatz that τ parametrises (`theory/structure.md` §2).

@@ -1,0 +1,429 @@
+//! Schönberg–Chandrasekhar (SC) fraction: the largest fraction of a star's mass that an
+//! isothermal core can hold under a lighter envelope, and how Υ shifts it (`theory/bounds.md` §7).
+//!
+//! The classic value q_SC ≈ 0.37 λ², λ = μ_env/μ_core (Schönberg & Chandrasekhar 1942, ApJ 96,
+//! 161), came from radiative-envelope models this module does not rebuild. Instead an isothermal
+//! core (Υ-modified) is fitted to an n_env = 3 polytropic envelope (the modified Lane–Emden
+//! system started at the interface) and the fit supplies only the ratio q_fit(λ,Υ)/q_fit(λ,0);
+//! the tool reports q_SC(Υ) = 0.37 λ² × that ratio. With Υ ≠ 0 the density jump at the core
+//! edge turns ρ·d²M/dr² into a δ-function, so the pressure itself is discontinuous there and
+//! P̃ = P + (πGΥ/2) r² ρ² is what must match. Anisotropy (τ ≠ 0) is refused: no anisotropic
+//! isothermal core was specified.
+//!
+//! ```
+//! use dwarfbound::theory::schonberg::{sc_fraction, ScParams, ScVariant};
+//! let q = sc_fraction(0.0, 0.0, &ScParams::default(), ScVariant::FullFit).unwrap();
+//! assert!((q.q_sc - 0.37 * (0.62_f64 / 1.33).powi(2)).abs() < 1e-12);
+//! assert!(sc_fraction(0.0, 0.1, &ScParams::default(), ScVariant::FullFit).is_err());
+//! ```
+
+use super::mmhb::{brent_minimize, BoundError};
+use super::ode::{solve, OdeError, OdeOptions, Stop};
+use serde::{Deserialize, Serialize};
+use std::f64::consts::PI;
+
+/// Relative tolerance of the core and envelope integrations.
+const RTOL: f64 = 1e-12;
+/// Start of the core integration (central series below it).
+const ZETA0: f64 = 1e-4;
+/// Smallest allowed denominator 1 + (Υ/4)ζ²e^{−φ} (or its envelope analogue) before the
+/// pressure gradient is declared undetermined (`structure.md` §1.3).
+const D_MIN: f64 = 1e-9;
+
+fn invalid(reason: impl Into<String>) -> BoundError {
+    BoundError::InvalidInput {
+        reason: reason.into(),
+    }
+}
+
+fn ode_failure<E: std::fmt::Display>(what: &str, e: OdeError<E>) -> BoundError {
+    BoundError::NoConvergence {
+        reason: format!("{what}: {e}"),
+    }
+}
+
+/// Which quantity is continuous across the core–envelope interface.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum InterfaceCondition {
+    /// P̃ = P + (πGΥ/2) r² ρ² continuous (with T): the correct condition (`bounds.md` §7.2).
+    #[default]
+    ContinuousPTilde,
+    /// P continuous, the jump term ignored: wrong for Υ ≠ 0, kept only as a diagnostic.
+    ContinuousPressure,
+}
+
+fn validate_upsilon(upsilon: f64) -> Result<(), BoundError> {
+    if !upsilon.is_finite() {
+        return Err(invalid(format!("Upsilon = {upsilon} must be finite")));
+    }
+    if 1.0 + 1.5 * upsilon <= 0.0 {
+        return Err(invalid(format!(
+            "Upsilon = {upsilon} is at or below -2/3: no regular centre (structure.md §1.4)"
+        )));
+    }
+    Ok(())
+}
+
+/// Right-hand side of the modified isothermal core, y = (φ, m):
+/// φ′[1 + (Υ/4)ζ²e^{−φ}] = m/ζ² + (Υ/2)ζe^{−φ}, m′ = ζ²e^{−φ} (`bounds.md` §7.2).
+fn core_rhs(upsilon: f64, zeta: f64, y: &[f64; 2]) -> Result<[f64; 2], String> {
+    let w = (-y[0]).exp();
+    let d = 1.0 + 0.25 * upsilon * zeta * zeta * w;
+    if d <= D_MIN {
+        return Err(format!(
+            "core denominator 1 + (Upsilon/4) zeta^2 e^-phi = {d} vanishes at zeta = {zeta}"
+        ));
+    }
+    Ok([
+        (y[1] / (zeta * zeta) + 0.5 * upsilon * zeta * w) / d,
+        zeta * zeta * w,
+    ])
+}
+
+/// Central series of the core at ζ₀: φ = Aζ², m = ζ³/3 − Aζ⁵/5, A = (1 + 3Υ/2)/6.
+fn core_start(upsilon: f64) -> [f64; 2] {
+    let a = (1.0 + 1.5 * upsilon) / 6.0;
+    let z = ZETA0;
+    [a * z * z, z.powi(3) / 3.0 - a * z.powi(5) / 5.0]
+}
+
+/// (φ, m) of the modified isothermal core at ζ.
+fn core_at(upsilon: f64, zeta: f64) -> Result<[f64; 2], BoundError> {
+    if !(zeta.is_finite() && zeta > ZETA0) {
+        return Err(invalid(format!(
+            "core radius zeta = {zeta} must exceed {ZETA0}"
+        )));
+    }
+    let opts = OdeOptions::new(RTOL, 1e-15, ZETA0);
+    let sol = solve(
+        |z, y: &[f64; 2]| core_rhs(upsilon, z, y),
+        ZETA0,
+        core_start(upsilon),
+        zeta,
+        &opts,
+        None,
+    )
+    .map_err(|e| ode_failure("isothermal core", e))?;
+    Ok(sol.y)
+}
+
+/// The Bonnor–Ebert point of the (modified) isothermal sphere.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct BonnorEbert {
+    /// C_BE = max over ζ of e^{−φ} m²/(4π) = P_s M_c² G³/c_s⁸.
+    pub c_be: f64,
+    /// The ζ of the maximum.
+    pub zeta: f64,
+}
+
+/// The Bonnor–Ebert constant C_BE(Υ) = max_ζ e^{−φ(ζ)} m(ζ)²/(4π) of the modified isothermal
+/// core (Bonnor 1956, MNRAS 116, 351; Ebert 1955, Z. Astrophys. 37, 217: 1.40 at ζ = 6.451).
+/// The maximum is located as the first zero of d/dζ[e^{−φ}m²] ∝ 2ζ²e^{−φ} − φ′m, found as an
+/// integration event, so ζ is accurate to near machine precision rather than to √ε.
+pub fn bonnor_ebert(upsilon: f64) -> Result<BonnorEbert, BoundError> {
+    validate_upsilon(upsilon)?;
+    let opts = OdeOptions::new(RTOL, 1e-15, ZETA0);
+    let mut g = |z: f64, y: &[f64; 2]| match core_rhs(upsilon, z, y) {
+        Ok(dy) => 2.0 * z * z * (-y[0]).exp() - dy[0] * y[1],
+        Err(_) => -1.0,
+    };
+    let sol = solve(
+        |z, y: &[f64; 2]| core_rhs(upsilon, z, y),
+        ZETA0,
+        core_start(upsilon),
+        1e3,
+        &opts,
+        Some(&mut g),
+    )
+    .map_err(|e| ode_failure("Bonnor-Ebert core", e))?;
+    if sol.stop != Stop::Event {
+        return Err(BoundError::NoConvergence {
+            reason: format!("no Bonnor-Ebert maximum found below zeta = 1e3 (Upsilon = {upsilon})"),
+        });
+    }
+    let [phi, m] = sol.y;
+    Ok(BonnorEbert {
+        c_be: (-phi).exp() * m * m / (4.0 * PI),
+        zeta: sol.x,
+    })
+}
+
+/// Right-hand side of the modified Lane–Emden envelope, y = (θ, μ) (`bounds.md` §1, τ = 0).
+fn envelope_rhs(upsilon: f64, n: f64, xi: f64, y: &[f64; 2]) -> Result<[f64; 2], String> {
+    let t = y[0].max(0.0);
+    let tn = t.powf(n);
+    let d = 1.0 + 0.25 * n * upsilon * xi * xi * t.powf(n - 1.0);
+    if d <= D_MIN {
+        return Err(format!("envelope denominator {d} vanishes at xi = {xi}"));
+    }
+    Ok([
+        -(y[1] + 0.5 * upsilon * xi.powi(3) * tn) / (xi * xi * d),
+        xi * xi * tn,
+    ])
+}
+
+/// The fitted fraction at one core edge ζ_f, and the envelope's mass integrals.
+fn q_at(
+    lambda: f64,
+    upsilon: f64,
+    n_env: f64,
+    interface: InterfaceCondition,
+    zeta_f: f64,
+) -> Result<f64, BoundError> {
+    let [phi, m] = core_at(upsilon, zeta_f)?;
+    let w_c = (-phi).exp();
+    let w_e = match interface {
+        InterfaceCondition::ContinuousPressure => lambda * w_c,
+        InterfaceCondition::ContinuousPTilde => {
+            // w_c + A w_c² = w_e/λ + A w_e², A = (Υ/8)ζ_f²; the root continuous with Υ → 0.
+            let a = upsilon * zeta_f * zeta_f / 8.0;
+            let p_tilde = w_c + a * w_c * w_c;
+            let disc = 1.0 / (lambda * lambda) + 4.0 * a * p_tilde;
+            if disc < 0.0 {
+                return Err(BoundError::NoConvergence {
+                    reason: format!(
+                        "no envelope density matches the core at zeta_f = {zeta_f} (Upsilon = {upsilon})"
+                    ),
+                });
+            }
+            2.0 * p_tilde / (1.0 / lambda + disc.sqrt())
+        }
+    };
+    if !(w_e.is_finite() && w_e > 0.0) {
+        return Err(BoundError::NoConvergence {
+            reason: format!("envelope density {w_e} not positive at zeta_f = {zeta_f}"),
+        });
+    }
+    let p_e = w_e / lambda;
+    let r_e = ((n_env + 1.0) * p_e).sqrt() / w_e;
+    let xi_f = zeta_f / r_e;
+    let mu_f = m / (r_e.powi(3) * w_e);
+    let opts = OdeOptions::new(RTOL, 1e-15, 1e-3 * xi_f);
+    let mut g = |_x: f64, y: &[f64; 2]| y[0];
+    let sol = solve(
+        |x, y: &[f64; 2]| envelope_rhs(upsilon, n_env, x, y),
+        xi_f,
+        [1.0, mu_f],
+        xi_f * 1e8,
+        &opts,
+        Some(&mut g),
+    )
+    .map_err(|e| ode_failure("polytropic envelope", e))?;
+    if sol.stop != Stop::Event {
+        return Err(BoundError::NoConvergence {
+            reason: format!("envelope has no surface (zeta_f = {zeta_f})"),
+        });
+    }
+    // One Newton step on the root found on the dense output (`structure.md` §3.5, n ≥ 1).
+    let dy = envelope_rhs(upsilon, n_env, sol.x, &sol.y).map_err(|reason| {
+        BoundError::NoConvergence {
+            reason: format!("envelope surface: {reason}"),
+        }
+    })?;
+    let dxi = if dy[0] != 0.0 { -sol.y[0] / dy[0] } else { 0.0 };
+    let mu1 = sol.y[1] + dy[1] * dxi;
+    let q = mu_f / mu1;
+    if q.is_finite() && q > 0.0 {
+        Ok(q)
+    } else {
+        Err(BoundError::NoConvergence {
+            reason: format!("core mass fraction {q} at zeta_f = {zeta_f}"),
+        })
+    }
+}
+
+/// The best core–envelope fit at one (λ, Υ).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct CoreEnvelopeFit {
+    /// Maximum core mass fraction q_fit over the core edge.
+    pub q: f64,
+    /// The core edge ζ_f of the maximum (isothermal units).
+    pub zeta_f: f64,
+}
+
+fn validate_fit_inputs(lambda: f64, upsilon: f64, n_env: f64) -> Result<(), BoundError> {
+    validate_upsilon(upsilon)?;
+    if !(lambda.is_finite() && lambda > 0.0 && lambda <= 1.0) {
+        return Err(invalid(format!(
+            "lambda = mu_env/mu_core = {lambda} must lie in (0, 1]"
+        )));
+    }
+    if !(n_env.is_finite() && (1.0..5.0).contains(&n_env)) {
+        return Err(invalid(format!(
+            "envelope polytropic index {n_env} must lie in [1, 5)"
+        )));
+    }
+    Ok(())
+}
+
+/// The maximum over ζ_f of the core mass fraction q = μ_f/μ₁ of an isothermal core (Υ-modified)
+/// fitted to a polytropic envelope of index `n_env` (`bounds.md` §7.1–7.2). The maximum is
+/// bracketed on a log-spaced scan of ζ_f ∈ [0.5, 60] and refined by Brent's method.
+pub fn core_envelope_fit(
+    lambda: f64,
+    upsilon: f64,
+    n_env: f64,
+    interface: InterfaceCondition,
+) -> Result<CoreEnvelopeFit, BoundError> {
+    validate_fit_inputs(lambda, upsilon, n_env)?;
+    let q = |z: f64| q_at(lambda, upsilon, n_env, interface, z);
+    const SCAN: usize = 48;
+    let (z_lo, z_hi) = (0.5_f64, 60.0_f64);
+    let zs: Vec<f64> = (0..SCAN)
+        .map(|i| z_lo * (z_hi / z_lo).powf(i as f64 / (SCAN - 1) as f64))
+        .collect();
+    let mut best: Option<(usize, f64)> = None;
+    let mut last_err = None;
+    for (i, z) in zs.iter().enumerate() {
+        match q(*z) {
+            Ok(v) => {
+                if best.is_none_or(|(_, b)| v > b) {
+                    best = Some((i, v));
+                }
+            }
+            Err(e) => last_err = Some(e),
+        }
+    }
+    let Some((i_best, _)) = best else {
+        return Err(last_err.unwrap_or(BoundError::NoConvergence {
+            reason: "no core edge gave a fit".into(),
+        }));
+    };
+    let lo = zs[i_best.saturating_sub(1)];
+    let hi = zs[(i_best + 1).min(SCAN - 1)];
+    let failed = std::cell::Cell::new(None);
+    let objective = |ln_z: f64| match q(ln_z.exp()) {
+        Ok(v) => -v,
+        Err(e) => {
+            failed.set(Some(e));
+            f64::INFINITY
+        }
+    };
+    let (ln_z, neg_q) =
+        brent_minimize(objective, lo.ln(), hi.ln(), 1e-10, 300).ok_or_else(|| {
+            BoundError::NoConvergence {
+                reason: format!("maximisation of the core mass fraction (Upsilon = {upsilon})"),
+            }
+        })?;
+    if let Some(e) = failed.take() {
+        return Err(e);
+    }
+    Ok(CoreEnvelopeFit {
+        q: -neg_q,
+        zeta_f: ln_z.exp(),
+    })
+}
+
+/// Composition and conventions of the SC fraction.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ScParams {
+    /// Mean molecular weight of the envelope (default 0.62, common practice, no source).
+    pub mu_env: f64,
+    /// Mean molecular weight of the isothermal core (default 1.33, ionised helium; common practice).
+    pub mu_core: f64,
+    /// Polytropic index of the fitted envelope (default 3).
+    pub n_env: f64,
+    /// Coefficient of λ² in the standard-gravity fraction (default 0.37, Schönberg &
+    /// Chandrasekhar 1942).
+    pub classic_coefficient: f64,
+}
+
+impl Default for ScParams {
+    fn default() -> Self {
+        ScParams {
+            mu_env: 0.62,
+            mu_core: 1.33,
+            n_env: 3.0,
+            classic_coefficient: 0.37,
+        }
+    }
+}
+
+impl ScParams {
+    /// λ = μ_env/μ_core.
+    pub fn lambda(&self) -> f64 {
+        self.mu_env / self.mu_core
+    }
+}
+
+/// How the modified-gravity factor is obtained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum ScVariant {
+    /// q_fit(λ,Υ)/q_fit(λ,0) from the full core–envelope fit (the default).
+    #[default]
+    FullFit,
+    /// √(C_BE(Υ)/C_BE(0)) from the core alone; the difference to the full fit is the SC theory
+    /// uncertainty (`bounds.md` §7.2).
+    CoreFactorOnly,
+}
+
+impl ScVariant {
+    /// The name used in every output.
+    pub fn name(self) -> &'static str {
+        match self {
+            ScVariant::FullFit => "full-fit",
+            ScVariant::CoreFactorOnly => "core-factor-only",
+        }
+    }
+}
+
+/// The SC fraction at one Υ.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ScFraction {
+    /// q_SC(Υ) = classic coefficient × λ² × ratio.
+    pub q_sc: f64,
+    /// The modified-gravity factor q_SC(Υ)/q_SC(0).
+    pub ratio: f64,
+    /// λ = μ_env/μ_core used.
+    pub lambda: f64,
+    /// The variant that produced `ratio`.
+    pub variant: ScVariant,
+}
+
+/// The Schönberg–Chandrasekhar fraction q_SC(Υ) = 0.37 λ² × [modified-gravity factor]
+/// (`bounds.md` §7.2). Refuses τ ≠ 0 with [`BoundError::NotSpecified`]: the fraction is not
+/// specified for anisotropy.
+pub fn sc_fraction(
+    upsilon: f64,
+    tau: f64,
+    params: &ScParams,
+    variant: ScVariant,
+) -> Result<ScFraction, BoundError> {
+    if tau != 0.0 {
+        return Err(BoundError::NotSpecified {
+            reason: format!(
+                "Schönberg-Chandrasekhar fraction not specified for anisotropy (tau = {tau}): no anisotropic isothermal core was verified"
+            ),
+        });
+    }
+    let lambda = params.lambda();
+    if !(params.classic_coefficient.is_finite() && params.classic_coefficient > 0.0) {
+        return Err(invalid(format!(
+            "classic SC coefficient {} must be finite and > 0",
+            params.classic_coefficient
+        )));
+    }
+    validate_fit_inputs(lambda, upsilon, params.n_env)?;
+    let ratio = if upsilon == 0.0 {
+        1.0
+    } else {
+        match variant {
+            ScVariant::FullFit => {
+                let c = InterfaceCondition::ContinuousPTilde;
+                core_envelope_fit(lambda, upsilon, params.n_env, c)?.q
+                    / core_envelope_fit(lambda, 0.0, params.n_env, c)?.q
+            }
+            ScVariant::CoreFactorOnly => {
+                (bonnor_ebert(upsilon)?.c_be / bonnor_ebert(0.0)?.c_be).sqrt()
+            }
+        }
+    };
+    Ok(ScFraction {
+        q_sc: params.classic_coefficient * lambda * lambda * ratio,
+        ratio,
+        lambda,
+        variant,
+    })
+}

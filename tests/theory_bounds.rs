@@ -1,0 +1,499 @@
+//! Checks of the bounds module (MMHB models A and B, anchoring, Schönberg–Chandrasekhar
+//! fraction) against values outside the project. Each check names its source and status, as in
+//! `theory/bounds.md`: "verified" (agrees with a published value), "computed" (recomputed by the
+//! independent scipy script behind `bounds.md`, no published value), "from memory" (a published
+//! value recalled, not re-read).
+
+use dwarfbound::theory::mmhb::*;
+
+fn rel(a: f64, b: f64) -> f64 {
+    ((a - b) / b).abs()
+}
+
+fn assert_rel(what: &str, got: f64, want: f64, tol: f64) {
+    assert!(
+        rel(got, want) <= tol,
+        "{what}: got {got:.12e}, want {want:.12e}, rel err {:.3e} > {tol:.1e}",
+        rel(got, want)
+    );
+}
+
+fn standard() -> PolytropeConstants {
+    // ξ1, ω: Chandrasekhar 1939 / Horedt 2004 (verified in bounds.md §1); J_9.73: computed there.
+    PolytropeConstants::standard_n15_default_k()
+}
+
+#[test]
+fn model_a_composition_and_exponents() {
+    let p = ModelAParams::default();
+    // bounds.md §9 (computed; Burrows & Liebert quote α = 4.82, from memory).
+    assert_rel("alpha", p.alpha(), 4.821_428_6, 1e-7);
+    assert_rel("alpha vs B&L 4.82 (from memory)", p.alpha(), 4.82, 1e-3);
+    // bounds.md §9, computed from CODATA 2018 (B&L round it to 1e13, from memory).
+    assert_rel(
+        "C_P",
+        degenerate_pressure_constant_cgs(),
+        9.906_181e12,
+        1e-6,
+    );
+    let x = p.exponents();
+    // bounds.md §2.3 / §9 (closed-form exponents, computed).
+    assert_rel("p", x.p, 10.735_238_1, 1e-8);
+    assert_rel("E", x.e, 16.174_285_7, 1e-8);
+    assert_rel("D", x.d, 5.486_666_7, 1e-8);
+    assert_rel("beta", x.beta, 4.414_286, 1e-6);
+    assert_rel("E/p", x.e_over_p, 1.506_654, 1e-6);
+    assert_rel("D/p", x.d_over_p, 0.511_088, 1e-5);
+    assert_rel("1/p", x.one_over_p, 0.093_151, 1e-5);
+    assert_rel("p = p_HB - p_e", x.p_hb - x.p_e, x.p, 1e-15);
+    assert_rel("psi*", p.psi_star(), 0.027_536_73, 1e-6);
+    assert_rel("k = 1.5u + s", p.k_index(), 9.73, 1e-15);
+    // Standard-gravity δ, γ: bounds.md §1 (computed).
+    assert_rel("delta", standard().delta(), 5.990_704_516_3, 1e-9);
+    assert_rel("gamma", standard().gamma(), 2.357_285_906_2, 1e-9);
+}
+
+#[test]
+fn model_a_standard_gravity_closed_form_and_numeric_route() {
+    let p = ModelAParams::default();
+    let closed = model_a(&standard(), &p, 1.0).unwrap();
+    let numeric = model_a_numeric(&standard(), &p, 1.0).unwrap();
+    // bounds.md §2.3 (computed): 0.09938334 M☉ by both routes.
+    assert_rel("MMHB_A closed form", closed.mmhb_msun, 0.099_383_34, 1e-6);
+    assert_rel(
+        "MMHB_A numeric route",
+        numeric.mmhb_msun,
+        0.099_383_34,
+        1e-6,
+    );
+    assert_rel(
+        "closed vs numeric",
+        numeric.mmhb_msun,
+        closed.mmhb_msun,
+        1e-8,
+    );
+    assert_rel("psi* numeric", numeric.psi_star, closed.psi_star, 1e-6);
+    // At the minimum the two luminosities balance.
+    let st = closed.at_minimum;
+    assert_rel(
+        "L_HB = L_e at the minimum",
+        st.burning_luminosity_erg_s,
+        st.surface_luminosity_erg_s,
+        1e-10,
+    );
+    // bounds.md §2.5 diagnostics (computed, quoted to 2–3 digits).
+    assert_rel("R at minimum", st.radius_cm, 5.45e9, 5e-3);
+    assert_rel("R at minimum (R_sun)", st.radius_rsun(), 0.078, 1e-2);
+    assert_rel("rho_c at minimum", st.central_density_g_cm3, 1.75e3, 5e-3);
+    assert_rel("T_c at minimum", st.central_temperature_k, 1.10e6, 5e-3);
+    assert_rel("T_eff at minimum", st.effective_temperature_k, 500.0, 1e-2);
+    assert_rel("L at minimum", st.surface_luminosity_erg_s, 1.3e27, 4e-2);
+    assert_rel("L at minimum (L_sun)", st.luminosity_lsun(), 3.5e-7, 3e-2);
+}
+
+#[test]
+fn burrows_liebert_scaling_coefficients() {
+    // bounds.md §2.2 steps 2–4: coefficients of R, ρ_c, T_c in m = M/M☉, μ_e and ψ, computed;
+    // Burrows & Liebert 1993 quote 2.80e9 cm, 1.28e5 g cm⁻³, 7.68e8 K (from memory), reproduced
+    // to 0.6 %, 3 % and 1.3 % (bounds.md §6).
+    let p = ModelAParams::default();
+    let st = p.state(&standard(), 1.0, 0.0, 1.0);
+    let mu_e = p.mu_e();
+    let r_coef = st.radius_cm * mu_e.powf(5.0 / 3.0);
+    let rho_coef = st.central_density_g_cm3 / mu_e.powi(5);
+    assert_rel("R coefficient (computed)", r_coef, 2.7823e9, 1e-4);
+    assert_rel("rho_c coefficient (computed)", rho_coef, 1.3203e5, 1e-4);
+    assert_rel("R coefficient vs B&L (from memory)", r_coef, 2.80e9, 0.007);
+    assert_rel(
+        "rho_c coefficient vs B&L (from memory)",
+        rho_coef,
+        1.28e5,
+        0.035,
+    );
+    let psi = 0.1;
+    let st = p.state(&standard(), 1.0, psi, 1.0);
+    let t_coef =
+        st.central_temperature_k * (1.0 + p.alpha() * psi).powi(2) / (psi * mu_e.powf(8.0 / 3.0));
+    assert_rel("T_c coefficient (computed)", t_coef, 7.7836e8, 1e-4);
+    assert_rel(
+        "T_c coefficient vs B&L (from memory)",
+        t_coef,
+        7.68e8,
+        0.015,
+    );
+}
+
+#[test]
+fn model_a_injected_constant_vectors() {
+    // bounds.md §2.4: solver-independent test vectors (computed).
+    let p = ModelAParams::default();
+    for (xi1, omega, j, want, want_phi) in [
+        (
+            3.726_828_81,
+            2.632_633_47,
+            0.220_087_04,
+            0.095_603_62,
+            0.961_968_33,
+        ),
+        (
+            3.471_066_05,
+            2.985_460_63,
+            0.188_646_04,
+            0.111_678_12,
+            1.123_710_73,
+        ),
+    ] {
+        let le = PolytropeConstants {
+            xi1,
+            omega,
+            j_k: j,
+            k: 9.73,
+        };
+        let a = model_a(&le, &p, 1.0).unwrap();
+        let n = model_a_numeric(&le, &p, 1.0).unwrap();
+        assert_rel("injected MMHB_A", a.mmhb_msun, want, 1e-6);
+        assert_rel(
+            "injected MMHB_A, numeric vs closed",
+            n.mmhb_msun,
+            a.mmhb_msun,
+            1e-8,
+        );
+        let phi = phi_a(&le, &standard(), &p, 1.0).unwrap();
+        assert_rel("injected Phi_A", phi, want_phi, 1e-7);
+        let raw_ratio = a.mmhb_msun / model_a(&standard(), &p, 1.0).unwrap().mmhb_msun;
+        assert_rel("Phi_A exponents vs raw ratio", phi, raw_ratio, 1e-12);
+    }
+}
+
+#[test]
+fn phi_a_independent_of_surface_constants() {
+    // bounds.md §2.4/§2.5: Φ_A does not depend on ε₀, b₁, κ_R, ν, μ_ph (exact, computed).
+    let le = PolytropeConstants {
+        xi1: 3.726_828_81,
+        omega: 2.632_633_47,
+        j_k: 0.220_087_04,
+        k: 9.73,
+    };
+    let base = ModelAParams::default();
+    let changed = ModelAParams {
+        eps0_erg_g_s: 1e-8,
+        b1: 2.0,
+        kappa_r_cm2_g: 0.03,
+        nu: 1.45,
+        mu_photosphere: Some(2.3),
+        ..base
+    };
+    let r = |p: &ModelAParams| {
+        model_a(&le, p, 1.0).unwrap().mmhb_msun / model_a(&standard(), p, 1.0).unwrap().mmhb_msun
+    };
+    assert_rel(
+        "Phi_A independent of surface fit",
+        r(&changed),
+        r(&base),
+        1e-12,
+    );
+}
+
+#[test]
+fn surface_treatment_spread() {
+    // bounds.md §2.5 (computed): b₁ = 2.0 / 2.5 / 2.87 / 3.25 gives 0.0903 / 0.0958 / 0.0994 / 0.1027.
+    for (b1, want) in [(2.0, 0.0903), (2.5, 0.0958), (2.87, 0.0994), (3.25, 0.1027)] {
+        let p = ModelAParams {
+            b1,
+            ..ModelAParams::default()
+        };
+        let m = model_a(&standard(), &p, 1.0).unwrap().mmhb_msun;
+        assert_rel("MMHB_A vs b1", m, want, 6e-4);
+    }
+}
+
+#[test]
+fn model_b_standard_gravity_and_ignition_table() {
+    let p = ModelBParams::default();
+    let b = model_b(&standard(), &p).unwrap();
+    // bounds.md §3 / §9 (computed).
+    assert_rel("MMHB_B at 3e6 K", b.mmhb_msun, 0.108_993_29, 1e-6);
+    assert_rel("C_T", b.c_t_k, 5.7622e7, 1e-4);
+    for (t_ign, want) in [
+        (2.0e6, 0.0804),
+        (2.5e6, 0.0951),
+        (3.0e6, 0.1090),
+        (3.5e6, 0.1224),
+    ] {
+        let p = ModelBParams {
+            ignition_temperature_k: t_ign,
+            ..p
+        };
+        assert_rel(
+            "MMHB_B vs T_ign",
+            model_b(&standard(), &p).unwrap().mmhb_msun,
+            want,
+            6e-4,
+        );
+    }
+    // Φ_B = ω/ω₀ (exact identity, bounds.md §3).
+    let le = PolytropeConstants {
+        xi1: 3.471_066_05,
+        omega: 2.985_460_63,
+        j_k: 0.188_646_04,
+        k: 9.73,
+    };
+    assert_rel(
+        "Phi_B = omega ratio",
+        phi_b(&le, &standard()).unwrap(),
+        le.omega / standard().omega,
+        1e-13,
+    );
+}
+
+#[test]
+fn g_rescaling_laws() {
+    // bounds.md §1/§2.4: for G_eff = sG, ξ1 → ξ1 s^{-1/2}, ω → ω s^{-3/2}, J → J s^{-3/2};
+    // then Φ_A = s^{-E/p} and Φ_B = s^{-3/2} (exact laws, computed to 1e-10 there).
+    let p = ModelAParams::default();
+    let x = p.exponents();
+    let s0 = standard();
+    for s in [0.8_f64, 0.9, 1.1, 1.2] {
+        let le = PolytropeConstants {
+            xi1: s0.xi1 / s.sqrt(),
+            omega: s0.omega * s.powf(-1.5),
+            j_k: s0.j_k * s.powf(-1.5),
+            k: s0.k,
+        };
+        let phi = phi_a(&le, &s0, &p, 1.0).unwrap();
+        assert_rel("Phi_A = s^(-E/p)", phi, s.powf(-x.e_over_p), 1e-12);
+        let raw =
+            model_a(&le, &p, 1.0).unwrap().mmhb_msun / model_a(&s0, &p, 1.0).unwrap().mmhb_msun;
+        assert_rel("raw ratio = s^(-E/p)", raw, s.powf(-x.e_over_p), 1e-12);
+        // Photospheric gravity scaled by s as well (bounds.md §2.6): (1-τ)^{-1.400196}.
+        let phi_g = phi_a(&le, &s0, &p, s).unwrap();
+        assert_rel(
+            "Phi_A, scaled photospheric g",
+            phi_g,
+            s.powf(-1.400_196),
+            1e-6,
+        );
+        let raw_g =
+            model_a(&le, &p, s).unwrap().mmhb_msun / model_a(&s0, &p, 1.0).unwrap().mmhb_msun;
+        assert_rel("raw ratio, scaled photospheric g", raw_g, phi_g, 1e-12);
+        assert_rel(
+            "Phi_B = s^(-3/2)",
+            phi_b(&le, &s0).unwrap(),
+            s.powf(-1.5),
+            1e-12,
+        );
+    }
+}
+
+#[test]
+fn anchoring_and_modes() {
+    let le = PolytropeConstants {
+        xi1: 3.726_828_81,
+        omega: 2.632_633_47,
+        j_k: 0.220_087_04,
+        k: 9.73,
+    };
+    // Default: model A, anchored at 0.075 M☉ with a 0.005 M☉ floor (bounds.md §4; anchor from
+    // evolutionary models, from memory).
+    let cfg = MmhbConfig::default();
+    let b = evaluate(&cfg, &le, &standard(), 1.0).unwrap();
+    assert_eq!(b.mode_name, "anchored");
+    assert_eq!(b.model.name(), "luminosity-balance");
+    assert_eq!(b.anchor_msun, Some(0.075));
+    assert_eq!(b.floor_msun, 0.005);
+    assert_rel("anchored value", b.value_msun, 0.075 * 0.961_968_33, 1e-7);
+    let b0 = evaluate(&cfg, &standard(), &standard(), 1.0).unwrap();
+    assert_rel(
+        "anchored standard gravity = anchor",
+        b0.value_msun,
+        0.075,
+        1e-15,
+    );
+    // Raw modes carry the raw floors 0.012 (A) / 0.014 (B) of bounds.md §4.
+    let raw_a = evaluate(
+        &MmhbConfig {
+            mode: MmhbMode::Raw,
+            ..cfg
+        },
+        &standard(),
+        &standard(),
+        1.0,
+    )
+    .unwrap();
+    assert_eq!(raw_a.mode_name, "raw");
+    assert_eq!(raw_a.floor_msun, 0.012);
+    assert_rel("raw A", raw_a.value_msun, 0.099_383_34, 1e-6);
+    let raw_b = evaluate(
+        &MmhbConfig {
+            mode: MmhbMode::Raw,
+            model: MmhbModel::IgnitionTemperature,
+            ..cfg
+        },
+        &standard(),
+        &standard(),
+        1.0,
+    )
+    .unwrap();
+    assert_eq!(raw_b.floor_msun, 0.014);
+    assert_rel("raw B", raw_b.value_msun, 0.108_993_29, 1e-6);
+    // Optional model-difference term |Φ_A − Φ_B|·M_anchor in quadrature (bounds.md §4).
+    let le2 = PolytropeConstants {
+        xi1: 3.471_066_05,
+        omega: 2.985_460_63,
+        j_k: 0.188_646_04,
+        k: 9.73,
+    };
+    let with_diff = evaluate(
+        &MmhbConfig {
+            model_difference_in_floor: true,
+            ..cfg
+        },
+        &le2,
+        &standard(),
+        1.0,
+    )
+    .unwrap();
+    let diff = (1.123_710_73 - le2.omega / standard().omega).abs() * 0.075;
+    assert_rel(
+        "model difference",
+        with_diff.model_difference_msun.unwrap(),
+        diff,
+        1e-6,
+    );
+    assert_rel(
+        "floor with model difference",
+        with_diff.floor_msun,
+        0.005f64.hypot(diff),
+        1e-6,
+    );
+    // Bad input is a typed error, never NaN.
+    let bad = PolytropeConstants {
+        omega: f64::NAN,
+        ..standard()
+    };
+    assert!(evaluate(&cfg, &bad, &standard(), 1.0).is_err());
+    assert!(evaluate(&cfg, &standard(), &standard(), 0.0).is_err());
+}
+
+mod schonberg_chandrasekhar {
+    use super::assert_rel;
+    use dwarfbound::theory::mmhb::BoundError;
+    use dwarfbound::theory::schonberg::*;
+
+    const UPSILONS: [f64; 7] = [-0.3, -0.1, -0.05, 0.027, 0.05, 0.1, 0.3];
+
+    #[test]
+    fn bonnor_ebert_constant() {
+        // Verified: Bonnor 1956 (MNRAS 116, 351) / Ebert 1955 give 1.40 at ζ = 6.451;
+        // bounds.md §7.1 / §9 give 1.397660 at 6.450751 (computed).
+        let be = bonnor_ebert(0.0).unwrap();
+        assert_rel("C_BE", be.c_be, 1.397_660, 1e-6);
+        assert_rel("zeta_BE", be.zeta, 6.450_751, 1e-6);
+        assert_rel("C_BE vs Bonnor/Ebert 1.40", be.c_be, 1.40, 2.5e-3);
+        assert_rel("zeta_BE vs Bonnor/Ebert 6.451", be.zeta, 6.451, 1e-4);
+    }
+
+    #[test]
+    fn standard_gravity_fit_values() {
+        // bounds.md §7.1 (computed): q_fit for an n = 3 envelope.
+        for (lambda, want) in [
+            (0.3, 0.025_13),
+            (0.46, 0.064_61),
+            (0.5, 0.078_33),
+            (0.6, 0.120_40),
+            (1.0, 0.359_17),
+        ] {
+            let fit =
+                core_envelope_fit(lambda, 0.0, 3.0, InterfaceCondition::ContinuousPTilde).unwrap();
+            assert_rel("q_fit", fit.q, want, 1e-3);
+            assert!(
+                (6.4..9.0).contains(&fit.zeta_f),
+                "maximum near the Bonnor-Ebert point: {}",
+                fit.zeta_f
+            );
+        }
+        // Other envelope indices at λ = 0.5 (bounds.md §7.1, computed): 0.379 λ², 0.286 λ².
+        for (n, want) in [(2.5, 0.379), (3.25, 0.286)] {
+            let fit = core_envelope_fit(0.5, 0.0, n, InterfaceCondition::ContinuousPTilde).unwrap();
+            assert_rel("q_fit/lambda^2 vs n_env", fit.q / 0.25, want, 1.5e-3);
+        }
+    }
+
+    #[test]
+    fn modified_gravity_ratio_table() {
+        // bounds.md §7.2 table (computed), n_env = 3.
+        let tables: [(&str, [f64; 7]); 4] = [
+            (
+                "lambda 0.5 full fit",
+                [1.0922, 1.0295, 1.0146, 0.9922, 0.9857, 0.9716, 0.9178],
+            ),
+            (
+                "lambda 0.46 full fit",
+                [1.0889, 1.0285, 1.0141, 0.9925, 0.9862, 0.9726, 0.9204],
+            ),
+            (
+                "core factor only",
+                [1.0640, 1.0185, 1.0090, 0.9954, 0.9915, 0.9834, 0.9548],
+            ),
+            (
+                "lambda 0.5 jump ignored",
+                [1.1497, 1.0450, 1.0220, 0.9885, 0.9789, 0.9586, 0.8846],
+            ),
+        ];
+        let q0 = |lambda: f64| {
+            core_envelope_fit(lambda, 0.0, 3.0, InterfaceCondition::ContinuousPTilde)
+                .unwrap()
+                .q
+        };
+        let (q05, q046) = (q0(0.5), q0(0.46));
+        let c0 = bonnor_ebert(0.0).unwrap().c_be;
+        for (i, &u) in UPSILONS.iter().enumerate() {
+            let full = |lambda: f64, c| core_envelope_fit(lambda, u, 3.0, c).unwrap().q;
+            let got = [
+                full(0.5, InterfaceCondition::ContinuousPTilde) / q05,
+                full(0.46, InterfaceCondition::ContinuousPTilde) / q046,
+                (bonnor_ebert(u).unwrap().c_be / c0).sqrt(),
+                full(0.5, InterfaceCondition::ContinuousPressure) / q05,
+            ];
+            for ((name, want), g) in tables.iter().zip(got) {
+                assert_rel(name, g, want[i], 1e-3);
+            }
+        }
+    }
+
+    #[test]
+    fn reported_fraction_and_refusals() {
+        let p = ScParams::default();
+        let lambda = 0.62 / 1.33;
+        // Standard gravity: the classic 0.37 λ² (Schönberg & Chandrasekhar 1942), ≈ 0.080.
+        let q = sc_fraction(0.0, 0.0, &p, ScVariant::FullFit).unwrap();
+        assert_rel("q_SC(0)", q.q_sc, 0.37 * lambda * lambda, 1e-14);
+        assert_rel(
+            "q_SC(0) ≈ 0.080 (bounds.md §7, rounded)",
+            q.q_sc,
+            0.080,
+            6e-3,
+        );
+        // Υ ≠ 0: 0.37 λ² × the fit ratio at the default λ (definition, bounds.md §7.2).
+        let q1 = sc_fraction(0.1, 0.0, &p, ScVariant::FullFit).unwrap();
+        let ratio = core_envelope_fit(lambda, 0.1, 3.0, InterfaceCondition::ContinuousPTilde)
+            .unwrap()
+            .q
+            / core_envelope_fit(lambda, 0.0, 3.0, InterfaceCondition::ContinuousPTilde)
+                .unwrap()
+                .q;
+        assert_rel("q_SC ratio", q1.ratio, ratio, 1e-14);
+        assert!(q1.ratio < 1.0 && q1.ratio > 0.97);
+        let c1 = sc_fraction(0.1, 0.0, &p, ScVariant::CoreFactorOnly).unwrap();
+        assert_rel("core-factor-only ratio", c1.ratio, 0.9834, 1e-3);
+        // τ ≠ 0 is refused (bounds.md §7.2: not specified for anisotropy).
+        match sc_fraction(0.0, 0.1, &p, ScVariant::FullFit) {
+            Err(BoundError::NotSpecified { reason }) => {
+                assert!(reason.contains("not specified for anisotropy"), "{reason}")
+            }
+            other => panic!("expected a refusal, got {other:?}"),
+        }
+        // Υ at the existence bound: typed error, never NaN.
+        assert!(sc_fraction(-0.7, 0.0, &p, ScVariant::FullFit).is_err());
+    }
+}
