@@ -9,7 +9,9 @@ pub mod error;
 pub mod lane_emden;
 pub mod mmhb;
 pub mod ode;
+pub mod rotation;
 pub mod schonberg;
+pub mod white_dwarf;
 
 use serde::{Deserialize, Serialize};
 
