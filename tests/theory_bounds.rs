@@ -497,3 +497,168 @@ mod schonberg_chandrasekhar {
         assert!(sc_fraction(-0.7, 0.0, &p, ScVariant::FullFit).is_err());
     }
 }
+
+/// Model A/B ratios from the project's own modified Lane–Emden solver (n = 3/2).
+mod with_lane_emden {
+    use super::assert_rel;
+    use dwarfbound::theory::mmhb::*;
+    use dwarfbound::theory::Anisotropy;
+
+    fn solve(upsilon: f64, tau: f64, ansatz: Anisotropy) -> PolytropeConstants {
+        PolytropeConstants::solve(upsilon, tau, ansatz, ModelAParams::default().k_index()).unwrap()
+    }
+
+    fn reference() -> PolytropeConstants {
+        solve(0.0, 0.0, Anisotropy::None)
+    }
+
+    fn assert_abs(what: &str, got: f64, want: f64, tol: f64) {
+        assert!(
+            (got - want).abs() <= tol,
+            "{what}: got {got:.9}, want {want}, |diff| {:.2e} > {tol:.1e}",
+            (got - want).abs()
+        );
+    }
+
+    #[test]
+    fn standard_constants_feed_the_mmhb() {
+        // bounds.md §1 sanity conditions (ξ1, ω verified against Chandrasekhar 1939 / Horedt
+        // 2004; δ, γ, J_9.73 computed).
+        let r = reference();
+        assert_rel("xi1", r.xi1, 3.653_753_736_2, 1e-9);
+        assert_rel("omega", r.omega, 2.714_055_120_1, 1e-9);
+        assert_rel("delta", r.delta(), 5.990_704_516_3, 1e-9);
+        assert_rel("gamma", r.gamma(), 2.357_285_906_2, 1e-9);
+        assert_rel("J_9.73", r.j_k, 0.209_606_706_0, 1e-8);
+        let a = model_a(&r, &ModelAParams::default(), 1.0).unwrap();
+        assert_rel("MMHB_A from the solver", a.mmhb_msun, 0.099_383_34, 1e-6);
+    }
+
+    #[test]
+    fn lane_emden_table_of_bounds_section_1() {
+        // bounds.md §1 reference values (n = 3/2, τ = 0; computed), 7 significant digits.
+        for (u, xi1, omega, delta, gamma, j) in [
+            (-0.3, 3.175_945, 2.818_503, 3.788_603, 2.074_973, 0.392_823),
+            (-0.1, 3.492_462, 2.740_094, 5.182_130, 2.260_408, 0.251_027),
+            (0.027, 3.697_819, 2.708_130, 6.223_668, 2.383_978, 0.200_370),
+            (0.1, 3.818_229, 2.694_127, 6.887_260, 2.457_356, 0.178_552),
+            (0.3, 4.159_183, 2.668_205, 8.988_426, 2.668_176, 0.135_493),
+        ] {
+            let c = solve(u, 0.0, Anisotropy::None);
+            assert_rel("xi1", c.xi1, xi1, 2e-6);
+            assert_rel("omega", c.omega, omega, 2e-6);
+            assert_rel("delta", c.delta(), delta, 2e-6);
+            assert_rel("gamma", c.gamma(), gamma, 2e-6);
+            assert_rel("J_9.73", c.j_k, j, 2e-6);
+        }
+    }
+
+    #[test]
+    fn phi_a_of_upsilon_eight_digits() {
+        // bounds.md §9 (computed): Φ_A at Υ = 0.027, 0.1, −0.1.
+        let p = ModelAParams::default();
+        let r = reference();
+        for (u, want) in [
+            (0.027, 1.001_461_7),
+            (0.1, 1.005_626_8),
+            (-0.1, 0.994_981_6),
+        ] {
+            let c = solve(u, 0.0, Anisotropy::None);
+            let phi = phi_a(&c, &r, &p, 1.0).unwrap();
+            assert_rel("Phi_A", phi, want, 1e-7);
+            let raw =
+                model_a(&c, &p, 1.0).unwrap().mmhb_msun / model_a(&r, &p, 1.0).unwrap().mmhb_msun;
+            assert_rel("Phi_A vs raw ratio", raw, phi, 1e-12);
+        }
+    }
+
+    #[test]
+    fn phi_tables_of_the_summary() {
+        // bounds.md §0 (computed), printed to 4–5 decimals: tolerance half a unit of the last
+        // printed digit plus slack.
+        let p = ModelAParams::default();
+        let r = reference();
+        let rows: [(f64, f64, f64, f64); 9] = [
+            // (Υ, Φ_A, Φ_B, abs tolerance)
+            (-0.5, 0.9831, 1.0918, 6e-5),
+            (-0.3, 0.9871, 1.0385, 6e-5),
+            (-0.1, 0.9950, 1.0096, 6e-5),
+            (-0.05, 0.9974, 1.0045, 6e-5),
+            (0.027, 1.00146, 0.99782, 6e-6),
+            (0.05, 1.00274, 0.99608, 6e-6),
+            (0.1, 1.00563, 0.99266, 6e-6),
+            (0.2, 1.01181, 0.98713, 6e-6),
+            (0.3, 1.01851, 0.98311, 6e-6),
+        ];
+        for (u, want_a, want_b, tol) in rows {
+            let c = solve(u, 0.0, Anisotropy::None);
+            assert_abs("Phi_A", phi_a(&c, &r, &p, 1.0).unwrap(), want_a, tol);
+            assert_abs("Phi_B", phi_b(&c, &r).unwrap(), want_b, tol);
+            // Opposite signs of the two models' shifts for Υ ≠ 0 (bounds.md §3).
+            assert!((want_a - 1.0) * (want_b - 1.0) < 0.0);
+        }
+    }
+
+    #[test]
+    fn anisotropy_tables_of_section_2_6() {
+        // bounds.md §2.6 (computed), τ = −0.2, −0.1, 0.1, 0.2; 5 decimals.
+        let p = ModelAParams::default();
+        let r = reference();
+        let taus = [-0.2, -0.1, 0.1, 0.2];
+        let tol = 6e-6;
+        let a_phi_a = [0.84205, 0.91479, 1.10120, 1.22336];
+        let a_phi_b = [0.83749, 0.91215, 1.10484, 1.23211];
+        let a_phi_a_u01 = [0.84939, 0.92154, 1.10481, 1.22347];
+        let b_phi_a_ext = [0.75980, 0.86623, 1.17204, 1.39962];
+        let b_phi_a_ph = [0.77470, 0.87507, 1.15896, 1.36676];
+        let b_phi_b = [0.76073, 0.86678, 1.17121, 1.39754];
+        let x = p.exponents();
+        for (i, &tau) in taus.iter().enumerate() {
+            let a0 = solve(0.0, tau, Anisotropy::DensitySquared);
+            assert_eq!(
+                anisotropy_photosphere_g_factor(Anisotropy::DensitySquared, tau),
+                1.0
+            );
+            assert_abs(
+                "(a) Phi_A",
+                phi_a(&a0, &r, &p, 1.0).unwrap(),
+                a_phi_a[i],
+                tol,
+            );
+            assert_abs("(a) Phi_B", phi_b(&a0, &r).unwrap(), a_phi_b[i], tol);
+            let a1 = solve(0.1, tau, Anisotropy::DensitySquared);
+            assert_abs(
+                "(a) Phi_A, U=0.1",
+                phi_a(&a1, &r, &p, 1.0).unwrap(),
+                a_phi_a_u01[i],
+                tol,
+            );
+
+            let b = solve(0.0, tau, Anisotropy::Gradient);
+            let gf = anisotropy_photosphere_g_factor(Anisotropy::Gradient, tau);
+            assert_eq!(gf, 1.0 - tau);
+            let ext = phi_a(&b, &r, &p, 1.0).unwrap();
+            let ph = phi_a(&b, &r, &p, gf).unwrap();
+            assert_abs("(b) Phi_A exterior g", ext, b_phi_a_ext[i], tol);
+            assert_abs("(b) Phi_A photospheric g", ph, b_phi_a_ph[i], tol);
+            assert_abs("(b) Phi_B", phi_b(&b, &r).unwrap(), b_phi_b[i], tol);
+            // Exact laws for (b) (bounds.md §2.6): (1−τ)^{−E/p}, (1−τ)^{−1.400196}, (1−τ)^{−3/2}.
+            let s = 1.0 - tau;
+            assert_rel("(b) law, exterior g", ext, s.powf(-x.e_over_p), 1e-9);
+            assert_rel("(b) law, photospheric g", ph, s.powf(-1.400_196), 1e-6);
+            assert_rel("(b) law, Phi_B", phi_b(&b, &r).unwrap(), s.powf(-1.5), 1e-9);
+            // The bound used against data carries the factor it was built with.
+            let cfg = MmhbConfig::default();
+            let bound = evaluate(&cfg, &b, &r, gf).unwrap();
+            assert_rel("anchored (b)", bound.value_msun, 0.075 * ph, 1e-12);
+            assert_eq!(bound.photosphere_g_factor, gf);
+        }
+    }
+
+    #[test]
+    fn no_regular_centre_is_a_typed_error() {
+        // structure.md §1.4: Υ ≤ −2/3 has no regular centre.
+        let e = PolytropeConstants::solve(-0.7, 0.0, Anisotropy::None, 9.73).unwrap_err();
+        assert_eq!(e.code(), "no-regular-centre");
+    }
+}

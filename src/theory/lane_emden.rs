@@ -74,13 +74,13 @@ pub enum SurfaceMethod {
 
 impl Default for LaneEmdenOptions {
     /// rtol 1e-12, atol 1e-14 (the reference tolerances of `structure.md` §3.5), ξ₀ = 1e-4,
-    /// ξ_max = 1e4, no extra integrals, surface by [`SurfaceMethod::SqrtSwap`] at θ = 0.05.
+    /// ξ_max = 1e6, no extra integrals, surface by [`SurfaceMethod::SqrtSwap`] at θ = 0.05.
     fn default() -> Self {
         Self {
             rtol: 1e-12,
             atol: 1e-14,
             xi_start: 1e-4,
-            xi_max: 1e4,
+            xi_max: 1e6,
             extra_powers: Vec::new(),
             surface: SurfaceMethod::SqrtSwap { theta_switch: 0.05 },
         }
@@ -110,7 +110,7 @@ pub struct ModifiedLaneEmden {
 }
 
 /// One solved polytrope: the surface and the constants derived from it, in true-G units.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct LaneEmdenSolution {
     /// Polytropic index.
     pub n: f64,
@@ -140,9 +140,12 @@ impl LaneEmdenSolution {
     }
 
     /// N_n of K = N_n G M^{(n−1)/n} R^{(3−n)/n}: [(4π)^{1/n}/(n+1)] ξ1^{(n−3)/n} ω^{−(n−1)/n}
-    /// (`structure.md` §3.4). Undefined (infinite) for n = 0.
+    /// (`structure.md` §3.4). For n = 0 (incompressible: no K relation) it is +∞.
     pub fn n_n(&self) -> f64 {
         let n = self.n;
+        if n == 0.0 {
+            return f64::INFINITY;
+        }
         (4.0 * std::f64::consts::PI).powf(1.0 / n) / (n + 1.0)
             * self.xi1.powf((n - 3.0) / n)
             * self.omega.powf(-(n - 1.0) / n)
@@ -531,6 +534,10 @@ impl ModifiedLaneEmden {
         let rhs = |s: f64, z: &[f64; N]| -> Result<[f64; N], TheoryError> {
             let theta = s * s;
             let xi = z[0];
+            if xi.is_nan() || xi > opts.xi_max {
+                // θ creeping towards 0 without reaching it (e.g. θ ∝ ξ^{−4/3} at very large Υ).
+                return Err(TheoryError::NoSurface { xi_reached: xi });
+            }
             let [dt, dm] = self.derivatives(xi, theta, z[1])?;
             if dt.is_nan() || dt >= 0.0 {
                 return Err(TheoryError::NumericalFailure {

@@ -26,6 +26,9 @@
 use crate::constants::{
     msun_kg, G_SI, HBAR_SI, K_B_SI, L_SUN_NOMINAL_W, M_E_KG, M_H_G, R_SUN_NOMINAL_M, SIGMA_SB_SI,
 };
+use crate::theory::error::TheoryError;
+use crate::theory::lane_emden::{LaneEmdenOptions, LaneEmdenSolution, ModifiedLaneEmden};
+use crate::theory::Anisotropy;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
@@ -51,6 +54,22 @@ pub enum BoundError {
         /// Why the bound does not exist for these parameters.
         reason: String,
     },
+    /// The structure solve behind the bound has no model (no regular centre, D → 0, …).
+    #[error(transparent)]
+    Structure(#[from] TheoryError),
+}
+
+impl BoundError {
+    /// A short, stable tag for tables and JSON: `invalid-input`, `no-convergence`,
+    /// `not-specified`, or the structure error's own tag.
+    pub fn code(&self) -> &'static str {
+        match self {
+            BoundError::InvalidInput { .. } => "invalid-input",
+            BoundError::NoConvergence { .. } => "no-convergence",
+            BoundError::NotSpecified { .. } => "not-specified",
+            BoundError::Structure(e) => e.code(),
+        }
+    }
 }
 
 fn invalid(reason: impl Into<String>) -> BoundError {
@@ -111,6 +130,43 @@ impl PolytropeConstants {
             j_k: 0.209_606_706_0,
             k: 9.73,
         }
+    }
+
+    /// Takes ξ1, ω and J_k from an n = 3/2 solution of the modified Lane–Emden solver; the
+    /// solve must have requested the exponent `k` as an extra integral.
+    pub fn from_solution(sol: &LaneEmdenSolution, k: f64) -> Result<Self, BoundError> {
+        if sol.n != 1.5 {
+            return Err(invalid(format!(
+                "the MMHB needs the n = 3/2 polytrope, got n = {}",
+                sol.n
+            )));
+        }
+        let j_k = sol.extra_integral(k).ok_or_else(|| {
+            invalid(format!(
+                "the Lane-Emden solve did not compute J_k for k = {k}"
+            ))
+        })?;
+        let c = PolytropeConstants {
+            xi1: sol.xi1,
+            omega: sol.omega,
+            j_k,
+            k,
+        };
+        c.validate()?;
+        Ok(c)
+    }
+
+    /// Solves the n = 3/2 modified Lane–Emden problem at (Υ, τ, ansatz) with J_k and returns
+    /// its constants (default solver options: rtol 1e-12).
+    pub fn solve(
+        upsilon: f64,
+        tau: f64,
+        anisotropy: Anisotropy,
+        k: f64,
+    ) -> Result<Self, BoundError> {
+        let sol = ModifiedLaneEmden::new(1.5, upsilon, tau, anisotropy)?
+            .solve(&LaneEmdenOptions::with_extra_powers(&[k]))?;
+        Self::from_solution(&sol, k)
     }
 
     /// Central-to-mean density ratio δ = ξ1³/(3ω).
@@ -368,6 +424,19 @@ impl ModelAParams {
             burning_luminosity_erg_s: l_hb,
             surface_luminosity_erg_s: l_e,
         }
+    }
+}
+
+/// The factor by which an anisotropy ansatz rescales gravity at the photosphere, for the
+/// optional photospheric-gravity scaling of model A (`bounds.md` §2.6): 1 − τ for the gradient
+/// ansatz (b), an exact G → (1 − τ)G everywhere inside matter; 1 for the density-squared ansatz
+/// (a), whose anisotropy vanishes at the surface (`structure.md` §2.1), and for isotropy.
+/// Pass it to [`model_a`] / [`evaluate`] only when the user asks for the scaled photosphere;
+/// the default is exterior gravity (factor 1).
+pub fn anisotropy_photosphere_g_factor(anisotropy: Anisotropy, tau: f64) -> f64 {
+    match anisotropy {
+        Anisotropy::Gradient => 1.0 - tau,
+        Anisotropy::None | Anisotropy::DensitySquared => 1.0,
     }
 }
 

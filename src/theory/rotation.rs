@@ -4,7 +4,7 @@
 //! One job: P_min = 2π κ √(R³/(GM)) (`structure.md` §5) with GM = (M/M☉)(GM)☉ (IAU 2015
 //! Resolution B3; known far better than G). κ = (3/2)^{3/2} in the Roche model (rigid
 //! rotation, point-mass gravity, equatorial radius 3/2 of the polar one at shedding);
-//! κ = 1.891 for an n = 3/2 polytrope from the self-consistent-field models of `structure.md`
+//! κ = 1.8911 for an n = 3/2 polytrope from the self-consistent-field models of `structure.md`
 //! §5.2 (computed there with the method of Hachisu 1986, ApJS 61, 479; mass-matched basis).
 //! Υ and τ enter only through R(M): the exterior is screened and the break-up condition is
 //! unmodified (§5.3).
@@ -25,8 +25,9 @@ use crate::theory::error::TheoryError;
 pub const ROCHE_EQUATORIAL_TO_POLAR: f64 = 1.5;
 
 /// κ of the self-consistent-field n = 3/2 polytrope at mass shedding, mass-matched
-/// (`structure.md` §5.2, computed there; ±3 % systematic).
-pub const KAPPA_SCF_N32: f64 = 1.891;
+/// (`structure.md` §5.2 table, 1.8911, computed there; quoted as 1.891 in its prose; ±3 %
+/// systematic).
+pub const KAPPA_SCF_N32: f64 = 1.8911;
 
 /// Which flattening factor κ to use.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
@@ -35,7 +36,7 @@ pub enum BreakupModel {
     /// Roche model, κ = (3/2)^{3/2} = 1.8371: excellent for centrally condensed stars (n = 3,
     /// massive white dwarfs).
     Roche,
-    /// Self-consistent n = 3/2 polytrope, κ = 1.891: fully convective objects (brown dwarfs,
+    /// Self-consistent n = 3/2 polytrope, κ = 1.8911: fully convective objects (brown dwarfs,
     /// very-low-mass stars, low-mass white dwarfs).
     ScfN32,
 }

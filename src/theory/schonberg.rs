@@ -17,8 +17,10 @@
 //! assert!(sc_fraction(0.0, 0.1, &ScParams::default(), ScVariant::FullFit).is_err());
 //! ```
 
+use super::lane_emden::ModifiedLaneEmden;
 use super::mmhb::{brent_minimize, BoundError};
 use super::ode::{solve, OdeError, OdeOptions, Stop};
+use super::Anisotropy;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
@@ -149,21 +151,7 @@ pub fn bonnor_ebert(upsilon: f64) -> Result<BonnorEbert, BoundError> {
     })
 }
 
-/// Right-hand side of the modified Lane–Emden envelope, y = (θ, μ) (`bounds.md` §1, τ = 0).
-fn envelope_rhs(upsilon: f64, n: f64, xi: f64, y: &[f64; 2]) -> Result<[f64; 2], String> {
-    let t = y[0].max(0.0);
-    let tn = t.powf(n);
-    let d = 1.0 + 0.25 * n * upsilon * xi * xi * t.powf(n - 1.0);
-    if d <= D_MIN {
-        return Err(format!("envelope denominator {d} vanishes at xi = {xi}"));
-    }
-    Ok([
-        -(y[1] + 0.5 * upsilon * xi.powi(3) * tn) / (xi * xi * d),
-        xi * xi * tn,
-    ])
-}
-
-/// The fitted fraction at one core edge ζ_f, and the envelope's mass integrals.
+/// The core mass fraction q = μ_f/μ₁ of the fit with the core cut at ζ_f (`bounds.md` §7.1 steps 1–4).
 fn q_at(
     lambda: f64,
     upsilon: f64,
@@ -199,10 +187,13 @@ fn q_at(
     let r_e = ((n_env + 1.0) * p_e).sqrt() / w_e;
     let xi_f = zeta_f / r_e;
     let mu_f = m / (r_e.powi(3) * w_e);
+    // The envelope obeys the modified Lane–Emden system of `bounds.md` §1 (τ = 0), started at
+    // the interface instead of the centre.
+    let envelope = ModifiedLaneEmden::new(n_env, upsilon, 0.0, Anisotropy::None)?;
     let opts = OdeOptions::new(RTOL, 1e-15, 1e-3 * xi_f);
     let mut g = |_x: f64, y: &[f64; 2]| y[0];
     let sol = solve(
-        |x, y: &[f64; 2]| envelope_rhs(upsilon, n_env, x, y),
+        |x, y: &[f64; 2]| envelope.derivatives(x, y[0], y[1]),
         xi_f,
         [1.0, mu_f],
         xi_f * 1e8,
@@ -216,11 +207,7 @@ fn q_at(
         });
     }
     // One Newton step on the root found on the dense output (`structure.md` §3.5, n ≥ 1).
-    let dy = envelope_rhs(upsilon, n_env, sol.x, &sol.y).map_err(|reason| {
-        BoundError::NoConvergence {
-            reason: format!("envelope surface: {reason}"),
-        }
-    })?;
+    let dy = envelope.derivatives(sol.x, sol.y[0], sol.y[1])?;
     let dxi = if dy[0] != 0.0 { -sol.y[0] / dy[0] } else { 0.0 };
     let mu1 = sol.y[1] + dy[1] * dxi;
     let q = mu_f / mu1;

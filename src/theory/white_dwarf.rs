@@ -189,11 +189,8 @@ impl ChandrasekharEos {
         // u_c = y_c − 1 without cancellation.
         let u_c = x_c * x_c / (y_c + 1.0);
         let big_a = self.p * x_c.powi(3) * (1.0 / 3.0 + self.c) / 2.0;
-        let big_b = 0.75
-            * x_c
-            * y_c
-            * big_a
-            * (self.kappa * self.upsilon / 2.0 + self.p * (0.2 + self.c));
+        let big_b =
+            0.75 * x_c * y_c * big_a * (self.kappa * self.upsilon / 2.0 + self.p * (0.2 + self.c));
         let eta0 = if x_c > 1.0 {
             1e-4 / x_c
         } else {
@@ -226,6 +223,9 @@ impl ChandrasekharEos {
         // s = √u: dη/ds = 2s/u′, dm/ds = m′ dη/ds.
         let s0 = sol.y[0].max(0.0).sqrt();
         let rhs = |s: f64, z: &[f64; 2]| -> Result<[f64; 2], TheoryError> {
+            if z[0].is_nan() || z[0] > eta_max {
+                return Err(TheoryError::NoSurface { xi_reached: z[0] });
+            }
             let [du, dm] = self.derivatives(z[0], s * s, z[1])?;
             if du.is_nan() || du >= 0.0 {
                 return Err(TheoryError::NumericalFailure {
@@ -282,23 +282,45 @@ impl Default for WdTableOptions {
 /// local degree-5 polynomials of log m and log η in log x_c (both nearly linear at either end),
 /// the target mass bracketed between monotone table entries and the root polished on the
 /// interpolant; below the table the n = 3/2 law R ∝ M^{−1/3}, above it m = m_Ch(1 − k/x_c²),
-/// η ∝ 1/x_c (§4.1). Plain data: a grid can store and serialise one per point.
+/// η ∝ 1/x_c (§4.1). Plain data: a grid can store and serialise one per point; the fields are
+/// private so that a table is always valid (deserialisation re-checks it).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "WdTableData")]
 pub struct WdMassRadius {
-    /// Υ of the table.
-    pub upsilon: f64,
-    /// τ of the table.
-    pub tau: f64,
-    /// Anisotropy ansatz of τ.
-    pub anisotropy: Anisotropy,
-    /// log₁₀ x_c, increasing.
-    pub log10_xc: Vec<f64>,
-    /// m = M/𝓜 at each x_c, strictly increasing.
-    pub mass_dimless: Vec<f64>,
-    /// η_s = R/ℓ at each x_c.
-    pub radius_dimless: Vec<f64>,
-    /// m_Ch = ω₃(Υ, τ): the limit of m as x_c → ∞.
-    pub mass_ch_dimless: f64,
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+    log10_xc: Vec<f64>,
+    mass_dimless: Vec<f64>,
+    radius_dimless: Vec<f64>,
+    mass_ch_dimless: f64,
+}
+
+/// The serialised form of [`WdMassRadius`], validated on the way in.
+#[derive(Deserialize)]
+struct WdTableData {
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+    log10_xc: Vec<f64>,
+    mass_dimless: Vec<f64>,
+    radius_dimless: Vec<f64>,
+    mass_ch_dimless: f64,
+}
+
+impl TryFrom<WdTableData> for WdMassRadius {
+    type Error = TheoryError;
+    fn try_from(d: WdTableData) -> Result<Self, TheoryError> {
+        Self::from_parts(
+            d.upsilon,
+            d.tau,
+            d.anisotropy,
+            d.log10_xc,
+            d.mass_dimless,
+            d.radius_dimless,
+            d.mass_ch_dimless,
+        )
+    }
 }
 
 /// A white-dwarf radius with what goes with it.
@@ -359,8 +381,8 @@ impl WdMassRadius {
                 why: "needs log10_xc_max > log10_xc_min and ≥ 2 points per decade",
             });
         }
-        let count = ((opts.log10_xc_max - opts.log10_xc_min) * opts.points_per_decade as f64)
-            .ceil() as usize
+        let count = ((opts.log10_xc_max - opts.log10_xc_min) * opts.points_per_decade as f64).ceil()
+            as usize
             + 1;
         let mut log10_xc = Vec::with_capacity(count);
         let mut mass = Vec::with_capacity(count);
@@ -394,6 +416,25 @@ impl WdMassRadius {
         radius_dimless: Vec<f64>,
         mass_ch_dimless: f64,
     ) -> Result<Self, TheoryError> {
+        let n = log10_xc.len();
+        let finite = |v: &[f64]| v.iter().all(|x| x.is_finite());
+        if n < 2
+            || mass_dimless.len() != n
+            || radius_dimless.len() != n
+            || !finite(&log10_xc)
+            || !finite(&mass_dimless)
+            || !finite(&radius_dimless)
+            || log10_xc.windows(2).any(|w| w[1] <= w[0])
+            || mass_dimless[0] <= 0.0
+            || radius_dimless.iter().any(|r| *r <= 0.0)
+            || !(mass_ch_dimless.is_finite() && mass_ch_dimless > 0.0)
+        {
+            return Err(TheoryError::InvalidParameter {
+                name: "white-dwarf table",
+                value: n as f64,
+                why: "needs ≥ 2 finite, positive models with increasing log10 x_c",
+            });
+        }
         if let Some(w) = mass_dimless.windows(2).position(|w| w[1] <= w[0]) {
             return Err(TheoryError::NumericalFailure {
                 xi: 10f64.powf(log10_xc[w + 1]),
@@ -447,6 +488,41 @@ impl WdMassRadius {
         )
     }
 
+    /// Υ of the table.
+    pub fn upsilon(&self) -> f64 {
+        self.upsilon
+    }
+
+    /// τ of the table.
+    pub fn tau(&self) -> f64 {
+        self.tau
+    }
+
+    /// The ansatz τ refers to.
+    pub fn anisotropy(&self) -> Anisotropy {
+        self.anisotropy
+    }
+
+    /// log₁₀ x_c of the models, increasing.
+    pub fn log10_xc(&self) -> &[f64] {
+        &self.log10_xc
+    }
+
+    /// m = M/𝓜 of the models, strictly increasing.
+    pub fn mass_dimless(&self) -> &[f64] {
+        &self.mass_dimless
+    }
+
+    /// η_s = R/ℓ of the models.
+    pub fn radius_dimless(&self) -> &[f64] {
+        &self.radius_dimless
+    }
+
+    /// m_Ch = ω₃(Υ, τ), the limit of m as x_c → ∞.
+    pub fn mass_ch_dimless(&self) -> f64 {
+        self.mass_ch_dimless
+    }
+
     /// M_Ch(Υ, τ, μ_e) in M☉ = 𝓜(μ_e)·ω₃(Υ,τ).
     pub fn max_mass_msun(&self, mu_e: f64) -> f64 {
         mass_unit_msun(mu_e) * self.mass_ch_dimless
@@ -460,10 +536,7 @@ impl WdMassRadius {
         if m <= self.mass_dimless[0] {
             // n = 3/2 polytrope: m ∝ x_c^{3/2}, η ∝ x_c^{−1/2}.
             let r = (m / self.mass_dimless[0]).ln();
-            return (
-                ln_xc(0) + r / 1.5,
-                self.radius_dimless[0].ln() - r / 3.0,
-            );
+            return (ln_xc(0) + r / 1.5, self.radius_dimless[0].ln() - r / 3.0);
         }
         if m >= self.mass_dimless[n - 1] {
             // m = m_Ch(1 − k/x_c²) with k from the last model; η ∝ 1/x_c.
@@ -474,11 +547,19 @@ impl WdMassRadius {
         }
         let i = self.mass_dimless.partition_point(|v| *v <= m) - 1;
         // log10 of m and η at the nodes a degree-5 stencil around i can touch.
-        let lo = (i + 1).saturating_sub(LAGRANGE_POINTS / 2).min(n.saturating_sub(LAGRANGE_POINTS));
+        let lo = (i + 1)
+            .saturating_sub(LAGRANGE_POINTS / 2)
+            .min(n.saturating_sub(LAGRANGE_POINTS));
         let hi = (lo + LAGRANGE_POINTS).min(n);
         let xk = &self.log10_xc[lo..hi];
-        let ym: Vec<f64> = self.mass_dimless[lo..hi].iter().map(|v| v.log10()).collect();
-        let ye: Vec<f64> = self.radius_dimless[lo..hi].iter().map(|v| v.log10()).collect();
+        let ym: Vec<f64> = self.mass_dimless[lo..hi]
+            .iter()
+            .map(|v| v.log10())
+            .collect();
+        let ye: Vec<f64> = self.radius_dimless[lo..hi]
+            .iter()
+            .map(|v| v.log10())
+            .collect();
         let il = i - lo;
         let target = m.log10();
         let f = |t: f64| lagrange6(xk, &ym, il, t) - target;
