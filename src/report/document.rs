@@ -1,0 +1,756 @@
+//! The report's content, once, as a small tree of blocks that both renderers walk.
+//!
+//! Building the words and tables in one place is what keeps `report.html` and `report.md` the
+//! same report. Text in the tree is raw (unescaped); each renderer escapes it for its format.
+//!
+//! ```ignore
+//! let doc = build(&input, &map, allowed_svg, bounds_svg);
+//! let html = html::render(&doc);
+//! let md = markdown::render(&doc);
+//! ```
+
+use super::input::{AllowedMap, ReportInput, Shift, Warning};
+use super::plots::outline_style_name;
+use super::text::{fmt_end, fmt_opt, fmt_param, fmt_prob, fmt_sig};
+
+/// A run of text with its emphasis.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum Inline {
+    Text(String),
+    Strong(String),
+    Code(String),
+}
+
+/// A paragraph or table cell: a sequence of inline runs.
+pub(crate) type Para = Vec<Inline>;
+
+fn t(s: impl Into<String>) -> Inline {
+    Inline::Text(s.into())
+}
+fn b(s: impl Into<String>) -> Inline {
+    Inline::Strong(s.into())
+}
+fn code(s: impl Into<String>) -> Inline {
+    Inline::Code(s.into())
+}
+
+/// How a callout box looks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Callout {
+    /// The summary box at the top.
+    Summary,
+    /// The plain banner when no grid point is consistent with the data.
+    Alarm,
+    /// Warnings raised by the confrontation.
+    Warning,
+}
+
+/// Which figure a block holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum FigureKind {
+    Allowed,
+    Bounds,
+}
+
+impl FigureKind {
+    /// File stem of the figure's SVG and PNG files.
+    pub fn stem(self) -> &'static str {
+        match self {
+            FigureKind::Allowed => "allowed",
+            FigureKind::Bounds => "bounds",
+        }
+    }
+}
+
+/// One block of the report.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum Block {
+    Title(String),
+    /// The one volatile line (generation time).
+    Generated(String),
+    Heading(String),
+    Subheading(String),
+    Para(Para),
+    List(Vec<Para>),
+    /// Header cells, rows of cells, and which columns are numeric (right-aligned).
+    Table {
+        header: Vec<String>,
+        rows: Vec<Vec<Para>>,
+        numeric: Vec<bool>,
+    },
+    Callout {
+        kind: Callout,
+        title: String,
+        body: Vec<Block>,
+    },
+    /// A figure: its SVG text (trusted: produced by our plotting code, which escapes its text)
+    /// and caption.
+    Figure {
+        kind: FigureKind,
+        svg: String,
+        alt: String,
+        caption: Para,
+    },
+}
+
+/// The report as a list of blocks.
+pub(crate) struct Document {
+    pub title: String,
+    pub blocks: Vec<Block>,
+}
+
+const MAX_IDS_LISTED: usize = 20;
+
+fn id_list(ids: &[String]) -> String {
+    let mut s = ids
+        .iter()
+        .take(MAX_IDS_LISTED)
+        .cloned()
+        .collect::<Vec<_>>()
+        .join(", ");
+    if ids.len() > MAX_IDS_LISTED {
+        s.push_str(&format!(" and {} more", ids.len() - MAX_IDS_LISTED));
+    }
+    s
+}
+
+fn interval_text(lower: Option<f64>, upper: Option<f64>) -> String {
+    format!("[{}, {}]", fmt_end(lower), fmt_end(upper))
+}
+
+fn sigma(x: Option<f64>) -> String {
+    match x {
+        Some(v) => format!("{} σ", fmt_sig(v, 3)),
+        None => "—".into(),
+    }
+}
+
+/// Builds the report from the prepared data and the two rendered SVG figures.
+pub(crate) fn build(
+    input: &ReportInput,
+    map: &AllowedMap,
+    allowed_svg: String,
+    bounds_svg: String,
+) -> Document {
+    let mut blocks = Vec::new();
+    let cl95 = map.levels[1].label.clone();
+
+    blocks.push(Block::Title(input.title.clone()));
+    blocks.push(Block::Para(vec![
+        t("dwarfbound "),
+        t(input.version.clone()),
+        t(" · anisotropy ansatz: "),
+        t(input.grid.anisotropy.clone()),
+        t(" (τ is its strength)."),
+    ]));
+    blocks.push(Block::Generated(input.generated_at.clone()));
+
+    // The plain banner first when nothing fits.
+    let cons = &input.consistency;
+    if !cons.consistent {
+        let mut body = vec![Block::Para(vec![
+            t("No grid point is consistent with the data at "),
+            t(cl95.clone()),
+            t(". At the best fit the smallest probability of consistency, corrected for the "),
+            t(cons.n_informative.to_string()),
+            t(" informative objects (Šidák), gives p = "),
+            t(fmt_prob(cons.p_catalogue)),
+            t(
+                ", below 0.0455. The Δχ² maps below are relative and still show an allowed \
+               region, but no point of the grid describes every object.",
+            ),
+        ])];
+        if !cons.worst_objects.is_empty() {
+            body.push(Block::Para(vec![t(
+                "Objects responsible (smallest probability first):",
+            )]));
+            body.push(Block::List(
+                cons.worst_objects
+                    .iter()
+                    .map(|w| {
+                        vec![
+                            b(w.id.clone()),
+                            t(" ("),
+                            t(w.class.clone()),
+                            t(format!("): P = {}", fmt_prob(w.probability))),
+                        ]
+                    })
+                    .collect(),
+            ));
+            body.push(Block::Para(vec![t(
+                "Check these first: a measurement problem, a misclassified object, or physics \
+                 outside the model.",
+            )]));
+        }
+        blocks.push(Block::Callout {
+            kind: Callout::Alarm,
+            title: format!("Not consistent at {cl95}"),
+            body,
+        });
+    }
+
+    // Summary box.
+    let bf = &input.best_fit;
+    let mut summary: Vec<Para> = Vec::new();
+    summary.push(if cons.consistent {
+        vec![
+            b("Verdict: "),
+            t(format!(
+                "consistent — some grid point agrees with every object at {cl95} (Šidák-corrected \
+                 p = {} over {} informative objects).",
+                fmt_prob(cons.p_catalogue),
+                cons.n_informative
+            )),
+        ]
+    } else {
+        vec![
+            b("Verdict: "),
+            b(format!("not consistent at {cl95}")),
+            t(format!(
+                " (Šidák-corrected p = {} over {} informative objects; see the banner above).",
+                fmt_prob(cons.p_catalogue),
+                cons.n_informative
+            )),
+        ]
+    });
+    let mut best = vec![
+        b("Best fit: "),
+        t(format!(
+            "Υ = {}, τ = {} (−2 ln L = {})",
+            fmt_param(bf.upsilon),
+            fmt_param(bf.tau),
+            fmt_sig(bf.minus_two_ln_l, 5)
+        )),
+    ];
+    if bf.on_grid_edge {
+        best.push(t(
+            "; on the edge of the grid, so the minimum may lie outside it — widen the grid.",
+        ));
+    } else {
+        best.push(t("."));
+    }
+    summary.push(best);
+    let intervals = &input.upsilon_interval_at_tau0;
+    let main_interval = intervals
+        .iter()
+        .find(|i| i.level == cl95)
+        .or_else(|| intervals.get(1))
+        .or_else(|| intervals.first());
+    if let Some(main) = main_interval {
+        let mut p = vec![
+            b(format!("Υ at τ = 0 ({}, one parameter): ", main.level)),
+            t(interval_text(main.lower, main.upper)),
+        ];
+        let others: Vec<String> = intervals
+            .iter()
+            .filter(|i| i.level != main.level)
+            .map(|i| format!("{}: {}", i.level, interval_text(i.lower, i.upper)))
+            .collect();
+        if !others.is_empty() {
+            p.push(t(format!("; {}", others.join("; "))));
+        }
+        if main.lower.is_none() || main.upper.is_none() {
+            p.push(t(". “open”: the grid does not close that end."));
+        } else {
+            p.push(t("."));
+        }
+        summary.push(p);
+    }
+    let sg = &input.standard_gravity;
+    let dchi = sg
+        .delta_chi2
+        .map(|d| format!(" (Δχ² = {})", fmt_sig(d, 3)))
+        .unwrap_or_default();
+    summary.push(match sg.allowed_cl95 {
+        Some(true) => vec![
+            b("Standard gravity (Υ = τ = 0): "),
+            t(format!("allowed at {cl95}{dchi}.")),
+        ],
+        Some(false) => vec![
+            b("Standard gravity (Υ = τ = 0): "),
+            b(format!("excluded at {cl95}")),
+            t(format!("{dchi}.")),
+        ],
+        None => vec![
+            b("Standard gravity (Υ = τ = 0): "),
+            t("not evaluated (not on the grid or no model there)."),
+        ],
+    });
+    let n_t = input.tensions.rows.len();
+    summary.push(vec![
+        b("Tensions: "),
+        t(format!(
+            "{} object{} above {} σ at standard gravity.",
+            n_t,
+            if n_t == 1 { "" } else { "s" },
+            fmt_sig(input.tensions.threshold_sigma, 3)
+        )),
+    ]);
+    if !input.warnings.is_empty() {
+        summary.push(vec![
+            b("Warnings: "),
+            t(format!("{} (listed below).", input.warnings.len())),
+        ]);
+    }
+    blocks.push(Block::Callout {
+        kind: Callout::Summary,
+        title: "Summary".into(),
+        body: vec![Block::List(summary)],
+    });
+
+    if !input.warnings.is_empty() {
+        blocks.push(Block::Callout {
+            kind: Callout::Warning,
+            title: "Warnings".into(),
+            body: vec![Block::List(
+                input.warnings.iter().map(warning_text).collect(),
+            )],
+        });
+    }
+
+    // The map.
+    blocks.push(Block::Heading("Allowed region".into()));
+    let missing = map.delta_chi2.iter().filter(|v| v.is_none()).count();
+    let lv = &map.levels;
+    let mut caption = vec![t(format!(
+        "Joint Δχ² over Υ and τ ({} ansatz). Filled: allowed at {} (darkest), {} and {} \
+         (lightest), two-parameter Δχ² ≤ {}, {}, {}; white: excluded at {}.",
+        map.anisotropy_name,
+        lv[0].label,
+        lv[1].label,
+        lv[2].label,
+        fmt_sig(lv[0].threshold, 5),
+        fmt_sig(lv[1].threshold, 5),
+        fmt_sig(lv[2].threshold, 5),
+        lv[2].label
+    ))];
+    if !map.class_outlines.is_empty() && map.is_two_dimensional() {
+        let parts: Vec<String> = map
+            .class_outlines
+            .iter()
+            .enumerate()
+            .map(|(k, c)| format!("{} ({})", c.class_label, outline_style_name(k)))
+            .collect();
+        caption.push(t(format!(
+            " Thin lines: each class's own region at {}: {}.",
+            lv[1].label,
+            parts.join(", ")
+        )));
+    }
+    if !map.is_two_dimensional() {
+        caption.push(t(
+            " The grid has a single row or column, so each point is drawn as a square in the \
+             colour of its level.",
+        ));
+    }
+    caption.push(t(
+        " Diamond: standard gravity (Υ = τ = 0); circled cross: best fit.",
+    ));
+    if missing > 0 {
+        caption.push(t(format!(
+            " Hatched: {missing} grid point{} without a model (no solution there; not a constraint).",
+            if missing == 1 { "" } else { "s" }
+        )));
+    }
+    blocks.push(Block::Figure {
+        kind: FigureKind::Allowed,
+        svg: allowed_svg,
+        alt: "Allowed-region map in the (Υ, τ) plane".into(),
+        caption,
+    });
+    blocks.push(Block::Subheading("Extent of the allowed region".into()));
+    blocks.push(Block::Table {
+        header: vec![
+            "level".into(),
+            "Υ min".into(),
+            "Υ max".into(),
+            "τ min".into(),
+            "τ max".into(),
+            "fraction of grid".into(),
+        ],
+        rows: input
+            .allowed
+            .iter()
+            .map(|a| {
+                vec![
+                    vec![t(a.level.clone())],
+                    vec![t(fmt_opt(a.upsilon_min, 4))],
+                    vec![t(fmt_opt(a.upsilon_max, 4))],
+                    vec![t(fmt_opt(a.tau_min, 4))],
+                    vec![t(fmt_opt(a.tau_max, 4))],
+                    vec![t(fmt_sig(a.fraction_of_grid, 3))],
+                ]
+            })
+            .collect(),
+        numeric: vec![false, true, true, true, true, true],
+    });
+    blocks.push(Block::Para(vec![t(
+        "Grid extent of the points allowed at each level (two-parameter Δχ²); a value at a grid \
+         end means the region may continue beyond the grid.",
+    )]));
+    blocks.push(Block::Subheading("Υ at τ = 0".into()));
+    blocks.push(Block::Table {
+        header: vec!["level".into(), "lower".into(), "upper".into()],
+        rows: intervals
+            .iter()
+            .map(|i| {
+                vec![
+                    vec![t(i.level.clone())],
+                    vec![t(fmt_end(i.lower))],
+                    vec![t(fmt_end(i.upper))],
+                ]
+            })
+            .collect(),
+        numeric: vec![false, true, true],
+    });
+    blocks.push(Block::Para(vec![t(
+        "One-parameter Δχ² along τ = 0 (thresholds 1, 4, 9). “open”: the grid does not close \
+         that end, so no bound on that side follows from these data and this grid.",
+    )]));
+
+    // The bounds figure.
+    blocks.push(Block::Heading("Predicted bounds".into()));
+    blocks.push(Block::Figure {
+        kind: FigureKind::Bounds,
+        svg: bounds_svg,
+        alt: "Predicted bounds against Υ for several τ".into(),
+        caption: vec![t(
+            "The bounds the objects are confronted with, against Υ at a few values of τ, as \
+             predicted by the model stated below (without their theory floors).",
+        )],
+    });
+
+    // Tensions.
+    blocks.push(Block::Heading("Tensions with standard gravity".into()));
+    let thr = fmt_sig(input.tensions.threshold_sigma, 3);
+    if input.tensions.rows.is_empty() {
+        blocks.push(Block::Para(vec![t(format!(
+            "No object is in tension above {thr} σ at Υ = τ = 0."
+        ))]));
+    } else {
+        blocks.push(Block::Para(vec![t(format!(
+            "Objects whose tension with their class's bound at Υ = τ = 0 exceeds {thr} σ \
+             (one-sided; positive means the object sits on the wrong side of the bound). Look \
+             at these first: a measurement problem, a misclassified object, or physics."
+        ))]));
+        blocks.push(Block::Table {
+            header: vec![
+                "id".into(),
+                "class".into(),
+                "mass".into(),
+                "σ at Υ = τ = 0".into(),
+                "σ at best fit".into(),
+            ],
+            rows: input
+                .tensions
+                .rows
+                .iter()
+                .map(|r| {
+                    vec![
+                        vec![code(r.id.clone())],
+                        vec![t(r.class.clone())],
+                        vec![t(r.mass_text.clone())],
+                        vec![t(sigma(Some(r.sigma_standard_gravity)))],
+                        vec![t(sigma(r.sigma_best_fit))],
+                    ]
+                })
+                .collect(),
+            numeric: vec![false, false, false, true, true],
+        });
+    }
+
+    // Drivers.
+    blocks.push(Block::Heading("Drivers".into()));
+    if input.drivers.is_empty() {
+        blocks.push(Block::Para(vec![t(format!(
+            "No single object moves the {cl95} interval in Υ at τ = 0 when left out."
+        ))]));
+    } else {
+        blocks.push(Block::Para(vec![t(format!(
+            "Leave-one-out influence: how far the {cl95} interval in Υ at τ = 0 moves when one \
+             object is left out (the larger shift of its two ends)."
+        ))]));
+        blocks.push(Block::Table {
+            header: vec![
+                "rank".into(),
+                "id".into(),
+                "class".into(),
+                "shift of the interval".into(),
+                "σ at best fit".into(),
+            ],
+            rows: input
+                .drivers
+                .iter()
+                .map(|d| {
+                    let shift = match d.shift {
+                        Shift::Finite(x) => fmt_sig(x, 3),
+                        Shift::EndOpensOrCloses => "an end opens or closes".into(),
+                    };
+                    vec![
+                        vec![t(d.rank.to_string())],
+                        vec![code(d.id.clone())],
+                        vec![t(d.class.clone())],
+                        vec![t(shift)],
+                        vec![t(sigma(d.sigma_best_fit))],
+                    ]
+                })
+                .collect(),
+            numeric: vec![true, false, false, true, true],
+        });
+    }
+
+    // Per-class contributions.
+    blocks.push(Block::Heading("What each class constrains".into()));
+    if input.class_contributions.is_empty() {
+        blocks.push(Block::Para(vec![t("No class contributed.")]));
+    } else {
+        blocks.push(Block::Table {
+            header: vec![
+                "class".into(),
+                "objects".into(),
+                "informative".into(),
+                "−2 ln L at best fit".into(),
+                "outline on the map".into(),
+                "constrains".into(),
+            ],
+            rows: input
+                .class_contributions
+                .iter()
+                .map(|c| {
+                    let outline = map
+                        .class_outlines
+                        .iter()
+                        .position(|o| o.class_label == c.class)
+                        .filter(|_| map.is_two_dimensional())
+                        .map(|k| outline_style_name(k).to_string())
+                        .unwrap_or_else(|| "—".into());
+                    vec![
+                        vec![t(c.class.clone())],
+                        vec![t(c.n_objects.to_string())],
+                        vec![t(c.n_informative.to_string())],
+                        vec![t(fmt_sig(c.minus_two_ln_l_at_best_fit, 4))],
+                        vec![t(outline)],
+                        vec![t(c.summary.clone())],
+                    ]
+                })
+                .collect(),
+            numeric: vec![false, true, true, true, false, false],
+        });
+    }
+
+    // Model.
+    blocks.push(Block::Heading("Model and assumptions".into()));
+    let m = &input.model;
+    let mut items: Vec<Para> = [
+        ("Structure", &m.structure),
+        ("Anisotropy", &m.anisotropy_ansatz),
+        ("MMHB model", &m.mmhb_model),
+        ("MMHB mode", &m.mmhb_mode),
+        ("MMHB anchor", &m.mmhb_anchor),
+        ("Theory floors", &m.theory_floor),
+        ("White dwarfs", &m.white_dwarf),
+        ("Likelihood", &m.likelihood),
+    ]
+    .into_iter()
+    .filter(|(_, v)| !v.is_empty())
+    .map(|(k, v)| vec![b(format!("{k}: ")), t(v.clone())])
+    .collect();
+    for (k, v) in &m.extra {
+        items.push(vec![b(format!("{k}: ")), t(v.clone())]);
+    }
+    blocks.push(Block::List(items));
+
+    // Grid.
+    blocks.push(Block::Heading("Grid".into()));
+    let g = &input.grid;
+    let mut grid_items = vec![
+        vec![
+            b("Υ: "),
+            t(format!(
+                "{} to {} in {} points",
+                fmt_param(g.upsilon.start),
+                fmt_param(g.upsilon.stop),
+                g.upsilon.count
+            )),
+        ],
+        vec![
+            b("τ: "),
+            t(format!(
+                "{} to {} in {} points",
+                fmt_param(g.tau.start),
+                fmt_param(g.tau.stop),
+                g.tau.count
+            )),
+        ],
+        vec![b("Anisotropy ansatz: "), t(g.anisotropy.clone())],
+        vec![
+            b("Points without a model: "),
+            t(g.points_without_model.to_string()),
+        ],
+    ];
+    grid_items.push(match &input.reduction_error {
+        Some(r) => vec![
+            b("Reduction error: "),
+            t(format!(
+                "each class's likelihood was tabulated on {} nodes in its bound's value and \
+                 interpolated; the largest difference from the direct sum found at {} check \
+                 points is {} in Δχ².",
+                r.nodes,
+                r.check_points,
+                fmt_sig(r.max_abs_delta_chi2, 2)
+            )),
+        ],
+        None => vec![
+            b("Reduction error: "),
+            t("not applicable (the likelihood was summed directly)."),
+        ],
+    });
+    blocks.push(Block::List(grid_items));
+
+    // Inputs.
+    blocks.push(Block::Heading("Inputs".into()));
+    blocks.push(Block::Table {
+        header: vec![
+            "catalogue".into(),
+            "rows read".into(),
+            "accepted".into(),
+            "quarantined".into(),
+            "SHA-256".into(),
+        ],
+        rows: input
+            .catalogues
+            .iter()
+            .map(|c| {
+                vec![
+                    vec![code(c.path.clone())],
+                    vec![t(c.rows_in.to_string())],
+                    vec![t(c.rows_accepted.to_string())],
+                    vec![t(c.rows_quarantined.to_string())],
+                    vec![code(c.sha256.clone())],
+                ]
+            })
+            .collect(),
+        numeric: vec![false, true, true, true, false],
+    });
+    blocks.push(Block::Para(vec![
+        t("Rejected rows and their reasons are in "),
+        code("quarantine.csv"),
+        t("; every accepted object is in "),
+        code("objects.csv"),
+        t(" and every grid point in "),
+        code("grid.csv"),
+        t("."),
+    ]));
+
+    // Cautions.
+    blocks.push(Block::Heading("Cautions".into()));
+    blocks.push(Block::List(cautions(input)));
+
+    Document {
+        title: input.title.clone(),
+        blocks,
+    }
+}
+
+fn warning_text(w: &Warning) -> Para {
+    match w {
+        Warning::Crowding {
+            n_hburning,
+            n_brown_dwarf,
+        } => vec![
+            b("Crowded bound: "),
+            t(format!(
+                "{n_hburning} hydrogen-burning and {n_brown_dwarf} brown-dwarf informative \
+                 objects lie within 3 σ of the MMHB at the best fit. With many objects of both \
+                 classes near the bound at unequal densities the default likelihood is pulled \
+                 toward the side with fewer objects and its coverage can fail; see the \
+                 calibration caution and consider the population-aware likelihood."
+            )),
+        ],
+        Warning::PostNewtonianWhiteDwarf {
+            ids,
+            compactness_threshold,
+        } => vec![
+            b("Compact white dwarfs: "),
+            t(format!(
+                "{} white dwarf{} with GM/(Rc²) above {} ({}): post-Newtonian corrections may \
+                 matter and the Chandrasekhar-mass test is model-limited for {}.",
+                ids.len(),
+                if ids.len() == 1 { "" } else { "s" },
+                fmt_sig(*compactness_threshold, 3),
+                id_list(ids),
+                if ids.len() == 1 { "it" } else { "them" }
+            )),
+        ],
+        Warning::BelowRelativisticExistenceBound {
+            upsilon_bound,
+            source,
+        } => vec![
+            b("Existence bound: "),
+            t(format!(
+                "part of the grid lies below Υ = {}, the relativistic existence bound ({}). That \
+                 range is theoretically disfavoured; it is shown, not used to cut the statistics.",
+                fmt_param(*upsilon_bound),
+                source
+            )),
+        ],
+        Warning::Other(s) => vec![t(s.clone())],
+    }
+}
+
+fn cautions(input: &ReportInput) -> Vec<Para> {
+    let mut c: Vec<Para> = vec![
+        vec![
+            b("Idealised models. "),
+            t(
+                "Polytropic and analytic models are idealised; constraints depend on the stated \
+                 model assumptions. A different structure model, MMHB model, anchor or theory \
+                 floor moves the bounds and with them every region in this report.",
+            ),
+        ],
+        vec![
+            b("Approximate confidence levels. "),
+            t(
+                "The likelihood is a product of one-sided probabilities (cumulative \
+                 distributions) and is often flat over wide regions; reading Δχ² as a confidence \
+                 level (Wilks' theorem) is then only approximate. Treat the levels as indicative.",
+            ),
+        ],
+        vec![
+            b("Relative regions. "),
+            t(
+                "Δχ² is measured from the best grid point, so some region is always “allowed”; \
+                 whether any point fits at all is the absolute test in the summary.",
+            ),
+        ],
+        vec![
+            b("Newtonian order. "),
+            t(
+                "White-dwarf bounds are computed at Newtonian order; post-Newtonian corrections, \
+                 which can be important for white dwarfs in this class of theories, are not \
+                 included.",
+            ),
+        ],
+    ];
+    if input
+        .warnings
+        .iter()
+        .any(|w| matches!(w, Warning::Crowding { .. }))
+    {
+        c.push(vec![
+            b("Calibration. "),
+            t(
+                "The product of consistency probabilities is the likelihood of the class labels \
+                 given the measured masses with a flat prior on each true mass. It is calibrated \
+                 when few objects lie near each bound or the mass density is flat across it. \
+                 Here many objects of both classes crowd the MMHB: with unequal densities on the \
+                 two sides the best fit is biased toward the sparser side and the nominal \
+                 coverage can collapse. The population-aware likelihood removes that bias.",
+            ),
+        ]);
+    }
+    for extra in &input.cautions {
+        c.push(vec![t(extra.clone())]);
+    }
+    c
+}
