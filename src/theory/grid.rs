@@ -782,7 +782,7 @@ fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadi
     let omega3 = p.lane_emden_n3.ok()?.omega;
     let gradient = wd.tau_nodes.is_empty();
     let first = wd.node_tables.iter().find_map(|t| t.ok())?;
-    let nx = first.log10_xc.len();
+    let nx = first.log10_xc().len();
     let mut values: NodeValues<Vec<f64>> = BTreeMap::new();
     let rows = if gradient { 1 } else { wd.tau_nodes.len() };
     let su = stencil(&wd.upsilon_nodes, iu);
@@ -798,17 +798,18 @@ fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadi
                 return None;
             }
             let t = wd.node_tables.get(idx)?.ok()?;
-            if t.log10_xc.len() != nx {
+            if t.log10_xc().len() != nx {
                 return None;
             }
             // z = ln(m/(m_Ch − m)): keeps the relative precision of m at low mass and of the
             // deficit m_Ch − m near the Chandrasekhar mass, where R ∝ √(m_Ch − m); invariant
             // under the gradient rescaling.
+            let m_ch = t.mass_ch_dimless();
             let v: Vec<f64> = t
-                .mass_dimless
+                .mass_dimless()
                 .iter()
-                .map(|m| (m / (t.mass_ch_dimless - m)).ln())
-                .chain(t.radius_dimless.iter().map(|x| x.ln()))
+                .map(|m| (m / (m_ch - m)).ln())
+                .chain(t.radius_dimless().iter().map(|x| x.ln()))
                 .collect();
             values.insert((pt, pu), Ok(v));
         }
@@ -845,18 +846,32 @@ fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadi
         }
         radius.iter_mut().for_each(|r| *r /= s.sqrt());
     }
-    if mass.windows(2).any(|w| w[1] <= w[0]) || mass.last().is_some_and(|m| *m >= omega3) {
-        return None;
-    }
-    Some(WdMassRadius {
+    // The table type validates its parts only on deserialisation (its fields are private), so
+    // the interpolated table goes through that validated path.
+    let parts = WdTableParts {
         upsilon: p.upsilon,
         tau: p.tau,
         anisotropy: grid.settings.anisotropy,
-        log10_xc: first.log10_xc.clone(),
-        mass_dimless: mass,
-        radius_dimless: radius,
+        log10_xc: first.log10_xc(),
+        mass_dimless: &mass,
+        radius_dimless: &radius,
         mass_ch_dimless: omega3,
-    })
+    };
+    serde_json::to_value(parts)
+        .ok()
+        .and_then(|v| serde_json::from_value::<WdMassRadius>(v).ok())
+}
+
+/// The serialised form of a white-dwarf table (the field names of [`WdMassRadius`]).
+#[derive(Serialize)]
+struct WdTableParts<'a> {
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+    log10_xc: &'a [f64],
+    mass_dimless: &'a [f64],
+    radius_dimless: &'a [f64],
+    mass_ch_dimless: f64,
 }
 
 impl TheoryGrid {
@@ -1031,17 +1046,26 @@ impl TheoryGrid {
                 ("chandrasekhar", p.chandrasekhar.failure()),
                 ("breakup", p.breakup.failure()),
             ];
-            let failures: Vec<String> = named
-                .iter()
-                .filter_map(|(n, f)| f.map(|f| format!("{n}: {f}")))
-                .collect();
-            let status = if failures.is_empty() {
+            // Failures with the same reason are listed once, after the bounds they concern.
+            let mut grouped: Vec<(Vec<&str>, &Failure)> = Vec::new();
+            for (name, f) in named.iter().filter_map(|(n, f)| f.map(|f| (*n, f))) {
+                match grouped.iter_mut().find(|(_, g)| *g == f) {
+                    Some((names, _)) => names.push(name),
+                    None => grouped.push((vec![name], f)),
+                }
+            }
+            let failed = grouped.iter().map(|(n, _)| n.len()).sum::<usize>();
+            let status = if failed == 0 {
                 "ok"
-            } else if failures.len() == named.len() {
+            } else if failed == named.len() {
                 "no-model"
             } else {
                 "partial"
             };
+            let failures: Vec<String> = grouped
+                .iter()
+                .map(|(names, f)| format!("{}: {f}", names.join(", ")))
+                .collect();
             let f = |x: Option<f64>| fmt_f64(x);
             let row = vec![
                 f(Some(p.upsilon)),
