@@ -12,7 +12,7 @@ use super::{CliError, Exit, PredictArgs};
 use crate::output::write_atomic;
 use crate::report::text::fmt_sig;
 use crate::report::{render_bounds_png, render_bounds_svg, BoundSeries, BoundsCurves};
-use crate::theory::grid::{compute, GridOptions, TheoryGrid};
+use crate::theory::grid::{compute, grid_value, GridOptions, TheoryGrid};
 use crate::theory::mmhb::{MmhbMode, MmhbModel};
 use crate::theory::point::{
     post_newtonian_mass_msun, Outcome, PointBounds, PointEvaluator, TheorySettings,
@@ -181,7 +181,9 @@ fn figure_curves(grid: &TheoryGrid) -> BoundsCurves {
         });
     }
     BoundsCurves {
-        upsilon: grid.upsilon.values(),
+        upsilon: (0..grid.upsilon.count)
+            .map(|i| grid_value(&grid.upsilon, i))
+            .collect(),
         series,
     }
 }

@@ -228,6 +228,19 @@ fn check_axis(name: &'static str, a: &Axis) -> Result<(), GridError> {
     }
 }
 
+/// The i-th value of a grid axis: [`Axis::value`], except that a value within a few rounding
+/// errors of zero is exactly 0 (so that `-0.9:0.3:5` has the standard-gravity point Υ = 0, not
+/// −1.1e-16, and a τ = 0 row is recognised). Every point of a grid carries this value.
+pub fn grid_value(axis: &Axis, i: usize) -> f64 {
+    let v = axis.value(i);
+    let span = axis.start.abs().max(axis.stop.abs());
+    if v.abs() <= 8.0 * f64::EPSILON * span {
+        0.0
+    } else {
+        v
+    }
+}
+
 /// Node indices of an axis of `count` points: every `stride`-th and the last; every point when
 /// that would leave fewer than four nodes for a longer axis (a cubic stencil needs four).
 fn axis_nodes(count: usize, stride: usize) -> Vec<usize> {
@@ -304,13 +317,13 @@ fn interpolate_2d(
     let st = stencil(t_nodes, it);
     let wu = lagrange_weights(
         &su.iter()
-            .map(|&p| upsilon.value(u_nodes[p]))
+            .map(|&p| grid_value(&upsilon, u_nodes[p]))
             .collect::<Vec<_>>(),
-        upsilon.value(iu),
+        grid_value(&upsilon, iu),
     );
     let wt = lagrange_weights(
-        &st.iter().map(|&p| tau.value(t_nodes[p])).collect::<Vec<_>>(),
-        tau.value(it),
+        &st.iter().map(|&p| grid_value(&tau, t_nodes[p])).collect::<Vec<_>>(),
+        grid_value(&tau, it),
     );
     let mut out: Option<Vec<f64>> = None;
     for (a, &pt) in st.iter().enumerate() {
@@ -375,7 +388,7 @@ pub fn compute(
             why: format!("more than {MAX_GRID_POINTS} points"),
         })?;
     let range = options.shard.map_or(0..total, |s| s.range(total));
-    let tau0_row = (0..n_t).find(|&it| tau.value(it) == 0.0);
+    let tau0_row = (0..n_t).find(|&it| grid_value(&tau, it) == 0.0);
     let sc_needed = tau0_row.is_some_and(|it| (it * n_u..(it + 1) * n_u).any(|i| range.contains(&i)));
     let mut evaluator = PointEvaluator::new(settings)?;
     if sc_needed {
@@ -411,14 +424,14 @@ pub fn compute(
     let le: Vec<LaneEmdenPair> = if gradient {
         let cols: Vec<LaneEmdenPair> = (0..n_u)
             .into_par_iter()
-            .map(|iu| ev.lane_emden_tau0(upsilon.value(iu)))
+            .map(|iu| ev.lane_emden_tau0(grid_value(&upsilon, iu)))
             .collect();
         range
             .clone()
             .into_par_iter()
             .map(|i| {
                 pb.inc(1);
-                PointEvaluator::rescale_gradient(&cols[i % n_u], tau.value(i / n_u))
+                PointEvaluator::rescale_gradient(&cols[i % n_u], grid_value(&tau, i / n_u))
             })
             .collect()
     } else {
@@ -427,7 +440,7 @@ pub fn compute(
             .into_par_iter()
             .map(|i| {
                 pb.inc(1);
-                ev.lane_emden(upsilon.value(i % n_u), tau.value(i / n_u))
+                ev.lane_emden(grid_value(&upsilon, i % n_u), grid_value(&tau, i / n_u))
             })
             .collect()
     };
@@ -442,7 +455,7 @@ pub fn compute(
         .par_iter()
         .map(|&(pt, pu)| {
             let (iu, it) = (su_nodes[pu], st_nodes[pt]);
-            let (u, t) = (upsilon.value(iu), tau.value(it));
+            let (u, t) = (grid_value(&upsilon, iu), grid_value(&tau, it));
             let own;
             let pair = match le_at(it * n_u + iu) {
                 Some(p) => p,
@@ -486,7 +499,7 @@ pub fn compute(
             let (corr, interpolated) = match interp {
                 Some(v) => (Ok(v[0]), !on_node),
                 None => (
-                    ev.breakup_correction(upsilon.value(iu), tau.value(it), s15),
+                    ev.breakup_correction(grid_value(&upsilon, iu), grid_value(&tau, it), s15),
                     false,
                 ),
             };
@@ -510,7 +523,7 @@ pub fn compute(
             let nodes: NodeValues<Vec<f64>> = positions
                 .par_iter()
                 .map(|&pu| {
-                    let r = ev.sc_ratio(upsilon.value(sc_nodes[pu]), 0.0);
+                    let r = ev.sc_ratio(grid_value(&upsilon, sc_nodes[pu]), 0.0);
                     ((0, pu), r.as_result().map(|v| vec![*v]).map_err(Clone::clone))
                 })
                 .collect();
@@ -520,7 +533,7 @@ pub fn compute(
                     let v = match interpolate_2d(&nodes, &upsilon, &one_row, &sc_nodes, &[0], iu, 0)
                     {
                         Some(v) => Outcome::Ok(ev.sc_values(v[0], !on_node)),
-                        None => ev.sc(upsilon.value(iu), 0.0),
+                        None => ev.sc(grid_value(&upsilon, iu), 0.0),
                     };
                     (iu, v)
                 })
@@ -537,7 +550,7 @@ pub fn compute(
         .zip(breakup.into_par_iter())
         .map(|(i, b)| {
             let (iu, it) = (i % n_u, i / n_u);
-            let (u, t) = (upsilon.value(iu), tau.value(it));
+            let (u, t) = (grid_value(&upsilon, iu), grid_value(&tau, it));
             let sc = match (Some(it) == tau0_row, sc_row.get(&iu)) {
                 (true, Some(v)) => v.clone(),
                 _ => ev.sc(u, t),
@@ -584,7 +597,7 @@ pub fn compute(
                 if !sc.interpolated {
                     return None;
                 }
-                let exact = *ev.sc_ratio(upsilon.value(i % n_u), 0.0).ok()?;
+                let exact = *ev.sc_ratio(grid_value(&upsilon, i % n_u), 0.0).ok()?;
                 Some(((sc.ratio / exact - 1.0).abs(), i))
             })
             .collect();
@@ -677,8 +690,8 @@ fn summarise(
         quantity: quantity.to_string(),
         samples: results.len(),
         max_relative_error: worst.map_or(0.0, |w| w.0),
-        worst_upsilon: worst.map(|(_, i)| upsilon.value(i % n_u)),
-        worst_tau: worst.map(|(_, i)| tau.value(i / n_u)),
+        worst_upsilon: worst.map(|(_, i)| grid_value(&upsilon, i % n_u)),
+        worst_tau: worst.map(|(_, i)| grid_value(&tau, i / n_u)),
     }
 }
 
@@ -703,11 +716,11 @@ fn build_wd_grid(
     let node_tables: Vec<Outcome<WdMassRadius>> = pairs
         .par_iter()
         .map(|&(pt, pu)| {
-            let u = upsilon.value(u_nodes[pu]);
+            let u = grid_value(&upsilon, u_nodes[pu]);
             let r = if gradient {
                 WdMassRadius::new(u, 0.0, Anisotropy::Gradient, &opts)
             } else {
-                WdMassRadius::new(u, tau.value(rows[pt]), grid.settings.anisotropy, &opts)
+                WdMassRadius::new(u, grid_value(&tau, rows[pt]), grid.settings.anisotropy, &opts)
             };
             pb.inc(1);
             r.into()
@@ -1118,7 +1131,7 @@ impl TheoryGrid {
                         .collect()
                 };
                 BoundCurves {
-                    tau: self.tau.value(it),
+                    tau: grid_value(&self.tau, it),
                     mmhb_msun: pick(&|p: &PointBounds| p.mmhb.ok().map(|m| m.value_msun)),
                     chandrasekhar_msun: pick(&|p: &PointBounds| p.chandrasekhar.ok().map(|c| c.value_msun)),
                     breakup_period_min: pick(&|p: &PointBounds| p.breakup.ok().map(|b| b.period_h * 60.0)),
@@ -1135,7 +1148,7 @@ impl TheoryGrid {
         let mut rows: BTreeSet<usize> = (0..take)
             .map(|k| if take == 1 { 0 } else { k * (n - 1) / (take - 1) })
             .collect();
-        if let Some(it0) = (0..n).find(|&it| self.tau.value(it) == 0.0) {
+        if let Some(it0) = (0..n).find(|&it| grid_value(&self.tau, it) == 0.0) {
             rows.insert(it0);
         }
         rows.into_iter().collect()

@@ -560,13 +560,8 @@ impl From<TheoryError> for Failure {
 
 impl From<BoundError> for Failure {
     fn from(e: BoundError) -> Self {
-        let code = match &e {
-            BoundError::InvalidInput { .. } => "bound-invalid-input",
-            BoundError::NoConvergence { .. } => "bound-no-convergence",
-            BoundError::NotSpecified { .. } => "not-specified",
-        };
         Failure {
-            code: code.to_string(),
+            code: e.code().to_string(),
             reason: e.to_string(),
         }
     }
@@ -1188,9 +1183,11 @@ impl PointEvaluator {
             j_k,
             k,
         };
-        let g_factor = match (self.settings.anisotropy, self.settings.photosphere_gravity) {
-            (Anisotropy::Gradient, PhotosphereGravity::ScaledByAnisotropy) => 1.0 - tau,
-            _ => 1.0,
+        let g_factor = match self.settings.photosphere_gravity {
+            PhotosphereGravity::ScaledByAnisotropy => {
+                mmhb::anisotropy_photosphere_g_factor(self.settings.anisotropy, tau)
+            }
+            PhotosphereGravity::Exterior => 1.0,
         };
         mmhb::evaluate(&self.mmhb_config, &le, &self.reference_n15, g_factor)
             .map(|b| MmhbValues {
