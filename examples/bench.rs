@@ -24,11 +24,12 @@ fn median(mut v: Vec<f64>) -> f64 {
 }
 
 /// Median wall time of one solve, µs, over `reps` solves timed one by one.
-fn time_solve(n: f64, extra: &[f64], reps: usize) -> (f64, f64, f64) {
+fn time_solve(n: f64, extra: &[f64], xi_start: f64, reps: usize) -> (f64, f64, f64) {
     let le = ModifiedLaneEmden::new(n, 0.1, 0.1, Anisotropy::DensitySquared).expect("valid");
     let opts = LaneEmdenOptions {
         rtol: 1e-10,
         atol: 1e-12,
+        xi_start,
         extra_powers: extra.to_vec(),
         ..LaneEmdenOptions::default()
     };
@@ -82,12 +83,13 @@ fn grid_run(label: &str, n: usize, settings: &TheorySettings, wd: bool) -> Theor
             "  {label}: interpolation of {}: max relative error {:.2e} over {} off-node samples (worst at Υ = {:?}, τ = {:?})",
             c.quantity, c.max_relative_error, c.samples, c.worst_upsilon, c.worst_tau
         );
-        let key = c
-            .quantity
-            .split_whitespace()
-            .next()
-            .unwrap_or("x")
-            .to_lowercase();
+        let key = if c.quantity.starts_with("break-up") {
+            "breakup"
+        } else if c.quantity.starts_with("white-dwarf") {
+            "wd"
+        } else {
+            "sc"
+        };
         println!(
             "RESULT {label}_interp_err_{key} {:.3e}",
             c.max_relative_error
@@ -105,15 +107,20 @@ fn main() {
     println!("RESULT threads {threads}");
     println!("dwarfbound theory benchmark (dev profile, our crate at opt-level 3; {threads} rayon threads)");
 
-    // One modified Lane–Emden solve, Υ = 0.1, τ = 0.1 (density-squared), rtol 1e-10, atol 1e-12.
-    for (key, nn, extra) in [
-        ("le_n15", 1.5, &[][..]),
-        ("le_n15_jk", 1.5, &[9.73][..]),
-        ("le_n3", 3.0, &[][..]),
-    ] {
-        let (us, xi1, omega) = time_solve(nn, extra, 2001);
-        println!("RESULT {key}_us {us:.2}");
-        println!("  one solve {key}: median {us:.1} µs (ξ1 = {xi1:.10}, ω = {omega:.10})");
+    // One modified Lane–Emden solve, Υ = 0.1, τ = 0.1 (density-squared), rtol 1e-10, atol 1e-12:
+    // from ξ0 = 1e-4 like the scipy script, and from ξ0 = 1e-2 as the grid does.
+    for (suffix, xi_start) in [("", 1e-4), ("_xi0_1e-2", 1e-2)] {
+        for (key, nn, extra) in [
+            ("le_n15", 1.5, &[][..]),
+            ("le_n15_jk", 1.5, &[9.73][..]),
+            ("le_n3", 3.0, &[][..]),
+        ] {
+            let (us, xi1, omega) = time_solve(nn, extra, xi_start, 2001);
+            println!("RESULT {key}{suffix}_us {us:.2}");
+            println!(
+                "  one solve {key} (ξ0 = {xi_start:e}): median {us:.1} µs (ξ1 = {xi1:.10}, ω = {omega:.10})"
+            );
+        }
     }
 
     // White-dwarf table: cost and its own accuracy against direct root searches.

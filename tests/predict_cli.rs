@@ -89,7 +89,15 @@ fn standard_gravity_json() {
 #[test]
 fn ignition_model_b() {
     // bounds.md §3 and §9: raw model B at T_ign = 3×10⁶ K: 0.10899329 M☉ (computed there).
-    let v = json_of(&["--upsilon", "0", "--tau", "0", "--json", "--mmhb-model", "ignition"]);
+    let v = json_of(&[
+        "--upsilon",
+        "0",
+        "--tau",
+        "0",
+        "--json",
+        "--mmhb-model",
+        "ignition",
+    ]);
     assert_eq!(v["mmhb_model"], "ignition-temperature");
     assert!((f(&v, "/mmhb_raw_msun") - 0.10899329).abs() < 1e-8);
     assert_eq!(f(&v, "/mmhb_msun"), 0.075);

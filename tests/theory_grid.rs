@@ -52,14 +52,23 @@ fn grid_points_equal_single_point_solves_when_nothing_is_interpolated() {
 
 #[test]
 fn row_major_layout_tau_outer() {
-    let g = compute(axis(0.0, 0.2, 3), axis(-0.1, 0.1, 2), &exact_settings(), &quiet()).unwrap();
+    let g = compute(
+        axis(0.0, 0.2, 3),
+        axis(-0.1, 0.1, 2),
+        &exact_settings(),
+        &quiet(),
+    )
+    .unwrap();
     assert_eq!(g.index(2, 1), 5);
     assert_eq!(g.coords(4), (1, 1));
     assert_eq!(g.points[4].upsilon, 0.1);
     assert_eq!(g.points[4].tau, 0.1);
     // −0.9 + 0.75·1.2 is −1.1e-16 in floating point; the grid's point is standard gravity.
     assert_eq!(grid_value(&axis(-0.9, 0.3, 5), 3), 0.0);
-    assert_eq!(grid_value(&axis(-0.9, 0.3, 5), 1), axis(-0.9, 0.3, 5).value(1));
+    assert_eq!(
+        grid_value(&axis(-0.9, 0.3, 5), 1),
+        axis(-0.9, 0.3, 5).value(1)
+    );
 }
 
 #[test]
@@ -124,9 +133,18 @@ fn modified_values_from_the_theory_notes() {
     }
     // structure.md §5.4 (computed): 0.08 M☉ at Υ = 0.1 / −0.2 / 0.3 and τ = 0.2: 23.7 / 19.6 /
     // 26.9 / 25.8 min.
-    for (u, t, pmin) in [(0.1, 0.0, 23.7), (-0.2, 0.0, 19.6), (0.3, 0.0, 26.9), (0.0, 0.2, 25.8)] {
+    for (u, t, pmin) in [
+        (0.1, 0.0, 23.7),
+        (-0.2, 0.0, 19.6),
+        (0.3, 0.0, 26.9),
+        (0.0, 0.2, 25.8),
+    ] {
         let b = ev.evaluate(u, t, false).breakup.ok().copied().unwrap();
-        assert!((b.period_min() - pmin).abs() < 0.05, "({u}, {t}): {}", b.period_min());
+        assert!(
+            (b.period_min() - pmin).abs() < 0.05,
+            "({u}, {t}): {}",
+            b.period_min()
+        );
     }
     // bounds.md §7.2 (computed; full fit λ = 0.46 column is closest to the default
     // λ = 0.62/1.33 = 0.466): q_SC(0.1)/q_SC(0) ≈ 0.9726 (λ = 0.46), 0.9716 (λ = 0.5).
@@ -181,7 +199,9 @@ fn gradient_ansatz_follows_the_exact_g_rescaling() {
             assert!(rel(l.xi1, direct.xi1) < 1e-9);
             assert!(rel(l.omega, direct.omega) < 1e-9);
             if p.tau != 0.0 {
-                assert!(p.warnings.contains(&Warning::GradientAnisotropyInAtmosphere));
+                assert!(p
+                    .warnings
+                    .contains(&Warning::GradientAnisotropyInAtmosphere));
             }
         }
     }
@@ -190,7 +210,13 @@ fn gradient_ansatz_follows_the_exact_g_rescaling() {
 #[test]
 fn failed_points_are_kept_with_their_reason() {
     // structure.md §1.4: no regular centre for Υ ≤ −2(1 − τ)/3 (ansatz a).
-    let g = compute(axis(-0.9, 0.0, 4), axis(0.0, 0.2, 2), &exact_settings(), &quiet()).unwrap();
+    let g = compute(
+        axis(-0.9, 0.0, 4),
+        axis(0.0, 0.2, 2),
+        &exact_settings(),
+        &quiet(),
+    )
+    .unwrap();
     assert_eq!(g.points.len(), 8);
     // Υ = −0.9 fails at both τ; Υ = −0.6 fails at τ = 0.2 (bound −0.533).
     let failed: Vec<(usize, usize)> = (0..g.points.len())
@@ -291,7 +317,12 @@ fn interpolated_values_agree_with_exact_solves() {
     assert_eq!(g.interpolation_checks.len(), 3);
     for c in &g.interpolation_checks {
         assert!(c.samples > 0, "{}", c.quantity);
-        assert!(c.max_relative_error < 1e-4, "{}: {}", c.quantity, c.max_relative_error);
+        assert!(
+            c.max_relative_error < 1e-4,
+            "{}: {}",
+            c.quantity,
+            c.max_relative_error
+        );
     }
     // Off-node points against exact solves (independent of the stored check).
     for (iu, it) in [(3, 5), (10, 1), (21, 11), (13, 6)] {
@@ -310,7 +341,8 @@ fn interpolated_values_agree_with_exact_solves() {
             Outcome::Ok(t) => t,
             Outcome::Failed(f) => panic!("{f}"),
         };
-        let direct = WdMassRadius::new(p.upsilon, p.tau, s.anisotropy, &s.wd_table_options()).unwrap();
+        let direct =
+            WdMassRadius::new(p.upsilon, p.tau, s.anisotropy, &s.wd_table_options()).unwrap();
         for m in [0.1, 0.6, 1.0, 1.2] {
             let (x, y) = (
                 table.radius_rsun(m, 2.0).unwrap(),
@@ -329,8 +361,18 @@ fn settings_errors_and_cache_keys() {
     };
     assert!(point_bounds(0.0, 0.0, &bad, false).is_err());
     let s = TheorySettings::default();
-    let k1 = dwarfbound::theory::grid::cache_key_text(&axis(0.0, 1.0, 3), &axis(0.0, 0.0, 1), &s, &quiet());
-    let k2 = dwarfbound::theory::grid::cache_key_text(&axis(0.0, 1.0, 4), &axis(0.0, 0.0, 1), &s, &quiet());
+    let k1 = dwarfbound::theory::grid::cache_key_text(
+        &axis(0.0, 1.0, 3),
+        &axis(0.0, 0.0, 1),
+        &s,
+        &quiet(),
+    );
+    let k2 = dwarfbound::theory::grid::cache_key_text(
+        &axis(0.0, 1.0, 4),
+        &axis(0.0, 0.0, 1),
+        &s,
+        &quiet(),
+    );
     assert_ne!(k1, k2);
     assert!(k1.starts_with("dwarfbound theory settings"));
 }

@@ -369,10 +369,7 @@ fn point_text(p: &PointBounds, s: &TheorySettings) -> String {
             s.mmhb_config().model_a.k_index(),
             l.j_k.map(|j| fmt_sig(j, 10)).unwrap_or_default()
         )),
-        None => w(format!(
-            "  n = 1.5   {}",
-            why(p.lane_emden_n15.failure())
-        )),
+        None => w(format!("  n = 1.5   {}", why(p.lane_emden_n15.failure()))),
     }
     match p.lane_emden_n3.ok() {
         Some(l) => w(format!(

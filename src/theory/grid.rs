@@ -317,13 +317,15 @@ fn interpolate_2d(
     let st = stencil(t_nodes, it);
     let wu = lagrange_weights(
         &su.iter()
-            .map(|&p| grid_value(&upsilon, u_nodes[p]))
+            .map(|&p| grid_value(upsilon, u_nodes[p]))
             .collect::<Vec<_>>(),
-        grid_value(&upsilon, iu),
+        grid_value(upsilon, iu),
     );
     let wt = lagrange_weights(
-        &st.iter().map(|&p| grid_value(&tau, t_nodes[p])).collect::<Vec<_>>(),
-        grid_value(&tau, it),
+        &st.iter()
+            .map(|&p| grid_value(tau, t_nodes[p]))
+            .collect::<Vec<_>>(),
+        grid_value(tau, it),
     );
     let mut out: Option<Vec<f64>> = None;
     for (a, &pt) in st.iter().enumerate() {
@@ -389,7 +391,8 @@ pub fn compute(
         })?;
     let range = options.shard.map_or(0..total, |s| s.range(total));
     let tau0_row = (0..n_t).find(|&it| grid_value(&tau, it) == 0.0);
-    let sc_needed = tau0_row.is_some_and(|it| (it * n_u..(it + 1) * n_u).any(|i| range.contains(&i)));
+    let sc_needed =
+        tau0_row.is_some_and(|it| (it * n_u..(it + 1) * n_u).any(|i| range.contains(&i)));
     let mut evaluator = PointEvaluator::new(settings)?;
     if sc_needed {
         evaluator = evaluator.with_sc_reference();
@@ -444,9 +447,8 @@ pub fn compute(
             })
             .collect()
     };
-    let le_at = |i: usize| -> Option<&LaneEmdenPair> {
-        range.contains(&i).then(|| &le[i - range.start])
-    };
+    let le_at =
+        |i: usize| -> Option<&LaneEmdenPair> { range.contains(&i).then(|| &le[i - range.start]) };
 
     // 2. Break-up reference correction on nodes, then per point.
     pb.set_message("break-up reference");
@@ -487,15 +489,8 @@ pub fn compute(
             };
             let on_node =
                 su_nodes.binary_search(&iu).is_ok() && st_nodes.binary_search(&it).is_ok();
-            let interp = interpolate_2d(
-                &breakup_nodes,
-                &upsilon,
-                &tau,
-                &su_nodes,
-                &st_nodes,
-                iu,
-                it,
-            );
+            let interp =
+                interpolate_2d(&breakup_nodes, &upsilon, &tau, &su_nodes, &st_nodes, iu, it);
             let (corr, interpolated) = match interp {
                 Some(v) => (Ok(v[0]), !on_node),
                 None => (
@@ -512,7 +507,9 @@ pub fn compute(
     pb.set_message("Schönberg–Chandrasekhar");
     let sc_row: BTreeMap<usize, Outcome<crate::theory::point::ScValues>> = match tau0_row {
         Some(it0) if sc_needed => {
-            let cols: Vec<usize> = (0..n_u).filter(|iu| range.contains(&(it0 * n_u + iu))).collect();
+            let cols: Vec<usize> = (0..n_u)
+                .filter(|iu| range.contains(&(it0 * n_u + iu)))
+                .collect();
             let positions: BTreeSet<usize> =
                 cols.iter().flat_map(|&iu| stencil(&sc_nodes, iu)).collect();
             let one_row = Axis {
@@ -524,7 +521,10 @@ pub fn compute(
                 .par_iter()
                 .map(|&pu| {
                     let r = ev.sc_ratio(grid_value(&upsilon, sc_nodes[pu]), 0.0);
-                    ((0, pu), r.as_result().map(|v| vec![*v]).map_err(Clone::clone))
+                    (
+                        (0, pu),
+                        r.as_result().map(|v| vec![*v]).map_err(Clone::clone),
+                    )
                 })
                 .collect();
             cols.par_iter()
@@ -690,8 +690,8 @@ fn summarise(
         quantity: quantity.to_string(),
         samples: results.len(),
         max_relative_error: worst.map_or(0.0, |w| w.0),
-        worst_upsilon: worst.map(|(_, i)| grid_value(&upsilon, i % n_u)),
-        worst_tau: worst.map(|(_, i)| grid_value(&tau, i / n_u)),
+        worst_upsilon: worst.map(|(_, i)| grid_value(upsilon, i % n_u)),
+        worst_tau: worst.map(|(_, i)| grid_value(tau, i / n_u)),
     }
 }
 
@@ -720,7 +720,12 @@ fn build_wd_grid(
             let r = if gradient {
                 WdMassRadius::new(u, 0.0, Anisotropy::Gradient, &opts)
             } else {
-                WdMassRadius::new(u, grid_value(&tau, rows[pt]), grid.settings.anisotropy, &opts)
+                WdMassRadius::new(
+                    u,
+                    grid_value(&tau, rows[pt]),
+                    grid.settings.anisotropy,
+                    &opts,
+                )
             };
             pb.inc(1);
             r.into()
@@ -779,8 +784,7 @@ fn build_wd_grid(
             Some((worst, i))
         })
         .collect();
-    let interpolated_somewhere =
-        u_nodes.len() < n_u || (!gradient && t_nodes.len() < tau.count);
+    let interpolated_somewhere = u_nodes.len() < n_u || (!gradient && t_nodes.len() < tau.count);
     let check = interpolated_somewhere
         .then(|| summarise("white-dwarf radius R(M)", &results, &upsilon, &tau, n_u));
     (wd, check)
@@ -854,7 +858,7 @@ fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadi
     let mut radius: Vec<f64> = v[nx..].iter().map(|x| x.exp()).collect();
     if gradient {
         let s = 1.0 - p.tau;
-        if !(s > 0.0) {
+        if s.is_nan() || s <= 0.0 {
             return None;
         }
         radius.iter_mut().for_each(|r| *r /= s.sqrt());
@@ -966,9 +970,7 @@ impl TheoryGrid {
             )));
         }
         if g.first_index + g.points.len() > g.total_points() {
-            return Err(GridError::Format(
-                "more points than the axes allow".into(),
-            ));
+            return Err(GridError::Format("more points than the axes allow".into()));
         }
         Ok(g)
     }
@@ -1133,8 +1135,12 @@ impl TheoryGrid {
                 BoundCurves {
                     tau: grid_value(&self.tau, it),
                     mmhb_msun: pick(&|p: &PointBounds| p.mmhb.ok().map(|m| m.value_msun)),
-                    chandrasekhar_msun: pick(&|p: &PointBounds| p.chandrasekhar.ok().map(|c| c.value_msun)),
-                    breakup_period_min: pick(&|p: &PointBounds| p.breakup.ok().map(|b| b.period_h * 60.0)),
+                    chandrasekhar_msun: pick(&|p: &PointBounds| {
+                        p.chandrasekhar.ok().map(|c| c.value_msun)
+                    }),
+                    breakup_period_min: pick(&|p: &PointBounds| {
+                        p.breakup.ok().map(|b| b.period_h * 60.0)
+                    }),
                 }
             })
             .collect()
@@ -1146,7 +1152,13 @@ impl TheoryGrid {
         let n = self.tau.count;
         let take = max.max(1).min(n);
         let mut rows: BTreeSet<usize> = (0..take)
-            .map(|k| if take == 1 { 0 } else { k * (n - 1) / (take - 1) })
+            .map(|k| {
+                if take == 1 {
+                    0
+                } else {
+                    k * (n - 1) / (take - 1)
+                }
+            })
             .collect();
         if let Some(it0) = (0..n).find(|&it| grid_value(&self.tau, it) == 0.0) {
             rows.insert(it0);

@@ -158,8 +158,8 @@ pub struct Numerics {
     /// it). Against rtol 1e-13 the constants ξ1, ω, J_k agree to ≤ 2e-10 over
     /// Υ ∈ [−0.66, 0.6], τ ∈ [−0.3, 0.3].
     pub lane_emden_rtol: f64,
-    /// Where the Lane–Emden central series hands over to the integrator (default 1e-2: the
-    /// series error there is ~1e-15, and it saves the steps that grow from 1e-4).
+    /// Where the Lane–Emden central series hands over to the integrator (default 1e-4, the
+    /// ξ₀ of `structure.md` §3.3).
     pub lane_emden_xi_start: f64,
     /// Relative tolerance of each full-EOS white-dwarf model (tables and the break-up reference;
     /// default 1e-10).
@@ -187,7 +187,7 @@ impl Default for Numerics {
     fn default() -> Self {
         Self {
             lane_emden_rtol: 1e-10,
-            lane_emden_xi_start: 1e-2,
+            lane_emden_xi_start: 1e-4,
             wd_rtol: 1e-10,
             wd_log10_xc_min: -3.0,
             wd_log10_xc_max: 4.5,
@@ -339,11 +339,7 @@ impl TheorySettings {
         }
         let f = self.chandrasekhar_floor_msun;
         if !(f.is_finite() && f >= 0.0) {
-            return Err(bad(
-                "chandrasekhar_floor_msun",
-                f,
-                "must be finite and ≥ 0",
-            ));
+            return Err(bad("chandrasekhar_floor_msun", f, "must be finite and ≥ 0"));
         }
         let f = self.wd_radius_floor_fraction;
         if !(f.is_finite() && (0.0..1.0).contains(&f)) {
@@ -369,7 +365,7 @@ impl TheorySettings {
             ("numerics.lane_emden_rtol", n.lane_emden_rtol),
             ("numerics.wd_rtol", n.wd_rtol),
         ] {
-            if !(v.is_finite() && v >= 1e-14 && v <= 1e-6) {
+            if !(1e-14..=1e-6).contains(&v) {
                 return Err(bad(name, v, "must lie in [1e-14, 1e-6]"));
             }
         }
@@ -970,7 +966,8 @@ impl PointEvaluator {
     /// The SC fraction at (Υ, τ): refused for τ ≠ 0 (`bounds.md` §7.2). The standard-gravity
     /// fit is solved once per evaluator (see [`PointEvaluator::with_sc_reference`]).
     pub fn sc(&self, upsilon: f64, tau: f64) -> Outcome<ScValues> {
-        self.sc_ratio(upsilon, tau).map(|ratio| self.sc_values(ratio, false))
+        self.sc_ratio(upsilon, tau)
+            .map(|ratio| self.sc_values(ratio, false))
     }
 
     /// Solves and keeps the standard-gravity SC fit, so that [`PointEvaluator::sc`] needs one fit
@@ -1004,7 +1001,11 @@ impl PointEvaluator {
         let p = &self.settings.sc;
         // `sc_fraction` validates everything (and refuses τ ≠ 0); at Υ = 0 it fits nothing.
         let checked = schonberg::sc_fraction(
-            if self.sc_reference_q.is_some() { 0.0 } else { upsilon },
+            if self.sc_reference_q.is_some() {
+                0.0
+            } else {
+                upsilon
+            },
             tau,
             p,
             self.settings.sc_variant,
@@ -1053,7 +1054,7 @@ impl PointEvaluator {
             Anisotropy::Gradient => {
                 // R_b(M) = R_0(M s^{3/2})/√s (structure.md §2.2).
                 let s = 1.0 - tau;
-                if !(s > 0.0) {
+                if s.is_nan() || s <= 0.0 {
                     return Err(TheoryError::InvalidParameter {
                         name: "tau",
                         value: tau,
