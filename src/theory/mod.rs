@@ -6,9 +6,11 @@
 //! fraction), with typed errors where no star exists.
 
 pub mod error;
+pub mod grid;
 pub mod lane_emden;
 pub mod mmhb;
 pub mod ode;
+pub mod point;
 pub mod rotation;
 pub mod schonberg;
 pub mod white_dwarf;
