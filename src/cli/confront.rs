@@ -1,8 +1,124 @@
-//! `dwarfbound confront`: see the README for what it does.
+//! `dwarfbound confront`: vet the catalogues, predict the bounds over a grid, confront, report.
 
 use super::{CliError, ConfrontArgs, Exit};
+use crate::pipeline::cache::Cache;
+use crate::pipeline::confront::{
+    parse_format, run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings,
+    PipelineError, StatisticsSettings,
+};
+use crate::pipeline::history::{now_unix_s, utc_stamp};
+use crate::theory::point::TheorySettings;
+use crate::theory::Axis;
+
+/// Default Υ axis when none is given: the range of `../shared/CONVENTIONS.md`'s example at half
+/// its resolution, which keeps a first run quick.
+pub const DEFAULT_UPSILON: Axis = Axis {
+    start: -0.3,
+    stop: 0.6,
+    count: 46,
+};
+/// Default τ axis when none is given.
+pub const DEFAULT_TAU: Axis = Axis {
+    start: -0.3,
+    stop: 0.3,
+    count: 31,
+};
+
+impl From<PipelineError> for CliError {
+    fn from(e: PipelineError) -> Self {
+        match e {
+            PipelineError::Catalogue(c) => c.into(),
+            PipelineError::Internal(m) => CliError::internal(m),
+            other => CliError::usage(other.to_string().replace('\n', " ")),
+        }
+    }
+}
+
+/// Prints the few lines a researcher reads first.
+pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
+    let s = &o.summary;
+    let (rin, racc, rq) = o.rows;
+    println!("catalogues: {rin} rows in, {racc} accepted, {rq} quarantined");
+    let bf = &s["best_fit"];
+    println!(
+        "best fit: Υ = {}, τ = {} (−2 ln L = {:.4})",
+        bf["upsilon"], bf["tau"], bf["minus_two_ln_l"].as_f64().unwrap_or(f64::NAN)
+    );
+    let iv = &s["upsilon_interval_at_tau0"]["cl95"];
+    let end = |v: &serde_json::Value| match v.as_f64() {
+        Some(x) => format!("{x:.4}"),
+        None => "open".to_string(),
+    };
+    println!(
+        "95.45 % interval in Υ at τ = 0: [{}, {}]",
+        end(&iv["lower"]),
+        end(&iv["upper"])
+    );
+    let sg = &s["standard_gravity"]["allowed_cl95"];
+    println!(
+        "standard gravity (Υ = τ = 0) {}",
+        match sg.as_bool() {
+            Some(true) => "lies inside the 95.45 % region",
+            Some(false) => "lies OUTSIDE the 95.45 % region",
+            None => "is not on the grid",
+        }
+    );
+    if !o.consistent {
+        println!("WARNING: no grid point is consistent with the catalogues at 95.45 % (see the report for the objects responsible)");
+    }
+    if o.tensions.is_empty() {
+        println!("tensions: none above the threshold");
+    } else {
+        println!("tensions at standard gravity:");
+        for (id, class, z) in &o.tensions {
+            println!("  {id:<16} {class:<12} {z:.2}σ");
+        }
+    }
+    println!(
+        "theory grid: {}",
+        if o.theory_from_cache {
+            "reused from the cache"
+        } else {
+            "computed"
+        }
+    );
+    println!("wrote {}/report.html and the other outputs", out.display());
+}
 
 /// Runs `confront`.
-pub fn run(_args: ConfrontArgs) -> Result<Exit, CliError> {
-    Err(CliError::internal("`confront` is not built yet"))
+pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
+    let format = parse_format(args.read.format.as_deref())?;
+    let theory = TheorySettings {
+        anisotropy: args.theory.anisotropy,
+        mmhb_model: super::predict::mmhb_model(&args.theory.mmhb_model)?,
+        ..TheorySettings::default()
+    };
+    if !(args.tension_sigma.is_finite() && args.tension_sigma > 0.0) {
+        return Err(CliError::usage("--tension-sigma must be a positive number"));
+    }
+    let mut statistics = StatisticsSettings {
+        tension_sigma: args.tension_sigma,
+        ..StatisticsSettings::default()
+    };
+    statistics.engine.include_young = args.include_young;
+    let settings = ConfrontSettings {
+        catalogues: args
+            .catalogs
+            .iter()
+            .map(|p| CatalogueInput {
+                path: p.clone(),
+                map: args.read.map.clone(),
+                format,
+            })
+            .collect(),
+        upsilon: args.theory.upsilon.unwrap_or(DEFAULT_UPSILON),
+        tau: args.theory.tau.unwrap_or(DEFAULT_TAU),
+        theory,
+        statistics,
+    };
+    let cache = args.cache.as_deref().map(Cache::new);
+    let (generated_at, _) = utc_stamp(now_unix_s());
+    let outcome = run_confrontation(&settings, &args.out, cache.as_ref(), &generated_at)?;
+    print_outcome(&outcome, &args.out);
+    Ok(Exit::Ok)
 }

@@ -160,6 +160,15 @@ pub struct ConfrontArgs {
     /// Output folder.
     #[arg(long, default_value = "reports/latest")]
     pub out: PathBuf,
+    /// Theory cache folder: reuse the bounds grid when nothing that determines it changed.
+    #[arg(long, value_name = "DIR")]
+    pub cache: Option<PathBuf>,
+    /// List objects above this tension (σ) at standard gravity.
+    #[arg(long, default_value_t = 3.0, value_name = "SIGMA")]
+    pub tension_sigma: f64,
+    /// Keep objects younger than the age limit (1 Gyr) in the MMHB test.
+    #[arg(long)]
+    pub include_young: bool,
 }
 
 /// Arguments of `run`.

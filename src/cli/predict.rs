@@ -28,7 +28,7 @@ const WD_MASSES_MSUN: [f64; 7] = [0.2, 0.4, 0.6, 0.8, 1.0, 1.2, 1.4];
 const FIGURE_TAU_ROWS: usize = 5;
 
 /// Parses `--mmhb-model`.
-fn mmhb_model(text: &str) -> Result<MmhbModel, CliError> {
+pub(super) fn mmhb_model(text: &str) -> Result<MmhbModel, CliError> {
     match text.trim().to_ascii_lowercase().as_str() {
         "luminosity" | "luminosity-balance" | "a" => Ok(MmhbModel::LuminosityBalance),
         "ignition" | "ignition-temperature" | "b" => Ok(MmhbModel::IgnitionTemperature),

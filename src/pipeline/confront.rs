@@ -23,7 +23,7 @@ use crate::confront::regions::{
     self, absolute_consistency, crowding, map_regions, upsilon_slice, CrowdingOptions, Level,
     MapRegions, UpsilonSlice,
 };
-use crate::output::{fmt_f64, write_atomic, OutputError};
+use crate::output::{write_atomic, OutputError};
 use crate::pipeline::cache::{sha256_hex, Cache, Lookup};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::{self, GridOptions, Shard, TheoryGrid};
@@ -258,8 +258,8 @@ fn delta_of(v: &[Option<f64>]) -> Vec<Option<f64>> {
 
 /// The τ = 0 slice of the joint likelihood on a 10× finer Υ axis (`bounds.md` §8.4), with the
 /// class bounds along it for the driver analysis.
-struct SliceResult {
-    slice: UpsilonSlice,
+pub(crate) struct SliceResult {
+    pub(crate) slice: UpsilonSlice,
     /// Per mass term: bound along the fine axis.
     bounds_fine: Vec<(Term, Vec<f64>)>,
 }
@@ -539,8 +539,8 @@ pub fn run_confrontation(
         &export::quarantine_csv(&vetted.quarantine)
             .map_err(|e| PipelineError::Internal(e.to_string()))?,
     )?;
-    write_atomic(&out_dir.join("objects.csv"), ctx.objects_csv().as_bytes())?;
-    write_atomic(&out_dir.join("grid.csv"), ctx.grid_csv().as_bytes())?;
+    write_atomic(&out_dir.join("objects.csv"), &ctx.objects_csv()?)?;
+    write_atomic(&out_dir.join("grid.csv"), &ctx.grid_csv()?)?;
     let summary = ctx.summary_json();
     let mut summary_bytes = serde_json::to_vec_pretty(&summary)
         .map_err(|e| PipelineError::Internal(e.to_string()))?;
@@ -639,7 +639,7 @@ impl OutputContext<'_> {
     }
 
     /// `objects.csv`: one row per accepted object.
-    fn objects_csv(&self) -> String {
+    fn objects_csv(&self) -> Result<Vec<u8>, PipelineError> {
         let header = [
             "id",
             "class",
@@ -708,11 +708,11 @@ impl OutputContext<'_> {
                 ]
             })
             .collect();
-        String::from_utf8_lossy(&report::tables::csv_bytes(&header, &rows)).into_owned()
+        report::tables::csv_bytes(&header, &rows).map_err(|e| PipelineError::Internal(e.to_string()))
     }
 
     /// `grid.csv`: one row per grid point.
-    fn grid_csv(&self) -> String {
+    fn grid_csv(&self) -> Result<Vec<u8>, PipelineError> {
         let (nu, nt) = (self.conf.n_upsilon, self.conf.n_tau);
         let mut header: Vec<String> = vec![
             "upsilon".into(),
@@ -770,7 +770,8 @@ impl OutputContext<'_> {
                 rows.push(row);
             }
         }
-        String::from_utf8_lossy(&report::tables::csv_bytes(&header_refs, &rows)).into_owned()
+        report::tables::csv_bytes(&header_refs, &rows)
+            .map_err(|e| PipelineError::Internal(e.to_string()))
     }
 
     /// The `summary.json` document (keys of `../shared/CONVENTIONS.md`, plus details).

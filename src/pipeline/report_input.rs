@@ -9,7 +9,7 @@ use crate::confront::regions::Level;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves,
     CatalogueSummary, ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription,
-    ModelDescription, ReductionError, ReportInput, Shift, StandardGravityStatus, TensionRow,
+    ModelDescription, ReductionError, ReportInput, Shift, TensionRow,
     TensionTable, UpsilonInterval, Warning, WorstObject,
 };
 use crate::theory::point::Warning as TheoryWarning;
