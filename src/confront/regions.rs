@@ -301,7 +301,12 @@ pub fn interval_from_slice(
 /// A coarse axis refined `factor` times: (n − 1)·factor + 1 points, the coarse nodes included
 /// exactly (the 10× Υ sub-grid of `bounds.md` §8.4).
 pub fn refine_axis(axis: &[f64], factor: usize) -> Result<Vec<f64>, StatsError> {
-    if axis.len() < 2 || factor == 0 || axis.windows(2).any(|w| w[1].partial_cmp(&w[0]) != Some(std::cmp::Ordering::Greater)) {
+    if axis.len() < 2
+        || factor == 0
+        || axis
+            .windows(2)
+            .any(|w| w[1].partial_cmp(&w[0]) != Some(std::cmp::Ordering::Greater))
+    {
         return Err(StatsError::InvalidInput(
             "an axis to refine needs ≥ 2 strictly increasing points and a factor ≥ 1".into(),
         ));
