@@ -30,8 +30,9 @@ pub const LN_SQRT_2PI: f64 = 0.918_938_533_204_672_8;
 /// positive; a user's 0 becomes 1e-6 of the bound, with a warning from the caller).
 pub const ZERO_FLOOR_FRACTION: f64 = 1e-6;
 
-/// Below this probability the closed split-normal form loses relative precision and the
-/// log-space quadrature is used instead (`bounds.md` §8.1).
+/// Below this probability the closed split-normal form is not trusted (`bounds.md` §8.1) and
+/// the log-space evaluation takes over: scaled closed form for the half without cancellation,
+/// quadrature of the log-scaled integrand for the half with it.
 pub const QUADRATURE_BELOW_P: f64 = 1e-10;
 
 /// Errors of the statistics layer: bad inputs that a caller must fix, never panics.
@@ -1009,6 +1010,28 @@ mod tests {
                         assert!(
                             (a - q).abs() < 1e-12 * q.abs().max(1.0),
                             "sm={sm} sp={sp} th={th} k={k}: {a} vs {q}"
+                        );
+                    }
+                }
+            }
+        }
+    }
+
+    /// The full function (closed form where it is trusted) against the independent quadrature
+    /// between P ≈ 0.5 and the switch-over, where the closed form is used.
+    #[test]
+    fn closed_form_region_matches_quadrature() {
+        let widths = [0.0005f64, 0.002, 0.01, 0.03];
+        for &sm in &widths {
+            for &sp in &widths {
+                for &th in &[0.0005f64, 0.005, 0.03] {
+                    for &k in &[0.0, 0.5, 1.0, 2.0, 3.0, 4.0, 5.0, 6.0] {
+                        let delta = -k * sm.max(sp).hypot(th);
+                        let full = ln_p_at_least(delta, sm, sp, th);
+                        let q = ln_p_at_least_quadrature(delta, sm, sp, th);
+                        assert!(
+                            (full - q).abs() < 1e-11 * q.abs().max(1.0),
+                            "sm={sm} sp={sp} th={th} k={k}: {full} vs {q}"
                         );
                     }
                 }

@@ -314,7 +314,8 @@ impl ClassCurve {
 /// Settings of the shared-floor variant (`bounds.md` §8.2).
 #[derive(Debug, Clone, PartialEq)]
 pub struct SharedFloorOptions {
-    /// Points of the uniform ε grid on [−`eps_max`, `eps_max`] (the spec asks for ≥ 200).
+    /// Points of the uniform ε grid on [−`eps_max`, `eps_max`] (≥ 200, `bounds.md` §8.2;
+    /// default 401).
     pub n_eps: usize,
     /// Half-width of the ε grid in units of σ_th (default 8).
     pub eps_max: f64,
@@ -336,7 +337,9 @@ impl Default for SharedFloorOptions {
 /// ℓ_B(B) = ln ∫ φ(ε) exp[Σ_c L⁰_c(B + σ_th ε)] dε: one theory error ε common to every object of
 /// every class that uses this bound (`bounds.md` §8.2, "shared"). L⁰_c are zero-floor class
 /// curves (a width of 1e-6 of the bound keeps them finite); the ε integral is a uniform
-/// trapezoid rule with log-sum-exp, and the result is itself tabulated on the outer nodes.
+/// trapezoid rule with log-sum-exp (adaptive Gauss–Kronrod with breakpoints when hard limits
+/// put steps into it), and the result is itself tabulated on the outer nodes. Leave-one-out
+/// removal is not exact in this mode (the ε integral does not split over objects).
 #[derive(Debug)]
 pub struct SharedFloorCurve {
     inner: Vec<ClassCurve>,
@@ -363,9 +366,9 @@ impl SharedFloorCurve {
         if !(floor_msun > 0.0 && floor_msun.is_finite()) {
             return Err(StatsError::InvalidFloor { floor_msun });
         }
-        if shared.n_eps < 3 || shared.eps_max.is_nan() || shared.eps_max <= 0.0 {
+        if shared.n_eps < 200 || shared.eps_max.is_nan() || shared.eps_max <= 0.0 {
             return Err(StatsError::InvalidInput(
-                "the ε grid needs ≥ 3 points and a positive half-width".into(),
+                "the ε grid needs ≥ 200 points (bounds.md §8.2) and a positive half-width".into(),
             ));
         }
         let (lo, hi) = check_range(bound_range_msun)?;
