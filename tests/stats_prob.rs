@@ -345,3 +345,37 @@ fn owens_t_against_its_defining_integral() {
         }
     }
 }
+
+#[test]
+fn split_normal_far_tail_tends_to_the_symmetric_case() {
+    // Source: definition — a split normal with σ₊ → σ₋ is the Gaussian, whose P is
+    // Φ((m − B)/√(σ² + σ_th²)); this must hold far beyond where P underflows a double.
+    let (sigma, th, b): (f64, f64, f64) = (0.002, 0.003, 0.08);
+    let s = sigma.hypot(th);
+    for &k in &[3.0, 8.0, 40.0, 300.0, 3000.0] {
+        for side in [Side::AtLeast, Side::AtMost] {
+            let m = if side == Side::AtLeast {
+                b - k * s
+            } else {
+                b + k * s
+            };
+            let split = measured(m, sigma, sigma * (1.0 + 1e-12), side);
+            let got = ln_prob_consistent(&split, b, th);
+            let expect = ln_normal_cdf(-k);
+            assert!(got.is_finite());
+            assert!(
+                (got - expect).abs() < 1e-9 * expect.abs(),
+                "k={k} {side:?}: {got} vs {expect}"
+            );
+        }
+    }
+    // Monotone in the bound for a strongly asymmetric object, across every evaluation route.
+    let star = measured(0.08, 0.004, 0.001, Side::AtLeast);
+    let mut last = 0.0;
+    for i in 0..400 {
+        let bound = 0.06 + 0.0005 * f64::from(i);
+        let v = ln_prob_consistent(&star, bound, 0.002);
+        assert!(v <= last + 1e-15, "not monotone at B={bound}: {v} > {last}");
+        last = v;
+    }
+}

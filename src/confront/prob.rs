@@ -934,11 +934,13 @@ pub fn adaptive_gauss_kronrod(f: &dyn Fn(f64) -> f64, breaks: &[f64], rel_tol: f
         if err <= rel_tol * total.abs() || panels.is_empty() {
             break;
         }
-        let (worst, _) = panels
+        let Some((worst, _)) = panels
             .iter()
             .enumerate()
             .max_by(|x, y| x.1 .3.total_cmp(&y.1 .3))
-            .unwrap_or((0, &panels[0]));
+        else {
+            break;
+        };
         let (a, b, _, _) = panels.swap_remove(worst);
         let mid = 0.5 * (a + b);
         if mid <= a || mid >= b {
