@@ -38,30 +38,56 @@ fn catalogue(n: usize, seed: u64) -> [Vec<Measurement>; 3] {
         let r = rng.next_f64();
         let split = rng.next_f64() < 0.3;
         let (class, truth, rel) = if r < 0.6 {
-            (0, 0.075 + 0.3 * rng.next_f64().powi(2), 0.02 + 0.06 * rng.next_f64())
+            (
+                0,
+                0.075 + 0.3 * rng.next_f64().powi(2),
+                0.02 + 0.06 * rng.next_f64(),
+            )
         } else if r < 0.75 {
-            (1, 0.02 + 0.055 * rng.next_f64(), 0.02 + 0.08 * rng.next_f64())
+            (
+                1,
+                0.02 + 0.055 * rng.next_f64(),
+                0.02 + 0.08 * rng.next_f64(),
+            )
         } else {
             (2, 0.5 + 0.95 * rng.next_f64(), 0.01 + 0.04 * rng.next_f64())
         };
         let sigma = rel * truth;
         let (lo, hi) = if split {
-            (sigma * (0.5 + rng.next_f64()), sigma * (0.5 + rng.next_f64()))
+            (
+                sigma * (0.5 + rng.next_f64()),
+                sigma * (0.5 + rng.next_f64()),
+            )
         } else {
             (sigma, sigma)
         };
         let mass = truth + sigma * normal(&mut rng);
         let limit_draw = rng.next_f64();
         let kind = if limit_draw < 0.02 {
-            MassKind::UpperLimit { sigma: Some(0.5 * sigma) }
+            MassKind::UpperLimit {
+                sigma: Some(0.5 * sigma),
+            }
         } else if limit_draw < 0.04 {
             MassKind::LowerLimit { sigma: None }
         } else {
             MassKind::Measured { lo, hi }
         };
-        let side = if class == 0 { Side::AtLeast } else { Side::AtMost };
-        let scale = if class == 2 && rng.next_f64() < 0.3 { 4.0 / (2.1f64 * 2.1) } else { 1.0 };
-        let m = Measurement { mass_msun: mass, kind, side, scale };
+        let side = if class == 0 {
+            Side::AtLeast
+        } else {
+            Side::AtMost
+        };
+        let scale = if class == 2 && rng.next_f64() < 0.3 {
+            4.0 / (2.1f64 * 2.1)
+        } else {
+            1.0
+        };
+        let m = Measurement {
+            mass_msun: mass,
+            kind,
+            side,
+            scale,
+        };
         [&mut hb, &mut bd, &mut wd][class].push(m);
     }
     [hb, bd, wd]
@@ -84,15 +110,31 @@ fn reduction_matches_direct_sum_on_a_grid() {
     };
     let mut curves = Vec::new();
     for c in 0..3 {
-        let values: Vec<f64> = ups.iter().flat_map(|&u| taus.iter().map(move |&t| bound(c, u, t))).collect();
+        let values: Vec<f64> = ups
+            .iter()
+            .flat_map(|&u| taus.iter().map(move |&t| bound(c, u, t)))
+            .collect();
         let range = bound_range(&values).unwrap();
         let curve = ClassCurve::build(&classes[c], floors[c], range, &opts).unwrap();
-        assert!(curve.n_informative() > 20, "class {c} has too few informative objects");
-        assert!(curve.achieved_error() < 2.5e-7, "class {c}: {}", curve.achieved_error());
+        assert!(
+            curve.n_informative() > 20,
+            "class {c} has too few informative objects"
+        );
+        assert!(
+            curve.achieved_error() < 2.5e-7,
+            "class {c}: {}",
+            curve.achieved_error()
+        );
         curves.push(curve);
     }
-    assert!(curves.iter().any(|c| c.n_skipped() > 0), "the catalogue should exercise skipping");
-    let points: Vec<(f64, f64)> = ups.iter().flat_map(|&u| taus.iter().map(move |&t| (u, t))).collect();
+    assert!(
+        curves.iter().any(|c| c.n_skipped() > 0),
+        "the catalogue should exercise skipping"
+    );
+    let points: Vec<(f64, f64)> = ups
+        .iter()
+        .flat_map(|&u| taus.iter().map(move |&t| (u, t)))
+        .collect();
     let (direct, reduced): (Vec<f64>, Vec<f64>) = points
         .par_iter()
         .map(|&(u, t)| {
@@ -100,7 +142,10 @@ fn reduction_matches_direct_sum_on_a_grid() {
             let mut r = 0.0;
             for c in 0..3 {
                 let b = bound(c, u, t);
-                d += classes[c].iter().map(|m| ln_prob_consistent(m, b, floors[c])).sum::<f64>();
+                d += classes[c]
+                    .iter()
+                    .map(|m| ln_prob_consistent(m, b, floors[c]))
+                    .sum::<f64>();
                 r += curves[c].eval(b);
             }
             (-2.0 * d, -2.0 * r)
@@ -124,15 +169,27 @@ fn refinement_meets_the_target_on_a_wide_range() {
     // measured error meets the target must end below it; checked against the exact sum.
     let classes = catalogue(1500, 7);
     let values: Vec<f64> = (0..41)
-        .flat_map(|i| (0..41).map(move |j| mch_wide(-0.5 + 0.025 * f64::from(i), -0.2 + 0.01 * f64::from(j))))
+        .flat_map(|i| {
+            (0..41).map(move |j| mch_wide(-0.5 + 0.025 * f64::from(i), -0.2 + 0.01 * f64::from(j)))
+        })
         .collect();
     let range = bound_range(&values).unwrap();
-    let plain = ReduceOptions { target_error: None, ..ReduceOptions::default() };
+    let plain = ReduceOptions {
+        target_error: None,
+        ..ReduceOptions::default()
+    };
     let coarse = ClassCurve::build(&classes[2], 0.03, range, &plain).unwrap();
     let refined = ClassCurve::build(&classes[2], 0.03, range, &ReduceOptions::default()).unwrap();
-    assert!(coarse.achieved_error() > 2.5e-7, "the wide range should need refinement");
+    assert!(
+        coarse.achieved_error() > 2.5e-7,
+        "the wide range should need refinement"
+    );
     assert!(refined.n_nodes() > 257);
-    assert!(refined.achieved_error() <= 2.5e-7, "{}", refined.achieved_error());
+    assert!(
+        refined.achieved_error() <= 2.5e-7,
+        "{}",
+        refined.achieved_error()
+    );
     for k in 0..=50 {
         let b = range.0 + (range.1 - range.0) * f64::from(k) / 50.0;
         assert!((refined.eval(b) - refined.exact(b)).abs() < 1e-6);
@@ -145,7 +202,10 @@ fn skipped_objects_are_bounded_and_counted() {
     let far: Vec<Measurement> = (0..500)
         .map(|i| Measurement {
             mass_msun: 0.2 + 0.001 * f64::from(i),
-            kind: MassKind::Measured { lo: 0.002, hi: 0.003 },
+            kind: MassKind::Measured {
+                lo: 0.002,
+                hi: 0.003,
+            },
             side: Side::AtLeast,
             scale: 1.0,
         })
@@ -164,7 +224,10 @@ fn shared_floor_single_objects_match_gaussian_convolution() {
     let th = 0.005;
     let star = Measurement {
         mass_msun: 0.078,
-        kind: MassKind::Measured { lo: 0.003, hi: 0.003 },
+        kind: MassKind::Measured {
+            lo: 0.003,
+            hi: 0.003,
+        },
         side: Side::AtLeast,
         scale: 1.0,
     };
@@ -178,15 +241,29 @@ fn shared_floor_single_objects_match_gaussian_convolution() {
     let shared = SharedFloorOptions::default();
     let one = SharedFloorCurve::build(&[&[star]], th, (0.065, 0.085), &opts, &shared).unwrap();
     let lim = SharedFloorCurve::build(&[&[limit]], th, (0.065, 0.085), &opts, &shared).unwrap();
-    assert_eq!(lim.class_curves()[0].n_sharp(), 1, "a hard limit must be summed exactly");
+    assert_eq!(
+        lim.class_curves()[0].n_sharp(),
+        1,
+        "a hard limit must be summed exactly"
+    );
     for k in 0..=40 {
         let b = 0.065 + 0.0005 * f64::from(k);
         let expect = ln_normal_cdf((0.078 - b) / (0.003f64.hypot(th)));
-        assert!((one.eval(b) - expect).abs() < 2e-7, "b={b}: {} vs {expect}", one.eval(b));
+        assert!(
+            (one.eval(b) - expect).abs() < 2e-7,
+            "b={b}: {} vs {expect}",
+            one.eval(b)
+        );
         assert!((one.exact(b) - expect).abs() < 1e-9);
         let expect = ln_normal_cdf((0.071 - b) / th);
-        assert!((lim.exact(b) - expect).abs() < 1e-6 * expect.abs().max(1e-3), "b={b}");
-        assert!((lim.eval(b) - expect).abs() < 1e-6 * expect.abs().max(1e-3), "b={b}");
+        assert!(
+            (lim.exact(b) - expect).abs() < 1e-6 * expect.abs().max(1e-3),
+            "b={b}"
+        );
+        assert!(
+            (lim.eval(b) - expect).abs() < 1e-6 * expect.abs().max(1e-3),
+            "b={b}"
+        );
     }
 }
 
@@ -197,16 +274,33 @@ fn shared_floor_is_less_confident_than_per_object_for_many_objects() {
     let stars: Vec<Measurement> = (0..100)
         .map(|i| Measurement {
             mass_msun: 0.076 + 0.00004 * f64::from(i),
-            kind: MassKind::Measured { lo: 0.001, hi: 0.0015 },
+            kind: MassKind::Measured {
+                lo: 0.001,
+                hi: 0.0015,
+            },
             side: Side::AtLeast,
             scale: 1.0,
         })
         .collect();
     let th = 0.005;
-    let opts = ReduceOptions { target_error: Some(1e-6), ..ReduceOptions::default() };
+    let opts = ReduceOptions {
+        target_error: Some(1e-6),
+        ..ReduceOptions::default()
+    };
     let per = ClassCurve::build(&stars, th, (0.07, 0.09), &opts).unwrap();
-    let shared = SharedFloorCurve::build(&[&stars], th, (0.07, 0.09), &opts, &SharedFloorOptions::default()).unwrap();
-    assert!(shared.achieved_error() < 1e-5, "{}", shared.achieved_error());
+    let shared = SharedFloorCurve::build(
+        &[&stars],
+        th,
+        (0.07, 0.09),
+        &opts,
+        &SharedFloorOptions::default(),
+    )
+    .unwrap();
+    assert!(
+        shared.achieved_error() < 1e-5,
+        "{}",
+        shared.achieved_error()
+    );
     let drop_per = per.eval(0.070) - per.eval(0.085);
     let drop_shared = shared.eval(0.070) - shared.eval(0.085);
     assert!(drop_shared < 0.2 * drop_per, "{drop_shared} vs {drop_per}");

@@ -5,15 +5,18 @@ use dwarfbound::confront::drivers::{leave_one_out, DriverOptions, SliceClass};
 use dwarfbound::confront::prob::{ln_prob_consistent, MassKind, Measurement, Side};
 use dwarfbound::confront::reduce::{ClassCurve, CubicSpline, ReduceOptions};
 use dwarfbound::confront::regions::{
-    absolute_consistency, crowding, dchi2_threshold, interval_from_slice, map_regions, refine_axis, sidak_p,
-    upsilon_slice, CrowdingOptions, Level, PopulationTerm,
+    absolute_consistency, crowding, dchi2_threshold, interval_from_slice, map_regions, refine_axis,
+    sidak_p, upsilon_slice, CrowdingOptions, Level, PopulationTerm,
 };
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 fn sym(mass: f64, sigma: f64, side: Side) -> Measurement {
     Measurement {
         mass_msun: mass,
-        kind: MassKind::Measured { lo: sigma, hi: sigma },
+        kind: MassKind::Measured {
+            lo: sigma,
+            hi: sigma,
+        },
         side,
         scale: 1.0,
     }
@@ -25,24 +28,45 @@ fn delta_chi2_thresholds() {
     // quoted to four decimals in bounds.md §8.4; Numerical Recipes §15.6.
     let two = [2.2957, 6.1801, 11.8292];
     for (level, expect) in Level::ALL.iter().zip(two) {
-        assert!((level.dchi2(2) - expect).abs() < 5e-5, "{level:?}: {}", level.dchi2(2));
+        assert!(
+            (level.dchi2(2) - expect).abs() < 5e-5,
+            "{level:?}: {}",
+            level.dchi2(2)
+        );
         assert_eq!(level.dchi2(1), level.n_sigma().powi(2));
     }
     // The same from statrs's χ² quantile (independent implementation).
     for level in Level::ALL {
         for dof in [1u32, 2] {
-            let q = ChiSquared::new(f64::from(dof)).unwrap().inverse_cdf(level.probability());
-            assert!((q - level.dchi2(dof)).abs() < 1e-6 * q, "{level:?} dof {dof}: {q}");
+            let q = ChiSquared::new(f64::from(dof))
+                .unwrap()
+                .inverse_cdf(level.probability());
+            assert!(
+                (q - level.dchi2(dof)).abs() < 1e-6 * q,
+                "{level:?} dof {dof}: {q}"
+            );
         }
     }
     // Other levels (bounds.md §8.4: 90 / 95 / 99 %).
-    for (p, one, two) in [(0.90, 2.7055, 4.6052), (0.95, 3.8415, 5.9915), (0.99, 6.6349, 9.2103)] {
+    for (p, one, two) in [
+        (0.90, 2.7055, 4.6052),
+        (0.95, 3.8415, 5.9915),
+        (0.99, 6.6349, 9.2103),
+    ] {
         assert!((dchi2_threshold(p, 1).unwrap() - one).abs() < 5e-5);
         assert!((dchi2_threshold(p, 2).unwrap() - two).abs() < 5e-5);
     }
     // Three parameters, PDG table (3.53 / 8.02 / 14.2; from memory).
-    for (level, expect, half_unit) in [(Level::Cl68, 3.53, 0.005), (Level::Cl95, 8.02, 0.005), (Level::Cl997, 14.2, 0.05)] {
-        assert!((level.dchi2(3) - expect).abs() <= half_unit, "{}", level.dchi2(3));
+    for (level, expect, half_unit) in [
+        (Level::Cl68, 3.53, 0.005),
+        (Level::Cl95, 8.02, 0.005),
+        (Level::Cl997, 14.2, 0.05),
+    ] {
+        assert!(
+            (level.dchi2(3) - expect).abs() <= half_unit,
+            "{}",
+            level.dchi2(3)
+        );
     }
     assert!(dchi2_threshold(1.0, 2).is_err());
     assert_eq!(Level::Cl95.key(), "cl95");
@@ -72,8 +96,16 @@ fn map_regions_on_an_elliptical_bowl() {
         let (su, st) = (0.2 * q.sqrt(), 0.05 * q.sqrt());
         // Extremes of the ellipse, rounded inward to the grid (axes through the centre).
         let inside = |x: f64, c: f64, s: f64| (x - c).abs() <= s + 1e-12;
-        let u_in: Vec<f64> = ups.iter().copied().filter(|&u| inside(u, 0.1, su)).collect();
-        let t_in: Vec<f64> = taus.iter().copied().filter(|&t| inside(t, -0.05, st)).collect();
+        let u_in: Vec<f64> = ups
+            .iter()
+            .copied()
+            .filter(|&u| inside(u, 0.1, su))
+            .collect();
+        let t_in: Vec<f64> = taus
+            .iter()
+            .copied()
+            .filter(|&t| inside(t, -0.05, st))
+            .collect();
         assert_eq!(b.upsilon_min, u_in[0]);
         assert_eq!(b.upsilon_max, *u_in.last().unwrap());
         assert_eq!(b.tau_min, t_in[0]);
@@ -81,7 +113,11 @@ fn map_regions_on_an_elliptical_bowl() {
         // Fraction of grid ≈ ellipse area / grid area (π·su·st / (2 × 0.4)), to the
         // discretisation of an 81 × 81 grid.
         let area = std::f64::consts::PI * su * st / (2.0 * 0.4);
-        assert!((b.fraction_of_grid - area).abs() < 0.1 * area, "{level:?}: {} vs {area}", b.fraction_of_grid);
+        assert!(
+            (b.fraction_of_grid - area).abs() < 0.1 * area,
+            "{level:?}: {} vs {area}",
+            b.fraction_of_grid
+        );
     }
     assert!(r.allowed_at(r.best.i_upsilon, r.best.j_tau, taus.len(), Level::Cl68));
     assert!(!r.allowed_at(0, 0, taus.len(), Level::Cl997));
@@ -91,20 +127,41 @@ fn map_regions_on_an_elliptical_bowl() {
 #[test]
 fn slice_intervals_closed_open_and_disjoint() {
     // Source: closed form — Δχ² = ((Υ − c)/s)² crosses q at c ± s√q.
-    let x = refine_axis(&(0..=20).map(|i| -1.0 + 0.1 * f64::from(i)).collect::<Vec<_>>(), 10).unwrap();
+    let x = refine_axis(
+        &(0..=20)
+            .map(|i| -1.0 + 0.1 * f64::from(i))
+            .collect::<Vec<_>>(),
+        10,
+    )
+    .unwrap();
     assert_eq!(x.len(), 201);
-    let parabola: Vec<f64> = x.iter().map(|u| 5.0 + ((u - 0.13) / 0.07).powi(2)).collect();
+    let parabola: Vec<f64> = x
+        .iter()
+        .map(|u| 5.0 + ((u - 0.13) / 0.07).powi(2))
+        .collect();
     for level in Level::ALL {
         let q = level.dchi2(1);
         let iv = interval_from_slice(&x, &parabola, q).unwrap();
         // Linear interpolation of a parabola between fine points: error ≤ h²/(8s²)·s/√q·… ≈ 1e-4.
-        assert!((iv.lower.unwrap() - (0.13 - 0.07 * q.sqrt())).abs() < 2e-4, "{level:?} {iv:?}");
+        assert!(
+            (iv.lower.unwrap() - (0.13 - 0.07 * q.sqrt())).abs() < 2e-4,
+            "{level:?} {iv:?}"
+        );
         assert!((iv.upper.unwrap() - (0.13 + 0.07 * q.sqrt())).abs() < 2e-4);
         assert!(!iv.disjoint);
     }
     // A one-sided constraint: allowed up to the axis start, so the lower end is open (None),
     // never the grid edge.
-    let one_sided: Vec<f64> = x.iter().map(|&u| if u < 0.2 { 0.0 } else { ((u - 0.2) / 0.1).powi(2) }).collect();
+    let one_sided: Vec<f64> = x
+        .iter()
+        .map(|&u| {
+            if u < 0.2 {
+                0.0
+            } else {
+                ((u - 0.2) / 0.1).powi(2)
+            }
+        })
+        .collect();
     let iv = interval_from_slice(&x, &one_sided, 4.0).unwrap();
     assert_eq!(iv.lower, None);
     assert!((iv.upper.unwrap() - 0.4).abs() < 1e-3);
@@ -128,7 +185,9 @@ fn sidak_absolute_consistency() {
     // Tiny P_min keeps its digits: 1 − (1 − 1e-20)^1e5 = 1e-15 (first-order expansion).
     assert!((sidak_p(1e-20, 100_000) / 1e-15 - 1.0).abs() < 1e-9);
     // Ten ordinary objects and one mislabelled far below the MMHB (bounds.md §8.4 example).
-    let mut ln_p: Vec<(usize, f64)> = (0..10).map(|i| (i, (0.5f64 + 0.04 * i as f64).ln())).collect();
+    let mut ln_p: Vec<(usize, f64)> = (0..10)
+        .map(|i| (i, (0.5f64 + 0.04 * i as f64).ln()))
+        .collect();
     let bad = sym(0.03, 0.002, Side::AtLeast);
     ln_p.push((42, ln_prob_consistent(&bad, 0.075, 0.005)));
     let verdict = absolute_consistency(&ln_p, 3);
@@ -145,15 +204,22 @@ fn sidak_absolute_consistency() {
 fn crowding_warning_and_population_term() {
     // Source: bounds.md §8.7 — warn when > 30 informative objects of each opposing class lie
     // within 3σ of the MMHB; the population term is −n_star ln(M_hi − B) − n_bd ln(B − M_lo).
-    let hb: Vec<Measurement> = (0..40).map(|i| sym(0.076 + 0.0001 * f64::from(i), 0.002, Side::AtLeast)).collect();
-    let bd: Vec<Measurement> = (0..40).map(|i| sym(0.074 - 0.0001 * f64::from(i), 0.002, Side::AtMost)).collect();
+    let hb: Vec<Measurement> = (0..40)
+        .map(|i| sym(0.076 + 0.0001 * f64::from(i), 0.002, Side::AtLeast))
+        .collect();
+    let bd: Vec<Measurement> = (0..40)
+        .map(|i| sym(0.074 - 0.0001 * f64::from(i), 0.002, Side::AtMost))
+        .collect();
     let c = crowding(&hb, &bd, 0.075, 0.001, &CrowdingOptions::default());
     assert_eq!((c.n_hburning_near, c.n_brown_dwarf_near), (40, 40));
     assert!(c.warn);
     let c = crowding(&hb, &bd[..10], 0.075, 0.001, &CrowdingOptions::default());
     assert!(!c.warn);
     let far: Vec<Measurement> = (0..40).map(|_| sym(0.2, 0.002, Side::AtLeast)).collect();
-    assert_eq!(crowding(&far, &bd, 0.075, 0.001, &CrowdingOptions::default()).n_hburning_near, 0);
+    assert_eq!(
+        crowding(&far, &bd, 0.075, 0.001, &CrowdingOptions::default()).n_hburning_near,
+        0
+    );
 
     let pop = PopulationTerm::new((0.05, 0.10), &hb, &bd[..25]).unwrap();
     assert_eq!((pop.n_hburning, pop.n_brown_dwarf), (40, 25));
@@ -168,20 +234,38 @@ fn crowding_warning_and_population_term() {
 /// A small slice problem: bound B(Υ) = 0.075 (1 + 0.2 Υ) on Υ ∈ [−1, 1], a few stars and brown
 /// dwarfs, one tight star that pins the upper end and one lone tight brown dwarf.
 fn slice_problem() -> (Vec<f64>, Vec<f64>, [Vec<Measurement>; 2], f64) {
-    let fine = refine_axis(&(0..=40).map(|i| -1.0 + 0.05 * f64::from(i)).collect::<Vec<_>>(), 10).unwrap();
+    let fine = refine_axis(
+        &(0..=40)
+            .map(|i| -1.0 + 0.05 * f64::from(i))
+            .collect::<Vec<_>>(),
+        10,
+    )
+    .unwrap();
     let bound: Vec<f64> = fine.iter().map(|u| 0.075 * (1.0 + 0.2 * u)).collect();
-    let mut hb: Vec<Measurement> = (0..12).map(|i| sym(0.080 + 0.002 * f64::from(i), 0.004, Side::AtLeast)).collect();
+    let mut hb: Vec<Measurement> = (0..12)
+        .map(|i| sym(0.080 + 0.002 * f64::from(i), 0.004, Side::AtLeast))
+        .collect();
     hb.push(sym(0.0765, 0.0004, Side::AtLeast)); // index 12: the tight star
     hb.push(sym(0.2, 0.004, Side::AtLeast)); // index 13: far above every bound, no influence
     let bd = vec![
-        sym(0.066, 0.003, Side::AtMost),
+        sym(0.060, 0.004, Side::AtMost),
         sym(0.0725, 0.0005, Side::AtMost), // index 1: the lone tight brown dwarf
-        Measurement { mass_msun: 0.06, kind: MassKind::UpperLimit { sigma: None }, side: Side::AtMost, scale: 1.0 },
+        Measurement {
+            mass_msun: 0.06,
+            kind: MassKind::UpperLimit { sigma: None },
+            side: Side::AtMost,
+            scale: 1.0,
+        },
     ];
     (fine, bound, [hb, bd], 0.0005)
 }
 
-fn direct_chi2(bound: &[f64], classes: &[Vec<Measurement>], floor: f64, skip: Option<(usize, usize)>) -> Vec<f64> {
+fn direct_chi2(
+    bound: &[f64],
+    classes: &[Vec<Measurement>],
+    floor: f64,
+    skip: Option<(usize, usize)>,
+) -> Vec<f64> {
     bound
         .iter()
         .map(|&b| {
@@ -206,14 +290,24 @@ fn drivers_match_brute_force_leave_one_out() {
     let chi2 = direct_chi2(&bound, &classes, floor, None);
     let slice_classes: Vec<SliceClass> = classes
         .iter()
-        .map(|ms| SliceClass { measurements: ms, floor_msun: floor, bound_fine_msun: &bound })
+        .map(|ms| SliceClass {
+            measurements: ms,
+            floor_msun: floor,
+            bound_fine_msun: &bound,
+        })
         .collect();
     let report = leave_one_out(&fine, &chi2, &slice_classes, &DriverOptions::default()).unwrap();
     let base = interval_from_slice(&fine, &chi2, 4.0).unwrap();
     assert_eq!(report.baseline, base);
     // The uninformative upper limit is never a candidate; far stars are not either.
-    assert!(report.drivers.iter().all(|d| !(d.class == 1 && d.index == 2)));
-    assert!(report.drivers.iter().all(|d| !(d.class == 0 && d.index == 13)));
+    assert!(report
+        .drivers
+        .iter()
+        .all(|d| !(d.class == 1 && d.index == 2)));
+    assert!(report
+        .drivers
+        .iter()
+        .all(|d| !(d.class == 0 && d.index == 13)));
     assert!(report.drivers.iter().all(|d| d.max_minus_two_ln_p > 2e-3));
     assert_eq!(report.n_candidates, 15); // every informative object but the far star
     for d in &report.drivers {
@@ -236,7 +330,11 @@ fn drivers_match_brute_force_leave_one_out() {
     assert!(report.drivers[0].shift.is_infinite());
     assert_eq!(report.drivers[0].interval_without.lower, None);
     // The tight star is the largest finite driver.
-    let finite: Vec<_> = report.drivers.iter().filter(|d| d.shift.is_finite()).collect();
+    let finite: Vec<_> = report
+        .drivers
+        .iter()
+        .filter(|d| d.shift.is_finite())
+        .collect();
     assert_eq!((finite[0].class, finite[0].index), (0, 12));
     // Order: non-increasing shifts.
     assert!(report.drivers.windows(2).all(|w| w[0].shift >= w[1].shift));
@@ -265,7 +363,10 @@ fn upsilon_slice_through_the_reduction_matches_the_direct_slice() {
     for level in Level::ALL {
         let a = slice.intervals[Level::ALL.iter().position(|l| *l == level).unwrap()];
         let b = interval_from_slice(&fine, &direct, level.dchi2(1)).unwrap();
-        assert!((a.lower.unwrap() - b.lower.unwrap()).abs() < 1e-7, "{level:?}: {a:?} vs {b:?}");
+        assert!(
+            (a.lower.unwrap() - b.lower.unwrap()).abs() < 1e-7,
+            "{level:?}: {a:?} vs {b:?}"
+        );
         assert!((a.upper.unwrap() - b.upper.unwrap()).abs() < 1e-7);
     }
 }

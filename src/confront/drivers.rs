@@ -108,7 +108,8 @@ pub fn leave_one_out(
         )));
     }
     for (c, class) in classes.iter().enumerate() {
-        if class.bound_fine_msun.len() != n || class.bound_fine_msun.iter().any(|b| !b.is_finite()) {
+        if class.bound_fine_msun.len() != n || class.bound_fine_msun.iter().any(|b| !b.is_finite())
+        {
             return Err(StatsError::InvalidInput(format!(
                 "class {c}: the bound along the slice must have {n} finite values"
             )));
@@ -122,8 +123,16 @@ pub fn leave_one_out(
     // Candidates: P_i is monotone in B, so its smallest value on the slice is at the extreme B.
     let mut candidates: Vec<(usize, usize, f64)> = Vec::new();
     for (c, class) in classes.iter().enumerate() {
-        let b_min = class.bound_fine_msun.iter().copied().fold(f64::INFINITY, f64::min);
-        let b_max = class.bound_fine_msun.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let b_min = class
+            .bound_fine_msun
+            .iter()
+            .copied()
+            .fold(f64::INFINITY, f64::min);
+        let b_max = class
+            .bound_fine_msun
+            .iter()
+            .copied()
+            .fold(f64::NEG_INFINITY, f64::max);
         for (i, m) in class.measurements.iter().enumerate() {
             if !m.informative() {
                 continue;

@@ -30,8 +30,9 @@ pub const LN_SQRT_2PI: f64 = 0.918_938_533_204_672_8;
 /// positive; a user's 0 becomes 1e-6 of the bound, with a warning from the caller).
 pub const ZERO_FLOOR_FRACTION: f64 = 1e-6;
 
-/// Below this probability the closed split-normal form loses relative precision and the
-/// log-space quadrature is used instead (`bounds.md` §8.1).
+/// Below this probability the closed split-normal form is not trusted (`bounds.md` §8.1) and
+/// the log-space evaluation takes over: scaled closed form for the half without cancellation,
+/// quadrature of the log-scaled integrand for the half with it.
 pub const QUADRATURE_BELOW_P: f64 = 1e-10;
 
 /// Errors of the statistics layer: bad inputs that a caller must fix, never panics.
@@ -111,7 +112,8 @@ impl Measurement {
     pub fn informative(&self) -> bool {
         !matches!(
             (self.kind, self.side),
-            (MassKind::LowerLimit { .. }, Side::AtLeast) | (MassKind::UpperLimit { .. }, Side::AtMost)
+            (MassKind::LowerLimit { .. }, Side::AtLeast)
+                | (MassKind::UpperLimit { .. }, Side::AtMost)
         )
     }
 
@@ -123,7 +125,10 @@ impl Measurement {
             return bad(format!("mass {} is not finite", self.mass_msun));
         }
         if !(self.scale.is_finite() && self.scale > 0.0) {
-            return bad(format!("bound scale {} is not a positive number", self.scale));
+            return bad(format!(
+                "bound scale {} is not a positive number",
+                self.scale
+            ));
         }
         let widths: [Option<f64>; 2] = match self.kind {
             MassKind::Measured { lo, hi } => [Some(lo), Some(hi)],
@@ -144,7 +149,10 @@ pub fn effective_floor_msun(bound_msun: f64, floor_msun: f64) -> (f64, bool) {
     if floor_msun > 0.0 {
         (floor_msun, false)
     } else {
-        (ZERO_FLOOR_FRACTION * bound_msun.abs().max(f64::MIN_POSITIVE), true)
+        (
+            ZERO_FLOOR_FRACTION * bound_msun.abs().max(f64::MIN_POSITIVE),
+            true,
+        )
     }
 }
 
@@ -168,7 +176,9 @@ pub fn ln_prob_consistent(m: &Measurement, bound_msun: f64, floor_msun: f64) -> 
     let b = m.scale * bound_msun;
     let th = effective_floor_msun(b, m.scale * floor_msun).0;
     match (m.kind, m.side) {
-        (MassKind::Measured { lo, hi }, Side::AtLeast) => ln_p_at_least(m.mass_msun - b, lo, hi, th),
+        (MassKind::Measured { lo, hi }, Side::AtLeast) => {
+            ln_p_at_least(m.mass_msun - b, lo, hi, th)
+        }
         (MassKind::Measured { lo, hi }, Side::AtMost) => ln_p_at_least(b - m.mass_msun, hi, lo, th),
         (MassKind::UpperLimit { sigma }, Side::AtLeast) => {
             ln_normal_cdf((m.mass_msun - b) / sigma.unwrap_or(0.0).hypot(th))
@@ -176,7 +186,8 @@ pub fn ln_prob_consistent(m: &Measurement, bound_msun: f64, floor_msun: f64) -> 
         (MassKind::LowerLimit { sigma }, Side::AtMost) => {
             ln_normal_cdf((b - m.mass_msun) / sigma.unwrap_or(0.0).hypot(th))
         }
-        (MassKind::UpperLimit { .. }, Side::AtMost) | (MassKind::LowerLimit { .. }, Side::AtLeast) => 0.0,
+        (MassKind::UpperLimit { .. }, Side::AtMost)
+        | (MassKind::LowerLimit { .. }, Side::AtLeast) => 0.0,
     }
 }
 
@@ -350,7 +361,10 @@ const PT_SELECT: [[u8; 8]; 15] = [
     [9, 9, 10, 10, 11, 12, 12, 12],
 ];
 const PT_METHOD: [u8; 18] = [1, 1, 1, 1, 1, 1, 1, 1, 2, 2, 2, 3, 4, 4, 4, 4, 5, 6];
-const PT_ORDER: [u32; 18] = [2, 3, 4, 5, 7, 10, 12, 18, 10, 20, 30, 20, 4, 7, 8, 20, 13, 0];
+const PT_ORDER: [u32; 18] = [
+    2, 3, 4, 5, 7, 10, 12, 18, 10, 20, 30, 20, 4, 7, 8, 20, 13, 0,
+];
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const PT_C2: [f64; 21] = [
     0.999_999_999_999_999_875_10,
     -0.999_999_999_999_887_964_62,
@@ -374,6 +388,7 @@ const PT_C2: [f64; 21] = [
     -0.446_765_666_639_718_252_42e-2,
     0.391_411_694_023_738_364_68e-3,
 ];
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const PT_PTS: [f64; 13] = [
     0.350_820_396_764_517_154_89e-2,
     0.312_790_423_380_307_537_40e-1,
@@ -389,6 +404,7 @@ const PT_PTS: [f64; 13] = [
     0.957_238_080_859_442_618_43,
     0.991_788_329_746_297_035_86,
 ];
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const PT_WTS: [f64; 13] = [
     0.188_314_381_153_235_028_87e-1,
     0.185_670_862_439_776_494_78e-1,
@@ -404,7 +420,9 @@ const PT_WTS: [f64; 13] = [
     0.388_622_170_107_420_578_83e-2,
     0.167_930_310_845_460_904_48e-2,
 ];
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const ONE_OVER_2PI: f64 = 0.159_154_943_091_895_335_77;
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const ONE_OVER_SQRT_2PI: f64 = 0.398_942_280_401_432_677_94;
 
 /// T(h, a) for h ≥ 0, 0 ≤ a ≤ 1 (ah = a·h), by the Patefield–Tandy region table.
@@ -451,7 +469,9 @@ pub fn owens_t_scaled(h: f64, a: f64) -> f64 {
     // Owen's identity for a > 1, every term scaled by e^{h²/2}; the bracket carries
     // e^{−a²h²/2}, hence the factor e^{−(a²−1)h²/2}.
     let ah = a * h;
-    let bracket = 0.5 * normal_sf_scaled(ah) - normal_cdf(-h) * normal_sf_scaled(ah) - owens_t_scaled(ah, 1.0 / a);
+    let bracket = 0.5 * normal_sf_scaled(ah)
+        - normal_cdf(-h) * normal_sf_scaled(ah)
+        - owens_t_scaled(ah, 1.0 / a);
     0.5 * normal_sf_scaled(h) + (-0.5 * (a * a - 1.0) * h * h).exp() * bracket
 }
 
@@ -665,7 +685,7 @@ fn split_closed_form(delta: f64, sm: f64, sp: f64, th: f64) -> (f64, f64, f64) {
 /// Returns `None` when d ≤ 0 (never needed there for realistic widths).
 fn ln_p_wrong_side(delta: f64, sm: f64, sp: f64, th: f64) -> Option<f64> {
     let d = -delta;
-    if !(d > 0.0) {
+    if d.is_nan() || d <= 0.0 {
         return None;
     }
     let total = sm + sp;
@@ -777,8 +797,14 @@ fn ln_half_normal_tail(d: f64, c: f64, th: f64) -> f64 {
                 hi = u;
             }
             let newton = u - slope / d2g(u);
-            let next = if newton > lo && newton < hi { newton } else { 0.5 * (lo + hi) };
-            if (next - u).abs() <= 1e-15 * next.abs().max(1e-300) || hi - lo <= 4.0 * f64::EPSILON * hi {
+            let next = if newton > lo && newton < hi {
+                newton
+            } else {
+                0.5 * (lo + hi)
+            };
+            if (next - u).abs() <= 1e-15 * next.abs().max(1e-300)
+                || hi - lo <= 4.0 * f64::EPSILON * hi
+            {
                 u = next;
                 break;
             }
@@ -823,6 +849,7 @@ fn ln_half_normal_tail(d: f64, c: f64, th: f64) -> f64 {
 
 /// Kronrod nodes (positive half, largest first) and weights, and the embedded 7-point Gauss
 /// weights, of QUADPACK's qk15 (Piessens, de Doncker-Kapenga, Überhuber & Kahaner 1983).
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const GK15_X: [f64; 8] = [
     0.991_455_371_120_812_639_206_854_697_526_329,
     0.949_107_912_342_758_524_526_189_684_047_851,
@@ -833,6 +860,7 @@ const GK15_X: [f64; 8] = [
     0.207_784_955_007_898_467_600_689_403_773_245,
     0.0,
 ];
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const GK15_WK: [f64; 8] = [
     0.022_935_322_010_529_224_963_732_008_058_970,
     0.063_092_092_629_978_553_290_700_663_189_204,
@@ -843,6 +871,7 @@ const GK15_WK: [f64; 8] = [
     0.204_432_940_075_298_892_414_161_999_234_649,
     0.209_482_141_084_727_828_012_999_174_891_714,
 ];
+#[allow(clippy::excessive_precision)] // published digits, kept verbatim
 const GK15_WG: [f64; 4] = [
     0.129_484_966_168_869_693_270_611_432_679_082,
     0.279_705_391_489_276_667_901_467_771_423_780,
@@ -905,11 +934,13 @@ pub fn adaptive_gauss_kronrod(f: &dyn Fn(f64) -> f64, breaks: &[f64], rel_tol: f
         if err <= rel_tol * total.abs() || panels.is_empty() {
             break;
         }
-        let (worst, _) = panels
+        let Some((worst, _)) = panels
             .iter()
             .enumerate()
             .max_by(|x, y| x.1 .3.total_cmp(&y.1 .3))
-            .unwrap_or((0, &panels[0]));
+        else {
+            break;
+        };
         let (a, b, _, _) = panels.swap_remove(worst);
         let mid = 0.5 * (a + b);
         if mid <= a || mid >= b {
@@ -936,7 +967,11 @@ mod tests {
         for k in 0..=22 {
             let f = |x: f64| x.powi(k);
             let (v, _) = gk15(&f, -1.0, 1.0);
-            let exact = if k % 2 == 0 { 2.0 / f64::from(k + 1) } else { 0.0 };
+            let exact = if k % 2 == 0 {
+                2.0 / f64::from(k + 1)
+            } else {
+                0.0
+            };
             assert!((v - exact).abs() < 4e-16, "k={k}: {v} vs {exact}");
         }
     }
@@ -955,7 +990,10 @@ mod tests {
         ] {
             let (p, _, _) = split_closed_form(delta, sm, sp, th);
             let q = ln_p_at_least_quadrature(delta, sm, sp, th).exp();
-            assert!((p - q).abs() < 1e-12 * p.max(1e-3), "{delta} {sm} {sp} {th}: {p} vs {q}");
+            assert!(
+                (p - q).abs() < 1e-12 * p.max(1e-3),
+                "{delta} {sm} {sp} {th}: {p} vs {q}"
+            );
         }
     }
 
@@ -981,6 +1019,28 @@ mod tests {
         }
     }
 
+    /// The full function (closed form where it is trusted) against the independent quadrature
+    /// between P ≈ 0.5 and the switch-over, where the closed form is used.
+    #[test]
+    fn closed_form_region_matches_quadrature() {
+        let widths = [0.0005f64, 0.002, 0.01, 0.03];
+        for &sm in &widths {
+            for &sp in &widths {
+                for &th in &[0.0005f64, 0.005, 0.03] {
+                    for &k in &[0.0, 0.5, 1.0, 2.0, 3.0, 4.0, 5.0, 6.0] {
+                        let delta = -k * sm.max(sp).hypot(th);
+                        let full = ln_p_at_least(delta, sm, sp, th);
+                        let q = ln_p_at_least_quadrature(delta, sm, sp, th);
+                        assert!(
+                            (full - q).abs() < 1e-11 * q.abs().max(1.0),
+                            "sm={sm} sp={sp} th={th} k={k}: {full} vs {q}"
+                        );
+                    }
+                }
+            }
+        }
+    }
+
     /// e^{h²/2}T(h,a) against T(h,a)·e^{h²/2} where the latter does not underflow.
     #[test]
     fn scaled_owens_t_matches_unscaled() {
@@ -988,7 +1048,10 @@ mod tests {
             for &a in &[0.01, 0.1, 0.3, 0.5, 0.8, 0.99, 1.0, 1.5, 4.0, 30.0] {
                 let direct = owens_t(h, a) * (0.5 * h * h).exp();
                 let scaled = owens_t_scaled(h, a);
-                assert!((direct - scaled).abs() < 1e-12 * scaled, "h={h} a={a}: {direct} vs {scaled}");
+                assert!(
+                    (direct - scaled).abs() < 1e-12 * scaled,
+                    "h={h} a={a}: {direct} vs {scaled}"
+                );
             }
         }
     }

@@ -30,7 +30,8 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 
 use super::prob::{
-    effective_floor_msun, ln_prob_consistent, validate_floor, MassKind, Measurement, Side, StatsError,
+    effective_floor_msun, ln_prob_consistent, validate_floor, MassKind, Measurement, Side,
+    StatsError,
 };
 
 /// Settings of the reduction; the defaults are those of `bounds.md` §8.5.
@@ -142,7 +143,7 @@ impl ClassCurve {
             b_lo_msun: b_lo,
             b_hi_msun: b_hi,
             floor_msun,
-            floor_replaced: !(floor_msun > 0.0),
+            floor_replaced: floor_msun <= 0.0,
             n_nodes: opts.n_nodes,
             spline: CubicSpline::linear_placeholder(b_lo, b_hi),
             smooth: Vec::new(),
@@ -199,7 +200,7 @@ impl ClassCurve {
                 (curve.spline.eval(b) - sum_ln_p(&curve.smooth, b, floor_msun)).abs()
             });
             let good_enough = match opts.target_error {
-                Some(target) => !(curve.achieved_error > target),
+                Some(target) => curve.achieved_error.is_nan() || curve.achieved_error <= target,
                 None => true,
             };
             if good_enough || 2 * n - 1 > opts.max_nodes {
@@ -313,7 +314,8 @@ impl ClassCurve {
 /// Settings of the shared-floor variant (`bounds.md` §8.2).
 #[derive(Debug, Clone, PartialEq)]
 pub struct SharedFloorOptions {
-    /// Points of the uniform ε grid on [−`eps_max`, `eps_max`] (the spec asks for ≥ 200).
+    /// Points of the uniform ε grid on [−`eps_max`, `eps_max`] (≥ 200, `bounds.md` §8.2;
+    /// default 401).
     pub n_eps: usize,
     /// Half-width of the ε grid in units of σ_th (default 8).
     pub eps_max: f64,
@@ -335,7 +337,9 @@ impl Default for SharedFloorOptions {
 /// ℓ_B(B) = ln ∫ φ(ε) exp[Σ_c L⁰_c(B + σ_th ε)] dε: one theory error ε common to every object of
 /// every class that uses this bound (`bounds.md` §8.2, "shared"). L⁰_c are zero-floor class
 /// curves (a width of 1e-6 of the bound keeps them finite); the ε integral is a uniform
-/// trapezoid rule with log-sum-exp, and the result is itself tabulated on the outer nodes.
+/// trapezoid rule with log-sum-exp (adaptive Gauss–Kronrod with breakpoints when hard limits
+/// put steps into it), and the result is itself tabulated on the outer nodes. Leave-one-out
+/// removal is not exact in this mode (the ε integral does not split over objects).
 #[derive(Debug)]
 pub struct SharedFloorCurve {
     inner: Vec<ClassCurve>,
@@ -362,8 +366,10 @@ impl SharedFloorCurve {
         if !(floor_msun > 0.0 && floor_msun.is_finite()) {
             return Err(StatsError::InvalidFloor { floor_msun });
         }
-        if shared.n_eps < 3 || !(shared.eps_max > 0.0) {
-            return Err(StatsError::InvalidInput("the ε grid needs ≥ 3 points and a positive half-width".into()));
+        if shared.n_eps < 200 || shared.eps_max.is_nan() || shared.eps_max <= 0.0 {
+            return Err(StatsError::InvalidInput(
+                "the ε grid needs ≥ 200 points (bounds.md §8.2) and a positive half-width".into(),
+            ));
         }
         let (lo, hi) = check_range(bound_range_msun)?;
         let width = hi - lo;
@@ -380,7 +386,9 @@ impl SharedFloorCurve {
         };
         let inner = classes
             .iter()
-            .map(|ms| ClassCurve::build_on_range(ms, 0.0, (b_lo - reach, b_hi + reach), &inner_opts))
+            .map(|ms| {
+                ClassCurve::build_on_range(ms, 0.0, (b_lo - reach, b_hi + reach), &inner_opts)
+            })
             .collect::<Result<Vec<_>, _>>()?;
         let n = shared.n_eps;
         let d_eps = 2.0 * shared.eps_max / (n - 1) as f64;
@@ -388,7 +396,11 @@ impl SharedFloorCurve {
         let mut ln_weights = Vec::with_capacity(n);
         for j in 0..n {
             let e = node(-shared.eps_max, shared.eps_max, n, j);
-            let end = if j == 0 || j == n - 1 { 0.5f64.ln() } else { 0.0 };
+            let end = if j == 0 || j == n - 1 {
+                0.5f64.ln()
+            } else {
+                0.0
+            };
             eps_offsets.push(floor_msun * e);
             ln_weights.push(d_eps.ln() + end - 0.5 * e * e - super::prob::LN_SQRT_2PI);
         }
@@ -403,8 +415,13 @@ impl SharedFloorCurve {
             outer: CubicSpline::linear_placeholder(b_lo, b_hi),
             outer_error: 0.0,
         };
-        let nodes: Vec<f64> = (0..opts.n_nodes.max(4)).map(|k| node(b_lo, b_hi, opts.n_nodes.max(4), k)).collect();
-        let values: Vec<f64> = nodes.par_iter().map(|&b| curve.integrate(b, |c, x| c.eval(x))).collect();
+        let nodes: Vec<f64> = (0..opts.n_nodes.max(4))
+            .map(|k| node(b_lo, b_hi, opts.n_nodes.max(4), k))
+            .collect();
+        let values: Vec<f64> = nodes
+            .par_iter()
+            .map(|&b| curve.integrate(b, |c, x| c.eval(x)))
+            .collect();
         curve.outer = CubicSpline::new(&nodes, &values, SplineEnd::NotAKnot)?;
         curve.outer_error = measure_error(opts, b_lo, b_hi, |b| {
             (curve.outer.eval(b) - curve.integrate(b, |c, x| c.eval(x))).abs()
@@ -417,7 +434,12 @@ impl SharedFloorCurve {
     /// integrand, adaptive Gauss–Kronrod with a breakpoint at every step is used instead, since
     /// a uniform rule converges only linearly across a step.
     fn integrate(&self, b: f64, class_value: impl Fn(&ClassCurve, f64) -> f64) -> f64 {
-        let log_sum = |off: f64| self.inner.iter().map(|c| class_value(c, b + off)).sum::<f64>();
+        let log_sum = |off: f64| {
+            self.inner
+                .iter()
+                .map(|c| class_value(c, b + off))
+                .sum::<f64>()
+        };
         let terms: Vec<f64> = self
             .eps_offsets
             .iter()
@@ -472,7 +494,11 @@ impl SharedFloorCurve {
     /// Bound on |eval − exact| in ln L: the inner tables' measured errors (they add inside the
     /// exponent and the log-sum-exp cannot amplify them) plus the measured outer-table error.
     pub fn achieved_error(&self) -> f64 {
-        self.inner.iter().map(ClassCurve::achieved_error).sum::<f64>() + self.outer_error
+        self.inner
+            .iter()
+            .map(ClassCurve::achieved_error)
+            .sum::<f64>()
+            + self.outer_error
     }
 
     /// The zero-floor class curves L⁰_c, in the order the classes were given.
@@ -516,7 +542,9 @@ fn smoothing_width_in_bound(m: &Measurement, b_abs: f64, floor_msun: f64) -> f64
 fn check_range(range: (f64, f64)) -> Result<(f64, f64), StatsError> {
     let (lo, hi) = range;
     if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
-        return Err(StatsError::InvalidInput(format!("bound range [{lo}, {hi}] M☉ is not a finite ordered pair")));
+        return Err(StatsError::InvalidInput(format!(
+            "bound range [{lo}, {hi}] M☉ is not a finite ordered pair"
+        )));
     }
     Ok((lo, hi))
 }
@@ -543,7 +571,9 @@ fn measure_error(opts: &ReduceOptions, lo: f64, hi: f64, err: impl Fn(f64) -> f6
         return f64::NAN;
     }
     let mut rng = SplitMix64::new(opts.check_seed);
-    let points: Vec<f64> = (0..opts.n_check).map(|_| lo + (hi - lo) * rng.next_f64()).collect();
+    let points: Vec<f64> = (0..opts.n_check)
+        .map(|_| lo + (hi - lo) * rng.next_f64())
+        .collect();
     points.par_iter().map(|&b| err(b)).reduce(|| 0.0, f64::max)
 }
 
@@ -736,14 +766,19 @@ impl CubicSpline {
                     (f as usize).min(n - 2)
                 }
             }
-            None => self.x.partition_point(|&xi| xi <= t).saturating_sub(1).min(n - 2),
+            None => self
+                .x
+                .partition_point(|&xi| xi <= t)
+                .saturating_sub(1)
+                .min(n - 2),
         };
         let h = self.x[i + 1] - self.x[i];
         let a = (self.x[i + 1] - t) / h;
         let b = 1.0 - a;
         a * self.y[i]
             + b * self.y[i + 1]
-            + ((a * a * a - a) * self.second[i] + (b * b * b - b) * self.second[i + 1]) * h * h / 6.0
+            + ((a * a * a - a) * self.second[i] + (b * b * b - b) * self.second[i + 1]) * h * h
+                / 6.0
     }
 
     /// First and last abscissa.
@@ -780,7 +815,9 @@ mod tests {
     /// end conditions; de Boor 1978, "A practical guide to splines", ch. IV).
     #[test]
     fn spline_reproduces_polynomials() {
-        let x: Vec<f64> = (0..9).map(|i| f64::from(i) * 0.37 + 0.01 * f64::from(i * i)).collect();
+        let x: Vec<f64> = (0..9)
+            .map(|i| f64::from(i) * 0.37 + 0.01 * f64::from(i * i))
+            .collect();
         let cubic = |t: f64| 1.0 - 2.0 * t + 0.5 * t * t - 0.3 * t * t * t;
         let y: Vec<f64> = x.iter().map(|&t| cubic(t)).collect();
         let s = CubicSpline::not_a_knot(&x, &y).unwrap();

@@ -174,11 +174,19 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
         }
     }
     let Some((k_best, chi2_min)) = best else {
-        return Err(StatsError::InvalidInput("no grid point has a finite χ²".into()));
+        return Err(StatsError::InvalidInput(
+            "no grid point has a finite χ²".into(),
+        ));
     };
     let delta_chi2: Vec<f64> = chi2
         .iter()
-        .map(|&c| if c.is_finite() { c - chi2_min } else { f64::INFINITY })
+        .map(|&c| {
+            if c.is_finite() {
+                c - chi2_min
+            } else {
+                f64::INFINITY
+            }
+        })
         .collect();
     let n_invalid = chi2.iter().filter(|c| !c.is_finite()).count();
     let allowed = Level::ALL.map(|level| {
@@ -240,7 +248,11 @@ impl Interval {
 /// Δχ² relative to the slice's own minimum. Each end is the linear interpolation of the crossing
 /// between the last excluded and first allowed point; an end reached at the first or last point
 /// is open. If the allowed set has gaps the hull is returned and `disjoint` is set.
-pub fn interval_from_slice(x: &[f64], chi2: &[f64], dchi2_max: f64) -> Result<Interval, StatsError> {
+pub fn interval_from_slice(
+    x: &[f64],
+    chi2: &[f64],
+    dchi2_max: f64,
+) -> Result<Interval, StatsError> {
     if x.is_empty() || x.len() != chi2.len() {
         return Err(StatsError::InvalidInput(format!(
             "slice has {} abscissae and {} χ² values",
@@ -248,13 +260,25 @@ pub fn interval_from_slice(x: &[f64], chi2: &[f64], dchi2_max: f64) -> Result<In
             chi2.len()
         )));
     }
-    let min = chi2.iter().copied().filter(|c| c.is_finite()).fold(f64::INFINITY, f64::min);
+    let min = chi2
+        .iter()
+        .copied()
+        .filter(|c| c.is_finite())
+        .fold(f64::INFINITY, f64::min);
     if !min.is_finite() {
-        return Err(StatsError::InvalidInput("no point of the slice has a finite χ²".into()));
+        return Err(StatsError::InvalidInput(
+            "no point of the slice has a finite χ²".into(),
+        ));
     }
     let delta: Vec<f64> = chi2
         .iter()
-        .map(|&c| if c.is_finite() { c - min } else { f64::INFINITY })
+        .map(|&c| {
+            if c.is_finite() {
+                c - min
+            } else {
+                f64::INFINITY
+            }
+        })
         .collect();
     let inside = |k: usize| delta[k] <= dchi2_max;
     let first = (0..x.len()).find(|&k| inside(k)).unwrap_or(0);
@@ -277,7 +301,12 @@ pub fn interval_from_slice(x: &[f64], chi2: &[f64], dchi2_max: f64) -> Result<In
 /// A coarse axis refined `factor` times: (n − 1)·factor + 1 points, the coarse nodes included
 /// exactly (the 10× Υ sub-grid of `bounds.md` §8.4).
 pub fn refine_axis(axis: &[f64], factor: usize) -> Result<Vec<f64>, StatsError> {
-    if axis.len() < 2 || factor == 0 || axis.windows(2).any(|w| !(w[1] > w[0])) {
+    if axis.len() < 2
+        || factor == 0
+        || axis
+            .windows(2)
+            .any(|w| w[1].partial_cmp(&w[0]) != Some(std::cmp::Ordering::Greater))
+    {
         return Err(StatsError::InvalidInput(
             "an axis to refine needs ≥ 2 strictly increasing points and a factor ≥ 1".into(),
         ));
@@ -323,7 +352,10 @@ pub fn upsilon_slice(
 }
 
 /// As [`upsilon_slice`] with the χ² values already computed on `upsilon_fine`.
-pub fn slice_from_values(upsilon_fine: Vec<f64>, chi2_fine: Vec<f64>) -> Result<UpsilonSlice, StatsError> {
+pub fn slice_from_values(
+    upsilon_fine: Vec<f64>,
+    chi2_fine: Vec<f64>,
+) -> Result<UpsilonSlice, StatsError> {
     let intervals = [
         interval_from_slice(&upsilon_fine, &chi2_fine, Level::Cl68.dchi2(1))?,
         interval_from_slice(&upsilon_fine, &chi2_fine, Level::Cl95.dchi2(1))?,
@@ -334,7 +366,10 @@ pub fn slice_from_values(upsilon_fine: Vec<f64>, chi2_fine: Vec<f64>) -> Result<
         .copied()
         .enumerate()
         .filter(|(_, c)| c.is_finite())
-        .fold((0, f64::INFINITY), |acc, (k, c)| if c < acc.1 { (k, c) } else { acc });
+        .fold(
+            (0, f64::INFINITY),
+            |acc, (k, c)| if c < acc.1 { (k, c) } else { acc },
+        );
     Ok(UpsilonSlice {
         best_upsilon: upsilon_fine[k],
         chi2_min,
@@ -430,7 +465,9 @@ pub fn crowding(
     let near = |ms: &[Measurement]| {
         ms.iter()
             .filter(|m| m.informative())
-            .filter(|m| tension_sigma(ln_prob_consistent(m, mmhb_msun, floor_msun)).abs() <= opts.z_window)
+            .filter(|m| {
+                tension_sigma(ln_prob_consistent(m, mmhb_msun, floor_msun)).abs() <= opts.z_window
+            })
             .count()
     };
     let (h, b) = (near(hburning), near(brown_dwarf));
@@ -467,7 +504,9 @@ impl PopulationTerm {
     ) -> Result<Self, StatsError> {
         let (lo, hi) = window_msun;
         if !(lo.is_finite() && hi.is_finite() && lo < hi) {
-            return Err(StatsError::InvalidInput(format!("mass window [{lo}, {hi}] M☉ is not an ordered pair")));
+            return Err(StatsError::InvalidInput(format!(
+                "mass window [{lo}, {hi}] M☉ is not an ordered pair"
+            )));
         }
         let count = |ms: &[Measurement]| {
             ms.iter()
@@ -492,6 +531,7 @@ impl PopulationTerm {
         if !(b_msun > self.m_lo_msun && b_msun < self.m_hi_msun) {
             return f64::NEG_INFINITY;
         }
-        -(self.n_hburning as f64) * (self.m_hi_msun - b_msun).ln() - (self.n_brown_dwarf as f64) * (b_msun - self.m_lo_msun).ln()
+        -(self.n_hburning as f64) * (self.m_hi_msun - b_msun).ln()
+            - (self.n_brown_dwarf as f64) * (b_msun - self.m_lo_msun).ln()
     }
 }
