@@ -53,8 +53,12 @@ if "grid_scalar_s" in r and "scipy_grid_le_only_s" in p:
     print(f"  {n}x{n} scalar grid: {r['grid_scalar_s']:.2f} s on {int(r.get('threads', 0))} threads"
           f" (target <= 3 s for 201x201); scipy Lane-Emden solves alone, one core, extrapolated:"
           f" {p['scipy_grid_le_only_s'] * scale:.0f} s -> {p['scipy_grid_le_only_s'] * scale / r['grid_scalar_s']:.0f}x")
+if "grid_scalar_cpu_s" in r:
+    print(f"  {n}x{n} scalar grid: {r['grid_scalar_cpu_s']:.2f} CPU-s -> {r['grid_scalar_cpu_s'] / 2:.2f} s on 2 idle cores")
 if "grid_with_wd_s" in r:
     print(f"  {n}x{n} grid with white-dwarf tables: {r['grid_with_wd_s']:.2f} s (target <= 10 s for 201x201)")
+if "grid_with_wd_cpu_s" in r:
+    print(f"  {n}x{n} grid with white-dwarf tables: {r['grid_with_wd_cpu_s']:.2f} CPU-s -> {r['grid_with_wd_cpu_s'] / 2:.2f} s on 2 idle cores")
 for key in sorted(k for k in r if "interp_err" in k):
     print(f"  {key}: {r[key]:.2e}")
 if "wd_table_err" in r:
