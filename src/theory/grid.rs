@@ -4,8 +4,12 @@
 //! of it) and keep the white-dwarf mass–radius tables the confrontation needs, in a
 //! [`TheoryGrid`] that serialises to deterministic bytes for the content-addressed cache.
 //!
-//! Layout: points are **row-major with τ outer and Υ inner**: index = i_τ · n_Υ + i_Υ. A shard
-//! `I/N` (1-based) owns the contiguous index range ⌊(I−1)T/N⌋ .. ⌊IT/N⌋ of the T points.
+//! Layout: points are **row-major with τ outer and Υ inner**: index = i_τ · n_Υ + i_Υ, and the
+//! values are [`grid_value`] (an axis value, with rounding residues of zero made exactly 0). A
+//! shard `I/N` (1-based) owns the contiguous index range ⌊(I−1)T/N⌋ .. ⌊IT/N⌋ of the T points;
+//! it solves the interpolation nodes its points need (every shard solves all white-dwarf node
+//! tables, a small share of the work, so that shards stay independent), and
+//! [`TheoryGrid::merge`] joins shards into a grid identical to an unsharded run.
 //!
 //! Shortcuts, each exact or measured:
 //! * gradient ansatz: only τ = 0 is solved (once per Υ column) and every τ follows from the
