@@ -42,19 +42,23 @@ def results(path):
 
 r, p, n = results(sys.argv[1]), results(sys.argv[2]), int(sys.argv[3])
 print("== ratios (scipy time / dwarfbound time; target >= 200 per solve) ==")
-for key in ("le_n15", "le_n15_jk", "le_n3"):
-    for suffix, what in (("", "same start xi0 = 1e-4"), ("_xi0_1e-2", "grid settings, xi0 = 1e-2")):
-        rk = f"{key}{suffix}_us"
-        if rk in r and f"scipy_{key}_us" in p:
-            print(f"  one solve {key:10s} ({what}): {p[f'scipy_{key}_us'] / r[rk]:7.0f}x"
-                  f"  ({p[f'scipy_{key}_us'] / 1e3:.2f} ms vs {r[rk]:.1f} us)")
+names = {"le_n15": "n = 1.5", "le_n15_jk": "n = 1.5 with J_9.73", "le_n3": "n = 3"}
+for key, what in names.items():
+    rk = f"{key}_us"
+    if rk in r and f"scipy_{key}_us" in p:
+        print(f"  one solve, {what:20s}: {p[f'scipy_{key}_us'] / r[rk]:5.0f}x"
+              f"  ({p[f'scipy_{key}_us'] / 1e3:.2f} ms vs {r[rk]:.1f} us)")
 if "grid_scalar_s" in r and "scipy_grid_le_only_s" in p:
     scale = (n * n) / (201 * 201)
     print(f"  {n}x{n} scalar grid: {r['grid_scalar_s']:.2f} s on {int(r.get('threads', 0))} threads"
           f" (target <= 3 s for 201x201); scipy Lane-Emden solves alone, one core, extrapolated:"
           f" {p['scipy_grid_le_only_s'] * scale:.0f} s -> {p['scipy_grid_le_only_s'] * scale / r['grid_scalar_s']:.0f}x")
+if "grid_scalar_cpu_s" in r:
+    print(f"  {n}x{n} scalar grid: {r['grid_scalar_cpu_s']:.2f} CPU-s -> {r['grid_scalar_cpu_s'] / 2:.2f} s on 2 idle cores")
 if "grid_with_wd_s" in r:
     print(f"  {n}x{n} grid with white-dwarf tables: {r['grid_with_wd_s']:.2f} s (target <= 10 s for 201x201)")
+if "grid_with_wd_cpu_s" in r:
+    print(f"  {n}x{n} grid with white-dwarf tables: {r['grid_with_wd_cpu_s']:.2f} CPU-s -> {r['grid_with_wd_cpu_s'] / 2:.2f} s on 2 idle cores")
 for key in sorted(k for k in r if "interp_err" in k):
     print(f"  {key}: {r[key]:.2e}")
 if "wd_table_err" in r:

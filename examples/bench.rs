@@ -45,6 +45,18 @@ fn time_solve(n: f64, extra: &[f64], xi_start: f64, reps: usize) -> (f64, f64, f
     (median(times), s.xi1, s.omega)
 }
 
+/// CPU time of this process (all threads), seconds, from /proc/self/stat (Linux; clock ticks of
+/// 1/100 s, the usual USER_HZ). `None` elsewhere.
+fn cpu_seconds() -> Option<f64> {
+    let stat = std::fs::read_to_string("/proc/self/stat").ok()?;
+    let rest = &stat[stat.rfind(')')? + 2..];
+    let fields: Vec<&str> = rest.split_whitespace().collect();
+    // After the command name: state is field 3, utime field 14, stime field 15 (1-based).
+    let utime: f64 = fields.get(11)?.parse().ok()?;
+    let stime: f64 = fields.get(12)?.parse().ok()?;
+    Some((utime + stime) / 100.0)
+}
+
 fn grid_run(label: &str, n: usize, settings: &TheorySettings, wd: bool) -> TheoryGrid {
     let upsilon = Axis {
         start: -0.3,
@@ -56,6 +68,7 @@ fn grid_run(label: &str, n: usize, settings: &TheorySettings, wd: bool) -> Theor
         stop: 0.3,
         count: n,
     };
+    let cpu0 = cpu_seconds();
     let t = Instant::now();
     let g = compute(
         upsilon,
@@ -69,10 +82,18 @@ fn grid_run(label: &str, n: usize, settings: &TheorySettings, wd: bool) -> Theor
     )
     .expect("grid");
     let secs = t.elapsed().as_secs_f64();
+    let cpu = cpu_seconds().zip(cpu0).map(|(b, a)| b - a);
     let t = Instant::now();
     let bytes = g.to_json_bytes().expect("serialises");
     let ser = t.elapsed().as_secs_f64();
     println!("RESULT {label}_s {secs:.3}");
+    if let Some(cpu) = cpu {
+        println!("RESULT {label}_cpu_s {cpu:.2}");
+        println!(
+            "  {label}: {cpu:.2} CPU-seconds (all threads): {:.2} s of wall time on 2 otherwise idle cores",
+            cpu / 2.0
+        );
+    }
     println!(
         "  {label}: {n}×{n} points in {secs:.2} s; {} without a full model; cache bytes {:.1} MB (serialised in {ser:.2} s)",
         g.points_without_model(),
@@ -107,20 +128,16 @@ fn main() {
     println!("RESULT threads {threads}");
     println!("dwarfbound theory benchmark (dev profile, our crate at opt-level 3; {threads} rayon threads)");
 
-    // One modified Lane–Emden solve, Υ = 0.1, τ = 0.1 (density-squared), rtol 1e-10, atol 1e-12:
-    // from ξ0 = 1e-4 like the scipy script, and from ξ0 = 1e-2 as the grid does.
-    for (suffix, xi_start) in [("", 1e-4), ("_xi0_1e-2", 1e-2)] {
-        for (key, nn, extra) in [
-            ("le_n15", 1.5, &[][..]),
-            ("le_n15_jk", 1.5, &[9.73][..]),
-            ("le_n3", 3.0, &[][..]),
-        ] {
-            let (us, xi1, omega) = time_solve(nn, extra, xi_start, 2001);
-            println!("RESULT {key}{suffix}_us {us:.2}");
-            println!(
-                "  one solve {key} (ξ0 = {xi_start:e}): median {us:.1} µs (ξ1 = {xi1:.10}, ω = {omega:.10})"
-            );
-        }
+    // One modified Lane–Emden solve, Υ = 0.1, τ = 0.1 (density-squared), rtol 1e-10, atol 1e-12,
+    // from ξ0 = 1e-4 like the scipy script and the grid.
+    for (key, nn, extra) in [
+        ("le_n15", 1.5, &[][..]),
+        ("le_n15_jk", 1.5, &[9.73][..]),
+        ("le_n3", 3.0, &[][..]),
+    ] {
+        let (us, xi1, omega) = time_solve(nn, extra, 1e-4, 2001);
+        println!("RESULT {key}_us {us:.2}");
+        println!("  one solve {key}: median {us:.1} µs (ξ1 = {xi1:.10}, ω = {omega:.10})");
     }
 
     // White-dwarf table: cost and its own accuracy against direct root searches.

@@ -9,7 +9,7 @@ use dwarfbound::theory::mmhb::MmhbModel;
 use dwarfbound::theory::point::{
     point_bounds, standard_point, Outcome, PointEvaluator, TheorySettings, Warning,
 };
-use dwarfbound::theory::white_dwarf::WdMassRadius;
+use dwarfbound::theory::white_dwarf::{radius_direct_rsun, ChandrasekharEos, WdMassRadius};
 use dwarfbound::theory::{Anisotropy, Axis};
 
 fn axis(start: f64, stop: f64, count: usize) -> Axis {
@@ -204,6 +204,36 @@ fn gradient_ansatz_follows_the_exact_g_rescaling() {
                     .contains(&Warning::GradientAnisotropyInAtmosphere));
             }
         }
+    }
+}
+
+#[test]
+fn breakup_radius_agrees_with_an_independent_root_search() {
+    // The break-up reference radius (secant search from the n = 3/2 polytrope) against the
+    // bisection of `white_dwarf::radius_direct_rsun` on the full Chandrasekhar EOS, at the
+    // reference object's mass and μ_e = 2/(1 + 0.75) (structure.md §5.4), for both ansätze;
+    // for the gradient ansatz the direct solve integrates the τ ≠ 0 system itself, while the
+    // point uses the τ = 0 system and the G-rescaling (structure.md §2.2).
+    let mu_e = 2.0 / 1.75;
+    for (anisotropy, u, t) in [
+        (Anisotropy::DensitySquared, 0.3, -0.2),
+        (Anisotropy::DensitySquared, -0.4, 0.1),
+        (Anisotropy::Gradient, 0.1, 0.2),
+    ] {
+        let s = TheorySettings {
+            anisotropy,
+            ..exact_settings()
+        };
+        let p = point_bounds(u, t, &s, false).unwrap();
+        let b = p.breakup.ok().unwrap();
+        let omega3 = p.lane_emden_n3.ok().unwrap().omega;
+        let eos = ChandrasekharEos::new(u, t, anisotropy).unwrap();
+        let direct = radius_direct_rsun(&eos, omega3, 0.08, mu_e).unwrap();
+        assert!(
+            rel(b.radius_rsun, direct) < 1e-8,
+            "{anisotropy:?} ({u}, {t}): {} vs {direct}",
+            b.radius_rsun
+        );
     }
 }
 

@@ -4,8 +4,12 @@
 //! of it) and keep the white-dwarf mass–radius tables the confrontation needs, in a
 //! [`TheoryGrid`] that serialises to deterministic bytes for the content-addressed cache.
 //!
-//! Layout: points are **row-major with τ outer and Υ inner**: index = i_τ · n_Υ + i_Υ. A shard
-//! `I/N` (1-based) owns the contiguous index range ⌊(I−1)T/N⌋ .. ⌊IT/N⌋ of the T points.
+//! Layout: points are **row-major with τ outer and Υ inner**: index = i_τ · n_Υ + i_Υ, and the
+//! values are [`grid_value`] (an axis value, with rounding residues of zero made exactly 0). A
+//! shard `I/N` (1-based) owns the contiguous index range ⌊(I−1)T/N⌋ .. ⌊IT/N⌋ of the T points;
+//! it solves the interpolation nodes its points need (every shard solves all white-dwarf node
+//! tables, a small share of the work, so that shards stay independent), and
+//! [`TheoryGrid::merge`] joins shards into a grid identical to an unsharded run.
 //!
 //! Shortcuts, each exact or measured:
 //! * gradient ansatz: only τ = 0 is solved (once per Υ column) and every τ follows from the
@@ -145,7 +149,7 @@ pub struct InterpolationCheck {
 }
 
 /// White-dwarf tables of a grid: solved on nodes, interpolated elsewhere (see the module docs).
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct WdGrid {
     /// Fine Υ indices of the nodes.
     pub upsilon_nodes: Vec<usize>,
@@ -155,8 +159,45 @@ pub struct WdGrid {
     /// Node tables, τ-node outer, Υ-node inner (one row at τ = 0 for the gradient ansatz).
     pub node_tables: Vec<Outcome<WdMassRadius>>,
     /// Points of this grid (fine index) whose table was solved directly, because a node of
-    /// their interpolation stencil has no model or the interpolated table was not monotone.
+    /// their interpolation stencil has no model or the interpolated table was not valid.
     pub exact_tables: BTreeMap<usize, Outcome<WdMassRadius>>,
+    /// The node tables as interpolation variables (ln(m/(m_Ch − m)) then ln η), built once on
+    /// first use; not serialised.
+    #[serde(skip)]
+    node_values: std::sync::OnceLock<Vec<Option<Vec<f64>>>>,
+}
+
+impl PartialEq for WdGrid {
+    fn eq(&self, other: &Self) -> bool {
+        self.upsilon_nodes == other.upsilon_nodes
+            && self.tau_nodes == other.tau_nodes
+            && self.node_tables == other.node_tables
+            && self.exact_tables == other.exact_tables
+    }
+}
+
+impl WdGrid {
+    /// Interpolation variables of every node table: z = ln(m/(m_Ch − m)) keeps the relative
+    /// precision of m at low mass and of the deficit m_Ch − m near the Chandrasekhar mass,
+    /// where R ∝ √(m_Ch − m); it is invariant under the gradient rescaling. Then ln η.
+    fn node_values(&self) -> &[Option<Vec<f64>>] {
+        self.node_values.get_or_init(|| {
+            self.node_tables
+                .iter()
+                .map(|t| {
+                    let t = t.ok()?;
+                    let m_ch = t.mass_ch_dimless();
+                    Some(
+                        t.mass_dimless()
+                            .iter()
+                            .map(|m| (m / (m_ch - m)).ln())
+                            .chain(t.radius_dimless().iter().map(|x| x.ln()))
+                            .collect(),
+                    )
+                })
+                .collect()
+        })
+    }
 }
 
 /// Every bound over a grid (or a shard of it).
@@ -302,10 +343,10 @@ fn progress(len: u64, quiet: bool) -> indicatif::ProgressBar {
 /// Node values on a 2-D node grid, keyed by (τ-node position, Υ-node position).
 type NodeValues<T> = BTreeMap<(usize, usize), Result<T, Failure>>;
 
-/// Tensor-product interpolation of vector values at fine point (iu, it) from node values.
-/// `None` if a stencil node is missing or failed.
-fn interpolate_2d(
-    values: &NodeValues<Vec<f64>>,
+/// Tensor-product interpolation of vector values at fine point (iu, it) from node values
+/// (`get(τ-node position, Υ-node position)`). `None` if a stencil node is missing or failed.
+fn interpolate_2d<'a>(
+    get: impl Fn(usize, usize) -> Option<&'a [f64]>,
     upsilon: &Axis,
     tau: &Axis,
     u_nodes: &[usize],
@@ -330,7 +371,7 @@ fn interpolate_2d(
     let mut out: Option<Vec<f64>> = None;
     for (a, &pt) in st.iter().enumerate() {
         for (b, &pu) in su.iter().enumerate() {
-            let v = values.get(&(pt, pu))?.as_ref().ok()?;
+            let v = get(pt, pu)?;
             let w = wt[a] * wu[b];
             match &mut out {
                 None => out = Some(v.iter().map(|x| w * x).collect()),
@@ -346,6 +387,11 @@ fn interpolate_2d(
         }
     }
     out.filter(|o| o.iter().all(|x| x.is_finite()))
+}
+
+/// Getter over a [`NodeValues`] map for [`interpolate_2d`].
+fn from_map<'a>(values: &'a NodeValues<Vec<f64>>) -> impl Fn(usize, usize) -> Option<&'a [f64]> {
+    move |pt, pu| values.get(&(pt, pu))?.as_ref().ok().map(|v| v.as_slice())
 }
 
 /// Node positions needed by the stencils of the fine points in `range`.
@@ -489,8 +535,15 @@ pub fn compute(
             };
             let on_node =
                 su_nodes.binary_search(&iu).is_ok() && st_nodes.binary_search(&it).is_ok();
-            let interp =
-                interpolate_2d(&breakup_nodes, &upsilon, &tau, &su_nodes, &st_nodes, iu, it);
+            let interp = interpolate_2d(
+                from_map(&breakup_nodes),
+                &upsilon,
+                &tau,
+                &su_nodes,
+                &st_nodes,
+                iu,
+                it,
+            );
             let (corr, interpolated) = match interp {
                 Some(v) => (Ok(v[0]), !on_node),
                 None => (
@@ -530,8 +583,15 @@ pub fn compute(
             cols.par_iter()
                 .map(|&iu| {
                     let on_node = sc_nodes.binary_search(&iu).is_ok();
-                    let v = match interpolate_2d(&nodes, &upsilon, &one_row, &sc_nodes, &[0], iu, 0)
-                    {
+                    let v = match interpolate_2d(
+                        from_map(&nodes),
+                        &upsilon,
+                        &one_row,
+                        &sc_nodes,
+                        &[0],
+                        iu,
+                        0,
+                    ) {
                         Some(v) => Outcome::Ok(ev.sc_values(v[0], !on_node)),
                         None => ev.sc(grid_value(&upsilon, iu), 0.0),
                     };
@@ -736,6 +796,7 @@ fn build_wd_grid(
         tau_nodes: t_nodes.to_vec(),
         node_tables,
         exact_tables: BTreeMap::new(),
+        node_values: std::sync::OnceLock::new(),
     };
     // Points whose interpolated table is unavailable get an exact one.
     let range = grid.first_index..grid.first_index + grid.points.len();
@@ -744,7 +805,7 @@ fn build_wd_grid(
         .into_par_iter()
         .filter(|&i| {
             grid.points[i - range.start].lane_emden_n3.is_ok()
-                && interpolate_wd(grid, &wd, i).is_none()
+                && interpolated_wd_arrays(grid, &wd, i).is_none()
         })
         .collect();
     let exact: Vec<(usize, Outcome<WdMassRadius>)> = missing
@@ -790,66 +851,50 @@ fn build_wd_grid(
     (wd, check)
 }
 
-/// The interpolated white-dwarf table at fine index `i`, if every stencil node has a model and
-/// the result is a valid table (m increasing, below m_Ch).
-fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadius> {
+/// The interpolated (mass, radius) arrays of the white-dwarf table at fine index `i` and its
+/// m_Ch, if every stencil node has a model and the result is a valid table (finite, positive,
+/// m strictly increasing and below m_Ch).
+fn interpolated_wd_arrays(
+    grid: &TheoryGrid,
+    wd: &WdGrid,
+    i: usize,
+) -> Option<(Vec<f64>, Vec<f64>, f64)> {
     let n_u = grid.upsilon.count;
     let (iu, it) = (i % n_u, i / n_u);
     let p = grid.point(i)?;
     let omega3 = p.lane_emden_n3.ok()?.omega;
     let gradient = wd.tau_nodes.is_empty();
-    let first = wd.node_tables.iter().find_map(|t| t.ok())?;
-    let nx = first.log10_xc().len();
-    let mut values: NodeValues<Vec<f64>> = BTreeMap::new();
+    let values = wd.node_values();
+    let nx = values.iter().flatten().next()?.len() / 2;
     let rows = if gradient { 1 } else { wd.tau_nodes.len() };
-    let su = stencil(&wd.upsilon_nodes, iu);
-    let st: Vec<usize> = if gradient {
-        vec![0]
-    } else {
-        stencil(&wd.tau_nodes, it)
-    };
-    for &pt in &st {
-        for &pu in &su {
-            let idx = pt * wd.upsilon_nodes.len() + pu;
-            if pt >= rows {
-                return None;
-            }
-            let t = wd.node_tables.get(idx)?.ok()?;
-            if t.log10_xc().len() != nx {
-                return None;
-            }
-            // z = ln(m/(m_Ch − m)): keeps the relative precision of m at low mass and of the
-            // deficit m_Ch − m near the Chandrasekhar mass, where R ∝ √(m_Ch − m); invariant
-            // under the gradient rescaling.
-            let m_ch = t.mass_ch_dimless();
-            let v: Vec<f64> = t
-                .mass_dimless()
-                .iter()
-                .map(|m| (m / (m_ch - m)).ln())
-                .chain(t.radius_dimless().iter().map(|x| x.ln()))
-                .collect();
-            values.insert((pt, pu), Ok(v));
+    let n_un = wd.upsilon_nodes.len();
+    let get = |pt: usize, pu: usize| -> Option<&[f64]> {
+        if pt >= rows {
+            return None;
         }
-    }
+        values
+            .get(pt * n_un + pu)?
+            .as_deref()
+            .filter(|v| v.len() == 2 * nx)
+    };
     let one_row = Axis {
         start: 0.0,
         stop: 0.0,
         count: 1,
     };
-    let (tau_axis, t_nodes, it_local) = if gradient {
-        (&one_row, &[0usize][..], 0)
+    let v = if gradient {
+        interpolate_2d(get, &grid.upsilon, &one_row, &wd.upsilon_nodes, &[0], iu, 0)?
     } else {
-        (&grid.tau, &wd.tau_nodes[..], it)
+        interpolate_2d(
+            get,
+            &grid.upsilon,
+            &grid.tau,
+            &wd.upsilon_nodes,
+            &wd.tau_nodes,
+            iu,
+            it,
+        )?
     };
-    let v = interpolate_2d(
-        &values,
-        &grid.upsilon,
-        tau_axis,
-        &wd.upsilon_nodes,
-        t_nodes,
-        iu,
-        it_local,
-    )?;
     // ω₃ of the point itself is the exact m_Ch (for the gradient ansatz already rescaled).
     let mass: Vec<f64> = v[..nx]
         .iter()
@@ -863,13 +908,27 @@ fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadi
         }
         radius.iter_mut().for_each(|r| *r /= s.sqrt());
     }
+    let valid = mass
+        .iter()
+        .chain(&radius)
+        .all(|x| x.is_finite() && *x > 0.0)
+        && mass.windows(2).all(|w| w[1] > w[0])
+        && mass.last().is_some_and(|m| *m < omega3);
+    valid.then_some((mass, radius, omega3))
+}
+
+/// The interpolated white-dwarf table at fine index `i` (see [`interpolated_wd_arrays`]).
+fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadius> {
+    let (mass, radius, omega3) = interpolated_wd_arrays(grid, wd, i)?;
+    let p = grid.point(i)?;
+    let log10_xc = wd.node_tables.iter().find_map(|t| t.ok())?.log10_xc();
     // The table type validates its parts only on deserialisation (its fields are private), so
     // the interpolated table goes through that validated path.
     let parts = WdTableParts {
         upsilon: p.upsilon,
         tau: p.tau,
         anisotropy: grid.settings.anisotropy,
-        log10_xc: first.log10_xc(),
+        log10_xc,
         mass_dimless: &mass,
         radius_dimless: &radius,
         mass_ch_dimless: omega3,

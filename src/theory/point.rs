@@ -899,12 +899,12 @@ impl PointEvaluator {
         let r3 = ModifiedLaneEmden::new(3.0, 0.0, 0.0, Anisotropy::None)
             .and_then(|le| le.solve(&le_options_n3))
             .map_err(internal)?;
-        let reference_n15 = PolytropeConstants {
-            xi1: r15.xi1,
-            omega: r15.omega,
-            j_k: r15.extra_integral(k).unwrap_or(f64::NAN),
-            k,
-        };
+        let reference_n15 =
+            PolytropeConstants::from_solution(&r15, k).map_err(|e| SettingsError {
+                name: "mmhb model A",
+                value: e.to_string(),
+                why: "the standard-gravity reference constants are unusable",
+            })?;
         Ok(Self {
             settings: *settings,
             mmhb_config,
