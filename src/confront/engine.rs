@@ -19,7 +19,7 @@
 //!     fn tau(&self) -> &[f64] { &[0.0] }
 //!     fn mmhb_msun(&self, i: usize) -> Option<f64> { Some(0.075 * (1.0 + 0.1 * self.upsilon()[i])) }
 //!     fn chandrasekhar_mu2_msun(&self, _i: usize) -> Option<f64> { Some(1.4563) }
-//!     fn wd_radius_rsun(&self, _i: usize, _m: f64, _mu_e: f64) -> Option<f64> { None }
+//!     fn wd_radii_rsun(&self, _i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> { vec![None; q.len()] }
 //! }
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
 //!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
@@ -46,9 +46,10 @@ pub trait BoundSurface: Sync {
     fn mmhb_msun(&self, i: usize) -> Option<f64>;
     /// The Chandrasekhar mass for μe = 2 at point `i`, M☉ (other μe scale as 4/μe²).
     fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64>;
-    /// The white-dwarf radius at `mass_msun` for `mu_e` at point `i`, R☉; `None` above the
-    /// maximum mass or where no model exists.
-    fn wd_radius_rsun(&self, i: usize, mass_msun: f64, mu_e: f64) -> Option<f64>;
+    /// White-dwarf radii at point `i`, R☉, for each (mass in M☉, μe) query, in order; `None`
+    /// above the maximum mass or where no model exists. Batched because looking up a grid
+    /// point's mass–radius table costs far more than one radius from it.
+    fn wd_radii_rsun(&self, i: usize, queries: &[(f64, f64)]) -> Vec<Option<f64>>;
 }
 
 /// Choices of the comparison (defaults from `theory/bounds.md` §4–§5 and `structure.md` §4.6).
@@ -314,13 +315,27 @@ pub fn confront(
         .map(|u| (u.index, u.mu_e))
         .collect();
     if !radius_objects.is_empty() {
+        let nodes: Vec<Vec<(f64, f64)>> = radius_objects
+            .iter()
+            .map(|&(k, mu_e)| {
+                radius_mass_nodes(&objects[k])
+                    .into_iter()
+                    .map(|(m, _)| (m, mu_e))
+                    .collect()
+            })
+            .collect();
+        let queries: Vec<(f64, f64)> = nodes.iter().flatten().copied().collect();
         per_term[Term::WhiteDwarfRadius.index()] = (0..n)
             .into_par_iter()
             .map(|i| {
                 chandra[i]?;
+                let radii = surface.wd_radii_rsun(i, &queries);
                 let mut sum = 0.0;
-                for &(k, mu_e) in &radius_objects {
-                    sum += -2.0 * ln_radius_likelihood(&objects[k], mu_e, i, surface, opts);
+                let mut at = 0;
+                for (&(k, _), q) in radius_objects.iter().zip(&nodes) {
+                    let r = &radii[at..at + q.len()];
+                    at += q.len();
+                    sum += -2.0 * ln_radius_likelihood(&objects[k], r, opts);
                 }
                 Some(sum)
             })
@@ -363,61 +378,61 @@ pub const LN_L_RADIUS_FLOOR: f64 = -1e4;
 /// Number of nodes of the mass quadrature of the radius term.
 const RADIUS_QUADRATURE_NODES: usize = 41;
 
-/// ln of the likelihood of a white dwarf's measured radius at grid point `i`, marginalised
-/// over its true mass: ∫ p(M | mass measurement) N(R_obs; R(M), σ(M)) dM over the masses that
-/// have a model (M below the maximum mass). σ(M)² = σ_R² + (f R(M))², f the fractional floor.
-/// The mass density is the split normal of the measurement (Gaussian when symmetric).
+/// The mass nodes and weights (density × quadrature weight) over which the radius term of
+/// an object is marginalised: composite Simpson over [m − 6σ₋, m + 6σ₊] of the split-normal
+/// density (normalisation 2/(√(2π)(σ₋+σ₊))); a single node of weight 1 for an exact mass.
+pub fn radius_mass_nodes(o: &CatalogueObject) -> Vec<(f64, f64)> {
+    let lo = o.mass_err_lo_msun.unwrap_or(0.0);
+    let hi = o.mass_err_hi_msun.or(o.mass_err_lo_msun).unwrap_or(0.0);
+    let m0 = o.mass_msun;
+    if lo <= 0.0 && hi <= 0.0 {
+        return vec![(m0, 1.0)];
+    }
+    let (a, b) = (m0 - 6.0 * lo, m0 + 6.0 * hi);
+    let nodes = RADIUS_QUADRATURE_NODES;
+    let h = (b - a) / (nodes - 1) as f64;
+    let norm = 2.0 / ((2.0 * std::f64::consts::PI).sqrt() * (lo + hi));
+    (0..nodes)
+        .map(|k| {
+            let m = a + h * k as f64;
+            let s = if m < m0 { lo } else { hi };
+            let dens = if m > 0.0 {
+                norm * (-0.5 * ((m - m0) / s).powi(2)).exp()
+            } else {
+                0.0
+            };
+            let w = if k == 0 || k == nodes - 1 {
+                1.0
+            } else if k % 2 == 1 {
+                4.0
+            } else {
+                2.0
+            };
+            (m.max(f64::MIN_POSITIVE), w * dens * h / 3.0)
+        })
+        .collect()
+}
+
+/// ln of the likelihood of a white dwarf's measured radius, marginalised over its true mass:
+/// ∫ p(M | mass measurement) N(R_obs; R(M), σ(M)) dM over the masses that have a model (below
+/// the maximum mass), σ(M)² = σ_R² + (f R(M))², f the fractional theory floor. `radii` are the
+/// predicted radii at the nodes of [`radius_mass_nodes`] (`None` where no model exists).
 pub fn ln_radius_likelihood(
     o: &CatalogueObject,
-    mu_e: f64,
-    i: usize,
-    surface: &dyn BoundSurface,
+    radii: &[Option<f64>],
     opts: &EngineOptions,
 ) -> f64 {
     let (Some(r_obs), Some(r_err)) = (o.radius_rsun, o.radius_err_rsun) else {
         return 0.0;
     };
-    let lo = o.mass_err_lo_msun.unwrap_or(0.0);
-    let hi = o.mass_err_hi_msun.or(o.mass_err_lo_msun).unwrap_or(0.0);
-    let m0 = o.mass_msun;
-    let gauss = |m: f64| -> Option<f64> {
-        let r = surface.wd_radius_rsun(i, m, mu_e)?;
-        let s2 = r_err * r_err + (opts.wd_radius_floor_fraction * r).powi(2);
-        let z = (r_obs - r) / s2.sqrt();
-        Some((-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt())
-    };
-    if lo <= 0.0 && hi <= 0.0 {
-        return match gauss(m0) {
-            Some(p) if p > 0.0 => p.ln().max(LN_L_RADIUS_FLOOR),
-            _ => LN_L_RADIUS_FLOOR,
-        };
-    }
-    // Composite Simpson over [m0 − 6σ₋, m0 + 6σ₊] of the split-normal density times the radius
-    // Gaussian; the density's normalisation is 2/(√(2π)(σ₋+σ₊)).
-    let (a, b) = (m0 - 6.0 * lo, m0 + 6.0 * hi);
-    let nodes = RADIUS_QUADRATURE_NODES;
-    let h = (b - a) / (nodes - 1) as f64;
-    let norm = 2.0 / ((2.0 * std::f64::consts::PI).sqrt() * (lo + hi));
     let mut total = 0.0;
-    for k in 0..nodes {
-        let m = a + h * k as f64;
-        if m <= 0.0 {
-            continue;
-        }
-        let s = if m < m0 { lo } else { hi };
-        let dens = norm * (-0.5 * ((m - m0) / s).powi(2)).exp();
-        let w = if k == 0 || k == nodes - 1 {
-            1.0
-        } else if k % 2 == 1 {
-            4.0
-        } else {
-            2.0
-        };
-        if let Some(g) = gauss(m) {
-            total += w * dens * g;
+    for ((_, w), r) in radius_mass_nodes(o).iter().zip(radii) {
+        if let Some(r) = r {
+            let s2 = r_err * r_err + (opts.wd_radius_floor_fraction * r).powi(2);
+            let z = (r_obs - r) / s2.sqrt();
+            total += w * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt();
         }
     }
-    total *= h / 3.0;
     if total > 0.0 {
         total.ln().max(LN_L_RADIUS_FLOOR)
     } else {

@@ -208,8 +208,14 @@ impl BoundSurface for GridSurface<'_> {
     fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64> {
         self.grid.point(i)?.chandrasekhar.ok().map(|c| c.value_msun)
     }
-    fn wd_radius_rsun(&self, i: usize, mass_msun: f64, mu_e: f64) -> Option<f64> {
-        self.grid.wd_radius_rsun(i, mass_msun, mu_e)?.ok()
+    fn wd_radii_rsun(&self, i: usize, queries: &[(f64, f64)]) -> Vec<Option<f64>> {
+        match self.grid.wd_table(i) {
+            Some(crate::theory::point::Outcome::Ok(t)) => queries
+                .iter()
+                .map(|&(m, mu_e)| t.radius_rsun(m, mu_e).ok())
+                .collect(),
+            _ => vec![None; queries.len()],
+        }
     }
 }
 
