@@ -286,6 +286,7 @@ fn synthetic_input(consistent: bool) -> ReportInput {
             },
         ],
         cautions: vec!["Synthetic input: every number here is invented.".into()],
+        since_previous: None,
     }
 }
 

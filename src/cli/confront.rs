@@ -4,7 +4,7 @@ use super::{CliError, ConfrontArgs, Exit};
 use crate::pipeline::cache::Cache;
 use crate::pipeline::confront::{
     parse_format, run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings,
-    PipelineError, StatisticsSettings,
+    PipelineError, StatisticsSettings, TheorySource,
 };
 use crate::pipeline::history::{now_unix_s, utc_stamp};
 use crate::theory::point::TheorySettings;
@@ -118,7 +118,15 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
     };
     let cache = args.cache.as_deref().map(Cache::new);
     let (generated_at, _) = utc_stamp(now_unix_s());
-    let outcome = run_confrontation(&settings, &args.out, cache.as_ref(), &generated_at)?;
+    let outcome = run_confrontation(
+        &settings,
+        &args.out,
+        TheorySource::Compute {
+            cache: cache.as_ref(),
+        },
+        &generated_at,
+        None,
+    )?;
     print_outcome(&outcome, &args.out);
     Ok(Exit::Ok)
 }

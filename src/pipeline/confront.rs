@@ -116,6 +116,8 @@ pub struct ConfrontOutcome {
     pub theory_from_cache: bool,
     /// Rows in/accepted/quarantined over all catalogues.
     pub rows: (usize, usize, usize),
+    /// The difference from the previous run (nightly runs only).
+    pub difference: Option<super::history::RunDifference>,
 }
 
 /// Vets every catalogue (each with its own map) into one result.
@@ -346,12 +348,33 @@ fn opt_json(x: Option<f64>) -> Value {
     }
 }
 
+/// Where the theory grid comes from.
+pub enum TheorySource<'a> {
+    /// Compute it (through the cache, if one is given).
+    Compute {
+        /// The theory cache.
+        cache: Option<&'a Cache>,
+    },
+    /// Use a grid computed elsewhere (merged shards).
+    Given(TheoryGrid),
+}
+
+/// What a nightly run adds: the previous run to compare with and the alarm rules.
+#[derive(Debug, Clone)]
+pub struct NightlyContext {
+    /// Folder of the previous run, if any.
+    pub previous: Option<PathBuf>,
+    /// Alarm rules.
+    pub alarms: super::config::AlarmConfig,
+}
+
 /// Runs a whole confrontation and writes every output into `out_dir`.
 pub fn run_confrontation(
     settings: &ConfrontSettings,
     out_dir: &Path,
-    cache: Option<&Cache>,
+    theory: TheorySource<'_>,
     generated_at: &str,
+    nightly: Option<&NightlyContext>,
 ) -> Result<ConfrontOutcome, PipelineError> {
     // 1. Catalogues.
     let vetted = vet_all(&settings.catalogues)?;
@@ -365,8 +388,17 @@ pub fn run_confrontation(
     }
 
     // 2. Theory.
-    let (grid, from_cache, cache_note) =
-        theory_grid(settings.upsilon, settings.tau, &settings.theory, None, cache)?;
+    let (grid, from_cache, cache_note) = match theory {
+        TheorySource::Compute { cache } => {
+            theory_grid(settings.upsilon, settings.tau, &settings.theory, None, cache)?
+        }
+        TheorySource::Given(g) => (g, false, None),
+    };
+    if !grid.is_complete() {
+        return Err(PipelineError::Settings(
+            "the theory grid is incomplete (a shard?): merge all shards first".into(),
+        ));
+    }
     let standard =
         standard_point(&settings.theory).map_err(|e| PipelineError::Settings(e.to_string()))?;
     let surface = GridSurface::new(&grid);
@@ -539,15 +571,32 @@ pub fn run_confrontation(
         eopts: &eopts,
         best_index,
         cache_note,
+        since_previous: None,
     };
+    let mut ctx = ctx;
+    let objects_bytes = ctx.objects_csv()?;
+    let mut summary = ctx.summary_json();
+    let difference = nightly.map(|n| {
+        super::history::difference(
+            n.previous.as_deref(),
+            &super::history::parse_objects(&objects_bytes),
+            &summary,
+            settings.statistics.tension_sigma,
+            &n.alarms,
+        )
+    });
+    if let Some(d) = &difference {
+        ctx.since_previous = Some(d.lines());
+        summary["since_previous"] = serde_json::to_value(d)
+            .map_err(|e| PipelineError::Internal(e.to_string()))?;
+    }
     write_atomic(
         &out_dir.join("quarantine.csv"),
         &export::quarantine_csv(&vetted.quarantine)
             .map_err(|e| PipelineError::Internal(e.to_string()))?,
     )?;
-    write_atomic(&out_dir.join("objects.csv"), &ctx.objects_csv()?)?;
+    write_atomic(&out_dir.join("objects.csv"), &objects_bytes)?;
     write_atomic(&out_dir.join("grid.csv"), &ctx.grid_csv()?)?;
-    let summary = ctx.summary_json();
     let mut summary_bytes = serde_json::to_vec_pretty(&summary)
         .map_err(|e| PipelineError::Internal(e.to_string()))?;
     summary_bytes.push(b'\n');
@@ -573,6 +622,7 @@ pub fn run_confrontation(
             .collect(),
         theory_from_cache: from_cache,
         rows: rows_total,
+        difference,
     })
 }
 
@@ -594,6 +644,7 @@ pub(crate) struct OutputContext<'a> {
     pub eopts: &'a EngineOptions,
     pub best_index: usize,
     pub cache_note: Option<String>,
+    pub since_previous: Option<Vec<String>>,
 }
 
 fn limit_label(l: MassLimit) -> &'static str {

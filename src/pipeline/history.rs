@@ -144,10 +144,16 @@ pub struct RunDifference {
 
 /// Reads `objects.csv` of a run into key → state (key = `source_file:id`).
 pub fn read_objects(run_dir: &Path) -> BTreeMap<String, ObjectState> {
+    match std::fs::read(run_dir.join("objects.csv")) {
+        Ok(bytes) => parse_objects(&bytes),
+        Err(_) => BTreeMap::new(),
+    }
+}
+
+/// Parses the bytes of an `objects.csv` into key → state (key = `source_file:id`).
+pub fn parse_objects(bytes: &[u8]) -> BTreeMap<String, ObjectState> {
     let mut out = BTreeMap::new();
-    let Ok(mut rdr) = csv::Reader::from_path(run_dir.join("objects.csv")) else {
-        return out;
-    };
+    let mut rdr = csv::Reader::from_reader(bytes);
     let headers = match rdr.headers() {
         Ok(h) => h.clone(),
         Err(_) => return out,
@@ -158,11 +164,14 @@ pub fn read_objects(run_dir: &Path) -> BTreeMap<String, ObjectState> {
             .zip(rec.iter())
             .map(|(h, v)| (h.to_string(), v.to_string()))
             .collect();
-        let key = format!(
-            "{}:{}",
-            fields.get("source_file").cloned().unwrap_or_default(),
-            fields.get("id").cloned().unwrap_or_default()
-        );
+        // Identity across runs: the catalogue's file name (not its path, which may be written
+        // differently from night to night) and the object's id.
+        let file = fields.get("source_file").cloned().unwrap_or_default();
+        let name = Path::new(&file)
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or(file);
+        let key = format!("{}:{}", name, fields.get("id").cloned().unwrap_or_default());
         let sigma_standard = fields
             .get("sigma_standard")
             .and_then(|s| s.parse::<f64>().ok());
@@ -210,18 +219,18 @@ const VALUE_COLUMNS: &[&str] = &[
     "age",
 ];
 
-/// Compares the current run with the previous one and applies the alarm rules.
+/// Compares the current run (its `objects.csv` rows and `summary.json` document) with the
+/// previous run's folder and applies the alarm rules.
 pub fn difference(
     previous: Option<&Path>,
-    current: &Path,
+    now_objects: &BTreeMap<String, ObjectState>,
+    now_summary: &serde_json::Value,
     tension_sigma: f64,
     alarms: &super::config::AlarmConfig,
 ) -> RunDifference {
     let mut d = RunDifference::default();
-    let now_objects = read_objects(current);
-    let now_summary = read_summary(current);
-    d.interval_now = now_summary.as_ref().and_then(interval95);
-    d.area_now = now_summary.as_ref().and_then(area95);
+    d.interval_now = interval95(now_summary);
+    d.area_now = area95(now_summary);
     let Some(prev) = previous else {
         return d;
     };
@@ -242,7 +251,7 @@ pub fn difference(
         .map(|k| k.to_string())
         .collect();
     for k in keys_now.intersection(&keys_before) {
-        let (a, b) = (&now_objects[*k], &before_objects[*k]);
+        let (a, b) = (&now_objects[k.as_str()], &before_objects[k.as_str()]);
         if VALUE_COLUMNS
             .iter()
             .any(|c| a.fields.get(*c) != b.fields.get(*c))
@@ -251,7 +260,7 @@ pub fn difference(
         }
     }
     let is_tension = |s: &ObjectState| s.sigma_standard.is_some_and(|z| z > tension_sigma);
-    for (k, s) in &now_objects {
+    for (k, s) in now_objects {
         let was = before_objects.get(k).is_some_and(is_tension);
         if is_tension(s) && !was {
             d.new_tensions
@@ -304,4 +313,57 @@ pub fn difference(
         }
     }
     d
+}
+
+impl RunDifference {
+    /// The difference in words, one line each (empty when nothing changed).
+    pub fn lines(&self) -> Vec<String> {
+        let mut out = Vec::new();
+        let list = |v: &[String]| {
+            const SHOWN: usize = 10;
+            let mut t = v.iter().take(SHOWN).cloned().collect::<Vec<_>>().join(", ");
+            if v.len() > SHOWN {
+                t.push_str(&format!(" … and {} more (see objects.csv)", v.len() - SHOWN));
+            }
+            t
+        };
+        if !self.added.is_empty() {
+            out.push(format!("{} object(s) added: {}", self.added.len(), list(&self.added)));
+        }
+        if !self.removed.is_empty() {
+            out.push(format!("{} object(s) removed: {}", self.removed.len(), list(&self.removed)));
+        }
+        if !self.changed.is_empty() {
+            out.push(format!("{} object(s) changed: {}", self.changed.len(), list(&self.changed)));
+        }
+        for (k, z) in &self.new_tensions {
+            out.push(format!("new tension: {k} at {z:.2}σ from standard gravity"));
+        }
+        for k in &self.resolved_tensions {
+            out.push(format!("resolved tension: {k}"));
+        }
+        let end = |x: Option<f64>| x.map_or("open".to_string(), |v| format!("{v:.4}"));
+        if let (Some(a), Some(b)) = (self.interval_before, self.interval_now) {
+            if self.interval_shift.is_some_and(|s| s > 0.0) {
+                out.push(format!(
+                    "95.45 % Υ interval at τ = 0: [{}, {}] → [{}, {}]",
+                    end(a[0]),
+                    end(a[1]),
+                    end(b[0]),
+                    end(b[1])
+                ));
+            }
+        }
+        if let (Some(a), Some(b)) = (self.area_before, self.area_now) {
+            if a != b {
+                out.push(format!(
+                    "95.45 % allowed fraction of the grid: {a:.4} → {b:.4}"
+                ));
+            }
+        }
+        for a in &self.alarms {
+            out.push(format!("ALARM: {a}"));
+        }
+        out
+    }
 }

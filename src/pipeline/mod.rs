@@ -7,4 +7,5 @@ pub mod config;
 pub mod confront;
 pub mod history;
 pub mod lock;
+pub mod nightly;
 mod report_input;

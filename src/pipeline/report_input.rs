@@ -379,6 +379,7 @@ pub(crate) fn write_report_files(
         class_contributions: contributions,
         reduction_error,
         warnings,
+        since_previous: ctx.since_previous.clone(),
         cautions: vec![
             "Intervals are read off a grid: their precision is limited by the grid spacing (the Υ interval at τ = 0 uses a 10× finer sub-grid with cubic interpolation of the bounds).".into(),
         ],

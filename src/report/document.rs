@@ -308,6 +308,17 @@ pub(crate) fn build(
         });
     }
 
+    if let Some(lines) = &input.since_previous {
+        blocks.push(Block::Heading("Since the previous run".into()));
+        if lines.is_empty() {
+            blocks.push(Block::Para(vec![t(
+                "Nothing changed: same objects, same tensions, same allowed region.",
+            )]));
+        } else {
+            blocks.push(Block::List(lines.iter().map(|l| vec![t(l.clone())]).collect()));
+        }
+    }
+
     // The map.
     blocks.push(Block::Heading("Allowed region".into()));
     let missing = map.delta_chi2.iter().filter(|v| v.is_none()).count();

@@ -392,6 +392,9 @@ pub struct ReportInput {
     pub warnings: Vec<Warning>,
     /// Extra cautions beyond the fixed ones the report always states.
     pub cautions: Vec<String>,
+    /// The difference from the previous run of a nightly job, one line each (`None` outside
+    /// `run`; an empty list means nothing changed).
+    pub since_previous: Option<Vec<String>>,
 }
 
 fn finite(name: &str, x: f64) -> Result<(), ReportError> {

@@ -62,7 +62,10 @@ impl Axis {
         if i + 1 == self.count {
             self.stop
         } else {
-            self.start + t * (self.stop - self.start)
+            // Round to 12 significant digits so that `-0.3:0.6:46` gives -0.04, not
+            // -0.040000000000000036: grid values are meant as the decimals a user would type.
+            let v = self.start + t * (self.stop - self.start);
+            format!("{v:.11e}").parse().unwrap_or(v)
         }
     }
 

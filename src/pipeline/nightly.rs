@@ -1,0 +1,354 @@
+//! The nightly job: one config file in, a dated run folder out, `latest` switched only when the
+//! run is complete, and the difference from the previous run with its alarms.
+//!
+//! Sharding splits the theory grid (the expensive part) into contiguous slices computed by
+//! independent jobs (`--shard I/N`, e.g. a batch-scheduler array); `merge` joins the slices
+//! and runs the comparison once, so the merged result is the unsharded result byte for byte.
+//!
+//! ```no_run
+//! use dwarfbound::pipeline::nightly::{run_nightly, NightlyOptions};
+//! let report = run_nightly(std::path::Path::new("catalogs-demo/nightly.toml"), &NightlyOptions::default()).unwrap();
+//! println!("alarms: {:?}", report.alarms);
+//! ```
+
+use std::path::{Path, PathBuf};
+
+use super::cache::Cache;
+use super::config::{resolve, Config, ConfigError};
+use super::confront::{
+    parse_format, run_confrontation, theory_grid, CatalogueInput, ConfrontOutcome,
+    ConfrontSettings, NightlyContext, PipelineError, StatisticsSettings, TheorySource,
+};
+use super::history::{self, now_unix_s, utc_stamp};
+use super::lock::{FolderLock, LockError};
+use crate::output::write_atomic;
+use crate::theory::grid::{Shard, TheoryGrid};
+use crate::theory::mmhb::{MmhbMode, MmhbModel};
+use crate::theory::point::TheorySettings;
+use crate::theory::{Anisotropy, Axis};
+
+/// Options of one `run` invocation.
+#[derive(Debug, Clone, Default)]
+pub struct NightlyOptions {
+    /// Compute only this shard of the theory grid.
+    pub shard: Option<Shard>,
+    /// Wait for another run's lock instead of failing.
+    pub wait: bool,
+}
+
+/// Errors of a nightly run.
+#[derive(Debug, thiserror::Error)]
+pub enum NightlyError {
+    /// The config file is unreadable or invalid (exit 2).
+    #[error(transparent)]
+    Config(#[from] ConfigError),
+    /// Another run holds the output folder (exit 2).
+    #[error(transparent)]
+    Lock(#[from] LockError),
+    /// The pipeline failed.
+    #[error(transparent)]
+    Pipeline(#[from] PipelineError),
+}
+
+/// What a run did.
+#[derive(Debug)]
+pub struct NightlyReport {
+    /// The run folder (or the shard folder).
+    pub run_dir: PathBuf,
+    /// The confrontation's outcome (`None` for a shard).
+    pub outcome: Option<ConfrontOutcome>,
+    /// Alarm rules that fired (exit code 3 when not empty).
+    pub alarms: Vec<String>,
+    /// A stale lock of a dead run was taken over.
+    pub took_over_lock_from: Option<u32>,
+}
+
+fn axis(cfg_path: &Path, key: &str, text: &str) -> Result<Axis, PipelineError> {
+    crate::cli::parse_axis(text).map_err(|e| {
+        PipelineError::Settings(format!("{}: [grid] {key}: {e}", cfg_path.display()))
+    })
+}
+
+/// Turns a config into the pipeline's settings (paths resolved, globs expanded, names checked).
+pub fn settings_from_config(
+    cfg_path: &Path,
+    cfg: &Config,
+) -> Result<ConfrontSettings, PipelineError> {
+    let bad = |key: &str, why: String| {
+        PipelineError::Settings(format!("{}: {key}: {why}", cfg_path.display()))
+    };
+    let mut catalogues = Vec::new();
+    for (n, c) in cfg.catalogues.iter().enumerate() {
+        let pattern = resolve(cfg_path, &c.path);
+        let pattern_text = pattern.to_string_lossy().to_string();
+        let mut paths: Vec<PathBuf> = if pattern_text.contains(['*', '?', '[']) {
+            glob::glob(&pattern_text)
+                .map_err(|e| bad(&format!("catalogue[{n}].path"), e.to_string()))?
+                .filter_map(Result::ok)
+                .collect()
+        } else {
+            vec![pattern]
+        };
+        paths.sort();
+        if paths.is_empty() {
+            return Err(bad(
+                &format!("catalogue[{n}].path"),
+                format!("`{}` matches no file", c.path),
+            ));
+        }
+        let format = parse_format(c.format.as_deref())?;
+        for path in paths {
+            catalogues.push(CatalogueInput {
+                path,
+                map: c.map.as_deref().map(|m| resolve(cfg_path, m)),
+                format,
+            });
+        }
+    }
+    if catalogues.is_empty() {
+        return Err(bad("catalogue", "no catalogue is configured".into()));
+    }
+    let t = &cfg.theory;
+    let anisotropy = match t.anisotropy.as_str() {
+        "none" => Anisotropy::None,
+        "density-squared" => Anisotropy::DensitySquared,
+        "gradient" => Anisotropy::Gradient,
+        other => {
+            return Err(bad(
+                "theory.anisotropy",
+                format!("`{other}` is not none, density-squared or gradient"),
+            ))
+        }
+    };
+    let mmhb_model = match t.mmhb_model.as_str() {
+        "luminosity" => MmhbModel::LuminosityBalance,
+        "ignition" => MmhbModel::IgnitionTemperature,
+        other => {
+            return Err(bad(
+                "theory.mmhb_model",
+                format!("`{other}` is not luminosity or ignition"),
+            ))
+        }
+    };
+    let mmhb_mode = match t.mmhb_mode.as_str() {
+        "anchored" => MmhbMode::Anchored {
+            anchor_msun: t.mmhb_anchor_msun,
+            floor_msun: t
+                .mmhb_floor_msun
+                .unwrap_or(crate::theory::mmhb::DEFAULT_ANCHORED_FLOOR_MSUN),
+        },
+        "raw" => {
+            if t.mmhb_floor_msun.is_some() {
+                return Err(bad(
+                    "theory.mmhb_floor_msun",
+                    "the raw mode uses its model's documented floor (bounds.md §4); remove the key".into(),
+                ));
+            }
+            MmhbMode::Raw
+        }
+        other => {
+            return Err(bad(
+                "theory.mmhb_mode",
+                format!("`{other}` is not anchored or raw"),
+            ))
+        }
+    };
+    let theory = TheorySettings {
+        anisotropy,
+        mmhb_model,
+        mmhb_mode,
+        hydrogen_mass_fraction: t.hydrogen_fraction,
+        ignition_temperature_k: t.ignition_temperature_k,
+        chandrasekhar_floor_msun: t.chandrasekhar_floor_msun,
+        wd_radius_floor_fraction: t.wd_radius_floor_fraction,
+        ..TheorySettings::default()
+    };
+    theory
+        .validate()
+        .map_err(|e| bad("theory", e.to_string()))?;
+    let st = &cfg.statistics;
+    if st.floor != "per-object" {
+        return Err(bad(
+            "statistics.floor",
+            format!("`{}`: only per-object is available in this version", st.floor),
+        ));
+    }
+    if st.population_aware {
+        return Err(bad(
+            "statistics.population_aware",
+            "not available in this version of the pipeline".into(),
+        ));
+    }
+    if !(st.tension_sigma.is_finite() && st.tension_sigma > 0.0) {
+        return Err(bad(
+            "statistics.tension_sigma",
+            "must be a positive number".into(),
+        ));
+    }
+    let mut statistics = StatisticsSettings {
+        tension_sigma: st.tension_sigma,
+        ..StatisticsSettings::default()
+    };
+    statistics.engine.age_min_mmhb_gyr = st.age_min_mmhb_gyr;
+    statistics.engine.include_young = st.include_young;
+    statistics.engine.exclude_age_unknown = st.exclude_age_unknown;
+    Ok(ConfrontSettings {
+        catalogues,
+        upsilon: axis(cfg_path, "upsilon", &cfg.grid.upsilon)?,
+        tau: axis(cfg_path, "tau", &cfg.grid.tau)?,
+        theory,
+        statistics,
+    })
+}
+
+/// The output folder and cache of a config.
+fn folders(cfg_path: &Path, cfg: &Config) -> (PathBuf, Cache) {
+    let output = resolve(cfg_path, &cfg.output);
+    let cache_dir = cfg
+        .cache
+        .as_deref()
+        .map(|c| resolve(cfg_path, c))
+        .unwrap_or_else(|| output.join("cache"));
+    (output, Cache::new(&cache_dir))
+}
+
+/// Name of the file a shard folder holds its slice of the theory grid in.
+pub const SHARD_FILE: &str = "theory-shard.json";
+/// Name of the file a shard folder records its config path in.
+pub const SHARD_CONFIG_FILE: &str = "config-path.txt";
+
+/// Runs the nightly job described by the config file.
+pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyReport, NightlyError> {
+    let cfg = Config::load(cfg_path)?;
+    let settings = settings_from_config(cfg_path, &cfg)?;
+    let (output, cache) = folders(cfg_path, &cfg);
+    let lock = FolderLock::acquire(&output, opts.wait)?;
+    let took_over_lock_from = lock.took_over_from;
+
+    if let Some(shard) = opts.shard {
+        let dir = output
+            .join("shards")
+            .join(format!("{}-of-{}", shard.index, shard.count));
+        let (grid, _, _) = theory_grid(
+            settings.upsilon,
+            settings.tau,
+            &settings.theory,
+            Some(shard),
+            Some(&cache),
+        )?;
+        let bytes = grid
+            .to_json_bytes()
+            .map_err(|e| PipelineError::Internal(e.to_string()))?;
+        write_atomic(&dir.join(SHARD_FILE), &bytes).map_err(PipelineError::from)?;
+        // The path as given: output files name catalogues by the path they were read from, so
+        // `merge` (run from the same working directory) reproduces the unsharded run exactly.
+        write_atomic(
+            &dir.join(SHARD_CONFIG_FILE),
+            format!("{}\n", cfg_path.display()).as_bytes(),
+        )
+        .map_err(PipelineError::from)?;
+        drop(lock);
+        return Ok(NightlyReport {
+            run_dir: dir,
+            outcome: None,
+            alarms: Vec::new(),
+            took_over_lock_from,
+        });
+    }
+
+    let previous = history::latest_run(&output);
+    let (generated_at, stamp) = utc_stamp(now_unix_s());
+    let run_dir = history::new_run_dir(&output, &stamp).map_err(PipelineError::from)?;
+    let nightly = NightlyContext {
+        previous,
+        alarms: cfg.alarms.clone(),
+    };
+    let outcome = run_confrontation(
+        &settings,
+        &run_dir,
+        TheorySource::Compute {
+            cache: Some(&cache),
+        },
+        &generated_at,
+        Some(&nightly),
+    )?;
+    // Only a complete run becomes `latest`.
+    history::publish_latest(&output, &run_dir).map_err(PipelineError::from)?;
+    drop(lock);
+    let alarms = outcome
+        .difference
+        .as_ref()
+        .map(|d| d.alarms.clone())
+        .unwrap_or_default();
+    Ok(NightlyReport {
+        run_dir,
+        outcome: Some(outcome),
+        alarms,
+        took_over_lock_from,
+    })
+}
+
+/// Merges shard folders into one result in `out_dir`, identical to the unsharded run.
+pub fn merge_shards(dirs: &[PathBuf], out_dir: &Path) -> Result<ConfrontOutcome, NightlyError> {
+    let mut parts = Vec::new();
+    let mut cfg_path: Option<PathBuf> = None;
+    for d in dirs {
+        let bytes = std::fs::read(d.join(SHARD_FILE)).map_err(|e| {
+            PipelineError::Settings(format!(
+                "{}: not a shard folder ({SHARD_FILE}: {e})",
+                d.display()
+            ))
+        })?;
+        parts.push(TheoryGrid::from_json_bytes(&bytes).map_err(|e| {
+            PipelineError::Settings(format!("{}: {e}", d.join(SHARD_FILE).display()))
+        })?);
+        let p = std::fs::read_to_string(d.join(SHARD_CONFIG_FILE))
+            .map(|s| PathBuf::from(s.trim()))
+            .map_err(|e| {
+                PipelineError::Settings(format!(
+                    "{}: {SHARD_CONFIG_FILE}: {e}",
+                    d.display()
+                ))
+            })?;
+        match &cfg_path {
+            Some(c) if *c != p => {
+                return Err(PipelineError::Settings(format!(
+                    "{}: shard of another config ({} vs {})",
+                    d.display(),
+                    p.display(),
+                    c.display()
+                ))
+                .into())
+            }
+            _ => cfg_path = Some(p),
+        }
+    }
+    let cfg_path = cfg_path.ok_or_else(|| PipelineError::Settings("no shard folder given".into()))?;
+    let cfg = Config::load(&cfg_path)?;
+    let settings = settings_from_config(&cfg_path, &cfg)?;
+    let grid = TheoryGrid::merge(parts).map_err(|e| PipelineError::Settings(e.to_string()))?;
+    if grid.upsilon != settings.upsilon
+        || grid.tau != settings.tau
+        || grid.settings.cache_key_text() != settings.theory.cache_key_text()
+    {
+        return Err(PipelineError::Settings(format!(
+            "the shards were computed with other grid or theory settings than {} now holds",
+            cfg_path.display()
+        ))
+        .into());
+    }
+    let (generated_at, _) = utc_stamp(now_unix_s());
+    // As a first nightly run: no previous run, the same alarm rules, so the merged files equal
+    // those of an unsharded run into a fresh output folder.
+    let nightly = NightlyContext {
+        previous: None,
+        alarms: cfg.alarms.clone(),
+    };
+    Ok(run_confrontation(
+        &settings,
+        out_dir,
+        TheorySource::Given(grid),
+        &generated_at,
+        Some(&nightly),
+    )?)
+}
