@@ -50,8 +50,20 @@ fn every_format_vets_to_the_same_objects_and_quarantine() {
                 "{file}"
             );
             close(Some(a.mass_msun), Some(b.mass_msun), "mass", &a.id, file);
-            close(a.mass_err_lo_msun, b.mass_err_lo_msun, "mass_err_lo", &a.id, file);
-            close(a.mass_err_hi_msun, b.mass_err_hi_msun, "mass_err_hi", &a.id, file);
+            close(
+                a.mass_err_lo_msun,
+                b.mass_err_lo_msun,
+                "mass_err_lo",
+                &a.id,
+                file,
+            );
+            close(
+                a.mass_err_hi_msun,
+                b.mass_err_hi_msun,
+                "mass_err_hi",
+                &a.id,
+                file,
+            );
             close(a.radius_rsun, b.radius_rsun, "radius", &a.id, file);
             close(a.age_gyr, b.age_gyr, "age", &a.id, file);
         }

@@ -42,7 +42,9 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
     let bf = &s["best_fit"];
     println!(
         "best fit: Υ = {}, τ = {} (−2 ln L = {:.4})",
-        bf["upsilon"], bf["tau"], bf["minus_two_ln_l"].as_f64().unwrap_or(f64::NAN)
+        bf["upsilon"],
+        bf["tau"],
+        bf["minus_two_ln_l"].as_f64().unwrap_or(f64::NAN)
     );
     let iv = &s["upsilon_interval_at_tau0"]["cl95"];
     let end = |v: &serde_json::Value| match v.as_f64() {

@@ -27,7 +27,9 @@ pub fn run(args: RunArgs) -> Result<Exit, CliError> {
         },
     )?;
     if let Some(pid) = report.took_over_lock_from {
-        eprintln!("dwarfbound: note: took over the stale lock of a run that no longer exists (pid {pid})");
+        eprintln!(
+            "dwarfbound: note: took over the stale lock of a run that no longer exists (pid {pid})"
+        );
     }
     let Some(outcome) = &report.outcome else {
         println!(

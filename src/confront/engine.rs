@@ -277,7 +277,11 @@ pub fn confront(
     for (term, values, floor) in [
         (Term::HBurning, &mmhb, opts.mmhb_floor_msun),
         (Term::BrownDwarf, &mmhb, opts.mmhb_floor_msun),
-        (Term::WhiteDwarfMass, &chandra, opts.chandrasekhar_floor_msun),
+        (
+            Term::WhiteDwarfMass,
+            &chandra,
+            opts.chandrasekhar_floor_msun,
+        ),
     ] {
         let ms: Vec<Measurement> = uses
             .iter()

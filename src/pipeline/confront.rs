@@ -284,8 +284,8 @@ fn tau0_slice(
     // most points (failures sit at the low-Υ existence bound).
     let ok: Vec<bool> = (0..nu).map(|i| conf.joint[j0 * nu + i].is_some()).collect();
     let (mut best, mut start) = ((0, 0), None);
-    for i in 0..=nu {
-        match (i < nu && ok[i], start) {
+    for (i, ok_i) in ok.iter().copied().chain(std::iter::once(false)).enumerate() {
+        match (ok_i, start) {
             (true, None) => start = Some(i),
             (false, Some(s)) => {
                 if i - s > best.1 - best.0 {
@@ -356,7 +356,7 @@ pub enum TheorySource<'a> {
         cache: Option<&'a Cache>,
     },
     /// Use a grid computed elsewhere (merged shards).
-    Given(TheoryGrid),
+    Given(Box<TheoryGrid>),
 }
 
 /// What a nightly run adds: the previous run to compare with and the alarm rules.
@@ -389,10 +389,14 @@ pub fn run_confrontation(
 
     // 2. Theory.
     let (grid, from_cache, cache_note) = match theory {
-        TheorySource::Compute { cache } => {
-            theory_grid(settings.upsilon, settings.tau, &settings.theory, None, cache)?
-        }
-        TheorySource::Given(g) => (g, false, None),
+        TheorySource::Compute { cache } => theory_grid(
+            settings.upsilon,
+            settings.tau,
+            &settings.theory,
+            None,
+            cache,
+        )?,
+        TheorySource::Given(g) => (*g, false, None),
     };
     if !grid.is_complete() {
         return Err(PipelineError::Settings(
@@ -493,7 +497,9 @@ pub fn run_confrontation(
                 .as_ref()
                 .and_then(|t| t.ok())
                 .and_then(|t| t.radius_rsun(o.mass_msun, u.mu_e).ok())
-                .map(|rp| (r - rp) / (e * e + (eopts.wd_radius_floor_fraction * rp).powi(2)).sqrt()),
+                .map(|rp| {
+                    (r - rp) / (e * e + (eopts.wd_radius_floor_fraction * rp).powi(2)).sqrt()
+                }),
             _ => None,
         };
         rows.push(ObjectRow {
@@ -587,8 +593,8 @@ pub fn run_confrontation(
     });
     if let Some(d) = &difference {
         ctx.since_previous = Some(d.lines());
-        summary["since_previous"] = serde_json::to_value(d)
-            .map_err(|e| PipelineError::Internal(e.to_string()))?;
+        summary["since_previous"] =
+            serde_json::to_value(d).map_err(|e| PipelineError::Internal(e.to_string()))?;
     }
     write_atomic(
         &out_dir.join("quarantine.csv"),
@@ -596,9 +602,13 @@ pub fn run_confrontation(
             .map_err(|e| PipelineError::Internal(e.to_string()))?,
     )?;
     write_atomic(&out_dir.join("objects.csv"), &objects_bytes)?;
+    // Test hook: simulate a run killed mid-write (tests/nightly_run.rs). Harmless otherwise.
+    if std::env::var_os("DWARFBOUND_TEST_ABORT_MID_WRITE").is_some() {
+        std::process::abort();
+    }
     write_atomic(&out_dir.join("grid.csv"), &ctx.grid_csv()?)?;
-    let mut summary_bytes = serde_json::to_vec_pretty(&summary)
-        .map_err(|e| PipelineError::Internal(e.to_string()))?;
+    let mut summary_bytes =
+        serde_json::to_vec_pretty(&summary).map_err(|e| PipelineError::Internal(e.to_string()))?;
     summary_bytes.push(b'\n');
     write_atomic(&out_dir.join("summary.json"), &summary_bytes)?;
     super::report_input::write_report_files(&ctx, out_dir, generated_at)?;
@@ -665,7 +675,7 @@ impl OutputContext<'_> {
             .enumerate()
             .filter_map(|(k, r)| Some((r.driver_rank?, k, r.driver_shift?)))
             .collect();
-        d.sort_by(|a, b| a.0.cmp(&b.0));
+        d.sort_by_key(|x| x.0);
         d
     }
 
@@ -765,7 +775,8 @@ impl OutputContext<'_> {
                 ]
             })
             .collect();
-        report::tables::csv_bytes(&header, &rows).map_err(|e| PipelineError::Internal(e.to_string()))
+        report::tables::csv_bytes(&header, &rows)
+            .map_err(|e| PipelineError::Internal(e.to_string()))
     }
 
     /// `grid.csv`: one row per grid point.
@@ -878,13 +889,18 @@ impl OutputContext<'_> {
                 },
             );
         }
-        let sg_index = self.surface.tau.iter().position(|&t| t == 0.0).and_then(|j| {
-            self.surface
-                .upsilon
-                .iter()
-                .position(|&u| u == 0.0)
-                .map(|i| (i, j))
-        });
+        let sg_index = self
+            .surface
+            .tau
+            .iter()
+            .position(|&t| t == 0.0)
+            .and_then(|j| {
+                self.surface
+                    .upsilon
+                    .iter()
+                    .position(|&u| u == 0.0)
+                    .map(|i| (i, j))
+            });
         let standard = match sg_index {
             Some((i, j)) => {
                 let nt = self.conf.n_tau;
@@ -896,7 +912,9 @@ impl OutputContext<'_> {
                     "delta_chi2": opt_json(d.is_finite().then_some(d)),
                 })
             }
-            None => json!({"on_grid": false, "allowed_cl95": null, "minus_two_ln_l": null, "delta_chi2": null}),
+            None => {
+                json!({"on_grid": false, "allowed_cl95": null, "minus_two_ln_l": null, "delta_chi2": null})
+            }
         };
         let tensions: Vec<Value> = self
             .tensions
@@ -1003,4 +1021,3 @@ pub fn parse_format(name: Option<&str>) -> Result<Option<Format>, PipelineError>
         }),
     }
 }
-

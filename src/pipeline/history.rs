@@ -228,9 +228,11 @@ pub fn difference(
     tension_sigma: f64,
     alarms: &super::config::AlarmConfig,
 ) -> RunDifference {
-    let mut d = RunDifference::default();
-    d.interval_now = interval95(now_summary);
-    d.area_now = area95(now_summary);
+    let mut d = RunDifference {
+        interval_now: interval95(now_summary),
+        area_now: area95(now_summary),
+        ..RunDifference::default()
+    };
     let Some(prev) = previous else {
         return d;
     };
@@ -323,18 +325,33 @@ impl RunDifference {
             const SHOWN: usize = 10;
             let mut t = v.iter().take(SHOWN).cloned().collect::<Vec<_>>().join(", ");
             if v.len() > SHOWN {
-                t.push_str(&format!(" … and {} more (see objects.csv)", v.len() - SHOWN));
+                t.push_str(&format!(
+                    " … and {} more (see objects.csv)",
+                    v.len() - SHOWN
+                ));
             }
             t
         };
         if !self.added.is_empty() {
-            out.push(format!("{} object(s) added: {}", self.added.len(), list(&self.added)));
+            out.push(format!(
+                "{} object(s) added: {}",
+                self.added.len(),
+                list(&self.added)
+            ));
         }
         if !self.removed.is_empty() {
-            out.push(format!("{} object(s) removed: {}", self.removed.len(), list(&self.removed)));
+            out.push(format!(
+                "{} object(s) removed: {}",
+                self.removed.len(),
+                list(&self.removed)
+            ));
         }
         if !self.changed.is_empty() {
-            out.push(format!("{} object(s) changed: {}", self.changed.len(), list(&self.changed)));
+            out.push(format!(
+                "{} object(s) changed: {}",
+                self.changed.len(),
+                list(&self.changed)
+            ));
         }
         for (k, z) in &self.new_tensions {
             out.push(format!("new tension: {k} at {z:.2}σ from standard gravity"));

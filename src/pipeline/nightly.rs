@@ -64,9 +64,8 @@ pub struct NightlyReport {
 }
 
 fn axis(cfg_path: &Path, key: &str, text: &str) -> Result<Axis, PipelineError> {
-    crate::cli::parse_axis(text).map_err(|e| {
-        PipelineError::Settings(format!("{}: [grid] {key}: {e}", cfg_path.display()))
-    })
+    crate::cli::parse_axis(text)
+        .map_err(|e| PipelineError::Settings(format!("{}: [grid] {key}: {e}", cfg_path.display())))
 }
 
 /// Turns a config into the pipeline's settings (paths resolved, globs expanded, names checked).
@@ -141,7 +140,8 @@ pub fn settings_from_config(
             if t.mmhb_floor_msun.is_some() {
                 return Err(bad(
                     "theory.mmhb_floor_msun",
-                    "the raw mode uses its model's documented floor (bounds.md §4); remove the key".into(),
+                    "the raw mode uses its model's documented floor (bounds.md §4); remove the key"
+                        .into(),
                 ));
             }
             MmhbMode::Raw
@@ -170,7 +170,10 @@ pub fn settings_from_config(
     if st.floor != "per-object" {
         return Err(bad(
             "statistics.floor",
-            format!("`{}`: only per-object is available in this version", st.floor),
+            format!(
+                "`{}`: only per-object is available in this version",
+                st.floor
+            ),
         ));
     }
     if st.population_aware {
@@ -305,10 +308,7 @@ pub fn merge_shards(dirs: &[PathBuf], out_dir: &Path) -> Result<ConfrontOutcome,
         let p = std::fs::read_to_string(d.join(SHARD_CONFIG_FILE))
             .map(|s| PathBuf::from(s.trim()))
             .map_err(|e| {
-                PipelineError::Settings(format!(
-                    "{}: {SHARD_CONFIG_FILE}: {e}",
-                    d.display()
-                ))
+                PipelineError::Settings(format!("{}: {SHARD_CONFIG_FILE}: {e}", d.display()))
             })?;
         match &cfg_path {
             Some(c) if *c != p => {
@@ -323,7 +323,8 @@ pub fn merge_shards(dirs: &[PathBuf], out_dir: &Path) -> Result<ConfrontOutcome,
             _ => cfg_path = Some(p),
         }
     }
-    let cfg_path = cfg_path.ok_or_else(|| PipelineError::Settings("no shard folder given".into()))?;
+    let cfg_path =
+        cfg_path.ok_or_else(|| PipelineError::Settings("no shard folder given".into()))?;
     let cfg = Config::load(&cfg_path)?;
     let settings = settings_from_config(&cfg_path, &cfg)?;
     let grid = TheoryGrid::merge(parts).map_err(|e| PipelineError::Settings(e.to_string()))?;
@@ -347,7 +348,7 @@ pub fn merge_shards(dirs: &[PathBuf], out_dir: &Path) -> Result<ConfrontOutcome,
     Ok(run_confrontation(
         &settings,
         out_dir,
-        TheorySource::Given(grid),
+        TheorySource::Given(Box::new(grid)),
         &generated_at,
         Some(&nightly),
     )?)

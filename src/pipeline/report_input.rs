@@ -7,10 +7,10 @@ use super::confront::{OutputContext, PipelineError};
 use crate::confront::engine::{BoundSurface, Term};
 use crate::confront::regions::Level;
 use crate::report::{
-    self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves,
-    CatalogueSummary, ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription,
-    ModelDescription, ReductionError, ReportInput, Shift, TensionRow,
-    TensionTable, UpsilonInterval, Warning, WorstObject,
+    self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
+    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, ModelDescription,
+    ReductionError, ReportInput, Shift, TensionRow, TensionTable, UpsilonInterval, Warning,
+    WorstObject,
 };
 use crate::theory::point::Warning as TheoryWarning;
 

@@ -315,7 +315,9 @@ pub(crate) fn build(
                 "Nothing changed: same objects, same tensions, same allowed region.",
             )]));
         } else {
-            blocks.push(Block::List(lines.iter().map(|l| vec![t(l.clone())]).collect()));
+            blocks.push(Block::List(
+                lines.iter().map(|l| vec![t(l.clone())]).collect(),
+            ));
         }
     }
 
