@@ -262,3 +262,24 @@ fn bad_inputs_exit_2_without_panicking() {
         assert!(!err.contains("panicked"), "{err}");
     }
 }
+
+/// `vet` flags objects in tension with standard gravity under the default model. Expected value
+/// by hand from the definition (bounds.md §8.3, symmetric Gaussian): z = (B − m)/√(σ² + σ_th²)
+/// = (0.075 − 0.058)/√(0.002² + 0.005²) = 3.1568 for HFC-V0302 (invented demo object).
+#[test]
+fn vet_flags_the_next_night_tension() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = bin()
+        .current_dir(root())
+        .args(["vet", "catalogs-demo/next_night.csv", "--json", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let t = v["standard_gravity_tensions"].as_array().unwrap();
+    assert_eq!(t.len(), 1);
+    assert_eq!(t[0]["id"], "HFC-V0302");
+    let expected = (0.075f64 - 0.058) / (0.002f64.powi(2) + 0.005f64.powi(2)).sqrt();
+    assert!((t[0]["sigma"].as_f64().unwrap() - expected).abs() < 1e-9);
+}

@@ -53,15 +53,18 @@ impl ReadArgs {
     }
 }
 
+/// Tension threshold of the standard-gravity flags (`confront` makes it configurable).
+const TENSION_SIGMA: f64 = 3.0;
+
 /// Runs `vet`.
 pub fn run(args: VetArgs) -> Result<Exit, CliError> {
     let (map, opts) = args.read.resolve()?;
     let vetted = vet_files(&args.catalogs, map.as_ref(), &opts)?;
 
-    // Place for the "tension with standard gravity" flags of `../shared/CONVENTIONS.md`: once
-    // the theory module can evaluate the standard-gravity bounds, each accepted object will be
-    // compared with them here and flagged in the summary. Nothing is computed or printed for it
-    // until then.
+    // Flag objects in tension with standard gravity under the default model, as a first look;
+    // `confront` does the full comparison.
+    let tensions =
+        crate::pipeline::confront::standard_gravity_tensions(&vetted.objects, TENSION_SIGMA)?;
 
     let accepted = accepted_csv(&vetted.objects)
         .map_err(|e| CliError::internal(format!("formatting accepted.csv: {e}")))?;
@@ -73,12 +76,45 @@ pub fn run(args: VetArgs) -> Result<Exit, CliError> {
     write_atomic(&quarantine_path, &quarantined)?;
 
     let summary = VetSummary::from_vetted(&vetted);
+    let tension_rows: Vec<serde_json::Value> = tensions
+        .iter()
+        .map(|&(k, z)| {
+            let o = &vetted.objects[k];
+            serde_json::json!({"id": o.id, "class": o.class.label(), "source_file": o.source_file, "sigma": z})
+        })
+        .collect();
     if args.json {
-        let text = serde_json::to_string_pretty(&summary)
+        let mut value = serde_json::to_value(&summary)
+            .map_err(|e| CliError::internal(format!("formatting the JSON summary: {e}")))?;
+        if let Some(obj) = value.as_object_mut() {
+            obj.insert(
+                "standard_gravity_tensions".into(),
+                serde_json::Value::Array(tension_rows),
+            );
+        }
+        let text = serde_json::to_string_pretty(&value)
             .map_err(|e| CliError::internal(format!("formatting the JSON summary: {e}")))?;
         println!("{text}");
     } else {
         print!("{}", summary.to_text());
+        if tensions.is_empty() {
+            println!(
+                "no object in tension above {TENSION_SIGMA}σ with standard gravity (default model)"
+            );
+        } else {
+            println!(
+                "in tension with standard gravity (default model: anchored MMHB 0.075 ± 0.005 Msun, Chandrasekhar mass 5.82519/mu_e^2 ± 0.03 Msun), above {TENSION_SIGMA}σ:"
+            );
+            for &(k, z) in &tensions {
+                let o = &vetted.objects[k];
+                println!(
+                    "  {:<16} {:<12} {z:.2}σ  ({})",
+                    o.id,
+                    o.class.label(),
+                    o.source_file
+                );
+            }
+        }
         println!(
             "wrote {} ({} objects) and {} ({} rows)",
             accepted_path.display(),

@@ -337,6 +337,75 @@ fn tau0_slice(
     Ok(Some(SliceResult { slice, bounds_fine }))
 }
 
+/// Leave-one-out shifts of the 95.45 % Υ interval at τ = 0 from removing each white dwarf's
+/// radius term (bounds.md §8.6 applied to the mass–radius test): (object index, shift), shift
+/// +∞ when an end opens or closes. Its −2 ln L along the slice is evaluated on the coarse τ = 0
+/// row and interpolated linearly onto the fine axis, as the slice itself does.
+fn radius_drivers(
+    conf: &Confrontation,
+    surface: &GridSurface<'_>,
+    s: &SliceResult,
+    objects: &[CatalogueObject],
+    eopts: &EngineOptions,
+    opts: &DriverOptions,
+) -> Result<Vec<(usize, f64)>, PipelineError> {
+    let nu = conf.n_upsilon;
+    let Some(j0) = surface.tau.iter().position(|&t| t == 0.0) else {
+        return Ok(Vec::new());
+    };
+    let fine = &s.slice.upsilon_fine;
+    let (lo, hi) = (fine[0], fine[fine.len() - 1]);
+    let coarse: Vec<usize> = (0..nu)
+        .filter(|&i| surface.upsilon[i] >= lo && surface.upsilon[i] <= hi)
+        .collect();
+    if coarse.len() < 2 {
+        return Ok(Vec::new());
+    }
+    let xs: Vec<f64> = coarse.iter().map(|&i| surface.upsilon[i]).collect();
+    let dchi2 = opts.level.dchi2(1);
+    let baseline = regions::interval_from_slice(fine, &s.slice.chi2_fine, dchi2)?;
+    let end_shift = |a: Option<f64>, b: Option<f64>| match (a, b) {
+        (Some(a), Some(b)) => (a - b).abs(),
+        (None, None) => 0.0,
+        _ => f64::INFINITY,
+    };
+    let mut out = Vec::new();
+    for u in conf.uses.iter().filter(|u| u.radius_term) {
+        let o = &objects[u.index];
+        let queries: Vec<(f64, f64)> = engine::radius_mass_nodes(o)
+            .into_iter()
+            .map(|(m, _)| (m, u.mu_e))
+            .collect();
+        let contrib: Vec<f64> = coarse
+            .iter()
+            .map(|&i| {
+                let radii = surface.wd_radii_rsun(j0 * nu + i, &queries);
+                -2.0 * engine::ln_radius_likelihood(o, &radii, eopts)
+            })
+            .collect();
+        let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+            - contrib.iter().copied().fold(f64::INFINITY, f64::min);
+        if spread <= opts.candidate_min_minus_two_ln_p {
+            continue; // a constant offset cannot move a Δχ² crossing
+        }
+        let without: Vec<f64> = fine
+            .iter()
+            .zip(&s.slice.chi2_fine)
+            .map(|(&x, &c)| {
+                let k = xs.partition_point(|&v| v <= x).clamp(1, xs.len() - 1);
+                let t = (x - xs[k - 1]) / (xs[k] - xs[k - 1]);
+                c - (contrib[k - 1] + t * (contrib[k] - contrib[k - 1]))
+            })
+            .collect();
+        let iv = regions::interval_from_slice(fine, &without, dchi2)?;
+        let shift = end_shift(iv.lower, baseline.lower).max(end_shift(iv.upper, baseline.upper));
+        if shift > 0.0 {
+            out.push((u.index, shift));
+        }
+    }
+    Ok(out)
+}
+
 fn level_key(l: Level) -> &'static str {
     l.key()
 }
@@ -470,6 +539,18 @@ pub fn run_confrontation(
         for d in report.drivers {
             driver_rows.push((per_class[d.class].1[d.index], d.shift));
         }
+        // White dwarfs feed the radius term too, which the mass-class analysis above does not
+        // see: remove each one's radius contribution along the slice the same way (exact, since
+        // the likelihood is a sum) and merge the two lists.
+        let opts = DriverOptions::default();
+        for (k, shift) in radius_drivers(&conf, &surface, s, &vetted.objects, &eopts, &opts)? {
+            match driver_rows.iter_mut().find(|(j, _)| *j == k) {
+                Some(row) => row.1 = row.1.max(shift),
+                None => driver_rows.push((k, shift)),
+            }
+        }
+        driver_rows.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+        driver_rows.truncate(opts.top);
     }
 
     // 5. Per-object tensions at standard gravity and at the best fit.
@@ -1008,6 +1089,37 @@ impl OutputContext<'_> {
             "crowding_warning": self.crowding_warn,
         })
     }
+}
+
+/// Tension of each object with standard gravity (Υ = τ = 0) under the default model (anchored
+/// MMHB with its floor, Newtonian Chandrasekhar mass with its floor): (object index, σ) for
+/// objects above `threshold_sigma`, largest first. Used by `vet` to flag objects before any
+/// grid is computed; the age rule is not applied here (every object is flagged on its mass).
+pub fn standard_gravity_tensions(
+    objects: &[CatalogueObject],
+    threshold_sigma: f64,
+) -> Result<Vec<(usize, f64)>, PipelineError> {
+    let theory = TheorySettings::default();
+    let p = standard_point(&theory).map_err(|e| PipelineError::Settings(e.to_string()))?;
+    let mut eopts = EngineOptions::default();
+    if let Some(m) = p.mmhb.ok() {
+        eopts.mmhb_floor_msun = m.floor_msun;
+    }
+    if let Some(c) = p.chandrasekhar.ok() {
+        eopts.chandrasekhar_floor_msun = c.floor_msun;
+    }
+    eopts.include_young = true;
+    let uses = engine::plan(objects, &eopts);
+    let mut out: Vec<(usize, f64)> = uses
+        .iter()
+        .filter_map(|u| {
+            let term = u.mass_term?;
+            let z = engine::tension_of(u, class_bound(term, &p)?, &eopts)?;
+            (z.is_finite() && z > threshold_sigma).then_some((u.index, z))
+        })
+        .collect();
+    out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    Ok(out)
 }
 
 /// Accepts `None` for an empty map option so both callers share one parser.
