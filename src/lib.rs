@@ -11,6 +11,8 @@
 //! * [`confront`] confronts every object with every grid point (likelihoods, allowed regions,
 //!   tensions, drivers);
 //! * [`report`] writes tables, maps and the human-readable report; it computes no physics;
+//! * [`pipeline`] wires the stages together for `confront`, the nightly `run` (config, theory
+//!   cache, run history, lock, shards) and `merge`;
 //! * [`cli`] is the thin command-line shell on top.
 //!
 //! [`constants`] holds every physical constant with its standard; [`output`] writes files
