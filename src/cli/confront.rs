@@ -87,6 +87,25 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
     println!("wrote {}/report.html and the other outputs", out.display());
 }
 
+/// Parses a mass window `LO:HI` in M☉.
+pub(super) fn parse_window(text: &str) -> Result<(f64, f64), CliError> {
+    let bad = || {
+        CliError::usage(format!(
+            "--population-window `{text}` is not LO:HI in Msun with 0 < LO < HI (e.g. 0.04:0.11)"
+        ))
+    };
+    let (a, b) = text.split_once(':').ok_or_else(bad)?;
+    let (lo, hi): (f64, f64) = (
+        a.trim().parse().map_err(|_| bad())?,
+        b.trim().parse().map_err(|_| bad())?,
+    );
+    if lo.is_finite() && hi.is_finite() && 0.0 < lo && lo < hi {
+        Ok((lo, hi))
+    } else {
+        Err(bad())
+    }
+}
+
 /// Runs `confront`.
 pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
     let format = parse_format(args.read.format.as_deref())?;
@@ -103,6 +122,9 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
         ..StatisticsSettings::default()
     };
     statistics.engine.include_young = args.include_young;
+    if let Some(w) = &args.population_window {
+        statistics.engine.population_window_msun = Some(parse_window(w)?);
+    }
     let settings = ConfrontSettings {
         catalogues: args
             .catalogs

@@ -169,6 +169,10 @@ pub struct ConfrontArgs {
     /// Keep objects younger than the age limit (1 Gyr) in the MMHB test.
     #[arg(long)]
     pub include_young: bool,
+    /// Population-aware likelihood (theory/bounds.md §8.7) with this mass window around the
+    /// MMHB, `LO:HI` in M☉ (e.g. 0.04:0.11); for catalogues crowded near the limit.
+    #[arg(long, value_name = "LO:HI")]
+    pub population_window: Option<String>,
 }
 
 /// Arguments of `run`.

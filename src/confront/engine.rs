@@ -33,6 +33,7 @@ use rayon::prelude::*;
 
 use super::prob::{ln_prob_consistent, tension_sigma, MassKind, Measurement, Side, StatsError};
 use super::reduce::{ClassCurve, ReduceOptions};
+use super::regions::PopulationTerm;
 use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
 
 /// The bounds over the grid, as the comparator needs them. Index `i` runs over grid points in
@@ -71,6 +72,11 @@ pub struct EngineOptions {
     pub default_mu_e: f64,
     /// Tabulation of the class curves.
     pub reduce: ReduceOptions,
+    /// Population-aware option of `bounds.md` §8.7: a mass window [lo, hi] (M☉) around the MMHB
+    /// in which the stars' and brown dwarfs' true masses are taken as flat on either side of
+    /// the bound; adds −n_star ln(hi − B) − n_bd ln(B − lo) to ln L. `None` (default) keeps the
+    /// plain product of consistency probabilities.
+    pub population_window_msun: Option<(f64, f64)>,
 }
 
 impl Default for EngineOptions {
@@ -84,6 +90,7 @@ impl Default for EngineOptions {
             exclude_age_unknown: false,
             default_mu_e: 2.0,
             reduce: ReduceOptions::default(),
+            population_window_msun: None,
         }
     }
 }
@@ -159,6 +166,8 @@ pub struct Confrontation {
     pub uses: Vec<ObjectUse>,
     /// The class curves of the mass terms (for errors, counts and per-object evaluation).
     pub curves: Vec<(Term, ClassCurve)>,
+    /// The population-aware term, when asked for.
+    pub population: Option<PopulationTerm>,
 }
 
 /// Maps a catalogue object to the statistics' measurement for its class.
@@ -298,6 +307,28 @@ pub fn confront(
         curves.push((term, ClassCurve::build(&ms, floor, range, &opts.reduce)?));
     }
 
+    let population = match opts.population_window_msun {
+        Some(window) => {
+            let pick = |t: Term| -> Vec<Measurement> {
+                uses.iter()
+                    .filter(|u| u.mass_term == Some(t))
+                    .map(|u| u.measurement)
+                    .collect()
+            };
+            let term = PopulationTerm::new(window, &pick(Term::HBurning), &pick(Term::BrownDwarf))?;
+            let finite: Vec<f64> = mmhb.iter().flatten().copied().collect();
+            if let Some((lo, hi)) = super::reduce::bound_range(&finite) {
+                if !term.covers(lo, hi) {
+                    return Err(EngineError::Grid(format!(
+                        "the population window [{}, {}] M☉ must contain every MMHB of the grid ([{lo:.4}, {hi:.4}] M☉)",
+                        window.0, window.1
+                    )));
+                }
+            }
+            Some(term)
+        }
+        None => None,
+    };
     let mut per_term: [Vec<Option<f64>>; 4] = Default::default();
     for t in Term::ALL {
         per_term[t.index()] = vec![Some(0.0); n];
@@ -312,6 +343,15 @@ pub fn confront(
             .iter()
             .map(|b| b.map(|b| -2.0 * curve.eval(b)))
             .collect();
+    }
+    if let Some(pop) = &population {
+        // The population term belongs to the hydrogen-burning/brown-dwarf boundary; it is
+        // carried in the `hburning` term so that the per-class maps still add up to the joint.
+        for (i, b) in mmhb.iter().enumerate() {
+            if let (Some(b), Some(v)) = (b, per_term[Term::HBurning.index()][i].as_mut()) {
+                *v += -2.0 * pop.ln_term(*b);
+            }
+        }
     }
     let radius_objects: Vec<(usize, f64)> = uses
         .iter()
@@ -372,6 +412,7 @@ pub fn confront(
         joint,
         uses,
         curves,
+        population,
     })
 }
 

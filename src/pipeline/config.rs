@@ -148,6 +148,8 @@ pub struct StatisticsConfig {
     pub floor: String,
     /// Add the population-aware term of bounds.md §8.7.
     pub population_aware: bool,
+    /// Its mass window [lo, hi] around the MMHB, M☉ (must contain every MMHB of the grid).
+    pub population_window_msun: [f64; 2],
 }
 
 impl Default for StatisticsConfig {
@@ -159,6 +161,7 @@ impl Default for StatisticsConfig {
             exclude_age_unknown: false,
             floor: "per-object".into(),
             population_aware: false,
+            population_window_msun: [0.04, 0.11],
         }
     }
 }

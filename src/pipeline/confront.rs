@@ -324,6 +324,14 @@ fn tau0_slice(
         for ((_, curve), (_, spline)) in conf.curves.iter().zip(&splines) {
             s += -2.0 * curve.eval(spline.eval(u));
         }
+        if let Some(pop) = &conf.population {
+            let mmhb_spline = splines
+                .iter()
+                .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf));
+            if let Some((_, sp)) = mmhb_spline {
+                s += -2.0 * pop.ln_term(sp.eval(u));
+            }
+        }
         // The radius term depends on each object's own mass: interpolate it linearly along Υ.
         let k = axis.partition_point(|&x| x <= u).clamp(1, axis.len() - 1);
         let t = (u - axis[k - 1]) / (axis[k] - axis[k - 1]);
@@ -1063,6 +1071,7 @@ impl OutputContext<'_> {
                 "chandrasekhar_floor_msun": self.eopts.chandrasekhar_floor_msun,
                 "wd_radius_floor_fraction": self.eopts.wd_radius_floor_fraction,
                 "theory_floor": "per-object",
+                "population_window_msun": self.eopts.population_window_msun.map(|(a, b)| vec![a, b]),
                 "age_min_mmhb_gyr": self.eopts.age_min_mmhb_gyr,
                 "include_young": self.eopts.include_young,
             },

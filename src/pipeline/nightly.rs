@@ -176,12 +176,6 @@ pub fn settings_from_config(
             ),
         ));
     }
-    if st.population_aware {
-        return Err(bad(
-            "statistics.population_aware",
-            "not available in this version of the pipeline".into(),
-        ));
-    }
     if !(st.tension_sigma.is_finite() && st.tension_sigma > 0.0) {
         return Err(bad(
             "statistics.tension_sigma",
@@ -195,6 +189,16 @@ pub fn settings_from_config(
     statistics.engine.age_min_mmhb_gyr = st.age_min_mmhb_gyr;
     statistics.engine.include_young = st.include_young;
     statistics.engine.exclude_age_unknown = st.exclude_age_unknown;
+    if st.population_aware {
+        let [lo, hi] = st.population_window_msun;
+        if !(lo.is_finite() && hi.is_finite() && 0.0 < lo && lo < hi) {
+            return Err(bad(
+                "statistics.population_window_msun",
+                format!("[{lo}, {hi}] is not an ordered pair of positive masses"),
+            ));
+        }
+        statistics.engine.population_window_msun = Some((lo, hi));
+    }
     Ok(ConfrontSettings {
         catalogues,
         upsilon: axis(cfg_path, "upsilon", &cfg.grid.upsilon)?,

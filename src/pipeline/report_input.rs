@@ -267,7 +267,13 @@ pub(crate) fn write_report_files(
                 "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)); Newtonian order, zero temperature, no Coulomb or envelope corrections; radii from the full-EOS R(M) tabulated per grid point",
                 t.chandrasekhar_mode.name()
             ),
-            likelihood: "product over objects of the probability of lying on the allowed side of the class bound (exact split-normal with the theory floor, bounds.md §8.1), evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's mass".into(),
+            likelihood: format!(
+                "product over objects of the probability of lying on the allowed side of the class bound (exact split-normal with the theory floor, bounds.md §8.1), evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's mass{}",
+                match ctx.eopts.population_window_msun {
+                    Some((lo, hi)) => format!("; population-aware term of bounds.md §8.7 with the mass window [{lo}, {hi}] M☉ (flat true-mass densities on either side of the MMHB, profiled)"),
+                    None => String::new(),
+                }
+            ),
             extra: vec![(
                 "Sensitivity".into(),
                 "In this framework the MMHB moves by well under 1 % for |Υ| ≤ 0.1 but by about 10 % per 0.1 in τ: the hydrogen-burning and brown-dwarf tests constrain τ; the white-dwarf tests carry most of the information on Υ.".into(),
