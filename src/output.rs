@@ -43,18 +43,34 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), OutputError> {
         _ => PathBuf::from("."),
     };
     std::fs::create_dir_all(&dir).map_err(|e| OutputError::new(&dir, e))?;
-    let mut tmp = tempfile::Builder::new()
-        .prefix(".dwarfbound-")
-        .suffix(".tmp")
-        .tempfile_in(&dir)
-        .map_err(|e| OutputError::new(&dir, e))?;
-    tmp.write_all(bytes)
-        .map_err(|e| OutputError::new(path, e))?;
-    tmp.as_file()
-        .sync_all()
-        .map_err(|e| OutputError::new(path, e))?;
-    tmp.persist(path)
-        .map_err(|e| OutputError::new(path, e.error))?;
+    // A temporary name of our own in the same folder (so the rename is atomic), created with
+    // the default permissions: the user's umask applies, as for any other file they write.
+    static COUNTER: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| "output".into());
+    let (mut file, tmp) = loop {
+        let n = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        let tmp = dir.join(format!(".{name}.{}.{n}.tmp", std::process::id()));
+        match std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&tmp)
+        {
+            Ok(f) => break (f, tmp),
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
+            Err(e) => return Err(OutputError::new(&dir, e)),
+        }
+    };
+    let written = file
+        .write_all(bytes)
+        .and_then(|_| file.sync_all())
+        .and_then(|_| std::fs::rename(&tmp, path));
+    if let Err(e) = written {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(OutputError::new(path, e));
+    }
     Ok(())
 }
 
@@ -62,7 +78,8 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), OutputError> {
 /// string for a missing value. NaN and infinities never reach an output file.
 pub fn fmt_f64(x: Option<f64>) -> String {
     match x {
-        Some(v) if v.is_finite() => format!("{v}"),
+        // −0 prints as 0: the sign of a zero carries no information in a table.
+        Some(v) if v.is_finite() => format!("{}", if v == 0.0 { 0.0 } else { v }),
         _ => String::new(),
     }
 }

@@ -150,25 +150,33 @@ fn a_locked_output_folder_is_refused_with_exit_2() {
     );
 }
 
+fn shards(dir: &Path, cfg: &str, n: usize) -> Vec<String> {
+    (1..=n)
+        .map(|i| {
+            let o = run(&["run", cfg, "--shard", &format!("{i}/{n}")], dir);
+            assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+            dir.join(format!("out/shards/{i}-of-{n}"))
+                .display()
+                .to_string()
+        })
+        .collect()
+}
+
 #[test]
 fn four_shards_merged_equal_the_single_run_byte_for_byte() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
     let cfg_s = cfg.to_str().unwrap();
     assert_eq!(run(&["run", cfg_s], dir.path()).status.code(), Some(0));
-    let mut shard_dirs = Vec::new();
-    for i in 1..=4 {
-        let o = run(&["run", cfg_s, "--shard", &format!("{i}/4")], dir.path());
-        assert_eq!(o.status.code(), Some(0), "{}", text(&o));
-        shard_dirs.push(dir.path().join(format!("out/shards/{i}-of-4")));
-    }
     let merged = dir.path().join("merged");
     let mut args = vec!["merge".to_string()];
-    args.extend(shard_dirs.iter().map(|d| d.display().to_string()));
+    args.extend(shards(dir.path(), cfg_s, 4));
     args.extend(["--out".to_string(), merged.display().to_string()]);
     let args: Vec<&str> = args.iter().map(String::as_str).collect();
     let o = run(&args, dir.path());
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    // An unsharded run now compares with the same previous run as the merge did.
+    assert_eq!(run(&["run", cfg_s], dir.path()).status.code(), Some(0));
     let latest = dir.path().join("out/latest");
     for f in ["grid.csv", "summary.json", "objects.csv"] {
         assert!(
@@ -176,6 +184,30 @@ fn four_shards_merged_equal_the_single_run_byte_for_byte() {
             "{f} differs between the merged shards and the single run"
         );
     }
+}
+
+#[test]
+fn merged_shards_are_published_as_the_next_run_with_its_alarm() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = config(dir.path(), false, "");
+    assert_eq!(
+        run(&["run", cfg.to_str().unwrap()], dir.path())
+            .status
+            .code(),
+        Some(0)
+    );
+    let before = std::fs::read_link(dir.path().join("out/latest")).unwrap();
+    let next = config(dir.path(), true, "");
+    let mut args = vec!["merge".to_string()];
+    args.extend(shards(dir.path(), next.to_str().unwrap(), 3));
+    let args: Vec<&str> = args.iter().map(String::as_str).collect();
+    let o = run(&args, dir.path());
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o));
+    assert!(text(&o).contains("HFC-V0302"), "{}", text(&o));
+    assert_ne!(
+        std::fs::read_link(dir.path().join("out/latest")).unwrap(),
+        before
+    );
 }
 
 #[test]

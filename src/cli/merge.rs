@@ -5,7 +5,6 @@ use crate::pipeline::nightly::merge_shards;
 
 /// Runs `merge`.
 pub fn run(args: MergeArgs) -> Result<Exit, CliError> {
-    let outcome = merge_shards(&args.dirs, &args.out)?;
-    super::confront::print_outcome(&outcome, &args.out);
-    Ok(Exit::Ok)
+    let report = merge_shards(&args.dirs, args.out.as_deref())?;
+    super::run::finish(&report)
 }

@@ -195,9 +195,10 @@ pub struct MergeArgs {
     /// Shard output folders.
     #[arg(required = true, value_name = "DIR")]
     pub dirs: Vec<PathBuf>,
-    /// Output folder for the merged result.
-    #[arg(long, default_value = "reports/latest")]
-    pub out: PathBuf,
+    /// Write the merged result here instead of publishing it as the config's next run
+    /// (a new run folder, compared with the previous run, `latest` switched to it).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
 }
 
 /// Parses `start:stop:count` (inclusive ends) or a single value.

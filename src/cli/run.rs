@@ -26,6 +26,12 @@ pub fn run(args: RunArgs) -> Result<Exit, CliError> {
             wait: args.wait,
         },
     )?;
+    finish(&report)
+}
+
+/// Prints a nightly report and chooses the exit code (3 when an alarm fired); shared by `run`
+/// and `merge`.
+pub(super) fn finish(report: &crate::pipeline::nightly::NightlyReport) -> Result<Exit, CliError> {
     if let Some(pid) = report.took_over_lock_from {
         eprintln!(
             "dwarfbound: note: took over the stale lock of a run that no longer exists (pid {pid})"

@@ -496,7 +496,43 @@ pub fn ln_p_object(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -
     Some(ln_prob_consistent(&u.measurement, class_bound_msun, floor))
 }
 
-/// Tension in σ of one object against its class bound (see [`ln_p_object`]).
+/// Tension in σ of one object against its class bound (see [`ln_p_object`]): z = −Φ⁻¹(P),
+/// positive on the wrong side. For P > ½ it is computed from 1 − P (the probability of the
+/// opposite side), so that objects far on the safe side keep a finite, exact z instead of
+/// rounding P to 1. `None` for an object without a mass test or an uninformative limit.
 pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
-    ln_p_object(u, class_bound_msun, opts).map(tension_sigma)
+    let ln_p = ln_p_object(u, class_bound_msun, opts)?;
+    if !u.measurement.informative() {
+        return None;
+    }
+    if ln_p <= -std::f64::consts::LN_2 {
+        return Some(tension_sigma(ln_p));
+    }
+    let m = &u.measurement;
+    let floor = match u.mass_term? {
+        Term::WhiteDwarfMass => opts.chandrasekhar_floor_msun,
+        _ => opts.mmhb_floor_msun,
+    };
+    match m.kind {
+        MassKind::Measured { .. } => {
+            let mut flipped = u.clone();
+            flipped.measurement.side = match m.side {
+                Side::AtLeast => Side::AtMost,
+                Side::AtMost => Side::AtLeast,
+            };
+            let ln_q = ln_p_object(&flipped, class_bound_msun, opts)?;
+            Some(super::prob::normal_quantile_from_ln(ln_q))
+        }
+        MassKind::UpperLimit { sigma } | MassKind::LowerLimit { sigma } => {
+            // P = Φ(d/s) with d the distance on the allowed side: z = −d/s exactly.
+            let b = m.scale * class_bound_msun;
+            let th = super::prob::effective_floor_msun(b, m.scale * floor).0;
+            let s = sigma.unwrap_or(0.0).hypot(th);
+            let d = match m.side {
+                Side::AtLeast => m.mass_msun - b,
+                Side::AtMost => b - m.mass_msun,
+            };
+            Some(-d / s)
+        }
+    }
 }

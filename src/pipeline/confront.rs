@@ -20,8 +20,8 @@ use crate::confront::engine::{self, BoundSurface, Confrontation, EngineOptions, 
 use crate::confront::prob::{Measurement, StatsError};
 use crate::confront::reduce::{CubicSpline, SplineEnd};
 use crate::confront::regions::{
-    self, absolute_consistency, crowding, map_regions, upsilon_slice, CrowdingOptions, Level,
-    MapRegions, UpsilonSlice,
+    self, absolute_consistency, crowding, map_regions, CrowdingOptions, Level, MapRegions,
+    UpsilonSlice,
 };
 use crate::output::{write_atomic, OutputError};
 use crate::pipeline::cache::{sha256_hex, Cache, Lookup};
@@ -221,6 +221,68 @@ impl BoundSurface for GridSurface<'_> {
     }
 }
 
+/// Which test an object is in tension with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TensionTest {
+    /// Its class's mass bound (one-sided).
+    MassBound,
+    /// The white-dwarf mass–radius relation (two-sided).
+    MassRadius,
+}
+
+impl TensionTest {
+    /// Name in outputs.
+    pub fn name(self) -> &'static str {
+        match self {
+            TensionTest::MassBound => "mass_bound",
+            TensionTest::MassRadius => "mass_radius",
+        }
+    }
+}
+
+/// An object in tension with standard gravity.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Tension {
+    /// Index of the object.
+    pub object: usize,
+    /// Tension in σ (signed for the radius test: positive = larger than predicted).
+    pub sigma: f64,
+    /// Which test.
+    pub test: TensionTest,
+}
+
+/// Two-sided tension of a white dwarf's radius with the standard-gravity mass–radius relation:
+/// z = (R_obs − R(m)) / √(σ_R² + (f R)² + (dR/dM σ_M)²), the mass error propagated through the
+/// local slope (first order; the fit itself marginalises over the mass exactly).
+fn radius_tension(
+    table: &crate::theory::white_dwarf::WdMassRadius,
+    o: &CatalogueObject,
+    r_obs: f64,
+    r_err: f64,
+    mu_e: f64,
+    eopts: &EngineOptions,
+) -> Option<f64> {
+    let m = o.mass_msun;
+    let rp = table.radius_rsun(m, mu_e).ok()?;
+    let sigma_m = match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+        (Some(a), Some(b)) => 0.5 * (a + b),
+        (Some(a), None) | (None, Some(a)) => a,
+        (None, None) => 0.0,
+    };
+    let h = 1e-4 * m;
+    let slope = match (
+        table.radius_rsun(m + h, mu_e),
+        table.radius_rsun(m - h, mu_e),
+    ) {
+        (Ok(a), Ok(b)) => (a - b) / (2.0 * h),
+        (Err(_), Ok(b)) => (rp - b) / h,
+        _ => 0.0,
+    };
+    let s2 =
+        r_err * r_err + (eopts.wd_radius_floor_fraction * rp).powi(2) + (slope * sigma_m).powi(2);
+    Some((r_obs - rp) / s2.sqrt())
+}
+
 /// Per-object results at the two reference points.
 #[derive(Debug, Clone)]
 struct ObjectRow {
@@ -270,11 +332,15 @@ pub(crate) struct SliceResult {
     pub(crate) slice: UpsilonSlice,
     /// Per mass term: bound along the fine axis.
     bounds_fine: Vec<(Term, Vec<f64>)>,
+    /// Per white dwarf with a radius: its −2 ln L along the fine axis.
+    radius_fine: Vec<(usize, Vec<f64>)>,
 }
 
 fn tau0_slice(
     conf: &Confrontation,
     surface: &GridSurface<'_>,
+    objects: &[CatalogueObject],
+    eopts: &EngineOptions,
 ) -> Result<Option<SliceResult>, PipelineError> {
     let nu = conf.n_upsilon;
     let Some(j0) = surface.tau.iter().position(|&t| t == 0.0) else {
@@ -316,60 +382,117 @@ fn tau0_slice(
             .collect();
         splines.push((*term, CubicSpline::new(&axis, &ys, SplineEnd::NotAKnot)?));
     }
-    let radius_row: Vec<f64> = (a..b)
-        .map(|i| conf.per_term[3][idx(i)].unwrap_or(0.0))
-        .collect();
-    let chi2_at = |u: f64| -> f64 {
-        let mut s = 0.0;
-        for ((_, curve), (_, spline)) in conf.curves.iter().zip(&splines) {
-            s += -2.0 * curve.eval(spline.eval(u));
-        }
-        if let Some(pop) = &conf.population {
-            let mmhb_spline = splines
-                .iter()
-                .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf));
-            if let Some((_, sp)) = mmhb_spline {
-                s += -2.0 * pop.ln_term(sp.eval(u));
+    let fine = regions::refine_axis(&axis, SLICE_REFINE)?;
+    let radius_fine =
+        radius_terms_on_fine_axis(conf, surface, objects, eopts, &axis, a, j0, &fine)?;
+    let chi2_fine: Vec<f64> = fine
+        .iter()
+        .enumerate()
+        .map(|(k, &u)| {
+            let mut s = 0.0;
+            for ((_, curve), (_, spline)) in conf.curves.iter().zip(&splines) {
+                s += -2.0 * curve.eval(spline.eval(u));
             }
-        }
-        // The radius term depends on each object's own mass: interpolate it linearly along Υ.
-        let k = axis.partition_point(|&x| x <= u).clamp(1, axis.len() - 1);
-        let t = (u - axis[k - 1]) / (axis[k] - axis[k - 1]);
-        s + radius_row[k - 1] + t * (radius_row[k] - radius_row[k - 1])
-    };
-    let slice = upsilon_slice(&axis, 10, chi2_at)?;
+            if let Some(pop) = &conf.population {
+                let mmhb_spline = splines
+                    .iter()
+                    .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf));
+                if let Some((_, sp)) = mmhb_spline {
+                    s += -2.0 * pop.ln_term(sp.eval(u));
+                }
+            }
+            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
+        })
+        .collect();
+    let slice = regions::slice_from_values(fine, chi2_fine)?;
     let bounds_fine = splines
         .iter()
         .map(|(t, s)| (*t, slice.upsilon_fine.iter().map(|&u| s.eval(u)).collect()))
         .collect();
-    Ok(Some(SliceResult { slice, bounds_fine }))
+    Ok(Some(SliceResult {
+        slice,
+        bounds_fine,
+        radius_fine,
+    }))
+}
+
+/// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis
+/// (`bounds.md` §8.4).
+const SLICE_REFINE: usize = 10;
+
+/// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values).
+///
+/// The term is sharply curved in Υ (radii are measured to a few per cent), so interpolating it
+/// between coarse grid points would overstate Δχ² between them and make the interval depend on
+/// the grid spacing. The predicted radius R(M; Υ) is smooth in Υ, so it is interpolated instead
+/// (not-a-knot cubic along the coarse axis, per quadrature mass node) and the likelihood is
+/// evaluated exactly at every fine point. Where a node's radius is missing at a coarse point
+/// (mass above the maximum), the neighbouring interval falls back to linear interpolation or
+/// to "no model".
+#[allow(clippy::too_many_arguments)]
+fn radius_terms_on_fine_axis(
+    conf: &Confrontation,
+    surface: &GridSurface<'_>,
+    objects: &[CatalogueObject],
+    eopts: &EngineOptions,
+    axis: &[f64],
+    first: usize,
+    j0: usize,
+    fine: &[f64],
+) -> Result<Vec<(usize, Vec<f64>)>, PipelineError> {
+    let nu = conf.n_upsilon;
+    let mut out = Vec::new();
+    for u in conf.uses.iter().filter(|u| u.radius_term) {
+        let o = &objects[u.index];
+        let queries: Vec<(f64, f64)> = engine::radius_mass_nodes(o)
+            .into_iter()
+            .map(|(m, _)| (m, u.mu_e))
+            .collect();
+        // coarse[i][q]: radius of node q at coarse point i.
+        let coarse: Vec<Vec<Option<f64>>> = (0..axis.len())
+            .map(|i| surface.wd_radii_rsun(j0 * nu + first + i, &queries))
+            .collect();
+        let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
+        for q in 0..queries.len() {
+            let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
+            let spline = if ys.iter().all(Option::is_some) {
+                let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
+                Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
+            } else {
+                None
+            };
+            for (k, &x) in fine.iter().enumerate() {
+                fine_radii[k][q] = match &spline {
+                    Some(sp) => Some(sp.eval(x)),
+                    None => {
+                        let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
+                        let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
+                        match (ys[j - 1], ys[j]) {
+                            (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
+                            _ => None,
+                        }
+                    }
+                };
+            }
+        }
+        let values: Vec<f64> = fine_radii
+            .iter()
+            .map(|r| -2.0 * engine::ln_radius_likelihood(o, r, eopts))
+            .collect();
+        out.push((u.index, values));
+    }
+    Ok(out)
 }
 
 /// Leave-one-out shifts of the 95.45 % Υ interval at τ = 0 from removing each white dwarf's
 /// radius term (bounds.md §8.6 applied to the mass–radius test): (object index, shift), shift
-/// +∞ when an end opens or closes. Its −2 ln L along the slice is evaluated on the coarse τ = 0
-/// row and interpolated linearly onto the fine axis, as the slice itself does.
+/// +∞ when an end opens or closes. Exact, since the likelihood is a sum: the slice without the
+/// object is the slice minus its own term on the fine axis.
 fn radius_drivers(
-    conf: &Confrontation,
-    surface: &GridSurface<'_>,
     s: &SliceResult,
-    objects: &[CatalogueObject],
-    eopts: &EngineOptions,
     opts: &DriverOptions,
 ) -> Result<Vec<(usize, f64)>, PipelineError> {
-    let nu = conf.n_upsilon;
-    let Some(j0) = surface.tau.iter().position(|&t| t == 0.0) else {
-        return Ok(Vec::new());
-    };
     let fine = &s.slice.upsilon_fine;
-    let (lo, hi) = (fine[0], fine[fine.len() - 1]);
-    let coarse: Vec<usize> = (0..nu)
-        .filter(|&i| surface.upsilon[i] >= lo && surface.upsilon[i] <= hi)
-        .collect();
-    if coarse.len() < 2 {
-        return Ok(Vec::new());
-    }
-    let xs: Vec<f64> = coarse.iter().map(|&i| surface.upsilon[i]).collect();
     let dchi2 = opts.level.dchi2(1);
     let baseline = regions::interval_from_slice(fine, &s.slice.chi2_fine, dchi2)?;
     let end_shift = |a: Option<f64>, b: Option<f64>| match (a, b) {
@@ -378,37 +501,23 @@ fn radius_drivers(
         _ => f64::INFINITY,
     };
     let mut out = Vec::new();
-    for u in conf.uses.iter().filter(|u| u.radius_term) {
-        let o = &objects[u.index];
-        let queries: Vec<(f64, f64)> = engine::radius_mass_nodes(o)
-            .into_iter()
-            .map(|(m, _)| (m, u.mu_e))
-            .collect();
-        let contrib: Vec<f64> = coarse
-            .iter()
-            .map(|&i| {
-                let radii = surface.wd_radii_rsun(j0 * nu + i, &queries);
-                -2.0 * engine::ln_radius_likelihood(o, &radii, eopts)
-            })
-            .collect();
+    for (k, contrib) in &s.radius_fine {
         let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
             - contrib.iter().copied().fold(f64::INFINITY, f64::min);
         if spread <= opts.candidate_min_minus_two_ln_p {
             continue; // a constant offset cannot move a Δχ² crossing
         }
-        let without: Vec<f64> = fine
+        let without: Vec<f64> = s
+            .slice
+            .chi2_fine
             .iter()
-            .zip(&s.slice.chi2_fine)
-            .map(|(&x, &c)| {
-                let k = xs.partition_point(|&v| v <= x).clamp(1, xs.len() - 1);
-                let t = (x - xs[k - 1]) / (xs[k] - xs[k - 1]);
-                c - (contrib[k - 1] + t * (contrib[k] - contrib[k - 1]))
-            })
+            .zip(contrib)
+            .map(|(c, r)| c - r)
             .collect();
         let iv = regions::interval_from_slice(fine, &without, dchi2)?;
         let shift = end_shift(iv.lower, baseline.lower).max(end_shift(iv.upper, baseline.upper));
         if shift > 0.0 {
-            out.push((u.index, shift));
+            out.push((*k, shift));
         }
     }
     Ok(out)
@@ -509,7 +618,7 @@ pub fn run_confrontation(
     let best_point = grid
         .point(best_index)
         .ok_or_else(|| PipelineError::Internal("best point outside the grid".into()))?;
-    let slice = tau0_slice(&conf, &surface)?;
+    let slice = tau0_slice(&conf, &surface, &vetted.objects, &eopts)?;
 
     // 4. Drivers on the τ = 0 slice.
     let mut driver_rows: Vec<(usize, f64)> = Vec::new(); // (object index, shift)
@@ -551,7 +660,7 @@ pub fn run_confrontation(
         // see: remove each one's radius contribution along the slice the same way (exact, since
         // the likelihood is a sum) and merge the two lists.
         let opts = DriverOptions::default();
-        for (k, shift) in radius_drivers(&conf, &surface, s, &vetted.objects, &eopts, &opts)? {
+        for (k, shift) in radius_drivers(s, &opts)? {
             match driver_rows.iter_mut().find(|(j, _)| *j == k) {
                 Some(row) => row.1 = row.1.max(shift),
                 None => driver_rows.push((k, shift)),
@@ -585,10 +694,7 @@ pub fn run_confrontation(
                 .white_dwarf
                 .as_ref()
                 .and_then(|t| t.ok())
-                .and_then(|t| t.radius_rsun(o.mass_msun, u.mu_e).ok())
-                .map(|rp| {
-                    (r - rp) / (e * e + (eopts.wd_radius_floor_fraction * rp).powi(2)).sqrt()
-                }),
+                .and_then(|t| radius_tension(t, o, r, e, u.mu_e, &eopts)),
             _ => None,
         };
         rows.push(ObjectRow {
@@ -611,17 +717,49 @@ pub fn run_confrontation(
         rows[*k].driver_shift = Some(*shift);
     }
     let thr = settings.statistics.tension_sigma;
-    let mut tensions: Vec<(usize, f64)> = rows
-        .iter()
-        .enumerate()
-        .filter_map(|(k, r)| r.sigma_standard.filter(|&z| z > thr).map(|z| (k, z)))
-        .collect();
-    tensions.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    // Mass-bound tensions are one-sided (positive = wrong side of the bound); radius tensions
+    // are two-sided, listed by their absolute value.
+    let mut tensions: Vec<Tension> = Vec::new();
+    for (k, r) in rows.iter().enumerate() {
+        if let Some(z) = r.sigma_standard.filter(|&z| z > thr) {
+            tensions.push(Tension {
+                object: k,
+                sigma: z,
+                test: TensionTest::MassBound,
+            });
+        }
+        if let Some(z) = r.radius_sigma_standard.filter(|z| z.abs() > thr) {
+            tensions.push(Tension {
+                object: k,
+                sigma: z,
+                test: TensionTest::MassRadius,
+            });
+        }
+    }
+    tensions.sort_by(|a, b| {
+        b.sigma
+            .abs()
+            .total_cmp(&a.sigma.abs())
+            .then(a.object.cmp(&b.object))
+    });
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
+    // N_inf counts the informative objects the reduction did not skip (bounds.md §8.4–§8.5):
+    // objects that cannot constrain any grid point must not dilute the look-elsewhere factor.
+    let mut counted = std::collections::BTreeSet::new();
+    for (term, curve) in &conf.curves {
+        let members: Vec<usize> = conf
+            .uses
+            .iter()
+            .filter(|u| u.mass_term == Some(*term))
+            .map(|u| u.index)
+            .collect();
+        counted.extend(curve.informative_indices().iter().map(|&j| members[j]));
+    }
     let ln_ps: Vec<(usize, f64)> = rows
         .iter()
         .enumerate()
+        .filter(|(k, _)| counted.contains(k))
         .filter_map(|(k, r)| r.ln_p_best.map(|l| (k, l)))
         .collect();
     let consistency = absolute_consistency(&ln_ps, 5);
@@ -714,9 +852,13 @@ pub fn run_confrontation(
         consistent: consistency.consistent_cl95,
         tensions: tensions
             .iter()
-            .map(|&(k, z)| {
-                let o = &vetted.objects[k];
-                (o.id.clone(), o.class.label().to_string(), z)
+            .map(|t| {
+                let o = &vetted.objects[t.object];
+                let what = match t.test {
+                    TensionTest::MassBound => o.class.label().to_string(),
+                    TensionTest::MassRadius => format!("{} (radius)", o.class.label()),
+                };
+                (o.id.clone(), what, t.sigma)
             })
             .collect(),
         theory_from_cache: from_cache,
@@ -735,7 +877,7 @@ pub(crate) struct OutputContext<'a> {
     pub regions: &'a MapRegions,
     pub slice: Option<&'a SliceResult>,
     rows: &'a [ObjectRow],
-    pub tensions: &'a [(usize, f64)],
+    pub tensions: &'a [Tension],
     pub consistency: &'a regions::AbsoluteConsistency,
     pub crowding_warn: bool,
     pub crowd: Option<regions::Crowding>,
@@ -818,6 +960,7 @@ impl OutputContext<'_> {
             "radius_sigma_standard",
             "driver_rank",
             "driver_shift",
+            "driver_end_opens_or_closes",
         ];
         let rows: Vec<Vec<Cell>> = self
             .rows
@@ -840,14 +983,7 @@ impl OutputContext<'_> {
                     Cell::Float(o.age_gyr),
                     Cell::Float(Some(u.mu_e)),
                     Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
-                    Cell::Text(
-                        u.excluded
-                            .iter()
-                            .cloned()
-                            .chain(u.flags.iter().cloned())
-                            .collect::<Vec<_>>()
-                            .join("; "),
-                    ),
+                    Cell::Text(u.flags.join(";")),
                     Cell::Float(r.bound_standard),
                     Cell::Float(r.bound_best),
                     Cell::Float(r.sigma_standard),
@@ -857,10 +993,8 @@ impl OutputContext<'_> {
                         Some(x) => Cell::Int(x as i64),
                         None => Cell::Text(String::new()),
                     },
-                    match r.driver_shift {
-                        Some(s) if s.is_infinite() => Cell::Text("end opens or closes".into()),
-                        s => Cell::Float(s),
-                    },
+                    Cell::Float(r.driver_shift.filter(|s| s.is_finite())),
+                    Cell::Bool(r.driver_shift.map(|s| s.is_infinite())),
                 ]
             })
             .collect();
@@ -875,11 +1009,12 @@ impl OutputContext<'_> {
             "upsilon".into(),
             "tau".into(),
             "status".into(),
+            "reason".into(),
             "mmhb_msun".into(),
             "mmhb_raw_msun".into(),
             "chandrasekhar_msun".into(),
             "sc_fraction".into(),
-            "breakup_period_min".into(),
+            "breakup_period_minutes".into(),
         ];
         for t in Term::ALL {
             header.push(format!("minus_two_ln_l_{}", t.name()));
@@ -900,14 +1035,16 @@ impl OutputContext<'_> {
             for i in 0..nu {
                 let k = j * nu + i;
                 let p = self.grid.point(k);
-                let status = match p.and_then(|p| p.first_failure()) {
-                    Some(f) => format!("no model: {}", f.reason),
-                    None => "ok".into(),
+                let (status, reason) = match p.and_then(|p| p.first_failure()) {
+                    Some(f) if self.conf.joint[k].is_none() => ("no-model", f.reason.clone()),
+                    Some(f) => ("partial", f.reason.clone()),
+                    None => ("ok", String::new()),
                 };
                 let mut row = vec![
                     Cell::Float(Some(self.surface.upsilon[i])),
                     Cell::Float(Some(self.surface.tau[j])),
-                    Cell::Text(status),
+                    Cell::Text(status.into()),
+                    Cell::Text(reason),
                     Cell::Float(p.and_then(|p| p.mmhb.ok()).map(|m| m.value_msun)),
                     Cell::Float(p.and_then(|p| p.mmhb.ok()).map(|m| m.raw_msun)),
                     Cell::Float(p.and_then(|p| p.chandrasekhar.ok()).map(|c| c.value_msun)),
@@ -978,6 +1115,10 @@ impl OutputContext<'_> {
                 },
             );
         }
+        let interval_note = match self.slice {
+            Some(_) => Value::Null,
+            None => json!("not computed: the grid has no tau = 0 row with a model on at least two upsilon values"),
+        };
         let sg_index = self
             .surface
             .tau
@@ -1008,9 +1149,9 @@ impl OutputContext<'_> {
         let tensions: Vec<Value> = self
             .tensions
             .iter()
-            .map(|&(k, z)| {
-                let o = self.object(k);
-                json!({"id": o.id, "class": o.class.label(), "sigma": z, "source_file": o.source_file})
+            .map(|t| {
+                let o = self.object(t.object);
+                json!({"id": o.id, "class": o.class.label(), "sigma": t.sigma, "test": t.test.name(), "source_file": o.source_file})
             })
             .collect();
         let drivers: Vec<Value> = {
@@ -1084,6 +1225,7 @@ impl OutputContext<'_> {
             },
             "allowed": allowed,
             "upsilon_interval_at_tau0": interval,
+            "upsilon_interval_at_tau0_note": interval_note,
             "standard_gravity": standard,
             "consistency": {
                 "consistent_cl95": self.consistency.consistent_cl95,

@@ -320,6 +320,12 @@ pub fn difference(
 impl RunDifference {
     /// The difference in words, one line each (empty when nothing changed).
     pub fn lines(&self) -> Vec<String> {
+        if self.previous.is_none() {
+            return vec![
+                "This is the first run of this job: there is no previous run to compare with."
+                    .to_string(),
+            ];
+        }
         let mut out = Vec::new();
         let list = |v: &[String]| {
             const SHOWN: usize = 10;

@@ -16,6 +16,9 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
+/// How long a lock file without a readable pid is respected before it is taken for stale.
+const EMPTY_LOCK_GRACE: Duration = Duration::from_secs(10);
+
 /// File name of the lock inside the locked folder.
 pub const LOCK_FILE: &str = ".dwarfbound.lock";
 
@@ -85,7 +88,17 @@ impl FolderLock {
                 Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {
                     let text = std::fs::read_to_string(&path).unwrap_or_default();
                     let pid: u32 = text.trim().parse().unwrap_or(0);
-                    if pid != 0 && pid != std::process::id() && !process_alive(pid) {
+                    // A file without a pid is either being written this instant or was left by
+                    // a run killed between creating and writing it: stale once it is old.
+                    let unreadable_and_old = pid == 0
+                        && std::fs::metadata(&path)
+                            .and_then(|m| m.modified())
+                            .ok()
+                            .and_then(|t| t.elapsed().ok())
+                            .is_some_and(|age| age > EMPTY_LOCK_GRACE);
+                    if unreadable_and_old
+                        || (pid != 0 && pid != std::process::id() && !process_alive(pid))
+                    {
                         // Stale: the owner died without cleaning up. Remove and retry.
                         let _ = std::fs::remove_file(&path);
                         took_over_from = Some(pid);

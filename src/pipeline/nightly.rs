@@ -295,8 +295,14 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
     })
 }
 
-/// Merges shard folders into one result in `out_dir`, identical to the unsharded run.
-pub fn merge_shards(dirs: &[PathBuf], out_dir: &Path) -> Result<ConfrontOutcome, NightlyError> {
+/// Merges shard folders into one result. Without `out_dir` the result is published as the
+/// config's next run (new run folder, difference from the previous run, `latest` switched);
+/// with it, the result is written there and compared with the config's `latest` without
+/// publishing. Either way the files equal those of an unsharded run made at the same moment.
+pub fn merge_shards(
+    dirs: &[PathBuf],
+    out_dir: Option<&Path>,
+) -> Result<NightlyReport, NightlyError> {
     let mut parts = Vec::new();
     let mut cfg_path: Option<PathBuf> = None;
     for d in dirs {
@@ -342,18 +348,38 @@ pub fn merge_shards(dirs: &[PathBuf], out_dir: &Path) -> Result<ConfrontOutcome,
         ))
         .into());
     }
-    let (generated_at, _) = utc_stamp(now_unix_s());
-    // As a first nightly run: no previous run, the same alarm rules, so the merged files equal
-    // those of an unsharded run into a fresh output folder.
+    let (output, _) = folders(&cfg_path, &cfg);
+    let lock = FolderLock::acquire(&output, false)?;
+    let took_over_lock_from = lock.took_over_from;
+    let (generated_at, stamp) = utc_stamp(now_unix_s());
     let nightly = NightlyContext {
-        previous: None,
+        previous: history::latest_run(&output),
         alarms: cfg.alarms.clone(),
     };
-    Ok(run_confrontation(
+    let run_dir = match out_dir {
+        Some(d) => d.to_path_buf(),
+        None => history::new_run_dir(&output, &stamp).map_err(PipelineError::from)?,
+    };
+    let outcome = run_confrontation(
         &settings,
-        out_dir,
+        &run_dir,
         TheorySource::Given(Box::new(grid)),
         &generated_at,
         Some(&nightly),
-    )?)
+    )?;
+    if out_dir.is_none() {
+        history::publish_latest(&output, &run_dir).map_err(PipelineError::from)?;
+    }
+    drop(lock);
+    let alarms = outcome
+        .difference
+        .as_ref()
+        .map(|d| d.alarms.clone())
+        .unwrap_or_default();
+    Ok(NightlyReport {
+        run_dir,
+        outcome: Some(outcome),
+        alarms,
+        took_over_lock_from,
+    })
 }

@@ -212,17 +212,34 @@ pub(crate) fn write_report_files(
     if let Some(n) = &ctx.cache_note {
         warnings.push(Warning::Other(n.clone()));
     }
-    let young = ctx
+    let left_out: Vec<&str> = ctx
         .conf
         .uses
         .iter()
-        .filter(|u| u.excluded.is_some())
-        .count();
-    if young > 0 {
+        .filter_map(|u| u.excluded.as_deref())
+        .collect();
+    let n_young = left_out.iter().filter(|e| e.starts_with("young")).count();
+    let n_no_age = left_out.len() - n_young;
+    if n_young > 0 {
         warnings.push(Warning::Other(format!(
-            "{young} object(s) left out of the MMHB test (younger than {} Gyr or without an age, bounds.md §5); they are listed in objects.csv with their tensions",
+            "{n_young} object(s) younger than {} Gyr left out of the MMHB test (bounds.md §5: they may not have reached steady burning, or may still be contracting); their tensions are listed in objects.csv",
             ctx.eopts.age_min_mmhb_gyr
         )));
+    }
+    if n_no_age > 0 {
+        warnings.push(Warning::Other(format!(
+            "{n_no_age} object(s) without an age left out of the MMHB test (the run excludes them on request)"
+        )));
+    }
+    if ctx.consistency.n_informative == 0 {
+        warnings.push(Warning::Other(
+            "No object constrains the bounds on this grid (no informative object after the reduction): the verdict and the allowed region carry no information.".into(),
+        ));
+    }
+    if ctx.slice.is_none() {
+        warnings.push(Warning::Other(
+            "No Υ interval at τ = 0: the grid has no τ = 0 row with a model on at least two Υ values.".into(),
+        ));
     }
     let reduction_error = ctx
         .conf
@@ -328,15 +345,18 @@ pub(crate) fn write_report_files(
                 }
             })
             .collect(),
-        upsilon_interval_at_tau0: Level::ALL
-            .iter()
-            .enumerate()
-            .map(|(n, l)| UpsilonInterval {
-                level: format!("{:.2} %", 100.0 * l.probability()),
-                lower: ctx.slice.and_then(|s| s.slice.intervals[n].lower),
-                upper: ctx.slice.and_then(|s| s.slice.intervals[n].upper),
-            })
-            .collect(),
+        upsilon_interval_at_tau0: match ctx.slice {
+            Some(sl) => Level::ALL
+                .iter()
+                .enumerate()
+                .map(|(n, l)| UpsilonInterval {
+                    level: format!("{:.2} %", 100.0 * l.probability()),
+                    lower: sl.slice.intervals[n].lower,
+                    upper: sl.slice.intervals[n].upper,
+                })
+                .collect(),
+            None => Vec::new(),
+        },
         standard_gravity: standard,
         consistency: Consistency {
             consistent: ctx.consistency.consistent_cl95,
@@ -358,12 +378,33 @@ pub(crate) fn write_report_files(
             rows: ctx
                 .tensions
                 .iter()
-                .map(|&(k, z)| TensionRow {
-                    id: ctx.vetted.objects[k].id.clone(),
-                    class: ctx.vetted.objects[k].class.label().into(),
-                    mass_text: mass_text(ctx, k),
-                    sigma_standard_gravity: z,
-                    sigma_best_fit: ctx.sigma_best(k),
+                .map(|t| {
+                    let k = t.object;
+                    let o = &ctx.vetted.objects[k];
+                    let (class, text) = match t.test {
+                        super::confront::TensionTest::MassBound => {
+                            (o.class.label().to_string(), mass_text(ctx, k))
+                        }
+                        super::confront::TensionTest::MassRadius => (
+                            format!("{} (mass–radius test)", o.class.label()),
+                            format!(
+                                "{}; R = {:.5} ± {:.5} R☉",
+                                mass_text(ctx, k),
+                                o.radius_rsun.unwrap_or(0.0),
+                                o.radius_err_rsun.unwrap_or(0.0)
+                            ),
+                        ),
+                    };
+                    TensionRow {
+                        id: o.id.clone(),
+                        class,
+                        mass_text: text,
+                        sigma_standard_gravity: t.sigma,
+                        sigma_best_fit: match t.test {
+                            super::confront::TensionTest::MassBound => ctx.sigma_best(k),
+                            super::confront::TensionTest::MassRadius => None,
+                        },
+                    }
                 })
                 .collect(),
         },

@@ -402,24 +402,31 @@ pub(crate) fn build(
          end means the region may continue beyond the grid.",
     )]));
     blocks.push(Block::Subheading("Υ at τ = 0".into()));
-    blocks.push(Block::Table {
-        header: vec!["level".into(), "lower".into(), "upper".into()],
-        rows: intervals
-            .iter()
-            .map(|i| {
-                vec![
-                    vec![t(i.level.clone())],
-                    vec![t(fmt_end(i.lower))],
-                    vec![t(fmt_end(i.upper))],
-                ]
-            })
-            .collect(),
-        numeric: vec![false, true, true],
-    });
-    blocks.push(Block::Para(vec![t(
-        "One-parameter Δχ² along τ = 0 (thresholds 1, 4, 9). “open”: the grid does not close \
+    if intervals.is_empty() {
+        blocks.push(Block::Para(vec![t(
+            "Not computed: the grid has no τ = 0 row with a model on at least two Υ values, so \
+             no one-parameter interval in Υ (and no driver analysis) follows from this grid.",
+        )]));
+    } else {
+        blocks.push(Block::Table {
+            header: vec!["level".into(), "lower".into(), "upper".into()],
+            rows: intervals
+                .iter()
+                .map(|i| {
+                    vec![
+                        vec![t(i.level.clone())],
+                        vec![t(fmt_end(i.lower))],
+                        vec![t(fmt_end(i.upper))],
+                    ]
+                })
+                .collect(),
+            numeric: vec![false, true, true],
+        });
+        blocks.push(Block::Para(vec![t(
+            "One-parameter Δχ² along τ = 0 (thresholds 1, 4, 9). “open”: the grid does not close \
          that end, so no bound on that side follows from these data and this grid.",
-    )]));
+        )]));
+    }
 
     // The bounds figure.
     blocks.push(Block::Heading("Predicted bounds".into()));
@@ -474,7 +481,11 @@ pub(crate) fn build(
 
     // Drivers.
     blocks.push(Block::Heading("Drivers".into()));
-    if input.drivers.is_empty() {
+    if intervals.is_empty() {
+        blocks.push(Block::Para(vec![t(
+            "Not computed: there is no Υ interval at τ = 0 on this grid.",
+        )]));
+    } else if input.drivers.is_empty() {
         blocks.push(Block::Para(vec![t(format!(
             "No single object moves the {cl95} interval in Υ at τ = 0 when left out."
         ))]));
