@@ -1,7 +1,7 @@
-//! Reproductions of QA findings (first-use review of the CLI). Each test states the observed
-//! behaviour, the expected one and the outside reference it relies on. They are `#[ignore]`d so
-//! the suite stays green until the finding is fixed; run them with
-//! `cargo test --test qa_findings -- --ignored`.
+//! Regression tests from a first-use review of the CLI. Each test states the behaviour that was
+//! observed, the expected one and the outside reference it relies on. All are fixed and run
+//! with the suite, except one still open, which is `#[ignore]`d with the reason (run it with
+//! `cargo test --test qa_findings -- --ignored`).
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -94,7 +94,6 @@ fn config(dir: &Path, name: &str, with_next_night: bool, extra: &str) -> PathBuf
 // 201 points on [-0.1, 0.1] → [-0.0249, 0.0092]. The radius term is interpolated linearly
 // along Υ in `tau0_slice`, which makes coarse-grid intervals several times too narrow.
 #[test]
-#[ignore = "reproduces QA finding 1"]
 fn upsilon_interval_does_not_depend_on_grid_spacing() {
     let coarse = tempfile::tempdir().unwrap();
     let fine = tempfile::tempdir().unwrap();
@@ -118,7 +117,6 @@ fn upsilon_interval_does_not_depend_on_grid_spacing() {
 // +0.0347 M☉) gives a predictive z ≈ +0.86σ; at the nominal mass alone it is +7.57σ, which is
 // what objects.csv reports.
 #[test]
-#[ignore = "reproduces QA finding 2"]
 fn radius_tension_accounts_for_the_mass_error() {
     let out = tempfile::tempdir().unwrap();
     let o = confront(
@@ -140,7 +138,6 @@ fn radius_tension_accounts_for_the_mass_error() {
 // that are skipped everywhere: N_inf = 1, p_cat ≈ 1.1e-4 < 0.0455 → not consistent.
 // Observed: n_informative = 1001, p_catalogue = 0.106, consistent_cl95 = true.
 #[test]
-#[ignore = "reproduces QA finding 3"]
 fn sidak_counts_only_objects_that_are_not_skipped() {
     let dir = tempfile::tempdir().unwrap();
     let mut csv = String::from("id,class,mass,mass_err\nLOW,hburning,0.0382,0.0005\n");
@@ -168,7 +165,6 @@ fn sidak_counts_only_objects_that_are_not_skipped() {
 // run") and issue 5 (exit 3 when an alarm rule fires). Observed: merge always treats the result as
 // a first run: since_previous.previous = null, no alarm, exit 0, `latest` untouched.
 #[test]
-#[ignore = "reproduces QA finding 4"]
 fn merged_shards_keep_the_nightly_difference_and_alarm() {
     let dir = tempfile::tempdir().unwrap();
     let first = config(dir.path(), "nightly.toml", false, "");
@@ -201,7 +197,6 @@ fn merged_shards_keep_the_nightly_difference_and_alarm() {
 // run"). Observed: report.md of the first run says "Nothing changed: same objects, same
 // tensions, same allowed region." (the same text appears in every merged report).
 #[test]
-#[ignore = "reproduces QA finding 5"]
 fn first_run_report_does_not_claim_nothing_changed() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), "nightly.toml", false, "");
@@ -219,7 +214,6 @@ fn first_run_report_does_not_claim_nothing_changed() {
 // or a web server cannot read the report folder.
 #[cfg(unix)]
 #[test]
-#[ignore = "reproduces QA finding 6"]
 fn outputs_respect_the_umask() {
     use std::os::unix::fs::PermissionsExt;
     let dir = tempfile::tempdir().unwrap();
@@ -251,7 +245,6 @@ fn outputs_respect_the_umask() {
 // row there is no slice; observed: "[open, open]" with "the grid does not close that end, so no
 // bound on that side follows", and "No single object moves the … interval" (never computed).
 #[test]
-#[ignore = "reproduces QA finding 7"]
 fn missing_tau0_row_is_not_reported_as_open_interval() {
     let out = tempfile::tempdir().unwrap();
     let o = confront(
@@ -278,7 +271,7 @@ fn missing_tau0_row_is_not_reported_as_open_interval() {
 // as missing"). astropy 8.0.2 writes a float NaN into ECSV as `nan` and into a VOTable as `NaN`;
 // the VOTable row is accepted (NaN = missing), the ECSV row is quarantined ("radius: not finite").
 #[test]
-#[ignore = "reproduces QA finding 10"]
+#[ignore = "open: reproduces QA finding 10"]
 fn nan_in_an_optional_column_is_treated_alike_in_ecsv_and_votable() {
     let dir = tempfile::tempdir().unwrap();
     let ecsv = dir.path().join("t.ecsv");
@@ -330,7 +323,6 @@ fn nan_in_an_optional_column_is_treated_alike_in_ecsv_and_votable() {
 // demo's own objects.csv (199 age_unknown objects with in_fit = true). Observed warning:
 // "23 object(s) left out of the MMHB test (younger than 1 Gyr or without an age …)".
 #[test]
-#[ignore = "reproduces QA finding 12"]
 fn left_out_warning_does_not_blame_objects_without_an_age() {
     let out = tempfile::tempdir().unwrap();
     let o = confront(
@@ -352,7 +344,6 @@ fn left_out_warning_does_not_blame_objects_without_an_age() {
 // Finding 13. Source: README, objects.csv `flags` (`young`, `age_unknown`,
 // `limit_uninformative`). Observed: "young (age 0.026 Gyr < 1 Gyr); young".
 #[test]
-#[ignore = "reproduces QA finding 13"]
 fn flags_are_the_documented_tokens() {
     let out = tempfile::tempdir().unwrap();
     let o = confront(
@@ -376,7 +367,6 @@ fn flags_are_the_documented_tokens() {
 // informative: z = (B − L)/σ_th = (0.075 − 0.3)/0.005 = −45) and README ("sigma … empty for an
 // uninformative limit"). Observed: empty for U1 (0.3, upper) but −25 for U2 (0.2, upper).
 #[test]
-#[ignore = "reproduces QA finding 14"]
 fn tension_is_written_for_every_informative_object() {
     let dir = tempfile::tempdir().unwrap();
     let cat = dir.path().join("upper.csv");
@@ -401,7 +391,6 @@ fn tension_is_written_for_every_informative_object() {
 // Finding 16. Source: RULES/CONVENTIONS (invalid config → exit 2 naming the key). Observed:
 // `age_min_mmhb_gyr = nan` runs with exit 0, disables the age cut and writes null.
 #[test]
-#[ignore = "reproduces QA finding 16"]
 fn non_finite_config_value_is_rejected() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(
@@ -420,7 +409,6 @@ fn non_finite_config_value_is_rejected() {
 // some grid point agrees with every object … over 0 informative objects", best fit at the grid
 // corner with the advice to widen the grid.
 #[test]
-#[ignore = "reproduces QA finding 17"]
 fn no_informative_object_is_not_a_consistent_verdict() {
     let dir = tempfile::tempdir().unwrap();
     let cat = dir.path().join("empty.csv");
@@ -446,7 +434,6 @@ fn no_informative_object_is_not_a_consistent_verdict() {
 // lock file; observed: every later run exits 2 "locked by another dwarfbound run (pid 0)", and
 // `--wait` waits forever.
 #[test]
-#[ignore = "reproduces QA finding 9"]
 fn an_empty_stale_lock_file_does_not_block_forever() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), "nightly.toml", false, "");

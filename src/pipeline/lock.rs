@@ -17,7 +17,7 @@ use std::path::{Path, PathBuf};
 use std::time::Duration;
 
 /// How long a lock file without a readable pid is respected before it is taken for stale.
-const EMPTY_LOCK_GRACE: Duration = Duration::from_secs(10);
+const EMPTY_LOCK_GRACE: Duration = Duration::from_secs(2);
 
 /// File name of the lock inside the locked folder.
 pub const LOCK_FILE: &str = ".dwarfbound.lock";
@@ -90,12 +90,17 @@ impl FolderLock {
                     let pid: u32 = text.trim().parse().unwrap_or(0);
                     // A file without a pid is either being written this instant or was left by
                     // a run killed between creating and writing it: stale once it is old.
-                    let unreadable_and_old = pid == 0
-                        && std::fs::metadata(&path)
-                            .and_then(|m| m.modified())
-                            .ok()
-                            .and_then(|t| t.elapsed().ok())
-                            .is_some_and(|age| age > EMPTY_LOCK_GRACE);
+                    let age = std::fs::metadata(&path)
+                        .and_then(|m| m.modified())
+                        .ok()
+                        .and_then(|t| t.elapsed().ok())
+                        .unwrap_or(EMPTY_LOCK_GRACE);
+                    if pid == 0 && age < EMPTY_LOCK_GRACE {
+                        // Give a live writer the moment it needs to write its pid.
+                        std::thread::sleep(Duration::from_millis(100));
+                        continue;
+                    }
+                    let unreadable_and_old = pid == 0;
                     if unreadable_and_old
                         || (pid != 0 && pid != std::process::id() && !process_alive(pid))
                     {

@@ -167,6 +167,68 @@ pub fn settings_from_config(
         .validate()
         .map_err(|e| bad("theory", e.to_string()))?;
     let st = &cfg.statistics;
+    // Every number of the config must be finite and in range: a NaN would silently disable a
+    // cut (e.g. NaN < age is always false).
+    let checks: [(&str, f64, bool); 9] = [
+        (
+            "theory.mmhb_anchor_msun",
+            t.mmhb_anchor_msun,
+            t.mmhb_anchor_msun > 0.0,
+        ),
+        (
+            "theory.hydrogen_fraction",
+            t.hydrogen_fraction,
+            t.hydrogen_fraction > 0.0 && t.hydrogen_fraction <= 1.0,
+        ),
+        (
+            "theory.ignition_temperature_k",
+            t.ignition_temperature_k,
+            t.ignition_temperature_k > 0.0,
+        ),
+        (
+            "theory.chandrasekhar_floor_msun",
+            t.chandrasekhar_floor_msun,
+            t.chandrasekhar_floor_msun > 0.0,
+        ),
+        (
+            "theory.wd_radius_floor_fraction",
+            t.wd_radius_floor_fraction,
+            t.wd_radius_floor_fraction >= 0.0,
+        ),
+        (
+            "statistics.tension_sigma",
+            st.tension_sigma,
+            st.tension_sigma > 0.0,
+        ),
+        (
+            "statistics.age_min_mmhb_gyr",
+            st.age_min_mmhb_gyr,
+            st.age_min_mmhb_gyr >= 0.0,
+        ),
+        (
+            "alarms.interval_shift",
+            cfg.alarms.interval_shift,
+            cfg.alarms.interval_shift >= 0.0,
+        ),
+        (
+            "alarms.area_change",
+            cfg.alarms.area_change,
+            cfg.alarms.area_change >= 0.0,
+        ),
+    ];
+    for (key, v, ok) in checks {
+        if !(v.is_finite() && ok) {
+            return Err(bad(key, format!("{v} is not a finite value in range")));
+        }
+    }
+    if let Some(f) = t.mmhb_floor_msun {
+        if !(f.is_finite() && f > 0.0) {
+            return Err(bad(
+                "theory.mmhb_floor_msun",
+                format!("{f} must be a positive number"),
+            ));
+        }
+    }
     if st.floor != "per-object" {
         return Err(bad(
             "statistics.floor",

@@ -192,7 +192,13 @@ pub(crate) fn build(
     // Summary box.
     let bf = &input.best_fit;
     let mut summary: Vec<Para> = Vec::new();
-    summary.push(if cons.consistent {
+    summary.push(if cons.n_informative == 0 {
+        vec![
+            b("Verdict: "),
+            b("no information"),
+            t(" — no object constrains the bounds on this grid, so nothing is tested."),
+        ]
+    } else if cons.consistent {
         vec![
             b("Verdict: "),
             t(format!(
