@@ -7,9 +7,14 @@
 //!
 //! with (p, c, κ) = (1, Υ/2, 1) isotropic, (1, Υ/2 − τ/3, 1) for the density-squared ansatz (a)
 //! and (1 − τ, Υ/2, 1 − τ) for the gradient ansatz (b), from the central series (§3.3) to the
-//! surface θ = 0, located by a terminal event on the dense output plus one Newton step (§3.5).
-//! Results are in the true-G length unit of `bounds.md` §1. Standard gravity (Υ = τ = 0) is the
-//! classical Lane–Emden equation (Chandrasekhar 1939, Ch. IV).
+//! surface θ = 0, reached by a change of variable near the surface or by a terminal event on
+//! the dense output plus one Newton step (§3.5; [`SurfaceMethod`]). Results are in the true-G
+//! length unit of `bounds.md` §1. Standard gravity (Υ = τ = 0) is the classical Lane–Emden
+//! equation (Chandrasekhar 1939, Ch. IV).
+//!
+//! Speed (one solve is the unit of every grid): Dormand–Prince 8(5,3) ([`crate::theory::ode`]),
+//! θⁿ and θ^{n−1} by products and one square root for n = 3/2 and 3, and one state slot per
+//! extra integral; `benches/run.sh` times it against scipy on the same equations.
 //!
 //! ```
 //! use dwarfbound::theory::lane_emden::{LaneEmdenOptions, ModifiedLaneEmden};
@@ -23,7 +28,7 @@
 //! ```
 
 use crate::theory::error::TheoryError;
-use crate::theory::ode::{self, OdeOptions, Stop};
+use crate::theory::ode::{self, OdeMethod, OdeOptions, Stop};
 use crate::theory::Anisotropy;
 
 /// The denominator D below which the structure equation is treated as singular
@@ -60,7 +65,9 @@ pub struct LaneEmdenOptions {
 pub enum SurfaceMethod {
     /// Integrate in ξ until θ changes sign, find the root on the dense output, then one Newton
     /// step ξ1 ← ξ_e − θ/θ′ (§3.5.3 method i). Near the surface θ^{n−1} makes θ″ singular for
-    /// 1 < n < 2 with Υ ≠ 0, so the steps that straddle it shrink to ~1e-5.
+    /// 1 < n < 2 with Υ ≠ 0, so the steps that straddle it shrink to ~1e-5; and max(θ, 0)ⁿ is
+    /// not smooth at θ = 0, so the last step (which straddles the surface) is integrated again
+    /// from its start to the root.
     EventNewton,
     /// Integrate in ξ down to θ = `theta_switch`, then take s = √θ as the independent variable
     /// and integrate dξ/ds = 2s/θ′ (and μ, J_k alike) to s = 0 exactly (a variant of §3.5.3
@@ -107,6 +114,40 @@ pub struct ModifiedLaneEmden {
     p: f64,
     c: f64,
     kappa: f64,
+    powers: IndexPowers,
+}
+
+/// How θⁿ and θ^{n−1} are formed for this index: the half-integer and integer indices of the
+/// theory (3/2 and 3) by products and one square root instead of `powf`, others from one
+/// `powf` (θ^{n−1} = θⁿ/θ). All equal max(θ, 0)^k to rounding.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum IndexPowers {
+    /// n = 0.
+    Zero,
+    /// n = 1.
+    One,
+    /// n = 3/2: θ√θ and √θ.
+    ThreeHalves,
+    /// n = 2, 3 or 4: products.
+    Integer(u8),
+    /// Any other n.
+    General,
+}
+
+impl IndexPowers {
+    fn for_index(n: f64) -> Self {
+        if n == 0.0 {
+            Self::Zero
+        } else if n == 1.0 {
+            Self::One
+        } else if n == 1.5 {
+            Self::ThreeHalves
+        } else if n == 2.0 || n == 3.0 || n == 4.0 {
+            Self::Integer(n as u8)
+        } else {
+            Self::General
+        }
+    }
 }
 
 /// One solved polytrope: the surface and the constants derived from it, in true-G units.
@@ -237,7 +278,10 @@ fn check_tau(tau: f64, anisotropy: Anisotropy) -> Result<(), TheoryError> {
 }
 
 /// max(θ, 0)^k, so that overshooting trial stages past the surface stay finite (§3.5.2).
-#[inline]
+/// General k by exp(k ln θ): two libm calls, measured faster than `powf`, relative error about
+/// (|k ln θ| + 2) ulp (≤ 1e-14 where θ^k matters), far below the integrator's tolerances.
+/// Not inlined: that keeps the integrator's right-hand side small enough to be inlined itself.
+#[inline(never)]
 fn pos_pow(theta: f64, k: f64) -> f64 {
     if k == 0.0 {
         1.0
@@ -254,7 +298,7 @@ fn pos_pow(theta: f64, k: f64) -> f64 {
     } else if k == 2.0 {
         theta * theta
     } else {
-        theta.powf(k)
+        (k * theta.ln()).exp()
     }
 }
 
@@ -305,6 +349,7 @@ impl ModifiedLaneEmden {
             p,
             c,
             kappa,
+            powers: IndexPowers::for_index(n),
         };
         let a = le.central_coefficient();
         if a.is_nan() || a <= 0.0 {
@@ -353,61 +398,150 @@ impl ModifiedLaneEmden {
         if self.upsilon == 0.0 {
             return 1.0;
         }
-        1.0 + self.kappa * self.n * self.upsilon / 4.0 * xi * xi * pos_pow(theta, self.n - 1.0)
+        let (_, tn1) = self.index_powers(theta);
+        1.0 + self.kappa * self.n * self.upsilon / 4.0 * xi * xi * tn1
+    }
+
+    /// (max(θ, 0)ⁿ, max(θ, 0)^{n−1}), the second only meaningful where D uses it (n ≥ 1 when
+    /// Υ ≠ 0). Fast paths of [`IndexPowers`].
+    #[inline(always)]
+    fn index_powers(&self, theta: f64) -> (f64, f64) {
+        match self.powers {
+            IndexPowers::Zero => (1.0, 0.0),
+            IndexPowers::One => (theta.max(0.0), 1.0),
+            _ if theta <= 0.0 => (0.0, 0.0),
+            IndexPowers::ThreeHalves => {
+                let r = theta.sqrt();
+                (theta * r, r)
+            }
+            IndexPowers::Integer(2) => (theta * theta, theta),
+            IndexPowers::Integer(3) => {
+                let t2 = theta * theta;
+                (t2 * theta, t2)
+            }
+            IndexPowers::Integer(_) => {
+                let t3 = theta * theta * theta;
+                (t3 * theta, t3)
+            }
+            IndexPowers::General => {
+                let tn = theta.powf(self.n);
+                (tn, tn / theta)
+            }
+        }
     }
 
     /// (θ′, μ′) at (ξ, θ, μ); `DenominatorVanishes` when D ≤ [`DENOMINATOR_FLOOR`].
     pub fn derivatives(&self, xi: f64, theta: f64, mu: f64) -> Result<[f64; 2], TheoryError> {
-        let tn = pos_pow(theta, self.n);
-        let d = self.denominator(xi, theta);
+        let (dt, dm, _) = self.rates(xi, theta, mu)?;
+        Ok([dt, dm])
+    }
+
+    /// θ′, μ′ and max(θ, 0)ⁿ (which the extra integrals reuse when k = n).
+    #[inline(always)]
+    fn rates(&self, xi: f64, theta: f64, mu: f64) -> Result<(f64, f64, f64), TheoryError> {
+        let (tn, tn1) = self.index_powers(theta);
+        let x2 = xi * xi;
+        // ξ²D is formed as ξ² + (K ξ⁴) θ^{n−1} rather than ξ²·(1 + (K ξ²) θ^{n−1}): one
+        // multiplication less between θ and the division (the integrator is latency-bound).
+        let (d, x2d) = if self.upsilon == 0.0 {
+            (1.0, x2)
+        } else {
+            let kd = self.kappa * self.n * self.upsilon / 4.0;
+            (1.0 + kd * x2 * tn1, x2 + kd * (x2 * x2) * tn1)
+        };
         if d.is_nan() || d <= DENOMINATOR_FLOOR {
             return Err(TheoryError::DenominatorVanishes { xi, d });
         }
         let mut num = mu;
         if self.c != 0.0 {
-            num += self.c * xi * xi * xi * tn;
+            num += self.c * x2 * xi * tn;
         }
-        let x2 = xi * xi;
-        Ok([-self.p * num / (x2 * d), x2 * tn])
+        Ok((-self.p * num / x2d, x2 * tn, tn))
     }
 
-    fn integrate<const N: usize>(
-        &self,
-        opts: &LaneEmdenOptions,
-        theta_stop: f64,
-    ) -> Result<(f64, [f64; N], Stop), TheoryError> {
-        let powers: [f64; N] = std::array::from_fn(|i| {
+    /// max(θ, 0)^k for an extra integral, reusing θⁿ when k = n.
+    #[inline(always)]
+    fn extra_power(&self, theta: f64, k: f64, tn: f64) -> f64 {
+        if k == self.n {
+            tn
+        } else {
+            pos_pow(theta, k)
+        }
+    }
+
+    /// The exponents of the extra integrals in state slots 2.. (N = 2 + their number).
+    fn extra_exponents<const N: usize>(opts: &LaneEmdenOptions) -> [f64; N] {
+        std::array::from_fn(|i| {
             if i >= 2 {
                 opts.extra_powers.get(i - 2).copied().unwrap_or(0.0)
             } else {
                 0.0
             }
-        });
-        let n_extra = opts.extra_powers.len();
-        let rhs = |xi: f64, y: &[f64; N]| -> Result<[f64; N], TheoryError> {
-            let [dt, dm] = self.derivatives(xi, y[0], y[1])?;
-            let x2 = xi * xi;
-            Ok(std::array::from_fn(|i| match i {
-                0 => dt,
-                1 => dm,
-                _ if i - 2 < n_extra => x2 * pos_pow(y[0], powers[i]),
-                _ => 0.0,
-            }))
-        };
+        })
+    }
+
+    /// Integrator settings: Dormand–Prince 8(5,3), which needs about a third of the 5(4)
+    /// pair's evaluations at rtol ≈ 1e-10 (measured in `benches/run.sh`).
+    fn ode_options<const N: usize>(opts: &LaneEmdenOptions, first_step: f64) -> OdeOptions<N> {
+        let mut oo = OdeOptions::<N>::new(opts.rtol, opts.atol, first_step);
+        oo.max_steps = 200_000;
+        oo.method = OdeMethod::DormandPrince853;
+        oo
+    }
+
+    /// The right-hand side in ξ of the state (θ, μ, J_k…).
+    #[inline(always)]
+    fn rhs_xi<const N: usize>(
+        &self,
+        powers: &[f64; N],
+        xi: f64,
+        y: &[f64; N],
+    ) -> Result<[f64; N], TheoryError> {
+        let (dt, dm, tn) = self.rates(xi, y[0], y[1])?;
+        let x2 = xi * xi;
+        let mut out = [dt; N];
+        out[1] = dm;
+        for i in 2..N {
+            out[i] = x2 * self.extra_power(y[0], powers[i], tn);
+        }
+        Ok(out)
+    }
+
+    /// From the centre to the first point where θ = `theta_stop` (an event on the dense
+    /// output). For `theta_stop` = 0 the step that found the root straddles the surface, where
+    /// max(θ, 0)ⁿ is not smooth and the step's accuracy is of low order; that last piece is
+    /// therefore integrated again from the step's start to the root, inside the star.
+    fn integrate<const N: usize>(
+        &self,
+        opts: &LaneEmdenOptions,
+        theta_stop: f64,
+    ) -> Result<(f64, [f64; N], Stop), TheoryError> {
+        let powers: [f64; N] = Self::extra_exponents(opts);
+        let rhs = |xi: f64, y: &[f64; N]| self.rhs_xi(&powers, xi, y);
         let x0 = opts.xi_start;
         let s = self.central_series(x0);
         let a = self.central_coefficient();
         let y0: [f64; N] = std::array::from_fn(|i| match i {
             0 => s[0],
             1 => s[1],
-            _ if i - 2 < n_extra => x0.powi(3) / 3.0 - powers[i] * a / 5.0 * x0.powi(5),
-            _ => 0.0,
+            _ => x0.powi(3) / 3.0 - powers[i] * a / 5.0 * x0.powi(5),
         });
-        let mut oo = OdeOptions::<N>::new(opts.rtol, opts.atol, x0);
-        oo.max_steps = 200_000;
+        // θ is analytic in ξ² with a radius of convergence of order ξ1 ≳ 1, so an eighth-order
+        // step of ~rtol^{1/9} is accepted at once from the centre (rather than growing from ξ₀).
+        let first_step = (0.5 * opts.rtol.powf(1.0 / 9.0)).clamp(x0, 0.1);
+        let oo = Self::ode_options::<N>(opts, first_step);
         let mut g = |_x: f64, y: &[f64; N]| y[0] - theta_stop;
         let sol = ode::solve(rhs, x0, y0, opts.xi_max, &oo, Some(&mut g))?;
-        Ok((sol.x, sol.y, sol.stop))
+        match (sol.stop, sol.last_step) {
+            (Stop::Event, Some(step)) if theta_stop <= 0.0 && step.x_start() < sol.x => {
+                let xa = step.x_start();
+                let ya = step.eval(xa);
+                let oo = Self::ode_options::<N>(opts, sol.x - xa);
+                let again = ode::solve(rhs, xa, ya, sol.x, &oo, None)?;
+                Ok((sol.x, again.y, Stop::Event))
+            }
+            _ => Ok((sol.x, sol.y, sol.stop)),
+        }
     }
 
     fn check_options(opts: &LaneEmdenOptions) -> Result<(), TheoryError> {
@@ -446,10 +580,13 @@ impl ModifiedLaneEmden {
     /// Solves to the surface. See [`LaneEmdenSolution`] for the outputs.
     pub fn solve(&self, opts: &LaneEmdenOptions) -> Result<LaneEmdenSolution, TheoryError> {
         Self::check_options(opts)?;
-        if opts.extra_powers.is_empty() {
-            self.solve_n::<2>(opts)
-        } else {
-            self.solve_n::<6>(opts)
+        // One state slot per extra integral: no idle components in the error norm.
+        match opts.extra_powers.len() {
+            0 => self.solve_n::<2>(opts),
+            1 => self.solve_n::<3>(opts),
+            2 => self.solve_n::<4>(opts),
+            3 => self.solve_n::<5>(opts),
+            _ => self.solve_n::<6>(opts),
         }
     }
 
@@ -523,14 +660,7 @@ impl ModifiedLaneEmden {
         xe: f64,
         ye: [f64; N],
     ) -> Result<(f64, [f64; N]), TheoryError> {
-        let n_extra = opts.extra_powers.len();
-        let powers: [f64; N] = std::array::from_fn(|i| {
-            if i >= 2 {
-                opts.extra_powers.get(i - 2).copied().unwrap_or(0.0)
-            } else {
-                0.0
-            }
-        });
+        let powers: [f64; N] = Self::extra_exponents(opts);
         let rhs = |s: f64, z: &[f64; N]| -> Result<[f64; N], TheoryError> {
             let theta = s * s;
             let xi = z[0];
@@ -538,7 +668,7 @@ impl ModifiedLaneEmden {
                 // θ creeping towards 0 without reaching it (e.g. θ ∝ ξ^{−4/3} at very large Υ).
                 return Err(TheoryError::NoSurface { xi_reached: xi });
             }
-            let [dt, dm] = self.derivatives(xi, theta, z[1])?;
+            let (dt, dm, tn) = self.rates(xi, theta, z[1])?;
             if dt.is_nan() || dt >= 0.0 {
                 return Err(TheoryError::NumericalFailure {
                     xi,
@@ -547,18 +677,17 @@ impl ModifiedLaneEmden {
             }
             let dxi = 2.0 * s / dt;
             let x2 = xi * xi;
-            Ok(std::array::from_fn(|i| match i {
-                0 => dxi,
-                1 => dm * dxi,
-                _ if i - 2 < n_extra => x2 * pos_pow(theta, powers[i]) * dxi,
-                _ => 0.0,
-            }))
+            let mut out = [dxi; N];
+            out[1] = dm * dxi;
+            for i in 2..N {
+                out[i] = x2 * self.extra_power(theta, powers[i], tn) * dxi;
+            }
+            Ok(out)
         };
         let s0 = ye[0].max(0.0).sqrt();
         let mut z0 = ye;
         z0[0] = xe;
-        let mut oo = OdeOptions::<N>::new(opts.rtol, opts.atol, s0 / 16.0);
-        oo.max_steps = 200_000;
+        let oo = Self::ode_options::<N>(opts, s0 / 16.0);
         let sol = ode::solve(rhs, s0, z0, 0.0, &oo, None)?;
         let mut y = sol.y;
         let xi1 = y[0];
@@ -581,8 +710,7 @@ impl ModifiedLaneEmden {
         let mut out = Vec::with_capacity(count);
         let mut x = base.xi_start;
         let mut y = self.central_series(x);
-        let mut oo = OdeOptions::<2>::new(base.rtol, base.atol, x);
-        oo.max_steps = 200_000;
+        let mut oo = Self::ode_options::<2>(&base, x);
         for i in 1..=count {
             let xt = sol.xi1 * i as f64 / count as f64;
             if i == count {
