@@ -11,6 +11,7 @@ pub mod lane_emden;
 pub mod mmhb;
 pub mod ode;
 pub mod point;
+mod roots;
 pub mod rotation;
 pub mod schonberg;
 pub mod white_dwarf;

@@ -1182,8 +1182,9 @@ where
     Ok(DenseStep { x_old: x, h, r })
 }
 
-/// Brent's method for g(dense(x)) = 0 on [a, b] with g(a)·g(b) ≤ 0; returns the root and the
-/// interpolated state there. The interval shrinks to a few ulps of x.
+/// Brent's method for g(dense(x)) = 0 on [a, b] with g(a)·g(b) ≤ 0 (shared with the other
+/// root searches in [`super::roots`]); returns the root and the interpolated state there. The
+/// interval shrinks to a few ulps of x.
 fn locate_root<const N: usize>(
     dense: &DenseStep<N>,
     g: &mut EventFn<'_, N>,
@@ -1192,68 +1193,9 @@ fn locate_root<const N: usize>(
     b0: f64,
     gb0: f64,
 ) -> (f64, [f64; N]) {
-    if gb0 == 0.0 {
-        return (b0, dense.eval(b0));
-    }
-    let (mut a, mut fa, mut b, mut fb) = (a0, ga0, b0, gb0);
-    let (mut c, mut fc) = (a, fa);
-    let mut d = b - a;
-    let mut e = d;
-    for _ in 0..200 {
-        if fb.signum() == fc.signum() {
-            c = a;
-            fc = fa;
-            d = b - a;
-            e = d;
-        }
-        if fc.abs() < fb.abs() {
-            a = b;
-            b = c;
-            c = a;
-            fa = fb;
-            fb = fc;
-            fc = fa;
-        }
-        let tol = 2.0 * f64::EPSILON * b.abs() + 1e-300;
-        let m = 0.5 * (c - b);
-        if m.abs() <= tol || fb == 0.0 {
-            break;
-        }
-        if e.abs() >= tol && fa.abs() > fb.abs() {
-            let s = fb / fa;
-            let (mut p, mut q);
-            if a == c {
-                p = 2.0 * m * s;
-                q = 1.0 - s;
-            } else {
-                let qq = fa / fc;
-                let r = fb / fc;
-                p = s * (2.0 * m * qq * (qq - r) - (b - a) * (r - 1.0));
-                q = (qq - 1.0) * (r - 1.0) * (s - 1.0);
-            }
-            if p > 0.0 {
-                q = -q;
-            } else {
-                p = -p;
-            }
-            if 2.0 * p < (3.0 * m * q - (tol * q).abs()).min((e * q).abs()) {
-                e = d;
-                d = p / q;
-            } else {
-                d = m;
-                e = m;
-            }
-        } else {
-            d = m;
-            e = m;
-        }
-        a = b;
-        fa = fb;
-        b += if d.abs() > tol { d } else { tol.copysign(m) };
-        let yb = dense.eval(b);
-        fb = g(b, &yb);
-    }
-    (b, dense.eval(b))
+    let (x, _) =
+        super::roots::brent_root_bracketed(|x| g(x, &dense.eval(x)), a0, ga0, b0, gb0, 2e-300, 200);
+    (x, dense.eval(x))
 }
 
 #[cfg(test)]

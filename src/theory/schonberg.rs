@@ -18,8 +18,9 @@
 //! ```
 
 use super::lane_emden::ModifiedLaneEmden;
-use super::mmhb::{brent_minimize, BoundError};
+use super::mmhb::BoundError;
 use super::ode::{solve, OdeError, OdeOptions, Stop};
+use super::roots::brent_minimize;
 use super::Anisotropy;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
