@@ -325,24 +325,43 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
         });
     }
 
-    let previous = history::latest_run(&output);
-    let (generated_at, stamp) = utc_stamp(now_unix_s());
-    let run_dir = history::new_run_dir(&output, &stamp).map_err(PipelineError::from)?;
-    let nightly = NightlyContext {
-        previous,
-        alarms: cfg.alarms.clone(),
-    };
-    let outcome = run_confrontation(
+    publish_run(
         &settings,
-        &run_dir,
+        &cfg,
+        &output,
         TheorySource::Compute {
             cache: Some(&cache),
         },
-        &generated_at,
-        Some(&nightly),
-    )?;
-    // Only a complete run becomes `latest`.
-    history::publish_latest(&output, &run_dir).map_err(PipelineError::from)?;
+        None,
+        lock,
+    )
+}
+
+/// The common end of `run` and `merge`: confront into a new run folder (or `out_dir`),
+/// compare with the previous run, switch `latest` to the new run only once it is complete
+/// (not for `out_dir`), release the lock and collect the alarms.
+fn publish_run(
+    settings: &ConfrontSettings,
+    cfg: &Config,
+    output: &Path,
+    theory: TheorySource<'_>,
+    out_dir: Option<&Path>,
+    lock: FolderLock,
+) -> Result<NightlyReport, NightlyError> {
+    let took_over_lock_from = lock.took_over_from;
+    let (generated_at, stamp) = utc_stamp(now_unix_s());
+    let nightly = NightlyContext {
+        previous: history::latest_run(output),
+        alarms: cfg.alarms.clone(),
+    };
+    let run_dir = match out_dir {
+        Some(d) => d.to_path_buf(),
+        None => history::new_run_dir(output, &stamp).map_err(PipelineError::from)?,
+    };
+    let outcome = run_confrontation(settings, &run_dir, theory, &generated_at, Some(&nightly))?;
+    if out_dir.is_none() {
+        history::publish_latest(output, &run_dir).map_err(PipelineError::from)?;
+    }
     drop(lock);
     let alarms = outcome
         .difference
@@ -412,36 +431,12 @@ pub fn merge_shards(
     }
     let (output, _) = folders(&cfg_path, &cfg);
     let lock = FolderLock::acquire(&output, false)?;
-    let took_over_lock_from = lock.took_over_from;
-    let (generated_at, stamp) = utc_stamp(now_unix_s());
-    let nightly = NightlyContext {
-        previous: history::latest_run(&output),
-        alarms: cfg.alarms.clone(),
-    };
-    let run_dir = match out_dir {
-        Some(d) => d.to_path_buf(),
-        None => history::new_run_dir(&output, &stamp).map_err(PipelineError::from)?,
-    };
-    let outcome = run_confrontation(
+    publish_run(
         &settings,
-        &run_dir,
+        &cfg,
+        &output,
         TheorySource::Given(Box::new(grid)),
-        &generated_at,
-        Some(&nightly),
-    )?;
-    if out_dir.is_none() {
-        history::publish_latest(&output, &run_dir).map_err(PipelineError::from)?;
-    }
-    drop(lock);
-    let alarms = outcome
-        .difference
-        .as_ref()
-        .map(|d| d.alarms.clone())
-        .unwrap_or_default();
-    Ok(NightlyReport {
-        run_dir,
-        outcome: Some(outcome),
-        alarms,
-        took_over_lock_from,
-    })
+        out_dir,
+        lock,
+    )
 }
