@@ -1,7 +1,5 @@
 //! Regression tests from a first-use review of the CLI. Each test states the behaviour that was
-//! observed, the expected one and the outside reference it relies on. All are fixed and run
-//! with the suite, except one still open, which is `#[ignore]`d with the reason (run it with
-//! `cargo test --test qa_findings -- --ignored`).
+//! observed, the expected one and the outside reference it relies on.
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -271,7 +269,6 @@ fn missing_tau0_row_is_not_reported_as_open_interval() {
 // as missing"). astropy 8.0.2 writes a float NaN into ECSV as `nan` and into a VOTable as `NaN`;
 // the VOTable row is accepted (NaN = missing), the ECSV row is quarantined ("radius: not finite").
 #[test]
-#[ignore = "open: reproduces QA finding 10"]
 fn nan_in_an_optional_column_is_treated_alike_in_ecsv_and_votable() {
     let dir = tempfile::tempdir().unwrap();
     let ecsv = dir.path().join("t.ecsv");

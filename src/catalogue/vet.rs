@@ -38,7 +38,7 @@
 //! | mass_limit | `unknown mass_limit value (expected empty, upper or lower)` | anything else |
 //! | mass | `missing mass` | empty mass |
 //! | any number | `not a number` | text that does not parse as a decimal number |
-//! | any number | `not finite` | NaN or ±infinity (also after unit conversion) |
+//! | any number | `not finite` | NaN or ±infinity (also after unit conversion); NaN in an optional column (radius, age, rotation period, μe and their errors) is a missing value instead, as in FITS and VOTable |
 //! | mass | `not positive` | mass ≤ 0 in a linear unit |
 //! | mass_err (or mass_err_lo) | `missing mass error` | no error although `mass_limit` is empty |
 //! | mass_err_lo / mass_err_hi | `only one of mass_err_lo and mass_err_hi given` | a split error with one side empty |
@@ -455,6 +455,27 @@ fn cell_number(cell: &Cell) -> Result<Option<f64>, &'static str> {
     }
 }
 
+/// Optional columns in which NaN means "no value", as FITS and VOTable define it, so that the
+/// same table vets alike from every format (ECSV and CSV carry NaN as a number). In the
+/// required columns (mass and its errors) NaN stays a quarantine reason.
+const NAN_IS_MISSING: [&str; 6] = [
+    "radius",
+    "radius_err",
+    "age",
+    "age_err",
+    "rotation_period",
+    "mu_e",
+];
+
+/// Whether a cell holds NaN (as a number, or as the text `nan`/`NaN`).
+fn cell_is_nan(cell: &Cell) -> bool {
+    match cell {
+        Cell::Number(v) => v.is_nan(),
+        Cell::Text(t) => t.trim().parse::<f64>().is_ok_and(f64::is_nan),
+        Cell::Missing => false,
+    }
+}
+
 /// Row-level access to the resolved columns.
 struct RowView<'a> {
     layout: &'a Layout,
@@ -484,6 +505,9 @@ impl RowView<'_> {
         let Some((col, cell)) = self.cell(canonical) else {
             return Ok(None);
         };
+        if NAN_IS_MISSING.contains(&canonical) && cell_is_nan(cell) {
+            return Ok(None);
+        }
         let v = cell_number(cell).map_err(|why| (col.name.clone(), why.to_string()))?;
         let unit = col.unit.unwrap_or(Unit {
             dimension: units::Dimension::Dimensionless,
