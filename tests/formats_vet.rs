@@ -82,3 +82,30 @@ fn every_format_vets_to_the_same_objects_and_quarantine() {
         .iter()
         .any(|r| r.id.as_deref() == Some("FX-07")));
 }
+
+/// `--table` chooses the FITS HDU by EXTNAME (as astropy 8.0.2 wrote it) or index; an unknown
+/// name is a whole-file error (exit 2) that lists the HDUs.
+#[test]
+fn table_flag_chooses_the_hdu() {
+    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let vet = |table: &str| {
+        std::process::Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
+            .current_dir(&root)
+            .args([
+                "vet",
+                "tests/fixtures/formats/catalogue.fits",
+                "--table",
+                table,
+                "--out",
+            ])
+            .arg(dir.path())
+            .output()
+            .unwrap()
+    };
+    assert_eq!(vet("CATALOGUE").status.code(), Some(0));
+    assert_eq!(vet("1").status.code(), Some(0));
+    let bad = vet("NOPE");
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&bad.stderr).contains("CATALOGUE"));
+}

@@ -133,6 +133,7 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
                 path: p.clone(),
                 map: args.read.map.clone(),
                 format,
+                table: args.read.table.clone(),
             })
             .collect(),
         upsilon: args.theory.upsilon.unwrap_or(DEFAULT_UPSILON),

@@ -96,6 +96,10 @@ pub struct ReadArgs {
     /// File format, overriding the file extension (csv, parquet, fits, votable, ecsv).
     #[arg(long)]
     pub format: Option<String>,
+    /// FITS HDU or VOTable TABLE to read, by name or 0-based index (default: the first table;
+    /// overrides the column map's `[options] table`).
+    #[arg(long)]
+    pub table: Option<String>,
 }
 
 /// Arguments of `vet`.

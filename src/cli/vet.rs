@@ -47,7 +47,7 @@ impl ReadArgs {
             map,
             ReadOptions {
                 format,
-                table: None,
+                table: self.table.clone(),
             },
         ))
     }

@@ -80,6 +80,9 @@ pub struct CatalogueEntry {
     /// Format override (csv, parquet, fits, votable, ecsv).
     #[serde(default)]
     pub format: Option<String>,
+    /// FITS HDU or VOTable TABLE to read (name or 0-based index).
+    #[serde(default)]
+    pub table: Option<String>,
 }
 
 /// Grid axes as `start:stop:count` strings (or a single value), as on the command line.

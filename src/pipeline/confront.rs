@@ -39,6 +39,8 @@ pub struct CatalogueInput {
     pub map: Option<PathBuf>,
     /// Format override.
     pub format: Option<Format>,
+    /// FITS HDU / VOTable TABLE (name or index); `None`: the map's choice or the first table.
+    pub table: Option<String>,
 }
 
 /// Statistics choices of a confrontation.
@@ -130,7 +132,7 @@ pub fn vet_all(inputs: &[CatalogueInput]) -> Result<Vetted, PipelineError> {
         };
         let opts = ReadOptions {
             format: c.format,
-            table: None,
+            table: c.table.clone(),
         };
         let v = vet_files(std::slice::from_ref(&c.path), map.as_ref(), &opts)?;
         all.objects.extend(v.objects);

@@ -101,6 +101,7 @@ pub fn settings_from_config(
                 path,
                 map: c.map.as_deref().map(|m| resolve(cfg_path, m)),
                 format,
+                table: c.table.clone(),
             });
         }
     }
