@@ -71,7 +71,10 @@ fn term_summary(ctx: &OutputContext<'_>, t: Term, delta: &[Option<f64>]) -> Stri
         (true, true) => "constrains both Υ and τ",
         (true, false) => "constrains Υ (not τ) on this grid",
         (false, true) => "constrains τ (not Υ) on this grid",
-        (false, false) => "leaves the whole grid's extent open in both directions",
+        (false, false) if frac < 0.999 => {
+            "excludes part of the grid (a corner or an edge) without closing the range of either parameter"
+        }
+        (false, false) => "excludes no grid point",
     };
     format!(
         "{}: {what}; its own 95.45 % region spans Υ ∈ [{:.3}, {:.3}], τ ∈ [{:.3}, {:.3}] ({:.0} % of the grid).",
