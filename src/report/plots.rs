@@ -189,6 +189,28 @@ fn png_pen() -> Pen<'static> {
     }
 }
 
+/// Axes and faint grid lines of a plot with `labels` ticks per axis. Tick labels are drawn by
+/// [`draw_axis_text`]; the mesh's label style must still name a registered font.
+fn draw_mesh<DB: DrawingBackend>(
+    chart: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+    labels: usize,
+    font_px: f64,
+    grid_alpha: f64,
+) -> Result<(), String> {
+    chart
+        .configure_mesh()
+        .x_labels(labels)
+        .y_labels(labels)
+        .label_style(text_style(font_px))
+        .x_label_formatter(&|_| String::new())
+        .y_label_formatter(&|_| String::new())
+        .bold_line_style(GRID_LINE.mix(grid_alpha).stroke_width(1))
+        .light_line_style(TRANSPARENT)
+        .axis_style(INK.stroke_width(1))
+        .draw()
+        .map_err(err)
+}
+
 /// Tick labels and axis descriptions, drawn with the pen (plotters' mesh draws only lines).
 #[allow(clippy::too_many_arguments)]
 fn draw_axis_text<DB: DrawingBackend>(
@@ -697,19 +719,7 @@ fn draw_allowed<DB: DrawingBackend>(
         "τ (anisotropy strength, {})",
         truncate(&map.anisotropy_name, 40)
     );
-    chart
-        .configure_mesh()
-        .x_labels(10)
-        .y_labels(10)
-        // Labels are drawn by `draw_axis_text`; the style still must name a registered font.
-        .label_style(text_style(16.5))
-        .x_label_formatter(&|_| String::new())
-        .y_label_formatter(&|_| String::new())
-        .bold_line_style(GRID_LINE.mix(0.35).stroke_width(1))
-        .light_line_style(TRANSPARENT)
-        .axis_style(INK.stroke_width(1))
-        .draw()
-        .map_err(err)?;
+    draw_mesh(&mut chart, 10, 16.5, 0.35)?;
     draw_axis_text(
         root,
         &chart,
@@ -1070,18 +1080,7 @@ fn draw_bounds<DB: DrawingBackend>(
             .margin_right(12)
             .build_cartesian_2d(x_lo..x_hi, y_lo..y_hi)
             .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_labels(8)
-            .y_labels(8)
-            .label_style(text_style(15.0))
-            .x_label_formatter(&|_| String::new())
-            .y_label_formatter(&|_| String::new())
-            .bold_line_style(GRID_LINE.mix(0.3).stroke_width(1))
-            .light_line_style(TRANSPARENT)
-            .axis_style(INK.stroke_width(1))
-            .draw()
-            .map_err(err)?;
+        draw_mesh(&mut chart, 8, 15.0, 0.3)?;
         draw_axis_text(
             root,
             &chart,
