@@ -26,7 +26,7 @@ use super::error::CatalogueError;
 use super::units::{self, Quantity};
 
 /// Canonical column names of `../shared/CONVENTIONS.md`, in output order.
-pub const CANONICAL_COLUMNS: [&str; 14] = [
+pub const CANONICAL_COLUMNS: [&str; 20] = [
     "id",
     "class",
     "mass",
@@ -40,6 +40,12 @@ pub const CANONICAL_COLUMNS: [&str; 14] = [
     "age_err",
     "rotation_period",
     "mu_e",
+    "teff",
+    "teff_err",
+    "core",
+    "envelope",
+    "radius_model",
+    "mass_method",
     "ref",
 ];
 
@@ -50,7 +56,8 @@ pub const CANONICAL_CLASSES: [&str; 3] = ["hburning", "brown_dwarf", "white_dwar
 pub fn column_quantity(canonical: &str) -> Option<Quantity> {
     Some(match canonical {
         "mass" | "mass_err" | "mass_err_lo" | "mass_err_hi" => Quantity::Mass,
-        "radius" | "radius_err" => Quantity::Radius,
+        "radius" | "radius_err" | "radius_model" => Quantity::Radius,
+        "teff" | "teff_err" => Quantity::Temperature,
         "age" | "age_err" => Quantity::Age,
         "rotation_period" => Quantity::RotationPeriod,
         "mu_e" => Quantity::Dimensionless,

@@ -15,7 +15,7 @@ use super::vet::{CatalogueObject, QuarantinedRow};
 use crate::output::fmt_f64;
 
 /// Header of `accepted.csv`.
-pub const ACCEPTED_COLUMNS: [&str; 15] = [
+pub const ACCEPTED_COLUMNS: [&str; 21] = [
     "id",
     "class",
     "mass",
@@ -28,6 +28,12 @@ pub const ACCEPTED_COLUMNS: [&str; 15] = [
     "age_err",
     "rotation_period",
     "mu_e",
+    "teff",
+    "teff_err",
+    "core",
+    "envelope",
+    "radius_model",
+    "mass_method",
     "ref",
     "source_file",
     "source_row",
@@ -54,6 +60,12 @@ pub fn accepted_csv(objects: &[CatalogueObject]) -> Result<Vec<u8>, csv::Error> 
             fmt_f64(o.age_err_gyr),
             fmt_f64(o.rotation_period_h),
             fmt_f64(o.mu_e),
+            fmt_f64(o.teff_k),
+            fmt_f64(o.teff_err_k),
+            o.core.map_or("", |c| c.label()).to_string(),
+            o.envelope.map_or("", |e| e.label()).to_string(),
+            fmt_f64(o.radius_model_rsun),
+            o.mass_method.label().to_string(),
             o.reference.clone().unwrap_or_default(),
             o.source_file.clone(),
             o.source_row.to_string(),

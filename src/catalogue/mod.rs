@@ -30,6 +30,6 @@ mod read_votable;
 pub use colmap::ColumnMap;
 pub use error::CatalogueError;
 pub use vet::{
-    vet_files, vet_table, CatalogueObject, CatalogueTally, MassLimit, ObjectClass, QuarantinedRow,
-    Vetted,
+    vet_files, vet_table, CatalogueObject, CatalogueTally, CoreLabel, EnvelopeLabel, MassLimit,
+    MassMethod, ObjectClass, QuarantinedRow, Vetted,
 };

@@ -40,6 +40,8 @@ pub enum Dimension {
     Length,
     /// Time (reference unit: the SI second).
     Time,
+    /// Temperature (reference unit: the kelvin).
+    Temperature,
     /// A pure number.
     Dimensionless,
 }
@@ -51,6 +53,7 @@ impl Dimension {
             Dimension::Mass => "a mass",
             Dimension::Length => "a length",
             Dimension::Time => "a time",
+            Dimension::Temperature => "a temperature",
             Dimension::Dimensionless => "dimensionless",
         }
     }
@@ -94,6 +97,8 @@ pub enum Quantity {
     Age,
     /// Rotation periods: hour.
     RotationPeriod,
+    /// Effective temperatures and their errors: kelvin.
+    Temperature,
     /// Pure numbers such as μ_e.
     Dimensionless,
 }
@@ -105,6 +110,7 @@ impl Quantity {
             Quantity::Mass => Dimension::Mass,
             Quantity::Radius => Dimension::Length,
             Quantity::Age | Quantity::RotationPeriod => Dimension::Time,
+            Quantity::Temperature => Dimension::Temperature,
             Quantity::Dimensionless => Dimension::Dimensionless,
         }
     }
@@ -116,6 +122,7 @@ impl Quantity {
             Quantity::Radius => "solRad",
             Quantity::Age => "Gyr",
             Quantity::RotationPeriod => "h",
+            Quantity::Temperature => "K",
             Quantity::Dimensionless => "",
         }
     }
@@ -137,7 +144,7 @@ pub struct UnitError(pub String);
 
 /// Units whose symbols take SI prefixes here (VOUnits 1.0 allows prefixes on these; prefixes on
 /// `solMass` and friends are not used in practice and are refused to keep the grammar small).
-pub const PREFIXABLE: [&str; 5] = ["g", "m", "s", "yr", "a"];
+pub const PREFIXABLE: [&str; 6] = ["g", "m", "s", "yr", "a", "K"];
 
 /// SI prefixes allowed by VOUnits 1.0, with their factors. `da` is matched before `d`.
 const PREFIXES: [(&str, f64); 20] = [
@@ -180,6 +187,7 @@ fn base_unit(symbol: &str) -> Option<(Dimension, f64)> {
         "h" => (Dimension::Time, 3600.0),
         "d" => (Dimension::Time, 86_400.0),
         "yr" | "a" => (Dimension::Time, JULIAN_YEAR_S),
+        "K" => (Dimension::Temperature, 1.0),
         _ => return None,
     })
 }
@@ -197,6 +205,7 @@ fn hint(symbol: &str) -> Option<&'static str> {
         "day" | "days" => "d",
         "year" | "years" | "y" => "yr",
         "sec" => "s",
+        "kelvin" | "Kelvin" | "k" => "K",
         _ => return None,
     })
 }
@@ -224,7 +233,7 @@ fn parse_symbol(symbol: &str) -> Result<(Dimension, f64), UnitError> {
     if let Some(h) = hint(symbol) {
         msg.push_str(&format!(" (write `{h}`)"));
     } else {
-        msg.push_str(" (supported: solMass, jupiterMass, earthMass, g, solRad, jupiterRad, earthRad, m, s, min, h, d, yr, a, with SI prefixes on g, m, s, yr, a)");
+        msg.push_str(" (supported: solMass, jupiterMass, earthMass, g, solRad, jupiterRad, earthRad, m, s, min, h, d, yr, a, K, with SI prefixes on g, m, s, yr, a, K)");
     }
     Err(UnitError(msg))
 }

@@ -45,6 +45,10 @@
 //! | mass_err, mass_err_lo, mass_err_hi | `not positive` | error ≤ 0 (also when given with a limit) |
 //! | radius, radius_err, age, age_err, rotation_period | `not positive` | value ≤ 0 |
 //! | mu_e | `mu_e outside [1, 3]` | μ_e < 1 or > 3 |
+//! | teff, teff_err, radius_model | `not positive` | value ≤ 0 |
+//! | core | `unknown core (expected he, co or one)` | anything else (any case; `c/o`, `o/ne` accepted) |
+//! | envelope | `unknown envelope (expected thick or thin)` | anything else |
+//! | mass_method | `unknown mass_method (expected dynamical, redshift or model)` | anything else (empty is unknown) |
 //! | mass | `above 0.2 Msun, implausible for a brown_dwarf` | see thresholds |
 //! | mass | `above 1.0 Msun, implausible for the hburning sample` | see thresholds |
 //! | mass | `above 2.0 Msun, implausible for a white_dwarf` | see thresholds |
@@ -149,6 +153,107 @@ impl MassLimit {
     }
 }
 
+/// White-dwarf core composition as a catalogue states it (`core` column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CoreLabel {
+    /// Helium core (`he`).
+    He,
+    /// Carbon–oxygen core (`co`).
+    Co,
+    /// Oxygen–neon core (`one`).
+    One,
+}
+
+impl CoreLabel {
+    /// The label as written in catalogues and outputs.
+    pub fn label(self) -> &'static str {
+        match self {
+            CoreLabel::He => "he",
+            CoreLabel::Co => "co",
+            CoreLabel::One => "one",
+        }
+    }
+
+    /// Parses `he`, `co` or `one` (any case; `c/o` and `o/ne` too).
+    pub fn from_label(text: &str) -> Option<CoreLabel> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "he" => Some(CoreLabel::He),
+            "co" | "c/o" => Some(CoreLabel::Co),
+            "one" | "o/ne" => Some(CoreLabel::One),
+            _ => None,
+        }
+    }
+}
+
+/// Thickness of a white dwarf's hydrogen layer (`envelope` column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EnvelopeLabel {
+    /// Thick hydrogen layer (M_H/M ≈ 1e-4, the usual DA white dwarf).
+    Thick,
+    /// Thin hydrogen layer (M_H/M ≈ 1e-10, nearly bare helium).
+    Thin,
+}
+
+impl EnvelopeLabel {
+    /// The label as written in catalogues and outputs.
+    pub fn label(self) -> &'static str {
+        match self {
+            EnvelopeLabel::Thick => "thick",
+            EnvelopeLabel::Thin => "thin",
+        }
+    }
+
+    /// Parses `thick` or `thin` (any case).
+    pub fn from_label(text: &str) -> Option<EnvelopeLabel> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "thick" => Some(EnvelopeLabel::Thick),
+            "thin" => Some(EnvelopeLabel::Thin),
+            _ => None,
+        }
+    }
+}
+
+/// Where a mass came from (`mass_method` column). A mass obtained through a standard-gravity
+/// model is circular for a test of that model, so the confrontation treats it apart.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MassMethod {
+    /// Not stated.
+    #[default]
+    Unknown,
+    /// Orbits, eclipses, timing or lensing: independent of any structure model.
+    Dynamical,
+    /// Gravitational redshift combined with a measured radius.
+    Redshift,
+    /// Through a mass–radius relation, spectroscopic log g, photometry or evolutionary tracks.
+    Model,
+}
+
+impl MassMethod {
+    /// The label as written in catalogues and outputs (empty for unknown).
+    pub fn label(self) -> &'static str {
+        match self {
+            MassMethod::Unknown => "",
+            MassMethod::Dynamical => "dynamical",
+            MassMethod::Redshift => "redshift",
+            MassMethod::Model => "model",
+        }
+    }
+
+    /// Parses `dynamical`, `redshift` or `model` (any case); empty is unknown.
+    pub fn from_label(text: &str) -> Option<MassMethod> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "" | "unknown" => Some(MassMethod::Unknown),
+            "dynamical" => Some(MassMethod::Dynamical),
+            "redshift" => Some(MassMethod::Redshift),
+            "model" => Some(MassMethod::Model),
+            _ => None,
+        }
+    }
+}
+
 /// One accepted object in canonical units.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct CatalogueObject {
@@ -176,6 +281,18 @@ pub struct CatalogueObject {
     pub rotation_period_h: Option<f64>,
     /// Mean molecular weight per electron, if given (consumers default to 2).
     pub mu_e: Option<f64>,
+    /// Effective temperature, K.
+    pub teff_k: Option<f64>,
+    /// 1σ effective-temperature error, K.
+    pub teff_err_k: Option<f64>,
+    /// White-dwarf core composition, if stated (consumers default by mass).
+    pub core: Option<CoreLabel>,
+    /// White-dwarf hydrogen layer, if stated (consumers default to thick).
+    pub envelope: Option<EnvelopeLabel>,
+    /// The user's own standard-gravity model radius, R☉ (anchors the radius test).
+    pub radius_model_rsun: Option<f64>,
+    /// Where the mass came from.
+    pub mass_method: MassMethod,
     /// Free-text reference.
     pub reference: Option<String>,
     /// The catalogue file as given on the command line.
@@ -239,6 +356,13 @@ pub mod reason {
     pub const UNKNOWN_CLASS: &str = "unknown class label";
     /// Bad `mass_limit`.
     pub const UNKNOWN_LIMIT: &str = "unknown mass_limit value (expected empty, upper or lower)";
+    /// Bad `core`.
+    pub const UNKNOWN_CORE: &str = "unknown core (expected he, co or one)";
+    /// Bad `envelope`.
+    pub const UNKNOWN_ENVELOPE: &str = "unknown envelope (expected thick or thin)";
+    /// Bad `mass_method`.
+    pub const UNKNOWN_MASS_METHOD: &str =
+        "unknown mass_method (expected dynamical, redshift or model)";
     /// Empty mass.
     pub const MISSING_MASS: &str = "missing mass";
     /// Text that is not a number.
@@ -375,6 +499,9 @@ fn resolve(
         ("age_err", Some("age")),
         ("rotation_period", None),
         ("mu_e", None),
+        ("teff", None),
+        ("teff_err", Some("teff")),
+        ("radius_model", None),
     ];
     let mut unit_strings: HashMap<&str, String> = HashMap::new();
     for (canonical, value_col) in order {
@@ -458,13 +585,16 @@ fn cell_number(cell: &Cell) -> Result<Option<f64>, &'static str> {
 /// Optional columns in which NaN means "no value", as FITS and VOTable define it, so that the
 /// same table vets alike from every format (ECSV and CSV carry NaN as a number). In the
 /// required columns (mass and its errors) NaN stays a quarantine reason.
-const NAN_IS_MISSING: [&str; 6] = [
+const NAN_IS_MISSING: [&str; 9] = [
     "radius",
     "radius_err",
     "age",
     "age_err",
     "rotation_period",
     "mu_e",
+    "teff",
+    "teff_err",
+    "radius_model",
 ];
 
 /// Whether a cell holds NaN (as a number, or as the text `nan`/`NaN`).
@@ -630,6 +760,27 @@ fn vet_row(
             Some(v)
         }
     };
+    let teff_k = view.positive("teff")?;
+    let teff_err_k = view.positive("teff_err")?;
+    let radius_model_rsun = view.positive("radius_model")?;
+    let core = match view.text("core") {
+        None => None,
+        Some(t) => {
+            Some(CoreLabel::from_label(&t).ok_or_else(|| view.fail("core", reason::UNKNOWN_CORE))?)
+        }
+    };
+    let envelope = match view.text("envelope") {
+        None => None,
+        Some(t) => Some(
+            EnvelopeLabel::from_label(&t)
+                .ok_or_else(|| view.fail("envelope", reason::UNKNOWN_ENVELOPE))?,
+        ),
+    };
+    let mass_method = match view.text("mass_method") {
+        None => MassMethod::Unknown,
+        Some(t) => MassMethod::from_label(&t)
+            .ok_or_else(|| view.fail("mass_method", reason::UNKNOWN_MASS_METHOD))?,
+    };
 
     // Plausibility for the class (see module doc for which limits are checked against what).
     let check_upper = mass_limit != MassLimit::Upper;
@@ -666,6 +817,12 @@ fn vet_row(
         age_err_gyr,
         rotation_period_h,
         mu_e,
+        teff_k,
+        teff_err_k,
+        core,
+        envelope,
+        radius_model_rsun,
+        mass_method,
         reference: view.text("ref"),
         source_file: path_label.to_string(),
         source_row: row_number,

@@ -13,6 +13,7 @@
 //! ```
 //! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
 //! use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
+//! use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
 //! struct Flat;
 //! impl BoundSurface for Flat {
 //!     fn upsilon(&self) -> &[f64] { &[-0.1, 0.0, 0.1] }
@@ -20,11 +21,14 @@
 //!     fn mmhb_msun(&self, i: usize) -> Option<f64> { Some(0.075 * (1.0 + 0.1 * self.upsilon()[i])) }
 //!     fn chandrasekhar_mu2_msun(&self, _i: usize) -> Option<f64> { Some(1.4563) }
 //!     fn wd_radii_rsun(&self, _i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> { vec![None; q.len()] }
+//!     fn wd_standard_radii(&self, q: &[WdQuery]) -> Vec<Option<WdStandard>> { vec![None; q.len()] }
 //! }
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
 //!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
 //!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, mu_e: None, reference: None, source_file: "a.csv".into(), source_row: 1 };
+//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
+//!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! let c = confront(&[star], &Flat, &EngineOptions::default()).unwrap();
 //! assert_eq!(c.joint.len(), 3);
 //! ```
@@ -34,7 +38,8 @@ use rayon::prelude::*;
 use super::prob::{ln_prob_consistent, tension_sigma, MassKind, Measurement, Side, StatsError};
 use super::reduce::{ClassCurve, ReduceOptions};
 use super::regions::PopulationTerm;
-use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+use super::wd_radius::{self, ObjectRadius, RadiusOptions, ResolvedCore, WdQuery, WdStandard};
+use crate::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
 
 /// The bounds over the grid, as the comparator needs them. Index `i` runs over grid points in
 /// row-major order: τ outer, Υ inner (`i = j_tau * n_upsilon + i_upsilon`).
@@ -51,6 +56,11 @@ pub trait BoundSurface: Sync {
     /// above the maximum mass or where no model exists. Batched because looking up a grid
     /// point's mass–radius table costs far more than one radius from it.
     fn wd_radii_rsun(&self, i: usize, queries: &[(f64, f64)]) -> Vec<Option<f64>>;
+    /// The standard-gravity radius model for each query (mass, Teff, core, envelope), asked
+    /// once per confrontation; `None` where the model has no star. The radius at a grid point
+    /// is this radius times the ratio of [`BoundSurface::wd_radii_rsun`] at the point to
+    /// [`WdStandard::cold_rsun`].
+    fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>>;
 }
 
 /// Choices of the comparison (defaults from `theory/bounds.md` §4–§5 and `structure.md` §4.6).
@@ -60,8 +70,8 @@ pub struct EngineOptions {
     pub mmhb_floor_msun: f64,
     /// Theory floor of the Chandrasekhar mass (1σ) for μe = 2, M☉.
     pub chandrasekhar_floor_msun: f64,
-    /// Fractional theory floor on predicted white-dwarf radii.
-    pub wd_radius_floor_fraction: f64,
+    /// The white-dwarf radius test: model, floors, domain.
+    pub radius: RadiusOptions,
     /// Objects of the MMHB classes younger than this are left out of the MMHB test, Gyr.
     pub age_min_mmhb_gyr: f64,
     /// Keep young objects in the MMHB test anyway.
@@ -84,7 +94,7 @@ impl Default for EngineOptions {
         Self {
             mmhb_floor_msun: 0.005,
             chandrasekhar_floor_msun: 0.03,
-            wd_radius_floor_fraction: 0.03,
+            radius: RadiusOptions::default(),
             age_min_mmhb_gyr: 1.0,
             include_young: false,
             exclude_age_unknown: false,
@@ -143,10 +153,15 @@ pub struct ObjectUse {
     pub measurement: Measurement,
     /// Whether it feeds the mass–radius term.
     pub radius_term: bool,
-    /// Why it is left out of its mass test, if it is (`young`, `age_unknown`).
+    /// Why it is left out of its mass test, if it is (`young`, `age_unknown`, `model mass`).
     pub excluded: Option<String>,
-    /// Flags for `objects.csv` (`young`, `age_unknown`, `limit_uninformative`).
+    /// Why a white dwarf with a radius is left out of the radius test, if it is.
+    pub radius_excluded: Option<String>,
+    /// Flags for `objects.csv` (`young`, `age_unknown`, `limit_uninformative`, `model_mass`,
+    /// `mass_method_unknown`, `no_teff`, `elm`, `no_hot_model`, `radius_anchored`).
     pub flags: Vec<String>,
+    /// Core of a white dwarf after the default by mass.
+    pub core: Option<ResolvedCore>,
     /// μe used for a white dwarf.
     pub mu_e: f64,
 }
@@ -168,6 +183,8 @@ pub struct Confrontation {
     pub curves: Vec<(Term, ClassCurve)>,
     /// The population-aware term, when asked for.
     pub population: Option<PopulationTerm>,
+    /// The radius tests, prepared (nodes and standard model per object).
+    pub radius_objects: Vec<ObjectRadius>,
 }
 
 /// Maps a catalogue object to the statistics' measurement for its class.
@@ -239,18 +256,43 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
             if !measurement.informative() {
                 flags.push("limit_uninformative".to_string());
             }
-            let radius_term = o.class == ObjectClass::WhiteDwarf
-                && o.mass_limit == MassLimit::None
-                && o.radius_rsun.is_some()
-                && o.radius_err_rsun.is_some();
+            match o.mass_method {
+                MassMethod::Model => {
+                    flags.push("model_mass".to_string());
+                    if !opts.radius.include_model_masses && excluded.is_none() {
+                        excluded = Some(
+                            "mass from a standard-gravity model (circular for this test)"
+                                .to_string(),
+                        );
+                    }
+                }
+                MassMethod::Unknown => flags.push("mass_method_unknown".to_string()),
+                MassMethod::Dynamical | MassMethod::Redshift => {}
+            }
+            let is_wd = o.class == ObjectClass::WhiteDwarf;
+            let mut radius_excluded = None;
+            let mut radius_term = is_wd && wd_radius::has_radius_measurement(o);
+            if radius_term {
+                if let Some((flag, why)) = wd_radius::radius_domain(o, &opts.radius) {
+                    if flag != "model_mass" {
+                        flags.push(flag.to_string());
+                    }
+                    radius_excluded = Some(why);
+                    radius_term = false;
+                } else if o.radius_model_rsun.is_some() {
+                    flags.push("radius_anchored".to_string());
+                }
+            }
             ObjectUse {
                 index,
                 mass_term: if excluded.is_some() { None } else { Some(term) },
                 measurement,
                 radius_term,
                 excluded,
+                radius_excluded,
                 flags,
                 mu_e,
+                core: is_wd.then(|| ResolvedCore::resolve(o.core, o.mass_msun)),
             }
         })
         .collect()
@@ -353,33 +395,28 @@ pub fn confront(
             }
         }
     }
-    let radius_objects: Vec<(usize, f64)> = uses
-        .iter()
-        .filter(|u| u.radius_term)
-        .map(|u| (u.index, u.mu_e))
-        .collect();
+    let radius_objects = prepare_radius_objects(objects, &uses, surface, opts);
     if !radius_objects.is_empty() {
-        let nodes: Vec<Vec<(f64, f64)>> = radius_objects
+        let queries: Vec<(f64, f64)> = radius_objects
             .iter()
-            .map(|&(k, mu_e)| {
-                radius_mass_nodes(&objects[k])
-                    .into_iter()
-                    .map(|(m, _)| (m, mu_e))
-                    .collect()
+            .flat_map(|r| {
+                let mu_e = uses[r.index].mu_e;
+                r.nodes.iter().map(move |&(m, _)| (m, mu_e))
             })
             .collect();
-        let queries: Vec<(f64, f64)> = nodes.iter().flatten().copied().collect();
+        let ups = surface.upsilon();
         per_term[Term::WhiteDwarfRadius.index()] = (0..n)
             .into_par_iter()
             .map(|i| {
                 chandra[i]?;
                 let radii = surface.wd_radii_rsun(i, &queries);
+                let upsilon = ups[i % nu];
                 let mut sum = 0.0;
                 let mut at = 0;
-                for (&(k, _), q) in radius_objects.iter().zip(&nodes) {
-                    let r = &radii[at..at + q.len()];
-                    at += q.len();
-                    sum += -2.0 * ln_radius_likelihood(&objects[k], r, opts);
+                for r in &radius_objects {
+                    let cold = &radii[at..at + r.nodes.len()];
+                    at += r.nodes.len();
+                    sum += -2.0 * r.ln_likelihood(cold, upsilon);
                 }
                 Some(sum)
             })
@@ -413,12 +450,83 @@ pub fn confront(
         uses,
         curves,
         population,
+        radius_objects,
     })
 }
 
-/// Smallest log-likelihood a radius term can contribute (keeps −2 ln L finite where the whole
-/// mass range of an object lies above the maximum mass).
-pub const LN_L_RADIUS_FLOOR: f64 = -1e4;
+/// The radius tests of the objects that take one: mass nodes, the standard model at each node
+/// (asked of the surface once for all objects), floor and Teff error.
+pub fn prepare_radius_objects(
+    objects: &[CatalogueObject],
+    uses: &[ObjectUse],
+    surface: &dyn BoundSurface,
+    opts: &EngineOptions,
+) -> Vec<ObjectRadius> {
+    let mut out: Vec<ObjectRadius> = Vec::new();
+    let mut queries: Vec<WdQuery> = Vec::new();
+    for u in uses.iter().filter(|u| u.radius_term) {
+        let o = &objects[u.index];
+        let (Some(r), Some(e)) = (o.radius_rsun, o.radius_err_rsun) else {
+            continue;
+        };
+        let core = u
+            .core
+            .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun));
+        let nodes = radius_mass_nodes(o);
+        for &(m, _) in &nodes {
+            queries.push(WdQuery {
+                mass_msun: m,
+                mu_e: u.mu_e,
+                teff_k: o.teff_k,
+                core,
+                envelope: o.envelope,
+            });
+        }
+        out.push(ObjectRadius {
+            index: u.index,
+            radius_rsun: r,
+            radius_err_rsun: e,
+            nodes,
+            standard: Vec::new(),
+            floor_fraction: wd_radius::floor_fraction(&opts.radius, core, o.teff_k),
+            teff_err_k: o.teff_err_k.unwrap_or(0.0),
+        });
+    }
+    let mut standard = surface.wd_standard_radii(&queries).into_iter();
+    for r in &mut out {
+        let o = &objects[r.index];
+        let mut s: Vec<Option<WdStandard>> = standard.by_ref().take(r.nodes.len()).collect();
+        if let Some(model_rsun) = o.radius_model_rsun {
+            // The user's model radius anchors the standard radius at the nominal mass; the
+            // tool's model only carries its mass dependence to the other nodes.
+            let at_nominal = surface
+                .wd_standard_radii(&[WdQuery {
+                    mass_msun: o.mass_msun,
+                    mu_e: uses[r.index].mu_e,
+                    teff_k: o.teff_k,
+                    core: uses[r.index]
+                        .core
+                        .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun)),
+                    envelope: o.envelope,
+                }])
+                .into_iter()
+                .next()
+                .flatten();
+            for x in s.iter_mut() {
+                *x = match (*x, at_nominal) {
+                    (Some(mut v), Some(nominal)) if nominal.radius_rsun > 0.0 => {
+                        v.radius_rsun *= model_rsun / nominal.radius_rsun;
+                        v.envelope_fraction = 0.0;
+                        Some(v)
+                    }
+                    _ => None,
+                };
+            }
+        }
+        r.standard = s;
+    }
+    out
+}
 
 /// Number of nodes of the mass quadrature of the radius term.
 const RADIUS_QUADRATURE_NODES: usize = 41;
@@ -456,33 +564,6 @@ pub fn radius_mass_nodes(o: &CatalogueObject) -> Vec<(f64, f64)> {
             (m.max(f64::MIN_POSITIVE), w * dens * h / 3.0)
         })
         .collect()
-}
-
-/// ln of the likelihood of a white dwarf's measured radius, marginalised over its true mass:
-/// ∫ p(M | mass measurement) N(R_obs; R(M), σ(M)) dM over the masses that have a model (below
-/// the maximum mass), σ(M)² = σ_R² + (f R(M))², f the fractional theory floor. `radii` are the
-/// predicted radii at the nodes of [`radius_mass_nodes`] (`None` where no model exists).
-pub fn ln_radius_likelihood(
-    o: &CatalogueObject,
-    radii: &[Option<f64>],
-    opts: &EngineOptions,
-) -> f64 {
-    let (Some(r_obs), Some(r_err)) = (o.radius_rsun, o.radius_err_rsun) else {
-        return 0.0;
-    };
-    let mut total = 0.0;
-    for ((_, w), r) in radius_mass_nodes(o).iter().zip(radii) {
-        if let Some(r) = r {
-            let s2 = r_err * r_err + (opts.wd_radius_floor_fraction * r).powi(2);
-            let z = (r_obs - r) / s2.sqrt();
-            total += w * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt();
-        }
-    }
-    if total > 0.0 {
-        total.ln().max(LN_L_RADIUS_FLOOR)
-    } else {
-        LN_L_RADIUS_FLOOR
-    }
 }
 
 /// ln P of one object's mass test against a bound value of its class (scaled by μe for white

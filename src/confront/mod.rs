@@ -5,3 +5,4 @@ pub mod engine;
 pub mod prob;
 pub mod reduce;
 pub mod regions;
+pub mod wd_radius;

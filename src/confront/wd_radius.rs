@@ -1,0 +1,369 @@
+//! The white-dwarf radius test: which objects take it, with which floor, and its likelihood.
+//!
+//! A white dwarf with a measured radius is compared with the radius the theory predicts at its
+//! mass. The prediction is anchored: R(M; Υ, τ) = R_std(M) × R_c(M; Υ, τ)/R_c(M; 0, 0), where
+//! R_std is the standard-gravity radius of the finite-temperature model (or the user's own
+//! `radius_model`) and R_c the zero-temperature radius of the structure solver at the grid
+//! point. The ratio carries the modified gravity; the anchor carries temperature, envelope and
+//! composition. Where the anchored ratio is only approximate (hot or helium-core stars at large
+//! |Υ|) a theory error 0.5 |Υ| (R_hot/R_cold − 1) R is added in quadrature (the size of the
+//! deviation measured against full finite-temperature solves in Υ; see `docs/white-dwarfs.md` §8).
+//!
+//! This module decides the domain and the floors (documented statistics choices, see
+//! [`RadiusOptions`]); the numbers of the model come through [`WdStandard`] from whoever
+//! implements [`super::engine::BoundSurface`], so it is testable without any stellar structure.
+//!
+//! ```
+//! use dwarfbound::confront::wd_radius::{floor_fraction, RadiusOptions, ResolvedCore};
+//! let opts = RadiusOptions::default();
+//! // A cool carbon–oxygen white dwarf: the base floor.
+//! assert_eq!(floor_fraction(&opts, ResolvedCore::CarbonOxygen, Some(10_000.0)), 0.02);
+//! // A helium core at 60 000 K: the hot ramp and the helium term in quadrature.
+//! let f = floor_fraction(&opts, ResolvedCore::Helium, Some(60_000.0));
+//! assert!((f - (0.05f64.powi(2) + 0.04f64.powi(2)).sqrt()).abs() < 1e-12);
+//! ```
+
+use crate::catalogue::{CatalogueObject, CoreLabel, EnvelopeLabel, MassLimit, MassMethod};
+
+/// Which standard-gravity white-dwarf radius the radius test uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum WdRadiusModel {
+    /// Finite temperature, H/He envelope, electrostatic term (the default).
+    #[default]
+    Hot,
+    /// The bare zero-temperature Chandrasekhar model of earlier versions, with its flat floor;
+    /// kept so that earlier results can be reproduced.
+    Cold,
+}
+
+impl WdRadiusModel {
+    /// Name in outputs and on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            WdRadiusModel::Hot => "hot",
+            WdRadiusModel::Cold => "cold",
+        }
+    }
+}
+
+impl std::str::FromStr for WdRadiusModel {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "hot" | "finite-temperature" => Ok(WdRadiusModel::Hot),
+            "cold" | "zero-temperature" => Ok(WdRadiusModel::Cold),
+            other => Err(format!(
+                "unknown white-dwarf radius model `{other}` (expected hot or cold)"
+            )),
+        }
+    }
+}
+
+/// The domain and floors of the radius test (each value is a choice; the reasons are in the
+/// field docs and in `docs/white-dwarfs.md`).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct RadiusOptions {
+    /// Which standard-gravity model anchors the test.
+    pub model: WdRadiusModel,
+    /// Flat fractional floor of the cold model (earlier versions' 3 %).
+    pub cold_floor_fraction: f64,
+    /// Base fractional floor of the hot model: carbon–oxygen or oxygen–neon cores at
+    /// Teff ≤ `hot_ramp_start_k`. 2 %: the model's radii sit within about 0.01 dex in log g
+    /// (≈ 1–2 % in R) of evolutionary sequences at 5–20 kK (from memory).
+    pub hot_floor_fraction: f64,
+    /// Extra floor reached at `hot_ramp_end_k`, added linearly in log Teff from
+    /// `hot_ramp_start_k`: 3 %, because at 40–60 kK the fully ionised Kramers envelope and the
+    /// isothermal core put the model 0.02–0.05 dex below evolutionary log g (from memory).
+    pub hot_ramp_extra_fraction: f64,
+    /// Where the hot ramp starts, K.
+    pub hot_ramp_start_k: f64,
+    /// Where the hot ramp reaches its full size, K.
+    pub hot_ramp_end_k: f64,
+    /// Added in quadrature for helium cores: 4 %, the spread that residual hydrogen burning and
+    /// the unknown hydrogen mass cause in low-mass sequences (thick minus thin H is 4–8 % at
+    /// 0.3–0.45 M☉ and 10–20 kK in the model itself).
+    pub helium_core_fraction: f64,
+    /// White dwarfs lighter than this are extremely-low-mass objects (common practice: below
+    /// about 0.3 M☉, usually in tight binaries, often tidally distorted and still burning
+    /// hydrogen): outside the model's domain.
+    pub elm_max_msun: f64,
+    /// Keep objects outside the domain (ELM, Teff outside the model's table) in the radius test
+    /// where a model radius still exists.
+    pub include_out_of_domain: bool,
+    /// Keep objects whose mass came through a standard-gravity model (`mass_method = model`) in
+    /// their tests although that is circular.
+    pub include_model_masses: bool,
+}
+
+impl Default for RadiusOptions {
+    fn default() -> Self {
+        Self {
+            model: WdRadiusModel::Hot,
+            cold_floor_fraction: 0.03,
+            hot_floor_fraction: 0.02,
+            hot_ramp_extra_fraction: 0.03,
+            hot_ramp_start_k: 15_000.0,
+            hot_ramp_end_k: 60_000.0,
+            helium_core_fraction: 0.04,
+            elm_max_msun: 0.3,
+            include_out_of_domain: false,
+            include_model_masses: false,
+        }
+    }
+}
+
+/// Core composition after the default by mass has been applied.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ResolvedCore {
+    /// Helium.
+    Helium,
+    /// Carbon–oxygen (50:50 by mass).
+    CarbonOxygen,
+    /// Oxygen–neon.
+    OxygenNeon,
+}
+
+/// Below this mass a white dwarf without a stated core is taken to have a helium core, M☉
+/// (single-star evolution cannot make a lighter carbon–oxygen core within a Hubble time;
+/// common practice, no source).
+pub const HELIUM_CORE_BELOW_MSUN: f64 = 0.45;
+/// Above this mass a white dwarf without a stated core is taken to have an oxygen–neon core,
+/// M☉ (common practice, no source).
+pub const OXYGEN_NEON_CORE_ABOVE_MSUN: f64 = 1.1;
+
+impl ResolvedCore {
+    /// The stated core, or the default by mass.
+    pub fn resolve(stated: Option<CoreLabel>, mass_msun: f64) -> ResolvedCore {
+        match stated {
+            Some(CoreLabel::He) => ResolvedCore::Helium,
+            Some(CoreLabel::Co) => ResolvedCore::CarbonOxygen,
+            Some(CoreLabel::One) => ResolvedCore::OxygenNeon,
+            None if mass_msun < HELIUM_CORE_BELOW_MSUN => ResolvedCore::Helium,
+            None if mass_msun > OXYGEN_NEON_CORE_ABOVE_MSUN => ResolvedCore::OxygenNeon,
+            None => ResolvedCore::CarbonOxygen,
+        }
+    }
+
+    /// Label as in the `core` column.
+    pub fn label(self) -> &'static str {
+        match self {
+            ResolvedCore::Helium => "he",
+            ResolvedCore::CarbonOxygen => "co",
+            ResolvedCore::OxygenNeon => "one",
+        }
+    }
+}
+
+/// What the radius model needs to know about one white dwarf at one trial mass.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WdQuery {
+    /// Trial mass, M☉.
+    pub mass_msun: f64,
+    /// μe of the object.
+    pub mu_e: f64,
+    /// Effective temperature, K (`None`: the cold model only).
+    pub teff_k: Option<f64>,
+    /// Core after the default by mass.
+    pub core: ResolvedCore,
+    /// Hydrogen layer if stated (`None`: thick, with half the thick–thin spread as an error).
+    pub envelope: Option<EnvelopeLabel>,
+}
+
+/// The standard-gravity radius model at one trial mass, as the theory supplies it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WdStandard {
+    /// The model's standard-gravity radius, R☉.
+    pub radius_rsun: f64,
+    /// The zero-temperature radius of the grid's structure solver at Υ = τ = 0, R☉ (the
+    /// denominator of the anchored ratio; same model as `BoundSurface::wd_radii_rsun`).
+    pub cold_rsun: f64,
+    /// R_hot/R_cold of the finite-temperature model (1 for the cold model), for the Υ error.
+    pub hot_over_cold: f64,
+    /// Fractional 1σ radius error from an unknown hydrogen layer (half of thick − thin).
+    pub envelope_fraction: f64,
+    /// d ln R / d Teff, 1/K (0 for the cold model): propagates the Teff error.
+    pub dln_r_dteff_per_k: f64,
+}
+
+/// Fractional radius floor of an object in the hot model (see [`RadiusOptions`]).
+pub fn floor_fraction(opts: &RadiusOptions, core: ResolvedCore, teff_k: Option<f64>) -> f64 {
+    if opts.model == WdRadiusModel::Cold {
+        return opts.cold_floor_fraction;
+    }
+    let ramp = match teff_k {
+        Some(t) if t > opts.hot_ramp_start_k => {
+            let x = (t / opts.hot_ramp_start_k).ln() / (opts.hot_ramp_end_k / opts.hot_ramp_start_k).ln();
+            opts.hot_ramp_extra_fraction * x.min(1.0)
+        }
+        _ => 0.0,
+    };
+    let base = opts.hot_floor_fraction + ramp;
+    match core {
+        ResolvedCore::Helium => base.hypot(opts.helium_core_fraction),
+        _ => base,
+    }
+}
+
+/// Why a white dwarf with a radius is left out of the radius test (or `None`), with the flag
+/// for `objects.csv`.
+pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<(&'static str, String)> {
+    if o.mass_method == MassMethod::Model && !opts.include_model_masses {
+        return Some((
+            "model_mass",
+            "mass from a standard-gravity model (circular for this test)".into(),
+        ));
+    }
+    if opts.model == WdRadiusModel::Cold || o.radius_model_rsun.is_some() {
+        return None;
+    }
+    if o.teff_k.is_none() {
+        return Some((
+            "no_teff",
+            "no Teff: the finite-temperature correction (3–30 %) exceeds the floor".into(),
+        ));
+    }
+    if !opts.include_out_of_domain && o.mass_msun < opts.elm_max_msun {
+        return Some((
+            "elm",
+            format!(
+                "extremely low mass (< {} M☉): outside the model's domain",
+                opts.elm_max_msun
+            ),
+        ));
+    }
+    None
+}
+
+/// Whether an object has what the radius test needs at all.
+pub fn has_radius_measurement(o: &CatalogueObject) -> bool {
+    o.mass_limit == MassLimit::None && o.radius_rsun.is_some() && o.radius_err_rsun.is_some()
+}
+
+/// One object's radius test, prepared once per confrontation.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ObjectRadius {
+    /// Index into the caller's object list.
+    pub index: usize,
+    /// Measured radius, R☉.
+    pub radius_rsun: f64,
+    /// 1σ radius error, R☉.
+    pub radius_err_rsun: f64,
+    /// Mass nodes (M☉) and weights of the marginalisation over the true mass.
+    pub nodes: Vec<(f64, f64)>,
+    /// The standard model at each node (`None`: no model at that mass).
+    pub standard: Vec<Option<WdStandard>>,
+    /// Fractional floor of the object.
+    pub floor_fraction: f64,
+    /// 1σ Teff error, K (0 when unknown).
+    pub teff_err_k: f64,
+}
+
+/// Smallest log-likelihood a radius term can contribute (keeps −2 ln L finite where the whole
+/// mass range of an object lies above the maximum mass).
+pub const LN_L_RADIUS_FLOOR: f64 = -1e4;
+
+impl ObjectRadius {
+    /// Predicted radius and its theory 1σ at node `k`, given the cold radius of the grid point
+    /// at that node and the point's Υ; `None` where no model exists.
+    pub fn predicted(&self, k: usize, cold_at_point: Option<f64>, upsilon: f64) -> Option<(f64, f64)> {
+        let s = self.standard.get(k).copied().flatten()?;
+        let cold = cold_at_point?;
+        if !(s.cold_rsun > 0.0) {
+            return None;
+        }
+        let r = s.radius_rsun * cold / s.cold_rsun;
+        let anchor = 0.5 * upsilon.abs() * (s.hot_over_cold - 1.0).max(0.0);
+        let teff = s.dln_r_dteff_per_k * self.teff_err_k;
+        let frac = (self.floor_fraction.powi(2)
+            + s.envelope_fraction.powi(2)
+            + anchor.powi(2)
+            + teff.powi(2))
+        .sqrt();
+        Some((r, frac * r))
+    }
+
+    /// ln of the likelihood of the measured radius marginalised over the true mass:
+    /// Σ_k w_k N(R_obs; R_k, σ_k), σ_k² = σ_R² + σ_th,k², over the nodes with a model.
+    /// `cold_at_point[k]` is the structure solver's cold radius at node k at the grid point.
+    pub fn ln_likelihood(&self, cold_at_point: &[Option<f64>], upsilon: f64) -> f64 {
+        let mut total = 0.0;
+        for (k, ((_, w), cold)) in self.nodes.iter().zip(cold_at_point).enumerate() {
+            if let Some((r, th)) = self.predicted(k, *cold, upsilon) {
+                let s2 = self.radius_err_rsun.powi(2) + th * th;
+                let z = (self.radius_rsun - r) / s2.sqrt();
+                total += w * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt();
+            }
+        }
+        if total > 0.0 {
+            total.ln().max(LN_L_RADIUS_FLOOR)
+        } else {
+            LN_L_RADIUS_FLOOR
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn default_core_by_mass() {
+        // Thresholds of the module constants (common practice, no source).
+        assert_eq!(ResolvedCore::resolve(None, 0.3), ResolvedCore::Helium);
+        assert_eq!(ResolvedCore::resolve(None, 0.6), ResolvedCore::CarbonOxygen);
+        assert_eq!(ResolvedCore::resolve(None, 1.2), ResolvedCore::OxygenNeon);
+        assert_eq!(
+            ResolvedCore::resolve(Some(CoreLabel::Co), 0.3),
+            ResolvedCore::CarbonOxygen
+        );
+    }
+
+    #[test]
+    fn floor_ramps_with_teff_and_is_flat_for_cold() {
+        let o = RadiusOptions::default();
+        let f = |t| floor_fraction(&o, ResolvedCore::CarbonOxygen, Some(t));
+        assert_eq!(f(5_000.0), 0.02);
+        assert!((f(30_000.0) - 0.035).abs() < 1e-12); // halfway in log Teff
+        assert!((f(100_000.0) - 0.05).abs() < 1e-12);
+        let cold = RadiusOptions {
+            model: WdRadiusModel::Cold,
+            ..Default::default()
+        };
+        assert_eq!(floor_fraction(&cold, ResolvedCore::Helium, Some(50_000.0)), 0.03);
+    }
+
+    #[test]
+    fn anchored_prediction_and_likelihood() {
+        let std = WdStandard {
+            radius_rsun: 0.0130,
+            cold_rsun: 0.0120,
+            hot_over_cold: 0.0130 / 0.0120,
+            envelope_fraction: 0.0,
+            dln_r_dteff_per_k: 0.0,
+        };
+        let o = ObjectRadius {
+            index: 0,
+            radius_rsun: 0.0130,
+            radius_err_rsun: 0.0002,
+            nodes: vec![(0.6, 1.0)],
+            standard: vec![Some(std)],
+            floor_fraction: 0.02,
+            teff_err_k: 0.0,
+        };
+        // At the standard point the anchored radius is the standard one.
+        let (r, th) = o.predicted(0, Some(0.0120), 0.0).unwrap();
+        assert!((r - 0.0130).abs() < 1e-15);
+        assert!((th - 0.02 * 0.0130).abs() < 1e-15);
+        // A 5 % larger cold radius moves the prediction by 5 % and adds the anchor error.
+        let (r, th) = o.predicted(0, Some(0.0126), 0.1).unwrap();
+        assert!((r - 0.01365).abs() < 1e-12);
+        let anchor = 0.5 * 0.1 * (0.0130 / 0.0120 - 1.0);
+        assert!((th / r - (0.02f64.powi(2) + anchor * anchor).sqrt()).abs() < 1e-12);
+        // Exact Gaussian at one node.
+        let s2: f64 = 0.0002f64.powi(2) + (0.02 * 0.0130f64).powi(2);
+        let ln_l = o.ln_likelihood(&[Some(0.0120)], 0.0);
+        assert!((ln_l + 0.5 * (2.0 * std::f64::consts::PI * s2).ln()).abs() < 1e-12);
+    }
+}
