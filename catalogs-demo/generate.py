@@ -269,6 +269,57 @@ def _f(x, decimals):
     return f"{x:.{decimals}f}"
 
 
+class HotRadius:
+    """Standard-gravity radii of finite-temperature white dwarfs with H/He layers, linearly
+    interpolated (in mass and log Teff) in the table the tool itself ships
+    (assets/wd_hot_table.csv, written by `cargo run --example make_wd_hot_table`), so that the
+    demo's white dwarfs are drawn from the model the tool tests them against."""
+
+    def __init__(self, path=None):
+        path = path or os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "assets", "wd_hot_table.csv")
+        self.rows = {}
+        with open(path, encoding="utf-8") as f:
+            header = None
+            for line in f:
+                if line.startswith("#") or not line.strip():
+                    continue
+                cells = line.rstrip("\n").split(",")
+                if header is None:
+                    header = cells
+                    continue
+                r = dict(zip(header, cells))
+                key = (r["core"], r["envelope"])
+                radius = float(r["radius_rsun"]) if r["status"] == "ok" else None
+                self.rows.setdefault(key, {}).setdefault(float(r["mass_msun"]), []).append(
+                    (math.log10(float(r["teff_k"])), radius))
+
+    def radius_rsun(self, mass_msun, teff_k, core, envelope):
+        """Radius or None where the table has no model around the point."""
+        table = self.rows[(core, envelope)]
+        masses = sorted(table)
+        if not masses[0] <= mass_msun <= masses[-1]:
+            return None
+        i = max(k for k in range(len(masses) - 1) if masses[k] <= mass_msun) if mass_msun < masses[-1] else len(masses) - 2
+        m0, m1 = masses[i], masses[i + 1]
+
+        def at(m):
+            pts = sorted(table[m])
+            lt = math.log10(teff_k)
+            if not pts[0][0] <= lt <= pts[-1][0]:
+                return None
+            for (a, ra), (b, rb) in zip(pts, pts[1:]):
+                if a <= lt <= b:
+                    if ra is None or rb is None:
+                        return None
+                    return ra + (rb - ra) * (lt - a) / (b - a)
+            return None
+
+        r0, r1 = at(m0), at(m1)
+        if r0 is None or r1 is None:
+            return None
+        return r0 + (r1 - r0) * (mass_msun - m0) / (m1 - m0)
+
+
 def measured_mass(draw, true_m, frac_err, split, decimals):
     """Observed mass and its errors: symmetric, or split with the true mass drawn from the
     side that the matching error describes (true below observed -> the lower error)."""
@@ -365,21 +416,41 @@ def brown_dwarfs():
     return rows
 
 
-def white_dwarfs(mr):
+def wd_core(mass_msun):
+    """The tool's default core by mass (docs/white-dwarfs.md section 13)."""
+    return "he" if mass_msun < 0.45 else ("one" if mass_msun > 1.1 else "co")
+
+
+def white_dwarfs(mr, hot):
+    """300 HFC white dwarfs. Radii (for about 40 %) are drawn from the finite-temperature model
+    at each object's true mass, Teff, core and hydrogen layer; the demo exercises every path of
+    the radius test: hot and helium-core objects, thin layers, masses from a model (left out),
+    radii without Teff and an extremely-low-mass object (both outside the model's domain)."""
     draw = Draw(SEED + 3)
-    refs = ["HFC invented: gravitational redshift and parallax", "HFC invented: spectroscopic fit", "HFC invented: binary orbit"]
+    methods = {"HFC invented: gravitational redshift and parallax": "redshift",
+               "HFC invented: spectroscopic fit": "model",
+               "HFC invented: binary orbit": "dynamical"}
+    refs = list(methods)
     mu_e_at = {12: 2.0, 58: 2.0, 104: 2.15, 177: 2.0, 203: 2.15, 266: 2.0}
+    helium = {31, 77, 140, 188, 230, 281}  # low-mass helium-core white dwarfs
+    no_teff = {45, 161}                     # a radius but no Teff
+    elm = 299                               # an extremely-low-mass white dwarf
     rows = []
     for i in range(1, 301):
         while True:
             u = draw.u()
-            if u < 0.70:
+            if i == elm:
+                true_m = 0.24 + 0.01 * draw.normal()
+            elif i in helium:
+                true_m = draw.uniform(0.32, 0.44)
+            elif u < 0.70:
                 true_m = 0.60 + 0.045 * draw.normal()
             elif u < 0.88:
                 true_m = 0.78 + 0.09 * draw.normal()
             else:
-                true_m = draw.uniform(0.90, 1.30)
-            if 0.45 <= true_m <= 1.30 and (i not in mu_e_at or true_m <= 0.9):
+                true_m = draw.uniform(0.90, 1.28)
+            ok_range = (0.2 <= true_m <= 0.3) if i == elm else (0.3 <= true_m <= 1.28)
+            if ok_range and (i not in mu_e_at or true_m <= 0.9):
                 break
         frac = draw.uniform(0.01, 0.05)
         split = draw.u() < 0.15
@@ -389,24 +460,48 @@ def white_dwarfs(mr):
             row.update({"mass": _f(0.9 * true_m, 4), "mass_err": "", "mass_err_lo": "", "mass_err_hi": "", "mass_limit": "lower"})
         else:
             row.update(measured_mass(draw, true_m, frac, split, 4))
-        if i != 150 and draw.u() < 0.40:
-            r_true = mr.radius_rsun(true_m, mu_e or 2.0)
+        # Teff log-uniform in 6-40 kK, with one in eight hot (40-80 kK).
+        if draw.u() < 0.125:
+            teff = 10 ** draw.uniform(math.log10(40_000), math.log10(80_000))
+        else:
+            teff = 10 ** draw.uniform(math.log10(6_000), math.log10(40_000))
+        envelope = "thin" if draw.u() < 0.2 else "thick"
+        core = wd_core(true_m)
+        ref = "HFC invented: hypothetical iron-rich core" if mu_e == 2.15 else draw.pick(refs)
+        method = methods.get(ref, "dynamical")
+        want_radius = i != 150 and (draw.u() < 0.40 or i in helium or i in no_teff or i == elm)
+        r_true = None
+        if want_radius and mu_e is None:
+            r_true = hot.radius_rsun(true_m, teff, core, envelope)
+        elif want_radius:
+            r_true = mr.radius_rsun(true_m, mu_e)  # unusual mu_e: the zero-temperature model
+        if r_true is not None:
             r_frac = draw.uniform(0.01, 0.04)
             r_obs = r_true * (1.0 + r_frac * draw.normal())
             row["radius"] = _f(r_obs, 7)
             row["radius_err"] = _f(r_frac * r_obs, 7)
         else:
             row["radius"] = row["radius_err"] = ""
+        teff_err = teff * draw.uniform(0.01, 0.03)
+        if i in no_teff:
+            row["teff"] = row["teff_err"] = ""
+        else:
+            row["teff"] = f"{teff:.0f}"
+            row["teff_err"] = f"{teff_err:.0f}"
+        # The core is stated for the helium-core objects; the envelope for a third of all.
+        row["core"] = core if (i in helium or i == elm) else ""
+        row["envelope"] = envelope if draw.u() < 0.33 else ""
+        row["mass_method"] = method
         row["mu_e"] = f"{mu_e:.2f}" if mu_e else ""
-        row["ref"] = "HFC invented: hypothetical iron-rich core" if mu_e == 2.15 else draw.pick(refs)
+        row["ref"] = ref
         rows.append(row)
     return rows
 
 
-def next_night(mr):
+def next_night(mr, hot):
     """Seven new HFC objects from the following night, fixed by hand; HFC-V0302 is the one in
     mild tension with standard gravity."""
-    r1 = mr.radius_rsun(0.6120)
+    r1 = hot.radius_rsun(0.6120, 12_000.0, "co", "thick")
 
     def obj(ident, cls, **fields):
         row = {c: "" for c in COLS_ALL}
@@ -426,8 +521,10 @@ def next_night(mr):
         obj("HFC-B0102", "brown_dwarf", mass="0.03050", mass_err="0.00150", age="0.300", age_err="0.080",
             rotation_period="14.20", ref="HFC invented: relative orbit of a wide pair"),
         obj("HFC-W0301", "white_dwarf", mass="0.6120", mass_err="0.0120", radius=_f(r1, 7),
-            radius_err=_f(0.02 * r1, 7), ref="HFC invented: gravitational redshift and parallax"),
-        obj("HFC-W0302", "white_dwarf", mass="0.9050", mass_err="0.0250", ref="HFC invented: spectroscopic fit"),
+            radius_err=_f(0.02 * r1, 7), teff="12000", teff_err="200", mass_method="redshift",
+            ref="HFC invented: gravitational redshift and parallax"),
+        obj("HFC-W0302", "white_dwarf", mass="0.9050", mass_err="0.0250", mass_method="model",
+            ref="HFC invented: spectroscopic fit"),
     ]
 
 
@@ -556,9 +653,9 @@ age = "Myr"
 COLS_LOW = ["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi", "mass_limit", "age", "age_err",
             "rotation_period", "ref"]
 COLS_WD = ["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi", "mass_limit", "radius", "radius_err",
-           "mu_e", "ref"]
+           "teff", "teff_err", "core", "envelope", "mass_method", "mu_e", "ref"]
 COLS_ALL = ["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi", "mass_limit", "radius", "radius_err",
-            "age", "age_err", "rotation_period", "mu_e", "ref"]
+            "age", "age_err", "rotation_period", "teff", "teff_err", "mass_method", "mu_e", "ref"]
 
 TRUTH = (
     "# Truth used to draw it: standard gravity (Upsilon = 0, tau = 0); anchored minimum hydrogen-burning "
@@ -609,10 +706,11 @@ def main(argv=None):
     os.makedirs(args.out, exist_ok=True)
 
     mr = MassRadius()
-    vlm, bd, wd, nn = vlm_stars(), brown_dwarfs(), white_dwarfs(mr), next_night(mr)
+    hot = HotRadius()
+    vlm, bd, wd, nn = vlm_stars(), brown_dwarfs(), white_dwarfs(mr, hot), next_night(mr, hot)
 
     units_low = "# Units: mass, mass_err, mass_err_lo, mass_err_hi in solMass; age, age_err in Gyr; rotation_period in h."
-    units_wd = "# Units: mass and its errors in solMass; radius, radius_err in solRad (zero-temperature Chandrasekhar-EOS radius of the true mass, plus noise)."
+    units_wd = "# Units: mass and its errors in solMass; radius, radius_err in solRad (finite-temperature radius of the true mass, Teff, core and H layer from assets/wd_hot_table.csv, plus noise; zero-temperature for mu_e = 2.15); teff, teff_err in K."
     write_csv(os.path.join(args.out, "vlm_stars.csv"),
               header("very-low-mass stars that burn hydrogen", [units_low]), COLS_LOW, vlm)
     write_csv(os.path.join(args.out, "brown_dwarfs.csv"),
