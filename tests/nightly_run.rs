@@ -9,16 +9,28 @@ use std::process::Output;
 
 use common::{bin, command, config, path_str, text};
 
+/// Runs the demo config with `extra` appended: it must exit 2 with a message naming `key`.
+fn assert_config_error_names(dir: &Path, extra: &str, key: &str) {
+    let cfg = config(dir, false, extra);
+    let o = bin(&["run", path_str(&cfg)], dir);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(text(&o).contains(key), "{}", text(&o));
+}
+
+/// `dwarfbound run CFG` in `dir`, which must succeed; returns the run for its text.
+fn run_ok(dir: &Path, cfg: &Path) -> Output {
+    let o = bin(&["run", path_str(cfg)], dir);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    o
+}
+
 #[test]
 fn second_run_reuses_the_cache_and_next_night_raises_the_alarm() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let cfg_s = cfg.to_str().unwrap();
-    let first = bin(&["run", cfg_s], dir.path());
-    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    let first = run_ok(dir.path(), &cfg);
     assert!(text(&first).contains("theory grid: computed"));
-    let second = bin(&["run", cfg_s], dir.path());
-    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let second = run_ok(dir.path(), &cfg);
     assert!(
         text(&second).contains("theory grid: reused from the cache"),
         "{}",
@@ -52,15 +64,14 @@ fn second_run_reuses_the_cache_and_next_night_raises_the_alarm() {
 fn a_run_killed_mid_write_leaves_latest_intact() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let cfg_s = cfg.to_str().unwrap();
-    assert_eq!(bin(&["run", cfg_s], dir.path()).status.code(), Some(0));
+    run_ok(dir.path(), &cfg);
     let latest = dir.path().join("out/latest");
     let before = std::fs::read_link(&latest).unwrap();
     let summary_before = std::fs::read(latest.join("summary.json")).unwrap();
 
     let killed = command()
         .current_dir(dir.path())
-        .args(["run", cfg_s])
+        .args(["run", path_str(&cfg)])
         .env("DWARFBOUND_TEST_ABORT_MID_WRITE", "1")
         .output()
         .unwrap();
@@ -71,8 +82,7 @@ fn a_run_killed_mid_write_leaves_latest_intact() {
         summary_before
     );
     // The next run takes over the dead run's lock and completes.
-    let after = bin(&["run", cfg_s], dir.path());
-    assert_eq!(after.status.code(), Some(0), "{}", text(&after));
+    let after = run_ok(dir.path(), &cfg);
     assert!(text(&after).contains("stale lock"), "{}", text(&after));
     assert_ne!(std::fs::read_link(&latest).unwrap(), before);
 }
@@ -122,13 +132,12 @@ fn shard_and_merge(dir: &Path, cfg: &str, n: usize, out: Option<&Path>) -> Outpu
 fn four_shards_merged_equal_the_single_run_byte_for_byte() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let cfg_s = cfg.to_str().unwrap();
-    assert_eq!(bin(&["run", cfg_s], dir.path()).status.code(), Some(0));
+    run_ok(dir.path(), &cfg);
     let merged = dir.path().join("merged");
-    let o = shard_and_merge(dir.path(), cfg_s, 4, Some(&merged));
+    let o = shard_and_merge(dir.path(), path_str(&cfg), 4, Some(&merged));
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     // An unsharded run now compares with the same previous run as the merge did.
-    assert_eq!(bin(&["run", cfg_s], dir.path()).status.code(), Some(0));
+    run_ok(dir.path(), &cfg);
     let latest = dir.path().join("out/latest");
     for f in ["grid.csv", "summary.json", "objects.csv"] {
         assert!(
@@ -142,12 +151,7 @@ fn four_shards_merged_equal_the_single_run_byte_for_byte() {
 fn merged_shards_are_published_as_the_next_run_with_its_alarm() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    assert_eq!(
-        bin(&["run", cfg.to_str().unwrap()], dir.path())
-            .status
-            .code(),
-        Some(0)
-    );
+    run_ok(dir.path(), &cfg);
     let before = std::fs::read_link(dir.path().join("out/latest")).unwrap();
     let next = config(dir.path(), true, "");
     let o = shard_and_merge(dir.path(), path_str(&next), 3, None);
@@ -162,10 +166,11 @@ fn merged_shards_are_published_as_the_next_run_with_its_alarm() {
 #[test]
 fn config_errors_exit_2_and_name_the_key() {
     let dir = tempfile::tempdir().unwrap();
-    let cfg = config(dir.path(), false, "[statistics]\ntension_sigmaa = 3\n");
-    let o = bin(&["run", cfg.to_str().unwrap()], dir.path());
-    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
-    assert!(text(&o).contains("tension_sigmaa"), "{}", text(&o));
+    assert_config_error_names(
+        dir.path(),
+        "[statistics]\ntension_sigmaa = 3\n",
+        "tension_sigmaa",
+    );
     let o = bin(&["run", "no/such/config.toml"], dir.path());
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
 }
@@ -177,8 +182,7 @@ fn config_errors_exit_2_and_name_the_key() {
 fn merged_shards_keep_the_nightly_difference_and_alarm() {
     let dir = tempfile::tempdir().unwrap();
     let first = config(dir.path(), false, "");
-    let o = bin(&["run", first.to_str().unwrap()], dir.path());
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    run_ok(dir.path(), &first);
     let next = config(dir.path(), true, "");
     let merged = dir.path().join("merged");
     let o = shard_and_merge(dir.path(), path_str(&next), 2, Some(&merged));
@@ -193,8 +197,7 @@ fn merged_shards_keep_the_nightly_difference_and_alarm() {
 fn first_run_report_does_not_claim_nothing_changed() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let o = bin(&["run", cfg.to_str().unwrap()], dir.path());
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    run_ok(dir.path(), &cfg);
     let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
     assert!(
         !md.contains("Nothing changed"),
@@ -207,10 +210,11 @@ fn first_run_report_does_not_claim_nothing_changed() {
 #[test]
 fn non_finite_config_value_is_rejected() {
     let dir = tempfile::tempdir().unwrap();
-    let cfg = config(dir.path(), false, "[statistics]\nage_min_mmhb_gyr = nan\n");
-    let o = bin(&["run", cfg.to_str().unwrap()], dir.path());
-    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
-    assert!(text(&o).contains("age_min_mmhb_gyr"), "{}", text(&o));
+    assert_config_error_names(
+        dir.path(),
+        "[statistics]\nage_min_mmhb_gyr = nan\n",
+        "age_min_mmhb_gyr",
+    );
 }
 
 // Source: README ("A lock left by a run that was killed is detected … and taken over with a
@@ -223,6 +227,5 @@ fn an_empty_stale_lock_file_does_not_block_forever() {
     let cfg = config(dir.path(), false, "");
     std::fs::create_dir_all(dir.path().join("out")).unwrap();
     std::fs::write(dir.path().join("out/.dwarfbound.lock"), "").unwrap();
-    let o = bin(&["run", cfg.to_str().unwrap()], dir.path());
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    run_ok(dir.path(), &cfg);
 }
