@@ -2,17 +2,18 @@
 //! from published tables and the theory notes, grids written to `bounds.csv` with failed points
 //! kept, and the exact rescaling law of the gradient ansatz. Each check names its source.
 
-use std::path::Path;
-use std::process::{Command, Output};
+mod common;
 
+use std::process::Output;
+
+use common::read_csv;
 use serde_json::Value;
 
+/// `dwarfbound predict ARGS`, run from the repository root.
 fn predict(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
-        .arg("predict")
-        .args(args)
-        .output()
-        .expect("runs")
+    let mut all = vec!["predict"];
+    all.extend_from_slice(args);
+    common::bin(&all, &common::root())
 }
 
 fn json_of(args: &[&str]) -> Value {
@@ -121,16 +122,6 @@ fn point_without_a_star_reports_reasons_not_nan() {
     assert!(String::from_utf8(text.stdout)
         .unwrap()
         .contains("no regular centre"));
-}
-
-fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
-    let mut r = csv::Reader::from_path(path).unwrap();
-    let header = r.headers().unwrap().iter().map(String::from).collect();
-    let rows = r
-        .records()
-        .map(|rec| rec.unwrap().iter().map(String::from).collect())
-        .collect();
-    (header, rows)
 }
 
 #[test]
