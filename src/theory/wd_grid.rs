@@ -20,7 +20,8 @@
 //! let grid = compute(upsilon, tau, &TheorySettings::default(), &options).unwrap();
 //! let wd = grid.white_dwarfs.as_ref().unwrap();
 //! assert_eq!(wd.upsilon_nodes, vec![0, 1, 2]);
-//! // A 0.6 M☉ carbon–oxygen dwarf (μ_e = 2) in standard gravity: about 0.012 R☉.
+//! // 0.6 M☉, μ_e = 2, standard gravity, zero-temperature Chandrasekhar EOS: ≈ 0.0124 R☉
+//! // (from memory; the range is loose on purpose).
 //! let r = grid.wd_radius_rsun(grid.index(1, 0), 0.6, 2.0).unwrap().unwrap();
 //! assert!((0.011..0.014).contains(&r));
 //! ```
