@@ -168,7 +168,7 @@ pub fn describe_difference(recorded: &str, wanted: &str) -> String {
     }
     let more = diffs.len().saturating_sub(MAX_NAMED_DIFFERENCES);
     let mut text = format!(
-        "it was computed for other settings: {}",
+        "it was computed for another grid or settings: {}",
         diffs[..diffs.len().min(MAX_NAMED_DIFFERENCES)].join("; ")
     );
     if more > 0 {
@@ -241,7 +241,7 @@ mod tests {
             Lookup::Mismatch(why) => {
                 assert_eq!(
                     why,
-                    "it was computed for other settings: upsilon.count: entry has 45, wanted 46"
+                    "it was computed for another grid or settings: upsilon.count: entry has 45, wanted 46"
                 );
             }
             other => panic!("expected a mismatch, got {other:?}"),
