@@ -4,10 +4,10 @@
 
 mod common;
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 use std::process::Output;
 
-use common::{bin, command, config, path_str, text};
+use common::{bin, command, config, demo, path_str, text};
 
 /// Runs the demo config with `extra` appended: it must exit 2 with a message naming `key`.
 fn assert_config_error_names(dir: &Path, extra: &str, key: &str) {
@@ -228,4 +228,126 @@ fn an_empty_stale_lock_file_does_not_block_forever() {
     std::fs::create_dir_all(dir.path().join("out")).unwrap();
     std::fs::write(dir.path().join("out/.dwarfbound.lock"), "").unwrap();
     run_ok(dir.path(), &cfg);
+}
+
+/// Writes a config over the three demo catalogues with the given Υ axis (τ: three points).
+fn grid_config(dir: &Path, name: &str, upsilon: &str) -> PathBuf {
+    let text = format!(
+        "output = \"out\"\n\
+         [[catalogue]]\npath = \"{}\"\n\
+         [[catalogue]]\npath = \"{}\"\n\
+         [[catalogue]]\npath = \"{}\"\n\
+         [grid]\nupsilon = \"{upsilon}\"\ntau = \"-0.3:0.3:3\"\n",
+        demo("vlm_stars.csv"),
+        demo("brown_dwarfs.csv"),
+        demo("white_dwarfs.csv")
+    );
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+/// The theory cache entries of the folder, sorted.
+fn cache_entries(dir: &Path) -> Vec<PathBuf> {
+    let mut v: Vec<PathBuf> = std::fs::read_dir(dir.join("out/cache"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "theory"))
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn a_valid_cache_entry_of_another_grid_is_not_reused_and_the_note_says_why() {
+    // Issue 13, item 4: an entry with a valid checksum but another config's grid (45 instead
+    // of 46 Υ points) must not be served.
+    let dir = tempfile::tempdir().unwrap();
+    let c45 = grid_config(dir.path(), "g45.toml", "-0.3:0.6:45");
+    let c46 = grid_config(dir.path(), "g46.toml", "-0.3:0.6:46");
+    let first = bin(&["run", c45.to_str().unwrap()], dir.path());
+    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    let [e45] = cache_entries(dir.path()).try_into().unwrap();
+    let second = bin(&["run", c46.to_str().unwrap()], dir.path());
+    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let e46 = cache_entries(dir.path())
+        .into_iter()
+        .find(|p| *p != e45)
+        .unwrap();
+    // The 45-point entry, checksum and all, filed under the 46-point grid's key.
+    std::fs::copy(&e45, &e46).unwrap();
+
+    let third = bin(&["run", c46.to_str().unwrap()], dir.path());
+    assert_eq!(third.status.code(), Some(0), "{}", text(&third));
+    let stdout = String::from_utf8_lossy(&third.stdout);
+    let stderr = String::from_utf8_lossy(&third.stderr);
+    assert!(stdout.contains("theory grid: computed"), "{stdout}");
+    let note: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.contains("theory cache entry"))
+        .collect();
+    assert_eq!(note.len(), 1, "one line on stderr: {stderr}");
+    assert!(note[0].contains("discarded and rebuilt"), "{}", note[0]);
+    assert!(
+        note[0].contains("upsilon.count: entry has 45, wanted 46"),
+        "{}",
+        note[0]
+    );
+    let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
+    assert!(
+        md.contains("upsilon.count: entry has 45, wanted 46"),
+        "{md}"
+    );
+    // The run's own outputs agree with its config.
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.path().join("out/latest/summary.json")).unwrap())
+            .unwrap();
+    assert_eq!(s["grid"]["upsilon"]["count"], 46);
+    let grid_rows = std::fs::read_to_string(dir.path().join("out/latest/grid.csv"))
+        .unwrap()
+        .lines()
+        .count();
+    assert_eq!(grid_rows, 1 + 46 * 3);
+
+    // The rebuilt entry is the right one and is reused, silently.
+    let fourth = bin(&["run", c46.to_str().unwrap()], dir.path());
+    assert_eq!(fourth.status.code(), Some(0), "{}", text(&fourth));
+    assert!(text(&fourth).contains("theory grid: reused from the cache"));
+    assert!(
+        !text(&fourth).contains("theory cache entry"),
+        "{}",
+        text(&fourth)
+    );
+}
+
+#[test]
+fn a_corrupt_cache_entry_is_rebuilt_with_a_note() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = grid_config(dir.path(), "g.toml", "-0.3:0.6:10");
+    let cfg_s = cfg.to_str().unwrap();
+    let first = bin(&["run", cfg_s], dir.path());
+    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    let [entry] = cache_entries(dir.path()).try_into().unwrap();
+    // Flip one byte of the payload: the checksum no longer holds.
+    let mut bytes = std::fs::read(&entry).unwrap();
+    let last = bytes.len() - 2;
+    bytes[last] ^= 0x01;
+    std::fs::write(&entry, &bytes).unwrap();
+
+    let second = bin(&["run", cfg_s], dir.path());
+    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let stderr = String::from_utf8_lossy(&second.stderr);
+    let note: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.contains("theory cache entry"))
+        .collect();
+    assert_eq!(note.len(), 1, "one line on stderr: {stderr}");
+    assert!(note[0].contains("discarded and rebuilt"), "{}", note[0]);
+    assert!(note[0].contains("checksum mismatch"), "{}", note[0]);
+    assert!(String::from_utf8_lossy(&second.stdout).contains("theory grid: computed"));
+    let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
+    assert!(md.contains("checksum mismatch"), "{md}");
+
+    let third = bin(&["run", cfg_s], dir.path());
+    assert!(text(&third).contains("theory grid: reused from the cache"));
 }

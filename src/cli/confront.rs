@@ -76,6 +76,9 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
             println!("  {id:<16} {class:<12} {z:.2}σ");
         }
     }
+    if let Some(note) = &o.cache_note {
+        eprintln!("dwarfbound: note: {note}");
+    }
     println!(
         "theory grid: {}",
         if o.theory_from_cache {

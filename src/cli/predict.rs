@@ -10,6 +10,7 @@ use serde_json::{json, Map, Value};
 
 use super::{CliError, Exit, PredictArgs};
 use crate::output::write_atomic;
+use crate::pipeline::bounds_csv::bounds_csv;
 use crate::report::text::fmt_sig;
 use crate::report::{render_bounds_png, render_bounds_svg, BoundSeries, BoundsCurves};
 use crate::theory::grid::{compute, grid_value, GridOptions, TheoryGrid};
@@ -94,9 +95,7 @@ fn run_grid(
 ) -> Result<Exit, CliError> {
     let grid = compute(upsilon, tau, settings, &GridOptions::default())
         .map_err(|e| CliError::usage(e.to_string()))?;
-    let csv = grid
-        .bounds_csv()
-        .map_err(|e| CliError::internal(e.to_string()))?;
+    let csv = bounds_csv(&grid).map_err(|e| CliError::internal(e.to_string()))?;
     let csv_path = dir.join("bounds.csv");
     write_atomic(&csv_path, csv.as_bytes())?;
     let mut files = vec![csv_path.display().to_string()];

@@ -24,9 +24,9 @@ use crate::confront::regions::{
     UpsilonSlice,
 };
 use crate::output::{write_atomic, OutputError};
-use crate::pipeline::cache::{sha256_hex, Cache, Lookup};
+use crate::pipeline::cache::{self, sha256_hex, Cache, Lookup};
 use crate::report::{self, tables::Cell};
-use crate::theory::grid::{self, GridOptions, Shard, TheoryGrid};
+use crate::theory::grid::{self, GridIdentity, GridOptions, Shard, TheoryGrid};
 use crate::theory::point::{standard_point, PointBounds, TheorySettings};
 use crate::theory::Axis;
 
@@ -116,6 +116,9 @@ pub struct ConfrontOutcome {
     pub tensions: Vec<(String, String, f64)>,
     /// Whether the theory grid came from the cache.
     pub theory_from_cache: bool,
+    /// One line when a cache entry was discarded (corrupt, or computed for another grid or
+    /// settings) and rebuilt; the report's notes carry it too.
+    pub cache_note: Option<String>,
     /// Rows in/accepted/quarantined over all catalogues.
     pub rows: (usize, usize, usize),
     /// The difference from the previous run (nightly runs only).
@@ -142,8 +145,9 @@ pub fn vet_all(inputs: &[CatalogueInput]) -> Result<Vetted, PipelineError> {
     Ok(all)
 }
 
-/// The theory grid, from the cache when a verified entry exists. Returns the grid and whether
-/// it came from the cache, plus a note when a corrupt entry was discarded.
+/// The theory grid, from the cache when a verified entry computed for exactly these axes and
+/// settings exists. Returns the grid and whether it came from the cache, plus a one-line note
+/// when an entry was discarded (corrupt, or computed for another grid) and rebuilt.
 pub fn theory_grid(
     upsilon: Axis,
     tau: Axis,
@@ -156,15 +160,30 @@ pub fn theory_grid(
         shard,
         quiet: false,
     };
-    let key = Cache::key(&grid::cache_key_text(&upsilon, &tau, theory, &options));
+    let identity = GridIdentity::new(&upsilon, &tau, theory, &options);
+    let description = identity.to_json();
+    let key = Cache::key(&description);
     let mut note = None;
     if let Some(cache) = cache {
-        match cache.load(&key) {
+        let discarded = |why: String| {
+            Some(format!(
+                "theory cache entry {} discarded and rebuilt: {why}",
+                cache.entry_path(&key).display()
+            ))
+        };
+        match cache.load(&key, &description) {
             Lookup::Hit(bytes) => match TheoryGrid::from_json_bytes(&bytes) {
-                Ok(g) => return Ok((g, true, None)),
-                Err(e) => note = Some(format!("cache entry unreadable, rebuilt: {e}")),
+                // The grid's own fields must say the same as the recorded description.
+                Ok(g) if g.identity() == identity => return Ok((g, true, None)),
+                Ok(g) => {
+                    note = discarded(cache::describe_difference(
+                        &g.identity().to_json(),
+                        &description,
+                    ))
+                }
+                Err(e) => note = discarded(format!("unreadable grid: {e}")),
             },
-            Lookup::Corrupt(why) => note = Some(format!("cache entry discarded, rebuilt: {why}")),
+            Lookup::Corrupt(why) | Lookup::Mismatch(why) => note = discarded(why),
             Lookup::Missing => {}
         }
     }
@@ -174,7 +193,7 @@ pub fn theory_grid(
         let bytes = g
             .to_json_bytes()
             .map_err(|e| PipelineError::Internal(e.to_string()))?;
-        cache.store(&key, &bytes)?;
+        cache.store(&key, &description, &bytes)?;
     }
     Ok((g, false, note))
 }
@@ -805,7 +824,7 @@ pub fn run_confrontation(
         checksums: &checksums,
         eopts: &eopts,
         best_index,
-        cache_note,
+        cache_note: cache_note.clone(),
         since_previous: None,
     };
     let mut ctx = ctx;
@@ -864,6 +883,7 @@ pub fn run_confrontation(
             })
             .collect(),
         theory_from_cache: from_cache,
+        cache_note,
         rows: rows_total,
         difference,
     })

@@ -2,6 +2,7 @@
 //! nightly `run`, plus what unattended runs need (config, theory cache, run history, lock,
 //! shards). It only wires the public APIs of the stages together.
 
+pub mod bounds_csv;
 pub mod cache;
 pub mod config;
 pub mod confront;
