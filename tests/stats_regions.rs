@@ -79,9 +79,9 @@ fn map_regions_on_an_elliptical_bowl() {
     // Δχ² ≤ q is the ellipse with semi-axes 0.2√q and 0.05√q about (0.1, −0.05).
     let ups: Vec<f64> = (0..81).map(|i| -1.0 + 0.025 * f64::from(i)).collect();
     let taus: Vec<f64> = (0..81).map(|j| -0.2 + 0.005 * f64::from(j)).collect();
-    let mut chi2 = Vec::new();
-    for &u in &ups {
-        for &t in &taus {
+    let mut chi2 = Vec::new(); // τ outer, Υ inner, as every grid vector
+    for &t in &taus {
+        for &u in &ups {
             chi2.push(37.0 + ((u - 0.1) / 0.2).powi(2) + ((t + 0.05) / 0.05).powi(2));
         }
     }
@@ -119,8 +119,8 @@ fn map_regions_on_an_elliptical_bowl() {
             b.fraction_of_grid
         );
     }
-    assert!(r.allowed_at(r.best.i_upsilon, r.best.j_tau, taus.len(), Level::Cl68));
-    assert!(!r.allowed_at(0, 0, taus.len(), Level::Cl997));
+    assert!(r.allowed_at(r.best.i_upsilon, r.best.j_tau, ups.len(), Level::Cl68));
+    assert!(!r.allowed_at(0, 0, ups.len(), Level::Cl997));
     assert!(map_regions(&ups, &taus, &chi2[1..]).is_err());
 }
 

@@ -5,7 +5,11 @@
 pub mod cache;
 pub mod config;
 pub mod confront;
+pub mod error;
 pub mod history;
 pub mod lock;
 pub mod nightly;
+mod outputs;
 mod report_input;
+pub mod settings;
+pub mod surface;
