@@ -1,5 +1,5 @@
 //! The pipeline: vet → predict → confront → report in one call, shared by `confront` and the
-//! nightly `run`, plus what unattended runs need (config, theory cache, run history, lock,
+//! nightly `run`, the theory-only `predict`, plus what unattended runs need (config, theory cache, run history, lock,
 //! shards). It only wires the public APIs of the stages together.
 
 pub mod cache;
@@ -10,6 +10,7 @@ pub mod history;
 pub mod lock;
 pub mod nightly;
 mod outputs;
+pub mod predict;
 mod report_input;
 pub mod settings;
 pub mod surface;
