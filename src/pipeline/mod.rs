@@ -1,6 +1,6 @@
 //! The pipeline: vet → predict → confront → report in one call, shared by `confront` and the
-//! nightly `run`, the theory-only `predict`, plus what unattended runs need (config, theory cache, run history, lock,
-//! shards). It only wires the public APIs of the stages together.
+//! nightly `run`, the theory-only `predict`, and what unattended runs need (config, theory
+//! cache, run history, lock, shards). It only wires the public APIs of the stages together.
 
 pub mod cache;
 pub mod config;
