@@ -370,3 +370,16 @@ fn upsilon_slice_through_the_reduction_matches_the_direct_slice() {
         assert!((a.upper.unwrap() - b.upper.unwrap()).abs() < 1e-7);
     }
 }
+
+#[test]
+fn map_regions_ties_go_to_the_smallest_upsilon_then_tau() {
+    // The tie rule documented on map_regions (common practice, no source): a flat minimum is
+    // reported at its smallest Υ, then its smallest τ, whatever the storage order.
+    let ups = [-0.2, -0.1, 0.0];
+    let taus = [0.0, 0.1];
+    // τ outer, Υ inner: the minimum 1 sits at (Υ, τ) = (−0.1, 0) and (−0.2, 0.1).
+    let chi2 = [5.0, 1.0, 5.0, 1.0, 5.0, 5.0];
+    let r = map_regions(&ups, &taus, &chi2).unwrap();
+    assert_eq!((r.best.i_upsilon, r.best.j_tau), (0, 1));
+    assert_eq!((r.best.upsilon, r.best.tau), (-0.2, 0.1));
+}

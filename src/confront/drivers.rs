@@ -210,12 +210,7 @@ pub fn slice_drivers(
 ) -> Result<Vec<(usize, f64)>, StatsError> {
     let mut per_class: Vec<(Term, Vec<usize>, Vec<Measurement>)> = Vec::new();
     for (term, _) in &conf.curves {
-        let idx: Vec<usize> = conf
-            .uses
-            .iter()
-            .filter(|u| u.mass_term == Some(*term))
-            .map(|u| u.index)
-            .collect();
+        let idx = conf.members(*term);
         let ms = idx.iter().map(|&k| conf.uses[k].measurement).collect();
         per_class.push((*term, idx, ms));
     }

@@ -228,12 +228,7 @@ pub fn consistency_at_best(
 ) -> AbsoluteConsistency {
     let mut counted = BTreeSet::new();
     for (term, curve) in &conf.curves {
-        let members: Vec<usize> = conf
-            .uses
-            .iter()
-            .filter(|u| u.mass_term == Some(*term))
-            .map(|u| u.index)
-            .collect();
+        let members = conf.members(*term);
         counted.extend(curve.informative_indices().iter().map(|&j| members[j]));
     }
     let ln_ps: Vec<(usize, f64)> = verdicts
@@ -249,10 +244,9 @@ pub fn consistency_at_best(
 /// `floor_msun`, over the objects in the hydrogen-burning and brown-dwarf tests.
 pub fn crowding_at(conf: &Confrontation, mmhb_msun: f64, floor_msun: f64) -> Crowding {
     let of = |term: Term| -> Vec<Measurement> {
-        conf.uses
+        conf.members(term)
             .iter()
-            .filter(|u| u.mass_term == Some(term))
-            .map(|u| u.measurement)
+            .map(|&k| conf.uses[k].measurement)
             .collect()
     };
     crowding(
