@@ -170,6 +170,17 @@ pub struct Confrontation {
     pub population: Option<PopulationTerm>,
 }
 
+impl Confrontation {
+    /// The objects in a mass term's test, as indices into the caller's object list, in order.
+    pub fn members(&self, term: Term) -> Vec<usize> {
+        self.uses
+            .iter()
+            .filter(|u| u.mass_term == Some(term))
+            .map(|u| u.index)
+            .collect()
+    }
+}
+
 /// Maps a catalogue object to the statistics' measurement for its class.
 pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
     let side = match o.class {

@@ -3,9 +3,11 @@
 
 use std::path::Path;
 
-use super::confront::{OutputContext, PipelineError};
+use super::error::PipelineError;
+use super::outputs::OutputContext;
 use crate::confront::engine::{BoundSurface, Term};
 use crate::confront::regions::Level;
+use crate::confront::tension::TensionTest;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, ModelDescription,
@@ -87,6 +89,12 @@ fn term_summary(ctx: &OutputContext<'_>, t: Term, delta: &[Option<f64>]) -> Stri
     )
 }
 
+/// Δχ² of a grid vector relative to its own minimum (`None` where there is no model).
+fn delta_of(v: &[Option<f64>]) -> Vec<Option<f64>> {
+    let min = v.iter().flatten().copied().fold(f64::INFINITY, f64::min);
+    v.iter().map(|c| c.map(|c| c - min)).collect()
+}
+
 /// Builds the report's inputs and writes report.html, report.md and the figures.
 pub(crate) fn write_report_files(
     ctx: &OutputContext<'_>,
@@ -96,12 +104,11 @@ pub(crate) fn write_report_files(
     let (nu, nt) = (ctx.conf.n_upsilon, ctx.conf.n_tau);
     let s = ctx.settings;
     let t = &s.theory;
-    let delta_joint: Vec<Option<f64>> = (0..nt)
-        .flat_map(|j| (0..nu).map(move |i| (i, j)))
-        .map(|(i, j)| {
-            let d = ctx.regions.delta_chi2[i * nt + j];
-            d.is_finite().then_some(d)
-        })
+    let delta_joint: Vec<Option<f64>> = ctx
+        .regions
+        .delta_chi2
+        .iter()
+        .map(|&d| d.is_finite().then_some(d))
         .collect();
     let mut outlines = Vec::new();
     let mut contributions = Vec::new();
@@ -126,7 +133,7 @@ pub(crate) fn write_report_files(
             .iter()
             .find(|(tt, _)| *tt == term)
             .map_or(n_objects, |(_, c)| c.n_informative());
-        let delta = super::confront::delta_of_pub(v);
+        let delta = delta_of(v);
         contributions.push(ClassContribution {
             class: term.name().to_string(),
             n_objects,
@@ -385,10 +392,10 @@ pub(crate) fn write_report_files(
                     let k = t.object;
                     let o = &ctx.vetted.objects[k];
                     let (class, text) = match t.test {
-                        super::confront::TensionTest::MassBound => {
+                        TensionTest::MassBound => {
                             (o.class.label().to_string(), mass_text(ctx, k))
                         }
-                        super::confront::TensionTest::MassRadius => (
+                        TensionTest::MassRadius => (
                             format!("{} (mass–radius test)", o.class.label()),
                             format!(
                                 "{}; R = {:.5} ± {:.5} R☉",
@@ -404,8 +411,8 @@ pub(crate) fn write_report_files(
                         mass_text: text,
                         sigma_standard_gravity: t.sigma,
                         sigma_best_fit: match t.test {
-                            super::confront::TensionTest::MassBound => ctx.sigma_best(k),
-                            super::confront::TensionTest::MassRadius => None,
+                            TensionTest::MassBound => ctx.sigma_best(k),
+                            TensionTest::MassRadius => None,
                         },
                     }
                 })
