@@ -14,6 +14,7 @@ pub mod point;
 mod roots;
 pub mod rotation;
 pub mod schonberg;
+pub mod slow_rotation;
 pub mod white_dwarf;
 
 use serde::{Deserialize, Serialize};
