@@ -498,7 +498,7 @@ mod schonberg_chandrasekhar {
     /// τ = 0 through the anisotropic code path is bit-for-bit the isotropic fit: same (p, c, κ)
     /// arithmetic. The numbers are the ones the isotropic code printed before anisotropy was
     /// added (regression values of this project, λ = 0.62/1.33, n_env = 3); the ratios they
-    /// give are checked against the bounds.md §7.2 table in `modified_gravity_factor_table`.
+    /// give are checked against the published-notes table in `modified_gravity_factor_table`.
     #[test]
     fn tau_zero_equals_the_isotropic_values_exactly() {
         let lambda = 0.62 / 1.33;
@@ -508,7 +508,11 @@ mod schonberg_chandrasekhar {
             (0.3, 0.061286182182965374, 1.274189535378409),
             (-0.3, 0.07256981174506576, 1.5822635238586786),
         ] {
-            for a in [Anisotropy::None, Anisotropy::DensitySquared, Anisotropy::Gradient] {
+            for a in [
+                Anisotropy::None,
+                Anisotropy::DensitySquared,
+                Anisotropy::Gradient,
+            ] {
                 let q = core_envelope_fit_with(lambda, u, 0.0, a, 3.0, c).unwrap().q;
                 assert_eq!(q, q_before, "{a:?} Υ = {u}");
                 assert_eq!(bonnor_ebert_with(u, 0.0, a).unwrap().c_be, c_be_before);
@@ -517,7 +521,7 @@ mod schonberg_chandrasekhar {
         }
     }
 
-    /// Gradient ansatz: G → (1 − τ)G everywhere inside matter (structure.md §2.2, exact), so
+    /// Gradient ansatz: G → (1 − τ)G everywhere inside matter (the theory notes' anisotropy section, exact), so
     /// the dimensionless core mass fraction is the τ = 0 one and C_BE = P_s M_c² G³/c_s⁸ in
     /// true-G units is C_BE(Υ, 0)/(1 − τ)³, with ζ_BE scaled by 1/√(1 − τ). Closed-form
     /// rescaling identity, to 1e-10 (issue acceptance).
@@ -532,10 +536,25 @@ mod schonberg_chandrasekhar {
                 let s = 1.0 - t;
                 let q = core_envelope_fit_with(lambda, u, t, Anisotropy::Gradient, 3.0, c).unwrap();
                 assert_rel("q_fit(Υ, τ) = q_fit(Υ, 0)", q.q, q0.q, 1e-10);
-                assert_rel("ζ_f scales as 1/√(1−τ)", q.zeta_f * s.sqrt(), q0.zeta_f, 1e-6);
+                assert_rel(
+                    "ζ_f scales as 1/√(1−τ)",
+                    q.zeta_f * s.sqrt(),
+                    q0.zeta_f,
+                    1e-6,
+                );
                 let be = bonnor_ebert_with(u, t, Anisotropy::Gradient).unwrap();
-                assert_rel("(1−τ)³ C_BE(τ) = C_BE(0)", be.c_be * s.powi(3), be0.c_be, 1e-10);
-                assert_rel("√(1−τ) ζ_BE(τ) = ζ_BE(0)", be.zeta * s.sqrt(), be0.zeta, 1e-10);
+                assert_rel(
+                    "(1−τ)³ C_BE(τ) = C_BE(0)",
+                    be.c_be * s.powi(3),
+                    be0.c_be,
+                    1e-10,
+                );
+                assert_rel(
+                    "√(1−τ) ζ_BE(τ) = ζ_BE(0)",
+                    be.zeta * s.sqrt(),
+                    be0.zeta,
+                    1e-10,
+                );
                 let p = ScParams::default();
                 for v in [ScVariant::FullFit, ScVariant::CoreFactorOnly] {
                     let r = sc_fraction_with(u, t, Anisotropy::Gradient, &p, v).unwrap();
@@ -546,9 +565,9 @@ mod schonberg_chandrasekhar {
         }
     }
 
-    /// Sign behaviour. Υ > 0 lowers the fraction and Υ < 0 raises it (bounds.md §7.2 table).
+    /// Sign behaviour. Υ > 0 lowers the fraction and Υ < 0 raises it (the modified-gravity factor table checked above).
     /// τ of the density-squared ansatz does the OPPOSITE of what the issue expected: τ > 0 cancels
-    /// the fraction τρ/ρ̄ of gravity (structure.md §2.1), i.e. weakens the core's self-gravity
+    /// the fraction τρ/ρ̄ of gravity (density-squared ansatz), i.e. weakens the core's self-gravity
     /// most at its centre (central series φ ≈ (1 + 3Υ/2 − τ)ζ²/6), so a larger core fits under
     /// the same envelope and q rises; τ < 0 lowers it. The gradient ansatz leaves it unchanged
     /// (previous test). Values are this implementation's (computed, no published number).
@@ -568,8 +587,18 @@ mod schonberg_chandrasekhar {
             }
         }
         // Computed here (full fit, λ = 0.62/1.33): τ = ±0.1 at Υ = 0 moves q by +4.5 %/−3.7 %.
-        assert_rel("τ = 0.1", r(0.0, 0.1, ScVariant::FullFit), 1.044_905_6, 1e-6);
-        assert_rel("τ = −0.1", r(0.0, -0.1, ScVariant::FullFit), 0.962_628_3, 1e-6);
+        assert_rel(
+            "τ = 0.1",
+            r(0.0, 0.1, ScVariant::FullFit),
+            1.044_905_6,
+            1e-6,
+        );
+        assert_rel(
+            "τ = −0.1",
+            r(0.0, -0.1, ScVariant::FullFit),
+            0.962_628_3,
+            1e-6,
+        );
     }
 
     /// A number for every τ where a star exists, a typed error (never NaN) where none does.
@@ -583,7 +612,7 @@ mod schonberg_chandrasekhar {
                 assert!(q.q_sc.is_finite() && q.q_sc > 0.0, "{a:?} τ = {t}");
             }
         }
-        // No regular centre: Υ ≤ −2(1 − τ)/3 for the density-squared ansatz (structure.md §1.4).
+        // No regular centre: Υ ≤ −2(1 − τ)/3 for the density-squared ansatz (existence bound).
         let e = sc_fraction_with(-0.5, 0.3, Anisotropy::DensitySquared, &p, v).unwrap_err();
         assert_eq!(e.code(), "no-regular-centre");
         // The gradient ansatz needs τ < 1; no ansatz needs τ = 0.

@@ -56,7 +56,15 @@ fn direct_slopes(n: f64, u: f64, t: f64, a: Anisotropy) -> (f64, f64) {
         let a0 = p * (1.0 / 3.0 + c) / 2.0 - p * v / 6.0;
         let y0 = [1.0 - a0 * x0 * x0, x0.powi(3) / 3.0];
         let mut ev = |_x: f64, y: &[f64; 2]| y[0];
-        let sol = solve(f, x0, y0, 1e4, &OdeOptions::new(1e-13, 1e-15, x0), Some(&mut ev)).unwrap();
+        let sol = solve(
+            f,
+            x0,
+            y0,
+            1e4,
+            &OdeOptions::new(1e-13, 1e-15, x0),
+            Some(&mut ev),
+        )
+        .unwrap();
         assert_eq!(sol.stop, Stop::Event);
         (sol.y[1], sol.x)
     };
@@ -94,7 +102,7 @@ fn spherical_part_matches_a_direct_solution_at_small_v() {
     }
 }
 
-/// Gradient ansatz: all forces are scaled by (1 − τ) inside matter (structure spec §2.2, exact),
+/// Gradient ansatz: all forces are scaled by (1 − τ) inside matter (the theory notes, anisotropy section: exact),
 /// which a rescaling ξ → √(1 − τ) ξ removes; the fractional first-order changes are the τ = 0
 /// ones exactly.
 #[test]
@@ -124,7 +132,11 @@ fn n15_and_n3_standard_gravity_values() {
         (3.0, 6.124_595_857, 19.949_353_34, -8.156_754_171),
     ] {
         let s = slow_rotation(n, 0.0, 0.0, Anisotropy::None).unwrap();
-        assert!(rel(s.mass_coefficient, m) < 1e-8, "{n}: {}", s.mass_coefficient);
+        assert!(
+            rel(s.mass_coefficient, m) < 1e-8,
+            "{n}: {}",
+            s.mass_coefficient
+        );
         assert!(rel(s.mean_radius_coefficient, r) < 1e-8, "{n}");
         let shape = s.shape.unwrap();
         assert!(rel(shape.a2_psi2, a2) < 1e-8, "{n}: {}", shape.a2_psi2);
@@ -155,7 +167,7 @@ fn too_fast_for_first_order_is_a_typed_outcome() {
     // Density-squared τ ≠ 0: the shape is not specified, the spherical part is.
     let a = slow_rotation(1.5, 0.0, 0.2, Anisotropy::DensitySquared).unwrap();
     assert!(a.shape.is_none() && a.mass_coefficient.is_finite());
-    // No model below the existence bound (structure spec §1.4): a typed error.
+    // No model below the existence bound (the theory notes, existence bounds): a typed error.
     assert!(slow_rotation(1.5, -0.7, 0.0, Anisotropy::None).is_err());
     assert!(slow_rotation(0.5, 0.0, 0.0, Anisotropy::None).is_err());
 }
@@ -198,7 +210,7 @@ fn breakup_curve_reference_floor() {
     assert_eq!(wd[1].as_ref().unwrap_err().code(), "above-chandrasekhar");
     // 0.6 M☉, μ_e = 2: 34.0 s (theory check values, full EOS, Roche).
     assert!((wd[0].as_ref().unwrap().period_s - 34.0).abs() < 0.1);
-    // Υ enters only through R(M): P ∝ R^{3/2} at fixed M (structure spec §5.3).
+    // Υ enters only through R(M): P ∝ R^{3/2} at fixed M (the exterior is screened).
     let t3 = WdMassRadius::new(0.3, 0.0, Anisotropy::None, &WdTableOptions::default()).unwrap();
     let p3 = breakup_curve(&t3, 8.0 / 7.0, &[0.08], BreakupModel::Roche)[0]
         .clone()
@@ -207,6 +219,10 @@ fn breakup_curve_reference_floor() {
     let want = p0.period_s * (p3.radius_rsun / p0.radius_rsun).powf(1.5);
     assert!(rel(p3.period_s, want) < 1e-12);
     // 26.9 min at Υ = 0.3 (theory check values).
-    assert!((p3.period_s / 60.0 - 26.9).abs() < 0.1, "{}", p3.period_s / 60.0);
+    assert!(
+        (p3.period_s / 60.0 - 26.9).abs() < 0.1,
+        "{}",
+        p3.period_s / 60.0
+    );
     assert!(breakup_period_s(0.08, -1.0, BreakupModel::Roche).is_err());
 }

@@ -104,8 +104,8 @@ pub struct BreakupCurvePoint {
 /// The minimum spin period P_break(M) over `masses_msun` for the cold, fully degenerate
 /// structure of `table` (built at one grid point (Υ, τ, ansatz)) with electron molecular weight
 /// `mu_e`: μ_e = 2 for white dwarfs, 2/(1 + X) for the cold hydrogen-rich floor of brown dwarfs
-/// and very-low-mass stars (`structure.md` §5.4 uses X = 0.75). Υ and τ enter only through
-/// R(M); the exterior gravity and the break-up condition are standard (§5.3). Each mass gets its
+/// and very-low-mass stars (the project's theory check values use X = 0.75). Υ and τ enter only through
+/// R(M); the exterior gravity and the break-up condition are standard (the exterior is screened). Each mass gets its
 /// own result: a mass at or above the Chandrasekhar mass is a typed error, never NaN.
 ///
 /// ```

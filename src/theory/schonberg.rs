@@ -14,7 +14,7 @@
 //! density-squared ansatz σ is finite at the jump and the interface condition is unchanged; for
 //! the gradient ansatz G → (1 − τ)G everywhere inside matter, jump included, so the
 //! dimensionless fraction does not depend on τ at all (an exact identity the tests check).
-//! The derivation is in the project's docs (rotation and structure notes).
+//! The derivation is in `docs/schonberg-tau.md`.
 //!
 //! ```
 //! use dwarfbound::theory::schonberg::{sc_fraction, sc_fraction_with, ScParams, ScVariant};
@@ -453,7 +453,7 @@ pub struct ScFraction {
 }
 
 /// The Schönberg–Chandrasekhar fraction q_SC(Υ, τ) = 0.37 λ² × [modified-gravity factor]
-/// (`bounds.md` §7.2), with τ the strength of the density-squared ansatz (the project's
+/// with τ the strength of the density-squared ansatz (the project's
 /// default meaning of τ). See [`sc_fraction_with`] for another ansatz.
 pub fn sc_fraction(
     upsilon: f64,
