@@ -226,3 +226,20 @@ fn breakup_curve_reference_floor() {
     );
     assert!(breakup_period_s(0.08, -1.0, BreakupModel::Roche).is_err());
 }
+
+/// The P₂ part checked through the Love number it implies. The rotational l = 2 forcing is a
+/// potential ∝ ξ²P₂, so the star's induced exterior potential over the applied one at the
+/// surface is the second-degree Love number: k₂ = −6A₂ψ₂(ξ₁)/ξ₁² − 1 (derived in
+/// docs/rotation.md). Known values: n = 1 closed form 15/π² − 1; n = 3/2 and 3 twice the
+/// apsidal-motion constants 0.1433 and 0.01444 of polytropes (Brooker & Olle 1955, MNRAS 115,
+/// 101 — from memory).
+#[test]
+fn shape_part_gives_the_known_love_numbers() {
+    let k2 = |n: f64| {
+        let s = slow_rotation(n, 0.0, 0.0, Anisotropy::None).unwrap();
+        -6.0 * s.shape.unwrap().a2_psi2 / (s.xi1 * s.xi1) - 1.0
+    };
+    assert!(rel(k2(1.0), 15.0 / (PI * PI) - 1.0) < 1e-8);
+    assert!(rel(k2(1.5), 2.0 * 0.1433) < 1e-3, "{}", k2(1.5));
+    assert!(rel(k2(3.0), 2.0 * 0.01444) < 1e-3, "{}", k2(3.0));
+}
