@@ -169,8 +169,9 @@ fn grid_writes_bounds_csv_with_failed_points() {
     assert_eq!(std_row[col("upsilon")], "0");
     assert_eq!(std_row[col("mmhb_msun")], "0.075");
     assert!((std_row[col("chandrasekhar_msun")].parse::<f64>().unwrap() - 1.456298).abs() < 1e-6);
-    // SC only at τ = 0.
-    assert!(rows[0][col("sc_reason")].contains("not-specified"));
+    // SC wherever a star exists; the no-model corner says why.
+    assert!(rows[0][col("sc_reason")].contains("no-regular-centre"));
+    assert!(rows[1][col("sc_fraction")].parse::<f64>().unwrap() > 0.0);
     assert_eq!(std_row[col("sc_reason")], "");
     for name in ["bounds.svg", "bounds.png"] {
         let meta = std::fs::metadata(dir.path().join(name)).unwrap();

@@ -57,7 +57,7 @@ pub const BOUNDS_CSV_COLUMNS: [&str; 23] = [
 /// The grid as `bounds.csv` text: one row per point (row-major), every scalar bound in
 /// round-trip form, empty where there is no value, with `status` (`ok`, `partial` or
 /// `no-model`) and `reason` (the failures, `bound: code: reason`, joined by ` | `); the SC
-/// fraction has its own `sc_reason` (it is refused at every τ ≠ 0).
+/// fraction has its own `sc_reason`.
 pub fn bounds_csv(grid: &TheoryGrid) -> Result<String, BoundsCsvError> {
     let mut w = csv::WriterBuilder::new().from_writer(Vec::new());
     let err = |e: csv::Error| BoundsCsvError(e.to_string());

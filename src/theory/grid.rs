@@ -41,7 +41,7 @@
 //! assert_eq!(dwarfbound::theory::grid::TheoryGrid::from_json_bytes(&bytes).unwrap(), grid);
 //! ```
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeSet;
 use std::io::IsTerminal;
 
 use rayon::prelude::*;
@@ -237,13 +237,7 @@ pub fn compute(
             why: format!("more than {MAX_GRID_POINTS} points"),
         })?;
     let range = options.shard.map_or(0..total, |s| s.range(total));
-    let tau0_row = (0..n_t).find(|&it| grid_value(&tau, it) == 0.0);
-    let sc_needed =
-        tau0_row.is_some_and(|it| (it * n_u..(it + 1) * n_u).any(|i| range.contains(&i)));
-    let mut evaluator = PointEvaluator::new(settings)?;
-    if sc_needed {
-        evaluator = evaluator.with_sc_reference();
-    }
+    let evaluator = PointEvaluator::new(settings)?.with_sc_reference();
     let ev = &evaluator;
     let gradient = settings.anisotropy == Anisotropy::Gradient;
     let num = &settings.numerics;
@@ -357,50 +351,67 @@ pub fn compute(
         })
         .collect();
 
-    // 3. Schönberg–Chandrasekhar along the τ = 0 row (refused elsewhere).
+    // 3. Schönberg–Chandrasekhar factor on a (Υ, τ) node lattice (every `sc_grid_stride`-th
+    //    value of each axis), interpolated in between; exact where a stencil node has no value.
+    //    Gradient ansatz: the factor does not depend on τ (an exact identity), so one row of
+    //    Υ-nodes at τ = 0 serves every τ.
     pb.set_message("Schönberg–Chandrasekhar");
-    let sc_row: BTreeMap<usize, Outcome<crate::theory::point::ScValues>> = match tau0_row {
-        Some(it0) if sc_needed => {
-            let cols: Vec<usize> = (0..n_u)
-                .filter(|iu| range.contains(&(it0 * n_u + iu)))
-                .collect();
-            let positions: BTreeSet<usize> =
-                cols.iter().flat_map(|&iu| stencil(&sc_nodes, iu)).collect();
-            let one_row = Axis {
-                start: 0.0,
-                stop: 0.0,
-                count: 1,
-            };
-            let nodes: NodeValues<Vec<f64>> = positions
-                .par_iter()
-                .map(|&pu| {
-                    let r = ev.sc_ratio(grid_value(&upsilon, sc_nodes[pu]), 0.0);
-                    (
-                        (0, pu),
-                        r.as_result().map(|v| vec![*v]).map_err(Clone::clone),
-                    )
-                })
-                .collect();
-            cols.par_iter()
-                .map(|&iu| {
-                    let on_node = sc_nodes.binary_search(&iu).is_ok();
-                    let v = match interpolate_2d(
-                        from_map(&nodes),
-                        &upsilon,
-                        &one_row,
-                        &sc_nodes,
-                        &[0],
-                        iu,
-                        0,
-                    ) {
-                        Some(v) => Outcome::Ok(ev.sc_values(v[0], !on_node)),
-                        None => ev.sc(grid_value(&upsilon, iu), 0.0),
-                    };
-                    (iu, v)
-                })
-                .collect()
+    let one_row = Axis {
+        start: 0.0,
+        stop: 0.0,
+        count: 1,
+    };
+    let (sc_t_axis, sc_t_nodes) = if gradient {
+        (&one_row, vec![0])
+    } else {
+        // The τ = 0 row is always a node row: the standard-gravity values stay exact.
+        let mut nodes = axis_nodes(n_t, num.sc_grid_stride);
+        if let Some(it0) = (0..n_t).find(|&it| grid_value(&tau, it) == 0.0) {
+            if let Err(k) = nodes.binary_search(&it0) {
+                nodes.insert(k, it0);
+            }
         }
-        _ => BTreeMap::new(),
+        (&tau, nodes)
+    };
+    let sc_need: Vec<(usize, usize)> = if gradient {
+        let cols: BTreeSet<usize> = range
+            .clone()
+            .flat_map(|i| stencil(&sc_nodes, i % n_u))
+            .collect();
+        cols.into_iter().map(|pu| (0, pu)).collect()
+    } else {
+        needed_nodes(&range, n_u, &sc_nodes, &sc_t_nodes)
+            .into_iter()
+            .collect()
+    };
+    let sc_node_values: NodeValues<Vec<f64>> = sc_need
+        .par_iter()
+        .map(|&(pt, pu)| {
+            let u = grid_value(&upsilon, sc_nodes[pu]);
+            let t = grid_value(sc_t_axis, sc_t_nodes[pt]);
+            let r = ev.sc_ratio(u, t);
+            (
+                (pt, pu),
+                r.as_result().map(|v| vec![*v]).map_err(Clone::clone),
+            )
+        })
+        .collect();
+    let sc_at = |iu: usize, it: usize| -> Outcome<crate::theory::point::ScValues> {
+        let it_sc = if gradient { 0 } else { it };
+        let on_node =
+            sc_nodes.binary_search(&iu).is_ok() && sc_t_nodes.binary_search(&it_sc).is_ok();
+        match interpolate_2d(
+            from_map(&sc_node_values),
+            &upsilon,
+            sc_t_axis,
+            &sc_nodes,
+            &sc_t_nodes,
+            iu,
+            it_sc,
+        ) {
+            Some(v) => Outcome::Ok(ev.sc_values(v[0], !on_node)),
+            None => ev.sc(grid_value(&upsilon, iu), grid_value(&tau, it)),
+        }
     };
 
     // 4. Assemble.
@@ -412,10 +423,7 @@ pub fn compute(
         .map(|(i, b)| {
             let (iu, it) = (i % n_u, i / n_u);
             let (u, t) = (grid_value(&upsilon, iu), grid_value(&tau, it));
-            let sc = match (Some(it) == tau0_row, sc_row.get(&iu)) {
-                (true, Some(v)) => v.clone(),
-                _ => ev.sc(u, t),
-            };
+            let sc = sc_at(iu, it);
             ev.assemble(u, t, &le[i - range.start], sc, b, None)
         })
         .collect();
@@ -445,12 +453,13 @@ pub fn compute(
             n_u,
         ));
     }
-    if let (Some(it0), true) = (tau0_row, sc_nodes.len() < n_u && sc_needed) {
-        let samples: Vec<usize> = cell_centres(&sc_nodes, &[0], &(0..n_u), n_u, 4)
-            .into_iter()
-            .map(|iu| it0 * n_u + iu)
-            .filter(|i| range.contains(i))
-            .collect();
+    if sc_nodes.len() < n_u || (!gradient && sc_t_nodes.len() < n_t) {
+        let t_nodes: Vec<usize> = if gradient {
+            (0..n_t).collect()
+        } else {
+            sc_t_nodes.clone()
+        };
+        let samples = cell_centres(&sc_nodes, &t_nodes, &range, n_u, 4);
         let results: Vec<(f64, usize)> = samples
             .par_iter()
             .filter_map(|&i| {
@@ -458,7 +467,8 @@ pub fn compute(
                 if !sc.interpolated {
                     return None;
                 }
-                let exact = *ev.sc_ratio(grid_value(&upsilon, i % n_u), 0.0).ok()?;
+                let p = &points[i - range.start];
+                let exact = *ev.sc_ratio(p.upsilon, p.tau).ok()?;
                 Some(((sc.ratio / exact - 1.0).abs(), i))
             })
             .collect();

@@ -18,6 +18,7 @@ pub mod rotation;
 pub mod schonberg;
 pub mod settings;
 pub mod shard;
+pub mod slow_rotation;
 pub mod wd_grid;
 pub mod white_dwarf;
 

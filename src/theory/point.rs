@@ -383,8 +383,8 @@ impl PointEvaluator {
         }
     }
 
-    /// The SC fraction at (Υ, τ): refused for τ ≠ 0 (`bounds.md` §7.2). The standard-gravity
-    /// fit is solved once per evaluator (see [`PointEvaluator::with_sc_reference`]).
+    /// The SC fraction at (Υ, τ) for the settings' ansatz. The standard-gravity fit is solved
+    /// once per evaluator (see [`PointEvaluator::with_sc_reference`]).
     pub fn sc(&self, upsilon: f64, tau: f64) -> Outcome<ScValues> {
         self.sc_ratio(upsilon, tau)
             .map(|ratio| self.sc_values(ratio, false))
@@ -407,37 +407,34 @@ impl PointEvaluator {
         self
     }
 
-    /// q_SC(Υ)/q_SC(0) at (Υ, τ), or why not.
+    /// q_SC(Υ, τ)/q_SC(0, 0) at (Υ, τ), or why not.
     pub fn sc_ratio(&self, upsilon: f64, tau: f64) -> Outcome<f64> {
-        if tau != 0.0 {
-            // Refused before any fit, with a short reason (a grid repeats it at every τ ≠ 0).
-            return Outcome::Failed(Failure {
-                code: "not-specified".into(),
-                reason: "no Schönberg–Chandrasekhar fraction for τ ≠ 0: no anisotropic \
-                         isothermal core is specified (bounds.md §7.2)"
-                    .into(),
-            });
-        }
         let p = &self.settings.sc;
-        // `sc_fraction` validates everything (and refuses τ ≠ 0); at Υ = 0 it fits nothing.
-        let checked = schonberg::sc_fraction(
-            if self.sc_reference_q.is_some() {
-                0.0
-            } else {
-                upsilon
-            },
-            tau,
-            p,
-            self.settings.sc_variant,
-        );
+        let a = self.settings.anisotropy;
+        // `sc_fraction_with` validates everything; at Υ = τ = 0 it fits nothing.
+        let (u_check, t_check) = if self.sc_reference_q.is_some() {
+            (0.0, 0.0)
+        } else {
+            (upsilon, tau)
+        };
+        let checked = schonberg::sc_fraction_with(u_check, t_check, a, p, self.settings.sc_variant)
+            .and_then(|q| {
+                // Validates (Υ, τ, ansatz) when the fit itself is skipped above.
+                ModifiedLaneEmden::new(p.n_env, upsilon, tau, a)?;
+                Ok(q)
+            });
         match (checked, self.sc_reference_q) {
             (Err(e), _) => Outcome::Failed(e.into()),
             (Ok(q), None) => Outcome::Ok(q.ratio),
-            (Ok(_), Some(_)) if upsilon == 0.0 => Outcome::Ok(1.0),
-            // The same arithmetic as `sc_fraction`, with the Υ = 0 fit solved once.
-            (Ok(_), Some(q0)) => schonberg::core_envelope_fit(
+            (Ok(_), Some(_)) if upsilon == 0.0 && tau == 0.0 => Outcome::Ok(1.0),
+            // The same arithmetic as `sc_fraction_with`, with the Υ = τ = 0 fit solved once. The
+            // gradient ansatz's factor is its τ = 0 value exactly (G-rescaling; checked in the
+            // Schönberg–Chandrasekhar tests), so grids solve one row of it.
+            (Ok(_), Some(q0)) => schonberg::core_envelope_fit_with(
                 p.lambda(),
                 upsilon,
+                if a == Anisotropy::Gradient { 0.0 } else { tau },
+                a,
                 p.n_env,
                 schonberg::InterfaceCondition::ContinuousPTilde,
             )
