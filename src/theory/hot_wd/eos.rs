@@ -277,36 +277,45 @@ pub fn zero_t_density_m3(x: f64) -> f64 {
     x * x * x / (3.0 * PI * PI * lam * lam * lam)
 }
 
-/// η at which the electron gas (plus ions, radiation and the lattice term) has pressure
-/// `p_pa` at temperature `t_k`, by bracketing and Brent's method; `None` when no η in
-/// [−200, 1e7] gives it (P must be monotone in η there, which it is wherever ∂P/∂η > 0).
+/// η at which the matter pressure (electrons, ions, radiation and the lattice term) equals
+/// `p_pa` at temperature `t_k`: the first upward crossing in a scan from η = −200 (steps of 4
+/// up to η = 10, then factors of 1.5 up to 1e7), polished by Brent's method; `None` without
+/// one. The first crossing matters: with the lattice term, cool non-degenerate gas can have
+/// P(η) rise, fall (even below zero) and rise again, and the low-density branch is the gas.
 pub fn eta_for_pressure(p_pa: f64, t_k: f64, comp: &Composition) -> Option<f64> {
     if !(p_pa > 0.0 && t_k > 0.0) {
         return None;
     }
-    let f = |eta: f64| {
-        let s = matter(eta, t_k, comp);
-        (s.p / p_pa).ln()
-    };
+    let f = |eta: f64| matter(eta, t_k, comp).p / p_pa - 1.0;
     let mut lo = -200.0;
-    let flo = f(lo);
+    let mut flo = f(lo);
     if !(flo < 0.0) {
         return None;
     }
-    let mut hi = -10.0;
-    let mut fhi = f(hi);
-    while !(fhi > 0.0) {
-        lo = hi;
-        hi = if hi < 10.0 { hi + 20.0 } else { hi * 3.0 };
+    loop {
+        let hi = if lo < 10.0 { lo + 4.0 } else { lo * 1.5 };
         if hi > 1e7 {
             return None;
         }
-        fhi = f(hi);
+        let fhi = f(hi);
+        if fhi >= 0.0 {
+            let (x, ok) = crate::theory::roots::brent_root_bracketed(
+                f,
+                lo,
+                flo,
+                hi,
+                fhi,
+                1e-13 * hi.abs().max(1.0),
+                200,
+            );
+            return ok.then_some(x);
+        }
         if fhi.is_nan() {
             return None;
         }
+        lo = hi;
+        flo = fhi;
     }
-    crate::theory::roots::brent_root(f, lo, hi, 1e-13 * hi.abs().max(1.0), 200)
 }
 
 #[cfg(test)]

@@ -23,7 +23,7 @@
 pub mod cold;
 pub mod eos;
 pub mod opacity;
-// pub mod shoot;
+pub mod shoot;
 // pub mod table;
 
 use std::str::FromStr;
@@ -31,7 +31,7 @@ use std::str::FromStr;
 use crate::theory::error::TheoryError;
 
 pub use cold::cold_salpeter_radius_rsun;
-// pub use shoot::{hot_radius_rsun, HotModel, HotOptions};
+pub use shoot::{hot_radius_rsun, HotModel, HotOptions};
 // pub use table::{HotWdTable, TableRadius};
 
 /// Mass coordinate q = m_above/M of the bottom of the helium layer (the core boundary), where
