@@ -24,7 +24,7 @@ pub mod cold;
 pub mod eos;
 pub mod opacity;
 pub mod shoot;
-// pub mod table;
+pub mod table;
 
 use std::str::FromStr;
 
@@ -32,7 +32,7 @@ use crate::theory::error::TheoryError;
 
 pub use cold::cold_salpeter_radius_rsun;
 pub use shoot::{hot_radius_rsun, HotModel, HotOptions};
-// pub use table::{HotWdTable, TableRadius};
+pub use table::{HotWdTable, TableRadius};
 
 /// Mass coordinate q = m_above/M of the bottom of the helium layer (the core boundary), where
 /// the shooting switches from ln P to r and below which the core is isothermal.
