@@ -147,7 +147,12 @@ impl ColdWd {
         let rho_c = rho0 * x_c.powi(3);
         let dp_c = mc2 - self.c1 * (1.0 + u_c) / x_c;
         let ell = length_unit_m(self.mu_e);
-        let r0 = ell * if x_c > 1.0 { 1e-4 / x_c } else { 1e-4 / x_c.sqrt() };
+        let r0 = ell
+            * if x_c > 1.0 {
+                1e-4 / x_c
+            } else {
+                1e-4 / x_c.sqrt()
+            };
         // Central series: u = u_c − μ_e m_u G ρ_c (4π/3 + 2πΥ) r²/(2 dP/du|_c), M = 4πρ_c r³/3.
         let k = self.mu_e * M_U_KG * G_SI * rho_c * (4.0 * PI / 3.0 + 2.0 * PI * self.upsilon)
             / (2.0 * dp_c);

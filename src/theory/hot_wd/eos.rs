@@ -22,7 +22,7 @@
 use std::sync::OnceLock;
 
 use crate::constants::{
-    radiation_constant_si, C_SI, E_CHARGE_C, EPSILON_0_F_M, HBAR_SI, K_B_SI, M_E_KG, M_U_KG,
+    radiation_constant_si, C_SI, EPSILON_0_F_M, E_CHARGE_C, HBAR_SI, K_B_SI, M_E_KG, M_U_KG,
 };
 use crate::theory::hot_wd::Composition;
 
@@ -336,11 +336,16 @@ mod tests {
             let p0 = chandrasekhar_pressure_pa(x);
             let n0 = zero_t_density_m3(x);
             assert!((e.p / p0 - 1.0).abs() < tol, "x = {x}: {}", e.p / p0 - 1.0);
-            assert!((e.n / n0 - 1.0).abs() < tol * 10.0, "x = {x}: {}", e.n / n0 - 1.0);
+            assert!(
+                (e.n / n0 - 1.0).abs() < tol * 10.0,
+                "x = {x}: {}",
+                e.n / n0 - 1.0
+            );
         }
         // Series and closed form meet at x = 0.1 (continuity, closed form).
         let k = electron_rest_energy_j() / (8.0 * PI * PI * compton_wavelength_m().powi(3));
-        let closed = |x: f64| k * (x * (2.0 * x * x / 3.0 - 1.0) * (1.0 + x * x).sqrt() + x.asinh());
+        let closed =
+            |x: f64| k * (x * (2.0 * x * x / 3.0 - 1.0) * (1.0 + x * x).sqrt() + x.asinh());
         assert!((chandrasekhar_pressure_pa(0.0999999) / closed(0.0999999) - 1.0).abs() < 1e-8);
     }
 
@@ -357,7 +362,8 @@ mod tests {
         let t = 1e4;
         let e = electrons(-20.0, t);
         let beta = K_B_SI * t / electron_rest_energy_j();
-        let nmb = 2.0 * (M_E_KG * K_B_SI * t / (2.0 * PI * HBAR_SI * HBAR_SI)).powf(1.5)
+        let nmb = 2.0
+            * (M_E_KG * K_B_SI * t / (2.0 * PI * HBAR_SI * HBAR_SI)).powf(1.5)
             * (-20.0f64).exp()
             * (1.0 + 15.0 / 8.0 * beta);
         assert!((e.n / nmb - 1.0).abs() < 1e-6);
@@ -374,9 +380,15 @@ mod tests {
             let ht = 1e-5 * t;
             let (c, d) = (matter(eta, t + ht, &comp), matter(eta, t - ht, &comp));
             let rel = |num: f64, ana: f64| ((num - ana) / ana).abs();
-            assert!(rel((a.p - b.p) / (2.0 * he), s.dp_deta) < 1e-6, "dP/dη at {eta}");
+            assert!(
+                rel((a.p - b.p) / (2.0 * he), s.dp_deta) < 1e-6,
+                "dP/dη at {eta}"
+            );
             assert!(rel((a.rho - b.rho) / (2.0 * he), s.drho_deta) < 1e-6);
-            assert!(rel((c.p - d.p) / (2.0 * ht), s.dp_dt) < 1e-6, "dP/dT at {eta}");
+            assert!(
+                rel((c.p - d.p) / (2.0 * ht), s.dp_dt) < 1e-6,
+                "dP/dT at {eta}"
+            );
             assert!(rel((c.rho - d.rho) / (2.0 * ht), s.drho_dt) < 1e-6);
         }
     }

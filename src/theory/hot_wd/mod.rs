@@ -328,7 +328,13 @@ mod tests {
     #[test]
     fn compositions() {
         // Definitions (spec §3.2): μ_e = 2 exactly for He, C, O and 50:50 C/O; H: μ = 1/2.
-        for c in [Core::Helium, Core::CarbonOxygen, Core::Carbon, Core::Oxygen, Core::OxygenNeon] {
+        for c in [
+            Core::Helium,
+            Core::CarbonOxygen,
+            Core::Carbon,
+            Core::Oxygen,
+            Core::OxygenNeon,
+        ] {
             assert!((c.composition().mu_e - 2.0).abs() < 1e-14);
         }
         assert!((Composition::hydrogen().mu() - 0.5).abs() < 1e-15);
