@@ -23,7 +23,7 @@
 
 use std::f64::consts::PI;
 
-use crate::constants::{msun_kg, G_SI, M_U_KG, R_SUN_NOMINAL_M};
+use crate::constants::{msun_kg, C_SI, G_SI, M_U_KG, R_SUN_NOMINAL_M};
 use crate::theory::hot_wd::eos::{
     chandrasekhar_pressure_pa, compton_wavelength_m, electron_rest_energy_j, lattice_coefficient,
     zero_t_density_m3,
@@ -42,6 +42,10 @@ pub struct ColdWd {
     c1: f64,
     /// Zero-pressure surface u₀ (0 without the lattice term).
     u_surface: f64,
+    /// K⟨Z^{5/3}⟩/⟨Z⟩ of P_C = −K n_e^{4/3} (0 without the lattice term).
+    k_lattice: f64,
+    /// General relativity (TOV) instead of the Newtonian equation (Υ = 0 only).
+    relativistic: bool,
 }
 
 /// One cold model.
@@ -95,7 +99,48 @@ impl ColdWd {
             upsilon,
             c1,
             u_surface,
+            k_lattice: kc,
+            relativistic: false,
         })
+    }
+
+    /// The same matter (with the lattice term) in general relativity at standard gravity: the
+    /// Tolman–Oppenheimer–Volkoff equation (Oppenheimer & Volkoff 1939, Phys. Rev. 55, 374),
+    /// written for u with the enthalpy per electron H = μ_e m_u c² + m_e c² u − c₁x
+    /// (ε + P = n_e H at T = 0; the −c₁x is the lattice part, −4K n_e^{1/3}):
+    /// du/dr = −H G (M + 4πr³P/c²) / (c² r² (1 − 2GM/(rc²)) [m_e c² − c₁(1+u)/x]),
+    /// dM/dr = 4πr²ε/c², M the gravitational mass and r the areal radius.
+    pub fn relativistic(comp: &Composition) -> Result<Self, HotWdError> {
+        Ok(Self {
+            relativistic: true,
+            ..Self::new(comp, 0.0, true)?
+        })
+    }
+
+    /// (P, ε) at u for the TOV equation: total pressure and energy density, J m⁻³.
+    fn pressure_energy(&self, u: f64) -> (f64, f64, f64) {
+        let x = (u * (u + 2.0)).sqrt();
+        let n = zero_t_density_m3(x);
+        let p = chandrasekhar_pressure_pa(x) - self.k_lattice * n.powf(4.0 / 3.0);
+        let h = self.mu_e * M_U_KG * C_SI * C_SI + electron_rest_energy_j() * u - self.c1 * x;
+        (p, n * h - p, h)
+    }
+
+    fn rhs_tov(&self, r: f64, u: f64, m: f64) -> Result<[f64; 2], HotWdError> {
+        let u = u.max(self.u_surface * 0.5);
+        let x = (u * (u + 2.0)).sqrt();
+        let dp = electron_rest_energy_j() - self.c1 * (1.0 + u) / x;
+        let c2 = C_SI * C_SI;
+        let metric = 1.0 - 2.0 * G_SI * m / (r * c2);
+        if !(dp > 0.0 && metric > 0.0) {
+            return Err(HotWdError::Numerical("TOV state out of range".into()));
+        }
+        let (p, e, h) = self.pressure_energy(u);
+        let grav = m + 4.0 * PI * r * r * r * p / c2;
+        Ok([
+            -h * G_SI * grav / (c2 * r * r * metric * dp),
+            4.0 * PI * r * r * e / c2,
+        ])
     }
 
     /// The zero-pressure surface value u₀.
@@ -156,7 +201,17 @@ impl ColdWd {
         // Central series: u = u_c − μ_e m_u G ρ_c (4π/3 + 2πΥ) r²/(2 dP/du|_c), M = 4πρ_c r³/3.
         let k = self.mu_e * M_U_KG * G_SI * rho_c * (4.0 * PI / 3.0 + 2.0 * PI * self.upsilon)
             / (2.0 * dp_c);
-        let y0 = [u_c - k * r0 * r0, 4.0 * PI * rho_c * r0.powi(3) / 3.0];
+        let mut y0 = [u_c - k * r0 * r0, 4.0 * PI * rho_c * r0.powi(3) / 3.0];
+        if self.relativistic {
+            // Central series of the TOV equation: M = (4π/3) r³ ε_c/c²,
+            // u = u_c − H_c G (4π/3)(ε_c + 3P_c) r²/(2 c⁴ dP/du|_c).
+            let (p, e, h) = self.pressure_energy(u_c);
+            let c4 = C_SI.powi(4);
+            y0 = [
+                u_c - h * G_SI * 4.0 * PI / 3.0 * (e + 3.0 * p) * r0 * r0 / (2.0 * c4 * dp_c),
+                4.0 * PI / 3.0 * r0.powi(3) * e / (C_SI * C_SI),
+            ];
+        }
         let m_scale = 4.0 * PI * rho0 * ell.powi(3) * x_c.powf(1.5).min(1.0);
         let mut oo = OdeOptions::<2>::new(1e-12, 0.0, r0);
         oo.atol = [1e-14 * u_c.min(1.0), 1e-14 * m_scale];
@@ -165,7 +220,13 @@ impl ColdWd {
         let us = self.u_surface;
         let mut g = |_r: f64, y: &[f64; 2]| y[0] - us;
         let sol = ode::solve(
-            |r, y: &[f64; 2]| self.rhs(r, y[0], y[1]),
+            |r, y: &[f64; 2]| {
+                if self.relativistic {
+                    self.rhs_tov(r, y[0], y[1])
+                } else {
+                    self.rhs(r, y[0], y[1])
+                }
+            },
             r0,
             y0,
             1e4 * ell,
@@ -193,7 +254,11 @@ impl ColdWd {
             });
         }
         let lo = (1e-3f64).max(3.0 * self.u_surface).ln();
-        let hi = 1e4f64.ln();
+        let hi = if self.relativistic {
+            self.maximum_mass()?.u_c.ln()
+        } else {
+            1e4f64.ln()
+        };
         let m_hi = self.model(hi.exp())?.mass_msun;
         if mass_msun >= m_hi {
             return Err(HotWdError::AboveMaximumMass {
@@ -224,6 +289,52 @@ impl ColdWd {
         let lnu = lnu.ok_or(HotWdError::Numerical("cold mass root not found".into()))?;
         self.model(lnu.exp())
     }
+}
+
+impl ColdWd {
+    /// The heaviest model: in general relativity the maximum of M(u_c) (Brent's minimiser of
+    /// −M over ln u_c ∈ [0, ln 1e3]); Newtonian models approach the limiting mass as u_c → ∞
+    /// and are evaluated at u_c = 1e4 (within ~1e-7 of it).
+    pub fn maximum_mass(&self) -> Result<ColdModel, HotWdError> {
+        if !self.relativistic {
+            return self.model(1e4);
+        }
+        let mut failure = None;
+        let best = crate::theory::roots::brent_minimize(
+            |lnu| match self.model(lnu.exp()) {
+                Ok(m) => -m.mass_msun,
+                Err(e) => {
+                    failure = Some(e);
+                    f64::INFINITY
+                }
+            },
+            0.0,
+            1e3f64.ln(),
+            1e-9,
+            200,
+        );
+        if let Some(e) = failure {
+            return Err(e);
+        }
+        let (lnu, _) = best.ok_or(HotWdError::Numerical("no maximum mass found".into()))?;
+        self.model(lnu.exp())
+    }
+}
+
+/// R_TOV(M)/R_Newton(M) of the cold Salpeter model at standard gravity: the general-relativistic
+/// correction to the radius, for combining with the Newtonian-order Υ ratio at the high-mass end.
+pub fn tov_radius_ratio(mass_msun: f64, core: Core) -> Result<f64, HotWdError> {
+    let comp = core.composition();
+    let gr = ColdWd::relativistic(&comp)?.model_of_mass(mass_msun)?;
+    let newton = ColdWd::new(&comp, 0.0, true)?.model_of_mass(mass_msun)?;
+    Ok(gr.radius_rsun / newton.radius_rsun)
+}
+
+/// Maximum mass (M☉) of the cold Salpeter model in general relativity at standard gravity.
+pub fn tov_maximum_mass_msun(core: Core) -> Result<f64, HotWdError> {
+    Ok(ColdWd::relativistic(&core.composition())?
+        .maximum_mass()?
+        .mass_msun)
 }
 
 /// Radius (R☉) of a zero-temperature white dwarf of mass `mass_msun` with core `core` and the
@@ -289,5 +400,33 @@ mod tests {
             // The table is rounded to 1e-7 R☉: agreement to half its last digit.
             assert!((r - r_ref).abs() <= 5.1e-8, "{core:?} {m}: {r}");
         }
+    }
+
+    #[test]
+    fn newtonian_limiting_masses_with_lattice_term() {
+        // Closed form (spec §3.3): 1.456298 (1 − ε)^{3/2} = 1.4405 / 1.4235 / 1.4166 / 1.4201 M☉
+        // for He / C / O / 50:50 C/O.
+        for (core, m_lim) in [
+            (Core::Helium, 1.4405),
+            (Core::Carbon, 1.4235),
+            (Core::Oxygen, 1.4166),
+            (Core::CarbonOxygen, 1.4201),
+        ] {
+            let m = ColdWd::new(&core.composition(), 0.0, true).unwrap().maximum_mass().unwrap();
+            assert!((m.mass_msun - m_lim).abs() < 6e-5, "{core:?}: {}", m.mass_msun);
+        }
+    }
+
+    #[test]
+    fn general_relativity_at_the_high_mass_end() {
+        // GR lowers the maximum mass of a carbon white dwarf to about 1.38–1.39 M☉ (from
+        // memory); the radius correction is tiny at 0.6 M☉ (GM/(Rc²) ≈ 1e-4, structure.md §4.5).
+        let m_max = tov_maximum_mass_msun(Core::Carbon).unwrap();
+        assert!(m_max > 1.37 && m_max < 1.40, "{m_max}");
+        let small = tov_radius_ratio(0.6, Core::CarbonOxygen).unwrap();
+        assert!(small < 1.0 && small > 0.999, "{small}");
+        let big = tov_radius_ratio(1.3, Core::CarbonOxygen).unwrap();
+        assert!(big < small, "{big}");
+        println!("C: M_max,GR = {m_max:.5} M☉; R_TOV/R_Newton (C/O) = {small:.7} at 0.6, {big:.6} at 1.3 M☉");
     }
 }

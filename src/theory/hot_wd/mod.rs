@@ -10,7 +10,8 @@
 //! core–envelope picture.
 //!
 //! Submodules: [`eos`] (matter), [`opacity`] (transport), [`cold`] (T = 0 with the lattice
-//! term), [`shoot`] (the hot solve), [`table`] (the precomputed R_hot and R_cold at Υ = 0).
+//! term, and its general-relativistic (TOV) counterpart at standard gravity), [`shoot`] (the hot
+//! solve), [`table`] (the precomputed R_hot and R_cold at Υ = 0).
 //!
 //! ```
 //! use dwarfbound::theory::hot_wd::{Core, Envelope};
@@ -30,7 +31,7 @@ use std::str::FromStr;
 
 use crate::theory::error::TheoryError;
 
-pub use cold::cold_salpeter_radius_rsun;
+pub use cold::{cold_salpeter_radius_rsun, tov_maximum_mass_msun, tov_radius_ratio};
 pub use shoot::{hot_radius_rsun, HotModel, HotOptions};
 pub use table::{HotWdTable, TableRadius};
 
