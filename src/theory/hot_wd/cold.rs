@@ -157,7 +157,7 @@ impl ColdWd {
         } else {
             mc2
         };
-        if !(dp > 0.0) {
+        if dp.is_nan() || dp <= 0.0 {
             return Err(HotWdError::Numerical("dP/du ≤ 0 below the surface".into()));
         }
         let rho0 = self.mu_e * M_U_KG * zero_t_density_m3(1.0);
@@ -412,8 +412,15 @@ mod tests {
             (Core::Oxygen, 1.4166),
             (Core::CarbonOxygen, 1.4201),
         ] {
-            let m = ColdWd::new(&core.composition(), 0.0, true).unwrap().maximum_mass().unwrap();
-            assert!((m.mass_msun - m_lim).abs() < 6e-5, "{core:?}: {}", m.mass_msun);
+            let m = ColdWd::new(&core.composition(), 0.0, true)
+                .unwrap()
+                .maximum_mass()
+                .unwrap();
+            assert!(
+                (m.mass_msun - m_lim).abs() < 6e-5,
+                "{core:?}: {}",
+                m.mass_msun
+            );
         }
     }
 

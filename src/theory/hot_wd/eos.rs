@@ -289,7 +289,7 @@ pub fn eta_for_pressure(p_pa: f64, t_k: f64, comp: &Composition) -> Option<f64> 
     let f = |eta: f64| matter(eta, t_k, comp).p / p_pa - 1.0;
     let mut lo = -200.0;
     let mut flo = f(lo);
-    if !(flo < 0.0) {
+    if flo.is_nan() || flo >= 0.0 {
         return None;
     }
     loop {

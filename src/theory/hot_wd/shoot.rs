@@ -120,12 +120,11 @@ fn state(eta: f64, t: f64, comp: &Composition) -> Result<MatterState, HotWdError
 }
 
 impl Star {
-    /// (P′, T′, ρ) at one point: the explicit modified hydrostatic equation with the
+    /// (P′, T′) at one point (r, M_r): the explicit modified hydrostatic equation with the
     /// Schwarzschild test; `lum` is L_r.
     fn gradients(
         &self,
-        r: f64,
-        m_r: f64,
+        (r, m_r): (f64, f64),
         p: f64,
         t: f64,
         s: &MatterState,
@@ -175,10 +174,10 @@ impl Star {
         let t = lnt.exp();
         let p = lnp.exp();
         let s = state(eta, t, comp)?;
-        if !(r > 0.0) {
+        if r.is_nan() || r <= 0.0 {
             return Err(HotWdError::Numerical("r ≤ 0 in the envelope".into()));
         }
-        let (pp, tp) = self.gradients(r, self.mass_kg - m_a, p, t, &s, lum, comp)?;
+        let (pp, tp) = self.gradients((r, self.mass_kg - m_a), p, t, &s, lum, comp)?;
         let f = p / pp;
         let eta_p = (pp - s.dp_dt * tp) / s.dp_deta;
         Ok([f, -4.0 * PI * r * r * s.rho * f, f * tp / t, f * eta_p])
@@ -188,7 +187,7 @@ impl Star {
     fn core_rhs(&self, r: f64, y: &[f64; 3]) -> Result<[f64; 3], HotWdError> {
         let t = y[1].exp();
         let s = state(y[2], t, &self.core)?;
-        let (pp, _) = self.gradients(r, y[0], s.p, t, &s, 0.0, &self.core)?;
+        let (pp, _) = self.gradients((r, y[0]), s.p, t, &s, 0.0, &self.core)?;
         Ok([4.0 * PI * r * r * s.rho, 0.0, pp / s.dp_deta])
     }
 
@@ -467,7 +466,8 @@ mod tests {
 
     /// §7.2 of the hot-WD notes: (M, core, R_cold, thick row, thin row) at 5/10/20/40/60 kK;
     /// 0 marks "no model" (independent scipy integration, docs/white-dwarfs.md, §7.2 table).
-    const GRID: [(f64, Core, f64, [f64; 5], [f64; 5]); 10] = [
+    type GridRow = (f64, Core, f64, [f64; 5], [f64; 5]);
+    const GRID: [GridRow; 10] = [
         (
             0.2,
             Core::Helium,
@@ -661,7 +661,7 @@ mod tests {
         let s = matter(100.0, 1e7, &star.core);
         let r = (1.0 / (PI * 0.6 * G_SI * s.rho * s.drho_deta / s.dp_deta)).sqrt();
         let e = star
-            .gradients(r, 1e29, s.p, 1e7, &s, 0.0, &star.core)
+            .gradients((r, 1e29), s.p, 1e7, &s, 0.0, &star.core)
             .unwrap_err();
         assert_eq!(e.code(), "denominator-vanishes");
         assert!(hot_radius_rsun(f64::NAN, 1e4, Core::Helium, Envelope::Thick, 0.0).is_err());
