@@ -2,11 +2,12 @@
 //! O(1) interpolated lookups.
 //!
 //! One job: serve R_hot(M, Teff; core, envelope) and the zero-temperature Salpeter radius
-//! R_cold(M; core) at Υ = 0 per catalogue object and grid point, without a structure solve. A
-//! hot model takes about 0.2 s, so the grid is solved once by
-//! `cargo run --example make_wd_hot_table` (the dev profile builds this crate at opt-level 3;
-//! about 3 minutes on 2 cores), written to `assets/wd_hot_table.csv` and embedded here with
-//! `include_str!`; a test re-solves a few nodes and compares.
+//! R_cold(M; core) at Υ = 0 per catalogue object and grid point, without a structure solve
+//! (a lookup: about 0.3 µs, measured). A hot model takes about 0.1–0.3 s, so the grid is
+//! solved once by `cargo run --example make_wd_hot_table` (the dev profile builds this crate at
+//! opt-level 3; measured 308 s wall for the 1122 nodes on 2 busy cores), written to
+//! `assets/wd_hot_table.csv` and embedded here with `include_str!`; a test re-solves a few
+//! nodes and compares.
 //!
 //! Grid ([`TableSpec::standard`]): log₁₀ Teff from log₁₀ 4000 to 5 in 16 equal steps; masses
 //! in steps of 0.05 M☉ over the range each core plausibly has, with an overlap so that a
