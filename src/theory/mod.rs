@@ -7,6 +7,7 @@
 
 pub mod error;
 pub mod grid;
+pub mod hot_wd;
 pub mod interpolate;
 pub mod lane_emden;
 pub mod mmhb;
