@@ -72,3 +72,16 @@ pub fn rjup_rsun() -> f64 {
 pub fn rearth_rsun() -> f64 {
     R_EARTH_EQ_NOMINAL_M / R_SUN_NOMINAL_M
 }
+
+/// Elementary charge e, C (exact, SI 2019; CODATA 2018).
+pub const E_CHARGE_C: f64 = 1.602_176_634e-19;
+/// Vacuum electric permittivity ε₀, F m⁻¹ (CODATA 2018).
+pub const EPSILON_0_F_M: f64 = 8.854_187_812_8e-12;
+/// Thomson cross-section σ_T, m² (CODATA 2018).
+pub const SIGMA_THOMSON_M2: f64 = 6.652_458_732_1e-29;
+
+/// Radiation density constant a = 4σ_SB/c, J m⁻³ K⁻⁴ (derived from the CODATA 2018 σ_SB and
+/// the exact c).
+pub fn radiation_constant_si() -> f64 {
+    4.0 * SIGMA_SB_SI / C_SI
+}

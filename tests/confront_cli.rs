@@ -1,27 +1,10 @@
-//! `dwarfbound confront` end to end: every output of ../shared/CONVENTIONS.md, the documented
-//! summary.json keys, a hand-computable probability, and the "no grid point is consistent"
-//! case.
+//! `dwarfbound confront` end to end: every output file of the README, the documented
+//! summary.json keys, a hand-computable probability, the "no grid point is consistent" case,
+//! and the permissions of the written files.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+mod common;
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
-}
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn confront(args: &[&str], out: &Path) -> std::process::Output {
-    let out_s = out.to_str().unwrap();
-    let mut cmd = bin();
-    cmd.current_dir(root())
-        .arg("confront")
-        .args(args)
-        .args(["--out", out_s]);
-    cmd.output().unwrap()
-}
+use common::{col, confront, demo, read_csv, root, summary, text};
 
 const FILES: [&str; 11] = [
     "report.html",
@@ -36,10 +19,6 @@ const FILES: [&str; 11] = [
     "quarantine.csv",
     "report.md",
 ];
-
-fn summary(out: &Path) -> serde_json::Value {
-    serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap()
-}
 
 #[test]
 fn demo_catalogues_write_every_output_with_the_documented_keys() {
@@ -58,12 +37,7 @@ fn demo_catalogues_write_every_output_with_the_documented_keys() {
         dir.path(),
     );
     // One map for all files: the demo files lack the messy file's columns, so exit 2 naming them.
-    assert_eq!(
-        o.status.code(),
-        Some(2),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
 
     let o = confront(
         &[
@@ -75,18 +49,13 @@ fn demo_catalogues_write_every_output_with_the_documented_keys() {
         ],
         dir.path(),
     );
-    assert_eq!(
-        o.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     for f in FILES {
         let p = dir.path().join(f);
         assert!(p.metadata().unwrap().len() > 0, "{f} missing or empty");
     }
     let s = summary(dir.path());
-    // Keys that scripts may rely on (../shared/CONVENTIONS.md).
+    // Keys that scripts may rely on (the summary.json contract in the README).
     for k in [
         "version",
         "catalogues",
@@ -147,9 +116,10 @@ fn demo_catalogues_write_every_output_with_the_documented_keys() {
     assert!(!html.contains("http://") && !html.contains("https://"));
 }
 
-/// Source: the definition of the consistency probability (bounds.md §8.1) with the standard
-/// normal CDF from statrs: P = Φ((B − m)/√(σ² + σ_th²)) for a white dwarf below the
-/// Chandrasekhar mass B = 5.82519/μe² M☉ (structure.md §4.1, μe = 2) with the 0.03 M☉ floor.
+/// Source: the definition of the consistency probability with the standard normal CDF from
+/// statrs: P = Φ((B − m)/√(σ² + σ_th²)) for a white dwarf below the Chandrasekhar mass
+/// B = 5.82519/μe² M☉ (Chandrasekhar's formula with CODATA 2018 constants, μe = 2; Shapiro &
+/// Teukolsky 1983 quote 5.836/μe², from memory) with the 0.03 M☉ floor.
 #[test]
 fn one_white_dwarf_gives_the_analytic_probability() {
     use statrs::distribution::{ContinuousCDF, Normal};
@@ -162,21 +132,9 @@ fn one_white_dwarf_gives_the_analytic_probability() {
         ],
         dir.path(),
     );
-    assert_eq!(
-        o.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
-    let text = std::fs::read_to_string(dir.path().join("objects.csv")).unwrap();
-    let mut rdr = csv::Reader::from_reader(text.as_bytes());
-    let h = rdr.headers().unwrap().clone();
-    let row = rdr.records().next().unwrap().unwrap();
-    let get = |name: &str| -> f64 {
-        row[h.iter().position(|c| c == name).unwrap()]
-            .parse()
-            .unwrap()
-    };
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let (h, rows) = read_csv(&dir.path().join("objects.csv"));
+    let get = |name: &str| -> f64 { rows[0][col(&h, name)].parse().unwrap() };
     let bound = get("bound_standard");
     assert!((bound - 1.456298).abs() < 2e-6, "M_Ch(μe = 2) = {bound}");
     let s = (0.05f64 * 0.05 + 0.03 * 0.03).sqrt();
@@ -197,12 +155,7 @@ fn an_impossible_object_is_named_and_every_file_is_still_written() {
         ],
         dir.path(),
     );
-    assert_eq!(
-        o.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     let stdout = String::from_utf8_lossy(&o.stdout);
     assert!(stdout.contains("no grid point is consistent"), "{stdout}");
     for f in FILES {
@@ -264,17 +217,21 @@ fn bad_inputs_exit_2_without_panicking() {
 }
 
 /// `vet` flags objects in tension with standard gravity under the default model. Expected value
-/// by hand from the definition (bounds.md §8.3, symmetric Gaussian): z = (B − m)/√(σ² + σ_th²)
+/// by hand from the definition of a tension (symmetric Gaussian): z = (B − m)/√(σ² + σ_th²)
 /// = (0.075 − 0.058)/√(0.002² + 0.005²) = 3.1568 for HFC-V0302 (invented demo object).
 #[test]
 fn vet_flags_the_next_night_tension() {
     let dir = tempfile::tempdir().unwrap();
-    let o = bin()
-        .current_dir(root())
-        .args(["vet", "catalogs-demo/next_night.csv", "--json", "--out"])
-        .arg(dir.path())
-        .output()
-        .unwrap();
+    let o = common::bin(
+        &[
+            "vet",
+            "catalogs-demo/next_night.csv",
+            "--json",
+            "--out",
+            common::path_str(dir.path()),
+        ],
+        &root(),
+    );
     assert_eq!(o.status.code(), Some(0));
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let t = v["standard_gravity_tensions"].as_array().unwrap();
@@ -282,4 +239,36 @@ fn vet_flags_the_next_night_tension() {
     assert_eq!(t[0]["id"], "HFC-V0302");
     let expected = (0.075f64 - 0.058) / (0.002f64.powi(2) + 0.005f64.powi(2)).sqrt();
     assert!((t[0]["sigma"].as_f64().unwrap() - expected).abs() < 1e-9);
+}
+
+// Source: POSIX file-creation semantics (a file created by the process gets 0666 & !umask). The
+// regression wrote every output but report.* as 0600 (tempfile's default), so a group or a web
+// server could not read the report folder.
+#[cfg(unix)]
+#[test]
+fn outputs_respect_the_umask() {
+    use std::os::unix::fs::PermissionsExt;
+    let dir = tempfile::tempdir().unwrap();
+    let reference = dir.path().join("reference.txt");
+    std::fs::write(&reference, "x").unwrap();
+    let want = std::fs::metadata(&reference).unwrap().permissions().mode() & 0o777;
+    let out = dir.path().join("out");
+    let o = confront(
+        &[&demo("brown_dwarfs.csv"), "--upsilon", "0", "--tau", "0"],
+        &out,
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    for f in [
+        "summary.json",
+        "objects.csv",
+        "grid.csv",
+        "allowed.png",
+        "report.html",
+    ] {
+        let mode = std::fs::metadata(out.join(f)).unwrap().permissions().mode() & 0o777;
+        assert_eq!(
+            mode, want,
+            "{f} has mode {mode:o}, a plain file here gets {want:o}"
+        );
+    }
 }

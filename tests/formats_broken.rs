@@ -3,29 +3,22 @@
 //! The broken fixtures come from `tools/make_format_fixtures.py` (astropy 8.0.2 output, then cut
 //! or edited); the truncation and corruption sweeps derive more from the good fixtures here.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 
-use dwarfbound::catalogue::table::{read_table, RawTable, ReadOptions};
+use common::read_with_table;
 use dwarfbound::catalogue::CatalogueError;
 
+/// A fixture of `tests/fixtures/formats/`.
 fn fixture(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/formats")
-        .join(name)
-}
-
-fn read_path(path: &Path, table: Option<&str>) -> Result<RawTable, CatalogueError> {
-    let opts = ReadOptions {
-        table: table.map(str::to_string),
-        ..Default::default()
-    };
-    read_table(path, &opts)
+    common::fixture("formats", name)
 }
 
 /// Reads a fixture that must fail; returns the message after checking it names the file.
 fn error_of(name: &str, table: Option<&str>) -> String {
     let path = fixture(name);
-    let err = read_path(&path, table).expect_err(name);
+    let err = read_with_table(&path, table).expect_err(name);
     let message = err.to_string();
     assert!(
         message.contains(&path.display().to_string()),
@@ -84,12 +77,12 @@ fn not_the_announced_format_is_refused() {
     for name in ["x.fits", "x.vot", "x.ecsv"] {
         let path = dir.path().join(name);
         std::fs::write(&path, "id,mass\nA,1\n").unwrap();
-        let err = read_path(&path, None).expect_err(name);
+        let err = read_with_table(&path, None).expect_err(name);
         assert!(err.to_string().contains(name), "{err}");
     }
     let path = dir.path().join("empty.fits");
     std::fs::write(&path, b"").unwrap();
-    assert!(read_path(&path, None).is_err());
+    assert!(read_with_table(&path, None).is_err());
 }
 
 /// Truncates `name` at many lengths; each must read or fail cleanly (no panic), and lengths
@@ -103,7 +96,7 @@ fn truncation_sweep(name: &str, step: usize, must_fail_below: usize) {
     lengths.extend([1, 79, 80, 2879, 2880, 2881, bytes.len() - 1]);
     for len in lengths.into_iter().filter(|&l| l < bytes.len()) {
         std::fs::write(&path, &bytes[..len]).unwrap();
-        let result = read_path(&path, None);
+        let result = read_with_table(&path, None);
         if len < must_fail_below {
             assert!(result.is_err(), "{name} cut at {len} bytes was accepted");
         }
@@ -159,7 +152,7 @@ fn corrupted_files_never_panic() {
         for seed in 0..150 {
             std::fs::write(&path, corrupt(&bytes, seed, 1 + seed as usize % 8)).unwrap();
             // Either outcome is fine; reaching the next iteration means no panic.
-            let _ = read_path(&path, None);
+            let _ = read_with_table(&path, None);
         }
     }
 }

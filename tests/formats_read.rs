@@ -6,26 +6,20 @@
 //! tests read the same files with our readers and compare cell by cell. Broken variants must
 //! give an error that names the file, never a panic.
 
-use std::path::{Path, PathBuf};
+mod common;
 
-use dwarfbound::catalogue::table::{read_table, Cell, RawTable, ReadOptions};
+use dwarfbound::catalogue::table::{Cell, RawTable};
 use dwarfbound::catalogue::CatalogueError;
 use serde_json::Value;
 
-fn fixtures() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/formats")
-}
-
+/// Reads a fixture of `tests/fixtures/formats/`, from the table asked for.
 fn read(name: &str, table: Option<&str>) -> Result<RawTable, CatalogueError> {
-    let opts = ReadOptions {
-        table: table.map(str::to_string),
-        ..Default::default()
-    };
-    read_table(&fixtures().join(name), &opts)
+    common::read_with_table(&common::fixture("formats", name), table)
 }
 
 fn expected() -> Value {
-    let text = std::fs::read_to_string(fixtures().join("expected.json")).expect("expected.json");
+    let text = std::fs::read_to_string(common::fixture("formats", "expected.json"))
+        .expect("expected.json");
     serde_json::from_str(&text).expect("expected.json parses")
 }
 

@@ -6,9 +6,13 @@
 //! and to VOTable as the rounded scaled unit `1.8981246e+27kg` (8 digits), while ECSV and CSV
 //! carry `jupiterMass` itself.
 
+mod common;
+
+use std::path::Path;
+
+use common::{bin, path_str, read_csv, root, text};
 use dwarfbound::catalogue::table::ReadOptions;
 use dwarfbound::catalogue::vet_files;
-use std::path::PathBuf;
 
 const FILES: [&str; 5] = [
     "catalogue.csv",
@@ -31,12 +35,15 @@ fn close(a: Option<f64>, b: Option<f64>, what: &str, id: &str, file: &str) {
 
 #[test]
 fn every_format_vets_to_the_same_objects_and_quarantine() {
-    let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/formats");
     let vetted: Vec<_> = FILES
         .iter()
         .map(|f| {
-            vet_files(&[dir.join(f)], None, &ReadOptions::default())
-                .unwrap_or_else(|e| panic!("{f}: {e}"))
+            vet_files(
+                &[common::fixture("formats", f)],
+                None,
+                &ReadOptions::default(),
+            )
+            .unwrap_or_else(|e| panic!("{f}: {e}"))
         })
         .collect();
     let reference = &vetted[0];
@@ -87,25 +94,72 @@ fn every_format_vets_to_the_same_objects_and_quarantine() {
 /// name is a whole-file error (exit 2) that lists the HDUs.
 #[test]
 fn table_flag_chooses_the_hdu() {
-    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
     let dir = tempfile::tempdir().unwrap();
     let vet = |table: &str| {
-        std::process::Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
-            .current_dir(&root)
-            .args([
+        bin(
+            &[
                 "vet",
                 "tests/fixtures/formats/catalogue.fits",
                 "--table",
                 table,
                 "--out",
-            ])
-            .arg(dir.path())
-            .output()
-            .unwrap()
+                path_str(dir.path()),
+            ],
+            &root(),
+        )
     };
     assert_eq!(vet("CATALOGUE").status.code(), Some(0));
     assert_eq!(vet("1").status.code(), Some(0));
     let bad = vet("NOPE");
     assert_eq!(bad.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&bad.stderr).contains("CATALOGUE"));
+}
+
+// Source: identical accepted rows across formats, and the README ("FITS … NaN as missing").
+// astropy 8.0.2 writes a float NaN into ECSV as `nan` and into a VOTable as `NaN`; the
+// regression accepted the VOTable row (NaN = missing) but quarantined the ECSV one ("radius: not
+// finite").
+#[test]
+fn nan_in_an_optional_column_is_treated_alike_in_ecsv_and_votable() {
+    let dir = tempfile::tempdir().unwrap();
+    let ecsv = dir.path().join("t.ecsv");
+    std::fs::write(
+        &ecsv,
+        "# %ECSV 1.0\n# ---\n# datatype:\n# - {name: id, datatype: string}\n\
+         # - {name: class, datatype: string}\n# - {name: mass, unit: solMass, datatype: float64}\n\
+         # - {name: mass_err, unit: solMass, datatype: float64}\n\
+         # - {name: radius, unit: km, datatype: float64}\n# schema: astropy-2.0\n\
+         id class mass mass_err radius\nA hburning 0.09 0.003 nan\n",
+    )
+    .unwrap();
+    let vot = dir.path().join("t.vot");
+    std::fs::write(
+        &vot,
+        "<?xml version=\"1.0\" encoding=\"utf-8\"?>\n<VOTABLE version=\"1.4\" \
+         xmlns=\"http://www.ivoa.net/xml/VOTable/v1.3\">\n<RESOURCE type=\"results\">\n<TABLE>\n\
+         <FIELD ID=\"id\" arraysize=\"*\" datatype=\"char\" name=\"id\"/>\n\
+         <FIELD ID=\"class\" arraysize=\"*\" datatype=\"char\" name=\"class\"/>\n\
+         <FIELD ID=\"mass\" datatype=\"double\" name=\"mass\" unit=\"solMass\"/>\n\
+         <FIELD ID=\"mass_err\" datatype=\"double\" name=\"mass_err\" unit=\"solMass\"/>\n\
+         <FIELD ID=\"radius\" datatype=\"double\" name=\"radius\" unit=\"km\"/>\n\
+         <DATA><TABLEDATA>\n<TR><TD>A</TD><TD>hburning</TD><TD>0.09</TD><TD>0.003</TD><TD>NaN</TD></TR>\n\
+         </TABLEDATA></DATA>\n</TABLE>\n</RESOURCE>\n</VOTABLE>\n",
+    )
+    .unwrap();
+    let accepted = |file: &Path, sub: &str| -> usize {
+        let out = dir.path().join(sub);
+        let o = bin(
+            &[
+                "vet",
+                file.to_str().unwrap(),
+                "--out",
+                out.to_str().unwrap(),
+            ],
+            dir.path(),
+        );
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+        read_csv(&out.join("accepted.csv")).1.len()
+    };
+    assert_eq!(accepted(&vot, "vot"), 1, "VOTable reference");
+    assert_eq!(accepted(&ecsv, "ecsv"), 1, "ECSV differs from VOTable");
 }

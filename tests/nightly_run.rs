@@ -1,76 +1,36 @@
-//! `dwarfbound run` and `merge`: cache reuse, the run-to-run difference and its alarm, a run
-//! killed mid-write, lock contention, shards, and config errors.
+//! `dwarfbound run` and `merge`: cache reuse, the run-to-run difference and its alarm (also after
+//! a merge, and never claimed on a first run), a run killed mid-write, lock contention and stale
+//! locks, shards, and config errors.
+
+mod common;
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
 
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+use common::{bin, command, config, demo, path_str, text};
+
+/// Runs the demo config with `extra` appended: it must exit 2 with a message naming `key`.
+fn assert_config_error_names(dir: &Path, extra: &str, key: &str) {
+    let cfg = config(dir, false, extra);
+    let o = bin(&["run", path_str(&cfg)], dir);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(text(&o).contains(key), "{}", text(&o));
 }
 
-fn demo(name: &str) -> String {
-    root()
-        .join("catalogs-demo")
-        .join(name)
-        .display()
-        .to_string()
-}
-
-/// Writes a config into `dir` over the demo catalogues (a small grid keeps the test quick).
-fn config(dir: &Path, with_next_night: bool, extra: &str) -> PathBuf {
-    let mut text = format!(
-        "output = \"out\"\n\
-         [[catalogue]]\npath = \"{}\"\n\
-         [[catalogue]]\npath = \"{}\"\n\
-         [[catalogue]]\npath = \"{}\"\n",
-        demo("vlm_stars.csv"),
-        demo("brown_dwarfs.csv"),
-        demo("white_dwarfs.csv")
-    );
-    if with_next_night {
-        text.push_str(&format!(
-            "[[catalogue]]\npath = \"{}\"\n",
-            demo("next_night.csv")
-        ));
-    }
-    text.push_str("[grid]\nupsilon = \"-0.3:0.6:19\"\ntau = \"-0.3:0.3:13\"\n");
-    text.push_str(extra);
-    let name = if with_next_night {
-        "next.toml"
-    } else {
-        "nightly.toml"
-    };
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p
-}
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
-        .current_dir(cwd)
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
+/// `dwarfbound run CFG` in `dir`, which must succeed; returns the run for its text.
+fn run_ok(dir: &Path, cfg: &Path) -> Output {
+    let o = bin(&["run", path_str(cfg)], dir);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    o
 }
 
 #[test]
 fn second_run_reuses_the_cache_and_next_night_raises_the_alarm() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let cfg_s = cfg.to_str().unwrap();
-    let first = run(&["run", cfg_s], dir.path());
-    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    let first = run_ok(dir.path(), &cfg);
     assert!(text(&first).contains("theory grid: computed"));
-    let second = run(&["run", cfg_s], dir.path());
-    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let second = run_ok(dir.path(), &cfg);
     assert!(
         text(&second).contains("theory grid: reused from the cache"),
         "{}",
@@ -79,7 +39,7 @@ fn second_run_reuses_the_cache_and_next_night_raises_the_alarm() {
     assert!(text(&second).contains("nothing changed"));
 
     let next = config(dir.path(), true, "");
-    let third = run(&["run", next.to_str().unwrap()], dir.path());
+    let third = bin(&["run", next.to_str().unwrap()], dir.path());
     assert_eq!(third.status.code(), Some(3), "{}", text(&third));
     let latest = dir.path().join("out/latest");
     let md = std::fs::read_to_string(latest.join("report.md")).unwrap();
@@ -104,15 +64,14 @@ fn second_run_reuses_the_cache_and_next_night_raises_the_alarm() {
 fn a_run_killed_mid_write_leaves_latest_intact() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let cfg_s = cfg.to_str().unwrap();
-    assert_eq!(run(&["run", cfg_s], dir.path()).status.code(), Some(0));
+    run_ok(dir.path(), &cfg);
     let latest = dir.path().join("out/latest");
     let before = std::fs::read_link(&latest).unwrap();
     let summary_before = std::fs::read(latest.join("summary.json")).unwrap();
 
-    let killed = Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
+    let killed = command()
         .current_dir(dir.path())
-        .args(["run", cfg_s])
+        .args(["run", path_str(&cfg)])
         .env("DWARFBOUND_TEST_ABORT_MID_WRITE", "1")
         .output()
         .unwrap();
@@ -123,8 +82,7 @@ fn a_run_killed_mid_write_leaves_latest_intact() {
         summary_before
     );
     // The next run takes over the dead run's lock and completes.
-    let after = run(&["run", cfg_s], dir.path());
-    assert_eq!(after.status.code(), Some(0), "{}", text(&after));
+    let after = run_ok(dir.path(), &cfg);
     assert!(text(&after).contains("stale lock"), "{}", text(&after));
     assert_ne!(std::fs::read_link(&latest).unwrap(), before);
 }
@@ -141,7 +99,7 @@ fn a_locked_output_folder_is_refused_with_exit_2() {
         format!("{}\n", std::process::id()),
     )
     .unwrap();
-    let o = run(&["run", cfg.to_str().unwrap()], dir.path());
+    let o = bin(&["run", cfg.to_str().unwrap()], dir.path());
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
     assert!(
         text(&o).contains("locked by another dwarfbound run"),
@@ -150,33 +108,36 @@ fn a_locked_output_folder_is_refused_with_exit_2() {
     );
 }
 
-fn shards(dir: &Path, cfg: &str, n: usize) -> Vec<String> {
-    (1..=n)
-        .map(|i| {
-            let o = run(&["run", cfg, "--shard", &format!("{i}/{n}")], dir);
-            assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+/// Runs `cfg` in `dir` as `n` shards, then merges them: into `out` when given, else published as
+/// the next run. Returns the merge.
+fn shard_and_merge(dir: &Path, cfg: &str, n: usize, out: Option<&Path>) -> Output {
+    let mut args = vec!["merge".to_string()];
+    for i in 1..=n {
+        let o = bin(&["run", cfg, "--shard", &format!("{i}/{n}")], dir);
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+        args.push(
             dir.join(format!("out/shards/{i}-of-{n}"))
                 .display()
-                .to_string()
-        })
-        .collect()
+                .to_string(),
+        );
+    }
+    if let Some(out) = out {
+        args.extend(["--out".to_string(), out.display().to_string()]);
+    }
+    let args: Vec<&str> = args.iter().map(String::as_str).collect();
+    bin(&args, dir)
 }
 
 #[test]
 fn four_shards_merged_equal_the_single_run_byte_for_byte() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    let cfg_s = cfg.to_str().unwrap();
-    assert_eq!(run(&["run", cfg_s], dir.path()).status.code(), Some(0));
+    run_ok(dir.path(), &cfg);
     let merged = dir.path().join("merged");
-    let mut args = vec!["merge".to_string()];
-    args.extend(shards(dir.path(), cfg_s, 4));
-    args.extend(["--out".to_string(), merged.display().to_string()]);
-    let args: Vec<&str> = args.iter().map(String::as_str).collect();
-    let o = run(&args, dir.path());
+    let o = shard_and_merge(dir.path(), path_str(&cfg), 4, Some(&merged));
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     // An unsharded run now compares with the same previous run as the merge did.
-    assert_eq!(run(&["run", cfg_s], dir.path()).status.code(), Some(0));
+    run_ok(dir.path(), &cfg);
     let latest = dir.path().join("out/latest");
     for f in ["grid.csv", "summary.json", "objects.csv"] {
         assert!(
@@ -190,18 +151,10 @@ fn four_shards_merged_equal_the_single_run_byte_for_byte() {
 fn merged_shards_are_published_as_the_next_run_with_its_alarm() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = config(dir.path(), false, "");
-    assert_eq!(
-        run(&["run", cfg.to_str().unwrap()], dir.path())
-            .status
-            .code(),
-        Some(0)
-    );
+    run_ok(dir.path(), &cfg);
     let before = std::fs::read_link(dir.path().join("out/latest")).unwrap();
     let next = config(dir.path(), true, "");
-    let mut args = vec!["merge".to_string()];
-    args.extend(shards(dir.path(), next.to_str().unwrap(), 3));
-    let args: Vec<&str> = args.iter().map(String::as_str).collect();
-    let o = run(&args, dir.path());
+    let o = shard_and_merge(dir.path(), path_str(&next), 3, None);
     assert_eq!(o.status.code(), Some(3), "{}", text(&o));
     assert!(text(&o).contains("HFC-V0302"), "{}", text(&o));
     assert_ne!(
@@ -213,10 +166,188 @@ fn merged_shards_are_published_as_the_next_run_with_its_alarm() {
 #[test]
 fn config_errors_exit_2_and_name_the_key() {
     let dir = tempfile::tempdir().unwrap();
-    let cfg = config(dir.path(), false, "[statistics]\ntension_sigmaa = 3\n");
-    let o = run(&["run", cfg.to_str().unwrap()], dir.path());
+    assert_config_error_names(
+        dir.path(),
+        "[statistics]\ntension_sigmaa = 3\n",
+        "tension_sigmaa",
+    );
+    let o = bin(&["run", "no/such/config.toml"], dir.path());
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
-    assert!(text(&o).contains("tension_sigmaa"), "{}", text(&o));
-    let o = run(&["run", "no/such/config.toml"], dir.path());
-    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+}
+
+// Source: README ("merge … runs the comparison once: the result equals the unsharded run") and
+// the `run` exit code 3 when an alarm rule fires. The regression treated every merge as a first
+// run: since_previous.previous = null, no alarm, exit 0, `latest` untouched.
+#[test]
+fn merged_shards_keep_the_nightly_difference_and_alarm() {
+    let dir = tempfile::tempdir().unwrap();
+    let first = config(dir.path(), false, "");
+    run_ok(dir.path(), &first);
+    let next = config(dir.path(), true, "");
+    let merged = dir.path().join("merged");
+    let o = shard_and_merge(dir.path(), path_str(&next), 2, Some(&merged));
+    // The unsharded `run next.toml` exits 3 here (new tension HFC-V0302).
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o));
+}
+
+// Source: the terminal of the same run ("since the previous run: this is the first run"). The
+// regression's report.md of a first run said "Nothing changed: same objects, same tensions, same
+// allowed region." (and so did every merged report).
+#[test]
+fn first_run_report_does_not_claim_nothing_changed() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = config(dir.path(), false, "");
+    run_ok(dir.path(), &cfg);
+    let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
+    assert!(
+        !md.contains("Nothing changed"),
+        "first run's report claims nothing changed since a previous run"
+    );
+}
+
+// Source: README exit codes (an invalid config → exit 2 naming the key). The regression ran
+// `age_min_mmhb_gyr = nan` with exit 0, disabled the age cut and wrote null.
+#[test]
+fn non_finite_config_value_is_rejected() {
+    let dir = tempfile::tempdir().unwrap();
+    assert_config_error_names(
+        dir.path(),
+        "[statistics]\nage_min_mmhb_gyr = nan\n",
+        "age_min_mmhb_gyr",
+    );
+}
+
+// Source: README ("A lock left by a run that was killed is detected … and taken over with a
+// note"). A run killed between creating the lock and writing its pid leaves an empty lock file;
+// the regression made every later run exit 2 "locked by another dwarfbound run (pid 0)", and
+// `--wait` wait forever.
+#[test]
+fn an_empty_stale_lock_file_does_not_block_forever() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = config(dir.path(), false, "");
+    std::fs::create_dir_all(dir.path().join("out")).unwrap();
+    std::fs::write(dir.path().join("out/.dwarfbound.lock"), "").unwrap();
+    run_ok(dir.path(), &cfg);
+}
+
+/// Writes a config over the three demo catalogues with the given Υ axis (τ: three points).
+fn grid_config(dir: &Path, name: &str, upsilon: &str) -> PathBuf {
+    let text = format!(
+        "output = \"out\"\n\
+         [[catalogue]]\npath = \"{}\"\n\
+         [[catalogue]]\npath = \"{}\"\n\
+         [[catalogue]]\npath = \"{}\"\n\
+         [grid]\nupsilon = \"{upsilon}\"\ntau = \"-0.3:0.3:3\"\n",
+        demo("vlm_stars.csv"),
+        demo("brown_dwarfs.csv"),
+        demo("white_dwarfs.csv")
+    );
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+/// The theory cache entries of the folder, sorted.
+fn cache_entries(dir: &Path) -> Vec<PathBuf> {
+    let mut v: Vec<PathBuf> = std::fs::read_dir(dir.join("out/cache"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "theory"))
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn a_valid_cache_entry_of_another_grid_is_not_reused_and_the_note_says_why() {
+    // Issue 13, item 4: an entry with a valid checksum but another config's grid (45 instead
+    // of 46 Υ points) must not be served.
+    let dir = tempfile::tempdir().unwrap();
+    let c45 = grid_config(dir.path(), "g45.toml", "-0.3:0.6:45");
+    let c46 = grid_config(dir.path(), "g46.toml", "-0.3:0.6:46");
+    let first = bin(&["run", c45.to_str().unwrap()], dir.path());
+    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    let [e45] = cache_entries(dir.path()).try_into().unwrap();
+    let second = bin(&["run", c46.to_str().unwrap()], dir.path());
+    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let e46 = cache_entries(dir.path())
+        .into_iter()
+        .find(|p| *p != e45)
+        .unwrap();
+    // The 45-point entry, checksum and all, filed under the 46-point grid's key.
+    std::fs::copy(&e45, &e46).unwrap();
+
+    let third = bin(&["run", c46.to_str().unwrap()], dir.path());
+    assert_eq!(third.status.code(), Some(0), "{}", text(&third));
+    let stdout = String::from_utf8_lossy(&third.stdout);
+    let stderr = String::from_utf8_lossy(&third.stderr);
+    assert!(stdout.contains("theory grid: computed"), "{stdout}");
+    let note: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.contains("theory cache entry"))
+        .collect();
+    assert_eq!(note.len(), 1, "one line on stderr: {stderr}");
+    assert!(note[0].contains("discarded and rebuilt"), "{}", note[0]);
+    assert!(
+        note[0].contains("upsilon.count: entry has 45, wanted 46"),
+        "{}",
+        note[0]
+    );
+    let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
+    assert!(
+        md.contains("upsilon.count: entry has 45, wanted 46"),
+        "{md}"
+    );
+    // The run's own outputs agree with its config.
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.path().join("out/latest/summary.json")).unwrap())
+            .unwrap();
+    assert_eq!(s["grid"]["upsilon"]["count"], 46);
+    let grid_rows = std::fs::read_to_string(dir.path().join("out/latest/grid.csv"))
+        .unwrap()
+        .lines()
+        .count();
+    assert_eq!(grid_rows, 1 + 46 * 3);
+
+    // The rebuilt entry is the right one and is reused, silently.
+    let fourth = bin(&["run", c46.to_str().unwrap()], dir.path());
+    assert_eq!(fourth.status.code(), Some(0), "{}", text(&fourth));
+    assert!(text(&fourth).contains("theory grid: reused from the cache"));
+    assert!(
+        !text(&fourth).contains("theory cache entry"),
+        "{}",
+        text(&fourth)
+    );
+}
+
+#[test]
+fn a_corrupt_cache_entry_is_rebuilt_with_a_note() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = grid_config(dir.path(), "g.toml", "-0.3:0.6:10");
+    let cfg_s = cfg.to_str().unwrap();
+    let first = bin(&["run", cfg_s], dir.path());
+    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    let [entry] = cache_entries(dir.path()).try_into().unwrap();
+    // Flip one byte of the payload: the checksum no longer holds.
+    let mut bytes = std::fs::read(&entry).unwrap();
+    let last = bytes.len() - 2;
+    bytes[last] ^= 0x01;
+    std::fs::write(&entry, &bytes).unwrap();
+
+    let second = bin(&["run", cfg_s], dir.path());
+    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let stderr = String::from_utf8_lossy(&second.stderr);
+    let note: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.contains("theory cache entry"))
+        .collect();
+    assert_eq!(note.len(), 1, "one line on stderr: {stderr}");
+    assert!(note[0].contains("discarded and rebuilt"), "{}", note[0]);
+    assert!(note[0].contains("checksum mismatch"), "{}", note[0]);
+    assert!(String::from_utf8_lossy(&second.stdout).contains("theory grid: computed"));
+    let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
+    assert!(md.contains("checksum mismatch"), "{md}");
+
+    let third = bin(&["run", cfg_s], dir.path());
+    assert!(text(&third).contains("theory grid: reused from the cache"));
 }

@@ -2,17 +2,18 @@
 //! from published tables and the theory notes, grids written to `bounds.csv` with failed points
 //! kept, and the exact rescaling law of the gradient ansatz. Each check names its source.
 
-use std::path::Path;
-use std::process::{Command, Output};
+mod common;
 
+use std::process::Output;
+
+use common::read_csv;
 use serde_json::Value;
 
+/// `dwarfbound predict ARGS`, run from the repository root.
 fn predict(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
-        .arg("predict")
-        .args(args)
-        .output()
-        .expect("runs")
+    let mut all = vec!["predict"];
+    all.extend_from_slice(args);
+    common::bin(&all, &common::root())
 }
 
 fn json_of(args: &[&str]) -> Value {
@@ -123,16 +124,6 @@ fn point_without_a_star_reports_reasons_not_nan() {
         .contains("no regular centre"));
 }
 
-fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
-    let mut r = csv::Reader::from_path(path).unwrap();
-    let header = r.headers().unwrap().iter().map(String::from).collect();
-    let rows = r
-        .records()
-        .map(|rec| rec.unwrap().iter().map(String::from).collect())
-        .collect();
-    (header, rows)
-}
-
 #[test]
 fn grid_writes_bounds_csv_with_failed_points() {
     let dir = tempfile::tempdir().unwrap();
@@ -178,8 +169,9 @@ fn grid_writes_bounds_csv_with_failed_points() {
     assert_eq!(std_row[col("upsilon")], "0");
     assert_eq!(std_row[col("mmhb_msun")], "0.075");
     assert!((std_row[col("chandrasekhar_msun")].parse::<f64>().unwrap() - 1.456298).abs() < 1e-6);
-    // SC only at τ = 0.
-    assert!(rows[0][col("sc_reason")].contains("not-specified"));
+    // SC wherever a star exists; the no-model corner says why.
+    assert!(rows[0][col("sc_reason")].contains("no-regular-centre"));
+    assert!(rows[1][col("sc_fraction")].parse::<f64>().unwrap() > 0.0);
     assert_eq!(std_row[col("sc_reason")], "");
     for name in ["bounds.svg", "bounds.png"] {
         let meta = std::fs::metadata(dir.path().join(name)).unwrap();

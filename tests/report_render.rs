@@ -529,9 +529,10 @@ struct ChromiumRun {
     netlog: Option<serde_json::Value>,
 }
 
-/// Runs headless Chromium on `page` with the flags of ../shared/DEPENDENCIES.md, except
-/// `--log-level=0` instead of 3: at level 3 Chromium drops the INFO-level `CONSOLE` lines, so
-/// console errors would pass unseen. A network log records every request.
+/// Runs headless Chromium on `page` with the usual screenshot flags (no sandbox, no GPU, no
+/// background networking, a fresh profile) and `--log-level=0`, not 3: at level 3 Chromium drops
+/// the INFO-level `CONSOLE` lines, so console errors would pass unseen. A network log records
+/// every request.
 fn run_chromium(chromium: &str, page: &Path, shot: &Path) -> ChromiumRun {
     let work = tempfile::tempdir().unwrap();
     let netlog = work.path().join("netlog.json");

@@ -63,8 +63,8 @@ fn upper_bound_class_is_the_complement() {
 #[test]
 fn hand_case_white_dwarf() {
     // Source: bounds.md §8.1 hand case, P = Φ(0.14/0.053852) = 0.995335207640; and the
-    // definition through statrs's normal CDF (its ~1e-10 relative error is documented in
-    // ../shared/DEPENDENCIES.md).
+    // definition through statrs's normal CDF (statrs 0.19.1's normal CDF has ~1e-10 relative
+    // error, fixed upstream but unreleased).
     let wd = measured(1.30, 0.05, 0.05, Side::AtMost);
     let p = ln_prob_consistent(&wd, 1.44, 0.02).exp();
     assert!((p - 0.995335207640).abs() < 1e-12, "{p}");

@@ -79,9 +79,9 @@ fn map_regions_on_an_elliptical_bowl() {
     // Δχ² ≤ q is the ellipse with semi-axes 0.2√q and 0.05√q about (0.1, −0.05).
     let ups: Vec<f64> = (0..81).map(|i| -1.0 + 0.025 * f64::from(i)).collect();
     let taus: Vec<f64> = (0..81).map(|j| -0.2 + 0.005 * f64::from(j)).collect();
-    let mut chi2 = Vec::new();
-    for &u in &ups {
-        for &t in &taus {
+    let mut chi2 = Vec::new(); // τ outer, Υ inner, as every grid vector
+    for &t in &taus {
+        for &u in &ups {
             chi2.push(37.0 + ((u - 0.1) / 0.2).powi(2) + ((t + 0.05) / 0.05).powi(2));
         }
     }
@@ -119,8 +119,8 @@ fn map_regions_on_an_elliptical_bowl() {
             b.fraction_of_grid
         );
     }
-    assert!(r.allowed_at(r.best.i_upsilon, r.best.j_tau, taus.len(), Level::Cl68));
-    assert!(!r.allowed_at(0, 0, taus.len(), Level::Cl997));
+    assert!(r.allowed_at(r.best.i_upsilon, r.best.j_tau, ups.len(), Level::Cl68));
+    assert!(!r.allowed_at(0, 0, ups.len(), Level::Cl997));
     assert!(map_regions(&ups, &taus, &chi2[1..]).is_err());
 }
 
@@ -369,4 +369,17 @@ fn upsilon_slice_through_the_reduction_matches_the_direct_slice() {
         );
         assert!((a.upper.unwrap() - b.upper.unwrap()).abs() < 1e-7);
     }
+}
+
+#[test]
+fn map_regions_ties_go_to_the_smallest_upsilon_then_tau() {
+    // The tie rule documented on map_regions (common practice, no source): a flat minimum is
+    // reported at its smallest Υ, then its smallest τ, whatever the storage order.
+    let ups = [-0.2, -0.1, 0.0];
+    let taus = [0.0, 0.1];
+    // τ outer, Υ inner: the minimum 1 sits at (Υ, τ) = (−0.1, 0) and (−0.2, 0.1).
+    let chi2 = [5.0, 1.0, 5.0, 1.0, 5.0, 5.0];
+    let r = map_regions(&ups, &taus, &chi2).unwrap();
+    assert_eq!((r.best.i_upsilon, r.best.j_tau), (0, 1));
+    assert_eq!((r.best.upsilon, r.best.tau), (-0.2, 0.1));
 }

@@ -270,13 +270,18 @@ fn failed_points_are_kept_with_their_reason() {
     let p = g.point(g.index(1, 0)).unwrap();
     assert!(p.first_failure().is_none());
     assert!(p.warnings.contains(&Warning::BelowRelativisticBound));
-    // The SC fraction exists only at τ = 0 (bounds.md §7.2) and is refused elsewhere.
+    // The SC fraction exists at every τ where a star does, and fails with the same typed reason
+    // where none does (no regular centre), never NaN.
     for p in &g.points {
-        if p.tau != 0.0 {
-            assert_eq!(p.sc.failure().unwrap().code, "not-specified");
+        match p.sc.failure() {
+            Some(f) => {
+                assert!(p.lane_emden_n15.failure().is_some());
+                assert_eq!(f.code, "no-regular-centre");
+            }
+            None => assert!(p.sc.ok().unwrap().q_sc.is_finite()),
         }
     }
-    let csv = g.bounds_csv().unwrap();
+    let csv = dwarfbound::pipeline::bounds_csv::bounds_csv(&g).unwrap();
     assert_eq!(csv.lines().count(), 9);
     assert!(!csv.to_lowercase().contains("nan"));
 }
@@ -328,8 +333,8 @@ fn shards_merge_to_the_full_grid_and_bytes_are_deterministic() {
 
 #[test]
 fn interpolated_values_agree_with_exact_solves() {
-    // 25 × 13 points with the default strides: break-up correction every 4th point, SC every 8th
-    // Υ, white-dwarf tables every 8th point (interpolated in between).
+    // 25 × 13 points with the default strides: break-up correction every 4th point, SC every 2nd
+    // point (and the τ = 0 row), white-dwarf tables every 8th point (interpolated in between).
     let s = TheorySettings::default();
     let (u, t) = (axis(-0.3, 0.6, 25), axis(-0.3, 0.3, 13));
     let g = compute(
@@ -347,8 +352,16 @@ fn interpolated_values_agree_with_exact_solves() {
     assert_eq!(g.interpolation_checks.len(), 3);
     for c in &g.interpolation_checks {
         assert!(c.samples > 0, "{}", c.quantity);
+        // The SC factor steepens near the existence bound (1 + 3Υ/2 − τ → 0; this grid's corner
+        // Υ = −0.3, τ = 0.3 is at 0.25 of standard gravity's): 1e-3 there, far below its theory
+        // uncertainty of several per cent (full fit vs core factor).
+        let tol = if c.quantity.starts_with("Schönberg") {
+            1e-3
+        } else {
+            1e-4
+        };
         assert!(
-            c.max_relative_error < 1e-4,
+            c.max_relative_error < tol,
             "{}: {}",
             c.quantity,
             c.max_relative_error
@@ -365,7 +378,7 @@ fn interpolated_values_agree_with_exact_solves() {
         );
         assert!(rel(a, b) < 1e-6, "break-up at ({iu}, {it})");
         if let (Some(x), Some(y)) = (p.sc.ok(), exact.sc.ok()) {
-            assert!(rel(x.q_sc, y.q_sc) < 1e-4);
+            assert!(rel(x.q_sc, y.q_sc) < 1e-3);
         }
         let table = match g.wd_table(i).unwrap() {
             Outcome::Ok(t) => t,
@@ -404,5 +417,8 @@ fn settings_errors_and_cache_keys() {
         &quiet(),
     );
     assert_ne!(k1, k2);
-    assert!(k1.starts_with("dwarfbound theory settings"));
+    // The key text is the serde serialisation of the whole identity (settings and axes).
+    let id: dwarfbound::theory::grid::GridIdentity = serde_json::from_str(&k1).unwrap();
+    assert_eq!(id.upsilon.count, 3);
+    assert_eq!(id.theory.settings, s);
 }

@@ -3,13 +3,15 @@
 //! reconcile. Expected conversions use the IAU 2015 Resolution B3 nominal values
 //! (R☉ = 6.957e8 m; M_J/M☉ = (GM)_J/(GM)☉ = 1.2668653e17 / 1.3271244e20).
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+mod common;
 
+use std::path::{Path, PathBuf};
+
+use common::{bin, col, path_str, read_csv, root};
+
+/// A fixture of `tests/fixtures/vet/`.
 fn fixture(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/vet")
-        .join(name)
+    common::fixture("vet", name)
 }
 
 struct Run {
@@ -19,13 +21,10 @@ struct Run {
 }
 
 fn vet(args: &[&str], out: &Path) -> Run {
-    let o = Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
-        .arg("vet")
-        .args(args)
-        .arg("--out")
-        .arg(out)
-        .output()
-        .expect("run dwarfbound");
+    let mut all = vec!["vet"];
+    all.extend_from_slice(args);
+    all.extend(["--out", path_str(out)]);
+    let o = bin(&all, &root());
     let r = Run {
         code: o.status.code().unwrap_or(-1),
         stdout: String::from_utf8_lossy(&o.stdout).into_owned(),
@@ -35,32 +34,13 @@ fn vet(args: &[&str], out: &Path) -> Run {
     r
 }
 
-fn p(path: &Path) -> &str {
-    path.to_str().unwrap()
-}
-
-/// Reads a CSV output into header + rows of strings.
-fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
-    let mut r = csv::Reader::from_path(path).unwrap();
-    let header = r.headers().unwrap().iter().map(String::from).collect();
-    let rows = r
-        .records()
-        .map(|rec| rec.unwrap().iter().map(String::from).collect())
-        .collect();
-    (header, rows)
-}
-
-fn col(header: &[String], name: &str) -> usize {
-    header.iter().position(|h| h == name).unwrap()
-}
-
 const MJUP_MSUN: f64 = 1.266_865_3e17 / 1.327_124_4e20;
 
 #[test]
 fn good_catalogue_is_accepted_whole_and_converted() {
     let out = tempfile::tempdir().unwrap();
     let good = fixture("good.csv");
-    let r = vet(&[p(&good)], out.path());
+    let r = vet(&[path_str(&good)], out.path());
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(
         r.stdout.contains("7 rows in, 7 accepted, 0 quarantined"),
@@ -110,9 +90,9 @@ fn good_catalogue_is_accepted_whole_and_converted() {
 fn accepted_csv_vets_again_to_the_same_objects() {
     let out1 = tempfile::tempdir().unwrap();
     let out2 = tempfile::tempdir().unwrap();
-    assert_eq!(vet(&[p(&fixture("good.csv"))], out1.path()).code, 0);
+    assert_eq!(vet(&[path_str(&fixture("good.csv"))], out1.path()).code, 0);
     let first = out1.path().join("accepted.csv");
-    assert_eq!(vet(&[p(&first)], out2.path()).code, 0);
+    assert_eq!(vet(&[path_str(&first)], out2.path()).code, 0);
     let (h, a) = read_csv(&first);
     let (_, b) = read_csv(&out2.path().join("accepted.csv"));
     let keep = col(&h, "source_file");
@@ -127,7 +107,7 @@ fn messy_catalogue_quarantines_the_bad_rows_with_reasons() {
     let out = tempfile::tempdir().unwrap();
     let messy = fixture("messy.csv");
     let map = fixture("messy.map.toml");
-    let r = vet(&[p(&messy), "--map", p(&map)], out.path());
+    let r = vet(&[path_str(&messy), "--map", path_str(&map)], out.path());
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(
         r.stdout.contains("12 rows in, 3 accepted, 9 quarantined"),
@@ -186,9 +166,9 @@ fn messy_catalogue_quarantines_the_bad_rows_with_reasons() {
 fn strict_exits_4_after_writing_files() {
     let out = tempfile::tempdir().unwrap();
     let args = [
-        p(&fixture("messy.csv")).to_string(),
+        path_str(&fixture("messy.csv")).to_string(),
         "--map".into(),
-        p(&fixture("messy.map.toml")).into(),
+        path_str(&fixture("messy.map.toml")).into(),
     ];
     let mut strict: Vec<&str> = args.iter().map(String::as_str).collect();
     strict.push("--strict");
@@ -200,7 +180,7 @@ fn strict_exits_4_after_writing_files() {
     let plain: Vec<&str> = args.iter().map(String::as_str).collect();
     assert_eq!(vet(&plain, out.path()).code, 0);
     assert_eq!(
-        vet(&[p(&fixture("good.csv")), "--strict"], out.path()).code,
+        vet(&[path_str(&fixture("good.csv")), "--strict"], out.path()).code,
         0
     );
 }
@@ -210,8 +190,8 @@ fn json_summary_reconciles_per_catalogue_and_class() {
     let out = tempfile::tempdir().unwrap();
     let r = vet(
         &[
-            p(&fixture("good.csv")),
-            p(&fixture("log_mass.csv")),
+            path_str(&fixture("good.csv")),
+            path_str(&fixture("log_mass.csv")),
             "--json",
         ],
         out.path(),
@@ -251,7 +231,7 @@ fn json_summary_reconciles_per_catalogue_and_class() {
 #[test]
 fn log_masses_and_dex_errors_are_converted() {
     let out = tempfile::tempdir().unwrap();
-    let r = vet(&[p(&fixture("log_mass.csv"))], out.path());
+    let r = vet(&[path_str(&fixture("log_mass.csv"))], out.path());
     assert_eq!(r.code, 0, "{}", r.stderr);
     let (h, acc) = read_csv(&out.path().join("accepted.csv"));
     let m: f64 = acc[0][col(&h, "mass")].parse().unwrap();
@@ -278,7 +258,7 @@ fn parquet_catalogue_written_by_the_test_is_vetted() {
     ParquetWriter::new(&mut f).finish(&mut df).unwrap();
     drop(f);
     let out = dir.path().join("out");
-    let r = vet(&[p(&path)], &out);
+    let r = vet(&[path_str(&path)], &out);
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(
         r.stdout.contains("4 rows in, 1 accepted, 3 quarantined"),
@@ -312,47 +292,54 @@ fn broken_inputs_exit_2_naming_file_and_column() {
     let unknown_ext = out.path().join("catalogue.txt");
     std::fs::write(&unknown_ext, b"id,class,mass,mass_err\n").unwrap();
     let cases: Vec<(Vec<String>, Vec<&str>)> = vec![
-        (vec![p(&fixture("empty.csv")).into()], vec!["empty.csv"]),
         (
-            vec![p(&fixture("no_mass.csv")).into()],
+            vec![path_str(&fixture("empty.csv")).into()],
+            vec!["empty.csv"],
+        ),
+        (
+            vec![path_str(&fixture("no_mass.csv")).into()],
             vec!["no_mass.csv", "`mass`"],
         ),
         (
-            vec![p(&fixture("bad_unit.csv")).into()],
+            vec![path_str(&fixture("bad_unit.csv")).into()],
             vec!["bad_unit.csv", "`mass`", "furlong"],
         ),
         (
-            vec![p(&fixture("wrong_dimension.csv")).into()],
+            vec![path_str(&fixture("wrong_dimension.csv")).into()],
             vec!["wrong_dimension.csv", "`mass`", "km", "a length"],
         ),
         (
             vec![
-                p(&messy).into(),
+                path_str(&messy).into(),
                 "--map".into(),
-                p(&fixture("bad_key.map.toml")).into(),
+                path_str(&fixture("bad_key.map.toml")).into(),
             ],
             vec!["bad_key.map.toml", "masss"],
         ),
         (
             vec![
-                p(&messy).into(),
+                path_str(&messy).into(),
                 "--map".into(),
-                p(&fixture("absent_column.map.toml")).into(),
+                path_str(&fixture("absent_column.map.toml")).into(),
             ],
             vec!["messy.csv", "r_km", "radius"],
         ),
         (
-            vec![p(&messy).into(), "--map".into(), p(&missing).into()],
+            vec![
+                path_str(&messy).into(),
+                "--map".into(),
+                path_str(&missing).into(),
+            ],
             vec!["does-not-exist.csv"],
         ),
-        (vec![p(&missing).into()], vec!["does-not-exist.csv"]),
+        (vec![path_str(&missing).into()], vec!["does-not-exist.csv"]),
         // Without the map the messy file has none of the canonical columns.
-        (vec![p(&messy).into()], vec!["messy.csv", "`id`"]),
-        (vec![p(&garbage).into()], vec!["garbage.csv"]),
-        (vec![p(&not_parquet).into()], vec!["fake.parquet"]),
-        (vec![p(&unknown_ext).into()], vec!["catalogue.txt"]),
+        (vec![path_str(&messy).into()], vec!["messy.csv", "`id`"]),
+        (vec![path_str(&garbage).into()], vec!["garbage.csv"]),
+        (vec![path_str(&not_parquet).into()], vec!["fake.parquet"]),
+        (vec![path_str(&unknown_ext).into()], vec!["catalogue.txt"]),
         (
-            vec![p(&messy).into(), "--format".into(), "xlsx".into()],
+            vec![path_str(&messy).into(), "--format".into(), "xlsx".into()],
             vec!["xlsx"],
         ),
     ];
@@ -373,7 +360,10 @@ fn format_flag_overrides_the_extension() {
     let dir = tempfile::tempdir().unwrap();
     let renamed = dir.path().join("good.dat");
     std::fs::copy(fixture("good.csv"), &renamed).unwrap();
-    let r = vet(&[p(&renamed), "--format", "csv"], &dir.path().join("out"));
+    let r = vet(
+        &[path_str(&renamed), "--format", "csv"],
+        &dir.path().join("out"),
+    );
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(r.stdout.contains("7 accepted"));
 }

@@ -10,8 +10,8 @@ use crate::pipeline::history::{now_unix_s, utc_stamp};
 use crate::theory::point::TheorySettings;
 use crate::theory::Axis;
 
-/// Default Υ axis when none is given: the range of `../shared/CONVENTIONS.md`'s example at half
-/// its resolution, which keeps a first run quick.
+/// Default Υ axis when none is given: the range of the README's grid example
+/// (`--upsilon=-0.3:0.6:91`) at half its resolution, which keeps a first run quick.
 pub const DEFAULT_UPSILON: Axis = Axis {
     start: -0.3,
     stop: 0.6,
@@ -75,6 +75,9 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
         for (id, class, z) in &o.tensions {
             println!("  {id:<16} {class:<12} {z:.2}σ");
         }
+    }
+    if let Some(note) = &o.cache_note {
+        eprintln!("dwarfbound: note: {note}");
     }
     println!(
         "theory grid: {}",

@@ -1,8 +1,8 @@
 //! The command-line shell: argument parsing, exit codes and one-line error messages.
 //!
 //! Each subcommand lives in its own file and only wires library calls together; no physics and
-//! no statistics are computed here. Exit codes are the contract of `../shared/CONVENTIONS.md`
-//! and are listed in the README.
+//! no statistics are computed here. Exit codes are part of the user-facing contract and are
+//! listed in the README.
 
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
@@ -72,7 +72,7 @@ pub struct Cli {
     pub command: Command,
 }
 
-/// The subcommands of `../shared/CONVENTIONS.md`.
+/// The subcommands (their names are part of the contract listed in the README).
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Read and vet catalogues; write accepted.csv and quarantine.csv.

@@ -1,31 +1,15 @@
 //! `dwarfbound predict`: the theory alone. At one (Υ, τ) it prints every bound and the
 //! Lane–Emden constants (text, or `--json` with the keys documented in the README); with
-//! `--out DIR` (a grid or a single point) it writes `bounds.csv` and the bounds figure. Wiring
-//! only: the numbers come from [`crate::theory::point`] and [`crate::theory::grid`], the figure
-//! from [`crate::report`].
-
-use std::path::Path;
-
-use serde_json::{json, Map, Value};
+//! `--out DIR` (a grid or a single point) it writes `bounds.csv` and the bounds figure. A thin
+//! shell: the numbers, the files and both printouts come from [`crate::pipeline::predict`].
 
 use super::{CliError, Exit, PredictArgs};
-use crate::output::write_atomic;
-use crate::report::text::fmt_sig;
-use crate::report::{render_bounds_png, render_bounds_svg, BoundSeries, BoundsCurves};
-use crate::theory::grid::{compute, grid_value, GridOptions, TheoryGrid};
-use crate::theory::mmhb::{MmhbMode, MmhbModel};
-use crate::theory::point::{
-    post_newtonian_mass_msun, Outcome, PointBounds, PointEvaluator, TheorySettings,
-    CHANDRASEKHAR_REPORT_MU_E,
+use crate::pipeline::predict::{
+    grid_json, grid_text, json_text, point_json, point_text, predict_grid, predict_point,
 };
-use crate::theory::white_dwarf::WdMassRadius;
+use crate::theory::mmhb::MmhbModel;
+use crate::theory::point::TheorySettings;
 use crate::theory::Axis;
-
-/// Masses (M☉, μ_e = 2) at which `predict` prints white-dwarf radii.
-const WD_MASSES_MSUN: [f64; 7] = [0.2, 0.4, 0.6, 0.8, 1.0, 1.2, 1.4];
-
-/// Bounds-figure rows: at most this many τ values.
-const FIGURE_TAU_ROWS: usize = 5;
 
 /// Parses `--mmhb-model`.
 pub(super) fn mmhb_model(text: &str) -> Result<MmhbModel, CliError> {
@@ -52,26 +36,31 @@ pub fn run(args: PredictArgs) -> Result<Exit, CliError> {
         mmhb_model: mmhb_model(&args.theory.mmhb_model)?,
         ..TheorySettings::default()
     };
-    match &args.out {
-        Some(dir) => run_grid(upsilon, tau, &settings, dir, args.json),
+    let text = match &args.out {
+        Some(dir) => {
+            let g = predict_grid(upsilon, tau, &settings, dir)?;
+            if args.json {
+                json_text(&grid_json(&g, &settings))?
+            } else {
+                grid_text(&g, &settings)
+            }
+        }
         None => {
             if upsilon.count != 1 || tau.count != 1 {
                 return Err(CliError::usage(
                     "a grid (start:stop:count) needs --out DIR for bounds.csv and the figure",
                 ));
             }
-            let ev = PointEvaluator::new(&settings).map_err(|e| CliError::usage(e.to_string()))?;
-            let p = ev.evaluate(upsilon.start, tau.start, true);
+            let p = predict_point(&settings, upsilon.start, tau.start)?;
             if args.json {
-                let text = serde_json::to_string_pretty(&point_json(&p, &settings))
-                    .map_err(|e| CliError::internal(format!("cannot write JSON: {e}")))?;
-                emit(&format!("{text}\n"))?;
+                json_text(&point_json(&p, &settings))?
             } else {
-                emit(&point_text(&p, &settings))?;
+                point_text(&p, &settings)
             }
-            Ok(Exit::Ok)
         }
-    }
+    };
+    emit(&text)?;
+    Ok(Exit::Ok)
 }
 
 /// Writes to stdout; a closed pipe (`| head`) ends the output quietly.
@@ -83,365 +72,4 @@ fn emit(text: &str) -> Result<(), CliError> {
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
         Err(e) => Err(CliError::internal(format!("cannot write to stdout: {e}"))),
     }
-}
-
-fn run_grid(
-    upsilon: Axis,
-    tau: Axis,
-    settings: &TheorySettings,
-    dir: &Path,
-    json: bool,
-) -> Result<Exit, CliError> {
-    let grid = compute(upsilon, tau, settings, &GridOptions::default())
-        .map_err(|e| CliError::usage(e.to_string()))?;
-    let csv = grid
-        .bounds_csv()
-        .map_err(|e| CliError::internal(e.to_string()))?;
-    let csv_path = dir.join("bounds.csv");
-    write_atomic(&csv_path, csv.as_bytes())?;
-    let mut files = vec![csv_path.display().to_string()];
-    let mut notes = Vec::new();
-    if upsilon.count >= 2 {
-        let curves = figure_curves(&grid);
-        let svg = render_bounds_svg(&curves).map_err(|e| CliError::internal(e.to_string()))?;
-        let png = render_bounds_png(&curves).map_err(|e| CliError::internal(e.to_string()))?;
-        for (name, bytes) in [("bounds.svg", svg.into_bytes()), ("bounds.png", png)] {
-            let path = dir.join(name);
-            write_atomic(&path, &bytes)?;
-            files.push(path.display().to_string());
-        }
-    } else {
-        notes.push("the bounds figure needs at least two Υ values; not drawn".to_string());
-    }
-    let without = grid.points_without_model();
-    let text = if json {
-        let v = json!({
-            "points": grid.points.len(),
-            "points_without_model": without,
-            "anisotropy": settings.anisotropy.name(),
-            "mmhb_model": settings.mmhb_model.name(),
-            "mmhb_mode": settings.mmhb_mode.name(),
-            "files": files,
-            "notes": notes,
-        });
-        serde_json::to_string_pretty(&v)
-            .map_err(|e| CliError::internal(format!("cannot write JSON: {e}")))?
-            + "\n"
-    } else {
-        let mut t = format!(
-            "{} points ({} × {}), {} without a full model (reason in bounds.csv); anisotropy {}, MMHB {} {}\n",
-            grid.points.len(),
-            upsilon.count,
-            tau.count,
-            without,
-            settings.anisotropy.name(),
-            settings.mmhb_model.name(),
-            settings.mmhb_mode.name()
-        );
-        for f in &files {
-            t.push_str(&format!("wrote {f}\n"));
-        }
-        for n in &notes {
-            t.push_str(&format!("note: {n}\n"));
-        }
-        t
-    };
-    emit(&text)?;
-    Ok(Exit::Ok)
-}
-
-/// MMHB, Chandrasekhar mass and break-up period against Υ for a few τ.
-fn figure_curves(grid: &TheoryGrid) -> BoundsCurves {
-    let rows = grid.representative_tau_rows(FIGURE_TAU_ROWS);
-    let curves = grid.curves(&rows);
-    let mut series = Vec::new();
-    let mmhb_label = format!("MMHB, {}", grid.settings.mmhb_mode.name());
-    for c in &curves {
-        series.push(BoundSeries {
-            bound_label: mmhb_label.clone(),
-            unit: "M☉".into(),
-            tau: c.tau,
-            values: c.mmhb_msun.clone(),
-        });
-    }
-    for c in &curves {
-        series.push(BoundSeries {
-            bound_label: "Chandrasekhar mass, μe = 2".into(),
-            unit: "M☉".into(),
-            tau: c.tau,
-            values: c.chandrasekhar_msun.clone(),
-        });
-    }
-    for c in &curves {
-        series.push(BoundSeries {
-            bound_label: "break-up period".into(),
-            unit: "min".into(),
-            tau: c.tau,
-            values: c.breakup_period_min.clone(),
-        });
-    }
-    BoundsCurves {
-        upsilon: (0..grid.upsilon.count)
-            .map(|i| grid_value(&grid.upsilon, i))
-            .collect(),
-        series,
-    }
-}
-
-fn num(x: Option<f64>) -> Value {
-    match x {
-        Some(v) if v.is_finite() => json!(v),
-        _ => Value::Null,
-    }
-}
-
-fn wd_radii(table: &WdMassRadius) -> Vec<(f64, Result<f64, String>)> {
-    WD_MASSES_MSUN
-        .iter()
-        .map(|&m| {
-            (
-                m,
-                table
-                    .radius_rsun(m, CHANDRASEKHAR_REPORT_MU_E)
-                    .map_err(|e| e.to_string()),
-            )
-        })
-        .collect()
-}
-
-/// The `--json` document of one point (keys documented in the README).
-fn point_json(p: &PointBounds, s: &TheorySettings) -> Value {
-    let mut errors = Map::new();
-    let mut note = |key: &str, f: Option<&crate::theory::point::Failure>| {
-        if let Some(f) = f {
-            errors.insert(key.into(), json!({"code": f.code, "reason": f.reason}));
-        }
-    };
-    note("lane_emden.n1.5", p.lane_emden_n15.failure());
-    note("lane_emden.n3", p.lane_emden_n3.failure());
-    note("mmhb", p.mmhb.failure());
-    note("chandrasekhar", p.chandrasekhar.failure());
-    note("sc_fraction", p.sc.failure());
-    note("breakup", p.breakup.failure());
-    let wd_table = p.white_dwarf.as_ref().and_then(|w| w.ok());
-    if let Some(Outcome::Failed(f)) = &p.white_dwarf {
-        note("white_dwarf", Some(f));
-    }
-    let m = p.mmhb.ok();
-    let c = p.chandrasekhar.ok();
-    let l15 = p.lane_emden_n15.ok();
-    let l3 = p.lane_emden_n3.ok();
-    let b = p.breakup.ok();
-    let sc = p.sc.ok();
-    let white_dwarf = wd_table.map(|t| {
-        json!({
-            "mu_e": CHANDRASEKHAR_REPORT_MU_E,
-            "radius_floor_fraction": s.wd_radius_floor_fraction,
-            "post_newtonian_mass_msun": num(post_newtonian_mass_msun(t, CHANDRASEKHAR_REPORT_MU_E)),
-            "radii": wd_radii(t).into_iter().map(|(mass, r)| match r {
-                Ok(r) => json!({"mass_msun": mass, "radius_rsun": r, "radius_km": r * crate::constants::R_SUN_NOMINAL_M / 1e3}),
-                Err(e) => json!({"mass_msun": mass, "radius_rsun": null, "radius_km": null, "reason": e}),
-            }).collect::<Vec<_>>(),
-        })
-    });
-    json!({
-        "version": env!("CARGO_PKG_VERSION"),
-        "upsilon": p.upsilon,
-        "tau": p.tau,
-        "anisotropy": s.anisotropy.name(),
-        "mmhb_msun": num(m.map(|m| m.value_msun)),
-        "mmhb_raw_msun": num(m.map(|m| m.raw_msun)),
-        "mmhb_floor_msun": num(m.map(|m| m.floor_msun)),
-        "mmhb_phi": num(m.map(|m| m.phi)),
-        "mmhb_model": s.mmhb_model.name(),
-        "mmhb_mode": s.mmhb_mode.name(),
-        "mmhb_anchor_msun": num(match s.mmhb_mode {
-            MmhbMode::Anchored { anchor_msun, .. } => Some(anchor_msun),
-            MmhbMode::Raw => None,
-        }),
-        "chandrasekhar_msun": num(c.map(|c| c.value_msun)),
-        "chandrasekhar_newtonian_msun": num(c.map(|c| c.newtonian_mu_e2_msun)),
-        "chandrasekhar_omega3_ratio": num(c.map(|c| c.omega3_ratio)),
-        "chandrasekhar_floor_msun": num(c.map(|c| c.floor_msun)),
-        "chandrasekhar_mode": s.chandrasekhar_mode.name(),
-        "chandrasekhar_mu_e": CHANDRASEKHAR_REPORT_MU_E,
-        "lane_emden": {
-            "n1.5": {
-                "xi1": num(l15.map(|l| l.xi1)),
-                "omega": num(l15.map(|l| l.omega)),
-                "density_contrast": num(l15.map(|l| l.density_contrast())),
-                "j_k": num(l15.and_then(|l| l.j_k)),
-                "k": s.mmhb_config().model_a.k_index(),
-            },
-            "n3": {
-                "xi1": num(l3.map(|l| l.xi1)),
-                "omega": num(l3.map(|l| l.omega)),
-                "density_contrast": num(l3.map(|l| l.density_contrast())),
-            },
-        },
-        "sc_fraction": num(sc.map(|v| v.q_sc)),
-        "sc_ratio": num(sc.map(|v| v.ratio)),
-        "sc_lambda": s.sc.lambda(),
-        "breakup_period_min_h": num(b.map(|b| b.period_h)),
-        "breakup_radius_rjup": num(b.map(|b| b.radius_rjup())),
-        "breakup_reference": s.breakup.describe(),
-        "white_dwarf": white_dwarf.unwrap_or(Value::Null),
-        "warnings": p.warnings.iter().map(|w| json!({"code": w.code(), "message": w.message()})).collect::<Vec<_>>(),
-        "errors": Value::Object(errors),
-    })
-}
-
-/// Readable text for one point.
-fn point_text(p: &PointBounds, s: &TheorySettings) -> String {
-    let mut out = String::new();
-    let mut w = |line: String| {
-        out.push_str(&line);
-        out.push('\n');
-    };
-    let g = |x: f64| fmt_sig(x, 7);
-    let why = |f: Option<&crate::theory::point::Failure>| {
-        f.map(|f| format!("no value: {}", f.reason))
-            .unwrap_or_default()
-    };
-    w(format!(
-        "dwarfbound predict: Υ = {}, τ = {} (anisotropy: {})",
-        p.upsilon,
-        p.tau,
-        s.anisotropy.name()
-    ));
-    w(String::new());
-    w(format!(
-        "Minimum hydrogen-burning mass (= brown-dwarf ceiling): model {}, mode {}",
-        s.mmhb_model.name(),
-        s.mmhb_mode.name()
-    ));
-    match p.mmhb.ok() {
-        Some(m) => {
-            w(format!(
-                "  MMHB used against data   {} M☉   (1σ theory floor {} M☉)",
-                g(m.value_msun),
-                g(m.floor_msun)
-            ));
-            if let Some(a) = m.anchor_msun {
-                w(format!(
-                    "  anchored: {} M☉ × Φ, Φ = MMHB(Υ,τ)/MMHB(0,0) = {}",
-                    g(a),
-                    fmt_sig(m.phi, 9)
-                ));
-            } else {
-                w(format!("  Φ = MMHB(Υ,τ)/MMHB(0,0) = {}", fmt_sig(m.phi, 9)));
-            }
-            w(format!(
-                "  raw analytic value       {} M☉",
-                fmt_sig(m.raw_msun, 9)
-            ));
-        }
-        None => w(format!("  {}", why(p.mmhb.failure()))),
-    }
-    w(String::new());
-    w(format!(
-        "Chandrasekhar mass (μe = 2; scales as (2/μe)²), mode {}",
-        s.chandrasekhar_mode.name()
-    ));
-    match p.chandrasekhar.ok() {
-        Some(c) => {
-            w(format!(
-                "  M_Ch used against data   {} M☉   (1σ theory floor {} M☉)",
-                g(c.value_msun),
-                g(c.floor_msun)
-            ));
-            w(format!(
-                "  Newtonian pure-EOS value {} M☉, ω₃(Υ,τ)/ω₃(0,0) = {}",
-                g(c.newtonian_mu_e2_msun),
-                fmt_sig(c.omega3_ratio, 9)
-            ));
-        }
-        None => w(format!("  {}", why(p.chandrasekhar.failure()))),
-    }
-    w(String::new());
-    w("Lane–Emden constants (true-G units)".into());
-    match p.lane_emden_n15.ok() {
-        Some(l) => w(format!(
-            "  n = 1.5   ξ1 = {}   ω = {}   ρc/ρ̄ = {}   J_{} = {}",
-            fmt_sig(l.xi1, 11),
-            fmt_sig(l.omega, 11),
-            fmt_sig(l.density_contrast(), 9),
-            s.mmhb_config().model_a.k_index(),
-            l.j_k.map(|j| fmt_sig(j, 10)).unwrap_or_default()
-        )),
-        None => w(format!("  n = 1.5   {}", why(p.lane_emden_n15.failure()))),
-    }
-    match p.lane_emden_n3.ok() {
-        Some(l) => w(format!(
-            "  n = 3     ξ1 = {}   ω = {}   ρc/ρ̄ = {}",
-            fmt_sig(l.xi1, 11),
-            fmt_sig(l.omega, 11),
-            fmt_sig(l.density_contrast(), 9)
-        )),
-        None => w(format!("  n = 3     {}", why(p.lane_emden_n3.failure()))),
-    }
-    w(String::new());
-    w(format!(
-        "Schönberg–Chandrasekhar fraction ({}, λ = μ_env/μ_core = {})",
-        s.sc_variant.name(),
-        g(s.sc.lambda())
-    ));
-    match p.sc.ok() {
-        Some(v) => w(format!(
-            "  q_SC = {}   (ratio to standard gravity {})",
-            g(v.q_sc),
-            fmt_sig(v.ratio, 9)
-        )),
-        None => w(format!("  {}", why(p.sc.failure()))),
-    }
-    w(String::new());
-    w("Break-up period".into());
-    w(format!("  reference: {}", s.breakup.describe()));
-    match p.breakup.ok() {
-        Some(b) => w(format!(
-            "  P_min = {} min ({} h); radius {} R_J",
-            fmt_sig(b.period_min(), 6),
-            fmt_sig(b.period_h, 6),
-            fmt_sig(b.radius_rjup(), 6)
-        )),
-        None => w(format!("  {}", why(p.breakup.failure()))),
-    }
-    w(String::new());
-    w("White dwarfs: zero-temperature Chandrasekhar EOS, μe = 2, Newtonian order".into());
-    match &p.white_dwarf {
-        Some(Outcome::Ok(t)) => {
-            w("  M [M☉]    R [km]      R [R☉]".into());
-            for (m, r) in wd_radii(t) {
-                match r {
-                    Ok(r) => w(format!(
-                        "  {:<8}  {:<10}  {}",
-                        m,
-                        fmt_sig(r * crate::constants::R_SUN_NOMINAL_M / 1e3, 6),
-                        fmt_sig(r, 6)
-                    )),
-                    Err(e) => w(format!("  {m:<8}  no model: {e}")),
-                }
-            }
-            if let Some(m) = post_newtonian_mass_msun(t, CHANDRASEKHAR_REPORT_MU_E) {
-                w(format!(
-                    "  GM/(Rc²) exceeds 5e-4 above {} M☉: there post-Newtonian physics matters",
-                    fmt_sig(m, 4)
-                ));
-            }
-            w(format!(
-                "  radius theory floor {} % (1σ)",
-                g(100.0 * s.wd_radius_floor_fraction)
-            ));
-        }
-        Some(Outcome::Failed(f)) => w(format!("  no table: {}", f.reason)),
-        None => {}
-    }
-    if !p.warnings.is_empty() {
-        w(String::new());
-        w("Warnings".into());
-        for x in &p.warnings {
-            w(format!("  - {}", x.message()));
-        }
-    }
-    out
 }

@@ -38,6 +38,9 @@ pub(super) fn finish(report: &crate::pipeline::nightly::NightlyReport) -> Result
         );
     }
     let Some(outcome) = &report.outcome else {
+        if let Some(note) = &report.cache_note {
+            eprintln!("dwarfbound: note: {note}");
+        }
         println!(
             "wrote the theory shard into {} (combine the shards with `dwarfbound merge`)",
             report.run_dir.display()

@@ -6,7 +6,7 @@
 //! and column), 4 with `--strict` when any row was quarantined (the files are written first).
 //!
 //! ```text
-//! dwarfbound vet catalogs-demo/messy.csv --map catalogs-demo/messy.map.toml --out reports/vet
+//! dwarfbound vet catalogs-demo/messy_survey.csv --map catalogs-demo/messy_survey.map.toml --out reports/vet
 //! ```
 
 use super::{CliError, Exit, ReadArgs, VetArgs};

@@ -6,7 +6,8 @@
 //! only they are recomputed. Each candidate's shift is the larger change of the two interval
 //! ends; an end that opens or closes counts as an infinite shift and is listed first. The
 //! per-object decomposition holds for the per-object theory floor (the default); with a shared
-//! floor the subtraction is an approximation and the report should say so.
+//! floor the subtraction is an approximation and the report should say so. [`slice_drivers`]
+//! applies this to a whole confrontation, white-dwarf radius terms included.
 //!
 //! ```
 //! use dwarfbound::confront::drivers::{leave_one_out, DriverOptions, SliceClass};
@@ -28,8 +29,10 @@
 
 use rayon::prelude::*;
 
+use super::engine::{Confrontation, EngineOptions, Term};
 use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
+use super::slice::SliceResult;
 
 /// Settings of the driver analysis (`bounds.md` §8.6 defaults).
 #[derive(Debug, Clone, PartialEq)]
@@ -191,4 +194,86 @@ fn end_shift(before: Option<f64>, after: Option<f64>) -> f64 {
         (None, None) => 0.0,
         _ => f64::INFINITY,
     }
+}
+
+/// The drivers of one confrontation's τ = 0 slice: (object index, shift), largest shift first
+/// (ties by object index), at most `opts.top`.
+///
+/// The mass classes go through [`leave_one_out`]. White dwarfs feed the radius term too, which
+/// that analysis does not see: each one's radius contribution is taken out of the slice the
+/// same way ([`radius_drivers`]), and an object found by both keeps its larger shift.
+pub fn slice_drivers(
+    conf: &Confrontation,
+    s: &SliceResult,
+    eopts: &EngineOptions,
+    opts: &DriverOptions,
+) -> Result<Vec<(usize, f64)>, StatsError> {
+    let mut per_class: Vec<(Term, Vec<usize>, Vec<Measurement>)> = Vec::new();
+    for (term, _) in &conf.curves {
+        let idx = conf.members(*term);
+        let ms = idx.iter().map(|&k| conf.uses[k].measurement).collect();
+        per_class.push((*term, idx, ms));
+    }
+    let classes: Vec<SliceClass<'_>> = per_class
+        .iter()
+        .zip(&s.bounds_fine)
+        .map(|((term, _, ms), (_, b))| SliceClass {
+            measurements: ms,
+            floor_msun: if *term == Term::WhiteDwarfMass {
+                eopts.chandrasekhar_floor_msun
+            } else {
+                eopts.mmhb_floor_msun
+            },
+            bound_fine_msun: b,
+        })
+        .collect();
+    let report = leave_one_out(&s.slice.upsilon_fine, &s.slice.chi2_fine, &classes, opts)?;
+    let mut out: Vec<(usize, f64)> = report
+        .drivers
+        .iter()
+        .map(|d| (per_class[d.class].1[d.index], d.shift))
+        .collect();
+    for (k, shift) in radius_drivers(s, opts)? {
+        match out.iter_mut().find(|(j, _)| *j == k) {
+            Some(row) => row.1 = row.1.max(shift),
+            None => out.push((k, shift)),
+        }
+    }
+    out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    out.truncate(opts.top);
+    Ok(out)
+}
+
+/// Leave-one-out shifts of the Υ interval at τ = 0 (at `opts.level`) from removing each white
+/// dwarf's radius term: (object index, shift), +∞ when an end opens or closes; objects that
+/// do not move it are left out. Exact, since the likelihood is a sum: the slice without the
+/// object is the slice minus its own term on the fine axis.
+pub fn radius_drivers(
+    s: &SliceResult,
+    opts: &DriverOptions,
+) -> Result<Vec<(usize, f64)>, StatsError> {
+    let fine = &s.slice.upsilon_fine;
+    let dchi2 = opts.level.dchi2(1);
+    let baseline = interval_from_slice(fine, &s.slice.chi2_fine, dchi2)?;
+    let mut out = Vec::new();
+    for (k, contrib) in &s.radius_fine {
+        let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+            - contrib.iter().copied().fold(f64::INFINITY, f64::min);
+        if spread <= opts.candidate_min_minus_two_ln_p {
+            continue; // a constant offset cannot move a Δχ² crossing
+        }
+        let without: Vec<f64> = s
+            .slice
+            .chi2_fine
+            .iter()
+            .zip(contrib)
+            .map(|(c, r)| c - r)
+            .collect();
+        let iv = interval_from_slice(fine, &without, dchi2)?;
+        let shift = end_shift(baseline.lower, iv.lower).max(end_shift(baseline.upper, iv.upper));
+        if shift > 0.0 {
+            out.push((*k, shift));
+        }
+    }
+    Ok(out)
 }

@@ -187,6 +187,17 @@ pub struct Confrontation {
     pub radius_objects: Vec<ObjectRadius>,
 }
 
+impl Confrontation {
+    /// The objects in a mass term's test, as indices into the caller's object list, in order.
+    pub fn members(&self, term: Term) -> Vec<usize> {
+        self.uses
+            .iter()
+            .filter(|u| u.mass_term == Some(term))
+            .map(|u| u.index)
+            .collect()
+    }
+}
+
 /// Maps a catalogue object to the statistics' measurement for its class.
 pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
     let side = match o.class {
@@ -395,7 +406,26 @@ pub fn confront(
             }
         }
     }
-    let radius_objects = prepare_radius_objects(objects, &uses, surface, opts);
+    let mut uses = uses;
+    let mut radius_objects = prepare_radius_objects(objects, &uses, surface, opts);
+    if opts.radius.model == wd_radius::WdRadiusModel::Hot {
+        // No finite-temperature model at the object's own mass and Teff (outside the table, or
+        // no hydrostatic solution): left out of the radius test, flagged, never silently.
+        radius_objects.retain(|r| {
+            if r.at_nominal.is_some() {
+                return true;
+            }
+            let u = &mut uses[r.index];
+            u.radius_term = false;
+            u.flags.push("outside_model".to_string());
+            u.radius_excluded = Some(
+                "no finite-temperature model at its mass, Teff and core (outside the model's table \
+                 or no hydrostatic solution)"
+                    .to_string(),
+            );
+            false
+        });
+    }
     if !radius_objects.is_empty() {
         let queries: Vec<(f64, f64)> = radius_objects
             .iter()
@@ -490,40 +520,83 @@ pub fn prepare_radius_objects(
             standard: Vec::new(),
             floor_fraction: wd_radius::floor_fraction(&opts.radius, core, o.teff_k),
             teff_err_k: o.teff_err_k.unwrap_or(0.0),
+            at_nominal: None,
+            mass_sigma_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+                (Some(a), Some(b)) => 0.5 * (a + b),
+                (Some(a), None) | (None, Some(a)) => a,
+                (None, None) => 0.0,
+            },
         });
     }
-    let mut standard = surface.wd_standard_radii(&queries).into_iter();
+    // Three more queries per object: the nominal mass and m ± h for the slope dR/dM.
+    let mut nominal_queries: Vec<WdQuery> = Vec::new();
+    for r in &out {
+        let o = &objects[r.index];
+        let u = &uses[r.index];
+        let core = u
+            .core
+            .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun));
+        let h = 1e-4 * o.mass_msun;
+        for m in [o.mass_msun, o.mass_msun + h, o.mass_msun - h] {
+            nominal_queries.push(WdQuery {
+                mass_msun: m,
+                mu_e: u.mu_e,
+                teff_k: o.teff_k,
+                core,
+                envelope: o.envelope,
+            });
+        }
+    }
+    let n_nodes = queries.len();
+    queries.extend(nominal_queries);
+    let answers = surface.wd_standard_radii(&queries);
+    let (node_answers, nominal_answers) = answers.split_at(n_nodes.min(answers.len()));
+    let mut standard = node_answers.iter().copied();
+    let mut nominal = nominal_answers.chunks(3);
     for r in &mut out {
         let o = &objects[r.index];
         let mut s: Vec<Option<WdStandard>> = standard.by_ref().take(r.nodes.len()).collect();
+        let probe = nominal.next().unwrap_or(&[]);
+        let h = 1e-4 * o.mass_msun;
+        let mut at_nominal = match probe {
+            [Some(c), plus, minus] => {
+                let slope = match (plus, minus) {
+                    (Some(p), Some(m)) => (p.radius_rsun - m.radius_rsun) / (2.0 * h),
+                    (None, Some(m)) => (c.radius_rsun - m.radius_rsun) / h,
+                    (Some(p), None) => (p.radius_rsun - c.radius_rsun) / h,
+                    (None, None) => 0.0,
+                };
+                Some((*c, slope))
+            }
+            _ => None,
+        };
         if let Some(model_rsun) = o.radius_model_rsun {
             // The user's model radius anchors the standard radius at the nominal mass; the
             // tool's model only carries its mass dependence to the other nodes.
-            let at_nominal = surface
-                .wd_standard_radii(&[WdQuery {
-                    mass_msun: o.mass_msun,
-                    mu_e: uses[r.index].mu_e,
-                    teff_k: o.teff_k,
-                    core: uses[r.index]
-                        .core
-                        .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun)),
-                    envelope: o.envelope,
-                }])
-                .into_iter()
-                .next()
-                .flatten();
+            let scale = at_nominal
+                .filter(|(c, _)| c.radius_rsun > 0.0)
+                .map(|(c, _)| model_rsun / c.radius_rsun);
             for x in s.iter_mut() {
-                *x = match (*x, at_nominal) {
-                    (Some(mut v), Some(nominal)) if nominal.radius_rsun > 0.0 => {
-                        v.radius_rsun *= model_rsun / nominal.radius_rsun;
+                *x = match (*x, scale) {
+                    (Some(mut v), Some(k)) => {
+                        v.radius_rsun *= k;
                         v.envelope_fraction = 0.0;
                         Some(v)
                     }
                     _ => None,
                 };
             }
+            at_nominal = match (at_nominal, scale) {
+                (Some((mut c, slope)), Some(k)) => {
+                    c.radius_rsun *= k;
+                    c.envelope_fraction = 0.0;
+                    Some((c, slope * k))
+                }
+                _ => None,
+            };
         }
         r.standard = s;
+        r.at_nominal = at_nominal;
     }
     out
 }

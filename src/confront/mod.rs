@@ -1,8 +1,13 @@
 //! Confrontation of vetted objects with the theory's bounds over a (Υ, τ) grid.
+//!
+//! Every grid vector in this module (and in the whole program) is indexed τ outer, Υ inner:
+//! `j_tau · n_upsilon + i_upsilon` (see [`engine::BoundSurface`]).
 
 pub mod drivers;
 pub mod engine;
 pub mod prob;
 pub mod reduce;
 pub mod regions;
+pub mod slice;
+pub mod tension;
 pub mod wd_radius;

@@ -135,11 +135,16 @@ pub struct AllowedBox {
 }
 
 /// Everything the two-parameter map gives.
+///
+/// Grid vectors here use the one index order of the whole program (the theory grid's, the
+/// comparator's [`crate::confront::engine::BoundSurface`], `grid.csv` and the report's maps):
+/// τ outer, Υ inner, index `j_tau · n_upsilon + i_upsilon`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MapRegions {
     /// The best grid point.
     pub best: BestFit,
-    /// Δχ² at every grid point, Υ-major (index i·n_τ + j); +∞ where χ² was not finite.
+    /// Δχ² at every grid point, τ outer and Υ inner (index j·n_Υ + i); +∞ where χ² was not
+    /// finite.
     pub delta_chi2: Vec<f64>,
     /// Allowed region per level, in the order of [`Level::ALL`], for 2 dof.
     pub allowed: [AllowedBox; 3],
@@ -149,16 +154,23 @@ pub struct MapRegions {
 
 impl MapRegions {
     /// Whether grid point (i, j) is allowed at `level` (2 dof).
-    pub fn allowed_at(&self, i_upsilon: usize, j_tau: usize, n_tau: usize, level: Level) -> bool {
+    pub fn allowed_at(
+        &self,
+        i_upsilon: usize,
+        j_tau: usize,
+        n_upsilon: usize,
+        level: Level,
+    ) -> bool {
         self.delta_chi2
-            .get(i_upsilon * n_tau + j_tau)
+            .get(j_tau * n_upsilon + i_upsilon)
             .is_some_and(|&d| d <= level.dchi2(2))
     }
 }
 
-/// Best fit, Δχ² and the allowed boxes of a χ² map `chi2[i·n_τ + j]` on axes `upsilon`, `tau`
-/// (`bounds.md` §8.4, two-parameter thresholds). Non-finite entries (grid points without a
-/// model) are never best and never allowed.
+/// Best fit, Δχ² and the allowed boxes of a χ² map `chi2[j·n_Υ + i]` (τ outer, Υ inner) on
+/// axes `upsilon`, `tau` (two-parameter thresholds, as in the paper's statistics section).
+/// Non-finite entries (grid points without a model) are never best and never allowed. Ties for
+/// the best point go to the smallest Υ, then the smallest τ, whatever the storage order.
 pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegions, StatsError> {
     let (nu, nt) = (upsilon.len(), tau.len());
     if nu == 0 || nt == 0 || chi2.len() != nu * nt {
@@ -167,13 +179,16 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
             chi2.len()
         )));
     }
-    let mut best: Option<(usize, f64)> = None;
+    // (i_upsilon, j_tau, χ²) of the best point so far.
+    let mut best: Option<(usize, usize, f64)> = None;
     for (k, &c) in chi2.iter().enumerate() {
-        if c.is_finite() && best.is_none_or(|(_, b)| c < b) {
-            best = Some((k, c));
+        let (i, j) = (k % nu, k / nu);
+        let better = |(bi, bj, b): (usize, usize, f64)| c < b || (c == b && (i, j) < (bi, bj));
+        if c.is_finite() && best.is_none_or(better) {
+            best = Some((i, j, c));
         }
     }
-    let Some((k_best, chi2_min)) = best else {
+    let Some((i_best, j_best, chi2_min)) = best else {
         return Err(StatsError::InvalidInput(
             "no grid point has a finite χ²".into(),
         ));
@@ -201,7 +216,7 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
         };
         for (k, &d) in delta_chi2.iter().enumerate() {
             if d <= thr {
-                let (u, t) = (upsilon[k / nt], tau[k % nt]);
+                let (u, t) = (upsilon[k % nu], tau[k / nu]);
                 b.upsilon_min = b.upsilon_min.min(u);
                 b.upsilon_max = b.upsilon_max.max(u);
                 b.tau_min = b.tau_min.min(t);
@@ -214,10 +229,10 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
     });
     Ok(MapRegions {
         best: BestFit {
-            i_upsilon: k_best / nt,
-            j_tau: k_best % nt,
-            upsilon: upsilon[k_best / nt],
-            tau: tau[k_best % nt],
+            i_upsilon: i_best,
+            j_tau: j_best,
+            upsilon: upsilon[i_best],
+            tau: tau[j_best],
             chi2_min,
         },
         delta_chi2,

@@ -194,7 +194,8 @@ pub fn floor_fraction(opts: &RadiusOptions, core: ResolvedCore, teff_k: Option<f
     }
     let ramp = match teff_k {
         Some(t) if t > opts.hot_ramp_start_k => {
-            let x = (t / opts.hot_ramp_start_k).ln() / (opts.hot_ramp_end_k / opts.hot_ramp_start_k).ln();
+            let x = (t / opts.hot_ramp_start_k).ln()
+                / (opts.hot_ramp_end_k / opts.hot_ramp_start_k).ln();
             opts.hot_ramp_extra_fraction * x.min(1.0)
         }
         _ => 0.0,
@@ -258,6 +259,11 @@ pub struct ObjectRadius {
     pub floor_fraction: f64,
     /// 1σ Teff error, K (0 when unknown).
     pub teff_err_k: f64,
+    /// The standard model at the nominal mass and its slope dR/dM (R☉ per M☉), for the
+    /// standard-gravity tension; `None` where there is no model at that mass.
+    pub at_nominal: Option<(WdStandard, f64)>,
+    /// 1σ of the nominal mass (mean of the two sides), M☉.
+    pub mass_sigma_msun: f64,
 }
 
 /// Smallest log-likelihood a radius term can contribute (keeps −2 ln L finite where the whole
@@ -267,7 +273,12 @@ pub const LN_L_RADIUS_FLOOR: f64 = -1e4;
 impl ObjectRadius {
     /// Predicted radius and its theory 1σ at node `k`, given the cold radius of the grid point
     /// at that node and the point's Υ; `None` where no model exists.
-    pub fn predicted(&self, k: usize, cold_at_point: Option<f64>, upsilon: f64) -> Option<(f64, f64)> {
+    pub fn predicted(
+        &self,
+        k: usize,
+        cold_at_point: Option<f64>,
+        upsilon: f64,
+    ) -> Option<(f64, f64)> {
         let s = self.standard.get(k).copied().flatten()?;
         let cold = cold_at_point?;
         if !(s.cold_rsun > 0.0) {
@@ -282,6 +293,20 @@ impl ObjectRadius {
             + teff.powi(2))
         .sqrt();
         Some((r, frac * r))
+    }
+
+    /// Signed two-sided tension of the measured radius with the standard-gravity radius at the
+    /// nominal mass: z = (R_obs − R_std) / √(σ_R² + σ_th² + (dR/dM σ_M)²), the mass error
+    /// propagated through the local slope (first order; the fit itself marginalises exactly).
+    /// Positive: larger than predicted.
+    pub fn standard_tension(&self) -> Option<f64> {
+        let (s, slope) = self.at_nominal?;
+        let r = s.radius_rsun;
+        let teff = s.dln_r_dteff_per_k * self.teff_err_k;
+        let th2 =
+            (self.floor_fraction.powi(2) + s.envelope_fraction.powi(2) + teff.powi(2)) * r * r;
+        let s2 = self.radius_err_rsun.powi(2) + th2 + (slope * self.mass_sigma_msun).powi(2);
+        Some((self.radius_rsun - r) / s2.sqrt())
     }
 
     /// ln of the likelihood of the measured radius marginalised over the true mass:
@@ -331,7 +356,10 @@ mod tests {
             model: WdRadiusModel::Cold,
             ..Default::default()
         };
-        assert_eq!(floor_fraction(&cold, ResolvedCore::Helium, Some(50_000.0)), 0.03);
+        assert_eq!(
+            floor_fraction(&cold, ResolvedCore::Helium, Some(50_000.0)),
+            0.03
+        );
     }
 
     #[test]
@@ -351,7 +379,12 @@ mod tests {
             standard: vec![Some(std)],
             floor_fraction: 0.02,
             teff_err_k: 0.0,
+            at_nominal: Some((std, 0.0)),
+            mass_sigma_msun: 0.0,
         };
+        // At the nominal mass with no slope: the plain z.
+        let z = o.standard_tension().unwrap();
+        assert_eq!(z, 0.0);
         // At the standard point the anchored radius is the standard one.
         let (r, th) = o.predicted(0, Some(0.0120), 0.0).unwrap();
         assert!((r - 0.0130).abs() < 1e-15);

@@ -1,19 +1,23 @@
 //! A content-addressed cache for theory grids, so that a nightly run with unchanged theory
 //! reuses last night's bounds instead of solving the structure equations again.
 //!
-//! The key is a SHA-256 of everything that determines the grid (theory settings, grid axes,
-//! tool version), supplied by the caller as a canonical string. Each entry stores the SHA-256
-//! of its payload; an entry that is truncated, corrupt or partial is detected, removed and
-//! rebuilt, never trusted. Entries are written atomically.
+//! The caller describes everything that determines an entry (theory settings, grid axes, tool
+//! version) as one canonical text; the key is its SHA-256. Each entry records that description
+//! beside its payload, and the SHA-256 of both: an entry is served only when its checksum holds
+//! *and* its recorded description equals the one asked for, byte for byte. So a truncated or
+//! modified file, or a valid entry filed under another key (copied, renamed, or left by a
+//! colliding tool), is detected, removed and reported with the reason, never trusted. Entries
+//! are written atomically.
 //!
 //! ```
 //! use dwarfbound::pipeline::cache::{Cache, Lookup};
 //! let dir = tempfile::tempdir().unwrap();
 //! let cache = Cache::new(dir.path());
-//! let key = Cache::key("grid v1 upsilon=-0.3:0.6:91");
-//! assert!(matches!(cache.load(&key), Lookup::Missing));
-//! cache.store(&key, b"payload").unwrap();
-//! assert!(matches!(cache.load(&key), Lookup::Hit(b) if b == b"payload"));
+//! let description = r#"{"upsilon":{"start":-0.3,"stop":0.6,"count":91}}"#;
+//! let key = Cache::key(description);
+//! assert!(matches!(cache.load(&key, description), Lookup::Missing));
+//! cache.store(&key, description, b"payload").unwrap();
+//! assert!(matches!(cache.load(&key, description), Lookup::Hit(b) if b == b"payload"));
 //! ```
 
 use sha2::{Digest, Sha256};
@@ -21,7 +25,12 @@ use std::path::{Path, PathBuf};
 
 use crate::output::{write_atomic, OutputError};
 
-const MAGIC: &[u8] = b"dwarfbound-cache-1\n";
+/// First line of every entry. Version 2 records the description; a version-1 entry (which
+/// did not) is refused as another format.
+const MAGIC: &[u8] = b"dwarfbound-cache-2\n";
+
+/// At most this many differing fields are named in a mismatch message (one line stays short).
+const MAX_NAMED_DIFFERENCES: usize = 4;
 
 /// Lowercase hex of bytes.
 pub fn hex(bytes: &[u8]) -> String {
@@ -36,12 +45,16 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
 /// What a cache lookup found.
 #[derive(Debug)]
 pub enum Lookup {
-    /// A verified entry.
+    /// A verified entry computed for exactly the description asked for.
     Hit(Vec<u8>),
     /// No entry under this key.
     Missing,
-    /// An entry existed but failed verification; it has been removed. The text says why.
+    /// An entry existed but failed verification (unreadable, wrong format, checksum); it has
+    /// been removed. The text says why.
     Corrupt(String),
+    /// An entry with a valid checksum, but computed for another description; it has been
+    /// removed. The text names what differs.
+    Mismatch(String),
 }
 
 /// A cache folder.
@@ -63,47 +76,135 @@ impl Cache {
         sha256_hex(description.as_bytes())
     }
 
-    fn path(&self, key: &str) -> PathBuf {
+    /// The file an entry is stored in.
+    pub fn entry_path(&self, key: &str) -> PathBuf {
         self.dir.join(format!("{key}.theory"))
     }
 
-    /// Looks an entry up and verifies its checksum.
-    pub fn load(&self, key: &str) -> Lookup {
-        let path = self.path(key);
+    /// Looks an entry up, verifies its checksum and that it was computed for `description`.
+    /// An entry that fails either check is removed (the caller rebuilds it).
+    pub fn load(&self, key: &str, description: &str) -> Lookup {
+        let path = self.entry_path(key);
         let bytes = match std::fs::read(&path) {
             Ok(b) => b,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Lookup::Missing,
             Err(e) => return Lookup::Corrupt(format!("unreadable: {e}")),
         };
-        let verdict = (|| {
-            let rest = bytes.strip_prefix(MAGIC).ok_or("wrong header")?;
-            let nl = rest
-                .iter()
-                .position(|&b| b == b'\n')
-                .ok_or("no checksum line")?;
-            let (sum, payload) = (&rest[..nl], &rest[nl + 1..]);
-            if sum != sha256_hex(payload).as_bytes() {
-                return Err("checksum mismatch (truncated or modified)");
+        let verdict = match parse_entry(&bytes) {
+            Ok((recorded, payload)) if recorded == description.as_bytes() => {
+                return Lookup::Hit(payload.to_vec())
             }
-            Ok(payload.to_vec())
-        })();
-        match verdict {
-            Ok(p) => Lookup::Hit(p),
-            Err(why) => {
-                let _ = std::fs::remove_file(&path);
-                Lookup::Corrupt(format!("{}: {why}", path.display()))
-            }
-        }
+            Ok((recorded, _)) => Lookup::Mismatch(describe_difference(
+                &String::from_utf8_lossy(recorded),
+                description,
+            )),
+            Err(why) => Lookup::Corrupt(why.to_string()),
+        };
+        let _ = std::fs::remove_file(&path);
+        verdict
     }
 
-    /// Stores an entry atomically.
-    pub fn store(&self, key: &str, payload: &[u8]) -> Result<(), OutputError> {
-        let mut bytes = Vec::with_capacity(payload.len() + 100);
+    /// Stores an entry atomically, recording the description it was computed for.
+    pub fn store(&self, key: &str, description: &str, payload: &[u8]) -> Result<(), OutputError> {
+        let mut body = Vec::with_capacity(description.len() + payload.len() + 24);
+        body.extend_from_slice(format!("{}\n", description.len()).as_bytes());
+        body.extend_from_slice(description.as_bytes());
+        body.extend_from_slice(payload);
+        let mut bytes = Vec::with_capacity(body.len() + 100);
         bytes.extend_from_slice(MAGIC);
-        bytes.extend_from_slice(sha256_hex(payload).as_bytes());
+        bytes.extend_from_slice(sha256_hex(&body).as_bytes());
         bytes.push(b'\n');
-        bytes.extend_from_slice(payload);
-        write_atomic(&self.path(key), &bytes)
+        bytes.extend_from_slice(&body);
+        write_atomic(&self.entry_path(key), &bytes)
+    }
+}
+
+/// Splits a stored entry into (recorded description, payload) after checking its header and
+/// checksum. Layout: the magic line, the SHA-256 (hex) of the rest, a newline, the byte length
+/// of the description in decimal, a newline, the description, the payload.
+fn parse_entry(bytes: &[u8]) -> Result<(&[u8], &[u8]), &'static str> {
+    let rest = bytes
+        .strip_prefix(MAGIC)
+        .ok_or("wrong header (not a cache entry of this format)")?;
+    let nl = rest
+        .iter()
+        .position(|&b| b == b'\n')
+        .ok_or("no checksum line")?;
+    let (sum, body) = (&rest[..nl], &rest[nl + 1..]);
+    if sum != sha256_hex(body).as_bytes() {
+        return Err("checksum mismatch (truncated or modified)");
+    }
+    let nl = body
+        .iter()
+        .position(|&b| b == b'\n')
+        .ok_or("no description length")?;
+    let len: usize = std::str::from_utf8(&body[..nl])
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .ok_or("unreadable description length")?;
+    let rest = &body[nl + 1..];
+    if len > rest.len() {
+        return Err("description longer than the entry");
+    }
+    Ok(rest.split_at(len))
+}
+
+/// One line naming what differs between the description an entry was computed for and the one
+/// asked for: the differing fields of two JSON descriptions (`path: entry has A, wanted B`), or
+/// a plain statement when they are not JSON.
+pub fn describe_difference(recorded: &str, wanted: &str) -> String {
+    let parsed = (
+        serde_json::from_str::<serde_json::Value>(recorded),
+        serde_json::from_str::<serde_json::Value>(wanted),
+    );
+    let (Ok(a), Ok(b)) = parsed else {
+        return "it was computed for another description".to_string();
+    };
+    let mut diffs = Vec::new();
+    json_differences("", &a, &b, &mut diffs);
+    if diffs.is_empty() {
+        // Equal values written differently (e.g. key order): still not the same text.
+        return "it was computed for an equivalent description written differently".to_string();
+    }
+    let more = diffs.len().saturating_sub(MAX_NAMED_DIFFERENCES);
+    let mut text = format!(
+        "it was computed for another grid or settings: {}",
+        diffs[..diffs.len().min(MAX_NAMED_DIFFERENCES)].join("; ")
+    );
+    if more > 0 {
+        text.push_str(&format!("; and {more} more"));
+    }
+    text
+}
+
+/// Appends `path: entry has A, wanted B` for every leaf where `a` and `b` differ (objects are
+/// compared key by key; anything else as a whole).
+fn json_differences(
+    path: &str,
+    a: &serde_json::Value,
+    b: &serde_json::Value,
+    out: &mut Vec<String>,
+) {
+    use serde_json::Value;
+    if let (Value::Object(x), Value::Object(y)) = (a, b) {
+        let keys: std::collections::BTreeSet<&String> = x.keys().chain(y.keys()).collect();
+        for k in keys {
+            let sub = if path.is_empty() {
+                k.clone()
+            } else {
+                format!("{path}.{k}")
+            };
+            let null = Value::Null;
+            json_differences(
+                &sub,
+                x.get(k).unwrap_or(&null),
+                y.get(k).unwrap_or(&null),
+                out,
+            );
+        }
+    } else if a != b {
+        let name = if path.is_empty() { "description" } else { path };
+        out.push(format!("{name}: entry has {a}, wanted {b}"));
     }
 }
 
@@ -116,13 +217,54 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let cache = Cache::new(dir.path());
         let key = Cache::key("k");
-        cache.store(&key, b"0123456789").unwrap();
-        let p = cache.path(&key);
+        cache.store(&key, "k", b"0123456789").unwrap();
+        let p = cache.entry_path(&key);
         let mut b = std::fs::read(&p).unwrap();
         b.truncate(b.len() - 3);
         std::fs::write(&p, &b).unwrap();
-        assert!(matches!(cache.load(&key), Lookup::Corrupt(_)));
-        assert!(matches!(cache.load(&key), Lookup::Missing));
+        assert!(matches!(cache.load(&key, "k"), Lookup::Corrupt(why) if why.contains("checksum")));
+        assert!(matches!(cache.load(&key, "k"), Lookup::Missing));
+    }
+
+    #[test]
+    fn an_entry_for_another_description_is_refused_with_the_difference() {
+        // A valid entry (checksum holds) filed under the key of another grid: the situation of
+        // a copied or renamed cache file.
+        let dir = tempfile::tempdir().unwrap();
+        let cache = Cache::new(dir.path());
+        let d45 = r#"{"upsilon":{"start":-0.3,"stop":0.6,"count":45},"tau":{"count":13}}"#;
+        let d46 = r#"{"upsilon":{"start":-0.3,"stop":0.6,"count":46},"tau":{"count":13}}"#;
+        let (k45, k46) = (Cache::key(d45), Cache::key(d46));
+        cache.store(&k45, d45, b"grid of 45").unwrap();
+        std::fs::copy(cache.entry_path(&k45), cache.entry_path(&k46)).unwrap();
+        match cache.load(&k46, d46) {
+            Lookup::Mismatch(why) => {
+                assert_eq!(
+                    why,
+                    "it was computed for another grid or settings: upsilon.count: entry has 45, wanted 46"
+                );
+            }
+            other => panic!("expected a mismatch, got {other:?}"),
+        }
+        assert!(
+            !cache.entry_path(&k46).exists(),
+            "the wrong entry is removed"
+        );
+        assert!(matches!(cache.load(&k45, d45), Lookup::Hit(b) if b == b"grid of 45"));
+    }
+
+    #[test]
+    fn entries_of_the_previous_format_are_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let cache = Cache::new(dir.path());
+        let key = Cache::key("k");
+        let payload = b"payload";
+        let mut old = b"dwarfbound-cache-1\n".to_vec();
+        old.extend_from_slice(sha256_hex(payload).as_bytes());
+        old.push(b'\n');
+        old.extend_from_slice(payload);
+        std::fs::write(cache.entry_path(&key), old).unwrap();
+        assert!(matches!(cache.load(&key, "k"), Lookup::Corrupt(why) if why.contains("header")));
     }
 
     #[test]

@@ -61,6 +61,9 @@ pub struct NightlyReport {
     pub alarms: Vec<String>,
     /// A stale lock of a dead run was taken over.
     pub took_over_lock_from: Option<u32>,
+    /// For a shard: one line when a theory cache entry was discarded and rebuilt (a full run
+    /// carries it in its outcome).
+    pub cache_note: Option<String>,
 }
 
 fn axis(cfg_path: &Path, key: &str, text: &str) -> Result<Axis, PipelineError> {
@@ -299,7 +302,7 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
         let dir = output
             .join("shards")
             .join(format!("{}-of-{}", shard.index, shard.count));
-        let (grid, _, _) = theory_grid(
+        let (grid, _, cache_note) = theory_grid(
             settings.upsilon,
             settings.tau,
             &settings.theory,
@@ -323,6 +326,7 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
             outcome: None,
             alarms: Vec::new(),
             took_over_lock_from,
+            cache_note,
         });
     }
 
@@ -374,6 +378,7 @@ fn publish_run(
         outcome: Some(outcome),
         alarms,
         took_over_lock_from,
+        cache_note: None,
     })
 }
 

@@ -3,9 +3,11 @@
 
 use std::path::Path;
 
-use super::confront::{OutputContext, PipelineError};
+use super::error::PipelineError;
+use super::outputs::OutputContext;
 use crate::confront::engine::{BoundSurface, Term};
 use crate::confront::regions::Level;
+use crate::confront::tension::TensionTest;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, ModelDescription,
@@ -87,6 +89,12 @@ fn term_summary(ctx: &OutputContext<'_>, t: Term, delta: &[Option<f64>]) -> Stri
     )
 }
 
+/// Δχ² of a grid vector relative to its own minimum (`None` where there is no model).
+fn delta_of(v: &[Option<f64>]) -> Vec<Option<f64>> {
+    let min = v.iter().flatten().copied().fold(f64::INFINITY, f64::min);
+    v.iter().map(|c| c.map(|c| c - min)).collect()
+}
+
 /// Builds the report's inputs and writes report.html, report.md and the figures.
 pub(crate) fn write_report_files(
     ctx: &OutputContext<'_>,
@@ -96,12 +104,11 @@ pub(crate) fn write_report_files(
     let (nu, nt) = (ctx.conf.n_upsilon, ctx.conf.n_tau);
     let s = ctx.settings;
     let t = &s.theory;
-    let delta_joint: Vec<Option<f64>> = (0..nt)
-        .flat_map(|j| (0..nu).map(move |i| (i, j)))
-        .map(|(i, j)| {
-            let d = ctx.regions.delta_chi2[i * nt + j];
-            d.is_finite().then_some(d)
-        })
+    let delta_joint: Vec<Option<f64>> = ctx
+        .regions
+        .delta_chi2
+        .iter()
+        .map(|&d| d.is_finite().then_some(d))
         .collect();
     let mut outlines = Vec::new();
     let mut contributions = Vec::new();
@@ -126,7 +133,7 @@ pub(crate) fn write_report_files(
             .iter()
             .find(|(tt, _)| *tt == term)
             .map_or(n_objects, |(_, c)| c.n_informative());
-        let delta = super::confront::delta_of_pub(v);
+        let delta = delta_of(v);
         contributions.push(ClassContribution {
             class: term.name().to_string(),
             n_objects,
@@ -277,16 +284,34 @@ pub(crate) fn write_report_files(
                 ),
                 crate::theory::mmhb::MmhbMode::Raw => "none: the raw analytic value".into(),
             },
-            theory_floor: format!(
-                "per object, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²), white-dwarf radius {} % (choices, bounds.md §4 and structure.md §4.6)",
-                ctx.eopts.mmhb_floor_msun,
-                ctx.eopts.chandrasekhar_floor_msun,
-                100.0 * ctx.eopts.wd_radius_floor_fraction
-            ),
-            white_dwarf: format!(
-                "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)); Newtonian order, zero temperature, no Coulomb or envelope corrections; radii from the full-EOS R(M) tabulated per grid point",
-                t.chandrasekhar_mode.name()
-            ),
+            theory_floor: match ctx.eopts.radius.model {
+                crate::confront::wd_radius::WdRadiusModel::Cold => format!(
+                    "per object, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²), white-dwarf radius {} % (choices, bounds.md §4 and structure.md §4.6)",
+                    ctx.eopts.mmhb_floor_msun,
+                    ctx.eopts.chandrasekhar_floor_msun,
+                    100.0 * ctx.eopts.radius.cold_floor_fraction
+                ),
+                crate::confront::wd_radius::WdRadiusModel::Hot => format!(
+                    "per object, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²); white-dwarf radius {} % for carbon–oxygen cores up to {} K, rising to {} % at {} K, helium cores {} % more in quadrature, plus half the thick–thin spread where the hydrogen layer is not stated, the Teff error through dR/dTeff and 0.5 |Υ| (R_hot/R_cold − 1) for the anchored Υ dependence (choices, docs/white-dwarfs.md §13)",
+                    ctx.eopts.mmhb_floor_msun,
+                    ctx.eopts.chandrasekhar_floor_msun,
+                    100.0 * ctx.eopts.radius.hot_floor_fraction,
+                    ctx.eopts.radius.hot_ramp_start_k,
+                    100.0 * (ctx.eopts.radius.hot_floor_fraction + ctx.eopts.radius.hot_ramp_extra_fraction),
+                    ctx.eopts.radius.hot_ramp_end_k,
+                    100.0 * ctx.eopts.radius.helium_core_fraction,
+                ),
+            },
+            white_dwarf: match ctx.eopts.radius.model {
+                crate::confront::wd_radius::WdRadiusModel::Cold => format!(
+                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)); Newtonian order, zero temperature, no Coulomb or envelope corrections; radii from the full-EOS R(M) tabulated per grid point (the zero-temperature model, chosen with --wd-model cold)",
+                    t.chandrasekhar_mode.name()
+                ),
+                crate::confront::wd_radius::WdRadiusModel::Hot => format!(
+                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice term, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, times the ratio R_cold(M; Υ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation, Newtonian structure (docs/white-dwarfs.md)",
+                    t.chandrasekhar_mode.name()
+                ),
+            },
             likelihood: format!(
                 "product over objects of the probability of lying on the allowed side of the class bound (exact split-normal with the theory floor, bounds.md §8.1), evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's mass{}",
                 match ctx.eopts.population_window_msun {
@@ -385,10 +410,10 @@ pub(crate) fn write_report_files(
                     let k = t.object;
                     let o = &ctx.vetted.objects[k];
                     let (class, text) = match t.test {
-                        super::confront::TensionTest::MassBound => {
+                        TensionTest::MassBound => {
                             (o.class.label().to_string(), mass_text(ctx, k))
                         }
-                        super::confront::TensionTest::MassRadius => (
+                        TensionTest::MassRadius => (
                             format!("{} (mass–radius test)", o.class.label()),
                             format!(
                                 "{}; R = {:.5} ± {:.5} R☉",
@@ -404,8 +429,8 @@ pub(crate) fn write_report_files(
                         mass_text: text,
                         sigma_standard_gravity: t.sigma,
                         sigma_best_fit: match t.test {
-                            super::confront::TensionTest::MassBound => ctx.sigma_best(k),
-                            super::confront::TensionTest::MassRadius => None,
+                            TensionTest::MassBound => ctx.sigma_best(k),
+                            TensionTest::MassRadius => None,
                         },
                     }
                 })

@@ -9,8 +9,8 @@
 //! let md = markdown::render(&doc);
 //! ```
 
+use super::figures::outline_style_name;
 use super::input::{AllowedMap, ReportInput, Shift, Warning};
-use super::plots::outline_style_name;
 use super::text::{fmt_end, fmt_opt, fmt_param, fmt_prob, fmt_sig};
 
 /// A run of text with its emphasis.

@@ -238,7 +238,8 @@ pub struct WorstObject {
     pub probability: f64,
 }
 
-/// The absolute consistency test (bounds.md §8.4: Šidák-corrected smallest probability).
+/// The absolute consistency test: the smallest per-object probability with the Šidák correction
+/// for the number of informative objects (method in the project docs, docs/).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Consistency {
     /// True when some grid point is consistent with the catalogue at 95.45 %.
@@ -314,7 +315,8 @@ pub struct ClassContribution {
     pub summary: String,
 }
 
-/// The measured error of the one-dimensional reduction (bounds.md §8.5).
+/// The measured error of the one-dimensional reduction (each class's log-likelihood tabulated in
+/// its bound and interpolated over the grid).
 #[derive(Debug, Clone, PartialEq)]
 pub struct ReductionError {
     /// Largest |Δχ²_reduced − Δχ²_direct| found.
@@ -328,7 +330,9 @@ pub struct ReductionError {
 /// Warnings the confrontation raised; each has a fixed explanation in the report.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Warning {
-    /// Many informative objects of both opposing classes crowd the MMHB (bounds.md §8.7).
+    /// Many informative objects of both opposing classes crowd the MMHB, where the plain product
+    /// of probabilities is biased toward the sparser side (calibration caveat in the project docs,
+    /// docs/).
     Crowding {
         /// Informative `hburning` objects within 3σ of the MMHB at the best fit.
         n_hburning: usize,

@@ -15,27 +15,25 @@
 //! # Ok(()) }
 //! ```
 
-mod bitmap_text;
-mod contour;
 mod document;
+mod figures;
 mod html;
 mod input;
 mod markdown;
-mod plots;
 pub mod tables;
 pub mod text;
 
 use std::path::Path;
 
+pub use figures::{
+    outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
+    render_bounds_svg, ALLOWED_SIZE, BOUNDS_WIDTH,
+};
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, Level,
     ModelDescription, ReductionError, ReportInput, Shift, StandardGravityStatus, TensionRow,
     TensionTable, UpsilonInterval, Warning, WorstObject,
-};
-pub use plots::{
-    outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
-    render_bounds_svg, ALLOWED_SIZE, BOUNDS_WIDTH,
 };
 
 use crate::output::{write_atomic, OutputError};

@@ -16,15 +16,15 @@
 //!   exact rescaling G → (1 − τ)G (`structure.md` §2.2, §3.7);
 //! * the Schönberg–Chandrasekhar fraction exists only at τ = 0 (`bounds.md` §7.2), so it is
 //!   solved along the τ = 0 row alone and refused with its reason elsewhere;
-//! * white-dwarf tables are solved on a sub-grid of nodes (every `numerics.wd_grid_stride`-th
-//!   point of each axis, and the last) and interpolated in (Υ, τ) in between by tensor-product
-//!   cubic Lagrange polynomials of ln(m/(m_Ch − m)) and ln η at each tabulated x_c, with the
-//!   point's own exact m_Ch = ω₃(Υ, τ); points whose stencil
-//!   touches a node without a model are solved exactly. The interpolation error is measured at
-//!   build time against exact tables at cell centres and stored ([`InterpolationCheck`]);
-//! * likewise, with `numerics.scalar_grid_stride` > 1, the break-up reference radius correction
-//!   (full EOS over polytrope, ≈ 0.998) and the SC factor are interpolated between solved nodes
-//!   (default 1: every point solved).
+//! * white-dwarf tables are solved on a sub-grid of nodes and interpolated in between
+//!   ([`wd_grid`](super::wd_grid));
+//! * with `numerics.breakup_grid_stride` > 1 the break-up reference radius correction (full EOS
+//!   over polytrope, ≈ 0.998), and with `numerics.sc_grid_stride` > 1 the SC factor, are
+//!   interpolated between solved nodes ([`interpolate`](super::interpolate)).
+//!
+//! Every interpolation's error is measured at build time against exact solves at cell centres
+//! and stored in the grid ([`InterpolationCheck`]). The shard type is in
+//! [`shard`](super::shard), the settings in [`settings`](super::settings).
 //!
 //! ```
 //! use dwarfbound::theory::grid::{compute, GridOptions};
@@ -41,19 +41,27 @@
 //! assert_eq!(dwarfbound::theory::grid::TheoryGrid::from_json_bytes(&bytes).unwrap(), grid);
 //! ```
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeSet;
 use std::io::IsTerminal;
-use std::ops::Range;
 
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
-use crate::output::fmt_f64;
-use crate::theory::point::{
-    Failure, LaneEmdenPair, Outcome, PointBounds, PointEvaluator, SettingsError, TheorySettings,
+use crate::theory::interpolate::{
+    axis_nodes, cell_centres, from_map, interpolate_2d, needed_nodes, stencil, summarise,
+    NodeValues,
 };
+use crate::theory::outcome::{Failure, Outcome};
+use crate::theory::point::{LaneEmdenPair, PointBounds, PointEvaluator};
+use crate::theory::settings::{SettingsError, SettingsIdentity, TheorySettings};
+use crate::theory::wd_grid::{build_wd_grid, interpolate_wd, GridPoints};
 use crate::theory::white_dwarf::WdMassRadius;
 use crate::theory::{Anisotropy, Axis};
+
+pub use crate::theory::grid_value;
+pub use crate::theory::interpolate::InterpolationCheck;
+pub use crate::theory::shard::{Shard, ShardError};
+pub use crate::theory::wd_grid::WdGrid;
 
 /// The format tag of serialised grids; bumped when the layout changes.
 pub const GRID_FORMAT: &str = "dwarfbound-theory-grid-1";
@@ -76,50 +84,14 @@ pub enum GridError {
         why: String,
     },
     /// A shard specification is unusable.
-    #[error("invalid shard: {0}")]
-    Shard(String),
+    #[error(transparent)]
+    Shard(#[from] ShardError),
     /// Serialised bytes could not be read.
     #[error("cannot read theory grid: {0}")]
     Format(String),
     /// Shards that do not fit together.
     #[error("cannot merge theory grids: {0}")]
     Merge(String),
-}
-
-/// Shard `index` of `count` (1-based), e.g. `2/4`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
-pub struct Shard {
-    /// Which shard, 1 ≤ index ≤ count.
-    pub index: usize,
-    /// How many shards.
-    pub count: usize,
-}
-
-impl Shard {
-    /// Parses `I/N` with 1 ≤ I ≤ N.
-    pub fn parse(text: &str) -> Result<Shard, GridError> {
-        let bad = || GridError::Shard(format!("`{text}` is not I/N with 1 ≤ I ≤ N (e.g. 2/4)"));
-        let (i, n) = text.split_once('/').ok_or_else(bad)?;
-        let index: usize = i.trim().parse().map_err(|_| bad())?;
-        let count: usize = n.trim().parse().map_err(|_| bad())?;
-        if index == 0 || count == 0 || index > count {
-            return Err(bad());
-        }
-        Ok(Shard { index, count })
-    }
-
-    /// The contiguous row-major index range this shard owns out of `total` points.
-    pub fn range(&self, total: usize) -> Range<usize> {
-        let lo = ((self.index - 1) as u128 * total as u128 / self.count as u128) as usize;
-        let hi = (self.index as u128 * total as u128 / self.count as u128) as usize;
-        lo..hi
-    }
-}
-
-impl std::fmt::Display for Shard {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "{}/{}", self.index, self.count)
-    }
 }
 
 /// How to build a grid.
@@ -131,73 +103,6 @@ pub struct GridOptions {
     pub shard: Option<Shard>,
     /// Never show a progress bar (one is shown only when stderr is a terminal anyway).
     pub quiet: bool,
-}
-
-/// The measured error of an interpolation in (Υ, τ) between solved nodes.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct InterpolationCheck {
-    /// What was compared.
-    pub quantity: String,
-    /// Number of off-node points compared with an exact solve.
-    pub samples: usize,
-    /// Largest |interpolated/exact − 1| over the samples (and, for tables, over the test masses).
-    pub max_relative_error: f64,
-    /// Υ of the worst sample (absent without samples).
-    pub worst_upsilon: Option<f64>,
-    /// τ of the worst sample.
-    pub worst_tau: Option<f64>,
-}
-
-/// White-dwarf tables of a grid: solved on nodes, interpolated elsewhere (see the module docs).
-#[derive(Debug, Clone, Serialize, Deserialize)]
-pub struct WdGrid {
-    /// Fine Υ indices of the nodes.
-    pub upsilon_nodes: Vec<usize>,
-    /// Fine τ indices of the nodes; empty for the gradient ansatz, whose tables are solved at
-    /// τ = 0 and rescaled exactly.
-    pub tau_nodes: Vec<usize>,
-    /// Node tables, τ-node outer, Υ-node inner (one row at τ = 0 for the gradient ansatz).
-    pub node_tables: Vec<Outcome<WdMassRadius>>,
-    /// Points of this grid (fine index) whose table was solved directly, because a node of
-    /// their interpolation stencil has no model or the interpolated table was not valid.
-    pub exact_tables: BTreeMap<usize, Outcome<WdMassRadius>>,
-    /// The node tables as interpolation variables (ln(m/(m_Ch − m)) then ln η), built once on
-    /// first use; not serialised.
-    #[serde(skip)]
-    node_values: std::sync::OnceLock<Vec<Option<Vec<f64>>>>,
-}
-
-impl PartialEq for WdGrid {
-    fn eq(&self, other: &Self) -> bool {
-        self.upsilon_nodes == other.upsilon_nodes
-            && self.tau_nodes == other.tau_nodes
-            && self.node_tables == other.node_tables
-            && self.exact_tables == other.exact_tables
-    }
-}
-
-impl WdGrid {
-    /// Interpolation variables of every node table: z = ln(m/(m_Ch − m)) keeps the relative
-    /// precision of m at low mass and of the deficit m_Ch − m near the Chandrasekhar mass,
-    /// where R ∝ √(m_Ch − m); it is invariant under the gradient rescaling. Then ln η.
-    fn node_values(&self) -> &[Option<Vec<f64>>] {
-        self.node_values.get_or_init(|| {
-            self.node_tables
-                .iter()
-                .map(|t| {
-                    let t = t.ok()?;
-                    let m_ch = t.mass_ch_dimless();
-                    Some(
-                        t.mass_dimless()
-                            .iter()
-                            .map(|m| (m / (m_ch - m)).ln())
-                            .chain(t.radius_dimless().iter().map(|x| x.ln()))
-                            .collect(),
-                    )
-                })
-                .collect()
-        })
-    }
 }
 
 /// Every bound over a grid (or a shard of it).
@@ -225,30 +130,60 @@ pub struct TheoryGrid {
     pub white_dwarfs: Option<WdGrid>,
 }
 
-/// The canonical description of a grid computation for a content-addressed cache key: the
-/// settings' [`TheorySettings::cache_key_text`], the axes, the shard and whether white-dwarf
-/// tables are included.
+/// Everything that fixes a grid computation's result: the theory's [`SettingsIdentity`], the
+/// axes, the shard, whether white-dwarf tables are included, and the grid format. A cache
+/// entry records it and is used only for an exactly equal one.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GridIdentity {
+    /// [`GRID_FORMAT`].
+    pub grid_format: String,
+    /// The theory settings and what they fix.
+    pub theory: SettingsIdentity,
+    /// The Υ axis.
+    pub upsilon: Axis,
+    /// The τ axis.
+    pub tau: Axis,
+    /// The shard, or `None` for the whole grid.
+    pub shard: Option<Shard>,
+    /// Whether the white-dwarf tables are included.
+    pub wd_tables: bool,
+}
+
+impl GridIdentity {
+    /// The identity of a computation about to be made.
+    pub fn new(
+        upsilon: &Axis,
+        tau: &Axis,
+        settings: &TheorySettings,
+        options: &GridOptions,
+    ) -> GridIdentity {
+        GridIdentity {
+            grid_format: GRID_FORMAT.to_string(),
+            theory: settings.identity(),
+            upsilon: *upsilon,
+            tau: *tau,
+            shard: options.shard,
+            wd_tables: options.with_wd_tables,
+        }
+    }
+
+    /// Compact JSON, the canonical text of a cache key (see [`SettingsIdentity::to_json`]).
+    pub fn to_json(&self) -> String {
+        serde_json::to_string(self).unwrap_or_else(|e| format!("{self:?} ({e})"))
+    }
+}
+
+/// The canonical description of a grid computation for a content-addressed cache key:
+/// [`GridIdentity`] as compact JSON, built by serde from whole structs, so that no setting can
+/// be left out of it.
 pub fn cache_key_text(
     upsilon: &Axis,
     tau: &Axis,
     settings: &TheorySettings,
     options: &GridOptions,
 ) -> String {
-    format!(
-        "{}grid.format = {GRID_FORMAT}\ngrid.upsilon = {:?}:{:?}:{}\ngrid.tau = {:?}:{:?}:{}\ngrid.shard = {}\ngrid.wd_tables = {}\n",
-        settings.cache_key_text(),
-        upsilon.start,
-        upsilon.stop,
-        upsilon.count,
-        tau.start,
-        tau.stop,
-        tau.count,
-        options
-            .shard
-            .map(|s| s.to_string())
-            .unwrap_or_else(|| "all".into()),
-        options.with_wd_tables
-    )
+    GridIdentity::new(upsilon, tau, settings, options).to_json()
 }
 
 fn check_axis(name: &'static str, a: &Axis) -> Result<(), GridError> {
@@ -269,62 +204,6 @@ fn check_axis(name: &'static str, a: &Axis) -> Result<(), GridError> {
     }
 }
 
-/// The i-th value of a grid axis: [`Axis::value`], except that a value within a few rounding
-/// errors of zero is exactly 0 (so that `-0.9:0.3:5` has the standard-gravity point Υ = 0, not
-/// −1.1e-16, and a τ = 0 row is recognised). Every point of a grid carries this value.
-pub fn grid_value(axis: &Axis, i: usize) -> f64 {
-    let v = axis.value(i);
-    let span = axis.start.abs().max(axis.stop.abs());
-    if v.abs() <= 8.0 * f64::EPSILON * span {
-        0.0
-    } else {
-        v
-    }
-}
-
-/// Node indices of an axis of `count` points: every `stride`-th and the last; every point when
-/// that would leave fewer than four nodes for a longer axis (a cubic stencil needs four).
-fn axis_nodes(count: usize, stride: usize) -> Vec<usize> {
-    let mut v: Vec<usize> = (0..count).step_by(stride.max(1)).collect();
-    if v.last() != Some(&(count - 1)) {
-        v.push(count - 1);
-    }
-    if v.len() < 4 && v.len() < count {
-        return (0..count).collect();
-    }
-    v
-}
-
-/// Positions (into `nodes`) of the interpolation stencil of fine index `i`: the node itself, or
-/// the four nearest nodes around its interval (shifted inwards at the ends; fewer if the axis
-/// has fewer nodes).
-fn stencil(nodes: &[usize], i: usize) -> Vec<usize> {
-    match nodes.binary_search(&i) {
-        Ok(p) => vec![p],
-        Err(p) => {
-            // nodes[p-1] < i < nodes[p]
-            let k = nodes.len().min(4);
-            let start = p.saturating_sub(2).min(nodes.len() - k);
-            (start..start + k).collect()
-        }
-    }
-}
-
-/// Lagrange weights for the nodes at `xs`, evaluated at x.
-fn lagrange_weights(xs: &[f64], x: f64) -> Vec<f64> {
-    (0..xs.len())
-        .map(|j| {
-            let mut w = 1.0;
-            for (l, xl) in xs.iter().enumerate() {
-                if l != j {
-                    w *= (x - xl) / (xs[j] - xl);
-                }
-            }
-            w
-        })
-        .collect()
-}
-
 /// A progress bar on stderr only when it is a terminal (and not `quiet`).
 fn progress(len: u64, quiet: bool) -> indicatif::ProgressBar {
     if quiet || !std::io::stderr().is_terminal() {
@@ -338,84 +217,6 @@ fn progress(len: u64, quiet: bool) -> indicatif::ProgressBar {
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
     );
     pb
-}
-
-/// Node values on a 2-D node grid, keyed by (τ-node position, Υ-node position).
-type NodeValues<T> = BTreeMap<(usize, usize), Result<T, Failure>>;
-
-/// Tensor-product interpolation of vector values at fine point (iu, it) from node values
-/// (`get(τ-node position, Υ-node position)`). `None` if a stencil node is missing or failed.
-fn interpolate_2d<'a>(
-    get: impl Fn(usize, usize) -> Option<&'a [f64]>,
-    upsilon: &Axis,
-    tau: &Axis,
-    u_nodes: &[usize],
-    t_nodes: &[usize],
-    iu: usize,
-    it: usize,
-) -> Option<Vec<f64>> {
-    let su = stencil(u_nodes, iu);
-    let st = stencil(t_nodes, it);
-    let wu = lagrange_weights(
-        &su.iter()
-            .map(|&p| grid_value(upsilon, u_nodes[p]))
-            .collect::<Vec<_>>(),
-        grid_value(upsilon, iu),
-    );
-    let wt = lagrange_weights(
-        &st.iter()
-            .map(|&p| grid_value(tau, t_nodes[p]))
-            .collect::<Vec<_>>(),
-        grid_value(tau, it),
-    );
-    let mut out: Option<Vec<f64>> = None;
-    for (a, &pt) in st.iter().enumerate() {
-        for (b, &pu) in su.iter().enumerate() {
-            let v = get(pt, pu)?;
-            let w = wt[a] * wu[b];
-            match &mut out {
-                None => out = Some(v.iter().map(|x| w * x).collect()),
-                Some(o) => {
-                    if o.len() != v.len() {
-                        return None;
-                    }
-                    for (oi, vi) in o.iter_mut().zip(v) {
-                        *oi += w * vi;
-                    }
-                }
-            }
-        }
-    }
-    out.filter(|o| o.iter().all(|x| x.is_finite()))
-}
-
-/// Getter over a [`NodeValues`] map for [`interpolate_2d`].
-fn from_map<'a>(values: &'a NodeValues<Vec<f64>>) -> impl Fn(usize, usize) -> Option<&'a [f64]> {
-    move |pt, pu| values.get(&(pt, pu))?.as_ref().ok().map(|v| v.as_slice())
-}
-
-/// Node positions needed by the stencils of the fine points in `range`.
-fn needed_nodes(
-    range: &Range<usize>,
-    n_u: usize,
-    u_nodes: &[usize],
-    t_nodes: &[usize],
-) -> BTreeSet<(usize, usize)> {
-    let mut rows: BTreeSet<usize> = BTreeSet::new();
-    let mut cols: BTreeSet<usize> = BTreeSet::new();
-    for i in range.clone() {
-        rows.insert(i / n_u);
-        cols.insert(i % n_u);
-    }
-    let mut need = BTreeSet::new();
-    let t_pos: BTreeSet<usize> = rows.iter().flat_map(|&it| stencil(t_nodes, it)).collect();
-    let u_pos: BTreeSet<usize> = cols.iter().flat_map(|&iu| stencil(u_nodes, iu)).collect();
-    for &pt in &t_pos {
-        for &pu in &u_pos {
-            need.insert((pt, pu));
-        }
-    }
-    need
 }
 
 /// Builds the grid (or the shard of it that `options` names).
@@ -436,13 +237,7 @@ pub fn compute(
             why: format!("more than {MAX_GRID_POINTS} points"),
         })?;
     let range = options.shard.map_or(0..total, |s| s.range(total));
-    let tau0_row = (0..n_t).find(|&it| grid_value(&tau, it) == 0.0);
-    let sc_needed =
-        tau0_row.is_some_and(|it| (it * n_u..(it + 1) * n_u).any(|i| range.contains(&i)));
-    let mut evaluator = PointEvaluator::new(settings)?;
-    if sc_needed {
-        evaluator = evaluator.with_sc_reference();
-    }
+    let evaluator = PointEvaluator::new(settings)?.with_sc_reference();
     let ev = &evaluator;
     let gradient = settings.anisotropy == Anisotropy::Gradient;
     let num = &settings.numerics;
@@ -556,50 +351,67 @@ pub fn compute(
         })
         .collect();
 
-    // 3. Schönberg–Chandrasekhar along the τ = 0 row (refused elsewhere).
+    // 3. Schönberg–Chandrasekhar factor on a (Υ, τ) node lattice (every `sc_grid_stride`-th
+    //    value of each axis), interpolated in between; exact where a stencil node has no value.
+    //    Gradient ansatz: the factor does not depend on τ (an exact identity), so one row of
+    //    Υ-nodes at τ = 0 serves every τ.
     pb.set_message("Schönberg–Chandrasekhar");
-    let sc_row: BTreeMap<usize, Outcome<crate::theory::point::ScValues>> = match tau0_row {
-        Some(it0) if sc_needed => {
-            let cols: Vec<usize> = (0..n_u)
-                .filter(|iu| range.contains(&(it0 * n_u + iu)))
-                .collect();
-            let positions: BTreeSet<usize> =
-                cols.iter().flat_map(|&iu| stencil(&sc_nodes, iu)).collect();
-            let one_row = Axis {
-                start: 0.0,
-                stop: 0.0,
-                count: 1,
-            };
-            let nodes: NodeValues<Vec<f64>> = positions
-                .par_iter()
-                .map(|&pu| {
-                    let r = ev.sc_ratio(grid_value(&upsilon, sc_nodes[pu]), 0.0);
-                    (
-                        (0, pu),
-                        r.as_result().map(|v| vec![*v]).map_err(Clone::clone),
-                    )
-                })
-                .collect();
-            cols.par_iter()
-                .map(|&iu| {
-                    let on_node = sc_nodes.binary_search(&iu).is_ok();
-                    let v = match interpolate_2d(
-                        from_map(&nodes),
-                        &upsilon,
-                        &one_row,
-                        &sc_nodes,
-                        &[0],
-                        iu,
-                        0,
-                    ) {
-                        Some(v) => Outcome::Ok(ev.sc_values(v[0], !on_node)),
-                        None => ev.sc(grid_value(&upsilon, iu), 0.0),
-                    };
-                    (iu, v)
-                })
-                .collect()
+    let one_row = Axis {
+        start: 0.0,
+        stop: 0.0,
+        count: 1,
+    };
+    let (sc_t_axis, sc_t_nodes) = if gradient {
+        (&one_row, vec![0])
+    } else {
+        // The τ = 0 row is always a node row: the standard-gravity values stay exact.
+        let mut nodes = axis_nodes(n_t, num.sc_grid_stride);
+        if let Some(it0) = (0..n_t).find(|&it| grid_value(&tau, it) == 0.0) {
+            if let Err(k) = nodes.binary_search(&it0) {
+                nodes.insert(k, it0);
+            }
         }
-        _ => BTreeMap::new(),
+        (&tau, nodes)
+    };
+    let sc_need: Vec<(usize, usize)> = if gradient {
+        let cols: BTreeSet<usize> = range
+            .clone()
+            .flat_map(|i| stencil(&sc_nodes, i % n_u))
+            .collect();
+        cols.into_iter().map(|pu| (0, pu)).collect()
+    } else {
+        needed_nodes(&range, n_u, &sc_nodes, &sc_t_nodes)
+            .into_iter()
+            .collect()
+    };
+    let sc_node_values: NodeValues<Vec<f64>> = sc_need
+        .par_iter()
+        .map(|&(pt, pu)| {
+            let u = grid_value(&upsilon, sc_nodes[pu]);
+            let t = grid_value(sc_t_axis, sc_t_nodes[pt]);
+            let r = ev.sc_ratio(u, t);
+            (
+                (pt, pu),
+                r.as_result().map(|v| vec![*v]).map_err(Clone::clone),
+            )
+        })
+        .collect();
+    let sc_at = |iu: usize, it: usize| -> Outcome<crate::theory::point::ScValues> {
+        let it_sc = if gradient { 0 } else { it };
+        let on_node =
+            sc_nodes.binary_search(&iu).is_ok() && sc_t_nodes.binary_search(&it_sc).is_ok();
+        match interpolate_2d(
+            from_map(&sc_node_values),
+            &upsilon,
+            sc_t_axis,
+            &sc_nodes,
+            &sc_t_nodes,
+            iu,
+            it_sc,
+        ) {
+            Some(v) => Outcome::Ok(ev.sc_values(v[0], !on_node)),
+            None => ev.sc(grid_value(&upsilon, iu), grid_value(&tau, it)),
+        }
     };
 
     // 4. Assemble.
@@ -611,10 +423,7 @@ pub fn compute(
         .map(|(i, b)| {
             let (iu, it) = (i % n_u, i / n_u);
             let (u, t) = (grid_value(&upsilon, iu), grid_value(&tau, it));
-            let sc = match (Some(it) == tau0_row, sc_row.get(&iu)) {
-                (true, Some(v)) => v.clone(),
-                _ => ev.sc(u, t),
-            };
+            let sc = sc_at(iu, it);
             ev.assemble(u, t, &le[i - range.start], sc, b, None)
         })
         .collect();
@@ -644,12 +453,13 @@ pub fn compute(
             n_u,
         ));
     }
-    if let (Some(it0), true) = (tau0_row, sc_nodes.len() < n_u && sc_needed) {
-        let samples: Vec<usize> = cell_centres(&sc_nodes, &[0], &(0..n_u), n_u, 4)
-            .into_iter()
-            .map(|iu| it0 * n_u + iu)
-            .filter(|i| range.contains(i))
-            .collect();
+    if sc_nodes.len() < n_u || (!gradient && sc_t_nodes.len() < n_t) {
+        let t_nodes: Vec<usize> = if gradient {
+            (0..n_t).collect()
+        } else {
+            sc_t_nodes.clone()
+        };
+        let samples = cell_centres(&sc_nodes, &t_nodes, &range, n_u, 4);
         let results: Vec<(f64, usize)> = samples
             .par_iter()
             .filter_map(|&i| {
@@ -657,7 +467,8 @@ pub fn compute(
                 if !sc.interpolated {
                     return None;
                 }
-                let exact = *ev.sc_ratio(grid_value(&upsilon, i % n_u), 0.0).ok()?;
+                let p = &points[i - range.start];
+                let exact = *ev.sc_ratio(p.upsilon, p.tau).ok()?;
                 Some(((sc.ratio / exact - 1.0).abs(), i))
             })
             .collect();
@@ -685,7 +496,7 @@ pub fn compute(
     // 6. White-dwarf tables.
     if options.with_wd_tables {
         pb.set_message("white-dwarf tables");
-        let (wd, check) = build_wd_grid(&grid, ev, &wd_u_nodes, &wd_t_nodes, &pb);
+        let (wd, check) = build_wd_grid(&grid.parts(), ev, &wd_u_nodes, &wd_t_nodes, &pb);
         grid.white_dwarfs = Some(wd);
         grid.interpolation_checks.extend(check);
     }
@@ -693,264 +504,30 @@ pub fn compute(
     Ok(grid)
 }
 
-/// Fine indices (inside `range`) near the centres of up to `per_axis`² cells of the node grid,
-/// spread evenly: the points where interpolation is least accurate.
-fn cell_centres(
-    u_nodes: &[usize],
-    t_nodes: &[usize],
-    range: &Range<usize>,
-    n_u: usize,
-    per_axis: usize,
-) -> Vec<usize> {
-    let centres = |nodes: &[usize]| -> Vec<usize> {
-        let cells: Vec<usize> = nodes
-            .windows(2)
-            .filter(|w| w[1] - w[0] >= 2)
-            .map(|w| (w[0] + w[1]) / 2)
-            .collect();
-        if cells.is_empty() {
-            // An axis without interior cells: sample its nodes (the other axis interpolates).
-            return nodes.to_vec();
-        }
-        let take = per_axis.min(cells.len());
-        (0..take)
-            .map(|k| cells[k * (cells.len() - 1) / (take - 1).max(1)])
-            .collect::<BTreeSet<_>>()
-            .into_iter()
-            .collect()
-    };
-    let (cu, ct) = (centres(u_nodes), centres(t_nodes));
-    let mut out = Vec::new();
-    for &it in &ct {
-        for &iu in &cu {
-            let i = it * n_u + iu;
-            if range.contains(&i) {
-                out.push(i);
-            }
-        }
-    }
-    out
-}
-
-fn summarise(
-    quantity: &str,
-    results: &[(f64, usize)],
-    upsilon: &Axis,
-    tau: &Axis,
-    n_u: usize,
-) -> InterpolationCheck {
-    let worst = results
-        .iter()
-        .copied()
-        .fold(None::<(f64, usize)>, |acc, (e, i)| match acc {
-            Some((a, j)) if a > e || (a == e && j < i) => Some((a, j)),
-            _ => Some((e, i)),
-        });
-    InterpolationCheck {
-        quantity: quantity.to_string(),
-        samples: results.len(),
-        max_relative_error: worst.map_or(0.0, |w| w.0),
-        worst_upsilon: worst.map(|(_, i)| grid_value(upsilon, i % n_u)),
-        worst_tau: worst.map(|(_, i)| grid_value(tau, i / n_u)),
-    }
-}
-
-/// Mass fractions m/m_Ch at which interpolated and exact white-dwarf radii are compared.
-const CHECK_MASS_FRACTIONS: [f64; 10] = [0.02, 0.05, 0.1, 0.2, 0.4, 0.6, 0.8, 0.9, 0.95, 0.99];
-
-fn build_wd_grid(
-    grid: &TheoryGrid,
-    ev: &PointEvaluator,
-    u_nodes: &[usize],
-    t_nodes: &[usize],
-    pb: &indicatif::ProgressBar,
-) -> (WdGrid, Option<InterpolationCheck>) {
-    let (upsilon, tau) = (grid.upsilon, grid.tau);
-    let n_u = upsilon.count;
-    let gradient = t_nodes.is_empty();
-    let rows: Vec<usize> = if gradient { vec![0] } else { t_nodes.to_vec() };
-    let pairs: Vec<(usize, usize)> = (0..rows.len())
-        .flat_map(|pt| (0..u_nodes.len()).map(move |pu| (pt, pu)))
-        .collect();
-    let opts = grid.settings.wd_table_options();
-    let node_tables: Vec<Outcome<WdMassRadius>> = pairs
-        .par_iter()
-        .map(|&(pt, pu)| {
-            let u = grid_value(&upsilon, u_nodes[pu]);
-            let r = if gradient {
-                WdMassRadius::new(u, 0.0, Anisotropy::Gradient, &opts)
-            } else {
-                WdMassRadius::new(
-                    u,
-                    grid_value(&tau, rows[pt]),
-                    grid.settings.anisotropy,
-                    &opts,
-                )
-            };
-            pb.inc(1);
-            r.into()
-        })
-        .collect();
-    let mut wd = WdGrid {
-        upsilon_nodes: u_nodes.to_vec(),
-        tau_nodes: t_nodes.to_vec(),
-        node_tables,
-        exact_tables: BTreeMap::new(),
-        node_values: std::sync::OnceLock::new(),
-    };
-    // Points whose interpolated table is unavailable get an exact one.
-    let range = grid.first_index..grid.first_index + grid.points.len();
-    let missing: Vec<usize> = range
-        .clone()
-        .into_par_iter()
-        .filter(|&i| {
-            grid.points[i - range.start].lane_emden_n3.is_ok()
-                && interpolated_wd_arrays(grid, &wd, i).is_none()
-        })
-        .collect();
-    let exact: Vec<(usize, Outcome<WdMassRadius>)> = missing
-        .par_iter()
-        .map(|&i| {
-            let p = &grid.points[i - range.start];
-            (i, ev.wd_table(p.upsilon, p.tau).into())
-        })
-        .collect();
-    wd.exact_tables = exact.into_iter().collect();
-    // Measured error at cell centres.
-    let t_for_samples = if gradient {
-        axis_nodes(tau.count, grid.settings.numerics.wd_grid_stride)
-    } else {
-        t_nodes.to_vec()
-    };
-    let samples = cell_centres(u_nodes, &t_for_samples, &range, n_u, 4);
-    let results: Vec<(f64, usize)> = samples
-        .par_iter()
-        .filter_map(|&i| {
-            if wd.exact_tables.contains_key(&i) {
-                return None;
-            }
-            let p = &grid.points[i - range.start];
-            let interp = interpolate_wd(grid, &wd, i)?;
-            let exact = ev.wd_table(p.upsilon, p.tau).ok()?;
-            let mu_e = 2.0;
-            let m_ch = exact.max_mass_msun(mu_e);
-            let mut worst: f64 = 0.0;
-            for f in CHECK_MASS_FRACTIONS {
-                let (a, b) = (
-                    interp.radius_rsun(f * m_ch, mu_e).ok()?,
-                    exact.radius_rsun(f * m_ch, mu_e).ok()?,
-                );
-                worst = worst.max((a / b - 1.0).abs());
-            }
-            Some((worst, i))
-        })
-        .collect();
-    let interpolated_somewhere = u_nodes.len() < n_u || (!gradient && t_nodes.len() < tau.count);
-    let check = interpolated_somewhere
-        .then(|| summarise("white-dwarf radius R(M)", &results, &upsilon, &tau, n_u));
-    (wd, check)
-}
-
-/// The interpolated (mass, radius) arrays of the white-dwarf table at fine index `i` and its
-/// m_Ch, if every stencil node has a model and the result is a valid table (finite, positive,
-/// m strictly increasing and below m_Ch).
-fn interpolated_wd_arrays(
-    grid: &TheoryGrid,
-    wd: &WdGrid,
-    i: usize,
-) -> Option<(Vec<f64>, Vec<f64>, f64)> {
-    let n_u = grid.upsilon.count;
-    let (iu, it) = (i % n_u, i / n_u);
-    let p = grid.point(i)?;
-    let omega3 = p.lane_emden_n3.ok()?.omega;
-    let gradient = wd.tau_nodes.is_empty();
-    let values = wd.node_values();
-    let nx = values.iter().flatten().next()?.len() / 2;
-    let rows = if gradient { 1 } else { wd.tau_nodes.len() };
-    let n_un = wd.upsilon_nodes.len();
-    let get = |pt: usize, pu: usize| -> Option<&[f64]> {
-        if pt >= rows {
-            return None;
-        }
-        values
-            .get(pt * n_un + pu)?
-            .as_deref()
-            .filter(|v| v.len() == 2 * nx)
-    };
-    let one_row = Axis {
-        start: 0.0,
-        stop: 0.0,
-        count: 1,
-    };
-    let v = if gradient {
-        interpolate_2d(get, &grid.upsilon, &one_row, &wd.upsilon_nodes, &[0], iu, 0)?
-    } else {
-        interpolate_2d(
-            get,
-            &grid.upsilon,
-            &grid.tau,
-            &wd.upsilon_nodes,
-            &wd.tau_nodes,
-            iu,
-            it,
-        )?
-    };
-    // ω₃ of the point itself is the exact m_Ch (for the gradient ansatz already rescaled).
-    let mass: Vec<f64> = v[..nx]
-        .iter()
-        .map(|z| omega3 / (1.0 + (-z).exp()))
-        .collect();
-    let mut radius: Vec<f64> = v[nx..].iter().map(|x| x.exp()).collect();
-    if gradient {
-        let s = 1.0 - p.tau;
-        if s.is_nan() || s <= 0.0 {
-            return None;
-        }
-        radius.iter_mut().for_each(|r| *r /= s.sqrt());
-    }
-    let valid = mass
-        .iter()
-        .chain(&radius)
-        .all(|x| x.is_finite() && *x > 0.0)
-        && mass.windows(2).all(|w| w[1] > w[0])
-        && mass.last().is_some_and(|m| *m < omega3);
-    valid.then_some((mass, radius, omega3))
-}
-
-/// The interpolated white-dwarf table at fine index `i` (see [`interpolated_wd_arrays`]).
-fn interpolate_wd(grid: &TheoryGrid, wd: &WdGrid, i: usize) -> Option<WdMassRadius> {
-    let (mass, radius, omega3) = interpolated_wd_arrays(grid, wd, i)?;
-    let p = grid.point(i)?;
-    let log10_xc = wd.node_tables.iter().find_map(|t| t.ok())?.log10_xc();
-    // The table type validates its parts only on deserialisation (its fields are private), so
-    // the interpolated table goes through that validated path.
-    let parts = WdTableParts {
-        upsilon: p.upsilon,
-        tau: p.tau,
-        anisotropy: grid.settings.anisotropy,
-        log10_xc,
-        mass_dimless: &mass,
-        radius_dimless: &radius,
-        mass_ch_dimless: omega3,
-    };
-    serde_json::to_value(parts)
-        .ok()
-        .and_then(|v| serde_json::from_value::<WdMassRadius>(v).ok())
-}
-
-/// The serialised form of a white-dwarf table (the field names of [`WdMassRadius`]).
-#[derive(Serialize)]
-struct WdTableParts<'a> {
-    upsilon: f64,
-    tau: f64,
-    anisotropy: Anisotropy,
-    log10_xc: &'a [f64],
-    mass_dimless: &'a [f64],
-    radius_dimless: &'a [f64],
-    mass_ch_dimless: f64,
-}
-
 impl TheoryGrid {
+    /// The parts the white-dwarf tables depend on.
+    fn parts(&self) -> GridPoints<'_> {
+        GridPoints {
+            upsilon: self.upsilon,
+            tau: self.tau,
+            settings: &self.settings,
+            first_index: self.first_index,
+            points: &self.points,
+        }
+    }
+
+    /// What this grid was computed for (see [`GridIdentity`]), from its own fields.
+    pub fn identity(&self) -> GridIdentity {
+        GridIdentity {
+            grid_format: self.format.clone(),
+            theory: self.settings.identity(),
+            upsilon: self.upsilon,
+            tau: self.tau,
+            shard: self.shard,
+            wd_tables: self.white_dwarfs.is_some(),
+        }
+    }
+
     /// Row-major index of (i_Υ, i_τ): i_τ · n_Υ + i_Υ.
     pub fn index(&self, i_upsilon: usize, i_tau: usize) -> usize {
         i_tau * self.upsilon.count + i_upsilon
@@ -990,7 +567,7 @@ impl TheoryGrid {
         if let Some(t) = wd.exact_tables.get(&index) {
             return Some(t.clone());
         }
-        Some(match interpolate_wd(self, wd, index) {
+        Some(match interpolate_wd(&self.parts(), wd, index) {
             Some(t) => Outcome::Ok(t),
             None => Outcome::Failed(Failure {
                 code: "internal".into(),
@@ -1099,85 +676,6 @@ impl TheoryGrid {
         Ok(out)
     }
 
-    /// The grid as `bounds.csv` text: one row per point (row-major), every scalar bound in
-    /// round-trip form, empty where there is no value, with `status` (`ok`, `partial` or
-    /// `no-model`) and `reason` (the failures, `bound: code: reason`, joined by ` | `); the SC
-    /// fraction has its own `sc_reason` (it is refused at every τ ≠ 0).
-    pub fn bounds_csv(&self) -> Result<String, GridError> {
-        let mut w = csv::WriterBuilder::new().from_writer(Vec::new());
-        let err = |e: csv::Error| GridError::Format(e.to_string());
-        w.write_record(BOUNDS_CSV_COLUMNS).map_err(err)?;
-        for p in &self.points {
-            let le15 = p.lane_emden_n15.ok();
-            let le3 = p.lane_emden_n3.ok();
-            let m = p.mmhb.ok();
-            let c = p.chandrasekhar.ok();
-            let b = p.breakup.ok();
-            let named = [
-                ("lane_emden_n1.5", p.lane_emden_n15.failure()),
-                ("lane_emden_n3", p.lane_emden_n3.failure()),
-                ("mmhb", p.mmhb.failure()),
-                ("chandrasekhar", p.chandrasekhar.failure()),
-                ("breakup", p.breakup.failure()),
-            ];
-            // Failures with the same reason are listed once, after the bounds they concern.
-            let mut grouped: Vec<(Vec<&str>, &Failure)> = Vec::new();
-            for (name, f) in named.iter().filter_map(|(n, f)| f.map(|f| (*n, f))) {
-                match grouped.iter_mut().find(|(_, g)| *g == f) {
-                    Some((names, _)) => names.push(name),
-                    None => grouped.push((vec![name], f)),
-                }
-            }
-            let failed = grouped.iter().map(|(n, _)| n.len()).sum::<usize>();
-            let status = if failed == 0 {
-                "ok"
-            } else if failed == named.len() {
-                "no-model"
-            } else {
-                "partial"
-            };
-            let failures: Vec<String> = grouped
-                .iter()
-                .map(|(names, f)| format!("{}: {f}", names.join(", ")))
-                .collect();
-            let f = |x: Option<f64>| fmt_f64(x);
-            let row = vec![
-                f(Some(p.upsilon)),
-                f(Some(p.tau)),
-                self.settings.anisotropy.name().to_string(),
-                status.to_string(),
-                failures.join(" | "),
-                f(m.map(|m| m.value_msun)),
-                f(m.map(|m| m.raw_msun)),
-                f(m.map(|m| m.floor_msun)),
-                f(m.map(|m| m.phi)),
-                f(c.map(|c| c.value_msun)),
-                f(c.map(|c| c.newtonian_mu_e2_msun)),
-                f(c.map(|c| c.omega3_ratio)),
-                f(c.map(|c| c.floor_msun)),
-                f(le15.map(|l| l.xi1)),
-                f(le15.map(|l| l.omega)),
-                f(le15.and_then(|l| l.j_k)),
-                f(le3.map(|l| l.xi1)),
-                f(le3.map(|l| l.omega)),
-                f(p.sc.ok().map(|s| s.q_sc)),
-                p.sc.failure().map(|f| f.to_string()).unwrap_or_default(),
-                f(b.map(|b| b.period_h)),
-                f(b.map(|b| b.radius_rjup())),
-                p.warnings
-                    .iter()
-                    .map(|w| w.code())
-                    .collect::<Vec<_>>()
-                    .join(" "),
-            ];
-            w.write_record(&row).map_err(err)?;
-        }
-        let bytes = w
-            .into_inner()
-            .map_err(|e| GridError::Format(e.to_string()))?;
-        String::from_utf8(bytes).map_err(|e| GridError::Format(e.to_string()))
-    }
-
     /// The bound curves against Υ for the τ rows `tau_rows` (fine indices): for each row,
     /// (τ, MMHB values, Chandrasekhar values, break-up periods in minutes), `None` where there is
     /// no model. For plotting; the values are those of the points.
@@ -1246,65 +744,4 @@ pub struct BoundCurves {
     pub chandrasekhar_msun: Vec<Option<f64>>,
     /// Break-up period of the reference object, minutes.
     pub breakup_period_min: Vec<Option<f64>>,
-}
-
-/// Columns of `bounds.csv`, in order.
-pub const BOUNDS_CSV_COLUMNS: [&str; 23] = [
-    "upsilon",
-    "tau",
-    "anisotropy",
-    "status",
-    "reason",
-    "mmhb_msun",
-    "mmhb_raw_msun",
-    "mmhb_floor_msun",
-    "mmhb_phi",
-    "chandrasekhar_msun",
-    "chandrasekhar_newtonian_mu_e2_msun",
-    "chandrasekhar_omega3_ratio",
-    "chandrasekhar_floor_msun",
-    "xi1_n1.5",
-    "omega_n1.5",
-    "j_k_n1.5",
-    "xi1_n3",
-    "omega_n3",
-    "sc_fraction",
-    "sc_reason",
-    "breakup_period_min_h",
-    "breakup_radius_rjup",
-    "warnings",
-];
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn shard_ranges_tile() {
-        let total = 103;
-        let mut next = 0;
-        for i in 1..=7 {
-            let r = Shard { index: i, count: 7 }.range(total);
-            assert_eq!(r.start, next);
-            next = r.end;
-        }
-        assert_eq!(next, total);
-        assert!(Shard::parse("0/3").is_err());
-        assert!(Shard::parse("4/3").is_err());
-        assert_eq!(Shard::parse("2/3").unwrap(), Shard { index: 2, count: 3 });
-    }
-
-    #[test]
-    fn stencils_and_weights() {
-        let nodes = axis_nodes(21, 8); // 0, 8, 16, 20
-        assert_eq!(nodes, vec![0, 8, 16, 20]);
-        assert_eq!(stencil(&nodes, 8), vec![1]);
-        assert_eq!(stencil(&nodes, 3), vec![0, 1, 2, 3]);
-        // Lagrange weights reproduce a cubic exactly.
-        let xs = [0.0, 1.0, 2.5, 4.0];
-        let w = lagrange_weights(&xs, 1.7);
-        let f = |x: f64| 2.0 - x + 0.5 * x * x - 0.1 * x * x * x;
-        let s: f64 = xs.iter().zip(&w).map(|(x, w)| w * f(*x)).sum();
-        assert!((s - f(1.7)).abs() < 1e-13);
-    }
 }

@@ -7,13 +7,20 @@
 
 pub mod error;
 pub mod grid;
+pub mod hot_wd;
+pub mod interpolate;
 pub mod lane_emden;
 pub mod mmhb;
 pub mod ode;
+pub mod outcome;
 pub mod point;
 mod roots;
 pub mod rotation;
 pub mod schonberg;
+pub mod settings;
+pub mod shard;
+pub mod slow_rotation;
+pub mod wd_grid;
 pub mod white_dwarf;
 
 use serde::{Deserialize, Serialize};
@@ -73,5 +80,18 @@ impl Axis {
     /// All values in order.
     pub fn values(&self) -> Vec<f64> {
         (0..self.count).map(|i| self.value(i)).collect()
+    }
+}
+
+/// The i-th value of a grid axis: [`Axis::value`], except that a value within a few rounding
+/// errors of zero is exactly 0 (so that `-0.9:0.3:5` has the standard-gravity point Υ = 0, not
+/// −1.1e-16, and a τ = 0 row is recognised). Every point of a grid carries this value.
+pub fn grid_value(axis: &Axis, i: usize) -> f64 {
+    let v = axis.value(i);
+    let span = axis.start.abs().max(axis.stop.abs());
+    if v.abs() <= 8.0 * f64::EPSILON * span {
+        0.0
+    } else {
+        v
     }
 }

@@ -86,3 +86,56 @@ pub fn breakup_period_h(
 ) -> Result<f64, TheoryError> {
     Ok(breakup_period_s(mass_msun, radius_rsun, model)? / 3600.0)
 }
+
+/// One point of a minimum-period curve.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct BreakupCurvePoint {
+    /// Mass, M☉.
+    pub mass_msun: f64,
+    /// Non-rotating radius R(M) of the structure (the polar radius in the Roche model), R☉.
+    pub radius_rsun: f64,
+    /// Equatorial radius at shedding, κ^{2/3} R (exactly 3/2 R in the Roche model), R☉: the
+    /// radius whose Keplerian period is the break-up period, P = 2π√(R_eq³/GM).
+    pub equatorial_radius_rsun: f64,
+    /// Break-up (minimum) period, s.
+    pub period_s: f64,
+}
+
+/// The minimum spin period P_break(M) over `masses_msun` for the cold, fully degenerate
+/// structure of `table` (built at one grid point (Υ, τ, ansatz)) with electron molecular weight
+/// `mu_e`: μ_e = 2 for white dwarfs, 2/(1 + X) for the cold hydrogen-rich floor of brown dwarfs
+/// and very-low-mass stars (the project's theory check values use X = 0.75). Υ and τ enter only through
+/// R(M); the exterior gravity and the break-up condition are standard (the exterior is screened). Each mass gets its
+/// own result: a mass at or above the Chandrasekhar mass is a typed error, never NaN.
+///
+/// ```
+/// use dwarfbound::theory::rotation::{breakup_curve, BreakupModel};
+/// use dwarfbound::theory::white_dwarf::{WdMassRadius, WdTableOptions};
+/// use dwarfbound::theory::Anisotropy;
+///
+/// let table = WdMassRadius::new(0.0, 0.0, Anisotropy::None, &WdTableOptions::default()).unwrap();
+/// let curve = breakup_curve(&table, 8.0 / 7.0, &[0.08, 5.0], BreakupModel::Roche);
+/// // The cold 0.08 M☉ object of the theory check values: 22.3 min; 5 M☉ is above M_Ch.
+/// assert!((curve[0].as_ref().unwrap().period_s / 60.0 - 22.3).abs() < 0.05);
+/// assert!(curve[1].is_err());
+/// ```
+pub fn breakup_curve(
+    table: &crate::theory::white_dwarf::WdMassRadius,
+    mu_e: f64,
+    masses_msun: &[f64],
+    model: BreakupModel,
+) -> Vec<Result<BreakupCurvePoint, TheoryError>> {
+    masses_msun
+        .iter()
+        .map(|&m| {
+            let radius_rsun = table.radius_rsun(m, mu_e)?;
+            let period_s = breakup_period_s(m, radius_rsun, model)?;
+            Ok(BreakupCurvePoint {
+                mass_msun: m,
+                radius_rsun,
+                equatorial_radius_rsun: model.kappa().powf(2.0 / 3.0) * radius_rsun,
+                period_s,
+            })
+        })
+        .collect()
+}

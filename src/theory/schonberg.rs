@@ -1,20 +1,30 @@
 //! Schönberg–Chandrasekhar (SC) fraction: the largest fraction of a star's mass that an
-//! isothermal core can hold under a lighter envelope, and how Υ shifts it (`theory/bounds.md` §7).
+//! isothermal core can hold under a lighter envelope, and how Υ and τ shift it.
 //!
 //! The classic value q_SC ≈ 0.37 λ², λ = μ_env/μ_core (Schönberg & Chandrasekhar 1942, ApJ 96,
 //! 161), came from radiative-envelope models this module does not rebuild. Instead an isothermal
-//! core (Υ-modified) is fitted to an n_env = 3 polytropic envelope (the modified Lane–Emden
-//! system started at the interface) and the fit supplies only the ratio q_fit(λ,Υ)/q_fit(λ,0);
-//! the tool reports q_SC(Υ) = 0.37 λ² × that ratio. With Υ ≠ 0 the density jump at the core
-//! edge turns ρ·d²M/dr² into a δ-function, so the pressure itself is discontinuous there and
-//! P̃ = P + (πGΥ/2) r² ρ² is what must match. Anisotropy (τ ≠ 0) is refused: no anisotropic
-//! isothermal core was specified.
+//! core is fitted to an n_env = 3 polytropic envelope (the modified Lane–Emden system started at
+//! the interface) and the fit supplies only the ratio q_fit(λ,Υ,τ)/q_fit(λ,0,0); the tool
+//! reports q_SC = 0.37 λ² × that ratio. With Υ ≠ 0 the density jump at the core edge turns
+//! ρ·d²M/dr² into a δ-function, so the pressure itself is discontinuous there and
+//! P̃ = P + (πGΥ/2) r² ρ² is what must match.
+//!
+//! Anisotropy enters the core exactly as it enters the Lane–Emden system (its n → ∞ limit, with
+//! the same (p, c, κ) coefficients): φ′[1 + κ(Υ/4)ζ²e^{−φ}] = p[m/ζ² + cζe^{−φ}]. For the
+//! density-squared ansatz σ is finite at the jump and the interface condition is unchanged; for
+//! the gradient ansatz G → (1 − τ)G everywhere inside matter, jump included, so the
+//! dimensionless fraction does not depend on τ at all (an exact identity the tests check).
+//! The derivation is in `docs/schonberg-tau.md`.
 //!
 //! ```
-//! use dwarfbound::theory::schonberg::{sc_fraction, ScParams, ScVariant};
+//! use dwarfbound::theory::schonberg::{sc_fraction, sc_fraction_with, ScParams, ScVariant};
+//! use dwarfbound::theory::Anisotropy;
 //! let q = sc_fraction(0.0, 0.0, &ScParams::default(), ScVariant::FullFit).unwrap();
 //! assert!((q.q_sc - 0.37 * (0.62_f64 / 1.33).powi(2)).abs() < 1e-12);
-//! assert!(sc_fraction(0.0, 0.1, &ScParams::default(), ScVariant::FullFit).is_err());
+//! // The gradient ansatz only rescales G: the fraction is the τ = 0 one.
+//! let p = ScParams::default();
+//! let g = sc_fraction_with(0.0, 0.1, Anisotropy::Gradient, &p, ScVariant::CoreFactorOnly);
+//! assert!((g.unwrap().ratio - 1.0).abs() < 1e-10);
 //! ```
 
 use super::lane_emden::ModifiedLaneEmden;
@@ -56,59 +66,89 @@ pub enum InterfaceCondition {
     ContinuousPressure,
 }
 
-fn validate_upsilon(upsilon: f64) -> Result<(), BoundError> {
-    if !upsilon.is_finite() {
-        return Err(invalid(format!("Upsilon = {upsilon} must be finite")));
-    }
-    if 1.0 + 1.5 * upsilon <= 0.0 {
-        return Err(invalid(format!(
-            "Upsilon = {upsilon} is at or below -2/3: no regular centre (structure.md §1.4)"
-        )));
-    }
-    Ok(())
+/// The structure of the core at one (Υ, τ, ansatz): the (p, c, κ) coefficients of the
+/// modified Lane–Emden system, reused for the isothermal core (its n → ∞ limit).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Core {
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+    p: f64,
+    c: f64,
+    kappa: f64,
 }
 
-/// Right-hand side of the modified isothermal core, y = (φ, m):
-/// φ′[1 + (Υ/4)ζ²e^{−φ}] = m/ζ² + (Υ/2)ζe^{−φ}, m′ = ζ²e^{−φ} (`bounds.md` §7.2).
-fn core_rhs(upsilon: f64, zeta: f64, y: &[f64; 2]) -> Result<[f64; 2], String> {
-    let w = (-y[0]).exp();
-    let d = 1.0 + 0.25 * upsilon * zeta * zeta * w;
-    if d <= D_MIN {
-        return Err(format!(
-            "core denominator 1 + (Upsilon/4) zeta^2 e^-phi = {d} vanishes at zeta = {zeta}"
-        ));
+impl Core {
+    /// Validates (Υ, τ, ansatz) through the Lane–Emden system of index `n_env` (regular centre,
+    /// τ < 1 for the gradient ansatz, τ = 0 without an ansatz) and takes its coefficients.
+    fn new(upsilon: f64, tau: f64, anisotropy: Anisotropy, n_env: f64) -> Result<Self, BoundError> {
+        if !upsilon.is_finite() {
+            return Err(invalid(format!("Upsilon = {upsilon} must be finite")));
+        }
+        if !tau.is_finite() {
+            return Err(invalid(format!("tau = {tau} must be finite")));
+        }
+        let le = ModifiedLaneEmden::new(n_env, upsilon, tau, anisotropy)?;
+        let (p, c, kappa) = le.coefficients();
+        Ok(Core {
+            upsilon,
+            tau,
+            anisotropy,
+            p,
+            c,
+            kappa,
+        })
     }
-    Ok([
-        (y[1] / (zeta * zeta) + 0.5 * upsilon * zeta * w) / d,
-        zeta * zeta * w,
-    ])
-}
 
-/// Central series of the core at ζ₀: φ = Aζ², m = ζ³/3 − Aζ⁵/5, A = (1 + 3Υ/2)/6.
-fn core_start(upsilon: f64) -> [f64; 2] {
-    let a = (1.0 + 1.5 * upsilon) / 6.0;
-    let z = ZETA0;
-    [a * z * z, z.powi(3) / 3.0 - a * z.powi(5) / 5.0]
-}
-
-/// (φ, m) of the modified isothermal core at ζ.
-fn core_at(upsilon: f64, zeta: f64) -> Result<[f64; 2], BoundError> {
-    if !(zeta.is_finite() && zeta > ZETA0) {
-        return Err(invalid(format!(
-            "core radius zeta = {zeta} must exceed {ZETA0}"
-        )));
+    /// The isotropic core at Υ (τ = 0).
+    fn isotropic(upsilon: f64) -> Result<Self, BoundError> {
+        Core::new(upsilon, 0.0, Anisotropy::None, 3.0)
     }
-    let opts = OdeOptions::new(RTOL, 1e-15, ZETA0);
-    let sol = solve(
-        |z, y: &[f64; 2]| core_rhs(upsilon, z, y),
-        ZETA0,
-        core_start(upsilon),
-        zeta,
-        &opts,
-        None,
-    )
-    .map_err(|e| ode_failure("isothermal core", e))?;
-    Ok(sol.y)
+
+    /// Right-hand side, y = (φ, m): φ′[1 + κ(Υ/4)ζ²e^{−φ}] = p[m/ζ² + cζe^{−φ}], m′ = ζ²e^{−φ}.
+    /// For τ = 0 (p = κ = 1, c = Υ/2) every operation rounds exactly as the isotropic form
+    /// (m/ζ² + (Υ/2)ζe^{−φ})/(1 + (Υ/4)ζ²e^{−φ}) did before anisotropy was added.
+    fn rhs(&self, zeta: f64, y: &[f64; 2]) -> Result<[f64; 2], String> {
+        let w = (-y[0]).exp();
+        let d = 1.0 + self.kappa * 0.25 * self.upsilon * zeta * zeta * w;
+        if d <= D_MIN {
+            return Err(format!(
+                "core denominator 1 + kappa (Upsilon/4) zeta^2 e^-phi = {d} vanishes at zeta = {zeta}"
+            ));
+        }
+        Ok([
+            self.p * (y[1] / (zeta * zeta) + self.c * zeta * w) / d,
+            zeta * zeta * w,
+        ])
+    }
+
+    /// Central series at ζ₀: φ = Aζ², m = ζ³/3 − Aζ⁵/5, A = p(1 + 3c)/6 (the Lane–Emden
+    /// central coefficient; (1 + 3Υ/2 − τ)/6 for the density-squared ansatz).
+    fn start(&self) -> [f64; 2] {
+        let a = self.p * (1.0 + 3.0 * self.c) / 6.0;
+        let z = ZETA0;
+        [a * z * z, z.powi(3) / 3.0 - a * z.powi(5) / 5.0]
+    }
+
+    /// (φ, m) at ζ.
+    fn at(&self, zeta: f64) -> Result<[f64; 2], BoundError> {
+        if !(zeta.is_finite() && zeta > ZETA0) {
+            return Err(invalid(format!(
+                "core radius zeta = {zeta} must exceed {ZETA0}"
+            )));
+        }
+        let opts = OdeOptions::new(RTOL, 1e-15, ZETA0);
+        let sol = solve(
+            |z, y: &[f64; 2]| self.rhs(z, y),
+            ZETA0,
+            self.start(),
+            zeta,
+            &opts,
+            None,
+        )
+        .map_err(|e| ode_failure("isothermal core", e))?;
+        Ok(sol.y)
+    }
 }
 
 /// The Bonnor–Ebert point of the (modified) isothermal sphere.
@@ -125,16 +165,30 @@ pub struct BonnorEbert {
 /// The maximum is located as the first zero of d/dζ[e^{−φ}m²] ∝ 2ζ²e^{−φ} − φ′m, found as an
 /// integration event, so ζ is accurate to near machine precision rather than to √ε.
 pub fn bonnor_ebert(upsilon: f64) -> Result<BonnorEbert, BoundError> {
-    validate_upsilon(upsilon)?;
+    bonnor_ebert_of(&Core::isotropic(upsilon)?)
+}
+
+/// [`bonnor_ebert`] with anisotropy τ of the given ansatz in the core. For the gradient ansatz
+/// G → (1 − τ)G makes C_BE = P_s M_c² G³/c_s⁸ scale exactly as (1 − τ)^{−3} in true-G units.
+pub fn bonnor_ebert_with(
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+) -> Result<BonnorEbert, BoundError> {
+    bonnor_ebert_of(&Core::new(upsilon, tau, anisotropy, 3.0)?)
+}
+
+fn bonnor_ebert_of(core: &Core) -> Result<BonnorEbert, BoundError> {
+    let upsilon = core.upsilon;
     let opts = OdeOptions::new(RTOL, 1e-15, ZETA0);
-    let mut g = |z: f64, y: &[f64; 2]| match core_rhs(upsilon, z, y) {
+    let mut g = |z: f64, y: &[f64; 2]| match core.rhs(z, y) {
         Ok(dy) => 2.0 * z * z * (-y[0]).exp() - dy[0] * y[1],
         Err(_) => -1.0,
     };
     let sol = solve(
-        |z, y: &[f64; 2]| core_rhs(upsilon, z, y),
+        |z, y: &[f64; 2]| core.rhs(z, y),
         ZETA0,
-        core_start(upsilon),
+        core.start(),
         1e3,
         &opts,
         Some(&mut g),
@@ -142,7 +196,10 @@ pub fn bonnor_ebert(upsilon: f64) -> Result<BonnorEbert, BoundError> {
     .map_err(|e| ode_failure("Bonnor-Ebert core", e))?;
     if sol.stop != Stop::Event {
         return Err(BoundError::NoConvergence {
-            reason: format!("no Bonnor-Ebert maximum found below zeta = 1e3 (Upsilon = {upsilon})"),
+            reason: format!(
+                "no Bonnor-Ebert maximum found below zeta = 1e3 (Upsilon = {upsilon}, tau = {})",
+                core.tau
+            ),
         });
     }
     let [phi, m] = sol.y;
@@ -155,18 +212,21 @@ pub fn bonnor_ebert(upsilon: f64) -> Result<BonnorEbert, BoundError> {
 /// The core mass fraction q = μ_f/μ₁ of the fit with the core cut at ζ_f (`bounds.md` §7.1 steps 1–4).
 fn q_at(
     lambda: f64,
-    upsilon: f64,
+    core: &Core,
     n_env: f64,
     interface: InterfaceCondition,
     zeta_f: f64,
 ) -> Result<f64, BoundError> {
-    let [phi, m] = core_at(upsilon, zeta_f)?;
+    let upsilon = core.upsilon;
+    let [phi, m] = core.at(zeta_f)?;
     let w_c = (-phi).exp();
     let w_e = match interface {
         InterfaceCondition::ContinuousPressure => lambda * w_c,
         InterfaceCondition::ContinuousPTilde => {
-            // w_c + A w_c² = w_e/λ + A w_e², A = (Υ/8)ζ_f²; the root continuous with Υ → 0.
-            let a = upsilon * zeta_f * zeta_f / 8.0;
+            // w_c + A w_c² = w_e/λ + A w_e², A = κ(Υ/8)ζ_f²; the root continuous with Υ → 0.
+            // κ = 1 − τ for the gradient ansatz (its G → (1 − τ)G reaches the δ-function too);
+            // the density-squared σ is finite at the jump and adds nothing there.
+            let a = core.kappa * upsilon * zeta_f * zeta_f / 8.0;
             let p_tilde = w_c + a * w_c * w_c;
             let disc = 1.0 / (lambda * lambda) + 4.0 * a * p_tilde;
             if disc < 0.0 {
@@ -188,9 +248,9 @@ fn q_at(
     let r_e = ((n_env + 1.0) * p_e).sqrt() / w_e;
     let xi_f = zeta_f / r_e;
     let mu_f = m / (r_e.powi(3) * w_e);
-    // The envelope obeys the modified Lane–Emden system of `bounds.md` §1 (τ = 0), started at
-    // the interface instead of the centre.
-    let envelope = ModifiedLaneEmden::new(n_env, upsilon, 0.0, Anisotropy::None)?;
+    // The envelope obeys the modified Lane–Emden system with the core's (Υ, τ, ansatz), started
+    // at the interface instead of the centre.
+    let envelope = ModifiedLaneEmden::new(n_env, upsilon, core.tau, core.anisotropy)?;
     let opts = OdeOptions::new(RTOL, 1e-15, 1e-3 * xi_f);
     let mut g = |_x: f64, y: &[f64; 2]| y[0];
     let sol = solve(
@@ -230,8 +290,7 @@ pub struct CoreEnvelopeFit {
     pub zeta_f: f64,
 }
 
-fn validate_fit_inputs(lambda: f64, upsilon: f64, n_env: f64) -> Result<(), BoundError> {
-    validate_upsilon(upsilon)?;
+fn validate_fit_inputs(lambda: f64, n_env: f64) -> Result<(), BoundError> {
     if !(lambda.is_finite() && lambda > 0.0 && lambda <= 1.0) {
         return Err(invalid(format!(
             "lambda = mu_env/mu_core = {lambda} must lie in (0, 1]"
@@ -254,8 +313,23 @@ pub fn core_envelope_fit(
     n_env: f64,
     interface: InterfaceCondition,
 ) -> Result<CoreEnvelopeFit, BoundError> {
-    validate_fit_inputs(lambda, upsilon, n_env)?;
-    let q = |z: f64| q_at(lambda, upsilon, n_env, interface, z);
+    core_envelope_fit_with(lambda, upsilon, 0.0, Anisotropy::None, n_env, interface)
+}
+
+/// [`core_envelope_fit`] with anisotropy τ of the given ansatz in core and envelope. Errors
+/// (typed, never NaN): no regular centre, τ ≥ 1 for the gradient ansatz, a vanishing
+/// denominator, or a maximum that is not inside the scanned core edges.
+pub fn core_envelope_fit_with(
+    lambda: f64,
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+    n_env: f64,
+    interface: InterfaceCondition,
+) -> Result<CoreEnvelopeFit, BoundError> {
+    validate_fit_inputs(lambda, n_env)?;
+    let core = Core::new(upsilon, tau, anisotropy, n_env)?;
+    let q = |z: f64| q_at(lambda, &core, n_env, interface, z);
     const SCAN: usize = 48;
     let (z_lo, z_hi) = (0.5_f64, 60.0_f64);
     let zs: Vec<f64> = (0..SCAN)
@@ -278,6 +352,14 @@ pub fn core_envelope_fit(
             reason: "no core edge gave a fit".into(),
         }));
     };
+    if i_best == 0 || i_best == SCAN - 1 {
+        return Err(BoundError::NoConvergence {
+            reason: format!(
+                "the core mass fraction has no maximum inside zeta_f in [{z_lo}, {z_hi}] \
+                 (Upsilon = {upsilon}, tau = {tau})"
+            ),
+        });
+    }
     let lo = zs[i_best.saturating_sub(1)];
     let hi = zs[(i_best + 1).min(SCAN - 1)];
     let failed = std::cell::Cell::new(None);
@@ -370,22 +452,34 @@ pub struct ScFraction {
     pub variant: ScVariant,
 }
 
-/// The Schönberg–Chandrasekhar fraction q_SC(Υ) = 0.37 λ² × [modified-gravity factor]
-/// (`bounds.md` §7.2). Refuses τ ≠ 0 with [`BoundError::NotSpecified`]: the fraction is not
-/// specified for anisotropy.
+/// The Schönberg–Chandrasekhar fraction q_SC(Υ, τ) = 0.37 λ² × [modified-gravity factor]
+/// with τ the strength of the density-squared ansatz (the project's
+/// default meaning of τ). See [`sc_fraction_with`] for another ansatz.
 pub fn sc_fraction(
     upsilon: f64,
     tau: f64,
     params: &ScParams,
     variant: ScVariant,
 ) -> Result<ScFraction, BoundError> {
-    if tau != 0.0 {
-        return Err(BoundError::NotSpecified {
-            reason: format!(
-                "Schönberg-Chandrasekhar fraction not specified for anisotropy (tau = {tau}): no anisotropic isothermal core was verified"
-            ),
-        });
-    }
+    sc_fraction_with(upsilon, tau, Anisotropy::DensitySquared, params, variant)
+}
+
+/// The Schönberg–Chandrasekhar fraction at (Υ, τ) for the given anisotropy ansatz: 0.37 λ² ×
+/// q_fit(λ,Υ,τ)/q_fit(λ,0,0) (full fit) or × √(C_BE(Υ,τ)/C_BE(0,0)) (core factor only).
+///
+/// For the gradient ansatz the whole problem is the τ = 0 one with G → (1 − τ)G; the mass
+/// fraction is dimensionless and so exactly independent of τ. The full fit is nevertheless
+/// solved with the anisotropy in place (true-G units), so that the identity checks the code
+/// path; the core factor is taken in the rescaled units ((1 − τ)³ C_BE), the ones in which the
+/// envelope's pressure–mass relation is the τ = 0 one. A typed error, never NaN, where no
+/// model exists (no regular centre, τ ≥ 1 for the gradient ansatz, no fit maximum).
+pub fn sc_fraction_with(
+    upsilon: f64,
+    tau: f64,
+    anisotropy: Anisotropy,
+    params: &ScParams,
+    variant: ScVariant,
+) -> Result<ScFraction, BoundError> {
     let lambda = params.lambda();
     if !(params.classic_coefficient.is_finite() && params.classic_coefficient > 0.0) {
         return Err(invalid(format!(
@@ -393,21 +487,33 @@ pub fn sc_fraction(
             params.classic_coefficient
         )));
     }
-    validate_fit_inputs(lambda, upsilon, params.n_env)?;
-    let ratio = if upsilon == 0.0 {
+    validate_fit_inputs(lambda, params.n_env)?;
+    // Validates (Υ, τ, ansatz) even where nothing is fitted below.
+    Core::new(upsilon, tau, anisotropy, params.n_env)?;
+    let ratio = if upsilon == 0.0 && tau == 0.0 {
         1.0
     } else {
         match variant {
             ScVariant::FullFit => {
                 let c = InterfaceCondition::ContinuousPTilde;
-                core_envelope_fit(lambda, upsilon, params.n_env, c)?.q
+                core_envelope_fit_with(lambda, upsilon, tau, anisotropy, params.n_env, c)?.q
                     / core_envelope_fit(lambda, 0.0, params.n_env, c)?.q
             }
             ScVariant::CoreFactorOnly => {
-                (bonnor_ebert(upsilon)?.c_be / bonnor_ebert(0.0)?.c_be).sqrt()
+                let c_be = bonnor_ebert_with(upsilon, tau, anisotropy)?.c_be;
+                let rescaled = match anisotropy {
+                    Anisotropy::Gradient => c_be * (1.0 - tau).powi(3),
+                    _ => c_be,
+                };
+                (rescaled / bonnor_ebert(0.0)?.c_be).sqrt()
             }
         }
     };
+    if !(ratio.is_finite() && ratio > 0.0) {
+        return Err(BoundError::NoConvergence {
+            reason: format!("SC factor {ratio} at Upsilon = {upsilon}, tau = {tau}"),
+        });
+    }
     Ok(ScFraction {
         q_sc: params.classic_coefficient * lambda * lambda * ratio,
         ratio,

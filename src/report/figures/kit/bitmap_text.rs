@@ -211,7 +211,7 @@ mod tests {
     use plotters::style::{FontDesc, FontFamily as PFamily, FontStyle as PStyle};
 
     fn metrics() -> FontMetrics<'static> {
-        FontMetrics::parse(super::super::plots::FONT_BYTES).expect("DejaVu Sans tables")
+        FontMetrics::parse(super::super::FONT_BYTES).expect("DejaVu Sans tables")
     }
 
     #[test]
@@ -228,15 +228,11 @@ mod tests {
         // Cross-check against an independent reader of the same font: plotters' text width
         // comes from ab_glyph (ttf-parser). Kerning aside, the summed advances must agree to
         // within the integer truncation of the width.
-        super::super::plots::ensure_font().unwrap();
+        super::super::ensure_font().unwrap();
         let m = metrics();
         let size = 40.0;
         let text = "Hmm 0.075 Υτ";
-        let font = FontDesc::new(
-            PFamily::Name(super::super::plots::FONT),
-            size,
-            PStyle::Normal,
-        );
+        let font = FontDesc::new(PFamily::Name(super::super::FONT), size, PStyle::Normal);
         let (w, _) = font.box_size(text).unwrap();
         let ours: f64 = text
             .chars()

@@ -1,0 +1,209 @@
+//! The one-parameter view at τ = 0: the joint likelihood along Υ on a 10× finer axis, from
+//! which the Υ interval is read and on which the drivers are found.
+//!
+//! The mass classes depend on a grid point only through their bound, which is smooth in Υ, so
+//! each bound is interpolated along the coarse τ = 0 row (not-a-knot cubic) and the class curve
+//! is evaluated on the fine axis. The white-dwarf radius term is sharply curved in Υ, so the
+//! predicted radii are interpolated instead and the likelihood is evaluated exactly at each fine
+//! point. The paper's statistics section defines the interval; this module only builds the
+//! slice it is read from.
+//!
+//! ```
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+//! use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
+//! use dwarfbound::confront::slice::{tau0_slice, SLICE_REFINE};
+//! use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
+//! struct Tilted;
+//! impl BoundSurface for Tilted {
+//!     fn upsilon(&self) -> &[f64] { &[-0.2, -0.1, 0.0, 0.1, 0.2] }
+//!     fn tau(&self) -> &[f64] { &[0.0] }
+//!     fn mmhb_msun(&self, i: usize) -> Option<f64> { Some(0.075 * (1.0 + self.upsilon()[i])) }
+//!     fn chandrasekhar_mu2_msun(&self, _i: usize) -> Option<f64> { Some(1.4563) }
+//!     fn wd_radii_rsun(&self, _i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> { vec![None; q.len()] }
+//!     fn wd_standard_radii(&self, q: &[WdQuery]) -> Vec<Option<WdStandard>> { vec![None; q.len()] }
+//! }
+//! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.076,
+//!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
+//!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
+//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
+//!     reference: None, source_file: "a.csv".into(), source_row: 1 };
+//! let objects = [star];
+//! let opts = EngineOptions::default();
+//! let conf = confront(&objects, &Tilted, &opts).unwrap();
+//! let s = tau0_slice(&conf, &Tilted).unwrap().unwrap();
+//! assert_eq!(s.slice.upsilon_fine.len(), 4 * SLICE_REFINE + 1);
+//! ```
+
+use super::engine::{BoundSurface, Confrontation, Term};
+use super::prob::StatsError;
+use super::reduce::{CubicSpline, SplineEnd};
+use super::regions::{self, UpsilonSlice};
+
+/// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis (the
+/// paper's statistics section: 10).
+pub const SLICE_REFINE: usize = 10;
+
+/// The τ = 0 slice of the joint likelihood on the fine Υ axis, with what the driver analysis
+/// needs to take one object out of it.
+#[derive(Debug, Clone)]
+pub struct SliceResult {
+    /// The slice and its intervals.
+    pub slice: UpsilonSlice,
+    /// Per mass term (in the order of the confrontation's curves): its bound along the fine
+    /// axis, M☉ (class value, μe = 2 for white dwarfs).
+    pub bounds_fine: Vec<(Term, Vec<f64>)>,
+    /// Per white dwarf with a radius term: (object index, its −2 ln L along the fine axis).
+    pub radius_fine: Vec<(usize, Vec<f64>)>,
+}
+
+/// The τ = 0 slice of `conf` (computed on `surface`), or `None` when the grid
+/// has no τ = 0 row or fewer than two Υ values with a model on it.
+///
+/// The slice uses the contiguous run of Υ values with a model on the τ = 0 row that holds the
+/// most points: failures sit at the low-Υ existence bound, and a spline must not cross them.
+pub fn tau0_slice(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+) -> Result<Option<SliceResult>, StatsError> {
+    let nu = conf.n_upsilon;
+    let Some(j0) = surface.tau().iter().position(|&t| t == 0.0) else {
+        return Ok(None);
+    };
+    let ok: Vec<bool> = (0..nu).map(|i| conf.joint[j0 * nu + i].is_some()).collect();
+    let (mut best, mut start) = ((0, 0), None);
+    for (i, ok_i) in ok.iter().copied().chain(std::iter::once(false)).enumerate() {
+        match (ok_i, start) {
+            (true, None) => start = Some(i),
+            (false, Some(s)) => {
+                if i - s > best.1 - best.0 {
+                    best = (s, i);
+                }
+                start = None;
+            }
+            _ => {}
+        }
+    }
+    let (a, b) = best;
+    if b - a < 2 {
+        return Ok(None);
+    }
+    let axis: Vec<f64> = surface.upsilon()[a..b].to_vec();
+    let idx = |i: usize| j0 * nu + i;
+    let mut splines: Vec<(Term, CubicSpline)> = Vec::new();
+    for (term, _) in &conf.curves {
+        let ys: Vec<f64> = (a..b)
+            .map(|i| {
+                let i = idx(i);
+                match term {
+                    Term::WhiteDwarfMass => surface.chandrasekhar_mu2_msun(i),
+                    _ => surface.mmhb_msun(i),
+                }
+                .unwrap_or(f64::NAN)
+            })
+            .collect();
+        splines.push((*term, CubicSpline::new(&axis, &ys, SplineEnd::NotAKnot)?));
+    }
+    let fine = regions::refine_axis(&axis, SLICE_REFINE)?;
+    let row = Row {
+        axis: &axis,
+        first: a,
+        j0,
+    };
+    let radius_fine = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
+    let chi2_fine: Vec<f64> = fine
+        .iter()
+        .enumerate()
+        .map(|(k, &u)| {
+            let mut s = 0.0;
+            for ((_, curve), (_, spline)) in conf.curves.iter().zip(&splines) {
+                s += -2.0 * curve.eval(spline.eval(u));
+            }
+            if let Some(pop) = &conf.population {
+                let mmhb_spline = splines
+                    .iter()
+                    .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf));
+                if let Some((_, sp)) = mmhb_spline {
+                    s += -2.0 * pop.ln_term(sp.eval(u));
+                }
+            }
+            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
+        })
+        .collect();
+    let slice = regions::slice_from_values(fine, chi2_fine)?;
+    let bounds_fine = splines
+        .iter()
+        .map(|(t, s)| (*t, slice.upsilon_fine.iter().map(|&u| s.eval(u)).collect()))
+        .collect();
+    Ok(Some(SliceResult {
+        slice,
+        bounds_fine,
+        radius_fine,
+    }))
+}
+
+/// The part of the τ = 0 row the slice uses: its Υ values, the index of the first of them on
+/// the Υ axis, and the row's τ index.
+struct Row<'a> {
+    axis: &'a [f64],
+    first: usize,
+    j0: usize,
+}
+
+/// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values).
+///
+/// The term is sharply curved in Υ (radii are measured to a few per cent), so interpolating it
+/// between coarse grid points would overstate Δχ² between them and make the interval depend on
+/// the grid spacing. The predicted radius R(M; Υ) is smooth in Υ, so it is interpolated instead
+/// (not-a-knot cubic along the coarse axis, per quadrature mass node) and the likelihood is
+/// evaluated exactly at every fine point. Where a node's radius is missing at a coarse point
+/// (mass above the maximum), the neighbouring interval falls back to linear interpolation or
+/// to "no model".
+fn radius_terms_on_fine_axis(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+    row: &Row<'_>,
+    fine: &[f64],
+) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
+    let nu = conf.n_upsilon;
+    let axis = row.axis;
+    let mut out = Vec::new();
+    for r in &conf.radius_objects {
+        let mu_e = conf.uses[r.index].mu_e;
+        let queries: Vec<(f64, f64)> = r.nodes.iter().map(|&(m, _)| (m, mu_e)).collect();
+        // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
+        let coarse: Vec<Vec<Option<f64>>> = (0..axis.len())
+            .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &queries))
+            .collect();
+        let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
+        for q in 0..queries.len() {
+            let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
+            let spline = if ys.iter().all(Option::is_some) {
+                let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
+                Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
+            } else {
+                None
+            };
+            for (k, &x) in fine.iter().enumerate() {
+                fine_radii[k][q] = match &spline {
+                    Some(sp) => Some(sp.eval(x)),
+                    None => {
+                        let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
+                        let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
+                        match (ys[j - 1], ys[j]) {
+                            (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
+                            _ => None,
+                        }
+                    }
+                };
+            }
+        }
+        let values: Vec<f64> = fine_radii
+            .iter()
+            .zip(fine)
+            .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
+            .collect();
+        out.push((r.index, values));
+    }
+    Ok(out)
+}

@@ -1,0 +1,257 @@
+//! Per-object verdicts at the two reference points, standard gravity (Υ = τ = 0) and the best
+//! fit: each object's bound, tension and probability there, the list of objects in tension with
+//! standard gravity, the Šidák verdict on whether the best fit is consistent at all, and the
+//! crowding check around the MMHB.
+//!
+//! A reference point is seen only through [`ReferencePoint`] (its class bounds) and the radius
+//! tests prepared by the engine ([`super::wd_radius::ObjectRadius`]), so this module, like the
+//! rest of the comparator, knows nothing of how the theory solved them.
+//!
+//! ```
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+//! use dwarfbound::confront::engine::EngineOptions;
+//! use dwarfbound::confront::tension::{mass_tensions, ReferencePoint};
+//! let dwarf = CatalogueObject { id: "B1".into(), class: ObjectClass::BrownDwarf, mass_msun: 0.095,
+//!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
+//!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
+//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
+//!     reference: None, source_file: "a.csv".into(), source_row: 1 };
+//! // A brown dwarf 0.02 M☉ above an MMHB of 0.075 M☉ (floor 0.005 M☉) is on the wrong side.
+//! let point = ReferencePoint { mmhb_msun: Some(0.075), chandrasekhar_mu2_msun: Some(1.4563) };
+//! let t = mass_tensions(&[dwarf], &point, &EngineOptions::default(), 3.0);
+//! assert_eq!(t.len(), 1);
+//! assert!(t[0].1 > 3.0);
+//! ```
+
+use std::collections::BTreeSet;
+
+use super::engine::{self, Confrontation, EngineOptions, ObjectUse, Term};
+use super::prob::Measurement;
+use super::regions::{
+    absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
+};
+use super::wd_radius::ObjectRadius;
+use crate::catalogue::{CatalogueObject, ObjectClass};
+
+/// How many of the least probable objects the consistency verdict names.
+const WORST_LISTED: usize = 5;
+
+/// What the verdicts need of one grid or reference point.
+#[derive(Clone, Copy)]
+pub struct ReferencePoint {
+    /// The MMHB used against data there, M☉; `None` where no model exists.
+    pub mmhb_msun: Option<f64>,
+    /// The Chandrasekhar mass for μe = 2 there, M☉.
+    pub chandrasekhar_mu2_msun: Option<f64>,
+}
+
+impl ReferencePoint {
+    /// The bound of a mass term at this point (class value: μe = 2 for white dwarfs).
+    pub fn class_bound(&self, term: Term) -> Option<f64> {
+        match term {
+            Term::WhiteDwarfMass => self.chandrasekhar_mu2_msun,
+            Term::HBurning | Term::BrownDwarf => self.mmhb_msun,
+            Term::WhiteDwarfRadius => None,
+        }
+    }
+}
+
+/// Which test an object is in tension with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TensionTest {
+    /// Its class's mass bound (one-sided).
+    MassBound,
+    /// The white-dwarf mass–radius relation (two-sided).
+    MassRadius,
+}
+
+impl TensionTest {
+    /// Name in outputs.
+    pub fn name(self) -> &'static str {
+        match self {
+            TensionTest::MassBound => "mass_bound",
+            TensionTest::MassRadius => "mass_radius",
+        }
+    }
+}
+
+/// An object in tension with standard gravity.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Tension {
+    /// Index of the object.
+    pub object: usize,
+    /// Tension in σ (signed for the radius test: positive = larger than predicted).
+    pub sigma: f64,
+    /// Which test.
+    pub test: TensionTest,
+}
+
+/// One object's results at the two reference points (bounds scaled to the object, e.g. by
+/// (2/μe)² for a white dwarf).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ObjectVerdict {
+    /// Its class bound at standard gravity, M☉.
+    pub bound_standard: Option<f64>,
+    /// Its class bound at the best fit, M☉.
+    pub bound_best: Option<f64>,
+    /// Tension with its class bound at standard gravity, σ.
+    pub sigma_standard: Option<f64>,
+    /// Tension with its class bound at the best fit, σ.
+    pub sigma_best: Option<f64>,
+    /// ln P of its mass test at the best fit, for objects in the fit with an informative mass.
+    pub ln_p_best: Option<f64>,
+    /// Signed tension of its radius with the standard-gravity mass–radius relation, σ.
+    pub radius_sigma_standard: Option<f64>,
+}
+
+/// Each object's verdicts at `standard` and `best`, in the order of `objects` (`uses` is the
+/// comparator's plan for the same objects). Tensions are given for every object, also those
+/// left out of the fit (they are flagged elsewhere).
+pub fn object_verdicts(
+    objects: &[CatalogueObject],
+    uses: &[ObjectUse],
+    radius_objects: &[ObjectRadius],
+    standard: &ReferencePoint,
+    best: &ReferencePoint,
+    eopts: &EngineOptions,
+) -> Vec<ObjectVerdict> {
+    objects
+        .iter()
+        .zip(uses)
+        .enumerate()
+        .map(|(k, (o, u))| {
+            let term = match o.class {
+                ObjectClass::HBurning => Term::HBurning,
+                ObjectClass::BrownDwarf => Term::BrownDwarf,
+                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
+            };
+            let scale = u.measurement.scale;
+            let bs = standard.class_bound(term);
+            let bb = best.class_bound(term);
+            let mut as_used = u.clone();
+            as_used.mass_term = Some(term);
+            let sigma = |b: Option<f64>| {
+                b.and_then(|b| engine::tension_of(&as_used, b, eopts))
+                    .filter(|z| z.is_finite())
+            };
+            let radius_sigma_standard = if u.radius_term {
+                radius_objects
+                    .iter()
+                    .find(|r| r.index == k)
+                    .and_then(ObjectRadius::standard_tension)
+            } else {
+                None
+            };
+            ObjectVerdict {
+                bound_standard: bs.map(|b| b * scale),
+                bound_best: bb.map(|b| b * scale),
+                sigma_standard: sigma(bs),
+                sigma_best: sigma(bb),
+                ln_p_best: if u.mass_term.is_some() && u.measurement.informative() {
+                    bb.and_then(|b| engine::ln_p_object(u, b, eopts))
+                } else {
+                    None
+                },
+                radius_sigma_standard,
+            }
+        })
+        .collect()
+}
+
+/// The objects in tension with standard gravity above `threshold_sigma`, largest |σ| first (ties
+/// by object). Mass-bound tensions are one-sided (positive = wrong side of the bound); radius
+/// tensions are two-sided, listed by their absolute value.
+pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<Tension> {
+    let mut tensions: Vec<Tension> = Vec::new();
+    for (k, r) in verdicts.iter().enumerate() {
+        if let Some(z) = r.sigma_standard.filter(|&z| z > threshold_sigma) {
+            tensions.push(Tension {
+                object: k,
+                sigma: z,
+                test: TensionTest::MassBound,
+            });
+        }
+        if let Some(z) = r
+            .radius_sigma_standard
+            .filter(|z| z.abs() > threshold_sigma)
+        {
+            tensions.push(Tension {
+                object: k,
+                sigma: z,
+                test: TensionTest::MassRadius,
+            });
+        }
+    }
+    tensions.sort_by(|a, b| {
+        b.sigma
+            .abs()
+            .total_cmp(&a.sigma.abs())
+            .then(a.object.cmp(&b.object))
+    });
+    tensions
+}
+
+/// Absolute consistency at the best fit (Šidák test over the objects' ln P there).
+///
+/// N_inf counts the informative objects the one-dimensional reduction did not skip: objects that
+/// cannot constrain any grid point must not dilute the look-elsewhere factor (the paper's
+/// statistics section).
+pub fn consistency_at_best(
+    conf: &Confrontation,
+    verdicts: &[ObjectVerdict],
+) -> AbsoluteConsistency {
+    let mut counted = BTreeSet::new();
+    for (term, curve) in &conf.curves {
+        let members = conf.members(*term);
+        counted.extend(curve.informative_indices().iter().map(|&j| members[j]));
+    }
+    let ln_ps: Vec<(usize, f64)> = verdicts
+        .iter()
+        .enumerate()
+        .filter(|(k, _)| counted.contains(k))
+        .filter_map(|(k, r)| r.ln_p_best.map(|l| (k, l)))
+        .collect();
+    absolute_consistency(&ln_ps, WORST_LISTED)
+}
+
+/// The crowding check at an MMHB of `mmhb_msun` (the best fit's) with the MMHB floor
+/// `floor_msun`, over the objects in the hydrogen-burning and brown-dwarf tests.
+pub fn crowding_at(conf: &Confrontation, mmhb_msun: f64, floor_msun: f64) -> Crowding {
+    let of = |term: Term| -> Vec<Measurement> {
+        conf.members(term)
+            .iter()
+            .map(|&k| conf.uses[k].measurement)
+            .collect()
+    };
+    crowding(
+        &of(Term::HBurning),
+        &of(Term::BrownDwarf),
+        mmhb_msun,
+        floor_msun,
+        &CrowdingOptions::default(),
+    )
+}
+
+/// Tension of each object with its class bound at `point`: (object index, σ) for objects above
+/// `threshold_sigma`, largest first (ties by index): a quick look without a grid, which `vet`
+/// uses at standard gravity. Which objects take part is `eopts`'s age rule (see
+/// [`engine::plan`]).
+pub fn mass_tensions(
+    objects: &[CatalogueObject],
+    point: &ReferencePoint,
+    eopts: &EngineOptions,
+    threshold_sigma: f64,
+) -> Vec<(usize, f64)> {
+    let uses = engine::plan(objects, eopts);
+    let mut out: Vec<(usize, f64)> = uses
+        .iter()
+        .filter_map(|u| {
+            let term = u.mass_term?;
+            let z = engine::tension_of(u, point.class_bound(term)?, eopts)?;
+            (z.is_finite() && z > threshold_sigma).then_some((u.index, z))
+        })
+        .collect();
+    out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    out
+}

@@ -1,0 +1,414 @@
+//! The files one confrontation writes beside its report: `objects.csv`, `grid.csv` and
+//! `summary.json` (the keys the README documents), from an [`OutputContext`] that borrows every
+//! result of the run. Selection and formatting only: every number was computed upstream.
+//!
+//! Grid vectors follow the program's one index order, τ outer and Υ inner (`j · n_Υ + i`),
+//! which is also the row order of `grid.csv`.
+//!
+//! ```text
+//! run_confrontation ──► OutputContext ──► objects_csv / grid_csv / summary_json
+//!                                     └─► report_input::write_report_files
+//! ```
+
+use std::collections::BTreeMap;
+
+use serde_json::{json, Value};
+
+use super::error::PipelineError;
+use super::settings::ConfrontSettings;
+use super::surface::GridSurface;
+use crate::catalogue::{CatalogueObject, Vetted};
+use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
+use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
+use crate::confront::slice::SliceResult;
+use crate::confront::tension::{ObjectVerdict, Tension};
+use crate::report::{self, tables::Cell};
+use crate::theory::grid::TheoryGrid;
+use crate::theory::Axis;
+
+/// Everything the output writers need, borrowed from one confrontation.
+pub(crate) struct OutputContext<'a> {
+    pub settings: &'a ConfrontSettings,
+    pub vetted: &'a Vetted,
+    pub grid: &'a TheoryGrid,
+    pub surface: &'a GridSurface<'a>,
+    pub conf: &'a Confrontation,
+    pub regions: &'a MapRegions,
+    pub slice: Option<&'a SliceResult>,
+    /// Per object, in the order of `vetted.objects`.
+    pub verdicts: &'a [ObjectVerdict],
+    /// The drivers as (object index, shift), by rank.
+    pub drivers: &'a [(usize, f64)],
+    pub tensions: &'a [Tension],
+    pub consistency: &'a AbsoluteConsistency,
+    pub crowd: Option<Crowding>,
+    pub checksums: &'a BTreeMap<String, String>,
+    pub eopts: &'a EngineOptions,
+    pub best_index: usize,
+    pub cache_note: Option<String>,
+    pub since_previous: Option<Vec<String>>,
+}
+
+fn opt_json(x: Option<f64>) -> Value {
+    match x {
+        Some(v) if v.is_finite() => json!(v),
+        _ => Value::Null,
+    }
+}
+
+impl OutputContext<'_> {
+    /// Tension of object `k` at the best fit, if it has one.
+    pub(crate) fn sigma_best(&self, k: usize) -> Option<f64> {
+        self.verdicts[k].sigma_best
+    }
+
+    /// Drivers as (rank, object index, shift), by rank.
+    pub(crate) fn drivers_sorted(&self) -> Vec<(usize, usize, f64)> {
+        self.drivers
+            .iter()
+            .enumerate()
+            .map(|(r, &(k, s))| (r + 1, k, s))
+            .collect()
+    }
+
+    /// The standard-gravity point's status on the map.
+    pub(crate) fn grid_standard_status(&self) -> report::StandardGravityStatus {
+        let nu = self.conf.n_upsilon;
+        let i = self.surface.upsilon().iter().position(|&u| u == 0.0);
+        let j = self.surface.tau().iter().position(|&t| t == 0.0);
+        match (i, j) {
+            (Some(i), Some(j)) => {
+                let d = self.regions.delta_chi2[j * nu + i];
+                report::StandardGravityStatus {
+                    allowed_cl95: Some(d.is_finite() && d <= Level::Cl95.dchi2(2)),
+                    minus_two_ln_l: self.conf.joint[j * nu + i],
+                    delta_chi2: d.is_finite().then_some(d),
+                }
+            }
+            _ => report::StandardGravityStatus {
+                allowed_cl95: None,
+                minus_two_ln_l: None,
+                delta_chi2: None,
+            },
+        }
+    }
+
+    fn object(&self, k: usize) -> &CatalogueObject {
+        &self.vetted.objects[k]
+    }
+
+    /// `objects.csv`: one row per accepted object.
+    pub(crate) fn objects_csv(&self) -> Result<Vec<u8>, PipelineError> {
+        let header = [
+            "id",
+            "class",
+            "source_file",
+            "source_row",
+            "mass",
+            "mass_err_lo",
+            "mass_err_hi",
+            "mass_limit",
+            "radius",
+            "radius_err",
+            "age",
+            "mu_e",
+            "in_fit",
+            "flags",
+            "bound_standard",
+            "bound_best",
+            "sigma_standard",
+            "sigma_best",
+            "radius_sigma_standard",
+            "driver_rank",
+            "driver_shift",
+            "driver_end_opens_or_closes",
+        ];
+        let mut driver_of: Vec<Option<(usize, f64)>> = vec![None; self.verdicts.len()];
+        for (rank, k, shift) in self.drivers_sorted() {
+            driver_of[k] = Some((rank, shift));
+        }
+        let rows: Vec<Vec<Cell>> = self
+            .verdicts
+            .iter()
+            .enumerate()
+            .map(|(k, r)| {
+                let driver_rank = driver_of[k].map(|d| d.0);
+                let driver_shift = driver_of[k].map(|d| d.1);
+                let o = self.object(k);
+                let u = &self.conf.uses[k];
+                vec![
+                    Cell::Text(o.id.clone()),
+                    Cell::Text(o.class.label().into()),
+                    Cell::Text(o.source_file.clone()),
+                    Cell::Int(o.source_row as i64),
+                    Cell::Float(Some(o.mass_msun)),
+                    Cell::Float(o.mass_err_lo_msun),
+                    Cell::Float(o.mass_err_hi_msun),
+                    Cell::Text(o.mass_limit.label().into()),
+                    Cell::Float(o.radius_rsun),
+                    Cell::Float(o.radius_err_rsun),
+                    Cell::Float(o.age_gyr),
+                    Cell::Float(Some(u.mu_e)),
+                    Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
+                    Cell::Text(u.flags.join(";")),
+                    Cell::Float(r.bound_standard),
+                    Cell::Float(r.bound_best),
+                    Cell::Float(r.sigma_standard),
+                    Cell::Float(r.sigma_best),
+                    Cell::Float(r.radius_sigma_standard),
+                    match driver_rank {
+                        Some(x) => Cell::Int(x as i64),
+                        None => Cell::Text(String::new()),
+                    },
+                    Cell::Float(driver_shift.filter(|s| s.is_finite())),
+                    Cell::Bool(driver_shift.map(|s| s.is_infinite())),
+                ]
+            })
+            .collect();
+        report::tables::csv_bytes(&header, &rows)
+            .map_err(|e| PipelineError::Internal(e.to_string()))
+    }
+
+    /// `grid.csv`: one row per grid point.
+    pub(crate) fn grid_csv(&self) -> Result<Vec<u8>, PipelineError> {
+        let (nu, nt) = (self.conf.n_upsilon, self.conf.n_tau);
+        let mut header: Vec<String> = vec![
+            "upsilon".into(),
+            "tau".into(),
+            "status".into(),
+            "reason".into(),
+            "mmhb_msun".into(),
+            "mmhb_raw_msun".into(),
+            "chandrasekhar_msun".into(),
+            "sc_fraction".into(),
+            "breakup_period_minutes".into(),
+        ];
+        for t in Term::ALL {
+            header.push(format!("minus_two_ln_l_{}", t.name()));
+        }
+        header.extend(
+            [
+                "minus_two_ln_l_joint",
+                "delta_chi2",
+                "allowed_cl68",
+                "allowed_cl95",
+                "allowed_cl997",
+            ]
+            .map(String::from),
+        );
+        let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+        let mut rows = Vec::with_capacity(nu * nt);
+        for j in 0..nt {
+            for i in 0..nu {
+                let k = j * nu + i;
+                let p = self.grid.point(k);
+                let (status, reason) = match p.and_then(|p| p.first_failure()) {
+                    Some(f) if self.conf.joint[k].is_none() => ("no-model", f.reason.clone()),
+                    Some(f) => ("partial", f.reason.clone()),
+                    None => ("ok", String::new()),
+                };
+                let mut row = vec![
+                    Cell::Float(Some(self.surface.upsilon()[i])),
+                    Cell::Float(Some(self.surface.tau()[j])),
+                    Cell::Text(status.into()),
+                    Cell::Text(reason),
+                    Cell::Float(p.and_then(|p| p.mmhb.ok()).map(|m| m.value_msun)),
+                    Cell::Float(p.and_then(|p| p.mmhb.ok()).map(|m| m.raw_msun)),
+                    Cell::Float(p.and_then(|p| p.chandrasekhar.ok()).map(|c| c.value_msun)),
+                    Cell::Float(p.and_then(|p| p.sc.ok()).map(|s| s.q_sc)),
+                    Cell::Float(p.and_then(|p| p.breakup.ok()).map(|b| b.period_h * 60.0)),
+                ];
+                for t in Term::ALL {
+                    row.push(Cell::Float(self.conf.per_term[t as usize][k]));
+                }
+                let d = self.regions.delta_chi2[k];
+                let d = d.is_finite().then_some(d);
+                row.push(Cell::Float(self.conf.joint[k]));
+                row.push(Cell::Float(d));
+                for l in Level::ALL {
+                    row.push(Cell::Bool(Some(d.is_some_and(|d| d <= l.dchi2(2)))));
+                }
+                rows.push(row);
+            }
+        }
+        report::tables::csv_bytes(&header_refs, &rows)
+            .map_err(|e| PipelineError::Internal(e.to_string()))
+    }
+
+    /// The `summary.json` document (the keys the README documents, plus details).
+    pub(crate) fn summary_json(&self) -> Value {
+        let catalogues: Vec<Value> = self
+            .vetted
+            .tallies
+            .iter()
+            .map(|t| {
+                json!({
+                    "path": t.path,
+                    "rows_in": t.rows_in,
+                    "rows_accepted": t.rows_accepted,
+                    "rows_quarantined": t.rows_quarantined,
+                    "sha256": self.checksums.get(&t.path),
+                })
+            })
+            .collect();
+        let axis = |a: &Axis| json!({"start": a.start, "stop": a.stop, "count": a.count});
+        let mut allowed = serde_json::Map::new();
+        for (l, b) in Level::ALL.iter().zip(&self.regions.allowed) {
+            allowed.insert(
+                l.key().into(),
+                if b.n_points == 0 {
+                    json!({"upsilon_min": null, "upsilon_max": null, "tau_min": null, "tau_max": null, "fraction_of_grid": 0.0})
+                } else {
+                    json!({
+                        "upsilon_min": b.upsilon_min,
+                        "upsilon_max": b.upsilon_max,
+                        "tau_min": b.tau_min,
+                        "tau_max": b.tau_max,
+                        "fraction_of_grid": b.fraction_of_grid,
+                    })
+                },
+            );
+        }
+        let mut interval = serde_json::Map::new();
+        for (n, l) in Level::ALL.iter().enumerate() {
+            interval.insert(
+                l.key().into(),
+                match self.slice {
+                    Some(s) => json!({
+                        "lower": opt_json(s.slice.intervals[n].lower),
+                        "upper": opt_json(s.slice.intervals[n].upper),
+                    }),
+                    None => json!({"lower": null, "upper": null}),
+                },
+            );
+        }
+        let interval_note = match self.slice {
+            Some(_) => Value::Null,
+            None => json!("not computed: the grid has no tau = 0 row with a model on at least two upsilon values"),
+        };
+        let sg_index = self
+            .surface
+            .tau()
+            .iter()
+            .position(|&t| t == 0.0)
+            .and_then(|j| {
+                self.surface
+                    .upsilon()
+                    .iter()
+                    .position(|&u| u == 0.0)
+                    .map(|i| (i, j))
+            });
+        let standard = match sg_index {
+            Some((i, j)) => {
+                let d = self.regions.delta_chi2[j * self.conf.n_upsilon + i];
+                json!({
+                    "on_grid": true,
+                    "allowed_cl95": d.is_finite() && d <= Level::Cl95.dchi2(2),
+                    "minus_two_ln_l": opt_json(self.conf.joint[j * self.conf.n_upsilon + i]),
+                    "delta_chi2": opt_json(d.is_finite().then_some(d)),
+                })
+            }
+            None => {
+                json!({"on_grid": false, "allowed_cl95": null, "minus_two_ln_l": null, "delta_chi2": null})
+            }
+        };
+        let tensions: Vec<Value> = self
+            .tensions
+            .iter()
+            .map(|t| {
+                let o = self.object(t.object);
+                json!({"id": o.id, "class": o.class.label(), "sigma": t.sigma, "test": t.test.name(), "source_file": o.source_file})
+            })
+            .collect();
+        let drivers: Vec<Value> = {
+            self.drivers_sorted()
+                .iter()
+                .map(|&(rank, k, s)| {
+                    let o = self.object(k);
+                    json!({
+                        "rank": rank,
+                        "id": o.id,
+                        "class": o.class.label(),
+                        "shift": if s.is_finite() { json!(s) } else { Value::Null },
+                        "end_opens_or_closes": !s.is_finite(),
+                    })
+                })
+                .collect()
+        };
+        let worst: Vec<Value> = self
+            .consistency
+            .worst
+            .iter()
+            .map(|&(k, lnp)| {
+                let o = self.object(k);
+                json!({"id": o.id, "class": o.class.label(), "probability": lnp.exp()})
+            })
+            .collect();
+        let best = &self.regions.best;
+        let t = &self.settings.theory;
+        let mmhb_mode = t.mmhb_mode.name();
+        let reduction: Vec<Value> = self
+            .conf
+            .curves
+            .iter()
+            .map(|(term, c)| {
+                json!({
+                    "class": term.name(),
+                    "nodes": self.eopts.reduce.n_nodes,
+                    "informative": c.n_informative(),
+                    "skipped": c.n_skipped(),
+                    "max_abs_minus_two_ln_l_error": 2.0 * c.achieved_error(),
+                })
+            })
+            .collect();
+        json!({
+            "version": env!("CARGO_PKG_VERSION"),
+            "catalogues": catalogues,
+            "grid": {
+                "upsilon": axis(&self.settings.upsilon),
+                "tau": axis(&self.settings.tau),
+                "anisotropy": t.anisotropy.name(),
+                "points_without_model": self.regions.n_invalid,
+            },
+            "model": {
+                "mmhb_model": t.mmhb_model.name(),
+                "mmhb_mode": mmhb_mode,
+                "mmhb_floor_msun": self.eopts.mmhb_floor_msun,
+                "chandrasekhar_mode": t.chandrasekhar_mode.name(),
+                "chandrasekhar_floor_msun": self.eopts.chandrasekhar_floor_msun,
+                "wd_radius_floor_fraction": match self.eopts.radius.model {
+                    crate::confront::wd_radius::WdRadiusModel::Cold => self.eopts.radius.cold_floor_fraction,
+                    crate::confront::wd_radius::WdRadiusModel::Hot => self.eopts.radius.hot_floor_fraction,
+                },
+                "wd_radius_model": self.eopts.radius.model.name(),
+                "include_model_masses": self.eopts.radius.include_model_masses,
+                "theory_floor": "per-object",
+                "population_window_msun": self.eopts.population_window_msun.map(|(a, b)| vec![a, b]),
+                "age_min_mmhb_gyr": self.eopts.age_min_mmhb_gyr,
+                "include_young": self.eopts.include_young,
+            },
+            "best_fit": {
+                "upsilon": best.upsilon,
+                "tau": best.tau,
+                "minus_two_ln_l": best.chi2_min,
+                "on_grid_edge": best.i_upsilon == 0 || best.i_upsilon + 1 == self.conf.n_upsilon
+                    || (self.conf.n_tau > 1 && (best.j_tau == 0 || best.j_tau + 1 == self.conf.n_tau)),
+            },
+            "allowed": allowed,
+            "upsilon_interval_at_tau0": interval,
+            "upsilon_interval_at_tau0_note": interval_note,
+            "standard_gravity": standard,
+            "consistency": {
+                "consistent_cl95": self.consistency.consistent_cl95,
+                "p_catalogue": self.consistency.p_cat,
+                "n_informative": self.consistency.n_informative,
+                "worst": worst,
+            },
+            "tension_threshold_sigma": self.settings.statistics.tension_sigma,
+            "tensions": tensions,
+            "drivers": drivers,
+            "reduction": reduction,
+            "crowding_warning": self.crowd.is_some_and(|c| c.warn),
+        })
+    }
+}

@@ -1,0 +1,156 @@
+//! The theory seen as the comparator needs it: a finished [`TheoryGrid`] as a
+//! [`BoundSurface`], and one theory point as a [`ReferencePoint`]. Adapters only; the grid and
+//! the comparator each stay ignorant of the other.
+//!
+//! ```no_run
+//! use dwarfbound::confront::engine::BoundSurface;
+//! use dwarfbound::pipeline::surface::GridSurface;
+//! use dwarfbound::theory::grid::{compute, GridOptions};
+//! use dwarfbound::theory::point::TheorySettings;
+//! use dwarfbound::theory::Axis;
+//! let axis = Axis { start: -0.1, stop: 0.1, count: 3 };
+//! let one = Axis { start: 0.0, stop: 0.0, count: 1 };
+//! let grid = compute(axis, one, &TheorySettings::default(), &GridOptions::default()).unwrap();
+//! let surface = GridSurface::new(&grid, None, Default::default());
+//! assert_eq!(surface.upsilon().len(), 3);
+//! ```
+
+use crate::catalogue::EnvelopeLabel;
+use crate::confront::engine::BoundSurface;
+use crate::confront::tension::ReferencePoint;
+use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandard};
+use crate::theory::grid::{self, TheoryGrid};
+use crate::theory::hot_wd::{table::HotWdTable, Core, Envelope};
+use crate::theory::point::{Outcome, PointBounds};
+use crate::theory::white_dwarf::WdMassRadius;
+
+/// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, Υ
+/// inner).
+pub struct GridSurface<'a> {
+    grid: &'a TheoryGrid,
+    upsilon: Vec<f64>,
+    tau: Vec<f64>,
+    /// The zero-temperature mass–radius table at Υ = τ = 0 (the anchored ratio's denominator).
+    standard_cold: Option<&'a WdMassRadius>,
+    /// Which standard-gravity radius anchors the white-dwarf radius test.
+    wd_model: WdRadiusModel,
+}
+
+impl<'a> GridSurface<'a> {
+    /// Wraps a complete grid. `standard_cold` is the zero-temperature table of the standard
+    /// point (from the same structure solver as the grid's tables).
+    pub fn new(
+        grid: &'a TheoryGrid,
+        standard_cold: Option<&'a WdMassRadius>,
+        wd_model: WdRadiusModel,
+    ) -> Self {
+        let upsilon = (0..grid.upsilon.count)
+            .map(|i| grid::grid_value(&grid.upsilon, i))
+            .collect();
+        let tau = (0..grid.tau.count)
+            .map(|i| grid::grid_value(&grid.tau, i))
+            .collect();
+        Self {
+            grid,
+            upsilon,
+            tau,
+            standard_cold,
+            wd_model,
+        }
+    }
+
+    /// The finite-temperature standard radius of one query (Teff needed), with the thick–thin
+    /// spread when the layer is not stated and d ln R/d Teff.
+    fn hot_standard(table: &HotWdTable, q: &WdQuery, cold_rsun: f64) -> Option<WdStandard> {
+        let teff = q.teff_k?;
+        let core = match q.core {
+            ResolvedCore::Helium => Core::Helium,
+            ResolvedCore::CarbonOxygen => Core::CarbonOxygen,
+            ResolvedCore::OxygenNeon => Core::OxygenNeon,
+        };
+        let at = |t: f64, e: Envelope| table.radius_rsun(q.mass_msun, t, core, e).ok();
+        let envelope = match q.envelope {
+            Some(EnvelopeLabel::Thin) => Envelope::Thin,
+            _ => Envelope::Thick,
+        };
+        let main = at(teff, envelope)?;
+        let envelope_fraction = match q.envelope {
+            Some(_) => 0.0,
+            None => at(teff, Envelope::Thin)
+                .map(|thin| 0.5 * (main.radius_rsun - thin.radius_rsun).abs() / main.radius_rsun)
+                .unwrap_or(0.0),
+        };
+        let dt = 0.01 * teff;
+        let dln_r_dteff_per_k = match (at(teff + dt, envelope), at(teff - dt, envelope)) {
+            (Some(a), Some(b)) => (a.radius_rsun.ln() - b.radius_rsun.ln()) / (2.0 * dt),
+            _ => 0.0,
+        };
+        // The interpolation's own error (measured per lookup) is a theory error too.
+        let interpolation = main.interpolation_error_rsun / main.radius_rsun;
+        Some(WdStandard {
+            radius_rsun: main.radius_rsun,
+            cold_rsun,
+            hot_over_cold: main.radius_rsun / main.cold_radius_rsun,
+            envelope_fraction: envelope_fraction.hypot(interpolation),
+            dln_r_dteff_per_k,
+        })
+    }
+}
+
+impl BoundSurface for GridSurface<'_> {
+    fn upsilon(&self) -> &[f64] {
+        &self.upsilon
+    }
+    fn tau(&self) -> &[f64] {
+        &self.tau
+    }
+    fn mmhb_msun(&self, i: usize) -> Option<f64> {
+        self.grid.point(i)?.mmhb.ok().map(|m| m.value_msun)
+    }
+    fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64> {
+        self.grid.point(i)?.chandrasekhar.ok().map(|c| c.value_msun)
+    }
+    fn wd_radii_rsun(&self, i: usize, queries: &[(f64, f64)]) -> Vec<Option<f64>> {
+        match self.grid.wd_table(i) {
+            Some(Outcome::Ok(t)) => queries
+                .iter()
+                .map(|&(m, mu_e)| t.radius_rsun(m, mu_e).ok())
+                .collect(),
+            _ => vec![None; queries.len()],
+        }
+    }
+    fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>> {
+        let Some(cold) = self.standard_cold else {
+            return vec![None; queries.len()];
+        };
+        let hot = match self.wd_model {
+            WdRadiusModel::Hot => HotWdTable::standard().ok(),
+            WdRadiusModel::Cold => None,
+        };
+        queries
+            .iter()
+            .map(|q| {
+                let cold_rsun = cold.radius_rsun(q.mass_msun, q.mu_e).ok()?;
+                match (self.wd_model, hot) {
+                    (WdRadiusModel::Cold, _) => Some(WdStandard {
+                        radius_rsun: cold_rsun,
+                        cold_rsun,
+                        hot_over_cold: 1.0,
+                        envelope_fraction: 0.0,
+                        dln_r_dteff_per_k: 0.0,
+                    }),
+                    (WdRadiusModel::Hot, Some(table)) => Self::hot_standard(table, q, cold_rsun),
+                    (WdRadiusModel::Hot, None) => None,
+                }
+            })
+            .collect()
+    }
+}
+
+/// The class bounds of one theory point (the MMHB and Chandrasekhar mass used against data).
+pub fn class_bounds(p: &PointBounds) -> ReferencePoint {
+    ReferencePoint {
+        mmhb_msun: p.mmhb.ok().map(|m| m.value_msun),
+        chandrasekhar_mu2_msun: p.chandrasekhar.ok().map(|c| c.value_msun),
+    }
+}

@@ -1,0 +1,25 @@
+//! The figures of the report, one file each, drawn with a shared kit.
+//!
+//! [`kit`] holds what every figure needs (font, pens, palette, axes and ticks, line work,
+//! markers, the SVG and PNG renderers); [`allowed`] draws the allowed-region map in the (Υ, τ)
+//! plane and [`bounds`] the predicted bounds against Υ. A new figure is a file here with a
+//! drawing routine generic over the plotters backend and two public `render_*` functions that
+//! hand it to [`kit::svg_string`] and [`kit::png_bytes`].
+//!
+//! ```no_run
+//! # fn demo(map: &dwarfbound::report::AllowedMap, curves: &dwarfbound::report::BoundsCurves)
+//! #     -> Result<(), dwarfbound::report::ReportError> {
+//! let map_svg = dwarfbound::report::render_allowed_svg(map)?;
+//! let bounds_png = dwarfbound::report::render_bounds_png(curves)?;
+//! assert!(map_svg.starts_with("<svg") && bounds_png.starts_with(b"\x89PNG"));
+//! # Ok(()) }
+//! ```
+
+mod allowed;
+mod bounds;
+mod contour;
+mod kit;
+
+pub use allowed::{render_allowed_png, render_allowed_svg, ALLOWED_SIZE};
+pub use bounds::{render_bounds_png, render_bounds_svg, BOUNDS_WIDTH};
+pub use kit::palette::outline_style_name;
