@@ -468,13 +468,16 @@ def white_dwarfs(mr, hot):
         envelope = "thin" if draw.u() < 0.2 else "thick"
         core = wd_core(true_m)
         ref = "HFC invented: hypothetical iron-rich core" if mu_e == 2.15 else draw.pick(refs)
+        if i in helium or i == elm or i in no_teff:
+            ref = "HFC invented: binary orbit"  # independent masses: these exercise the domain
         method = methods.get(ref, "dynamical")
         want_radius = i != 150 and (draw.u() < 0.40 or i in helium or i in no_teff or i == elm)
         r_true = None
-        if want_radius and mu_e is None:
+        if want_radius:
             r_true = hot.radius_rsun(true_m, teff, core, envelope)
-        elif want_radius:
-            r_true = mr.radius_rsun(true_m, mu_e)  # unusual mu_e: the zero-temperature model
+            if r_true is not None and mu_e is not None:
+                # An unusual mu_e scales the radius as in the zero-temperature model.
+                r_true *= mr.radius_rsun(true_m, mu_e) / mr.radius_rsun(true_m, 2.0)
         if r_true is not None:
             r_frac = draw.uniform(0.01, 0.04)
             r_obs = r_true * (1.0 + r_frac * draw.normal())
@@ -710,7 +713,7 @@ def main(argv=None):
     vlm, bd, wd, nn = vlm_stars(), brown_dwarfs(), white_dwarfs(mr, hot), next_night(mr, hot)
 
     units_low = "# Units: mass, mass_err, mass_err_lo, mass_err_hi in solMass; age, age_err in Gyr; rotation_period in h."
-    units_wd = "# Units: mass and its errors in solMass; radius, radius_err in solRad (finite-temperature radius of the true mass, Teff, core and H layer from assets/wd_hot_table.csv, plus noise; zero-temperature for mu_e = 2.15); teff, teff_err in K."
+    units_wd = "# Units: mass and its errors in solMass; radius, radius_err in solRad (finite-temperature radius of the true mass, Teff, core and H layer from assets/wd_hot_table.csv, plus noise; scaled by the zero-temperature mu_e dependence for mu_e = 2.15); teff, teff_err in K."
     write_csv(os.path.join(args.out, "vlm_stars.csv"),
               header("very-low-mass stars that burn hydrogen", [units_low]), COLS_LOW, vlm)
     write_csv(os.path.join(args.out, "brown_dwarfs.csv"),

@@ -125,6 +125,9 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
         ..StatisticsSettings::default()
     };
     statistics.engine.include_young = args.include_young;
+    statistics.engine.radius.model = args.wd_model;
+    statistics.engine.radius.include_model_masses = args.include_model_masses;
+    statistics.engine.radius.include_out_of_domain = args.include_out_of_domain;
     if let Some(w) = &args.population_window {
         statistics.engine.population_window_msun = Some(parse_window(w)?);
     }

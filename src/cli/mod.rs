@@ -173,6 +173,19 @@ pub struct ConfrontArgs {
     /// Keep objects younger than the age limit (1 Gyr) in the MMHB test.
     #[arg(long)]
     pub include_young: bool,
+    /// Standard-gravity white-dwarf radius model of the radius test: `hot` (finite temperature,
+    /// H/He layers, electrostatic term; the default) or `cold` (the zero-temperature model of
+    /// earlier versions, to reproduce old results).
+    #[arg(long, value_name = "MODEL", default_value = "hot")]
+    pub wd_model: crate::confront::wd_radius::WdRadiusModel,
+    /// Keep objects whose mass came through a standard-gravity model (`mass_method = model`)
+    /// in their tests, although that is circular.
+    #[arg(long)]
+    pub include_model_masses: bool,
+    /// Keep white dwarfs outside the radius model's domain (extremely low mass) in the radius
+    /// test where a model radius exists.
+    #[arg(long)]
+    pub include_out_of_domain: bool,
     /// Population-aware likelihood (theory/bounds.md §8.7) with this mass window around the
     /// MMHB, `LO:HI` in M☉ (e.g. 0.04:0.11); for catalogues crowded near the limit.
     #[arg(long, value_name = "LO:HI")]

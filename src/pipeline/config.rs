@@ -147,6 +147,12 @@ pub struct StatisticsConfig {
     pub include_young: bool,
     /// Leave objects without an age out of the MMHB test.
     pub exclude_age_unknown: bool,
+    /// Standard-gravity white-dwarf radius model: `hot` (default) or `cold`.
+    pub wd_radius_model: String,
+    /// Keep objects with model-derived masses in their tests.
+    pub include_model_masses: bool,
+    /// Keep white dwarfs outside the radius model's domain in the radius test.
+    pub include_out_of_domain: bool,
     /// `per-object` (default) or `shared` theory floor.
     pub floor: String,
     /// Add the population-aware term of bounds.md §8.7.
@@ -162,6 +168,9 @@ impl Default for StatisticsConfig {
             age_min_mmhb_gyr: 1.0,
             include_young: false,
             exclude_age_unknown: false,
+            wd_radius_model: "hot".into(),
+            include_model_masses: false,
+            include_out_of_domain: false,
             floor: "per-object".into(),
             population_aware: false,
             population_window_msun: [0.04, 0.11],

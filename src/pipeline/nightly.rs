@@ -255,6 +255,12 @@ pub fn settings_from_config(
     statistics.engine.age_min_mmhb_gyr = st.age_min_mmhb_gyr;
     statistics.engine.include_young = st.include_young;
     statistics.engine.exclude_age_unknown = st.exclude_age_unknown;
+    statistics.engine.radius.model = st
+        .wd_radius_model
+        .parse()
+        .map_err(|e: String| bad("statistics.wd_radius_model", e))?;
+    statistics.engine.radius.include_model_masses = st.include_model_masses;
+    statistics.engine.radius.include_out_of_domain = st.include_out_of_domain;
     if st.population_aware {
         let [lo, hi] = st.population_window_msun;
         if !(lo.is_finite() && hi.is_finite() && 0.0 < lo && lo < hi) {

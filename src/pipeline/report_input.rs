@@ -229,7 +229,55 @@ pub(crate) fn write_report_files(
         .filter_map(|u| u.excluded.as_deref())
         .collect();
     let n_young = left_out.iter().filter(|e| e.starts_with("young")).count();
-    let n_no_age = left_out.len() - n_young;
+    let n_no_age = left_out.iter().filter(|e| e.starts_with("age")).count();
+    let count_flag = |flag: &str| {
+        ctx.conf
+            .uses
+            .iter()
+            .filter(|u| u.flags.iter().any(|f| f == flag))
+            .count()
+    };
+    let n_model_mass = count_flag("model_mass");
+    if n_model_mass > 0 {
+        warnings.push(Warning::Other(if ctx.eopts.radius.include_model_masses {
+            format!("{n_model_mass} object(s) with masses from a standard-gravity model (mass_method = model) are kept in their tests on request, although that is circular for a test of that model")
+        } else {
+            format!("{n_model_mass} object(s) with masses from a standard-gravity model (mass_method = model: a mass–radius relation, log g, photometry or tracks) left out of their mass and radius tests: circular for a test of that model (flag model_mass; keep them with --include-model-masses)")
+        }));
+    }
+    let n_unknown = count_flag("mass_method_unknown");
+    if n_unknown > 0 {
+        warnings.push(Warning::Other(format!(
+            "{n_unknown} object(s) without a mass_method are included as if their masses were independent of any structure model; if some came from a model, say so in the catalogue (mass_method = model)"
+        )));
+    }
+    let radius_out: Vec<String> = [
+        ("no_teff", "without Teff"),
+        ("elm", "of extremely low mass"),
+        (
+            "outside_model",
+            "outside the finite-temperature model's table",
+        ),
+    ]
+    .iter()
+    .filter_map(|(flag, what)| {
+        let n = count_flag(flag);
+        (n > 0).then(|| format!("{n} {what}"))
+    })
+    .collect();
+    if !radius_out.is_empty() {
+        warnings.push(Warning::Other(format!(
+            "White dwarfs with a radius left out of the radius test (outside the model's domain, flagged in objects.csv): {}",
+            radius_out.join(", ")
+        )));
+    }
+    let n_anchored = count_flag("radius_anchored");
+    if n_anchored > 0 {
+        warnings.push(Warning::Other(format!(
+            "{n_anchored} white dwarf(s) tested against their own radius_model (anchored: radius_model × R(M; Υ, τ)/R(M; 0, 0)); the others against the tool's {} model",
+            ctx.eopts.radius.model.name()
+        )));
+    }
     if n_young > 0 {
         warnings.push(Warning::Other(format!(
             "{n_young} object(s) younger than {} Gyr left out of the MMHB test (bounds.md §5: they may not have reached steady burning, or may still be contracting); their tensions are listed in objects.csv",

@@ -139,7 +139,15 @@ impl BoundSurface for GridSurface<'_> {
                         envelope_fraction: 0.0,
                         dln_r_dteff_per_k: 0.0,
                     }),
-                    (WdRadiusModel::Hot, Some(table)) => Self::hot_standard(table, q, cold_rsun),
+                    (WdRadiusModel::Hot, Some(table)) => {
+                        // The finite-temperature table is for μe = 2 compositions; another μe
+                        // scales it as the zero-temperature model does.
+                        let cold_mu2 = cold.radius_rsun(q.mass_msun, 2.0).ok()?;
+                        Self::hot_standard(table, q, cold_rsun).map(|mut s| {
+                            s.radius_rsun *= cold_rsun / cold_mu2;
+                            s
+                        })
+                    }
                     (WdRadiusModel::Hot, None) => None,
                 }
             })
