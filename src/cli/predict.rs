@@ -13,7 +13,7 @@ use crate::output::write_atomic;
 use crate::report::text::fmt_sig;
 use crate::report::{render_bounds_png, render_bounds_svg, BoundSeries, BoundsCurves};
 use crate::theory::grid::{compute, grid_value, GridOptions, TheoryGrid};
-use crate::theory::mmhb::{MmhbMode, MmhbModel};
+use crate::theory::mmhb::MmhbMode;
 use crate::theory::point::{
     post_newtonian_mass_msun, Outcome, PointBounds, PointEvaluator, TheorySettings,
     CHANDRASEKHAR_REPORT_MU_E,
@@ -27,17 +27,6 @@ const WD_MASSES_MSUN: [f64; 7] = [0.2, 0.4, 0.6, 0.8, 1.0, 1.2, 1.4];
 /// Bounds-figure rows: at most this many τ values.
 const FIGURE_TAU_ROWS: usize = 5;
 
-/// Parses `--mmhb-model`.
-pub(super) fn mmhb_model(text: &str) -> Result<MmhbModel, CliError> {
-    match text.trim().to_ascii_lowercase().as_str() {
-        "luminosity" | "luminosity-balance" | "a" => Ok(MmhbModel::LuminosityBalance),
-        "ignition" | "ignition-temperature" | "b" => Ok(MmhbModel::IgnitionTemperature),
-        other => Err(CliError::usage(format!(
-            "--mmhb-model `{other}` is neither `luminosity` (model A, the default) nor `ignition` (model B)"
-        ))),
-    }
-}
-
 /// Runs `predict`.
 pub fn run(args: PredictArgs) -> Result<Exit, CliError> {
     let one = Axis {
@@ -49,7 +38,7 @@ pub fn run(args: PredictArgs) -> Result<Exit, CliError> {
     let tau = args.theory.tau.unwrap_or(one);
     let settings = TheorySettings {
         anisotropy: args.theory.anisotropy,
-        mmhb_model: mmhb_model(&args.theory.mmhb_model)?,
+        mmhb_model: args.theory.mmhb_model,
         ..TheorySettings::default()
     };
     match &args.out {

@@ -1274,15 +1274,3 @@ pub fn standard_gravity_tensions(
     out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
     Ok(out)
 }
-
-/// Accepts `None` for an empty map option so both callers share one parser.
-pub fn parse_format(name: Option<&str>) -> Result<Option<Format>, PipelineError> {
-    match name {
-        None => Ok(None),
-        Some(n) => Format::from_name(n).map(Some).ok_or_else(|| {
-            PipelineError::Settings(format!(
-                "unknown format `{n}` (csv, parquet, fits, votable, ecsv)"
-            ))
-        }),
-    }
-}
