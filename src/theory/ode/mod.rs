@@ -89,7 +89,8 @@ pub struct OdeOptions<const N: usize> {
     /// Absolute tolerance per component (scale these when components differ in size).
     pub atol: [f64; N],
     /// First trial step, |h0| > 0. Explicit, because automatic guesses fail near singular
-    /// centres (`structure.md` §4.3 pitfall i); the sign is taken from the direction of x_end.
+    /// centres (ξ = 0 of the Lane–Emden equation); the sign is taken from the direction of
+    /// x_end.
     pub first_step: f64,
     /// Largest allowed |step| (infinity for none).
     pub max_step: f64,
