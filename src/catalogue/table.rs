@@ -5,6 +5,7 @@
 //! numbers, nulls, units from the file's metadata); they never validate or convert units.
 
 use std::path::Path;
+use std::str::FromStr;
 
 use super::error::CatalogueError;
 
@@ -91,6 +92,21 @@ impl Format {
     }
 }
 
+/// A name that is not one of the catalogue formats.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("`{0}` is not one of csv, parquet, fits, votable, ecsv")]
+pub struct ParseFormatError(pub String);
+
+impl FromStr for Format {
+    type Err = ParseFormatError;
+
+    /// Parses a format name as [`Format::from_name`] does (any case; the extensions' spellings
+    /// such as `pq`, `fit`, `vot` too), for `--format` and a config's `format` key.
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        Format::from_name(s).ok_or_else(|| ParseFormatError(s.to_string()))
+    }
+}
+
 /// Options a reader may need beyond the path.
 #[derive(Debug, Clone, Default)]
 pub struct ReadOptions {
@@ -114,5 +130,22 @@ pub fn read_table(path: &Path, opts: &ReadOptions) -> Result<RawTable, Catalogue
         Format::Fits => super::read_fits::read(path, opts.table.as_deref()),
         Format::VoTable => super::read_votable::read(path, opts.table.as_deref()),
         Format::Ecsv => super::read_ecsv::read(path),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn format_names_parse_in_any_case() {
+        // The names listed for `--format` in the README (common practice, no source).
+        assert_eq!("CSV".parse::<Format>(), Ok(Format::Csv));
+        assert_eq!("pq".parse::<Format>(), Ok(Format::Parquet));
+        assert_eq!("votable".parse::<Format>(), Ok(Format::VoTable));
+        assert_eq!(
+            "xlsx".parse::<Format>().unwrap_err().to_string(),
+            "`xlsx` is not one of csv, parquet, fits, votable, ecsv"
+        );
     }
 }
