@@ -86,7 +86,9 @@ fn csv_rows(path: &Path) -> Vec<csv::StringRecord> {
     let Ok(mut r) = csv::Reader::from_path(path) else {
         return Vec::new();
     };
-    r.records().map(|r| r.expect("dwarfbound's own CSV")).collect()
+    r.records()
+        .map(|r| r.expect("dwarfbound's own CSV"))
+        .collect()
 }
 
 #[test]
@@ -103,7 +105,8 @@ fn every_hostile_input_meets_its_manifest_entry() {
             .iter()
             .map(|a| a.replace("{out}", &out.path().display().to_string()))
             .collect();
-        let mut fail = |why: String| failures.push(format!("{} (item {}): {why}", case.name, case.item));
+        let mut fail =
+            |why: String| failures.push(format!("{} (item {}): {why}", case.name, case.item));
         let Some((code, output)) = run(&args) else {
             fail(format!("still running after {TIMEOUT:?}"));
             continue;
@@ -114,7 +117,9 @@ fn every_hostile_input_meets_its_manifest_entry() {
         match code {
             None => fail(format!("killed by a signal: {output}")),
             Some(c) if c == 1 || c == 134 => fail(format!("exit {c}: {output}")),
-            Some(c) if c != case.exit => fail(format!("exit {c}, expected {}: {output}", case.exit)),
+            Some(c) if c != case.exit => {
+                fail(format!("exit {c}, expected {}: {output}", case.exit))
+            }
             _ => {}
         }
         for word in &case.message {
@@ -122,14 +127,23 @@ fn every_hostile_input_meets_its_manifest_entry() {
                 fail(format!("message lacks `{word}`: {output}"));
             }
         }
-        if output.lines().filter(|l| l.starts_with("dwarfbound:")).count() > 1 && case.exit == 2 {
+        if output
+            .lines()
+            .filter(|l| l.starts_with("dwarfbound:"))
+            .count()
+            > 1
+            && case.exit == 2
+        {
             fail(format!("more than one error line: {output}"));
         }
         let quarantine = csv_rows(&out.path().join("quarantine.csv"));
         let accepted = csv_rows(&out.path().join("accepted.csv"));
         if let Some(q) = case.quarantined {
             if quarantine.len() != q {
-                fail(format!("{} rows quarantined, expected {q}", quarantine.len()));
+                fail(format!(
+                    "{} rows quarantined, expected {q}",
+                    quarantine.len()
+                ));
             }
         }
         if let Some(n) = case.rows_in {

@@ -264,8 +264,8 @@ table = "CATALOG"
     #[test]
     fn empty_unit_means_default_as_in_a_header() {
         // Issue 13 item 9: `mass = ""` in a map means what `mass[]` means in a CSV header.
-        let m = ColumnMap::from_toml_str("[units]\nmass = \"\"\nmass_err = \" \"\n", "m.toml")
-            .unwrap();
+        let m =
+            ColumnMap::from_toml_str("[units]\nmass = \"\"\nmass_err = \" \"\n", "m.toml").unwrap();
         assert!(m.units.is_empty());
     }
 }

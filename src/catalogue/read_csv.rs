@@ -120,10 +120,16 @@ fn trim_line_end(line: &mut Vec<u8>) {
 /// What a file that is not comma-separated UTF-8 looks like, from its header line.
 fn diagnose_header(header: &[u8], fields: usize) -> Option<String> {
     if header.starts_with(b"\xFF\xFE") || header.starts_with(b"\xFE\xFF") {
-        return Some("the file is UTF-16 text (it starts with a UTF-16 byte-order mark); save it as UTF-8".into());
+        return Some(
+            "the file is UTF-16 text (it starts with a UTF-16 byte-order mark); save it as UTF-8"
+                .into(),
+        );
     }
     if header.contains(&0) {
-        return Some("the header holds NUL bytes: the file is probably UTF-16 text or binary, not UTF-8 CSV".into());
+        return Some(
+            "the header holds NUL bytes: the file is probably UTF-16 text or binary, not UTF-8 CSV"
+                .into(),
+        );
     }
     if fields == 1 {
         for (sep, what) in [(b';', "semicolon"), (b'\t', "tab"), (b'|', "pipe")] {

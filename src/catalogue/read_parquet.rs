@@ -71,10 +71,13 @@ pub fn read(path: &Path, wanted: Option<&[String]>) -> Result<RawTable, Catalogu
             }
         };
         let read = columns.as_ref().map(|c| c.join(", "));
-        reader.with_columns(columns).finish().map_err(|e| match read {
-            Some(names) => format!("{} (reading columns {names})", text(e)),
-            None => text(e),
-        })
+        reader
+            .with_columns(columns)
+            .finish()
+            .map_err(|e| match read {
+                Some(names) => format!("{} (reading columns {names})", text(e)),
+                None => text(e),
+            })
     })
     .map_err(|_| {
         invalid("the Parquet decoder failed on this file (corrupt or unsupported content)".into())

@@ -204,10 +204,11 @@ fn array_elements(arraysize: Option<&str>) -> Result<(Option<u64>, bool), String
         if digits.is_empty() {
             continue;
         }
-        // Not a number: left to the parser, which names it.
-        let Ok(n) = digits.parse::<u64>() else {
+        // Not a number: left to the parser, which names it. Digits beyond u64 are too many.
+        if !digits.bytes().all(|b| b.is_ascii_digit()) {
             return Ok((None, fixed));
-        };
+        }
+        let n = digits.parse::<u64>().unwrap_or(u64::MAX);
         product = product.saturating_mul(n);
     }
     if product > MAX_ARRAY_ELEMENTS {
@@ -270,20 +271,26 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
         match bytes.next() {
             None => {
                 if utf8.need != 0 {
-                    return Err(format!("line {line}: the file ends inside a UTF-8 character"));
+                    return Err(format!(
+                        "line {line}: the file ends inside a UTF-8 character"
+                    ));
                 }
                 Ok(None)
             }
             Some(Ok(b)) => {
                 if position == 0 && (b == 0xff || b == 0xfe) {
-                    return Err("the file starts with a UTF-16 byte-order mark: it is UTF-16 \
+                    return Err(
+                        "the file starts with a UTF-16 byte-order mark: it is UTF-16 \
                                 text; convert it to UTF-8"
-                        .into());
+                            .into(),
+                    );
                 }
                 if position < 2 && b == 0 {
-                    return Err("the file holds NUL bytes at its start: it is probably UTF-16 \
+                    return Err(
+                        "the file holds NUL bytes at its start: it is probably UTF-16 \
                                 text without a byte-order mark; convert it to UTF-8"
-                        .into());
+                            .into(),
+                    );
                 }
                 position += 1;
                 if !utf8.push(b) {
@@ -411,10 +418,18 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                         }
                         // BINARY2 rows start with one null flag bit per FIELD.
                         let binary2 = stack.iter().any(|e| e == b"BINARY2");
-                        let flags = if binary2 { fields.len().div_ceil(8) as u64 } else { 0 };
+                        let flags = if binary2 {
+                            fields.len().div_ceil(8) as u64
+                        } else {
+                            0
+                        };
                         let width = row_bytes + flags;
                         let decoded = (count / 4 * 3).saturating_sub(padding) as u64;
-                        if fixed_width && !fields.is_empty() && width > 0 && decoded % width != 0 {
+                        if fixed_width
+                            && !fields.is_empty()
+                            && width > 0
+                            && !decoded.is_multiple_of(width)
+                        {
                             return Err(format!(
                                 "line {start_line}: TABLE `{table_name}`: the binary STREAM holds \
                                  {decoded} bytes: {} complete rows of {width} bytes and {} bytes \
@@ -850,7 +865,12 @@ mod tests {
         let ok = |s: &[u8]| check_well_formed(s);
         // Issue 13 item 1: bytes that are not UTF-8 (an incomplete sequence, an encoded
         // surrogate, a lone 0xff), RFC 3629.
-        for bad in [&b"<A>\xe2\x82</A>"[..], b"<A>\xed\xa0\x80</A>", b"<A>\xff</A>", b"<A>\xc3"] {
+        for bad in [
+            &b"<A>\xe2\x82</A>"[..],
+            b"<A>\xed\xa0\x80</A>",
+            b"<A>\xff</A>",
+            b"<A>\xc3",
+        ] {
             assert!(ok(bad).unwrap_err().contains("UTF-8"), "{bad:?}");
         }
         assert!(ok("<A>\u{e9}\u{20ac}\u{1f600}</A>".as_bytes()).is_ok());
@@ -861,7 +881,12 @@ mod tests {
         let fine = "<R>".repeat(MAX_XML_DEPTH) + &"</R>".repeat(MAX_XML_DEPTH);
         assert!(ok(fine.as_bytes()).is_ok());
         // Item 3: arraysize, alone and as a product; padded TABLEDATA.
-        for a in ["2147483648", "1025x1025", "99999999999999999999x2", "4294967296*"] {
+        for a in [
+            "2147483648",
+            "1025x1025",
+            "99999999999999999999x2",
+            "4294967296*",
+        ] {
             let f = format!("<T><FIELD name='s' datatype='char' arraysize='{a}'/></T>");
             assert!(ok(f.as_bytes()).unwrap_err().contains("arraysize"), "{a}");
         }
@@ -877,7 +902,10 @@ mod tests {
         let f = "<TABLE name='t'><FIELD name='m' datatype='double'/><DATA><TABLEDATA>\
                  <TR><TD>1</TD></TR><TR><TD>1.2.3</TD></TR></TABLEDATA></DATA></TABLE>";
         let e = ok(f.as_bytes()).unwrap_err();
-        assert!(e.contains("row 2") && e.contains("`m`") && e.contains("1.2.3"), "{e}");
+        assert!(
+            e.contains("row 2") && e.contains("`m`") && e.contains("1.2.3"),
+            "{e}"
+        );
     }
 
     #[test]

@@ -1176,11 +1176,8 @@ mod tests {
     #[test]
     fn one_file_column_behind_two_canonical_columns_is_refused() {
         let t = table(&["id", "class", "m"], &[&["a", "brown_dwarf", "0.05"]]);
-        let map = ColumnMap::from_toml_str(
-            "[columns]\nmass = \"m\"\nmass_err = \"m\"\n",
-            "m.toml",
-        )
-        .unwrap();
+        let map = ColumnMap::from_toml_str("[columns]\nmass = \"m\"\nmass_err = \"m\"\n", "m.toml")
+            .unwrap();
         let err = vet_table("f.csv", &t, Some(&map)).unwrap_err();
         assert!(
             matches!(&err, CatalogueError::SharedColumn { first, second, column, .. }
@@ -1192,7 +1189,14 @@ mod tests {
     #[test]
     fn symmetric_and_split_errors_in_one_row_are_ambiguous() {
         let t = table(
-            &["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi"],
+            &[
+                "id",
+                "class",
+                "mass",
+                "mass_err",
+                "mass_err_lo",
+                "mass_err_hi",
+            ],
             &[
                 &["a", "brown_dwarf", "0.05", "0.01", "0.01", "0.02"],
                 &["b", "brown_dwarf", "0.05", "0.01", "", ""],
