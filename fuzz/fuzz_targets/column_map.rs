@@ -11,7 +11,16 @@ fuzz_target!(|data: &[u8]| {
     let Ok(map) = ColumnMap::from_toml_str(text, "fuzz.map.toml") else {
         return;
     };
-    let names = ["id", "class", "mass", "mass_err", "m", "e", "designation", "type"];
+    let names = [
+        "id",
+        "class",
+        "mass",
+        "mass_err",
+        "m",
+        "e",
+        "designation",
+        "type",
+    ];
     let table = RawTable {
         columns: names
             .iter()
