@@ -118,19 +118,47 @@ pub struct ReadOptions {
 
 /// Reads one file into a [`RawTable`], choosing the reader by format.
 pub fn read_table(path: &Path, opts: &ReadOptions) -> Result<RawTable, CatalogueError> {
+    read_table_columns(path, opts, None)
+}
+
+/// As [`read_table`], naming the file columns the caller will use (`None`: all). A reader that
+/// can skip columns (Parquet) decodes only these, so that an unused column it cannot translate
+/// does no harm; the other readers return every column.
+pub fn read_table_columns(
+    path: &Path,
+    opts: &ReadOptions,
+    columns: Option<&[String]>,
+) -> Result<RawTable, CatalogueError> {
     let format = match opts.format {
         Some(f) => f,
         None => Format::from_path(path).ok_or_else(|| CatalogueError::UnknownFormat {
             path: path.to_path_buf(),
         })?,
     };
-    match format {
+    // Last line of defence: a panic in any reader (or the library under it) is an invalid
+    // file, reported in one line, never a crash. Readers with a known weak dependency also
+    // guard it themselves with a more precise message.
+    let name = match format {
+        Format::Csv => "csv",
+        Format::Parquet => "parquet",
+        Format::Fits => "FITS",
+        Format::VoTable => "VOTable",
+        Format::Ecsv => "ECSV",
+    };
+    super::guard::quietly(|| match format {
         Format::Csv => super::read_csv::read(path),
-        Format::Parquet => super::read_parquet::read(path),
+        Format::Parquet => super::read_parquet::read(path, columns),
         Format::Fits => super::read_fits::read(path, opts.table.as_deref()),
         Format::VoTable => super::read_votable::read(path, opts.table.as_deref()),
         Format::Ecsv => super::read_ecsv::read(path),
-    }
+    })
+    .unwrap_or_else(|_| {
+        Err(CatalogueError::Invalid {
+            path: path.to_path_buf(),
+            format: name,
+            reason: "the decoder failed on this file (corrupt or unsupported content)".into(),
+        })
+    })
 }
 
 #[cfg(test)]
