@@ -3,7 +3,9 @@
 //! A map is a small TOML file given with `--map` (or embedded in a run config). Matching is
 //! exact, never fuzzy: a misspelt key is an error naming the key, because a silently ignored
 //! line would vet the wrong column. Columns of the file that are neither mapped nor canonical
-//! are ignored.
+//! are ignored. An empty unit (`mass = ""`) means the column's default unit, exactly as an
+//! empty unit in a file's header does. Two canonical columns mapped to one file column are
+//! refused when the file is vetted (the file's column names are needed to see it).
 //!
 //! ```
 //! use dwarfbound::catalogue::colmap::ColumnMap;
@@ -149,6 +151,10 @@ impl ColumnMap {
                 )));
             }
         }
+        // An empty unit means "the default unit", as an empty `[]` or absent unit in a file's
+        // header does: the same spelling means the same thing wherever it is written.
+        let mut raw = raw;
+        raw.units.retain(|_, v| !v.trim().is_empty());
         for (k, v) in &raw.units {
             if !CANONICAL_COLUMNS.contains(&k.as_str()) {
                 return Err(bad(format!("[units]: `{k}` is not a canonical column")));
@@ -260,5 +266,13 @@ table = "CATALOG"
         assert!(e.contains("mass") && e.contains("km"), "{e}");
         let e = err("[columns]\nid = 3\n");
         assert!(e.contains("line 2"), "{e}");
+    }
+
+    #[test]
+    fn empty_unit_means_default_as_in_a_header() {
+        // Issue 13 item 9: `mass = ""` in a map means what `mass[]` means in a CSV header.
+        let m =
+            ColumnMap::from_toml_str("[units]\nmass = \"\"\nmass_err = \" \"\n", "m.toml").unwrap();
+        assert!(m.units.is_empty());
     }
 }

@@ -70,6 +70,18 @@ pub enum CatalogueError {
         /// The repeated column name.
         column: String,
     },
+    /// Two canonical columns are mapped to the same column of the file.
+    #[error("{path}: canonical columns `{first}` and `{second}` are both mapped to the file's column `{column}`; each needs a column of its own")]
+    SharedColumn {
+        /// The file.
+        path: PathBuf,
+        /// The file column.
+        column: String,
+        /// The first canonical column (in canonical order).
+        first: String,
+        /// The second canonical column.
+        second: String,
+    },
     /// Rows in ≠ accepted + quarantined: a bug in vetting, never the user's fault (exit 1).
     #[error("{path}: internal error: {rows_in} rows in but {accepted} accepted + {quarantined} quarantined")]
     Unreconciled {

@@ -16,6 +16,7 @@
 pub mod colmap;
 pub mod error;
 pub mod export;
+pub mod guard;
 pub mod summary;
 pub mod table;
 pub mod units;

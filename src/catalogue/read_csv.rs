@@ -4,8 +4,12 @@
 //! their data are invented); after the header every line is data, so a row is never lost to a
 //! comment rule. A header cell `mass[jupiterMass]` names column `mass` with unit `jupiterMass`.
 //! A row with the wrong number of fields is kept (padded or cut) and flagged as malformed, so
-//! that vetting quarantines it with its row number. Hand-wired on the `csv` crate rather than
-//! polars because vetting needs every cell's raw text and every row, including broken ones.
+//! that vetting quarantines it with its row number. Each physical line is one row: a line whose
+//! quotes do not balance (a stray `"`) is quarantined with its row number and reading resumes
+//! at the next line, so quoted fields cannot span lines. A UTF-16 or semicolon-delimited file
+//! is refused with a message that says so. Written by hand rather than on the `csv` crate or
+//! polars: vetting needs every cell's raw text and every row, and a quoting error must stay
+//! inside its line (the `csv` crate lets an open quote run to the end of the file).
 //!
 //! ```text
 //! # Invented data for a fictional survey.
@@ -13,7 +17,7 @@
 //! A-1,brown_dwarf,62,4
 //! ```
 
-use std::io::{BufRead, Read};
+use std::io::BufRead;
 use std::path::Path;
 
 use super::error::CatalogueError;
@@ -54,7 +58,95 @@ fn parse(path: &Path, bytes: &[u8]) -> Result<RawTable, CatalogueError> {
     parse_from(path, bytes)
 }
 
-/// Parses CSV from a buffered reader.
+/// Splits one physical line into fields (RFC 4180 quoting within the line: a field that starts
+/// with `"` runs to its closing `"`, with `""` for a quote inside). `None` when a quote is
+/// unbalanced or stray (a quote inside an unquoted field, or text after a closing quote).
+fn split_line(line: &[u8]) -> Option<Vec<Vec<u8>>> {
+    let mut fields = Vec::new();
+    let mut field = Vec::new();
+    let mut i = 0;
+    loop {
+        if line.get(i) == Some(&b'"') {
+            i += 1;
+            loop {
+                match line.get(i) {
+                    None => return None,
+                    Some(b'"') if line.get(i + 1) == Some(&b'"') => {
+                        field.push(b'"');
+                        i += 2;
+                    }
+                    Some(b'"') => {
+                        i += 1;
+                        break;
+                    }
+                    Some(&c) => {
+                        field.push(c);
+                        i += 1;
+                    }
+                }
+            }
+            match line.get(i) {
+                None | Some(b',') => {}
+                Some(_) => return None,
+            }
+        } else {
+            while let Some(&c) = line.get(i) {
+                match c {
+                    b',' => break,
+                    b'"' => return None,
+                    _ => field.push(c),
+                }
+                i += 1;
+            }
+        }
+        fields.push(std::mem::take(&mut field));
+        if i >= line.len() {
+            return Some(fields);
+        }
+        i += 1; // the comma
+    }
+}
+
+/// Removes the line end (`\n` or `\r\n`).
+fn trim_line_end(line: &mut Vec<u8>) {
+    if line.last() == Some(&b'\n') {
+        line.pop();
+        if line.last() == Some(&b'\r') {
+            line.pop();
+        }
+    }
+}
+
+/// What a file that is not comma-separated UTF-8 looks like, from its header line.
+fn diagnose_header(header: &[u8], fields: usize) -> Option<String> {
+    if header.starts_with(b"\xFF\xFE") || header.starts_with(b"\xFE\xFF") {
+        return Some(
+            "the file is UTF-16 text (it starts with a UTF-16 byte-order mark); save it as UTF-8"
+                .into(),
+        );
+    }
+    if header.contains(&0) {
+        return Some(
+            "the header holds NUL bytes: the file is probably UTF-16 text or binary, not UTF-8 CSV"
+                .into(),
+        );
+    }
+    if fields == 1 {
+        for (sep, what) in [(b';', "semicolon"), (b'\t', "tab"), (b'|', "pipe")] {
+            if header.contains(&sep) {
+                return Some(format!(
+                    "the header has a single column and contains {what}s: the file looks \
+                     {what}-delimited; dwarfbound reads comma-separated values only"
+                ));
+            }
+        }
+    }
+    None
+}
+
+/// Parses CSV from a buffered reader, one physical line per row: a row whose quotes do not
+/// balance is quarantined with its row number and reading resumes at the next line, so one
+/// stray quote never swallows the rest of the file (quoted fields cannot span lines).
 fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, CatalogueError> {
     let invalid = |reason: String| CatalogueError::Invalid {
         path: path.to_path_buf(),
@@ -65,7 +157,7 @@ fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, Catalogu
         path: path.to_path_buf(),
         reason: e.to_string(),
     };
-    // Skip comment and blank lines before the header; keep the header line to hand back.
+    // Skip comment and blank lines before the header.
     let mut first = true;
     let mut header_line = Vec::new();
     loop {
@@ -89,16 +181,13 @@ fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, Catalogu
             break;
         }
     }
-    let rest = std::io::Cursor::new(header_line).chain(input);
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(rest);
-    let mut records = reader.byte_records();
-    let header = match records.next() {
-        Some(Ok(h)) => h,
-        Some(Err(e)) => return Err(invalid(format!("header: {e}"))),
-        None => return Err(invalid("no header line".into())),
+    trim_line_end(&mut header_line);
+    let header = split_line(&header_line);
+    if let Some(why) = diagnose_header(&header_line, header.as_ref().map_or(0, Vec::len)) {
+        return Err(invalid(why));
+    }
+    let Some(header) = header else {
+        return Err(invalid("header: unbalanced or stray quote".into()));
     };
     let mut columns = Vec::with_capacity(header.len());
     for (i, h) in header.iter().enumerate() {
@@ -111,29 +200,41 @@ fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, Catalogu
         columns,
         ..RawTable::default()
     };
-    for (i, rec) in records.enumerate() {
-        let row_number = i + 1;
-        let rec = rec.map_err(|e| {
-            if e.is_io_error() {
-                CatalogueError::Unreadable {
-                    path: path.to_path_buf(),
-                    reason: e.to_string(),
-                }
-            } else {
-                invalid(format!("data row {row_number}: {e}"))
-            }
-        })?;
+    let mut line = Vec::new();
+    let mut row_number = 0;
+    loop {
+        line.clear();
+        if input.read_until(b'\n', &mut line).map_err(unreadable)? == 0 {
+            break;
+        }
+        trim_line_end(&mut line);
+        if line.is_empty() {
+            continue;
+        }
+        row_number += 1;
+        let Some(fields) = split_line(&line) else {
+            table.malformed.push((
+                row_number,
+                "unbalanced or stray quote (the row is skipped; reading resumes at the next line)"
+                    .to_string(),
+            ));
+            table.rows.push(RawRow {
+                row_number,
+                cells: vec![Cell::Missing; ncols],
+            });
+            continue;
+        };
         let mut problem: Option<String> = None;
-        if rec.len() != ncols {
-            problem = Some(format!("expected {ncols} fields, found {}", rec.len()));
+        if fields.len() != ncols {
+            problem = Some(format!("expected {ncols} fields, found {}", fields.len()));
         }
         let mut cells = Vec::with_capacity(ncols);
-        for field in rec.iter().take(ncols) {
-            let text = match std::str::from_utf8(field) {
-                Ok(t) => t.to_string(),
-                Err(_) => {
+        for field in fields.into_iter().take(ncols) {
+            let text = match String::from_utf8(field) {
+                Ok(t) => t,
+                Err(e) => {
                     problem.get_or_insert_with(|| "not valid UTF-8".to_string());
-                    String::from_utf8_lossy(field).into_owned()
+                    String::from_utf8_lossy(e.as_bytes()).into_owned()
                 }
             };
             cells.push(if text.is_empty() {
@@ -216,5 +317,40 @@ mod tests {
             let e = parse(Path::new("e.csv"), s.as_bytes()).unwrap_err();
             assert!(e.to_string().contains("e.csv"), "{e}");
         }
+    }
+
+    #[test]
+    fn a_stray_quote_costs_one_row() {
+        // Issue 13 item 5: one `"` in row 2 used to swallow the rest of the file.
+        let mut text = String::from("id,mass\n");
+        for k in 1..=300 {
+            let q = if k == 2 { "\"" } else { "" };
+            text.push_str(&format!("{q}A{k},{k}\n"));
+        }
+        let t = p(&text);
+        assert_eq!(t.rows.len(), 300);
+        assert_eq!(t.malformed.len(), 1);
+        assert_eq!(t.malformed[0].0, 2);
+        assert!(t.malformed[0].1.contains("quote"));
+        assert_eq!(t.rows[2].cells[0], Cell::Text("A3".into()));
+        // RFC 4180 quoting within a line still works.
+        let t = p("id,ref\n\"A,1\",\"say \"\"hi\"\"\"\n");
+        assert!(t.malformed.is_empty());
+        assert_eq!(t.rows[0].cells[0], Cell::Text("A,1".into()));
+        assert_eq!(t.rows[0].cells[1], Cell::Text("say \"hi\"".into()));
+    }
+
+    #[test]
+    fn files_that_are_not_comma_separated_utf8_say_what_they_are() {
+        let e = |bytes: &[u8]| parse(Path::new("x.csv"), bytes).unwrap_err().to_string();
+        assert!(e(b"id;class;mass\na;b;1\n").contains("semicolon-delimited"));
+        assert!(e(b"id\tclass\tmass\n").contains("tab-delimited"));
+        let utf16: Vec<u8> = "id,class\n"
+            .encode_utf16()
+            .flat_map(|u| u.to_le_bytes())
+            .collect();
+        assert!(e(&utf16).contains("UTF-16"));
+        assert!(e(b"\xff\xfei\0d\0").contains("UTF-16"));
+        assert!(e(b"id,\"class\n").contains("quote"));
     }
 }

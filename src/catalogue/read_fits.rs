@@ -442,7 +442,22 @@ fn read_from(r: &mut FitsReader, table: Option<&str>) -> Result<RawTable, Failur
         Selection::Index(i) => format!("no HDU number {i}"),
         Selection::Name(n) => format!("no HDU named `{n}`"),
     };
-    invalid(format!("{what}; HDUs present: {}", seen.join(", ")))
+    // Bytes left that do not make a whole header block: most often a file cut in transfer.
+    let tail = r.file_len.saturating_sub(r.pos);
+    let cause = if tail > 0 {
+        format!(
+            "; the file ends with {tail} bytes after HDU {} that are not a complete header \
+             (truncated file?)",
+            hdu.saturating_sub(1)
+        )
+    } else if seen.len() == 1 {
+        "; the file holds only the primary HDU (a file cut after its first header looks \
+         like this)"
+            .to_string()
+    } else {
+        String::new()
+    };
+    invalid(format!("{what}; HDUs present: {}{cause}", seen.join(", ")))
 }
 
 /// Element type of a column (FITS Standard 4.0, Table 18).

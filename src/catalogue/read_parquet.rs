@@ -7,6 +7,12 @@
 //! survive. Parquet carries no standard unit metadata: units come from the column map or the
 //! defaults. Rows are numbered from 1 in file order.
 //!
+//! Only the columns the caller names ([`ReadOptions::columns`](super::table::ReadOptions)) are
+//! decoded, so an unused column of a type we do not translate (timestamp, struct, list,
+//! decimal, float16, map, …) never makes a file unreadable. The decoder runs inside
+//! [`guard::quietly`](super::guard::quietly): a panic in it becomes a one-line "invalid
+//! parquet file" error naming the file, with no panic message or backtrace.
+//!
 //! ```no_run
 //! use dwarfbound::catalogue::table::{read_table, ReadOptions};
 //! let table = read_table("survey.parquet".as_ref(), &ReadOptions::default())?;
@@ -19,13 +25,15 @@ use std::path::Path;
 use polars::prelude::*;
 
 use super::error::CatalogueError;
+use super::guard;
 use super::table::{Cell, ColumnMeta, RawRow, RawTable};
 
 /// Largest integer magnitude an `f64` holds exactly.
 const EXACT_INT_F64: u64 = 1 << 53;
 
-/// Reads a Parquet file.
-pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
+/// Reads a Parquet file; with `wanted`, only those columns (the others present in the file are
+/// skipped, names absent from it are left for vetting to report).
+pub fn read(path: &Path, wanted: Option<&[String]>) -> Result<RawTable, CatalogueError> {
     let file = std::fs::File::open(path).map_err(|e| CatalogueError::Unreadable {
         path: path.to_path_buf(),
         reason: e.to_string(),
@@ -35,12 +43,46 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
         format: "parquet",
         reason,
     };
-    // polars may panic on some corrupt files; a bad input file must be exit 2, not a crash.
-    let df = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-        ParquetReader::new(file).finish()
-    }))
-    .map_err(|_| invalid("the Parquet reader failed on this file".into()))?
-    .map_err(|e| invalid(one_line(&e.to_string())))?;
+    // polars may panic on corrupt files; a bad input file must be exit 2, not a crash.
+    let df = guard::quietly(|| -> Result<DataFrame, String> {
+        let text = |e: PolarsError| one_line(&e.to_string());
+        let mut reader = ParquetReader::new(file);
+        let columns = match wanted {
+            None => None,
+            Some(wanted) => {
+                let schema = reader.schema().map_err(text)?;
+                let mut keep: Vec<String> = Vec::new();
+                for name in wanted {
+                    let Some(field) = schema.get(name.as_str()) else {
+                        continue;
+                    };
+                    if is_container(field.dtype()) {
+                        return Err(format!(
+                            "column `{name}` holds {:?} values (a container type), which \
+                             cannot be read as a number or text",
+                            field.dtype()
+                        ));
+                    }
+                    if !keep.contains(name) {
+                        keep.push(name.clone());
+                    }
+                }
+                Some(keep)
+            }
+        };
+        let read = columns.as_ref().map(|c| c.join(", "));
+        reader
+            .with_columns(columns)
+            .finish()
+            .map_err(|e| match read {
+                Some(names) => format!("{} (reading columns {names})", text(e)),
+                None => text(e),
+            })
+    })
+    .map_err(|_| {
+        invalid("the Parquet decoder failed on this file (corrupt or unsupported content)".into())
+    })?
+    .map_err(invalid)?;
     let height = df.height();
     let width = df.width();
     // Column by column into the rows, moving cells, so that at most one column exists twice.
@@ -75,6 +117,19 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
         rows,
         malformed: Vec::new(),
     })
+}
+
+/// Types whose values are containers of other values (struct, list, map, union): no cell text.
+fn is_container(dtype: &ArrowDataType) -> bool {
+    matches!(
+        dtype,
+        ArrowDataType::List(_)
+            | ArrowDataType::LargeList(_)
+            | ArrowDataType::FixedSizeList(_, _)
+            | ArrowDataType::Struct(_)
+            | ArrowDataType::Union(_)
+            | ArrowDataType::Map(_, _)
+    )
 }
 
 fn one_line(s: &str) -> String {
@@ -137,7 +192,7 @@ mod tests {
         .unwrap();
         let mut f = std::fs::File::create(&path).unwrap();
         ParquetWriter::new(&mut f).finish(&mut df).unwrap();
-        let t = read(&path).unwrap();
+        let t = read(&path, None).unwrap();
         let names: Vec<_> = t.columns.iter().map(|c| c.name.as_str()).collect();
         assert_eq!(names, ["id", "mass", "n", "f32"]);
         assert_eq!(t.rows.len(), 3);
@@ -157,7 +212,7 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let path = dir.path().join("bad.parquet");
         std::fs::write(&path, b"PAR1 this is not parquet").unwrap();
-        let e = read(&path).unwrap_err();
+        let e = read(&path, None).unwrap_err();
         assert!(e.to_string().contains("bad.parquet"), "{e}");
     }
 }

@@ -34,7 +34,6 @@
 
 use std::fs::File;
 use std::io::{BufRead, BufReader};
-use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::Path;
 
 use votable::data::DataElem;
@@ -46,7 +45,11 @@ use votable::table::{Table, TableElem};
 use votable::votable::VOTableWrapper;
 
 use super::error::CatalogueError;
+use super::guard;
 use super::table::{Cell, ColumnMeta, RawRow, RawTable};
+
+/// Stack of the parser thread (virtual memory; only the pages used are touched).
+const PARSER_STACK_BYTES: usize = 64 << 20;
 
 /// Largest integer magnitude every value up to which a double holds exactly (2⁵³).
 const EXACT_INT_LIMIT: i64 = 1 << 53;
@@ -69,32 +72,233 @@ pub fn read(path: &Path, table: Option<&str>) -> Result<RawTable, CatalogueError
     })?;
     let reader = BufReader::with_capacity(1 << 16, file);
     // The parser is a dependency: should it panic on some malformed input, the file is
-    // reported as invalid instead of taking the program down.
-    let outcome = catch_unwind(AssertUnwindSafe(|| read_from(reader, table)));
+    // reported as invalid instead of taking the program down. It recurses on RESOURCE and
+    // GROUP; the depth is bounded above, and it runs on a thread with a generous stack so
+    // that the bound holds in unoptimised builds too.
+    let table = table.map(str::to_string);
+    let outcome = std::thread::Builder::new()
+        .name("votable".into())
+        .stack_size(PARSER_STACK_BYTES)
+        .spawn(move || guard::quietly(|| read_from(reader, table.as_deref())))
+        .map_err(|e| CatalogueError::Unreadable {
+            path: path.to_path_buf(),
+            reason: format!("cannot start the VOTable parser: {e}"),
+        })?
+        .join();
     let reason = match outcome {
-        Ok(Ok(t)) => return Ok(t),
-        Ok(Err(reason)) => reason,
-        Err(_) => "the VOTable parser failed on malformed input".to_string(),
+        Ok(Ok(Ok(t))) => return Ok(t),
+        Ok(Ok(Err(reason))) => reason,
+        _ => "the VOTable parser failed on malformed input".to_string(),
     };
     Err(invalid(reason))
 }
 
-/// Checks that the XML elements are balanced, the document complete and every base64 STREAM
-/// clean, in one streaming pass. votable 0.7.0 loops forever when the file ends inside a
-/// BINARY/BINARY2 element (its inner loops discard the end-of-file event), and it ends a binary
-/// table silently, keeping the rows read so far, at a byte that is not base64; such files must
-/// be refused before it sees them. Not a full XML validator: names, nesting, comments, CDATA,
-/// processing instructions and quoted attribute values only.
+/// Deepest element nesting accepted (VOTABLE › RESOURCE › TABLE › DATA › TABLEDATA › TR › TD is
+/// 7; nested RESOURCEs and GROUPs add a few). The parser recurses on RESOURCE and GROUP, so a
+/// file nested thousands deep would overflow its stack; past this depth the file is refused.
+pub const MAX_XML_DEPTH: usize = 32;
+
+/// Largest number of elements one `arraysize` may declare (product of its dimensions). The
+/// parser allocates and pads fixed-size cells eagerly, so `arraysize="2147483648"` would
+/// allocate gigabytes from a few bytes of file.
+pub const MAX_ARRAY_ELEMENTS: u64 = 1 << 20;
+
+/// Largest memory, in bytes, that fixed-size TABLEDATA cells may take once padded to their
+/// `arraysize` (rows × fixed row width); beyond it the file is refused before parsing.
+pub const MAX_PADDED_BYTES: u64 = 256 << 20;
+
+/// Longest start tag accepted, in bytes.
+const MAX_TAG_BYTES: usize = 1 << 16;
+
+/// Streaming UTF-8 validation, one byte at a time.
+#[derive(Default)]
+struct Utf8Check {
+    buf: [u8; 4],
+    len: usize,
+    need: usize,
+}
+
+impl Utf8Check {
+    /// Feeds one byte; `false` when the bytes so far cannot be UTF-8.
+    fn push(&mut self, b: u8) -> bool {
+        if self.need == 0 {
+            self.need = match b {
+                0x00..=0x7f => return true,
+                0xc2..=0xdf => 2,
+                0xe0..=0xef => 3,
+                0xf0..=0xf4 => 4,
+                _ => return false,
+            };
+            self.buf[0] = b;
+            self.len = 1;
+            return true;
+        }
+        self.buf[self.len] = b;
+        self.len += 1;
+        if self.len < self.need {
+            return (0x80..=0xbf).contains(&b);
+        }
+        self.need = 0;
+        // Overlong forms, surrogates and code points above U+10FFFF fail here.
+        std::str::from_utf8(&self.buf[..self.len]).is_ok()
+    }
+}
+
+/// The value of attribute `key` in a start tag's bytes (name included), if present.
+fn attribute(tag: &[u8], key: &[u8]) -> Option<String> {
+    let mut i = tag.iter().position(|c| c.is_ascii_whitespace())?;
+    while i < tag.len() {
+        while i < tag.len() && (tag[i].is_ascii_whitespace() || tag[i] == b'/') {
+            i += 1;
+        }
+        let name_start = i;
+        while i < tag.len() && tag[i] != b'=' && !tag[i].is_ascii_whitespace() {
+            i += 1;
+        }
+        let name = &tag[name_start..i];
+        while i < tag.len() && tag[i].is_ascii_whitespace() {
+            i += 1;
+        }
+        if i >= tag.len() || tag[i] != b'=' {
+            return None;
+        }
+        i += 1;
+        while i < tag.len() && tag[i].is_ascii_whitespace() {
+            i += 1;
+        }
+        let quote = *tag.get(i)?;
+        if quote != b'"' && quote != b'\'' {
+            return None;
+        }
+        let value_start = i + 1;
+        let value_end = value_start + tag[value_start..].iter().position(|&c| c == quote)?;
+        if name == key {
+            return Some(String::from_utf8_lossy(&tag[value_start..value_end]).into_owned());
+        }
+        i = value_end + 1;
+    }
+    None
+}
+
+/// Bytes one element of a VOTable datatype takes in memory (at least its binary width).
+fn element_bytes(datatype: &str) -> u64 {
+    match datatype {
+        "short" | "unicodeChar" => 2,
+        "int" | "float" => 4,
+        "long" | "double" | "floatComplex" => 8,
+        "doubleComplex" => 16,
+        _ => 1,
+    }
+}
+
+/// Number of elements an `arraysize` declares (`Ok(None)` without one), checked against
+/// [`MAX_ARRAY_ELEMENTS`]; and whether the size is fixed (no `*`).
+fn array_elements(arraysize: Option<&str>) -> Result<(Option<u64>, bool), String> {
+    let Some(a) = arraysize.map(str::trim) else {
+        return Ok((None, true));
+    };
+    let fixed = !a.contains('*');
+    let mut product: u64 = 1;
+    for dim in a.split('x') {
+        let digits = dim.trim().trim_end_matches('*');
+        if digits.is_empty() {
+            continue;
+        }
+        // Not a number: left to the parser, which names it. Digits beyond u64 are too many.
+        if !digits.bytes().all(|b| b.is_ascii_digit()) {
+            return Ok((None, fixed));
+        }
+        let n = digits.parse::<u64>().unwrap_or(u64::MAX);
+        product = product.saturating_mul(n);
+    }
+    if product > MAX_ARRAY_ELEMENTS {
+        return Err(format!(
+            "arraysize=\"{a}\" declares {product} elements, more than the limit of \
+             {MAX_ARRAY_ELEMENTS}"
+        ));
+    }
+    Ok((Some(product), fixed))
+}
+
+/// A FIELD of the TABLE being scanned: enough to check its TABLEDATA cells.
+struct ScanField {
+    name: String,
+    datatype: String,
+    scalar: bool,
+}
+
+/// Why a TABLEDATA cell does not parse as its FIELD's scalar numeric datatype, if it does not
+/// (the same standard-library parse the VOTable parser applies).
+fn bad_scalar(datatype: &str, text: &str) -> Option<&'static str> {
+    let t = text.trim();
+    if t.is_empty() || t.contains('&') {
+        return None;
+    }
+    let ok = match datatype {
+        "unsignedByte" => t.parse::<u8>().is_ok(),
+        "short" => t.parse::<i16>().is_ok(),
+        "int" => t.parse::<i32>().is_ok(),
+        "long" => t.parse::<i64>().is_ok(),
+        "float" => t.parse::<f32>().is_ok(),
+        "double" => t.parse::<f64>().is_ok(),
+        _ => true,
+    };
+    (!ok).then_some(match datatype {
+        "float" | "double" => "is not a number",
+        _ => "is not an integer of that size",
+    })
+}
+
+/// Checks, in one streaming pass and before the VOTable parser sees the file, everything the
+/// parser trusts: the bytes are UTF-8 (the parser decodes TABLEDATA text without checking, and
+/// invalid bytes in a `unicodeChar` or `char` cell reach unchecked code), the XML elements are
+/// balanced and at most [`MAX_XML_DEPTH`] deep, the document is complete, every `arraysize`
+/// within [`MAX_ARRAY_ELEMENTS`] and the padded TABLEDATA within [`MAX_PADDED_BYTES`], every
+/// base64 STREAM clean, and every scalar numeric TABLEDATA cell a number of its datatype (so
+/// that the message names the row and column). votable 0.7.0 also loops forever when the file
+/// ends inside a BINARY/BINARY2 element and ends a binary table silently at a byte that is not
+/// base64. Not a full XML validator: names, nesting, comments, CDATA, processing instructions
+/// and quoted attribute values only.
 fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
     let mut bytes = reader.bytes().peekable();
     let mut line = 1usize;
     let mut stack: Vec<Vec<u8>> = Vec::new();
     let mut seen_root = false;
-    // Next byte, counting lines; `Ok(None)` at end of file.
+    let mut utf8 = Utf8Check::default();
+    let mut position = 0u64;
+    // Next byte, counting lines and checking UTF-8; `Ok(None)` at end of file.
     let mut next = |line: &mut usize| -> Result<Option<u8>, String> {
         match bytes.next() {
-            None => Ok(None),
+            None => {
+                if utf8.need != 0 {
+                    return Err(format!(
+                        "line {line}: the file ends inside a UTF-8 character"
+                    ));
+                }
+                Ok(None)
+            }
             Some(Ok(b)) => {
+                if position == 0 && (b == 0xff || b == 0xfe) {
+                    return Err(
+                        "the file starts with a UTF-16 byte-order mark: it is UTF-16 \
+                                text; convert it to UTF-8"
+                            .into(),
+                    );
+                }
+                if position < 2 && b == 0 {
+                    return Err(
+                        "the file holds NUL bytes at its start: it is probably UTF-16 \
+                                text without a byte-order mark; convert it to UTF-8"
+                            .into(),
+                    );
+                }
+                position += 1;
+                if !utf8.push(b) {
+                    return Err(format!(
+                        "line {line}: bytes that are not valid UTF-8 (VOTable text must be \
+                         UTF-8; a string cell with such bytes cannot be decoded safely)"
+                    ));
+                }
                 if b == b'\n' {
                     *line += 1;
                 }
@@ -107,6 +311,16 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
     // Inside a STREAM: count of base64 characters and of `=` padding seen. The crate stops
     // silently at a byte that is not base64 and returns the rows read so far.
     let mut stream: Option<(usize, usize)> = None;
+    // The TABLE being scanned: its FIELDs, fixed bytes per row, rows seen.
+    let mut fields: Vec<ScanField> = Vec::new();
+    let mut table_name = String::new();
+    let mut row_bytes: u64 = 0;
+    // Whether every FIELD has a fixed binary width (no `*`, no bit field), so that a BINARY
+    // STREAM must hold a whole number of rows.
+    let mut fixed_width = true;
+    let mut rows: u64 = 0;
+    let mut cell: Option<(usize, Vec<u8>)> = None;
+    let mut cell_index = 0usize;
     while let Some(b) = next(&mut line)? {
         if b != b'<' {
             if let Some((count, padding)) = stream.as_mut() {
@@ -124,6 +338,11 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                             "line {line}: byte 0x{b:02x} is not valid base64 inside a STREAM"
                         ))
                     }
+                }
+            }
+            if let Some((_, text)) = cell.as_mut() {
+                if text.len() < 1024 {
+                    text.push(b);
                 }
             }
             continue;
@@ -154,6 +373,10 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                         break (b">", "a declaration");
                     }
                 };
+                if head.starts_with(b"[CDATA[") {
+                    // A CDATA cell is not checked as a number.
+                    cell = None;
+                }
                 // The end marker must follow the opening one (`<!-->` is no complete comment).
                 let mut tail: Vec<u8> = if end == b">" || end == b"?>" {
                     head
@@ -177,16 +400,61 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                         None => return Err(ended(line, "an end tag")),
                         Some(b'>') => break,
                         Some(c) if c.is_ascii_whitespace() => {}
-                        Some(c) => name.push(c),
+                        Some(c) => {
+                            if name.len() >= MAX_TAG_BYTES {
+                                return Err(format!("line {start_line}: an end tag too long"));
+                            }
+                            name.push(c)
+                        }
                     }
                 }
                 if name == b"STREAM" {
-                    if let Some((count, _)) = stream.take() {
+                    if let Some((count, padding)) = stream.take() {
                         if count % 4 != 0 {
                             return Err(format!(
                                 "line {start_line}: the base64 STREAM has {count} characters, \
                                  not a multiple of 4 (cut or corrupted)"
                             ));
+                        }
+                        // BINARY2 rows start with one null flag bit per FIELD.
+                        let binary2 = stack.iter().any(|e| e == b"BINARY2");
+                        let flags = if binary2 {
+                            fields.len().div_ceil(8) as u64
+                        } else {
+                            0
+                        };
+                        let width = row_bytes + flags;
+                        let decoded = (count / 4 * 3).saturating_sub(padding) as u64;
+                        if fixed_width
+                            && !fields.is_empty()
+                            && width > 0
+                            && !decoded.is_multiple_of(width)
+                        {
+                            return Err(format!(
+                                "line {start_line}: TABLE `{table_name}`: the binary STREAM holds \
+                                 {decoded} bytes: {} complete rows of {width} bytes and {} bytes \
+                                 of row {} (truncated, or FIELD datatypes and arraysizes that do \
+                                 not match the data)",
+                                decoded / width,
+                                decoded % width,
+                                decoded / width + 1
+                            ));
+                        }
+                    }
+                }
+                if name == b"TD" {
+                    if let Some((index, text)) = cell.take() {
+                        if let Some(f) = fields.get(index).filter(|f| f.scalar) {
+                            let text = String::from_utf8_lossy(&text);
+                            if let Some(why) = bad_scalar(&f.datatype, &text) {
+                                return Err(format!(
+                                    "line {start_line}: TABLE `{table_name}`, data row {rows}, \
+                                     column `{}` (datatype {}): `{}` {why}",
+                                    f.name,
+                                    f.datatype,
+                                    text.trim()
+                                ));
+                            }
                         }
                     }
                 }
@@ -215,7 +483,8 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                         "line {start_line}: a second root element after the document's end"
                     ));
                 }
-                let mut name = vec![c];
+                let mut tag = vec![c];
+                let mut name_len = 1usize;
                 let mut in_name = true;
                 let mut quote: Option<u8> = None;
                 let mut previous = c;
@@ -236,13 +505,77 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                         in_name = false;
                     }
                     if in_name {
-                        name.push(c);
+                        name_len += 1;
                     }
+                    if tag.len() >= MAX_TAG_BYTES {
+                        return Err(format!(
+                            "line {start_line}: a start tag longer than {MAX_TAG_BYTES} bytes"
+                        ));
+                    }
+                    tag.push(c);
                     previous = c;
                 }
-                if previous != b'/' {
+                let name = tag[..name_len].to_vec();
+                let self_closing = previous == b'/';
+                match name.as_slice() {
+                    b"TABLE" => {
+                        fields.clear();
+                        row_bytes = 0;
+                        fixed_width = true;
+                        rows = 0;
+                        table_name = attribute(&tag, b"name")
+                            .or_else(|| attribute(&tag, b"ID"))
+                            .unwrap_or_else(|| "(unnamed)".into());
+                    }
+                    b"FIELD" | b"PARAM" => {
+                        let datatype = attribute(&tag, b"datatype").unwrap_or_default();
+                        let arraysize = attribute(&tag, b"arraysize");
+                        let (elements, fixed) = array_elements(arraysize.as_deref())
+                            .map_err(|e| format!("line {start_line}: {e}"))?;
+                        if name == b"FIELD" {
+                            if !fixed || datatype == "bit" {
+                                fixed_width = false;
+                            }
+                            if fixed {
+                                row_bytes = row_bytes.saturating_add(
+                                    elements.unwrap_or(1) * element_bytes(&datatype),
+                                );
+                            }
+                            fields.push(ScanField {
+                                name: attribute(&tag, b"name").unwrap_or_default(),
+                                scalar: arraysize.is_none(),
+                                datatype,
+                            });
+                        }
+                    }
+                    b"TR" => {
+                        rows += 1;
+                        cell_index = 0;
+                        if rows.saturating_mul(row_bytes) > MAX_PADDED_BYTES {
+                            return Err(format!(
+                                "line {start_line}: TABLE `{table_name}`: {rows} rows of \
+                                 {row_bytes} fixed bytes exceed the limit of {MAX_PADDED_BYTES} \
+                                 bytes once cells are padded to their arraysize"
+                            ));
+                        }
+                    }
+                    b"TD" => {
+                        if !self_closing {
+                            cell = Some((cell_index, Vec::new()));
+                        }
+                        cell_index += 1;
+                    }
+                    _ => {}
+                }
+                if !self_closing {
                     if name == b"STREAM" {
                         stream = Some((0, 0));
+                    }
+                    if stack.len() >= MAX_XML_DEPTH {
+                        return Err(format!(
+                            "line {start_line}: elements nested deeper than {MAX_XML_DEPTH} \
+                             levels (limit of this reader)"
+                        ));
                     }
                     stack.push(name);
                 }
@@ -259,6 +592,26 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
         return Err("no XML element found".into());
     }
     Ok(())
+}
+
+/// Says in the user's terms what a VOTable parser error means, keeping the parser's words.
+fn explain(raw: &str) -> String {
+    let raw = raw.split_whitespace().collect::<Vec<_>>().join(" ");
+    let meaning = if raw.contains("failed to fill whole buffer") {
+        "a binary STREAM ends inside a row: the data are shorter than the FIELDs declare"
+    } else if raw.contains("MultiByte") {
+        "a unicodeChar value holds a character outside the Basic Multilingual Plane, which \
+         unicodeChar (UCS-2) cannot store; use datatype char (UTF-8)"
+    } else if raw.contains("tf8") || raw.contains("utf-8") || raw.contains("UCS2") {
+        "a char or unicodeChar cell holds bytes that are not valid text (UTF-8 or UCS-2)"
+    } else if raw.contains("invalid digit") || raw.contains("invalid float") {
+        "a value is not a number of its FIELD's datatype"
+    } else if raw.contains("Unexpected empty tag") || raw.contains("Unexpected start tag") {
+        "an element the VOTable 1.4 schema does not allow there"
+    } else {
+        return format!("XML: {raw}");
+    };
+    format!("{meaning} (parser: {raw})")
 }
 
 /// Which TABLE the caller asked for.
@@ -289,7 +642,7 @@ fn read_from<R: BufRead>(reader: R, table: Option<&str>) -> Result<RawTable, Str
         },
     };
     let votable = VOTableWrapper::<InMemTableDataRows>::from_ivoa_xml_reader(reader)
-        .map_err(|e| format!("XML: {e}"))?
+        .map_err(|e| explain(&e.to_string()))?
         .unwrap();
     let mut tables = Vec::new();
     for resource in votable.resources {
@@ -408,6 +761,9 @@ fn float_cell(v: f64) -> Cell {
 }
 
 fn text_cell(s: &str, null: Option<&str>) -> Cell {
+    // votable 0.7.0 cuts an over-long fixed `char` value at a byte count and can leave half a
+    // UTF-8 character; re-check the bytes rather than trust the `str`.
+    let s = String::from_utf8_lossy(s.as_bytes());
     let s = s.trim_end_matches('\0');
     if s.is_empty() || Some(s) == null {
         Cell::Missing
@@ -502,5 +858,64 @@ mod tests {
             to_cell(VOTableValue::String("ab\0".into()), None),
             Cell::Text("ab".into())
         );
+    }
+
+    #[test]
+    fn hostile_votables_are_refused_before_the_parser() {
+        let ok = |s: &[u8]| check_well_formed(s);
+        // Issue 13 item 1: bytes that are not UTF-8 (an incomplete sequence, an encoded
+        // surrogate, a lone 0xff), RFC 3629.
+        for bad in [
+            &b"<A>\xe2\x82</A>"[..],
+            b"<A>\xed\xa0\x80</A>",
+            b"<A>\xff</A>",
+            b"<A>\xc3",
+        ] {
+            assert!(ok(bad).unwrap_err().contains("UTF-8"), "{bad:?}");
+        }
+        assert!(ok("<A>\u{e9}\u{20ac}\u{1f600}</A>".as_bytes()).is_ok());
+        assert!(ok(b"\xff\xfe<\0A\0").unwrap_err().contains("UTF-16"));
+        // Item 2: depth.
+        let deep = "<R>".repeat(MAX_XML_DEPTH + 1) + &"</R>".repeat(MAX_XML_DEPTH + 1);
+        assert!(ok(deep.as_bytes()).unwrap_err().contains("nested deeper"));
+        let fine = "<R>".repeat(MAX_XML_DEPTH) + &"</R>".repeat(MAX_XML_DEPTH);
+        assert!(ok(fine.as_bytes()).is_ok());
+        // Item 3: arraysize, alone and as a product; padded TABLEDATA.
+        for a in [
+            "2147483648",
+            "1025x1025",
+            "99999999999999999999x2",
+            "4294967296*",
+        ] {
+            let f = format!("<T><FIELD name='s' datatype='char' arraysize='{a}'/></T>");
+            assert!(ok(f.as_bytes()).unwrap_err().contains("arraysize"), "{a}");
+        }
+        let f = "<T><FIELD name='s' datatype='char' arraysize='1024x1024'/></T>";
+        assert!(ok(f.as_bytes()).is_ok());
+        let rows = "<TR><TD/></TR>".repeat(300);
+        let f = format!(
+            "<TABLE><FIELD name='s' datatype='char' arraysize='1000000'/><DATA><TABLEDATA>\
+             {rows}</TABLEDATA></DATA></TABLE>"
+        );
+        assert!(ok(f.as_bytes()).unwrap_err().contains("padded"));
+        // Item 9: a bad number names its row and column.
+        let f = "<TABLE name='t'><FIELD name='m' datatype='double'/><DATA><TABLEDATA>\
+                 <TR><TD>1</TD></TR><TR><TD>1.2.3</TD></TR></TABLEDATA></DATA></TABLE>";
+        let e = ok(f.as_bytes()).unwrap_err();
+        assert!(
+            e.contains("row 2") && e.contains("`m`") && e.contains("1.2.3"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn attributes_are_read_with_either_quote() {
+        let tag = br#"FIELD name="mass" datatype='double'  arraysize = "3x2""#;
+        assert_eq!(attribute(tag, b"name").as_deref(), Some("mass"));
+        assert_eq!(attribute(tag, b"datatype").as_deref(), Some("double"));
+        assert_eq!(attribute(tag, b"arraysize").as_deref(), Some("3x2"));
+        assert_eq!(attribute(tag, b"unit"), None);
+        assert_eq!(array_elements(Some("3x2")), Ok((Some(6), true)));
+        assert_eq!(array_elements(Some("8*")), Ok((Some(8), false)));
     }
 }

@@ -5,6 +5,7 @@
 //! numbers, nulls, units from the file's metadata); they never validate or convert units.
 
 use std::path::Path;
+use std::str::FromStr;
 
 use super::error::CatalogueError;
 
@@ -91,6 +92,21 @@ impl Format {
     }
 }
 
+/// A name that is not one of the catalogue formats.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("`{0}` is not one of csv, parquet, fits, votable, ecsv")]
+pub struct ParseFormatError(pub String);
+
+impl FromStr for Format {
+    type Err = ParseFormatError;
+
+    /// Parses a format name as [`Format::from_name`] does (any case; the extensions' spellings
+    /// such as `pq`, `fit`, `vot` too), for `--format` and a config's `format` key.
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        Format::from_name(s).ok_or_else(|| ParseFormatError(s.to_string()))
+    }
+}
+
 /// Options a reader may need beyond the path.
 #[derive(Debug, Clone, Default)]
 pub struct ReadOptions {
@@ -102,17 +118,62 @@ pub struct ReadOptions {
 
 /// Reads one file into a [`RawTable`], choosing the reader by format.
 pub fn read_table(path: &Path, opts: &ReadOptions) -> Result<RawTable, CatalogueError> {
+    read_table_columns(path, opts, None)
+}
+
+/// As [`read_table`], naming the file columns the caller will use (`None`: all). A reader that
+/// can skip columns (Parquet) decodes only these, so that an unused column it cannot translate
+/// does no harm; the other readers return every column.
+pub fn read_table_columns(
+    path: &Path,
+    opts: &ReadOptions,
+    columns: Option<&[String]>,
+) -> Result<RawTable, CatalogueError> {
     let format = match opts.format {
         Some(f) => f,
         None => Format::from_path(path).ok_or_else(|| CatalogueError::UnknownFormat {
             path: path.to_path_buf(),
         })?,
     };
-    match format {
+    // Last line of defence: a panic in any reader (or the library under it) is an invalid
+    // file, reported in one line, never a crash. Readers with a known weak dependency also
+    // guard it themselves with a more precise message.
+    let name = match format {
+        Format::Csv => "csv",
+        Format::Parquet => "parquet",
+        Format::Fits => "FITS",
+        Format::VoTable => "VOTable",
+        Format::Ecsv => "ECSV",
+    };
+    super::guard::quietly(|| match format {
         Format::Csv => super::read_csv::read(path),
-        Format::Parquet => super::read_parquet::read(path),
+        Format::Parquet => super::read_parquet::read(path, columns),
         Format::Fits => super::read_fits::read(path, opts.table.as_deref()),
         Format::VoTable => super::read_votable::read(path, opts.table.as_deref()),
         Format::Ecsv => super::read_ecsv::read(path),
+    })
+    .unwrap_or_else(|_| {
+        Err(CatalogueError::Invalid {
+            path: path.to_path_buf(),
+            format: name,
+            reason: "the decoder failed on this file (corrupt or unsupported content)".into(),
+        })
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn format_names_parse_in_any_case() {
+        // The names listed for `--format` in the README (common practice, no source).
+        assert_eq!("CSV".parse::<Format>(), Ok(Format::Csv));
+        assert_eq!("pq".parse::<Format>(), Ok(Format::Parquet));
+        assert_eq!("votable".parse::<Format>(), Ok(Format::VoTable));
+        assert_eq!(
+            "xlsx".parse::<Format>().unwrap_err().to_string(),
+            "`xlsx` is not one of csv, parquet, fits, votable, ecsv"
+        );
     }
 }

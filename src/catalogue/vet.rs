@@ -32,7 +32,9 @@
 //! |---|---|---|
 //! | `(row)` | `malformed row: …` (the reader's words, e.g. `expected 6 fields, found 5`) | the reader could only partly parse the row |
 //! | id | `missing id` | empty id |
+//! | id | `missing id` | an id made only of invisible characters (see below) |
 //! | id | `duplicate id within catalogue` | an earlier row of the same file has this id (the first one is kept) |
+//! | id | `id collides with another row's after Unicode normalisation (both quarantined)` | two rows whose ids differ only by normalisation form or invisible characters: neither can be trusted to be the object the other is not |
 //! | class | `missing class` | empty class |
 //! | class | `unknown class label` | neither canonical nor in the map's `[classes]` |
 //! | mass_limit | `unknown mass_limit value (expected empty, upper or lower)` | anything else |
@@ -42,6 +44,7 @@
 //! | mass | `not positive` | mass ≤ 0 in a linear unit |
 //! | mass_err (or mass_err_lo) | `missing mass error` | no error although `mass_limit` is empty |
 //! | mass_err_lo / mass_err_hi | `only one of mass_err_lo and mass_err_hi given` | a split error with one side empty |
+//! | mass_err | `both mass_err and mass_err_lo/mass_err_hi given (ambiguous)` | a row fills the symmetric and the split error: which one the author meant is a guess, so the row is quarantined (a file may carry both columns, each row filling one) |
 //! | mass_err, mass_err_lo, mass_err_hi | `not positive` | error ≤ 0 (also when given with a limit) |
 //! | radius, radius_err, age, age_err, rotation_period | `not positive` | value ≤ 0 |
 //! | mu_e | `mu_e outside [1, 3]` | μ_e < 1 or > 3 |
@@ -53,6 +56,14 @@
 //! | mass | `above 1.0 Msun, implausible for the hburning sample` | see thresholds |
 //! | mass | `above 2.0 Msun, implausible for a white_dwarf` | see thresholds |
 //! | mass | `below 0.1 Msun, implausible for a white_dwarf` | see thresholds |
+//!
+//! # Identifiers
+//!
+//! Ids are compared, and written to `accepted.csv`, after Unicode normalisation (NFC) with
+//! invisible characters removed — control characters (NUL included), format characters
+//! (zero-width space and joiners, the BOM, bidirectional marks, soft hyphen) and other default-
+//! ignorable code points — and surrounding white space trimmed: `Gl 229B`, `Gl\u{200B} 229B`
+//! and a decomposed `é` are the same id to a human reader, so they must be to dwarfbound.
 //!
 //! # Plausibility thresholds (choices, not physics results)
 //!
@@ -86,7 +97,7 @@ use std::path::{Path, PathBuf};
 
 use super::colmap::{column_quantity, ColumnMap};
 use super::error::CatalogueError;
-use super::table::{read_table, Cell, RawTable, ReadOptions};
+use super::table::{read_table_columns, Cell, RawTable, ReadOptions};
 use super::units::{self, Unit};
 
 /// Which kind of object a row describes.
@@ -350,6 +361,11 @@ pub mod reason {
     pub const MISSING_ID: &str = "missing id";
     /// Id seen earlier in the same file.
     pub const DUPLICATE_ID: &str = "duplicate id within catalogue";
+    /// Ids that differ as written but coincide once normalised.
+    pub const LOOKALIKE_ID: &str =
+        "id collides with another row's after Unicode normalisation (both quarantined)";
+    /// Symmetric and split errors in the same row.
+    pub const BOTH_ERRORS: &str = "both mass_err and mass_err_lo/mass_err_hi given (ambiguous)";
     /// Empty class.
     pub const MISSING_CLASS: &str = "missing class";
     /// Class not canonical and not mapped.
@@ -463,6 +479,21 @@ fn resolve(
             }
         }
     }
+    // One file column behind two canonical columns (`mass` and `mass_err` both mapped to `m`)
+    // would make every error equal to its value: refused, whatever the rows hold.
+    let mut owners: HashMap<usize, &str> = HashMap::new();
+    for canonical in super::colmap::CANONICAL_COLUMNS {
+        if let Some(col) = layout.get(canonical) {
+            if let Some(first) = owners.insert(col.index, canonical) {
+                return Err(CatalogueError::SharedColumn {
+                    path: path.to_path_buf(),
+                    column: col.name.clone(),
+                    first: first.to_string(),
+                    second: canonical.to_string(),
+                });
+            }
+        }
+    }
     let missing = |column: &str| CatalogueError::MissingColumn {
         path: path.to_path_buf(),
         column: column.to_string(),
@@ -541,6 +572,27 @@ fn resolve(
         }
     }
     Ok(layout)
+}
+
+/// Whether a character is invisible in an identifier: a control character (Unicode category
+/// Cc, NUL included), a format character (category Cf: zero-width space and joiners, the BOM,
+/// bidirectional controls, soft hyphen, …) or another default-ignorable code point (variation
+/// selectors, Hangul fillers, tags). Ranges from the Unicode Character Database's
+/// DerivedCoreProperties (Default_Ignorable_Code_Point) and category Cf, from memory.
+fn is_invisible(c: char) -> bool {
+    matches!(c as u32,
+        0x00..=0x1F | 0x7F..=0x9F | 0xAD | 0x34F | 0x600..=0x605 | 0x61C | 0x6DD | 0x70F
+        | 0x890..=0x891 | 0x8E2 | 0x115F..=0x1160 | 0x17B4..=0x17B5 | 0x180B..=0x180F
+        | 0x200B..=0x200F | 0x202A..=0x202E | 0x2060..=0x206F | 0x3164 | 0xFE00..=0xFE0F
+        | 0xFEFF | 0xFFA0 | 0xFFF0..=0xFFFB | 0x110BD | 0x110CD | 0x13430..=0x1343F
+        | 0x1BCA0..=0x1BCA3 | 0x1D173..=0x1D17A | 0xE0000..=0xE0FFF)
+}
+
+/// The form in which ids are compared and written: NFC, invisible characters removed, trimmed.
+pub fn normalise_id(raw: &str) -> String {
+    use unicode_normalization::UnicodeNormalization;
+    let cleaned: String = raw.nfc().filter(|c| !is_invisible(*c)).collect();
+    cleaned.trim().to_string()
 }
 
 /// Text of a cell for text columns; `None` when empty.
@@ -703,6 +755,8 @@ fn vet_row(
 ) -> Result<CatalogueObject, Fail> {
     let id = view
         .text("id")
+        .map(|raw| normalise_id(&raw))
+        .filter(|id| !id.is_empty())
         .ok_or_else(|| view.fail("id", reason::MISSING_ID))?;
     let label = view
         .text("class")
@@ -724,9 +778,19 @@ fn vet_row(
         .positive("mass")?
         .ok_or_else(|| view.fail("mass", reason::MISSING_MASS))?;
 
-    // Errors: split columns win over the symmetric one when a row has both.
+    // Errors: symmetric or split, never both in one row.
     let lo = view.mass_error("mass_err_lo", mass_msun)?;
     let hi = view.mass_error("mass_err_hi", mass_msun)?;
+    if lo.is_some() || hi.is_some() {
+        let symmetric = view.cell("mass_err").is_some_and(|(_, c)| match c {
+            Cell::Missing => false,
+            Cell::Number(v) => !v.is_nan(),
+            Cell::Text(t) => !t.trim().is_empty(),
+        });
+        if symmetric {
+            return Err(view.fail("mass_err", reason::BOTH_ERRORS));
+        }
+    }
     let (err_lo, err_hi) = match (lo, hi) {
         (Some(l), Some(h)) => (Some(l), Some(h)),
         (Some(_), None) => return Err(view.fail("mass_err_hi", reason::ONE_SIDED_ERROR)),
@@ -856,6 +920,23 @@ pub fn vet_table(
         .iter()
         .map(|(r, why)| (*r, why.as_str()))
         .collect();
+    // Raw ids by normalised id, to find rows whose ids differ only invisibly.
+    let mut spellings: HashMap<String, Vec<String>> = HashMap::new();
+    for row in &table.rows {
+        if malformed.contains_key(&row.row_number) {
+            continue;
+        }
+        let view = RowView {
+            layout: &layout,
+            cells: &row.cells,
+        };
+        if let Some(raw) = view.text("id") {
+            let list = spellings.entry(normalise_id(&raw)).or_default();
+            if !list.contains(&raw) {
+                list.push(raw);
+            }
+        }
+    }
     let mut seen_ids: HashMap<String, usize> = HashMap::new();
     let mut objects = Vec::new();
     let mut quarantine = Vec::new();
@@ -881,8 +962,14 @@ pub fn vet_table(
             );
             continue;
         }
-        if let Some(id) = &id {
-            if seen_ids.insert(id.clone(), row.row_number).is_some() {
+        // An id of invisible characters only is left to `vet_row` (missing id).
+        if let Some(key) = id.as_deref().map(normalise_id).filter(|k| !k.is_empty()) {
+            if spellings.get(&key).is_some_and(|l| l.len() > 1) {
+                let (c, w) = view.fail("id", reason::LOOKALIKE_ID);
+                quarantine_row(c, w);
+                continue;
+            }
+            if seen_ids.insert(key, row.row_number).is_some() {
                 let (c, w) = view.fail("id", reason::DUPLICATE_ID);
                 quarantine_row(c, w);
                 continue;
@@ -914,6 +1001,11 @@ pub fn vet_files(
     if opts.table.is_none() {
         opts.table = map.and_then(|m| m.table.clone());
     }
+    // Only the columns vetting looks at: mapped names, else the canonical names.
+    let wanted: Vec<String> = super::colmap::CANONICAL_COLUMNS
+        .iter()
+        .map(|c| map.map_or(*c, |m| m.file_column(c)).to_string())
+        .collect();
     let mut out = Vetted::default();
     for path in paths {
         if let Err(e) = std::fs::metadata(path) {
@@ -922,7 +1014,7 @@ pub fn vet_files(
                 reason: e.to_string(),
             });
         }
-        let table = read_table(path, &opts)?;
+        let table = read_table_columns(path, &opts, Some(&wanted))?;
         let label = path.display().to_string();
         let (objects, quarantine, tally) = vet_table(&label, &table, map)?;
         out.objects.extend(objects);
@@ -1207,5 +1299,70 @@ mod tests {
         assert_eq!(cell_text(&Cell::Number(12345.0)).as_deref(), Some("12345"));
         assert_eq!(cell_text(&Cell::Number(1.5)).as_deref(), Some("1.5"));
         assert_eq!(cell_text(&Cell::Text("  x ".into())).as_deref(), Some("x"));
+    }
+
+    #[test]
+    fn lookalike_ids_are_both_quarantined() {
+        // Issue 13 item 9: NFC vs NFD (Unicode Standard Annex #15), a zero-width space, a BOM
+        // and a NUL make ids that read the same; an exact repeat keeps the first row.
+        let t = table(
+            &["id", "class", "mass", "mass_err"],
+            &[
+                &["Ren\u{e9}e", "brown_dwarf", "0.05", "0.01"],
+                &["Rene\u{301}e", "brown_dwarf", "0.05", "0.01"],
+                &["G\u{200b}1", "brown_dwarf", "0.05", "0.01"],
+                &["G1", "brown_dwarf", "0.05", "0.01"],
+                &["\u{feff}H\u{0}", "brown_dwarf", "0.05", "0.01"],
+                &["H", "brown_dwarf", "0.05", "0.01"],
+                &["K", "brown_dwarf", "0.05", "0.01"],
+                &["K", "brown_dwarf", "0.05", "0.01"],
+                &["\u{200b}", "brown_dwarf", "0.05", "0.01"],
+                &["\u{200d}", "brown_dwarf", "0.05", "0.01"],
+            ],
+        );
+        let got = reasons(&t, None);
+        let rows: Vec<(usize, &str)> = got.iter().map(|(r, _, w)| (*r, w.as_str())).collect();
+        let mut want: Vec<(usize, &str)> = (1..=6).map(|r| (r, reason::LOOKALIKE_ID)).collect();
+        want.push((8, reason::DUPLICATE_ID));
+        want.push((9, reason::MISSING_ID));
+        want.push((10, reason::MISSING_ID));
+        assert_eq!(rows, want);
+        assert_eq!(normalise_id(" Rene\u{301}e\u{200b} "), "Ren\u{e9}e");
+    }
+
+    #[test]
+    fn one_file_column_behind_two_canonical_columns_is_refused() {
+        let t = table(&["id", "class", "m"], &[&["a", "brown_dwarf", "0.05"]]);
+        let map = ColumnMap::from_toml_str("[columns]\nmass = \"m\"\nmass_err = \"m\"\n", "m.toml")
+            .unwrap();
+        let err = vet_table("f.csv", &t, Some(&map)).unwrap_err();
+        assert!(
+            matches!(&err, CatalogueError::SharedColumn { first, second, column, .. }
+                if first == "mass" && second == "mass_err" && column == "m"),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn symmetric_and_split_errors_in_one_row_are_ambiguous() {
+        let t = table(
+            &[
+                "id",
+                "class",
+                "mass",
+                "mass_err",
+                "mass_err_lo",
+                "mass_err_hi",
+            ],
+            &[
+                &["a", "brown_dwarf", "0.05", "0.01", "0.01", "0.02"],
+                &["b", "brown_dwarf", "0.05", "0.01", "", ""],
+                &["c", "brown_dwarf", "0.05", "", "0.01", "0.02"],
+            ],
+        );
+        assert_eq!(
+            reasons(&t, None),
+            vec![(1, "mass_err".to_string(), reason::BOTH_ERRORS.to_string())]
+        );
     }
 }

@@ -3,8 +3,8 @@
 use super::{CliError, ConfrontArgs, Exit};
 use crate::pipeline::cache::Cache;
 use crate::pipeline::confront::{
-    parse_format, run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings,
-    PipelineError, StatisticsSettings, TheorySource,
+    run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings, PipelineError,
+    StatisticsSettings, TheorySource,
 };
 use crate::pipeline::history::{now_unix_s, utc_stamp};
 use crate::theory::point::TheorySettings;
@@ -111,10 +111,10 @@ pub(super) fn parse_window(text: &str) -> Result<(f64, f64), CliError> {
 
 /// Runs `confront`.
 pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
-    let format = parse_format(args.read.format.as_deref())?;
+    let format = args.read.format()?;
     let theory = TheorySettings {
         anisotropy: args.theory.anisotropy,
-        mmhb_model: super::predict::mmhb_model(&args.theory.mmhb_model)?,
+        mmhb_model: args.theory.mmhb_model,
         ..TheorySettings::default()
     };
     if !(args.tension_sigma.is_finite() && args.tension_sigma > 0.0) {

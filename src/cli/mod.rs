@@ -6,7 +6,10 @@
 
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
+use std::str::FromStr;
 
+use crate::catalogue::table::Format;
+use crate::theory::mmhb::MmhbModel;
 use crate::theory::{Anisotropy, Axis};
 
 mod confront;
@@ -102,6 +105,17 @@ pub struct ReadArgs {
     pub table: Option<String>,
 }
 
+impl ReadArgs {
+    /// `--format` as a [`Format`]. Parsed here rather than by clap so that a bad name gives the
+    /// one-line error of the other reading problems.
+    pub fn format(&self) -> Result<Option<Format>, CliError> {
+        self.format
+            .as_deref()
+            .map(|f| Format::from_str(f).map_err(|e| CliError::usage(format!("--format {e}"))))
+            .transpose()
+    }
+}
+
 /// Arguments of `vet`.
 #[derive(Debug, Args)]
 pub struct VetArgs {
@@ -125,17 +139,18 @@ pub struct VetArgs {
 #[derive(Debug, Args, Clone)]
 pub struct TheoryArgs {
     /// Υ: a value (`0.1`) or a grid `start:stop:count` with inclusive ends.
-    #[arg(long, allow_hyphen_values = true, value_parser = parse_axis)]
+    #[arg(long, allow_hyphen_values = true, value_parser = Axis::from_str)]
     pub upsilon: Option<Axis>,
     /// τ: a value or a grid `start:stop:count` with inclusive ends.
-    #[arg(long, allow_hyphen_values = true, value_parser = parse_axis)]
+    #[arg(long, allow_hyphen_values = true, value_parser = Axis::from_str)]
     pub tau: Option<Axis>,
-    /// Anisotropy ansatz that τ parametrises.
-    #[arg(long, value_enum, default_value_t = Anisotropy::DensitySquared)]
+    /// Anisotropy ansatz that τ parametrises: density-squared, gradient or none.
+    #[arg(long, value_name = "ANSATZ", value_parser = Anisotropy::from_str, default_value = "density-squared")]
     pub anisotropy: Anisotropy,
-    /// MMHB model: luminosity balance (default) or ignition temperature.
-    #[arg(long, value_name = "MODEL", default_value = "luminosity")]
-    pub mmhb_model: String,
+    /// MMHB model: `luminosity` (model A, luminosity balance; also `luminosity-balance`, `a`) or
+    /// `ignition` (model B, ignition temperature; also `ignition-temperature`, `b`); any case.
+    #[arg(long, value_name = "MODEL", value_parser = MmhbModel::from_str, default_value = "luminosity")]
+    pub mmhb_model: MmhbModel,
 }
 
 /// Arguments of `predict`.
@@ -218,52 +233,6 @@ pub struct MergeArgs {
     pub out: Option<PathBuf>,
 }
 
-/// Parses `start:stop:count` (inclusive ends) or a single value.
-pub fn parse_axis(s: &str) -> Result<Axis, String> {
-    let parts: Vec<&str> = s.split(':').collect();
-    let num = |t: &str| -> Result<f64, String> {
-        let v: f64 = t
-            .trim()
-            .parse()
-            .map_err(|_| format!("`{t}` is not a number"))?;
-        if v.is_finite() {
-            Ok(v)
-        } else {
-            Err(format!("`{t}` is not finite"))
-        }
-    };
-    match parts.as_slice() {
-        [v] => {
-            let v = num(v)?;
-            Ok(Axis {
-                start: v,
-                stop: v,
-                count: 1,
-            })
-        }
-        [a, b, n] => {
-            let count: usize = n
-                .trim()
-                .parse()
-                .map_err(|_| format!("count `{n}` is not a whole number"))?;
-            if count == 0 {
-                return Err("count must be at least 1".into());
-            }
-            let (start, stop) = (num(a)?, num(b)?);
-            if count > 1 && start >= stop {
-                return Err(format!("start {start} must be below stop {stop}"));
-            }
-            if count == 1 && start != stop {
-                return Err("a one-point grid needs start = stop".into());
-            }
-            Ok(Axis { start, stop, count })
-        }
-        _ => Err(format!(
-            "`{s}` is neither a value nor start:stop:count (e.g. -0.3:0.6:91)"
-        )),
-    }
-}
-
 /// Runs the parsed command line and returns the exit code to use.
 pub fn main_with(cli: Cli) -> Exit {
     let result = match cli.command {
@@ -284,21 +253,5 @@ pub fn main_with(cli: Cli) -> Exit {
             }
             e.exit
         }
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn axis_parses_grid_and_scalar() {
-        let a = parse_axis("-0.3:0.6:91").unwrap();
-        assert_eq!((a.start, a.stop, a.count), (-0.3, 0.6, 91));
-        let b = parse_axis("0.1").unwrap();
-        assert_eq!((b.start, b.stop, b.count), (0.1, 0.1, 1));
-        assert!(parse_axis("1:0:3").is_err());
-        assert!(parse_axis("a:b:c").is_err());
-        assert!(parse_axis("0:1:0").is_err());
     }
 }

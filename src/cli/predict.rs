@@ -7,20 +7,8 @@ use super::{CliError, Exit, PredictArgs};
 use crate::pipeline::predict::{
     grid_json, grid_text, json_text, point_json, point_text, predict_grid, predict_point,
 };
-use crate::theory::mmhb::MmhbModel;
 use crate::theory::point::TheorySettings;
 use crate::theory::Axis;
-
-/// Parses `--mmhb-model`.
-pub(super) fn mmhb_model(text: &str) -> Result<MmhbModel, CliError> {
-    match text.trim().to_ascii_lowercase().as_str() {
-        "luminosity" | "luminosity-balance" | "a" => Ok(MmhbModel::LuminosityBalance),
-        "ignition" | "ignition-temperature" | "b" => Ok(MmhbModel::IgnitionTemperature),
-        other => Err(CliError::usage(format!(
-            "--mmhb-model `{other}` is neither `luminosity` (model A, the default) nor `ignition` (model B)"
-        ))),
-    }
-}
 
 /// Runs `predict`.
 pub fn run(args: PredictArgs) -> Result<Exit, CliError> {
@@ -33,7 +21,7 @@ pub fn run(args: PredictArgs) -> Result<Exit, CliError> {
     let tau = args.theory.tau.unwrap_or(one);
     let settings = TheorySettings {
         anisotropy: args.theory.anisotropy,
-        mmhb_model: mmhb_model(&args.theory.mmhb_model)?,
+        mmhb_model: args.theory.mmhb_model,
         ..TheorySettings::default()
     };
     let text = match &args.out {

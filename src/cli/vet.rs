@@ -12,7 +12,7 @@
 use super::{CliError, Exit, ReadArgs, VetArgs};
 use crate::catalogue::export::{accepted_csv, quarantine_csv};
 use crate::catalogue::summary::VetSummary;
-use crate::catalogue::table::{Format, ReadOptions};
+use crate::catalogue::table::ReadOptions;
 use crate::catalogue::{vet_files, CatalogueError, ColumnMap};
 use crate::output::write_atomic;
 
@@ -35,14 +35,7 @@ impl ReadArgs {
             Some(p) => Some(ColumnMap::load(p)?),
             None => None,
         };
-        let format = match &self.format {
-            Some(f) => Some(Format::from_name(f).ok_or_else(|| {
-                CliError::usage(format!(
-                    "--format `{f}` is not one of csv, parquet, fits, votable, ecsv"
-                ))
-            })?),
-            None => None,
-        };
+        let format = self.format()?;
         Ok((
             map,
             ReadOptions {

@@ -101,7 +101,9 @@ pub struct GridConfig {
 pub struct TheoryConfig {
     /// Anisotropy ansatz: `none`, `density-squared` (default) or `gradient`.
     pub anisotropy: String,
-    /// MMHB model: `luminosity` (default) or `ignition`.
+    /// MMHB model: `luminosity` (default) or `ignition`, with the other spellings of
+    /// [`MmhbModel`](crate::theory::mmhb::MmhbModel)'s parser (`luminosity-balance`, `a`;
+    /// `ignition-temperature`, `b`; any case).
     pub mmhb_model: String,
     /// `anchored` (default) or `raw`.
     pub mmhb_mode: String,

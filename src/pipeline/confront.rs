@@ -44,7 +44,7 @@ use serde_json::Value;
 use super::cache::{self, sha256_hex, Cache, Lookup};
 use super::outputs::OutputContext;
 use super::surface::{class_bounds, GridSurface};
-use crate::catalogue::table::{Format, ReadOptions};
+use crate::catalogue::table::ReadOptions;
 use crate::catalogue::{export, vet_files, CatalogueError, ColumnMap, Vetted};
 use crate::confront::drivers::{slice_drivers, DriverOptions};
 use crate::confront::engine::{self, BoundSurface, EngineOptions};
@@ -391,16 +391,4 @@ pub fn standard_gravity_tensions(
         &eopts,
         threshold_sigma,
     ))
-}
-
-/// Accepts `None` for an empty map option so both callers share one parser.
-pub fn parse_format(name: Option<&str>) -> Result<Option<Format>, PipelineError> {
-    match name {
-        None => Ok(None),
-        Some(n) => Format::from_name(n).map(Some).ok_or_else(|| {
-            PipelineError::Settings(format!(
-                "unknown format `{n}` (csv, parquet, fits, votable, ecsv)"
-            ))
-        }),
-    }
 }

@@ -16,16 +16,17 @@ use std::path::{Path, PathBuf};
 use super::cache::Cache;
 use super::config::{resolve, Config, ConfigError};
 use super::confront::{
-    parse_format, run_confrontation, theory_grid, CatalogueInput, ConfrontOutcome,
-    ConfrontSettings, NightlyContext, PipelineError, StatisticsSettings, TheorySource,
+    run_confrontation, theory_grid, CatalogueInput, ConfrontOutcome, ConfrontSettings,
+    NightlyContext, PipelineError, StatisticsSettings, TheorySource,
 };
 use super::history::{self, now_unix_s, utc_stamp};
 use super::lock::{FolderLock, LockError};
+use crate::catalogue::table::Format;
 use crate::output::write_atomic;
 use crate::theory::grid::{Shard, TheoryGrid};
-use crate::theory::mmhb::{MmhbMode, MmhbModel};
+use crate::theory::mmhb::{MmhbMode, MmhbModel, ParseMmhbModelError};
 use crate::theory::point::TheorySettings;
-use crate::theory::{Anisotropy, Axis};
+use crate::theory::{Anisotropy, Axis, ParseAnisotropyError};
 
 /// Options of one `run` invocation.
 #[derive(Debug, Clone, Default)]
@@ -67,7 +68,7 @@ pub struct NightlyReport {
 }
 
 fn axis(cfg_path: &Path, key: &str, text: &str) -> Result<Axis, PipelineError> {
-    crate::cli::parse_axis(text)
+    text.parse::<Axis>()
         .map_err(|e| PipelineError::Settings(format!("{}: [grid] {key}: {e}", cfg_path.display())))
 }
 
@@ -98,7 +99,12 @@ pub fn settings_from_config(
                 format!("`{}` matches no file", c.path),
             ));
         }
-        let format = parse_format(c.format.as_deref())?;
+        let format = c
+            .format
+            .as_deref()
+            .map(str::parse::<Format>)
+            .transpose()
+            .map_err(|e| bad(&format!("catalogue[{n}].format"), e.to_string()))?;
         for path in paths {
             catalogues.push(CatalogueInput {
                 path,
@@ -112,27 +118,14 @@ pub fn settings_from_config(
         return Err(bad("catalogue", "no catalogue is configured".into()));
     }
     let t = &cfg.theory;
-    let anisotropy = match t.anisotropy.as_str() {
-        "none" => Anisotropy::None,
-        "density-squared" => Anisotropy::DensitySquared,
-        "gradient" => Anisotropy::Gradient,
-        other => {
-            return Err(bad(
-                "theory.anisotropy",
-                format!("`{other}` is not none, density-squared or gradient"),
-            ))
-        }
-    };
-    let mmhb_model = match t.mmhb_model.as_str() {
-        "luminosity" => MmhbModel::LuminosityBalance,
-        "ignition" => MmhbModel::IgnitionTemperature,
-        other => {
-            return Err(bad(
-                "theory.mmhb_model",
-                format!("`{other}` is not luminosity or ignition"),
-            ))
-        }
-    };
+    let anisotropy: Anisotropy = t
+        .anisotropy
+        .parse()
+        .map_err(|e: ParseAnisotropyError| bad("theory.anisotropy", e.to_string()))?;
+    let mmhb_model: MmhbModel = t
+        .mmhb_model
+        .parse()
+        .map_err(|e: ParseMmhbModelError| bad("theory.mmhb_model", e.to_string()))?;
     let mmhb_mode = match t.mmhb_mode.as_str() {
         "anchored" => MmhbMode::Anchored {
             anchor_msun: t.mmhb_anchor_msun,

@@ -480,8 +480,8 @@ impl ModifiedLaneEmden {
         })
     }
 
-    /// Integrator settings: Dormand–Prince 8(5,3), which needs about a third of the 5(4)
-    /// pair's evaluations at rtol ≈ 1e-10 (measured in `benches/run.sh`).
+    /// Integrator settings: Dormand–Prince 8(5,3), which needs about half the 5(4) pair's
+    /// right-hand-side evaluations at rtol ≈ 1e-10 (counts in the `ode` module doc).
     fn ode_options<const N: usize>(opts: &LaneEmdenOptions, first_step: f64) -> OdeOptions<N> {
         let mut oo = OdeOptions::<N>::new(opts.rtol, opts.atol, first_step);
         oo.max_steps = 200_000;

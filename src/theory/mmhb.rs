@@ -32,6 +32,7 @@ use crate::theory::roots::{brent_minimize, brent_root};
 use crate::theory::Anisotropy;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
+use std::str::FromStr;
 
 /// Why an MMHB could not be evaluated. Every variant names its reason; none is ever a NaN.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -738,6 +739,29 @@ impl MmhbModel {
     }
 }
 
+/// A name that is not one of the MMHB models.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error(
+    "`{0}` is neither `luminosity` (model A, the default; also `luminosity-balance`, `a`) nor \
+     `ignition` (model B; also `ignition-temperature`, `b`)"
+)]
+pub struct ParseMmhbModelError(pub String);
+
+impl FromStr for MmhbModel {
+    type Err = ParseMmhbModelError;
+
+    /// The one parser of a model name, for the command line and the run config alike: `luminosity`,
+    /// `luminosity-balance` or `a` for model A; `ignition`, `ignition-temperature` or `b` for model
+    /// B; any case, surrounding blanks ignored. ([`MmhbModel::name`] is what outputs print.)
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "luminosity" | "luminosity-balance" | "a" => Ok(MmhbModel::LuminosityBalance),
+            "ignition" | "ignition-temperature" | "b" => Ok(MmhbModel::IgnitionTemperature),
+            other => Err(ParseMmhbModelError(other.to_string())),
+        }
+    }
+}
+
 /// Default standard-gravity MMHB of the anchored mode, M☉. Detailed evolutionary models put the
 /// limit at ≈ 0.072–0.075 M☉ for solar metallicity (Chabrier & Baraffe 1997: ≈ 0.072; Chabrier
 /// et al. 2023: ≈ 0.075 — both from memory, as recorded in `bounds.md` §4).
@@ -906,5 +930,26 @@ mod tests {
             model_a(&le, &ModelAParams::default(), 1.0),
             Err(BoundError::InvalidInput { .. })
         ));
+    }
+
+    #[test]
+    fn model_names_accepted_by_the_command_line_and_the_config() {
+        // The spellings listed in the README and `--help` (common practice, no source): every
+        // one any earlier parser accepted, in any case.
+        for (text, model) in [
+            ("luminosity", MmhbModel::LuminosityBalance),
+            ("luminosity-balance", MmhbModel::LuminosityBalance),
+            ("A", MmhbModel::LuminosityBalance),
+            (" ignition ", MmhbModel::IgnitionTemperature),
+            ("Ignition-Temperature", MmhbModel::IgnitionTemperature),
+            ("b", MmhbModel::IgnitionTemperature),
+        ] {
+            assert_eq!(text.parse::<MmhbModel>(), Ok(model), "{text}");
+        }
+        for m in [MmhbModel::LuminosityBalance, MmhbModel::IgnitionTemperature] {
+            assert_eq!(m.name().parse::<MmhbModel>(), Ok(m));
+        }
+        let e = "fancy".parse::<MmhbModel>().unwrap_err().to_string();
+        assert!(e.contains("`fancy`") && e.contains("luminosity") && e.contains("ignition"));
     }
 }

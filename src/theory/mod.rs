@@ -24,9 +24,10 @@ pub mod wd_grid;
 pub mod white_dwarf;
 
 use serde::{Deserialize, Serialize};
+use std::str::FromStr;
 
 /// The pressure-anisotropy ansatz that τ parametrises (`theory/structure.md` §2).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, clap::ValueEnum)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Anisotropy {
     /// Isotropic pressure; τ must be 0.
@@ -45,6 +46,26 @@ impl Anisotropy {
             Anisotropy::None => "none",
             Anisotropy::DensitySquared => "density-squared",
             Anisotropy::Gradient => "gradient",
+        }
+    }
+}
+
+/// A name that is not one of the anisotropy ansätze.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("`{0}` is not none, density-squared or gradient")]
+pub struct ParseAnisotropyError(pub String);
+
+impl FromStr for Anisotropy {
+    type Err = ParseAnisotropyError;
+
+    /// Parses the names of [`Anisotropy::name`], the only spellings the command line and the
+    /// run config accept.
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        match s {
+            "none" => Ok(Anisotropy::None),
+            "density-squared" => Ok(Anisotropy::DensitySquared),
+            "gradient" => Ok(Anisotropy::Gradient),
+            other => Err(ParseAnisotropyError(other.to_string())),
         }
     }
 }
@@ -93,5 +114,132 @@ pub fn grid_value(axis: &Axis, i: usize) -> f64 {
         0.0
     } else {
         v
+    }
+}
+
+/// What was wrong with an axis written as `start:stop:count` or a single value.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ParseAxisError {
+    /// A value that does not parse as a number.
+    #[error("`{0}` is not a number")]
+    NotANumber(String),
+    /// A value that parses but is infinite or NaN.
+    #[error("`{0}` is not finite")]
+    NotFinite(String),
+    /// A count that is not a whole number.
+    #[error("count `{0}` is not a whole number")]
+    CountNotWhole(String),
+    /// A count of zero.
+    #[error("count must be at least 1")]
+    ZeroCount,
+    /// A grid whose ends are not in increasing order.
+    #[error("start {start} must be below stop {stop}")]
+    NotIncreasing {
+        /// The first value given.
+        start: f64,
+        /// The last value given.
+        stop: f64,
+    },
+    /// A one-point grid with two different ends.
+    #[error("a one-point grid needs start = stop")]
+    OnePointNeedsEqualEnds,
+    /// Neither one value nor three fields.
+    #[error("`{0}` is neither a value nor start:stop:count (e.g. -0.3:0.6:91)")]
+    Shape(String),
+}
+
+impl FromStr for Axis {
+    type Err = ParseAxisError;
+
+    /// Parses `start:stop:count` (inclusive ends, start below stop) or a single value (a
+    /// one-point axis): the syntax of the grid flags and of the run config's `[grid]`.
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        let num = |t: &str| -> Result<f64, ParseAxisError> {
+            let v: f64 = t
+                .trim()
+                .parse()
+                .map_err(|_| ParseAxisError::NotANumber(t.to_string()))?;
+            if v.is_finite() {
+                Ok(v)
+            } else {
+                Err(ParseAxisError::NotFinite(t.to_string()))
+            }
+        };
+        let parts: Vec<&str> = s.split(':').collect();
+        match parts.as_slice() {
+            [v] => {
+                let v = num(v)?;
+                Ok(Axis {
+                    start: v,
+                    stop: v,
+                    count: 1,
+                })
+            }
+            [a, b, n] => {
+                let count: usize = n
+                    .trim()
+                    .parse()
+                    .map_err(|_| ParseAxisError::CountNotWhole(n.to_string()))?;
+                if count == 0 {
+                    return Err(ParseAxisError::ZeroCount);
+                }
+                let (start, stop) = (num(a)?, num(b)?);
+                if count > 1 && start >= stop {
+                    return Err(ParseAxisError::NotIncreasing { start, stop });
+                }
+                if count == 1 && start != stop {
+                    return Err(ParseAxisError::OnePointNeedsEqualEnds);
+                }
+                Ok(Axis { start, stop, count })
+            }
+            _ => Err(ParseAxisError::Shape(s.to_string())),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn axis_parses_grid_and_scalar() {
+        // The grid-flag syntax of the README (common practice, no source).
+        let a: Axis = "-0.3:0.6:91".parse().unwrap();
+        assert_eq!((a.start, a.stop, a.count), (-0.3, 0.6, 91));
+        let b: Axis = "0.1".parse().unwrap();
+        assert_eq!((b.start, b.stop, b.count), (0.1, 0.1, 1));
+        assert_eq!(
+            "1:0:3".parse::<Axis>(),
+            Err(ParseAxisError::NotIncreasing {
+                start: 1.0,
+                stop: 0.0
+            })
+        );
+        assert!(matches!(
+            "a:b:3".parse::<Axis>(),
+            Err(ParseAxisError::NotANumber(_))
+        ));
+        assert!(matches!(
+            "a:b:c".parse::<Axis>(),
+            Err(ParseAxisError::CountNotWhole(_))
+        ));
+        assert_eq!("0:1:0".parse::<Axis>(), Err(ParseAxisError::ZeroCount));
+        assert_eq!(
+            "0:1".parse::<Axis>().unwrap_err().to_string(),
+            "`0:1` is neither a value nor start:stop:count (e.g. -0.3:0.6:91)"
+        );
+    }
+
+    #[test]
+    fn anisotropy_parses_its_own_names() {
+        // Every ansatz round-trips through the name the outputs print (common practice).
+        for a in [
+            Anisotropy::None,
+            Anisotropy::DensitySquared,
+            Anisotropy::Gradient,
+        ] {
+            assert_eq!(a.name().parse::<Anisotropy>(), Ok(a));
+        }
+        assert!("quadratic".parse::<Anisotropy>().is_err());
     }
 }
