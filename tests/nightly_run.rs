@@ -147,6 +147,61 @@ fn four_shards_merged_equal_the_single_run_byte_for_byte() {
     }
 }
 
+/// Shards of one grid started at the same moment in one output folder (an array job on two or
+/// more CPUs) all succeed and merge to the unsharded result; a second copy of the same shard
+/// refuses while the first holds it.
+#[test]
+fn concurrent_shards_all_succeed_and_merge_to_the_single_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = config(dir.path(), false, "");
+    let cfg_s = cfg.to_str().unwrap().to_string();
+    let n = 4;
+    let procs: Vec<std::process::Child> = (1..=n)
+        .map(|i| {
+            command()
+                .current_dir(dir.path())
+                .args(["run", &cfg_s, "--shard", &format!("{i}/{n}")])
+                .stdout(std::process::Stdio::piped())
+                .stderr(std::process::Stdio::piped())
+                .spawn()
+                .unwrap()
+        })
+        .collect();
+    for p in procs {
+        let o = p.wait_with_output().unwrap();
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    }
+    // A live holder of shard 1's lock: a second copy of that shard refuses with a clear message.
+    let holder = dwarfbound::pipeline::lock::FolderLock::acquire(
+        &dir.path().join("out/shards/1-of-4"),
+        false,
+    )
+    .unwrap();
+    let o = bin(&["run", &cfg_s, "--shard", "1/4"], dir.path());
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(text(&o).contains("locked"), "{}", text(&o));
+    drop(holder);
+    let merged = dir.path().join("merged");
+    let mut args = vec!["merge".to_string()];
+    args.extend((1..=n).map(|i| {
+        dir.path()
+            .join(format!("out/shards/{i}-of-{n}"))
+            .display()
+            .to_string()
+    }));
+    args.extend(["--out".to_string(), merged.display().to_string()]);
+    let args: Vec<&str> = args.iter().map(String::as_str).collect();
+    let o = bin(&args, dir.path());
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert_eq!(bin(&["run", &cfg_s], dir.path()).status.code(), Some(0));
+    let latest = dir.path().join("out/latest");
+    assert!(
+        std::fs::read(latest.join("grid.csv")).unwrap()
+            == std::fs::read(merged.join("grid.csv")).unwrap(),
+        "grid.csv differs between concurrently computed shards and the single run"
+    );
+}
+
 #[test]
 fn merged_shards_are_published_as_the_next_run_with_its_alarm() {
     let dir = tempfile::tempdir().unwrap();

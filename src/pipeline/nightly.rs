@@ -294,13 +294,16 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
     let cfg = Config::load(cfg_path)?;
     let settings = settings_from_config(cfg_path, &cfg)?;
     let (output, cache) = folders(cfg_path, &cfg);
-    let lock = FolderLock::acquire(&output, opts.wait)?;
-    let took_over_lock_from = lock.took_over_from;
 
     if let Some(shard) = opts.shard {
+        // A shard writes only its own folder, so it locks only that folder: the shards of one
+        // grid run concurrently (an array job), while a second copy of the same shard refuses.
+        // The output folder's run lock is taken by the step that publishes (`run`, `merge`).
         let dir = output
             .join("shards")
             .join(format!("{}-of-{}", shard.index, shard.count));
+        let lock = FolderLock::acquire(&dir, opts.wait)?;
+        let took_over_lock_from = lock.took_over_from;
         let (grid, _, cache_note) = theory_grid(
             settings.upsilon,
             settings.tau,
@@ -329,6 +332,7 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
         });
     }
 
+    let lock = FolderLock::acquire(&output, opts.wait)?;
     publish_run(
         &settings,
         &cfg,
