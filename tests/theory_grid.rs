@@ -353,10 +353,12 @@ fn interpolated_values_agree_with_exact_solves() {
     for c in &g.interpolation_checks {
         assert!(c.samples > 0, "{}", c.quantity);
         // The SC factor steepens near the existence bound (1 + 3Υ/2 − τ → 0; this grid's corner
-        // Υ = −0.3, τ = 0.3 is at 0.25 of standard gravity's): 1e-3 there, far below its theory
-        // uncertainty of several per cent (full fit vs core factor).
+        // Υ = −0.3, τ = 0.3 is at 0.25 of standard gravity's), and by default it is solved on
+        // every 8th Υ and τ only (it enters no likelihood; it is reported with this measured
+        // error): 5e-3 there, far below its theory uncertainty of several per cent (full fit vs
+        // core factor).
         let tol = if c.quantity.starts_with("Schönberg") {
-            1e-3
+            5e-3
         } else {
             1e-4
         };

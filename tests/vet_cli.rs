@@ -64,6 +64,12 @@ fn good_catalogue_is_accepted_whole_and_converted() {
             "age_err",
             "rotation_period",
             "mu_e",
+            "teff",
+            "teff_err",
+            "core",
+            "envelope",
+            "radius_model",
+            "mass_method",
             "ref",
             "source_file",
             "source_row"

@@ -17,10 +17,10 @@
 //! use dwarfbound::confront::wd_radius::{floor_fraction, RadiusOptions, ResolvedCore};
 //! let opts = RadiusOptions::default();
 //! // A cool carbon–oxygen white dwarf: the base floor.
-//! assert_eq!(floor_fraction(&opts, ResolvedCore::CarbonOxygen, Some(10_000.0)), 0.02);
+//! assert_eq!(floor_fraction(&opts, ResolvedCore::CarbonOxygen, Some(10_000.0)), 0.03);
 //! // A helium core at 60 000 K: the hot ramp and the helium term in quadrature.
 //! let f = floor_fraction(&opts, ResolvedCore::Helium, Some(60_000.0));
-//! assert!((f - (0.05f64.powi(2) + 0.04f64.powi(2)).sqrt()).abs() < 1e-12);
+//! assert!((f - (0.055f64.powi(2) + 0.04f64.powi(2)).sqrt()).abs() < 1e-12);
 //! ```
 
 use crate::catalogue::{CatalogueObject, CoreLabel, EnvelopeLabel, MassLimit, MassMethod};
@@ -69,12 +69,13 @@ pub struct RadiusOptions {
     /// Flat fractional floor of the cold model (earlier versions' 3 %).
     pub cold_floor_fraction: f64,
     /// Base fractional floor of the hot model: carbon–oxygen or oxygen–neon cores at
-    /// Teff ≤ `hot_ramp_start_k`. 2 %: the model's radii sit within about 0.01 dex in log g
-    /// (≈ 1–2 % in R) of evolutionary sequences at 5–20 kK (from memory).
+    /// Teff ≤ `hot_ramp_start_k`. 3 %: the model's radii sit within 0.005–0.025 dex in log g
+    /// (≈ 0.6–3 % in R) of evolutionary sequences at 5–20 kK (from memory).
     pub hot_floor_fraction: f64,
     /// Extra floor reached at `hot_ramp_end_k`, added linearly in log Teff from
-    /// `hot_ramp_start_k`: 3 %, because at 40–60 kK the fully ionised Kramers envelope and the
-    /// isothermal core put the model 0.02–0.05 dex below evolutionary log g (from memory).
+    /// `hot_ramp_start_k`: 2.5 % (5.5 % in all), because at 40–60 kK the fully ionised Kramers
+    /// envelope and the isothermal core put the model up to 0.05 dex below evolutionary log g
+    /// (≈ 5–6 % in R; from memory).
     pub hot_ramp_extra_fraction: f64,
     /// Where the hot ramp starts, K.
     pub hot_ramp_start_k: f64,
@@ -101,8 +102,8 @@ impl Default for RadiusOptions {
         Self {
             model: WdRadiusModel::Hot,
             cold_floor_fraction: 0.03,
-            hot_floor_fraction: 0.02,
-            hot_ramp_extra_fraction: 0.03,
+            hot_floor_fraction: 0.03,
+            hot_ramp_extra_fraction: 0.025,
             hot_ramp_start_k: 15_000.0,
             hot_ramp_end_k: 60_000.0,
             helium_core_fraction: 0.04,
@@ -349,9 +350,9 @@ mod tests {
     fn floor_ramps_with_teff_and_is_flat_for_cold() {
         let o = RadiusOptions::default();
         let f = |t| floor_fraction(&o, ResolvedCore::CarbonOxygen, Some(t));
-        assert_eq!(f(5_000.0), 0.02);
-        assert!((f(30_000.0) - 0.035).abs() < 1e-12); // halfway in log Teff
-        assert!((f(100_000.0) - 0.05).abs() < 1e-12);
+        assert_eq!(f(5_000.0), 0.03);
+        assert!((f(30_000.0) - 0.0425).abs() < 1e-12); // halfway in log Teff
+        assert!((f(100_000.0) - 0.055).abs() < 1e-12);
         let cold = RadiusOptions {
             model: WdRadiusModel::Cold,
             ..Default::default()
