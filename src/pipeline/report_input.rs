@@ -507,7 +507,11 @@ pub(crate) fn write_report_files(
             "Intervals are read off a grid: their precision is limited by the grid spacing (the Υ interval at τ = 0 uses a 10× finer sub-grid with cubic interpolation of the bounds).".into(),
         ],
     };
-    report::write_report(out_dir, &input, &map, &curves)
-        .map_err(|e| PipelineError::Internal(e.to_string()))?;
+    report::write_report(out_dir, &input, &map, &curves).map_err(|e| match e {
+        // An unwritable output (a folder where a file should go, no permission) is the user's
+        // environment (exit 2); anything else the report refuses is a bug upstream (exit 1).
+        report::ReportError::Output(o) => PipelineError::Output(o),
+        other => PipelineError::Internal(other.to_string()),
+    })?;
     Ok(())
 }

@@ -608,6 +608,31 @@ impl TheoryGrid {
         if g.first_index + g.points.len() > g.total_points() {
             return Err(GridError::Format("more points than the axes allow".into()));
         }
+        // A grid read from a file (a shard, a cache entry) is outside input: its bounds must be
+        // physical numbers before any statistics sees them.
+        let plausible = |v: f64, hi: f64| v.is_finite() && v > 0.0 && v <= hi;
+        for (k, p) in g.points.iter().enumerate() {
+            let i = g.first_index + k;
+            if let Some(m) = p.mmhb.ok() {
+                if !plausible(m.value_msun, 1.0) || !plausible(m.raw_msun, 1.0) {
+                    return Err(GridError::Format(format!(
+                        "point {i}: MMHB {:e} M☉ is not a plausible mass (0, 1]",
+                        m.value_msun
+                    )));
+                }
+            }
+            if let Some(c) = p.chandrasekhar.ok() {
+                if !plausible(c.value_msun, 10.0) {
+                    return Err(GridError::Format(format!(
+                        "point {i}: Chandrasekhar mass {:e} M☉ is not a plausible mass (0, 10]",
+                        c.value_msun
+                    )));
+                }
+            }
+            if !(p.upsilon.is_finite() && p.tau.is_finite()) {
+                return Err(GridError::Format(format!("point {i}: non-finite Υ or τ")));
+            }
+        }
         Ok(g)
     }
 
