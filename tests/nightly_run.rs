@@ -406,3 +406,23 @@ fn a_corrupt_cache_entry_is_rebuilt_with_a_note() {
     let third = bin(&["run", cfg_s], dir.path());
     assert!(text(&third).contains("theory grid: reused from the cache"));
 }
+
+// Source: the README's lock paragraph: a lock written on another host is never taken over
+// automatically (its process cannot be seen from here); `--break-lock` is the human's override.
+#[test]
+fn a_lock_from_another_host_is_refused_until_broken_by_hand() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = config(dir.path(), false, "");
+    std::fs::create_dir_all(dir.path().join("out")).unwrap();
+    std::fs::write(
+        dir.path().join("out/.dwarfbound.lock"),
+        "pid = 4242\nhost = another-node.example\nstart_ticks = 1\n",
+    )
+    .unwrap();
+    let o = bin(&["run", path_str(&cfg)], dir.path());
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(text(&o).contains("another-node.example"), "{}", text(&o));
+    let o = bin(&["run", path_str(&cfg), "--break-lock"], dir.path());
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(text(&o).contains("removed the lock"), "{}", text(&o));
+}

@@ -5,6 +5,6 @@ use crate::pipeline::nightly::merge_shards;
 
 /// Runs `merge`.
 pub fn run(args: MergeArgs) -> Result<Exit, CliError> {
-    let report = merge_shards(&args.dirs, args.out.as_deref())?;
+    let report = merge_shards(&args.dirs, args.out.as_deref(), args.break_lock)?;
     super::run::finish(&report)
 }

@@ -219,6 +219,10 @@ pub struct RunArgs {
     /// Wait for another run's lock on the output folder instead of failing.
     #[arg(long)]
     pub wait: bool,
+    /// Remove the output folder's (or the shard folder's) lock first, whoever holds it: for a
+    /// lock left by a dead run on another host, which is never taken over automatically.
+    #[arg(long)]
+    pub break_lock: bool,
 }
 
 /// Arguments of `merge`.
@@ -231,6 +235,9 @@ pub struct MergeArgs {
     /// (a new run folder, compared with the previous run, `latest` switched to it).
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Remove the output folder's lock first, whoever holds it (see `run --break-lock`).
+    #[arg(long)]
+    pub break_lock: bool,
 }
 
 /// Runs the parsed command line and returns the exit code to use.

@@ -24,6 +24,7 @@ pub fn run(args: RunArgs) -> Result<Exit, CliError> {
         &NightlyOptions {
             shard,
             wait: args.wait,
+            break_lock: args.break_lock,
         },
     )?;
     finish(&report)

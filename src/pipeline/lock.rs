@@ -40,7 +40,7 @@ pub enum LockError {
         pid: u32,
     },
     /// The lock was written by a process on another host, whose liveness cannot be checked here.
-    #[error("{path} is locked by a dwarfbound run on host `{host}` (pid {pid}); it is never taken over automatically: if that run is dead, remove the file by hand")]
+    #[error("{path} is locked by a dwarfbound run on host `{host}` (pid {pid}); it is never taken over automatically: if that run is dead, pass --break-lock or remove the file by hand")]
     OtherHost {
         /// The lock file.
         path: PathBuf,
@@ -177,6 +177,23 @@ fn judge(owner: &Owner, me: &Owner) -> Verdict {
     match (owner.start, process_start(owner.pid)) {
         (Some(recorded), Some(now)) if recorded != now => Verdict::Stale,
         _ => Verdict::Live,
+    }
+}
+
+/// Removes the lock of `dir` whoever holds it (`--break-lock`: for a human who knows the holder
+/// is dead, e.g. a run on another host); returns what the lock file said, if there was one.
+pub fn break_lock(dir: &Path) -> Result<Option<String>, LockError> {
+    let path = dir.join(LOCK_FILE);
+    match std::fs::read_to_string(&path) {
+        Ok(text) => {
+            std::fs::remove_file(&path).map_err(|source| LockError::Io {
+                path: path.clone(),
+                source,
+            })?;
+            Ok(Some(text.trim().replace('\n', " ")))
+        }
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
+        Err(source) => Err(LockError::Io { path, source }),
     }
 }
 

@@ -35,6 +35,21 @@ pub struct NightlyOptions {
     pub shard: Option<Shard>,
     /// Wait for another run's lock instead of failing.
     pub wait: bool,
+    /// Remove the folder's lock first, whoever holds it (the human's override).
+    pub break_lock: bool,
+}
+
+/// `--break-lock`: removes the lock of `dir` and says on stderr whose it was.
+fn break_lock_if_asked(dir: &Path, asked: bool) -> Result<(), LockError> {
+    if asked {
+        if let Some(holder) = super::lock::break_lock(dir)? {
+            eprintln!(
+                "dwarfbound: note: removed the lock of {} on request (it said: {holder})",
+                dir.display()
+            );
+        }
+    }
+    Ok(())
 }
 
 /// Errors of a nightly run.
@@ -302,6 +317,7 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
         let dir = output
             .join("shards")
             .join(format!("{}-of-{}", shard.index, shard.count));
+        break_lock_if_asked(&dir, opts.break_lock)?;
         let lock = FolderLock::acquire(&dir, opts.wait)?;
         let took_over_lock_from = lock.took_over_from;
         let (grid, _, cache_note) = theory_grid(
@@ -332,6 +348,7 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
         });
     }
 
+    break_lock_if_asked(&output, opts.break_lock)?;
     let lock = FolderLock::acquire(&output, opts.wait)?;
     publish_run(
         &settings,
@@ -392,6 +409,7 @@ fn publish_run(
 pub fn merge_shards(
     dirs: &[PathBuf],
     out_dir: Option<&Path>,
+    break_lock: bool,
 ) -> Result<NightlyReport, NightlyError> {
     let mut parts = Vec::new();
     let mut cfg_path: Option<PathBuf> = None;
@@ -439,6 +457,7 @@ pub fn merge_shards(
         .into());
     }
     let (output, _) = folders(&cfg_path, &cfg);
+    break_lock_if_asked(&output, break_lock)?;
     let lock = FolderLock::acquire(&output, false)?;
     publish_run(
         &settings,
