@@ -143,8 +143,14 @@ fn outcome(case: &Case, seed: u64, opts: &EngineOptions) -> (bool, Option<bool>)
     let nu = s.u.len();
     let chi2: Vec<f64> = c.joint.iter().map(|v| v.unwrap_or(f64::INFINITY)).collect();
     let min = chi2.iter().copied().fold(f64::INFINITY, f64::min);
-    let iu = s.u.iter().position(|&u| (u - case.truth.0).abs() < 1e-9).unwrap();
-    let jt = s.t.iter().position(|&t| (t - case.truth.1).abs() < 1e-9).unwrap();
+    let iu =
+        s.u.iter()
+            .position(|&u| (u - case.truth.0).abs() < 1e-9)
+            .unwrap();
+    let jt =
+        s.t.iter()
+            .position(|&t| (t - case.truth.1).abs() < 1e-9)
+            .unwrap();
     let excluded = chi2[jt * nu + iu] - min > Level::Cl95.dchi2(2);
     let slice_miss = (case.truth.1 == 0.0).then(|| {
         let row = &chi2[jt * nu..(jt + 1) * nu];
@@ -219,10 +225,23 @@ const CROWDED_1_TO_2_SHIFTED: Case = Case {
 #[test]
 fn few_objects_false_exclusion_within_target() {
     // Target: the nominal 4.55 % of a 95.45 % region (definition of the level); fail above 8 %.
-    let (excl, miss) = rates(&FEW, 200, &EngineOptions { reduce: fast_reduce(), ..Default::default() });
-    eprintln!("{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}", FEW.name);
+    let (excl, miss) = rates(
+        &FEW,
+        200,
+        &EngineOptions {
+            reduce: fast_reduce(),
+            ..Default::default()
+        },
+    );
+    eprintln!(
+        "{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}",
+        FEW.name
+    );
     assert!(excl <= FAIL_ABOVE, "false exclusion {excl}");
-    assert!(miss.is_some_and(|m| m <= INTERVAL_MISS_GUARD), "interval miss {miss:?}");
+    assert!(
+        miss.is_some_and(|m| m <= INTERVAL_MISS_GUARD),
+        "interval miss {miss:?}"
+    );
 }
 
 #[test]
@@ -234,13 +253,15 @@ fn crowded_catalogue_false_exclusion_within_target() {
         ..Default::default()
     };
     // The shifted 1 : 2 case is in the ignored table (cost).
-    for case in [CROWDED_2_TO_1] {
-        let (excl, miss) = rates(&case, 200, &defaults);
-        eprintln!("{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}", case.name);
-        assert!(excl <= FAIL_ABOVE, "{}: false exclusion {excl}", case.name);
-        if let Some(m) = miss {
-            assert!(m <= INTERVAL_MISS_GUARD, "{}: interval miss {m}", case.name);
-        }
+    let case = CROWDED_2_TO_1;
+    let (excl, miss) = rates(&case, 200, &defaults);
+    eprintln!(
+        "{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}",
+        case.name
+    );
+    assert!(excl <= FAIL_ABOVE, "{}: false exclusion {excl}", case.name);
+    if let Some(m) = miss {
+        assert!(m <= INTERVAL_MISS_GUARD, "{}: interval miss {m}", case.name);
     }
     let old = options(Systematics::PerObject, LikelihoodChoice::Product);
     let (excl, _) = rates(&CROWDED_2_TO_1, 20, &old);
@@ -269,7 +290,11 @@ fn calibration_table() {
     println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) | Υ-interval miss at τ = 0 |");
     println!("|---|---|---|---|---|");
     for case in cases {
-        let seeds = if case.n_low + case.n_high > 20_000 { 200 } else { 400 };
+        let seeds = if case.n_low + case.n_high > 20_000 {
+            200
+        } else {
+            400
+        };
         for (label, opts) in [
             (
                 "default (shared, profiled; auto likelihood)",
@@ -294,4 +319,39 @@ fn calibration_table() {
             );
         }
     }
+}
+
+/// The 100 000-object standard-gravity catalogue of the issue (generator
+/// `tools/make_crowded_catalogue.py`, seed 1) must not exclude standard gravity. Measured on
+/// this branch: Δχ² = 2.11 at Υ = τ = 0 (95.45 % threshold 6.18); the per-object product
+/// likelihood of earlier versions gave Δχ² ≈ 1455.
+#[test]
+#[ignore = "needs python3 and about a minute; run with -- --ignored"]
+fn crowded_standard_gravity_catalogue_is_not_excluded() {
+    let dir = std::env::temp_dir().join(format!("dwarfbound-crowded-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let csv = dir.join("crowded.csv");
+    let root = env!("CARGO_MANIFEST_DIR");
+    let st = std::process::Command::new("python3")
+        .arg(format!("{root}/tools/make_crowded_catalogue.py"))
+        .args(["--seed", "1", "--out"])
+        .arg(&csv)
+        .status()
+        .expect("python3");
+    assert!(st.success());
+    let out = dir.join("out");
+    let st = std::process::Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
+        .arg("confront")
+        .arg(&csv)
+        .arg("--out")
+        .arg(&out)
+        .status()
+        .unwrap();
+    assert!(st.success());
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let sg = &s["standard_gravity"];
+    eprintln!("standard gravity: {sg}");
+    assert_eq!(sg["allowed_cl95"], serde_json::Value::Bool(true), "{sg}");
+    let _ = std::fs::remove_dir_all(&dir);
 }

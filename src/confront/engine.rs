@@ -204,7 +204,11 @@ impl Confrontation {
     /// given values of the two bounds; a bound that is `None` contributes nothing. This is what
     /// the grid's joint value holds apart from the radius term, for points off the grid (the
     /// fine τ = 0 slice).
-    pub fn mass_minus_two_ln_l(&self, mmhb_msun: Option<f64>, chandrasekhar_msun: Option<f64>) -> f64 {
+    pub fn mass_minus_two_ln_l(
+        &self,
+        mmhb_msun: Option<f64>,
+        chandrasekhar_msun: Option<f64>,
+    ) -> f64 {
         let mut s = 0.0;
         for (bound, t) in &self.bounds {
             let b = match bound {
@@ -223,7 +227,10 @@ impl Confrontation {
 
     /// The term of one bound, if some object faces it.
     pub fn bound_term(&self, bound: Bound) -> Option<&BoundTerm> {
-        self.bounds.iter().find(|(b, _)| *b == bound).map(|(_, t)| t)
+        self.bounds
+            .iter()
+            .find(|(b, _)| *b == bound)
+            .map(|(_, t)| t)
     }
 
     /// ln P of object `k` (caller's index) in its mass test at the grid point's class bound,
@@ -404,7 +411,10 @@ pub fn confront(
                 Bound::Mmhb,
                 &mmhb,
                 opts.mmhb_floor_msun,
-                vec![(Term::HBurning, hb.as_slice()), (Term::BrownDwarf, bd.as_slice())],
+                vec![
+                    (Term::HBurning, hb.as_slice()),
+                    (Term::BrownDwarf, bd.as_slice()),
+                ],
             ),
             (
                 Bound::Chandrasekhar,
@@ -413,8 +423,10 @@ pub fn confront(
                 vec![(Term::WhiteDwarfMass, wd.as_slice())],
             ),
         ] {
-            let classes: Vec<(Term, &[Measurement])> =
-                classes.into_iter().filter(|(_, ms)| !ms.is_empty()).collect();
+            let classes: Vec<(Term, &[Measurement])> = classes
+                .into_iter()
+                .filter(|(_, ms)| !ms.is_empty())
+                .collect();
             if classes.is_empty() {
                 continue;
             }
@@ -456,10 +468,8 @@ pub fn confront(
             Bound::Chandrasekhar => &chandra,
             Bound::Mmhb => &mmhb,
         };
-        let parts: Vec<Option<Vec<(Term, f64)>>> = values
-            .par_iter()
-            .map(|b| b.map(|b| bt.split(b)))
-            .collect();
+        let parts: Vec<Option<Vec<(Term, f64)>>> =
+            values.par_iter().map(|b| b.map(|b| bt.split(b))).collect();
         for t in bt.terms() {
             per_term[t.index()] = parts
                 .iter()

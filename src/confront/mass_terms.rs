@@ -156,7 +156,7 @@ impl LikelihoodModel {
 #[derive(Debug)]
 enum Classes {
     Product(Vec<ClassCurve>),
-    Calibrated(CalibratedCurve),
+    Calibrated(Box<CalibratedCurve>),
 }
 
 /// One bound's term of the likelihood.
@@ -229,9 +229,10 @@ impl BoundTerm {
             .count();
         let (model, rule) = match opts.likelihood {
             LikelihoodChoice::Product => (LikelihoodModel::Product, "product (chosen)".to_string()),
-            LikelihoodChoice::Calibrated => {
-                (LikelihoodModel::Calibrated, "calibrated (chosen)".to_string())
-            }
+            LikelihoodChoice::Calibrated => (
+                LikelihoodModel::Calibrated,
+                "calibrated (chosen)".to_string(),
+            ),
             LikelihoodChoice::Auto => {
                 let cal = n_near >= opts.auto_min_near;
                 (
@@ -268,12 +269,12 @@ impl BoundTerm {
             ),
             LikelihoodModel::Calibrated => {
                 let refs: Vec<&[Measurement]> = classes.iter().map(|(_, ms)| *ms).collect();
-                Classes::Calibrated(CalibratedCurve::build(
+                Classes::Calibrated(Box::new(CalibratedCurve::build(
                     &refs,
                     scatter,
                     ext,
                     &opts.calibrated,
-                )?)
+                )?))
             }
         };
         let mut term = Self {
@@ -348,9 +349,7 @@ impl BoundTerm {
     pub fn minus_two_ln_l(&self, b_msun: f64) -> f64 {
         match (&self.table, self.nuisance) {
             (Some((sf, _)), _) if self.inside(b_msun) => sf.eval(b_msun),
-            (_, Some(n)) => {
-                eliminate(&|d| self.data_minus_two_ln_l(b_msun + d), &n).minus_two_ln_l
-            }
+            (_, Some(n)) => eliminate(&|d| self.data_minus_two_ln_l(b_msun + d), &n).minus_two_ln_l,
             _ => self.data_minus_two_ln_l(b_msun),
         }
     }

@@ -247,7 +247,9 @@ mod tests {
     #[test]
     fn marginal_of_gaussian_term() {
         let (mu, s, sigma) = (0.3, 0.05, 0.2);
-        let f = |d: f64| ((d - mu) / s).powi(2) - 2.0 * (1.0 / ((2.0 * std::f64::consts::PI).sqrt() * s)).ln();
+        let f = |d: f64| {
+            ((d - mu) / s).powi(2) - 2.0 * (1.0 / ((2.0 * std::f64::consts::PI).sqrt() * s)).ln()
+        };
         let n = SharedNuisance {
             sigma,
             method: NuisanceMethod::Marginalise,
@@ -256,7 +258,12 @@ mod tests {
         let e = eliminate(&f, &n);
         let v = s * s + sigma * sigma;
         let exact = mu * mu / v + (2.0 * std::f64::consts::PI * v).ln();
-        assert!((e.minus_two_ln_l - exact).abs() < 1e-8, "{} {}", e.minus_two_ln_l, exact);
+        assert!(
+            (e.minus_two_ln_l - exact).abs() < 1e-8,
+            "{} {}",
+            e.minus_two_ln_l,
+            exact
+        );
         assert!((e.delta_hat - mu * sigma * sigma / v).abs() < 1e-7);
     }
 }
