@@ -294,6 +294,8 @@ struct ObjectRow {
     sigma_best: Option<f64>,
     ln_p_best: Option<f64>,
     radius_sigma_standard: Option<f64>,
+    /// Two-sided radius tension at the best fit (enters the verdict).
+    radius_sigma_best: Option<f64>,
     driver_rank: Option<usize>,
     driver_shift: Option<f64>,
 }
@@ -391,18 +393,18 @@ fn tau0_slice(
         .iter()
         .enumerate()
         .map(|(k, &u)| {
-            let mut s = 0.0;
-            for ((_, curve), (_, spline)) in conf.curves.iter().zip(&splines) {
-                s += -2.0 * curve.eval(spline.eval(u));
-            }
-            if let Some(pop) = &conf.population {
-                let mmhb_spline = splines
+            // The mass terms with their shared systematics eliminated (and the population
+            // term, if any), at the bounds interpolated along Υ.
+            let at = |want: fn(Term) -> bool| {
+                splines
                     .iter()
-                    .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf));
-                if let Some((_, sp)) = mmhb_spline {
-                    s += -2.0 * pop.ln_term(sp.eval(u));
-                }
-            }
+                    .find(|(t, _)| want(*t))
+                    .map(|(_, sp)| sp.eval(u))
+            };
+            let s = conf.mass_minus_two_ln_l(
+                at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
+                at(|t| t == Term::WhiteDwarfMass),
+            );
             s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
         })
         .collect();
@@ -673,6 +675,10 @@ pub fn run_confrontation(
     }
 
     // 5. Per-object tensions at standard gravity and at the best fit.
+    let best_wd_table = match grid.wd_table(best_index) {
+        Some(crate::theory::point::Outcome::Ok(t)) => Some(t),
+        _ => None,
+    };
     let mut rows: Vec<ObjectRow> = Vec::with_capacity(vetted.objects.len());
     for (k, o) in vetted.objects.iter().enumerate() {
         let u = &conf.uses[k];
@@ -699,7 +705,14 @@ pub fn run_confrontation(
                 .and_then(|t| radius_tension(t, o, r, e, u.mu_e, &eopts)),
             _ => None,
         };
+        let radius_sigma_best = match (o.radius_rsun, o.radius_err_rsun, &best_wd_table) {
+            (Some(r), Some(e), Some(t)) if u.radius_term => {
+                radius_tension(t, o, r, e, u.mu_e, &eopts)
+            }
+            _ => None,
+        };
         rows.push(ObjectRow {
+            radius_sigma_best,
             bound_standard: bs.map(|b| b * scale),
             bound_best: bb.map(|b| b * scale),
             sigma_standard: sigma(bs),
@@ -764,7 +777,19 @@ pub fn run_confrontation(
         .filter(|(k, _)| counted.contains(k))
         .filter_map(|(k, r)| r.ln_p_best.map(|l| (k, l)))
         .collect();
+    // Every test in the likelihood enters the verdict: the radius tests too, each as its
+    // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
+    // dwarf's two tests stay distinct).
+    let n_obj = rows.len();
+    let mut ln_ps = ln_ps;
+    for (k, r) in rows.iter().enumerate() {
+        if let Some(z) = r.radius_sigma_best.filter(|z| z.is_finite()) {
+            let ln_p = crate::confront::prob::ln_normal_cdf(-z.abs()) + std::f64::consts::LN_2;
+            ln_ps.push((n_obj + k, ln_p.min(0.0)));
+        }
+    }
     let consistency = absolute_consistency(&ln_ps, 5);
+    let verdict_failures = verdict_failures(&ln_ps, n_obj);
     let hb: Vec<Measurement> = conf
         .uses
         .iter()
@@ -807,6 +832,7 @@ pub fn run_confrontation(
         best_index,
         cache_note,
         since_previous: None,
+        verdict_failures,
     };
     let mut ctx = ctx;
     let objects_bytes = ctx.objects_csv()?;
@@ -888,6 +914,8 @@ pub(crate) struct OutputContext<'a> {
     pub best_index: usize,
     pub cache_note: Option<String>,
     pub since_previous: Option<Vec<String>>,
+    /// Tests failing at the best fit (key as in `consistency.worst`; ≥ n_objects = radius).
+    pub verdict_failures: Vec<(usize, f64)>,
 }
 
 fn limit_label(l: MassLimit) -> &'static str {
@@ -1176,8 +1204,20 @@ impl OutputContext<'_> {
             .worst
             .iter()
             .map(|&(k, lnp)| {
-                let o = self.object(k);
-                json!({"id": o.id, "class": o.class.label(), "probability": lnp.exp()})
+                let n = self.rows.len();
+                let o = self.object(k % n);
+                let test = if k >= n { "mass_radius" } else { "mass_bound" };
+                json!({"id": o.id, "class": o.class.label(), "probability": lnp.exp(), "test": test})
+            })
+            .collect();
+        let failing: Vec<Value> = self
+            .verdict_failures
+            .iter()
+            .map(|&(k, lnp)| {
+                let n = self.rows.len();
+                let o = self.object(k % n);
+                let test = if k >= n { "mass_radius" } else { "mass_bound" };
+                json!({"id": o.id, "class": o.class.label(), "test": test, "probability": lnp.exp()})
             })
             .collect();
         let best = &self.regions.best;
@@ -1213,7 +1253,7 @@ impl OutputContext<'_> {
                 "chandrasekhar_mode": t.chandrasekhar_mode.name(),
                 "chandrasekhar_floor_msun": self.eopts.chandrasekhar_floor_msun,
                 "wd_radius_floor_fraction": self.eopts.wd_radius_floor_fraction,
-                "theory_floor": "per-object",
+                "theory_floor": self.eopts.mass_terms.systematics.name(),
                 "population_window_msun": self.eopts.population_window_msun.map(|(a, b)| vec![a, b]),
                 "age_min_mmhb_gyr": self.eopts.age_min_mmhb_gyr,
                 "include_young": self.eopts.include_young,
@@ -1234,12 +1274,80 @@ impl OutputContext<'_> {
                 "p_catalogue": self.consistency.p_cat,
                 "n_informative": self.consistency.n_informative,
                 "worst": worst,
+                "method": "Šidák over every test in the likelihood at the best fit: one-sided mass-bound probabilities (product form, whole floor per object) and two-sided radius p-values 2Φ(−|z|)",
+                "failing": failing,
             },
+            "statistics": self.statistics_json(),
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,
             "reduction": reduction,
             "crowding_warning": self.crowding_warn,
+        })
+    }
+}
+
+/// Tests that fail at the best fit: p below the per-test Šidák level 1 − 0.9545^{1/N}, so that
+/// they are exactly the tests that make the catalogue verdict fail; smallest first.
+fn verdict_failures(ln_ps: &[(usize, f64)], _n_objects: usize) -> Vec<(usize, f64)> {
+    let n = ln_ps.len().max(1) as f64;
+    let per_test = -(Level::Cl95.probability().ln() / n).exp_m1();
+    let mut out: Vec<(usize, f64)> = ln_ps
+        .iter()
+        .copied()
+        .filter(|&(_, l)| l < per_test.ln())
+        .collect();
+    out.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    out
+}
+
+impl OutputContext<'_> {
+    /// `summary.json` key `statistics`: how the systematics and the labels' likelihood were
+    /// treated, per bound.
+    fn statistics_json(&self) -> Value {
+        let mt = &self.eopts.mass_terms;
+        let best = self.grid.point(self.best_index);
+        let bounds: Vec<Value> = self
+            .conf
+            .bounds
+            .iter()
+            .map(|(bound, t)| {
+                let b_best = best.and_then(|p| match bound {
+                    engine::Bound::Mmhb => p.mmhb.ok().map(|m| m.value_msun),
+                    engine::Bound::Chandrasekhar => p.chandrasekhar.ok().map(|c| c.value_msun),
+                });
+                let mf = t.mass_function().map(|m| {
+                    json!({
+                        "objects": m.n_objects,
+                        "iterations": m.iterations,
+                        "converged": m.converged,
+                        "smoothing_msun": m.smoothing_msun,
+                        "cells": m.weights.len(),
+                    })
+                });
+                json!({
+                    "bound": bound.name(),
+                    "classes": t.terms().iter().map(|x| x.name()).collect::<Vec<_>>(),
+                    "likelihood": t.model().name(),
+                    "likelihood_rule": t.rule(),
+                    "objects_near_bound": t.n_near(),
+                    "shared_sigma_msun": t.nuisance().map(|n| n.sigma),
+                    "per_object_scatter_msun": t.scatter_msun(),
+                    "shift_at_best_fit_msun": opt_json(b_best.map(|b| t.delta_hat(b))),
+                    "max_abs_minus_two_ln_l_error": opt_json(Some(t.achieved_error())),
+                    "mass_function": mf,
+                })
+            })
+            .collect();
+        json!({
+            "systematics": mt.systematics.name(),
+            "nuisance_method": mt.method.name(),
+            "likelihood_choice": mt.likelihood.name(),
+            "auto_rule": format!(
+                "calibrated when at least {} objects of the bound's classes lie within {}σ of the grid's range of the bound",
+                mt.auto_min_near, mt.auto_z
+            ),
+            "bounds": bounds,
         })
     }
 }

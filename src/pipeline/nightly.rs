@@ -230,15 +230,6 @@ pub fn settings_from_config(
             ));
         }
     }
-    if st.floor != "per-object" {
-        return Err(bad(
-            "statistics.floor",
-            format!(
-                "`{}`: only per-object is available in this version",
-                st.floor
-            ),
-        ));
-    }
     if !(st.tension_sigma.is_finite() && st.tension_sigma > 0.0) {
         return Err(bad(
             "statistics.tension_sigma",
@@ -252,6 +243,13 @@ pub fn settings_from_config(
     statistics.engine.age_min_mmhb_gyr = st.age_min_mmhb_gyr;
     statistics.engine.include_young = st.include_young;
     statistics.engine.exclude_age_unknown = st.exclude_age_unknown;
+    super::config::apply_statistics_choices(
+        &mut statistics.engine,
+        &st.floor,
+        &st.nuisance,
+        &st.likelihood,
+    )
+    .map_err(|(key, msg)| bad(&format!("statistics.{key}"), msg))?;
     if st.population_aware {
         let [lo, hi] = st.population_window_msun;
         if !(lo.is_finite() && hi.is_finite() && 0.0 < lo && lo < hi) {
