@@ -89,7 +89,7 @@ fn crowding_warns_and_the_population_option_reduces_the_bias() {
         &[&old[..], &["--population-window", "0.05:0.10"]].concat(),
     );
     // The default (shared floor profiled, calibrated likelihood chosen automatically here)
-    // keeps the truth, standard gravity, inside the 95.45 % region (bounds.md §8.9).
+    // keeps the truth, standard gravity, inside the 95.45 % region (the calibration documented in docs/, statistics).
     let default = dir.path().join("default");
     run(&default, &[]);
     let d: serde_json::Value =

@@ -247,7 +247,7 @@ fn few_objects_false_exclusion_within_target() {
 #[test]
 fn crowded_catalogue_false_exclusion_within_target() {
     // Target as above. The old default (per-object floor, product likelihood) is measured too
-    // and printed: it excludes the truth almost always on this catalogue (bounds.md §8.7).
+    // and printed: it excludes the truth almost always on this catalogue (the crowding bias documented in docs/, statistics).
     let defaults = EngineOptions {
         reduce: fast_reduce(),
         ..Default::default()

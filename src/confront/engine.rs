@@ -78,7 +78,7 @@ pub struct EngineOptions {
     /// the bound; adds −n_star ln(hi − B) − n_bd ln(B − lo) to ln L. `None` (default) keeps the
     /// plain product of consistency probabilities.
     pub population_window_msun: Option<(f64, f64)>,
-    /// Shared systematics, likelihood model and their settings (`bounds.md` §8.8–§8.9). The
+    /// Shared systematics, likelihood model and their settings (documented in `docs/` under statistics: shared systematics, calibrated likelihood). The
     /// floors above are the widths of the shared shifts (or, with
     /// [`super::mass_terms::Systematics::PerObject`], the per-object errors).
     pub mass_terms: MassTermOptions,

@@ -7,7 +7,7 @@
 //! Gaussian prior of the bound's floor width. The term is
 //! F(B) = elim_δ [Σ_c −2 ln L_c(B + δ)] (profiled by default, or marginalised; see
 //! [`super::nuisance`]), where each L_c keeps only a small per-object scatter. F depends on the
-//! grid point only through B, so it is tabulated once and interpolated (`theory/bounds.md` §8.5
+//! grid point only through B, so it is tabulated once and interpolated (the one-dimensional reduction
 //! applies unchanged). The old behaviour — the whole floor as an independent error per object —
 //! stays available as [`Systematics::PerObject`].
 //!

@@ -281,7 +281,7 @@ pub(crate) fn write_report_files(
                 "{}, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²), white-dwarf radius {} % (choices, bounds.md §4 and structure.md §4.6){}",
                 match ctx.eopts.mass_terms.systematics {
                     crate::confront::mass_terms::Systematics::Shared => format!(
-                        "shared by every object of a bound (one shift per bound, a nuisance parameter, {}d; bounds.md §8.8) for the mass bounds",
+                        "shared by every object of a bound (one shift per bound, a nuisance parameter, {}d) for the mass bounds",
                         ctx.eopts.mass_terms.method.name()
                     ),
                     crate::confront::mass_terms::Systematics::PerObject => "per object".to_string(),
@@ -310,8 +310,8 @@ pub(crate) fn write_report_files(
                         "{}: {} ({})",
                         b.name(),
                         match t.model() {
-                            crate::confront::mass_terms::LikelihoodModel::Product => "product over objects of the probability of lying on the allowed side of the bound (exact split-normal, bounds.md §8.1)",
-                            crate::confront::mass_terms::LikelihoodModel::Calibrated => "calibrated: each label's probability with a mass function deconvolved from all objects of the bound's classes as the prior on the true mass (bounds.md §8.9)",
+                            crate::confront::mass_terms::LikelihoodModel::Product => "product over objects of the probability of lying on the allowed side of the bound (exact split-normal)",
+                            crate::confront::mass_terms::LikelihoodModel::Calibrated => "calibrated: each label's probability with a mass function deconvolved from all objects of the bound's classes as the prior on the true mass",
                         },
                         t.rule()
                     ))
