@@ -73,9 +73,27 @@ fn crowding_warns_and_the_population_option_reduces_the_bias() {
         let o = confront(&args, out);
         assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     };
+    // The comparison is of the product likelihood with and without the population term, both
+    // with the per-object floor of earlier versions (the new default is checked below).
+    let old = ["--floor", "per-object", "--likelihood", "product"];
     let (plain, aware) = (dir.path().join("plain"), dir.path().join("aware"));
-    run(&plain, &[]);
-    run(&aware, &["--population-window", "0.05:0.10"]);
+    run(&plain, &old);
+    run(
+        &aware,
+        &[&old[..], &["--population-window", "0.05:0.10"]].concat(),
+    );
+    // The default (shared floor profiled, calibrated likelihood chosen automatically here)
+    // keeps the truth, standard gravity, inside the 95.45 % region (the calibration documented in docs/, statistics).
+    let default = dir.path().join("default");
+    run(&default, &[]);
+    let d: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(default.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(d["statistics"]["bounds"][0]["likelihood"], "calibrated");
+    assert_eq!(
+        d["standard_gravity"]["allowed_cl95"], true,
+        "{}",
+        d["standard_gravity"]
+    );
 
     let s = summary(&plain);
     assert_eq!(s["crowding_warning"], true);

@@ -131,6 +131,23 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
     if let Some(w) = &args.population_window {
         statistics.engine.population_window_msun = Some(parse_window(w)?);
     }
+    crate::pipeline::config::apply_statistics_choices(
+        &mut statistics.engine,
+        match args.floor {
+            super::FloorArg::Shared => "shared",
+            super::FloorArg::PerObject => "per-object",
+        },
+        match args.nuisance {
+            super::NuisanceArg::Profile => "profile",
+            super::NuisanceArg::Marginalise => "marginalise",
+        },
+        match args.likelihood {
+            super::LikelihoodArg::Auto => "auto",
+            super::LikelihoodArg::Product => "product",
+            super::LikelihoodArg::Calibrated => "calibrated",
+        },
+    )
+    .map_err(|(key, msg)| CliError::usage(format!("--{key} {msg}")))?;
     let settings = ConfrontSettings {
         catalogues: args
             .catalogs

@@ -205,6 +205,17 @@ pub struct ConfrontArgs {
     /// MMHB, `LO:HI` in M☉ (e.g. 0.04:0.11); for catalogues crowded near the limit.
     #[arg(long, value_name = "LO:HI")]
     pub population_window: Option<String>,
+    /// Theory floors of the bounds: `shared` (one shift per bound, a nuisance parameter;
+    /// default) or `per-object` (an independent error per object, as in earlier versions).
+    #[arg(long, value_enum, default_value_t = FloorArg::Shared, value_name = "MODE")]
+    pub floor: FloorArg,
+    /// How a shared shift is eliminated: `profile` (default) or `marginalise`.
+    #[arg(long, value_enum, default_value_t = NuisanceArg::Profile, value_name = "METHOD")]
+    pub nuisance: NuisanceArg,
+    /// Likelihood of the class labels: `auto` (default; calibrated where many objects crowd a
+    /// bound), `product` or `calibrated`.
+    #[arg(long, value_enum, default_value_t = LikelihoodArg::Auto, value_name = "MODEL")]
+    pub likelihood: LikelihoodArg,
 }
 
 /// Arguments of `run`.
@@ -261,4 +272,33 @@ pub fn main_with(cli: Cli) -> Exit {
             e.exit
         }
     }
+}
+
+/// `--floor` values (names as in a `run` config's `statistics.floor`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum FloorArg {
+    /// One shift per bound, a nuisance parameter.
+    Shared,
+    /// An independent error per object.
+    PerObject,
+}
+
+/// `--nuisance` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum NuisanceArg {
+    /// Minimise over the shift.
+    Profile,
+    /// Integrate over the shift.
+    Marginalise,
+}
+
+/// `--likelihood` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum LikelihoodArg {
+    /// Calibrated where many objects crowd a bound, else product.
+    Auto,
+    /// Product of one-sided probabilities.
+    Product,
+    /// Calibrated by a deconvolved mass function.
+    Calibrated,
 }

@@ -35,6 +35,7 @@
 
 use rayon::prelude::*;
 
+use super::mass_terms::{BoundTerm, MassTermOptions};
 use super::prob::{ln_prob_consistent, tension_sigma, MassKind, Measurement, Side, StatsError};
 use super::reduce::{ClassCurve, ReduceOptions};
 use super::regions::PopulationTerm;
@@ -87,6 +88,10 @@ pub struct EngineOptions {
     /// the bound; adds −n_star ln(hi − B) − n_bd ln(B − lo) to ln L. `None` (default) keeps the
     /// plain product of consistency probabilities.
     pub population_window_msun: Option<(f64, f64)>,
+    /// Shared systematics, likelihood model and their settings (documented in `docs/` under statistics: shared systematics, calibrated likelihood). The
+    /// floors above are the widths of the shared shifts (or, with
+    /// [`super::mass_terms::Systematics::PerObject`], the per-object errors).
+    pub mass_terms: MassTermOptions,
 }
 
 impl Default for EngineOptions {
@@ -101,6 +106,7 @@ impl Default for EngineOptions {
             default_mu_e: 2.0,
             reduce: ReduceOptions::default(),
             population_window_msun: None,
+            mass_terms: MassTermOptions::default(),
         }
     }
 }
@@ -185,6 +191,29 @@ pub struct Confrontation {
     pub population: Option<PopulationTerm>,
     /// The radius tests, prepared (nodes and standard model per object).
     pub radius_objects: Vec<ObjectRadius>,
+    /// The mass terms actually in the likelihood, one per bound (MMHB, Chandrasekhar mass)
+    /// that some object faces. `curves` above are the plain per-object-floor class curves,
+    /// kept for counts and per-object tensions.
+    pub bounds: Vec<(Bound, BoundTerm)>,
+}
+
+/// The two mass bounds of the comparison.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Bound {
+    /// The hydrogen-burning limit, faced by `hburning` and `brown_dwarf`.
+    Mmhb,
+    /// The Chandrasekhar mass (μe = 2), faced by `white_dwarf`.
+    Chandrasekhar,
+}
+
+impl Bound {
+    /// Output name.
+    pub fn name(self) -> &'static str {
+        match self {
+            Bound::Mmhb => "mmhb",
+            Bound::Chandrasekhar => "chandrasekhar",
+        }
+    }
 }
 
 impl Confrontation {
@@ -195,6 +224,59 @@ impl Confrontation {
             .filter(|u| u.mass_term == Some(term))
             .map(|u| u.index)
             .collect()
+    }
+
+    /// −2 ln L of every mass term (shared systematics eliminated, population term included) at
+    /// given values of the two bounds; a bound that is `None` contributes nothing. This is what
+    /// the grid's joint value holds apart from the radius term, for points off the grid (the
+    /// fine τ = 0 slice).
+    pub fn mass_minus_two_ln_l(
+        &self,
+        mmhb_msun: Option<f64>,
+        chandrasekhar_msun: Option<f64>,
+    ) -> f64 {
+        let mut s = 0.0;
+        for (bound, t) in &self.bounds {
+            let b = match bound {
+                Bound::Mmhb => mmhb_msun,
+                Bound::Chandrasekhar => chandrasekhar_msun,
+            };
+            if let Some(b) = b {
+                s += t.minus_two_ln_l(b);
+            }
+        }
+        if let (Some(pop), Some(b)) = (&self.population, mmhb_msun) {
+            s += -2.0 * pop.ln_term(b);
+        }
+        s
+    }
+
+    /// The term of one bound, if some object faces it.
+    pub fn bound_term(&self, bound: Bound) -> Option<&BoundTerm> {
+        self.bounds
+            .iter()
+            .find(|(b, _)| *b == bound)
+            .map(|(_, t)| t)
+    }
+
+    /// ln P of object `k` (caller's index) in its mass test at the grid point's class bound,
+    /// under the likelihood actually used (shared shift at its profiled value). `None` without
+    /// a mass test.
+    pub fn ln_p_in_fit(&self, k: usize, class_bound_msun: f64) -> Option<f64> {
+        let u = self.uses.get(k)?;
+        let term = u.mass_term?;
+        let bound = if term == Term::WhiteDwarfMass {
+            Bound::Chandrasekhar
+        } else {
+            Bound::Mmhb
+        };
+        let t = self.bound_term(bound)?;
+        let pos = self
+            .uses
+            .iter()
+            .filter(|v| v.mass_term == Some(term))
+            .position(|v| v.index == k)?;
+        Some(t.ln_p_object(term, pos, &u.measurement, class_bound_msun))
     }
 }
 
@@ -360,6 +442,52 @@ pub fn confront(
         curves.push((term, ClassCurve::build(&ms, floor, range, &opts.reduce)?));
     }
 
+    let mut bounds: Vec<(Bound, BoundTerm)> = Vec::new();
+    {
+        let pick = |t: Term| -> Vec<Measurement> {
+            uses.iter()
+                .filter(|u| u.mass_term == Some(t))
+                .map(|u| u.measurement)
+                .collect()
+        };
+        let (hb, bd, wd) = (
+            pick(Term::HBurning),
+            pick(Term::BrownDwarf),
+            pick(Term::WhiteDwarfMass),
+        );
+        let mut mt = opts.mass_terms.clone();
+        mt.reduce = opts.reduce.clone();
+        for (bound, values, floor, classes) in [
+            (
+                Bound::Mmhb,
+                &mmhb,
+                opts.mmhb_floor_msun,
+                vec![
+                    (Term::HBurning, hb.as_slice()),
+                    (Term::BrownDwarf, bd.as_slice()),
+                ],
+            ),
+            (
+                Bound::Chandrasekhar,
+                &chandra,
+                opts.chandrasekhar_floor_msun,
+                vec![(Term::WhiteDwarfMass, wd.as_slice())],
+            ),
+        ] {
+            let classes: Vec<(Term, &[Measurement])> = classes
+                .into_iter()
+                .filter(|(_, ms)| !ms.is_empty())
+                .collect();
+            if classes.is_empty() {
+                continue;
+            }
+            let finite: Vec<f64> = values.iter().flatten().copied().collect();
+            let Some(range) = super::reduce::bound_range(&finite) else {
+                continue;
+            };
+            bounds.push((bound, BoundTerm::build(&classes, floor, range, &mt)?));
+        }
+    }
     let population = match opts.population_window_msun {
         Some(window) => {
             let pick = |t: Term| -> Vec<Measurement> {
@@ -386,16 +514,22 @@ pub fn confront(
     for t in Term::ALL {
         per_term[t.index()] = vec![Some(0.0); n];
     }
-    for (term, curve) in &curves {
-        let values = if *term == Term::WhiteDwarfMass {
-            &chandra
-        } else {
-            &mmhb
+    for (bound, bt) in &bounds {
+        let values = match bound {
+            Bound::Chandrasekhar => &chandra,
+            Bound::Mmhb => &mmhb,
         };
-        per_term[term.index()] = values
-            .iter()
-            .map(|b| b.map(|b| -2.0 * curve.eval(b)))
-            .collect();
+        let parts: Vec<Option<Vec<(Term, f64)>>> =
+            values.par_iter().map(|b| b.map(|b| bt.split(b))).collect();
+        for t in bt.terms() {
+            per_term[t.index()] = parts
+                .iter()
+                .map(|p| {
+                    p.as_ref()
+                        .map(|v| v.iter().find(|(x, _)| x == t).map_or(0.0, |x| x.1))
+                })
+                .collect();
+        }
     }
     if let Some(pop) = &population {
         // The population term belongs to the hydrogen-burning/brown-dwarf boundary; it is
@@ -481,6 +615,7 @@ pub fn confront(
         curves,
         population,
         radius_objects,
+        bounds,
     })
 }
 

@@ -3,8 +3,11 @@
 //! Every grid vector in this module (and in the whole program) is indexed τ outer, Υ inner:
 //! `j_tau · n_upsilon + i_upsilon` (see [`engine::BoundSurface`]).
 
+pub mod calibrated;
 pub mod drivers;
 pub mod engine;
+pub mod mass_terms;
+pub mod nuisance;
 pub mod prob;
 pub mod reduce;
 pub mod regions;

@@ -115,18 +115,18 @@ pub fn tau0_slice(
         .iter()
         .enumerate()
         .map(|(k, &u)| {
-            let mut s = 0.0;
-            for ((_, curve), (_, spline)) in conf.curves.iter().zip(&splines) {
-                s += -2.0 * curve.eval(spline.eval(u));
-            }
-            if let Some(pop) = &conf.population {
-                let mmhb_spline = splines
+            // The mass terms with their shared systematics eliminated (and the population
+            // term, if any), at the bounds interpolated along Υ.
+            let at = |want: fn(Term) -> bool| {
+                splines
                     .iter()
-                    .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf));
-                if let Some((_, sp)) = mmhb_spline {
-                    s += -2.0 * pop.ln_term(sp.eval(u));
-                }
-            }
+                    .find(|(t, _)| want(*t))
+                    .map(|(_, sp)| sp.eval(u))
+            };
+            let s = conf.mass_minus_two_ln_l(
+                at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
+                at(|t| t == Term::WhiteDwarfMass),
+            );
             s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
         })
         .collect();

@@ -26,7 +26,7 @@
 
 use std::collections::BTreeSet;
 
-use super::engine::{self, Confrontation, EngineOptions, ObjectUse, Term};
+use super::engine::{self, BoundSurface, Confrontation, EngineOptions, ObjectUse, Term};
 use super::prob::Measurement;
 use super::regions::{
     absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
@@ -103,19 +103,29 @@ pub struct ObjectVerdict {
     pub ln_p_best: Option<f64>,
     /// Signed tension of its radius with the standard-gravity mass–radius relation, σ.
     pub radius_sigma_standard: Option<f64>,
+    /// Signed tension of its radius at the best fit, σ (enters the verdict).
+    pub radius_sigma_best: Option<f64>,
 }
 
 /// Each object's verdicts at `standard` and `best`, in the order of `objects` (`uses` is the
 /// comparator's plan for the same objects). Tensions are given for every object, also those
 /// left out of the fit (they are flagged elsewhere).
+#[allow(clippy::too_many_arguments)] // the two reference points and where the best one sits
 pub fn object_verdicts(
     objects: &[CatalogueObject],
     uses: &[ObjectUse],
     radius_objects: &[ObjectRadius],
     standard: &ReferencePoint,
     best: &ReferencePoint,
+    surface: &dyn BoundSurface,
+    best_index: usize,
     eopts: &EngineOptions,
 ) -> Vec<ObjectVerdict> {
+    let best_upsilon = surface
+        .upsilon()
+        .get(best_index % surface.upsilon().len().max(1))
+        .copied()
+        .unwrap_or(0.0);
     objects
         .iter()
         .zip(uses)
@@ -135,14 +145,15 @@ pub fn object_verdicts(
                 b.and_then(|b| engine::tension_of(&as_used, b, eopts))
                     .filter(|z| z.is_finite())
             };
-            let radius_sigma_standard = if u.radius_term {
-                radius_objects
-                    .iter()
-                    .find(|r| r.index == k)
-                    .and_then(ObjectRadius::standard_tension)
-            } else {
-                None
-            };
+            let radius = radius_objects
+                .iter()
+                .find(|r| r.index == k)
+                .filter(|_| u.radius_term);
+            let radius_sigma_standard = radius.and_then(ObjectRadius::standard_tension);
+            let radius_sigma_best = radius.and_then(|r| {
+                let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
+                r.tension_at(cold.first().copied().flatten(), best_upsilon)
+            });
             ObjectVerdict {
                 bound_standard: bs.map(|b| b * scale),
                 bound_best: bb.map(|b| b * scale),
@@ -154,6 +165,7 @@ pub fn object_verdicts(
                     None
                 },
                 radius_sigma_standard,
+                radius_sigma_best,
             }
         })
         .collect()
@@ -200,19 +212,45 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
 pub fn consistency_at_best(
     conf: &Confrontation,
     verdicts: &[ObjectVerdict],
-) -> AbsoluteConsistency {
+) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
     let mut counted = BTreeSet::new();
     for (term, curve) in &conf.curves {
         let members = conf.members(*term);
         counted.extend(curve.informative_indices().iter().map(|&j| members[j]));
     }
-    let ln_ps: Vec<(usize, f64)> = verdicts
+    let mut ln_ps: Vec<(usize, f64)> = verdicts
         .iter()
         .enumerate()
         .filter(|(k, _)| counted.contains(k))
         .filter_map(|(k, r)| r.ln_p_best.map(|l| (k, l)))
         .collect();
-    absolute_consistency(&ln_ps, WORST_LISTED)
+    // Every test in the likelihood enters the verdict: the radius tests too, each as its
+    // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
+    // dwarf's two tests stay distinct).
+    let n_obj = verdicts.len();
+    for (k, r) in verdicts.iter().enumerate() {
+        if let Some(z) = r.radius_sigma_best.filter(|z| z.is_finite()) {
+            let ln_p = super::prob::ln_normal_cdf(-z.abs()) + std::f64::consts::LN_2;
+            ln_ps.push((n_obj + k, ln_p.min(0.0)));
+        }
+    }
+    let failing = verdict_failures(&ln_ps);
+    (absolute_consistency(&ln_ps, WORST_LISTED), failing)
+}
+
+/// Tests that fail at the best fit: p below the per-test Šidák level 1 − 0.9545^{1/N}, so that
+/// they are exactly the tests that make the catalogue verdict fail; smallest first. Keys as in
+/// [`consistency_at_best`] (≥ the object count: a radius test).
+fn verdict_failures(ln_ps: &[(usize, f64)]) -> Vec<(usize, f64)> {
+    let n = ln_ps.len().max(1) as f64;
+    let per_test = -(super::regions::Level::Cl95.probability().ln() / n).exp_m1();
+    let mut out: Vec<(usize, f64)> = ln_ps
+        .iter()
+        .copied()
+        .filter(|&(_, l)| l < per_test.ln())
+        .collect();
+    out.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    out
 }
 
 /// The crowding check at an MMHB of `mmhb_msun` (the best fit's) with the MMHB floor

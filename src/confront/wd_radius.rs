@@ -310,6 +310,30 @@ impl ObjectRadius {
         Some((self.radius_rsun - r) / s2.sqrt())
     }
 
+    /// Signed two-sided tension at a grid point: as [`ObjectRadius::standard_tension`], with the
+    /// prediction carried to the point by the ratio of `cold_at_nominal` (the structure solver's
+    /// cold radius at the nominal mass there) to the standard one, and the anchoring error.
+    pub fn tension_at(&self, cold_at_nominal: Option<f64>, upsilon: f64) -> Option<f64> {
+        let (s, slope) = self.at_nominal?;
+        let cold = cold_at_nominal?;
+        if !(s.cold_rsun > 0.0) {
+            return None;
+        }
+        let ratio = cold / s.cold_rsun;
+        let r = s.radius_rsun * ratio;
+        let teff = s.dln_r_dteff_per_k * self.teff_err_k;
+        let anchor = 0.5 * upsilon.abs() * (s.hot_over_cold - 1.0).max(0.0);
+        let th2 = (self.floor_fraction.powi(2)
+            + s.envelope_fraction.powi(2)
+            + teff.powi(2)
+            + anchor.powi(2))
+            * r
+            * r;
+        let s2 =
+            self.radius_err_rsun.powi(2) + th2 + (slope * ratio * self.mass_sigma_msun).powi(2);
+        Some((self.radius_rsun - r) / s2.sqrt())
+    }
+
     /// ln of the likelihood of the measured radius marginalised over the true mass:
     /// Σ_k w_k N(R_obs; R_k, σ_k), σ_k² = σ_R² + σ_th,k², over the nodes with a model.
     /// `cold_at_point[k]` is the structure solver's cold radius at node k at the grid point.

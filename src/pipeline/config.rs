@@ -155,8 +155,13 @@ pub struct StatisticsConfig {
     pub include_model_masses: bool,
     /// Keep white dwarfs outside the radius model's domain in the radius test.
     pub include_out_of_domain: bool,
-    /// `per-object` (default) or `shared` theory floor.
+    /// `shared` (default: one shift per bound, a nuisance parameter) or `per-object` theory
+    /// floor.
     pub floor: String,
+    /// How a shared shift is eliminated: `profile` (default) or `marginalise`.
+    pub nuisance: String,
+    /// Likelihood of the class labels: `auto` (default), `product` or `calibrated`.
+    pub likelihood: String,
     /// Add the population-aware term of bounds.md §8.7.
     pub population_aware: bool,
     /// Its mass window [lo, hi] around the MMHB, M☉ (must contain every MMHB of the grid).
@@ -173,7 +178,9 @@ impl Default for StatisticsConfig {
             wd_radius_model: "hot".into(),
             include_model_masses: false,
             include_out_of_domain: false,
-            floor: "per-object".into(),
+            floor: "shared".into(),
+            nuisance: "profile".into(),
+            likelihood: "auto".into(),
             population_aware: false,
             population_window_msun: [0.04, 0.11],
         }
@@ -219,6 +226,31 @@ impl Config {
             message,
         })
     }
+}
+
+/// Applies the statistics choices named in a config or on the command line (`floor`,
+/// `nuisance`, `likelihood`) to the engine options; on a bad value returns (key, message).
+pub fn apply_statistics_choices(
+    engine: &mut crate::confront::engine::EngineOptions,
+    floor: &str,
+    nuisance: &str,
+    likelihood: &str,
+) -> Result<(), (&'static str, String)> {
+    use crate::confront::mass_terms::{LikelihoodChoice, Systematics};
+    use crate::confront::nuisance::NuisanceMethod;
+    engine.mass_terms.systematics = Systematics::from_name(floor).ok_or((
+        "floor",
+        format!("`{floor}` is not `shared` or `per-object`"),
+    ))?;
+    engine.mass_terms.method = NuisanceMethod::from_name(nuisance).ok_or((
+        "nuisance",
+        format!("`{nuisance}` is not `profile` or `marginalise`"),
+    ))?;
+    engine.mass_terms.likelihood = LikelihoodChoice::from_name(likelihood).ok_or((
+        "likelihood",
+        format!("`{likelihood}` is not `auto`, `product` or `calibrated`"),
+    ))?;
+    Ok(())
 }
 
 /// Resolves a path from the config against the config file's folder.

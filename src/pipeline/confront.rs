@@ -241,12 +241,14 @@ pub fn run_confrontation(
         &conf.radius_objects,
         &class_bounds(&standard),
         &class_bounds(best_point),
+        &surface,
+        best_index,
         &eopts,
     );
     let tensions = tensions_above(&verdicts, settings.statistics.tension_sigma);
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
-    let consistency = consistency_at_best(&conf, &verdicts);
+    let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts);
     let crowd = best_point
         .mmhb
         .ok()
@@ -271,6 +273,7 @@ pub fn run_confrontation(
         best_index,
         cache_note: cache_note.clone(),
         since_previous: None,
+        verdict_failures,
     };
     let (summary, difference) = write_outputs(&mut ctx, out_dir, generated_at, nightly)?;
 

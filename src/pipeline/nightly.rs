@@ -241,15 +241,6 @@ pub fn settings_from_config(
             ));
         }
     }
-    if st.floor != "per-object" {
-        return Err(bad(
-            "statistics.floor",
-            format!(
-                "`{}`: only per-object is available in this version",
-                st.floor
-            ),
-        ));
-    }
     if !(st.tension_sigma.is_finite() && st.tension_sigma > 0.0) {
         return Err(bad(
             "statistics.tension_sigma",
@@ -269,6 +260,13 @@ pub fn settings_from_config(
         .map_err(|e: String| bad("statistics.wd_radius_model", e))?;
     statistics.engine.radius.include_model_masses = st.include_model_masses;
     statistics.engine.radius.include_out_of_domain = st.include_out_of_domain;
+    super::config::apply_statistics_choices(
+        &mut statistics.engine,
+        &st.floor,
+        &st.nuisance,
+        &st.likelihood,
+    )
+    .map_err(|(key, msg)| bad(&format!("statistics.{key}"), msg))?;
     if st.population_aware {
         let [lo, hi] = st.population_window_msun;
         if !(lo.is_finite() && hi.is_finite() && 0.0 < lo && lo < hi) {

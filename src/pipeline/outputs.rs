@@ -47,6 +47,8 @@ pub(crate) struct OutputContext<'a> {
     pub best_index: usize,
     pub cache_note: Option<String>,
     pub since_previous: Option<Vec<String>>,
+    /// Tests failing at the best fit (key as in `consistency.worst`; ≥ n_objects = radius).
+    pub verdict_failures: Vec<(usize, f64)>,
 }
 
 fn opt_json(x: Option<f64>) -> Value {
@@ -340,8 +342,20 @@ impl OutputContext<'_> {
             .worst
             .iter()
             .map(|&(k, lnp)| {
-                let o = self.object(k);
-                json!({"id": o.id, "class": o.class.label(), "probability": lnp.exp()})
+                let n = self.vetted.objects.len();
+                let o = self.object(k % n);
+                let test = if k >= n { "mass_radius" } else { "mass_bound" };
+                json!({"id": o.id, "class": o.class.label(), "probability": lnp.exp(), "test": test})
+            })
+            .collect();
+        let failing: Vec<Value> = self
+            .verdict_failures
+            .iter()
+            .map(|&(k, lnp)| {
+                let n = self.vetted.objects.len();
+                let o = self.object(k % n);
+                let test = if k >= n { "mass_radius" } else { "mass_bound" };
+                json!({"id": o.id, "class": o.class.label(), "test": test, "probability": lnp.exp()})
             })
             .collect();
         let best = &self.regions.best;
@@ -382,7 +396,7 @@ impl OutputContext<'_> {
                 },
                 "wd_radius_model": self.eopts.radius.model.name(),
                 "include_model_masses": self.eopts.radius.include_model_masses,
-                "theory_floor": "per-object",
+                "theory_floor": self.eopts.mass_terms.systematics.name(),
                 "population_window_msun": self.eopts.population_window_msun.map(|(a, b)| vec![a, b]),
                 "age_min_mmhb_gyr": self.eopts.age_min_mmhb_gyr,
                 "include_young": self.eopts.include_young,
@@ -403,12 +417,68 @@ impl OutputContext<'_> {
                 "p_catalogue": self.consistency.p_cat,
                 "n_informative": self.consistency.n_informative,
                 "worst": worst,
+                "method": "Šidák over every test in the likelihood at the best fit: one-sided mass-bound probabilities (product form, whole floor per object) and two-sided radius p-values 2Φ(−|z|)",
+                "failing": failing,
             },
+            "statistics": self.statistics_json(),
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,
             "reduction": reduction,
             "crowding_warning": self.crowd.is_some_and(|c| c.warn),
+        })
+    }
+}
+
+impl OutputContext<'_> {
+    /// `summary.json` key `statistics`: how the systematics and the labels' likelihood were
+    /// treated, per bound.
+    fn statistics_json(&self) -> Value {
+        let mt = &self.eopts.mass_terms;
+        let best = self.grid.point(self.best_index);
+        let bounds: Vec<Value> = self
+            .conf
+            .bounds
+            .iter()
+            .map(|(bound, t)| {
+                let b_best = best.and_then(|p| match bound {
+                    crate::confront::engine::Bound::Mmhb => p.mmhb.ok().map(|m| m.value_msun),
+                    crate::confront::engine::Bound::Chandrasekhar => {
+                        p.chandrasekhar.ok().map(|c| c.value_msun)
+                    }
+                });
+                let mf = t.mass_function().map(|m| {
+                    json!({
+                        "objects": m.n_objects,
+                        "iterations": m.iterations,
+                        "converged": m.converged,
+                        "smoothing_msun": m.smoothing_msun,
+                        "cells": m.weights.len(),
+                    })
+                });
+                json!({
+                    "bound": bound.name(),
+                    "classes": t.terms().iter().map(|x| x.name()).collect::<Vec<_>>(),
+                    "likelihood": t.model().name(),
+                    "likelihood_rule": t.rule(),
+                    "objects_near_bound": t.n_near(),
+                    "shared_sigma_msun": t.nuisance().map(|n| n.sigma),
+                    "per_object_scatter_msun": t.scatter_msun(),
+                    "shift_at_best_fit_msun": opt_json(b_best.map(|b| t.delta_hat(b))),
+                    "max_abs_minus_two_ln_l_error": opt_json(Some(t.achieved_error())),
+                    "mass_function": mf,
+                })
+            })
+            .collect();
+        json!({
+            "systematics": mt.systematics.name(),
+            "nuisance_method": mt.method.name(),
+            "likelihood_choice": mt.likelihood.name(),
+            "auto_rule": format!(
+                "calibrated when at least {} objects of the bound's classes lie within {}σ of the grid's range of the bound",
+                mt.auto_min_near, mt.auto_z
+            ),
+            "bounds": bounds,
         })
     }
 }

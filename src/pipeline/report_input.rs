@@ -332,24 +332,39 @@ pub(crate) fn write_report_files(
                 ),
                 crate::theory::mmhb::MmhbMode::Raw => "none: the raw analytic value".into(),
             },
-            theory_floor: match ctx.eopts.radius.model {
-                crate::confront::wd_radius::WdRadiusModel::Cold => format!(
-                    "per object, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²), white-dwarf radius {} % (choices, bounds.md §4 and structure.md §4.6)",
-                    ctx.eopts.mmhb_floor_msun,
-                    ctx.eopts.chandrasekhar_floor_msun,
-                    100.0 * ctx.eopts.radius.cold_floor_fraction
-                ),
-                crate::confront::wd_radius::WdRadiusModel::Hot => format!(
-                    "per object, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²); white-dwarf radius {} % for carbon–oxygen cores up to {} K, rising to {} % at {} K, helium cores {} % more in quadrature, plus half the thick–thin spread where the hydrogen layer is not stated, the Teff error through dR/dTeff and 0.5 |Υ| (R_hot/R_cold − 1) for the anchored Υ dependence (choices, docs/white-dwarfs.md §13)",
-                    ctx.eopts.mmhb_floor_msun,
-                    ctx.eopts.chandrasekhar_floor_msun,
-                    100.0 * ctx.eopts.radius.hot_floor_fraction,
-                    ctx.eopts.radius.hot_ramp_start_k,
-                    100.0 * (ctx.eopts.radius.hot_floor_fraction + ctx.eopts.radius.hot_ramp_extra_fraction),
-                    ctx.eopts.radius.hot_ramp_end_k,
-                    100.0 * ctx.eopts.radius.helium_core_fraction,
-                ),
-            },
+            theory_floor: format!(
+                "{}, Gaussian: MMHB {} M☉, Chandrasekhar mass {} M☉ (μe = 2, scaled by 4/μe²){}; {}",
+                match ctx.eopts.mass_terms.systematics {
+                    crate::confront::mass_terms::Systematics::Shared => format!(
+                        "shared by every object of a bound (one shift per bound, a nuisance parameter, {}d) for the mass bounds",
+                        ctx.eopts.mass_terms.method.name()
+                    ),
+                    crate::confront::mass_terms::Systematics::PerObject => "per object".to_string(),
+                },
+                ctx.eopts.mmhb_floor_msun,
+                ctx.eopts.chandrasekhar_floor_msun,
+                match ctx.eopts.mass_terms.systematics {
+                    crate::confront::mass_terms::Systematics::Shared => format!(
+                        "; each mass probability keeps a per-object scatter of {} × the floor",
+                        ctx.eopts.mass_terms.scatter_fraction
+                    ),
+                    crate::confront::mass_terms::Systematics::PerObject => String::new(),
+                },
+                match ctx.eopts.radius.model {
+                    crate::confront::wd_radius::WdRadiusModel::Cold => format!(
+                        "white-dwarf radius {} % per object (choices, bounds.md §4 and structure.md §4.6)",
+                        100.0 * ctx.eopts.radius.cold_floor_fraction
+                    ),
+                    crate::confront::wd_radius::WdRadiusModel::Hot => format!(
+                        "white-dwarf radius, per object: {} % for carbon–oxygen cores up to {} K, rising to {} % at {} K, helium cores {} % more in quadrature, plus half the thick–thin spread where the hydrogen layer is not stated, the Teff error through dR/dTeff and 0.5 |Υ| (R_hot/R_cold − 1) for the anchored Υ dependence (choices, docs/white-dwarfs.md §13)",
+                        100.0 * ctx.eopts.radius.hot_floor_fraction,
+                        ctx.eopts.radius.hot_ramp_start_k,
+                        100.0 * (ctx.eopts.radius.hot_floor_fraction + ctx.eopts.radius.hot_ramp_extra_fraction),
+                        ctx.eopts.radius.hot_ramp_end_k,
+                        100.0 * ctx.eopts.radius.helium_core_fraction,
+                    ),
+                }
+            ),
             white_dwarf: match ctx.eopts.radius.model {
                 crate::confront::wd_radius::WdRadiusModel::Cold => format!(
                     "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)); Newtonian order, zero temperature, no Coulomb or envelope corrections; radii from the full-EOS R(M) tabulated per grid point (the zero-temperature model, chosen with --wd-model cold)",
@@ -361,7 +376,21 @@ pub(crate) fn write_report_files(
                 ),
             },
             likelihood: format!(
-                "product over objects of the probability of lying on the allowed side of the class bound (exact split-normal with the theory floor, bounds.md §8.1), evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's mass{}",
+                "{}; evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's mass{}",
+                ctx.conf
+                    .bounds
+                    .iter()
+                    .map(|(b, t)| format!(
+                        "{}: {} ({})",
+                        b.name(),
+                        match t.model() {
+                            crate::confront::mass_terms::LikelihoodModel::Product => "product over objects of the probability of lying on the allowed side of the bound (exact split-normal)",
+                            crate::confront::mass_terms::LikelihoodModel::Calibrated => "calibrated: each label's probability with a mass function deconvolved from all objects of the bound's classes as the prior on the true mass",
+                        },
+                        t.rule()
+                    ))
+                    .collect::<Vec<_>>()
+                    .join("; "),
                 match ctx.eopts.population_window_msun {
                     Some((lo, hi)) => format!("; population-aware term of bounds.md §8.7 with the mass window [{lo}, {hi}] M☉ (flat true-mass densities on either side of the MMHB, profiled)"),
                     None => String::new(),
@@ -442,10 +471,19 @@ pub(crate) fn write_report_files(
                 .consistency
                 .worst
                 .iter()
-                .map(|&(k, lnp)| WorstObject {
-                    id: ctx.vetted.objects[k].id.clone(),
-                    class: ctx.vetted.objects[k].class.label().into(),
-                    probability: lnp.exp(),
+                .map(|&(k, lnp)| {
+                    // Keys ≥ the object count are radius tests (pipeline/confront.rs).
+                    let n = ctx.vetted.objects.len();
+                    let o = &ctx.vetted.objects[k % n];
+                    WorstObject {
+                        id: if k >= n {
+                            format!("{} (radius)", o.id)
+                        } else {
+                            o.id.clone()
+                        },
+                        class: o.class.label().into(),
+                        probability: lnp.exp(),
+                    }
                 })
                 .collect(),
         },

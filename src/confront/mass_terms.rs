@@ -1,0 +1,448 @@
+//! The mass-bound terms of the likelihood, one per bound: the classes that meet at it, the
+//! likelihood model (product of consistency probabilities, or calibrated), and the shared
+//! systematic of the bound as a nuisance parameter.
+//!
+//! Each bound B (the MMHB for `hburning` and `brown_dwarf`, the Chandrasekhar mass for
+//! `white_dwarf`) carries one theory error δ common to every object that faces it, with a
+//! Gaussian prior of the bound's floor width. The term is
+//! F(B) = elim_δ [Σ_c −2 ln L_c(B + δ)] (profiled by default, or marginalised; see
+//! [`super::nuisance`]), where each L_c keeps only a small per-object scatter. F depends on the
+//! grid point only through B, so it is tabulated once and interpolated (the one-dimensional reduction
+//! applies unchanged). The old behaviour — the whole floor as an independent error per object —
+//! stays available as [`Systematics::PerObject`].
+//!
+//! ```
+//! use dwarfbound::confront::mass_terms::{BoundTerm, MassTermOptions};
+//! use dwarfbound::confront::engine::Term;
+//! use dwarfbound::confront::prob::{MassKind, Measurement, Side};
+//! let m = |mass, side| Measurement { mass_msun: mass,
+//!     kind: MassKind::Measured { lo: 0.003, hi: 0.003 }, side, scale: 1.0 };
+//! let hb = [m(0.080, Side::AtLeast)];
+//! let bd = [m(0.070, Side::AtMost)];
+//! let t = BoundTerm::build(&[(Term::HBurning, &hb), (Term::BrownDwarf, &bd)], 0.005,
+//!     (0.07, 0.08), &MassTermOptions::default()).unwrap();
+//! // Two objects bracket the bound: the profiled term is small at 0.075.
+//! assert!(t.minus_two_ln_l(0.075) < 1.0);
+//! ```
+
+use super::calibrated::{CalibratedCurve, CalibratedOptions};
+use super::engine::Term;
+use super::nuisance::{eliminate, NuisanceMethod, SharedNuisance};
+use super::prob::{ln_prob_consistent, MassKind, Measurement, StatsError};
+use super::reduce::{ClassCurve, CubicSpline, ReduceOptions, SplineEnd, SplitMix64};
+
+/// How the bound's theory floor enters.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Systematics {
+    /// One shift common to all objects of the bound, eliminated as a nuisance (default;
+    /// configuration value `shared`).
+    Shared,
+    /// An independent error per object (the behaviour of earlier versions; `per-object`).
+    PerObject,
+}
+
+impl Systematics {
+    /// Configuration and output name.
+    pub fn name(self) -> &'static str {
+        match self {
+            Systematics::Shared => "shared",
+            Systematics::PerObject => "per-object",
+        }
+    }
+    /// Parses `shared` or `per-object`.
+    pub fn from_name(s: &str) -> Option<Self> {
+        match s {
+            "shared" => Some(Systematics::Shared),
+            "per-object" | "per_object" => Some(Systematics::PerObject),
+            _ => None,
+        }
+    }
+}
+
+/// Which likelihood of the labels is used.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LikelihoodChoice {
+    /// Decide per bound by the crowding rule ([`MassTermOptions::auto_min_near`]).
+    Auto,
+    /// Product of consistency probabilities (flat prior on each true mass).
+    Product,
+    /// Calibrated with the deconvolved mass function.
+    Calibrated,
+}
+
+impl LikelihoodChoice {
+    /// Configuration name: `auto`, `product`, `calibrated`.
+    pub fn name(self) -> &'static str {
+        match self {
+            LikelihoodChoice::Auto => "auto",
+            LikelihoodChoice::Product => "product",
+            LikelihoodChoice::Calibrated => "calibrated",
+        }
+    }
+    /// Parses a configuration name.
+    pub fn from_name(s: &str) -> Option<Self> {
+        match s {
+            "auto" => Some(LikelihoodChoice::Auto),
+            "product" => Some(LikelihoodChoice::Product),
+            "calibrated" => Some(LikelihoodChoice::Calibrated),
+            _ => None,
+        }
+    }
+}
+
+/// Settings of the mass terms.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MassTermOptions {
+    /// Shared (default) or per-object floor.
+    pub systematics: Systematics,
+    /// Profile (default) or marginalise the shared shift.
+    pub method: NuisanceMethod,
+    /// The shift is searched over ±reach·σ and the class curves tabulated that far (6).
+    pub reach_sigma: f64,
+    /// Per-object scatter of the bound that remains with a shared floor, as a fraction of the
+    /// bound's floor (default 0.4: 0.002 M☉ for the MMHB, 0.012 M☉ for the Chandrasekhar mass).
+    pub scatter_fraction: f64,
+    /// Product, calibrated, or automatic.
+    pub likelihood: LikelihoodChoice,
+    /// Automatic rule: calibrated when at least this many objects of the bound's classes lie
+    /// within `auto_z` σ of the grid's range of the bound (default 10, from the coverage study).
+    pub auto_min_near: usize,
+    /// "Near" in σ for the rule (default 3).
+    pub auto_z: f64,
+    /// Class-curve tabulation (product model).
+    pub reduce: ReduceOptions,
+    /// Deconvolution settings (calibrated model).
+    pub calibrated: CalibratedOptions,
+    /// Nodes of the table of the eliminated term in B (default 257).
+    pub n_nodes: usize,
+}
+
+impl Default for MassTermOptions {
+    fn default() -> Self {
+        Self {
+            systematics: Systematics::Shared,
+            method: NuisanceMethod::Profile,
+            reach_sigma: 6.0,
+            scatter_fraction: 0.4,
+            likelihood: LikelihoodChoice::Auto,
+            auto_min_near: 10,
+            auto_z: 3.0,
+            reduce: ReduceOptions::default(),
+            calibrated: CalibratedOptions::default(),
+            n_nodes: 257,
+        }
+    }
+}
+
+/// The likelihood model actually used for a bound.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LikelihoodModel {
+    /// Product of consistency probabilities.
+    Product,
+    /// Calibrated.
+    Calibrated,
+}
+
+impl LikelihoodModel {
+    /// Output name.
+    pub fn name(self) -> &'static str {
+        match self {
+            LikelihoodModel::Product => "product",
+            LikelihoodModel::Calibrated => "calibrated",
+        }
+    }
+}
+
+#[derive(Debug)]
+enum Classes {
+    Product(Vec<ClassCurve>),
+    Calibrated(Box<CalibratedCurve>),
+}
+
+/// One bound's term of the likelihood.
+#[derive(Debug)]
+pub struct BoundTerm {
+    terms: Vec<Term>,
+    model: LikelihoodModel,
+    rule: String,
+    n_near: usize,
+    nuisance: Option<SharedNuisance>,
+    scatter_msun: f64,
+    classes: Classes,
+    table: Option<(CubicSpline, CubicSpline)>,
+    range: (f64, f64),
+    table_error: f64,
+}
+
+impl BoundTerm {
+    /// Builds the term of the classes `classes` (each with all its objects, in the caller's
+    /// order) facing one bound whose theory floor is `floor_msun` and whose values over the grid
+    /// span `bound_range_msun`.
+    pub fn build(
+        classes: &[(Term, &[Measurement])],
+        floor_msun: f64,
+        bound_range_msun: (f64, f64),
+        opts: &MassTermOptions,
+    ) -> Result<Self, StatsError> {
+        let (lo, hi) = bound_range_msun;
+        if !(lo.is_finite() && hi.is_finite() && lo <= hi && lo > 0.0) {
+            return Err(StatsError::InvalidInput(format!(
+                "bound range [{lo}, {hi}] M☉ is not usable"
+            )));
+        }
+        let width = hi - lo;
+        let pad = if width > 0.0 {
+            opts.reduce.pad_fraction * width
+        } else {
+            opts.reduce.pad_fraction * lo.max(1e-3)
+        };
+        let range = (lo - pad, hi + pad);
+        let shared = opts.systematics == Systematics::Shared && floor_msun > 0.0;
+        let (scatter, nuisance) = if shared {
+            (
+                opts.scatter_fraction * floor_msun,
+                Some(SharedNuisance {
+                    sigma: floor_msun,
+                    method: opts.method,
+                    reach_sigma: opts.reach_sigma,
+                }),
+            )
+        } else {
+            (floor_msun, None)
+        };
+        let reach = nuisance.map_or(0.0, |n| n.reach_sigma * n.sigma);
+        let ext = ((range.0 - reach).max(1e-6 * range.0), range.1 + reach);
+        // The automatic rule.
+        let n_near = classes
+            .iter()
+            .flat_map(|(_, ms)| ms.iter())
+            .filter(|m| m.informative() && matches!(m.kind, MassKind::Measured { .. }))
+            .filter(|m| {
+                let (a, b) = match m.kind {
+                    MassKind::Measured { lo, hi } => (lo, hi),
+                    _ => (0.0, 0.0),
+                };
+                let s = (a.max(b) / m.scale).hypot(floor_msun);
+                let x = m.mass_msun / m.scale;
+                x >= range.0 - opts.auto_z * s && x <= range.1 + opts.auto_z * s
+            })
+            .count();
+        let (model, rule) = match opts.likelihood {
+            LikelihoodChoice::Product => (LikelihoodModel::Product, "product (chosen)".to_string()),
+            LikelihoodChoice::Calibrated => (
+                LikelihoodModel::Calibrated,
+                "calibrated (chosen)".to_string(),
+            ),
+            LikelihoodChoice::Auto => {
+                let cal = n_near >= opts.auto_min_near;
+                (
+                    if cal {
+                        LikelihoodModel::Calibrated
+                    } else {
+                        LikelihoodModel::Product
+                    },
+                    format!(
+                        "auto: {n_near} objects within {}σ of the bound's range ({} needed for calibrated)",
+                        opts.auto_z, opts.auto_min_near
+                    ),
+                )
+            }
+        };
+        // Enough nodes that an object as sharp as the per-object scatter is still tabulated
+        // (objects sharper than `sharp_nodes` spacings are summed exactly at every call, which
+        // would make each evaluation cost O(N)).
+        let mut reduce = opts.reduce.clone();
+        if scatter > 0.0 {
+            let need = ((ext.1 - ext.0) * reduce.sharp_nodes / scatter).ceil() as usize + 1;
+            let mut n = reduce.n_nodes.max(4);
+            while n < need && 2 * n - 1 <= reduce.max_nodes {
+                n = 2 * n - 1;
+            }
+            reduce.n_nodes = n;
+        }
+        let built = match model {
+            LikelihoodModel::Product => Classes::Product(
+                classes
+                    .iter()
+                    .map(|(_, ms)| ClassCurve::build_on_range(ms, scatter, ext, &reduce))
+                    .collect::<Result<_, _>>()?,
+            ),
+            LikelihoodModel::Calibrated => {
+                let refs: Vec<&[Measurement]> = classes.iter().map(|(_, ms)| *ms).collect();
+                Classes::Calibrated(Box::new(CalibratedCurve::build(
+                    &refs,
+                    scatter,
+                    ext,
+                    &opts.calibrated,
+                )?))
+            }
+        };
+        let mut term = Self {
+            terms: classes.iter().map(|(t, _)| *t).collect(),
+            model,
+            rule,
+            n_near,
+            nuisance,
+            scatter_msun: scatter,
+            classes: built,
+            table: None,
+            range,
+            table_error: 0.0,
+        };
+        if let Some(n) = nuisance {
+            let nodes = opts.n_nodes.max(8);
+            let xs: Vec<f64> = (0..nodes)
+                .map(|k| range.0 + (range.1 - range.0) * k as f64 / (nodes - 1) as f64)
+                .collect();
+            use rayon::prelude::*;
+            let vals: Vec<(f64, f64)> = xs
+                .par_iter()
+                .map(|&b| {
+                    let e = eliminate(&|d| term.data_minus_two_ln_l(b + d), &n);
+                    (e.minus_two_ln_l, e.delta_hat)
+                })
+                .collect();
+            if vals.iter().all(|v| v.0.is_finite() && v.1.is_finite()) && range.1 > range.0 {
+                let f: Vec<f64> = vals.iter().map(|v| v.0).collect();
+                let d: Vec<f64> = vals.iter().map(|v| v.1).collect();
+                let sf = CubicSpline::new(&xs, &f, SplineEnd::NotAKnot)?;
+                let sd = CubicSpline::new(&xs, &d, SplineEnd::NotAKnot)?;
+                let mut rng = SplitMix64::new(opts.reduce.check_seed);
+                let checks: Vec<f64> = (0..40)
+                    .map(|_| range.0 + (range.1 - range.0) * rng.next_f64())
+                    .collect();
+                term.table_error = checks
+                    .par_iter()
+                    .map(|&b| {
+                        let e = eliminate(&|d| term.data_minus_two_ln_l(b + d), &n);
+                        (sf.eval(b) - e.minus_two_ln_l).abs()
+                    })
+                    .reduce(|| 0.0, f64::max);
+                term.table = Some((sf, sd));
+            }
+        }
+        Ok(term)
+    }
+
+    /// Σ_c −2 ln L_c at a bound value (no nuisance treatment: the data term at B).
+    pub fn data_minus_two_ln_l(&self, b_msun: f64) -> f64 {
+        match &self.classes {
+            Classes::Product(cs) => cs.iter().map(|c| -2.0 * c.eval(b_msun)).sum(),
+            Classes::Calibrated(c) => -2.0 * c.eval(b_msun),
+        }
+    }
+
+    /// The shared shift at bound B: the profiled δ̂ (0 without a shared floor).
+    pub fn delta_hat(&self, b_msun: f64) -> f64 {
+        match (&self.table, self.nuisance) {
+            (Some((_, sd)), _) if self.inside(b_msun) => sd.eval(b_msun),
+            (_, Some(n)) => eliminate(&|d| self.data_minus_two_ln_l(b_msun + d), &n).delta_hat,
+            _ => 0.0,
+        }
+    }
+
+    fn inside(&self, b: f64) -> bool {
+        b >= self.range.0 && b <= self.range.1
+    }
+
+    /// The term −2 ln L at bound B, the shared systematic eliminated.
+    pub fn minus_two_ln_l(&self, b_msun: f64) -> f64 {
+        match (&self.table, self.nuisance) {
+            (Some((sf, _)), _) if self.inside(b_msun) => sf.eval(b_msun),
+            (_, Some(n)) => eliminate(&|d| self.data_minus_two_ln_l(b_msun + d), &n).minus_two_ln_l,
+            _ => self.data_minus_two_ln_l(b_msun),
+        }
+    }
+
+    /// The term split by class at bound B: each class's −2 ln L at B + δ̂; what the
+    /// elimination adds (the prior penalty (δ̂/σ)², or the marginalisation's width term) is
+    /// carried by the first class, so the parts add up to [`BoundTerm::minus_two_ln_l`].
+    pub fn split(&self, b_msun: f64) -> Vec<(Term, f64)> {
+        let total = self.minus_two_ln_l(b_msun);
+        let bs = b_msun + self.delta_hat(b_msun);
+        let mut parts: Vec<(Term, f64)> = self
+            .terms
+            .iter()
+            .enumerate()
+            .map(|(c, t)| (*t, self.class_minus_two_ln_l(c, bs)))
+            .collect();
+        let sum: f64 = parts.iter().map(|p| p.1).sum();
+        if let Some(first) = parts.first_mut() {
+            first.1 += total - sum;
+        }
+        parts
+    }
+
+    fn class_minus_two_ln_l(&self, c: usize, b: f64) -> f64 {
+        match &self.classes {
+            Classes::Product(cs) => cs.get(c).map_or(0.0, |x| -2.0 * x.eval(b)),
+            Classes::Calibrated(cc) => -2.0 * cc.eval_class(c, b),
+        }
+    }
+
+    /// ln P of object `index` (position in its class's list) of class `term` at bound B, with
+    /// the shared shift at its profiled value δ̂(B). With a shared floor, removing one object at
+    /// fixed δ̂ is exact to first order (δ̂ is stationary), which is what leave-one-out uses.
+    pub fn ln_p_object(&self, term: Term, index: usize, m: &Measurement, b_msun: f64) -> f64 {
+        let Some(c) = self.terms.iter().position(|t| *t == term) else {
+            return 0.0;
+        };
+        let bs = b_msun + self.delta_hat(b_msun);
+        match &self.classes {
+            Classes::Product(_) => ln_prob_consistent(m, bs, self.scatter_msun),
+            Classes::Calibrated(cc) => cc.ln_p(c, index, bs),
+        }
+    }
+
+    /// The classes of this bound, in order.
+    pub fn terms(&self) -> &[Term] {
+        &self.terms
+    }
+
+    /// Product or calibrated.
+    pub fn model(&self) -> LikelihoodModel {
+        self.model
+    }
+
+    /// Why that model: the automatic rule with its counts, or "chosen".
+    pub fn rule(&self) -> &str {
+        &self.rule
+    }
+
+    /// Objects counted by the automatic rule.
+    pub fn n_near(&self) -> usize {
+        self.n_near
+    }
+
+    /// The shared nuisance, if the floor is shared.
+    pub fn nuisance(&self) -> Option<SharedNuisance> {
+        self.nuisance
+    }
+
+    /// Per-object scatter used inside each probability, M☉.
+    pub fn scatter_msun(&self) -> f64 {
+        self.scatter_msun
+    }
+
+    /// Largest measured interpolation error of the term in −2 ln L (class tables, doubled, plus
+    /// the table of the eliminated term).
+    pub fn achieved_error(&self) -> f64 {
+        let inner = match &self.classes {
+            Classes::Product(cs) => cs
+                .iter()
+                .map(|c| 2.0 * c.achieved_error())
+                .filter(|x| x.is_finite())
+                .sum::<f64>(),
+            Classes::Calibrated(c) => 2.0 * c.achieved_error(),
+        };
+        inner + self.table_error
+    }
+
+    /// The deconvolved mass function, when the calibrated model is used.
+    pub fn mass_function(&self) -> Option<&super::calibrated::MassFunction> {
+        match &self.classes {
+            Classes::Calibrated(c) => Some(c.mass_function()),
+            Classes::Product(_) => None,
+        }
+    }
+}

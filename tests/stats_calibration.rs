@@ -1,0 +1,369 @@
+//! Calibration of the whole comparison, measured: synthetic catalogues drawn at a known (Υ, τ)
+//! with the shared systematics actually shifted by a draw from their prior, confronted through
+//! the engine with an invented analytic bound surface (no stellar structure is solved), and the
+//! rate at which the truth falls outside the 95.45 % two-parameter region (false exclusion) and
+//! outside the 95.45 % Υ interval at τ = 0 counted over seeds.
+//!
+//! Target: a false-exclusion rate of 4.55 % within its binomial error; the fast tests fail above
+//! 8 % (the issue's acceptance rule). The full table (10⁵ objects, more seeds) is the ignored
+//! test `calibration_table`, run with
+//! `cargo test --test stats_calibration -- --ignored --nocapture`.
+//!
+//! Surface: MMHB = 0.075 (1 + 0.2 Υ + 0.5 τ) M☉, Chandrasekhar mass = 1.40 (1 − 0.3 Υ + 0.1 τ)
+//! M☉ — invented slopes of the size the theory gives, with different directions so that the
+//! two bounds together constrain both parameters.
+
+use rayon::prelude::*;
+
+use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
+use dwarfbound::confront::mass_terms::{LikelihoodChoice, Systematics};
+use dwarfbound::confront::reduce::{ReduceOptions, SplitMix64};
+use dwarfbound::confront::regions::Level;
+
+const MMHB_FLOOR: f64 = 0.005;
+const CH_FLOOR: f64 = 0.03;
+
+fn mmhb(u: f64, t: f64) -> f64 {
+    0.075 * (1.0 + 0.2 * u + 0.5 * t)
+}
+fn chandra(u: f64, t: f64) -> f64 {
+    1.40 * (1.0 - 0.3 * u + 0.1 * t)
+}
+
+struct Surface {
+    u: Vec<f64>,
+    t: Vec<f64>,
+}
+
+impl BoundSurface for Surface {
+    fn upsilon(&self) -> &[f64] {
+        &self.u
+    }
+    fn tau(&self) -> &[f64] {
+        &self.t
+    }
+    fn mmhb_msun(&self, i: usize) -> Option<f64> {
+        let nu = self.u.len();
+        Some(mmhb(self.u[i % nu], self.t[i / nu]))
+    }
+    fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64> {
+        let nu = self.u.len();
+        Some(chandra(self.u[i % nu], self.t[i / nu]))
+    }
+    fn wd_radii_rsun(&self, _i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> {
+        vec![None; q.len()]
+    }
+    fn wd_standard_radii(
+        &self,
+        q: &[dwarfbound::confront::wd_radius::WdQuery],
+    ) -> Vec<Option<dwarfbound::confront::wd_radius::WdStandard>> {
+        vec![None; q.len()]
+    }
+}
+
+fn surface() -> Surface {
+    Surface {
+        u: (0..=12).map(|i| -0.3 + 0.05 * f64::from(i)).collect(),
+        t: (0..=8).map(|j| -0.2 + 0.05 * f64::from(j)).collect(),
+    }
+}
+
+/// Box–Muller normal deviate (Box & Muller 1958).
+fn normal(rng: &mut SplitMix64) -> f64 {
+    let u1 = 1.0 - rng.next_f64();
+    let u2 = rng.next_f64();
+    (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
+}
+
+fn object(id: usize, class: ObjectClass, truth: f64, rng: &mut SplitMix64) -> CatalogueObject {
+    let sigma = (0.01 + 0.07 * rng.next_f64()) * truth;
+    CatalogueObject {
+        id: format!("o{id}"),
+        class,
+        mass_msun: truth + sigma * normal(rng),
+        mass_err_lo_msun: Some(sigma),
+        mass_err_hi_msun: Some(sigma),
+        mass_limit: MassLimit::None,
+        radius_rsun: None,
+        radius_err_rsun: None,
+        age_gyr: Some(5.0),
+        age_err_gyr: None,
+        rotation_period_h: None,
+        mu_e: None,
+        teff_k: None,
+        teff_err_k: None,
+        core: None,
+        envelope: None,
+        radius_model_rsun: None,
+        mass_method: Default::default(),
+        reference: None,
+        source_file: "synthetic".into(),
+        source_row: id,
+    }
+}
+
+/// One synthetic catalogue: the truth's bounds are shifted by shared draws from their priors
+/// (δ_MMHB ~ N(0, 0.005²), δ_Ch ~ N(0, 0.03²)); `n_low` objects are uniform in
+/// [`span.0`, B) and `n_high` uniform in (B, `span.1`], labelled by the side of the shifted
+/// bound; `n_wd` white dwarfs uniform in [1.0, B_Ch) M☉.
+#[derive(Clone, Copy)]
+struct Case {
+    name: &'static str,
+    truth: (f64, f64),
+    n_low: usize,
+    n_high: usize,
+    span: (f64, f64),
+    n_wd: usize,
+}
+
+fn draw(case: &Case, seed: u64) -> Vec<CatalogueObject> {
+    let mut rng = SplitMix64::new(seed);
+    let b = mmhb(case.truth.0, case.truth.1) + MMHB_FLOOR * normal(&mut rng);
+    let ch = chandra(case.truth.0, case.truth.1) + CH_FLOOR * normal(&mut rng);
+    let mut out = Vec::new();
+    for _ in 0..case.n_low {
+        let m = case.span.0 + (b - case.span.0) * rng.next_f64();
+        out.push(object(out.len(), ObjectClass::BrownDwarf, m, &mut rng));
+    }
+    for _ in 0..case.n_high {
+        let m = b + (case.span.1 - b) * rng.next_f64();
+        out.push(object(out.len(), ObjectClass::HBurning, m, &mut rng));
+    }
+    for _ in 0..case.n_wd {
+        let m = 1.0 + (ch - 1.0) * rng.next_f64();
+        out.push(object(out.len(), ObjectClass::WhiteDwarf, m, &mut rng));
+    }
+    out
+}
+
+fn fast_reduce() -> ReduceOptions {
+    ReduceOptions {
+        n_nodes: 129,
+        n_check: 0,
+        target_error: None,
+        ..ReduceOptions::default()
+    }
+}
+
+/// Whether the truth is excluded at 95.45 % in two parameters, and whether the Υ interval at
+/// τ = 0 (grid slice, Δχ² ≤ 4 against the slice minimum) misses it (only for τ_true = 0).
+fn outcome(case: &Case, seed: u64, opts: &EngineOptions) -> (bool, Option<bool>) {
+    let s = surface();
+    let objs = draw(case, seed);
+    let c = confront(&objs, &s, opts).expect("engine");
+    let nu = s.u.len();
+    let chi2: Vec<f64> = c.joint.iter().map(|v| v.unwrap_or(f64::INFINITY)).collect();
+    let min = chi2.iter().copied().fold(f64::INFINITY, f64::min);
+    let iu =
+        s.u.iter()
+            .position(|&u| (u - case.truth.0).abs() < 1e-9)
+            .unwrap();
+    let jt =
+        s.t.iter()
+            .position(|&t| (t - case.truth.1).abs() < 1e-9)
+            .unwrap();
+    let excluded = chi2[jt * nu + iu] - min > Level::Cl95.dchi2(2);
+    let slice_miss = (case.truth.1 == 0.0).then(|| {
+        let row = &chi2[jt * nu..(jt + 1) * nu];
+        let m = row.iter().copied().fold(f64::INFINITY, f64::min);
+        row[iu] - m > Level::Cl95.dchi2(1)
+    });
+    (excluded, slice_miss)
+}
+
+/// (false-exclusion rate, interval miss rate) over `seeds` seeds.
+fn rates(case: &Case, seeds: u64, opts: &EngineOptions) -> (f64, Option<f64>) {
+    let outs: Vec<(bool, Option<bool>)> = (0..seeds)
+        .into_par_iter()
+        .map(|s| outcome(case, 7919 * s + 17, opts))
+        .collect();
+    let n = outs.len() as f64;
+    let excl = outs.iter().filter(|o| o.0).count() as f64 / n;
+    let miss = outs
+        .iter()
+        .map(|o| o.1)
+        .collect::<Option<Vec<bool>>>()
+        .map(|v| v.iter().filter(|x| **x).count() as f64 / n);
+    (excl, miss)
+}
+
+fn options(systematics: Systematics, likelihood: LikelihoodChoice) -> EngineOptions {
+    let mut o = EngineOptions {
+        reduce: fast_reduce(),
+        ..EngineOptions::default()
+    };
+    o.mass_terms.systematics = systematics;
+    o.mass_terms.likelihood = likelihood;
+    o
+}
+
+/// Binomial acceptance of the issue: the false-exclusion rate must not exceed 8 %.
+const FAIL_ABOVE: f64 = 0.08;
+
+/// The one-parameter Υ interval at τ = 0 is read here on the coarse grid row (no sub-grid)
+/// and measured at 10–12 % misses on these catalogues (README, statistics section): the white
+/// dwarfs are drawn uniform up to the Chandrasekhar mass, a one-sided edge on which Δχ² is
+/// not χ²-distributed. This guard only catches a regression beyond that measured level.
+const INTERVAL_MISS_GUARD: f64 = 0.15;
+
+const FEW: Case = Case {
+    name: "few objects, standard gravity",
+    truth: (0.0, 0.0),
+    n_low: 8,
+    n_high: 12,
+    span: (0.05, 0.11),
+    n_wd: 10,
+};
+
+const CROWDED_2_TO_1: Case = Case {
+    name: "10^4 crowding the MMHB, stars:BD density 2:1, standard gravity",
+    truth: (0.0, 0.0),
+    n_low: 2500,
+    n_high: 7500,
+    span: (0.05, 0.125),
+    n_wd: 20,
+};
+
+const CROWDED_1_TO_2_SHIFTED: Case = Case {
+    name: "10^4 crowding the MMHB, density 1:2, (Υ, τ) = (0.1, −0.05)",
+    truth: (0.1, -0.05),
+    n_low: 6000,
+    n_high: 4000,
+    span: (0.04, 0.10),
+    n_wd: 20,
+};
+
+#[test]
+fn few_objects_false_exclusion_within_target() {
+    // Target: the nominal 4.55 % of a 95.45 % region (definition of the level); fail above 8 %.
+    let (excl, miss) = rates(
+        &FEW,
+        200,
+        &EngineOptions {
+            reduce: fast_reduce(),
+            ..Default::default()
+        },
+    );
+    eprintln!(
+        "{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}",
+        FEW.name
+    );
+    assert!(excl <= FAIL_ABOVE, "false exclusion {excl}");
+    assert!(
+        miss.is_some_and(|m| m <= INTERVAL_MISS_GUARD),
+        "interval miss {miss:?}"
+    );
+}
+
+#[test]
+fn crowded_catalogue_false_exclusion_within_target() {
+    // Target as above. The old default (per-object floor, product likelihood) is measured too
+    // and printed: it excludes the truth almost always on this catalogue (the crowding bias documented in docs/, statistics).
+    let defaults = EngineOptions {
+        reduce: fast_reduce(),
+        ..Default::default()
+    };
+    // The shifted 1 : 2 case is in the ignored table (cost).
+    let case = CROWDED_2_TO_1;
+    let (excl, miss) = rates(&case, 200, &defaults);
+    eprintln!(
+        "{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}",
+        case.name
+    );
+    assert!(excl <= FAIL_ABOVE, "{}: false exclusion {excl}", case.name);
+    if let Some(m) = miss {
+        assert!(m <= INTERVAL_MISS_GUARD, "{}: interval miss {m}", case.name);
+    }
+    let old = options(Systematics::PerObject, LikelihoodChoice::Product);
+    let (excl, _) = rates(&CROWDED_2_TO_1, 20, &old);
+    eprintln!("old default on the 2:1 case: false exclusion {excl:.3}");
+    assert!(excl > 0.5, "the old default should fail here ({excl})");
+}
+
+/// The full table for the README (10⁵ objects, 400 seeds): prints one line per case and model.
+#[test]
+#[ignore = "minutes; prints the calibration table of the README"]
+fn calibration_table() {
+    let big = |c: Case| Case {
+        n_low: c.n_low * 10,
+        n_high: c.n_high * 10,
+        ..c
+    };
+    let cases = [
+        FEW,
+        CROWDED_2_TO_1,
+        CROWDED_1_TO_2_SHIFTED,
+        Case {
+            name: "10^5 crowding the MMHB, density 2:1, standard gravity",
+            ..big(CROWDED_2_TO_1)
+        },
+    ];
+    println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) | Υ-interval miss at τ = 0 |");
+    println!("|---|---|---|---|---|");
+    for case in cases {
+        let seeds = if case.n_low + case.n_high > 20_000 {
+            200
+        } else {
+            400
+        };
+        for (label, opts) in [
+            (
+                "default (shared, profiled; auto likelihood)",
+                options(Systematics::Shared, LikelihoodChoice::Auto),
+            ),
+            (
+                "shared, product likelihood",
+                options(Systematics::Shared, LikelihoodChoice::Product),
+            ),
+            (
+                "per-object floor, product (old default)",
+                options(Systematics::PerObject, LikelihoodChoice::Product),
+            ),
+        ] {
+            let (excl, miss) = rates(&case, seeds, &opts);
+            println!(
+                "| {} | {label} | {seeds} | {:.3} ± {:.3} | {} |",
+                case.name,
+                excl,
+                (excl.max(0.0455) * (1.0 - excl.max(0.0455)) / seeds as f64).sqrt(),
+                miss.map_or("—".to_string(), |m| format!("{m:.3}"))
+            );
+        }
+    }
+}
+
+/// The 100 000-object standard-gravity catalogue of the issue (generator
+/// `tools/make_crowded_catalogue.py`, seed 1) must not exclude standard gravity. Measured on
+/// this branch: Δχ² = 2.11 at Υ = τ = 0 (95.45 % threshold 6.18); the per-object product
+/// likelihood of earlier versions gave Δχ² ≈ 1455.
+#[test]
+#[ignore = "needs python3 and about a minute; run with -- --ignored"]
+fn crowded_standard_gravity_catalogue_is_not_excluded() {
+    let dir = std::env::temp_dir().join(format!("dwarfbound-crowded-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let csv = dir.join("crowded.csv");
+    let root = env!("CARGO_MANIFEST_DIR");
+    let st = std::process::Command::new("python3")
+        .arg(format!("{root}/tools/make_crowded_catalogue.py"))
+        .args(["--seed", "1", "--out"])
+        .arg(&csv)
+        .status()
+        .expect("python3");
+    assert!(st.success());
+    let out = dir.join("out");
+    let st = std::process::Command::new(env!("CARGO_BIN_EXE_dwarfbound"))
+        .arg("confront")
+        .arg(&csv)
+        .arg("--out")
+        .arg(&out)
+        .status()
+        .unwrap();
+    assert!(st.success());
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let sg = &s["standard_gravity"];
+    eprintln!("standard gravity: {sg}");
+    assert_eq!(sg["allowed_cl95"], serde_json::Value::Bool(true), "{sg}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
