@@ -282,7 +282,7 @@ impl ObjectRadius {
     ) -> Option<(f64, f64)> {
         let s = self.standard.get(k).copied().flatten()?;
         let cold = cold_at_point?;
-        if !(s.cold_rsun > 0.0) {
+        if s.cold_rsun.is_nan() || s.cold_rsun <= 0.0 {
             return None;
         }
         let r = s.radius_rsun * cold / s.cold_rsun;
@@ -316,7 +316,7 @@ impl ObjectRadius {
     pub fn tension_at(&self, cold_at_nominal: Option<f64>, upsilon: f64) -> Option<f64> {
         let (s, slope) = self.at_nominal?;
         let cold = cold_at_nominal?;
-        if !(s.cold_rsun > 0.0) {
+        if s.cold_rsun.is_nan() || s.cold_rsun <= 0.0 {
             return None;
         }
         let ratio = cold / s.cold_rsun;
