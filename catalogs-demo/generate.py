@@ -18,7 +18,7 @@ integer seed; normal deviates are made here by the Box-Muller transform rather t
 White-dwarf radii come from the zero-temperature Chandrasekhar equation of state (Chandrasekhar
 1935, MNRAS 95, 207; 1939, *An Introduction to the Study of Stellar Structure*), integrated in
 standard gravity with a fixed-step fourth-order Runge-Kutta scheme in the dimensionless
-variables of the project's theory notes (structure.md sections 4.2-4.3): u = y - 1 with
+variables of the project's theory notes (docs/structure.md sections 4.2-4.3): u = y - 1 with
 y = sqrt(1 + x^2), x the electrons' Fermi momentum over m_e c,
 
     du/deta = -m / eta^2,     dm/deta = eta^2 x^3,     x^2 = u (u + 2),
@@ -28,7 +28,7 @@ with A = x_c^3/6, B = (3/20) x_c y_c A, and stopped where u reaches zero (the st
 until the crossing is bracketed to 1e-12 of the length scale, then u is extrapolated linearly,
 which is exact to first order because u falls linearly at the surface). Lengths are in units
 of l = [m_e c^2 / (4 pi G rho0 mu_e m_u)]^(1/2), masses in 4 pi rho0 l^3, rho0 = mu_e m_u / (3 pi^2 lambda_e^3).
-``--check`` compares the result with the standard-gravity table of structure.md section 4.4
+``--check`` compares the result with the standard-gravity table of docs/structure.md section 4.4
 (agreement ~1e-5 relative, far below the demo's 1-4 % radius errors).
 """
 
@@ -53,12 +53,12 @@ GM_JUP_M3_S2 = 1.2668653e17  # IAU 2015 B3 nominal (GM)Jupiter
 MSUN_KG = GM_SUN_M3_S2 / G_SI
 MJUP_MSUN = GM_JUP_M3_S2 / GM_SUN_M3_S2
 
-# Lane-Emden n = 3 mass integral omega_3 (structure.md section 3.6; classical value 2.01824,
+# Lane-Emden n = 3 mass integral omega_3 (docs/structure.md section 3.6; classical value 2.01824,
 # Chandrasekhar 1939, Ch. IV).
 OMEGA3 = 2.0182359510
 
 # The truth every file is drawn from (standard gravity), and the default bounds and theory
-# floors that dwarfbound confronts them with (bounds.md sections 4 and 8, structure.md 4.6).
+# floors that dwarfbound confronts them with (docs/bounds.md sections 4 and 8, docs/structure.md 4.6).
 MMHB_ANCHOR_MSUN = 0.075
 MMHB_FLOOR_MSUN = 0.005
 CH_FLOOR_MSUN = 0.03
@@ -74,7 +74,7 @@ INVENTED = (
 
 
 def chandrasekhar_mass_msun(mu_e):
-    """Newtonian Chandrasekhar mass in solar masses (structure.md section 4.1):
+    """Newtonian Chandrasekhar mass in solar masses (docs/structure.md section 4.1):
     M_Ch = (sqrt(3 pi)/2) omega_3 (hbar c / G)^(3/2) / (mu_e m_u)^2, about 5.8252/mu_e^2."""
     m_kg = (math.sqrt(3.0 * math.pi) / 2.0) * OMEGA3 * (HBAR_SI * C_SI / G_SI) ** 1.5 / (mu_e * M_U_KG) ** 2
     return m_kg / MSUN_KG
@@ -114,7 +114,7 @@ class Draw:
 
 
 def _wd_units(mu_e):
-    """Density, length and mass units (kg m^-3, m, kg) of structure.md section 4.3."""
+    """Density, length and mass units (kg m^-3, m, kg) of docs/structure.md section 4.3."""
     lambda_e = HBAR_SI / (M_E_KG * C_SI)
     rho0 = mu_e * M_U_KG / (3.0 * math.pi**2 * lambda_e**3)
     ell = math.sqrt(M_E_KG * C_SI**2 / (4.0 * math.pi * G_SI * rho0 * mu_e * M_U_KG))
@@ -129,7 +129,7 @@ def _wd_rhs(eta, u, m):
 
 def wd_model(x_c, step_frac=0.005):
     """Integrates one zero-temperature white dwarf of central x_c; returns (m, eta_surface)
-    in the dimensionless units of structure.md section 4.3."""
+    in the dimensionless units of docs/structure.md section 4.3."""
     y_c = math.sqrt(1.0 + x_c * x_c)
     u_c = x_c * x_c / (y_c + 1.0)  # y_c - 1 without cancellation
     a = x_c**3 / 6.0
@@ -161,7 +161,7 @@ def wd_model(x_c, step_frac=0.005):
 class MassRadius:
     """R(M) for mu_e = 2 from a table over log10 x_c, interpolated (4-point Lagrange in
     ln M -> ln R); other mu_e by the exact scaling R(M; mu_e) = (2/mu_e) R_2(M mu_e^2 / 4)
-    (structure.md section 4.3)."""
+    (docs/structure.md section 4.3)."""
 
     def __init__(self):
         _, ell, mass_kg = _wd_units(2.0)
@@ -200,7 +200,7 @@ class MassRadius:
 
 
 # ---------------------------------------------------------------------------------------------
-# Standard-gravity tension of one object (bounds.md section 8.1 and 8.3), for the self-check.
+# Standard-gravity tension of one object (docs/bounds.md section 8.1 and 8.3), for the self-check.
 
 _STD = statistics.NormalDist()
 
@@ -762,12 +762,12 @@ def main(argv=None):
     print("\n".join(report))
 
     if args.check:
-        print("\nZero-temperature white dwarfs, mu_e = 2, standard gravity (structure.md section 4.4):")
-        print("  M [Msun]  R here [Rsun]  R structure.md  relative difference")
+        print("\nZero-temperature white dwarfs, mu_e = 2, standard gravity (docs/structure.md section 4.4):")
+        print("  M [Msun]  R here [Rsun]  R docs/structure.md  relative difference")
         for m, ref in ((0.2, 0.021068), (0.6, 0.0127079), (1.0, 0.0082168), (1.2, 0.0059868), (1.4, 0.0028544)):
             r = mr.radius_rsun(m)
             print(f"  {m:7.2f}  {r:13.7f}  {ref:14.7f}  {r / ref - 1:+.1e}")
-        print(f"  Chandrasekhar mass (mu_e = 2): {chandrasekhar_mass_msun(2.0):.6f} Msun (structure.md: 1.456298)")
+        print(f"  Chandrasekhar mass (mu_e = 2): {chandrasekhar_mass_msun(2.0):.6f} Msun (docs/structure.md: 1.456298)")
     if not ok:
         print("generate.py: the demo story does not hold (unintended tension); change the draws", file=sys.stderr)
         return 1

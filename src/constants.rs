@@ -25,7 +25,7 @@ pub const M_E_KG: f64 = 9.109_383_701_5e-31;
 /// Atomic mass constant m_u, kg (CODATA 2018).
 pub const M_U_KG: f64 = 1.660_539_066_60e-27;
 /// Mass of the hydrogen atom used as the baryon mass unit by the MMHB model, g
-/// (`theory/bounds.md` §2.1: m_H = 1.6735575×10⁻²⁴ g).
+/// (`docs/bounds.md` §2.1: m_H = 1.6735575×10⁻²⁴ g).
 pub const M_H_G: f64 = 1.673_557_5e-24;
 
 /// Nominal solar mass parameter (GM)☉, m³ s⁻² (IAU 2015 Resolution B3).

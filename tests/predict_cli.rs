@@ -44,19 +44,19 @@ fn standard_gravity_json() {
     assert_eq!(v["anisotropy"], "density-squared");
     assert_eq!(v["mmhb_model"], "luminosity-balance");
     assert_eq!(v["mmhb_mode"], "anchored");
-    // bounds.md §4: anchored MMHB = 0.075 M☉ in standard gravity (anchor from evolutionary
+    // docs/bounds.md §4: anchored MMHB = 0.075 M☉ in standard gravity (anchor from evolutionary
     // models, from memory there), floor 0.005 M☉ (a choice there).
     assert_eq!(f(&v, "/mmhb_msun"), 0.075);
     assert_eq!(f(&v, "/mmhb_floor_msun"), 0.005);
-    // bounds.md §9: raw model A 0.09938334 M☉ (computed there by two routes).
+    // docs/bounds.md §9: raw model A 0.09938334 M☉ (computed there by two routes).
     assert!((f(&v, "/mmhb_raw_msun") - 0.09938334).abs() < 1e-8);
-    // structure.md §4.1: 5.82519/μ_e² M☉ = 1.456298 M☉ for μ_e = 2, verified there against the
+    // docs/structure.md §4.1: 5.82519/μ_e² M☉ = 1.456298 M☉ for μ_e = 2, verified there against the
     // textbook ≈ 5.83/μ_e² (Chandrasekhar 1939).
     let m_ch = f(&v, "/chandrasekhar_msun");
     assert!((m_ch - 1.456298).abs() < 1e-6);
     assert!(rel(m_ch, 5.83 / 4.0) < 1e-3);
     assert_eq!(f(&v, "/chandrasekhar_floor_msun"), 0.03);
-    // Chandrasekhar 1939, Ch. IV, Table 4 (as quoted in structure.md §3.6): n = 3/2:
+    // Chandrasekhar 1939, Ch. IV, Table 4 (as quoted in docs/structure.md §3.6): n = 3/2:
     // ξ1 = 3.65375, ω = 2.71406; n = 3: ξ1 = 6.89685, ω = 2.01824 (half a unit in the last
     // printed digit), and the notes' 10-digit values (verified there) to 1e-9.
     for (key, table, precise) in [
@@ -70,26 +70,26 @@ fn standard_gravity_json() {
         assert!(rel(x, precise) < 1e-9, "{key} = {x}");
     }
     // Schönberg & Chandrasekhar 1942: q = 0.37 λ², λ = μ_env/μ_core = 0.62/1.33 (defaults of
-    // bounds.md §7, common practice).
+    // docs/bounds.md §7, common practice).
     assert!(rel(f(&v, "/sc_fraction"), 0.37 * (0.62f64 / 1.33).powi(2)) < 1e-14);
-    // structure.md §5.4: cold degenerate 0.08 M☉, X = 0.75: 22.3 min in the Roche model
+    // docs/structure.md §5.4: cold degenerate 0.08 M☉, X = 0.75: 22.3 min in the Roche model
     // (computed there; the ≈ 22-minute floor of the field, common practice).
     let p_min = f(&v, "/breakup_period_min_h") * 60.0;
     assert!((p_min - 22.3).abs() < 0.05, "{p_min}");
     assert!(v["breakup_reference"].as_str().unwrap().contains("0.08"));
     assert!(v["warnings"].is_array());
     assert!(v["errors"].as_object().unwrap().is_empty());
-    // structure.md §4.4 (computed): R(1.0 M☉) = 5716.4 km for μ_e = 2.
+    // docs/structure.md §4.4 (computed): R(1.0 M☉) = 5716.4 km for μ_e = 2.
     let radii = v["white_dwarf"]["radii"].as_array().unwrap();
     let one = radii.iter().find(|r| r["mass_msun"] == 1.0).unwrap();
     assert!((f(one, "/radius_km") - 5716.4).abs() < 0.1);
-    // The threshold mass of structure.md §4.5: GM/(Rc²) = 5e-4 at 1.253 M☉.
+    // The threshold mass of docs/structure.md §4.5: GM/(Rc²) = 5e-4 at 1.253 M☉.
     assert!((f(&v, "/white_dwarf/post_newtonian_mass_msun") - 1.253).abs() < 5e-4);
 }
 
 #[test]
 fn ignition_model_b() {
-    // bounds.md §3 and §9: raw model B at T_ign = 3×10⁶ K: 0.10899329 M☉ (computed there).
+    // docs/bounds.md §3 and §9: raw model B at T_ign = 3×10⁶ K: 0.10899329 M☉ (computed there).
     let v = json_of(&[
         "--upsilon",
         "0",
@@ -102,14 +102,14 @@ fn ignition_model_b() {
     assert_eq!(v["mmhb_model"], "ignition-temperature");
     assert!((f(&v, "/mmhb_raw_msun") - 0.10899329).abs() < 1e-8);
     assert_eq!(f(&v, "/mmhb_msun"), 0.075);
-    // bounds.md §0: Φ_B(Υ) = ω(Υ)/ω(0) = 0.99266 at Υ = 0.1 (computed there).
+    // docs/bounds.md §0: Φ_B(Υ) = ω(Υ)/ω(0) = 0.99266 at Υ = 0.1 (computed there).
     let v = json_of(&["--upsilon", "0.1", "--json", "--mmhb-model", "ignition"]);
     assert!((f(&v, "/mmhb_phi") - 0.99266).abs() < 5e-6);
 }
 
 #[test]
 fn point_without_a_star_reports_reasons_not_nan() {
-    // structure.md §1.4: no regular centre for Υ ≤ −2/3 at τ = 0.
+    // docs/structure.md §1.4: no regular centre for Υ ≤ −2/3 at τ = 0.
     let out = predict(&["--upsilon=-0.7", "--json"]);
     assert!(out.status.success());
     let text = String::from_utf8(out.stdout).unwrap();
@@ -145,7 +145,7 @@ fn grid_writes_bounds_csv_with_failed_points() {
     let num = |r: &Vec<String>, c: &str| r[col(c)].parse::<f64>().unwrap();
     assert!((num(&rows[1], "upsilon") + 0.6).abs() < 1e-12);
     assert_eq!(num(&rows[5], "tau"), 0.0);
-    // structure.md §1.4: Υ = −0.9 is below −2(1 − τ)/3 at every τ here; Υ = −0.6 only at
+    // docs/structure.md §1.4: Υ = −0.9 is below −2(1 − τ)/3 at every τ here; Υ = −0.6 only at
     // τ = 0.2 (bound −0.533).
     let no_model: Vec<usize> = rows
         .iter()
@@ -181,7 +181,7 @@ fn grid_writes_bounds_csv_with_failed_points() {
 
 #[test]
 fn gradient_grid_follows_the_rescaling_law() {
-    // structure.md §2.2 / bounds.md §2.4: for the gradient ansatz Φ_B = (1 − τ)^{−3/2} and
+    // docs/structure.md §2.2 / docs/bounds.md §2.4: for the gradient ansatz Φ_B = (1 − τ)^{−3/2} and
     // M_Ch ∝ (1 − τ)^{−3/2} exactly (an exact rescaling of G).
     let dir = tempfile::tempdir().unwrap();
     let out = predict(&[

@@ -1,4 +1,4 @@
-//! Coverage of the 95.45 % Υ interval on seeded synthetic catalogues (bounds.md §8.7 and the
+//! Coverage of the 95.45 % Υ interval on seeded synthetic catalogues (docs/bounds.md §8.7 and the
 //! confrontation issue's check), through the whole statistical chain: class curves, cubic
 //! interpolation of the bound along Υ, the 10× sub-grid slice and the interval ends.
 //!
@@ -115,7 +115,7 @@ fn fraction(outcomes: &[Outcome], f: impl Fn(&Outcome) -> bool) -> f64 {
 
 #[test]
 fn coverage_is_nominal_with_flat_density_across_the_bound() {
-    // Source: bounds.md §8.7 — with the true-mass density flat across the bound (1 : 1) the
+    // Source: docs/bounds.md §8.7 — with the true-mass density flat across the bound (1 : 1) the
     // product of consistency probabilities is the right likelihood and the Δχ²₁ ≤ 4 interval
     // should cover the truth at ≈ 95.45 %. Tolerance: binomial 3σ for 200 repetitions,
     // 3·√(0.9545·0.0455/200) = 0.044.
@@ -135,7 +135,7 @@ fn coverage_is_nominal_with_flat_density_across_the_bound() {
 
 #[test]
 fn crowded_unequal_densities_warn_and_population_term_restores_coverage() {
-    // Source: bounds.md §8.7 table (4 000 objects in 0.05–0.10 M☉, bound 0.075, 1–8 % errors,
+    // Source: docs/bounds.md §8.7 table (4 000 objects in 0.05–0.10 M☉, bound 0.075, 1–8 % errors,
     // 100 seeds, stars : brown dwarfs = 2 : 1): the product of P covers ≈ 0.00, the
     // population-aware likelihood ≈ 0.87. Tolerances: the product's coverage must collapse
     // (< 0.2); the population-aware one within binomial 3σ of the spec's 0.87–0.89 band for

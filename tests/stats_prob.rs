@@ -16,7 +16,7 @@ fn measured(mass: f64, lo: f64, hi: f64, side: Side) -> Measurement {
     }
 }
 
-/// Source: `theory/bounds.md` §8.1 test-vector table (computed by the spec's independent
+/// Source: `docs/bounds.md` §8.1 test-vector table (computed by the spec's independent
 /// reference script): m, σ₋, σ₊, σ_th, B, P_lower, tension z.
 const SPLIT_VECTORS: [(f64, f64, f64, f64, f64, f64, f64); 6] = [
     (0.090, 0.002, 0.002, 0.003, 0.085, 0.917241070651, -1.38675),
@@ -29,7 +29,7 @@ const SPLIT_VECTORS: [(f64, f64, f64, f64, f64, f64, f64); 6] = [
 
 #[test]
 fn split_normal_vectors_of_the_spec() {
-    // Source: bounds.md §8.1 table; tolerance 1e-9 on P as the confrontation issue asks, and the
+    // Source: docs/bounds.md §8.1 table; tolerance 1e-9 on P as the confrontation issue asks, and the
     // tension to the table's five decimals.
     for &(m, lo, hi, th, b, p_ref, z_ref) in &SPLIT_VECTORS {
         let ln_p = ln_prob_consistent(&measured(m, lo, hi, Side::AtLeast), b, th);
@@ -49,7 +49,7 @@ fn split_normal_vectors_of_the_spec() {
 
 #[test]
 fn upper_bound_class_is_the_complement() {
-    // Source: definition, bounds.md §8.1: P_upper = 1 − P_lower.
+    // Source: definition, docs/bounds.md §8.1: P_upper = 1 − P_lower.
     for &(m, lo, hi, th, b, p_ref, _) in &SPLIT_VECTORS {
         let p_up = ln_prob_consistent(&measured(m, lo, hi, Side::AtMost), b, th).exp();
         assert!(
@@ -62,7 +62,7 @@ fn upper_bound_class_is_the_complement() {
 
 #[test]
 fn hand_case_white_dwarf() {
-    // Source: bounds.md §8.1 hand case, P = Φ(0.14/0.053852) = 0.995335207640; and the
+    // Source: docs/bounds.md §8.1 hand case, P = Φ(0.14/0.053852) = 0.995335207640; and the
     // definition through statrs's normal CDF (statrs 0.19.1's normal CDF has ~1e-10 relative
     // error, fixed upstream but unreleased).
     let wd = measured(1.30, 0.05, 0.05, Side::AtMost);
@@ -76,7 +76,7 @@ fn hand_case_white_dwarf() {
 
 #[test]
 fn symmetric_tension_is_the_closed_form() {
-    // Source: bounds.md §8.3: for a symmetric Gaussian, z = (B − m)/√(σ² + σ_th²).
+    // Source: docs/bounds.md §8.3: for a symmetric Gaussian, z = (B − m)/√(σ² + σ_th²).
     for &(m, s, th, b) in &[
         (0.07, 0.002, 0.005, 0.075),
         (0.09, 0.0003, 0.0004, 0.075),
@@ -93,7 +93,7 @@ fn symmetric_tension_is_the_closed_form() {
 
 #[test]
 fn limits_table() {
-    // Source: bounds.md §8.1 limits table, s = √(σ_L² + σ_th²).
+    // Source: docs/bounds.md §8.1 limits table, s = √(σ_L² + σ_th²).
     let (b, th) = (0.075, 0.005);
     let lim = |kind, side| Measurement {
         mass_msun: 0.072,
@@ -124,7 +124,7 @@ fn limits_table() {
 
 #[test]
 fn zero_floor_becomes_a_millionth_of_the_bound() {
-    // Source: bounds.md §8.1, "if a user sets 0, use 1e-6 of the bound and warn".
+    // Source: docs/bounds.md §8.1, "if a user sets 0, use 1e-6 of the bound and warn".
     let (floor, replaced) = effective_floor_msun(0.075, 0.0);
     assert!(replaced && (floor - 0.075e-6).abs() < 1e-20);
     let m = measured(0.0749, 0.0, 0.0, Side::AtLeast);
@@ -136,7 +136,7 @@ fn zero_floor_becomes_a_millionth_of_the_bound() {
 
 #[test]
 fn white_dwarf_scale_is_a_change_of_bound_and_floor() {
-    // Source: structure.md §4 (B_Ch ∝ 1/μe²): an object with scale s sees bound s·B and floor s·th.
+    // Source: docs/structure.md §4 (B_Ch ∝ 1/μe²): an object with scale s sees bound s·B and floor s·th.
     let mut wd = measured(1.10, 0.03, 0.06, Side::AtMost);
     wd.scale = 4.0 / 2.1f64.powi(2);
     let unscaled = Measurement { scale: 1.0, ..wd };
@@ -147,7 +147,7 @@ fn white_dwarf_scale_is_a_change_of_bound_and_floor() {
 
 #[test]
 fn split_normal_closed_form_and_quadrature_agree_across_regimes() {
-    // Source: bounds.md §8.1 — the closed form and quadrature over ε agree to 1e-12. Here the
+    // Source: docs/bounds.md §8.1 — the closed form and quadrature over ε agree to 1e-12. Here the
     // reference is a direct adaptive quadrature of P = ∫ φ(ε) S(B + σ_th ε) dε, S the split
     // normal's survival function, written independently in this test.
     let mut state = 0x1234_5678_u64;

@@ -16,7 +16,7 @@ fn normal(rng: &mut SplitMix64) -> f64 {
 }
 
 /// Synthetic bound surfaces (smooth, invented for the test): the MMHB moves ~1 % per unit Υ and
-/// ~10 % per 0.1 in τ, the Chandrasekhar mass moves strongly with Υ (as bounds.md §0 describes).
+/// ~10 % per 0.1 in τ, the Chandrasekhar mass moves strongly with Υ (as docs/bounds.md §0 describes).
 fn mmhb(u: f64, t: f64) -> f64 {
     0.075 * (1.0 + 0.01 * u + 1.0 * t + 0.5 * t * t)
 }
@@ -95,7 +95,7 @@ fn catalogue(n: usize, seed: u64) -> [Vec<Measurement>; 3] {
 
 #[test]
 fn reduction_matches_direct_sum_on_a_grid() {
-    // Source: bounds.md §8.5 — the reduction is an identity up to interpolation; the reference
+    // Source: docs/bounds.md §8.5 — the reduction is an identity up to interpolation; the reference
     // is the direct N × G sum of the same ln P. Bound: |Δχ²_reduced − Δχ²_direct| ≤ 1e-6 at
     // N_B = 257 (the spec measured 6.5e-8 on 10⁵ objects).
     let classes = catalogue(2400, 20_240_601);
@@ -165,7 +165,7 @@ fn reduction_matches_direct_sum_on_a_grid() {
 
 #[test]
 fn refinement_meets_the_target_on_a_wide_range() {
-    // Source: bounds.md §8.5 — the error falls as h⁴, so doubling the node density until the
+    // Source: docs/bounds.md §8.5 — the error falls as h⁴, so doubling the node density until the
     // measured error meets the target must end below it; checked against the exact sum.
     let classes = catalogue(1500, 7);
     let values: Vec<f64> = (0..41)
@@ -198,7 +198,7 @@ fn refinement_meets_the_target_on_a_wide_range() {
 
 #[test]
 fn skipped_objects_are_bounded_and_counted() {
-    // Source: bounds.md §8.5 step 2 — skipping loses at most N_skipped × ε_skip in ln L.
+    // Source: docs/bounds.md §8.5 step 2 — skipping loses at most N_skipped × ε_skip in ln L.
     let far: Vec<Measurement> = (0..500)
         .map(|i| Measurement {
             mass_msun: 0.2 + 0.001 * f64::from(i),
@@ -269,7 +269,7 @@ fn shared_floor_single_objects_match_gaussian_convolution() {
 
 #[test]
 fn shared_floor_is_less_confident_than_per_object_for_many_objects() {
-    // Source: bounds.md §8.2 — independent per-object ε's average out, a shared ε does not; so
+    // Source: docs/bounds.md §8.2 — independent per-object ε's average out, a shared ε does not; so
     // for many stars just above the bound the shared ℓ falls more slowly as B rises past them.
     let stars: Vec<Measurement> = (0..100)
         .map(|i| Measurement {

@@ -25,7 +25,7 @@ fn sym(mass: f64, sigma: f64, side: Side) -> Measurement {
 #[test]
 fn delta_chi2_thresholds() {
     // Source: PDG Review of Particle Physics, "Statistics" (Δχ² for m = 1, 2 parameters), as
-    // quoted to four decimals in bounds.md §8.4; Numerical Recipes §15.6.
+    // quoted to four decimals in docs/bounds.md §8.4; Numerical Recipes §15.6.
     let two = [2.2957, 6.1801, 11.8292];
     for (level, expect) in Level::ALL.iter().zip(two) {
         assert!(
@@ -47,7 +47,7 @@ fn delta_chi2_thresholds() {
             );
         }
     }
-    // Other levels (bounds.md §8.4: 90 / 95 / 99 %).
+    // Other levels (docs/bounds.md §8.4: 90 / 95 / 99 %).
     for (p, one, two) in [
         (0.90, 2.7055, 4.6052),
         (0.95, 3.8415, 5.9915),
@@ -184,7 +184,7 @@ fn sidak_absolute_consistency() {
     assert_eq!(sidak_p(0.3, 0), 1.0);
     // Tiny P_min keeps its digits: 1 − (1 − 1e-20)^1e5 = 1e-15 (first-order expansion).
     assert!((sidak_p(1e-20, 100_000) / 1e-15 - 1.0).abs() < 1e-9);
-    // Ten ordinary objects and one mislabelled far below the MMHB (bounds.md §8.4 example).
+    // Ten ordinary objects and one mislabelled far below the MMHB (docs/bounds.md §8.4 example).
     let mut ln_p: Vec<(usize, f64)> = (0..10)
         .map(|i| (i, (0.5f64 + 0.04 * i as f64).ln()))
         .collect();
@@ -202,7 +202,7 @@ fn sidak_absolute_consistency() {
 
 #[test]
 fn crowding_warning_and_population_term() {
-    // Source: bounds.md §8.7 — warn when > 30 informative objects of each opposing class lie
+    // Source: docs/bounds.md §8.7 — warn when > 30 informative objects of each opposing class lie
     // within 3σ of the MMHB; the population term is −n_star ln(M_hi − B) − n_bd ln(B − M_lo).
     let hb: Vec<Measurement> = (0..40)
         .map(|i| sym(0.076 + 0.0001 * f64::from(i), 0.002, Side::AtLeast))
@@ -284,7 +284,7 @@ fn direct_chi2(
 
 #[test]
 fn drivers_match_brute_force_leave_one_out() {
-    // Source: bounds.md §8.6 — removal is exact; the reference recomputes the slice from
+    // Source: docs/bounds.md §8.6 — removal is exact; the reference recomputes the slice from
     // scratch without each object and takes the interval again.
     let (fine, bound, classes, floor) = slice_problem();
     let chi2 = direct_chi2(&bound, &classes, floor, None);
@@ -342,7 +342,7 @@ fn drivers_match_brute_force_leave_one_out() {
 
 #[test]
 fn upsilon_slice_through_the_reduction_matches_the_direct_slice() {
-    // Source: bounds.md §8.4–8.5 — the interval from class curves and a cubic interpolation
+    // Source: docs/bounds.md §8.4–8.5 — the interval from class curves and a cubic interpolation
     // of the coarse bounds along Υ equals the interval from the direct sum on the fine axis.
     let (fine, bound, classes, floor) = slice_problem();
     let coarse: Vec<f64> = (0..=40).map(|i| -1.0 + 0.05 * f64::from(i)).collect();

@@ -1,7 +1,7 @@
 //! Checks of the bounds module (MMHB models A and B, anchoring, Schönberg–Chandrasekhar
 //! fraction) against values outside the project. Each check names its source and status, as in
-//! `theory/bounds.md`: "verified" (agrees with a published value), "computed" (recomputed by the
-//! independent scipy script behind `bounds.md`, no published value), "from memory" (a published
+//! `docs/bounds.md`: "verified" (agrees with a published value), "computed" (recomputed by the
+//! independent scipy script behind `docs/bounds.md`, no published value), "from memory" (a published
 //! value recalled, not re-read).
 
 use dwarfbound::theory::mmhb::*;
@@ -19,17 +19,17 @@ fn assert_rel(what: &str, got: f64, want: f64, tol: f64) {
 }
 
 fn standard() -> PolytropeConstants {
-    // ξ1, ω: Chandrasekhar 1939 / Horedt 2004 (verified in bounds.md §1); J_9.73: computed there.
+    // ξ1, ω: Chandrasekhar 1939 / Horedt 2004 (verified in docs/bounds.md §1); J_9.73: computed there.
     PolytropeConstants::standard_n15_default_k()
 }
 
 #[test]
 fn model_a_composition_and_exponents() {
     let p = ModelAParams::default();
-    // bounds.md §9 (computed; Burrows & Liebert quote α = 4.82, from memory).
+    // docs/bounds.md §9 (computed; Burrows & Liebert quote α = 4.82, from memory).
     assert_rel("alpha", p.alpha(), 4.821_428_6, 1e-7);
     assert_rel("alpha vs B&L 4.82 (from memory)", p.alpha(), 4.82, 1e-3);
-    // bounds.md §9, computed from CODATA 2018 (B&L round it to 1e13, from memory).
+    // docs/bounds.md §9, computed from CODATA 2018 (B&L round it to 1e13, from memory).
     assert_rel(
         "C_P",
         degenerate_pressure_constant_cgs(),
@@ -37,7 +37,7 @@ fn model_a_composition_and_exponents() {
         1e-6,
     );
     let x = p.exponents();
-    // bounds.md §2.3 / §9 (closed-form exponents, computed).
+    // docs/bounds.md §2.3 / §9 (closed-form exponents, computed).
     assert_rel("p", x.p, 10.735_238_1, 1e-8);
     assert_rel("E", x.e, 16.174_285_7, 1e-8);
     assert_rel("D", x.d, 5.486_666_7, 1e-8);
@@ -48,7 +48,7 @@ fn model_a_composition_and_exponents() {
     assert_rel("p = p_HB - p_e", x.p_hb - x.p_e, x.p, 1e-15);
     assert_rel("psi*", p.psi_star(), 0.027_536_73, 1e-6);
     assert_rel("k = 1.5u + s", p.k_index(), 9.73, 1e-15);
-    // Standard-gravity δ, γ: bounds.md §1 (computed).
+    // Standard-gravity δ, γ: docs/bounds.md §1 (computed).
     assert_rel("delta", standard().delta(), 5.990_704_516_3, 1e-9);
     assert_rel("gamma", standard().gamma(), 2.357_285_906_2, 1e-9);
 }
@@ -58,7 +58,7 @@ fn model_a_standard_gravity_closed_form_and_numeric_route() {
     let p = ModelAParams::default();
     let closed = model_a(&standard(), &p, 1.0).unwrap();
     let numeric = model_a_numeric(&standard(), &p, 1.0).unwrap();
-    // bounds.md §2.3 (computed): 0.09938334 M☉ by both routes.
+    // docs/bounds.md §2.3 (computed): 0.09938334 M☉ by both routes.
     assert_rel("MMHB_A closed form", closed.mmhb_msun, 0.099_383_34, 1e-6);
     assert_rel(
         "MMHB_A numeric route",
@@ -81,7 +81,7 @@ fn model_a_standard_gravity_closed_form_and_numeric_route() {
         st.surface_luminosity_erg_s,
         1e-10,
     );
-    // bounds.md §2.5 diagnostics (computed, quoted to 2–3 digits).
+    // docs/bounds.md §2.5 diagnostics (computed, quoted to 2–3 digits).
     assert_rel("R at minimum", st.radius_cm, 5.45e9, 5e-3);
     assert_rel("R at minimum (R_sun)", st.radius_rsun(), 0.078, 1e-2);
     assert_rel("rho_c at minimum", st.central_density_g_cm3, 1.75e3, 5e-3);
@@ -93,9 +93,9 @@ fn model_a_standard_gravity_closed_form_and_numeric_route() {
 
 #[test]
 fn burrows_liebert_scaling_coefficients() {
-    // bounds.md §2.2 steps 2–4: coefficients of R, ρ_c, T_c in m = M/M☉, μ_e and ψ, computed;
+    // docs/bounds.md §2.2 steps 2–4: coefficients of R, ρ_c, T_c in m = M/M☉, μ_e and ψ, computed;
     // Burrows & Liebert 1993 quote 2.80e9 cm, 1.28e5 g cm⁻³, 7.68e8 K (from memory), reproduced
-    // to 0.6 %, 3 % and 1.3 % (bounds.md §6).
+    // to 0.6 %, 3 % and 1.3 % (docs/bounds.md §6).
     let p = ModelAParams::default();
     let st = p.state(&standard(), 1.0, 0.0, 1.0);
     let mu_e = p.mu_e();
@@ -125,7 +125,7 @@ fn burrows_liebert_scaling_coefficients() {
 
 #[test]
 fn model_a_injected_constant_vectors() {
-    // bounds.md §2.4: solver-independent test vectors (computed).
+    // docs/bounds.md §2.4: solver-independent test vectors (computed).
     let p = ModelAParams::default();
     for (xi1, omega, j, want, want_phi) in [
         (
@@ -167,7 +167,7 @@ fn model_a_injected_constant_vectors() {
 
 #[test]
 fn phi_a_independent_of_surface_constants() {
-    // bounds.md §2.4/§2.5: Φ_A does not depend on ε₀, b₁, κ_R, ν, μ_ph (exact, computed).
+    // docs/bounds.md §2.4/§2.5: Φ_A does not depend on ε₀, b₁, κ_R, ν, μ_ph (exact, computed).
     let le = PolytropeConstants {
         xi1: 3.726_828_81,
         omega: 2.632_633_47,
@@ -196,7 +196,7 @@ fn phi_a_independent_of_surface_constants() {
 
 #[test]
 fn surface_treatment_spread() {
-    // bounds.md §2.5 (computed): b₁ = 2.0 / 2.5 / 2.87 / 3.25 gives 0.0903 / 0.0958 / 0.0994 / 0.1027.
+    // docs/bounds.md §2.5 (computed): b₁ = 2.0 / 2.5 / 2.87 / 3.25 gives 0.0903 / 0.0958 / 0.0994 / 0.1027.
     for (b1, want) in [(2.0, 0.0903), (2.5, 0.0958), (2.87, 0.0994), (3.25, 0.1027)] {
         let p = ModelAParams {
             b1,
@@ -211,7 +211,7 @@ fn surface_treatment_spread() {
 fn model_b_standard_gravity_and_ignition_table() {
     let p = ModelBParams::default();
     let b = model_b(&standard(), &p).unwrap();
-    // bounds.md §3 / §9 (computed).
+    // docs/bounds.md §3 / §9 (computed).
     assert_rel("MMHB_B at 3e6 K", b.mmhb_msun, 0.108_993_29, 1e-6);
     assert_rel("C_T", b.c_t_k, 5.7622e7, 1e-4);
     for (t_ign, want) in [
@@ -231,7 +231,7 @@ fn model_b_standard_gravity_and_ignition_table() {
             6e-4,
         );
     }
-    // Φ_B = ω/ω₀ (exact identity, bounds.md §3).
+    // Φ_B = ω/ω₀ (exact identity, docs/bounds.md §3).
     let le = PolytropeConstants {
         xi1: 3.471_066_05,
         omega: 2.985_460_63,
@@ -248,7 +248,7 @@ fn model_b_standard_gravity_and_ignition_table() {
 
 #[test]
 fn g_rescaling_laws() {
-    // bounds.md §1/§2.4: for G_eff = sG, ξ1 → ξ1 s^{-1/2}, ω → ω s^{-3/2}, J → J s^{-3/2};
+    // docs/bounds.md §1/§2.4: for G_eff = sG, ξ1 → ξ1 s^{-1/2}, ω → ω s^{-3/2}, J → J s^{-3/2};
     // then Φ_A = s^{-E/p} and Φ_B = s^{-3/2} (exact laws, computed to 1e-10 there).
     let p = ModelAParams::default();
     let x = p.exponents();
@@ -265,7 +265,7 @@ fn g_rescaling_laws() {
         let raw =
             model_a(&le, &p, 1.0).unwrap().mmhb_msun / model_a(&s0, &p, 1.0).unwrap().mmhb_msun;
         assert_rel("raw ratio = s^(-E/p)", raw, s.powf(-x.e_over_p), 1e-12);
-        // Photospheric gravity scaled by s as well (bounds.md §2.6): (1-τ)^{-1.400196}.
+        // Photospheric gravity scaled by s as well (docs/bounds.md §2.6): (1-τ)^{-1.400196}.
         let phi_g = phi_a(&le, &s0, &p, s).unwrap();
         assert_rel(
             "Phi_A, scaled photospheric g",
@@ -293,7 +293,7 @@ fn anchoring_and_modes() {
         j_k: 0.220_087_04,
         k: 9.73,
     };
-    // Default: model A, anchored at 0.075 M☉ with a 0.005 M☉ floor (bounds.md §4; anchor from
+    // Default: model A, anchored at 0.075 M☉ with a 0.005 M☉ floor (docs/bounds.md §4; anchor from
     // evolutionary models, from memory).
     let cfg = MmhbConfig::default();
     let b = evaluate(&cfg, &le, &standard(), 1.0).unwrap();
@@ -309,7 +309,7 @@ fn anchoring_and_modes() {
         0.075,
         1e-15,
     );
-    // Raw modes carry the raw floors 0.012 (A) / 0.014 (B) of bounds.md §4.
+    // Raw modes carry the raw floors 0.012 (A) / 0.014 (B) of docs/bounds.md §4.
     let raw_a = evaluate(
         &MmhbConfig {
             mode: MmhbMode::Raw,
@@ -336,7 +336,7 @@ fn anchoring_and_modes() {
     .unwrap();
     assert_eq!(raw_b.floor_msun, 0.014);
     assert_rel("raw B", raw_b.value_msun, 0.108_993_29, 1e-6);
-    // Optional model-difference term |Φ_A − Φ_B|·M_anchor in quadrature (bounds.md §4).
+    // Optional model-difference term |Φ_A − Φ_B|·M_anchor in quadrature (docs/bounds.md §4).
     let le2 = PolytropeConstants {
         xi1: 3.471_066_05,
         omega: 2.985_460_63,
@@ -386,7 +386,7 @@ mod schonberg_chandrasekhar {
     #[test]
     fn bonnor_ebert_constant() {
         // Verified: Bonnor 1956 (MNRAS 116, 351) / Ebert 1955 give 1.40 at ζ = 6.451;
-        // bounds.md §7.1 / §9 give 1.397660 at 6.450751 (computed).
+        // docs/bounds.md §7.1 / §9 give 1.397660 at 6.450751 (computed).
         let be = bonnor_ebert(0.0).unwrap();
         assert_rel("C_BE", be.c_be, 1.397_660, 1e-6);
         assert_rel("zeta_BE", be.zeta, 6.450_751, 1e-6);
@@ -396,7 +396,7 @@ mod schonberg_chandrasekhar {
 
     #[test]
     fn standard_gravity_fit_values() {
-        // bounds.md §7.1 (computed): q_fit for an n = 3 envelope.
+        // docs/bounds.md §7.1 (computed): q_fit for an n = 3 envelope.
         for (lambda, want) in [
             (0.3, 0.025_13),
             (0.46, 0.064_61),
@@ -413,7 +413,7 @@ mod schonberg_chandrasekhar {
                 fit.zeta_f
             );
         }
-        // Other envelope indices at λ = 0.5 (bounds.md §7.1, computed): 0.379 λ², 0.286 λ².
+        // Other envelope indices at λ = 0.5 (docs/bounds.md §7.1, computed): 0.379 λ², 0.286 λ².
         for (n, want) in [(2.5, 0.379), (3.25, 0.286)] {
             let fit = core_envelope_fit(0.5, 0.0, n, InterfaceCondition::ContinuousPTilde).unwrap();
             assert_rel("q_fit/lambda^2 vs n_env", fit.q / 0.25, want, 1.5e-3);
@@ -422,7 +422,7 @@ mod schonberg_chandrasekhar {
 
     #[test]
     fn modified_gravity_ratio_table() {
-        // bounds.md §7.2 table (computed), n_env = 3.
+        // docs/bounds.md §7.2 table (computed), n_env = 3.
         let tables: [(&str, [f64; 7]); 4] = [
             (
                 "lambda 0.5 full fit",
@@ -470,12 +470,12 @@ mod schonberg_chandrasekhar {
         let q = sc_fraction(0.0, 0.0, &p, ScVariant::FullFit).unwrap();
         assert_rel("q_SC(0)", q.q_sc, 0.37 * lambda * lambda, 1e-14);
         assert_rel(
-            "q_SC(0) ≈ 0.080 (bounds.md §7, rounded)",
+            "q_SC(0) ≈ 0.080 (docs/bounds.md §7, rounded)",
             q.q_sc,
             0.080,
             6e-3,
         );
-        // Υ ≠ 0: 0.37 λ² × the fit ratio at the default λ (definition, bounds.md §7.2).
+        // Υ ≠ 0: 0.37 λ² × the fit ratio at the default λ (definition, docs/bounds.md §7.2).
         let q1 = sc_fraction(0.1, 0.0, &p, ScVariant::FullFit).unwrap();
         let ratio = core_envelope_fit(lambda, 0.1, 3.0, InterfaceCondition::ContinuousPTilde)
             .unwrap()
@@ -649,7 +649,7 @@ mod with_lane_emden {
 
     #[test]
     fn standard_constants_feed_the_mmhb() {
-        // bounds.md §1 sanity conditions (ξ1, ω verified against Chandrasekhar 1939 / Horedt
+        // docs/bounds.md §1 sanity conditions (ξ1, ω verified against Chandrasekhar 1939 / Horedt
         // 2004; δ, γ, J_9.73 computed).
         let r = reference();
         assert_rel("xi1", r.xi1, 3.653_753_736_2, 1e-9);
@@ -663,7 +663,7 @@ mod with_lane_emden {
 
     #[test]
     fn lane_emden_table_of_bounds_section_1() {
-        // bounds.md §1 reference values (n = 3/2, τ = 0; computed), 7 significant digits.
+        // docs/bounds.md §1 reference values (n = 3/2, τ = 0; computed), 7 significant digits.
         for (u, xi1, omega, delta, gamma, j) in [
             (-0.3, 3.175_945, 2.818_503, 3.788_603, 2.074_973, 0.392_823),
             (-0.1, 3.492_462, 2.740_094, 5.182_130, 2.260_408, 0.251_027),
@@ -682,7 +682,7 @@ mod with_lane_emden {
 
     #[test]
     fn phi_a_of_upsilon_eight_digits() {
-        // bounds.md §9 (computed): Φ_A at Υ = 0.027, 0.1, −0.1.
+        // docs/bounds.md §9 (computed): Φ_A at Υ = 0.027, 0.1, −0.1.
         let p = ModelAParams::default();
         let r = reference();
         for (u, want) in [
@@ -701,7 +701,7 @@ mod with_lane_emden {
 
     #[test]
     fn phi_tables_of_the_summary() {
-        // bounds.md §0 (computed), printed to 4–5 decimals: tolerance half a unit of the last
+        // docs/bounds.md §0 (computed), printed to 4–5 decimals: tolerance half a unit of the last
         // printed digit plus slack.
         let p = ModelAParams::default();
         let r = reference();
@@ -721,14 +721,14 @@ mod with_lane_emden {
             let c = solve(u, 0.0, Anisotropy::None);
             assert_abs("Phi_A", phi_a(&c, &r, &p, 1.0).unwrap(), want_a, tol);
             assert_abs("Phi_B", phi_b(&c, &r).unwrap(), want_b, tol);
-            // Opposite signs of the two models' shifts for Υ ≠ 0 (bounds.md §3).
+            // Opposite signs of the two models' shifts for Υ ≠ 0 (docs/bounds.md §3).
             assert!((want_a - 1.0) * (want_b - 1.0) < 0.0);
         }
     }
 
     #[test]
     fn anisotropy_tables_of_section_2_6() {
-        // bounds.md §2.6 (computed), τ = −0.2, −0.1, 0.1, 0.2; 5 decimals.
+        // docs/bounds.md §2.6 (computed), τ = −0.2, −0.1, 0.1, 0.2; 5 decimals.
         let p = ModelAParams::default();
         let r = reference();
         let taus = [-0.2, -0.1, 0.1, 0.2];
@@ -769,7 +769,7 @@ mod with_lane_emden {
             assert_abs("(b) Phi_A exterior g", ext, b_phi_a_ext[i], tol);
             assert_abs("(b) Phi_A photospheric g", ph, b_phi_a_ph[i], tol);
             assert_abs("(b) Phi_B", phi_b(&b, &r).unwrap(), b_phi_b[i], tol);
-            // Exact laws for (b) (bounds.md §2.6): (1−τ)^{−E/p}, (1−τ)^{−1.400196}, (1−τ)^{−3/2}.
+            // Exact laws for (b) (docs/bounds.md §2.6): (1−τ)^{−E/p}, (1−τ)^{−1.400196}, (1−τ)^{−3/2}.
             let s = 1.0 - tau;
             assert_rel("(b) law, exterior g", ext, s.powf(-x.e_over_p), 1e-9);
             assert_rel("(b) law, photospheric g", ph, s.powf(-1.400_196), 1e-6);
@@ -784,7 +784,7 @@ mod with_lane_emden {
 
     #[test]
     fn no_regular_centre_is_a_typed_error() {
-        // structure.md §1.4: Υ ≤ −2/3 has no regular centre.
+        // docs/structure.md §1.4: Υ ≤ −2/3 has no regular centre.
         let e = PolytropeConstants::solve(-0.7, 0.0, Anisotropy::None, 9.73).unwrap_err();
         assert_eq!(e.code(), "no-regular-centre");
     }

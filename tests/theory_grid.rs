@@ -76,33 +76,33 @@ fn standard_gravity_values() {
     let p = standard_point(&TheorySettings::default()).unwrap();
     let le15 = p.lane_emden_n15.ok().unwrap();
     let le3 = p.lane_emden_n3.ok().unwrap();
-    // structure.md §3.6 (verified against Chandrasekhar 1939, Table 4: 3.65375, 2.71406,
+    // docs/structure.md §3.6 (verified against Chandrasekhar 1939, Table 4: 3.65375, 2.71406,
     // 6.89685, 2.01824); the settings solve at rtol 1e-10.
     assert!(rel(le15.xi1, 3.6537537362) < 1e-9);
     assert!(rel(le15.omega, 2.7140551201) < 1e-9);
     assert!(rel(le3.xi1, 6.8968486194) < 1e-9);
     assert!(rel(le3.omega, 2.0182359510) < 1e-9);
-    // bounds.md §1: J_9.73 = 0.2096067060 (computed there).
+    // docs/bounds.md §1: J_9.73 = 0.2096067060 (computed there).
     assert!(rel(le15.j_k.unwrap(), 0.2096067060) < 1e-8);
-    // bounds.md §9: raw model A 0.09938334 M☉ (computed); anchored = the anchor 0.075 (§4).
+    // docs/bounds.md §9: raw model A 0.09938334 M☉ (computed); anchored = the anchor 0.075 (§4).
     let m = p.mmhb.ok().unwrap();
     assert!((m.raw_msun - 0.09938334).abs() < 1e-8);
     assert_eq!(m.value_msun, 0.075);
     assert_eq!(m.phi, 1.0);
-    // structure.md §4.1: 5.82519/μ_e² = 1.456298 M☉ for μ_e = 2 (verified against ≈ 5.83/μ_e²,
+    // docs/structure.md §4.1: 5.82519/μ_e² = 1.456298 M☉ for μ_e = 2 (verified against ≈ 5.83/μ_e²,
     // Chandrasekhar 1939; Shapiro & Teukolsky 1983).
     let c = p.chandrasekhar.ok().unwrap();
     assert!((c.newtonian_mu_e2_msun - 1.456298).abs() < 1e-6);
     assert!(rel(c.newtonian_mu_e2_msun, 5.83 / 4.0) < 1e-3);
-    // structure.md §5.4: cold degenerate 0.08 M☉, X = 0.75: R = 0.731 R_J, P_min = 22.3 min
+    // docs/structure.md §5.4: cold degenerate 0.08 M☉, X = 0.75: R = 0.731 R_J, P_min = 22.3 min
     // (Roche; computed there).
     let b = p.breakup.ok().unwrap();
     assert!((b.period_min() - 22.3).abs() < 0.05, "{}", b.period_min());
     assert!((b.radius_rjup() - 0.731).abs() < 5e-4);
-    // bounds.md §7: q_SC = 0.37 λ² at Υ = 0 (Schönberg & Chandrasekhar 1942 coefficient).
+    // docs/bounds.md §7: q_SC = 0.37 λ² at Υ = 0 (Schönberg & Chandrasekhar 1942 coefficient).
     let sc = p.sc.ok().unwrap();
     assert!(rel(sc.q_sc, 0.37 * (0.62f64 / 1.33).powi(2)) < 1e-14);
-    // structure.md §4.4 (computed there): R = 8840.9 / 5716.4 / 4165.0 km at 0.6 / 1.0 / 1.2 M☉.
+    // docs/structure.md §4.4 (computed there): R = 8840.9 / 5716.4 / 4165.0 km at 0.6 / 1.0 / 1.2 M☉.
     let t = match p.white_dwarf.as_ref().unwrap() {
         Outcome::Ok(t) => t,
         Outcome::Failed(f) => panic!("{f}"),
@@ -118,20 +118,20 @@ fn standard_gravity_values() {
 fn modified_values_from_the_theory_notes() {
     let s = exact_settings();
     let ev = PointEvaluator::new(&s).unwrap();
-    // structure.md §4.1 (computed): M_Ch = 1.57072 at Υ = 0.3; 1.6911 / 1.2841 at τ = ±0.2.
+    // docs/structure.md §4.1 (computed): M_Ch = 1.57072 at Υ = 0.3; 1.6911 / 1.2841 at τ = ±0.2.
     for (u, t, m_ch) in [(0.3, 0.0, 1.57072), (0.0, 0.2, 1.6911), (0.0, -0.2, 1.2841)] {
         let p = ev.evaluate(u, t, false);
         let c = p.chandrasekhar.ok().unwrap().value_msun;
         assert!((c - m_ch).abs() < 6e-5, "({u}, {t}): {c}");
     }
-    // bounds.md §9 (computed): Φ_A = 1.0014617 / 1.0056268 / 0.9949816 at Υ = 0.027 / 0.1 / −0.1.
+    // docs/bounds.md §9 (computed): Φ_A = 1.0014617 / 1.0056268 / 0.9949816 at Υ = 0.027 / 0.1 / −0.1.
     for (u, phi) in [(0.027, 1.0014617), (0.1, 1.0056268), (-0.1, 0.9949816)] {
         let p = ev.evaluate(u, 0.0, false);
         let m = p.mmhb.ok().unwrap();
         assert!((m.phi - phi).abs() < 1e-7, "{u}: {}", m.phi);
         assert!((m.value_msun - 0.075 * phi).abs() < 1e-8);
     }
-    // structure.md §5.4 (computed): 0.08 M☉ at Υ = 0.1 / −0.2 / 0.3 and τ = 0.2: 23.7 / 19.6 /
+    // docs/structure.md §5.4 (computed): 0.08 M☉ at Υ = 0.1 / −0.2 / 0.3 and τ = 0.2: 23.7 / 19.6 /
     // 26.9 / 25.8 min.
     for (u, t, pmin) in [
         (0.1, 0.0, 23.7),
@@ -146,7 +146,7 @@ fn modified_values_from_the_theory_notes() {
             b.period_min()
         );
     }
-    // bounds.md §7.2 (computed; full fit λ = 0.46 column is closest to the default
+    // docs/bounds.md §7.2 (computed; full fit λ = 0.46 column is closest to the default
     // λ = 0.62/1.33 = 0.466): q_SC(0.1)/q_SC(0) ≈ 0.9726 (λ = 0.46), 0.9716 (λ = 0.5).
     let sc = ev.sc(0.1, 0.0);
     let r = sc.ok().unwrap().ratio;
@@ -155,8 +155,8 @@ fn modified_values_from_the_theory_notes() {
 
 #[test]
 fn gradient_ansatz_follows_the_exact_g_rescaling() {
-    // structure.md §2.2: ansatz (b) is G → (1 − τ)G inside matter: ξ1 ∝ (1−τ)^{−1/2},
-    // ω, M_Ch ∝ (1−τ)^{−3/2}; bounds.md §2.4/§2.6: Φ_B = (1−τ)^{−3/2}, Φ_A = (1−τ)^{−E/p} with
+    // docs/structure.md §2.2: ansatz (b) is G → (1 − τ)G inside matter: ξ1 ∝ (1−τ)^{−1/2},
+    // ω, M_Ch ∝ (1−τ)^{−3/2}; docs/bounds.md §2.4/§2.6: Φ_B = (1−τ)^{−3/2}, Φ_A = (1−τ)^{−E/p} with
     // E/p = 1.506654 (exterior photospheric gravity).
     let s = TheorySettings {
         anisotropy: Anisotropy::Gradient,
@@ -211,9 +211,9 @@ fn gradient_ansatz_follows_the_exact_g_rescaling() {
 fn breakup_radius_agrees_with_an_independent_root_search() {
     // The break-up reference radius (secant search from the n = 3/2 polytrope) against the
     // bisection of `white_dwarf::radius_direct_rsun` on the full Chandrasekhar EOS, at the
-    // reference object's mass and μ_e = 2/(1 + 0.75) (structure.md §5.4), for both ansätze;
+    // reference object's mass and μ_e = 2/(1 + 0.75) (docs/structure.md §5.4), for both ansätze;
     // for the gradient ansatz the direct solve integrates the τ ≠ 0 system itself, while the
-    // point uses the τ = 0 system and the G-rescaling (structure.md §2.2).
+    // point uses the τ = 0 system and the G-rescaling (docs/structure.md §2.2).
     let mu_e = 2.0 / 1.75;
     for (anisotropy, u, t) in [
         (Anisotropy::DensitySquared, 0.3, -0.2),
@@ -239,7 +239,7 @@ fn breakup_radius_agrees_with_an_independent_root_search() {
 
 #[test]
 fn failed_points_are_kept_with_their_reason() {
-    // structure.md §1.4: no regular centre for Υ ≤ −2(1 − τ)/3 (ansatz a).
+    // docs/structure.md §1.4: no regular centre for Υ ≤ −2(1 − τ)/3 (ansatz a).
     let g = compute(
         axis(-0.9, 0.0, 4),
         axis(0.0, 0.2, 2),

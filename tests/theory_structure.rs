@@ -39,7 +39,7 @@ fn le(n: f64, upsilon: f64, tau: f64, ans: Anisotropy) -> LaneEmdenSolution {
 #[test]
 fn standard_lane_emden_against_chandrasekhar_1939_table_4() {
     // Chandrasekhar 1939, *An Introduction to the Study of Stellar Structure*, Ch. IV, Table 4
-    // (printed digits as quoted in theory/structure.md §3.6, there marked "from memory"; the
+    // (printed digits as quoted in docs/structure.md §3.6, there marked "from memory"; the
     // same columns in Horedt 2004, *Polytropes*). Tolerance: the printed rounding, and 1e-6.
     let table = [
         // n, ξ1, ω_n = −ξ1²θ′(ξ1), ρ_c/ρ̄
@@ -64,14 +64,14 @@ fn standard_lane_emden_against_chandrasekhar_1939_table_4() {
             "n = {n}: ρc/ρ̄ = {}",
             s.density_contrast()
         );
-        // standard gravity: ω = −ξ1²θ′(ξ1) (structure.md §3.4)
+        // standard gravity: ω = −ξ1²θ′(ξ1) (docs/structure.md §3.4)
         assert!(rel(s.surface_slope, s.omega) < 1e-12);
     }
 }
 
 #[test]
 fn standard_lane_emden_closed_forms_n0_n1() {
-    // Closed forms (common practice, no source; structure.md §3.6): n = 0, θ = 1 − ξ²/6,
+    // Closed forms (common practice, no source; docs/structure.md §3.6): n = 0, θ = 1 − ξ²/6,
     // ξ1 = √6, ω = 2√6; n = 1, θ = sin ξ/ξ, ξ1 = ω = π, ρc/ρ̄ = π²/3.
     let s0 = le(0.0, 0.0, 0.0, Anisotropy::None);
     assert!(rel(s0.xi1, 6f64.sqrt()) < 1e-9, "{}", s0.xi1);
@@ -86,7 +86,7 @@ fn standard_lane_emden_closed_forms_n0_n1() {
 #[test]
 fn standard_derived_constants_n_n_w_n_gamma() {
     // N_{3/2}, N_3, W_{3/2}, W_3 as tabulated (Chandrasekhar 1939 Ch. IV, quoted in
-    // structure.md §3.6 "from memory": 0.42422, 0.36394, 0.77014, 11.05066) and this work's
+    // docs/structure.md §3.6 "from memory": 0.42422, 0.36394, 0.77014, 11.05066) and this work's
     // digits there (0.42421668, 0.36393906, 0.77014037, 11.050681; computed).
     let s15 = le(1.5, 0.0, 0.0, Anisotropy::None);
     let s3 = le(3.0, 0.0, 0.0, Anisotropy::None);
@@ -97,7 +97,7 @@ fn standard_derived_constants_n_n_w_n_gamma() {
     assert!(rel(s15.n_n(), 0.42422) < 1e-5);
     assert!(rel(s3.n_n(), 0.36394) < 1e-5);
     assert!(rel(s15.w_n(), 0.77014) < 1e-5);
-    // γ of bounds.md §1: (5ξ1/(8π))(4πω)^{1/3} = 2.3572859062 at n = 3/2 (computed there).
+    // γ of docs/bounds.md §1: (5ξ1/(8π))(4πω)^{1/3} = 2.3572859062 at n = 3/2 (computed there).
     let pi = std::f64::consts::PI;
     let gamma_formula = 5.0 * s15.xi1 / (8.0 * pi) * (4.0 * pi * s15.omega).cbrt();
     assert!(rel(s15.gamma(), gamma_formula) < 1e-13);
@@ -106,7 +106,7 @@ fn standard_derived_constants_n_n_w_n_gamma() {
 
 #[test]
 fn j_9_73_standard_gravity_bounds_md() {
-    // bounds.md §1 sanity condition (computed there): J_9.73 = 0.2096067060 at Υ = τ = 0.
+    // docs/bounds.md §1 sanity condition (computed there): J_9.73 = 0.2096067060 at Υ = τ = 0.
     let s = ModifiedLaneEmden::new(1.5, 0.0, 0.0, Anisotropy::None)
         .unwrap()
         .solve(&LaneEmdenOptions::with_extra_powers(&[9.73]))
@@ -128,7 +128,7 @@ fn j_9_73_standard_gravity_bounds_md() {
 
 #[test]
 fn n0_closed_form_with_upsilon_and_tau() {
-    // structure.md §3.6 (verified there): n = 0, ansatz (a): θ = 1 − aξ², a = (1 + 3Υ/2 − τ)/6,
+    // docs/structure.md §3.6 (verified there): n = 0, ansatz (a): θ = 1 − aξ², a = (1 + 3Υ/2 − τ)/6,
     // ξ1 = √(6/(1 + 3Υ/2 − τ)), ω = ξ1³/3 (interior only).
     for (u, t) in [(0.3, 0.0), (-0.2, 0.2), (0.6, -0.2), (-0.5, -0.1)] {
         let s = le(0.0, u, t, Anisotropy::DensitySquared);
@@ -140,7 +140,7 @@ fn n0_closed_form_with_upsilon_and_tau() {
 
 #[test]
 fn modified_values_of_structure_md_3_6() {
-    // structure.md §3.6, computed there (ansatz a), quoted to 8 figures: tolerance 1e-7.
+    // docs/structure.md §3.6, computed there (ansatz a), quoted to 8 figures: tolerance 1e-7.
     let cases = [
         (1.5, 0.3, 0.0, 4.1591831, 2.6682050),
         (1.5, -0.2, 0.2, 3.4012517, 3.4962697),
@@ -152,7 +152,7 @@ fn modified_values_of_structure_md_3_6() {
         assert!(rel(s.xi1, xi1) < 1e-7, "{n} {u} {t}: ξ1 = {}", s.xi1);
         assert!(rel(s.omega, omega) < 1e-7, "{n} {u} {t}: ω = {}", s.omega);
     }
-    // bounds.md §1 table (n = 3/2, τ = 0; computed there, 7 figures).
+    // docs/bounds.md §1 table (n = 3/2, τ = 0; computed there, 7 figures).
     let rows = [
         (-0.3, 3.175945, 2.818503, 3.788603, 2.074973, 0.392823),
         (-0.1, 3.492462, 2.740094, 5.182130, 2.260408, 0.251027),
@@ -177,7 +177,7 @@ fn modified_values_of_structure_md_3_6() {
 
 #[test]
 fn surface_slope_identities_of_structure_md_3_4() {
-    // structure.md §3.4 (computed there): n = 3, Υ = 0.3, τ = 0.2 ansatz b: ω = 3.04219,
+    // docs/structure.md §3.4 (computed there): n = 3, Υ = 0.3, τ = 0.2 ansatz b: ω = 3.04219,
     // −ξ1²θ′ = 2.43376 = (1 − τ)ω; n = 1, Υ = 0.3: ω = 2.9421, −ξ1²θ′ = 1.5400 = ω/D(ξ1).
     let s = le(3.0, 0.3, 0.2, Anisotropy::Gradient);
     assert!((s.omega - 3.04219).abs() < 5e-6);
@@ -192,7 +192,7 @@ fn surface_slope_identities_of_structure_md_3_4() {
 
 #[test]
 fn gradient_ansatz_is_an_exact_rescaling_of_g() {
-    // structure.md §2.2 / bounds.md §1 (exact identity): G → (1 − τ)G, so ξ1 ∝ (1−τ)^{-1/2},
+    // docs/structure.md §2.2 / docs/bounds.md §1 (exact identity): G → (1 − τ)G, so ξ1 ∝ (1−τ)^{-1/2},
     // ω and J_k ∝ (1−τ)^{-3/2}. The direct integration must agree to 1e-10.
     let opts = LaneEmdenOptions::with_extra_powers(&[9.73]);
     for n in [1.0, 1.5, 3.0] {
@@ -271,7 +271,7 @@ fn against_independent_scipy_reference() {
 
 #[test]
 fn surface_methods_agree() {
-    // structure.md §6 item 2 (computed there): event-plus-Newton and variable-swap surface
+    // docs/structure.md §6 item 2 (computed there): event-plus-Newton and variable-swap surface
     // location agree to ≤ 1e-10 on n ∈ {3/2, 3}, Υ ∈ {−0.5, −0.2, 0, 0.1, 0.3, 0.6},
     // τ ∈ {−0.2, 0, 0.2}.
     let mut en = LaneEmdenOptions::with_extra_powers(&[9.73]);
@@ -299,7 +299,7 @@ fn surface_methods_agree() {
 
 #[test]
 fn typed_errors_at_existence_bounds() {
-    // structure.md §1.4: ansatz a needs Υ > −2(1 − τ)/3; ansatz b and isotropic Υ > −2/3.
+    // docs/structure.md §1.4: ansatz a needs Υ > −2(1 − τ)/3; ansatz b and isotropic Υ > −2/3.
     for (u, t, ans) in [
         (-2.0 / 3.0, 0.0, Anisotropy::None),
         (-0.7, 0.0, Anisotropy::None),
@@ -314,7 +314,7 @@ fn typed_errors_at_existence_bounds() {
             "{u} {t}: {e}"
         );
     }
-    // Just inside the bound a star exists (structure.md §1.4: n = 3/2, Υ = −0.6666: ξ1 → 2.54,
+    // Just inside the bound a star exists (docs/structure.md §1.4: n = 3/2, Υ = −0.6666: ξ1 → 2.54,
     // ω → 3.30; n = 3: ξ1 → 3.92, ω → 1.681; computed there).
     let s = le(1.5, -0.6666, 0.0, Anisotropy::None);
     assert!(
@@ -330,7 +330,7 @@ fn typed_errors_at_existence_bounds() {
     // Relativistic bound Υ > −4/9 (Babichev et al. 2016): a warning, not an error.
     assert!(le(1.5, -0.45, 0.0, Anisotropy::None).below_relativistic_bound);
     assert!(!le(1.5, -0.44, 0.0, Anisotropy::None).below_relativistic_bound);
-    // 0 < n < 1 with Υ ≠ 0 (structure.md §1.3, §3.5.5), n ≥ 5, τ ≠ 0 without ansatz, τ ≥ 1 (b).
+    // 0 < n < 1 with Υ ≠ 0 (docs/structure.md §1.3, §3.5.5), n ≥ 5, τ ≠ 0 without ansatz, τ ≥ 1 (b).
     assert!(matches!(
         ModifiedLaneEmden::new(0.5, -0.1, 0.0, Anisotropy::None),
         Err(TheoryError::UnsupportedIndex { .. })
@@ -364,7 +364,7 @@ fn typed_errors_at_existence_bounds() {
 
 #[test]
 fn vanishing_denominator_is_a_typed_error() {
-    // n = 1: D = 1 + Υξ²/4 vanishes at ξ = 2/√(−Υ) (structure.md §1.3). In the supported
+    // n = 1: D = 1 + Υξ²/4 vanishes at ξ = 2/√(−Υ) (docs/structure.md §1.3). In the supported
     // domain the surface comes first (as the spec found), so the guard is checked on the
     // right-hand side itself: at and beyond that ξ the derivatives are refused with the reason.
     let le = ModifiedLaneEmden::new(1.0, -0.5, 0.0, Anisotropy::None).unwrap();
@@ -381,7 +381,7 @@ fn vanishing_denominator_is_a_typed_error() {
     }
     assert!(le.derivatives(xi0 * 0.99, 0.5, 1.0).is_ok());
     // …and the solve itself stays regular with D(ξ1) → 0 as the bound nears (D(ξ1) ≈ 0.004
-    // at Υ = −0.66, structure.md §1.3, computed there): −ξ1²θ′ = ω/D(ξ1) becomes large.
+    // at Υ = −0.66, docs/structure.md §1.3, computed there): −ξ1²θ′ = ω/D(ξ1) becomes large.
     let s = solve_lane_emden(1.0, -0.66, 0.0, Anisotropy::None).unwrap();
     let d1 = 1.0 - 0.66 * s.xi1 * s.xi1 / 4.0;
     assert!((d1 - 0.004).abs() < 0.0015, "{d1}");
@@ -393,7 +393,7 @@ fn vanishing_denominator_is_a_typed_error() {
 
 #[test]
 fn chandrasekhar_mass_standard_gravity() {
-    // structure.md §4.1 (verified there): with CODATA 2018 and M☉ = (GM)☉/G,
+    // docs/structure.md §4.1 (verified there): with CODATA 2018 and M☉ = (GM)☉/G,
     // M_Ch = 5.82519/μ_e² M☉; textbook ≈ 5.83/μ_e² (Chandrasekhar 1939, Ch. XI) and 5.836/μ_e²
     // (Shapiro & Teukolsky 1983, quoted from memory in the spec): within 0.2 %.
     for mu_e in [1.0, 2.0, 8.0 / 7.0, 2.154] {
@@ -417,7 +417,7 @@ fn chandrasekhar_mass_standard_gravity() {
 
 #[test]
 fn chandrasekhar_mass_modified() {
-    // structure.md §4.1 examples (computed there; μ_e = 2, ansatz a, printed to 5 figures).
+    // docs/structure.md §4.1 examples (computed there; μ_e = 2, ansatz a, printed to 5 figures).
     let cases = [
         (-0.5, 0.0, 1.2748),
         (-0.2, 0.0, 1.3829),
@@ -431,7 +431,7 @@ fn chandrasekhar_mass_modified() {
         let got = chandrasekhar_mass_msun(u, t, Anisotropy::DensitySquared, 2.0).unwrap();
         assert!((got - m).abs() < 5.0001e-5, "Υ = {u}, τ = {t}: {got}");
     }
-    // Ansatz b: the τ = 0 value times (1 − τ)^{−3/2} (structure.md §2.2, exact); 2.035 M☉ at
+    // Ansatz b: the τ = 0 value times (1 − τ)^{−3/2} (docs/structure.md §2.2, exact); 2.035 M☉ at
     // τ = 0.2 (§2.3, computed).
     for (u, t) in [(0.0, 0.2), (0.3, 0.2), (-0.2, -0.2)] {
         let b = chandrasekhar_mass_msun(u, t, Anisotropy::Gradient, 2.0).unwrap();
@@ -444,7 +444,7 @@ fn chandrasekhar_mass_modified() {
 
 #[test]
 fn full_eos_radii_of_structure_md_4_4() {
-    // structure.md §4.4, μ_e = 2, standard gravity (computed there): R = 14657 / 8840.9 /
+    // docs/structure.md §4.4, μ_e = 2, standard gravity (computed there): R = 14657 / 8840.9 /
     // 5716.4 / 4165.0 / 1985.8 km and ρ_c = 1.907e5 / 3.207e6 / 2.828e7 / 1.182e8 / 2.284e9
     // g cm⁻³ at 0.2 / 0.6 / 1.0 / 1.2 / 1.4 M☉.
     let t = standard_table();
@@ -464,7 +464,7 @@ fn full_eos_radii_of_structure_md_4_4() {
         );
         assert!(rel(r.central_density_kg_m3 * 1e-3, rho_c_cgs) < 2e-3, "{m}");
     }
-    // Modified examples (structure.md §4.4, computed there): R(1.0 M☉) = 6074.0 km at Υ = 0.1,
+    // Modified examples (docs/structure.md §4.4, computed there): R(1.0 M☉) = 6074.0 km at Υ = 0.1,
     // 5025.7 km at Υ = −0.2, 7064.5 km at τ = 0.2 (ansatz a).
     for (u, tau, r_km) in [(0.1, 0.0, 6074.0), (-0.2, 0.0, 5025.7), (0.0, 0.2, 7064.5)] {
         let tab = WdMassRadius::new(
@@ -494,7 +494,7 @@ fn table_agrees_with_direct_root_search() {
 
 #[test]
 fn full_eos_low_density_limit_is_the_n32_polytrope() {
-    // structure.md §4.4 (verified there to 2e-7): at x_c = 1e-3 the star is an n = 3/2
+    // docs/structure.md §4.4 (verified there to 2e-7): at x_c = 1e-3 the star is an n = 3/2
     // polytrope with K_NR = (3π²)^{2/3}ħ²/[5 m_e (μ_e m_u)^{5/3}] (Chandrasekhar 1939, Ch. X),
     // so R·M^{1/3} = K_NR/(N_{3/2} G). Constants: CODATA 2018.
     use dwarfbound::constants::{G_SI, HBAR_SI, M_E_KG, M_U_KG};
@@ -516,7 +516,7 @@ fn full_eos_low_density_limit_is_the_n32_polytrope() {
 
 #[test]
 fn full_eos_high_density_limit_is_the_chandrasekhar_mass() {
-    // structure.md §4.1 (verified there): at x_c = 1e4 the full-EOS mass equals the n = 3
+    // docs/structure.md §4.1 (verified there): at x_c = 1e4 the full-EOS mass equals the n = 3
     // Lane–Emden value ω₃(Υ,τ) to < 1e-7; M(x_c) ≈ M_Ch(1 − k/x_c²), k ≈ 5.5 / 7.1 / 3.5.
     for (u, t, k) in [(0.0, 0.0, 5.5), (0.3, 0.0, 7.1), (-0.2, 0.2, 3.5)] {
         let eos = ChandrasekharEos::new(u, t, Anisotropy::DensitySquared).unwrap();
@@ -531,7 +531,7 @@ fn full_eos_high_density_limit_is_the_chandrasekhar_mass() {
 
 #[test]
 fn mu_e_scaling_is_exact() {
-    // structure.md §4.3 (verified there to 1e-14): R(M; μ_e) = (2/μ_e)·R_{μ_e=2}(M μ_e²/4).
+    // docs/structure.md §4.3 (verified there to 1e-14): R(M; μ_e) = (2/μ_e)·R_{μ_e=2}(M μ_e²/4).
     let t = standard_table();
     for mu_e in [1.0, 8.0 / 7.0, 2.154] {
         for m in [0.05, 0.3, 0.7] {
@@ -548,7 +548,7 @@ fn mu_e_scaling_is_exact() {
 
 #[test]
 fn gradient_ansatz_white_dwarfs_rescale_exactly() {
-    // structure.md §2.2 (verified there to 1e-10): at fixed central density M → M(1−τ)^{−3/2},
+    // docs/structure.md §2.2 (verified there to 1e-10): at fixed central density M → M(1−τ)^{−3/2},
     // R → R(1−τ)^{−1/2}; hence R_b(M) = R_{(Υ,0)}(M(1−τ)^{3/2})/√(1−τ).
     for (u, tau) in [(0.0, 0.2), (0.3, -0.2), (-0.3, 0.4)] {
         let s = 1.0 - tau;
@@ -595,7 +595,7 @@ fn white_dwarf_typed_results() {
         t.radius(1.0, 0.0),
         Err(TheoryError::InvalidParameter { .. })
     ));
-    // Post-Newtonian flag (structure.md §4.5, a chosen threshold): GM/(Rc²) = 1.0e-4, 2.6e-4,
+    // Post-Newtonian flag (docs/structure.md §4.5, a chosen threshold): GM/(Rc²) = 1.0e-4, 2.6e-4,
     // 4.3e-4 at 0.6, 1.0, 1.2 M☉ (computed there); 5e-4 reached at 1.253 M☉.
     for (m, c) in [(0.6, 1.0e-4), (1.0, 2.6e-4), (1.2, 4.3e-4)] {
         let r = t.radius(m, 2.0).unwrap();
@@ -618,12 +618,12 @@ fn white_dwarf_typed_results() {
     // Very close to M_Ch the answer is still a finite model.
     let r = t.radius(mch * (1.0 - 1e-9), 2.0).unwrap();
     assert!(r.radius_rsun > 0.0 && r.radius_rsun.is_finite());
-    // Existence bounds carry over (structure.md §1.4).
+    // Existence bounds carry over (docs/structure.md §1.4).
     assert!(matches!(
         WdMassRadius::new(-0.7, 0.0, Anisotropy::None, &WdTableOptions::default()),
         Err(TheoryError::NoRegularCentre { .. })
     ));
-    // M(x_c) rises monotonically at the spec's extreme test points (structure.md §4.4); the
+    // M(x_c) rises monotonically at the spec's extreme test points (docs/structure.md §4.4); the
     // table constructor refuses otherwise.
     for (u, tau) in [(-0.5, 0.2), (0.6, -0.2), (-0.66, 0.0)] {
         let opts = WdTableOptions {
@@ -639,7 +639,7 @@ fn white_dwarf_typed_results() {
 
 #[test]
 fn roche_identities() {
-    // structure.md §5.1 (derived, verified there): at break-up GM/R_eq² = Ω²R_eq and the
+    // docs/structure.md §5.1 (derived, verified there): at break-up GM/R_eq² = Ω²R_eq and the
     // equipotential through the pole give R_eq = (3/2)R_p, Ω² = (8/27)GM/R_p³, κ = (3/2)^{3/2}.
     let ratio = ROCHE_EQUATORIAL_TO_POLAR;
     // Equipotential with GM = R_p = 1: −1 = −1/R_eq − ½Ω²R_eq², Ω² = 1/R_eq³.
@@ -649,13 +649,13 @@ fn roche_identities() {
     let kappa = BreakupModel::Roche.kappa();
     assert!((kappa * kappa - 27.0 / 8.0).abs() < 1e-14);
     assert!((kappa - 1.8371).abs() < 5e-5);
-    // structure.md §5.2 table (computed there): κ = 1.8911 (same M and K), 1.891 in its prose.
+    // docs/structure.md §5.2 table (computed there): κ = 1.8911 (same M and K), 1.891 in its prose.
     assert_eq!(BreakupModel::ScfN32.kappa(), 1.8911);
 }
 
 #[test]
 fn breakup_check_values_of_structure_md_5_4() {
-    // structure.md §5.4 (computed there with κ = 1.8911; IAU 2015 B3 nominal R_J, R☉, (GM)☉).
+    // docs/structure.md §5.4 (computed there with κ = 1.8911; IAU 2015 B3 nominal R_J, R☉, (GM)☉).
     let min = |m: f64, r: f64, model| breakup_period_s(m, r, model).unwrap() / 60.0;
     let rows = [
         // M [M☉], R [R☉], Roche [min], κ = 1.8911 [min], κ = 1 [min]
@@ -694,7 +694,7 @@ fn breakup_check_values_of_structure_md_5_4() {
 
 #[test]
 fn cold_degenerate_floor_near_22_minutes() {
-    // structure.md §5.4 (computed there): zero-temperature Chandrasekhar EOS with μ_e = 8/7
+    // docs/structure.md §5.4 (computed there): zero-temperature Chandrasekhar EOS with μ_e = 8/7
     // (X = 0.75): R = 0.856 / 0.764 / 0.747 / 0.731 / 0.702 R_J at 0.05 / 0.07 / 0.075 / 0.08 /
     // 0.09 M☉; at 0.08 M☉ P_min = 22.3 min (Roche), 23.0 min (κ = 1.891). The ≈ 22-minute
     // floor itself is quoted in the field (common practice, no source).
@@ -715,7 +715,7 @@ fn cold_degenerate_floor_near_22_minutes() {
     assert!((p - 22.3).abs() < 0.051, "{p}");
     let p = breakup_period_s(0.08, r, BreakupModel::ScfN32).unwrap() / 60.0;
     assert!((p - 23.0).abs() < 0.051, "{p}");
-    // Modified (structure.md §5.4, computed there): 23.7 / 19.6 / 26.9 min at Υ = 0.1 / −0.2 /
+    // Modified (docs/structure.md §5.4, computed there): 23.7 / 19.6 / 26.9 min at Υ = 0.1 / −0.2 /
     // 0.3 and 25.8 min at τ = 0.2 (ansatz a).
     for (u, tau, p_min) in [
         (0.1, 0.0, 23.7),

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Speed reference for dwarfbound's benchmark: the same modified Lane-Emden equations with scipy.
 
-Solves the first-order system of theory/structure.md section 3.2 for the density-squared
+Solves the first-order system of docs/structure.md section 3.2 for the density-squared
 ansatz (a), (p, c, kappa) = (1, Upsilon/2 - tau/3, 1),
 
     theta' = -p [mu + c xi^3 theta^n] / (xi^2 [1 + kappa (n Upsilon / 4) xi^2 theta^(n-1)]),
@@ -9,7 +9,7 @@ ansatz (a), (p, c, kappa) = (1, Upsilon/2 - tau/3, 1),
 
 at Upsilon = 0.1, tau = 0.1 with scipy.integrate.solve_ivp, DOP853, rtol 1e-10, atol 1e-12 (the
 tolerances of the Rust benchmark), from the central series at xi0 = 1e-4 to theta = 0.05 (terminal
-event), then with theta as the independent variable down to theta = 0 (structure.md 3.5,
+event), then with theta as the independent variable down to theta = 0 (docs/structure.md 3.5,
 method ii). Prints `RESULT <key> <value>` lines that benches/run.sh pairs with the Rust numbers:
 the median wall time of one solve (n = 1.5 without and with J, n = 3), and the time of the
 Lane-Emden solves of a 201 x 201 grid extrapolated from a timed 6 x 6 sub-grid (only the two

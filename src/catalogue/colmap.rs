@@ -27,7 +27,7 @@ use std::path::{Path, PathBuf};
 use super::error::CatalogueError;
 use super::units::{self, Quantity};
 
-/// Canonical column names of `../shared/CONVENTIONS.md`, in output order.
+/// Canonical column names of the README, in output order.
 pub const CANONICAL_COLUMNS: [&str; 20] = [
     "id",
     "class",

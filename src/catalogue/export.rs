@@ -39,7 +39,7 @@ pub const ACCEPTED_COLUMNS: [&str; 21] = [
     "source_row",
 ];
 
-/// Header of `quarantine.csv` (`../shared/CONVENTIONS.md`).
+/// Header of `quarantine.csv` (the README).
 pub const QUARANTINE_COLUMNS: [&str; 5] = ["file", "row", "id", "column", "reason"];
 
 /// `accepted.csv` as bytes.

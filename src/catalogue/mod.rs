@@ -1,7 +1,7 @@
 //! Catalogue reading and vetting: files in, canonical objects and quarantined rows out.
 //!
 //! Every format is read into a [`table::RawTable`] of raw cells; the column map
-//! ([`colmap::ColumnMap`]) renames columns to the canonical names of `../shared/CONVENTIONS.md`;
+//! ([`colmap::ColumnMap`]) renames columns to the canonical names of the README;
 //! vetting ([`vet`]) converts units ([`units`]) and validates every row. A row is either accepted
 //! or quarantined with a reason, never dropped: rows in = rows accepted + rows quarantined.
 //! [`export`] writes `accepted.csv` and `quarantine.csv`, [`summary`] the printed summary.

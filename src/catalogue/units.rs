@@ -86,7 +86,7 @@ impl Unit {
     }
 }
 
-/// A catalogue quantity with its own canonical unit (`../shared/CONVENTIONS.md`).
+/// A catalogue quantity with its own canonical unit (the README).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Quantity {
     /// Masses and their errors: solar mass.

@@ -201,7 +201,7 @@ pub struct ConfrontArgs {
     /// test where a model radius exists.
     #[arg(long)]
     pub include_out_of_domain: bool,
-    /// Population-aware likelihood (theory/bounds.md §8.7) with this mass window around the
+    /// Population-aware likelihood (docs/bounds.md §8.7) with this mass window around the
     /// MMHB, `LO:HI` in M☉ (e.g. 0.04:0.11); for catalogues crowded near the limit.
     #[arg(long, value_name = "LO:HI")]
     pub population_window: Option<String>,

@@ -1,7 +1,7 @@
 //! Leave-one-out influence: which objects move the Υ interval at τ = 0, and by how much.
 //!
 //! Because ℓ is a sum over objects, removing object i is exact and cheap: the slice without it
-//! is χ² + 2 ln P_i along the slice (`theory/bounds.md` §8.6). Only objects whose −2 ln P_i
+//! is χ² + 2 ln P_i along the slice (`docs/bounds.md` §8.6). Only objects whose −2 ln P_i
 //! exceeds a small threshold somewhere on the slice can move a crossing by more than that, so
 //! only they are recomputed. Each candidate's shift is the larger change of the two interval
 //! ends; an end that opens or closes counts as an infinite shift and is listed first. The
@@ -34,7 +34,7 @@ use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
 use super::slice::SliceResult;
 
-/// Settings of the driver analysis (`bounds.md` §8.6 defaults).
+/// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
 #[derive(Debug, Clone, PartialEq)]
 pub struct DriverOptions {
     /// Candidates are objects whose −2 ln P_i exceeds this somewhere on the slice (2e-3).
@@ -93,7 +93,7 @@ pub struct DriverReport {
     pub drivers: Vec<Driver>,
 }
 
-/// Leave-one-out drivers of the Υ interval at τ = 0 (`bounds.md` §8.6).
+/// Leave-one-out drivers of the Υ interval at τ = 0 (`docs/bounds.md` §8.6).
 ///
 /// `chi2_fine` is the full slice χ² on `upsilon_fine` (the same values the interval was taken
 /// from); each candidate's slice is recomputed exactly as χ² + 2 ln P_i, with its own minimum.

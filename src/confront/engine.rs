@@ -3,7 +3,7 @@
 //! Each mass test depends on a grid point only through one scalar bound (the MMHB for
 //! `hburning` and `brown_dwarf`, the Chandrasekhar mass for `white_dwarf`), so each class is
 //! reduced once to a tabulated log-likelihood curve in the bound's value ([`ClassCurve`],
-//! `theory/bounds.md` §8.5) and the grid is evaluated by interpolation. White dwarfs with a
+//! `docs/bounds.md` §8.5) and the grid is evaluated by interpolation. White dwarfs with a
 //! measured radius also confront the modified mass–radius relation; that term depends on the
 //! object's own mass, so it is evaluated per object and grid point from the tabulated R(M).
 //!
@@ -64,7 +64,7 @@ pub trait BoundSurface: Sync {
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>>;
 }
 
-/// Choices of the comparison (defaults from `theory/bounds.md` §4–§5 and `structure.md` §4.6).
+/// Choices of the comparison (defaults from `docs/bounds.md` §4–§5 and `docs/structure.md` §4.6).
 #[derive(Debug, Clone, PartialEq)]
 pub struct EngineOptions {
     /// Theory floor of the MMHB (1σ), M☉.
@@ -83,7 +83,7 @@ pub struct EngineOptions {
     pub default_mu_e: f64,
     /// Tabulation of the class curves.
     pub reduce: ReduceOptions,
-    /// Population-aware option of `bounds.md` §8.7: a mass window [lo, hi] (M☉) around the MMHB
+    /// Population-aware option of `docs/bounds.md` §8.7: a mass window [lo, hi] (M☉) around the MMHB
     /// in which the stars' and brown dwarfs' true masses are taken as flat on either side of
     /// the bound; adds −n_star ln(hi − B) − n_bd ln(B − lo) to ln L. `None` (default) keeps the
     /// plain product of consistency probabilities.
@@ -311,7 +311,7 @@ pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
     }
 }
 
-/// Decides how each object enters the comparison (age rule of `bounds.md` §5).
+/// Decides how each object enters the comparison (age rule of `docs/bounds.md` §5).
 pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse> {
     objects
         .iter()

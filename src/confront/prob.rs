@@ -1,6 +1,6 @@
 //! Per-object probability that a measured mass is consistent with a theoretical bound.
 //!
-//! This module's one job is the number P of `theory/bounds.md` §8.1: the probability that an
+//! This module's one job is the number P of `docs/bounds.md` §8.1: the probability that an
 //! object's true mass lies on the allowed side of a bound whose own value is uncertain by a
 //! Gaussian theory floor σ_th. It also carries the normal-distribution tools that number needs
 //! in deep tails: ln Φ, its inverse (for tensions in σ), and Owen's T function (for the exact
@@ -26,11 +26,11 @@ use std::f64::consts::{FRAC_1_SQRT_2, LN_2, PI};
 /// ln √(2π), the normalisation of the standard normal density in log form.
 pub const LN_SQRT_2PI: f64 = 0.918_938_533_204_672_8;
 
-/// Relative width used when a bound's theory floor is zero (`bounds.md` §8.1: σ_th must be
+/// Relative width used when a bound's theory floor is zero (`docs/bounds.md` §8.1: σ_th must be
 /// positive; a user's 0 becomes 1e-6 of the bound, with a warning from the caller).
 pub const ZERO_FLOOR_FRACTION: f64 = 1e-6;
 
-/// Below this probability the closed split-normal form is not trusted (`bounds.md` §8.1) and
+/// Below this probability the closed split-normal form is not trusted (`docs/bounds.md` §8.1) and
 /// the log-space evaluation takes over: scaled closed form for the half without cancellation,
 /// quadrature of the log-scaled integrand for the half with it.
 pub const QUADRATURE_BELOW_P: f64 = 1e-10;
@@ -70,7 +70,7 @@ pub enum Side {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum MassKind {
     /// A measurement with lower and upper 1σ errors; `lo == hi` is the symmetric Gaussian,
-    /// otherwise a split normal (`bounds.md` §8.1). Zero widths are allowed (an exact mass).
+    /// otherwise a split normal (`docs/bounds.md` §8.1). Zero widths are allowed (an exact mass).
     Measured {
         /// σ₋, the error below the mass.
         lo: f64,
@@ -108,7 +108,7 @@ pub struct Measurement {
 impl Measurement {
     /// Whether the object can constrain the bound at all. A limit in the uninformative
     /// direction (a lower limit for `hburning`, an upper limit for the upper-bound classes)
-    /// says nothing without a prior on the mass: its P is 1 everywhere (`bounds.md` §8.1).
+    /// says nothing without a prior on the mass: its P is 1 everywhere (`docs/bounds.md` §8.1).
     pub fn informative(&self) -> bool {
         !matches!(
             (self.kind, self.side),
@@ -144,7 +144,7 @@ impl Measurement {
 }
 
 /// The floor actually used for a bound: the given one, or 1e-6 of the bound when it is zero
-/// (`bounds.md` §8.1). The flag is true when the replacement happened, so the caller can warn.
+/// (`docs/bounds.md` §8.1). The flag is true when the replacement happened, so the caller can warn.
 pub fn effective_floor_msun(bound_msun: f64, floor_msun: f64) -> (f64, bool) {
     if floor_msun > 0.0 {
         (floor_msun, false)
@@ -168,7 +168,7 @@ pub fn validate_floor(floor_msun: f64) -> Result<(), StatsError> {
 /// ln P that the object is consistent with its class's bound `bound_msun` carrying the Gaussian
 /// theory floor `floor_msun` (both the class's values; the object uses `scale` × each).
 ///
-/// Exact for symmetric and split-normal errors (the skew-normal closed form of `bounds.md`
+/// Exact for symmetric and split-normal errors (the skew-normal closed form of `docs/bounds.md`
 /// §8.1, with a log-space quadrature where the closed form would lose precision) and for
 /// limits. Uninformative limits give exactly 0 (P = 1). A floor ≤ 0 becomes 1e-6 of the bound.
 /// Accurate to about 1e-13 in ln P for P near 1 and to about 1e-12 relative for P ≪ 1.
@@ -191,7 +191,7 @@ pub fn ln_prob_consistent(m: &Measurement, bound_msun: f64, floor_msun: f64) -> 
     }
 }
 
-/// Tension in σ from ln P: z = −Φ⁻¹(P) (`bounds.md` §8.3), one-sided, positive when the object
+/// Tension in σ from ln P: z = −Φ⁻¹(P) (`docs/bounds.md` §8.3), one-sided, positive when the object
 /// sits on the wrong side of its bound. Exact in deep tails (Newton on ln Φ). P = 1 exactly
 /// (ln P = 0, e.g. an uninformative limit) gives −∞; callers should not print it as a number.
 pub fn tension_sigma(ln_p: f64) -> f64 {
@@ -641,7 +641,7 @@ fn ln_p_at_least(delta: f64, sm: f64, sp: f64, th: f64) -> f64 {
     ln_p_at_least_quadrature(delta, sm, sp, th)
 }
 
-/// The skew-normal closed form of `bounds.md` §8.1: P = Pr(M − ε ≥ B), its complement Q computed
+/// The skew-normal closed form of `docs/bounds.md` §8.1: P = Pr(M − ε ≥ B), its complement Q computed
 /// from the same four terms (not as 1 − P, so a tiny Q keeps its digits), and the sum of the
 /// magnitudes of P's terms (for the rounding-error estimate).
 ///
@@ -679,7 +679,7 @@ fn split_closed_form(delta: f64, sm: f64, sp: f64, th: f64) -> (f64, f64, f64) {
 ///   ln Q(z₊) + ln(1 + 2T̃/Q̃) with both functions scaled by e^{z₊²/2};
 /// * the lower half, L = Φ(z₋) − 2T(z₋, α₋), cancels; it equals 2[T(x, ∞) − T(x, α₋)] =
 ///   (1/π)∫_{α₋}^∞ e^{−x²(1+s²)/2}/(1+s²) ds with x = |z₋| (Owen 1956's integral form), which is
-///   evaluated by quadrature with the factor e^{−x²(1+α₋²)/2} taken out (`bounds.md` §8.1:
+///   evaluated by quadrature with the factor e^{−x²(1+α₋²)/2} taken out (`docs/bounds.md` §8.1:
 ///   "quadrature of the log-scaled integrand").
 ///
 /// Returns `None` when d ≤ 0 (never needed there for realistic widths).
@@ -737,7 +737,7 @@ fn ln_skew_normal_left_tail(x: f64, alpha: f64) -> f64 {
     -0.5 * x2 * (1.0 + alpha * alpha) - PI.ln() + j.ln()
 }
 
-/// ln Pr(M − ε ≥ B) by quadrature of log-scaled integrands (`bounds.md` §8.1 fallback).
+/// ln Pr(M − ε ≥ B) by quadrature of log-scaled integrands (`docs/bounds.md` §8.1 fallback).
 ///
 /// The split normal is a mixture of two half-normals, so P = w₊ A + w₋ L with
 /// A = Pr(σ₊|Z₁| + σ_th Z₂ ≥ d) and L = Pr(σ_th Z₂ − σ₋|Z₁| ≥ d), d = B − m. Each is a
@@ -976,7 +976,7 @@ mod tests {
         }
     }
 
-    /// Quadrature fallback and closed form agree where both are accurate (bounds.md §8.1 says
+    /// Quadrature fallback and closed form agree where both are accurate (docs/bounds.md §8.1 says
     /// both routes agree to 1e-12 in the reference).
     #[test]
     fn quadrature_matches_closed_form() {

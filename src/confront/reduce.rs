@@ -2,7 +2,7 @@
 //!
 //! Every object of a class depends on a grid point (Υ, τ) only through the class's one scalar
 //! bound B, so L_c(B) = Σ_i ln P_i(B) is tabulated once on N_B nodes and every grid point is a
-//! spline evaluation: no object × grid term (`theory/bounds.md` §8.5). Objects that cannot
+//! spline evaluation: no object × grid term (`docs/bounds.md` §8.5). Objects that cannot
 //! contribute over the tabulated range are skipped (their total effect is bounded and
 //! reported), objects too sharp for the node spacing are summed exactly, and the achieved
 //! interpolation error is measured against the exact sum at seeded pseudo-random B.
@@ -34,7 +34,7 @@ use super::prob::{
     StatsError,
 };
 
-/// Settings of the reduction; the defaults are those of `bounds.md` §8.5.
+/// Settings of the reduction; the defaults are those of `docs/bounds.md` §8.5.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ReduceOptions {
     /// Number of uniform tabulation nodes N_B (default 257).
@@ -252,7 +252,7 @@ impl ClassCurve {
         self.sharp.iter().map(|m| m.mass_msun / m.scale)
     }
 
-    /// Upper bound on |ln L| lost by skipping objects: N_skipped × ε_skip (`bounds.md` §8.5).
+    /// Upper bound on |ln L| lost by skipping objects: N_skipped × ε_skip (`docs/bounds.md` §8.5).
     pub fn skip_error_bound(&self) -> f64 {
         self.skipped.len() as f64 * self.eps_skip
     }
@@ -284,7 +284,7 @@ impl ClassCurve {
     }
 
     /// Positions (in the caller's slice) of the informative objects kept, ascending. These are
-    /// the N_inf of the Šidák test (`bounds.md` §8.4).
+    /// the N_inf of the Šidák test (`docs/bounds.md` §8.4).
     pub fn informative_indices(&self) -> &[usize] {
         &self.informative_indices
     }
@@ -295,7 +295,7 @@ impl ClassCurve {
     }
 
     /// True when the class floor was ≤ 0 and 1e-6 of the bound was used instead: the caller
-    /// must warn (`bounds.md` §8.1).
+    /// must warn (`docs/bounds.md` §8.1).
     pub fn floor_replaced(&self) -> bool {
         self.floor_replaced
     }
@@ -311,10 +311,10 @@ impl ClassCurve {
     }
 }
 
-/// Settings of the shared-floor variant (`bounds.md` §8.2).
+/// Settings of the shared-floor variant (`docs/bounds.md` §8.2).
 #[derive(Debug, Clone, PartialEq)]
 pub struct SharedFloorOptions {
-    /// Points of the uniform ε grid on [−`eps_max`, `eps_max`] (≥ 200, `bounds.md` §8.2;
+    /// Points of the uniform ε grid on [−`eps_max`, `eps_max`] (≥ 200, `docs/bounds.md` §8.2;
     /// default 401).
     pub n_eps: usize,
     /// Half-width of the ε grid in units of σ_th (default 8).
@@ -335,7 +335,7 @@ impl Default for SharedFloorOptions {
 }
 
 /// ℓ_B(B) = ln ∫ φ(ε) exp[Σ_c L⁰_c(B + σ_th ε)] dε: one theory error ε common to every object of
-/// every class that uses this bound (`bounds.md` §8.2, "shared"). L⁰_c are zero-floor class
+/// every class that uses this bound (`docs/bounds.md` §8.2, "shared"). L⁰_c are zero-floor class
 /// curves (a width of 1e-6 of the bound keeps them finite); the ε integral is a uniform
 /// trapezoid rule with log-sum-exp (adaptive Gauss–Kronrod with breakpoints when hard limits
 /// put steps into it), and the result is itself tabulated on the outer nodes. Leave-one-out
@@ -368,7 +368,8 @@ impl SharedFloorCurve {
         }
         if shared.n_eps < 200 || shared.eps_max.is_nan() || shared.eps_max <= 0.0 {
             return Err(StatsError::InvalidInput(
-                "the ε grid needs ≥ 200 points (bounds.md §8.2) and a positive half-width".into(),
+                "the ε grid needs ≥ 200 points (docs/bounds.md §8.2) and a positive half-width"
+                    .into(),
             ));
         }
         let (lo, hi) = check_range(bound_range_msun)?;

@@ -1,6 +1,6 @@
 //! Confidence regions and absolute consistency from a χ² surface over the (Υ, τ) grid.
 //!
-//! This module turns χ² = −2 ln L into what a report states (`theory/bounds.md` §8.4, §8.7): the
+//! This module turns χ² = −2 ln L into what a report states (`docs/bounds.md` §8.4, §8.7): the
 //! best grid point, the Δχ² thresholds, the bounding box of the region allowed at each level,
 //! the one-parameter interval in Υ on the τ = 0 slice (ends located on a finer sub-grid and by
 //! linear interpolation of the crossing; an end the slice does not close is open, never the grid
@@ -76,7 +76,7 @@ impl Level {
     }
 }
 
-/// Δχ² threshold at coverage `probability` for `dof` parameters (`bounds.md` §8.4 also lists
+/// Δχ² threshold at coverage `probability` for `dof` parameters (`docs/bounds.md` §8.4 also lists
 /// 90 / 95 / 99 %: 2.7055 / 3.8415 / 6.6349 for 1 dof, 4.6052 / 5.9915 / 9.2103 for 2 dof).
 /// 1 dof: [Φ⁻¹((1+p)/2)]²; 2 dof: −2 ln(1 − p); otherwise statrs's χ² quantile.
 pub fn dchi2_threshold(probability: f64, dof: u32) -> Result<f64, StatsError> {
@@ -314,7 +314,7 @@ pub fn interval_from_slice(
 }
 
 /// A coarse axis refined `factor` times: (n − 1)·factor + 1 points, the coarse nodes included
-/// exactly (the 10× Υ sub-grid of `bounds.md` §8.4).
+/// exactly (the 10× Υ sub-grid of `docs/bounds.md` §8.4).
 pub fn refine_axis(axis: &[f64], factor: usize) -> Result<Vec<f64>, StatsError> {
     if axis.len() < 2
         || factor == 0
@@ -351,7 +351,7 @@ pub struct UpsilonSlice {
     pub intervals: [Interval; 3],
 }
 
-/// The one-parameter Υ interval at τ = 0 (`bounds.md` §8.4): `chi2_at(Υ)` is evaluated on the
+/// The one-parameter Υ interval at τ = 0 (`docs/bounds.md` §8.4): `chi2_at(Υ)` is evaluated on the
 /// `axis` refined `refine` times (10 in the spec). The caller builds it from the class curves
 /// and the bounds interpolated along Υ, e.g. with [`crate::confront::reduce::CubicSpline`]:
 /// χ²(Υ) = −2 Σ_c L_c(B_c(Υ, 0)).
@@ -395,7 +395,7 @@ pub fn slice_from_values(
 }
 
 /// Šidák-corrected probability that the smallest of `n_informative` independent object
-/// probabilities is as small as `p_min`: p_cat = 1 − (1 − P_min)^N (`bounds.md` §8.4), computed
+/// probabilities is as small as `p_min`: p_cat = 1 − (1 − P_min)^N (`docs/bounds.md` §8.4), computed
 /// as −expm1(N ln(1 − P_min)) so that tiny values keep their digits. N = 0 gives 1.
 pub fn sidak_p(p_min: f64, n_informative: usize) -> f64 {
     if n_informative == 0 {
@@ -438,7 +438,7 @@ pub fn absolute_consistency(ln_p_at_best: &[(usize, f64)], n_worst: usize) -> Ab
     }
 }
 
-/// Settings of the crowding warning (`bounds.md` §8.7).
+/// Settings of the crowding warning (`docs/bounds.md` §8.7).
 #[derive(Debug, Clone, PartialEq)]
 pub struct CrowdingOptions {
     /// Warn when more than this many informative objects of *each* class are near (default 30).
@@ -493,7 +493,7 @@ pub fn crowding(
     }
 }
 
-/// The population-aware term of `bounds.md` §8.7: within a mass window [M_lo, M_hi] around the
+/// The population-aware term of `docs/bounds.md` §8.7: within a mass window [M_lo, M_hi] around the
 /// MMHB, flat true-mass densities on each side of the bound, profiled over the two densities,
 /// add −n_star ln(M_hi − B) − n_bd ln(B − M_lo) to ℓ (n counted inside the window). It removes
 /// the pull toward the sparser side when both classes crowd the bound; coverage at nominal

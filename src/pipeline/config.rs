@@ -162,7 +162,7 @@ pub struct StatisticsConfig {
     pub nuisance: String,
     /// Likelihood of the class labels: `auto` (default), `product` or `calibrated`.
     pub likelihood: String,
-    /// Add the population-aware term of bounds.md §8.7.
+    /// Add the population-aware term of docs/bounds.md §8.7.
     pub population_aware: bool,
     /// Its mass window [lo, hi] around the MMHB, M☉ (must contain every MMHB of the grid).
     pub population_window_msun: [f64; 2],

@@ -152,7 +152,7 @@ pub fn settings_from_config(
             if t.mmhb_floor_msun.is_some() {
                 return Err(bad(
                     "theory.mmhb_floor_msun",
-                    "the raw mode uses its model's documented floor (bounds.md §4); remove the key"
+                    "the raw mode uses its model's documented floor (docs/bounds.md §4); remove the key"
                         .into(),
                 ));
             }

@@ -280,7 +280,7 @@ pub(crate) fn write_report_files(
     }
     if n_young > 0 {
         warnings.push(Warning::Other(format!(
-            "{n_young} object(s) younger than {} Gyr left out of the MMHB test (bounds.md §5: they may not have reached steady burning, or may still be contracting); their tensions are listed in objects.csv",
+            "{n_young} object(s) younger than {} Gyr left out of the MMHB test (docs/bounds.md §5: they may not have reached steady burning, or may still be contracting); their tensions are listed in objects.csv",
             ctx.eopts.age_min_mmhb_gyr
         )));
     }
@@ -318,7 +318,7 @@ pub(crate) fn write_report_files(
         model: ModelDescription {
             structure: "Newtonian hydrostatic equilibrium with the beyond-Horndeski term G[M/r² + (Υ/4) d²M/dr²] inside matter (Kobayashi, Watanabe & Yamauchi 2015; Koyama & Sakstein 2015), polytropic Lane–Emden models (n = 3/2 for fully convective objects, n = 3 for the Chandrasekhar mass) and the zero-temperature Chandrasekhar equation of state for white-dwarf radii".into(),
             anisotropy_ansatz: format!(
-                "{} (τ is this ansatz's strength; see structure.md §2)",
+                "{} (τ is this ansatz's strength; see docs/structure.md §2)",
                 t.anisotropy.name()
             ),
             mmhb_model: match t.mmhb_model.name() {
@@ -328,7 +328,7 @@ pub(crate) fn write_report_files(
             mmhb_mode: mode.to_string(),
             mmhb_anchor: match t.mmhb_mode {
                 crate::theory::mmhb::MmhbMode::Anchored { anchor_msun, .. } => format!(
-                    "{anchor_msun} M☉ in standard gravity (evolutionary models, ≈ 0.072–0.075 M☉; from memory, bounds.md §4) times the analytic shift Φ(Υ, τ)"
+                    "{anchor_msun} M☉ in standard gravity (evolutionary models, ≈ 0.072–0.075 M☉; from memory, docs/bounds.md §4) times the analytic shift Φ(Υ, τ)"
                 ),
                 crate::theory::mmhb::MmhbMode::Raw => "none: the raw analytic value".into(),
             },
@@ -352,7 +352,7 @@ pub(crate) fn write_report_files(
                 },
                 match ctx.eopts.radius.model {
                     crate::confront::wd_radius::WdRadiusModel::Cold => format!(
-                        "white-dwarf radius {} % per object (choices, bounds.md §4 and structure.md §4.6)",
+                        "white-dwarf radius {} % per object (choices, docs/bounds.md §4 and docs/structure.md §4.6)",
                         100.0 * ctx.eopts.radius.cold_floor_fraction
                     ),
                     crate::confront::wd_radius::WdRadiusModel::Hot => format!(
@@ -392,7 +392,7 @@ pub(crate) fn write_report_files(
                     .collect::<Vec<_>>()
                     .join("; "),
                 match ctx.eopts.population_window_msun {
-                    Some((lo, hi)) => format!("; population-aware term of bounds.md §8.7 with the mass window [{lo}, {hi}] M☉ (flat true-mass densities on either side of the MMHB, profiled)"),
+                    Some((lo, hi)) => format!("; population-aware term of docs/bounds.md §8.7 with the mass window [{lo}, {hi}] M☉ (flat true-mass densities on either side of the MMHB, profiled)"),
                     None => String::new(),
                 }
             ),

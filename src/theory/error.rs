@@ -2,14 +2,14 @@
 //!
 //! Outside the physical range of (n, Υ, τ) no static star exists; the theory then returns a
 //! [`TheoryError`] that names the reason, and grids record it per point instead of a NaN
-//! (`structure.md` §1.3–1.4, §3.7). [`TheoryError::code`] gives a short, stable tag for tables.
+//! (`docs/structure.md` §1.3–1.4, §3.7). [`TheoryError::code`] gives a short, stable tag for tables.
 //!
 //! ```
 //! use dwarfbound::theory::error::TheoryError;
 //! use dwarfbound::theory::lane_emden::ModifiedLaneEmden;
 //! use dwarfbound::theory::Anisotropy;
 //!
-//! // Υ ≤ −2/3 leaves no regular centre (structure.md §1.4).
+//! // Υ ≤ −2/3 leaves no regular centre (docs/structure.md §1.4).
 //! let err = ModifiedLaneEmden::new(1.5, -0.7, 0.0, Anisotropy::None).unwrap_err();
 //! assert!(matches!(err, TheoryError::NoRegularCentre { .. }));
 //! assert_eq!(err.code(), "no-regular-centre");
@@ -35,7 +35,7 @@ pub enum TheoryError {
         upsilon_min: f64,
     },
     /// The denominator D = 1 + κπΥGρr²/c_s² of the explicit pressure gradient fell to ≤ 1e-9:
-    /// the gradient is undetermined and no regular solution passes (`structure.md` §1.3).
+    /// the gradient is undetermined and no regular solution passes (`docs/structure.md` §1.3).
     #[error("the structure equation's denominator vanishes (D = {d:.3e}) at ξ = {xi:.6}")]
     DenominatorVanishes {
         /// Dimensionless radius (ξ, or η for the white-dwarf EOS) where D vanished.
@@ -49,7 +49,7 @@ pub enum TheoryError {
         /// How far the integration got.
         xi_reached: f64,
     },
-    /// The polytropic index is outside what the equations support (`structure.md` §3.5.5).
+    /// The polytropic index is outside what the equations support (`docs/structure.md` §3.5.5).
     #[error("unsupported polytropic index n = {n}: {why}")]
     UnsupportedIndex {
         /// The index asked for.

@@ -13,8 +13,8 @@
 //!
 //! Shortcuts, each exact or measured:
 //! * gradient ansatz: only τ = 0 is solved (once per Υ column) and every τ follows from the
-//!   exact rescaling G → (1 − τ)G (`structure.md` §2.2, §3.7);
-//! * the Schönberg–Chandrasekhar fraction exists only at τ = 0 (`bounds.md` §7.2), so it is
+//!   exact rescaling G → (1 − τ)G (`docs/structure.md` §2.2, §3.7);
+//! * the Schönberg–Chandrasekhar fraction exists only at τ = 0 (`docs/bounds.md` §7.2), so it is
 //!   solved along the τ = 0 row alone and refused with its reason elsewhere;
 //! * white-dwarf tables are solved on a sub-grid of nodes and interpolated in between
 //!   ([`wd_grid`](super::wd_grid));

@@ -1,7 +1,7 @@
 //! The modified Lane–Emden problem: polytropes with partly broken Vainshtein screening (Υ) and
 //! pressure anisotropy (τ).
 //!
-//! One job: solve the first-order system of `structure.md` §3.2,
+//! One job: solve the first-order system of `docs/structure.md` §3.2,
 //!
 //!   θ′ = −p [μ + c ξ³ θⁿ] / { ξ² [1 + κ (nΥ/4) ξ² θ^{n−1}] },   μ′ = ξ² θⁿ,
 //!
@@ -9,7 +9,7 @@
 //! and (1 − τ, Υ/2, 1 − τ) for the gradient ansatz (b), from the central series (§3.3) to the
 //! surface θ = 0, reached by a change of variable near the surface or by a terminal event on
 //! the dense output plus one Newton step (§3.5; [`SurfaceMethod`]). Results are in the true-G
-//! length unit of `bounds.md` §1. Standard gravity (Υ = τ = 0) is the classical Lane–Emden
+//! length unit of `docs/bounds.md` §1. Standard gravity (Υ = τ = 0) is the classical Lane–Emden
 //! equation (Chandrasekhar 1939, Ch. IV).
 //!
 //! Speed (one solve is the unit of every grid): Dormand–Prince 8(5,3) ([`crate::theory::ode`]),
@@ -32,7 +32,7 @@ use crate::theory::ode::{self, OdeMethod, OdeOptions, Stop};
 use crate::theory::Anisotropy;
 
 /// The denominator D below which the structure equation is treated as singular
-/// (`structure.md` §1.3 and §3.5.4).
+/// (`docs/structure.md` §1.3 and §3.5.4).
 pub const DENOMINATOR_FLOOR: f64 = 1e-9;
 
 /// Relativistic existence bound Υ₁ > −4/9 of Babichev, Koyama, Langlois, Saito & Sakstein 2016
@@ -54,13 +54,13 @@ pub struct LaneEmdenOptions {
     /// Give up (`NoSurface`) if θ has not reached 0 by here.
     pub xi_max: f64,
     /// Exponents k of extra integrals J_k = ∫₀^{ξ1} ξ² θ^k dξ, integrated as extra state
-    /// components (at most [`MAX_EXTRA_INTEGRALS`]; `bounds.md` model A needs k = 9.73).
+    /// components (at most [`MAX_EXTRA_INTEGRALS`]; `docs/bounds.md` model A needs k = 9.73).
     pub extra_powers: Vec<f64>,
     /// How the surface θ = 0 is reached.
     pub surface: SurfaceMethod,
 }
 
-/// How the surface is located (`structure.md` §3.5.3; both agree to ≤ 1e-10).
+/// How the surface is located (`docs/structure.md` §3.5.3; both agree to ≤ 1e-10).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum SurfaceMethod {
     /// Integrate in ξ until θ changes sign, find the root on the dense output, then one Newton
@@ -80,7 +80,7 @@ pub enum SurfaceMethod {
 }
 
 impl Default for LaneEmdenOptions {
-    /// rtol 1e-12, atol 1e-14 (the reference tolerances of `structure.md` §3.5), ξ₀ = 1e-4,
+    /// rtol 1e-12, atol 1e-14 (the reference tolerances of `docs/structure.md` §3.5), ξ₀ = 1e-4,
     /// ξ_max = 1e6, no extra integrals, surface by [`SurfaceMethod::SqrtSwap`] at θ = 0.05.
     fn default() -> Self {
         Self {
@@ -165,12 +165,12 @@ pub struct LaneEmdenSolution {
     pub xi1: f64,
     /// ω_n = μ(ξ1), the mass integral.
     pub omega: f64,
-    /// −ξ1² θ′(ξ1⁻); equals ω only in the cases listed in `structure.md` §3.4.
+    /// −ξ1² θ′(ξ1⁻); equals ω only in the cases listed in `docs/structure.md` §3.4.
     pub surface_slope: f64,
     /// (k, J_k) for each requested extra integral, in the order asked.
     pub extra_integrals: Vec<(f64, f64)>,
     /// Warning, not an error: Υ is below the relativistic existence bound −4/9 of Babichev et
-    /// al. 2016 (theoretically disfavoured, `structure.md` §1.4).
+    /// al. 2016 (theoretically disfavoured, `docs/structure.md` §1.4).
     pub below_relativistic_bound: bool,
 }
 
@@ -181,7 +181,7 @@ impl LaneEmdenSolution {
     }
 
     /// N_n of K = N_n G M^{(n−1)/n} R^{(3−n)/n}: [(4π)^{1/n}/(n+1)] ξ1^{(n−3)/n} ω^{−(n−1)/n}
-    /// (`structure.md` §3.4). For n = 0 (incompressible: no K relation) it is +∞.
+    /// (`docs/structure.md` §3.4). For n = 0 (incompressible: no K relation) it is +∞.
     pub fn n_n(&self) -> f64 {
         let n = self.n;
         if n == 0.0 {
@@ -197,7 +197,7 @@ impl LaneEmdenSolution {
         self.xi1.powi(4) / (4.0 * std::f64::consts::PI * (self.n + 1.0) * self.omega.powi(2))
     }
 
-    /// γ = 1/N_n. For n = 3/2 this is (5ξ1/(8π))(4πω)^{1/3}, the γ of `bounds.md` §1 with
+    /// γ = 1/N_n. For n = 3/2 this is (5ξ1/(8π))(4πω)^{1/3}, the γ of `docs/bounds.md` §1 with
     /// R = γK/(G M^{1/3}).
     pub fn gamma(&self) -> f64 {
         1.0 / self.n_n()
@@ -212,7 +212,7 @@ impl LaneEmdenSolution {
     }
 
     /// The gradient-ansatz (b) solution at τ from this τ = 0 solution by the exact rescaling
-    /// G → (1 − τ)G of `structure.md` §2.2 (s = 1 − τ): ξ1/√s, ω/s^{3/2}, J_k/s^{3/2},
+    /// G → (1 − τ)G of `docs/structure.md` §2.2 (s = 1 − τ): ξ1/√s, ω/s^{3/2}, J_k/s^{3/2},
     /// −ξ1²θ′/√s. Refuses a solution that is not isotropic or τ ≥ 1.
     pub fn rescaled_to_gradient(&self, tau: f64) -> Result<LaneEmdenSolution, TheoryError> {
         if self.tau != 0.0 {
@@ -333,7 +333,7 @@ impl ModifiedLaneEmden {
             return Err(TheoryError::UnsupportedIndex {
                 n,
                 why: "0 < n < 1 is supported only for Υ = 0 (for Υ < 0 the denominator always \
-                      vanishes at the surface; structure.md §1.3, §3.5.5)",
+                      vanishes at the surface; docs/structure.md §1.3, §3.5.5)",
             });
         }
         let (p, c, kappa) = match anisotropy {
@@ -372,7 +372,7 @@ impl ModifiedLaneEmden {
         self.n
     }
 
-    /// (p, c, κ) of the table in `structure.md` §3.2.
+    /// (p, c, κ) of the table in `docs/structure.md` §3.2.
     pub fn coefficients(&self) -> (f64, f64, f64) {
         (self.p, self.c, self.kappa)
     }
@@ -770,7 +770,7 @@ mod tests {
 
     #[test]
     fn standard_n3_matches_measured_reference() {
-        // ξ1 = 6.89684861937696 for n = 3 (../shared/DEPENDENCIES.md; Chandrasekhar 1939
+        // ξ1 = 6.89684861937696 for n = 3 (Chandrasekhar 1939
         // Table 4 prints 6.89685).
         let s = solve_lane_emden(3.0, 0.0, 0.0, Anisotropy::None).unwrap();
         assert!((s.xi1 / 6.89684861937696 - 1.0).abs() < 1e-10, "{}", s.xi1);

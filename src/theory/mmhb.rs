@@ -1,5 +1,5 @@
 //! Minimum hydrogen-burning mass (MMHB) of a fully convective n = 3/2 polytrope, in two models,
-//! and the anchored bound that confronts catalogues (`theory/bounds.md` §2–§4).
+//! and the anchored bound that confronts catalogues (`docs/bounds.md` §2–§4).
 //!
 //! The modified gravity (Υ) and the anisotropy (τ) reach the MMHB only through three Lane–Emden
 //! constants of the n = 3/2 polytrope: ξ1, ω and J_k = ∫ξ²θ^k dξ. They come in as a plain
@@ -101,13 +101,13 @@ fn msun_g() -> f64 {
 }
 
 /// The degenerate-electron pressure constant C_P = (3π²)^{2/3} ħ² / (5 m_e m_H^{5/3}), cgs
-/// (`bounds.md` §2.2 step 1; 9.906181×10¹², which Burrows & Liebert round to 10¹³).
+/// (`docs/bounds.md` §2.2 step 1; 9.906181×10¹², which Burrows & Liebert round to 10¹³).
 pub fn degenerate_pressure_constant_cgs() -> f64 {
     (3.0 * PI * PI).powf(2.0 / 3.0) * hbar_cgs().powi(2) / (5.0 * m_e_g() * M_H_G.powf(5.0 / 3.0))
 }
 
 /// The Lane–Emden constants of the n = 3/2 polytrope that the MMHB consumes, in the true-G
-/// convention of `bounds.md` §1 (an effective rescaling of G is absorbed into them).
+/// convention of `docs/bounds.md` §1 (an effective rescaling of G is absorbed into them).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct PolytropeConstants {
     /// First zero of θ.
@@ -123,7 +123,7 @@ pub struct PolytropeConstants {
 impl PolytropeConstants {
     /// Standard-gravity (Υ = τ = 0) constants at the default k = 9.73: ξ1 = 3.6537537362,
     /// ω = 2.7140551201 (Chandrasekhar 1939 / Horedt 2004 tables: 3.65375, 2.71406, verified in
-    /// `bounds.md` §1), J_9.73 = 0.2096067060 (computed there). For tests and examples; a grid
+    /// `docs/bounds.md` §1), J_9.73 = 0.2096067060 (computed there). For tests and examples; a grid
     /// should take its reference from the same solver as its other points.
     pub fn standard_n15_default_k() -> Self {
         PolytropeConstants {
@@ -215,7 +215,7 @@ fn validate_x(x: f64) -> Result<(), BoundError> {
     Ok(())
 }
 
-/// Parameters of model A with the defaults of `bounds.md` §2.1. The pp exponents and ε₀ follow
+/// Parameters of model A with the defaults of `docs/bounds.md` §2.1. The pp exponents and ε₀ follow
 /// Burrows & Liebert 1993 (from memory); a, ν, b₁, κ_R are the photospheric fit as recalled there.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ModelAParams {
@@ -236,7 +236,7 @@ pub struct ModelAParams {
     /// Rosseland mean opacity at the photosphere, cm² g⁻¹ (default 0.01, from memory).
     pub kappa_r_cm2_g: f64,
     /// Molecular weight turning photospheric pressure into density; `None` means μ of the
-    /// composition (the default, a choice of `bounds.md` §2.1).
+    /// composition (the default, a choice of `docs/bounds.md` §2.1).
     pub mu_photosphere: Option<f64>,
 }
 
@@ -256,7 +256,7 @@ impl Default for ModelAParams {
     }
 }
 
-/// The exact exponents of model A (`bounds.md` §2.3). M_A ∝ γ^{E/p} δ^{−D/p} (ω/J_k)^{1/p}.
+/// The exact exponents of model A (`docs/bounds.md` §2.3). M_A ∝ γ^{E/p} δ^{−D/p} (ω/J_k)^{1/p}.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ModelAExponents {
     /// q = (2 − 6a)/(1 + a).
@@ -385,9 +385,9 @@ impl ModelAParams {
     }
 
     /// The state of the model at mass `mass_msun` and degeneracy `psi` (steps 1–8 of
-    /// `bounds.md` §2.2). `photosphere_g_factor` multiplies the surface gravity of step 6
+    /// `docs/bounds.md` §2.2). `photosphere_g_factor` multiplies the surface gravity of step 6
     /// (1 = exterior gravity GM/R², the default; an anisotropy that reaches the photosphere, such
-    /// as the gradient ansatz, may pass its effective factor, `bounds.md` §2.6).
+    /// as the gradient ansatz, may pass its effective factor, `docs/bounds.md` §2.6).
     pub fn state(
         &self,
         le: &PolytropeConstants,
@@ -430,9 +430,9 @@ impl ModelAParams {
 }
 
 /// The factor by which an anisotropy ansatz rescales gravity at the photosphere, for the
-/// optional photospheric-gravity scaling of model A (`bounds.md` §2.6): 1 − τ for the gradient
+/// optional photospheric-gravity scaling of model A (`docs/bounds.md` §2.6): 1 − τ for the gradient
 /// ansatz (b), an exact G → (1 − τ)G everywhere inside matter; 1 for the density-squared ansatz
-/// (a), whose anisotropy vanishes at the surface (`structure.md` §2.1), and for isotropy.
+/// (a), whose anisotropy vanishes at the surface (`docs/structure.md` §2.1), and for isotropy.
 /// Pass it to [`model_a`] / [`evaluate`] only when the user asks for the scaled photosphere;
 /// the default is exterior gravity (factor 1).
 pub fn anisotropy_photosphere_g_factor(anisotropy: Anisotropy, tau: f64) -> f64 {
@@ -506,7 +506,7 @@ fn finite_result(what: &str, v: f64) -> Result<f64, BoundError> {
     }
 }
 
-/// Model A by its closed form (`bounds.md` §2.3): ψ* from the exponents, then
+/// Model A by its closed form (`docs/bounds.md` §2.3): ψ* from the exponents, then
 /// MMHB = [L_e(M☉, ψ*)/L_HB(M☉, ψ*)]^{1/p} M☉.
 pub fn model_a(
     le: &PolytropeConstants,
@@ -528,7 +528,7 @@ pub fn model_a(
     })
 }
 
-/// Model A by the numeric route of `bounds.md` §2.2 step 9, kept as a cross-check of
+/// Model A by the numeric route of `docs/bounds.md` §2.2 step 9, kept as a cross-check of
 /// [`model_a`]: for each ψ, root-find ln L_HB − ln L_e in ln M; then a bounded Brent
 /// minimisation of M(ψ) over ln ψ ∈ [ln 10⁻⁴, 0]. Agrees with the closed form to ≲ 1e-12.
 pub fn model_a_numeric(
@@ -593,7 +593,7 @@ pub fn model_a_numeric(
     })
 }
 
-/// Φ_A = MMHB_A(Υ,τ)/MMHB_A(0,0) from the exact exponents (`bounds.md` §2.4):
+/// Φ_A = MMHB_A(Υ,τ)/MMHB_A(0,0) from the exact exponents (`docs/bounds.md` §2.4):
 /// (γ/γ₀)^{E/p} (δ/δ₀)^{−D/p} [(ω/J_k)/(ω₀/J_k,0)]^{1/p} × g_factor^{4a/((1+a)p)}.
 /// `reference` holds the Υ = τ = 0 constants (always with exterior gravity). Independent of
 /// ε₀, b₁, κ_R, ν and μ_ph.
@@ -615,7 +615,7 @@ pub fn phi_a(
     finite_result("Phi_A", phi)
 }
 
-/// Parameters of model B (`bounds.md` §3).
+/// Parameters of model B (`docs/bounds.md` §3).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ModelBParams {
     /// Hydrogen mass fraction X (default 0.75).
@@ -662,7 +662,7 @@ pub struct ModelBResult {
     pub psi_peak: f64,
 }
 
-/// Model B: the mass whose peak central temperature equals T_ign (`bounds.md` §3). C_T uses
+/// Model B: the mass whose peak central temperature equals T_ign (`docs/bounds.md` §3). C_T uses
 /// steps 1–4 of §2.2 at M = M☉, ψ = 1/α. Needs only ξ1 and ω of `le` (J_k is not used).
 pub fn model_b(le: &PolytropeConstants, params: &ModelBParams) -> Result<ModelBResult, BoundError> {
     params.validate()?;
@@ -699,7 +699,7 @@ pub fn model_b(le: &PolytropeConstants, params: &ModelBParams) -> Result<ModelBR
     })
 }
 
-/// Φ_B = MMHB_B(Υ,τ)/MMHB_B(0,0); identically ω/ω₀ (`bounds.md` §3).
+/// Φ_B = MMHB_B(Υ,τ)/MMHB_B(0,0); identically ω/ω₀ (`docs/bounds.md` §3).
 pub fn phi_b(le: &PolytropeConstants, reference: &PolytropeConstants) -> Result<f64, BoundError> {
     let p = ModelBParams::default();
     finite_result(
@@ -728,7 +728,7 @@ impl MmhbModel {
         }
     }
 
-    /// The recommended 1σ theory floor of the raw (unanchored) model, M☉ (`bounds.md` §4):
+    /// The recommended 1σ theory floor of the raw (unanchored) model, M☉ (`docs/bounds.md` §4):
     /// 0.012 for model A (spread of surface treatments and the 8 % offset from Olmo et al. 2019),
     /// 0.014 for model B (T_ign between 2.5 and 3.5 ×10⁶ K).
     pub fn raw_floor_msun(self) -> f64 {
@@ -764,14 +764,14 @@ impl FromStr for MmhbModel {
 
 /// Default standard-gravity MMHB of the anchored mode, M☉. Detailed evolutionary models put the
 /// limit at ≈ 0.072–0.075 M☉ for solar metallicity (Chabrier & Baraffe 1997: ≈ 0.072; Chabrier
-/// et al. 2023: ≈ 0.075 — both from memory, as recorded in `bounds.md` §4).
+/// et al. 2023: ≈ 0.075 — both from memory, as recorded in `docs/bounds.md` §4).
 pub const DEFAULT_ANCHOR_MSUN: f64 = 0.075;
 /// Default 1σ theory floor of the anchored mode, M☉: spread of the evolutionary-model values
-/// (≈ 0.070–0.080) and of metallicity (`bounds.md` §4; a choice, not a published number).
+/// (≈ 0.070–0.080) and of metallicity (`docs/bounds.md` §4; a choice, not a published number).
 pub const DEFAULT_ANCHORED_FLOOR_MSUN: f64 = 0.005;
-/// 1σ floor of raw model A, M☉ (`bounds.md` §4; a choice).
+/// 1σ floor of raw model A, M☉ (`docs/bounds.md` §4; a choice).
 pub const RAW_FLOOR_MODEL_A_MSUN: f64 = 0.012;
-/// 1σ floor of raw model B, M☉ (`bounds.md` §4; a choice).
+/// 1σ floor of raw model B, M☉ (`docs/bounds.md` §4; a choice).
 pub const RAW_FLOOR_MODEL_B_MSUN: f64 = 0.014;
 
 /// How the MMHB bound is built from the analytic model.
@@ -820,7 +820,7 @@ pub struct MmhbConfig {
     /// Parameters of model B.
     pub model_b: ModelBParams,
     /// Add the model difference |Φ_A − Φ_B| × (anchor, or the raw standard-gravity value) to the
-    /// floor in quadrature (optional in `bounds.md` §4, for Υ far from zero; default off).
+    /// floor in quadrature (optional in `docs/bounds.md` §4, for Υ far from zero; default off).
     pub model_difference_in_floor: bool,
 }
 
@@ -851,7 +851,7 @@ pub struct MmhbBound {
 /// The MMHB bound at one grid point. `le` and `reference` are the n = 3/2 constants at (Υ, τ)
 /// and at Υ = τ = 0 (from the same solver, so that its errors cancel in Φ);
 /// `photosphere_g_factor` is 1 for exterior gravity, or the effective factor of an anisotropy
-/// that reaches the photosphere when the user asks for it (model A only, `bounds.md` §2.6).
+/// that reaches the photosphere when the user asks for it (model A only, `docs/bounds.md` §2.6).
 pub fn evaluate(
     config: &MmhbConfig,
     le: &PolytropeConstants,

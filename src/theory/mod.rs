@@ -1,6 +1,6 @@
 //! The theory: modified stellar structure and the bounds it predicts over a (Υ, τ) grid.
 //!
-//! Specified in `../shared/theory/structure.md` and `../shared/theory/bounds.md`. This module
+//! Specified in `docs/structure.md` and `docs/bounds.md`. This module
 //! knows nothing of catalogues: it maps parameters to bounds (minimum hydrogen-burning mass,
 //! Chandrasekhar mass, white-dwarf mass–radius relation, break-up period, Schönberg–Chandrasekhar
 //! fraction), with typed errors where no star exists.
@@ -26,7 +26,7 @@ pub mod white_dwarf;
 use serde::{Deserialize, Serialize};
 use std::str::FromStr;
 
-/// The pressure-anisotropy ansatz that τ parametrises (`theory/structure.md` §2).
+/// The pressure-anisotropy ansatz that τ parametrises (`docs/structure.md` §2).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Anisotropy {

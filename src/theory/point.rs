@@ -5,7 +5,7 @@
 //! Φ), the Chandrasekhar mass, the Schönberg–Chandrasekhar fraction, the break-up period of a
 //! stated reference object, warnings, and (on request) the white-dwarf mass–radius table.
 //! Each bound is an [`Outcome`]: its value, or the typed reason why there is no model there —
-//! never a NaN, never dropped (`structure.md` §3.7). The physics lives in the sibling modules
+//! never a NaN, never dropped (`docs/structure.md` §3.7). The physics lives in the sibling modules
 //! ([`lane_emden`](super::lane_emden), [`mmhb`](super::mmhb), [`white_dwarf`](super::white_dwarf),
 //! [`rotation`](super::rotation), [`schonberg`](super::schonberg)); this module only wires them
 //! together. The settings and their defaults live in [`settings`](super::settings), the
@@ -15,9 +15,9 @@
 //! use dwarfbound::theory::point::{standard_point, TheorySettings};
 //!
 //! let p = standard_point(&TheorySettings::default()).unwrap();
-//! // Anchored MMHB in standard gravity is the anchor itself (bounds.md §4).
+//! // Anchored MMHB in standard gravity is the anchor itself (docs/bounds.md §4).
 //! assert_eq!(p.mmhb.ok().unwrap().value_msun, 0.075);
-//! // Chandrasekhar 1939 / structure.md §4.1: 5.82519/μ_e² M☉ for μ_e = 2.
+//! // Chandrasekhar 1939 / docs/structure.md §4.1: 5.82519/μ_e² M☉ for μ_e = 2.
 //! assert!((p.chandrasekhar.ok().unwrap().newtonian_mu_e2_msun - 1.456298).abs() < 1e-6);
 //! ```
 
@@ -47,7 +47,7 @@ pub use crate::theory::settings::{
 /// to any other μ_e with (2/μ_e)².
 pub const CHANDRASEKHAR_REPORT_MU_E: f64 = 2.0;
 
-/// Modified Lane–Emden constants at one point, in the true-G units of `bounds.md` §1.
+/// Modified Lane–Emden constants at one point, in the true-G units of `docs/bounds.md` §1.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct LaneEmdenConstants {
     /// First zero of θ.
@@ -80,7 +80,7 @@ impl LaneEmdenConstants {
     }
 }
 
-/// The MMHB at one point (`bounds.md` §2–§4).
+/// The MMHB at one point (`docs/bounds.md` §2–§4).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct MmhbValues {
     /// The bound used against data (anchored or raw), M☉.
@@ -101,7 +101,7 @@ pub struct MmhbValues {
     pub photosphere_g_factor: f64,
 }
 
-/// The Chandrasekhar mass at one point (`structure.md` §4.1, §4.6), for μ_e = 2; scale to any
+/// The Chandrasekhar mass at one point (`docs/structure.md` §4.1, §4.6), for μ_e = 2; scale to any
 /// μ_e with (2/μ_e)², exactly.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ChandrasekharValues {
@@ -115,7 +115,7 @@ pub struct ChandrasekharValues {
     pub floor_msun: f64,
 }
 
-/// The Schönberg–Chandrasekhar fraction at one point (`bounds.md` §7; τ = 0 only).
+/// The Schönberg–Chandrasekhar fraction at one point (`docs/bounds.md` §7; τ = 0 only).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ScValues {
     /// q_SC(Υ) = coefficient × λ² × ratio.
@@ -128,7 +128,7 @@ pub struct ScValues {
     pub interpolated: bool,
 }
 
-/// The break-up period of the reference object (`structure.md` §5).
+/// The break-up period of the reference object (`docs/structure.md` §5).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct BreakupValues {
     /// Shortest rotation period, hours.
@@ -163,11 +163,11 @@ pub enum Warning {
     BelowRelativisticBound,
     /// The Chandrasekhar mass is Newtonian order: towards M_Ch, GM/(Rc²) grows without bound and
     /// post-Newtonian physics (stronger in this theory class) lowers the real maximum
-    /// (`structure.md` §4.5).
+    /// (`docs/structure.md` §4.5).
     PostNewtonianChandrasekhar,
     /// Gradient ansatz with τ ≠ 0 and exterior photospheric gravity: the anisotropy of this
     /// ansatz persists up to the photosphere, which model A and the break-up balance ignore
-    /// (`bounds.md` §2.6, `structure.md` §5.3).
+    /// (`docs/bounds.md` §2.6, `docs/structure.md` §5.3).
     GradientAnisotropyInAtmosphere,
 }
 
@@ -342,7 +342,7 @@ impl PointEvaluator {
     }
 
     /// Solves both Lane–Emden problems at (Υ, τ). For the gradient ansatz only τ = 0 is solved
-    /// and τ follows by the exact rescaling G → (1 − τ)G (`structure.md` §2.2).
+    /// and τ follows by the exact rescaling G → (1 − τ)G (`docs/structure.md` §2.2).
     pub fn lane_emden(&self, upsilon: f64, tau: f64) -> LaneEmdenPair {
         if self.settings.anisotropy == Anisotropy::Gradient {
             let base = self.lane_emden_tau0(upsilon);
@@ -469,7 +469,7 @@ impl PointEvaluator {
         let m_target = r.mass_msun / mass_unit_msun(mu_e);
         let (eos, m_eos, scale_eta, omega_0) = match self.settings.anisotropy {
             Anisotropy::Gradient => {
-                // R_b(M) = R_0(M s^{3/2})/√s (structure.md §2.2).
+                // R_b(M) = R_0(M s^{3/2})/√s (docs/structure.md §2.2).
                 let s = 1.0 - tau;
                 if s.is_nan() || s <= 0.0 {
                     return Err(TheoryError::InvalidParameter {
@@ -653,7 +653,7 @@ impl PointEvaluator {
 
 /// The n = 3/2 polytrope radius η = (ξ1/2)(ω/m)^{1/3} in white-dwarf units for dimensionless
 /// mass m: the low-density limit of the full EOS, u ≈ x²/2, where the structure equations of
-/// `structure.md` §4.3 become the n = 3/2 Lane–Emden system with u = u_c θ and
+/// `docs/structure.md` §4.3 become the n = 3/2 Lane–Emden system with u = u_c θ and
 /// η = 2^{−3/4}u_c^{−1/4}ξ, m = 2^{−3/4}u_c^{3/4}ω.
 pub fn polytrope_radius_dimless(m: f64, xi1: f64, omega: f64) -> f64 {
     0.5 * xi1 * (omega / m).cbrt()
@@ -739,7 +739,7 @@ mod tests {
 
     #[test]
     fn polytrope_start_matches_low_density_full_eos() {
-        // structure.md §4.4: at low x_c the full EOS is an n = 3/2 polytrope (to ~x_c²).
+        // docs/structure.md §4.4: at low x_c the full EOS is an n = 3/2 polytrope (to ~x_c²).
         let eos = ChandrasekharEos::new(0.0, 0.0, Anisotropy::None).unwrap();
         let model = eos.model(1e-3).unwrap();
         let eta = polytrope_radius_dimless(model.mass_dimless, 3.6537537362, 2.7140551201);

@@ -1,10 +1,10 @@
 //! The break-up (mass-shedding) spin period: the shortest rotation period a star of given mass
 //! and non-rotating radius can have.
 //!
-//! One job: P_min = 2π κ √(R³/(GM)) (`structure.md` §5) with GM = (M/M☉)(GM)☉ (IAU 2015
+//! One job: P_min = 2π κ √(R³/(GM)) (`docs/structure.md` §5) with GM = (M/M☉)(GM)☉ (IAU 2015
 //! Resolution B3; known far better than G). κ = (3/2)^{3/2} in the Roche model (rigid
 //! rotation, point-mass gravity, equatorial radius 3/2 of the polar one at shedding);
-//! κ = 1.8911 for an n = 3/2 polytrope from the self-consistent-field models of `structure.md`
+//! κ = 1.8911 for an n = 3/2 polytrope from the self-consistent-field models of `docs/structure.md`
 //! §5.2 (computed there with the method of Hachisu 1986, ApJS 61, 479; mass-matched basis).
 //! Υ and τ enter only through R(M): the exterior is screened and the break-up condition is
 //! unmodified (§5.3).
@@ -12,7 +12,7 @@
 //! ```
 //! use dwarfbound::theory::rotation::{breakup_period_s, BreakupModel};
 //!
-//! // 0.07 M☉ with a Jupiter radius: 38.15 min in the Roche model (structure.md §5.4).
+//! // 0.07 M☉ with a Jupiter radius: 38.15 min in the Roche model (docs/structure.md §5.4).
 //! let p_min = breakup_period_s(0.07, 7.1492e7 / 6.957e8, BreakupModel::Roche).unwrap() / 60.0;
 //! assert!((p_min - 38.15).abs() < 0.01);
 //! ```
@@ -20,12 +20,12 @@
 use crate::constants::{GM_SUN_NOMINAL_M3_S2, R_SUN_NOMINAL_M};
 use crate::theory::error::TheoryError;
 
-/// Equatorial over polar radius of a Roche-model star at break-up: 3/2 (`structure.md` §5.1,
+/// Equatorial over polar radius of a Roche-model star at break-up: 3/2 (`docs/structure.md` §5.1,
 /// from GM/R_eq² = Ω²R_eq on the equipotential through the pole).
 pub const ROCHE_EQUATORIAL_TO_POLAR: f64 = 1.5;
 
 /// κ of the self-consistent-field n = 3/2 polytrope at mass shedding, mass-matched
-/// (`structure.md` §5.2 table, 1.8911, computed there; quoted as 1.891 in its prose; ±3 %
+/// (`docs/structure.md` §5.2 table, 1.8911, computed there; quoted as 1.891 in its prose; ±3 %
 /// systematic).
 pub const KAPPA_SCF_N32: f64 = 1.8911;
 
@@ -53,7 +53,7 @@ impl BreakupModel {
 
 /// Break-up period in seconds for a star of `mass_msun` whose non-rotating radius is
 /// `radius_rsun`. For the gradient ansatz with the anisotropy assumed to persist in the
-/// atmosphere (`structure.md` §5.3), pass (1 − τ)·M: P depends on GM only.
+/// atmosphere (`docs/structure.md` §5.3), pass (1 − τ)·M: P depends on GM only.
 pub fn breakup_period_s(
     mass_msun: f64,
     radius_rsun: f64,

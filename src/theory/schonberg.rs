@@ -40,7 +40,7 @@ const RTOL: f64 = 1e-12;
 /// Start of the core integration (central series below it).
 const ZETA0: f64 = 1e-4;
 /// Smallest allowed denominator 1 + (Υ/4)ζ²e^{−φ} (or its envelope analogue) before the
-/// pressure gradient is declared undetermined (`structure.md` §1.3).
+/// pressure gradient is declared undetermined (`docs/structure.md` §1.3).
 const D_MIN: f64 = 1e-9;
 
 fn invalid(reason: impl Into<String>) -> BoundError {
@@ -59,7 +59,7 @@ fn ode_failure<E: std::fmt::Display>(what: &str, e: OdeError<E>) -> BoundError {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case")]
 pub enum InterfaceCondition {
-    /// P̃ = P + (πGΥ/2) r² ρ² continuous (with T): the correct condition (`bounds.md` §7.2).
+    /// P̃ = P + (πGΥ/2) r² ρ² continuous (with T): the correct condition (`docs/bounds.md` §7.2).
     #[default]
     ContinuousPTilde,
     /// P continuous, the jump term ignored: wrong for Υ ≠ 0, kept only as a diagnostic.
@@ -209,7 +209,7 @@ fn bonnor_ebert_of(core: &Core) -> Result<BonnorEbert, BoundError> {
     })
 }
 
-/// The core mass fraction q = μ_f/μ₁ of the fit with the core cut at ζ_f (`bounds.md` §7.1 steps 1–4).
+/// The core mass fraction q = μ_f/μ₁ of the fit with the core cut at ζ_f (`docs/bounds.md` §7.1 steps 1–4).
 fn q_at(
     lambda: f64,
     core: &Core,
@@ -267,7 +267,7 @@ fn q_at(
             reason: format!("envelope has no surface (zeta_f = {zeta_f})"),
         });
     }
-    // One Newton step on the root found on the dense output (`structure.md` §3.5, n ≥ 1).
+    // One Newton step on the root found on the dense output (`docs/structure.md` §3.5, n ≥ 1).
     let dy = envelope.derivatives(sol.x, sol.y[0], sol.y[1])?;
     let dxi = if dy[0] != 0.0 { -sol.y[0] / dy[0] } else { 0.0 };
     let mu1 = sol.y[1] + dy[1] * dxi;
@@ -305,7 +305,7 @@ fn validate_fit_inputs(lambda: f64, n_env: f64) -> Result<(), BoundError> {
 }
 
 /// The maximum over ζ_f of the core mass fraction q = μ_f/μ₁ of an isothermal core (Υ-modified)
-/// fitted to a polytropic envelope of index `n_env` (`bounds.md` §7.1–7.2). The maximum is
+/// fitted to a polytropic envelope of index `n_env` (`docs/bounds.md` §7.1–7.2). The maximum is
 /// bracketed on a log-spaced scan of ζ_f ∈ [0.5, 60] and refined by Brent's method.
 pub fn core_envelope_fit(
     lambda: f64,
@@ -425,7 +425,7 @@ pub enum ScVariant {
     #[default]
     FullFit,
     /// √(C_BE(Υ)/C_BE(0)) from the core alone; the difference to the full fit is the SC theory
-    /// uncertainty (`bounds.md` §7.2).
+    /// uncertainty (`docs/bounds.md` §7.2).
     CoreFactorOnly,
 }
 

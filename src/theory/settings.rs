@@ -28,10 +28,10 @@ use crate::theory::white_dwarf::WdTableOptions;
 use crate::theory::Anisotropy;
 
 /// Default Chandrasekhar-mass theory floor, M☉: a choice sized to the few-per-cent gap between
-/// the Newtonian M_Ch and realistic maximum masses (`structure.md` §4.6, item 7 of §7).
+/// the Newtonian M_Ch and realistic maximum masses (`docs/structure.md` §4.6, item 7 of §7).
 pub const DEFAULT_CHANDRASEKHAR_FLOOR_MSUN: f64 = 0.03;
 
-/// Default fractional theory floor on white-dwarf radii: a choice (`structure.md` §4.6).
+/// Default fractional theory floor on white-dwarf radii: a choice (`docs/structure.md` §4.6).
 pub const DEFAULT_WD_RADIUS_FLOOR_FRACTION: f64 = 0.03;
 
 /// Settings were inconsistent or outside their domain.
@@ -46,7 +46,7 @@ pub struct SettingsError {
     pub why: &'static str,
 }
 
-/// How the Chandrasekhar mass used against data is built (`structure.md` §4.6).
+/// How the Chandrasekhar mass used against data is built (`docs/structure.md` §4.6).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case", tag = "mode")]
 pub enum ChandrasekharMode {
@@ -72,12 +72,12 @@ impl ChandrasekharMode {
     }
 }
 
-/// Which surface gravity model A's photosphere feels (`bounds.md` §2.6).
+/// Which surface gravity model A's photosphere feels (`docs/bounds.md` §2.6).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case")]
 pub enum PhotosphereGravity {
     /// The exterior GM/R²: right for the density-squared ansatz, whose anisotropy vanishes in
-    /// the atmosphere. The default (`bounds.md` §2.6, `structure.md` §5.3).
+    /// the atmosphere. The default (`docs/bounds.md` §2.6, `docs/structure.md` §5.3).
     #[default]
     Exterior,
     /// (1 − τ)GM/R² for the gradient ansatz, whose anisotropy persists up to the photosphere;
@@ -85,7 +85,7 @@ pub enum PhotosphereGravity {
     ScaledByAnisotropy,
 }
 
-/// The object whose break-up period is reported at every point (`structure.md` §5.4): by
+/// The object whose break-up period is reported at every point (`docs/structure.md` §5.4): by
 /// default the most compact object at the hydrogen-burning boundary, a cold, fully degenerate
 /// 0.08 M☉ body of hydrogen mass fraction 0.75 (μ_e = 8/7) on the zero-temperature
 /// Chandrasekhar EOS (no ion pressure, no Coulomb term), in the Roche model: 22.3 min in
@@ -143,7 +143,7 @@ pub struct Numerics {
     /// Υ ∈ [−0.66, 0.6], τ ∈ [−0.3, 0.3].
     pub lane_emden_rtol: f64,
     /// Where the Lane–Emden central series hands over to the integrator (default 1e-4, the
-    /// ξ₀ of `structure.md` §3.3).
+    /// ξ₀ of `docs/structure.md` §3.3).
     pub lane_emden_xi_start: f64,
     /// Relative tolerance of each full-EOS white-dwarf model (tables and the break-up reference;
     /// default 1e-10).
@@ -187,34 +187,34 @@ impl Default for Numerics {
 }
 
 /// Everything that selects the theory's bounds, the same at every grid point. Defaults follow
-/// `structure.md` and `bounds.md`; each is documented on its field. The MMHB model-A constants
+/// `docs/structure.md` and `docs/bounds.md`; each is documented on its field. The MMHB model-A constants
 /// other than X (pp exponents, ε₀, photospheric fit) are those of [`ModelAParams::default`].
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct TheorySettings {
-    /// The anisotropy ansatz τ parametrises (default density-squared, `CONVENTIONS.md`).
+    /// The anisotropy ansatz τ parametrises (default density-squared, the README).
     pub anisotropy: Anisotropy,
     /// MMHB model: luminosity balance (model A, the default) or ignition temperature (model B).
     pub mmhb_model: MmhbModel,
-    /// MMHB mode: anchored (default, anchor 0.075 M☉, floor 0.005 M☉) or raw (`bounds.md` §4).
+    /// MMHB mode: anchored (default, anchor 0.075 M☉, floor 0.005 M☉) or raw (`docs/bounds.md` §4).
     pub mmhb_mode: MmhbMode,
-    /// Add |Φ_A − Φ_B| × scale to the MMHB floor in quadrature (default off, `bounds.md` §4).
+    /// Add |Φ_A − Φ_B| × scale to the MMHB floor in quadrature (default off, `docs/bounds.md` §4).
     pub mmhb_model_difference_in_floor: bool,
-    /// Surface gravity of model A's photosphere (default exterior, `bounds.md` §2.6).
+    /// Surface gravity of model A's photosphere (default exterior, `docs/bounds.md` §2.6).
     pub photosphere_gravity: PhotosphereGravity,
     /// Hydrogen mass fraction X of the MMHB models (default 0.75, Z = 0); μ_e = 2/(1+X) and
-    /// μ = 4/(3+5X) follow (`bounds.md` §2.1).
+    /// μ = 4/(3+5X) follow (`docs/bounds.md` §2.1).
     pub hydrogen_mass_fraction: f64,
     /// Ignition temperature of model B, K (default 3×10⁶ K, the conventional value).
     pub ignition_temperature_k: f64,
-    /// Newtonian (default) or anchored Chandrasekhar mass (`structure.md` §4.6).
+    /// Newtonian (default) or anchored Chandrasekhar mass (`docs/structure.md` §4.6).
     pub chandrasekhar_mode: ChandrasekharMode,
     /// 1σ theory floor of the Chandrasekhar mass, M☉ (default 0.03, a choice; §4.6).
     pub chandrasekhar_floor_msun: f64,
     /// Fractional 1σ floor on white-dwarf radii (default 0.03, a choice; §4.6).
     pub wd_radius_floor_fraction: f64,
     /// Compositions and envelope of the Schönberg–Chandrasekhar fraction (default
-    /// μ_env = 0.62, μ_core = 1.33, n_env = 3, coefficient 0.37; `bounds.md` §7).
+    /// μ_env = 0.62, μ_core = 1.33, n_env = 3, coefficient 0.37; `docs/bounds.md` §7).
     pub sc: ScParams,
     /// How the SC modified-gravity factor is obtained (default: the full core–envelope fit).
     pub sc_variant: ScVariant,

@@ -2,7 +2,7 @@
 //! Υ and τ.
 //!
 //! One job: turn (Υ, τ, ansatz) into (i) the Chandrasekhar mass M_Ch(Υ, τ, μ_e) =
-//! M_Ch,GR(μ_e)·ω₃(Υ,τ)/ω₃(0,0) (`structure.md` §4.1) and (ii) a compact dimensionless table of
+//! M_Ch,GR(μ_e)·ω₃(Υ,τ)/ω₃(0,0) (`docs/structure.md` §4.1) and (ii) a compact dimensionless table of
 //! the full Chandrasekhar-EOS models (Chandrasekhar 1935, MNRAS 95, 207; §4.2–4.3), from which
 //! R(M; μ_e) follows for every μ_e by the exact scaling ℓ ∝ 1/μ_e, 𝓜 ∝ 1/μ_e². Everything is
 //! Newtonian order: [`WdRadius::post_newtonian_warning`] flags GM/(Rc²) > 5e-4 (§4.5).
@@ -11,12 +11,12 @@
 //! use dwarfbound::theory::white_dwarf::{chandrasekhar_mass_msun, WdMassRadius, WdTableOptions};
 //! use dwarfbound::theory::Anisotropy;
 //!
-//! // Standard gravity, μ_e = 2: M_Ch = 5.82519/4 M☉ (structure.md §4.1).
+//! // Standard gravity, μ_e = 2: M_Ch = 5.82519/4 M☉ (docs/structure.md §4.1).
 //! let m_ch = chandrasekhar_mass_msun(0.0, 0.0, Anisotropy::None, 2.0).unwrap();
 //! assert!((m_ch - 1.456298).abs() < 1e-5);
 //! let table = WdMassRadius::new(0.0, 0.0, Anisotropy::None, &WdTableOptions::default()).unwrap();
 //! let r_km = table.radius_rsun(1.0, 2.0).unwrap() * 6.957e5;
-//! assert!((r_km - 5716.4).abs() < 0.1); // structure.md §4.4 (computed there)
+//! assert!((r_km - 5716.4).abs() < 0.1); // docs/structure.md §4.4 (computed there)
 //! assert!(table.radius_rsun(1.5, 2.0).is_err()); // above the Chandrasekhar mass
 //! ```
 
@@ -31,7 +31,7 @@ use crate::theory::ode::{self, OdeMethod, OdeOptions, Stop};
 use crate::theory::Anisotropy;
 
 /// Compactness GM/(Rc²) above which a white-dwarf model is flagged as needing post-Newtonian
-/// physics. A chosen threshold, not a published one (`structure.md` §4.5).
+/// physics. A chosen threshold, not a published one (`docs/structure.md` §4.5).
 pub const POST_NEWTONIAN_COMPACTNESS: f64 = 5e-4;
 
 /// Reduced Compton wavelength of the electron λ_e = ħ/(m_e c), m.
@@ -85,7 +85,7 @@ pub fn omega3(upsilon: f64, tau: f64, anisotropy: Anisotropy) -> Result<f64, The
         .omega)
 }
 
-/// M_Ch(Υ, τ, μ_e) = M_Ch,GR(μ_e)·ω₃(Υ,τ)/ω₃(0,0) in M☉ (`structure.md` §4.1). Exact because
+/// M_Ch(Υ, τ, μ_e) = M_Ch,GR(μ_e)·ω₃(Υ,τ)/ω₃(0,0) in M☉ (`docs/structure.md` §4.1). Exact because
 /// the modified n = 3 problem stays scale-free, so the mass is still independent of ρ_c.
 pub fn chandrasekhar_mass_msun(
     upsilon: f64,
@@ -105,7 +105,7 @@ pub fn chandrasekhar_mass_msun(
 ///
 ///   du/dη = −p [m + c η³ x³] / { η² [1 + κ (3Υ/4) η² (1+u) x] },   dm/dη = η² x³,
 ///
-/// with (p, c, κ) of the Lane–Emden table (`structure.md` §3.2).
+/// with (p, c, κ) of the Lane–Emden table (`docs/structure.md` §3.2).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ChandrasekharEos {
     upsilon: f64,
@@ -266,7 +266,7 @@ pub struct WdTableOptions {
 }
 
 impl Default for WdTableOptions {
-    /// log₁₀ x_c from −3 to 4.5 (the range of `structure.md` §4.4) at 24 models per decade
+    /// log₁₀ x_c from −3 to 4.5 (the range of `docs/structure.md` §4.4) at 24 models per decade
     /// (181 models), rtol 1e-10. Measured against direct solves, R(M) from the table agrees to
     /// ≤ 2e-8 for x_c ≤ 12 (M ≤ 1.4 M☉ at μ_e = 2; 16 per decade: 1.4e-7, 32: 2.4e-9). Towards
     /// M_Ch the inversion M → x_c is ill-conditioned (δR/R ≈ (x_c²/2k)·δM/M, k ≈ 5.5), so the

@@ -356,7 +356,7 @@ mod tests {
 
     #[test]
     fn without_lattice_reproduces_chandrasekhar_radii() {
-        // structure.md §4.4 values as tabulated in the white-dwarf notes' §7.1 (independent
+        // docs/structure.md §4.4 values as tabulated in the white-dwarf notes' §7.1 (independent
         // scipy integration): 14657.13 / 8840.904 / 5716.397 / 4165.011 km, μ_e = 2.
         let wd = ColdWd::new(&Composition::carbon_oxygen(), 0.0, false).unwrap();
         for (m, r_km) in [
@@ -372,8 +372,8 @@ mod tests {
 
     #[test]
     fn without_lattice_matches_project_cold_model_with_upsilon() {
-        // The project's own T = 0 solver (white_dwarf.rs, checked there against structure.md
-        // §4.4): at Υ = 0.1 R(1.0 M☉) = 6074.0 km (structure.md §4.4, computed there).
+        // The project's own T = 0 solver (white_dwarf.rs, checked there against docs/structure.md
+        // §4.4): at Υ = 0.1 R(1.0 M☉) = 6074.0 km (docs/structure.md §4.4, computed there).
         let wd = ColdWd::new(&Composition::carbon_oxygen(), 0.1, false).unwrap();
         let r = wd.model_of_mass(1.0).unwrap().radius_rsun * R_SUN_NOMINAL_M / 1e3;
         assert!((r - 6074.0).abs() < 0.1, "{r}");
@@ -427,7 +427,7 @@ mod tests {
     #[test]
     fn general_relativity_at_the_high_mass_end() {
         // GR lowers the maximum mass of a carbon white dwarf to about 1.38–1.39 M☉ (from
-        // memory); the radius correction is tiny at 0.6 M☉ (GM/(Rc²) ≈ 1e-4, structure.md §4.5).
+        // memory); the radius correction is tiny at 0.6 M☉ (GM/(Rc²) ≈ 1e-4, docs/structure.md §4.5).
         let m_max = tov_maximum_mass_msun(Core::Carbon).unwrap();
         assert!(m_max > 1.37 && m_max < 1.40, "{m_max}");
         let small = tov_radius_ratio(0.6, Core::CarbonOxygen).unwrap();

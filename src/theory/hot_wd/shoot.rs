@@ -452,7 +452,7 @@ mod tests {
     fn isothermal_zero_temperature_limit() {
         // Hot-WD notes §7.1: isothermal 1e4 K, L = 0, pure C, no lattice term, 0.6 M☉:
         // 8841.64 km (independent scipy integration), within 2e-4 of the T = 0 radius 8840.904 km
-        // (structure.md §4.4).
+        // (docs/structure.md §4.4).
         let opts = HotOptions {
             luminosity: false,
             layers: false,
