@@ -282,7 +282,7 @@ impl ObjectRadius {
     ) -> Option<(f64, f64)> {
         let s = self.standard.get(k).copied().flatten()?;
         let cold = cold_at_point?;
-        if !(s.cold_rsun > 0.0) {
+        if s.cold_rsun.is_nan() || s.cold_rsun <= 0.0 {
             return None;
         }
         let r = s.radius_rsun * cold / s.cold_rsun;

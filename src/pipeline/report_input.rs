@@ -507,7 +507,8 @@ pub(crate) fn write_report_files(
             "Intervals are read off a grid: their precision is limited by the grid spacing (the Υ interval at τ = 0 uses a 10× finer sub-grid with cubic interpolation of the bounds).".into(),
         ],
     };
-    report::write_report(out_dir, &input, &map, &curves)
+    let data = super::report_figures::data_figures(ctx);
+    report::write_report_with(out_dir, &input, &map, &curves, &data)
         .map_err(|e| PipelineError::Internal(e.to_string()))?;
     Ok(())
 }
