@@ -147,15 +147,62 @@ fn profile_marks_the_closed_form_interval_ends() {
     assert!(render_profile_svg(&ragged).is_err());
 }
 
+/// Invented masses around an MMHB of 0.075 M☉ (a value of the order of evolutionary models,
+/// from memory), one far above the axis and one in tension.
+fn masses() -> MassBounds {
+    let marks = [
+        MassMark::InFit,
+        MassMark::Young,
+        MassMark::ModelMass,
+        MassMark::LeftOut,
+    ];
+    let mut objects: Vec<MassObject> = (0..40)
+        .map(|k| MassObject {
+            id: format!("S{k:02}"),
+            mass_msun: 0.078 + 0.002 * k as f64,
+            mass_err_msun: Some((0.003, 0.004)),
+            sigma: (Some(-0.5), Some(-0.4)),
+            mark: marks[k % 4],
+        })
+        .collect();
+    objects.push(MassObject {
+        id: "far".into(),
+        mass_msun: 0.6,
+        mass_err_msun: None,
+        sigma: (None, None),
+        mark: MassMark::InFit,
+    });
+    objects.push(MassObject {
+        id: "low".into(),
+        mass_msun: 0.05,
+        mass_err_msun: Some((0.002, 0.002)),
+        sigma: (Some(4.8), Some(4.1)),
+        mark: MassMark::InFit,
+    });
+    MassBounds {
+        panels: vec![MassPanel {
+            title: "hydrogen-burning stars".into(),
+            bound_label: "MMHB".into(),
+            bound_standard_msun: 0.075,
+            bound_best_msun: Some(0.073),
+            floor_msun: 0.005,
+            objects,
+        }],
+        tension_sigma: 3.0,
+        best_fit: (0.02, -0.03),
+    }
+}
+
 #[test]
-fn report_pages_show_the_data_figures() {
-    let data = DataFigures {
-        wd_mass_radius: Some(diagram()),
-        profile_tau0: Some(profile()),
-    };
-    let empty = DataFigures::default();
-    assert!(data.validate().is_ok() && empty.validate().is_ok());
-    // Rendering with data adds the two figures and their files; without, nothing changes.
-    let svg = render_wd_mass_radius_svg(data.wd_mass_radius.as_ref().unwrap()).unwrap();
-    assert!(svg.contains("<g class=\"hover\">"));
+fn mass_panels_have_a_title_per_object_and_mark_tension() {
+    let m = masses();
+    let svg = render_mass_bounds_svg(&m).unwrap();
+    let png = render_mass_bounds_png(&m).unwrap();
+    keep("mass_bounds.png", &png);
+    assert!(png.starts_with(b"\x89PNG"));
+    assert_eq!(svg.matches("<title>").count(), m.panels[0].objects.len());
+    assert!(svg.contains("low: M = 0.05 ± 0.002 M☉"));
+    let mut bad = m.clone();
+    bad.panels[0].bound_standard_msun = f64::NAN;
+    assert!(render_mass_bounds_svg(&bad).is_err());
 }

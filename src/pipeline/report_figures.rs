@@ -1,5 +1,6 @@
-//! The data of the figures that put the data beside the theory: the white dwarfs with their
-//! model mass–radius curves, and the Δχ² profile along τ = 0. The model curves are computed
+//! The data of the figures that put the data beside the theory: each class's masses against
+//! its bound, the white dwarfs with their model mass–radius curves, and the Δχ² profile along
+//! τ = 0. The model curves are computed
 //! here (the report draws, it does not compute): finite-temperature radii at standard gravity
 //! from the committed table, and the same scaled to the best fit by the zero-temperature ratio
 //! R_cold(M; ϒ, τ)/R_cold(M; 0, 0), as the radius test itself anchors them.
@@ -10,9 +11,14 @@
 //! ```
 
 use super::outputs::OutputContext;
+use crate::catalogue::ObjectClass;
+use crate::confront::engine::Term;
 use crate::confront::regions::Level;
 use crate::confront::wd_radius::WdRadiusModel;
-use crate::report::{DataFigures, ModelCurve, ProfileTau0, WdMassRadius, WdPoint, WdPointFlag};
+use crate::report::{
+    DataFigures, MassBounds, MassMark, MassObject, MassPanel, ModelCurve, ProfileTau0,
+    WdMassRadius, WdPoint, WdPointFlag,
+};
 use crate::theory::hot_wd::{table::HotWdTable, Core, Envelope};
 use crate::theory::outcome::Outcome;
 use crate::theory::white_dwarf::WdMassRadius as ColdTable;
@@ -208,10 +214,100 @@ fn profile_tau0(ctx: &OutputContext<'_>) -> Option<ProfileTau0> {
     })
 }
 
+/// Each class's masses against its bound, or `None` when no object has a mass test.
+fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
+    let classes = [
+        (
+            Term::HBurning,
+            "hydrogen-burning stars (mass ≥ MMHB)",
+            "MMHB",
+        ),
+        (Term::BrownDwarf, "brown dwarfs (mass ≤ MMHB)", "MMHB"),
+        (
+            Term::WhiteDwarfMass,
+            "white dwarfs (mass ≤ Chandrasekhar mass)",
+            "M_Ch (μe = 2)",
+        ),
+    ];
+    let mut panels = Vec::new();
+    for (term, title, bound_label) in classes {
+        let floor_msun = match term {
+            Term::WhiteDwarfMass => ctx.eopts.chandrasekhar_floor_msun,
+            _ => ctx.eopts.mmhb_floor_msun,
+        };
+        let mut objects = Vec::new();
+        let (mut standard, mut best) = (None, None);
+        for u in &ctx.conf.uses {
+            let k = u.index;
+            let (Some(o), Some(v)) = (ctx.vetted.objects.get(k), ctx.verdicts.get(k)) else {
+                continue;
+            };
+            let class_term = match o.class {
+                ObjectClass::HBurning => Term::HBurning,
+                ObjectClass::BrownDwarf => Term::BrownDwarf,
+                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
+            };
+            if class_term != term || o.mass_msun <= 0.0 {
+                continue;
+            }
+            // The class value (μe = 2): an object's own bound is the class's times its scale
+            // (4/μe² for white dwarfs, 1 otherwise).
+            let scale = u.measurement.scale;
+            if scale > 0.0 {
+                standard = standard.or(v.bound_standard.map(|b| b / scale));
+                best = best.or(v.bound_best.map(|b| b / scale));
+            }
+            let has = |f: &str| u.flags.iter().any(|g| g == f);
+            let mark = if u.mass_term.is_some() {
+                MassMark::InFit
+            } else if u
+                .excluded
+                .as_deref()
+                .is_some_and(|e| e.starts_with("young"))
+            {
+                MassMark::Young
+            } else if has("model_mass") {
+                MassMark::ModelMass
+            } else {
+                MassMark::LeftOut
+            };
+            objects.push(MassObject {
+                id: o.id.clone(),
+                mass_msun: o.mass_msun,
+                mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+                    (Some(a), Some(b)) => Some((a, b)),
+                    _ => None,
+                },
+                sigma: (
+                    v.sigma_standard.filter(|s| s.is_finite()),
+                    v.sigma_best.filter(|s| s.is_finite()),
+                ),
+                mark,
+            });
+        }
+        if let (Some(bound_standard_msun), false) = (standard, objects.is_empty()) {
+            panels.push(MassPanel {
+                title: title.into(),
+                bound_label: bound_label.into(),
+                bound_standard_msun,
+                bound_best_msun: best,
+                floor_msun,
+                objects,
+            });
+        }
+    }
+    (!panels.is_empty()).then_some(MassBounds {
+        panels,
+        tension_sigma: ctx.settings.statistics.tension_sigma,
+        best_fit: (ctx.regions.best.upsilon, ctx.regions.best.tau),
+    })
+}
+
 /// Every data-against-theory figure this run can draw.
 pub(crate) fn data_figures(ctx: &OutputContext<'_>) -> DataFigures {
     DataFigures {
         wd_mass_radius: wd_mass_radius(ctx),
         profile_tau0: profile_tau0(ctx),
+        mass_bounds: mass_bounds(ctx),
     }
 }

@@ -1,9 +1,10 @@
-//! The report's section on the data against the theory: the Δχ² profile along τ = 0 and the
-//! white-dwarf mass–radius diagram, each as a figure block with a caption that says what is
+//! The report's section on the data against the theory: the Δχ² profile along τ = 0, each
+//! class's masses against its bound and the white-dwarf mass–radius diagram, each as a figure block with a caption that says what is
 //! drawn and how many objects sit where. Only wording: the numbers arrive prepared.
 //!
 //! ```ignore
-//! let blocks = blocks(&data, Rendered { profile_svg: Some(svg), wd_svg: None });
+//! let rendered = Rendered { profile_svg: Some(svg), wd_svg: None, mass_svg: None };
+//! let blocks = blocks(&data, rendered);
 //! assert!(matches!(blocks[0], Block::Heading(_)));
 //! ```
 
@@ -17,6 +18,8 @@ pub(crate) struct Rendered {
     pub profile_svg: Option<String>,
     /// `wd_mass_radius.svg`.
     pub wd_svg: Option<String>,
+    /// `mass_bounds.svg`.
+    pub mass_svg: Option<String>,
 }
 
 fn t(s: impl Into<String>) -> Inline {
@@ -45,6 +48,38 @@ pub(crate) fn blocks(data: &DataFigures, rendered: Rendered) -> Vec<Block> {
                  ends where the curve crosses them ({}); diamond: standard gravity.",
                 ends.join("; ")
             ))],
+        });
+    }
+    if let (Some(m), Some(svg)) = (&data.mass_bounds, rendered.mass_svg) {
+        let tension: Vec<&str> = m
+            .panels
+            .iter()
+            .flat_map(|p| p.objects.iter())
+            .filter(|o| o.sigma.0.is_some_and(|s| s > m.tension_sigma))
+            .map(|o| o.id.as_str())
+            .collect();
+        let mut caption = format!(
+            "Per class, every object's mass with its error bar, side by side in order of mass, \
+             against the bound it is tested with: solid with its theory floor (1σ) as a band at \
+             standard gravity, dashed at the best fit (ϒ = {}, τ = {}). White-dwarf bounds are \
+             drawn for μe = 2 (each object is tested against its own, scaled by (2/μe)²). Open \
+             markers: left out of the test, for the reason in the legend; arrowheads on an edge: \
+             beyond the drawn mass range. Hover an object in the HTML page for its σ.",
+            fmt_sig(m.best_fit.0, 3),
+            fmt_sig(m.best_fit.1, 3)
+        );
+        if !tension.is_empty() {
+            caption.push_str(&format!(
+                " Ringed in red, in tension above {} σ at standard gravity: {}.",
+                fmt_sig(m.tension_sigma, 3),
+                tension.join(", ")
+            ));
+        }
+        out.push(Block::Figure {
+            kind: FigureKind::MassBounds,
+            svg,
+            alt: "Each object's mass against its class bound, per class".into(),
+            caption: vec![t(caption)],
         });
     }
     if let (Some(w), Some(svg)) = (&data.wd_mass_radius, rendered.wd_svg) {

@@ -52,6 +52,7 @@ pub(crate) enum FigureKind {
     Bounds,
     ProfileTau0,
     WdMassRadius,
+    MassBounds,
 }
 
 impl FigureKind {
@@ -62,6 +63,7 @@ impl FigureKind {
             FigureKind::Bounds => "bounds",
             FigureKind::ProfileTau0 => "profile_tau0",
             FigureKind::WdMassRadius => "wd_mass_radius",
+            FigureKind::MassBounds => "mass_bounds",
         }
     }
 }

@@ -1,5 +1,5 @@
-//! The plain data of the figures that show the data against the theory: the white-dwarf
-//! mass–radius diagram and the Δχ² profile along τ = 0.
+//! The plain data of the figures that show the data against the theory: each class's masses
+//! against its bound, the white-dwarf mass–radius diagram and the Δχ² profile along τ = 0.
 //!
 //! Like [`crate::report::ReportInput`], everything arrives computed (model radii, Δχ², interval
 //! ends); the report only draws it. A figure whose data is `None` is not drawn.
@@ -12,7 +12,7 @@
 //!     thresholds: vec![("68.27 %".into(), 1.0), ("95.45 %".into(), 4.0)],
 //!     intervals: vec![("95.45 %".into(), Some(-0.1), Some(0.1))],
 //! };
-//! let figs = DataFigures { wd_mass_radius: None, profile_tau0: Some(profile) };
+//! let figs = DataFigures { wd_mass_radius: None, profile_tau0: Some(profile), mass_bounds: None };
 //! assert!(figs.validate().is_ok());
 //! ```
 
@@ -110,6 +110,98 @@ pub struct ProfileTau0 {
     pub intervals: Vec<(String, Option<f64>, Option<f64>)>,
 }
 
+/// How an object stands in its class's mass test.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum MassMark {
+    /// In the fit.
+    InFit,
+    /// Left out: younger than the age cut (may not burn steadily yet).
+    Young,
+    /// Left out: mass from a standard-gravity model (circular).
+    ModelMass,
+    /// Left out for another stated reason (no age, outside the model's domain).
+    LeftOut,
+}
+
+impl MassMark {
+    /// Words for legends and hover titles.
+    pub fn words(self) -> &'static str {
+        match self {
+            MassMark::InFit => "in the fit",
+            MassMark::Young => "left out: young",
+            MassMark::ModelMass => "left out: model mass",
+            MassMark::LeftOut => "left out: other reason",
+        }
+    }
+}
+
+/// One object in a mass panel.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MassObject {
+    /// Catalogue id.
+    pub id: String,
+    /// Mass, M☉ (for a limit, the limit).
+    pub mass_msun: f64,
+    /// Error below and above, M☉.
+    pub mass_err_msun: Option<(f64, f64)>,
+    /// Tension with its bound at standard gravity and at the best fit, σ (one-sided: positive
+    /// = wrong side of the bound).
+    pub sigma: (Option<f64>, Option<f64>),
+    /// Its place in the test.
+    pub mark: MassMark,
+}
+
+/// One class's masses against its bound.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MassPanel {
+    /// Panel title, e.g. "hydrogen-burning stars (mass ≥ MMHB)".
+    pub title: String,
+    /// The bound's short name, e.g. "MMHB".
+    pub bound_label: String,
+    /// The class bound at standard gravity, M☉.
+    pub bound_standard_msun: f64,
+    /// The class bound at the best fit, M☉.
+    pub bound_best_msun: Option<f64>,
+    /// The theory floor (1σ), M☉, drawn as a band around the standard bound.
+    pub floor_msun: f64,
+    /// Objects, in any order (drawn by ascending mass).
+    pub objects: Vec<MassObject>,
+}
+
+/// Each class's masses against its bound.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MassBounds {
+    /// One panel per class with a mass test.
+    pub panels: Vec<MassPanel>,
+    /// Objects with σ at standard gravity above this are highlighted.
+    pub tension_sigma: f64,
+    /// The best-fit point (ϒ, τ).
+    pub best_fit: (f64, f64),
+}
+
+impl MassBounds {
+    /// Rejects NaN or non-positive masses and bounds.
+    pub fn validate(&self) -> Result<(), ReportError> {
+        let pos = |x: f64| x.is_finite() && x > 0.0;
+        for p in &self.panels {
+            let ok = pos(p.bound_standard_msun)
+                && p.bound_best_msun.is_none_or(pos)
+                && p.floor_msun.is_finite()
+                && p.objects.iter().all(|o| {
+                    pos(o.mass_msun)
+                        && o.mass_err_msun
+                            .is_none_or(|(a, b)| a.is_finite() && b.is_finite())
+                        && o.sigma.0.is_none_or(f64::is_finite)
+                        && o.sigma.1.is_none_or(f64::is_finite)
+                });
+            if !ok {
+                return Err(bad("mass panel with a non-finite or non-positive value"));
+            }
+        }
+        Ok(())
+    }
+}
+
 /// The data-against-theory figures of one report; `None` = not drawn.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct DataFigures {
@@ -117,6 +209,8 @@ pub struct DataFigures {
     pub wd_mass_radius: Option<WdMassRadius>,
     /// The Δχ² profile along τ = 0 (only when the slice exists).
     pub profile_tau0: Option<ProfileTau0>,
+    /// Each class's masses against its bound (only when a class has objects).
+    pub mass_bounds: Option<MassBounds>,
 }
 
 fn bad(what: &str) -> ReportError {
@@ -176,6 +270,9 @@ impl DataFigures {
         }
         if let Some(p) = &self.profile_tau0 {
             p.validate()?;
+        }
+        if let Some(m) = &self.mass_bounds {
+            m.validate()?;
         }
         Ok(())
     }

@@ -4,8 +4,8 @@
 //! The confrontation prepares plain data ([`ReportInput`], [`AllowedMap`], [`BoundsCurves`]);
 //! this module turns it into `report.html` (self-contained: inline CSS and SVG, no scripts, no
 //! network), `report.md` (the same content), and the figures `allowed.svg`/`.png`,
-//! `bounds.svg`/`.png` and, when their data is given ([`DataFigures`]), `profile_tau0` and
-//! `wd_mass_radius`. Output bytes depend only on the input; the generation time sits on one
+//! `bounds.svg`/`.png` and, when their data is given ([`DataFigures`]), `profile_tau0`,
+//! `mass_bounds` and `wd_mass_radius`. Output bytes depend only on the input; the generation time sits on one
 //! line marked with [`VOLATILE_MARKER`] so comparisons can drop it ([`strip_volatile`]).
 //!
 //! ```no_run
@@ -28,11 +28,15 @@ pub mod text;
 
 use std::path::Path;
 
-pub use figure_data::{DataFigures, ModelCurve, ProfileTau0, WdMassRadius, WdPoint, WdPointFlag};
+pub use figure_data::{
+    DataFigures, MassBounds, MassMark, MassObject, MassPanel, ModelCurve, ProfileTau0,
+    WdMassRadius, WdPoint, WdPointFlag,
+};
 pub use figures::{
     outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
-    render_bounds_svg, render_profile_png, render_profile_svg, render_wd_mass_radius_png,
-    render_wd_mass_radius_svg, ALLOWED_SIZE, BOUNDS_WIDTH, PROFILE_SIZE, WD_MASS_RADIUS_SIZE,
+    render_bounds_svg, render_mass_bounds_png, render_mass_bounds_svg, render_profile_png,
+    render_profile_svg, render_wd_mass_radius_png, render_wd_mass_radius_svg, ALLOWED_SIZE,
+    BOUNDS_WIDTH, MASS_BOUNDS_WIDTH, PROFILE_SIZE, WD_MASS_RADIUS_SIZE,
 };
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
@@ -134,6 +138,13 @@ pub fn render_report_with(
             render_profile_png(p)?,
         ));
     }
+    if let Some(m) = &data.mass_bounds {
+        data_figures.push((
+            "mass_bounds",
+            render_mass_bounds_svg(m)?,
+            render_mass_bounds_png(m)?,
+        ));
+    }
     if let Some(w) = &data.wd_mass_radius {
         data_figures.push((
             "wd_mass_radius",
@@ -150,6 +161,7 @@ pub fn render_report_with(
     let extra = data_blocks::Rendered {
         profile_svg: svg_of("profile_tau0"),
         wd_svg: svg_of("wd_mass_radius"),
+        mass_svg: svg_of("mass_bounds"),
     };
     let doc = document::build(
         input,
