@@ -21,7 +21,7 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::kit::axes::{draw_axis_text, draw_mesh};
 use super::kit::hover::add_hover_titles;
-use super::kit::marks::{dash_polyline, to_px};
+use super::kit::marks::{dash_polyline, place_label, to_px};
 use super::kit::palette::{INK, LEVEL_FILLS, TENSION};
 use super::kit::{
     err, png_bytes, png_pen, short, svg_string, text_style, DrawResult, Pen, SVG_PEN,
@@ -235,9 +235,7 @@ fn draw_panel<DB: DrawingBackend>(
         hline(best, &[8.0, 5.0])?;
     }
     let bar = RGBColor(110, 110, 110).stroke_width(1);
-    let label = text_style(12.5)
-        .color(&TENSION)
-        .pos(Pos::new(HPos::Left, VPos::Bottom));
+    let mut placed: Vec<[i32; 4]> = Vec::new();
     for (i, o) in objs.iter().enumerate() {
         let x = i as f64;
         let y = o.mass_msun.clamp(y_lo, y_hi);
@@ -264,7 +262,7 @@ fn draw_panel<DB: DrawingBackend>(
         if in_tension(o, tension) {
             root.draw(&Circle::new(c, 8, TENSION.stroke_width(2)))
                 .map_err(err)?;
-            pen.text(root, &o.id, &label, (c.0 + 7, c.1 - 7))?;
+            place_label(root, &mut placed, &o.id, c, TENSION, pen)?;
         }
         hovers
             .borrow_mut()

@@ -19,7 +19,7 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::kit::axes::{draw_axis_text, draw_mesh};
 use super::kit::hover::add_hover_titles;
-use super::kit::marks::{clip_polyline, dash_polyline, to_px};
+use super::kit::marks::{clip_polyline, dash_polyline, place_label, to_px};
 use super::kit::palette::{curve_colour, INK, LEVEL_FILLS, TENSION};
 use super::kit::{
     err, png_bytes, png_pen, short, svg_string, text_style, DrawResult, Pen, SVG_PEN,
@@ -263,16 +263,14 @@ fn draw<DB: DrawingBackend>(
             root.draw(&PathElement::new(vec![a, b], bar)).map_err(err)?;
         }
     }
-    let label = text_style(13.5)
-        .color(&TENSION)
-        .pos(Pos::new(HPos::Left, VPos::Bottom));
+    let mut placed: Vec<[i32; 4]> = Vec::new();
     for p in &d.points {
         let c = chart.backend_coord(&(p.mass_msun, p.radius_rsun));
         draw_marker(root, c, p.flag)?;
         if in_tension(p, d.tension_sigma) {
             root.draw(&Circle::new(c, 10, TENSION.stroke_width(2)))
                 .map_err(err)?;
-            pen.text(root, &p.id, &label, (c.0 + 9, c.1 - 9))?;
+            place_label(root, &mut placed, &p.id, c, TENSION, pen)?;
         }
         hovers.borrow_mut().push((c.0, c.1, hover_text(p)));
     }

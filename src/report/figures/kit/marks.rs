@@ -204,6 +204,35 @@ pub(crate) fn hatch<DB: DrawingBackend>(
     Ok(())
 }
 
+/// Puts a small coloured label next to a marker at `c`, trying four corners in turn and
+/// skipping it when every corner would overlap a label already placed (`placed` holds their
+/// pixel boxes): crowded labels would be unreadable, and the caption and hover titles still
+/// name every object.
+pub(crate) fn place_label<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    placed: &mut Vec<[i32; 4]>,
+    text: &str,
+    c: (i32, i32),
+    colour: RGBColor,
+    pen: Pen<'_>,
+) -> DrawResult {
+    let style = text_style(13.0).color(&colour);
+    let (w, h) = area.estimate_text_size(text, &style).map_err(err)?;
+    let (w, h) = (w as i32, h as i32);
+    for (dx, dy) in [(9, -9 - h), (9, 9), (-9 - w, -9 - h), (-9 - w, 9)] {
+        let b = [c.0 + dx, c.1 + dy, c.0 + dx + w, c.1 + dy + h];
+        let clash = placed
+            .iter()
+            .any(|p| b[0] < p[2] && p[0] < b[2] && b[1] < p[3] && p[1] < b[3]);
+        if !clash {
+            placed.push(b);
+            let style = style.pos(Pos::new(HPos::Left, VPos::Top));
+            return pen.text(area, text, &style, (b[0], b[1]));
+        }
+    }
+    Ok(())
+}
+
 /// Clips a data-space polyline to the box [x0, x1] × [y0, y1] (Liang–Barsky per segment): the
 /// pieces inside, so a curve leaving the axes stops at their edge instead of crossing labels.
 pub(crate) fn clip_polyline(
