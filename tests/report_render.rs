@@ -695,3 +695,94 @@ fn one_sided_flat_likelihood_renders() {
     assert!(png.starts_with(PNG_SIGNATURE));
     keep_copy_file("flat-allowed.png", &png);
 }
+
+/// A small set of data figures: a parabolic profile Δχ² = (ϒ/0.05)² (closed-form crossings at
+/// ±0.05, ±0.1, ±0.15), one white dwarf over a flat invented curve, one star against a bound.
+fn small_data_figures() -> DataFigures {
+    let upsilon: Vec<f64> = (0..=200).map(|k| -0.5 + 0.005 * k as f64).collect();
+    let delta_chi2 = upsilon.iter().map(|u| (u / 0.05).powi(2)).collect();
+    DataFigures {
+        profile_tau0: Some(ProfileTau0 {
+            upsilon,
+            delta_chi2,
+            thresholds: vec![("68.27 %".into(), 1.0), ("95.45 %".into(), 4.0)],
+            intervals: vec![
+                ("68.27 %".into(), Some(-0.05), Some(0.05)),
+                ("95.45 %".into(), Some(-0.1), Some(0.1)),
+            ],
+        }),
+        wd_mass_radius: Some(WdMassRadius {
+            points: vec![WdPoint {
+                id: NASTY_ID.into(),
+                mass_msun: 0.6,
+                mass_err_msun: Some((0.02, 0.02)),
+                radius_rsun: 0.013,
+                radius_err_rsun: Some(0.0005),
+                teff_k: Some(10000.0),
+                sigma: Some(0.3),
+                flag: WdPointFlag::InTest,
+            }],
+            curves: vec![ModelCurve {
+                label: "Teff = 10 000 K".into(),
+                runs: vec![vec![(0.4, 0.015), (0.8, 0.011)]],
+                best_fit: false,
+                colour_index: 0,
+            }],
+            n_colours: 1,
+            best_fit: (0.05, -0.02),
+            tension_sigma: 3.0,
+            model_note: "invented".into(),
+        }),
+        mass_bounds: Some(MassBounds {
+            panels: vec![MassPanel {
+                title: "hydrogen-burning stars".into(),
+                bound_label: "MMHB".into(),
+                bound_standard_msun: 0.075,
+                bound_best_msun: Some(0.074),
+                floor_msun: 0.005,
+                objects: vec![MassObject {
+                    id: "S1".into(),
+                    mass_msun: 0.08,
+                    mass_err_msun: Some((0.002, 0.002)),
+                    sigma: (Some(-1.0), Some(-1.2)),
+                    mark: MassMark::InFit,
+                }],
+            }],
+            tension_sigma: 3.0,
+            best_fit: (0.05, -0.02),
+        }),
+    }
+}
+
+#[test]
+fn data_figures_appear_in_both_pages_and_as_files() {
+    let data = small_data_figures();
+    let input = synthetic_input(true);
+    let with = render_report_with(&input, &synthetic_map(), &synthetic_curves(), &data).unwrap();
+    let stems: Vec<&str> = with.data_figures.iter().map(|f| f.0).collect();
+    assert_eq!(stems, ["profile_tau0", "mass_bounds", "wd_mass_radius"]);
+    for stem in &stems {
+        assert!(with.html.contains(&format!("id=\"figure-{stem}\"")));
+        assert!(with.markdown.contains(&format!("({stem}.png)")));
+    }
+    // The white dwarf's id reaches the hover title escaped, never as markup.
+    assert!(with.html.contains("<title>&lt;b&gt;x&amp;y&lt;/b&gt;"));
+    assert!(with.data_figures.iter().all(|f| tags_balanced(&f.1)));
+    let without = render_report(&input, &synthetic_map(), &synthetic_curves()).unwrap();
+    assert!(without.data_figures.is_empty());
+    assert!(!without.html.contains("The data against the theory"));
+    let dir = tempfile::tempdir().unwrap();
+    write_report_with(
+        dir.path(),
+        &input,
+        &synthetic_map(),
+        &synthetic_curves(),
+        &data,
+    )
+    .unwrap();
+    for stem in stems {
+        for ext in ["svg", "png"] {
+            assert!(dir.path().join(format!("{stem}.{ext}")).is_file());
+        }
+    }
+}

@@ -12,6 +12,7 @@ pub mod lock;
 pub mod nightly;
 mod outputs;
 pub mod predict;
+mod report_figures;
 mod report_input;
 pub mod settings;
 pub mod surface;

@@ -545,7 +545,8 @@ pub(crate) fn write_report_files(
             "Intervals are read off a grid: their precision is limited by the grid spacing (the Υ interval at τ = 0 uses a 10× finer sub-grid with cubic interpolation of the bounds).".into(),
         ],
     };
-    report::write_report(out_dir, &input, &map, &curves).map_err(|e| match e {
+    let data = super::report_figures::data_figures(ctx);
+    report::write_report_with(out_dir, &input, &map, &curves, &data).map_err(|e| match e {
         // An unwritable output (a folder where a file should go, no permission) is the user's
         // environment (exit 2); anything else the report refuses is a bug upstream (exit 1).
         report::ReportError::Output(o) => PipelineError::Output(o),

@@ -59,6 +59,12 @@ impl<'a> GridSurface<'a> {
         }
     }
 
+    /// The zero-temperature mass–radius table at ϒ = τ = 0, if the run has one (the
+    /// denominator of the anchored ratio, also used for the report's model curves).
+    pub fn standard_cold(&self) -> Option<&'a WdMassRadius> {
+        self.standard_cold
+    }
+
     /// The finite-temperature standard radius of one query (Teff needed), with the thick–thin
     /// spread when the layer is not stated and d ln R/d Teff.
     fn hot_standard(table: &HotWdTable, q: &WdQuery, cold_rsun: f64) -> Option<WdStandard> {

@@ -4,7 +4,7 @@
 //! same report. Text in the tree is raw (unescaped); each renderer escapes it for its format.
 //!
 //! ```ignore
-//! let doc = build(&input, &map, allowed_svg, bounds_svg);
+//! let doc = build(&input, &map, allowed_svg, bounds_svg, Vec::new());
 //! let html = html::render(&doc);
 //! let md = markdown::render(&doc);
 //! ```
@@ -50,6 +50,9 @@ pub(crate) enum Callout {
 pub(crate) enum FigureKind {
     Allowed,
     Bounds,
+    ProfileTau0,
+    WdMassRadius,
+    MassBounds,
 }
 
 impl FigureKind {
@@ -58,6 +61,9 @@ impl FigureKind {
         match self {
             FigureKind::Allowed => "allowed",
             FigureKind::Bounds => "bounds",
+            FigureKind::ProfileTau0 => "profile_tau0",
+            FigureKind::WdMassRadius => "wd_mass_radius",
+            FigureKind::MassBounds => "mass_bounds",
         }
     }
 }
@@ -125,12 +131,14 @@ fn sigma(x: Option<f64>) -> String {
     }
 }
 
-/// Builds the report from the prepared data and the two rendered SVG figures.
+/// Builds the report from the prepared data, the two rendered SVG figures and the section on
+/// the data against the theory (placed before the predicted bounds).
 pub(crate) fn build(
     input: &ReportInput,
     map: &AllowedMap,
     allowed_svg: String,
     bounds_svg: String,
+    data_section: Vec<Block>,
 ) -> Document {
     let mut blocks = Vec::new();
     let cl95 = map.levels[1].label.clone();
@@ -434,6 +442,7 @@ pub(crate) fn build(
         )]));
     }
 
+    blocks.extend(data_section);
     // The bounds figure.
     blocks.push(Block::Heading("Predicted bounds".into()));
     blocks.push(Block::Figure {

@@ -3,8 +3,9 @@
 //!
 //! The confrontation prepares plain data ([`ReportInput`], [`AllowedMap`], [`BoundsCurves`]);
 //! this module turns it into `report.html` (self-contained: inline CSS and SVG, no scripts, no
-//! network), `report.md` (the same content), and the figures `allowed.svg`/`.png` and
-//! `bounds.svg`/`.png`. Output bytes depend only on the input; the generation time sits on one
+//! network), `report.md` (the same content), and the figures `allowed.svg`/`.png`,
+//! `bounds.svg`/`.png` and, when their data is given ([`DataFigures`]), `profile_tau0`,
+//! `mass_bounds` and `wd_mass_radius`. Output bytes depend only on the input; the generation time sits on one
 //! line marked with [`VOLATILE_MARKER`] so comparisons can drop it ([`strip_volatile`]).
 //!
 //! ```no_run
@@ -15,7 +16,9 @@
 //! # Ok(()) }
 //! ```
 
+mod data_blocks;
 mod document;
+mod figure_data;
 mod figures;
 mod html;
 mod input;
@@ -25,9 +28,15 @@ pub mod text;
 
 use std::path::Path;
 
+pub use figure_data::{
+    DataFigures, MassBounds, MassMark, MassObject, MassPanel, ModelCurve, ProfileTau0,
+    WdMassRadius, WdPoint, WdPointFlag,
+};
 pub use figures::{
     outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
-    render_bounds_svg, ALLOWED_SIZE, BOUNDS_WIDTH,
+    render_bounds_svg, render_mass_bounds_png, render_mass_bounds_svg, render_profile_png,
+    render_profile_svg, render_wd_mass_radius_png, render_wd_mass_radius_svg, ALLOWED_SIZE,
+    BOUNDS_WIDTH, MASS_BOUNDS_WIDTH, PROFILE_SIZE, WD_MASS_RADIUS_SIZE,
 };
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
@@ -93,20 +102,74 @@ pub struct RenderedReport {
     pub bounds_svg: String,
     /// `bounds.png`.
     pub bounds_png: Vec<u8>,
+    /// The data-against-theory figures drawn for this run: (file stem, SVG, PNG), e.g.
+    /// `wd_mass_radius`; only those whose data was given.
+    pub data_figures: Vec<(&'static str, String, Vec<u8>)>,
 }
 
-/// Renders every report file in memory without touching the disk.
+/// Renders every report file in memory without touching the disk (no data-against-theory
+/// figures; see [`render_report_with`]).
 pub fn render_report(
     input: &ReportInput,
     map: &AllowedMap,
     curves: &BoundsCurves,
 ) -> Result<RenderedReport, ReportError> {
+    render_report_with(input, map, curves, &DataFigures::default())
+}
+
+/// Renders every report file in memory, with the data-against-theory figures of `data`.
+pub fn render_report_with(
+    input: &ReportInput,
+    map: &AllowedMap,
+    curves: &BoundsCurves,
+    data: &DataFigures,
+) -> Result<RenderedReport, ReportError> {
     input.validate()?;
+    data.validate()?;
     let allowed_svg = render_allowed_svg(map)?;
     let allowed_png = render_allowed_png(map)?;
     let bounds_svg = render_bounds_svg(curves)?;
     let bounds_png = render_bounds_png(curves)?;
-    let doc = document::build(input, map, allowed_svg.clone(), bounds_svg.clone());
+    let mut data_figures = Vec::new();
+    if let Some(p) = &data.profile_tau0 {
+        data_figures.push((
+            "profile_tau0",
+            render_profile_svg(p)?,
+            render_profile_png(p)?,
+        ));
+    }
+    if let Some(m) = &data.mass_bounds {
+        data_figures.push((
+            "mass_bounds",
+            render_mass_bounds_svg(m)?,
+            render_mass_bounds_png(m)?,
+        ));
+    }
+    if let Some(w) = &data.wd_mass_radius {
+        data_figures.push((
+            "wd_mass_radius",
+            render_wd_mass_radius_svg(w)?,
+            render_wd_mass_radius_png(w)?,
+        ));
+    }
+    let svg_of = |stem: &str| {
+        data_figures
+            .iter()
+            .find(|f| f.0 == stem)
+            .map(|f| f.1.clone())
+    };
+    let extra = data_blocks::Rendered {
+        profile_svg: svg_of("profile_tau0"),
+        wd_svg: svg_of("wd_mass_radius"),
+        mass_svg: svg_of("mass_bounds"),
+    };
+    let doc = document::build(
+        input,
+        map,
+        allowed_svg.clone(),
+        bounds_svg.clone(),
+        data_blocks::blocks(data, extra),
+    );
     Ok(RenderedReport {
         html: html::render(&doc),
         markdown: markdown::render(&doc),
@@ -114,6 +177,7 @@ pub fn render_report(
         allowed_png,
         bounds_svg,
         bounds_png,
+        data_figures,
     })
 }
 
@@ -126,7 +190,23 @@ pub fn write_report(
     map: &AllowedMap,
     curves: &BoundsCurves,
 ) -> Result<(), ReportError> {
-    let r = render_report(input, map, curves)?;
+    write_report_with(dir, input, map, curves, &DataFigures::default())
+}
+
+/// As [`write_report`], plus the data-against-theory figures of `data` (`<stem>.svg` and
+/// `<stem>.png` each, before the two pages that show them).
+pub fn write_report_with(
+    dir: &Path,
+    input: &ReportInput,
+    map: &AllowedMap,
+    curves: &BoundsCurves,
+    data: &DataFigures,
+) -> Result<(), ReportError> {
+    let r = render_report_with(input, map, curves, data)?;
+    for (stem, svg, png) in &r.data_figures {
+        write_atomic(&dir.join(format!("{stem}.svg")), svg.as_bytes())?;
+        write_atomic(&dir.join(format!("{stem}.png")), png)?;
+    }
     let files: [(&str, &[u8]); 6] = [
         ("allowed.svg", r.allowed_svg.as_bytes()),
         ("allowed.png", &r.allowed_png),

@@ -204,6 +204,89 @@ pub(crate) fn hatch<DB: DrawingBackend>(
     Ok(())
 }
 
+/// Puts a small coloured label next to a marker at `c`, trying four corners in turn and
+/// skipping it when every corner would overlap a label already placed (`placed` holds their
+/// pixel boxes): crowded labels would be unreadable, and the caption and hover titles still
+/// name every object.
+pub(crate) fn place_label<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    placed: &mut Vec<[i32; 4]>,
+    text: &str,
+    c: (i32, i32),
+    colour: RGBColor,
+    pen: Pen<'_>,
+) -> DrawResult {
+    let style = text_style(13.0).color(&colour);
+    let (w, h) = area.estimate_text_size(text, &style).map_err(err)?;
+    let (w, h) = (w as i32, h as i32);
+    for (dx, dy) in [(9, -9 - h), (9, 9), (-9 - w, -9 - h), (-9 - w, 9)] {
+        let b = [c.0 + dx, c.1 + dy, c.0 + dx + w, c.1 + dy + h];
+        let clash = placed
+            .iter()
+            .any(|p| b[0] < p[2] && p[0] < b[2] && b[1] < p[3] && p[1] < b[3]);
+        if !clash {
+            placed.push(b);
+            let style = style.pos(Pos::new(HPos::Left, VPos::Top));
+            return pen.text(area, text, &style, (b[0], b[1]));
+        }
+    }
+    Ok(())
+}
+
+/// Clips a data-space polyline to the box [x0, x1] × [y0, y1] (Liang–Barsky per segment): the
+/// pieces inside, so a curve leaving the axes stops at their edge instead of crossing labels.
+pub(crate) fn clip_polyline(
+    points: &[(f64, f64)],
+    (x0, x1): (f64, f64),
+    (y0, y1): (f64, f64),
+) -> Vec<Vec<(f64, f64)>> {
+    let mut out: Vec<Vec<(f64, f64)>> = Vec::new();
+    let mut current: Vec<(f64, f64)> = Vec::new();
+    for w in points.windows(2) {
+        let ((ax, ay), (bx, by)) = (w[0], w[1]);
+        let (dx, dy) = (bx - ax, by - ay);
+        let (mut t0, mut t1) = (0.0f64, 1.0f64);
+        let mut inside = true;
+        for (p, q) in [(-dx, ax - x0), (dx, x1 - ax), (-dy, ay - y0), (dy, y1 - ay)] {
+            if p == 0.0 {
+                if q < 0.0 {
+                    inside = false;
+                }
+            } else {
+                let r = q / p;
+                if p < 0.0 {
+                    t0 = t0.max(r);
+                } else {
+                    t1 = t1.min(r);
+                }
+            }
+        }
+        if !inside || t0 > t1 {
+            if current.len() >= 2 {
+                out.push(std::mem::take(&mut current));
+            }
+            current.clear();
+            continue;
+        }
+        let a = (ax + t0 * dx, ay + t0 * dy);
+        let b = (ax + t1 * dx, ay + t1 * dy);
+        if current.last() != Some(&a) {
+            if current.len() >= 2 {
+                out.push(std::mem::take(&mut current));
+            }
+            current = vec![a];
+        }
+        current.push(b);
+        if t1 < 1.0 {
+            out.push(std::mem::take(&mut current));
+        }
+    }
+    if current.len() >= 2 {
+        out.push(current);
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -217,5 +300,14 @@ mod tests {
             let len = piece.last().unwrap().0 - piece[0].0;
             assert!((len - 10.0).abs() < 1e-9);
         }
+    }
+
+    #[test]
+    fn clipping_stops_at_the_box_edge() {
+        // The line y = 2x from (0, 0) to (1, 2) leaves the unit box at (0.5, 1) (geometry).
+        let c = clip_polyline(&[(0.0, 0.0), (1.0, 2.0)], (0.0, 1.0), (0.0, 1.0));
+        assert_eq!(c.len(), 1);
+        assert!((c[0][1].0 - 0.5).abs() < 1e-12 && (c[0][1].1 - 1.0).abs() < 1e-12);
+        assert!(clip_polyline(&[(2.0, 2.0), (3.0, 3.0)], (0.0, 1.0), (0.0, 1.0)).is_empty());
     }
 }

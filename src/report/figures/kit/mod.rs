@@ -19,6 +19,7 @@
 
 pub(crate) mod axes;
 mod bitmap_text;
+pub(crate) mod hover;
 pub(crate) mod marks;
 pub(crate) mod palette;
 

@@ -25,6 +25,8 @@ pub(crate) const LEVEL_FILLS: [RGBColor; 3] = [
 pub(crate) const NO_MODEL_FILL: RGBColor = RGBColor(236, 236, 236);
 /// Hatching of grid cells without a model.
 pub(crate) const NO_MODEL_HATCH: RGBColor = RGBColor(105, 105, 105);
+/// Highlight of objects in tension (a red that stays dark in greyscale).
+pub(crate) const TENSION: RGBColor = RGBColor(200, 25, 30);
 /// Faint grid lines behind the data.
 pub(crate) const GRID_LINE: RGBColor = RGBColor(150, 150, 150);
 

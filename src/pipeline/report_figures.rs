@@ -1,0 +1,313 @@
+//! The data of the figures that put the data beside the theory: each class's masses against
+//! its bound, the white dwarfs with their model mass–radius curves, and the Δχ² profile along
+//! τ = 0. The model curves are computed
+//! here (the report draws, it does not compute): finite-temperature radii at standard gravity
+//! from the committed table, and the same scaled to the best fit by the zero-temperature ratio
+//! R_cold(M; ϒ, τ)/R_cold(M; 0, 0), as the radius test itself anchors them.
+//!
+//! ```ignore
+//! let data = data_figures(&ctx);
+//! report::write_report_with(out_dir, &input, &map, &curves, &data)?;
+//! ```
+
+use super::outputs::OutputContext;
+use crate::catalogue::ObjectClass;
+use crate::confront::engine::Term;
+use crate::confront::regions::Level;
+use crate::confront::wd_radius::WdRadiusModel;
+use crate::report::{
+    DataFigures, MassBounds, MassMark, MassObject, MassPanel, ModelCurve, ProfileTau0,
+    WdMassRadius, WdPoint, WdPointFlag,
+};
+use crate::theory::hot_wd::{table::HotWdTable, Core, Envelope};
+use crate::theory::outcome::Outcome;
+use crate::theory::white_dwarf::WdMassRadius as ColdTable;
+
+/// Effective temperatures of the standard-gravity curves, K: from cool to hot, a spread over
+/// which white-dwarf radii change by tens of per cent (choice).
+const CURVE_TEFF_K: [f64; 4] = [5_000.0, 10_000.0, 20_000.0, 40_000.0];
+/// Below this mass the curves use helium cores, above it carbon–oxygen cores (the default by
+/// mass of the radius test, common practice, no source).
+const HELIUM_BELOW_MSUN: f64 = 0.45;
+/// Mass step of the model curves, M☉.
+const CURVE_STEP_MSUN: f64 = 0.01;
+
+/// Masses from `lo` to `hi` in steps of [`CURVE_STEP_MSUN`] (both ends included).
+fn masses(lo: f64, hi: f64) -> Vec<f64> {
+    let n = ((hi - lo) / CURVE_STEP_MSUN).round().max(0.0) as usize;
+    (0..=n)
+        .map(|i| lo + (hi - lo) * i as f64 / n.max(1) as f64)
+        .collect()
+}
+
+/// Splits `(mass, radius?)` into runs of consecutive modelled points.
+fn runs(values: impl Iterator<Item = (f64, Option<f64>)>) -> Vec<Vec<(f64, f64)>> {
+    let mut out = vec![Vec::new()];
+    for (m, r) in values {
+        match r.filter(|r| r.is_finite() && *r > 0.0) {
+            Some(r) => out
+                .last_mut()
+                .map_or((), |run: &mut Vec<_>| run.push((m, r))),
+            None if out.last().is_some_and(|r| !r.is_empty()) => out.push(Vec::new()),
+            None => {}
+        }
+    }
+    out.retain(|r| r.len() >= 2);
+    out
+}
+
+/// Teff as a legend label, e.g. "10 000 K".
+fn teff_label(teff_k: f64) -> String {
+    let s = format!("{:.0}", teff_k);
+    let mut grouped = String::new();
+    for (i, c) in s.chars().enumerate() {
+        if i > 0 && (s.len() - i) % 3 == 0 {
+            grouped.push('\u{202f}');
+        }
+        grouped.push(c);
+    }
+    format!("Teff = {grouped} K")
+}
+
+/// The model curves: standard gravity, and scaled to the best fit when the best point has a
+/// zero-temperature table.
+fn model_curves(ctx: &OutputContext<'_>) -> (Vec<ModelCurve>, usize, String) {
+    let std_cold = ctx.surface.standard_cold();
+    let best_cold: Option<ColdTable> = match ctx.grid.wd_table(ctx.best_index) {
+        Some(Outcome::Ok(t)) => Some(t),
+        _ => None,
+    };
+    let ratio = |m: f64| -> Option<f64> {
+        let a = best_cold.as_ref()?.radius_rsun(m, 2.0).ok()?;
+        let b = std_cold?.radius_rsun(m, 2.0).ok()?;
+        (b > 0.0).then_some(a / b)
+    };
+    let mut curves = Vec::new();
+    let mut push = |label: String, k: usize, standard: Vec<Vec<(f64, f64)>>| {
+        let scaled: Vec<Vec<(f64, f64)>> = standard
+            .iter()
+            .flat_map(|run| runs(run.iter().map(|&(m, r)| (m, ratio(m).map(|q| q * r)))))
+            .collect();
+        curves.push(ModelCurve {
+            label: label.clone(),
+            runs: standard,
+            best_fit: false,
+            colour_index: k,
+        });
+        if !scaled.is_empty() {
+            curves.push(ModelCurve {
+                label,
+                runs: scaled,
+                best_fit: true,
+                colour_index: k,
+            });
+        }
+    };
+    let hot = match ctx.eopts.radius.model {
+        WdRadiusModel::Hot => HotWdTable::standard().ok(),
+        WdRadiusModel::Cold => None,
+    };
+    if let Some(table) = hot {
+        let range = |core| table.mass_range_msun(core).unwrap_or((1.0, 0.0));
+        let (he_lo, he_hi) = range(Core::Helium);
+        let (co_lo, co_hi) = range(Core::CarbonOxygen);
+        for (k, &teff) in CURVE_TEFF_K.iter().enumerate() {
+            let at = |core, m: f64| table.radius_rsun(m, teff, core, Envelope::Thick).ok();
+            let mut all = runs(
+                masses(he_lo, he_hi.min(HELIUM_BELOW_MSUN))
+                    .into_iter()
+                    .map(|m| (m, at(Core::Helium, m).map(|r| r.radius_rsun))),
+            );
+            all.extend(runs(
+                masses(co_lo.max(HELIUM_BELOW_MSUN), co_hi)
+                    .into_iter()
+                    .map(|m| (m, at(Core::CarbonOxygen, m).map(|r| r.radius_rsun))),
+            ));
+            push(teff_label(teff), k, all);
+        }
+        let note = "thick H layer; He core < 0.45 M☉, C/O above".to_string();
+        (curves, CURVE_TEFF_K.len(), note)
+    } else {
+        let cold = runs(
+            masses(0.15, 1.35)
+                .into_iter()
+                .map(|m| (m, std_cold.and_then(|t| t.radius_rsun(m, 2.0).ok()))),
+        );
+        push("zero temperature".into(), 0, cold);
+        (curves, 1, "zero temperature, μe = 2".to_string())
+    }
+}
+
+/// The white-dwarf diagram, or `None` when no white dwarf has a radius.
+fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
+    let mut points = Vec::new();
+    for u in &ctx.conf.uses {
+        let k = u.index;
+        let o = ctx.vetted.objects.get(k)?;
+        let Some(radius_rsun) = o.radius_rsun.filter(|r| *r > 0.0) else {
+            continue;
+        };
+        if o.class.label() != "white_dwarf" || o.mass_msun <= 0.0 {
+            continue;
+        }
+        let has = |f: &str| u.flags.iter().any(|g| g == f);
+        let flag = if u.radius_term {
+            WdPointFlag::InTest
+        } else if has("model_mass") {
+            WdPointFlag::ModelMass
+        } else if has("no_teff") {
+            WdPointFlag::NoTeff
+        } else if has("elm") {
+            WdPointFlag::Elm
+        } else {
+            WdPointFlag::OutsideModel
+        };
+        points.push(WdPoint {
+            id: o.id.clone(),
+            mass_msun: o.mass_msun,
+            mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+                (Some(a), Some(b)) => Some((a, b)),
+                _ => None,
+            },
+            radius_rsun,
+            radius_err_rsun: o.radius_err_rsun,
+            teff_k: o.teff_k,
+            sigma: ctx
+                .verdicts
+                .get(k)
+                .and_then(|v| v.radius_sigma_standard)
+                .filter(|s| s.is_finite()),
+            flag,
+        });
+    }
+    if points.is_empty() {
+        return None;
+    }
+    let (curves, n_colours, model_note) = model_curves(ctx);
+    Some(WdMassRadius {
+        points,
+        curves,
+        n_colours,
+        best_fit: (ctx.regions.best.upsilon, ctx.regions.best.tau),
+        tension_sigma: ctx.settings.statistics.tension_sigma,
+        model_note,
+    })
+}
+
+/// The Δχ² profile along τ = 0, or `None` when the slice was not computed.
+fn profile_tau0(ctx: &OutputContext<'_>) -> Option<ProfileTau0> {
+    let sl = &ctx.slice?.slice;
+    let delta: Vec<f64> = sl.chi2_fine.iter().map(|c| c - sl.chi2_min).collect();
+    if delta.iter().any(|d| !d.is_finite()) {
+        return None;
+    }
+    let label = |l: Level| format!("{:.2} %", 100.0 * l.probability());
+    Some(ProfileTau0 {
+        upsilon: sl.upsilon_fine.clone(),
+        delta_chi2: delta,
+        thresholds: Level::ALL.iter().map(|&l| (label(l), l.dchi2(1))).collect(),
+        intervals: Level::ALL
+            .iter()
+            .zip(&sl.intervals)
+            .map(|(&l, i)| (label(l), i.lower, i.upper))
+            .collect(),
+    })
+}
+
+/// Each class's masses against its bound, or `None` when no object has a mass test.
+fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
+    let classes = [
+        (
+            Term::HBurning,
+            "hydrogen-burning stars (mass ≥ MMHB)",
+            "MMHB",
+        ),
+        (Term::BrownDwarf, "brown dwarfs (mass ≤ MMHB)", "MMHB"),
+        (
+            Term::WhiteDwarfMass,
+            "white dwarfs (mass ≤ Chandrasekhar mass)",
+            "M_Ch (μe = 2)",
+        ),
+    ];
+    let mut panels = Vec::new();
+    for (term, title, bound_label) in classes {
+        let floor_msun = match term {
+            Term::WhiteDwarfMass => ctx.eopts.chandrasekhar_floor_msun,
+            _ => ctx.eopts.mmhb_floor_msun,
+        };
+        let mut objects = Vec::new();
+        let (mut standard, mut best) = (None, None);
+        for u in &ctx.conf.uses {
+            let k = u.index;
+            let (Some(o), Some(v)) = (ctx.vetted.objects.get(k), ctx.verdicts.get(k)) else {
+                continue;
+            };
+            let class_term = match o.class {
+                ObjectClass::HBurning => Term::HBurning,
+                ObjectClass::BrownDwarf => Term::BrownDwarf,
+                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
+            };
+            if class_term != term || o.mass_msun <= 0.0 {
+                continue;
+            }
+            // The class value (μe = 2): an object's own bound is the class's times its scale
+            // (4/μe² for white dwarfs, 1 otherwise).
+            let scale = u.measurement.scale;
+            if scale > 0.0 {
+                standard = standard.or(v.bound_standard.map(|b| b / scale));
+                best = best.or(v.bound_best.map(|b| b / scale));
+            }
+            let has = |f: &str| u.flags.iter().any(|g| g == f);
+            let mark = if u.mass_term.is_some() {
+                MassMark::InFit
+            } else if u
+                .excluded
+                .as_deref()
+                .is_some_and(|e| e.starts_with("young"))
+            {
+                MassMark::Young
+            } else if has("model_mass") {
+                MassMark::ModelMass
+            } else {
+                MassMark::LeftOut
+            };
+            objects.push(MassObject {
+                id: o.id.clone(),
+                mass_msun: o.mass_msun,
+                mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+                    (Some(a), Some(b)) => Some((a, b)),
+                    _ => None,
+                },
+                sigma: (
+                    v.sigma_standard.filter(|s| s.is_finite()),
+                    v.sigma_best.filter(|s| s.is_finite()),
+                ),
+                mark,
+            });
+        }
+        if let (Some(bound_standard_msun), false) = (standard, objects.is_empty()) {
+            panels.push(MassPanel {
+                title: title.into(),
+                bound_label: bound_label.into(),
+                bound_standard_msun,
+                bound_best_msun: best,
+                floor_msun,
+                objects,
+            });
+        }
+    }
+    (!panels.is_empty()).then_some(MassBounds {
+        panels,
+        tension_sigma: ctx.settings.statistics.tension_sigma,
+        best_fit: (ctx.regions.best.upsilon, ctx.regions.best.tau),
+    })
+}
+
+/// Every data-against-theory figure this run can draw.
+pub(crate) fn data_figures(ctx: &OutputContext<'_>) -> DataFigures {
+    DataFigures {
+        wd_mass_radius: wd_mass_radius(ctx),
+        profile_tau0: profile_tau0(ctx),
+        mass_bounds: mass_bounds(ctx),
+    }
+}
