@@ -301,13 +301,10 @@ impl ObjectRadius {
     /// propagated through the local slope (first order; the fit itself marginalises exactly).
     /// Positive: larger than predicted.
     pub fn standard_tension(&self) -> Option<f64> {
-        let (s, slope) = self.at_nominal?;
-        let r = s.radius_rsun;
-        let teff = s.dln_r_dteff_per_k * self.teff_err_k;
-        let th2 =
-            (self.floor_fraction.powi(2) + s.envelope_fraction.powi(2) + teff.powi(2)) * r * r;
-        let s2 = self.radius_err_rsun.powi(2) + th2 + (slope * self.mass_sigma_msun).powi(2);
-        Some((self.radius_rsun - r) / s2.sqrt())
+        // Standard gravity is the grid point whose cold radius is the standard one (ratio 1,
+        // no anchoring error).
+        let (s, _) = self.at_nominal?;
+        self.tension_at(Some(s.cold_rsun), 0.0)
     }
 
     /// Signed two-sided tension at a grid point: as [`ObjectRadius::standard_tension`], with the
