@@ -135,7 +135,9 @@ fn one_white_dwarf_gives_the_analytic_probability() {
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     let (h, rows) = read_csv(&dir.path().join("objects.csv"));
     let get = |name: &str| -> f64 { rows[0][col(&h, name)].parse().unwrap() };
-    let bound = get("bound_standard");
+    let bound = get("bound_standard_msun");
+    // The deprecated name is written alongside for one version (README, "Deprecated names").
+    assert_eq!(get("bound_standard"), bound);
     assert!((bound - 1.456298).abs() < 2e-6, "M_Ch(μe = 2) = {bound}");
     let s = (0.05f64 * 0.05 + 0.03 * 0.03).sqrt();
     let p = Normal::new(0.0, 1.0).unwrap().cdf((bound - 1.30) / s);

@@ -74,7 +74,7 @@ fn standard_gravity_json() {
     assert!(rel(f(&v, "/sc_fraction"), 0.37 * (0.62f64 / 1.33).powi(2)) < 1e-14);
     // docs/structure.md §5.4: cold degenerate 0.08 M☉, X = 0.75: 22.3 min in the Roche model
     // (computed there; the ≈ 22-minute floor of the field, common practice).
-    let p_min = f(&v, "/breakup_period_min_h") * 60.0;
+    let p_min = f(&v, "/breakup_period_h") * 60.0;
     assert!((p_min - 22.3).abs() < 0.05, "{p_min}");
     assert!(v["breakup_reference"].as_str().unwrap().contains("0.08"));
     assert!(v["warnings"].is_array());

@@ -256,14 +256,14 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 n_objects: 5,
                 n_informative: 4,
                 minus_two_ln_l_at_best_fit: 1.5,
-                summary: "constrains τ; almost blind to Υ (synthetic)".into(),
+                summary: "constrains τ; almost blind to ϒ (synthetic)".into(),
             },
             ClassContribution {
                 class: "white_dwarf".into(),
                 n_objects: 6,
                 n_informative: 5,
                 minus_two_ln_l_at_best_fit: 1.75,
-                summary: "carries most of the information on Υ (synthetic)".into(),
+                summary: "carries most of the information on ϒ (synthetic)".into(),
             },
         ],
         reduction_error: Some(ReductionError {
@@ -349,7 +349,7 @@ fn writes_every_file_well_formed() {
         assert!(tags_balanced(&svg), "{name} has unbalanced tags");
         assert!(!svg.contains("NaN"), "{name} holds NaN");
         // The axis labels with units are present.
-        assert!(svg.contains("Υ (dimensionless)"));
+        assert!(svg.contains("ϒ (dimensionless)"));
     }
     let allowed_svg = std::fs::read_to_string(dir.path().join("allowed.svg")).unwrap();
     assert!(allowed_svg.contains("τ (anisotropy strength, quadratic in density)"));
@@ -436,8 +436,8 @@ fn both_formats_carry_the_required_content() {
         for needle in [
             "Summary",
             "Best fit",
-            "Υ at τ = 0",
-            "Standard gravity (Υ = τ = 0)",
+            "ϒ at τ = 0",
+            "Standard gravity (ϒ = τ = 0)",
             "open",
             "Tensions with standard gravity",
             "Drivers",

@@ -49,7 +49,7 @@ pub const BOUNDS_CSV_COLUMNS: [&str; 23] = [
     "omega_n3",
     "sc_fraction",
     "sc_reason",
-    "breakup_period_min_h",
+    "breakup_period_h",
     "breakup_radius_rjup",
     "warnings",
 ];
@@ -61,7 +61,13 @@ pub const BOUNDS_CSV_COLUMNS: [&str; 23] = [
 pub fn bounds_csv(grid: &TheoryGrid) -> Result<String, BoundsCsvError> {
     let mut w = csv::WriterBuilder::new().from_writer(Vec::new());
     let err = |e: csv::Error| BoundsCsvError(e.to_string());
-    w.write_record(BOUNDS_CSV_COLUMNS).map_err(err)?;
+    let deprecated = super::names::csv_text_deprecated("bounds.csv", &BOUNDS_CSV_COLUMNS);
+    let header: Vec<&str> = BOUNDS_CSV_COLUMNS
+        .iter()
+        .copied()
+        .chain(deprecated.iter().map(|(_, rn)| rn.old))
+        .collect();
+    w.write_record(&header).map_err(err)?;
     for p in &grid.points {
         let le15 = p.lane_emden_n15.ok();
         let le3 = p.lane_emden_n3.ok();
@@ -96,7 +102,7 @@ pub fn bounds_csv(grid: &TheoryGrid) -> Result<String, BoundsCsvError> {
             .map(|(names, f)| format!("{}: {f}", names.join(", ")))
             .collect();
         let f = |x: Option<f64>| fmt_f64(x);
-        let row = vec![
+        let mut row = vec![
             f(Some(p.upsilon)),
             f(Some(p.tau)),
             grid.settings.anisotropy.name().to_string(),
@@ -125,6 +131,13 @@ pub fn bounds_csv(grid: &TheoryGrid) -> Result<String, BoundsCsvError> {
                 .collect::<Vec<_>>()
                 .join(" "),
         ];
+        for (at, rn) in &deprecated {
+            let old = match row[*at].parse::<f64>() {
+                Ok(v) if rn.old_per_new != 1.0 => f(Some(v * rn.old_per_new)),
+                _ => row[*at].clone(),
+            };
+            row.push(old);
+        }
         w.write_record(&row).map_err(err)?;
     }
     let bytes = w.into_inner().map_err(|e| BoundsCsvError(e.to_string()))?;

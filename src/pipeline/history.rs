@@ -210,14 +210,22 @@ fn area95(summary: &serde_json::Value) -> Option<f64> {
 /// Catalogue columns compared to decide whether an object "changed".
 const VALUE_COLUMNS: &[&str] = &[
     "class",
-    "mass",
-    "mass_err_lo",
-    "mass_err_hi",
+    "mass_msun",
+    "mass_err_lo_msun",
+    "mass_err_hi_msun",
     "mass_limit",
-    "radius",
-    "radius_err",
-    "age",
+    "radius_rsun",
+    "radius_err_rsun",
+    "age_gyr",
 ];
+
+/// A column of an `objects.csv` row under its current name, or under the name it had before
+/// (a previous run written by an older version).
+fn field<'a>(s: &'a ObjectState, column: &str) -> Option<&'a String> {
+    s.fields
+        .get(column)
+        .or_else(|| super::names::old_name(column).and_then(|old| s.fields.get(old)))
+}
 
 /// Compares the current run (its `objects.csv` rows and `summary.json` document) with the
 /// previous run's folder and applies the alarm rules.
@@ -256,7 +264,7 @@ pub fn difference(
         let (a, b) = (&now_objects[k.as_str()], &before_objects[k.as_str()]);
         if VALUE_COLUMNS
             .iter()
-            .any(|c| a.fields.get(*c) != b.fields.get(*c))
+            .any(|c| field(a, c) != field(b, c))
         {
             d.changed.push(k.to_string());
         }

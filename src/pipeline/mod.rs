@@ -10,6 +10,7 @@ pub mod error;
 pub mod history;
 pub mod lock;
 pub mod nightly;
+pub mod names;
 mod outputs;
 pub mod predict;
 mod report_figures;

@@ -106,18 +106,18 @@ impl OutputContext<'_> {
             "class",
             "source_file",
             "source_row",
-            "mass",
-            "mass_err_lo",
-            "mass_err_hi",
+            "mass_msun",
+            "mass_err_lo_msun",
+            "mass_err_hi_msun",
             "mass_limit",
-            "radius",
-            "radius_err",
-            "age",
+            "radius_rsun",
+            "radius_err_rsun",
+            "age_gyr",
             "mu_e",
             "in_fit",
             "flags",
-            "bound_standard",
-            "bound_best",
+            "bound_standard_msun",
+            "bound_best_msun",
             "sigma_standard",
             "sigma_best",
             "radius_sigma_standard",
@@ -129,7 +129,7 @@ impl OutputContext<'_> {
         for (rank, k, shift) in self.drivers_sorted() {
             driver_of[k] = Some((rank, shift));
         }
-        let rows: Vec<Vec<Cell>> = self
+        let mut rows: Vec<Vec<Cell>> = self
             .verdicts
             .iter()
             .enumerate()
@@ -167,7 +167,10 @@ impl OutputContext<'_> {
                 ]
             })
             .collect();
-        report::tables::csv_bytes(&header, &rows)
+        let mut header: Vec<String> = header.map(String::from).to_vec();
+        super::names::csv_with_deprecated("objects.csv", &mut header, &mut rows);
+        let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
+        report::tables::csv_bytes(&header_refs, &rows)
             .map_err(|e| PipelineError::Internal(e.to_string()))
     }
 
@@ -183,7 +186,7 @@ impl OutputContext<'_> {
             "mmhb_raw_msun".into(),
             "chandrasekhar_msun".into(),
             "sc_fraction".into(),
-            "breakup_period_minutes".into(),
+            "breakup_period_h".into(),
         ];
         for t in Term::ALL {
             header.push(format!("minus_two_ln_l_{}", t.name()));
@@ -198,7 +201,6 @@ impl OutputContext<'_> {
             ]
             .map(String::from),
         );
-        let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
         let mut rows = Vec::with_capacity(nu * nt);
         for j in 0..nt {
             for i in 0..nu {
@@ -218,7 +220,7 @@ impl OutputContext<'_> {
                     Cell::Float(p.and_then(|p| p.mmhb.ok()).map(|m| m.raw_msun)),
                     Cell::Float(p.and_then(|p| p.chandrasekhar.ok()).map(|c| c.value_msun)),
                     Cell::Float(p.and_then(|p| p.sc.ok()).map(|s| s.q_sc)),
-                    Cell::Float(p.and_then(|p| p.breakup.ok()).map(|b| b.period_h * 60.0)),
+                    Cell::Float(p.and_then(|p| p.breakup.ok()).map(|b| b.period_h)),
                 ];
                 for t in Term::ALL {
                     row.push(Cell::Float(self.conf.per_term[t as usize][k]));
@@ -233,6 +235,8 @@ impl OutputContext<'_> {
                 rows.push(row);
             }
         }
+        super::names::csv_with_deprecated("grid.csv", &mut header, &mut rows);
+        let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
         report::tables::csv_bytes(&header_refs, &rows)
             .map_err(|e| PipelineError::Internal(e.to_string()))
     }

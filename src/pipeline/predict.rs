@@ -228,17 +228,21 @@ pub fn point_json(p: &PointBounds, s: &TheorySettings) -> Value {
     let b = p.breakup.ok();
     let sc = p.sc.ok();
     let white_dwarf = wd_table.map(|t| {
-        json!({
+        let mut wd = json!({
             "mu_e": CHANDRASEKHAR_REPORT_MU_E,
-            "radius_floor_fraction": s.wd_radius_floor_fraction,
+            "wd_radius_floor_fraction": s.wd_radius_floor_fraction,
             "post_newtonian_mass_msun": num(post_newtonian_mass_msun(t, CHANDRASEKHAR_REPORT_MU_E)),
             "radii": wd_radii(t).into_iter().map(|(mass, r)| match r {
                 Ok(r) => json!({"mass_msun": mass, "radius_rsun": r, "radius_km": r * crate::constants::R_SUN_NOMINAL_M / 1e3}),
                 Err(e) => json!({"mass_msun": mass, "radius_rsun": null, "radius_km": null, "reason": e}),
             }).collect::<Vec<_>>(),
-        })
+        });
+        if let Some(o) = wd.as_object_mut() {
+            super::names::json_with_deprecated("predict JSON", o);
+        }
+        wd
     });
-    json!({
+    let mut doc = json!({
         "version": env!("CARGO_PKG_VERSION"),
         "upsilon": p.upsilon,
         "tau": p.tau,
@@ -254,7 +258,7 @@ pub fn point_json(p: &PointBounds, s: &TheorySettings) -> Value {
             MmhbMode::Raw => None,
         }),
         "chandrasekhar_msun": num(c.map(|c| c.value_msun)),
-        "chandrasekhar_newtonian_msun": num(c.map(|c| c.newtonian_mu_e2_msun)),
+        "chandrasekhar_newtonian_mu_e2_msun": num(c.map(|c| c.newtonian_mu_e2_msun)),
         "chandrasekhar_omega3_ratio": num(c.map(|c| c.omega3_ratio)),
         "chandrasekhar_floor_msun": num(c.map(|c| c.floor_msun)),
         "chandrasekhar_mode": s.chandrasekhar_mode.name(),
@@ -276,13 +280,17 @@ pub fn point_json(p: &PointBounds, s: &TheorySettings) -> Value {
         "sc_fraction": num(sc.map(|v| v.q_sc)),
         "sc_ratio": num(sc.map(|v| v.ratio)),
         "sc_lambda": s.sc.lambda(),
-        "breakup_period_min_h": num(b.map(|b| b.period_h)),
+        "breakup_period_h": num(b.map(|b| b.period_h)),
         "breakup_radius_rjup": num(b.map(|b| b.radius_rjup())),
         "breakup_reference": s.breakup.describe(),
         "white_dwarf": white_dwarf.unwrap_or(Value::Null),
         "warnings": p.warnings.iter().map(|w| json!({"code": w.code(), "message": w.message()})).collect::<Vec<_>>(),
         "errors": Value::Object(errors),
-    })
+    });
+    if let Some(o) = doc.as_object_mut() {
+        super::names::json_with_deprecated("predict JSON", o);
+    }
+    doc
 }
 
 /// Readable text for one point.

@@ -16,7 +16,7 @@ use crate::report::{
 };
 use crate::theory::point::Warning as TheoryWarning;
 
-/// The relativistic existence bound Υ₁ > −4/9 (Babichev, Koyama, Langlois, Saito & Sakstein
+/// The relativistic existence bound ϒ₁ > −4/9 (Babichev, Koyama, Langlois, Saito & Sakstein
 /// 2016, arXiv:1606.06627), drawn on the map as theoretically disfavoured.
 const RELATIVISTIC_BOUND_UPSILON: f64 = -4.0 / 9.0;
 
@@ -70,16 +70,16 @@ fn term_summary(ctx: &OutputContext<'_>, t: Term, delta: &[Option<f64>]) -> Stri
     let (uw, tw) = (axis_w(ctx.surface.upsilon()), axis_w(ctx.surface.tau()));
     let cuts = |span: (f64, f64), w: f64| w > 0.0 && (span.1 - span.0) < 0.999 * w;
     let what = match (cuts(u_span, uw), cuts(t_span, tw)) {
-        (true, true) => "constrains both Υ and τ",
-        (true, false) => "constrains Υ (not τ) on this grid",
-        (false, true) => "constrains τ (not Υ) on this grid",
+        (true, true) => "constrains both ϒ and τ",
+        (true, false) => "constrains ϒ (not τ) on this grid",
+        (false, true) => "constrains τ (not ϒ) on this grid",
         (false, false) if frac < 0.999 => {
             "excludes part of the grid (a corner or an edge) without closing the range of either parameter"
         }
         (false, false) => "excludes no grid point",
     };
     format!(
-        "{}: {what}; its own 95.45 % region spans Υ ∈ [{:.3}, {:.3}], τ ∈ [{:.3}, {:.3}] ({:.0} % of the grid).",
+        "{}: {what}; its own 95.45 % region spans ϒ ∈ [{:.3}, {:.3}], τ ∈ [{:.3}, {:.3}] ({:.0} % of the grid).",
         term_words(t),
         u_span.0,
         u_span.1,
@@ -162,7 +162,7 @@ pub(crate) fn write_report_files(
             .then(|| {
                 (
                     RELATIVISTIC_BOUND_UPSILON,
-                    "relativistic existence bound Υ > −4/9 (Babichev et al. 2016)".to_string(),
+                    "relativistic existence bound ϒ > −4/9 (Babichev et al. 2016)".to_string(),
                 )
             }),
     };
@@ -274,7 +274,7 @@ pub(crate) fn write_report_files(
     let n_anchored = count_flag("radius_anchored");
     if n_anchored > 0 {
         warnings.push(Warning::Other(format!(
-            "{n_anchored} white dwarf(s) tested against their own radius_model (anchored: radius_model × R(M; Υ, τ)/R(M; 0, 0)); the others against the tool's {} model",
+            "{n_anchored} white dwarf(s) tested against their own radius_model (anchored: radius_model × R(M; ϒ, τ)/R(M; 0, 0)); the others against the tool's {} model",
             ctx.eopts.radius.model.name()
         )));
     }
@@ -296,7 +296,7 @@ pub(crate) fn write_report_files(
     }
     if ctx.slice.is_none() {
         warnings.push(Warning::Other(
-            "No Υ interval at τ = 0: the grid has no τ = 0 row with a model on at least two Υ values.".into(),
+            "No ϒ interval at τ = 0: the grid has no τ = 0 row with a model on at least two ϒ values.".into(),
         ));
     }
     let reduction_error = ctx
@@ -311,12 +311,12 @@ pub(crate) fn write_report_files(
             check_points: 256,
         });
     let input = ReportInput {
-        title: "dwarfbound: allowed (Υ, τ) from very-low-mass stars, brown dwarfs and white dwarfs"
+        title: "dwarfbound: allowed (ϒ, τ) from very-low-mass stars, brown dwarfs and white dwarfs"
             .into(),
         generated_at: generated_at.into(),
         version: env!("CARGO_PKG_VERSION").into(),
         model: ModelDescription {
-            structure: "Newtonian hydrostatic equilibrium with the beyond-Horndeski term G[M/r² + (Υ/4) d²M/dr²] inside matter (Kobayashi, Watanabe & Yamauchi 2015; Koyama & Sakstein 2015), polytropic Lane–Emden models (n = 3/2 for fully convective objects, n = 3 for the Chandrasekhar mass) and the zero-temperature Chandrasekhar equation of state for white-dwarf radii".into(),
+            structure: "Newtonian hydrostatic equilibrium with the beyond-Horndeski term G[M/r² + (ϒ/4) d²M/dr²] inside matter (Kobayashi, Watanabe & Yamauchi 2015; Koyama & Sakstein 2015), polytropic Lane–Emden models (n = 3/2 for fully convective objects, n = 3 for the Chandrasekhar mass) and the zero-temperature Chandrasekhar equation of state for white-dwarf radii".into(),
             anisotropy_ansatz: format!(
                 "{} (τ is this ansatz's strength; see docs/structure.md §2)",
                 t.anisotropy.name()
@@ -328,7 +328,7 @@ pub(crate) fn write_report_files(
             mmhb_mode: mode.to_string(),
             mmhb_anchor: match t.mmhb_mode {
                 crate::theory::mmhb::MmhbMode::Anchored { anchor_msun, .. } => format!(
-                    "{anchor_msun} M☉ in standard gravity (evolutionary models, ≈ 0.072–0.075 M☉; from memory, docs/bounds.md §4) times the analytic shift Φ(Υ, τ)"
+                    "{anchor_msun} M☉ in standard gravity (evolutionary models, ≈ 0.072–0.075 M☉; from memory, docs/bounds.md §4) times the analytic shift Φ(ϒ, τ)"
                 ),
                 crate::theory::mmhb::MmhbMode::Raw => "none: the raw analytic value".into(),
             },
@@ -356,7 +356,7 @@ pub(crate) fn write_report_files(
                         100.0 * ctx.eopts.radius.cold_floor_fraction
                     ),
                     crate::confront::wd_radius::WdRadiusModel::Hot => format!(
-                        "white-dwarf radius, per object: {} % for carbon–oxygen cores up to {} K, rising to {} % at {} K, helium cores {} % more in quadrature, plus half the thick–thin spread where the hydrogen layer is not stated, the Teff error through dR/dTeff and 0.5 |Υ| (R_hot/R_cold − 1) for the anchored Υ dependence (choices, docs/white-dwarfs.md §13)",
+                        "white-dwarf radius, per object: {} % for carbon–oxygen cores up to {} K, rising to {} % at {} K, helium cores {} % more in quadrature, plus half the thick–thin spread where the hydrogen layer is not stated, the Teff error through dR/dTeff and 0.5 |ϒ| (R_hot/R_cold − 1) for the anchored ϒ dependence (choices, docs/white-dwarfs.md §13)",
                         100.0 * ctx.eopts.radius.hot_floor_fraction,
                         ctx.eopts.radius.hot_ramp_start_k,
                         100.0 * (ctx.eopts.radius.hot_floor_fraction + ctx.eopts.radius.hot_ramp_extra_fraction),
@@ -367,11 +367,11 @@ pub(crate) fn write_report_files(
             ),
             white_dwarf: match ctx.eopts.radius.model {
                 crate::confront::wd_radius::WdRadiusModel::Cold => format!(
-                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)); Newtonian order, zero temperature, no Coulomb or envelope corrections; radii from the full-EOS R(M) tabulated per grid point (the zero-temperature model, chosen with --wd-model cold)",
+                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(ϒ,τ)/ω₃(0,0)); Newtonian order, zero temperature, no Coulomb or envelope corrections; radii from the full-EOS R(M) tabulated per grid point (the zero-temperature model, chosen with --wd-model cold)",
                     t.chandrasekhar_mode.name()
                 ),
                 crate::confront::wd_radius::WdRadiusModel::Hot => format!(
-                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(Υ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice term, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, times the ratio R_cold(M; Υ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation, Newtonian structure (docs/white-dwarfs.md)",
+                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(ϒ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice term, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, times the ratio R_cold(M; ϒ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation, Newtonian structure (docs/white-dwarfs.md)",
                     t.chandrasekhar_mode.name()
                 ),
             },
@@ -398,7 +398,7 @@ pub(crate) fn write_report_files(
             ),
             extra: vec![(
                 "Sensitivity".into(),
-                "In this framework the MMHB moves by well under 1 % for |Υ| ≤ 0.1 but by about 10 % per 0.1 in τ: the hydrogen-burning and brown-dwarf tests constrain τ; the white-dwarf tests carry most of the information on Υ.".into(),
+                "In this framework the MMHB moves by well under 1 % for |ϒ| ≤ 0.1 but by about 10 % per 0.1 in τ: the hydrogen-burning and brown-dwarf tests constrain τ; the white-dwarf tests carry most of the information on ϒ.".into(),
             )],
         },
         grid: GridDescription {
@@ -542,7 +542,7 @@ pub(crate) fn write_report_files(
         warnings,
         since_previous: ctx.since_previous.clone(),
         cautions: vec![
-            "Intervals are read off a grid: their precision is limited by the grid spacing (the Υ interval at τ = 0 uses a 10× finer sub-grid with cubic interpolation of the bounds).".into(),
+            "Intervals are read off a grid: their precision is limited by the grid spacing (the ϒ interval at τ = 0 uses a 10× finer sub-grid with cubic interpolation of the bounds).".into(),
         ],
     };
     let data = super::report_figures::data_figures(ctx);

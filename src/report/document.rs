@@ -230,7 +230,7 @@ pub(crate) fn build(
     let mut best = vec![
         b("Best fit: "),
         t(format!(
-            "Υ = {}, τ = {} (−2 ln L = {})",
+            "ϒ = {}, τ = {} (−2 ln L = {})",
             fmt_param(bf.upsilon),
             fmt_param(bf.tau),
             fmt_sig(bf.minus_two_ln_l, 5)
@@ -252,7 +252,7 @@ pub(crate) fn build(
         .or_else(|| intervals.first());
     if let Some(main) = main_interval {
         let mut p = vec![
-            b(format!("Υ at τ = 0 ({}, one parameter): ", main.level)),
+            b(format!("ϒ at τ = 0 ({}, one parameter): ", main.level)),
             t(interval_text(main.lower, main.upper)),
         ];
         let others: Vec<String> = intervals
@@ -277,16 +277,16 @@ pub(crate) fn build(
         .unwrap_or_default();
     summary.push(match sg.allowed_cl95 {
         Some(true) => vec![
-            b("Standard gravity (Υ = τ = 0): "),
+            b("Standard gravity (ϒ = τ = 0): "),
             t(format!("allowed at {cl95}{dchi}.")),
         ],
         Some(false) => vec![
-            b("Standard gravity (Υ = τ = 0): "),
+            b("Standard gravity (ϒ = τ = 0): "),
             b(format!("excluded at {cl95}")),
             t(format!("{dchi}.")),
         ],
         None => vec![
-            b("Standard gravity (Υ = τ = 0): "),
+            b("Standard gravity (ϒ = τ = 0): "),
             t("not evaluated (not on the grid or no model there)."),
         ],
     });
@@ -340,7 +340,7 @@ pub(crate) fn build(
     let missing = map.delta_chi2.iter().filter(|v| v.is_none()).count();
     let lv = &map.levels;
     let mut caption = vec![t(format!(
-        "Joint Δχ² over Υ and τ ({} ansatz). Filled: allowed at {} (darkest), {} and {} \
+        "Joint Δχ² over ϒ and τ ({} ansatz). Filled: allowed at {} (darkest), {} and {} \
          (lightest), two-parameter Δχ² ≤ {}, {}, {}; white: excluded at {}.",
         map.anisotropy_name,
         lv[0].label,
@@ -371,7 +371,7 @@ pub(crate) fn build(
         ));
     }
     caption.push(t(
-        " Diamond: standard gravity (Υ = τ = 0); circled cross: best fit.",
+        " Diamond: standard gravity (ϒ = τ = 0); circled cross: best fit.",
     ));
     if missing > 0 {
         caption.push(t(format!(
@@ -382,15 +382,15 @@ pub(crate) fn build(
     blocks.push(Block::Figure {
         kind: FigureKind::Allowed,
         svg: allowed_svg,
-        alt: "Allowed-region map in the (Υ, τ) plane".into(),
+        alt: "Allowed-region map in the (ϒ, τ) plane".into(),
         caption,
     });
     blocks.push(Block::Subheading("Extent of the allowed region".into()));
     blocks.push(Block::Table {
         header: vec![
             "level".into(),
-            "Υ min".into(),
-            "Υ max".into(),
+            "ϒ min".into(),
+            "ϒ max".into(),
             "τ min".into(),
             "τ max".into(),
             "fraction of grid".into(),
@@ -415,11 +415,11 @@ pub(crate) fn build(
         "Grid extent of the points allowed at each level (two-parameter Δχ²); a value at a grid \
          end means the region may continue beyond the grid.",
     )]));
-    blocks.push(Block::Subheading("Υ at τ = 0".into()));
+    blocks.push(Block::Subheading("ϒ at τ = 0".into()));
     if intervals.is_empty() {
         blocks.push(Block::Para(vec![t(
-            "Not computed: the grid has no τ = 0 row with a model on at least two Υ values, so \
-             no one-parameter interval in Υ (and no driver analysis) follows from this grid.",
+            "Not computed: the grid has no τ = 0 row with a model on at least two ϒ values, so \
+             no one-parameter interval in ϒ (and no driver analysis) follows from this grid.",
         )]));
     } else {
         blocks.push(Block::Table {
@@ -448,9 +448,9 @@ pub(crate) fn build(
     blocks.push(Block::Figure {
         kind: FigureKind::Bounds,
         svg: bounds_svg,
-        alt: "Predicted bounds against Υ for several τ".into(),
+        alt: "Predicted bounds against ϒ for several τ".into(),
         caption: vec![t(
-            "The bounds the objects are confronted with, against Υ at a few values of τ, as \
+            "The bounds the objects are confronted with, against ϒ at a few values of τ, as \
              predicted by the model stated below (without their theory floors).",
         )],
     });
@@ -460,11 +460,11 @@ pub(crate) fn build(
     let thr = fmt_sig(input.tensions.threshold_sigma, 3);
     if input.tensions.rows.is_empty() {
         blocks.push(Block::Para(vec![t(format!(
-            "No object is in tension above {thr} σ at Υ = τ = 0."
+            "No object is in tension above {thr} σ at ϒ = τ = 0."
         ))]));
     } else {
         blocks.push(Block::Para(vec![t(format!(
-            "Objects whose tension with their class's bound at Υ = τ = 0 exceeds {thr} σ \
+            "Objects whose tension with their class's bound at ϒ = τ = 0 exceeds {thr} σ \
              (one-sided; positive means the object sits on the wrong side of the bound). Look \
              at these first: a measurement problem, a misclassified object, or physics."
         ))]));
@@ -473,7 +473,7 @@ pub(crate) fn build(
                 "id".into(),
                 "class".into(),
                 "mass".into(),
-                "σ at Υ = τ = 0".into(),
+                "σ at ϒ = τ = 0".into(),
                 "σ at best fit".into(),
             ],
             rows: input
@@ -498,15 +498,15 @@ pub(crate) fn build(
     blocks.push(Block::Heading("Drivers".into()));
     if intervals.is_empty() {
         blocks.push(Block::Para(vec![t(
-            "Not computed: there is no Υ interval at τ = 0 on this grid.",
+            "Not computed: there is no ϒ interval at τ = 0 on this grid.",
         )]));
     } else if input.drivers.is_empty() {
         blocks.push(Block::Para(vec![t(format!(
-            "No single object moves the {cl95} interval in Υ at τ = 0 when left out."
+            "No single object moves the {cl95} interval in ϒ at τ = 0 when left out."
         ))]));
     } else {
         blocks.push(Block::Para(vec![t(format!(
-            "Leave-one-out influence: how far the {cl95} interval in Υ at τ = 0 moves when one \
+            "Leave-one-out influence: how far the {cl95} interval in ϒ at τ = 0 moves when one \
              object is left out (the larger shift of its two ends)."
         ))]));
         blocks.push(Block::Table {
@@ -604,7 +604,7 @@ pub(crate) fn build(
     let g = &input.grid;
     let mut grid_items = vec![
         vec![
-            b("Υ: "),
+            b("ϒ: "),
             t(format!(
                 "{} to {} in {} points",
                 fmt_param(g.upsilon.start),
@@ -727,7 +727,7 @@ fn warning_text(w: &Warning) -> Para {
         } => vec![
             b("Existence bound: "),
             t(format!(
-                "part of the grid lies below Υ = {}, the relativistic existence bound ({}). That \
+                "part of the grid lies below ϒ = {}, the relativistic existence bound ({}). That \
                  range is theoretically disfavoured; it is shown, not used to cut the statistics.",
                 fmt_param(*upsilon_bound),
                 source

@@ -89,7 +89,7 @@ pub struct WdMassRadius {
     pub curves: Vec<ModelCurve>,
     /// Number of distinct colours among the curves.
     pub n_colours: usize,
-    /// The best-fit point (Υ, τ) the dashed curves are drawn at.
+    /// The best-fit point (ϒ, τ) the dashed curves are drawn at.
     pub best_fit: (f64, f64),
     /// Objects with |σ| above this are highlighted.
     pub tension_sigma: f64,
@@ -97,12 +97,12 @@ pub struct WdMassRadius {
     pub model_note: String,
 }
 
-/// The one-parameter Δχ² along τ = 0 on the fine Υ axis.
+/// The one-parameter Δχ² along τ = 0 on the fine ϒ axis.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ProfileTau0 {
-    /// Υ, ascending.
+    /// ϒ, ascending.
     pub upsilon: Vec<f64>,
-    /// Δχ² relative to the slice minimum, one per Υ.
+    /// Δχ² relative to the slice minimum, one per ϒ.
     pub delta_chi2: Vec<f64>,
     /// (label, Δχ²) of the one-parameter thresholds, e.g. ("95.45 %", 4).
     pub thresholds: Vec<(String, f64)>,

@@ -64,10 +64,10 @@ pub struct ClassOutline {
     pub delta_chi2: Vec<Option<f64>>,
 }
 
-/// The joint Δχ² over the (Υ, τ) grid, ready to be drawn as an allowed-region map.
+/// The joint Δχ² over the (ϒ, τ) grid, ready to be drawn as an allowed-region map.
 #[derive(Debug, Clone, PartialEq)]
 pub struct AllowedMap {
-    /// Υ grid values, strictly ascending.
+    /// ϒ grid values, strictly ascending.
     pub upsilon: Vec<f64>,
     /// τ grid values, strictly ascending.
     pub tau: Vec<f64>,
@@ -78,18 +78,18 @@ pub struct AllowedMap {
     pub levels: [Level; 3],
     /// Each class's own region, drawn as thin dashed outlines.
     pub class_outlines: Vec<ClassOutline>,
-    /// Best-fit point (Υ, τ).
+    /// Best-fit point (ϒ, τ).
     pub best_fit: (f64, f64),
-    /// The standard-gravity point (Υ, τ) = (0, 0), marked and labelled.
+    /// The standard-gravity point (ϒ, τ) = (0, 0), marked and labelled.
     pub standard_gravity: (f64, f64),
     /// The anisotropy ansatz τ belongs to, used in the τ axis label.
     pub anisotropy_name: String,
-    /// Optional vertical marker: Υ below this value is theoretically disfavoured (for example
+    /// Optional vertical marker: ϒ below this value is theoretically disfavoured (for example
     /// the relativistic existence bound), with its label. Drawn, never used to cut the map.
     pub disfavoured_below_upsilon: Option<(f64, String)>,
 }
 
-/// One curve of a bound against Υ at fixed τ.
+/// One curve of a bound against ϒ at fixed τ.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BoundSeries {
     /// Which bound, e.g. `"MMHB"` or `"Chandrasekhar mass"`; series with the same label and unit
@@ -104,10 +104,10 @@ pub struct BoundSeries {
     pub values: Vec<Option<f64>>,
 }
 
-/// Predicted bounds against Υ for a few τ.
+/// Predicted bounds against ϒ for a few τ.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BoundsCurves {
-    /// Υ values shared by every series, strictly ascending.
+    /// ϒ values shared by every series, strictly ascending.
     pub upsilon: Vec<f64>,
     /// The curves; grouped into panels by (bound label, unit) in order of first appearance.
     pub series: Vec<BoundSeries>,
@@ -127,7 +127,7 @@ pub struct AxisSpec {
 /// The grid the confrontation ran on.
 #[derive(Debug, Clone, PartialEq)]
 pub struct GridDescription {
-    /// The Υ axis.
+    /// The ϒ axis.
     pub upsilon: AxisSpec,
     /// The τ axis.
     pub tau: AxisSpec,
@@ -178,7 +178,7 @@ pub struct CatalogueSummary {
 /// The best grid point.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BestFit {
-    /// Υ at the best fit.
+    /// ϒ at the best fit.
     pub upsilon: f64,
     /// τ at the best fit.
     pub tau: f64,
@@ -193,9 +193,9 @@ pub struct BestFit {
 pub struct AllowedRange {
     /// Level label, e.g. `"95.45 %"`.
     pub level: String,
-    /// Smallest allowed Υ on the grid (`None` if nothing is allowed).
+    /// Smallest allowed ϒ on the grid (`None` if nothing is allowed).
     pub upsilon_min: Option<f64>,
-    /// Largest allowed Υ on the grid.
+    /// Largest allowed ϒ on the grid.
     pub upsilon_max: Option<f64>,
     /// Smallest allowed τ on the grid.
     pub tau_min: Option<f64>,
@@ -205,7 +205,7 @@ pub struct AllowedRange {
     pub fraction_of_grid: f64,
 }
 
-/// One-parameter interval in Υ at τ = 0 at one level.
+/// One-parameter interval in ϒ at τ = 0 at one level.
 #[derive(Debug, Clone, PartialEq)]
 pub struct UpsilonInterval {
     /// Level label, e.g. `"95.45 %"`.
@@ -216,7 +216,7 @@ pub struct UpsilonInterval {
     pub upper: Option<f64>,
 }
 
-/// Standard gravity (Υ = τ = 0) against the data.
+/// Standard gravity (ϒ = τ = 0) against the data.
 #[derive(Debug, Clone, PartialEq)]
 pub struct StandardGravityStatus {
     /// Allowed at 95.45 %? `None` when (0, 0) is not on the grid or has no model.
@@ -261,7 +261,7 @@ pub struct TensionRow {
     pub class: String,
     /// Prepared mass text with errors or limit, e.g. `"0.0712 +0.0020/−0.0030 M☉"`.
     pub mass_text: String,
-    /// Tension in σ at Υ = τ = 0.
+    /// Tension in σ at ϒ = τ = 0.
     pub sigma_standard_gravity: f64,
     /// Tension in σ at the best fit.
     pub sigma_best_fit: Option<f64>,
@@ -276,7 +276,7 @@ pub struct TensionTable {
     pub rows: Vec<TensionRow>,
 }
 
-/// How far removing one object moves the 95.45 % Υ interval at τ = 0.
+/// How far removing one object moves the 95.45 % ϒ interval at τ = 0.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Shift {
     /// Both ends stay closed or open; the larger end shift.
@@ -349,7 +349,7 @@ pub enum Warning {
     /// Part of the grid lies below a relativistic existence bound (theoretically disfavoured,
     /// not used to cut the statistics).
     BelowRelativisticExistenceBound {
-        /// The bound on Υ.
+        /// The bound on ϒ.
         upsilon_bound: f64,
         /// Its source, e.g. "Babichev et al. 2016".
         source: String,
@@ -378,7 +378,7 @@ pub struct ReportInput {
     pub best_fit: BestFit,
     /// Allowed ranges per level, innermost first.
     pub allowed: Vec<AllowedRange>,
-    /// Υ interval at τ = 0 per level (one-parameter Δχ²), innermost first.
+    /// ϒ interval at τ = 0 per level (one-parameter Δχ²), innermost first.
     pub upsilon_interval_at_tau0: Vec<UpsilonInterval>,
     /// Standard gravity's status.
     pub standard_gravity: StandardGravityStatus,
@@ -448,7 +448,7 @@ impl AllowedMap {
 
     /// Checks shapes, ordering and finiteness so drawing never meets NaN or a ragged grid.
     pub fn validate(&self) -> Result<(), ReportError> {
-        ascending("allowed map Υ axis", &self.upsilon)?;
+        ascending("allowed map ϒ axis", &self.upsilon)?;
         ascending("allowed map τ axis", &self.tau)?;
         let n = self.upsilon.len() * self.tau.len();
         grid_values("allowed map Δχ²", &self.delta_chi2, n)?;
@@ -472,12 +472,12 @@ impl AllowedMap {
                 "level thresholds must be strictly ascending".into(),
             ));
         }
-        finite("best-fit Υ", self.best_fit.0)?;
+        finite("best-fit ϒ", self.best_fit.0)?;
         finite("best-fit τ", self.best_fit.1)?;
-        finite("standard-gravity Υ", self.standard_gravity.0)?;
+        finite("standard-gravity ϒ", self.standard_gravity.0)?;
         finite("standard-gravity τ", self.standard_gravity.1)?;
         if let Some((u, _)) = &self.disfavoured_below_upsilon {
-            finite("disfavoured Υ", *u)?;
+            finite("disfavoured ϒ", *u)?;
         }
         Ok(())
     }
@@ -486,7 +486,7 @@ impl AllowedMap {
 impl BoundsCurves {
     /// Checks shapes, ordering and finiteness.
     pub fn validate(&self) -> Result<(), ReportError> {
-        ascending("bounds Υ axis", &self.upsilon)?;
+        ascending("bounds ϒ axis", &self.upsilon)?;
         for s in &self.series {
             finite("series τ", s.tau)?;
             grid_values(
@@ -503,7 +503,7 @@ impl ReportInput {
     /// Checks that every number the report prints is finite.
     pub fn validate(&self) -> Result<(), ReportError> {
         let b = &self.best_fit;
-        finite("best-fit Υ", b.upsilon)?;
+        finite("best-fit ϒ", b.upsilon)?;
         finite("best-fit τ", b.tau)?;
         finite("best-fit −2 ln L", b.minus_two_ln_l)?;
         for a in &self.allowed {
@@ -517,7 +517,7 @@ impl ReportInput {
         }
         for i in &self.upsilon_interval_at_tau0 {
             for x in [i.lower, i.upper].into_iter().flatten() {
-                finite("Υ interval end", x)?;
+                finite("ϒ interval end", x)?;
             }
         }
         let s = &self.standard_gravity;

@@ -110,7 +110,7 @@ pub fn fmt_sig(x: f64, digits: usize) -> String {
     }
 }
 
-/// A grid parameter (Υ or τ) for reading: 4 significant digits.
+/// A grid parameter (ϒ or τ) for reading: 4 significant digits.
 pub fn fmt_param(x: f64) -> String {
     fmt_sig(x, 4)
 }

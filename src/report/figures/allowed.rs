@@ -1,5 +1,5 @@
-//! The allowed-region map: the joint Δχ² levels in the (Υ, τ) plane, each class's own region
-//! as an outline, cells without a model hatched, the disfavoured Υ range, the best-fit and
+//! The allowed-region map: the joint Δχ² levels in the (ϒ, τ) plane, each class's own region
+//! as an outline, cells without a model hatched, the disfavoured ϒ range, the best-fit and
 //! standard-gravity markers, and a legend.
 //!
 //! Levels are filled by contours of the gridded Δχ² ([`super::contour`]), painted outermost first
@@ -86,7 +86,7 @@ fn draw_allowed<DB: DrawingBackend>(
     let (width, height) = root.dim_in_pixel();
     let (chart_area, legend_area) = root.split_horizontally(width as i32 - 290);
     let chart_area = chart_area.margin(10, 10, 10, 10);
-    let title = "Region of (Υ, τ) allowed by the catalogues";
+    let title = "Region of (ϒ, τ) allowed by the catalogues";
     pen.text(
         &chart_area,
         title,
@@ -209,7 +209,7 @@ fn draw_allowed<DB: DrawingBackend>(
         root,
         &chart,
         (10, 10),
-        "Υ (dimensionless)",
+        "ϒ (dimensionless)",
         &tau_desc,
         (16.5, 20.0),
         pen,
@@ -249,7 +249,7 @@ fn draw_allowed<DB: DrawingBackend>(
         }
     }
 
-    // 5. Theoretically disfavoured Υ range.
+    // 5. Theoretically disfavoured ϒ range.
     if let Some((u, _)) = &map.disfavoured_below_upsilon {
         if *u > x_lo && *u < x_hi {
             let a = chart.backend_coord(&(*u, y_lo));
@@ -419,7 +419,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
     y += 33;
     draw_standard_marker(area, (x0 + 17, y), 9)?;
     let sg = if standard_inside {
-        "standard gravity (Υ = τ = 0)".to_string()
+        "standard gravity (ϒ = τ = 0)".to_string()
     } else {
         "standard gravity: outside the grid".to_string()
     };
@@ -442,7 +442,7 @@ fn draw_allowed_legend<DB: DrawingBackend>(
         )?;
         pen.text(
             area,
-            &format!("Υ < {} disfavoured:", short(*u)),
+            &format!("ϒ < {} disfavoured:", short(*u)),
             &body,
             (x0 + 44, y),
         )?;

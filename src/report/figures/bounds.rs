@@ -1,4 +1,4 @@
-//! The bounds figure: each predicted bound against Υ, one panel per bound (two columns), one
+//! The bounds figure: each predicted bound against ϒ, one panel per bound (two columns), one
 //! curve per τ with a shared legend; a curve breaks where there is no model.
 //!
 //! ```no_run
@@ -85,7 +85,7 @@ fn draw_bounds<DB: DrawingBackend>(
     let (main, legend) = root.split_horizontally(width as i32 - 190);
     pen.text(
         &main,
-        "Predicted bounds against Υ at fixed τ",
+        "Predicted bounds against ϒ at fixed τ",
         &text_style(23.0).pos(Pos::new(HPos::Center, VPos::Top)),
         ((width as i32 - 190) / 2, 8),
     )?;
@@ -144,7 +144,7 @@ fn draw_bounds<DB: DrawingBackend>(
             root,
             &chart,
             (8, 8),
-            "Υ (dimensionless)",
+            "ϒ (dimensionless)",
             &format!("{} ({})", truncate(label, 30), truncate(unit, 12)),
             (15.0, 18.0),
             pen,

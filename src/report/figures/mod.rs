@@ -1,8 +1,8 @@
 //! The figures of the report, one file each, drawn with a shared kit.
 //!
 //! [`kit`] holds what every figure needs (font, pens, palette, axes and ticks, line work,
-//! markers, the SVG and PNG renderers); [`allowed`] draws the allowed-region map in the (Υ, τ)
-//! plane, [`bounds`] the predicted bounds against Υ, [`wd_mass_radius`] the white dwarfs over
+//! markers, the SVG and PNG renderers); [`allowed`] draws the allowed-region map in the (ϒ, τ)
+//! plane, [`bounds`] the predicted bounds against ϒ, [`wd_mass_radius`] the white dwarfs over
 //! the model's mass–radius curves, [`profile`] the Δχ² along τ = 0 and [`mass_bounds`] each
 //! class's masses against its bound. A new figure is a file here with a
 //! drawing routine generic over the plotters backend and two public `render_*` functions that

@@ -8,7 +8,7 @@
 //! let (x_lo, x_hi) = axis_range(&upsilon);
 //! let mut chart = ChartBuilder::on(&area).build_cartesian_2d(x_lo..x_hi, 0.0..1.0).map_err(err)?;
 //! draw_mesh(&mut chart, 8, 15.0, 0.3)?;
-//! draw_axis_text(&root, &chart, (8, 8), "Υ (dimensionless)", "bound", (15.0, 18.0), pen)?;
+//! draw_axis_text(&root, &chart, (8, 8), "ϒ (dimensionless)", "bound", (15.0, 18.0), pen)?;
 //! ```
 
 use plotters::coord::types::RangedCoordf64;

@@ -9,7 +9,7 @@
 //!
 //! ```ignore
 //! let metrics = FontMetrics::parse(FONT_BYTES).unwrap();
-//! draw_text_glyphwise(&area, "Υ (dimensionless)", &style, (400, 700), &metrics)?;
+//! draw_text_glyphwise(&area, "ϒ (dimensionless)", &style, (400, 700), &metrics)?;
 //! ```
 
 use plotters::coord::Shift;
@@ -217,7 +217,7 @@ mod tests {
     #[test]
     fn cmap_covers_the_report_alphabet() {
         let m = metrics();
-        for c in "AZaz09ΥτΔχ²☉σ−±≤".chars() {
+        for c in "AZaz09ϒτΔχ²☉σ−±≤".chars() {
             assert!(m.glyph_id(c).is_some(), "{c} has no glyph");
         }
         assert!(m.glyph_id('\u{E000}').is_none());
@@ -231,7 +231,7 @@ mod tests {
         super::super::ensure_font().unwrap();
         let m = metrics();
         let size = 40.0;
-        let text = "Hmm 0.075 Υτ";
+        let text = "Hmm 0.075 ϒτ";
         let font = FontDesc::new(PFamily::Name(super::super::FONT), size, PStyle::Normal);
         let (w, _) = font.box_size(text).unwrap();
         let ours: f64 = text

@@ -11,7 +11,7 @@
 //! ```ignore
 //! fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, pen: Pen<'_>) -> DrawResult {
 //!     root.fill(&WHITE).map_err(err)?;
-//!     pen.text(root, "Υ", &text_style(16.0), (20, 20))
+//!     pen.text(root, "ϒ", &text_style(16.0), (20, 20))
 //! }
 //! let svg = svg_string((200, 100), "example (SVG)", |root| draw(root, SVG_PEN))?;
 //! let png = png_bytes((200, 100), "example (PNG)", |root| draw(root, png_pen()))?;
