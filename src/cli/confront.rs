@@ -6,23 +6,9 @@ use crate::pipeline::confront::{
     run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings, PipelineError,
     StatisticsSettings, TheorySource,
 };
+use crate::pipeline::defaults::{DEFAULT_TAU, DEFAULT_UPSILON};
 use crate::pipeline::history::{now_unix_s, utc_stamp};
 use crate::theory::point::TheorySettings;
-use crate::theory::Axis;
-
-/// Default Υ axis when none is given: the range of the README's grid example
-/// (`--upsilon=-0.3:0.6:91`) at half its resolution, which keeps a first run quick.
-pub const DEFAULT_UPSILON: Axis = Axis {
-    start: -0.3,
-    stop: 0.6,
-    count: 46,
-};
-/// Default τ axis when none is given.
-pub const DEFAULT_TAU: Axis = Axis {
-    start: -0.3,
-    stop: 0.3,
-    count: 31,
-};
 
 impl From<PipelineError> for CliError {
     fn from(e: PipelineError) -> Self {

@@ -75,19 +75,93 @@ pub struct Cli {
     pub command: Command,
 }
 
+/// Worked examples closing `vet --help` (run from the repository root, on the demo files).
+const VET_EXAMPLES: &str = "\
+Examples (from the repository root, on the invented demo catalogues):
+  dwarfbound vet catalogs-demo/vlm_stars.csv catalogs-demo/brown_dwarfs.csv
+      vet two catalogues; prints rows in/accepted/quarantined per class and writes
+      reports/vet/accepted.csv and reports/vet/quarantine.csv
+  dwarfbound vet catalogs-demo/messy_survey.csv --map catalogs-demo/messy_survey.map.toml --out reports/vet-messy
+      rename and convert a survey's own columns with a column map: 48 rows in, 40 accepted,
+      8 quarantined, each with its reason in quarantine.csv
+  dwarfbound vet catalogs-demo/messy_survey.csv --map catalogs-demo/messy_survey.map.toml --strict --json
+      the same summary as JSON; exit code 4 because rows were quarantined (for scripts)";
+
+/// Worked examples closing `predict --help`.
+const PREDICT_EXAMPLES: &str = "\
+Examples:
+  dwarfbound predict --upsilon 0.1 --tau 0
+      every bound at one point, in words (MMHB, Chandrasekhar mass, Lane–Emden constants, …)
+  dwarfbound predict --upsilon 0.1 --tau 0 --json
+      the same as JSON (keys in the README, \"Keys of predict --json\")
+  dwarfbound predict --upsilon=-0.3:0.6:91 --tau=-0.3:0.3:61 --out reports/predict
+      a grid: bounds.csv, bounds.svg and bounds.png in reports/predict
+  dwarfbound defaults
+      every default of the theory and the statistics, with its unit and reason";
+
+/// Worked examples closing `confront --help`.
+const CONFRONT_EXAMPLES: &str = "\
+Examples (from the repository root, on the invented demo catalogues):
+  dwarfbound confront catalogs-demo/vlm_stars.csv catalogs-demo/brown_dwarfs.csv catalogs-demo/white_dwarfs.csv --out reports/demo
+      the default grid (ϒ -0.3:0.6:46, τ -0.3:0.3:31); open reports/demo/report.html
+  dwarfbound confront catalogs-demo/white_dwarfs.csv --upsilon=-0.1:0.1:41 --tau=-0.05:0.05:21 --out reports/zoom
+      a finer grid around standard gravity, as the report's zoomed map suggests
+  dwarfbound confront catalogs-demo/white_dwarfs.csv --tau 0 --wd-model cold --out reports/cold
+      only the τ = 0 line, with the zero-temperature radius model of earlier versions";
+
+/// Worked examples closing `run --help`.
+const RUN_EXAMPLES: &str = "\
+Examples (from the repository root):
+  dwarfbound run catalogs-demo/nightly.toml
+      a dated run folder under reports/nightly/runs/, `latest` pointing at it, and the
+      difference from the previous run; exit code 3 when an alarm fires
+  dwarfbound defaults > my-run.toml
+      start a config from every default: add `output = \"reports/my-run\"` as its first line
+      and a [[catalogue]] list, then `dwarfbound run my-run.toml`
+  for i in 1 2 3 4; do dwarfbound run catalogs-demo/nightly.toml --shard $i/4; done
+      the theory grid in four shards (on four machines, say); combine with `dwarfbound merge`";
+
+/// Worked examples closing `merge --help`.
+const MERGE_EXAMPLES: &str = "\
+Examples (from the repository root):
+  for i in 1 2 3 4; do dwarfbound run catalogs-demo/nightly.toml --shard $i/4; done
+  dwarfbound merge reports/nightly/shards/*-of-4
+      publish the merged grid as the config's next run (same result as one unsharded run)
+  dwarfbound merge reports/nightly/shards/*-of-4 --out reports/merged
+      write the merged result into one folder instead";
+
+/// Worked examples closing `defaults --help`.
+const DEFAULTS_EXAMPLES: &str = "\
+Examples:
+  dwarfbound defaults
+      print the defaults, each with its unit, its reason and the docs/ section explaining it
+  dwarfbound defaults > my-run.toml
+      a run config to edit: add `output = \"reports/my-run\"` as its first line and
+        [[catalogue]]
+        path = \"catalogs-demo/vlm_stars.csv\"
+      then `dwarfbound run my-run.toml` gives the result of `dwarfbound confront` on that file";
+
 /// The subcommands (their names are part of the contract listed in the README).
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Read and vet catalogues; write accepted.csv and quarantine.csv.
+    #[command(after_help = VET_EXAMPLES)]
     Vet(VetArgs),
-    /// Theory only: bounds at one (Υ, τ) point or over a grid.
+    /// Theory only: bounds at one (ϒ, τ) point or over a grid.
+    #[command(after_help = PREDICT_EXAMPLES)]
     Predict(PredictArgs),
     /// Vet, predict over a grid and confront: tensions, allowed region, maps, report.
+    #[command(after_help = CONFRONT_EXAMPLES)]
     Confront(ConfrontArgs),
     /// The whole pipeline from one config file, with cache and run-to-run difference.
+    #[command(after_help = RUN_EXAMPLES)]
     Run(RunArgs),
     /// Combine shard outputs of a grid split with --shard I/N into one result.
+    #[command(after_help = MERGE_EXAMPLES)]
     Merge(MergeArgs),
+    /// Print every default of the theory and statistics (unit, reason) as a `run` config.
+    #[command(after_help = DEFAULTS_EXAMPLES)]
+    Defaults,
 }
 
 /// Options shared by every command that reads catalogues.
@@ -259,6 +333,10 @@ pub fn main_with(cli: Cli) -> Exit {
         Command::Confront(a) => confront::run(a),
         Command::Run(a) => run::run(a),
         Command::Merge(a) => merge::run(a),
+        Command::Defaults => {
+            print!("{}", crate::pipeline::defaults::defaults_toml());
+            Ok(Exit::Ok)
+        }
     };
     match result {
         Ok(code) => code,

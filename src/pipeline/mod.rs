@@ -6,6 +6,7 @@ pub mod bounds_csv;
 pub mod cache;
 pub mod config;
 pub mod confront;
+pub mod defaults;
 pub mod error;
 pub mod history;
 pub mod lock;
