@@ -10,6 +10,7 @@
 
 use super::document::{Block, FigureKind, Inline};
 use super::figure_data::{DataFigures, WdPointFlag};
+use super::figures::Zoom;
 use super::text::fmt_sig;
 
 /// The SVG text of each data figure that was drawn.
@@ -123,4 +124,45 @@ pub(crate) fn blocks(data: &DataFigures, rendered: Rendered) -> Vec<Block> {
         out.insert(0, Block::Heading("The data against the theory".into()));
     }
     out
+}
+
+/// The zoomed map after the full one: the figure, and a caption saying what it covers, that the
+/// two-dimensional map is at the grid's own resolution, and which ranges would resolve it.
+pub(crate) fn zoom_blocks(z: &Zoom, svg: String) -> Vec<Block> {
+    let m = &z.map;
+    let (u, tt) = (&m.upsilon, &m.tau);
+    let mut caption = format!(
+        "The region allowed at {} fills {} % of the grid, so this panel zooms on ϒ ∈ [{}, {}], \
+         τ ∈ [{}, {}] (the region and two grid steps around it). It is drawn at the grid's own \
+         resolution (steps {} in ϒ and {} in τ): no finer two-dimensional grid is computed, so \
+         the outlines are as coarse as the grid.",
+        m.levels[2].label,
+        fmt_sig(100.0 * z.fraction_of_grid, 2),
+        fmt_sig(u[0], 4),
+        fmt_sig(u[u.len() - 1], 4),
+        fmt_sig(tt[0], 4),
+        fmt_sig(tt[tt.len() - 1], 4),
+        fmt_sig(z.steps.0, 3),
+        fmt_sig(z.steps.1, 3)
+    );
+    if let Some((label, lo, hi)) = &z.fine_interval {
+        caption.push_str(&format!(
+            " The bar at τ = 0 is the {} [{}, {}], read from the τ = 0 line on its 10× finer \
+             ϒ axis.",
+            label.trim_end_matches(':'),
+            fmt_sig(*lo, 3),
+            fmt_sig(*hi, 3)
+        ));
+    }
+    caption.push_str(" To resolve the region, run again over this window with finer steps: ");
+    vec![Block::Figure {
+        kind: FigureKind::AllowedZoom,
+        svg,
+        alt: "Zoom on the allowed region in the (ϒ, τ) plane".into(),
+        caption: vec![
+            t(caption),
+            Inline::Code(z.suggestion.clone()),
+            t(" (a quarter of the present spacing)."),
+        ],
+    }]
 }

@@ -49,6 +49,7 @@ pub(crate) enum Callout {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum FigureKind {
     Allowed,
+    AllowedZoom,
     Bounds,
     ProfileTau0,
     WdMassRadius,
@@ -60,6 +61,7 @@ impl FigureKind {
     pub fn stem(self) -> &'static str {
         match self {
             FigureKind::Allowed => "allowed",
+            FigureKind::AllowedZoom => "allowed_zoom",
             FigureKind::Bounds => "bounds",
             FigureKind::ProfileTau0 => "profile_tau0",
             FigureKind::WdMassRadius => "wd_mass_radius",
@@ -138,6 +140,7 @@ pub(crate) fn build(
     map: &AllowedMap,
     allowed_svg: String,
     bounds_svg: String,
+    zoom_section: Vec<Block>,
     data_section: Vec<Block>,
 ) -> Document {
     let mut blocks = Vec::new();
@@ -385,6 +388,7 @@ pub(crate) fn build(
         alt: "Allowed-region map in the (ϒ, τ) plane".into(),
         caption,
     });
+    blocks.extend(zoom_section);
     blocks.push(Block::Subheading("Extent of the allowed region".into()));
     blocks.push(Block::Table {
         header: vec![

@@ -35,8 +35,9 @@ pub use figure_data::{
 pub use figures::{
     outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
     render_bounds_svg, render_mass_bounds_png, render_mass_bounds_svg, render_profile_png,
-    render_profile_svg, render_wd_mass_radius_png, render_wd_mass_radius_svg, ALLOWED_SIZE,
-    BOUNDS_WIDTH, MASS_BOUNDS_WIDTH, PROFILE_SIZE, WD_MASS_RADIUS_SIZE,
+    render_profile_svg, render_wd_mass_radius_png, render_wd_mass_radius_svg, render_zoom_png,
+    render_zoom_svg, zoom_of, Zoom, ALLOWED_SIZE, BOUNDS_WIDTH, MASS_BOUNDS_WIDTH, PROFILE_SIZE,
+    WD_MASS_RADIUS_SIZE, ZOOM_BELOW_FRACTION,
 };
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
@@ -131,6 +132,13 @@ pub fn render_report_with(
     let bounds_svg = render_bounds_svg(curves)?;
     let bounds_png = render_bounds_png(curves)?;
     let mut data_figures = Vec::new();
+    let zoom = zoom_of(map, data.profile_tau0.as_ref());
+    let mut zoom_section = Vec::new();
+    if let Some(z) = &zoom {
+        let svg = render_zoom_svg(z)?;
+        zoom_section = data_blocks::zoom_blocks(z, svg.clone());
+        data_figures.push(("allowed_zoom", svg, render_zoom_png(z)?));
+    }
     if let Some(p) = &data.profile_tau0 {
         data_figures.push((
             "profile_tau0",
@@ -168,6 +176,7 @@ pub fn render_report_with(
         map,
         allowed_svg.clone(),
         bounds_svg.clone(),
+        zoom_section,
         data_blocks::blocks(data, extra),
     );
     Ok(RenderedReport {

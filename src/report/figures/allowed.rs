@@ -35,7 +35,7 @@ pub const ALLOWED_SIZE: (u32, u32) = (1000, 720);
 pub fn render_allowed_svg(map: &AllowedMap) -> Result<String, ReportError> {
     map.validate()?;
     svg_string(ALLOWED_SIZE, "allowed-region map (SVG)", |root| {
-        draw_allowed(root, map, SVG_PEN)
+        draw_allowed(root, map, &Extras::default(), SVG_PEN)
     })
 }
 
@@ -43,8 +43,18 @@ pub fn render_allowed_svg(map: &AllowedMap) -> Result<String, ReportError> {
 pub fn render_allowed_png(map: &AllowedMap) -> Result<Vec<u8>, ReportError> {
     map.validate()?;
     png_bytes(ALLOWED_SIZE, "allowed-region map (PNG)", |root| {
-        draw_allowed(root, map, png_pen())
+        draw_allowed(root, map, &Extras::default(), png_pen())
     })
+}
+
+/// What a variant of the map adds to the plain one: its own title, and a one-parameter interval
+/// at τ = 0 read from a finer ϒ axis, drawn as a bar with end ticks (the zoomed panel).
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Extras {
+    /// Replaces the title when given.
+    pub title: Option<String>,
+    /// (legend label, lower end, upper end) of the bar at τ = 0.
+    pub fine_interval: Option<(String, f64, f64)>,
 }
 
 /// Grid-cell bounds around index k on an axis: halfway to each neighbour, the axis end at the
@@ -77,16 +87,20 @@ fn level_of(map: &AllowedMap, v: f64) -> Option<usize> {
 }
 
 /// Draws the whole map (plot and legend) on `root`.
-fn draw_allowed<DB: DrawingBackend>(
+pub(crate) fn draw_allowed<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     map: &AllowedMap,
+    extras: &Extras,
     pen: Pen<'_>,
 ) -> DrawResult {
     root.fill(&WHITE).map_err(err)?;
     let (width, height) = root.dim_in_pixel();
     let (chart_area, legend_area) = root.split_horizontally(width as i32 - 290);
     let chart_area = chart_area.margin(10, 10, 10, 10);
-    let title = "Region of (ϒ, τ) allowed by the catalogues";
+    let title = extras
+        .title
+        .as_deref()
+        .unwrap_or("Region of (ϒ, τ) allowed by the catalogues");
     pen.text(
         &chart_area,
         title,
@@ -264,7 +278,21 @@ fn draw_allowed<DB: DrawingBackend>(
         }
     }
 
-    // 6. Markers.
+    // 6. The finer one-parameter interval at τ = 0, clipped to the plot.
+    let fine = extras
+        .fine_interval
+        .as_ref()
+        .filter(|_| (y_lo..=y_hi).contains(&0.0));
+    if let Some((_, lo, hi)) = fine {
+        let (lo, hi) = (lo.max(x_lo), hi.min(x_hi));
+        if lo < hi {
+            let a = chart.backend_coord(&(lo, 0.0));
+            let b = chart.backend_coord(&(hi, 0.0));
+            draw_fine_bar(root, a, b)?;
+        }
+    }
+
+    // 7. Markers.
     let inside = |(u, t): (f64, f64)| u >= x_lo && u <= x_hi && t >= y_lo && t <= y_hi;
     let best_px = chart.backend_coord(&map.best_fit);
     if inside(map.standard_gravity) {
@@ -298,9 +326,12 @@ fn draw_allowed<DB: DrawingBackend>(
             let (dx, dy) = ((x + w / 2 - best.0) as i64, (y - best.1) as i64);
             dx * dx + dy * dy
         };
+        // With the finer bar along τ = 0, the label goes above or below, off the bar's row.
+        let off_bar_row = |p: &&(i32, i32)| fine.is_none() || p.1 != c.1;
         let pos = candidates
             .iter()
             .filter(|p| fits(p))
+            .filter(off_bar_row)
             .max_by_key(|p| distance(p))
             .copied()
             .unwrap_or(candidates[0]);
@@ -310,7 +341,7 @@ fn draw_allowed<DB: DrawingBackend>(
         draw_best_fit_marker(root, best_px)?;
     }
 
-    // 7. Legend.
+    // 8. Legend.
     draw_allowed_legend(
         &legend_area,
         map,
@@ -318,7 +349,41 @@ fn draw_allowed<DB: DrawingBackend>(
         inside(map.standard_gravity),
         height,
         pen,
-    )
+    )?;
+    if let Some((label, _, _)) = fine {
+        let (_, lh) = legend_area.dim_in_pixel();
+        let y = lh as i32 - 60;
+        draw_fine_bar(&legend_area, (8, y), (42, y))?;
+        let body = text_style(14.0).pos(Pos::new(HPos::Left, VPos::Center));
+        pen.text(&legend_area, &truncate(label, 36), &body, (52, y - 9))?;
+        pen.text(
+            &legend_area,
+            "τ = 0, on the 10× finer ϒ axis",
+            &body,
+            (52, y + 9),
+        )?;
+    }
+    Ok(())
+}
+
+/// A thick bar with end ticks between two pixel points on one row.
+fn draw_fine_bar<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    a: (i32, i32),
+    b: (i32, i32),
+) -> DrawResult {
+    let pts = [(a.0 as f64, a.1 as f64), (b.0 as f64, b.1 as f64)];
+    halo_line(area, &pts, INK, &[], 3)?;
+    for x in [a.0, b.0] {
+        halo_line(
+            area,
+            &[(x as f64, a.1 as f64 - 8.0), (x as f64, a.1 as f64 + 8.0)],
+            INK,
+            &[],
+            3,
+        )?;
+    }
+    Ok(())
 }
 
 /// The legend column: levels, missing-model hatching, class outlines, markers, disfavoured range.

@@ -174,3 +174,44 @@ pub(crate) fn truncate(s: &str, max_chars: usize) -> String {
         t
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Dark pixels of `text` drawn at 48 px with the PNG pen, on a 64 × 64 white square.
+    fn ink(text: &str) -> Vec<bool> {
+        ensure_font().unwrap();
+        let mut buf = vec![255u8; 64 * 64 * 3];
+        {
+            let root = BitMapBackend::with_buffer(&mut buf, (64, 64)).into_drawing_area();
+            png_pen()
+                .text(&root, text, &text_style(48.0), (8, 4))
+                .unwrap();
+            root.present().unwrap();
+        }
+        buf.chunks(3).map(|p| p[0] < 128).collect()
+    }
+
+    /// The parameter's symbol must not read as a Latin "Y" in the PNG figures. Rasterised in the
+    /// embedded font, the Greek capital Upsilon (U+03A5) is the Latin Y's shape (Unicode's
+    /// confusables list pairs them), while the upsilon with hook (U+03D2) differs by a large
+    /// share of its ink (its curled arms). Thresholds: common practice, no source.
+    #[test]
+    fn upsilon_with_hook_does_not_rasterise_as_latin_y() {
+        let differ = |a: &[bool], b: &[bool]| a.iter().zip(b).filter(|(x, y)| x != y).count();
+        let (y, capital, hook) = (ink("Y"), ink("Υ"), ink("ϒ"));
+        let y_ink = y.iter().filter(|&&p| p).count();
+        assert!(y_ink > 50, "the font drew no Y");
+        assert!(
+            differ(&y, &capital) * 10 < y_ink,
+            "U+03A5 is expected to look like Y: {} of {y_ink}",
+            differ(&y, &capital)
+        );
+        assert!(
+            differ(&y, &hook) * 10 > 3 * y_ink,
+            "U+03D2 too close to Y: {} of {y_ink}",
+            differ(&y, &hook)
+        );
+    }
+}
