@@ -26,7 +26,13 @@ fn example_lines(help: &str) -> Vec<String> {
             // Only command lines: they start with the command or a shell loop running it.
             (at == 0 || l.starts_with("for ")).then(|| {
                 let cmd = &l[at..];
-                cmd.split(';').next().unwrap_or(cmd).split(" >").next().unwrap().to_string()
+                cmd.split(';')
+                    .next()
+                    .unwrap_or(cmd)
+                    .split(" >")
+                    .next()
+                    .unwrap()
+                    .to_string()
             })
         })
         .collect()
@@ -99,8 +105,15 @@ fn defaults_plus_catalogues_is_a_run_config_equal_to_confront() {
     // summary.json: equal except the run-to-run difference, which only `run` writes.
     let mut a = common::summary(&run_dir);
     let b = common::summary(&out);
-    assert!(a.as_object_mut().unwrap().remove("since_previous").is_some());
-    assert_eq!(a, b, "summary.json differs between run (defaults) and confront");
+    assert!(a
+        .as_object_mut()
+        .unwrap()
+        .remove("since_previous")
+        .is_some());
+    assert_eq!(
+        a, b,
+        "summary.json differs between run (defaults) and confront"
+    );
     for f in ["objects.csv", "grid.csv"] {
         let a = std::fs::read(run_dir.join(f)).unwrap();
         let b = std::fs::read(out.join(f)).unwrap();

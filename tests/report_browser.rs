@@ -30,10 +30,15 @@ fn chromium() -> Option<PathBuf> {
         return Some(PathBuf::from(p));
     }
     let path = std::env::var_os("PATH")?;
-    ["chromium", "chromium-browser", "google-chrome", "chrome-headless-shell"]
-        .iter()
-        .flat_map(|name| std::env::split_paths(&path).map(move |d| d.join(name)))
-        .find(|p| p.is_file())
+    [
+        "chromium",
+        "chromium-browser",
+        "google-chrome",
+        "chrome-headless-shell",
+    ]
+    .iter()
+    .flat_map(|name| std::env::split_paths(&path).map(move |d| d.join(name)))
+    .find(|p| p.is_file())
 }
 
 /// Anchor prefix of a docs file's numbered sections (docs/README.md, "Reading a reference").
@@ -116,21 +121,25 @@ fn link_problem(target: &str, dir: &Path, html: &str) -> Option<String> {
         return (!html.contains(&format!("id=\"{id}\""))).then(|| format!("#{id}: no such id"));
     }
     if target.contains("://") {
-        return Some(format!("{target}: points outside the output folder and the repository"));
+        return Some(format!(
+            "{target}: points outside the output folder and the repository"
+        ));
     }
     let (file, _) = target.split_once('#').unwrap_or((target, ""));
     let resolved = dir.join(file);
     let canonical = std::fs::canonicalize(&resolved).ok()?;
     let inside = canonical.starts_with(std::fs::canonicalize(dir).ok()?)
         || canonical.starts_with(std::fs::canonicalize(root()).ok()?);
-    (!inside).then(|| format!("{target}: outside the output folder and the repository"))
+    (!inside)
+        .then(|| format!("{target}: outside the output folder and the repository"))
         .or_else(|| (!canonical.exists()).then(|| format!("{target}: missing")))
 }
 
 /// Width and height of a PNG, from its IHDR chunk (PNG specification, ISO/IEC 15948 §11.2.2).
 fn png_size(bytes: &[u8]) -> (u32, u32) {
     assert_eq!(&bytes[..8], b"\x89PNG\r\n\x1a\n", "not a PNG");
-    let be = |at: usize| u32::from_be_bytes([bytes[at], bytes[at + 1], bytes[at + 2], bytes[at + 3]]);
+    let be =
+        |at: usize| u32::from_be_bytes([bytes[at], bytes[at + 1], bytes[at + 2], bytes[at + 3]]);
     (be(16), be(20))
 }
 
@@ -163,12 +172,19 @@ fn demo_report_in_chromium_shows_every_figure_without_console_errors() {
     let tmp = tempfile::tempdir().unwrap();
     let shot = tmp.path().join("report-1400.png");
 
-    let o = headless(&browser, &[&format!("--screenshot={}", shot.display()), &url]);
+    let o = headless(
+        &browser,
+        &[&format!("--screenshot={}", shot.display()), &url],
+    );
     let log = String::from_utf8_lossy(&o.stderr).to_string();
     assert!(shot.exists(), "no screenshot:\n{log}");
     assert_eq!(png_size(&std::fs::read(&shot).unwrap()).0, 1400);
     let console: Vec<&str> = log.lines().filter(|l| l.contains(":CONSOLE")).collect();
-    assert!(console.is_empty(), "console messages:\n{}", console.join("\n"));
+    assert!(
+        console.is_empty(),
+        "console messages:\n{}",
+        console.join("\n")
+    );
 
     // The page as the browser built it: every figure present as inline SVG, the zoom included.
     let o = headless(&browser, &["--dump-dom", &url]);
@@ -178,12 +194,22 @@ fn demo_report_in_chromium_shows_every_figure_without_console_errors() {
         "Zoom on the allowed region (grid resolution)",
         "Predicted bounds against ϒ",
     ] {
-        assert!(dom.contains(title), "the rendered page lacks the figure `{title}`");
+        assert!(
+            dom.contains(title),
+            "the rendered page lacks the figure `{title}`"
+        );
     }
-    assert!(dom.matches("<svg").count() >= 6, "fewer figures than expected");
+    assert!(
+        dom.matches("<svg").count() >= 6,
+        "fewer figures than expected"
+    );
     let log = String::from_utf8_lossy(&o.stderr).to_string();
     let console: Vec<&str> = log.lines().filter(|l| l.contains(":CONSOLE")).collect();
-    assert!(console.is_empty(), "console messages:\n{}", console.join("\n"));
+    assert!(
+        console.is_empty(),
+        "console messages:\n{}",
+        console.join("\n")
+    );
 }
 
 /// Every link and docs reference of the generated report resolves.

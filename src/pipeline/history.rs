@@ -262,10 +262,7 @@ pub fn difference(
         .collect();
     for k in keys_now.intersection(&keys_before) {
         let (a, b) = (&now_objects[k.as_str()], &before_objects[k.as_str()]);
-        if VALUE_COLUMNS
-            .iter()
-            .any(|c| field(a, c) != field(b, c))
-        {
+        if VALUE_COLUMNS.iter().any(|c| field(a, c) != field(b, c)) {
             d.changed.push(k.to_string());
         }
     }

@@ -53,7 +53,11 @@ pub const RENAMED: &[Rename] = &[
     r("objects.csv", "bound_standard_msun", "bound_standard"),
     r("objects.csv", "bound_best_msun", "bound_best"),
     // The break-up period: `min_h` read as "minutes, hours"; it is the period itself, in hours.
-    r("bounds.csv, predict JSON", "breakup_period_h", "breakup_period_min_h"),
+    r(
+        "bounds.csv, predict JSON",
+        "breakup_period_h",
+        "breakup_period_min_h",
+    ),
     Rename {
         file: "grid.csv",
         new: "breakup_period_h",

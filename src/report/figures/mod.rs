@@ -31,7 +31,7 @@ pub use bounds::{render_bounds_png, render_bounds_svg, BOUNDS_WIDTH};
 pub use kit::palette::outline_style_name;
 pub use mass_bounds::{render_mass_bounds_png, render_mass_bounds_svg, MASS_BOUNDS_WIDTH};
 pub use profile::{render_profile_png, render_profile_svg, PROFILE_SIZE};
-pub use zoom::{render_zoom_png, render_zoom_svg, zoom_of, Zoom, ZOOM_BELOW_FRACTION};
 pub use wd_mass_radius::{
     render_wd_mass_radius_png, render_wd_mass_radius_svg, WD_MASS_RADIUS_SIZE,
 };
+pub use zoom::{render_zoom_png, render_zoom_svg, zoom_of, Zoom, ZOOM_BELOW_FRACTION};

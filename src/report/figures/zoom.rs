@@ -69,7 +69,12 @@ fn extent(map: &AllowedMap, threshold: f64) -> Option<((usize, usize), (usize, u
 }
 
 /// Rows `j0..=j1`, columns `i0..=i1` of a row-major field.
-fn window(field: &[Option<f64>], nu: usize, (i0, i1): (usize, usize), (j0, j1): (usize, usize)) -> Vec<Option<f64>> {
+fn window(
+    field: &[Option<f64>],
+    nu: usize,
+    (i0, i1): (usize, usize),
+    (j0, j1): (usize, usize),
+) -> Vec<Option<f64>> {
     (j0..=j1)
         .flat_map(|j| (i0..=i1).map(move |i| field[j * nu + i]))
         .collect()
@@ -124,13 +129,8 @@ pub fn zoom_of(map: &AllowedMap, profile: Option<&ProfileTau0>) -> Option<Zoom> 
         let (_, lo, hi) = p.intervals.iter().find(|(l, _, _)| l == label)?;
         let lo = lo.unwrap_or(ulo).max(ulo);
         let hi = hi.unwrap_or(uhi).min(uhi);
-        (lo < hi && tlo <= 0.0 && 0.0 <= thi).then(|| {
-            (
-                format!("{label} interval, one parameter:"),
-                lo,
-                hi,
-            )
-        })
+        (lo < hi && tlo <= 0.0 && 0.0 <= thi)
+            .then(|| (format!("{label} interval, one parameter:"), lo, hi))
     });
     // Suggested rerun: the same window at a quarter of the current spacing.
     let count = |n_cells: usize| n_cells * SUGGESTED_REFINEMENT + 1;
@@ -196,9 +196,18 @@ mod tests {
             tau,
             delta_chi2: d,
             levels: [
-                Level { label: "68.27 %".into(), threshold: 2.30 },
-                Level { label: "95.45 %".into(), threshold: 6.18 },
-                Level { label: "99.73 %".into(), threshold: 11.83 },
+                Level {
+                    label: "68.27 %".into(),
+                    threshold: 2.30,
+                },
+                Level {
+                    label: "95.45 %".into(),
+                    threshold: 6.18,
+                },
+                Level {
+                    label: "99.73 %".into(),
+                    threshold: 11.83,
+                },
             ],
             class_outlines: vec![],
             best_fit: (0.0, 0.0),
