@@ -27,7 +27,7 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
     println!("catalogues: {rin} rows in, {racc} accepted, {rq} quarantined");
     let bf = &s["best_fit"];
     println!(
-        "best fit: Υ = {}, τ = {} (−2 ln L = {:.4})",
+        "best fit: ϒ = {}, τ = {} (−2 ln L = {:.4})",
         bf["upsilon"],
         bf["tau"],
         bf["minus_two_ln_l"].as_f64().unwrap_or(f64::NAN)
@@ -38,13 +38,13 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
         None => "open".to_string(),
     };
     println!(
-        "95.45 % interval in Υ at τ = 0: [{}, {}]",
+        "95.45 % interval in ϒ at τ = 0: [{}, {}]",
         end(&iv["lower"]),
         end(&iv["upper"])
     );
     let sg = &s["standard_gravity"]["allowed_cl95"];
     println!(
-        "standard gravity (Υ = τ = 0) {}",
+        "standard gravity (ϒ = τ = 0) {}",
         match sg.as_bool() {
             Some(true) => "lies inside the 95.45 % region",
             Some(false) => "lies OUTSIDE the 95.45 % region",

@@ -66,7 +66,7 @@ impl From<crate::output::OutputError> for CliError {
     }
 }
 
-/// dwarfbound: which (Υ, τ) do your very-low-mass stars, brown dwarfs and white dwarfs still allow?
+/// dwarfbound: which (ϒ, τ) do your very-low-mass stars, brown dwarfs and white dwarfs still allow?
 #[derive(Debug, Parser)]
 #[command(name = "dwarfbound", version, about, long_about = None)]
 pub struct Cli {
@@ -212,7 +212,7 @@ pub struct VetArgs {
 /// Theory options shared by `predict` and `confront`.
 #[derive(Debug, Args, Clone)]
 pub struct TheoryArgs {
-    /// Υ: a value (`0.1`) or a grid `start:stop:count` with inclusive ends.
+    /// ϒ: a value (`0.1`) or a grid `start:stop:count` with inclusive ends.
     #[arg(long, allow_hyphen_values = true, value_parser = Axis::from_str)]
     pub upsilon: Option<Axis>,
     /// τ: a value or a grid `start:stop:count` with inclusive ends.

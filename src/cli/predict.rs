@@ -1,4 +1,4 @@
-//! `dwarfbound predict`: the theory alone. At one (Υ, τ) it prints every bound and the
+//! `dwarfbound predict`: the theory alone. At one (ϒ, τ) it prints every bound and the
 //! Lane–Emden constants (text, or `--json` with the keys documented in the README); with
 //! `--out DIR` (a grid or a single point) it writes `bounds.csv` and the bounds figure. A thin
 //! shell: the numbers, the files and both printouts come from [`crate::pipeline::predict`].
