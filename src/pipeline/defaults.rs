@@ -80,9 +80,9 @@ pub fn defaults_toml() -> String {
         &mut o,
         "upsilon",
         &axis(&DEFAULT_UPSILON),
-        "ϒ, dimensionless; start:stop:count with both ends included. The range covers the\n\
-         existence bound ϒ > −2/3 at τ = 0 with room and the region the demo catalogues allow;\n\
-         46 points keep a first run quick (docs/structure.md §1.4).",
+        "ϒ, dimensionless; start:stop:count with both ends included. The range stays clear of\n\
+         the existence bound ϒ > −2/3 at τ = 0 (docs/structure.md §1.4) and holds the region the\n\
+         demo catalogues allow; 46 points keep a first run quick.",
     );
     line(
         &mut o,
@@ -96,7 +96,8 @@ pub fn defaults_toml() -> String {
         "anisotropy",
         &format!("\"{}\"", t.anisotropy.name()),
         "the ansatz τ parametrises: none | density-squared | gradient. Quadratic in density is the\n\
-         default because it vanishes at the surface (docs/structure.md §2.1).",
+         default: the Newtonian limit of the Bowers–Liang form, its τ the fraction of gravity\n\
+         it cancels at the centre, and the atmosphere stays isotropic (docs/structure.md §2.1).",
     );
     line(
         &mut o,
@@ -184,7 +185,7 @@ pub fn defaults_toml() -> String {
         &mut o,
         "exclude_age_unknown",
         &st.exclude_age_unknown.to_string(),
-        "leave objects without an age out of the MMHB test (off: most field objects are old).",
+        "leave objects without an age out of the MMHB test (off: a missing age is not evidence of youth).",
     );
     line(
         &mut o,
