@@ -283,3 +283,17 @@ fn notes_are_cited_only_as_the_repository_docs() {
     }
     assert!(problems.is_empty(), "{}", problems.join("\n"));
 }
+
+/// The reference checker itself: a real section passes, a missing section or file is named
+/// (anchors as docs/README.md, "Reading a reference", defines them).
+#[test]
+fn the_reference_checker_finds_broken_references() {
+    let (n, p) = check_docs_references("see docs/bounds.md §8.4 and `docs/structure.md` §1.4", "t");
+    assert_eq!((n, p.len()), (2, 0), "{p:?}");
+    let (_, p) = check_docs_references("see docs/bounds.md §99.9", "t");
+    assert_eq!(p.len(), 1);
+    let (_, p) = check_docs_references("see docs/missing-notes.md", "t");
+    assert_eq!(p.len(), 1);
+    let (_, p) = check_docs_references("see docs/white-dwarfs.md#w99", "t");
+    assert_eq!(p.len(), 1);
+}
