@@ -35,6 +35,57 @@ use crate::theory::Axis;
 /// Masses (M☉, μ_e = 2) at which `predict` prints white-dwarf radii.
 const WD_MASSES_MSUN: [f64; 7] = [0.2, 0.4, 0.6, 0.8, 1.0, 1.2, 1.4];
 
+/// Masses (M☉) of the minimum-period curve of the hydrogen-rich (brown-dwarf and star) structure.
+const BREAKUP_CURVE_LOW_MSUN: [f64; 12] = [
+    0.01, 0.02, 0.03, 0.04, 0.05, 0.06, 0.07, 0.075, 0.08, 0.09, 0.1, 0.15,
+];
+
+/// Masses (M☉) of the minimum-period curve of the white-dwarf structure (μ_e = 2).
+const BREAKUP_CURVE_WD_MSUN: [f64; 14] = [
+    0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0, 1.1, 1.2, 1.3, 1.35, 1.4,
+];
+
+/// The minimum (break-up) period against mass for each class's cold structure at one point:
+/// the hydrogen-rich floor of brown dwarfs and stars (μ_e = 2/(1 + X) of the break-up reference,
+/// periods in minutes and hours) and white dwarfs (μ_e = 2, periods in seconds). Roche model; a
+/// mass without a model (above the maximum mass) is null. Keys documented in the README.
+pub fn breakup_curves_json(table: &WdMassRadius, s: &TheorySettings) -> Value {
+    use crate::theory::rotation::{breakup_curve, BreakupModel};
+    let curve = |mu_e: f64, masses: &[f64]| {
+        let pts = breakup_curve(table, mu_e, masses, BreakupModel::Roche);
+        let radius: Vec<Value> = pts
+            .iter()
+            .map(|p| num(p.as_ref().ok().map(|p| p.radius_rsun)))
+            .collect();
+        let period: Vec<Option<f64>> = pts
+            .iter()
+            .map(|p| p.as_ref().ok().map(|p| p.period_s))
+            .collect();
+        (radius, period)
+    };
+    let mu_low = s.breakup.mu_e();
+    let (r_low, p_low) = curve(mu_low, &BREAKUP_CURVE_LOW_MSUN);
+    let (r_wd, p_wd) = curve(CHANDRASEKHAR_REPORT_MU_E, &BREAKUP_CURVE_WD_MSUN);
+    let scaled =
+        |p: &[Option<f64>], k: f64| p.iter().map(|x| num(x.map(|x| x / k))).collect::<Vec<_>>();
+    json!({
+        "model": "roche",
+        "brown_dwarf": {
+            "mu_e": mu_low,
+            "mass_msun": BREAKUP_CURVE_LOW_MSUN,
+            "radius_rsun": r_low,
+            "breakup_period_min": scaled(&p_low, 60.0),
+            "breakup_period_h": scaled(&p_low, 3600.0),
+        },
+        "white_dwarf": {
+            "mu_e": CHANDRASEKHAR_REPORT_MU_E,
+            "mass_msun": BREAKUP_CURVE_WD_MSUN,
+            "radius_rsun": r_wd,
+            "breakup_period_s": scaled(&p_wd, 1.0),
+        },
+    })
+}
+
 /// Bounds-figure rows: at most this many τ values.
 const FIGURE_TAU_ROWS: usize = 5;
 
@@ -279,6 +330,7 @@ pub fn point_json(p: &PointBounds, s: &TheorySettings) -> Value {
         "breakup_period_min_h": num(b.map(|b| b.period_h)),
         "breakup_radius_rjup": num(b.map(|b| b.radius_rjup())),
         "breakup_reference": s.breakup.describe(),
+        "breakup_curves": wd_table.map(|t| breakup_curves_json(t, s)).unwrap_or(Value::Null),
         "white_dwarf": white_dwarf.unwrap_or(Value::Null),
         "warnings": p.warnings.iter().map(|w| json!({"code": w.code(), "message": w.message()})).collect::<Vec<_>>(),
         "errors": Value::Object(errors),
