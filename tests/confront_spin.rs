@@ -104,7 +104,8 @@ fn fast_white_dwarfs_are_confronted_and_the_report_says_what_they_constrain() {
 // (μe = 8/7) in the Roche model: 22.3 min (the theory check values, docs/rotation.md §2; the
 // trade's ≈ 22 min, common practice, no source). A brown dwarf of that mass with a negligible
 // mass error observed exactly at that period sits on the bound: P = 1/2, z = 0 (Φ(0) = 1/2).
-// One observed at 10 min spins faster than break-up: a large positive tension.
+// One observed at 10 min spins faster than break-up: z = (22.3 − 10)/(0.15 × 22.3) = 3.7 with
+// the 15 % floor of the cold hydrogen-rich radius (by hand).
 #[test]
 fn the_reference_object_floor_is_the_per_object_break_up_period() {
     let dir = tempfile::tempdir().unwrap();
@@ -129,7 +130,7 @@ fn the_reference_object_floor_is_the_per_object_break_up_period() {
     let z: f64 = field(&h, &rows, "BD-too-fast", "spin_sigma_standard")
         .parse()
         .unwrap();
-    assert!(z > 5.0, "{z}");
+    assert!((z - 3.68).abs() < 0.05, "{z}");
     // A brown dwarf spinning in 1.2 h (periods are in hours by default): far on the safe side.
     let z: f64 = field(&h, &rows, "BD-slow", "spin_sigma_standard")
         .parse()
@@ -169,4 +170,26 @@ fn predict_json_has_the_minimum_period_curves() {
         .filter_map(|x| x.as_f64())
         .collect();
     assert!(p.windows(2).all(|w| w[1] < w[0]), "{p:?}");
+}
+
+// Source: README (`predict --out` writes the break-up figure beside the bounds figure).
+#[test]
+fn predict_out_writes_the_break_up_figure() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = bin(
+        &[
+            "predict",
+            "--upsilon=-0.1:0.1:3",
+            "--tau",
+            "0",
+            "--out",
+            path_str(dir.path()),
+        ],
+        &root(),
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let svg = std::fs::read_to_string(dir.path().join("breakup.svg")).unwrap();
+    assert!(svg.starts_with("<svg") && svg.contains("break-up period"));
+    let png = std::fs::read(dir.path().join("breakup.png")).unwrap();
+    assert!(png.starts_with(b"\x89PNG"));
 }

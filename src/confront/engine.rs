@@ -552,7 +552,7 @@ pub fn confront(
     }
     let mut radius_objects = prepare_radius_objects(objects, &uses, surface, opts);
     super::spin::correct_radius_tests(&mut radius_objects, &spins);
-    per_term[Term::Spin.index()] = super::spin::minus_two_ln_l_grid(&spins, surface, n, &opts.spin);
+    per_term[Term::Spin.index()] = super::spin::minus_two_ln_l_grid(&spins, surface, n);
     if opts.radius.model == wd_radius::WdRadiusModel::Hot {
         // No finite-temperature model at the object's own mass and Teff (outside the table, or
         // no hydrostatic solution): left out of the radius test, flagged, never silently.

@@ -14,14 +14,17 @@
 //!   the standard finite-temperature radius carried to the grid point by the ratio of cold radii,
 //!   as in the radius test;
 //! * `cold` — otherwise the zero-temperature radius at the grid point (μe of the object for a
-//!   white dwarf, μe = 2/(1 + X) of the hydrogen-rich floor for brown dwarfs and stars). It is
-//!   the smallest radius a star of that mass can have, so the break-up period it gives is a
-//!   lower limit and the test is conservative.
+//!   white dwarf, μe = 2/(1 + X) of the hydrogen-rich floor for brown dwarfs and stars). Thermal
+//!   pressure only makes a real star larger, so for stars and massive brown dwarfs the break-up
+//!   period it gives is a lower limit; at the lowest brown-dwarf masses the missing Coulomb
+//!   (ion) term works the other way, so brown dwarfs and stars on this radius carry a wider
+//!   floor ([`SpinOptions::cold_hydrogen_floor_fraction`], 15 %).
 //!
 //! The likelihood of one object is marginalised over its true mass with the split-normal nodes
 //! of the radius test: P = Σ_k w_k Φ((P_obs − P_k)/(f P_k)) / Σ_k w_k over the nodes that have a
 //! model, with f the fractional theory floor ([`SpinOptions::floor_fraction`], 5 % by default:
-//! Roche against self-consistent κ is 3 %, the radius model 3 % in R, i.e. 4.5 % in P). The
+//! Roche against self-consistent κ is 3 %, the radius model 3 % in R, i.e. 4.5 % in P; 15 % on
+//! the cold hydrogen-rich radius). The
 //! period itself is taken as exact: catalogues carry no period error, and published periods are
 //! far more precise than the floor.
 //!
@@ -67,6 +70,10 @@ pub const WD_MAX_EFFECTIVE_INDEX: f64 = 2.95;
 pub struct SpinOptions {
     /// 1σ theory floor of the break-up period, as a fraction of it (default 0.05).
     pub floor_fraction: f64,
+    /// The floor for brown dwarfs and stars whose radius is the cold hydrogen-rich structure
+    /// (default 0.15): that structure has no Coulomb (ion) term, which makes real cold radii
+    /// smaller at the lowest masses, and no thermal pressure, which makes real radii larger.
+    pub cold_hydrogen_floor_fraction: f64,
     /// μe of the cold hydrogen-rich structure used for brown dwarfs and hydrogen-burning stars
     /// without a measured radius: 2/(1 + X) with X = 0.75 (the theory check values' choice).
     pub hydrogen_rich_mu_e: f64,
@@ -78,6 +85,7 @@ impl Default for SpinOptions {
     fn default() -> Self {
         Self {
             floor_fraction: 0.05,
+            cold_hydrogen_floor_fraction: 0.15,
             hydrogen_rich_mu_e: 2.0 / 1.75,
             slow_rotation: true,
         }
@@ -151,6 +159,8 @@ pub struct ObjectSpin {
     pub slow: SlowRotationStatus,
     /// The factor applied to the object's white-dwarf radius prediction (1 when none).
     pub radius_factor: f64,
+    /// 1σ theory floor of its break-up period, as a fraction of it.
+    pub floor_fraction: f64,
 }
 
 /// The spin test at one grid point.
@@ -229,7 +239,8 @@ impl ObjectSpin {
     }
 
     /// The test at one point, given the cold radii there for [`ObjectSpin::queries`].
-    pub fn at(&self, cold: &[Option<f64>], floor_fraction: f64) -> SpinAt {
+    pub fn at(&self, cold: &[Option<f64>]) -> SpinAt {
+        let floor_fraction = self.floor_fraction;
         let pb: Vec<Option<f64>> = self
             .queries()
             .zip(&self.scale)
@@ -246,12 +257,7 @@ impl ObjectSpin {
 }
 
 /// The spin tests of every object at grid point `i`, in the order of `spins`.
-pub fn spins_at(
-    spins: &[ObjectSpin],
-    surface: &dyn BoundSurface,
-    i: usize,
-    opts: &SpinOptions,
-) -> Vec<SpinAt> {
+pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> Vec<SpinAt> {
     let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
     let cold = surface.wd_radii_rsun(i, &queries);
     let mut at = 0;
@@ -261,7 +267,7 @@ pub fn spins_at(
             let n = s.n_queries();
             let slice = cold.get(at..at + n).unwrap_or(&[]);
             at += n;
-            s.at(slice, opts.floor_fraction)
+            s.at(slice)
         })
         .collect()
 }
@@ -271,7 +277,6 @@ pub fn minus_two_ln_l_grid(
     spins: &[ObjectSpin],
     surface: &dyn BoundSurface,
     n_points: usize,
-    opts: &SpinOptions,
 ) -> Vec<Option<f64>> {
     if spins.is_empty() {
         return vec![Some(0.0); n_points];
@@ -280,7 +285,7 @@ pub fn minus_two_ln_l_grid(
         .into_par_iter()
         .map(|i| {
             Some(
-                spins_at(spins, surface, i, opts)
+                spins_at(spins, surface, i)
                     .iter()
                     .map(|a| -2.0 * a.ln_p.unwrap_or(0.0))
                     .sum(),
@@ -390,6 +395,11 @@ pub fn prepare(
             measured_rsun: o.radius_rsun,
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
+            floor_fraction: if source == SpinRadiusSource::Cold && !is_wd {
+                so.cold_hydrogen_floor_fraction
+            } else {
+                so.floor_fraction
+            },
         };
         if so.slow_rotation {
             spin.slow = if is_wd {
@@ -559,7 +569,6 @@ pub fn spin_verdicts(
     spins: &[ObjectSpin],
     surface: &dyn BoundSurface,
     best_index: usize,
-    opts: &SpinOptions,
 ) -> Vec<SpinVerdict> {
     if spins.is_empty() {
         return Vec::new();
@@ -573,7 +582,7 @@ pub fn spin_verdicts(
         .map(|(j, i)| j * nu + i);
     let all: Vec<Vec<SpinAt>> = (0..nu * nt)
         .into_par_iter()
-        .map(|i| spins_at(spins, surface, i, opts))
+        .map(|i| spins_at(spins, surface, i))
         .collect();
     // z = −Φ⁻¹(P); above P = ½ from 1 − P (the test with the sides swapped), so that objects far
     // on the safe side keep a finite z instead of P rounding to 1.
@@ -677,8 +686,9 @@ mod tests {
             measured_rsun: None,
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
+            floor_fraction: 0.05,
         };
-        let at = spin.at(&[Some(r), Some(r)], 0.05);
+        let at = spin.at(&[Some(r), Some(r)]);
         assert!((at.breakup_s.unwrap() / want - 1.0).abs() < 1e-13);
         // A hot/cold scale of 1.1 multiplies R, so P by 1.1^{3/2}.
         let hot = ObjectSpin {
@@ -686,7 +696,7 @@ mod tests {
             source: SpinRadiusSource::FiniteTemperature,
             ..spin
         };
-        let at = hot.at(&[Some(r), Some(r)], 0.05);
+        let at = hot.at(&[Some(r), Some(r)]);
         assert!((at.breakup_s.unwrap() / want - 1.1f64.powf(1.5)).abs() < 1e-12);
     }
 }

@@ -22,7 +22,10 @@ use serde_json::{json, Map, Value};
 use super::error::PipelineError;
 use crate::output::write_atomic;
 use crate::report::text::fmt_sig;
-use crate::report::{render_bounds_png, render_bounds_svg, BoundSeries, BoundsCurves};
+use crate::report::{
+    render_bounds_png, render_bounds_svg, render_breakup_png, render_breakup_svg, BoundSeries,
+    BoundsCurves, BreakupFigure, BreakupLine, BreakupPanel,
+};
 use crate::theory::grid::{compute, grid_value, GridOptions, TheoryGrid};
 use crate::theory::mmhb::MmhbMode;
 use crate::theory::point::{
@@ -144,6 +147,14 @@ pub fn predict_grid(
     } else {
         notes.push("the bounds figure needs at least two Υ values; not drawn".to_string());
     }
+    let fig = breakup_figure(upsilon, tau, settings)?;
+    let svg = render_breakup_svg(&fig).map_err(|e| PipelineError::Internal(e.to_string()))?;
+    let png = render_breakup_png(&fig).map_err(|e| PipelineError::Internal(e.to_string()))?;
+    for (name, bytes) in [("breakup.svg", svg.into_bytes()), ("breakup.png", png)] {
+        let path = dir.join(name);
+        write_atomic(&path, &bytes)?;
+        files.push(path.display().to_string());
+    }
     Ok(GridPrediction {
         points: grid.points.len(),
         n_upsilon: upsilon.count,
@@ -151,6 +162,75 @@ pub fn predict_grid(
         points_without_model: grid.points_without_model(),
         files,
         notes,
+    })
+}
+
+/// The break-up figure of a prediction: the minimum period against mass for each class's cold
+/// structure, at the τ of the grid nearest 0 and at up to three Υ values (the ends of the axis
+/// and the value nearest 0), so that it shows how Υ moves the floor.
+fn breakup_figure(
+    upsilon: Axis,
+    tau: Axis,
+    settings: &TheorySettings,
+) -> Result<BreakupFigure, PipelineError> {
+    let nearest0 = |a: &Axis| {
+        (0..a.count)
+            .map(|i| grid_value(a, i))
+            .fold(f64::NAN, |best, x| {
+                if best.is_nan() || x.abs() < best.abs() {
+                    x
+                } else {
+                    best
+                }
+            })
+    };
+    let t0 = nearest0(&tau);
+    let mut ups: Vec<f64> = vec![grid_value(&upsilon, 0), nearest0(&upsilon)];
+    ups.push(grid_value(&upsilon, upsilon.count.saturating_sub(1)));
+    ups.sort_by(f64::total_cmp);
+    ups.dedup();
+    let ev = PointEvaluator::new(settings).map_err(|e| PipelineError::Settings(e.to_string()))?;
+    let mut low = Vec::new();
+    let mut wd = Vec::new();
+    for u in ups {
+        let p = ev.evaluate(u, t0, true);
+        let label = format!("Υ = {}, τ = {}", fmt_sig(u, 4), fmt_sig(t0, 4));
+        let Some(table) = p.white_dwarf.as_ref().and_then(|w| w.ok()) else {
+            continue;
+        };
+        let line = |mu_e: f64, masses: &[f64], unit_s: f64| BreakupLine {
+            label: label.clone(),
+            mass_msun: masses.to_vec(),
+            period: crate::theory::rotation::breakup_curve(
+                table,
+                mu_e,
+                masses,
+                crate::theory::rotation::BreakupModel::Roche,
+            )
+            .iter()
+            .map(|r| r.as_ref().ok().map(|p| p.period_s / unit_s))
+            .collect(),
+        };
+        low.push(line(settings.breakup.mu_e(), &BREAKUP_CURVE_LOW_MSUN, 60.0));
+        wd.push(line(CHANDRASEKHAR_REPORT_MU_E, &BREAKUP_CURVE_WD_MSUN, 1.0));
+    }
+    Ok(BreakupFigure {
+        title: "Minimum (break-up) spin period against mass, cold structures, Roche model".into(),
+        panels: vec![
+            BreakupPanel {
+                label: format!(
+                    "brown dwarfs and stars (μe = {})",
+                    fmt_sig(settings.breakup.mu_e(), 3)
+                ),
+                unit: "min".into(),
+                lines: low,
+            },
+            BreakupPanel {
+                label: "white dwarfs (μe = 2)".into(),
+                unit: "s".into(),
+                lines: wd,
+            },
+        ],
     })
 }
 

@@ -106,8 +106,33 @@ fn period_text(p_s: f64) -> String {
 /// period at standard gravity and across the grid, and how far its own Δχ² moves.
 fn spin_words(ctx: &OutputContext<'_>) -> String {
     use crate::confront::spin::SlowRotationStatus;
+    // Named one by one: every object whose own Δχ² moves by 0.1 or more (largest first, at most
+    // eight), then the three spinning closest to break-up at standard gravity; the rest in one
+    // sentence.
+    let ratio = |v: &crate::confront::spin::SpinVerdict| {
+        v.breakup_standard_s
+            .map_or(f64::INFINITY, |p| v.period_s / p)
+    };
+    let mut by_span: Vec<usize> = (0..ctx.spin_verdicts.len())
+        .filter(|&k| ctx.spin_verdicts[k].delta_chi2_span >= 0.1)
+        .collect();
+    by_span.sort_by(|&a, &b| {
+        ctx.spin_verdicts[b]
+            .delta_chi2_span
+            .total_cmp(&ctx.spin_verdicts[a].delta_chi2_span)
+    });
+    by_span.truncate(8);
+    let mut by_ratio: Vec<usize> = (0..ctx.spin_verdicts.len()).collect();
+    by_ratio
+        .sort_by(|&a, &b| ratio(&ctx.spin_verdicts[a]).total_cmp(&ratio(&ctx.spin_verdicts[b])));
+    let mut named = by_span;
+    for k in by_ratio.into_iter().take(3) {
+        if !named.contains(&k) {
+            named.push(k);
+        }
+    }
     let mut out = Vec::new();
-    for v in ctx.spin_verdicts {
+    for v in named.iter().map(|&k| &ctx.spin_verdicts[k]) {
         let o = &ctx.vetted.objects[v.index];
         let mut s = format!(
             "{} ({}, {:.3} M☉) spins in {}",
@@ -162,6 +187,23 @@ fn spin_words(ctx: &OutputContext<'_>) -> String {
             SlowRotationStatus::NotApplied => {}
         }
         out.push(s + ".");
+    }
+    let rest: Vec<&crate::confront::spin::SpinVerdict> = ctx
+        .spin_verdicts
+        .iter()
+        .enumerate()
+        .filter(|(k, _)| !named.contains(k))
+        .map(|(_, v)| v)
+        .collect();
+    if !rest.is_empty() {
+        let slowest = rest.iter().map(|v| ratio(v)).fold(f64::INFINITY, f64::min);
+        let span = rest.iter().map(|v| v.delta_chi2_span).fold(0.0, f64::max);
+        out.push(format!(
+            "The other {} spinning objects rotate at {} or more times their break-up period at standard gravity; none moves its own Δχ² by more than {:.2} (objects.csv lists each).",
+            rest.len(),
+            if slowest.is_finite() { fmt_sig(slowest, 3) } else { "—".into() },
+            span
+        ));
     }
     out.join(" ")
 }

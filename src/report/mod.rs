@@ -34,9 +34,10 @@ pub use figure_data::{
 };
 pub use figures::{
     outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
-    render_bounds_svg, render_mass_bounds_png, render_mass_bounds_svg, render_profile_png,
-    render_profile_svg, render_wd_mass_radius_png, render_wd_mass_radius_svg, ALLOWED_SIZE,
-    BOUNDS_WIDTH, MASS_BOUNDS_WIDTH, PROFILE_SIZE, WD_MASS_RADIUS_SIZE,
+    render_bounds_svg, render_breakup_png, render_breakup_svg, render_mass_bounds_png,
+    render_mass_bounds_svg, render_profile_png, render_profile_svg, render_wd_mass_radius_png,
+    render_wd_mass_radius_svg, BreakupFigure, BreakupLine, BreakupPanel, ALLOWED_SIZE,
+    BOUNDS_WIDTH, BREAKUP_SIZE, MASS_BOUNDS_WIDTH, PROFILE_SIZE, WD_MASS_RADIUS_SIZE,
 };
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
