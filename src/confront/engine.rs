@@ -6,6 +6,8 @@
 //! `docs/bounds.md` §8.5) and the grid is evaluated by interpolation. White dwarfs with a
 //! measured radius also confront the modified mass–radius relation; that term depends on the
 //! object's own mass, so it is evaluated per object and grid point from the tabulated R(M).
+//! Objects with a rotation period add one more term, the spin test of [`super::spin`], which
+//! also applies their first-order slow-rotation corrections before the terms are built.
 //!
 //! The engine sees the theory only through [`BoundSurface`], so it can be tested with simple
 //! synthetic bounds and knows nothing of how the bounds were solved.
