@@ -413,6 +413,15 @@ def brown_dwarfs():
             row["rotation_period"] = ""
         row["ref"] = draw.pick(refs)
         rows.append(row)
+    # Three fast rotators (periods 1.1-1.3 h, as in the fastest field brown dwarfs), fixed by hand
+    # after the random draws so that the rows above do not change: they exercise the spin test.
+    for ident, mass, err, age, period in (("HFC-B0201", "0.04510", "0.00190", "3.100", "1.12"),
+                                          ("HFC-B0202", "0.05230", "0.00240", "4.600", "1.21"),
+                                          ("HFC-B0203", "0.03880", "0.00170", "2.200", "1.29")):
+        rows.append({"id": ident, "class": "brown_dwarf", "mass": mass, "mass_err": err,
+                     "mass_err_lo": "", "mass_err_hi": "", "mass_limit": "", "age": age,
+                     "age_err": "0.500", "rotation_period": period,
+                     "ref": "HFC invented: astrometric binary orbit; fast rotator"})
     return rows
 
 
@@ -422,7 +431,7 @@ def wd_core(mass_msun):
 
 
 def white_dwarfs(mr, hot):
-    """300 HFC white dwarfs. Radii (for about 40 %) are drawn from the finite-temperature model
+    """300 HFC white dwarfs (and three fast spinners). Radii (for about 40 %) are drawn from the finite-temperature model
     at each object's true mass, Teff, core and hydrogen layer; the demo exercises every path of
     the radius test: hot and helium-core objects, thin layers, masses from a model (left out),
     radii without Teff and an extremely-low-mass object (both outside the model's domain)."""
@@ -497,7 +506,18 @@ def white_dwarfs(mr, hot):
         row["mass_method"] = method
         row["mu_e"] = f"{mu_e:.2f}" if mu_e else ""
         row["ref"] = ref
+        row["rotation_period"] = ""
         rows.append(row)
+    # Three fast spinners, fixed by hand after the random draws (the rows above do not change):
+    # massive white dwarfs spinning in 13 s and 70 s, and one of 0.85 Msun in 7 min. Periods in h.
+    for ident, mass, err, teff, period in (("HFC-W0401", "1.2200", "0.0200", "25000", "0.0036111"),
+                                           ("HFC-W0402", "1.2700", "0.0200", "18000", "0.0194444"),
+                                           ("HFC-W0403", "0.8500", "0.0150", "14000", "0.1166667")):
+        rows.append({"id": ident, "class": "white_dwarf", "mass_limit": "", "mass": mass, "mass_err": err,
+                     "mass_err_lo": "", "mass_err_hi": "", "radius": "", "radius_err": "", "teff": teff,
+                     "teff_err": str(int(teff) // 50), "core": "", "envelope": "", "mass_method": "redshift",
+                     "mu_e": "", "rotation_period": period,
+                     "ref": "HFC invented: gravitational redshift and parallax; fast spinner"})
     return rows
 
 
@@ -656,7 +676,7 @@ age = "Myr"
 COLS_LOW = ["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi", "mass_limit", "age", "age_err",
             "rotation_period", "ref"]
 COLS_WD = ["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi", "mass_limit", "radius", "radius_err",
-           "teff", "teff_err", "core", "envelope", "mass_method", "mu_e", "ref"]
+           "teff", "teff_err", "core", "envelope", "mass_method", "mu_e", "rotation_period", "ref"]
 COLS_ALL = ["id", "class", "mass", "mass_err", "mass_err_lo", "mass_err_hi", "mass_limit", "radius", "radius_err",
             "age", "age_err", "rotation_period", "teff", "teff_err", "mass_method", "mu_e", "ref"]
 
@@ -713,7 +733,7 @@ def main(argv=None):
     vlm, bd, wd, nn = vlm_stars(), brown_dwarfs(), white_dwarfs(mr, hot), next_night(mr, hot)
 
     units_low = "# Units: mass, mass_err, mass_err_lo, mass_err_hi in solMass; age, age_err in Gyr; rotation_period in h."
-    units_wd = "# Units: mass and its errors in solMass; radius, radius_err in solRad (finite-temperature radius of the true mass, Teff, core and H layer from assets/wd_hot_table.csv, plus noise; scaled by the zero-temperature mu_e dependence for mu_e = 2.15); teff, teff_err in K."
+    units_wd = "# Units: mass and its errors in solMass; radius, radius_err in solRad (finite-temperature radius of the true mass, Teff, core and H layer from assets/wd_hot_table.csv, plus noise; scaled by the zero-temperature mu_e dependence for mu_e = 2.15); teff, teff_err in K; rotation_period in h."
     write_csv(os.path.join(args.out, "vlm_stars.csv"),
               header("very-low-mass stars that burn hydrogen", [units_low]), COLS_LOW, vlm)
     write_csv(os.path.join(args.out, "brown_dwarfs.csv"),

@@ -110,7 +110,8 @@ fn demo_catalogues_write_every_output_with_the_documented_keys() {
     assert_eq!(grid.lines().count(), 1 + 19 * 13);
     assert!(!grid.contains("NaN") && !grid.contains("inf"));
     let objects = std::fs::read_to_string(dir.path().join("objects.csv")).unwrap();
-    assert_eq!(objects.lines().count(), 1 + 700);
+    // 300 stars, 103 brown dwarfs and 303 white dwarfs (catalogs-demo/README.md).
+    assert_eq!(objects.lines().count(), 1 + 706);
     let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
     assert!(html.contains("idealised"), "the report states the caution");
     assert!(!html.contains("http://") && !html.contains("https://"));

@@ -100,6 +100,12 @@ fn flags_are_the_documented_tokens() {
                         "elm",
                         "outside_model",
                         "radius_anchored",
+                        "spin_radius_measured",
+                        "spin_radius_finite-temperature",
+                        "spin_radius_cold",
+                        "spin_corrected",
+                        "spin_beyond_first_order",
+                        "spin_mass_limit",
                     ]
                     .contains(&f),
                 "{}: flag `{f}`",

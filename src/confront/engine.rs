@@ -6,6 +6,8 @@
 //! `docs/bounds.md` §8.5) and the grid is evaluated by interpolation. White dwarfs with a
 //! measured radius also confront the modified mass–radius relation; that term depends on the
 //! object's own mass, so it is evaluated per object and grid point from the tabulated R(M).
+//! Objects with a rotation period add one more term, the spin test of [`super::spin`], which
+//! also applies their first-order slow-rotation corrections before the terms are built.
 //!
 //! The engine sees the theory only through [`BoundSurface`], so it can be tested with simple
 //! synthetic bounds and knows nothing of how the bounds were solved.
@@ -92,6 +94,8 @@ pub struct EngineOptions {
     /// floors above are the widths of the shared shifts (or, with
     /// [`super::mass_terms::Systematics::PerObject`], the per-object errors).
     pub mass_terms: MassTermOptions,
+    /// The spin test and the slow-rotation corrections ([`super::spin`]).
+    pub spin: super::spin::SpinOptions,
 }
 
 impl Default for EngineOptions {
@@ -107,6 +111,7 @@ impl Default for EngineOptions {
             reduce: ReduceOptions::default(),
             population_window_msun: None,
             mass_terms: MassTermOptions::default(),
+            spin: super::spin::SpinOptions::default(),
         }
     }
 }
@@ -122,15 +127,18 @@ pub enum Term {
     WhiteDwarfMass,
     /// `white_dwarf` radius against the modified mass–radius relation.
     WhiteDwarfRadius,
+    /// Any object with a rotation period against its break-up period (P ≥ P_break).
+    Spin,
 }
 
 impl Term {
     /// All terms in output order.
-    pub const ALL: [Term; 4] = [
+    pub const ALL: [Term; 5] = [
         Term::HBurning,
         Term::BrownDwarf,
         Term::WhiteDwarfMass,
         Term::WhiteDwarfRadius,
+        Term::Spin,
     ];
 
     /// Name used in outputs (`grid.csv` column suffixes, the report).
@@ -140,6 +148,7 @@ impl Term {
             Term::BrownDwarf => "brown_dwarf",
             Term::WhiteDwarfMass => "white_dwarf",
             Term::WhiteDwarfRadius => "white_dwarf_radius",
+            Term::Spin => "spin",
         }
     }
 
@@ -180,7 +189,7 @@ pub struct Confrontation {
     /// Number of τ values.
     pub n_tau: usize,
     /// −2 ln L per term and grid point (`None` where no model exists).
-    pub per_term: [Vec<Option<f64>>; 4],
+    pub per_term: [Vec<Option<f64>>; 5],
     /// Joint −2 ln L per grid point.
     pub joint: Vec<Option<f64>>,
     /// How each object was used.
@@ -195,6 +204,8 @@ pub struct Confrontation {
     /// that some object faces. `curves` above are the plain per-object-floor class curves,
     /// kept for counts and per-object tensions.
     pub bounds: Vec<(Bound, BoundTerm)>,
+    /// The spin tests, prepared (one per object with a rotation period and a measured mass).
+    pub spins: Vec<super::spin::ObjectSpin>,
 }
 
 /// The two mass bounds of the comparison.
@@ -413,7 +424,8 @@ pub fn confront(
     if n == 0 {
         return Err(EngineError::Grid("the grid has no points".into()));
     }
-    let uses = plan(objects, opts);
+    let mut uses = plan(objects, opts);
+    let spins = super::spin::prepare(objects, &mut uses, surface, opts);
     let mmhb: Vec<Option<f64>> = (0..n).map(|i| surface.mmhb_msun(i)).collect();
     let chandra: Vec<Option<f64>> = (0..n).map(|i| surface.chandrasekhar_mu2_msun(i)).collect();
 
@@ -510,7 +522,7 @@ pub fn confront(
         }
         None => None,
     };
-    let mut per_term: [Vec<Option<f64>>; 4] = Default::default();
+    let mut per_term: [Vec<Option<f64>>; 5] = Default::default();
     for t in Term::ALL {
         per_term[t.index()] = vec![Some(0.0); n];
     }
@@ -540,8 +552,9 @@ pub fn confront(
             }
         }
     }
-    let mut uses = uses;
     let mut radius_objects = prepare_radius_objects(objects, &uses, surface, opts);
+    super::spin::correct_radius_tests(&mut radius_objects, &spins);
+    per_term[Term::Spin.index()] = super::spin::minus_two_ln_l_grid(&spins, surface, n);
     if opts.radius.model == wd_radius::WdRadiusModel::Hot {
         // No finite-temperature model at the object's own mass and Teff (outside the table, or
         // no hydrostatic solution): left out of the radius test, flagged, never silently.
@@ -616,6 +629,7 @@ pub fn confront(
         population,
         radius_objects,
         bounds,
+        spins,
     })
 }
 

@@ -12,5 +12,6 @@ pub mod prob;
 pub mod reduce;
 pub mod regions;
 pub mod slice;
+pub mod spin;
 pub mod tension;
 pub mod wd_radius;

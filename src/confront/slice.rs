@@ -111,6 +111,18 @@ pub fn tau0_slice(
         j0,
     };
     let radius_fine = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
+    // The spin term is smooth in Υ (its floor is 5 % of the period): linear along the row.
+    let spin_coarse: Vec<f64> = (0..axis.len())
+        .map(|i| conf.per_term[Term::Spin as usize][j0 * conf.n_upsilon + a + i].unwrap_or(0.0))
+        .collect();
+    let spin_fine = |u: f64| {
+        if axis.len() < 2 {
+            return spin_coarse.first().copied().unwrap_or(0.0);
+        }
+        let j = axis.partition_point(|&v| v <= u).clamp(1, axis.len() - 1);
+        let t = (u - axis[j - 1]) / (axis[j] - axis[j - 1]);
+        spin_coarse[j - 1] + t * (spin_coarse[j] - spin_coarse[j - 1])
+    };
     let chi2_fine: Vec<f64> = fine
         .iter()
         .enumerate()
@@ -127,7 +139,7 @@ pub fn tau0_slice(
                 at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
                 at(|t| t == Term::WhiteDwarfMass),
             );
-            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
+            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>() + spin_fine(u)
         })
         .collect();
     let slice = regions::slice_from_values(fine, chi2_fine)?;

@@ -52,7 +52,7 @@ impl ReferencePoint {
         match term {
             Term::WhiteDwarfMass => self.chandrasekhar_mu2_msun,
             Term::HBurning | Term::BrownDwarf => self.mmhb_msun,
-            Term::WhiteDwarfRadius => None,
+            Term::WhiteDwarfRadius | Term::Spin => None,
         }
     }
 }

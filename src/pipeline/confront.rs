@@ -246,6 +246,7 @@ pub fn run_confrontation(
         &eopts,
     );
     let tensions = tensions_above(&verdicts, settings.statistics.tension_sigma);
+    let spin_verdicts = crate::confront::spin::spin_verdicts(&conf.spins, &surface, best_index);
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
     let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts);
@@ -264,6 +265,7 @@ pub fn run_confrontation(
         regions: &regions,
         slice: slice.as_ref(),
         verdicts: &verdicts,
+        spin_verdicts: &spin_verdicts,
         drivers: &drivers,
         tensions: &tensions,
         consistency: &consistency,

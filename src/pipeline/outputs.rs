@@ -21,6 +21,7 @@ use crate::catalogue::{CatalogueObject, Vetted};
 use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
 use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
+use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
 use crate::confront::tension::{ObjectVerdict, Tension};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
@@ -37,6 +38,8 @@ pub(crate) struct OutputContext<'a> {
     pub slice: Option<&'a SliceResult>,
     /// Per object, in the order of `vetted.objects`.
     pub verdicts: &'a [ObjectVerdict],
+    /// The spin tests, one per object with a rotation period and a measured mass.
+    pub spin_verdicts: &'a [SpinVerdict],
     /// The drivers as (object index, shift), by rank.
     pub drivers: &'a [(usize, f64)],
     pub tensions: &'a [Tension],
@@ -124,6 +127,14 @@ impl OutputContext<'_> {
             "driver_rank",
             "driver_shift",
             "driver_end_opens_or_closes",
+            "rotation_period_h",
+            "breakup_period_standard_h",
+            "breakup_period_best_h",
+            "spin_sigma_standard",
+            "spin_sigma_best",
+            "spin_radius_source",
+            "spin_v",
+            "spin_correction",
         ];
         let mut driver_of: Vec<Option<(usize, f64)>> = vec![None; self.verdicts.len()];
         for (rank, k, shift) in self.drivers_sorted() {
@@ -138,7 +149,14 @@ impl OutputContext<'_> {
                 let driver_shift = driver_of[k].map(|d| d.1);
                 let o = self.object(k);
                 let u = &self.conf.uses[k];
-                vec![
+                let sv = self.spin_verdicts.iter().find(|v| v.index == k);
+                let hours = |x: Option<f64>| x.map(|s| s / 3600.0);
+                let (spin_v, spin_change) = match sv.map(|v| v.slow) {
+                    Some(SlowRotationStatus::Corrected { v, change }) => (Some(v), Some(change)),
+                    Some(SlowRotationStatus::BeyondFirstOrder { v }) => (Some(v), None),
+                    _ => (None, None),
+                };
+                let mut row = vec![
                     Cell::Text(o.id.clone()),
                     Cell::Text(o.class.label().into()),
                     Cell::Text(o.source_file.clone()),
@@ -164,7 +182,18 @@ impl OutputContext<'_> {
                     },
                     Cell::Float(driver_shift.filter(|s| s.is_finite())),
                     Cell::Bool(driver_shift.map(|s| s.is_infinite())),
-                ]
+                ];
+                row.extend([
+                    Cell::Float(o.rotation_period_h),
+                    Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
+                    Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
+                    Cell::Float(sv.and_then(|v| v.sigma_standard)),
+                    Cell::Float(sv.and_then(|v| v.sigma_best)),
+                    Cell::Text(sv.map_or(String::new(), |v| v.source.label().to_string())),
+                    Cell::Float(spin_v),
+                    Cell::Float(spin_change),
+                ]);
+                row
             })
             .collect();
         let mut header: Vec<String> = header.map(String::from).to_vec();

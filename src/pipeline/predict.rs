@@ -22,7 +22,10 @@ use serde_json::{json, Map, Value};
 use super::error::PipelineError;
 use crate::output::write_atomic;
 use crate::report::text::fmt_sig;
-use crate::report::{render_bounds_png, render_bounds_svg, BoundSeries, BoundsCurves};
+use crate::report::{
+    render_bounds_png, render_bounds_svg, render_breakup_png, render_breakup_svg, BoundSeries,
+    BoundsCurves, BreakupFigure, BreakupLine, BreakupPanel,
+};
 use crate::theory::grid::{compute, grid_value, GridOptions, TheoryGrid};
 use crate::theory::mmhb::MmhbMode;
 use crate::theory::point::{
@@ -34,6 +37,57 @@ use crate::theory::Axis;
 
 /// Masses (M☉, μ_e = 2) at which `predict` prints white-dwarf radii.
 const WD_MASSES_MSUN: [f64; 7] = [0.2, 0.4, 0.6, 0.8, 1.0, 1.2, 1.4];
+
+/// Masses (M☉) of the minimum-period curve of the hydrogen-rich (brown-dwarf and star) structure.
+const BREAKUP_CURVE_LOW_MSUN: [f64; 12] = [
+    0.01, 0.02, 0.03, 0.04, 0.05, 0.06, 0.07, 0.075, 0.08, 0.09, 0.1, 0.15,
+];
+
+/// Masses (M☉) of the minimum-period curve of the white-dwarf structure (μ_e = 2).
+const BREAKUP_CURVE_WD_MSUN: [f64; 14] = [
+    0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0, 1.1, 1.2, 1.3, 1.35, 1.4,
+];
+
+/// The minimum (break-up) period against mass for each class's cold structure at one point:
+/// the hydrogen-rich floor of brown dwarfs and stars (μ_e = 2/(1 + X) of the break-up reference,
+/// periods in minutes and hours) and white dwarfs (μ_e = 2, periods in seconds). Roche model; a
+/// mass without a model (above the maximum mass) is null. Keys documented in the README.
+pub fn breakup_curves_json(table: &WdMassRadius, s: &TheorySettings) -> Value {
+    use crate::theory::rotation::{breakup_curve, BreakupModel};
+    let curve = |mu_e: f64, masses: &[f64]| {
+        let pts = breakup_curve(table, mu_e, masses, BreakupModel::Roche);
+        let radius: Vec<Value> = pts
+            .iter()
+            .map(|p| num(p.as_ref().ok().map(|p| p.radius_rsun)))
+            .collect();
+        let period: Vec<Option<f64>> = pts
+            .iter()
+            .map(|p| p.as_ref().ok().map(|p| p.period_s))
+            .collect();
+        (radius, period)
+    };
+    let mu_low = s.breakup.mu_e();
+    let (r_low, p_low) = curve(mu_low, &BREAKUP_CURVE_LOW_MSUN);
+    let (r_wd, p_wd) = curve(CHANDRASEKHAR_REPORT_MU_E, &BREAKUP_CURVE_WD_MSUN);
+    let scaled =
+        |p: &[Option<f64>], k: f64| p.iter().map(|x| num(x.map(|x| x / k))).collect::<Vec<_>>();
+    json!({
+        "model": "roche",
+        "brown_dwarf": {
+            "mu_e": mu_low,
+            "mass_msun": BREAKUP_CURVE_LOW_MSUN,
+            "radius_rsun": r_low,
+            "breakup_period_min": scaled(&p_low, 60.0),
+            "breakup_period_h": scaled(&p_low, 3600.0),
+        },
+        "white_dwarf": {
+            "mu_e": CHANDRASEKHAR_REPORT_MU_E,
+            "mass_msun": BREAKUP_CURVE_WD_MSUN,
+            "radius_rsun": r_wd,
+            "breakup_period_s": scaled(&p_wd, 1.0),
+        },
+    })
+}
 
 /// Bounds-figure rows: at most this many τ values.
 const FIGURE_TAU_ROWS: usize = 5;
@@ -93,6 +147,14 @@ pub fn predict_grid(
     } else {
         notes.push("the bounds figure needs at least two Υ values; not drawn".to_string());
     }
+    let fig = breakup_figure(upsilon, tau, settings)?;
+    let svg = render_breakup_svg(&fig).map_err(|e| PipelineError::Internal(e.to_string()))?;
+    let png = render_breakup_png(&fig).map_err(|e| PipelineError::Internal(e.to_string()))?;
+    for (name, bytes) in [("breakup.svg", svg.into_bytes()), ("breakup.png", png)] {
+        let path = dir.join(name);
+        write_atomic(&path, &bytes)?;
+        files.push(path.display().to_string());
+    }
     Ok(GridPrediction {
         points: grid.points.len(),
         n_upsilon: upsilon.count,
@@ -100,6 +162,75 @@ pub fn predict_grid(
         points_without_model: grid.points_without_model(),
         files,
         notes,
+    })
+}
+
+/// The break-up figure of a prediction: the minimum period against mass for each class's cold
+/// structure, at the τ of the grid nearest 0 and at up to three Υ values (the ends of the axis
+/// and the value nearest 0), so that it shows how Υ moves the floor.
+fn breakup_figure(
+    upsilon: Axis,
+    tau: Axis,
+    settings: &TheorySettings,
+) -> Result<BreakupFigure, PipelineError> {
+    let nearest0 = |a: &Axis| {
+        (0..a.count)
+            .map(|i| grid_value(a, i))
+            .fold(f64::NAN, |best, x| {
+                if best.is_nan() || x.abs() < best.abs() {
+                    x
+                } else {
+                    best
+                }
+            })
+    };
+    let t0 = nearest0(&tau);
+    let mut ups: Vec<f64> = vec![grid_value(&upsilon, 0), nearest0(&upsilon)];
+    ups.push(grid_value(&upsilon, upsilon.count.saturating_sub(1)));
+    ups.sort_by(f64::total_cmp);
+    ups.dedup();
+    let ev = PointEvaluator::new(settings).map_err(|e| PipelineError::Settings(e.to_string()))?;
+    let mut low = Vec::new();
+    let mut wd = Vec::new();
+    for u in ups {
+        let p = ev.evaluate(u, t0, true);
+        let label = format!("Υ = {}, τ = {}", fmt_sig(u, 4), fmt_sig(t0, 4));
+        let Some(table) = p.white_dwarf.as_ref().and_then(|w| w.ok()) else {
+            continue;
+        };
+        let line = |mu_e: f64, masses: &[f64], unit_s: f64| BreakupLine {
+            label: label.clone(),
+            mass_msun: masses.to_vec(),
+            period: crate::theory::rotation::breakup_curve(
+                table,
+                mu_e,
+                masses,
+                crate::theory::rotation::BreakupModel::Roche,
+            )
+            .iter()
+            .map(|r| r.as_ref().ok().map(|p| p.period_s / unit_s))
+            .collect(),
+        };
+        low.push(line(settings.breakup.mu_e(), &BREAKUP_CURVE_LOW_MSUN, 60.0));
+        wd.push(line(CHANDRASEKHAR_REPORT_MU_E, &BREAKUP_CURVE_WD_MSUN, 1.0));
+    }
+    Ok(BreakupFigure {
+        title: "Minimum (break-up) spin period against mass, cold structures, Roche model".into(),
+        panels: vec![
+            BreakupPanel {
+                label: format!(
+                    "brown dwarfs and stars (μe = {})",
+                    fmt_sig(settings.breakup.mu_e(), 3)
+                ),
+                unit: "min".into(),
+                lines: low,
+            },
+            BreakupPanel {
+                label: "white dwarfs (μe = 2)".into(),
+                unit: "s".into(),
+                lines: wd,
+            },
+        ],
     })
 }
 
@@ -283,6 +414,7 @@ pub fn point_json(p: &PointBounds, s: &TheorySettings) -> Value {
         "breakup_period_h": num(b.map(|b| b.period_h)),
         "breakup_radius_rjup": num(b.map(|b| b.radius_rjup())),
         "breakup_reference": s.breakup.describe(),
+        "breakup_curves": wd_table.map(|t| breakup_curves_json(t, s)).unwrap_or(Value::Null),
         "white_dwarf": white_dwarf.unwrap_or(Value::Null),
         "warnings": p.warnings.iter().map(|w| json!({"code": w.code(), "message": w.message()})).collect::<Vec<_>>(),
         "errors": Value::Object(errors),

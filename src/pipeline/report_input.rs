@@ -8,6 +8,7 @@ use super::outputs::OutputContext;
 use crate::confront::engine::{BoundSurface, Term};
 use crate::confront::regions::Level;
 use crate::confront::tension::TensionTest;
+use crate::report::text::fmt_sig;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, ModelDescription,
@@ -41,6 +42,7 @@ fn term_words(t: Term) -> &'static str {
         Term::BrownDwarf => "brown dwarfs (mass ≤ MMHB)",
         Term::WhiteDwarfMass => "white dwarfs (mass ≤ Chandrasekhar mass)",
         Term::WhiteDwarfRadius => "white-dwarf radii (modified mass–radius relation)",
+        Term::Spin => "spins (rotation period ≥ break-up period; Jain, Kouvaris & Nielsen 2016)",
     }
 }
 
@@ -89,6 +91,123 @@ fn term_summary(ctx: &OutputContext<'_>, t: Term, delta: &[Option<f64>]) -> Stri
     )
 }
 
+/// A period in the unit that reads best: s below 10 min, min below 10 h, h above.
+fn period_text(p_s: f64) -> String {
+    if p_s < 600.0 {
+        format!("{} s", fmt_sig(p_s, 3))
+    } else if p_s < 36_000.0 {
+        format!("{} min", fmt_sig(p_s / 60.0, 3))
+    } else {
+        format!("{} h", fmt_sig(p_s / 3600.0, 3))
+    }
+}
+
+/// What each spinning object constrains, one sentence each: its period against the break-up
+/// period at standard gravity and across the grid, and how far its own Δχ² moves.
+fn spin_words(ctx: &OutputContext<'_>) -> String {
+    use crate::confront::spin::SlowRotationStatus;
+    // Named one by one: every object whose own Δχ² moves by 0.1 or more (largest first, at most
+    // eight), then the three spinning closest to break-up at standard gravity; the rest in one
+    // sentence.
+    let ratio = |v: &crate::confront::spin::SpinVerdict| {
+        v.breakup_standard_s
+            .map_or(f64::INFINITY, |p| v.period_s / p)
+    };
+    let mut by_span: Vec<usize> = (0..ctx.spin_verdicts.len())
+        .filter(|&k| ctx.spin_verdicts[k].delta_chi2_span >= 0.1)
+        .collect();
+    by_span.sort_by(|&a, &b| {
+        ctx.spin_verdicts[b]
+            .delta_chi2_span
+            .total_cmp(&ctx.spin_verdicts[a].delta_chi2_span)
+    });
+    by_span.truncate(8);
+    let mut by_ratio: Vec<usize> = (0..ctx.spin_verdicts.len()).collect();
+    by_ratio
+        .sort_by(|&a, &b| ratio(&ctx.spin_verdicts[a]).total_cmp(&ratio(&ctx.spin_verdicts[b])));
+    let mut named = by_span;
+    for k in by_ratio.into_iter().take(3) {
+        if !named.contains(&k) {
+            named.push(k);
+        }
+    }
+    let mut out = Vec::new();
+    for v in named.iter().map(|&k| &ctx.spin_verdicts[k]) {
+        let o = &ctx.vetted.objects[v.index];
+        let mut s = format!(
+            "{} ({}, {:.3} M☉) spins in {}",
+            o.id,
+            o.class.label(),
+            o.mass_msun,
+            period_text(v.period_s)
+        );
+        if let Some(p) = v.breakup_standard_s {
+            s += &format!(
+                "; break-up period {} at standard gravity ({} radius), P/P_break = {:.2}",
+                period_text(p),
+                v.source.label(),
+                v.period_s / p
+            );
+        }
+        if let Some((lo, hi)) = v.breakup_range_s {
+            s += &format!(", {}–{} over the grid", period_text(lo), period_text(hi));
+            if hi < v.period_s {
+                // P_break ∝ R^{3/2}: shedding needs the radius larger by (P/P_break)^{2/3}.
+                s += &format!(
+                    "; shedding would need a radius {:.2}× the largest on the grid",
+                    (v.period_s / hi).powf(2.0 / 3.0)
+                );
+            }
+        }
+        let verdict = if v.delta_chi2_span < 0.1 {
+            "it constrains nothing on this grid"
+        } else if v.delta_chi2_span < Level::Cl95.dchi2(2) {
+            "it constrains little (Δχ² moves by less than the 95.45 % threshold)"
+        } else {
+            "it excludes part of the grid on its own"
+        };
+        s += &format!(" (Δχ² span {:.2}): {verdict}", v.delta_chi2_span);
+        match v.slow {
+            SlowRotationStatus::Corrected { v: x, change } => {
+                let what = if o.class == crate::catalogue::ObjectClass::WhiteDwarf {
+                    "its predicted radius"
+                } else {
+                    "its MMHB"
+                };
+                s += &format!(
+                    "; slow rotation (v = {x:.2e}) moves {what} by {:+.2e}",
+                    change
+                );
+            }
+            SlowRotationStatus::BeyondFirstOrder { v: x } => {
+                s += &format!(
+                    "; too fast for the first-order slow-rotation correction (v = {x:.2e}), flagged and not corrected"
+                );
+            }
+            SlowRotationStatus::NotApplied => {}
+        }
+        out.push(s + ".");
+    }
+    let rest: Vec<&crate::confront::spin::SpinVerdict> = ctx
+        .spin_verdicts
+        .iter()
+        .enumerate()
+        .filter(|(k, _)| !named.contains(k))
+        .map(|(_, v)| v)
+        .collect();
+    if !rest.is_empty() {
+        let slowest = rest.iter().map(|v| ratio(v)).fold(f64::INFINITY, f64::min);
+        let span = rest.iter().map(|v| v.delta_chi2_span).fold(0.0, f64::max);
+        out.push(format!(
+            "The other {} spinning objects rotate at {} or more times their break-up period at standard gravity; none moves its own Δχ² by more than {:.2} (objects.csv lists each).",
+            rest.len(),
+            if slowest.is_finite() { fmt_sig(slowest, 3) } else { "—".into() },
+            span
+        ));
+    }
+    out.join(" ")
+}
+
 /// Δχ² of a grid vector relative to its own minimum (`None` where there is no model).
 fn delta_of(v: &[Option<f64>]) -> Vec<Option<f64>> {
     let min = v.iter().flatten().copied().fold(f64::INFINITY, f64::min);
@@ -121,6 +240,7 @@ pub(crate) fn write_report_files(
             .iter()
             .filter(|u| match term {
                 Term::WhiteDwarfRadius => u.radius_term,
+                Term::Spin => ctx.conf.spins.iter().any(|s| s.index == u.index),
                 _ => u.mass_term == Some(term),
             })
             .count();
@@ -139,7 +259,10 @@ pub(crate) fn write_report_files(
             n_objects,
             n_informative,
             minus_two_ln_l_at_best_fit: v[ctx.best_index].unwrap_or(0.0),
-            summary: term_summary(ctx, term, &delta),
+            summary: match term {
+                Term::Spin => format!("{} {}", term_summary(ctx, term, &delta), spin_words(ctx)),
+                _ => term_summary(ctx, term, &delta),
+            },
         });
         outlines.push(ClassOutline {
             class_label: term.name().to_string(),

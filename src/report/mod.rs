@@ -34,10 +34,11 @@ pub use figure_data::{
 };
 pub use figures::{
     outline_style_name, render_allowed_png, render_allowed_svg, render_bounds_png,
-    render_bounds_svg, render_mass_bounds_png, render_mass_bounds_svg, render_profile_png,
-    render_profile_svg, render_wd_mass_radius_png, render_wd_mass_radius_svg, render_zoom_png,
-    render_zoom_svg, zoom_of, Zoom, ALLOWED_SIZE, BOUNDS_WIDTH, MASS_BOUNDS_WIDTH, PROFILE_SIZE,
-    WD_MASS_RADIUS_SIZE, ZOOM_BELOW_FRACTION,
+    render_bounds_svg, render_breakup_png, render_breakup_svg, render_mass_bounds_png,
+    render_mass_bounds_svg, render_profile_png, render_profile_svg, render_wd_mass_radius_png,
+    render_wd_mass_radius_svg, render_zoom_png, render_zoom_svg, zoom_of, BreakupFigure,
+    BreakupLine, BreakupPanel, Zoom, ALLOWED_SIZE, BOUNDS_WIDTH, BREAKUP_SIZE, MASS_BOUNDS_WIDTH,
+    PROFILE_SIZE, WD_MASS_RADIUS_SIZE, ZOOM_BELOW_FRACTION,
 };
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,

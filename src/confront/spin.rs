@@ -1,0 +1,702 @@
+//! The spin test: every object with a measured rotation period must spin slower than mass
+//! shedding, P_obs ≥ P_break(M, R; Υ, τ), and the first-order slow-rotation correction that a
+//! measured spin makes to that object's own bound.
+//!
+//! One job: turn each spinning object into one more one-sided term of the likelihood and into
+//! per-object corrections. Maximum spin is one of the classic white-dwarf tests of this theory
+//! class (Jain, Kouvaris & Nielsen 2016, PRL 116, 151103). The break-up period is the Roche one,
+//! P_break = 2πκ√(R³/(GM)) with κ = (3/2)^{3/2} (`docs/rotation.md#2-break-up-period-curve`): the
+//! exterior gravity is standard (screened), and Υ, τ enter only through the radius R inside.
+//! That radius is, per object, and said in `objects.csv` (`spin_radius_source`):
+//!
+//! * `measured` — the catalogue's radius when given (then the test does not depend on the grid);
+//! * `finite-temperature` — a white dwarf with a Teff under the finite-temperature radius model:
+//!   the standard finite-temperature radius carried to the grid point by the ratio of cold radii,
+//!   as in the radius test;
+//! * `cold` — otherwise the zero-temperature radius at the grid point (μe of the object for a
+//!   white dwarf, μe = 2/(1 + X) of the hydrogen-rich floor for brown dwarfs and stars). Thermal
+//!   pressure only makes a real star larger, so for stars and massive brown dwarfs the break-up
+//!   period it gives is a lower limit; at the lowest brown-dwarf masses the missing Coulomb
+//!   (ion) term works the other way, so brown dwarfs and stars on this radius carry a wider
+//!   floor ([`SpinOptions::cold_hydrogen_floor_fraction`], 15 %).
+//!
+//! The likelihood of one object is marginalised over its true mass with the split-normal nodes
+//! of the radius test: P = Σ_k w_k Φ((P_obs − P_k)/(f P_k)) / Σ_k w_k over the nodes that have a
+//! model, with f the fractional theory floor ([`SpinOptions::floor_fraction`], 5 % by default:
+//! Roche against self-consistent κ is 3 %, the radius model 3 % in R, i.e. 4.5 % in P; 15 % on
+//! the cold hydrogen-rich radius). The
+//! period itself is taken as exact: catalogues carry no period error, and published periods are
+//! far more precise than the floor.
+//!
+//! Slow rotation (Chandrasekhar 1933, MNRAS 93, 390, in the modified theory:
+//! `docs/rotation.md#1-slow-rotation-chandrasekhars-first-order-expansion`): with
+//! v = Ω²/(2πGρ_c), a brown dwarf or star faces an MMHB raised by the factor 1 + v·(d ln M/dv) of
+//! an n = 3/2 polytrope at fixed central conditions (applied as the object's bound scale), and a
+//! white dwarf's radius at fixed mass grows by v·(d ln R/dv)|_M of the polytrope whose index
+//! matches the local slope of its cold mass–radius relation. ρ_c is that polytrope's central
+//! density for the object's radius at (or nearest to) standard gravity; the coefficients are
+//! those of Υ = τ = 0 (their change with Υ and τ is a product of two small quantities). Beyond
+//! the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit; n_eff ≥ 2.95 counts as
+//! beyond: near the Chandrasekhar mass the radius at fixed mass does not respond linearly) the
+//! object is flagged `spin_beyond_first_order` and left uncorrected.
+//!
+//! ```
+//! use dwarfbound::confront::spin::{ln_p_spin, SpinOptions};
+//!
+//! // Observed 1.5 × the break-up period with a 5 % floor: z = 0.5/0.05 = 10, P ≈ 1.
+//! let ln_p = ln_p_spin(1.5, &[(1.0, 1.0)], &[Some(1.0)], SpinOptions::default().floor_fraction);
+//! assert!(ln_p.unwrap() > -1e-20);
+//! // Observed at exactly the break-up period: P = 1/2.
+//! let ln_p = ln_p_spin(1.0, &[(1.0, 1.0)], &[Some(1.0)], 0.05).unwrap();
+//! assert!((ln_p - 0.5f64.ln()).abs() < 1e-15);
+//! ```
+
+use rayon::prelude::*;
+
+use super::engine::{radius_mass_nodes, BoundSurface, EngineOptions, ObjectUse};
+use super::prob::ln_normal_cdf;
+use super::wd_radius::{ObjectRadius, WdQuery, WdRadiusModel};
+use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+use crate::theory::rotation::{breakup_period_s, BreakupModel};
+use crate::theory::slow_rotation::{rotation_parameter_v, slow_rotation, SlowRotationError};
+use crate::theory::Anisotropy;
+
+/// Largest effective polytropic index for which a white dwarf's radius is corrected at first
+/// order: towards n = 3 (the Chandrasekhar mass) d ln R/dv at fixed mass diverges.
+pub const WD_MAX_EFFECTIVE_INDEX: f64 = 2.95;
+
+/// Choices of the spin test.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpinOptions {
+    /// 1σ theory floor of the break-up period, as a fraction of it (default 0.05).
+    pub floor_fraction: f64,
+    /// The floor for brown dwarfs and stars whose radius is the cold hydrogen-rich structure
+    /// (default 0.15): that structure has no Coulomb (ion) term, which makes real cold radii
+    /// smaller at the lowest masses, and no thermal pressure, which makes real radii larger.
+    pub cold_hydrogen_floor_fraction: f64,
+    /// μe of the cold hydrogen-rich structure used for brown dwarfs and hydrogen-burning stars
+    /// without a measured radius: 2/(1 + X) with X = 0.75 (the theory check values' choice).
+    pub hydrogen_rich_mu_e: f64,
+    /// Apply the first-order slow-rotation corrections (default true).
+    pub slow_rotation: bool,
+}
+
+impl Default for SpinOptions {
+    fn default() -> Self {
+        Self {
+            floor_fraction: 0.05,
+            cold_hydrogen_floor_fraction: 0.15,
+            hydrogen_rich_mu_e: 2.0 / 1.75,
+            slow_rotation: true,
+        }
+    }
+}
+
+/// Where the radius inside the break-up period comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SpinRadiusSource {
+    /// The catalogue's measured radius.
+    Measured,
+    /// The finite-temperature white-dwarf radius, carried to the point by the cold-radius ratio.
+    FiniteTemperature,
+    /// The zero-temperature radius at the grid point (a lower limit on the radius).
+    Cold,
+}
+
+impl SpinRadiusSource {
+    /// Name in outputs.
+    pub fn label(self) -> &'static str {
+        match self {
+            SpinRadiusSource::Measured => "measured",
+            SpinRadiusSource::FiniteTemperature => "finite-temperature",
+            SpinRadiusSource::Cold => "cold",
+        }
+    }
+}
+
+/// The first-order slow-rotation outcome of one object.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SlowRotationStatus {
+    /// Corrected: v and the fractional change applied (MMHB for brown dwarfs and stars, radius
+    /// at fixed mass for white dwarfs).
+    Corrected {
+        /// v = Ω²/(2πGρ_c).
+        v: f64,
+        /// The fractional change applied.
+        change: f64,
+    },
+    /// Beyond the first-order threshold: flagged, not corrected.
+    BeyondFirstOrder {
+        /// v = Ω²/(2πGρ_c).
+        v: f64,
+    },
+    /// No correction could be formed (no radius at standard gravity, or corrections off).
+    NotApplied,
+}
+
+/// One object's spin test, prepared once per confrontation.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ObjectSpin {
+    /// Index into the caller's object list.
+    pub index: usize,
+    /// Observed rotation period, s.
+    pub period_s: f64,
+    /// μe of the structure whose radius is used.
+    pub mu_e: f64,
+    /// Where the radius comes from.
+    pub source: SpinRadiusSource,
+    /// Mass nodes (M☉) and weights of the marginalisation over the true mass.
+    pub nodes: Vec<(f64, f64)>,
+    /// The nominal mass, M☉.
+    pub mass_msun: f64,
+    /// Per node, then the nominal mass: the factor that turns the cold radius at a point into
+    /// the radius used (1 for `cold`; hot/cold at standard gravity for `finite-temperature`;
+    /// `None` where the standard model has no star).
+    pub scale: Vec<Option<f64>>,
+    /// The measured radius, R☉ (source `measured`).
+    pub measured_rsun: Option<f64>,
+    /// The slow-rotation outcome.
+    pub slow: SlowRotationStatus,
+    /// The factor applied to the object's white-dwarf radius prediction (1 when none).
+    pub radius_factor: f64,
+    /// 1σ theory floor of its break-up period, as a fraction of it.
+    pub floor_fraction: f64,
+}
+
+/// The spin test at one grid point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpinAt {
+    /// ln P of the test (`None` where no node has a model).
+    pub ln_p: Option<f64>,
+    /// ln(1 − P), computed directly (the tension of objects far on the safe side).
+    pub ln_q: Option<f64>,
+    /// Break-up period at the nominal mass, s (`None` without a model there).
+    pub breakup_s: Option<f64>,
+}
+
+/// ln P that P_obs ≥ P_break, marginalised over the mass nodes: ln[Σ w_k Φ((P − P_k)/(f P_k)) /
+/// Σ w_k] over nodes with a break-up period (`None` when no node has one). Any period unit.
+pub fn ln_p_spin(
+    period: f64,
+    nodes: &[(f64, f64)],
+    breakup: &[Option<f64>],
+    floor_fraction: f64,
+) -> Option<f64> {
+    ln_p_side(period, nodes, breakup, floor_fraction, 1.0)
+}
+
+/// ln P (`sign` = 1) or ln(1 − P) (`sign` = −1) of [`ln_p_spin`].
+fn ln_p_side(
+    period: f64,
+    nodes: &[(f64, f64)],
+    breakup: &[Option<f64>],
+    floor_fraction: f64,
+    sign: f64,
+) -> Option<f64> {
+    let mut terms = Vec::with_capacity(nodes.len());
+    let mut weight = 0.0;
+    for ((_, w), pb) in nodes.iter().zip(breakup) {
+        let Some(pb) = pb.filter(|p| p.is_finite() && *p > 0.0) else {
+            continue;
+        };
+        if *w <= 0.0 {
+            continue;
+        }
+        let sigma = (floor_fraction * pb).max(f64::MIN_POSITIVE);
+        terms.push(w.ln() + ln_normal_cdf(sign * (period - pb) / sigma));
+        weight += w;
+    }
+    if terms.is_empty() || weight <= 0.0 {
+        return None;
+    }
+    let top = terms.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let sum: f64 = terms.iter().map(|t| (t - top).exp()).sum();
+    Some((top + sum.ln() - weight.ln()).min(0.0))
+}
+
+impl ObjectSpin {
+    /// The (mass, μe) queries of this object for [`BoundSurface::wd_radii_rsun`]: the nodes, then
+    /// the nominal mass.
+    pub fn queries(&self) -> impl Iterator<Item = (f64, f64)> + '_ {
+        self.nodes
+            .iter()
+            .map(|&(m, _)| m)
+            .chain(std::iter::once(self.mass_msun))
+            .map(move |m| (m, self.mu_e))
+    }
+
+    /// Number of queries ([`ObjectSpin::queries`]).
+    pub fn n_queries(&self) -> usize {
+        self.nodes.len() + 1
+    }
+
+    fn breakup_s(&self, mass_msun: f64, scale: Option<f64>, cold: Option<f64>) -> Option<f64> {
+        let radius = match self.source {
+            SpinRadiusSource::Measured => self.measured_rsun?,
+            _ => cold? * scale?,
+        };
+        breakup_period_s(mass_msun, radius, BreakupModel::Roche).ok()
+    }
+
+    /// The test at one point, given the cold radii there for [`ObjectSpin::queries`].
+    pub fn at(&self, cold: &[Option<f64>]) -> SpinAt {
+        let floor_fraction = self.floor_fraction;
+        let pb: Vec<Option<f64>> = self
+            .queries()
+            .zip(&self.scale)
+            .zip(cold.iter().chain(std::iter::repeat(&None)))
+            .map(|(((m, _), s), c)| self.breakup_s(m, *s, *c))
+            .collect();
+        let (node_pb, nominal) = pb.split_at(self.nodes.len());
+        SpinAt {
+            ln_p: ln_p_spin(self.period_s, &self.nodes, node_pb, floor_fraction),
+            ln_q: ln_p_side(self.period_s, &self.nodes, node_pb, floor_fraction, -1.0),
+            breakup_s: nominal.first().copied().flatten(),
+        }
+    }
+}
+
+/// The spin tests of every object at grid point `i`, in the order of `spins`.
+pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> Vec<SpinAt> {
+    let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
+    let cold = surface.wd_radii_rsun(i, &queries);
+    let mut at = 0;
+    spins
+        .iter()
+        .map(|s| {
+            let n = s.n_queries();
+            let slice = cold.get(at..at + n).unwrap_or(&[]);
+            at += n;
+            s.at(slice)
+        })
+        .collect()
+}
+
+/// −2 ln L of the spin term at every grid point (0 where no object spins).
+pub fn minus_two_ln_l_grid(
+    spins: &[ObjectSpin],
+    surface: &dyn BoundSurface,
+    n_points: usize,
+) -> Vec<Option<f64>> {
+    if spins.is_empty() {
+        return vec![Some(0.0); n_points];
+    }
+    (0..n_points)
+        .into_par_iter()
+        .map(|i| {
+            Some(
+                spins_at(spins, surface, i)
+                    .iter()
+                    .map(|a| -2.0 * a.ln_p.unwrap_or(0.0))
+                    .sum(),
+            )
+        })
+        .collect()
+}
+
+/// The grid point at (or nearest to) standard gravity.
+pub fn standard_index(surface: &dyn BoundSurface) -> usize {
+    let nearest = |v: &[f64]| {
+        v.iter()
+            .enumerate()
+            .fold((0, f64::INFINITY), |best, (k, x)| {
+                if x.abs() < best.1 {
+                    (k, x.abs())
+                } else {
+                    best
+                }
+            })
+            .0
+    };
+    nearest(surface.tau()) * surface.upsilon().len() + nearest(surface.upsilon())
+}
+
+/// Central density (kg m⁻³) of a polytrope of mass M and radius R with ρ_c/ρ̄ = `contrast`.
+fn central_density_kg_m3(mass_msun: f64, radius_rsun: f64, contrast: f64) -> f64 {
+    let m = mass_msun * crate::constants::msun_kg();
+    let r = radius_rsun * crate::constants::R_SUN_NOMINAL_M;
+    contrast * 3.0 * m / (4.0 * std::f64::consts::PI * r * r * r)
+}
+
+/// Effective polytropic index from the local slope s = d ln R/d ln M of a mass–radius relation
+/// (R ∝ M^{(1−n)/(3−n)} for a polytrope at fixed K): n = (1 − 3s)/(1 − s).
+pub fn effective_index(slope: f64) -> f64 {
+    (1.0 - 3.0 * slope) / (1.0 - slope)
+}
+
+/// Prepares the spin test of every object with a rotation period, flags them in `uses`, and
+/// applies the slow-rotation change of the MMHB (brown dwarfs and stars: their bound scale).
+/// Objects with a mass limit are left out of the spin test (flag `spin_mass_limit`).
+pub fn prepare(
+    objects: &[CatalogueObject],
+    uses: &mut [ObjectUse],
+    surface: &dyn BoundSurface,
+    opts: &EngineOptions,
+) -> Vec<ObjectSpin> {
+    let so = &opts.spin;
+    let i_std = standard_index(surface);
+    let mut out = Vec::new();
+    let mut n32 = None;
+    for (k, o) in objects.iter().enumerate() {
+        let Some(period_h) = o.rotation_period_h else {
+            continue;
+        };
+        let u = &mut uses[k];
+        if o.mass_limit != MassLimit::None {
+            u.flags.push("spin_mass_limit".to_string());
+            continue;
+        }
+        let is_wd = o.class == ObjectClass::WhiteDwarf;
+        let mu_e = if is_wd { u.mu_e } else { so.hydrogen_rich_mu_e };
+        let nodes = radius_mass_nodes(o);
+        let n_q = nodes.len() + 1;
+        let masses: Vec<f64> = nodes.iter().map(|&(m, _)| m).chain([o.mass_msun]).collect();
+        let (source, scale) = if o.radius_rsun.is_some() {
+            (SpinRadiusSource::Measured, vec![Some(1.0); n_q])
+        } else if is_wd && opts.radius.model == WdRadiusModel::Hot && o.teff_k.is_some() {
+            let core = u
+                .core
+                .unwrap_or_else(|| super::wd_radius::ResolvedCore::resolve(o.core, o.mass_msun));
+            let queries: Vec<WdQuery> = masses
+                .iter()
+                .map(|&m| WdQuery {
+                    mass_msun: m,
+                    mu_e,
+                    teff_k: o.teff_k,
+                    core,
+                    envelope: o.envelope,
+                })
+                .collect();
+            let std = surface.wd_standard_radii(&queries);
+            let scale: Vec<Option<f64>> = std
+                .iter()
+                .map(|s| {
+                    s.filter(|s| s.cold_rsun > 0.0)
+                        .map(|s| s.radius_rsun / s.cold_rsun)
+                })
+                .collect();
+            if scale.last().copied().flatten().is_some() {
+                (SpinRadiusSource::FiniteTemperature, scale)
+            } else {
+                (SpinRadiusSource::Cold, vec![Some(1.0); n_q])
+            }
+        } else {
+            (SpinRadiusSource::Cold, vec![Some(1.0); n_q])
+        };
+        u.flags.push(format!("spin_radius_{}", source.label()));
+        let mut spin = ObjectSpin {
+            index: k,
+            period_s: period_h * 3600.0,
+            mu_e,
+            source,
+            nodes,
+            mass_msun: o.mass_msun,
+            scale,
+            measured_rsun: o.radius_rsun,
+            slow: SlowRotationStatus::NotApplied,
+            radius_factor: 1.0,
+            floor_fraction: if source == SpinRadiusSource::Cold && !is_wd {
+                so.cold_hydrogen_floor_fraction
+            } else {
+                so.floor_fraction
+            },
+        };
+        if so.slow_rotation {
+            spin.slow = if is_wd {
+                wd_slow_rotation(&spin, surface, i_std)
+            } else {
+                let coeffs =
+                    n32.get_or_insert_with(|| slow_rotation(1.5, 0.0, 0.0, Anisotropy::None).ok());
+                mmhb_slow_rotation(&spin, surface, i_std, coeffs.as_ref())
+            };
+            match spin.slow {
+                SlowRotationStatus::Corrected { change, .. } => {
+                    if is_wd {
+                        spin.radius_factor = 1.0 + change;
+                    } else {
+                        u.measurement.scale *= 1.0 + change;
+                    }
+                    u.flags.push("spin_corrected".to_string());
+                }
+                SlowRotationStatus::BeyondFirstOrder { .. } => {
+                    u.flags.push("spin_beyond_first_order".to_string());
+                }
+                SlowRotationStatus::NotApplied => {}
+            }
+        }
+        out.push(spin);
+    }
+    out
+}
+
+/// The object's radius at standard gravity for the slow-rotation estimate of ρ_c.
+fn standard_radius(
+    spin: &ObjectSpin,
+    surface: &dyn BoundSurface,
+    i_std: usize,
+    mass_msun: f64,
+) -> Option<f64> {
+    match spin.measured_rsun {
+        Some(r) if mass_msun == spin.mass_msun => Some(r),
+        _ => surface
+            .wd_radii_rsun(i_std, &[(mass_msun, spin.mu_e)])
+            .first()
+            .copied()
+            .flatten(),
+    }
+}
+
+fn status_of(change: Result<f64, SlowRotationError>, v: f64) -> SlowRotationStatus {
+    match change {
+        Ok(change) if change.is_finite() => SlowRotationStatus::Corrected { v, change },
+        Err(SlowRotationError::TooFastForFirstOrder { .. }) => {
+            SlowRotationStatus::BeyondFirstOrder { v }
+        }
+        _ => SlowRotationStatus::NotApplied,
+    }
+}
+
+fn mmhb_slow_rotation(
+    spin: &ObjectSpin,
+    surface: &dyn BoundSurface,
+    i_std: usize,
+    coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
+) -> SlowRotationStatus {
+    let (Some(c), Some(r)) = (
+        coeffs,
+        standard_radius(spin, surface, i_std, spin.mass_msun),
+    ) else {
+        return SlowRotationStatus::NotApplied;
+    };
+    let contrast = c.xi1.powi(3) / (3.0 * c.omega);
+    let v = rotation_parameter_v(
+        spin.period_s,
+        central_density_kg_m3(spin.mass_msun, r, contrast),
+    );
+    if !v.is_finite() {
+        return SlowRotationStatus::NotApplied;
+    }
+    status_of(c.at(v).map(|x| x.mass), v)
+}
+
+fn wd_slow_rotation(
+    spin: &ObjectSpin,
+    surface: &dyn BoundSurface,
+    i_std: usize,
+) -> SlowRotationStatus {
+    let m = spin.mass_msun;
+    let h = 1e-3 * m;
+    let radii = surface.wd_radii_rsun(
+        i_std,
+        &[(m - h, spin.mu_e), (m, spin.mu_e), (m + h, spin.mu_e)],
+    );
+    let (Some(lo), Some(mid), Some(hi)) = (
+        radii.first().copied().flatten(),
+        radii.get(1).copied().flatten(),
+        radii.get(2).copied().flatten(),
+    ) else {
+        return SlowRotationStatus::NotApplied;
+    };
+    let slope = (hi.ln() - lo.ln()) / ((m + h).ln() - (m - h).ln());
+    let n = effective_index(slope);
+    // ρ_c of the matching polytrope; v from it even where the index is too close to 3.
+    let index = (n.clamp(1.05, WD_MAX_EFFECTIVE_INDEX) * 100.0).round() / 100.0;
+    let Ok(c) = slow_rotation(index, 0.0, 0.0, Anisotropy::None) else {
+        return SlowRotationStatus::NotApplied;
+    };
+    let radius = spin.measured_rsun.unwrap_or(mid);
+    let contrast = c.xi1.powi(3) / (3.0 * c.omega);
+    let v = rotation_parameter_v(spin.period_s, central_density_kg_m3(m, radius, contrast));
+    if !v.is_finite() {
+        return SlowRotationStatus::NotApplied;
+    }
+    if n >= WD_MAX_EFFECTIVE_INDEX {
+        return SlowRotationStatus::BeyondFirstOrder { v };
+    }
+    let change = c.at(v).and_then(|x| {
+        x.radius_at_fixed_mass
+            .ok_or(SlowRotationError::InvalidV { v })
+    });
+    status_of(change, v)
+}
+
+/// Multiplies the predicted radius of every white dwarf with a slow-rotation correction by its
+/// factor (the standard radii of its radius test).
+pub fn correct_radius_tests(radius_objects: &mut [ObjectRadius], spins: &[ObjectSpin]) {
+    for s in spins.iter().filter(|s| s.radius_factor != 1.0) {
+        for r in radius_objects.iter_mut().filter(|r| r.index == s.index) {
+            for x in r.standard.iter_mut().flatten() {
+                x.radius_rsun *= s.radius_factor;
+            }
+            if let Some((c, slope)) = r.at_nominal.as_mut() {
+                c.radius_rsun *= s.radius_factor;
+                *slope *= s.radius_factor;
+            }
+        }
+    }
+}
+
+/// One object's spin test at the reference points and across the grid, for the outputs.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpinVerdict {
+    /// Index into the caller's object list.
+    pub index: usize,
+    /// Observed period, s.
+    pub period_s: f64,
+    /// Where the radius comes from.
+    pub source: SpinRadiusSource,
+    /// Break-up period at the nominal mass at standard gravity, s (`None` when the grid has no
+    /// Υ = τ = 0 point or no model there).
+    pub breakup_standard_s: Option<f64>,
+    /// Break-up period at the nominal mass at the best fit, s.
+    pub breakup_best_s: Option<f64>,
+    /// One-sided tension at standard gravity, σ (positive: spinning faster than break-up).
+    pub sigma_standard: Option<f64>,
+    /// One-sided tension at the best fit, σ.
+    pub sigma_best: Option<f64>,
+    /// Shortest and longest break-up period at the nominal mass over the grid, s.
+    pub breakup_range_s: Option<(f64, f64)>,
+    /// Largest minus smallest −2 ln P of this object's test over the grid: how much it can
+    /// move the map.
+    pub delta_chi2_span: f64,
+    /// The slow-rotation outcome.
+    pub slow: SlowRotationStatus,
+}
+
+/// The spin verdicts of every prepared object (in the order of `spins`), from one pass over
+/// the grid.
+pub fn spin_verdicts(
+    spins: &[ObjectSpin],
+    surface: &dyn BoundSurface,
+    best_index: usize,
+) -> Vec<SpinVerdict> {
+    if spins.is_empty() {
+        return Vec::new();
+    }
+    let (nu, nt) = (surface.upsilon().len(), surface.tau().len());
+    let standard = surface
+        .tau()
+        .iter()
+        .position(|&t| t == 0.0)
+        .zip(surface.upsilon().iter().position(|&u| u == 0.0))
+        .map(|(j, i)| j * nu + i);
+    let all: Vec<Vec<SpinAt>> = (0..nu * nt)
+        .into_par_iter()
+        .map(|i| spins_at(spins, surface, i))
+        .collect();
+    // z = −Φ⁻¹(P); above P = ½ from 1 − P (the test with the sides swapped), so that objects far
+    // on the safe side keep a finite z instead of P rounding to 1.
+    let sigma = |a: &SpinAt| {
+        let ln_p = a.ln_p?;
+        let z = if ln_p <= -std::f64::consts::LN_2 {
+            super::prob::tension_sigma(ln_p)
+        } else {
+            super::prob::normal_quantile_from_ln(a.ln_q?)
+        };
+        z.is_finite().then_some(z)
+    };
+    spins
+        .iter()
+        .enumerate()
+        .map(|(k, s)| {
+            let at = |i: usize| all.get(i).map(|v| v[k]);
+            let std_at = standard.and_then(at);
+            let best_at = at(best_index);
+            let mut range: Option<(f64, f64)> = None;
+            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+            for v in &all {
+                if let Some(p) = v[k].breakup_s {
+                    range = Some(range.map_or((p, p), |(a, b)| (a.min(p), b.max(p))));
+                }
+                if let Some(l) = v[k].ln_p {
+                    lo = lo.min(-2.0 * l);
+                    hi = hi.max(-2.0 * l);
+                }
+            }
+            SpinVerdict {
+                index: s.index,
+                period_s: s.period_s,
+                source: s.source,
+                breakup_standard_s: std_at.and_then(|a| a.breakup_s),
+                breakup_best_s: best_at.and_then(|a| a.breakup_s),
+                sigma_standard: std_at.as_ref().and_then(sigma),
+                sigma_best: best_at.as_ref().and_then(sigma),
+                breakup_range_s: range,
+                delta_chi2_span: if hi >= lo { hi - lo } else { 0.0 },
+                slow: s.slow,
+            }
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ln_p_closed_forms() {
+        // Φ(0) = 1/2 (closed form): observed exactly at break-up.
+        let ln_p = ln_p_spin(2.0, &[(1.0, 1.0)], &[Some(2.0)], 0.05).unwrap();
+        assert!((ln_p - 0.5f64.ln()).abs() < 1e-15);
+        // Two nodes of equal weight: the mean of Φ(0) = 1/2 and Φ(−1) = 0.158655253931457
+        // (Abramowitz & Stegun 1964, table 26.1).
+        let ln_p = ln_p_spin(
+            1.0,
+            &[(0.5, 1.0), (0.6, 1.0)],
+            &[Some(1.0), Some(1.0 / 0.95)],
+            0.05,
+        )
+        .unwrap();
+        assert!((ln_p.exp() - 0.5 * (0.5 + 0.158_655_253_931_457)).abs() < 1e-12);
+        // A node without a model is left out and the weights renormalised.
+        let ln_p = ln_p_spin(2.0, &[(0.5, 1.0), (0.6, 3.0)], &[Some(2.0), None], 0.05).unwrap();
+        assert!((ln_p - 0.5f64.ln()).abs() < 1e-15);
+        assert_eq!(ln_p_spin(2.0, &[(0.5, 1.0)], &[None], 0.05), None);
+        // The complement: ln(1 − P) of the same test.
+        let q = ln_p_side(1.0, &[(0.5, 1.0)], &[Some(1.0 / 0.95)], 0.05, -1.0).unwrap();
+        assert!((q.exp() - (1.0 - 0.158_655_253_931_457)).abs() < 1e-12);
+    }
+
+    #[test]
+    fn effective_index_of_polytropes() {
+        // R ∝ M^{(1−n)/(3−n)} at fixed K (closed form): n = 3/2 gives s = −1/3, n = 1 gives 0,
+        // and s → −∞ approaches n = 3.
+        assert!((effective_index(-1.0 / 3.0) - 1.5).abs() < 1e-15);
+        assert!((effective_index(0.0) - 1.0).abs() < 1e-15);
+        assert!((effective_index(-1e9) - 3.0).abs() < 1e-8);
+    }
+
+    #[test]
+    fn roche_identity_in_the_test() {
+        // P_break = 2π√(R_eq³/(GM)) with R_eq = (3/2)R (Roche model, docs/rotation.md §2),
+        // written out with the IAU 2015 B3 nominal values.
+        let (m, r) = (0.6, 0.0125);
+        let req = 1.5 * r * crate::constants::R_SUN_NOMINAL_M;
+        let want = 2.0
+            * std::f64::consts::PI
+            * (req.powi(3) / (m * crate::constants::GM_SUN_NOMINAL_M3_S2)).sqrt();
+        let spin = ObjectSpin {
+            index: 0,
+            period_s: 100.0,
+            mu_e: 2.0,
+            source: SpinRadiusSource::Cold,
+            nodes: vec![(m, 1.0)],
+            mass_msun: m,
+            scale: vec![Some(1.0), Some(1.0)],
+            measured_rsun: None,
+            slow: SlowRotationStatus::NotApplied,
+            radius_factor: 1.0,
+            floor_fraction: 0.05,
+        };
+        let at = spin.at(&[Some(r), Some(r)]);
+        assert!((at.breakup_s.unwrap() / want - 1.0).abs() < 1e-13);
+        // A hot/cold scale of 1.1 multiplies R, so P by 1.1^{3/2}.
+        let hot = ObjectSpin {
+            scale: vec![Some(1.1), Some(1.1)],
+            source: SpinRadiusSource::FiniteTemperature,
+            ..spin
+        };
+        let at = hot.at(&[Some(r), Some(r)]);
+        assert!((at.breakup_s.unwrap() / want - 1.1f64.powf(1.5)).abs() < 1e-12);
+    }
+}

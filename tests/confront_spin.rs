@@ -1,0 +1,195 @@
+//! The spin test end to end: the break-up test per object (objects.csv, grid.csv, the report's
+//! "what each class constrains"), the slow-rotation flags, and the minimum-period curves of
+//! `predict --json`.
+
+mod common;
+
+use std::path::Path;
+
+use common::{bin, col, confront, path_str, read_csv, root, text};
+
+/// Writes `body` as a catalogue in `dir` and confronts it on `grid` into `dir/out`.
+fn run(dir: &Path, body: &str, grid: &[&str]) -> std::path::PathBuf {
+    let cat = dir.join("spins.csv");
+    std::fs::write(&cat, body).unwrap();
+    let out = dir.join("out");
+    let mut args = vec![path_str(&cat)];
+    args.extend_from_slice(grid);
+    let o = confront(&args, &out);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    out
+}
+
+fn field(h: &[String], rows: &[Vec<String>], id: &str, name: &str) -> String {
+    let row = rows
+        .iter()
+        .find(|r| r[col(h, "id")] == id)
+        .unwrap_or_else(|| panic!("{id} not in objects.csv"));
+    row[col(h, name)].clone()
+}
+
+// Acceptance of issue 14. Invented objects (not measurements): a white dwarf spinning in 13 s
+// at 1.22 M☉ and one in 70 s at 1.27 M☉. Both must be confronted without error, each must get
+// a break-up period and a radius source (periods in hours, the default unit), and the report must say what each constrains. Sources:
+// the Roche break-up period P = 2π(3/2)^{3/2}√(R³/GM) (docs/rotation.md §2) with a massive white
+// dwarf's radius of a few thousand km gives a few seconds, so both spin slower than break-up
+// and the test constrains little; the threshold of first order is v ≤ 0.1 v_crit
+// (docs/rotation.md §1.4), i.e. P ≥ √10 P_break ≈ 3.2 P_break: 13 s is within it only if
+// P_break < 4.1 s, 70 s is within it for P_break < 22 s.
+#[test]
+fn fast_white_dwarfs_are_confronted_and_the_report_says_what_they_constrain() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run(
+        dir.path(),
+        "id,class,mass,mass_err,teff,teff_err,rotation_period,mass_method\n\
+         WD-13s,white_dwarf,1.22,0.02,20000,500,0.0036111111111,dynamical\n\
+         WD-70s,white_dwarf,1.27,0.02,20000,500,0.019444444444,dynamical\n",
+        &["--upsilon=-0.2:0.2:5", "--tau=-0.1:0.1:3"],
+    );
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    for id in ["WD-13s", "WD-70s"] {
+        let p_obs: f64 = field(&h, &rows, id, "rotation_period_h").parse().unwrap();
+        let p_break: f64 = field(&h, &rows, id, "breakup_period_standard_h")
+            .parse()
+            .unwrap();
+        assert!(
+            p_break > 0.0 && p_break < p_obs,
+            "{id}: {p_break} h vs {p_obs} h"
+        );
+        // Several seconds: a massive white dwarf (Roche formula, radius of a few 1000 km).
+        assert!(
+            (1.0..15.0).contains(&(p_break * 3600.0)),
+            "{id}: {p_break} h"
+        );
+        assert_eq!(
+            field(&h, &rows, id, "spin_radius_source"),
+            "finite-temperature"
+        );
+        let z: f64 = field(&h, &rows, id, "spin_sigma_standard").parse().unwrap();
+        assert!(z < -2.0, "{id}: spin tension {z}");
+    }
+    let p13: f64 = field(&h, &rows, "WD-13s", "breakup_period_standard_h")
+        .parse()
+        .unwrap();
+    let flags13 = field(&h, &rows, "WD-13s", "flags");
+    let flags70 = field(&h, &rows, "WD-70s", "flags");
+    if p13 * 3600.0 > 13.0 / 10f64.sqrt() {
+        assert!(flags13.contains("spin_beyond_first_order"), "{flags13}");
+    }
+    assert!(flags70.contains("spin_corrected"), "{flags70}");
+    let change: f64 = field(&h, &rows, "WD-70s", "spin_correction")
+        .parse()
+        .unwrap();
+    assert!(change > 0.0 && change < 0.01, "{change}");
+    // grid.csv carries the term; the report names both objects in the spin row.
+    let (gh, grows) = read_csv(&out.join("grid.csv"));
+    let k = col(&gh, "minus_two_ln_l_spin");
+    assert!(grows.iter().all(|r| !r[k].is_empty()));
+    let md = std::fs::read_to_string(out.join("report.md")).unwrap();
+    let row = md
+        .lines()
+        .find(|l| l.starts_with("| spin |"))
+        .expect("a spin row in what each class constrains");
+    for id in ["WD-13s", "WD-70s"] {
+        assert!(row.contains(id), "{row}");
+    }
+    assert!(
+        row.contains("constrains nothing") || row.contains("constrains little"),
+        "{row}"
+    );
+    assert!(row.contains("Jain, Kouvaris"), "{row}");
+}
+
+// Source: the break-up floor of the reference object, a cold 0.08 M☉ hydrogen-rich body
+// (μe = 8/7) in the Roche model: 22.3 min (the theory check values, docs/rotation.md §2; the
+// trade's ≈ 22 min, common practice, no source). A brown dwarf of that mass with a negligible
+// mass error observed exactly at that period sits on the bound: P = 1/2, z = 0 (Φ(0) = 1/2).
+// One observed at 10 min spins faster than break-up: z = (22.3 − 10)/(0.15 × 22.3) = 3.7 with
+// the 15 % floor of the cold hydrogen-rich radius (by hand).
+#[test]
+fn the_reference_object_floor_is_the_per_object_break_up_period() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run(
+        dir.path(),
+        "id,class,mass,mass_err,age,rotation_period\n\
+         BD-floor,brown_dwarf,0.08,0.00001,5,0.37166666667\n\
+         BD-too-fast,brown_dwarf,0.08,0.00001,5,0.16666666667\n\
+         BD-slow,brown_dwarf,0.06,0.003,5,1.2\n",
+        &["--upsilon", "0", "--tau", "0"],
+    );
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    let p: f64 = field(&h, &rows, "BD-floor", "breakup_period_standard_h")
+        .parse()
+        .unwrap();
+    assert!((p * 60.0 - 22.3).abs() < 0.05, "{} min", p * 60.0);
+    assert_eq!(field(&h, &rows, "BD-floor", "spin_radius_source"), "cold");
+    let z: f64 = field(&h, &rows, "BD-floor", "spin_sigma_standard")
+        .parse()
+        .unwrap();
+    assert!(z.abs() < 0.05, "{z}");
+    let z: f64 = field(&h, &rows, "BD-too-fast", "spin_sigma_standard")
+        .parse()
+        .unwrap();
+    assert!((z - 3.68).abs() < 0.05, "{z}");
+    // A brown dwarf spinning in 1.2 h (periods are in hours by default): far on the safe side.
+    let z: f64 = field(&h, &rows, "BD-slow", "spin_sigma_standard")
+        .parse()
+        .unwrap();
+    assert!(z < -5.0, "{z}");
+    let flags = field(&h, &rows, "BD-slow", "flags");
+    assert!(flags.contains("spin_radius_cold"), "{flags}");
+}
+
+// Sources: the theory check values of the reference object (22.3 min at 0.08 M☉, μe = 8/7) and
+// of the 0.6 M☉ white dwarf (34.0 s, μe = 2), both in the Roche model (docs/rotation.md §2).
+#[test]
+fn predict_json_has_the_minimum_period_curves() {
+    let o = bin(
+        &["predict", "--upsilon", "0", "--tau", "0", "--json"],
+        &root(),
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let c = &doc["breakup_curves"];
+    let at = |class: &str, key: &str, m: f64| -> f64 {
+        let masses = c[class]["mass_msun"].as_array().unwrap();
+        let k = masses
+            .iter()
+            .position(|x| (x.as_f64().unwrap() - m).abs() < 1e-12)
+            .unwrap();
+        c[class][key][k].as_f64().unwrap()
+    };
+    assert!((at("brown_dwarf", "breakup_period_min", 0.08) - 22.3).abs() < 0.05);
+    assert!((at("brown_dwarf", "breakup_period_h", 0.08) * 60.0 - 22.3).abs() < 0.05);
+    assert!((at("white_dwarf", "breakup_period_s", 0.6) - 34.0).abs() < 0.05);
+    // The period falls with mass along the degenerate sequence (R decreases with M).
+    let p: Vec<f64> = c["white_dwarf"]["breakup_period_s"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|x| x.as_f64())
+        .collect();
+    assert!(p.windows(2).all(|w| w[1] < w[0]), "{p:?}");
+}
+
+// Source: README (`predict --out` writes the break-up figure beside the bounds figure).
+#[test]
+fn predict_out_writes_the_break_up_figure() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = bin(
+        &[
+            "predict",
+            "--upsilon=-0.1:0.1:3",
+            "--tau",
+            "0",
+            "--out",
+            path_str(dir.path()),
+        ],
+        &root(),
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let svg = std::fs::read_to_string(dir.path().join("breakup.svg")).unwrap();
+    assert!(svg.starts_with("<svg") && svg.contains("break-up period"));
+    let png = std::fs::read(dir.path().join("breakup.png")).unwrap();
+    assert!(png.starts_with(b"\x89PNG"));
+}
