@@ -232,6 +232,7 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 mass_text: "0.052 ± 0.002 M☉".into(),
                 sigma_standard_gravity: 5.1,
                 sigma_best_fit: Some(4.9),
+                two_sided: false,
             }],
         },
         drivers: vec![
@@ -240,6 +241,7 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 id: "demo-wd-3".into(),
                 class: "white_dwarf".into(),
                 shift: Shift::EndOpensOrCloses,
+                test: "mass–radius (two-sided)".into(),
                 sigma_best_fit: Some(1.2),
             },
             DriverRow {
@@ -247,9 +249,11 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 id: "demo|pipe".into(),
                 class: "brown_dwarf".into(),
                 shift: Shift::Finite(0.013),
+                test: "mass bound (one-sided)".into(),
                 sigma_best_fit: None,
             },
         ],
+        side_by_side: None,
         class_contributions: vec![
             ClassContribution {
                 class: "hburning".into(),

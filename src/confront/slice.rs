@@ -35,9 +35,10 @@
 //! assert_eq!(s.slice.upsilon_fine.len(), 4 * SLICE_REFINE + 1);
 //! ```
 
-use super::engine::{BoundSurface, Confrontation, Term};
-use super::prob::StatsError;
-use super::reduce::{CubicSpline, SplineEnd};
+use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term};
+use super::mass_terms::{BoundTerm, Systematics};
+use super::prob::{Measurement, StatsError};
+use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
 
 /// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis (the
@@ -65,6 +66,19 @@ pub struct SliceResult {
 pub fn tau0_slice(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
+) -> Result<Option<SliceResult>, StatsError> {
+    tau0_slice_with(conf, surface, &|mmhb, chandra| {
+        conf.mass_minus_two_ln_l(mmhb, chandra)
+    })
+}
+
+/// As [`tau0_slice`], with the mass terms given by `mass_minus_two_ln_l(MMHB, Chandrasekhar
+/// mass)` instead of the confrontation's own (the radius terms stay the confrontation's): how
+/// the same slice reads under another treatment of the theory floors.
+pub fn tau0_slice_with(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+    mass_minus_two_ln_l: &(dyn Fn(Option<f64>, Option<f64>) -> f64 + Sync),
 ) -> Result<Option<SliceResult>, StatsError> {
     let nu = conf.n_upsilon;
     let Some(j0) = surface.tau().iter().position(|&t| t == 0.0) else {
@@ -123,7 +137,7 @@ pub fn tau0_slice(
                     .find(|(t, _)| want(*t))
                     .map(|(_, sp)| sp.eval(u))
             };
-            let s = conf.mass_minus_two_ln_l(
+            let s = mass_minus_two_ln_l(
                 at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
                 at(|t| t == Term::WhiteDwarfMass),
             );
@@ -206,4 +220,83 @@ fn radius_terms_on_fine_axis(
         out.push((r.index, values));
     }
     Ok(out)
+}
+
+/// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
+/// `eopts` asks for (per-object floors when the run shares them, shared when it does not), in
+/// the same run: each mass bound's term is rebuilt from the same objects and the same grid
+/// range of the bound, the radius terms and any population term are kept. Returns the other
+/// treatment and its slice (`None` without a τ = 0 slice). Reports show the two intervals side
+/// by side, which is the effect of the shared systematic.
+pub fn tau0_slice_other_floor(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+    eopts: &EngineOptions,
+) -> Result<Option<(Systematics, SliceResult)>, StatsError> {
+    let other = match eopts.mass_terms.systematics {
+        Systematics::Shared => Systematics::PerObject,
+        Systematics::PerObject => Systematics::Shared,
+    };
+    let mut mt = eopts.mass_terms.clone();
+    mt.systematics = other;
+    mt.reduce = eopts.reduce.clone();
+    let n = surface.upsilon().len() * surface.tau().len();
+    let mut terms: Vec<(Bound, BoundTerm)> = Vec::new();
+    for (bound, floor, classes) in [
+        (
+            Bound::Mmhb,
+            eopts.mmhb_floor_msun,
+            vec![Term::HBurning, Term::BrownDwarf],
+        ),
+        (
+            Bound::Chandrasekhar,
+            eopts.chandrasekhar_floor_msun,
+            vec![Term::WhiteDwarfMass],
+        ),
+    ] {
+        let ms: Vec<(Term, Vec<Measurement>)> = classes
+            .into_iter()
+            .map(|t| {
+                let v = conf
+                    .members(t)
+                    .iter()
+                    .map(|&k| conf.uses[k].measurement)
+                    .collect::<Vec<_>>();
+                (t, v)
+            })
+            .filter(|(_, v)| !v.is_empty())
+            .collect();
+        if ms.is_empty() {
+            continue;
+        }
+        let values: Vec<f64> = (0..n)
+            .filter_map(|i| match bound {
+                Bound::Mmhb => surface.mmhb_msun(i),
+                Bound::Chandrasekhar => surface.chandrasekhar_mu2_msun(i),
+            })
+            .collect();
+        let Some(range) = bound_range(&values) else {
+            continue;
+        };
+        let refs: Vec<(Term, &[Measurement])> =
+            ms.iter().map(|(t, v)| (*t, v.as_slice())).collect();
+        terms.push((bound, BoundTerm::build(&refs, floor, range, &mt)?));
+    }
+    let mass = |mmhb: Option<f64>, chandra: Option<f64>| {
+        let mut s = 0.0;
+        for (bound, t) in &terms {
+            let b = match bound {
+                Bound::Mmhb => mmhb,
+                Bound::Chandrasekhar => chandra,
+            };
+            if let Some(b) = b {
+                s += t.minus_two_ln_l(b);
+            }
+        }
+        if let (Some(pop), Some(b)) = (&conf.population, mmhb) {
+            s += -2.0 * pop.ln_term(b);
+        }
+        s
+    };
+    Ok(tau0_slice_with(conf, surface, &mass)?.map(|s| (other, s)))
 }
