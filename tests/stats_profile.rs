@@ -38,7 +38,11 @@ fn gaussian_surface_profile_and_marginal_are_k_sigma() {
         let (tl, tu) = (-0.02 - 0.05 * k, -0.02 + 0.05 * k);
         let close = |got: Option<f64>, want: f64, tol: f64, what: &str| {
             let g = got.unwrap_or_else(|| panic!("{what} at {} is open", l.key()));
-            assert!((g - want).abs() < tol, "{what} at {}: {g} vs {want}", l.key());
+            assert!(
+                (g - want).abs() < tol,
+                "{what} at {}: {g} vs {want}",
+                l.key()
+            );
         };
         close(p.upsilon[n].lower, ul, 1e-3, "profile Υ lower");
         close(p.upsilon[n].upper, uu, 1e-3, "profile Υ upper");

@@ -5,9 +5,11 @@
 //! exceeds a small threshold somewhere on the slice can move a crossing by more than that, so
 //! only they are recomputed. Each candidate's shift is the larger change of the two interval
 //! ends; an end that opens or closes counts as an infinite shift and is listed first. The
-//! per-object decomposition holds for the per-object theory floor (the default); with a shared
-//! floor the subtraction is an approximation and the report should say so. [`slice_drivers`]
-//! applies this to a whole confrontation, white-dwarf radius terms included.
+//! per-object decomposition is exact for the per-object theory floor and the product
+//! likelihood; [`slice_drivers`] applies it to a whole confrontation in that form, white-dwarf
+//! radius terms included. [`slice_drivers_in_fit`] takes each object out under the likelihood
+//! the run actually uses (shared shift at its profiled value, calibrated probabilities), which
+//! is what the pipeline reports.
 //!
 //! ```
 //! use dwarfbound::confront::drivers::{leave_one_out, DriverOptions, SliceClass};
@@ -31,10 +33,11 @@ use rayon::prelude::*;
 
 use super::engine::{Bound, Confrontation, EngineOptions, Term};
 use super::mass_terms::BoundTerm;
-use super::tension::TensionTest;
+use super::nuisance::eliminate;
 use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
 use super::slice::SliceResult;
+use super::tension::TensionTest;
 
 /// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
 #[derive(Debug, Clone, PartialEq)]
@@ -296,16 +299,16 @@ pub struct SliceDriver {
 /// The drivers of one confrontation's τ = 0 slice under the likelihood the run actually uses:
 /// largest shift first (ties by object index), at most `opts.top`.
 ///
-/// Each mass-bound object is taken out as its own ln P in the fit,
-/// [`super::mass_terms::BoundTerm::ln_p_object`]: the shared shift of its bound at its profiled
-/// value δ̂(B) (exact to first order, δ̂ being stationary), the per-object scatter, and for a
-/// calibrated bound the calibrated probability with the deconvolved mass function held fixed
-/// (it is estimated from all objects and is not re-estimated without the one removed). With
-/// per-object floors and the product likelihood this is the exact leave-one-out of
-/// [`leave_one_out`]. Candidates are the objects whose −2 ln P exceeds
-/// `opts.candidate_min_minus_two_ln_p` at one of the two fine points where the shifted bound
-/// B + δ̂(B) is extreme (ln P is monotone in the shifted bound). White-dwarf radius terms are
-/// taken out exactly ([`radius_drivers`]).
+/// Each mass-bound object is taken out of its bound's term as the run computes it: with a
+/// shared systematic, the term without the object is eliminated over the shared shift again
+/// at every point of the slice (a few objects can pin the shift, so holding it at δ̂ is not
+/// enough); with per-object floors its ln P is subtracted, which with the product likelihood is
+/// the exact leave-one-out of [`leave_one_out`]. For a calibrated bound the object's calibrated
+/// probability is removed with the deconvolved mass function held fixed (it is estimated from
+/// all objects and is not re-estimated without the one removed). Candidates are the objects
+/// whose −2 ln P at δ̂ exceeds `opts.candidate_min_minus_two_ln_p` at one of the two fine points
+/// where the shifted bound B + δ̂(B) is extreme (ln P is monotone in the shifted bound).
+/// White-dwarf radius terms are taken out exactly ([`radius_drivers`]).
 pub fn slice_drivers_in_fit(
     conf: &Confrontation,
     s: &SliceResult,
@@ -351,11 +354,27 @@ pub fn slice_drivers_in_fit(
         .par_iter()
         .map(|&(k, term, pos, b_fine, bt)| {
             let m = &conf.uses[k].measurement;
-            let without: Vec<f64> = chi2
-                .iter()
-                .zip(b_fine)
-                .map(|(&c, &b)| c + 2.0 * bt.ln_p_object(term, pos, m, b))
-                .collect();
+            let without: Vec<f64> = match bt.nuisance() {
+                // No shared shift: the likelihood is a sum, removal is a subtraction.
+                None => chi2
+                    .iter()
+                    .zip(b_fine)
+                    .map(|(&c, &b)| c + 2.0 * bt.ln_p_object(term, pos, m, b))
+                    .collect(),
+                // A shared shift: the bound's term without the object, the shift eliminated
+                // again at each point, replaces the term with it.
+                Some(n) => chi2
+                    .iter()
+                    .zip(b_fine)
+                    .map(|(&c, &b)| {
+                        let f = |d: f64| {
+                            bt.data_minus_two_ln_l(b + d)
+                                + 2.0 * bt.ln_p_object_at_shifted(term, pos, m, b + d)
+                        };
+                        c - bt.minus_two_ln_l(b) + eliminate(&f, &n).minus_two_ln_l
+                    })
+                    .collect(),
+            };
             let iv = interval_from_slice(fine, &without, dchi2)?;
             Ok(SliceDriver {
                 object: k,

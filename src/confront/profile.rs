@@ -361,6 +361,6 @@ pub fn prior_text(upsilon: &[f64], tau: &[f64]) -> String {
     };
     let ((u0, u1), (t0, t1)) = (ends(upsilon), ends(tau));
     format!(
-        "flat in Υ on [{u0}, {u1}] and flat in τ on [{t0}, {t1}] (the grid's ranges), zero where the grid has no model; posterior ∝ exp(−χ²/2), integrated by the trapezoid rule on the grid"
+        "Flat in Υ on [{u0}, {u1}] and flat in τ on [{t0}, {t1}] (the grid's ranges), zero where the grid has no model; posterior ∝ exp(−χ²/2), integrated by the trapezoid rule on the grid."
     )
 }

@@ -67,19 +67,6 @@ pub fn tau0_slice(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
 ) -> Result<Option<SliceResult>, StatsError> {
-    tau0_slice_with(conf, surface, &|mmhb, chandra| {
-        conf.mass_minus_two_ln_l(mmhb, chandra)
-    })
-}
-
-/// As [`tau0_slice`], with the mass terms given by `mass_minus_two_ln_l(MMHB, Chandrasekhar
-/// mass)` instead of the confrontation's own (the radius terms stay the confrontation's): how
-/// the same slice reads under another treatment of the theory floors.
-pub fn tau0_slice_with(
-    conf: &Confrontation,
-    surface: &dyn BoundSurface,
-    mass_minus_two_ln_l: &(dyn Fn(Option<f64>, Option<f64>) -> f64 + Sync),
-) -> Result<Option<SliceResult>, StatsError> {
     let nu = conf.n_upsilon;
     let Some(j0) = surface.tau().iter().position(|&t| t == 0.0) else {
         return Ok(None);
@@ -137,7 +124,7 @@ pub fn tau0_slice_with(
                     .find(|(t, _)| want(*t))
                     .map(|(_, sp)| sp.eval(u))
             };
-            let s = mass_minus_two_ln_l(
+            let s = conf.mass_minus_two_ln_l(
                 at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
                 at(|t| t == Term::WhiteDwarfMass),
             );
@@ -225,14 +212,16 @@ fn radius_terms_on_fine_axis(
 /// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
 /// `eopts` asks for (per-object floors when the run shares them, shared when it does not), in
 /// the same run: each mass bound's term is rebuilt from the same objects and the same grid
-/// range of the bound, the radius terms and any population term are kept. Returns the other
-/// treatment and its slice (`None` without a τ = 0 slice). Reports show the two intervals side
-/// by side, which is the effect of the shared systematic.
+/// range of the bound, and evaluated at the bounds of `main` (the run's own slice) along its
+/// fine axis; the radius terms and any population term are `main`'s. Returns the other
+/// treatment and its slice. Reports show the two intervals side by side, which is the effect
+/// of the shared systematic.
 pub fn tau0_slice_other_floor(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
     eopts: &EngineOptions,
-) -> Result<Option<(Systematics, SliceResult)>, StatsError> {
+    main: &SliceResult,
+) -> Result<(Systematics, SliceResult), StatsError> {
     let other = match eopts.mass_terms.systematics {
         Systematics::Shared => Systematics::PerObject,
         Systematics::PerObject => Systematics::Shared,
@@ -282,21 +271,44 @@ pub fn tau0_slice_other_floor(
             ms.iter().map(|(t, v)| (*t, v.as_slice())).collect();
         terms.push((bound, BoundTerm::build(&refs, floor, range, &mt)?));
     }
-    let mass = |mmhb: Option<f64>, chandra: Option<f64>| {
-        let mut s = 0.0;
-        for (bound, t) in &terms {
-            let b = match bound {
-                Bound::Mmhb => mmhb,
-                Bound::Chandrasekhar => chandra,
-            };
-            if let Some(b) = b {
-                s += t.minus_two_ln_l(b);
-            }
-        }
-        if let (Some(pop), Some(b)) = (&conf.population, mmhb) {
-            s += -2.0 * pop.ln_term(b);
-        }
-        s
+    let fine = &main.slice.upsilon_fine;
+    let along = |want: fn(Term) -> bool| {
+        main.bounds_fine
+            .iter()
+            .find(|(t, _)| want(*t))
+            .map(|(_, v)| v.as_slice())
     };
-    Ok(tau0_slice_with(conf, surface, &mass)?.map(|s| (other, s)))
+    let mmhb_fine = along(|t| matches!(t, Term::HBurning | Term::BrownDwarf));
+    let chandra_fine = along(|t| t == Term::WhiteDwarfMass);
+    let chi2_fine: Vec<f64> = (0..fine.len())
+        .map(|k| {
+            let (mmhb, chandra) = (
+                mmhb_fine.and_then(|v| v.get(k).copied()),
+                chandra_fine.and_then(|v| v.get(k).copied()),
+            );
+            let mut s: f64 = main.radius_fine.iter().map(|(_, v)| v[k]).sum();
+            for (bound, t) in &terms {
+                let b = match bound {
+                    Bound::Mmhb => mmhb,
+                    Bound::Chandrasekhar => chandra,
+                };
+                if let Some(b) = b {
+                    s += t.minus_two_ln_l(b);
+                }
+            }
+            if let (Some(pop), Some(b)) = (&conf.population, mmhb) {
+                s += -2.0 * pop.ln_term(b);
+            }
+            s
+        })
+        .collect();
+    let slice = regions::slice_from_values(fine.clone(), chi2_fine)?;
+    Ok((
+        other,
+        SliceResult {
+            slice,
+            bounds_fine: main.bounds_fine.clone(),
+            radius_fine: main.radius_fine.clone(),
+        },
+    ))
 }

@@ -48,8 +48,8 @@ use crate::catalogue::table::ReadOptions;
 use crate::catalogue::{export, vet_files, CatalogueError, ColumnMap, Vetted};
 use crate::confront::drivers::{slice_drivers_in_fit, DriverOptions};
 use crate::confront::engine::{self, BoundSurface, EngineOptions};
-use crate::confront::regions::map_regions;
 use crate::confront::profile::{posterior, profile_intervals};
+use crate::confront::regions::map_regions;
 use crate::confront::slice::{tau0_slice, tau0_slice_other_floor};
 use crate::confront::tension::{
     consistency_at_best, crowding_at, mass_tensions, object_verdicts, tensions_above, TensionTest,
@@ -231,7 +231,7 @@ pub fn run_confrontation(
     // The same slice with the other treatment of the theory floors (shared or per object),
     // and the profile and flat-prior posterior readings of the map.
     let slice_other_floor = match &slice {
-        Some(_) => tau0_slice_other_floor(&conf, &surface, &eopts)?,
+        Some(s) => Some(tau0_slice_other_floor(&conf, &surface, &eopts, s)?),
         None => None,
     };
     let profile = profile_intervals(surface.upsilon(), surface.tau(), &joint)?;

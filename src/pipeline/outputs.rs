@@ -18,12 +18,12 @@ use super::error::PipelineError;
 use super::settings::ConfrontSettings;
 use super::surface::GridSurface;
 use crate::catalogue::{CatalogueObject, Vetted};
-use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
-use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::drivers::SliceDriver;
+use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
 use crate::confront::mass_terms::Systematics;
 use crate::confront::profile::{Posterior, ProfileIntervals};
 use crate::confront::regions::Interval;
+use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
 use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest};
 use crate::report::{self, tables::Cell};
@@ -483,7 +483,7 @@ impl OutputContext<'_> {
                 "method": "one-parameter Δχ² ≤ 1, 4, 9 of min over the other parameter of the joint χ² on the grid (three-point parabola at the minimum); null = open (reaches the grid edge)",
             },
             "posterior": self.posterior_json(),
-            "drivers_method": "leave-one-out under the likelihood used: each object's own ln P in the fit (shared shift at its profiled value, per-object scatter, calibrated probability with the mass function held fixed) and each white dwarf's radius term, taken out of the τ = 0 slice",
+            "drivers_method": "leave-one-out under the likelihood used, on the τ = 0 slice: each mass-bound object removed from its bound's term with the shared shift eliminated again without it (per-object floors: its ln P subtracted; calibrated bounds: the mass function held fixed), and each white dwarf's radius term removed",
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,
@@ -551,7 +551,8 @@ impl OutputContext<'_> {
     /// shared systematic and with per-object floors, side by side (`used` names the headline).
     fn by_floor_json(&self) -> Value {
         let used = self.eopts.mass_terms.systematics;
-        let of = |s: Option<&SliceResult>| s.map_or(Value::Null, |s| levels_json(&s.slice.intervals));
+        let of =
+            |s: Option<&SliceResult>| s.map_or(Value::Null, |s| levels_json(&s.slice.intervals));
         let this = of(self.slice);
         let other = of(self.slice_other_floor.map(|(_, s)| s));
         let (shared, per_object) = match used {

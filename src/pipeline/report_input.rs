@@ -10,8 +10,8 @@ use crate::confront::regions::Level;
 use crate::confront::tension::TensionTest;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
-    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, ModelDescription,
-    IntervalRow, ReductionError, ReportInput, Shift, SideBySide, TensionRow, TensionTable,
+    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow,
+    ModelDescription, ReductionError, ReportInput, Shift, SideBySide, TensionRow, TensionTable,
     UpsilonInterval, Warning, WorstObject,
 };
 use crate::theory::point::Warning as TheoryWarning;

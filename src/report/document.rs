@@ -466,8 +466,12 @@ pub(crate) fn build(
             "No object is in tension above {thr} σ at Υ = τ = 0."
         ))]));
     } else {
-        let mass: Vec<&super::input::TensionRow> =
-            input.tensions.rows.iter().filter(|r| !r.two_sided).collect();
+        let mass: Vec<&super::input::TensionRow> = input
+            .tensions
+            .rows
+            .iter()
+            .filter(|r| !r.two_sided)
+            .collect();
         let radius: Vec<&super::input::TensionRow> =
             input.tensions.rows.iter().filter(|r| r.two_sided).collect();
         let table = |rows: &[&super::input::TensionRow], what: &str| Block::Table {
@@ -479,8 +483,22 @@ pub(crate) fn build(
                 } else {
                     "mass; radius".into()
                 },
-                format!("σ at Υ = τ = 0 ({})", if what == "mass" { "one-sided" } else { "two-sided, signed" }),
-                format!("σ at best fit ({})", if what == "mass" { "one-sided" } else { "two-sided, signed" }),
+                format!(
+                    "σ at Υ = τ = 0 ({})",
+                    if what == "mass" {
+                        "one-sided"
+                    } else {
+                        "two-sided, signed"
+                    }
+                ),
+                format!(
+                    "σ at best fit ({})",
+                    if what == "mass" {
+                        "one-sided"
+                    } else {
+                        "two-sided, signed"
+                    }
+                ),
             ],
             rows: rows
                 .iter()
@@ -501,9 +519,7 @@ pub(crate) fn build(
              problem, a misclassified object, or physics."
         ))]));
         if !mass.is_empty() {
-            blocks.push(Block::Subheading(
-                "Mass bounds (one-sided tensions)".into(),
-            ));
+            blocks.push(Block::Subheading("Mass bounds (one-sided tensions)".into()));
             blocks.push(Block::Para(vec![t(
                 "Tension of each object with its class's bound, z = −Φ⁻¹(P): one-sided, \
                  positive when the object sits on the wrong side of the bound; objects on the \
@@ -543,7 +559,8 @@ pub(crate) fn build(
         blocks.push(Block::Para(vec![t(format!(
             "Leave-one-out influence: how far the {cl95} interval in Υ at τ = 0 moves when one \
              object's test is left out (the larger shift of its two ends), under the likelihood \
-             the run uses. The σ is that of the test the object drives through, at the best fit: \
+             the run uses (a shared shift is eliminated again without the object; a calibrated \
+             bound keeps its mass function). The σ is that of the test the object drives through, at the best fit: \
              a mass bound's one-sided tension under the likelihood used, or a white dwarf's \
              signed, two-sided radius tension."
         ))]));
