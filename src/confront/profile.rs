@@ -227,7 +227,8 @@ fn hpd_interval(x: &[f64], f: &[f64], probability: f64) -> Interval {
     };
     let total = mass_above(x, f, 0.0);
     let f_max = f.iter().copied().fold(0.0, f64::max);
-    if x.len() < 2 || !(total > 0.0) || !(f_max > 0.0) {
+    let positive = |v: f64| v > 0.0 && v.is_finite();
+    if x.len() < 2 || !positive(total) || !positive(f_max) {
         return open;
     }
     let target = probability * total;
