@@ -887,7 +887,11 @@ fn cautions(input: &ReportInput) -> Vec<Para> {
             t(
                 "The likelihood is a product of one-sided probabilities (cumulative \
                  distributions) and is often flat over wide regions; reading Δχ² as a confidence \
-                 level (Wilks' theorem) is then only approximate. Treat the levels as indicative.",
+                 level (Wilks' theorem) is then only approximate. Treat the levels as indicative. \
+                 On a bound faced from one side only (white dwarfs below the Chandrasekhar mass, \
+                 no class above it) Δχ² at the truth grows with the number of objects near the \
+                 edge, and the one-parameter intervals under-cover there (measured in the \
+                 project docs, docs/bounds.md §8.11); the calibrated likelihood reduces this.",
             ),
         ],
         vec![
