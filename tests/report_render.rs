@@ -232,6 +232,7 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 mass_text: "0.052 ± 0.002 M☉".into(),
                 sigma_standard_gravity: 5.1,
                 sigma_best_fit: Some(4.9),
+                two_sided: false,
             }],
         },
         drivers: vec![
@@ -240,6 +241,7 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 id: "demo-wd-3".into(),
                 class: "white_dwarf".into(),
                 shift: Shift::EndOpensOrCloses,
+                test: "mass–radius (two-sided)".into(),
                 sigma_best_fit: Some(1.2),
             },
             DriverRow {
@@ -247,9 +249,11 @@ fn synthetic_input(consistent: bool) -> ReportInput {
                 id: "demo|pipe".into(),
                 class: "brown_dwarf".into(),
                 shift: Shift::Finite(0.013),
+                test: "mass bound (one-sided)".into(),
                 sigma_best_fit: None,
             },
         ],
+        side_by_side: None,
         class_contributions: vec![
             ClassContribution {
                 class: "hburning".into(),
@@ -783,6 +787,77 @@ fn data_figures_appear_in_both_pages_and_as_files() {
     for stem in stems {
         for ext in ["svg", "png"] {
             assert!(dir.path().join(format!("{stem}.{ext}")).is_file());
+        }
+    }
+}
+
+#[test]
+fn one_and_two_sided_tensions_never_share_a_heading() {
+    // Item 6 of the honest-inference issue: a mass-bound tension (one-sided) and a radius
+    // tension (two-sided, signed) go under separate headings, each saying its sidedness, and
+    // the readings beside the τ = 0 slice appear with their priors.
+    let mut input = synthetic_input(true);
+    input.tensions.rows.push(TensionRow {
+        id: "wd-radius-1".into(),
+        class: "white_dwarf (mass–radius test)".into(),
+        mass_text: "0.6 ± 0.01 M☉; R = 0.0125 ± 0.0003 R☉".into(),
+        sigma_standard_gravity: -4.2,
+        sigma_best_fit: Some(-3.9),
+        two_sided: true,
+    });
+    let iv = |lower, upper| {
+        ["68.27 %", "95.45 %", "99.73 %"]
+            .iter()
+            .map(|l| UpsilonInterval {
+                level: (*l).into(),
+                lower,
+                upper,
+            })
+            .collect::<Vec<_>>()
+    };
+    input.side_by_side = Some(SideBySide {
+        rows: vec![
+            IntervalRow {
+                parameter: "Υ".into(),
+                method: "profile over τ".into(),
+                intervals: iv(Some(-0.2), None),
+            },
+            IntervalRow {
+                parameter: "τ".into(),
+                method: "posterior, marginal (highest density)".into(),
+                intervals: iv(Some(-0.05), Some(0.1)),
+            },
+        ],
+        hpd_regions: vec![],
+        prior: "Flat in Υ on [-0.3, 0.6] and flat in τ on [-0.3, 0.3].".into(),
+        formulas: vec![],
+    });
+    let r = render_report(&input, &synthetic_map(), &synthetic_curves()).unwrap();
+    for (name, text) in [("html", &r.html), ("md", &r.markdown)] {
+        let one = text.find("Mass bounds (one-sided tensions)");
+        let two = text.find("White-dwarf mass–radius relation (two-sided, signed tensions)");
+        assert!(
+            one.is_some() && two.is_some(),
+            "report.{name} lacks a heading"
+        );
+        let (one, two) = (one.unwrap(), two.unwrap());
+        let mass_row = text.find("0.052 ± 0.002").unwrap();
+        let radius_row = text.find("wd-radius-1").unwrap();
+        assert!(
+            one < mass_row && mass_row < two && two < radius_row,
+            "report.{name}"
+        );
+        for needle in [
+            "σ at Υ = τ = 0 (one-sided)",
+            "σ at Υ = τ = 0 (two-sided, signed)",
+            "test (sidedness)",
+            "mass–radius (two-sided)",
+            "read three ways",
+            "profile over τ",
+            "Flat in Υ on",
+            "How to read them",
+        ] {
+            assert!(text.contains(needle), "report.{name} lacks {needle:?}");
         }
     }
 }

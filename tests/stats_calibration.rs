@@ -367,3 +367,74 @@ fn crowded_standard_gravity_catalogue_is_not_excluded() {
     assert_eq!(sg["allowed_cl95"], serde_json::Value::Bool(true), "{sg}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// Δχ² of the truth on the τ = 0 row (against the row's minimum), for the diagnosis below.
+fn slice_dchi2_at_truth(case: &Case, seed: u64, opts: &EngineOptions) -> f64 {
+    let s = surface();
+    let objs = draw(case, seed);
+    let c = confront(&objs, &s, opts).expect("engine");
+    let nu = s.u.len();
+    let jt = s.t.iter().position(|&t| t.abs() < 1e-9).unwrap();
+    let iu = s.u.iter().position(|&u| u.abs() < 1e-9).unwrap();
+    let row: Vec<f64> = (0..nu)
+        .map(|i| c.joint[jt * nu + i].unwrap_or(f64::INFINITY))
+        .collect();
+    let m = row.iter().copied().fold(f64::INFINITY, f64::min);
+    row[iu] - m
+}
+
+/// Why the τ = 0 interval under-covers on the few-object catalogue: the distribution of Δχ²
+/// at the truth on the slice, with and without the white dwarfs, for each likelihood, against
+/// χ² with 1 degree of freedom (what the thresholds 1, 4, 9 assume: exceeded in 31.73 %,
+/// 4.55 %, 0.27 %) and with 2 (60.65 %, 13.53 %, 1.11 %; P(χ²₂ > x) = e^{−x/2}).
+#[test]
+#[ignore = "seconds to a minute; prints the diagnosis of the τ = 0 interval's coverage"]
+fn interval_miss_diagnosis() {
+    let seeds: Vec<u64> = (0..200).map(|s| 7919 * s + 17).collect();
+    let cases = [
+        FEW,
+        Case {
+            name: "stars and brown dwarfs only",
+            n_wd: 0,
+            ..FEW
+        },
+        Case {
+            name: "white dwarfs only",
+            n_low: 0,
+            n_high: 0,
+            ..FEW
+        },
+        Case {
+            name: "30 white dwarfs only",
+            n_low: 0,
+            n_high: 0,
+            n_wd: 30,
+            ..FEW
+        },
+    ];
+    println!("| catalogue | likelihood | seeds | Δχ² > 1 | Δχ² > 4 | Δχ² > 9 | mean Δχ² |");
+    println!("|---|---|---|---|---|---|---|");
+    for case in cases {
+        for (label, lik) in [
+            ("product", LikelihoodChoice::Product),
+            ("calibrated", LikelihoodChoice::Calibrated),
+        ] {
+            let opts = options(Systematics::Shared, lik);
+            let d: Vec<f64> = seeds
+                .par_iter()
+                .map(|&s| slice_dchi2_at_truth(&case, s, &opts))
+                .collect();
+            let n = d.len() as f64;
+            let above = |x: f64| d.iter().filter(|&&v| v > x).count() as f64 / n;
+            println!(
+                "| {} | {label} | {} | {:.3} | {:.3} | {:.3} | {:.2} |",
+                case.name,
+                d.len(),
+                above(1.0),
+                above(4.0),
+                above(9.0),
+                d.iter().sum::<f64>() / n
+            );
+        }
+    }
+}

@@ -5,9 +5,11 @@
 //! exceeds a small threshold somewhere on the slice can move a crossing by more than that, so
 //! only they are recomputed. Each candidate's shift is the larger change of the two interval
 //! ends; an end that opens or closes counts as an infinite shift and is listed first. The
-//! per-object decomposition holds for the per-object theory floor (the default); with a shared
-//! floor the subtraction is an approximation and the report should say so. [`slice_drivers`]
-//! applies this to a whole confrontation, white-dwarf radius terms included.
+//! per-object decomposition is exact for the per-object theory floor and the product
+//! likelihood; [`slice_drivers`] applies it to a whole confrontation in that form, white-dwarf
+//! radius terms included. [`slice_drivers_in_fit`] takes each object out under the likelihood
+//! the run actually uses (shared shift at its profiled value, calibrated probabilities), which
+//! is what the pipeline reports.
 //!
 //! ```
 //! use dwarfbound::confront::drivers::{leave_one_out, DriverOptions, SliceClass};
@@ -29,10 +31,13 @@
 
 use rayon::prelude::*;
 
-use super::engine::{Confrontation, EngineOptions, Term};
+use super::engine::{Bound, Confrontation, EngineOptions, Term};
+use super::mass_terms::BoundTerm;
+use super::nuisance::eliminate;
 use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
 use super::slice::SliceResult;
+use super::tension::TensionTest;
 
 /// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
 #[derive(Debug, Clone, PartialEq)]
@@ -275,5 +280,125 @@ pub fn radius_drivers(
             out.push((*k, shift));
         }
     }
+    Ok(out)
+}
+
+/// One driver of the τ = 0 interval, with the test it drives through.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SliceDriver {
+    /// Index of the object in the caller's list.
+    pub object: usize,
+    /// max(|Δlower|, |Δupper|) in Υ; +∞ when an end opens or closes.
+    pub shift: f64,
+    /// The test whose removal gives that shift: its mass bound (one-sided) or, for a white
+    /// dwarf, the mass–radius relation (two-sided); a white dwarf found through both keeps the
+    /// larger shift.
+    pub test: TensionTest,
+}
+
+/// The drivers of one confrontation's τ = 0 slice under the likelihood the run actually uses:
+/// largest shift first (ties by object index), at most `opts.top`.
+///
+/// Each mass-bound object is taken out of its bound's term as the run computes it: with a
+/// shared systematic, the term without the object is eliminated over the shared shift again
+/// at every point of the slice (a few objects can pin the shift, so holding it at δ̂ is not
+/// enough); with per-object floors its ln P is subtracted, which with the product likelihood is
+/// the exact leave-one-out of [`leave_one_out`]. For a calibrated bound the object's calibrated
+/// probability is removed with the deconvolved mass function held fixed (it is estimated from
+/// all objects and is not re-estimated without the one removed). Candidates are the objects
+/// whose −2 ln P at δ̂ exceeds `opts.candidate_min_minus_two_ln_p` at one of the two fine points
+/// where the shifted bound B + δ̂(B) is extreme (ln P is monotone in the shifted bound).
+/// White-dwarf radius terms are taken out exactly ([`radius_drivers`]).
+pub fn slice_drivers_in_fit(
+    conf: &Confrontation,
+    s: &SliceResult,
+    opts: &DriverOptions,
+) -> Result<Vec<SliceDriver>, StatsError> {
+    let fine = &s.slice.upsilon_fine;
+    let chi2 = &s.slice.chi2_fine;
+    let dchi2 = opts.level.dchi2(1);
+    let baseline = interval_from_slice(fine, chi2, dchi2)?;
+    // (object, term, position in its class, bound along the fine axis, bound term)
+    let mut candidates: Vec<(usize, Term, usize, &[f64], &BoundTerm)> = Vec::new();
+    for (term, b_fine) in &s.bounds_fine {
+        let bound = match term {
+            Term::WhiteDwarfMass => Bound::Chandrasekhar,
+            _ => Bound::Mmhb,
+        };
+        let Some(bt) = conf.bound_term(bound) else {
+            continue;
+        };
+        if b_fine.len() != fine.len() || b_fine.is_empty() {
+            continue;
+        }
+        let shifted: Vec<f64> = b_fine.iter().map(|&b| b + bt.delta_hat(b)).collect();
+        let arg = |better: fn(f64, f64) -> bool| {
+            (1..shifted.len()).fold(0, |k, j| if better(shifted[j], shifted[k]) { j } else { k })
+        };
+        let (k_lo, k_hi) = (arg(|a, b| a < b), arg(|a, b| a > b));
+        for (pos, &k) in conf.members(*term).iter().enumerate() {
+            let m = &conf.uses[k].measurement;
+            if !m.informative() {
+                continue;
+            }
+            let weight = [k_lo, k_hi]
+                .iter()
+                .map(|&kk| -2.0 * bt.ln_p_object(*term, pos, m, b_fine[kk]))
+                .fold(f64::NEG_INFINITY, f64::max);
+            if weight > opts.candidate_min_minus_two_ln_p {
+                candidates.push((k, *term, pos, b_fine.as_slice(), bt));
+            }
+        }
+    }
+    let mut out: Vec<SliceDriver> = candidates
+        .par_iter()
+        .map(|&(k, term, pos, b_fine, bt)| {
+            let m = &conf.uses[k].measurement;
+            let without: Vec<f64> = match bt.nuisance() {
+                // No shared shift: the likelihood is a sum, removal is a subtraction.
+                None => chi2
+                    .iter()
+                    .zip(b_fine)
+                    .map(|(&c, &b)| c + 2.0 * bt.ln_p_object(term, pos, m, b))
+                    .collect(),
+                // A shared shift: the bound's term without the object, the shift eliminated
+                // again at each point, replaces the term with it.
+                Some(n) => chi2
+                    .iter()
+                    .zip(b_fine)
+                    .map(|(&c, &b)| {
+                        let f = |d: f64| {
+                            bt.data_minus_two_ln_l(b + d)
+                                + 2.0 * bt.ln_p_object_at_shifted(term, pos, m, b + d)
+                        };
+                        c - bt.minus_two_ln_l(b) + eliminate(&f, &n).minus_two_ln_l
+                    })
+                    .collect(),
+            };
+            let iv = interval_from_slice(fine, &without, dchi2)?;
+            Ok(SliceDriver {
+                object: k,
+                shift: end_shift(baseline.lower, iv.lower).max(end_shift(baseline.upper, iv.upper)),
+                test: TensionTest::MassBound,
+            })
+        })
+        .collect::<Result<_, StatsError>>()?;
+    out.retain(|d| d.shift > 0.0);
+    for (k, shift) in radius_drivers(s, opts)? {
+        match out.iter_mut().find(|d| d.object == k) {
+            Some(d) if shift > d.shift => {
+                d.shift = shift;
+                d.test = TensionTest::MassRadius;
+            }
+            Some(_) => {}
+            None => out.push(SliceDriver {
+                object: k,
+                shift,
+                test: TensionTest::MassRadius,
+            }),
+        }
+    }
+    out.sort_by(|a, b| b.shift.total_cmp(&a.shift).then(a.object.cmp(&b.object)));
+    out.truncate(opts.top);
     Ok(out)
 }

@@ -384,13 +384,24 @@ impl BoundTerm {
     /// the shared shift at its profiled value δ̂(B). With a shared floor, removing one object at
     /// fixed δ̂ is exact to first order (δ̂ is stationary), which is what leave-one-out uses.
     pub fn ln_p_object(&self, term: Term, index: usize, m: &Measurement, b_msun: f64) -> f64 {
+        self.ln_p_object_at_shifted(term, index, m, b_msun + self.delta_hat(b_msun))
+    }
+
+    /// As [`BoundTerm::ln_p_object`] at a bound already shifted, B + δ, for a δ of the
+    /// caller's choice: what an exact leave-one-out re-profiles the shared shift over.
+    pub fn ln_p_object_at_shifted(
+        &self,
+        term: Term,
+        index: usize,
+        m: &Measurement,
+        shifted_b_msun: f64,
+    ) -> f64 {
         let Some(c) = self.terms.iter().position(|t| *t == term) else {
             return 0.0;
         };
-        let bs = b_msun + self.delta_hat(b_msun);
         match &self.classes {
-            Classes::Product(_) => ln_prob_consistent(m, bs, self.scatter_msun),
-            Classes::Calibrated(cc) => cc.ln_p(c, index, bs),
+            Classes::Product(_) => ln_prob_consistent(m, shifted_b_msun, self.scatter_msun),
+            Classes::Calibrated(cc) => cc.ln_p(c, index, shifted_b_msun),
         }
     }
 

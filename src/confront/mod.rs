@@ -9,6 +9,7 @@ pub mod engine;
 pub mod mass_terms;
 pub mod nuisance;
 pub mod prob;
+pub mod profile;
 pub mod reduce;
 pub mod regions;
 pub mod slice;

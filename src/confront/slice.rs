@@ -35,9 +35,10 @@
 //! assert_eq!(s.slice.upsilon_fine.len(), 4 * SLICE_REFINE + 1);
 //! ```
 
-use super::engine::{BoundSurface, Confrontation, Term};
-use super::prob::StatsError;
-use super::reduce::{CubicSpline, SplineEnd};
+use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term};
+use super::mass_terms::{BoundTerm, Systematics};
+use super::prob::{Measurement, StatsError};
+use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
 
 /// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis (the
@@ -218,4 +219,108 @@ fn radius_terms_on_fine_axis(
         out.push((r.index, values));
     }
     Ok(out)
+}
+
+/// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
+/// `eopts` asks for (per-object floors when the run shares them, shared when it does not), in
+/// the same run: each mass bound's term is rebuilt from the same objects and the same grid
+/// range of the bound, and evaluated at the bounds of `main` (the run's own slice) along its
+/// fine axis; the radius terms and any population term are `main`'s. Returns the other
+/// treatment and its slice. Reports show the two intervals side by side, which is the effect
+/// of the shared systematic.
+pub fn tau0_slice_other_floor(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+    eopts: &EngineOptions,
+    main: &SliceResult,
+) -> Result<(Systematics, SliceResult), StatsError> {
+    let other = match eopts.mass_terms.systematics {
+        Systematics::Shared => Systematics::PerObject,
+        Systematics::PerObject => Systematics::Shared,
+    };
+    let mut mt = eopts.mass_terms.clone();
+    mt.systematics = other;
+    mt.reduce = eopts.reduce.clone();
+    let n = surface.upsilon().len() * surface.tau().len();
+    let mut terms: Vec<(Bound, BoundTerm)> = Vec::new();
+    for (bound, floor, classes) in [
+        (
+            Bound::Mmhb,
+            eopts.mmhb_floor_msun,
+            vec![Term::HBurning, Term::BrownDwarf],
+        ),
+        (
+            Bound::Chandrasekhar,
+            eopts.chandrasekhar_floor_msun,
+            vec![Term::WhiteDwarfMass],
+        ),
+    ] {
+        let ms: Vec<(Term, Vec<Measurement>)> = classes
+            .into_iter()
+            .map(|t| {
+                let v = conf
+                    .members(t)
+                    .iter()
+                    .map(|&k| conf.uses[k].measurement)
+                    .collect::<Vec<_>>();
+                (t, v)
+            })
+            .filter(|(_, v)| !v.is_empty())
+            .collect();
+        if ms.is_empty() {
+            continue;
+        }
+        let values: Vec<f64> = (0..n)
+            .filter_map(|i| match bound {
+                Bound::Mmhb => surface.mmhb_msun(i),
+                Bound::Chandrasekhar => surface.chandrasekhar_mu2_msun(i),
+            })
+            .collect();
+        let Some(range) = bound_range(&values) else {
+            continue;
+        };
+        let refs: Vec<(Term, &[Measurement])> =
+            ms.iter().map(|(t, v)| (*t, v.as_slice())).collect();
+        terms.push((bound, BoundTerm::build(&refs, floor, range, &mt)?));
+    }
+    let fine = &main.slice.upsilon_fine;
+    let along = |want: fn(Term) -> bool| {
+        main.bounds_fine
+            .iter()
+            .find(|(t, _)| want(*t))
+            .map(|(_, v)| v.as_slice())
+    };
+    let mmhb_fine = along(|t| matches!(t, Term::HBurning | Term::BrownDwarf));
+    let chandra_fine = along(|t| t == Term::WhiteDwarfMass);
+    let chi2_fine: Vec<f64> = (0..fine.len())
+        .map(|k| {
+            let (mmhb, chandra) = (
+                mmhb_fine.and_then(|v| v.get(k).copied()),
+                chandra_fine.and_then(|v| v.get(k).copied()),
+            );
+            let mut s: f64 = main.radius_fine.iter().map(|(_, v)| v[k]).sum();
+            for (bound, t) in &terms {
+                let b = match bound {
+                    Bound::Mmhb => mmhb,
+                    Bound::Chandrasekhar => chandra,
+                };
+                if let Some(b) = b {
+                    s += t.minus_two_ln_l(b);
+                }
+            }
+            if let (Some(pop), Some(b)) = (&conf.population, mmhb) {
+                s += -2.0 * pop.ln_term(b);
+            }
+            s
+        })
+        .collect();
+    let slice = regions::slice_from_values(fine.clone(), chi2_fine)?;
+    Ok((
+        other,
+        SliceResult {
+            slice,
+            bounds_fine: main.bounds_fine.clone(),
+            radius_fine: main.radius_fine.clone(),
+        },
+    ))
 }

@@ -74,6 +74,15 @@ impl TensionTest {
             TensionTest::MassRadius => "mass_radius",
         }
     }
+
+    /// How its σ reads: `one-sided` (mass bound: positive = wrong side of the bound) or
+    /// `two-sided` (mass–radius: signed, positive = larger than the model).
+    pub fn sidedness(self) -> &'static str {
+        match self {
+            TensionTest::MassBound => "one-sided",
+            TensionTest::MassRadius => "two-sided",
+        }
+    }
 }
 
 /// An object in tension with standard gravity.
@@ -292,4 +301,30 @@ pub fn mass_tensions(
         .collect();
     out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
     out
+}
+
+/// One-sided tension (σ, positive on the wrong side) of object `k`'s mass test at grid point
+/// `index` under the likelihood the run actually uses: z = −Φ⁻¹(P) with P the object's own
+/// probability in the fit ([`Confrontation::ln_p_in_fit`]: the bound's shared shift at its
+/// profiled value there, the per-object scatter, the calibrated probability where that model
+/// is used); above P = ½ through 1 − P, without loss of digits. `None` without an informative
+/// mass test or when P rounds to 1.
+pub fn mass_sigma_in_fit(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+    k: usize,
+    index: usize,
+) -> Option<f64> {
+    let u = conf.uses.get(k)?;
+    let term = u.mass_term?;
+    if !u.measurement.informative() {
+        return None;
+    }
+    let b = match term {
+        Term::WhiteDwarfMass => surface.chandrasekhar_mu2_msun(index),
+        _ => surface.mmhb_msun(index),
+    }?;
+    let ln_p = conf.ln_p_in_fit(k, b)?;
+    let z = super::prob::tension_sigma(ln_p);
+    z.is_finite().then_some(z)
 }

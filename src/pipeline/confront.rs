@@ -46,10 +46,11 @@ use super::outputs::OutputContext;
 use super::surface::{class_bounds, GridSurface};
 use crate::catalogue::table::ReadOptions;
 use crate::catalogue::{export, vet_files, CatalogueError, ColumnMap, Vetted};
-use crate::confront::drivers::{slice_drivers, DriverOptions};
+use crate::confront::drivers::{slice_drivers_in_fit, DriverOptions};
 use crate::confront::engine::{self, BoundSurface, EngineOptions};
+use crate::confront::profile::{posterior, profile_intervals};
 use crate::confront::regions::map_regions;
-use crate::confront::slice::tau0_slice;
+use crate::confront::slice::{tau0_slice, tau0_slice_other_floor};
 use crate::confront::tension::{
     consistency_at_best, crowding_at, mass_tensions, object_verdicts, tensions_above, TensionTest,
 };
@@ -227,10 +228,18 @@ pub fn run_confrontation(
         .point(best_index)
         .ok_or_else(|| PipelineError::Internal("best point outside the grid".into()))?;
     let slice = tau0_slice(&conf, &surface)?;
+    // The same slice with the other treatment of the theory floors (shared or per object),
+    // and the profile and flat-prior posterior readings of the map.
+    let slice_other_floor = match &slice {
+        Some(s) => Some(tau0_slice_other_floor(&conf, &surface, &eopts, s)?),
+        None => None,
+    };
+    let profile = profile_intervals(surface.upsilon(), surface.tau(), &joint)?;
+    let post = posterior(surface.upsilon(), surface.tau(), &joint)?;
 
-    // 4. Drivers of the Υ interval on the τ = 0 slice.
+    // 4. Drivers of the Υ interval on the τ = 0 slice, under the likelihood used.
     let drivers = match &slice {
-        Some(s) => slice_drivers(&conf, s, &eopts, &DriverOptions::default())?,
+        Some(s) => slice_drivers_in_fit(&conf, s, &DriverOptions::default())?,
         None => Vec::new(),
     };
 
@@ -264,6 +273,9 @@ pub fn run_confrontation(
         conf: &conf,
         regions: &regions,
         slice: slice.as_ref(),
+        slice_other_floor: slice_other_floor.as_ref().map(|(sy, s)| (*sy, s)),
+        profile: &profile,
+        posterior: &post,
         verdicts: &verdicts,
         spin_verdicts: &spin_verdicts,
         drivers: &drivers,

@@ -18,11 +18,15 @@ use super::error::PipelineError;
 use super::settings::ConfrontSettings;
 use super::surface::GridSurface;
 use crate::catalogue::{CatalogueObject, Vetted};
+use crate::confront::drivers::SliceDriver;
 use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
+use crate::confront::mass_terms::Systematics;
+use crate::confront::profile::{Posterior, ProfileIntervals};
+use crate::confront::regions::Interval;
 use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
 use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
-use crate::confront::tension::{ObjectVerdict, Tension};
+use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
@@ -36,12 +40,18 @@ pub(crate) struct OutputContext<'a> {
     pub conf: &'a Confrontation,
     pub regions: &'a MapRegions,
     pub slice: Option<&'a SliceResult>,
+    /// The τ = 0 slice under the other treatment of the theory floors, and that treatment.
+    pub slice_other_floor: Option<(Systematics, &'a SliceResult)>,
+    /// Profile intervals of Υ over τ and of τ over Υ.
+    pub profile: &'a ProfileIntervals,
+    /// The flat-prior posterior.
+    pub posterior: &'a Posterior,
     /// Per object, in the order of `vetted.objects`.
     pub verdicts: &'a [ObjectVerdict],
     /// The spin tests, one per object with a rotation period and a measured mass.
     pub spin_verdicts: &'a [SpinVerdict],
-    /// The drivers as (object index, shift), by rank.
-    pub drivers: &'a [(usize, f64)],
+    /// The drivers, by rank.
+    pub drivers: &'a [SliceDriver],
     pub tensions: &'a [Tension],
     pub consistency: &'a AbsoluteConsistency,
     pub crowd: Option<Crowding>,
@@ -52,6 +62,18 @@ pub(crate) struct OutputContext<'a> {
     pub since_previous: Option<Vec<String>>,
     /// Tests failing at the best fit (key as in `consistency.worst`; ≥ n_objects = radius).
     pub verdict_failures: Vec<(usize, f64)>,
+}
+
+/// `{cl68: {lower, upper}, cl95: …, cl997: …}` of three intervals in [`Level::ALL`] order.
+fn levels_json(iv: &[Interval; 3]) -> Value {
+    let mut m = serde_json::Map::new();
+    for (l, i) in Level::ALL.iter().zip(iv) {
+        m.insert(
+            l.key().into(),
+            json!({"lower": opt_json(i.lower), "upper": opt_json(i.upper)}),
+        );
+    }
+    Value::Object(m)
 }
 
 fn opt_json(x: Option<f64>) -> Value {
@@ -72,8 +94,28 @@ impl OutputContext<'_> {
         self.drivers
             .iter()
             .enumerate()
-            .map(|(r, &(k, s))| (r + 1, k, s))
+            .map(|(r, d)| (r + 1, d.object, d.shift))
             .collect()
+    }
+
+    /// The test through which object `k` drives the interval, if it is a driver.
+    pub(crate) fn driver_test(&self, k: usize) -> Option<TensionTest> {
+        self.drivers.iter().find(|d| d.object == k).map(|d| d.test)
+    }
+
+    /// One-sided tension of object `k`'s mass test at the best fit under the likelihood used.
+    pub(crate) fn sigma_best_in_fit(&self, k: usize) -> Option<f64> {
+        mass_sigma_in_fit(self.conf, self.surface, k, self.best_index)
+    }
+
+    /// The σ of the test through which object `k` drives the interval, at the best fit: the
+    /// mass test's one-sided tension under the likelihood used, or the radius test's signed,
+    /// two-sided tension.
+    pub(crate) fn driver_sigma(&self, k: usize) -> Option<f64> {
+        match self.driver_test(k)? {
+            TensionTest::MassBound => self.sigma_best_in_fit(k),
+            TensionTest::MassRadius => self.verdicts[k].radius_sigma_best,
+        }
     }
 
     /// The standard-gravity point's status on the map.
@@ -127,6 +169,9 @@ impl OutputContext<'_> {
             "driver_rank",
             "driver_shift",
             "driver_end_opens_or_closes",
+            "sigma_best_in_fit",
+            "radius_sigma_best",
+            "driver_test",
             "rotation_period_h",
             "breakup_period_standard_h",
             "breakup_period_best_h",
@@ -182,6 +227,13 @@ impl OutputContext<'_> {
                     },
                     Cell::Float(driver_shift.filter(|s| s.is_finite())),
                     Cell::Bool(driver_shift.map(|s| s.is_infinite())),
+                    Cell::Float(self.sigma_best_in_fit(k)),
+                    Cell::Float(r.radius_sigma_best),
+                    Cell::Text(
+                        self.driver_test(k)
+                            .map(|t| t.name().to_string())
+                            .unwrap_or_default(),
+                    ),
                 ];
                 row.extend([
                     Cell::Float(o.rotation_period_h),
@@ -352,7 +404,7 @@ impl OutputContext<'_> {
             .iter()
             .map(|t| {
                 let o = self.object(t.object);
-                json!({"id": o.id, "class": o.class.label(), "sigma": t.sigma, "test": t.test.name(), "source_file": o.source_file})
+                json!({"id": o.id, "class": o.class.label(), "sigma": t.sigma, "test": t.test.name(), "sidedness": t.test.sidedness(), "source_file": o.source_file})
             })
             .collect();
         let drivers: Vec<Value> = {
@@ -366,6 +418,9 @@ impl OutputContext<'_> {
                         "class": o.class.label(),
                         "shift": if s.is_finite() { json!(s) } else { Value::Null },
                         "end_opens_or_closes": !s.is_finite(),
+                        "test": self.driver_test(k).map(|t| t.name()),
+                        "sidedness": self.driver_test(k).map(|t| t.sidedness()),
+                        "sigma_best": opt_json(self.driver_sigma(k)),
                     })
                 })
                 .collect()
@@ -454,6 +509,14 @@ impl OutputContext<'_> {
                 "failing": failing,
             },
             "statistics": self.statistics_json(),
+            "upsilon_interval_at_tau0_by_floor": self.by_floor_json(),
+            "profile_intervals": {
+                "upsilon": levels_json(&self.profile.upsilon),
+                "tau": levels_json(&self.profile.tau),
+                "method": "one-parameter Δχ² ≤ 1, 4, 9 of min over the other parameter of the joint χ² on the grid (three-point parabola at the minimum); null = open (reaches the grid edge)",
+            },
+            "posterior": self.posterior_json(),
+            "drivers_method": "leave-one-out under the likelihood used, on the τ = 0 slice: each mass-bound object removed from its bound's term with the shared shift eliminated again without it (per-object floors: its ln P subtracted; calibrated bounds: the mass function held fixed), and each white dwarf's radius term removed",
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,
@@ -512,6 +575,53 @@ impl OutputContext<'_> {
                 mt.auto_min_near, mt.auto_z
             ),
             "bounds": bounds,
+        })
+    }
+}
+
+impl OutputContext<'_> {
+    /// `summary.json` key `upsilon_interval_at_tau0_by_floor`: the τ = 0 interval with the
+    /// shared systematic and with per-object floors, side by side (`used` names the headline).
+    fn by_floor_json(&self) -> Value {
+        let used = self.eopts.mass_terms.systematics;
+        let of =
+            |s: Option<&SliceResult>| s.map_or(Value::Null, |s| levels_json(&s.slice.intervals));
+        let this = of(self.slice);
+        let other = of(self.slice_other_floor.map(|(_, s)| s));
+        let (shared, per_object) = match used {
+            Systematics::Shared => (this, other),
+            Systematics::PerObject => (other, this),
+        };
+        json!({"used": used.name(), "shared": shared, "per_object": per_object})
+    }
+
+    /// `summary.json` key `posterior`: flat priors, marginal HPD intervals, 2-parameter HPD
+    /// regions.
+    fn posterior_json(&self) -> Value {
+        let p = self.posterior;
+        let mut regions = serde_json::Map::new();
+        for (l, r) in Level::ALL.iter().zip(&p.regions) {
+            regions.insert(
+                l.key().into(),
+                if r.n_points == 0 {
+                    json!({"upsilon_min": null, "upsilon_max": null, "tau_min": null, "tau_max": null, "fraction_of_grid": 0.0, "delta_chi2_at_edge": null})
+                } else {
+                    json!({
+                        "upsilon_min": r.upsilon_min,
+                        "upsilon_max": r.upsilon_max,
+                        "tau_min": r.tau_min,
+                        "tau_max": r.tau_max,
+                        "fraction_of_grid": r.fraction_of_grid,
+                        "delta_chi2_at_edge": opt_json(Some(r.delta_chi2_at_edge)),
+                    })
+                },
+            );
+        }
+        json!({
+            "prior": crate::confront::profile::prior_text(self.surface.upsilon(), self.surface.tau()),
+            "upsilon": levels_json(&p.upsilon),
+            "tau": levels_json(&p.tau),
+            "hpd_regions": Value::Object(regions),
         })
     }
 }

@@ -11,9 +11,9 @@ use crate::confront::tension::TensionTest;
 use crate::report::text::fmt_sig;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
-    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, ModelDescription,
-    ReductionError, ReportInput, Shift, TensionRow, TensionTable, UpsilonInterval, Warning,
-    WorstObject,
+    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow,
+    ModelDescription, ReductionError, ReportInput, Shift, SideBySide, TensionRow, TensionTable,
+    UpsilonInterval, Warning, WorstObject,
 };
 use crate::theory::point::Warning as TheoryWarning;
 
@@ -212,6 +212,96 @@ fn spin_words(ctx: &OutputContext<'_>) -> String {
 fn delta_of(v: &[Option<f64>]) -> Vec<Option<f64>> {
     let min = v.iter().flatten().copied().fold(f64::INFINITY, f64::min);
     v.iter().map(|c| c.map(|c| c - min)).collect()
+}
+
+/// Three intervals as report rows, innermost first.
+fn level_rows(iv: &[crate::confront::regions::Interval; 3]) -> Vec<UpsilonInterval> {
+    Level::ALL
+        .iter()
+        .zip(iv)
+        .map(|(l, i)| UpsilonInterval {
+            level: format!("{:.2} %", 100.0 * l.probability()),
+            lower: i.lower,
+            upper: i.upper,
+        })
+        .collect()
+}
+
+/// The readings shown beside the τ = 0 interval: the slice with both treatments of the theory
+/// floors, the profile intervals and the flat-prior posterior.
+fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
+    use crate::confront::mass_terms::Systematics;
+    let floor_words = |sy: Systematics| match sy {
+        Systematics::Shared => "slice at τ = 0, shared systematic (one shift per bound)",
+        Systematics::PerObject => "slice at τ = 0, per-object floors",
+    };
+    let used = ctx.eopts.mass_terms.systematics;
+    let mut rows = Vec::new();
+    if let Some(sl) = ctx.slice {
+        rows.push(IntervalRow {
+            parameter: "Υ".into(),
+            method: format!("{} — the headline", floor_words(used)),
+            intervals: level_rows(&sl.slice.intervals),
+        });
+    }
+    if let Some((other, sl)) = ctx.slice_other_floor {
+        rows.push(IntervalRow {
+            parameter: "Υ".into(),
+            method: floor_words(other).to_string(),
+            intervals: level_rows(&sl.slice.intervals),
+        });
+    }
+    let p = ctx.profile;
+    let post = ctx.posterior;
+    rows.push(IntervalRow {
+        parameter: "Υ".into(),
+        method: "profile over τ".into(),
+        intervals: level_rows(&p.upsilon),
+    });
+    rows.push(IntervalRow {
+        parameter: "Υ".into(),
+        method: "posterior, marginal (highest density)".into(),
+        intervals: level_rows(&post.upsilon),
+    });
+    rows.push(IntervalRow {
+        parameter: "τ".into(),
+        method: "profile over Υ".into(),
+        intervals: level_rows(&p.tau),
+    });
+    rows.push(IntervalRow {
+        parameter: "τ".into(),
+        method: "posterior, marginal (highest density)".into(),
+        intervals: level_rows(&post.tau),
+    });
+    let hpd_regions = Level::ALL
+        .iter()
+        .zip(&post.regions)
+        .map(|(l, r)| {
+            let some = |x: f64| (r.n_points > 0).then_some(x);
+            AllowedRange {
+                level: format!("{:.2} %", 100.0 * l.probability()),
+                upsilon_min: some(r.upsilon_min),
+                upsilon_max: some(r.upsilon_max),
+                tau_min: some(r.tau_min),
+                tau_max: some(r.tau_max),
+                fraction_of_grid: r.fraction_of_grid,
+            }
+        })
+        .collect();
+    let mut formulas = vec![
+        "Profile and posterior are read on the grid itself (no finer sub-grid): their ends are as precise as the grid spacing.".to_string(),
+    ];
+    if ctx.slice_other_floor.is_some() {
+        formulas.push(
+            "The two τ = 0 rows differ only in the mass bounds' theory floors: one shift per bound shared by all its objects (eliminated as a nuisance parameter), or the whole floor as an independent error per object, which averages away with many objects. The second was computed in the same run, from the same objects and grid.".to_string(),
+        );
+    }
+    Some(SideBySide {
+        rows,
+        hpd_regions,
+        prior: crate::confront::profile::prior_text(ctx.surface.upsilon(), ctx.surface.tau()),
+        formulas,
+    })
 }
 
 /// Builds the report's inputs and writes report.html, report.md and the figures.
@@ -639,8 +729,9 @@ pub(crate) fn write_report_files(
                         sigma_standard_gravity: t.sigma,
                         sigma_best_fit: match t.test {
                             TensionTest::MassBound => ctx.sigma_best(k),
-                            TensionTest::MassRadius => None,
+                            TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best,
                         },
+                        two_sided: t.test == TensionTest::MassRadius,
                     }
                 })
                 .collect(),
@@ -657,9 +748,14 @@ pub(crate) fn write_report_files(
                 } else {
                     Shift::EndOpensOrCloses
                 },
-                sigma_best_fit: ctx.sigma_best(k),
+                test: match ctx.driver_test(k) {
+                    Some(TensionTest::MassRadius) => "mass–radius (two-sided)".into(),
+                    _ => "mass bound (one-sided)".into(),
+                },
+                sigma_best_fit: ctx.driver_sigma(k),
             })
             .collect(),
+        side_by_side: side_by_side(ctx),
         class_contributions: contributions,
         reduction_error,
         warnings,

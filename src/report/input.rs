@@ -265,6 +265,10 @@ pub struct TensionRow {
     pub sigma_standard_gravity: f64,
     /// Tension in σ at the best fit.
     pub sigma_best_fit: Option<f64>,
+    /// False for a mass-bound tension (one-sided, positive = wrong side of the bound), true for
+    /// a mass–radius tension (two-sided, signed): the report never lists the two under one
+    /// heading.
+    pub two_sided: bool,
 }
 
 /// Objects above the tension threshold at the standard-gravity point.
@@ -296,8 +300,35 @@ pub struct DriverRow {
     pub class: String,
     /// Shift of the interval.
     pub shift: Shift,
-    /// Tension in σ at the best fit.
+    /// The test it drives through, with its sidedness, e.g. `"mass bound (one-sided)"`.
+    pub test: String,
+    /// Tension in σ at the best fit of that test.
     pub sigma_best_fit: Option<f64>,
+}
+
+/// One row of the table of one-parameter intervals shown beside the τ = 0 slice.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IntervalRow {
+    /// The parameter, `"Υ"` or `"τ"`.
+    pub parameter: String,
+    /// How the interval is read, e.g. `"profile over τ"`.
+    pub method: String,
+    /// The interval per level, innermost first; `None` ends are open.
+    pub intervals: Vec<UpsilonInterval>,
+}
+
+/// The readings beside the τ = 0 slice: the slice with and without the shared systematic, the
+/// profile intervals, the flat-prior posterior's credible intervals and regions.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SideBySide {
+    /// The rows of the table (slice, profile, posterior).
+    pub rows: Vec<IntervalRow>,
+    /// The posterior's highest-density regions per level (bounding boxes on the grid).
+    pub hpd_regions: Vec<AllowedRange>,
+    /// The priors, stated.
+    pub prior: String,
+    /// What the drivers and tensions are computed with, in words.
+    pub formulas: Vec<String>,
 }
 
 /// What one class contributes.
@@ -388,6 +419,8 @@ pub struct ReportInput {
     pub tensions: TensionTable,
     /// Leave-one-out drivers (top ten expected).
     pub drivers: Vec<DriverRow>,
+    /// The other one-parameter readings, shown beside the τ = 0 interval (`None`: not shown).
+    pub side_by_side: Option<SideBySide>,
     /// Per-class contributions.
     pub class_contributions: Vec<ClassContribution>,
     /// Measured reduction error, if the reduction was used.
@@ -518,6 +551,23 @@ impl ReportInput {
         for i in &self.upsilon_interval_at_tau0 {
             for x in [i.lower, i.upper].into_iter().flatten() {
                 finite("ϒ interval end", x)?;
+            }
+        }
+        if let Some(sb) = &self.side_by_side {
+            for r in &sb.rows {
+                for i in &r.intervals {
+                    for x in [i.lower, i.upper].into_iter().flatten() {
+                        finite("interval end", x)?;
+                    }
+                }
+            }
+            for a in &sb.hpd_regions {
+                for x in [a.upsilon_min, a.upsilon_max, a.tau_min, a.tau_max]
+                    .into_iter()
+                    .flatten()
+                {
+                    finite("credible region", x)?;
+                }
             }
         }
         let s = &self.standard_gravity;

@@ -42,9 +42,9 @@ pub use figures::{
 };
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
-    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, Level,
-    ModelDescription, ReductionError, ReportInput, Shift, StandardGravityStatus, TensionRow,
-    TensionTable, UpsilonInterval, Warning, WorstObject,
+    ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow, Level,
+    ModelDescription, ReductionError, ReportInput, Shift, SideBySide, StandardGravityStatus,
+    TensionRow, TensionTable, UpsilonInterval, Warning, WorstObject,
 };
 
 use crate::output::{write_atomic, OutputError};

@@ -1,0 +1,184 @@
+//! Drivers and the floor comparison under the likelihood the run uses, each against a
+//! brute-force recomputation: with per-object floors and the product likelihood the in-fit
+//! leave-one-out equals the exact product-form one; with the shared systematic each driver's
+//! shift equals the interval of the catalogue confronted again without that object (to first
+//! order in the shared shift); and the τ = 0 slice with the other floor treatment equals the
+//! slice of a run made with that treatment.
+//!
+//! Surface: MMHB = 0.075 (1 + 0.2 Υ + 0.5 τ), Chandrasekhar mass = 1.40 (1 − 0.3 Υ + 0.1 τ)
+//! (invented slopes, as in `tests/stats_calibration.rs`).
+
+use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+use dwarfbound::confront::drivers::{slice_drivers, slice_drivers_in_fit, DriverOptions};
+use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
+use dwarfbound::confront::mass_terms::{LikelihoodChoice, Systematics};
+use dwarfbound::confront::slice::{tau0_slice, tau0_slice_other_floor};
+use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
+
+struct Surface {
+    u: Vec<f64>,
+    t: Vec<f64>,
+}
+
+impl BoundSurface for Surface {
+    fn upsilon(&self) -> &[f64] {
+        &self.u
+    }
+    fn tau(&self) -> &[f64] {
+        &self.t
+    }
+    fn mmhb_msun(&self, i: usize) -> Option<f64> {
+        let nu = self.u.len();
+        Some(0.075 * (1.0 + 0.2 * self.u[i % nu] + 0.5 * self.t[i / nu]))
+    }
+    fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64> {
+        let nu = self.u.len();
+        Some(1.40 * (1.0 - 0.3 * self.u[i % nu] + 0.1 * self.t[i / nu]))
+    }
+    fn wd_radii_rsun(&self, _i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> {
+        vec![None; q.len()]
+    }
+    fn wd_standard_radii(&self, q: &[WdQuery]) -> Vec<Option<WdStandard>> {
+        vec![None; q.len()]
+    }
+}
+
+fn surface() -> Surface {
+    Surface {
+        u: (0..=12).map(|i| -0.3 + 0.05 * f64::from(i)).collect(),
+        t: (0..=8).map(|j| -0.2 + 0.05 * f64::from(j)).collect(),
+    }
+}
+
+fn object(id: usize, class: ObjectClass, mass: f64, sigma: f64) -> CatalogueObject {
+    CatalogueObject {
+        id: format!("o{id}"),
+        class,
+        mass_msun: mass,
+        mass_err_lo_msun: Some(sigma),
+        mass_err_hi_msun: Some(sigma),
+        mass_limit: MassLimit::None,
+        radius_rsun: None,
+        radius_err_rsun: None,
+        age_gyr: Some(5.0),
+        age_err_gyr: None,
+        rotation_period_h: None,
+        mu_e: None,
+        teff_k: None,
+        teff_err_k: None,
+        core: None,
+        envelope: None,
+        radius_model_rsun: None,
+        mass_method: Default::default(),
+        reference: None,
+        source_file: "synthetic".into(),
+        source_row: id,
+    }
+}
+
+/// A few objects near both bounds, so that several of them move the τ = 0 interval.
+fn catalogue() -> Vec<CatalogueObject> {
+    let spec = [
+        (ObjectClass::HBurning, 0.0745, 0.002),
+        (ObjectClass::HBurning, 0.078, 0.003),
+        (ObjectClass::HBurning, 0.090, 0.004),
+        (ObjectClass::BrownDwarf, 0.0735, 0.002),
+        (ObjectClass::BrownDwarf, 0.070, 0.003),
+        (ObjectClass::WhiteDwarf, 1.38, 0.02),
+        (ObjectClass::WhiteDwarf, 1.33, 0.03),
+        (ObjectClass::WhiteDwarf, 1.20, 0.02),
+    ];
+    spec.iter()
+        .enumerate()
+        .map(|(k, &(c, m, s))| object(k, c, m, s))
+        .collect()
+}
+
+fn options(systematics: Systematics) -> EngineOptions {
+    let mut o = EngineOptions::default();
+    o.mass_terms.systematics = systematics;
+    o.mass_terms.likelihood = LikelihoodChoice::Product;
+    o
+}
+
+#[test]
+fn in_fit_drivers_equal_the_exact_product_leave_one_out_with_per_object_floors() {
+    let s = surface();
+    let objects = catalogue();
+    let opts = options(Systematics::PerObject);
+    let conf = confront(&objects, &s, &opts).unwrap();
+    let slice = tau0_slice(&conf, &s).unwrap().unwrap();
+    let d = DriverOptions::default();
+    let exact = slice_drivers(&conf, &slice, &opts, &d).unwrap();
+    let fit = slice_drivers_in_fit(&conf, &slice, &d).unwrap();
+    let exact: Vec<(usize, f64)> = exact.into_iter().filter(|e| e.1 > 0.0).collect();
+    assert!(!fit.is_empty(), "some object must drive the interval");
+    assert_eq!(exact.len(), fit.len());
+    for (e, f) in exact.iter().zip(&fit) {
+        assert_eq!(e.0, f.object);
+        assert!(
+            (e.1 - f.shift).abs() < 1e-9 || (e.1.is_infinite() && f.shift.is_infinite()),
+            "object {}: {} vs {}",
+            e.0,
+            e.1,
+            f.shift
+        );
+    }
+}
+
+#[test]
+fn in_fit_drivers_match_a_rerun_without_the_object_under_the_shared_systematic() {
+    let s = surface();
+    let objects = catalogue();
+    let opts = options(Systematics::Shared);
+    let conf = confront(&objects, &s, &opts).unwrap();
+    let slice = tau0_slice(&conf, &s).unwrap().unwrap();
+    let fit = slice_drivers_in_fit(&conf, &slice, &DriverOptions::default()).unwrap();
+    assert!(!fit.is_empty());
+    let base = slice.slice.intervals[1];
+    for d in fit.iter().filter(|d| d.shift.is_finite()) {
+        // Brute force: the whole comparison again without the object, the shared shift
+        // re-profiled. They differ only by the tabulation of the eliminated term.
+        let rest: Vec<CatalogueObject> = objects
+            .iter()
+            .enumerate()
+            .filter(|(k, _)| *k != d.object)
+            .map(|(_, o)| o.clone())
+            .collect();
+        let c2 = confront(&rest, &s, &opts).unwrap();
+        let s2 = tau0_slice(&c2, &s).unwrap().unwrap();
+        let iv = s2.slice.intervals[1];
+        let shift = |a: Option<f64>, b: Option<f64>| match (a, b) {
+            (Some(a), Some(b)) => (a - b).abs(),
+            (None, None) => 0.0,
+            _ => f64::INFINITY,
+        };
+        let brute = shift(base.lower, iv.lower).max(shift(base.upper, iv.upper));
+        assert!(
+            (brute - d.shift).abs() <= 1e-4,
+            "object {}: in fit {} vs rerun {brute}",
+            d.object,
+            d.shift
+        );
+    }
+}
+
+#[test]
+fn other_floor_slice_equals_a_run_with_that_floor() {
+    let s = surface();
+    let objects = catalogue();
+    for (run, other) in [
+        (Systematics::Shared, Systematics::PerObject),
+        (Systematics::PerObject, Systematics::Shared),
+    ] {
+        let conf = confront(&objects, &s, &options(run)).unwrap();
+        let main = tau0_slice(&conf, &s).unwrap().unwrap();
+        let (which, alt) = tau0_slice_other_floor(&conf, &s, &options(run), &main).unwrap();
+        assert_eq!(which, other);
+        let direct_conf = confront(&objects, &s, &options(other)).unwrap();
+        let direct = tau0_slice(&direct_conf, &s).unwrap().unwrap();
+        for (a, b) in alt.slice.chi2_fine.iter().zip(&direct.slice.chi2_fine) {
+            assert!((a - b).abs() < 1e-9, "{a} vs {b}");
+        }
+    }
+}
