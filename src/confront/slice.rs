@@ -167,13 +167,28 @@ fn radius_terms_on_fine_axis(
 ) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
     let nu = conf.n_upsilon;
     let axis = row.axis;
+    // One batched lookup per coarse point for every object's nodes (a point's table is
+    // resampled once, not once per object).
+    let all_queries: Vec<(f64, f64)> = conf
+        .radius_objects
+        .iter()
+        .flat_map(|r| {
+            let mu_e = conf.uses[r.index].mu_e;
+            r.nodes.iter().map(move |&(m, _)| (m, mu_e))
+        })
+        .collect();
+    let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
+        .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &all_queries))
+        .collect();
     let mut out = Vec::new();
+    let mut first_node = 0;
     for r in &conf.radius_objects {
-        let mu_e = conf.uses[r.index].mu_e;
-        let queries: Vec<(f64, f64)> = r.nodes.iter().map(|&(m, _)| (m, mu_e)).collect();
+        let queries = first_node..first_node + r.nodes.len();
+        first_node += r.nodes.len();
         // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
-        let coarse: Vec<Vec<Option<f64>>> = (0..axis.len())
-            .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &queries))
+        let coarse: Vec<&[Option<f64>]> = coarse_all
+            .iter()
+            .map(|c| &c[queries.clone()])
             .collect();
         let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
         for q in 0..queries.len() {
