@@ -35,6 +35,8 @@
 //! assert_eq!(s.slice.upsilon_fine.len(), 4 * SLICE_REFINE + 1);
 //! ```
 
+use rayon::prelude::*;
+
 use super::engine::{BoundSurface, Confrontation, Term};
 use super::prob::StatsError;
 use super::reduce::{CubicSpline, SplineEnd};
@@ -178,47 +180,52 @@ fn radius_terms_on_fine_axis(
         })
         .collect();
     let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
+        .into_par_iter()
         .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &all_queries))
         .collect();
-    let mut out = Vec::new();
+    // Each object's nodes in `all_queries`; objects in parallel, collected in order.
+    let mut spans = Vec::with_capacity(conf.radius_objects.len());
     let mut first_node = 0;
     for r in &conf.radius_objects {
-        let queries = first_node..first_node + r.nodes.len();
+        spans.push(first_node..first_node + r.nodes.len());
         first_node += r.nodes.len();
-        // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
-        let coarse: Vec<&[Option<f64>]> = coarse_all
-            .iter()
-            .map(|c| &c[queries.clone()])
-            .collect();
-        let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
-        for q in 0..queries.len() {
-            let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
-            let spline = if ys.iter().all(Option::is_some) {
-                let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
-                Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
-            } else {
-                None
-            };
-            for (k, &x) in fine.iter().enumerate() {
-                fine_radii[k][q] = match &spline {
-                    Some(sp) => Some(sp.eval(x)),
-                    None => {
-                        let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
-                        let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
-                        match (ys[j - 1], ys[j]) {
-                            (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
-                            _ => None,
-                        }
-                    }
-                };
-            }
-        }
-        let values: Vec<f64> = fine_radii
-            .iter()
-            .zip(fine)
-            .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
-            .collect();
-        out.push((r.index, values));
     }
-    Ok(out)
+    conf.radius_objects
+        .par_iter()
+        .zip(spans)
+        .map(|(r, queries)| {
+            // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
+            let coarse: Vec<&[Option<f64>]> =
+                coarse_all.iter().map(|c| &c[queries.clone()]).collect();
+            let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
+            for q in 0..queries.len() {
+                let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
+                let spline = if ys.iter().all(Option::is_some) {
+                    let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
+                    Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
+                } else {
+                    None
+                };
+                for (k, &x) in fine.iter().enumerate() {
+                    fine_radii[k][q] = match &spline {
+                        Some(sp) => Some(sp.eval(x)),
+                        None => {
+                            let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
+                            let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
+                            match (ys[j - 1], ys[j]) {
+                                (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
+                                _ => None,
+                            }
+                        }
+                    };
+                }
+            }
+            let values: Vec<f64> = fine_radii
+                .iter()
+                .zip(fine)
+                .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
+                .collect();
+            Ok((r.index, values))
+        })
+        .collect()
 }
