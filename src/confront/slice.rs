@@ -35,6 +35,8 @@
 //! assert_eq!(s.slice.upsilon_fine.len(), 4 * SLICE_REFINE + 1);
 //! ```
 
+use rayon::prelude::*;
+
 use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term};
 use super::mass_terms::{BoundTerm, Systematics};
 use super::prob::{Measurement, StatsError};
@@ -56,6 +58,8 @@ pub struct SliceResult {
     pub bounds_fine: Vec<(Term, Vec<f64>)>,
     /// Per white dwarf with a radius term: (object index, its −2 ln L along the fine axis).
     pub radius_fine: Vec<(usize, Vec<f64>)>,
+    /// The spin term's −2 ln L along the fine axis (zero without spin tests).
+    pub spin_fine: Vec<f64>,
 }
 
 /// The τ = 0 slice of `conf` (computed on `surface`), or `None` when the grid
@@ -124,6 +128,7 @@ pub fn tau0_slice(
         let t = (u - axis[j - 1]) / (axis[j] - axis[j - 1]);
         spin_coarse[j - 1] + t * (spin_coarse[j] - spin_coarse[j - 1])
     };
+    let spin_fine: Vec<f64> = fine.iter().map(|&u| spin_fine(u)).collect();
     let chi2_fine: Vec<f64> = fine
         .iter()
         .enumerate()
@@ -140,7 +145,7 @@ pub fn tau0_slice(
                 at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
                 at(|t| t == Term::WhiteDwarfMass),
             );
-            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>() + spin_fine(u)
+            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>() + spin_fine[k]
         })
         .collect();
     let slice = regions::slice_from_values(fine, chi2_fine)?;
@@ -152,6 +157,7 @@ pub fn tau0_slice(
         slice,
         bounds_fine,
         radius_fine,
+        spin_fine,
     }))
 }
 
@@ -180,45 +186,65 @@ fn radius_terms_on_fine_axis(
 ) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
     let nu = conf.n_upsilon;
     let axis = row.axis;
-    let mut out = Vec::new();
+    // One batched lookup per coarse point for every object's nodes (a point's table is
+    // resampled once, not once per object).
+    let all_queries: Vec<(f64, f64)> = conf
+        .radius_objects
+        .iter()
+        .flat_map(|r| {
+            let mu_e = conf.uses[r.index].mu_e;
+            r.nodes.iter().map(move |&(m, _)| (m, mu_e))
+        })
+        .collect();
+    let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
+        .into_par_iter()
+        .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &all_queries))
+        .collect();
+    // Each object's nodes in `all_queries`; objects in parallel, collected in order.
+    let mut spans = Vec::with_capacity(conf.radius_objects.len());
+    let mut first_node = 0;
     for r in &conf.radius_objects {
-        let mu_e = conf.uses[r.index].mu_e;
-        let queries: Vec<(f64, f64)> = r.nodes.iter().map(|&(m, _)| (m, mu_e)).collect();
-        // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
-        let coarse: Vec<Vec<Option<f64>>> = (0..axis.len())
-            .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &queries))
-            .collect();
-        let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
-        for q in 0..queries.len() {
-            let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
-            let spline = if ys.iter().all(Option::is_some) {
-                let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
-                Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
-            } else {
-                None
-            };
-            for (k, &x) in fine.iter().enumerate() {
-                fine_radii[k][q] = match &spline {
-                    Some(sp) => Some(sp.eval(x)),
-                    None => {
-                        let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
-                        let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
-                        match (ys[j - 1], ys[j]) {
-                            (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
-                            _ => None,
-                        }
-                    }
-                };
-            }
-        }
-        let values: Vec<f64> = fine_radii
-            .iter()
-            .zip(fine)
-            .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
-            .collect();
-        out.push((r.index, values));
+        spans.push(first_node..first_node + r.nodes.len());
+        first_node += r.nodes.len();
     }
-    Ok(out)
+    conf.radius_objects
+        .par_iter()
+        .zip(spans)
+        .map(|(r, queries)| {
+            // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
+            let coarse: Vec<&[Option<f64>]> =
+                coarse_all.iter().map(|c| &c[queries.clone()]).collect();
+            let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
+            for q in 0..queries.len() {
+                let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
+                let spline = if ys.iter().all(Option::is_some) {
+                    let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
+                    Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
+                } else {
+                    None
+                };
+                for (k, &x) in fine.iter().enumerate() {
+                    fine_radii[k][q] = match &spline {
+                        Some(sp) => Some(sp.eval(x)),
+                        None => {
+                            let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
+                            let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
+                            match (ys[j - 1], ys[j]) {
+                                (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
+                                _ => None,
+                            }
+                        }
+                    };
+                }
+            }
+            let values: Vec<f64> = fine_radii
+                .iter()
+                .zip(fine)
+                .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
+                .collect();
+            Ok((r.index, values))
+        })
+        .collect()
 }
 
 /// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
@@ -298,7 +324,8 @@ pub fn tau0_slice_other_floor(
                 mmhb_fine.and_then(|v| v.get(k).copied()),
                 chandra_fine.and_then(|v| v.get(k).copied()),
             );
-            let mut s: f64 = main.radius_fine.iter().map(|(_, v)| v[k]).sum();
+            let mut s: f64 = main.radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
+                + main.spin_fine.get(k).copied().unwrap_or(0.0);
             for (bound, t) in &terms {
                 let b = match bound {
                     Bound::Mmhb => mmhb,
@@ -321,6 +348,7 @@ pub fn tau0_slice_other_floor(
             slice,
             bounds_fine: main.bounds_fine.clone(),
             radius_fine: main.radius_fine.clone(),
+            spin_fine: main.spin_fine.clone(),
         },
     ))
 }

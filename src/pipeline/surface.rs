@@ -118,10 +118,9 @@ impl BoundSurface for GridSurface<'_> {
     }
     fn wd_radii_rsun(&self, i: usize, queries: &[(f64, f64)]) -> Vec<Option<f64>> {
         match self.grid.wd_table(i) {
-            Some(Outcome::Ok(t)) => queries
-                .iter()
-                .map(|&(m, mu_e)| t.radius_rsun(m, mu_e).ok())
-                .collect(),
+            // Batched: each table interval the queries touch is resampled once, then every
+            // query is one polynomial evaluation (no root search per query).
+            Some(Outcome::Ok(t)) => t.radii_rsun(queries),
             _ => vec![None; queries.len()],
         }
     }
@@ -133,10 +132,19 @@ impl BoundSurface for GridSurface<'_> {
             WdRadiusModel::Hot => HotWdTable::standard().ok(),
             WdRadiusModel::Cold => None,
         };
+        // The same batched lookup as the grid's tables, so that the standard point's ratio is
+        // exactly 1 where its table is the standard one.
+        let colds = cold.radii_rsun(
+            &queries
+                .iter()
+                .flat_map(|q| [(q.mass_msun, q.mu_e), (q.mass_msun, 2.0)])
+                .collect::<Vec<_>>(),
+        );
         queries
             .iter()
-            .map(|q| {
-                let cold_rsun = cold.radius_rsun(q.mass_msun, q.mu_e).ok()?;
+            .zip(colds.chunks(2))
+            .map(|(q, c)| {
+                let cold_rsun = c[0]?;
                 match (self.wd_model, hot) {
                     (WdRadiusModel::Cold, _) => Some(WdStandard {
                         radius_rsun: cold_rsun,
@@ -148,7 +156,7 @@ impl BoundSurface for GridSurface<'_> {
                     (WdRadiusModel::Hot, Some(table)) => {
                         // The finite-temperature table is for μe = 2 compositions; another μe
                         // scales it as the zero-temperature model does.
-                        let cold_mu2 = cold.radius_rsun(q.mass_msun, 2.0).ok()?;
+                        let cold_mu2 = c[1]?;
                         Self::hot_standard(table, q, cold_rsun).map(|mut s| {
                             s.radius_rsun *= cold_rsun / cold_mu2;
                             s
