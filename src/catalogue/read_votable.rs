@@ -521,7 +521,7 @@ impl BinaryWalk {
                 0x80..=0x7ff => 2,
                 _ => 3,
             };
-            if written + len - 1 >= capacity {
+            if written + len > capacity {
                 return Err(format!(
                     "{}: a unicodeChar value with more characters above U+07FF than the VOTable \
                      library can decode (it allows two UTF-8 bytes per character); use datatype \
