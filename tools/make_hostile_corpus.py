@@ -403,6 +403,11 @@ def votable_cases():
         "vot_binary_unicodechar_wide.vot", binary_votable(ufields, wide))), 2,
         message=["data row 1", "U+07FF"],
         note="two euro signs fill a 2-character unicodeChar cell beyond what votable 0.7 decodes")
+    wide_td = [FIELDS[0].replace('arraysize="8"', 'arraysize="2"')] + FIELDS[1:]
+    case("vot_tabledata_unicodechar_wide", "13.9", vet(write(
+        "vot_tabledata_unicodechar_wide.vot", vot_table(wide_td, [("\u20ac\u20ac", "brown_dwarf",
+                                                                  "0.05", "0.005")]))), 2,
+        message=["U+07FF", "use datatype char"])
     vfields = ['<FIELD name="id" datatype="char" arraysize="*"/>'] + ufields[1:]
     varrow = struct.pack(">i", 2**31 - 1) + b"HX-1" + b"brown_dwarf" + struct.pack(">dd", 0.05, 0.005)
     case("vot_binary_varlen_count_huge", "13.3", vet(write(

@@ -1020,6 +1020,10 @@ fn explain(raw: &str) -> String {
     } else if raw.contains("MultiByte") {
         "a unicodeChar value holds a character outside the Basic Multilingual Plane, which \
          unicodeChar (UCS-2) cannot store; use datatype char (UTF-8)"
+    } else if raw.contains("BufferOverflow") {
+        // The same limit the pre-scan checks in BINARY cells (`BinaryWalk::check_string`).
+        "a unicodeChar value with more characters above U+07FF than the VOTable library can \
+         decode (it allows two UTF-8 bytes per character); use datatype char (UTF-8)"
     } else if raw.contains("tf8") || raw.contains("utf-8") || raw.contains("UCS2") {
         "a char or unicodeChar cell holds bytes that are not valid text (UTF-8 or UCS-2)"
     } else if raw.contains("invalid digit") || raw.contains("invalid float") {
