@@ -37,6 +37,28 @@ use serde::Deserialize;
 use super::error::CatalogueError;
 use super::table::{Cell, ColumnMeta, RawRow, RawTable};
 
+/// Deepest nesting of YAML flow collections (`[…]`, `{…}`) accepted in the header. The YAML
+/// parser takes time quadratic in that depth (40 000 levels: 18 s), so a few hundred kilobytes
+/// of brackets would hang the reader; astropy's headers nest a handful of levels.
+pub const MAX_YAML_FLOW_DEPTH: usize = 256;
+
+/// The deepest nesting of `[` and `{` in YAML text. Quotes are not tracked, so brackets inside
+/// quoted strings count too: an over-estimate, which only a pathological header reaches.
+fn flow_depth(yaml: &str) -> usize {
+    let (mut depth, mut deepest) = (0usize, 0usize);
+    for b in yaml.bytes() {
+        match b {
+            b'[' | b'{' => {
+                depth += 1;
+                deepest = deepest.max(depth);
+            }
+            b']' | b'}' => depth = depth.saturating_sub(1),
+            _ => {}
+        }
+    }
+    deepest
+}
+
 /// Largest integer magnitude every value up to which a double holds exactly (2⁵³).
 const EXACT_INT_LIMIT: i128 = 1 << 53;
 
@@ -113,6 +135,12 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
             break line;
         }
     };
+    if flow_depth(&yaml) > MAX_YAML_FLOW_DEPTH {
+        return Err(invalid(format!(
+            "YAML header: `[` and `{{` nested deeper than {MAX_YAML_FLOW_DEPTH} levels (limit of \
+             this reader)"
+        )));
+    }
     let header: Header =
         serde_norway::from_str(&yaml).map_err(|e| invalid(format!("YAML header: {e}")))?;
     let delimiter = match header.delimiter.as_deref() {
@@ -460,6 +488,24 @@ mod tests {
         assert!(t.malformed[2].1.contains("UTF-8"));
         assert_eq!(t.rows[2].cells[1], Cell::Number(3.0));
         assert_eq!(t.rows[5].cells[0], Cell::Text("f".into()));
+    }
+
+    #[test]
+    fn deep_flow_nesting_is_refused_before_the_yaml_parser() {
+        assert_eq!(flow_depth("a: [1, {b: [2]}]\nc: [3]"), 3);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("t.ecsv");
+        let deep = "[".repeat(100_000) + &"]".repeat(100_000);
+        std::fs::write(
+            &path,
+            format!(
+                "# %ECSV 1.0\n# ---\n# meta: {deep}\n# datatype:\n\
+                 # - {{name: id, datatype: string}}\nid\na\n"
+            ),
+        )
+        .unwrap();
+        let e = read(&path).unwrap_err().to_string();
+        assert!(e.contains("nested deeper than 256"), "{e}");
     }
 
     #[test]
