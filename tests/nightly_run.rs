@@ -426,3 +426,130 @@ fn a_lock_from_another_host_is_refused_until_broken_by_hand() {
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     assert!(text(&o).contains("removed the lock"), "{}", text(&o));
 }
+
+/// The run folders under `<dir>/out/runs/`, sorted by name.
+fn run_folders(dir: &Path) -> Vec<PathBuf> {
+    let mut v: Vec<PathBuf> = std::fs::read_dir(dir.join("out/runs"))
+        .map(|r| r.map(|e| e.unwrap().path()).collect())
+        .unwrap_or_default();
+    v.sort();
+    v
+}
+
+// Source: README ("History": a partial run folder left by a killed run is removed by the next
+// run with a note). SIGKILL leaves no chance to clean up: the folder keeps its run's lock and
+// has no completion marker.
+#[test]
+fn a_run_killed_with_sigkill_leaves_a_partial_folder_that_the_next_run_removes() {
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = config(dir.path(), false, "");
+    let mut child = command()
+        .current_dir(dir.path())
+        .args(["run", path_str(&cfg)])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // The run folder and its lock exist from before the theory grid is computed (a first run:
+    // several seconds) until the run completes. Poll for them, then kill -9.
+    let partial = loop {
+        let found = run_folders(dir.path())
+            .into_iter()
+            .find(|d| d.join(dwarfbound::pipeline::lock::LOCK_FILE).exists());
+        if let Some(d) = found {
+            break d;
+        }
+        assert!(
+            child.try_wait().unwrap().is_none(),
+            "the run ended before its folder was seen"
+        );
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    };
+    child.kill().unwrap();
+    assert!(!child.wait().unwrap().success());
+    assert!(partial.exists());
+    assert!(!partial
+        .join(dwarfbound::pipeline::history::COMPLETE_MARKER)
+        .exists());
+    assert!(!dir.path().join("out/latest").exists(), "nothing published");
+
+    let next = run_ok(dir.path(), &cfg);
+    let t = text(&next);
+    assert!(t.contains("removed the partial run folder"), "{t}");
+    // The only run folder left is the new, complete one (which takes the killed run's name
+    // when both started in the same second).
+    let runs = run_folders(dir.path());
+    assert_eq!(runs.len(), 1, "{runs:?}");
+    assert!(runs[0]
+        .join(dwarfbound::pipeline::history::COMPLETE_MARKER)
+        .exists());
+    assert!(
+        !runs[0].join(dwarfbound::pipeline::lock::LOCK_FILE).exists(),
+        "a complete run releases its folder's lock"
+    );
+    // The note is in the report and in summary.json too.
+    let md = std::fs::read_to_string(dir.path().join("out/latest/report.md")).unwrap();
+    assert!(
+        md.contains("housekeeping: removed the partial run folder"),
+        "{md}"
+    );
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.path().join("out/latest/summary.json")).unwrap())
+            .unwrap();
+    assert_eq!(
+        s["since_previous"]["housekeeping"]
+            .as_array()
+            .unwrap()
+            .len(),
+        1
+    );
+}
+
+// Source: README ("Retention"): `--keep N` keeps the N newest runs, the current one included,
+// and the N most recently used cache entries, the current run's included.
+#[test]
+fn keep_removes_the_oldest_runs_and_cache_entries() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = grid_config(dir.path(), "a.toml", "-0.3:0.6:7");
+    let b = grid_config(dir.path(), "b.toml", "-0.3:0.6:8");
+    run_ok(dir.path(), &a);
+    run_ok(dir.path(), &b);
+    let before = run_folders(dir.path());
+    assert_eq!(before.len(), 2);
+    assert_eq!(cache_entries(dir.path()).len(), 2);
+
+    let o = bin(&["run", path_str(&a), "--keep", "2"], dir.path());
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(
+        text(&o).contains("removed the old run folder"),
+        "{}",
+        text(&o)
+    );
+    let after = run_folders(dir.path());
+    assert_eq!(after.len(), 2, "{after:?}");
+    assert!(!before[0].exists(), "the oldest run is removed");
+    assert!(before[1].exists());
+    let latest = std::fs::canonicalize(dir.path().join("out/latest")).unwrap();
+    assert_eq!(latest, std::fs::canonicalize(&after[1]).unwrap());
+    assert_eq!(
+        cache_entries(dir.path()).len(),
+        2,
+        "two entries fit in keep 2"
+    );
+
+    // The config key, at 1: only this run and its cache entry remain.
+    let mut text_a = std::fs::read_to_string(&a).unwrap();
+    text_a.insert_str(0, "keep = 1\n");
+    std::fs::write(&a, text_a).unwrap();
+    let o = run_ok(dir.path(), &a);
+    assert!(text(&o).contains("reused from the cache"), "{}", text(&o));
+    assert_eq!(run_folders(dir.path()).len(), 1);
+    assert_eq!(cache_entries(dir.path()).len(), 1);
+    // The entry kept is the one of grid a: a run of grid a reuses it.
+    let o = run_ok(dir.path(), &a);
+    assert!(text(&o).contains("reused from the cache"), "{}", text(&o));
+
+    let o = bin(&["run", path_str(&a), "--keep", "0"], dir.path());
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(text(&o).contains("keep"), "{}", text(&o));
+}

@@ -22,6 +22,11 @@
 //! rejects it where it matters. `bool` columns give text `true`/`false`. `string` columns, and
 //! any column with a `subtype` (JSON-encoded arrays or objects), give the text as written.
 //! The header line must list exactly the YAML's column names, in order.
+//!
+//! Each data line is one row, as in the CSV reader: a line whose quotes do not balance (a
+//! stray `"`) or that is not UTF-8 is quarantined with its row number and reading resumes at
+//! the next line, so one bad quote never swallows the rows after it (quoted values therefore
+//! cannot span lines).
 
 use std::fs::File;
 use std::io::{BufRead, BufReader};
@@ -31,6 +36,28 @@ use serde::Deserialize;
 
 use super::error::CatalogueError;
 use super::table::{Cell, ColumnMeta, RawRow, RawTable};
+
+/// Deepest nesting of YAML flow collections (`[…]`, `{…}`) accepted in the header. The YAML
+/// parser takes time quadratic in that depth (40 000 levels: 18 s), so a few hundred kilobytes
+/// of brackets would hang the reader; astropy's headers nest a handful of levels.
+pub const MAX_YAML_FLOW_DEPTH: usize = 256;
+
+/// The deepest nesting of `[` and `{` in YAML text. Quotes are not tracked, so brackets inside
+/// quoted strings count too: an over-estimate, which only a pathological header reaches.
+fn flow_depth(yaml: &str) -> usize {
+    let (mut depth, mut deepest) = (0usize, 0usize);
+    for b in yaml.bytes() {
+        match b {
+            b'[' | b'{' => {
+                depth += 1;
+                deepest = deepest.max(depth);
+            }
+            b']' | b'}' => depth = depth.saturating_sub(1),
+            _ => {}
+        }
+    }
+    deepest
+}
 
 /// Largest integer magnitude every value up to which a double holds exactly (2⁵³).
 const EXACT_INT_LIMIT: i128 = 1 << 53;
@@ -108,6 +135,12 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
             break line;
         }
     };
+    if flow_depth(&yaml) > MAX_YAML_FLOW_DEPTH {
+        return Err(invalid(format!(
+            "YAML header: `[` and `{{` nested deeper than {MAX_YAML_FLOW_DEPTH} levels (limit of \
+             this reader)"
+        )));
+    }
     let header: Header =
         serde_norway::from_str(&yaml).map_err(|e| invalid(format!("YAML header: {e}")))?;
     let delimiter = match header.delimiter.as_deref() {
@@ -148,35 +181,39 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
         .collect();
     let mut rows = Vec::new();
     let mut malformed = Vec::new();
-    while let Some(mut record) = lines.next().map_err(&invalid)? {
-        if record.trim().is_empty() || record.trim_start().starts_with('#') {
+    while let Some(bytes) = lines.next_bytes().map_err(&invalid)? {
+        let line_number = lines.number;
+        let record = match String::from_utf8(bytes) {
+            Ok(r) => Ok(r),
+            Err(e) => Err(String::from_utf8_lossy(e.as_bytes()).into_owned()),
+        };
+        let text = record.as_ref().unwrap_or_else(|lossy| lossy);
+        if text.trim().is_empty() || text.trim_start().starts_with('#') {
             continue;
         }
-        let start_line = lines.number;
-        // A quoted field may span lines: join until the quotes close.
-        let fields = loop {
-            match split_record(&record, delimiter) {
-                Ok(fields) => break fields,
-                Err(RecordError::OpenQuote) => match lines.next().map_err(&invalid)? {
-                    Some(next) => {
-                        record.push('\n');
-                        record.push_str(&next);
-                    }
-                    None => {
-                        return Err(invalid(format!(
-                            "line {start_line}: a quoted value is never closed"
-                        )))
-                    }
-                },
-                Err(e) => return Err(invalid(format!("line {start_line}: {e}"))),
+        let row_number = rows.len() + 1;
+        // One line, one row: a quoting error or bytes that are not UTF-8 cost this row only.
+        let split = match &record {
+            Err(_) => Err("not valid UTF-8".to_string()),
+            Ok(r) => split_record(r, delimiter)
+                .map_err(|e| format!("{e} (the row is skipped; reading resumes at the next line)")),
+        };
+        let fields = match split {
+            Ok(fields) => fields,
+            Err(p) => {
+                malformed.push((row_number, format!("line {line_number}: {p}")));
+                rows.push(RawRow {
+                    row_number,
+                    cells: vec![Cell::Missing; kinds.len()],
+                });
+                continue;
             }
         };
-        let row_number = rows.len() + 1;
         if fields.len() != kinds.len() {
             malformed.push((
                 row_number,
                 format!(
-                    "line {start_line}: {} values for {} columns",
+                    "line {line_number}: {} values for {} columns",
                     fields.len(),
                     kinds.len()
                 ),
@@ -204,13 +241,25 @@ struct Lines {
 }
 
 impl Lines {
+    /// The next line as text (the header must be UTF-8).
     fn next(&mut self) -> Result<Option<String>, String> {
-        let mut line = String::new();
-        match self.reader.read_line(&mut line) {
+        let number = self.number + 1;
+        match self.next_bytes()? {
+            None => Ok(None),
+            Some(b) => String::from_utf8(b)
+                .map(Some)
+                .map_err(|_| format!("line {number}: not valid UTF-8")),
+        }
+    }
+
+    /// The next line's bytes, without its line ending.
+    fn next_bytes(&mut self) -> Result<Option<Vec<u8>>, String> {
+        let mut line = Vec::new();
+        match self.reader.read_until(b'\n', &mut line) {
             Ok(0) => Ok(None),
             Ok(_) => {
                 self.number += 1;
-                while line.ends_with('\n') || line.ends_with('\r') {
+                while line.ends_with(b"\n") || line.ends_with(b"\r") {
                     line.pop();
                 }
                 Ok(Some(line))
@@ -280,15 +329,27 @@ enum RecordError {
     OpenQuote,
     /// Text follows a closing quote before the next delimiter.
     AfterQuote(usize),
+    /// A quote inside a value that does not start with one.
+    InsideValue(usize),
 }
 
 impl std::fmt::Display for RecordError {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self {
-            RecordError::OpenQuote => write!(f, "a quoted value is never closed"),
-            RecordError::AfterQuote(at) => {
-                write!(f, "unexpected text after a closing quote at character {at}")
+            RecordError::OpenQuote => {
+                write!(
+                    f,
+                    "unbalanced or stray quote: a quoted value is never closed"
+                )
             }
+            RecordError::AfterQuote(at) => write!(
+                f,
+                "unbalanced or stray quote: text after a closing quote at character {at}"
+            ),
+            RecordError::InsideValue(at) => write!(
+                f,
+                "unbalanced or stray quote: a quote inside an unquoted value at character {at}"
+            ),
         }
     }
 }
@@ -342,6 +403,9 @@ fn split_record(line: &str, delimiter: char) -> Result<Vec<Field>, RecordError> 
             }
         } else {
             while i < chars.len() && chars[i] != delimiter {
+                if chars[i] == '"' {
+                    return Err(RecordError::InsideValue(i + 1));
+                }
                 text.push(chars[i]);
                 i += 1;
             }
@@ -402,6 +466,46 @@ mod tests {
             split_record(r#""a"b c"#, ' '),
             Err(RecordError::AfterQuote(_))
         ));
+    }
+
+    #[test]
+    fn a_stray_quote_costs_one_row() {
+        // Issue 13 item 5, for ECSV: the row with the stray quote is quarantined and the
+        // rows after it are read.
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("t.ecsv");
+        std::fs::write(
+            &path,
+            b"# %ECSV 1.0\n# ---\n# datatype:\n# - {name: id, datatype: string}\n\
+             # - {name: m, datatype: float64}\nid m\na 1\n\"b 2\nc 3\nd\" 4\ne \xff 5\nf 6\n",
+        )
+        .unwrap();
+        let t = read(&path).unwrap();
+        assert_eq!(t.rows.len(), 6);
+        let bad: Vec<usize> = t.malformed.iter().map(|m| m.0).collect();
+        assert_eq!(bad, [2, 4, 5]);
+        assert!(t.malformed[0].1.contains("line 8") && t.malformed[0].1.contains("quote"));
+        assert!(t.malformed[2].1.contains("UTF-8"));
+        assert_eq!(t.rows[2].cells[1], Cell::Number(3.0));
+        assert_eq!(t.rows[5].cells[0], Cell::Text("f".into()));
+    }
+
+    #[test]
+    fn deep_flow_nesting_is_refused_before_the_yaml_parser() {
+        assert_eq!(flow_depth("a: [1, {b: [2]}]\nc: [3]"), 3);
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("t.ecsv");
+        let deep = "[".repeat(100_000) + &"]".repeat(100_000);
+        std::fs::write(
+            &path,
+            format!(
+                "# %ECSV 1.0\n# ---\n# meta: {deep}\n# datatype:\n\
+                 # - {{name: id, datatype: string}}\nid\na\n"
+            ),
+        )
+        .unwrap();
+        let e = read(&path).unwrap_err().to_string();
+        assert!(e.contains("nested deeper than 256"), "{e}");
     }
 
     #[test]

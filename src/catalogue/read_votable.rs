@@ -220,11 +220,394 @@ fn array_elements(arraysize: Option<&str>) -> Result<(Option<u64>, bool), String
     Ok((Some(product), fixed))
 }
 
-/// A FIELD of the TABLE being scanned: enough to check its TABLEDATA cells.
+/// A FIELD of the TABLE being scanned: enough to check its TABLEDATA cells and to walk its
+/// BINARY/BINARY2 rows.
 struct ScanField {
     name: String,
     datatype: String,
     scalar: bool,
+    arraysize: Option<String>,
+}
+
+/// How one FIELD's value is laid out in a BINARY/BINARY2 row (VOTable 1.4 §5.4–5.5).
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Layout {
+    /// A fixed number of bytes that need no check.
+    Skip(u64),
+    /// A 4-byte big-endian count, then that many items of `items` elements of this many
+    /// bytes each (for `bit`, 0: the count is of bits, stored in whole bytes).
+    Variable { element_bytes: u64, items: u64 },
+    /// `char` text: `total` bytes (`None`: variable length, a count of items of `items`
+    /// bytes), one string per `string` bytes.
+    Utf8 {
+        total: Option<u64>,
+        string: u64,
+        items: u64,
+    },
+    /// `unicodeChar` text: as `Utf8`, in UCS-2 units of two bytes.
+    Ucs2 {
+        total: Option<u64>,
+        string: u64,
+        items: u64,
+    },
+}
+
+/// The layout of a FIELD, or `None` when its datatype or arraysize is not one this walk
+/// knows (the parser then reports the FIELD itself).
+fn layout(f: &ScanField) -> Option<Layout> {
+    let dims: Vec<&str> = match f.arraysize.as_deref().map(str::trim) {
+        None => Vec::new(),
+        Some(a) => a.split('x').map(str::trim).collect(),
+    };
+    let variable = dims.last().is_some_and(|d| d.ends_with('*'));
+    // Elements of a fixed-size value (the last dimension of a variable one is open).
+    let mut fixed: u64 = 1;
+    for (i, d) in dims.iter().enumerate() {
+        if variable && i + 1 == dims.len() {
+            break;
+        }
+        fixed = fixed.checked_mul(d.parse::<u64>().ok()?)?;
+    }
+    let first = match dims.first() {
+        Some(d) if !d.ends_with('*') => d.parse::<u64>().ok()?,
+        _ => 0,
+    };
+    Some(match f.datatype.as_str() {
+        "char" | "unicodeChar" if !dims.is_empty() => {
+            // One string per first dimension; a 1-D variable string is one string.
+            let total = (!variable).then_some(fixed);
+            let string = if first == 0 { u64::MAX } else { first };
+            if f.datatype == "char" {
+                Layout::Utf8 {
+                    total,
+                    string,
+                    items: fixed,
+                }
+            } else {
+                Layout::Ucs2 {
+                    total,
+                    string,
+                    items: fixed,
+                }
+            }
+        }
+        "bit" if variable => Layout::Variable {
+            element_bytes: 0,
+            items: fixed,
+        },
+        "bit" => Layout::Skip(fixed.div_ceil(8)),
+        other => {
+            let width = match other {
+                "boolean" | "unsignedByte" | "char" => 1,
+                "short" | "unicodeChar" => 2,
+                "int" | "float" => 4,
+                "long" | "double" | "floatComplex" => 8,
+                "doubleComplex" => 16,
+                _ => return None,
+            };
+            if variable {
+                Layout::Variable {
+                    element_bytes: width * fixed,
+                    items: fixed,
+                }
+            } else {
+                Layout::Skip(width * fixed)
+            }
+        }
+    })
+}
+
+/// Incremental base64 decoding (RFC 4648 alphabet; the characters are checked by the caller).
+#[derive(Default)]
+struct Base64 {
+    acc: u32,
+    n: u8,
+    pad: u8,
+}
+
+impl Base64 {
+    /// Feeds one base64 character (`=` included); returns the decoded bytes (and how many of
+    /// the three are data) when a group of four completes.
+    fn push(&mut self, c: u8) -> Option<([u8; 3], usize)> {
+        let v = match c {
+            b'A'..=b'Z' => c - b'A',
+            b'a'..=b'z' => c - b'a' + 26,
+            b'0'..=b'9' => c - b'0' + 52,
+            b'+' => 62,
+            b'/' => 63,
+            _ => {
+                self.pad += 1;
+                0
+            }
+        };
+        self.acc = (self.acc << 6) | u32::from(v);
+        self.n += 1;
+        if self.n < 4 {
+            return None;
+        }
+        let b = self.acc.to_be_bytes();
+        let out = (
+            [b[1], b[2], b[3]],
+            3usize.saturating_sub(usize::from(self.pad)),
+        );
+        *self = Base64::default();
+        Some(out)
+    }
+}
+
+/// Where a [`BinaryWalk`] is inside a row.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Step {
+    /// BINARY2 null flags: bytes left.
+    Flags(u64),
+    /// Reading a variable value's 4-byte element count.
+    Count { got: u8, value: u32 },
+    /// Bytes of the current FIELD left to pass.
+    Skip(u64),
+    /// Text of the current FIELD: bytes left in the value, bytes per string.
+    Text { left: u64, string: u64 },
+}
+
+/// Walks the decoded bytes of a BINARY or BINARY2 STREAM row by row and checks what the parser
+/// trusts: every `char` string is UTF-8, every `unicodeChar` string UCS-2 (no surrogate halves)
+/// that votable 0.7's decoder can hold (it sizes its output at two UTF-8 bytes per character
+/// and fails on text beyond that), and every variable-length count within
+/// [`MAX_ARRAY_ELEMENTS`] (the parser allocates a count's worth of bytes before reading them).
+struct BinaryWalk {
+    fields: Vec<(String, String, Layout)>,
+    binary2: bool,
+    /// 1-based row being read.
+    row: u64,
+    field: usize,
+    step: Step,
+    /// The current string's bytes (at most [`MAX_ARRAY_ELEMENTS`] elements).
+    string: Vec<u8>,
+}
+
+impl BinaryWalk {
+    /// A walk over the rows of `fields`; `None` when a FIELD's layout is unknown.
+    fn new(fields: &[ScanField], binary2: bool) -> Option<BinaryWalk> {
+        let fields = fields
+            .iter()
+            .map(|f| Some((f.name.clone(), f.datatype.clone(), layout(f)?)))
+            .collect::<Option<Vec<_>>>()?;
+        let empty = |l: &Layout| {
+            matches!(
+                l,
+                Layout::Skip(0)
+                    | Layout::Utf8 { total: Some(0), .. }
+                    | Layout::Ucs2 { total: Some(0), .. }
+            )
+        };
+        if fields.is_empty() || (!binary2 && fields.iter().all(|f| empty(&f.2))) {
+            return None;
+        }
+        let mut w = BinaryWalk {
+            fields,
+            binary2,
+            row: 1,
+            field: 0,
+            step: Step::Skip(0),
+            string: Vec::new(),
+        };
+        w.start_row();
+        w.advance();
+        Some(w)
+    }
+
+    /// The step at the start of a row.
+    fn row_start(&self) -> Step {
+        if self.binary2 {
+            Step::Flags(self.fields.len().div_ceil(8) as u64)
+        } else {
+            self.field_start(0)
+        }
+    }
+
+    fn start_row(&mut self) {
+        self.field = 0;
+        self.step = self.row_start();
+    }
+
+    /// The step at the start of FIELD `i`.
+    fn field_start(&self, i: usize) -> Step {
+        match self.fields[i].2 {
+            Layout::Skip(n) => Step::Skip(n),
+            Layout::Variable { .. }
+            | Layout::Utf8 { total: None, .. }
+            | Layout::Ucs2 { total: None, .. } => Step::Count { got: 0, value: 0 },
+            Layout::Utf8 {
+                total: Some(n),
+                string,
+                ..
+            } => Step::Text { left: n, string },
+            Layout::Ucs2 {
+                total: Some(n),
+                string,
+                ..
+            } => Step::Text {
+                left: 2 * n,
+                string: string.saturating_mul(2),
+            },
+        }
+    }
+
+    /// Moves past finished FIELDs (and rows), including values of no bytes.
+    fn advance(&mut self) {
+        // A row of zero bytes would loop forever; such a table has no rows to check.
+        for _ in 0..=self.fields.len() + 1 {
+            match self.step {
+                Step::Flags(0) => self.step = self.field_start(0),
+                Step::Skip(0) | Step::Text { left: 0, .. } => {
+                    self.field += 1;
+                    if self.field == self.fields.len() {
+                        self.row += 1;
+                        self.start_row();
+                    } else {
+                        self.step = self.field_start(self.field);
+                    }
+                }
+                _ => return,
+            }
+        }
+    }
+
+    fn place(&self) -> String {
+        let (name, datatype, _) = &self.fields[self.field];
+        format!(
+            "data row {}, column `{name}` (datatype {datatype})",
+            self.row
+        )
+    }
+
+    /// Checks one whole string of the current FIELD.
+    fn check_string(&self) -> Result<(), String> {
+        let bytes = &self.string;
+        // A string that starts with NUL (a byte, or a UCS-2 unit) is read as empty by the
+        // parser.
+        if !matches!(self.fields[self.field].2, Layout::Ucs2 { .. }) {
+            if bytes.first().is_none_or(|&b| b == 0) {
+                return Ok(());
+            }
+            return match std::str::from_utf8(bytes) {
+                Ok(_) => Ok(()),
+                Err(_) => Err(format!(
+                    "{}: a char value with bytes that are not valid UTF-8",
+                    self.place()
+                )),
+            };
+        }
+        let units: Vec<u16> = bytes
+            .chunks_exact(2)
+            .map(|p| u16::from_be_bytes([p[0], p[1]]))
+            .collect();
+        if units.first().is_none_or(|&u| u == 0) {
+            return Ok(());
+        }
+        if let Some(u) = units.iter().find(|u| (0xd800..=0xdfff).contains(*u)) {
+            return Err(format!(
+                "{}: a unicodeChar value holding 0x{u:04x}, half of a UTF-16 surrogate pair, \
+                 which is not UCS-2",
+                self.place()
+            ));
+        }
+        // votable 0.7 decodes into a buffer of two bytes per unit, and ucs2 0.3 fails as soon
+        // as the next character's UTF-8 bytes do not fit (`i + len - 1 >= capacity`).
+        let capacity = 2 * units.len();
+        let mut written = 0;
+        for &u in &units {
+            let len = match u {
+                0..=0x7f => 1,
+                0x80..=0x7ff => 2,
+                _ => 3,
+            };
+            if written + len > capacity {
+                return Err(format!(
+                    "{}: a unicodeChar value with more characters above U+07FF than the VOTable \
+                     library can decode (it allows two UTF-8 bytes per character); use datatype \
+                     char (UTF-8)",
+                    self.place()
+                ));
+            }
+            written += len;
+        }
+        Ok(())
+    }
+
+    /// Feeds one decoded byte.
+    fn push(&mut self, b: u8) -> Result<(), String> {
+        match self.step {
+            Step::Flags(n) => self.step = Step::Flags(n - 1),
+            Step::Skip(n) => self.step = Step::Skip(n - 1),
+            Step::Count { got, value } => {
+                let value = (value << 8) | u32::from(b);
+                self.step = Step::Count {
+                    got: got + 1,
+                    value,
+                };
+                if got + 1 == 4 {
+                    let count = u64::from(value);
+                    let items = match self.fields[self.field].2 {
+                        Layout::Variable { items, .. }
+                        | Layout::Utf8 { items, .. }
+                        | Layout::Ucs2 { items, .. } => items,
+                        Layout::Skip(_) => 1,
+                    };
+                    if count.saturating_mul(items) > MAX_ARRAY_ELEMENTS {
+                        // The parser reads the count as a signed 32-bit integer.
+                        return Err(format!(
+                            "{}: a variable-length value declares {} elements, outside 0 to the \
+                             limit of {MAX_ARRAY_ELEMENTS}",
+                            self.place(),
+                            value as i32
+                        ));
+                    }
+                    self.step = match self.fields[self.field].2 {
+                        Layout::Variable {
+                            element_bytes: 0, ..
+                        } => Step::Skip(count.div_ceil(8)),
+                        Layout::Variable { element_bytes, .. } => Step::Skip(count * element_bytes),
+                        Layout::Utf8 { string, .. } => Step::Text {
+                            left: count * items,
+                            string,
+                        },
+                        Layout::Ucs2 { string, .. } => Step::Text {
+                            left: 2 * count * items,
+                            string: string.saturating_mul(2),
+                        },
+                        Layout::Skip(n) => Step::Skip(n),
+                    };
+                }
+            }
+            Step::Text { left, string } => {
+                self.string.push(b);
+                self.step = Step::Text {
+                    left: left - 1,
+                    string,
+                };
+                if self.string.len() as u64 == string || left == 1 {
+                    let checked = self.check_string();
+                    self.string.clear();
+                    checked?;
+                }
+            }
+        }
+        self.advance();
+        Ok(())
+    }
+
+    /// At the end of the STREAM: the last row must be whole.
+    fn finish(&self) -> Result<(), String> {
+        if self.field == 0 && self.step == self.row_start() {
+            Ok(())
+        } else {
+            Err(format!(
+                "the binary STREAM ends inside {} (truncated, or FIELD datatypes and \
+                 arraysizes that do not match the data)",
+                self.place()
+            ))
+        }
+    }
 }
 
 /// Why a TABLEDATA cell does not parse as its FIELD's scalar numeric datatype, if it does not
@@ -311,6 +694,8 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
     // Inside a STREAM: count of base64 characters and of `=` padding seen. The crate stops
     // silently at a byte that is not base64 and returns the rows read so far.
     let mut stream: Option<(usize, usize)> = None;
+    // Inside a BINARY/BINARY2 STREAM: its rows, walked as the base64 is decoded.
+    let mut walk: Option<(BinaryWalk, Base64)> = None;
     // The TABLE being scanned: its FIELDs, fixed bytes per row, rows seen.
     let mut fields: Vec<ScanField> = Vec::new();
     let mut table_name = String::new();
@@ -329,9 +714,27 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                     b'=' if *padding < 2 => {
                         *padding += 1;
                         *count += 1;
+                        if let Some((w, b64)) = walk.as_mut() {
+                            if let Some((bytes, n)) = b64.push(b) {
+                                for &x in &bytes[..n] {
+                                    w.push(x).map_err(|e| {
+                                        format!("line {line}: TABLE `{table_name}`, {e}")
+                                    })?;
+                                }
+                            }
+                        }
                     }
                     b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'+' | b'/' if *padding == 0 => {
-                        *count += 1
+                        *count += 1;
+                        if let Some((w, b64)) = walk.as_mut() {
+                            if let Some((bytes, n)) = b64.push(b) {
+                                for &x in &bytes[..n] {
+                                    w.push(x).map_err(|e| {
+                                        format!("line {line}: TABLE `{table_name}`, {e}")
+                                    })?;
+                                }
+                            }
+                        }
                     }
                     _ => {
                         return Err(format!(
@@ -409,6 +812,7 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                     }
                 }
                 if name == b"STREAM" {
+                    let walked = walk.take();
                     if let Some((count, padding)) = stream.take() {
                         if count % 4 != 0 {
                             return Err(format!(
@@ -439,6 +843,11 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                                 decoded % width,
                                 decoded / width + 1
                             ));
+                        }
+                        if let Some((w, _)) = walked {
+                            w.finish().map_err(|e| {
+                                format!("line {start_line}: TABLE `{table_name}`: {e}")
+                            })?;
                         }
                     }
                 }
@@ -545,6 +954,7 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                                 name: attribute(&tag, b"name").unwrap_or_default(),
                                 scalar: arraysize.is_none(),
                                 datatype,
+                                arraysize,
                             });
                         }
                     }
@@ -570,6 +980,14 @@ fn check_well_formed<R: BufRead>(reader: R) -> Result<(), String> {
                 if !self_closing {
                     if name == b"STREAM" {
                         stream = Some((0, 0));
+                        let binary2 = stack.iter().any(|e| e == b"BINARY2");
+                        let binary = binary2 || stack.iter().any(|e| e == b"BINARY");
+                        let base64 =
+                            attribute(&tag, b"encoding").is_none_or(|e| e.trim() == "base64");
+                        walk = (binary && base64)
+                            .then(|| BinaryWalk::new(&fields, binary2))
+                            .flatten()
+                            .map(|w| (w, Base64::default()));
                     }
                     if stack.len() >= MAX_XML_DEPTH {
                         return Err(format!(
@@ -602,6 +1020,10 @@ fn explain(raw: &str) -> String {
     } else if raw.contains("MultiByte") {
         "a unicodeChar value holds a character outside the Basic Multilingual Plane, which \
          unicodeChar (UCS-2) cannot store; use datatype char (UTF-8)"
+    } else if raw.contains("BufferOverflow") {
+        // The same limit the pre-scan checks in BINARY cells (`BinaryWalk::check_string`).
+        "a unicodeChar value with more characters above U+07FF than the VOTable library can \
+         decode (it allows two UTF-8 bytes per character); use datatype char (UTF-8)"
     } else if raw.contains("tf8") || raw.contains("utf-8") || raw.contains("UCS2") {
         "a char or unicodeChar cell holds bytes that are not valid text (UTF-8 or UCS-2)"
     } else if raw.contains("invalid digit") || raw.contains("invalid float") {
@@ -906,6 +1328,118 @@ mod tests {
             e.contains("row 2") && e.contains("`m`") && e.contains("1.2.3"),
             "{e}"
         );
+    }
+
+    /// Base64 (RFC 4648 §4) of bytes, for building BINARY streams.
+    fn b64(bytes: &[u8]) -> String {
+        const A: &[u8] = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+        let mut out = String::new();
+        for c in bytes.chunks(3) {
+            let n = c.len();
+            let v = (u32::from(c[0]) << 16)
+                | (u32::from(*c.get(1).unwrap_or(&0)) << 8)
+                | u32::from(*c.get(2).unwrap_or(&0));
+            for k in 0..4 {
+                out.push(if k <= n {
+                    A[(v >> (18 - 6 * k)) as usize & 63] as char
+                } else {
+                    '='
+                });
+            }
+        }
+        out
+    }
+
+    /// A one-TABLE VOTable with these FIELDs and a BINARY (or BINARY2) stream of `data`.
+    fn binary_votable(fields: &str, data: &[u8], binary2: bool) -> String {
+        let tag = if binary2 { "BINARY2" } else { "BINARY" };
+        format!(
+            "<VOTABLE><RESOURCE><TABLE name='t'>{fields}<DATA><{tag}><STREAM encoding='base64'>\
+             {}</STREAM></{tag}></DATA></TABLE></RESOURCE></VOTABLE>",
+            b64(data)
+        )
+    }
+
+    #[test]
+    fn base64_round_trip_matches_rfc_4648() {
+        // RFC 4648 §10 test vectors.
+        assert_eq!(b64(b"foob"), "Zm9vYg==");
+        assert_eq!(b64(b"fooba"), "Zm9vYmE=");
+        let mut d = Base64::default();
+        let out: Vec<u8> = "Zm9vYmE="
+            .bytes()
+            .filter_map(|c| d.push(c))
+            .flat_map(|(b, n)| b[..n].to_vec())
+            .collect();
+        assert_eq!(out, b"fooba");
+    }
+
+    #[test]
+    fn binary_string_cells_are_checked_before_the_parser() {
+        let ok = |s: String| check_well_formed(s.as_bytes());
+        let ch = "<FIELD name='id' datatype='char' arraysize='4'/>\
+                  <FIELD name='m' datatype='double'/>";
+        let row = |id: &[u8]| [id, &1.5f64.to_be_bytes()[..]].concat();
+        // Valid rows (UTF-8 text; NUL padding; a string starting with NUL is empty).
+        let good = [
+            row(b"ab\0\0"),
+            row("\u{e9}x\0".as_bytes()),
+            row(b"\0\xff\xff\xff"),
+        ]
+        .concat();
+        assert!(ok(binary_votable(ch, &good, false)).is_ok());
+        // RFC 3629: 0xff never occurs in UTF-8. Row 2, column `id`.
+        let bad = [row(b"ab\0\0"), row(b"a\xff\0\0")].concat();
+        let e = ok(binary_votable(ch, &bad, false)).unwrap_err();
+        assert!(
+            e.contains("data row 2, column `id`") && e.contains("UTF-8"),
+            "{e}"
+        );
+        // BINARY2: one null-flag byte leads each row.
+        let bad2 = [&[0u8][..], &row(b"\xc3(\0\0")].concat();
+        let e = ok(binary_votable(ch, &bad2, true)).unwrap_err();
+        assert!(e.contains("data row 1, column `id`"), "{e}");
+
+        // unicodeChar: a surrogate half is not UCS-2 (ISO/IEC 10646).
+        let uc = "<FIELD name='name' datatype='unicodeChar' arraysize='2'/>";
+        let e = ok(binary_votable(uc, &[0, 0x41, 0xd8, 0x00], false)).unwrap_err();
+        assert!(
+            e.contains("surrogate") && e.contains("column `name`"),
+            "{e}"
+        );
+        assert!(ok(binary_votable(uc, &[0, 0x41, 0, 0xe9], false)).is_ok());
+        // Two characters above U+07FF need 6 UTF-8 bytes; the parser allows 4. The parser
+        // itself refuses that cell (so the check refuses nothing it could read), and reads one
+        // such character beside an ASCII one.
+        let wide = binary_votable(uc, &[0x20, 0xac, 0x20, 0xac], false);
+        let e = ok(wide.clone()).unwrap_err();
+        assert!(e.contains("above U+07FF"), "{e}");
+        assert!(read_from(wide.as_bytes(), None).is_err());
+        let one = binary_votable(uc, &[0x20, 0xac, 0, 0x41], false);
+        assert!(ok(one.clone()).is_ok());
+        let t = read_from(one.as_bytes(), None).unwrap();
+        assert_eq!(t.rows[0].cells[0], Cell::Text("\u{20ac}A".into()));
+
+        // Variable length: a count of 2^31 - 1 elements is refused before any allocation.
+        let var = "<FIELD name='s' datatype='char' arraysize='*'/>";
+        let e = ok(binary_votable(var, &[0x7f, 0xff, 0xff, 0xff, b'a'], false)).unwrap_err();
+        assert!(
+            e.contains("variable-length") && e.contains("2147483647"),
+            "{e}"
+        );
+        let fine = [
+            &[0u8, 0, 0, 2][..],
+            b"hi",
+            &[0, 0, 0, 0],
+            &[0, 0, 0, 1],
+            b"x",
+        ]
+        .concat();
+        assert!(ok(binary_votable(var, &fine, false)).is_ok());
+        let e = ok(binary_votable(var, &[0, 0, 0, 3, b'a'], false)).unwrap_err();
+        assert!(e.contains("ends inside data row 1"), "{e}");
+        let e = ok(binary_votable(var, &[0, 0, 0, 2, b'a', 0xff], false)).unwrap_err();
+        assert!(e.contains("UTF-8"), "{e}");
     }
 
     #[test]

@@ -308,6 +308,10 @@ pub struct RunArgs {
     /// lock left by a dead run on another host, which is never taken over automatically.
     #[arg(long)]
     pub break_lock: bool,
+    /// Keep the N newest runs in <output>/runs/ (this one included) and the N most recently used
+    /// theory cache entries, removing the oldest (overrides the config's `keep`).
+    #[arg(long, value_name = "N")]
+    pub keep: Option<usize>,
 }
 
 /// Arguments of `merge`.

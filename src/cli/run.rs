@@ -25,6 +25,7 @@ pub fn run(args: RunArgs) -> Result<Exit, CliError> {
             shard,
             wait: args.wait,
             break_lock: args.break_lock,
+            keep: args.keep,
         },
     )?;
     finish(&report)
@@ -37,6 +38,9 @@ pub(super) fn finish(report: &crate::pipeline::nightly::NightlyReport) -> Result
         eprintln!(
             "dwarfbound: note: took over the stale lock of a run that no longer exists (pid {pid})"
         );
+    }
+    for line in &report.housekeeping {
+        eprintln!("dwarfbound: note: {line}");
     }
     let Some(outcome) = &report.outcome else {
         if let Some(note) = &report.cache_note {

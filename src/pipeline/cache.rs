@@ -92,7 +92,14 @@ impl Cache {
         };
         let verdict = match parse_entry(&bytes) {
             Ok((recorded, payload)) if recorded == description.as_bytes() => {
-                return Lookup::Hit(payload.to_vec())
+                // Record the use, so that retention ([`Cache::prune`]) keeps entries by last
+                // use rather than by first computation. Best effort: a read-only cache still
+                // serves the entry.
+                let _ = std::fs::File::options()
+                    .write(true)
+                    .open(&path)
+                    .and_then(|f| f.set_modified(std::time::SystemTime::now()));
+                return Lookup::Hit(payload.to_vec());
             }
             Ok((recorded, _)) => Lookup::Mismatch(describe_difference(
                 &String::from_utf8_lossy(recorded),
@@ -116,6 +123,53 @@ impl Cache {
         bytes.push(b'\n');
         bytes.extend_from_slice(&body);
         write_atomic(&self.entry_path(key), &bytes)
+    }
+}
+
+impl Cache {
+    /// Keeps the `keep` most recently used entries (`protect`, the entry of the current run,
+    /// always among them) and removes the others, least recently used first. Returns one line
+    /// per entry removed or not removable. Files that are not entries are never touched.
+    pub fn prune(&self, keep: usize, protect: Option<&str>) -> Vec<String> {
+        let Ok(dir) = std::fs::read_dir(&self.dir) else {
+            return Vec::new();
+        };
+        let protected = protect.map(|k| self.entry_path(k));
+        let mut entries: Vec<(std::time::SystemTime, PathBuf)> = dir
+            .filter_map(Result::ok)
+            .map(|e| e.path())
+            .filter(|p| {
+                p.extension().is_some_and(|x| x == "theory")
+                    && p.file_stem()
+                        .and_then(|s| s.to_str())
+                        .is_some_and(|s| s.len() == 64 && s.bytes().all(|b| b.is_ascii_hexdigit()))
+            })
+            .filter(|p| Some(p) != protected.as_ref())
+            .map(|p| {
+                let used = std::fs::metadata(&p)
+                    .and_then(|m| m.modified())
+                    .unwrap_or(std::time::UNIX_EPOCH);
+                (used, p)
+            })
+            .collect();
+        // Newest first; ties broken by name so the choice does not depend on listing order.
+        entries.sort_by(|a, b| b.0.cmp(&a.0).then_with(|| a.1.cmp(&b.1)));
+        let room = keep.saturating_sub(usize::from(protected.as_ref().is_some_and(|p| p.exists())));
+        entries
+            .iter()
+            .skip(room)
+            .rev()
+            .map(|(_, p)| match std::fs::remove_file(p) {
+                Ok(()) => format!(
+                    "removed the theory cache entry {} (least recently used; keep {keep})",
+                    p.display()
+                ),
+                Err(e) => format!(
+                    "could not remove the theory cache entry {}: {e}",
+                    p.display()
+                ),
+            })
+            .collect()
     }
 }
 
@@ -265,6 +319,39 @@ mod tests {
         old.extend_from_slice(payload);
         std::fs::write(cache.entry_path(&key), old).unwrap();
         assert!(matches!(cache.load(&key, "k"), Lookup::Corrupt(why) if why.contains("header")));
+    }
+
+    #[test]
+    fn prune_keeps_the_most_recently_used_entries_and_the_protected_one() {
+        let dir = tempfile::tempdir().unwrap();
+        let cache = Cache::new(dir.path());
+        let keys: Vec<String> = (0..4).map(|i| Cache::key(&format!("d{i}"))).collect();
+        let t0 = std::time::UNIX_EPOCH + std::time::Duration::from_secs(1_000_000);
+        for (i, k) in keys.iter().enumerate() {
+            cache.store(k, &format!("d{i}"), b"p").unwrap();
+            // Entry i last used at t0 + i hours: 0 is the oldest.
+            std::fs::File::options()
+                .write(true)
+                .open(cache.entry_path(k))
+                .unwrap()
+                .set_modified(t0 + std::time::Duration::from_secs(3600 * i as u64))
+                .unwrap();
+        }
+        std::fs::write(dir.path().join("notes.txt"), "not an entry").unwrap();
+        // Keep 2 with the oldest entry protected (the current run's): it and the newest stay.
+        let notes = cache.prune(2, Some(&keys[0]));
+        assert_eq!(notes.len(), 2, "{notes:?}");
+        let left: Vec<bool> = keys.iter().map(|k| cache.entry_path(k).exists()).collect();
+        assert_eq!(left, [true, false, false, true]);
+        assert!(
+            dir.path().join("notes.txt").exists(),
+            "other files are never touched"
+        );
+        // A hit counts as a use: entry 0 becomes the most recent one.
+        assert!(matches!(cache.load(&keys[0], "d0"), Lookup::Hit(_)));
+        cache.prune(1, None);
+        assert!(cache.entry_path(&keys[0]).exists());
+        assert!(!cache.entry_path(&keys[3]).exists());
     }
 
     #[test]

@@ -52,6 +52,11 @@ pub struct Config {
     /// Folder of the theory cache (default `<output>/cache`).
     #[serde(default)]
     pub cache: Option<String>,
+    /// Retention: keep this many runs in `<output>/runs/` (the current one included) and this
+    /// many theory cache entries (the current run's included), removing the oldest; `None`
+    /// keeps everything. `run --keep N` overrides it.
+    #[serde(default)]
+    pub keep: Option<usize>,
     /// Catalogues to read.
     #[serde(rename = "catalogue", default)]
     pub catalogues: Vec<CatalogueEntry>,

@@ -102,6 +102,26 @@ pub fn vet_all(inputs: &[CatalogueInput]) -> Result<Vetted, PipelineError> {
     Ok(all)
 }
 
+/// How a nightly or confront run computes its theory grid (the options its cache key covers).
+fn grid_options(shard: Option<Shard>) -> GridOptions {
+    GridOptions {
+        with_wd_tables: true,
+        shard,
+        quiet: false,
+    }
+}
+
+/// The cache key [`theory_grid`] files the grid of these axes and settings under (so that
+/// retention can spare the entry a run has just used).
+pub fn theory_cache_key(
+    upsilon: &Axis,
+    tau: &Axis,
+    theory: &TheorySettings,
+    shard: Option<Shard>,
+) -> String {
+    Cache::key(&GridIdentity::new(upsilon, tau, theory, &grid_options(shard)).to_json())
+}
+
 /// The theory grid, from the cache when a verified entry computed for exactly these axes and
 /// settings exists. Returns the grid and whether it came from the cache, plus a one-line note
 /// when an entry was discarded (corrupt, or computed for another grid) and rebuilt.
@@ -112,11 +132,7 @@ pub fn theory_grid(
     shard: Option<Shard>,
     cache: Option<&Cache>,
 ) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
-    let options = GridOptions {
-        with_wd_tables: true,
-        shard,
-        quiet: false,
-    };
+    let options = grid_options(shard);
     let identity = GridIdentity::new(&upsilon, &tau, theory, &options);
     let description = identity.to_json();
     let key = Cache::key(&description);
@@ -173,6 +189,9 @@ pub struct NightlyContext {
     pub previous: Option<PathBuf>,
     /// Alarm rules.
     pub alarms: super::config::AlarmConfig,
+    /// Housekeeping of the run history done for this run, one line each (the report and
+    /// `since_previous` carry them).
+    pub housekeeping: Vec<String>,
 }
 
 /// Runs a whole confrontation and writes every output into `out_dir`.
@@ -357,8 +376,9 @@ fn write_outputs(
     std::fs::create_dir_all(out_dir).map_err(|e| OutputError::new(out_dir, e))?;
     let objects_bytes = ctx.objects_csv()?;
     let mut summary = ctx.summary_json();
-    let difference = nightly.map(|n| {
-        super::history::difference(
+    let difference = nightly.map(|n| super::history::RunDifference {
+        housekeeping: n.housekeeping.clone(),
+        ..super::history::difference(
             n.previous.as_deref(),
             &super::history::parse_objects(&objects_bytes),
             &summary,

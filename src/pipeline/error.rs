@@ -37,6 +37,11 @@ impl From<StatsError> for PipelineError {
 
 impl From<EngineError> for PipelineError {
     fn from(e: EngineError) -> Self {
-        PipelineError::Internal(e.to_string())
+        match e {
+            // A grid the user chose that the comparison cannot use (no points, a population
+            // window narrower than the grid's MMHB range): a settings problem, exit 2.
+            EngineError::Grid(why) => PipelineError::Settings(why),
+            other => PipelineError::Internal(other.to_string()),
+        }
     }
 }

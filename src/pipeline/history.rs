@@ -7,6 +7,12 @@
 //! The difference is computed from the two runs' own `summary.json` and `objects.csv`, so it
 //! works across tool versions and needs no state beyond the files a researcher can read.
 //!
+//! Housekeeping: a run holds a lock inside its own folder while it writes and leaves a
+//! completion marker ([`COMPLETE_MARKER`]) when every file is in place, so the next run can
+//! tell a folder left by a killed run (no marker, no live lock) from one still being written
+//! and remove it ([`sweep_partial_runs`]); [`retention_plan`] picks the oldest complete runs
+//! beyond `--keep N`.
+//!
 //! ```
 //! let (date, stamp) = dwarfbound::pipeline::history::utc_stamp(0);
 //! assert_eq!(date, "1970-01-01T00:00:00Z");
@@ -17,7 +23,12 @@ use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
 
-use crate::output::OutputError;
+use super::lock::{self, LOCK_FILE};
+use crate::output::{write_atomic, OutputError};
+
+/// File written into a run folder once every output is in place, before `latest` is switched
+/// to it. Hidden: it is bookkeeping, not a result.
+pub const COMPLETE_MARKER: &str = ".complete";
 
 /// Formats Unix seconds as (ISO 8601 UTC, compact folder-name stamp).
 pub fn utc_stamp(unix_s: i64) -> (String, String) {
@@ -70,6 +81,127 @@ pub fn new_run_dir(output: &Path, stamp: &str) -> Result<PathBuf, OutputError> {
         &runs,
         std::io::Error::other("too many runs in one second"),
     ))
+}
+
+/// Marks a run folder complete (see [`COMPLETE_MARKER`]).
+pub fn mark_complete(run_dir: &Path, completed_at: &str) -> Result<(), OutputError> {
+    write_atomic(
+        &run_dir.join(COMPLETE_MARKER),
+        format!("completed {completed_at}\n").as_bytes(),
+    )
+}
+
+/// Sort key of a run folder's name, `YYYYMMDDTHHMMSSZ` or `YYYYMMDDTHHMMSSZ-k` (the k-th run
+/// started in that second); `None` for any other name, which housekeeping never touches.
+fn run_order(name: &str) -> Option<(&str, u32)> {
+    let (stamp, k) = match name.split_once('-') {
+        Some((s, k)) => (s, k.parse().ok()?),
+        None => (name, 0),
+    };
+    let b = stamp.as_bytes();
+    let digits = |r: std::ops::Range<usize>| b[r].iter().all(u8::is_ascii_digit);
+    (b.len() == 16 && b[8] == b'T' && b[15] == b'Z' && digits(0..8) && digits(9..15))
+        .then_some((stamp, k))
+}
+
+/// The run folders under `<output>/runs/` whose names are run stamps, oldest first.
+fn run_folders(output: &Path) -> Vec<PathBuf> {
+    let Ok(entries) = std::fs::read_dir(output.join("runs")) else {
+        return Vec::new();
+    };
+    let mut named: Vec<(String, PathBuf)> = entries
+        .filter_map(Result::ok)
+        .filter(|e| e.file_type().is_ok_and(|t| t.is_dir()))
+        .filter_map(|e| Some((e.file_name().to_str()?.to_string(), e.path())))
+        .filter(|(n, _)| run_order(n).is_some())
+        .collect();
+    named.sort_by(|a, b| run_order(&a.0).cmp(&run_order(&b.0)));
+    named.into_iter().map(|(_, p)| p).collect()
+}
+
+/// What a run folder is, as seen by the next run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RunFolderState {
+    /// Every file is in place.
+    Complete,
+    /// A live run (or one on another host) holds its lock: being written, never touched.
+    Running,
+    /// Left by a killed run: no completion marker and no live lock.
+    Partial,
+}
+
+/// Classifies a run folder. A folder with neither marker nor lock file was written before run
+/// folders had them (or by a run killed before it took its lock): it counts as complete when
+/// its last outputs (`summary.json`, `report.html`) are there, else as partial.
+pub fn run_folder_state(dir: &Path) -> RunFolderState {
+    if dir.join(COMPLETE_MARKER).is_file() {
+        RunFolderState::Complete
+    } else if lock::is_held(dir) {
+        RunFolderState::Running
+    } else if dir.join(LOCK_FILE).exists() {
+        // The lock of a run that died before finishing.
+        RunFolderState::Partial
+    } else if dir.join("summary.json").is_file() && dir.join("report.html").is_file() {
+        RunFolderState::Complete
+    } else {
+        RunFolderState::Partial
+    }
+}
+
+fn same_folder(a: &Path, b: Option<&PathBuf>) -> bool {
+    let canon = |p: &Path| std::fs::canonicalize(p).unwrap_or_else(|_| p.to_path_buf());
+    b.is_some_and(|b| canon(a) == canon(b))
+}
+
+/// Removes the run folders of `<output>/runs/` left by killed runs (never the one `latest`
+/// points to, never one being written). Call it holding the output folder's lock. Returns one
+/// line per folder, removed or not, for stderr and the report.
+pub fn sweep_partial_runs(output: &Path) -> Vec<String> {
+    let latest = latest_run(output);
+    let mut notes = Vec::new();
+    for dir in run_folders(output) {
+        if same_folder(&dir, latest.as_ref()) || run_folder_state(&dir) != RunFolderState::Partial {
+            continue;
+        }
+        notes.push(match std::fs::remove_dir_all(&dir) {
+            Ok(()) => format!(
+                "removed the partial run folder {} (a run killed before it completed)",
+                dir.display()
+            ),
+            Err(e) => format!(
+                "could not remove the partial run folder {}: {e}",
+                dir.display()
+            ),
+        });
+    }
+    notes
+}
+
+/// The complete run folders to remove, oldest first, so that `keep` runs remain once the run
+/// about to start is published (it counts as one of them and is never among these). Folders
+/// being written and names that are not run stamps are never chosen.
+pub fn retention_plan(output: &Path, keep: usize) -> Vec<PathBuf> {
+    let complete: Vec<PathBuf> = run_folders(output)
+        .into_iter()
+        .filter(|d| run_folder_state(d) == RunFolderState::Complete)
+        .collect();
+    let excess = (complete.len() + 1).saturating_sub(keep.max(1));
+    complete.into_iter().take(excess).collect()
+}
+
+/// Removes the folders of a [`retention_plan`] made with `keep` (skipping the one `latest`
+/// points to, whatever happened since the plan was made). Returns one line per folder.
+pub fn apply_retention(output: &Path, plan: &[PathBuf], keep: usize) -> Vec<String> {
+    let latest = latest_run(output);
+    plan.iter()
+        .filter(|d| !same_folder(d, latest.as_ref()))
+        .map(|d| match std::fs::remove_dir_all(d) {
+            Err(e) if e.kind() != std::io::ErrorKind::NotFound => {
+                format!("could not remove the old run folder {}: {e}", d.display())
+            }
+            _ => format!("removed the old run folder {} (keep {keep})", d.display()),
+        })
+        .collect()
 }
 
 /// The run folder that `<output>/latest` points to, if any.
@@ -140,6 +272,9 @@ pub struct RunDifference {
     pub area_now: Option<f64>,
     /// Alarm rules that fired, in words.
     pub alarms: Vec<String>,
+    /// Housekeeping of the run history done by this run, in words: partial run folders of
+    /// killed runs removed, old runs removed by `--keep`.
+    pub housekeeping: Vec<String>,
 }
 
 /// Reads `objects.csv` of a run into key → state (key = `source_file:id`).
@@ -325,11 +460,17 @@ pub fn difference(
 impl RunDifference {
     /// The difference in words, one line each (empty when nothing changed).
     pub fn lines(&self) -> Vec<String> {
+        let housekeeping = self
+            .housekeeping
+            .iter()
+            .map(|h| format!("housekeeping: {h}"));
         if self.previous.is_none() {
-            return vec![
+            let mut out = vec![
                 "This is the first run of this job: there is no previous run to compare with."
                     .to_string(),
             ];
+            out.extend(housekeeping);
+            return out;
         }
         let mut out = Vec::new();
         let list = |v: &[String]| {
@@ -392,6 +533,92 @@ impl RunDifference {
         for a in &self.alarms {
             out.push(format!("ALARM: {a}"));
         }
+        out.extend(housekeeping);
         out
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A run folder under `<output>/runs/` holding the given files.
+    fn folder(output: &Path, name: &str, files: &[(&str, &str)]) -> PathBuf {
+        let d = output.join("runs").join(name);
+        std::fs::create_dir_all(&d).unwrap();
+        for (f, text) in files {
+            std::fs::write(d.join(f), text).unwrap();
+        }
+        d
+    }
+
+    #[test]
+    fn partial_runs_are_swept_and_everything_else_is_left_alone() {
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path();
+        let complete = folder(out, "20260101T000000Z", &[(COMPLETE_MARKER, "completed\n")]);
+        // Written before run folders had markers: complete when its last outputs are there.
+        let legacy = folder(
+            out,
+            "20260102T000000Z",
+            &[("summary.json", "{}"), ("report.html", "")],
+        );
+        // Killed: the lock of a process that cannot exist (above Linux's pid_max, 2^22).
+        let killed = folder(
+            out,
+            "20260103T000000Z",
+            &[(LOCK_FILE, "pid = 4194305\n"), ("objects.csv", "id\n")],
+        );
+        let running = folder(out, "20260104T000000Z", &[]);
+        let live = lock::FolderLock::acquire(&running, false).unwrap();
+        // Killed between creating the folder and locking it.
+        let empty = folder(out, "20260105T000000Z-1", &[]);
+        let other = folder(out, "notes", &[]);
+        assert_eq!(run_folder_state(&complete), RunFolderState::Complete);
+        assert_eq!(run_folder_state(&legacy), RunFolderState::Complete);
+        assert_eq!(run_folder_state(&killed), RunFolderState::Partial);
+        assert_eq!(run_folder_state(&running), RunFolderState::Running);
+        assert_eq!(run_folder_state(&empty), RunFolderState::Partial);
+
+        let notes = sweep_partial_runs(out);
+        assert_eq!(notes.len(), 2, "{notes:?}");
+        assert!(notes[0].contains("20260103T000000Z") && notes[0].contains("partial"));
+        assert!(!killed.exists() && !empty.exists());
+        assert!(complete.exists() && legacy.exists() && running.exists() && other.exists());
+        drop(live);
+    }
+
+    #[test]
+    fn latest_is_never_swept() {
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path();
+        let d = folder(out, "20260101T000000Z", &[]);
+        publish_latest(out, &d).unwrap();
+        assert!(sweep_partial_runs(out).is_empty());
+        assert!(d.exists());
+    }
+
+    #[test]
+    fn retention_removes_the_oldest_complete_runs_first() {
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path();
+        let done = [(COMPLETE_MARKER, "completed\n")];
+        // Same second: the counter orders them (-2 before -10).
+        let names = [
+            "20260101T000000Z",
+            "20260101T000000Z-2",
+            "20260101T000000Z-10",
+            "20260102T000000Z",
+        ];
+        let dirs: Vec<PathBuf> = names.iter().map(|n| folder(out, n, &done)).collect();
+        folder(out, "20251231T000000Z", &[(LOCK_FILE, "pid = 4194305\n")]);
+        // keep 3 = the run about to start + the 2 newest complete ones.
+        assert_eq!(retention_plan(out, 3), dirs[..2].to_vec());
+        assert_eq!(retention_plan(out, 1), dirs.to_vec());
+        assert!(retention_plan(out, 5).is_empty());
+        publish_latest(out, &dirs[0]).unwrap();
+        let notes = apply_retention(out, &dirs[..2], 3);
+        assert_eq!(notes.len(), 1, "latest is spared: {notes:?}");
+        assert!(dirs[0].exists() && !dirs[1].exists() && dirs[2].exists());
     }
 }

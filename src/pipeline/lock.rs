@@ -197,6 +197,27 @@ pub fn break_lock(dir: &Path) -> Result<Option<String>, LockError> {
     }
 }
 
+/// Whether `dir` holds a lock file that must be respected: a live holder on this host, a
+/// holder on another host (never judged from here), or a file so young that its writer may
+/// still be writing its pid. `false` when there is no lock file or it is stale. Used to tell a
+/// run folder being written from one left by a killed run.
+pub fn is_held(dir: &Path) -> bool {
+    let path = dir.join(LOCK_FILE);
+    let Ok(text) = std::fs::read_to_string(&path) else {
+        return false;
+    };
+    let owner = Owner::parse(&text);
+    if owner.pid == 0 {
+        let age = std::fs::metadata(&path)
+            .and_then(|m| m.modified())
+            .ok()
+            .and_then(|t| t.elapsed().ok())
+            .unwrap_or(EMPTY_LOCK_GRACE);
+        return age < EMPTY_LOCK_GRACE;
+    }
+    judge(&owner, &Owner::me()) != Verdict::Stale
+}
+
 impl FolderLock {
     /// Takes the lock on `dir` (created if needed). With `wait`, polls until the holder is gone
     /// (or its lock turns out stale).
@@ -321,6 +342,22 @@ mod tests {
             );
         }
         assert_eq!(judge(&me, &me), Verdict::Live);
+    }
+
+    #[test]
+    fn is_held_tells_a_live_lock_from_a_stale_one() {
+        let dir = tempfile::tempdir().unwrap();
+        assert!(!is_held(dir.path()), "no lock file");
+        let lock = FolderLock::acquire(dir.path(), false).unwrap();
+        assert!(is_held(dir.path()), "held by this live process");
+        drop(lock);
+        // A process id above Linux's pid_max (2^22) never exists: a killed holder.
+        let dead = Owner {
+            pid: 4_194_305,
+            ..Owner::me()
+        };
+        std::fs::write(dir.path().join(LOCK_FILE), dead.to_text()).unwrap();
+        assert!(!is_held(dir.path()));
     }
 
     #[test]

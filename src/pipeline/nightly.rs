@@ -37,6 +37,8 @@ pub struct NightlyOptions {
     pub wait: bool,
     /// Remove the folder's lock first, whoever holds it (the human's override).
     pub break_lock: bool,
+    /// Retention (`--keep N`): overrides the config's `keep`.
+    pub keep: Option<usize>,
 }
 
 /// `--break-lock`: removes the lock of `dir` and says on stderr whose it was.
@@ -80,6 +82,25 @@ pub struct NightlyReport {
     /// For a shard: one line when a theory cache entry was discarded and rebuilt (a full run
     /// carries it in its outcome).
     pub cache_note: Option<String>,
+    /// Housekeeping done, one line each: partial run folders of killed runs removed, old runs
+    /// and cache entries removed by retention, and anything that could not be removed.
+    pub housekeeping: Vec<String>,
+}
+
+/// The retention in force: `--keep` over the config's `keep`; 0 is refused, since the current
+/// run is always kept.
+fn retention(
+    cfg_path: &Path,
+    cfg: &Config,
+    opts_keep: Option<usize>,
+) -> Result<Option<usize>, PipelineError> {
+    match opts_keep.or(cfg.keep) {
+        Some(0) => Err(PipelineError::Settings(format!(
+            "{}: keep: 0 would remove the current run; give at least 1 (or leave it out to keep everything)",
+            cfg_path.display()
+        ))),
+        k => Ok(k),
+    }
 }
 
 fn axis(cfg_path: &Path, key: &str, text: &str) -> Result<Axis, PipelineError> {
@@ -306,6 +327,7 @@ pub const SHARD_CONFIG_FILE: &str = "config-path.txt";
 pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyReport, NightlyError> {
     let cfg = Config::load(cfg_path)?;
     let settings = settings_from_config(cfg_path, &cfg)?;
+    let keep = retention(cfg_path, &cfg, opts.keep)?;
     let (output, cache) = folders(cfg_path, &cfg);
 
     if let Some(shard) = opts.shard {
@@ -343,11 +365,14 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
             alarms: Vec::new(),
             took_over_lock_from,
             cache_note,
+            housekeeping: Vec::new(),
         });
     }
 
     break_lock_if_asked(&output, opts.break_lock)?;
     let lock = FolderLock::acquire(&output, opts.wait)?;
+    let current_entry =
+        super::confront::theory_cache_key(&settings.upsilon, &settings.tau, &settings.theory, None);
     publish_run(
         &settings,
         &cfg,
@@ -357,12 +382,26 @@ pub fn run_nightly(cfg_path: &Path, opts: &NightlyOptions) -> Result<NightlyRepo
         },
         None,
         lock,
+        Retention {
+            keep,
+            cache: &cache,
+            current_entry: Some(current_entry),
+        },
     )
 }
 
-/// The common end of `run` and `merge`: confront into a new run folder (or `out_dir`),
-/// compare with the previous run, switch `latest` to the new run only once it is complete
-/// (not for `out_dir`), release the lock and collect the alarms.
+/// What `publish_run` keeps: at most `keep` runs and cache entries (all when `None`), never the
+/// current run nor the cache entry it used.
+struct Retention<'a> {
+    keep: Option<usize>,
+    cache: &'a Cache,
+    current_entry: Option<String>,
+}
+
+/// The common end of `run` and `merge`: remove the partial run folders of killed runs, confront
+/// into a new run folder (or `out_dir`) holding the folder's own lock while writing, compare
+/// with the previous run, mark the folder complete and switch `latest` to it (not for
+/// `out_dir`), apply the retention, release the lock and collect the alarms.
 fn publish_run(
     settings: &ConfrontSettings,
     cfg: &Config,
@@ -370,20 +409,66 @@ fn publish_run(
     theory: TheorySource<'_>,
     out_dir: Option<&Path>,
     lock: FolderLock,
+    retention: Retention<'_>,
 ) -> Result<NightlyReport, NightlyError> {
     let took_over_lock_from = lock.took_over_from;
     let (generated_at, stamp) = utc_stamp(now_unix_s());
+    // Housekeeping under the output lock, so no other well-behaved run writes meanwhile (a run
+    // started past the lock with --break-lock still holds its own folder's lock).
+    let mut housekeeping = history::sweep_partial_runs(output);
+    let plan = match (retention.keep, out_dir) {
+        (Some(keep), None) => history::retention_plan(output, keep),
+        _ => Vec::new(),
+    };
+    let mut report_lines = housekeeping.clone();
+    if let Some(keep) = retention.keep {
+        report_lines.extend(plan.iter().map(|d| {
+            format!(
+                "removing the old run folder {} once this run is published (keep {keep})",
+                d.display()
+            )
+        }));
+    }
     let nightly = NightlyContext {
         previous: history::latest_run(output),
         alarms: cfg.alarms.clone(),
+        housekeeping: report_lines,
     };
-    let run_dir = match out_dir {
-        Some(d) => d.to_path_buf(),
-        None => history::new_run_dir(output, &stamp).map_err(PipelineError::from)?,
+    let (run_dir, run_lock) = match out_dir {
+        Some(d) => (d.to_path_buf(), None),
+        None => {
+            let d = history::new_run_dir(output, &stamp).map_err(PipelineError::from)?;
+            let l = FolderLock::acquire(&d, false)?;
+            (d, Some(l))
+        }
     };
-    let outcome = run_confrontation(settings, &run_dir, theory, &generated_at, Some(&nightly))?;
+    let outcome = match run_confrontation(settings, &run_dir, theory, &generated_at, Some(&nightly))
+    {
+        Ok(o) => o,
+        Err(e) => {
+            if out_dir.is_none() {
+                // A failed run's folder holds part of its outputs: never leave it behind.
+                let _ = std::fs::remove_dir_all(&run_dir);
+            }
+            return Err(e.into());
+        }
+    };
     if out_dir.is_none() {
+        history::mark_complete(&run_dir, &generated_at).map_err(PipelineError::from)?;
+        drop(run_lock);
         history::publish_latest(output, &run_dir).map_err(PipelineError::from)?;
+        housekeeping.extend(history::apply_retention(
+            output,
+            &plan,
+            retention.keep.unwrap_or_default(),
+        ));
+    }
+    if let Some(keep) = retention.keep {
+        housekeeping.extend(
+            retention
+                .cache
+                .prune(keep, retention.current_entry.as_deref()),
+        );
     }
     drop(lock);
     let alarms = outcome
@@ -397,6 +482,7 @@ fn publish_run(
         alarms,
         took_over_lock_from,
         cache_note: None,
+        housekeeping,
     })
 }
 
@@ -454,7 +540,8 @@ pub fn merge_shards(
         ))
         .into());
     }
-    let (output, _) = folders(&cfg_path, &cfg);
+    let keep = retention(&cfg_path, &cfg, None)?;
+    let (output, cache) = folders(&cfg_path, &cfg);
     break_lock_if_asked(&output, break_lock)?;
     let lock = FolderLock::acquire(&output, false)?;
     publish_run(
@@ -464,5 +551,10 @@ pub fn merge_shards(
         TheorySource::Given(Box::new(grid)),
         out_dir,
         lock,
+        Retention {
+            keep,
+            cache: &cache,
+            current_entry: None,
+        },
     )
 }
