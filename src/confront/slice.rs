@@ -39,6 +39,7 @@ use super::engine::{BoundSurface, Confrontation, Term};
 use super::prob::StatsError;
 use super::reduce::{CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
+use super::wd_radius::{radius_term, RadiusTerm};
 
 /// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis (the
 /// paper's statistics section: 10).
@@ -53,7 +54,8 @@ pub struct SliceResult {
     /// Per mass term (in the order of the confrontation's curves): its bound along the fine
     /// axis, M☉ (class value, μe = 2 for white dwarfs).
     pub bounds_fine: Vec<(Term, Vec<f64>)>,
-    /// Per white dwarf with a radius term: (object index, its −2 ln L along the fine axis).
+    /// Per white dwarf with a radius term: (object index, its −2 ln L along the fine axis; with
+    /// a shared radius systematic, at the shared scale profiled at each fine point).
     pub radius_fine: Vec<(usize, Vec<f64>)>,
 }
 
@@ -110,7 +112,7 @@ pub fn tau0_slice(
         first: a,
         j0,
     };
-    let radius_fine = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
+    let (radius_fine, radius_total) = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
     let chi2_fine: Vec<f64> = fine
         .iter()
         .enumerate()
@@ -127,7 +129,7 @@ pub fn tau0_slice(
                 at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
                 at(|t| t == Term::WhiteDwarfMass),
             );
-            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
+            s + radius_total.get(k).copied().unwrap_or(0.0)
         })
         .collect();
     let slice = regions::slice_from_values(fine, chi2_fine)?;
@@ -150,7 +152,8 @@ struct Row<'a> {
     j0: usize,
 }
 
-/// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values).
+/// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
+/// and the whole radius term there (shared systematic eliminated).
 ///
 /// The term is sharply curved in Υ (radii are measured to a few per cent), so interpolating it
 /// between coarse grid points would overstate Δχ² between them and make the interval depend on
@@ -158,16 +161,20 @@ struct Row<'a> {
 /// (not-a-knot cubic along the coarse axis, per quadrature mass node) and the likelihood is
 /// evaluated exactly at every fine point. Where a node's radius is missing at a coarse point
 /// (mass above the maximum), the neighbouring interval falls back to linear interpolation or
-/// to "no model".
+/// to "no model". With a shared radius systematic, each object's values are its term at the
+/// profiled shared scale of that fine point; the whole term (second value) adds the prior or
+/// the marginalisation, so taking one object's values out of the slice holds the shared scale
+/// at its fitted value (exact with per-object floors).
 fn radius_terms_on_fine_axis(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     fine: &[f64],
-) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
+) -> Result<(Vec<(usize, Vec<f64>)>, Vec<f64>), StatsError> {
     let nu = conf.n_upsilon;
     let axis = row.axis;
-    let mut out = Vec::new();
+    // fine_radii[k]: the cold radii of every object's nodes, object after object, at fine point k.
+    let mut fine_radii: Vec<Vec<Option<f64>>> = vec![Vec::new(); fine.len()];
     for r in &conf.radius_objects {
         let mu_e = conf.uses[r.index].mu_e;
         let queries: Vec<(f64, f64)> = r.nodes.iter().map(|&(m, _)| (m, mu_e)).collect();
@@ -175,7 +182,6 @@ fn radius_terms_on_fine_axis(
         let coarse: Vec<Vec<Option<f64>>> = (0..axis.len())
             .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &queries))
             .collect();
-        let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
         for q in 0..queries.len() {
             let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
             let spline = if ys.iter().all(Option::is_some) {
@@ -185,7 +191,7 @@ fn radius_terms_on_fine_axis(
                 None
             };
             for (k, &x) in fine.iter().enumerate() {
-                fine_radii[k][q] = match &spline {
+                fine_radii[k].push(match &spline {
                     Some(sp) => Some(sp.eval(x)),
                     None => {
                         let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
@@ -195,15 +201,28 @@ fn radius_terms_on_fine_axis(
                             _ => None,
                         }
                     }
-                };
+                });
             }
         }
-        let values: Vec<f64> = fine_radii
-            .iter()
-            .zip(fine)
-            .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
-            .collect();
-        out.push((r.index, values));
     }
-    Ok(out)
+    let terms: Vec<RadiusTerm> = fine_radii
+        .iter()
+        .zip(fine)
+        .map(|(cold, &upsilon)| {
+            radius_term(
+                &conf.radius_objects,
+                cold,
+                upsilon,
+                conf.radius_shared.as_ref(),
+            )
+        })
+        .collect();
+    let per_object = conf
+        .radius_objects
+        .iter()
+        .enumerate()
+        .map(|(j, r)| (r.index, terms.iter().map(|t| t.per_object[j]).collect()))
+        .collect();
+    let total = terms.iter().map(|t| t.minus_two_ln_l).collect();
+    Ok((per_object, total))
 }

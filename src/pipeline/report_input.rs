@@ -350,7 +350,14 @@ pub(crate) fn write_report_files(
                     ),
                     crate::confront::mass_terms::Systematics::PerObject => String::new(),
                 },
-                match ctx.eopts.radius.model {
+                match ctx.conf.radius_shared {
+                    Some(n) => format!(
+                        "white-dwarf radius: a scale of {} % shared by every white dwarf in the radius test (the structure model itself; a nuisance parameter, {}d), taken out of each object's floor in quadrature, so that one object's total is the floor below; ",
+                        100.0 * n.sigma,
+                        n.method.name()
+                    ),
+                    None => String::new(),
+                } + &match ctx.eopts.radius.model {
                     crate::confront::wd_radius::WdRadiusModel::Cold => format!(
                         "white-dwarf radius {} % per object (choices, docs/bounds.md §4 and docs/structure.md §4.6)",
                         100.0 * ctx.eopts.radius.cold_floor_fraction
