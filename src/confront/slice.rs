@@ -152,6 +152,9 @@ struct Row<'a> {
     j0: usize,
 }
 
+/// (object index, its −2 ln L along the fine axis) per white dwarf with a radius term.
+type PerObjectFine = Vec<(usize, Vec<f64>)>;
+
 /// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
 /// and the whole radius term there (shared systematic eliminated).
 ///
@@ -170,7 +173,7 @@ fn radius_terms_on_fine_axis(
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     fine: &[f64],
-) -> Result<(Vec<(usize, Vec<f64>)>, Vec<f64>), StatsError> {
+) -> Result<(PerObjectFine, Vec<f64>), StatsError> {
     let nu = conf.n_upsilon;
     let axis = row.axis;
     // fine_radii[k]: the cold radii of every object's nodes, object after object, at fine point k.
