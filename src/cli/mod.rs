@@ -279,8 +279,9 @@ pub struct ConfrontArgs {
     /// MMHB, `LO:HI` in M☉ (e.g. 0.04:0.11); for catalogues crowded near the limit.
     #[arg(long, value_name = "LO:HI")]
     pub population_window: Option<String>,
-    /// Theory floors of the bounds: `shared` (one shift per bound, a nuisance parameter;
-    /// default) or `per-object` (an independent error per object, as in earlier versions).
+    /// Theory floors of the bounds: `shared` (one shift per bound, and one 2.5 % scale on every
+    /// white-dwarf radius, each a nuisance parameter; default) or `per-object` (an independent
+    /// error per object, as in earlier versions).
     #[arg(long, value_enum, default_value_t = FloorArg::Shared, value_name = "MODE")]
     pub floor: FloorArg,
     /// How a shared shift is eliminated: `profile` (default) or `marginalise`.

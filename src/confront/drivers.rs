@@ -251,8 +251,11 @@ pub fn slice_drivers(
 
 /// Leave-one-out shifts of the Υ interval at τ = 0 (at `opts.level`) from removing each white
 /// dwarf's radius term: (object index, shift), +∞ when an end opens or closes; objects that
-/// do not move it are left out. Exact, since the likelihood is a sum: the slice without the
-/// object is the slice minus its own term on the fine axis.
+/// do not move it are left out. With per-object radius floors this is exact, since the
+/// likelihood is a sum: the slice without the object is the slice minus its own term on the
+/// fine axis. With the shared radius scale the object's term is taken at the scale fitted with
+/// every object, not re-fitted without it, so the shift is approximate (a single object rarely
+/// moves a scale that all of them share).
 pub fn radius_drivers(
     s: &SliceResult,
     opts: &DriverOptions,
@@ -308,7 +311,8 @@ pub struct SliceDriver {
 /// all objects and is not re-estimated without the one removed). Candidates are the objects
 /// whose −2 ln P at δ̂ exceeds `opts.candidate_min_minus_two_ln_p` at one of the two fine points
 /// where the shifted bound B + δ̂(B) is extreme (ln P is monotone in the shifted bound).
-/// White-dwarf radius terms are taken out exactly ([`radius_drivers`]).
+/// White-dwarf radius terms are taken out as [`radius_drivers`] does (exact with per-object
+/// floors).
 pub fn slice_drivers_in_fit(
     conf: &Confrontation,
     s: &SliceResult,

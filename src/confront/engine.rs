@@ -200,6 +200,9 @@ pub struct Confrontation {
     pub population: Option<PopulationTerm>,
     /// The radius tests, prepared (nodes and standard model per object).
     pub radius_objects: Vec<ObjectRadius>,
+    /// The radius systematic shared by every white dwarf in the radius test, as a nuisance
+    /// parameter (`None` with per-object floors).
+    pub radius_shared: Option<super::nuisance::SharedNuisance>,
     /// The mass terms actually in the likelihood, one per bound (MMHB, Chandrasekhar mass)
     /// that some object faces. `curves` above are the plain per-object-floor class curves,
     /// kept for counts and per-object tensions.
@@ -582,20 +585,16 @@ pub fn confront(
             })
             .collect();
         let ups = surface.upsilon();
+        let shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
         per_term[Term::WhiteDwarfRadius.index()] = (0..n)
             .into_par_iter()
             .map(|i| {
                 chandra[i]?;
                 let radii = surface.wd_radii_rsun(i, &queries);
                 let upsilon = ups[i % nu];
-                let mut sum = 0.0;
-                let mut at = 0;
-                for r in &radius_objects {
-                    let cold = &radii[at..at + r.nodes.len()];
-                    at += r.nodes.len();
-                    sum += -2.0 * r.ln_likelihood(cold, upsilon);
-                }
-                Some(sum)
+                let term =
+                    wd_radius::radius_term(&radius_objects, &radii, upsilon, shared.as_ref());
+                Some(term.minus_two_ln_l)
             })
             .collect();
     }
@@ -628,6 +627,7 @@ pub fn confront(
         curves,
         population,
         radius_objects,
+        radius_shared: wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms),
         bounds,
         spins,
     })
@@ -652,6 +652,14 @@ pub fn prepare_radius_objects(
             .core
             .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun));
         let nodes = radius_mass_nodes(o);
+        // The part of the floor common to every white dwarf (the structure model itself) is
+        // one shared scale; what is left is the object's own (docs/white-dwarfs.md §13.1).
+        let shared =
+            wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms).map_or(0.0, |n| n.sigma);
+        let (floor_fraction, shared_fraction) = wd_radius::split_floor(
+            wd_radius::floor_fraction(&opts.radius, core, o.teff_k),
+            shared,
+        );
         for &(m, _) in &nodes {
             queries.push(WdQuery {
                 mass_msun: m,
@@ -667,7 +675,8 @@ pub fn prepare_radius_objects(
             radius_err_rsun: e,
             nodes,
             standard: Vec::new(),
-            floor_fraction: wd_radius::floor_fraction(&opts.radius, core, o.teff_k),
+            floor_fraction,
+            shared_fraction,
             teff_err_k: o.teff_err_k.unwrap_or(0.0),
             at_nominal: None,
             mass_sigma_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {

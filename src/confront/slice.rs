@@ -42,6 +42,7 @@ use super::mass_terms::{BoundTerm, Systematics};
 use super::prob::{Measurement, StatsError};
 use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
+use super::wd_radius::{radius_term, RadiusTerm};
 
 /// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis (the
 /// paper's statistics section: 10).
@@ -56,8 +57,12 @@ pub struct SliceResult {
     /// Per mass term (in the order of the confrontation's curves): its bound along the fine
     /// axis, M☉ (class value, μe = 2 for white dwarfs).
     pub bounds_fine: Vec<(Term, Vec<f64>)>,
-    /// Per white dwarf with a radius term: (object index, its −2 ln L along the fine axis).
+    /// Per white dwarf with a radius term: (object index, its −2 ln L along the fine axis; with
+    /// a shared radius systematic, at the shared scale profiled at each fine point).
     pub radius_fine: Vec<(usize, Vec<f64>)>,
+    /// The radius terms' −2 ln L of all objects together along the fine axis (with a shared
+    /// radius systematic not the sum of `radius_fine`: the scale is eliminated jointly).
+    pub radius_total_fine: Vec<f64>,
     /// The spin term's −2 ln L along the fine axis (zero without spin tests).
     pub spin_fine: Vec<f64>,
 }
@@ -115,7 +120,7 @@ pub fn tau0_slice(
         first: a,
         j0,
     };
-    let radius_fine = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
+    let (radius_fine, radius_total) = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
     // The spin term is smooth in Υ (its floor is 5 % of the period): linear along the row.
     let spin_coarse: Vec<f64> = (0..axis.len())
         .map(|i| conf.per_term[Term::Spin as usize][j0 * conf.n_upsilon + a + i].unwrap_or(0.0))
@@ -145,7 +150,7 @@ pub fn tau0_slice(
                 at(|t| matches!(t, Term::HBurning | Term::BrownDwarf)),
                 at(|t| t == Term::WhiteDwarfMass),
             );
-            s + radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>() + spin_fine[k]
+            s + radius_total.get(k).copied().unwrap_or(0.0) + spin_fine[k]
         })
         .collect();
     let slice = regions::slice_from_values(fine, chi2_fine)?;
@@ -157,6 +162,7 @@ pub fn tau0_slice(
         slice,
         bounds_fine,
         radius_fine,
+        radius_total_fine: radius_total,
         spin_fine,
     }))
 }
@@ -169,7 +175,11 @@ struct Row<'a> {
     j0: usize,
 }
 
-/// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values).
+/// (object index, its −2 ln L along the fine axis) per white dwarf with a radius term.
+type PerObjectFine = Vec<(usize, Vec<f64>)>;
+
+/// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
+/// and the whole radius term there (shared systematic eliminated).
 ///
 /// The term is sharply curved in Υ (radii are measured to a few per cent), so interpolating it
 /// between coarse grid points would overstate Δχ² between them and make the interval depend on
@@ -177,13 +187,16 @@ struct Row<'a> {
 /// (not-a-knot cubic along the coarse axis, per quadrature mass node) and the likelihood is
 /// evaluated exactly at every fine point. Where a node's radius is missing at a coarse point
 /// (mass above the maximum), the neighbouring interval falls back to linear interpolation or
-/// to "no model".
+/// to "no model". With a shared radius systematic, each object's values are its term at the
+/// profiled shared scale of that fine point; the whole term (second value) adds the prior or
+/// the marginalisation, so taking one object's values out of the slice holds the shared scale
+/// at its fitted value (exact with per-object floors).
 fn radius_terms_on_fine_axis(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     fine: &[f64],
-) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
+) -> Result<(PerObjectFine, Vec<f64>), StatsError> {
     let nu = conf.n_upsilon;
     let axis = row.axis;
     // One batched lookup per coarse point for every object's nodes (a point's table is
@@ -200,51 +213,57 @@ fn radius_terms_on_fine_axis(
         .into_par_iter()
         .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &all_queries))
         .collect();
-    // Each object's nodes in `all_queries`; objects in parallel, collected in order.
-    let mut spans = Vec::with_capacity(conf.radius_objects.len());
-    let mut first_node = 0;
-    for r in &conf.radius_objects {
-        spans.push(first_node..first_node + r.nodes.len());
-        first_node += r.nodes.len();
-    }
-    conf.radius_objects
-        .par_iter()
-        .zip(spans)
-        .map(|(r, queries)| {
-            // coarse[i][q]: the structure solver's cold radius of node q at coarse point i.
-            let coarse: Vec<&[Option<f64>]> =
-                coarse_all.iter().map(|c| &c[queries.clone()]).collect();
-            let mut fine_radii: Vec<Vec<Option<f64>>> = vec![vec![None; queries.len()]; fine.len()];
-            for q in 0..queries.len() {
-                let ys: Vec<Option<f64>> = coarse.iter().map(|r| r[q]).collect();
-                let spline = if ys.iter().all(Option::is_some) {
-                    let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
-                    Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
-                } else {
-                    None
-                };
-                for (k, &x) in fine.iter().enumerate() {
-                    fine_radii[k][q] = match &spline {
-                        Some(sp) => Some(sp.eval(x)),
-                        None => {
-                            let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
-                            let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
-                            match (ys[j - 1], ys[j]) {
-                                (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
-                                _ => None,
-                            }
-                        }
-                    };
-                }
-            }
-            let values: Vec<f64> = fine_radii
+    // Per node (object after object, in the order of `all_queries`): its cold radius along the
+    // fine axis, spline-interpolated between coarse points (linear where a point has no model).
+    let per_node: Vec<Vec<Option<f64>>> = (0..all_queries.len())
+        .into_par_iter()
+        .map(|q| {
+            let ys: Vec<Option<f64>> = coarse_all.iter().map(|c| c[q]).collect();
+            let spline = if ys.iter().all(Option::is_some) {
+                let v: Vec<f64> = ys.iter().map(|y| y.unwrap_or(0.0)).collect();
+                Some(CubicSpline::new(axis, &v, SplineEnd::NotAKnot)?)
+            } else {
+                None
+            };
+            Ok(fine
                 .iter()
-                .zip(fine)
-                .map(|(cold, &upsilon)| -2.0 * r.ln_likelihood(cold, upsilon))
-                .collect();
-            Ok((r.index, values))
+                .map(|&x| match &spline {
+                    Some(sp) => Some(sp.eval(x)),
+                    None => {
+                        let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
+                        let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
+                        match (ys[j - 1], ys[j]) {
+                            (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
+                            _ => None,
+                        }
+                    }
+                })
+                .collect())
         })
-        .collect()
+        .collect::<Result<_, StatsError>>()?;
+    // At each fine point the radius term of all objects together (the shared scale, if any, is
+    // eliminated there); fine points in parallel, collected in order.
+    let terms: Vec<RadiusTerm> = fine
+        .par_iter()
+        .enumerate()
+        .map(|(k, &upsilon)| {
+            let cold: Vec<Option<f64>> = per_node.iter().map(|v| v[k]).collect();
+            radius_term(
+                &conf.radius_objects,
+                &cold,
+                upsilon,
+                conf.radius_shared.as_ref(),
+            )
+        })
+        .collect();
+    let per_object = conf
+        .radius_objects
+        .iter()
+        .enumerate()
+        .map(|(j, r)| (r.index, terms.iter().map(|t| t.per_object[j]).collect()))
+        .collect();
+    let total = terms.iter().map(|t| t.minus_two_ln_l).collect();
+    Ok((per_object, total))
 }
 
 /// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
@@ -324,7 +343,7 @@ pub fn tau0_slice_other_floor(
                 mmhb_fine.and_then(|v| v.get(k).copied()),
                 chandra_fine.and_then(|v| v.get(k).copied()),
             );
-            let mut s: f64 = main.radius_fine.iter().map(|(_, v)| v[k]).sum::<f64>()
+            let mut s: f64 = main.radius_total_fine.get(k).copied().unwrap_or(0.0)
                 + main.spin_fine.get(k).copied().unwrap_or(0.0);
             for (bound, t) in &terms {
                 let b = match bound {
@@ -348,6 +367,7 @@ pub fn tau0_slice_other_floor(
             slice,
             bounds_fine: main.bounds_fine.clone(),
             radius_fine: main.radius_fine.clone(),
+            radius_total_fine: main.radius_total_fine.clone(),
             spin_fine: main.spin_fine.clone(),
         },
     ))

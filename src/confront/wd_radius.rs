@@ -23,6 +23,8 @@
 //! assert!((f - (0.055f64.powi(2) + 0.04f64.powi(2)).sqrt()).abs() < 1e-12);
 //! ```
 
+use super::mass_terms::{MassTermOptions, Systematics};
+use super::nuisance::{eliminate_smooth, SharedNuisance};
 use crate::catalogue::{CatalogueObject, CoreLabel, EnvelopeLabel, MassLimit, MassMethod};
 
 /// Which standard-gravity white-dwarf radius the radius test uses.
@@ -85,6 +87,17 @@ pub struct RadiusOptions {
     /// the unknown hydrogen mass cause in low-mass sequences (thick minus thin H is 4–8 % at
     /// 0.3–0.45 M☉ and 10–20 kK in the model itself).
     pub helium_core_fraction: f64,
+    /// Prior 1σ of the radius systematic shared by every white dwarf in the test, as a fraction
+    /// of R (2.5 %): the structure model itself (equation of state, opacities, boundary
+    /// conditions) sits 0.005–0.025 dex in log g off evolutionary sequences in the same
+    /// direction for all objects of similar mass and Teff, so that part is one scale common to
+    /// all, not scatter. With shared systematics (the default) it is taken out of each object's
+    /// floor in quadrature (per object √(floor² − shared²); a single object's total error is
+    /// unchanged, only its correlation with the others) and eliminated as a nuisance parameter;
+    /// with `--floor per-object` every object keeps its whole floor. What remains per object is
+    /// truly individual: the hot ramp and helium-core terms, the hydrogen layer, the Teff error,
+    /// interpolation and anchoring.
+    pub shared_fraction: f64,
     /// White dwarfs lighter than this are extremely-low-mass objects (common practice: below
     /// about 0.3 M☉, usually in tight binaries, often tidally distorted and still burning
     /// hydrogen): outside the model's domain.
@@ -107,6 +120,7 @@ impl Default for RadiusOptions {
             hot_ramp_start_k: 15_000.0,
             hot_ramp_end_k: 60_000.0,
             helium_core_fraction: 0.04,
+            shared_fraction: 0.025,
             elm_max_msun: 0.3,
             include_out_of_domain: false,
             include_model_masses: false,
@@ -208,6 +222,29 @@ pub fn floor_fraction(opts: &RadiusOptions, core: ResolvedCore, teff_k: Option<f
     }
 }
 
+/// The shared radius systematic as a nuisance parameter (σ = [`RadiusOptions::shared_fraction`],
+/// eliminated as the mass bounds' shifts are), or `None` with per-object floors.
+pub fn shared_nuisance(
+    opts: &RadiusOptions,
+    mass_terms: &MassTermOptions,
+) -> Option<SharedNuisance> {
+    (mass_terms.systematics == Systematics::Shared && opts.shared_fraction > 0.0).then_some(
+        SharedNuisance {
+            sigma: opts.shared_fraction,
+            method: mass_terms.method,
+            reach_sigma: mass_terms.reach_sigma,
+        },
+    )
+}
+
+/// Splits an object's total fractional floor into (per-object part, shared part): the shared
+/// part is `shared` (at most the total), the per-object part the rest in quadrature, so that
+/// the two add up to the total.
+pub fn split_floor(total: f64, shared: f64) -> (f64, f64) {
+    let s = shared.clamp(0.0, total);
+    ((total * total - s * s).max(0.0).sqrt(), s)
+}
+
 /// Why a white dwarf with a radius is left out of the radius test (or `None`), with the flag
 /// for `objects.csv`.
 pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<(&'static str, String)> {
@@ -256,8 +293,11 @@ pub struct ObjectRadius {
     pub nodes: Vec<(f64, f64)>,
     /// The standard model at each node (`None`: no model at that mass).
     pub standard: Vec<Option<WdStandard>>,
-    /// Fractional floor of the object.
+    /// Fractional floor of the object: its per-object part (all of it with per-object floors).
     pub floor_fraction: f64,
+    /// Fractional part of the floor shared by every object (0 with per-object floors); enters
+    /// the likelihood through the shared scale (1 + δ), and each tension in quadrature.
+    pub shared_fraction: f64,
     /// 1σ Teff error, K (0 when unknown).
     pub teff_err_k: f64,
     /// The standard model at the nominal mass and its slope dR/dM (R☉ per M☉), for the
@@ -309,7 +349,8 @@ impl ObjectRadius {
 
     /// Signed two-sided tension at a grid point: as [`ObjectRadius::standard_tension`], with the
     /// prediction carried to the point by the ratio of `cold_at_nominal` (the structure solver's
-    /// cold radius at the nominal mass there) to the standard one, and the anchoring error.
+    /// cold radius at the nominal mass there) to the standard one, and the anchoring error. The
+    /// whole floor counts (shared part included): one object alone sees all of it.
     pub fn tension_at(&self, cold_at_nominal: Option<f64>, upsilon: f64) -> Option<f64> {
         let (s, slope) = self.at_nominal?;
         let cold = cold_at_nominal?;
@@ -321,6 +362,7 @@ impl ObjectRadius {
         let teff = s.dln_r_dteff_per_k * self.teff_err_k;
         let anchor = 0.5 * upsilon.abs() * (s.hot_over_cold - 1.0).max(0.0);
         let th2 = (self.floor_fraction.powi(2)
+            + self.shared_fraction.powi(2)
             + s.envelope_fraction.powi(2)
             + teff.powi(2)
             + anchor.powi(2))
@@ -335,18 +377,105 @@ impl ObjectRadius {
     /// Σ_k w_k N(R_obs; R_k, σ_k), σ_k² = σ_R² + σ_th,k², over the nodes with a model.
     /// `cold_at_point[k]` is the structure solver's cold radius at node k at the grid point.
     pub fn ln_likelihood(&self, cold_at_point: &[Option<f64>], upsilon: f64) -> f64 {
+        self.ln_likelihood_scaled(&self.components(cold_at_point, upsilon), 1.0)
+    }
+
+    /// (weight, predicted radius, theory 1σ) at each node with a model, at a grid point.
+    fn components(&self, cold_at_point: &[Option<f64>], upsilon: f64) -> Vec<(f64, f64, f64)> {
+        self.nodes
+            .iter()
+            .zip(cold_at_point)
+            .enumerate()
+            .filter_map(|(k, ((_, w), cold))| {
+                self.predicted(k, *cold, upsilon).map(|(r, th)| (*w, r, th))
+            })
+            .collect()
+    }
+
+    /// ln L with every predicted radius and its theory error scaled by `scale` (= 1 + δ, the
+    /// shared systematic).
+    fn ln_likelihood_scaled(&self, components: &[(f64, f64, f64)], scale: f64) -> f64 {
         let mut total = 0.0;
-        for (k, ((_, w), cold)) in self.nodes.iter().zip(cold_at_point).enumerate() {
-            if let Some((r, th)) = self.predicted(k, *cold, upsilon) {
-                let s2 = self.radius_err_rsun.powi(2) + th * th;
-                let z = (self.radius_rsun - r) / s2.sqrt();
-                total += w * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt();
-            }
+        for &(w, r, th) in components {
+            let (r, th) = (r * scale, th * scale);
+            let s2 = self.radius_err_rsun.powi(2) + th * th;
+            let z = (self.radius_rsun - r) / s2.sqrt();
+            total += w * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI * s2).sqrt();
         }
         if total > 0.0 {
             total.ln().max(LN_L_RADIUS_FLOOR)
         } else {
             LN_L_RADIUS_FLOOR
+        }
+    }
+}
+
+/// The radius term of all objects at one grid point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RadiusTerm {
+    /// −2 ln L of the radius test, the shared systematic eliminated (prior included).
+    pub minus_two_ln_l: f64,
+    /// The profiled shared scale δ̂ (0 with per-object floors).
+    pub delta_hat: f64,
+    /// Each object's −2 ln L at δ̂, in the order of the objects (their sum plus the prior
+    /// (δ̂/σ)², or the marginalisation's remainder, is `minus_two_ln_l`).
+    pub per_object: Vec<f64>,
+}
+
+/// The radius term at one grid point: `cold_at_point` holds the structure solver's cold radius
+/// at every object's mass nodes, object after object (as [`ObjectRadius::ln_likelihood`] takes
+/// them one by one), `upsilon` the point's Υ. With `shared`, every prediction is scaled by one
+/// common factor (1 + δ), δ ~ N(0, σ²), eliminated by [`eliminate_smooth`]; without, the term is
+/// the plain sum over objects.
+pub fn radius_term(
+    objects: &[ObjectRadius],
+    cold_at_point: &[Option<f64>],
+    upsilon: f64,
+    shared: Option<&SharedNuisance>,
+) -> RadiusTerm {
+    let mut at = 0;
+    let components: Vec<Vec<(f64, f64, f64)>> = objects
+        .iter()
+        .map(|r| {
+            let end = (at + r.nodes.len()).min(cold_at_point.len());
+            let c = r.components(&cold_at_point[at.min(end)..end], upsilon);
+            at = end;
+            c
+        })
+        .collect();
+    let per_object = |scale: f64| -> Vec<f64> {
+        objects
+            .iter()
+            .zip(&components)
+            .map(|(r, c)| -2.0 * r.ln_likelihood_scaled(c, scale))
+            .collect()
+    };
+    match shared {
+        None => {
+            let v = per_object(1.0);
+            RadiusTerm {
+                minus_two_ln_l: v.iter().sum(),
+                delta_hat: 0.0,
+                per_object: v,
+            }
+        }
+        Some(n) => {
+            let f = |d: f64| -> f64 {
+                if d <= -1.0 {
+                    return f64::INFINITY;
+                }
+                objects
+                    .iter()
+                    .zip(&components)
+                    .map(|(r, c)| -2.0 * r.ln_likelihood_scaled(c, 1.0 + d))
+                    .sum()
+            };
+            let e = eliminate_smooth(&f, n);
+            RadiusTerm {
+                minus_two_ln_l: e.minus_two_ln_l,
+                delta_hat: e.delta_hat,
+                per_object: per_object(1.0 + e.delta_hat),
+            }
         }
     }
 }
@@ -385,6 +514,53 @@ mod tests {
     }
 
     #[test]
+    fn shared_scale_profiles_in_closed_form() {
+        // One object, exact mass, no theory error: f(δ) = ((a − rδ)/σ_R)² + const with
+        // a = R_obs − r, so the profile is a²/(σ_R² + r²σ²) + const (closed form, as for any
+        // linear Gaussian nuisance).
+        let std = WdStandard {
+            radius_rsun: 0.0125,
+            cold_rsun: 0.0120,
+            hot_over_cold: 1.0,
+            envelope_fraction: 0.0,
+            dln_r_dteff_per_k: 0.0,
+        };
+        let o = ObjectRadius {
+            index: 0,
+            radius_rsun: 0.0130,
+            radius_err_rsun: 0.0001,
+            nodes: vec![(0.6, 1.0)],
+            standard: vec![Some(std)],
+            floor_fraction: 0.0,
+            shared_fraction: 0.025,
+            teff_err_k: 0.0,
+            at_nominal: Some((std, 0.0)),
+            mass_sigma_msun: 0.0,
+        };
+        let cold = [Some(0.0120)];
+        let plain = radius_term(std::slice::from_ref(&o), &cold, 0.0, None);
+        assert!((plain.minus_two_ln_l + 2.0 * o.ln_likelihood(&cold, 0.0)).abs() < 1e-12);
+        let n = SharedNuisance {
+            sigma: 0.025,
+            method: crate::confront::nuisance::NuisanceMethod::Profile,
+            reach_sigma: 6.0,
+        };
+        let shared = radius_term(std::slice::from_ref(&o), &cold, 0.0, Some(&n));
+        let (a, r, e, s) = (0.0130 - 0.0125, 0.0125, 0.0001, 0.025);
+        let norm = (2.0 * std::f64::consts::PI * e * e).ln();
+        let exact = a * a / (e * e + r * r * s * s) + norm;
+        assert!(
+            (shared.minus_two_ln_l - exact).abs() < 1e-8,
+            "{shared:?} vs {exact}"
+        );
+        assert!((shared.delta_hat - a * r * s * s / (e * e + r * r * s * s)).abs() < 1e-6);
+        // The split keeps each object's total floor.
+        let (p, q) = split_floor(0.03, 0.025);
+        assert!((p.hypot(q) - 0.03).abs() < 1e-15);
+        assert_eq!(split_floor(0.02, 0.025), (0.0, 0.02));
+    }
+
+    #[test]
     fn anchored_prediction_and_likelihood() {
         let std = WdStandard {
             radius_rsun: 0.0130,
@@ -400,6 +576,7 @@ mod tests {
             nodes: vec![(0.6, 1.0)],
             standard: vec![Some(std)],
             floor_fraction: 0.02,
+            shared_fraction: 0.0,
             teff_err_k: 0.0,
             at_nominal: Some((std, 0.0)),
             mass_sigma_msun: 0.0,

@@ -19,7 +19,7 @@ use crate::report::{
     DataFigures, MassBounds, MassMark, MassObject, MassPanel, ModelCurve, ProfileTau0,
     WdMassRadius, WdPoint, WdPointFlag,
 };
-use crate::theory::hot_wd::{table::HotWdTable, Core, Envelope};
+use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::outcome::Outcome;
 use crate::theory::white_dwarf::WdMassRadius as ColdTable;
 
@@ -112,16 +112,22 @@ fn model_curves(ctx: &OutputContext<'_>) -> (Vec<ModelCurve>, usize, String) {
         let (he_lo, he_hi) = range(Core::Helium);
         let (co_lo, co_hi) = range(Core::CarbonOxygen);
         for (k, &teff) in CURVE_TEFF_K.iter().enumerate() {
-            let at = |core, m: f64| table.radius_rsun(m, teff, core, Envelope::Thick).ok();
+            // The same standard-gravity radius as the radius test: the table times the
+            // general-relativistic correction of the core (none above its TOV maximum mass).
+            let at = |core, m: f64| {
+                let r = table.radius_rsun(m, teff, core, Envelope::Thick).ok()?;
+                let gr = tov::tov_correction(core).ok()?.ratio(m)?;
+                Some(r.radius_rsun * gr)
+            };
             let mut all = runs(
                 masses(he_lo, he_hi.min(HELIUM_BELOW_MSUN))
                     .into_iter()
-                    .map(|m| (m, at(Core::Helium, m).map(|r| r.radius_rsun))),
+                    .map(|m| (m, at(Core::Helium, m))),
             );
             all.extend(runs(
                 masses(co_lo.max(HELIUM_BELOW_MSUN), co_hi)
                     .into_iter()
-                    .map(|m| (m, at(Core::CarbonOxygen, m).map(|r| r.radius_rsun))),
+                    .map(|m| (m, at(Core::CarbonOxygen, m))),
             ));
             push(teff_label(teff), k, all);
         }

@@ -563,7 +563,14 @@ pub(crate) fn write_report_files(
                     ),
                     crate::confront::mass_terms::Systematics::PerObject => String::new(),
                 },
-                match ctx.eopts.radius.model {
+                match ctx.conf.radius_shared {
+                    Some(n) => format!(
+                        "white-dwarf radius: a scale of {} % shared by every white dwarf in the radius test (the structure model itself; a nuisance parameter, {}d), taken out of each object's floor in quadrature, so that one object's total is the floor below; ",
+                        100.0 * n.sigma,
+                        n.method.name()
+                    ),
+                    None => String::new(),
+                } + &match ctx.eopts.radius.model {
                     crate::confront::wd_radius::WdRadiusModel::Cold => format!(
                         "white-dwarf radius {} % per object (choices, docs/bounds.md §4 and docs/structure.md §4.6)",
                         100.0 * ctx.eopts.radius.cold_floor_fraction
@@ -584,7 +591,7 @@ pub(crate) fn write_report_files(
                     t.chandrasekhar_mode.name()
                 ),
                 crate::confront::wd_radius::WdRadiusModel::Hot => format!(
-                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(ϒ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice term, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, times the ratio R_cold(M; ϒ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation, Newtonian structure (docs/white-dwarfs.md)",
+                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(ϒ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice term, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, with the general-relativistic correction R_TOV/R_Newton of the same cold matter at standard gravity (−0.05 % at 0.6 M☉, −0.27 % at 1.0 M☉, −2.8 % at 1.3 M☉ for C/O; objects above the core's TOV maximum mass, 1.3816 M☉ for C/O, are outside the model), times the ratio R_cold(M; ϒ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point, so that the modified theory enters at Newtonian order (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation (docs/white-dwarfs.md)",
                     t.chandrasekhar_mode.name()
                 ),
             },

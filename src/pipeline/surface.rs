@@ -20,7 +20,7 @@ use crate::confront::engine::BoundSurface;
 use crate::confront::tension::ReferencePoint;
 use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandard};
 use crate::theory::grid::{self, TheoryGrid};
-use crate::theory::hot_wd::{table::HotWdTable, Core, Envelope};
+use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
 use crate::theory::white_dwarf::WdMassRadius;
 
@@ -103,6 +103,21 @@ impl<'a> GridSurface<'a> {
     }
 }
 
+impl GridSurface<'_> {
+    /// The general-relativistic correction R_TOV/R_Newton of the query's core at its mass (cold
+    /// Salpeter matter, standard gravity; tabulated once per core), or `None` at or above the
+    /// core's TOV maximum mass: the standard-gravity edge of the radius model. The modified
+    /// theory still enters only through the Newtonian-order ratio R_c(M; Υ, τ)/R_c(M; 0, 0).
+    fn tov_factor(q: &WdQuery) -> Option<f64> {
+        let core = match q.core {
+            ResolvedCore::Helium => Core::Helium,
+            ResolvedCore::CarbonOxygen => Core::CarbonOxygen,
+            ResolvedCore::OxygenNeon => Core::OxygenNeon,
+        };
+        tov::tov_correction(core).ok()?.ratio(q.mass_msun)
+    }
+}
+
 impl BoundSurface for GridSurface<'_> {
     fn upsilon(&self) -> &[f64] {
         &self.upsilon
@@ -157,8 +172,9 @@ impl BoundSurface for GridSurface<'_> {
                         // The finite-temperature table is for μe = 2 compositions; another μe
                         // scales it as the zero-temperature model does.
                         let cold_mu2 = c[1]?;
+                        let gr = Self::tov_factor(q)?;
                         Self::hot_standard(table, q, cold_rsun).map(|mut s| {
-                            s.radius_rsun *= cold_rsun / cold_mu2;
+                            s.radius_rsun *= gr * cold_rsun / cold_mu2;
                             s
                         })
                     }

@@ -11,7 +11,8 @@
 //!
 //! Submodules: [`eos`] (matter), [`opacity`] (transport), [`cold`] (T = 0 with the lattice
 //! term, and its general-relativistic (TOV) counterpart at standard gravity), [`shoot`] (the hot
-//! solve), [`table`] (the precomputed R_hot and R_cold at Υ = 0).
+//! solve), [`table`] (the precomputed R_hot and R_cold at Υ = 0), [`tov`] (the TOV/Newtonian
+//! radius ratio and maximum mass per core, tabulated once).
 //!
 //! ```
 //! use dwarfbound::theory::hot_wd::{Core, Envelope};
@@ -26,6 +27,7 @@ pub mod eos;
 pub mod opacity;
 pub mod shoot;
 pub mod table;
+pub mod tov;
 
 use std::str::FromStr;
 

@@ -645,6 +645,30 @@ mod tests {
     }
 
     #[test]
+    fn helium_core_at_60_kk_and_negative_upsilon_has_a_model() {
+        // The independent integration (docs/white-dwarfs.md §8) reported "no model (D → 0)" for
+        // 0.3 M☉ He, thick H, 60 kK, Υ = −0.1. Here the solve succeeds: the central mismatch
+        // changes sign between accepted trial radii, Brent converges to 1e-9 R_cold, and the
+        // integration at the root completes with D > 1e-9 everywhere (otherwise it returns an
+        // error). The solution lies on a smooth branch in Υ: R(Υ) at −0.09, −0.10, −0.11 is
+        // monotone with a second difference far below the first.
+        use rayon::prelude::*;
+        let ups = [-0.09, -0.10, -0.11];
+        let r: Vec<f64> = ups
+            .par_iter()
+            .map(|&u| radius(0.3, 60e3, Core::Helium, Envelope::Thick, u))
+            .collect();
+        assert!((r[1] / 0.045909 - 1.0).abs() < 1e-4, "{}", r[1]);
+        assert!(r[0] > r[1] && r[1] > r[2], "{r:?}");
+        let (d1, d2) = (r[0] - r[2], r[0] - 2.0 * r[1] + r[2]);
+        assert!(d2.abs() < 0.1 * d1.abs(), "{r:?}");
+        // Continuous with standard gravity: R(−0.1)/R(0) = 0.9034, against 1/1.1168 = 0.895 for
+        // the Υ = +0.1 response of the same star (§8 table).
+        let r0 = 0.050817;
+        assert!((r[1] / r0 - 0.9034).abs() < 1e-3, "{}", r[1] / r0);
+    }
+
+    #[test]
     fn no_model_is_typed() {
         // Spec §7.2: 0.2 M☉ thick H at 60 kK has no model (F never changes sign).
         let e = hot_radius_rsun(0.2, 60e3, Core::Helium, Envelope::Thick, 0.0).unwrap_err();
