@@ -15,7 +15,7 @@ use std::collections::BTreeMap;
 use serde_json::{json, Value};
 
 use super::error::PipelineError;
-use super::settings::ConfrontSettings;
+use super::settings::{ConfrontSettings, ObjectsFormat};
 use super::surface::GridSurface;
 use crate::catalogue::{CatalogueObject, Vetted};
 use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
@@ -25,6 +25,52 @@ use crate::confront::tension::{ObjectVerdict, Tension};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
+
+/// Columns of the per-object table (`objects.csv` / `objects.parquet`).
+pub(crate) const OBJECTS_COLUMNS: [&str; 22] = [
+    "id",
+    "class",
+    "source_file",
+    "source_row",
+    "mass",
+    "mass_err_lo",
+    "mass_err_hi",
+    "mass_limit",
+    "radius",
+    "radius_err",
+    "age",
+    "mu_e",
+    "in_fit",
+    "flags",
+    "bound_standard",
+    "bound_best",
+    "sigma_standard",
+    "sigma_best",
+    "radius_sigma_standard",
+    "driver_rank",
+    "driver_shift",
+    "driver_end_opens_or_closes",
+];
+
+/// The Parquet type of each column of [`OBJECTS_COLUMNS`].
+#[derive(Debug, Clone, Copy)]
+enum ColumnKind {
+    Text,
+    Int,
+    Float,
+    Bool,
+}
+
+const OBJECTS_KINDS: [ColumnKind; 22] = {
+    use ColumnKind::{Bool, Float, Int, Text};
+    [
+        Text, Text, Text, Int, Float, Float, Float, Text, Float, Float, Float, Float, Bool, Text,
+        Float, Float, Float, Float, Float, Int, Float, Bool,
+    ]
+};
+
+/// Rows per Parquet row group: what the writer holds in memory at once.
+const PARQUET_ROW_GROUP: usize = 65_536;
 
 /// Everything the output writers need, borrowed from one confrontation.
 pub(crate) struct OutputContext<'a> {
@@ -99,76 +145,167 @@ impl OutputContext<'_> {
         &self.vetted.objects[k]
     }
 
-    /// `objects.csv`: one row per accepted object.
-    pub(crate) fn objects_csv(&self) -> Result<Vec<u8>, PipelineError> {
-        let header = [
-            "id",
-            "class",
-            "source_file",
-            "source_row",
-            "mass",
-            "mass_err_lo",
-            "mass_err_hi",
-            "mass_limit",
-            "radius",
-            "radius_err",
-            "age",
-            "mu_e",
-            "in_fit",
-            "flags",
-            "bound_standard",
-            "bound_best",
-            "sigma_standard",
-            "sigma_best",
-            "radius_sigma_standard",
-            "driver_rank",
-            "driver_shift",
-            "driver_end_opens_or_closes",
-        ];
-        let mut driver_of: Vec<Option<(usize, f64)>> = vec![None; self.verdicts.len()];
-        for (rank, k, shift) in self.drivers_sorted() {
-            driver_of[k] = Some((rank, shift));
+    /// One row of the per-object table (columns [`OBJECTS_COLUMNS`]).
+    fn object_row(&self, k: usize, driver: Option<(usize, f64)>) -> [Cell; 22] {
+        let r = &self.verdicts[k];
+        let driver_rank = driver.map(|d| d.0);
+        let driver_shift = driver.map(|d| d.1);
+        let o = self.object(k);
+        let u = &self.conf.uses[k];
+        [
+            Cell::Text(o.id.clone()),
+            Cell::Text(o.class.label().into()),
+            Cell::Text(o.source_file.clone()),
+            Cell::Int(o.source_row as i64),
+            Cell::Float(Some(o.mass_msun)),
+            Cell::Float(o.mass_err_lo_msun),
+            Cell::Float(o.mass_err_hi_msun),
+            Cell::Text(o.mass_limit.label().into()),
+            Cell::Float(o.radius_rsun),
+            Cell::Float(o.radius_err_rsun),
+            Cell::Float(o.age_gyr),
+            Cell::Float(Some(u.mu_e)),
+            Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
+            Cell::Text(u.flags.join(";")),
+            Cell::Float(r.bound_standard),
+            Cell::Float(r.bound_best),
+            Cell::Float(r.sigma_standard),
+            Cell::Float(r.sigma_best),
+            Cell::Float(r.radius_sigma_standard),
+            match driver_rank {
+                Some(x) => Cell::Int(x as i64),
+                None => Cell::Text(String::new()),
+            },
+            Cell::Float(driver_shift.filter(|s| s.is_finite())),
+            Cell::Bool(driver_shift.map(|s| s.is_infinite())),
+        ]
+    }
+
+    /// The driver rank and shift of each object (most have none).
+    fn drivers_by_object(&self) -> std::collections::HashMap<usize, (usize, f64)> {
+        self.drivers_sorted()
+            .into_iter()
+            .map(|(rank, k, shift)| (k, (rank, shift)))
+            .collect()
+    }
+
+    /// Writes the per-object table, one row per accepted object, in `format`, row by row (CSV)
+    /// or row group by row group (Parquet): the table is never held whole in memory.
+    pub(crate) fn write_objects(
+        &self,
+        out: &mut impl std::io::Write,
+        format: ObjectsFormat,
+    ) -> Result<(), PipelineError> {
+        let bar = crate::progress::bar(
+            self.verdicts.len() as u64,
+            match format {
+                ObjectsFormat::Csv => "writing objects.csv",
+                ObjectsFormat::Parquet => "writing objects.parquet",
+            },
+            false,
+        );
+        let written = match format {
+            ObjectsFormat::Csv => self.write_objects_csv(out, &bar),
+            ObjectsFormat::Parquet => self.write_objects_parquet(out, &bar),
+        };
+        bar.finish_and_clear();
+        written
+    }
+
+    fn write_objects_csv(
+        &self,
+        out: &mut impl std::io::Write,
+        bar: &indicatif::ProgressBar,
+    ) -> Result<(), PipelineError> {
+        let fail = |e: csv::Error| PipelineError::Internal(format!("writing objects.csv: {e}"));
+        let mut w = csv::WriterBuilder::new()
+            .terminator(csv::Terminator::Any(b'\n'))
+            .from_writer(out);
+        w.write_record(OBJECTS_COLUMNS).map_err(fail)?;
+        let drivers = self.drivers_by_object();
+        for k in 0..self.verdicts.len() {
+            let row = self.object_row(k, drivers.get(&k).copied());
+            w.write_record(row.iter().map(Cell::render)).map_err(fail)?;
+            if k % 65_536 == 0 {
+                bar.set_position(k as u64);
+            }
         }
-        let rows: Vec<Vec<Cell>> = self
-            .verdicts
+        w.flush()
+            .map_err(|e| PipelineError::Internal(format!("writing objects.csv: {e}")))
+    }
+
+    fn write_objects_parquet(
+        &self,
+        out: &mut impl std::io::Write,
+        bar: &indicatif::ProgressBar,
+    ) -> Result<(), PipelineError> {
+        use polars::prelude::{
+            Column, DataFrame, DataType, Field, ParquetWriter, PlSmallStr, Schema,
+        };
+        let fail = |e: polars::error::PolarsError| {
+            PipelineError::Internal(format!("writing objects.parquet: {e}"))
+        };
+        let dtype = |kind: ColumnKind| match kind {
+            ColumnKind::Text => DataType::String,
+            ColumnKind::Int => DataType::Int64,
+            ColumnKind::Float => DataType::Float64,
+            ColumnKind::Bool => DataType::Boolean,
+        };
+        let schema: Schema = OBJECTS_COLUMNS
             .iter()
-            .enumerate()
-            .map(|(k, r)| {
-                let driver_rank = driver_of[k].map(|d| d.0);
-                let driver_shift = driver_of[k].map(|d| d.1);
-                let o = self.object(k);
-                let u = &self.conf.uses[k];
-                vec![
-                    Cell::Text(o.id.clone()),
-                    Cell::Text(o.class.label().into()),
-                    Cell::Text(o.source_file.clone()),
-                    Cell::Int(o.source_row as i64),
-                    Cell::Float(Some(o.mass_msun)),
-                    Cell::Float(o.mass_err_lo_msun),
-                    Cell::Float(o.mass_err_hi_msun),
-                    Cell::Text(o.mass_limit.label().into()),
-                    Cell::Float(o.radius_rsun),
-                    Cell::Float(o.radius_err_rsun),
-                    Cell::Float(o.age_gyr),
-                    Cell::Float(Some(u.mu_e)),
-                    Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
-                    Cell::Text(u.flags.join(";")),
-                    Cell::Float(r.bound_standard),
-                    Cell::Float(r.bound_best),
-                    Cell::Float(r.sigma_standard),
-                    Cell::Float(r.sigma_best),
-                    Cell::Float(r.radius_sigma_standard),
-                    match driver_rank {
-                        Some(x) => Cell::Int(x as i64),
-                        None => Cell::Text(String::new()),
-                    },
-                    Cell::Float(driver_shift.filter(|s| s.is_finite())),
-                    Cell::Bool(driver_shift.map(|s| s.is_infinite())),
-                ]
-            })
+            .zip(OBJECTS_KINDS)
+            .map(|(name, kind)| Field::new(PlSmallStr::from(*name), dtype(kind)))
             .collect();
-        report::tables::csv_bytes(&header, &rows)
-            .map_err(|e| PipelineError::Internal(e.to_string()))
+        let mut writer = ParquetWriter::new(out).batched(&schema).map_err(fail)?;
+        let drivers = self.drivers_by_object();
+        let n = self.verdicts.len();
+        let mut start = 0;
+        while start < n || (n == 0 && start == 0) {
+            let end = (start + PARQUET_ROW_GROUP).min(n);
+            let mut text: Vec<Vec<Option<String>>> = vec![Vec::new(); OBJECTS_COLUMNS.len()];
+            let mut int: Vec<Vec<Option<i64>>> = vec![Vec::new(); OBJECTS_COLUMNS.len()];
+            let mut float: Vec<Vec<Option<f64>>> = vec![Vec::new(); OBJECTS_COLUMNS.len()];
+            let mut boolean: Vec<Vec<Option<bool>>> = vec![Vec::new(); OBJECTS_COLUMNS.len()];
+            for k in start..end {
+                let row = self.object_row(k, drivers.get(&k).copied());
+                for (c, cell) in row.into_iter().enumerate() {
+                    match (OBJECTS_KINDS[c], cell) {
+                        (ColumnKind::Text, Cell::Text(t)) => text[c].push(Some(t)),
+                        (ColumnKind::Int, Cell::Int(i)) => int[c].push(Some(i)),
+                        (ColumnKind::Int, _) => int[c].push(None),
+                        (ColumnKind::Float, Cell::Float(x)) => {
+                            float[c].push(x.filter(|v| v.is_finite()))
+                        }
+                        (ColumnKind::Bool, Cell::Bool(b)) => boolean[c].push(b),
+                        (kind, cell) => {
+                            return Err(PipelineError::Internal(format!(
+                                "objects.parquet: column {} is {kind:?}, got {cell:?}",
+                                OBJECTS_COLUMNS[c]
+                            )))
+                        }
+                    }
+                }
+            }
+            let columns: Vec<Column> = OBJECTS_COLUMNS
+                .iter()
+                .enumerate()
+                .map(|(c, name)| {
+                    let name = PlSmallStr::from(*name);
+                    match OBJECTS_KINDS[c] {
+                        ColumnKind::Text => Column::new(name, std::mem::take(&mut text[c])),
+                        ColumnKind::Int => Column::new(name, std::mem::take(&mut int[c])),
+                        ColumnKind::Float => Column::new(name, std::mem::take(&mut float[c])),
+                        ColumnKind::Bool => Column::new(name, std::mem::take(&mut boolean[c])),
+                    }
+                })
+                .collect();
+            let df = DataFrame::new(end - start, columns).map_err(fail)?;
+            writer.write_batch(&df).map_err(fail)?;
+            bar.set_position(end as u64);
+            start = end.max(start + 1);
+        }
+        writer.finish().map_err(fail)?;
+        Ok(())
     }
 
     /// `grid.csv`: one row per grid point.
