@@ -355,7 +355,7 @@ fn parse_from(
     let mut data = Vec::new();
     let mut ends = Vec::new();
     let missing = vec![CellRef::Missing; ncols];
-    let mut row_number = 0;
+    let mut row_number: usize = 0;
     loop {
         line.clear();
         let n = input.read_until(b'\n', &mut line).map_err(unreadable)?;
@@ -368,7 +368,7 @@ fn parse_from(
             continue;
         }
         row_number += 1;
-        if row_number % 65_536 == 0 {
+        if row_number.is_multiple_of(65_536) {
             sink.progress(consumed);
         }
         if !split_into(&line, &mut data, &mut ends) {

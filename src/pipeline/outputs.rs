@@ -226,7 +226,7 @@ impl OutputContext<'_> {
         for k in 0..self.verdicts.len() {
             let row = self.object_row(k, drivers.get(&k).copied());
             w.write_record(row.iter().map(Cell::render)).map_err(fail)?;
-            if k % 65_536 == 0 {
+            if k.is_multiple_of(65_536) {
                 bar.set_position(k as u64);
             }
         }

@@ -58,7 +58,7 @@ fn thin_panel(objects: &mut Vec<MassObject>, tension_sigma: f64) -> Option<Strin
             return true;
         }
         k += 1;
-        (k - 1) % step == 0
+        (k - 1).is_multiple_of(step)
     });
     Some(format!(
         " — {} of {n} objects drawn (all in tension, every {step}th of the others; objects.csv lists all)",
