@@ -5,8 +5,8 @@ Reads the file once untimed (file cache warm, as for dwarfbound) and then times 
 time.perf_counter, excluding the interpreter's and polars' import. CSV is read with every
 column as text (the benchmark catalogues hold deliberately bad cells, which a typed read would
 refuse; dwarfbound vets the same raw text); Parquet as stored. Prints
-`RESULT <key> <value>` lines: read_s and the process's peak resident memory peak_mb
-(interpreter and polars included).
+`RESULT <key> <value>` lines: read_s (wall), cpu_s (user + system time of the read, all
+threads) and the process's peak resident memory peak_mb (interpreter and polars included).
 
     pip install polars
     python3 tools/bench_polars_read.py FILE.csv|FILE.parquet
@@ -28,12 +28,14 @@ def read(path: str):
 def main() -> None:
     path = sys.argv[1]
     read(path)
-    t0 = time.perf_counter()
+    cpu = lambda: sum(resource.getrusage(resource.RUSAGE_SELF)[:2])
+    c0, t0 = cpu(), time.perf_counter()
     df = read(path)
-    t1 = time.perf_counter()
+    t1, c1 = time.perf_counter(), cpu()
     assert df.height > 0
     peak_kb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
     print(f"RESULT read_s {t1 - t0:.6f}")
+    print(f"RESULT cpu_s {c1 - c0:.6f}")
     print(f"RESULT peak_mb {peak_kb / 1024:.1f}")
     print(f"RESULT rows {df.height}")
 
