@@ -1,8 +1,11 @@
 #!/usr/bin/env bash
-# Benchmark of the theory engine against scipy on the same equations.
+# Benchmark of the theory engine against scipy on the same equations, and of the catalogue path
+# (vet, confront) against a bare polars read of the same file.
 #
-#   benches/run.sh            # 201 × 201 grids
-#   benches/run.sh 101        # smaller grids
+#   benches/run.sh              # both parts, 201 × 201 grids
+#   benches/run.sh 101          # both parts, smaller grids
+#   benches/run.sh theory [N]   # the theory part only
+#   benches/run.sh catalogue    # the catalogue part only (see the end of this script)
 #
 # Runs examples/bench.rs in the dev profile (our crate is compiled at opt-level 3 there; the
 # release profile would rebuild every dependency at full optimisation) and
@@ -11,7 +14,13 @@
 # vary; both sides run in the same invocation so that the ratio sees the same load.
 set -euo pipefail
 cd "$(dirname "$0")/.."
+PART=all
+case "${1:-}" in
+    theory | catalogue) PART=$1; shift ;;
+esac
 N="${1:-201}"
+
+if [ "$PART" != catalogue ]; then
 
 if ! python3 -c 'import scipy, numpy' 2>/dev/null; then
     echo "installing scipy and numpy for the reference (pip)" >&2
@@ -63,4 +72,137 @@ for key in sorted(k for k in r if "interp_err" in k):
     print(f"  {key}: {r[key]:.2e}")
 if "wd_table_err" in r:
     print(f"  white-dwarf table R(M) vs direct solves: {r['wd_table_err']:.2e}")
+PY
+fi
+
+if [ "$PART" = theory ]; then
+    exit 0
+fi
+
+# ---- Catalogue rows ---------------------------------------------------------------------------
+# Invented catalogues of 10^4, 10^5 and 10^6 objects (tools/make_scale_catalogue.py, seeded;
+# 4 columns id,class,mass,mass_err; CSV and Parquet), kept in target/bench-catalogue/ between
+# runs. For each: `vet`, `confront` with a cached 201 × 201 grid, and a bare polars read of the
+# same file (tools/bench_polars_read.py; installs polars if missing); for 10^6 also `confront`
+# on a single grid point. Wall time and peak resident memory come from /usr/bin/time -v.
+# DWARFBOUND_BIN=path runs another build (e.g. an older version, for before/after numbers).
+# Prints the ratios of the acceptance criteria and writes target/bench-catalogue.json.
+echo
+echo "== catalogue rows =="
+if ! python3 -c 'import polars' 2>/dev/null; then
+    echo "installing polars for the reference read (pip)" >&2
+    python3 -m pip install --quiet polars
+fi
+if [ -n "${DWARFBOUND_BIN:-}" ]; then
+    BIN=$DWARFBOUND_BIN
+else
+    export CARGO_TARGET_DIR="${CARGO_TARGET_DIR:-$HOME/.cache/dwarfbound/target}"
+    cargo build --quiet
+    BIN="$CARGO_TARGET_DIR/debug/dwarfbound"
+fi
+data=target/bench-catalogue
+mkdir -p "$data"
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+results="$work/results.txt"
+: >"$results"
+
+measure() { # measure KEY COMMAND...: wall seconds and peak MB of one run, appended to $results
+    local key=$1
+    shift
+    /usr/bin/time -v -o "$work/time.txt" "$@" >"$work/out.txt" 2>"$work/err.txt" || {
+        echo "FAILED: $*" >&2
+        cat "$work/err.txt" >&2
+        exit 1
+    }
+    python3 - "$key" "$work/time.txt" >>"$results" <<'PY'
+import sys
+key, text = sys.argv[1], open(sys.argv[2]).read()
+wall = peak = None
+cpu = 0.0
+for line in text.splitlines():
+    line = line.strip()
+    if line.startswith("User time (seconds)") or line.startswith("System time (seconds)"):
+        cpu += float(line.rsplit(" ", 1)[1])
+    elif line.startswith("Elapsed (wall clock) time"):
+        parts = [float(x) for x in line.rsplit(" ", 1)[1].split(":")]
+        wall = sum(v * 60 ** (len(parts) - 1 - i) for i, v in enumerate(parts))
+    elif line.startswith("Maximum resident set size"):
+        peak = int(line.rsplit(" ", 1)[1]) / 1024
+print(f"{key}_s {wall}")
+print(f"{key}_peak_mb {peak}")
+print(f"{key}_cpu_s {cpu}")
+PY
+    echo "  $key: $(tail -n 3 "$results" | awk '{print $2}' | paste -sd' ' | awk '{printf "%.2f s wall, %.0f MB, %.2f s CPU", $1, $2, $3}')"
+}
+
+GRID=(--upsilon=-0.3:0.6:201 --tau=-0.3:0.3:201)
+cache="$work/cache"
+for n in 10000 100000 1000000; do
+    csv="$data/scale_$n.csv"
+    pq="$data/scale_$n.parquet"
+    if [ ! -s "$csv" ] || [ ! -s "$pq" ]; then
+        python3 tools/make_scale_catalogue.py --n "$n" --out "$csv" --parquet "$pq"
+    fi
+    echo "file_mb_$n $(python3 -c "import os,sys; print(os.path.getsize(sys.argv[1]) / 2**20)" "$csv")" >>"$results"
+    python3 tools/bench_polars_read.py "$csv" | sed -n "s/^RESULT \(read_s\|peak_mb\|cpu_s\) /polars_csv_${n}_\1 /p" >>"$results"
+    python3 tools/bench_polars_read.py "$pq" | sed -n "s/^RESULT \(read_s\|peak_mb\|cpu_s\) /polars_parquet_${n}_\1 /p" >>"$results"
+    if [ "$n" = 10000 ]; then
+        # Fill the theory cache once; the timed confrontations below reuse the 201 × 201 grid.
+        "$BIN" confront "$csv" "${GRID[@]}" --cache "$cache" --out "$work/warm" >/dev/null
+    fi
+    measure "vet_csv_$n" "$BIN" vet "$csv" --out "$work/vet"
+    measure "vet_parquet_$n" "$BIN" vet "$pq" --out "$work/vet"
+    measure "confront_csv_$n" "$BIN" confront "$csv" "${GRID[@]}" --cache "$cache" --out "$work/c"
+done
+measure confront_csv_1000000_single_point "$BIN" confront "$data/scale_1000000.csv" \
+    --upsilon=0 --tau=0 --out "$work/c1"
+measure confront_parquet_1000000 "$BIN" confront "$data/scale_1000000.parquet" "${GRID[@]}" \
+    --cache "$cache" --out "$work/c"
+
+python3 - "$results" "$(git rev-parse --short HEAD 2>/dev/null || echo unknown)" "$(nproc)" "${BENCH_JSON:-target/bench-catalogue.json}" <<'PY'
+import json, sys
+r = {}
+for line in open(sys.argv[1]):
+    key, value = line.split()
+    r[key] = None if value == "None" else float(value)
+polars = lambda n: r[f"polars_csv_{n}_read_s"]
+rows = [
+    ("confront 10^6 / polars read", r["confront_csv_1000000_s"] / polars(1000000), "<= 10"),
+    ("confront growth 10^5 -> 10^6", r["confront_csv_1000000_s"] / r["confront_csv_100000_s"], "<= 10.5"),
+    ("confront 10^6 peak / file size", r["confront_csv_1000000_peak_mb"] / r["file_mb_1000000"], "<= 6"),
+    ("vet 10^6 / polars read", r["vet_csv_1000000_s"] / polars(1000000), "<= 3"),
+    ("vet 10^6 peak / file size", r["vet_csv_1000000_peak_mb"] / r["file_mb_1000000"], "-"),
+    # CPU time (user + system) as well: on a machine shared with other work the wall-clock
+    # ratios move with the load, the CPU ratios much less.
+    ("confront 10^6 / polars read, CPU", r["confront_csv_1000000_cpu_s"] / r["polars_csv_1000000_cpu_s"], "-"),
+    ("vet 10^6 / polars read, CPU", r["vet_csv_1000000_cpu_s"] / r["polars_csv_1000000_cpu_s"], "-"),
+]
+print()
+print(f"== catalogue ratios ({sys.argv[3]} cores, commit {sys.argv[2]}; wall clock unless CPU) ==")
+for what, value, target in rows:
+    print(f"  {what:34s} {value:8.2f}   (target {target})")
+print()
+print(f"  {'':26s} {'10^4':>15s} {'10^5':>15s} {'10^6':>15s}")
+for label, t_key, m_key in [
+    ("polars read csv", "polars_csv_{}_read_s", "polars_csv_{}_peak_mb"),
+    ("polars read parquet", "polars_parquet_{}_read_s", "polars_parquet_{}_peak_mb"),
+    ("vet csv", "vet_csv_{}_s", "vet_csv_{}_peak_mb"),
+    ("vet parquet", "vet_parquet_{}_s", "vet_parquet_{}_peak_mb"),
+    ("confront csv, 201^2 cached", "confront_csv_{}_s", "confront_csv_{}_peak_mb"),
+]:
+    cells = []
+    for n in (10000, 100000, 1000000):
+        t, m = r.get(t_key.format(n)), r.get(m_key.format(n))
+        cells.append(f"{t:6.2f}s {m:5.0f}MB" if t is not None and m is not None else "-")
+    print(f"  {label:26s} " + " ".join(f"{c:>15s}" for c in cells))
+print(f"  confront csv 10^6, single grid point: {r['confront_csv_1000000_single_point_s']:.2f} s, "
+      f"{r['confront_csv_1000000_single_point_peak_mb']:.0f} MB")
+print(f"  confront parquet 10^6, 201^2 cached: {r['confront_parquet_1000000_s']:.2f} s, "
+      f"{r['confront_parquet_1000000_peak_mb']:.0f} MB")
+out = {"commit": sys.argv[2], "cores": int(sys.argv[3]), "results": r,
+       "ratios": {what: value for what, value, _ in rows}}
+with open(sys.argv[4], "w") as f:
+    json.dump(out, f, indent=2, sort_keys=True)
+print(f"wrote {sys.argv[4]}")
 PY

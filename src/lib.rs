@@ -24,5 +24,6 @@ pub mod confront;
 pub mod constants;
 pub mod output;
 pub mod pipeline;
+pub mod progress;
 pub mod report;
 pub mod theory;

@@ -38,40 +38,132 @@ impl OutputError {
 /// Writes `bytes` to `path` atomically (temporary file in the same folder, fsync, rename).
 /// Creates the parent folder if needed.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), OutputError> {
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    std::fs::create_dir_all(&dir).map_err(|e| OutputError::new(&dir, e))?;
-    // A temporary name of our own in the same folder (so the rename is atomic), created with
-    // the default permissions: the user's umask applies, as for any other file they write.
-    static COUNTER: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().to_string())
-        .unwrap_or_else(|| "output".into());
-    let (mut file, tmp) = loop {
-        let n = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-        let tmp = dir.join(format!(".{name}.{}.{n}.tmp", std::process::id()));
-        match std::fs::OpenOptions::new()
-            .write(true)
-            .create_new(true)
-            .open(&tmp)
-        {
-            Ok(f) => break (f, tmp),
-            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
-            Err(e) => return Err(OutputError::new(&dir, e)),
+    let mut file = AtomicFile::create(path)?;
+    file.write_all(bytes)
+        .map_err(|e| OutputError::new(path, e))?;
+    file.commit()
+}
+
+/// A file written atomically in pieces, for outputs too large to hold in memory (`objects.csv`
+/// of a million objects): the writes go to a buffered temporary file in the same folder, and
+/// [`AtomicFile::commit`] flushes it to disk and renames it into place, as [`write_atomic`]
+/// does. Dropped without a commit, the temporary file is removed and the old file stays.
+///
+/// ```
+/// use std::io::Write;
+/// let dir = tempfile::tempdir().unwrap();
+/// let path = dir.path().join("big.csv");
+/// let mut f = dwarfbound::output::AtomicFile::create(&path).unwrap();
+/// for k in 0..3 {
+///     writeln!(f, "{k}").unwrap();
+/// }
+/// assert!(!path.exists());
+/// f.commit().unwrap();
+/// assert_eq!(std::fs::read_to_string(&path).unwrap(), "0\n1\n2\n");
+/// ```
+pub struct AtomicFile {
+    path: PathBuf,
+    tmp: PathBuf,
+    file: Option<std::io::BufWriter<std::fs::File>>,
+}
+
+impl AtomicFile {
+    /// Creates the temporary file beside `path` (and the parent folder if needed).
+    pub fn create(path: &Path) -> Result<Self, OutputError> {
+        let dir = match path.parent() {
+            Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
+        std::fs::create_dir_all(&dir).map_err(|e| OutputError::new(&dir, e))?;
+        // A temporary name of our own in the same folder (so the rename is atomic), created
+        // with the default permissions: the user's umask applies, as for any other file.
+        static COUNTER: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+        let name = path
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_else(|| "output".into());
+        loop {
+            let n = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+            let tmp = dir.join(format!(".{name}.{}.{n}.tmp", std::process::id()));
+            match std::fs::OpenOptions::new()
+                .write(true)
+                .create_new(true)
+                .open(&tmp)
+            {
+                Ok(f) => {
+                    return Ok(Self {
+                        path: path.to_path_buf(),
+                        tmp,
+                        file: Some(std::io::BufWriter::with_capacity(1 << 16, f)),
+                    })
+                }
+                Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
+                Err(e) => return Err(OutputError::new(&dir, e)),
+            }
         }
-    };
-    let written = file
-        .write_all(bytes)
-        .and_then(|_| file.sync_all())
-        .and_then(|_| std::fs::rename(&tmp, path));
-    if let Err(e) = written {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(OutputError::new(path, e));
     }
-    Ok(())
+
+    /// The final path.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    /// Everything written so far, read back from the temporary file (a nightly run compares
+    /// its objects with the previous run's before the files are published).
+    pub fn read_back(&mut self) -> Result<Vec<u8>, OutputError> {
+        if let Some(f) = self.file.as_mut() {
+            f.flush().map_err(|e| OutputError::new(&self.path, e))?;
+        }
+        std::fs::read(&self.tmp).map_err(|e| OutputError::new(&self.path, e))
+    }
+
+    /// Flushes, syncs and renames the file into place.
+    pub fn commit(mut self) -> Result<(), OutputError> {
+        let Some(w) = self.file.take() else {
+            return Ok(());
+        };
+        let written = w
+            .into_inner()
+            .map_err(|e| e.into_error())
+            .and_then(|f| f.sync_all())
+            .and_then(|_| std::fs::rename(&self.tmp, &self.path));
+        if let Err(e) = written {
+            let _ = std::fs::remove_file(&self.tmp);
+            return Err(OutputError::new(&self.path, e));
+        }
+        Ok(())
+    }
+}
+
+impl Write for AtomicFile {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        match self.file.as_mut() {
+            Some(f) => f.write(buf),
+            None => Err(std::io::Error::other("file already committed")),
+        }
+    }
+
+    fn write_all(&mut self, buf: &[u8]) -> std::io::Result<()> {
+        match self.file.as_mut() {
+            Some(f) => f.write_all(buf),
+            None => Err(std::io::Error::other("file already committed")),
+        }
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        match self.file.as_mut() {
+            Some(f) => f.flush(),
+            None => Ok(()),
+        }
+    }
+}
+
+impl Drop for AtomicFile {
+    fn drop(&mut self) {
+        if self.file.take().is_some() {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+    }
 }
 
 /// Formats a float so that it round-trips exactly (Rust's shortest representation), or an empty

@@ -44,16 +44,23 @@ pub const QUARANTINE_COLUMNS: [&str; 5] = ["file", "row", "id", "column", "reaso
 
 /// `accepted.csv` as bytes.
 pub fn accepted_csv(objects: &[CatalogueObject]) -> Result<Vec<u8>, csv::Error> {
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut bytes = Vec::new();
+    write_accepted(&mut bytes, objects)?;
+    Ok(bytes)
+}
+
+/// Writes `accepted.csv` row by row into `out` (a large catalogue's is never held in memory).
+pub fn write_accepted(
+    out: &mut impl std::io::Write,
+    objects: &[CatalogueObject],
+) -> Result<(), csv::Error> {
+    let mut w = csv::Writer::from_writer(out);
     w.write_record(ACCEPTED_COLUMNS)?;
-    for o in objects {
-        w.write_record([
-            o.id.clone(),
-            o.class.label().to_string(),
+    let row = |o: &CatalogueObject| {
+        [
             fmt_f64(Some(o.mass_msun)),
             fmt_f64(o.mass_err_lo_msun),
             fmt_f64(o.mass_err_hi_msun),
-            o.mass_limit.label().to_string(),
             fmt_f64(o.radius_rsun),
             fmt_f64(o.radius_err_rsun),
             fmt_f64(o.age_gyr),
@@ -62,16 +69,39 @@ pub fn accepted_csv(objects: &[CatalogueObject]) -> Result<Vec<u8>, csv::Error> 
             fmt_f64(o.mu_e),
             fmt_f64(o.teff_k),
             fmt_f64(o.teff_err_k),
-            o.core.map_or("", |c| c.label()).to_string(),
-            o.envelope.map_or("", |e| e.label()).to_string(),
             fmt_f64(o.radius_model_rsun),
-            o.mass_method.label().to_string(),
-            o.reference.clone().unwrap_or_default(),
-            o.source_file.clone(),
             o.source_row.to_string(),
+        ]
+    };
+    for o in objects {
+        let [mass, lo, hi, radius, radius_err, age, age_err, period, mu_e, teff, teff_err, radius_model, source_row] =
+            row(o);
+        w.write_record([
+            o.id.as_str(),
+            o.class.label(),
+            &mass,
+            &lo,
+            &hi,
+            o.mass_limit.label(),
+            &radius,
+            &radius_err,
+            &age,
+            &age_err,
+            &period,
+            &mu_e,
+            &teff,
+            &teff_err,
+            o.core.map_or("", |c| c.label()),
+            o.envelope.map_or("", |e| e.label()),
+            &radius_model,
+            o.mass_method.label(),
+            o.reference.as_deref().unwrap_or_default(),
+            &o.source_file,
+            &source_row,
         ])?;
     }
-    w.into_inner().map_err(|e| e.into_error().into())
+    w.flush()?;
+    Ok(())
 }
 
 /// `quarantine.csv` as bytes.

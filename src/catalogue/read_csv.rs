@@ -11,6 +11,10 @@
 //! polars: vetting needs every cell's raw text and every row, and a quoting error must stay
 //! inside its line (the `csv` crate lets an open quote run to the end of the file).
 //!
+//! The parser hands each row to a [`RowSink`] as borrowed cells of its reused line buffers, so
+//! reading allocates nothing per cell: [`vet_streaming`] vets rows as they are read (the large-
+//! catalogue path), [`read`] collects them into a [`RawTable`] like every other reader.
+//!
 //! ```text
 //! # Invented data for a fictional survey.
 //! id,class,mass[jupiterMass],mass_err[jupiterMass]
@@ -20,8 +24,10 @@
 use std::io::BufRead;
 use std::path::Path;
 
+use super::colmap::ColumnMap;
 use super::error::CatalogueError;
-use super::table::{Cell, ColumnMeta, RawRow, RawTable};
+use super::table::{Cell, CellRef, ColumnMeta, RawRow, RawTable};
+use super::vet::{CatalogueObject, CatalogueTally, QuarantinedRow, RowVetter};
 
 /// Splits `mass[jupiterMass]` into (`mass`, `Some("jupiterMass")`); the unit runs from the first
 /// `[` to the last `]`, so that `mass[[solMass]]` carries the CDS log unit `[solMass]`.
@@ -43,36 +49,157 @@ fn split_header(cell: &str) -> ColumnMeta {
     }
 }
 
-/// Reads a CSV file, streaming it: only the parsed table is held in memory.
+/// Where the parser sends the header and each data row.
+trait RowSink {
+    /// The columns of the header line.
+    fn header(&mut self, columns: Vec<ColumnMeta>) -> Result<(), CatalogueError>;
+    /// One data row (cells padded or cut to the header's width), with the reader's reason when
+    /// it could only partly parse it.
+    fn row(&mut self, row_number: usize, cells: &[CellRef<'_>], malformed: Option<&str>);
+    /// Bytes consumed so far (progress display).
+    fn progress(&mut self, _bytes: u64) {}
+}
+
+/// Collects rows into a [`RawTable`].
+#[derive(Default)]
+struct TableSink {
+    table: RawTable,
+}
+
+impl RowSink for TableSink {
+    fn header(&mut self, columns: Vec<ColumnMeta>) -> Result<(), CatalogueError> {
+        self.table.columns = columns;
+        Ok(())
+    }
+
+    fn row(&mut self, row_number: usize, cells: &[CellRef<'_>], malformed: Option<&str>) {
+        if let Some(why) = malformed {
+            self.table.malformed.push((row_number, why.to_string()));
+        }
+        self.table.rows.push(RawRow {
+            row_number,
+            cells: cells
+                .iter()
+                .map(|c| match *c {
+                    CellRef::Missing => Cell::Missing,
+                    CellRef::Number(v) => Cell::Number(v),
+                    CellRef::Text(t) => Cell::Text(t.to_string()),
+                })
+                .collect(),
+        });
+    }
+}
+
+/// Vets rows as they are read.
+struct VetSink<'m> {
+    label: &'m str,
+    map: Option<&'m ColumnMap>,
+    vetter: Option<RowVetter<'m>>,
+    bar: indicatif::ProgressBar,
+}
+
+impl RowSink for VetSink<'_> {
+    fn header(&mut self, columns: Vec<ColumnMeta>) -> Result<(), CatalogueError> {
+        self.vetter = Some(RowVetter::new(self.label, &columns, self.map)?);
+        Ok(())
+    }
+
+    fn row(&mut self, row_number: usize, cells: &[CellRef<'_>], malformed: Option<&str>) {
+        if let Some(v) = self.vetter.as_mut() {
+            v.push(row_number, cells, malformed);
+        }
+    }
+
+    fn progress(&mut self, bytes: u64) {
+        self.bar.set_position(bytes);
+    }
+}
+
+/// Reads a CSV file into a [`RawTable`].
 pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
+    let mut sink = TableSink::default();
+    parse_from(path, open(path)?, &mut sink)?;
+    Ok(sink.table)
+}
+
+/// Reads and vets a CSV file in one pass, without building a table of cells: memory holds the
+/// accepted objects, the quarantined rows and the ids, not the file. Gives exactly what
+/// [`read`] followed by [`vet_table`](super::vet::vet_table) gives.
+pub fn vet_streaming(
+    path: &Path,
+    label: &str,
+    map: Option<&ColumnMap>,
+) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
+    let len = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
+    let mut sink = VetSink {
+        label,
+        map,
+        vetter: None,
+        bar: crate::progress::bar(len, "reading catalogue", true),
+    };
+    parse_from(path, open(path)?, &mut sink)?;
+    sink.bar.finish_and_clear();
+    match sink.vetter {
+        Some(v) => v.finish(),
+        None => Err(CatalogueError::Invalid {
+            path: path.to_path_buf(),
+            format: "csv",
+            reason: "no header line".into(),
+        }),
+    }
+}
+
+fn open(path: &Path) -> Result<std::io::BufReader<std::fs::File>, CatalogueError> {
     let file = std::fs::File::open(path).map_err(|e| CatalogueError::Unreadable {
         path: path.to_path_buf(),
         reason: e.to_string(),
     })?;
-    parse_from(path, std::io::BufReader::new(file))
+    Ok(std::io::BufReader::with_capacity(1 << 20, file))
 }
 
 /// Parses CSV bytes held in memory (tests).
 #[cfg(test)]
 fn parse(path: &Path, bytes: &[u8]) -> Result<RawTable, CatalogueError> {
-    parse_from(path, bytes)
+    let mut sink = TableSink::default();
+    parse_from(path, bytes, &mut sink)?;
+    Ok(sink.table)
 }
 
 /// Splits one physical line into fields (RFC 4180 quoting within the line: a field that starts
 /// with `"` runs to its closing `"`, with `""` for a quote inside). `None` when a quote is
 /// unbalanced or stray (a quote inside an unquoted field, or text after a closing quote).
 fn split_line(line: &[u8]) -> Option<Vec<Vec<u8>>> {
-    let mut fields = Vec::new();
-    let mut field = Vec::new();
+    let mut data = Vec::new();
+    let mut ends = Vec::new();
+    if !split_into(line, &mut data, &mut ends) {
+        return None;
+    }
+    let mut start = 0;
+    Some(
+        ends.iter()
+            .map(|&e| {
+                let f = data[start..e].to_vec();
+                start = e;
+                f
+            })
+            .collect(),
+    )
+}
+
+/// [`split_line`] into reused buffers: the fields' bytes (quotes resolved) one after another in
+/// `data`, the end of each in `ends`. `false` when a quote is unbalanced or stray.
+fn split_into(line: &[u8], data: &mut Vec<u8>, ends: &mut Vec<usize>) -> bool {
+    data.clear();
+    ends.clear();
     let mut i = 0;
     loop {
         if line.get(i) == Some(&b'"') {
             i += 1;
             loop {
                 match line.get(i) {
-                    None => return None,
+                    None => return false,
                     Some(b'"') if line.get(i + 1) == Some(&b'"') => {
-                        field.push(b'"');
+                        data.push(b'"');
                         i += 2;
                     }
                     Some(b'"') => {
@@ -80,30 +207,51 @@ fn split_line(line: &[u8]) -> Option<Vec<Vec<u8>>> {
                         break;
                     }
                     Some(&c) => {
-                        field.push(c);
+                        data.push(c);
                         i += 1;
                     }
                 }
             }
             match line.get(i) {
                 None | Some(b',') => {}
-                Some(_) => return None,
+                Some(_) => return false,
             }
         } else {
-            while let Some(&c) = line.get(i) {
-                match c {
-                    b',' => break,
-                    b'"' => return None,
-                    _ => field.push(c),
-                }
-                i += 1;
+            let rest = &line[i.min(line.len())..];
+            let n = rest
+                .iter()
+                .position(|&c| c == b',' || c == b'"')
+                .unwrap_or(rest.len());
+            if rest.get(n) == Some(&b'"') {
+                return false;
             }
+            data.extend_from_slice(&rest[..n]);
+            i += n;
         }
-        fields.push(std::mem::take(&mut field));
+        ends.push(data.len());
         if i >= line.len() {
-            return Some(fields);
+            return true;
         }
         i += 1; // the comma
+    }
+}
+
+/// The first `ncols` fields of a row split by [`split_into`].
+fn fields<'b>(data: &'b [u8], ends: &'b [usize], ncols: usize) -> impl Iterator<Item = &'b [u8]> {
+    let mut start = 0;
+    ends.iter().take(ncols).map(move |&e| {
+        let f = &data[start..e];
+        start = e;
+        f
+    })
+}
+
+/// A text cell, or missing when empty.
+fn text_cell(t: &str) -> CellRef<'_> {
+    if t.is_empty() {
+        CellRef::Missing
+    } else {
+        CellRef::Text(t)
     }
 }
 
@@ -147,7 +295,11 @@ fn diagnose_header(header: &[u8], fields: usize) -> Option<String> {
 /// Parses CSV from a buffered reader, one physical line per row: a row whose quotes do not
 /// balance is quarantined with its row number and reading resumes at the next line, so one
 /// stray quote never swallows the rest of the file (quoted fields cannot span lines).
-fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, CatalogueError> {
+fn parse_from(
+    path: &Path,
+    mut input: impl BufRead,
+    sink: &mut dyn RowSink,
+) -> Result<(), CatalogueError> {
     let invalid = |reason: String| CatalogueError::Invalid {
         path: path.to_path_buf(),
         format: "csv",
@@ -159,12 +311,14 @@ fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, Catalogu
     };
     // Skip comment and blank lines before the header.
     let mut first = true;
+    let mut consumed: u64 = 0;
     let mut header_line = Vec::new();
     loop {
         header_line.clear();
         let n = input
             .read_until(b'\n', &mut header_line)
             .map_err(unreadable)?;
+        consumed += n as u64;
         if n == 0 {
             return Err(invalid(
                 "no header line (the file is empty or only comments)".into(),
@@ -196,60 +350,65 @@ fn parse_from(path: &Path, mut input: impl BufRead) -> Result<RawTable, Catalogu
         columns.push(split_header(h));
     }
     let ncols = columns.len();
-    let mut table = RawTable {
-        columns,
-        ..RawTable::default()
-    };
+    sink.header(columns)?;
     let mut line = Vec::new();
-    let mut row_number = 0;
+    let mut data = Vec::new();
+    let mut ends = Vec::new();
+    let missing = vec![CellRef::Missing; ncols];
+    let mut row_number: usize = 0;
     loop {
         line.clear();
-        if input.read_until(b'\n', &mut line).map_err(unreadable)? == 0 {
+        let n = input.read_until(b'\n', &mut line).map_err(unreadable)?;
+        if n == 0 {
             break;
         }
+        consumed += n as u64;
         trim_line_end(&mut line);
         if line.is_empty() {
             continue;
         }
         row_number += 1;
-        let Some(fields) = split_line(&line) else {
-            table.malformed.push((
+        if row_number.is_multiple_of(65_536) {
+            sink.progress(consumed);
+        }
+        if !split_into(&line, &mut data, &mut ends) {
+            sink.row(
                 row_number,
-                "unbalanced or stray quote (the row is skipped; reading resumes at the next line)"
-                    .to_string(),
-            ));
-            table.rows.push(RawRow {
-                row_number,
-                cells: vec![Cell::Missing; ncols],
-            });
+                &missing,
+                Some("unbalanced or stray quote (the row is skipped; reading resumes at the next line)"),
+            );
             continue;
-        };
-        let mut problem: Option<String> = None;
-        if fields.len() != ncols {
-            problem = Some(format!("expected {ncols} fields, found {}", fields.len()));
         }
-        let mut cells = Vec::with_capacity(ncols);
-        for field in fields.into_iter().take(ncols) {
-            let text = match String::from_utf8(field) {
-                Ok(t) => t,
-                Err(e) => {
-                    problem.get_or_insert_with(|| "not valid UTF-8".to_string());
-                    String::from_utf8_lossy(e.as_bytes()).into_owned()
+        let count_problem =
+            (ends.len() != ncols).then(|| format!("expected {ncols} fields, found {}", ends.len()));
+        // One small vector per row: the cells borrow this row's buffer.
+        let mut cells: Vec<CellRef<'_>> = Vec::with_capacity(ncols);
+        let mut utf8 = true;
+        for f in fields(&data, &ends, ncols) {
+            match std::str::from_utf8(f) {
+                Ok(t) => cells.push(text_cell(t)),
+                Err(_) => {
+                    utf8 = false;
+                    break;
                 }
-            };
-            cells.push(if text.is_empty() {
-                Cell::Missing
-            } else {
-                Cell::Text(text)
-            });
+            }
         }
-        cells.resize(ncols, Cell::Missing);
-        if let Some(p) = problem {
-            table.malformed.push((row_number, p));
+        if utf8 {
+            cells.resize(ncols, CellRef::Missing);
+            sink.row(row_number, &cells, count_problem.as_deref());
+        } else {
+            // Rare: the text is kept as read, lossily, and the row flagged.
+            let owned: Vec<String> = fields(&data, &ends, ncols)
+                .map(|f| String::from_utf8_lossy(f).into_owned())
+                .collect();
+            let mut lossy: Vec<CellRef<'_>> = owned.iter().map(|t| text_cell(t)).collect();
+            lossy.resize(ncols, CellRef::Missing);
+            let problem = count_problem.as_deref().unwrap_or("not valid UTF-8");
+            sink.row(row_number, &lossy, Some(problem));
         }
-        table.rows.push(RawRow { row_number, cells });
     }
-    Ok(table)
+    sink.progress(consumed);
+    Ok(())
 }
 
 #[cfg(test)]
@@ -294,6 +453,48 @@ mod tests {
         assert_eq!(t.columns[1].unit.as_deref(), Some("[solMass]"));
         assert_eq!(t.columns[2].unit.as_deref(), Some("log10(solMass)"));
         assert!(t.rows.is_empty());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+        /// Vetting while reading gives what reading the table and then vetting it gives, on
+        /// arbitrary bodies under a valid header: accepted objects, quarantined rows (reasons,
+        /// order) and the tally (the two paths must not be told apart).
+        #[test]
+        fn streaming_vet_equals_table_vet(body in proptest::collection::vec(
+            proptest::sample::select(vec![
+                "A", "a", "B", "\u{200b}", "e\u{301}", "\u{e9}", ",", "\"", "\n", " ", "0.05",
+                "0.6", "nan", "x", "hburning", "brown_dwarf", "white_dwarf", "\u{ff}", "1e9",
+            ]), 0..120)) {
+            let text = format!("id,class,mass,mass_err\n{}", body.concat());
+            let dir = tempfile::tempdir().unwrap();
+            let path = dir.path().join("s.csv");
+            std::fs::write(&path, &text).unwrap();
+            let table = read(&path).unwrap();
+            let expected = super::super::vet::vet_table("s.csv", &table, None).unwrap();
+            let got = vet_streaming(&path, "s.csv", None).unwrap();
+            proptest::prop_assert_eq!(got, expected);
+        }
+    }
+
+    #[test]
+    fn a_lookalike_after_an_accepted_row_quarantines_both() {
+        // The single pass accepts the first spelling before it sees the second (issue 13's
+        // lookalike rule: both rows are quarantined, in row order).
+        let text = "id,class,mass,mass_err\nGl 1,hburning,0.3,0.01\nX,hburning,0.3,0.01\nGl\u{200b} 1,hburning,0.3,0.01\nGl 1,hburning,0.3,0.01\n";
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("l.csv");
+        std::fs::write(&path, text).unwrap();
+        let (objects, q, tally) = vet_streaming(&path, "l.csv", None).unwrap();
+        assert_eq!(objects.len(), 1);
+        assert_eq!(objects[0].id, "X");
+        let rows: Vec<(usize, &str)> = q.iter().map(|q| (q.row, q.reason.as_str())).collect();
+        let why = super::super::vet::reason::LOOKALIKE_ID;
+        assert_eq!(rows, vec![(1, why), (3, why), (4, why)]);
+        assert_eq!(
+            (tally.rows_in, tally.rows_accepted, tally.rows_quarantined),
+            (4, 1, 3)
+        );
     }
 
     proptest::proptest! {

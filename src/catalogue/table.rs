@@ -21,6 +21,30 @@ pub enum Cell {
     Text(String),
 }
 
+/// A borrowed view of one cell, as vetting reads it: the streaming CSV path hands vetting slices
+/// of its line buffer, so no cell is allocated; a [`RawTable`] row is viewed through
+/// [`Cell::as_ref`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum CellRef<'a> {
+    /// See [`Cell::Missing`].
+    Missing,
+    /// See [`Cell::Number`].
+    Number(f64),
+    /// See [`Cell::Text`] (untrimmed).
+    Text(&'a str),
+}
+
+impl Cell {
+    /// The borrowed view of this cell.
+    pub fn as_ref(&self) -> CellRef<'_> {
+        match self {
+            Cell::Missing => CellRef::Missing,
+            Cell::Number(v) => CellRef::Number(*v),
+            Cell::Text(s) => CellRef::Text(s),
+        }
+    }
+}
+
 /// A column's name and the metadata the file itself gives for it.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct ColumnMeta {

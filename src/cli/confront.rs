@@ -3,8 +3,8 @@
 use super::{CliError, ConfrontArgs, Exit};
 use crate::pipeline::cache::Cache;
 use crate::pipeline::confront::{
-    run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings, PipelineError,
-    StatisticsSettings, TheorySource,
+    run_confrontation, CatalogueInput, ConfrontOutcome, ConfrontSettings, ObjectsFormat,
+    PipelineError, StatisticsSettings, TheorySource,
 };
 use crate::pipeline::defaults::{DEFAULT_TAU, DEFAULT_UPSILON};
 use crate::pipeline::history::{now_unix_s, utc_stamp};
@@ -149,6 +149,10 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
         tau: args.theory.tau.unwrap_or(DEFAULT_TAU),
         theory,
         statistics,
+        objects_format: match args.objects_format {
+            super::ObjectsFormatArg::Csv => ObjectsFormat::Csv,
+            super::ObjectsFormatArg::Parquet => ObjectsFormat::Parquet,
+        },
     };
     let cache = args.cache.as_deref().map(Cache::new);
     let (generated_at, _) = utc_stamp(now_unix_s());

@@ -291,6 +291,19 @@ pub struct ConfrontArgs {
     /// bound), `product` or `calibrated`.
     #[arg(long, value_enum, default_value_t = LikelihoodArg::Auto, value_name = "MODEL")]
     pub likelihood: LikelihoodArg,
+    /// Format of the per-object table: `csv` (objects.csv, the default) or `parquet`
+    /// (objects.parquet, typed and compressed; for catalogues of millions of objects).
+    #[arg(long, value_enum, default_value_t = ObjectsFormatArg::Csv, value_name = "FORMAT")]
+    pub objects_format: ObjectsFormatArg,
+}
+
+/// `--objects-format` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum ObjectsFormatArg {
+    /// objects.csv
+    Csv,
+    /// objects.parquet
+    Parquet,
 }
 
 /// Arguments of `run`.

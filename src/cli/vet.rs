@@ -10,11 +10,11 @@
 //! ```
 
 use super::{CliError, Exit, ReadArgs, VetArgs};
-use crate::catalogue::export::{accepted_csv, quarantine_csv};
+use crate::catalogue::export::{quarantine_csv, write_accepted};
 use crate::catalogue::summary::VetSummary;
 use crate::catalogue::table::ReadOptions;
 use crate::catalogue::{vet_files, CatalogueError, ColumnMap};
-use crate::output::write_atomic;
+use crate::output::{write_atomic, AtomicFile};
 
 impl From<CatalogueError> for CliError {
     fn from(e: CatalogueError) -> Self {
@@ -59,13 +59,15 @@ pub fn run(args: VetArgs) -> Result<Exit, CliError> {
     let tensions =
         crate::pipeline::confront::standard_gravity_tensions(&vetted.objects, TENSION_SIGMA)?;
 
-    let accepted = accepted_csv(&vetted.objects)
-        .map_err(|e| CliError::internal(format!("formatting accepted.csv: {e}")))?;
     let quarantined = quarantine_csv(&vetted.quarantine)
         .map_err(|e| CliError::internal(format!("formatting quarantine.csv: {e}")))?;
     let accepted_path = args.out.join("accepted.csv");
     let quarantine_path = args.out.join("quarantine.csv");
-    write_atomic(&accepted_path, &accepted)?;
+    // Streamed into its temporary file, then renamed into place like every output.
+    let mut accepted = AtomicFile::create(&accepted_path)?;
+    write_accepted(&mut accepted, &vetted.objects)
+        .map_err(|e| CliError::internal(format!("writing accepted.csv: {e}")))?;
+    accepted.commit()?;
     write_atomic(&quarantine_path, &quarantined)?;
 
     let summary = VetSummary::from_vetted(&vetted);

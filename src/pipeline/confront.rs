@@ -24,6 +24,7 @@
 //!     tau: Axis { start: -0.1, stop: 0.1, count: 9 },
 //!     theory: TheorySettings::default(),
 //!     statistics: StatisticsSettings::default(),
+//!     objects_format: Default::default(),
 //! };
 //! let outcome = run_confrontation(
 //!     &settings,
@@ -54,13 +55,13 @@ use crate::confront::slice::{tau0_slice, tau0_slice_other_floor};
 use crate::confront::tension::{
     consistency_at_best, crowding_at, mass_tensions, object_verdicts, tensions_above, TensionTest,
 };
-use crate::output::{write_atomic, OutputError};
+use crate::output::{write_atomic, AtomicFile, OutputError};
 use crate::theory::grid::{self, GridIdentity, GridOptions, Shard, TheoryGrid};
 use crate::theory::point::{standard_point, PointBounds, TheorySettings};
 use crate::theory::Axis;
 
 pub use super::error::PipelineError;
-pub use super::settings::{CatalogueInput, ConfrontSettings, StatisticsSettings};
+pub use super::settings::{CatalogueInput, ConfrontSettings, ObjectsFormat, StatisticsSettings};
 
 /// What a confrontation found, for the caller's summary line and exit code.
 #[derive(Debug, Clone)]
@@ -95,8 +96,8 @@ pub fn vet_all(inputs: &[CatalogueInput]) -> Result<Vetted, PipelineError> {
             table: c.table.clone(),
         };
         let v = vet_files(std::slice::from_ref(&c.path), map.as_ref(), &opts)?;
-        all.objects.extend(v.objects);
-        all.quarantine.extend(v.quarantine);
+        crate::catalogue::vet::append(&mut all.objects, v.objects);
+        crate::catalogue::vet::append(&mut all.quarantine, v.quarantine);
         all.tallies.extend(v.tallies);
     }
     Ok(all)
@@ -374,18 +375,25 @@ fn write_outputs(
     nightly: Option<&NightlyContext>,
 ) -> Result<(Value, Option<super::history::RunDifference>), PipelineError> {
     std::fs::create_dir_all(out_dir).map_err(|e| OutputError::new(out_dir, e))?;
-    let objects_bytes = ctx.objects_csv()?;
+    // The per-object table is streamed into its temporary file now and published in its turn
+    // below (one row group at a time: never held whole in memory).
+    let format = ctx.settings.objects_format;
+    let mut objects_file = AtomicFile::create(&out_dir.join(format.file_name()))?;
+    ctx.write_objects(&mut objects_file, format)?;
     let mut summary = ctx.summary_json();
-    let difference = nightly.map(|n| super::history::RunDifference {
-        housekeeping: n.housekeeping.clone(),
-        ..super::history::difference(
-            n.previous.as_deref(),
-            &super::history::parse_objects(&objects_bytes),
-            &summary,
-            ctx.settings.statistics.tension_sigma,
-            &n.alarms,
-        )
-    });
+    let difference = match nightly {
+        Some(n) => Some(super::history::RunDifference {
+            housekeeping: n.housekeeping.clone(),
+            ..super::history::difference(
+                n.previous.as_deref(),
+                &super::history::parse_objects(&objects_file.read_back()?),
+                &summary,
+                ctx.settings.statistics.tension_sigma,
+                &n.alarms,
+            )
+        }),
+        None => None,
+    };
     if let Some(d) = &difference {
         ctx.since_previous = Some(d.lines());
         summary["since_previous"] =
@@ -396,7 +404,7 @@ fn write_outputs(
         &export::quarantine_csv(&ctx.vetted.quarantine)
             .map_err(|e| PipelineError::Internal(e.to_string()))?,
     )?;
-    write_atomic(&out_dir.join("objects.csv"), &objects_bytes)?;
+    objects_file.commit()?;
     // Test hook: simulate a run killed mid-write (tests/nightly_run.rs). Harmless otherwise.
     if std::env::var_os("DWARFBOUND_TEST_ABORT_MID_WRITE").is_some() {
         std::process::abort();

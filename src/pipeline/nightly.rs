@@ -304,6 +304,8 @@ pub fn settings_from_config(
         tau: axis(cfg_path, "tau", &cfg.grid.tau)?,
         theory,
         statistics,
+        // Nightly runs compare objects.csv with the previous run's.
+        objects_format: Default::default(),
     })
 }
 

@@ -15,7 +15,7 @@ use std::collections::BTreeMap;
 use serde_json::{json, Value};
 
 use super::error::PipelineError;
-use super::settings::ConfrontSettings;
+use super::settings::{ConfrontSettings, ObjectsFormat};
 use super::surface::GridSurface;
 use crate::catalogue::{CatalogueObject, Vetted};
 use crate::confront::drivers::SliceDriver;
@@ -30,6 +30,80 @@ use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, Tensio
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
+
+/// Columns of the per-object table (`objects.csv` / `objects.parquet`) under their current
+/// names; the deprecated old names of renamed columns follow them (see [`objects_header`]).
+pub(crate) const OBJECTS_COLUMNS: [&str; 33] = [
+    "id",
+    "class",
+    "source_file",
+    "source_row",
+    "mass_msun",
+    "mass_err_lo_msun",
+    "mass_err_hi_msun",
+    "mass_limit",
+    "radius_rsun",
+    "radius_err_rsun",
+    "age_gyr",
+    "mu_e",
+    "in_fit",
+    "flags",
+    "bound_standard_msun",
+    "bound_best_msun",
+    "sigma_standard",
+    "sigma_best",
+    "radius_sigma_standard",
+    "driver_rank",
+    "driver_shift",
+    "driver_end_opens_or_closes",
+    "sigma_best_in_fit",
+    "radius_sigma_best",
+    "driver_test",
+    "rotation_period_h",
+    "breakup_period_standard_h",
+    "breakup_period_best_h",
+    "spin_sigma_standard",
+    "spin_sigma_best",
+    "spin_radius_source",
+    "spin_v",
+    "spin_correction",
+];
+
+/// The Parquet type of each column of [`OBJECTS_COLUMNS`].
+#[derive(Debug, Clone, Copy)]
+enum ColumnKind {
+    Text,
+    Int,
+    Float,
+    Bool,
+}
+
+const OBJECTS_KINDS: [ColumnKind; 33] = {
+    use ColumnKind::{Bool, Float, Int, Text};
+    [
+        Text, Text, Text, Int, Float, Float, Float, Text, Float, Float, Float, Float, Bool, Text,
+        Float, Float, Float, Float, Float, Int, Float, Bool, Float, Float, Text, Float, Float,
+        Float, Float, Float, Text, Float, Float,
+    ]
+};
+
+/// The per-object table's header: [`OBJECTS_COLUMNS`], then the deprecated old name of each
+/// renamed column (written for one version), with the column each copies and its kind.
+fn objects_header() -> (Vec<String>, Vec<(usize, f64)>, Vec<ColumnKind>) {
+    let deprecated = super::names::csv_text_deprecated("objects.csv", &OBJECTS_COLUMNS);
+    let mut header: Vec<String> = OBJECTS_COLUMNS.iter().map(|c| c.to_string()).collect();
+    let mut kinds = OBJECTS_KINDS.to_vec();
+    let mut copies = Vec::new();
+    for (at, rn) in deprecated {
+        header.push(rn.old.to_string());
+        kinds.push(OBJECTS_KINDS[at]);
+        copies.push((at, rn.old_per_new));
+    }
+    (header, copies, kinds)
+}
+
+/// Rows per Parquet row group: what the writer holds in memory at once.
+const PARQUET_ROW_GROUP: usize = 65_536;
 
 /// Everything the output writers need, borrowed from one confrontation.
 pub(crate) struct OutputContext<'a> {
@@ -144,115 +218,207 @@ impl OutputContext<'_> {
         &self.vetted.objects[k]
     }
 
-    /// `objects.csv`: one row per accepted object.
-    pub(crate) fn objects_csv(&self) -> Result<Vec<u8>, PipelineError> {
-        let header = [
-            "id",
-            "class",
-            "source_file",
-            "source_row",
-            "mass_msun",
-            "mass_err_lo_msun",
-            "mass_err_hi_msun",
-            "mass_limit",
-            "radius_rsun",
-            "radius_err_rsun",
-            "age_gyr",
-            "mu_e",
-            "in_fit",
-            "flags",
-            "bound_standard_msun",
-            "bound_best_msun",
-            "sigma_standard",
-            "sigma_best",
-            "radius_sigma_standard",
-            "driver_rank",
-            "driver_shift",
-            "driver_end_opens_or_closes",
-            "sigma_best_in_fit",
-            "radius_sigma_best",
-            "driver_test",
-            "rotation_period_h",
-            "breakup_period_standard_h",
-            "breakup_period_best_h",
-            "spin_sigma_standard",
-            "spin_sigma_best",
-            "spin_radius_source",
-            "spin_v",
-            "spin_correction",
+    /// One row of the per-object table (columns [`OBJECTS_COLUMNS`]).
+    fn object_row(
+        &self,
+        k: usize,
+        driver: Option<(usize, f64)>,
+        copies: &[(usize, f64)],
+    ) -> Vec<Cell> {
+        let r = &self.verdicts[k];
+        let driver_rank = driver.map(|d| d.0);
+        let driver_shift = driver.map(|d| d.1);
+        let o = self.object(k);
+        let u = &self.conf.uses[k];
+        let mut row = vec![
+            Cell::Text(o.id.clone()),
+            Cell::Text(o.class.label().into()),
+            Cell::Text(o.source_file.clone()),
+            Cell::Int(o.source_row as i64),
+            Cell::Float(Some(o.mass_msun)),
+            Cell::Float(o.mass_err_lo_msun),
+            Cell::Float(o.mass_err_hi_msun),
+            Cell::Text(o.mass_limit.label().into()),
+            Cell::Float(o.radius_rsun),
+            Cell::Float(o.radius_err_rsun),
+            Cell::Float(o.age_gyr),
+            Cell::Float(Some(u.mu_e)),
+            Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
+            Cell::Text(u.flags.join(";")),
+            Cell::Float(r.bound_standard),
+            Cell::Float(r.bound_best),
+            Cell::Float(r.sigma_standard),
+            Cell::Float(r.sigma_best),
+            Cell::Float(r.radius_sigma_standard),
+            match driver_rank {
+                Some(x) => Cell::Int(x as i64),
+                None => Cell::Text(String::new()),
+            },
+            Cell::Float(driver_shift.filter(|s| s.is_finite())),
+            Cell::Bool(driver_shift.map(|s| s.is_infinite())),
+            Cell::Float(self.sigma_best_in_fit(k)),
+            Cell::Float(r.radius_sigma_best),
+            Cell::Text(
+                self.driver_test(k)
+                    .map(|t| t.name().to_string())
+                    .unwrap_or_default(),
+            ),
         ];
-        let mut driver_of: Vec<Option<(usize, f64)>> = vec![None; self.verdicts.len()];
-        for (rank, k, shift) in self.drivers_sorted() {
-            driver_of[k] = Some((rank, shift));
+        let sv = self.spin_verdicts.iter().find(|v| v.index == k);
+        let hours = |x: Option<f64>| x.map(|s| s / 3600.0);
+        let (spin_v, spin_change) = match sv.map(|v| v.slow) {
+            Some(SlowRotationStatus::Corrected { v, change }) => (Some(v), Some(change)),
+            Some(SlowRotationStatus::BeyondFirstOrder { v }) => (Some(v), None),
+            _ => (None, None),
+        };
+        row.extend([
+            Cell::Float(o.rotation_period_h),
+            Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
+            Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
+            Cell::Float(sv.and_then(|v| v.sigma_standard)),
+            Cell::Float(sv.and_then(|v| v.sigma_best)),
+            Cell::Text(sv.map_or(String::new(), |v| v.source.label().to_string())),
+            Cell::Float(spin_v),
+            Cell::Float(spin_change),
+        ]);
+        // The deprecated old names: copies of their new columns (scaled where the unit moved).
+        for &(at, old_per_new) in copies {
+            let cell = match &row[at] {
+                Cell::Float(x) => Cell::Float(x.map(|v| v * old_per_new)),
+                other => other.clone(),
+            };
+            row.push(cell);
         }
-        let mut rows: Vec<Vec<Cell>> = self
-            .verdicts
+        row
+    }
+
+    /// The driver rank and shift of each object (most have none).
+    fn drivers_by_object(&self) -> std::collections::HashMap<usize, (usize, f64)> {
+        self.drivers_sorted()
+            .into_iter()
+            .map(|(rank, k, shift)| (k, (rank, shift)))
+            .collect()
+    }
+
+    /// Writes the per-object table, one row per accepted object, in `format`, row by row (CSV)
+    /// or row group by row group (Parquet): the table is never held whole in memory.
+    pub(crate) fn write_objects(
+        &self,
+        out: &mut impl std::io::Write,
+        format: ObjectsFormat,
+    ) -> Result<(), PipelineError> {
+        let bar = crate::progress::bar(
+            self.verdicts.len() as u64,
+            match format {
+                ObjectsFormat::Csv => "writing objects.csv",
+                ObjectsFormat::Parquet => "writing objects.parquet",
+            },
+            false,
+        );
+        let written = match format {
+            ObjectsFormat::Csv => self.write_objects_csv(out, &bar),
+            ObjectsFormat::Parquet => self.write_objects_parquet(out, &bar),
+        };
+        bar.finish_and_clear();
+        written
+    }
+
+    fn write_objects_csv(
+        &self,
+        out: &mut impl std::io::Write,
+        bar: &indicatif::ProgressBar,
+    ) -> Result<(), PipelineError> {
+        let fail = |e: csv::Error| PipelineError::Internal(format!("writing objects.csv: {e}"));
+        let mut w = csv::WriterBuilder::new()
+            .terminator(csv::Terminator::Any(b'\n'))
+            .from_writer(out);
+        let (header, copies, _) = objects_header();
+        w.write_record(&header).map_err(fail)?;
+        let drivers = self.drivers_by_object();
+        for k in 0..self.verdicts.len() {
+            let row = self.object_row(k, drivers.get(&k).copied(), &copies);
+            w.write_record(row.iter().map(Cell::render)).map_err(fail)?;
+            if k.is_multiple_of(65_536) {
+                bar.set_position(k as u64);
+            }
+        }
+        w.flush()
+            .map_err(|e| PipelineError::Internal(format!("writing objects.csv: {e}")))
+    }
+
+    fn write_objects_parquet(
+        &self,
+        out: &mut impl std::io::Write,
+        bar: &indicatif::ProgressBar,
+    ) -> Result<(), PipelineError> {
+        use polars::prelude::{
+            Column, DataFrame, DataType, Field, ParquetWriter, PlSmallStr, Schema,
+        };
+        let fail = |e: polars::error::PolarsError| {
+            PipelineError::Internal(format!("writing objects.parquet: {e}"))
+        };
+        let dtype = |kind: ColumnKind| match kind {
+            ColumnKind::Text => DataType::String,
+            ColumnKind::Int => DataType::Int64,
+            ColumnKind::Float => DataType::Float64,
+            ColumnKind::Bool => DataType::Boolean,
+        };
+        let (header, copies, kinds) = objects_header();
+        let schema: Schema = header
             .iter()
-            .enumerate()
-            .map(|(k, r)| {
-                let driver_rank = driver_of[k].map(|d| d.0);
-                let driver_shift = driver_of[k].map(|d| d.1);
-                let o = self.object(k);
-                let u = &self.conf.uses[k];
-                let sv = self.spin_verdicts.iter().find(|v| v.index == k);
-                let hours = |x: Option<f64>| x.map(|s| s / 3600.0);
-                let (spin_v, spin_change) = match sv.map(|v| v.slow) {
-                    Some(SlowRotationStatus::Corrected { v, change }) => (Some(v), Some(change)),
-                    Some(SlowRotationStatus::BeyondFirstOrder { v }) => (Some(v), None),
-                    _ => (None, None),
-                };
-                let mut row = vec![
-                    Cell::Text(o.id.clone()),
-                    Cell::Text(o.class.label().into()),
-                    Cell::Text(o.source_file.clone()),
-                    Cell::Int(o.source_row as i64),
-                    Cell::Float(Some(o.mass_msun)),
-                    Cell::Float(o.mass_err_lo_msun),
-                    Cell::Float(o.mass_err_hi_msun),
-                    Cell::Text(o.mass_limit.label().into()),
-                    Cell::Float(o.radius_rsun),
-                    Cell::Float(o.radius_err_rsun),
-                    Cell::Float(o.age_gyr),
-                    Cell::Float(Some(u.mu_e)),
-                    Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
-                    Cell::Text(u.flags.join(";")),
-                    Cell::Float(r.bound_standard),
-                    Cell::Float(r.bound_best),
-                    Cell::Float(r.sigma_standard),
-                    Cell::Float(r.sigma_best),
-                    Cell::Float(r.radius_sigma_standard),
-                    match driver_rank {
-                        Some(x) => Cell::Int(x as i64),
-                        None => Cell::Text(String::new()),
-                    },
-                    Cell::Float(driver_shift.filter(|s| s.is_finite())),
-                    Cell::Bool(driver_shift.map(|s| s.is_infinite())),
-                    Cell::Float(self.sigma_best_in_fit(k)),
-                    Cell::Float(r.radius_sigma_best),
-                    Cell::Text(
-                        self.driver_test(k)
-                            .map(|t| t.name().to_string())
-                            .unwrap_or_default(),
-                    ),
-                ];
-                row.extend([
-                    Cell::Float(o.rotation_period_h),
-                    Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
-                    Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
-                    Cell::Float(sv.and_then(|v| v.sigma_standard)),
-                    Cell::Float(sv.and_then(|v| v.sigma_best)),
-                    Cell::Text(sv.map_or(String::new(), |v| v.source.label().to_string())),
-                    Cell::Float(spin_v),
-                    Cell::Float(spin_change),
-                ]);
-                row
-            })
+            .zip(&kinds)
+            .map(|(name, kind)| Field::new(PlSmallStr::from(name.as_str()), dtype(*kind)))
             .collect();
-        let mut header: Vec<String> = header.map(String::from).to_vec();
-        super::names::csv_with_deprecated("objects.csv", &mut header, &mut rows);
-        let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
-        report::tables::csv_bytes(&header_refs, &rows)
-            .map_err(|e| PipelineError::Internal(e.to_string()))
+        let mut writer = ParquetWriter::new(out).batched(&schema).map_err(fail)?;
+        let drivers = self.drivers_by_object();
+        let n = self.verdicts.len();
+        let mut start = 0;
+        while start < n || (n == 0 && start == 0) {
+            let end = (start + PARQUET_ROW_GROUP).min(n);
+            let mut text: Vec<Vec<Option<String>>> = vec![Vec::new(); header.len()];
+            let mut int: Vec<Vec<Option<i64>>> = vec![Vec::new(); header.len()];
+            let mut float: Vec<Vec<Option<f64>>> = vec![Vec::new(); header.len()];
+            let mut boolean: Vec<Vec<Option<bool>>> = vec![Vec::new(); header.len()];
+            for k in start..end {
+                let row = self.object_row(k, drivers.get(&k).copied(), &copies);
+                for (c, cell) in row.into_iter().enumerate() {
+                    match (kinds[c], cell) {
+                        (ColumnKind::Text, Cell::Text(t)) => text[c].push(Some(t)),
+                        (ColumnKind::Int, Cell::Int(i)) => int[c].push(Some(i)),
+                        (ColumnKind::Int, _) => int[c].push(None),
+                        (ColumnKind::Float, Cell::Float(x)) => {
+                            float[c].push(x.filter(|v| v.is_finite()))
+                        }
+                        (ColumnKind::Bool, Cell::Bool(b)) => boolean[c].push(b),
+                        (kind, cell) => {
+                            return Err(PipelineError::Internal(format!(
+                                "objects.parquet: column {} is {kind:?}, got {cell:?}",
+                                header[c]
+                            )))
+                        }
+                    }
+                }
+            }
+            let columns: Vec<Column> = header
+                .iter()
+                .enumerate()
+                .map(|(c, name)| {
+                    let name = PlSmallStr::from(name.as_str());
+                    match kinds[c] {
+                        ColumnKind::Text => Column::new(name, std::mem::take(&mut text[c])),
+                        ColumnKind::Int => Column::new(name, std::mem::take(&mut int[c])),
+                        ColumnKind::Float => Column::new(name, std::mem::take(&mut float[c])),
+                        ColumnKind::Bool => Column::new(name, std::mem::take(&mut boolean[c])),
+                    }
+                })
+                .collect();
+            let df = DataFrame::new(end - start, columns).map_err(fail)?;
+            writer.write_batch(&df).map_err(fail)?;
+            bar.set_position(end as u64);
+            start = end.max(start + 1);
+        }
+        writer.finish().map_err(fail)?;
+        Ok(())
     }
 
     /// `grid.csv`: one row per grid point.

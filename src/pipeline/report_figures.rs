@@ -32,6 +32,40 @@ const HELIUM_BELOW_MSUN: f64 = 0.45;
 /// Mass step of the model curves, M☉.
 const CURVE_STEP_MSUN: f64 = 0.01;
 
+/// Most objects drawn in one panel of the masses-against-bounds figure. A panel of a million
+/// points (each with its hover title) made the report hundreds of megabytes and most of a
+/// large run's memory; above this, every object in tension is drawn and the others are thinned
+/// evenly (every k-th in catalogue order, deterministic), and the panel's title says so.
+const MAX_PANEL_OBJECTS: usize = 5_000;
+
+/// Thins a panel's objects to [`MAX_PANEL_OBJECTS`]: those above `tension_sigma` (at standard
+/// gravity or at the best fit) are all kept, the others every k-th. Returns the note for the
+/// title, or `None` when nothing was left out.
+fn thin_panel(objects: &mut Vec<MassObject>, tension_sigma: f64) -> Option<String> {
+    let n = objects.len();
+    if n <= MAX_PANEL_OBJECTS {
+        return None;
+    }
+    let in_tension = |o: &MassObject| {
+        o.sigma.0.is_some_and(|s| s > tension_sigma) || o.sigma.1.is_some_and(|s| s > tension_sigma)
+    };
+    let n_tension = objects.iter().filter(|o| in_tension(o)).count();
+    let room = MAX_PANEL_OBJECTS.saturating_sub(n_tension).max(1);
+    let step = (n - n_tension).div_ceil(room).max(1);
+    let mut k = 0usize;
+    objects.retain(|o| {
+        if in_tension(o) {
+            return true;
+        }
+        k += 1;
+        (k - 1).is_multiple_of(step)
+    });
+    Some(format!(
+        " — {} of {n} objects drawn (all in tension, every {step}th of the others; objects.csv lists all)",
+        objects.len()
+    ))
+}
+
 /// Masses from `lo` to `hi` in steps of [`CURVE_STEP_MSUN`] (both ends included).
 fn masses(lo: f64, hi: f64) -> Vec<f64> {
     let n = ((hi - lo) / CURVE_STEP_MSUN).round().max(0.0) as usize;
@@ -292,8 +326,9 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
             });
         }
         if let (Some(bound_standard_msun), false) = (standard, objects.is_empty()) {
+            let note = thin_panel(&mut objects, ctx.settings.statistics.tension_sigma);
             panels.push(MassPanel {
-                title: title.into(),
+                title: format!("{title}{}", note.unwrap_or_default()),
                 bound_label: bound_label.into(),
                 bound_standard_msun,
                 bound_best_msun: best,

@@ -59,4 +59,28 @@ pub struct ConfrontSettings {
     pub theory: TheorySettings,
     /// Statistics settings.
     pub statistics: StatisticsSettings,
+    /// File format of the per-object table (`objects.csv` or `objects.parquet`).
+    pub objects_format: ObjectsFormat,
+}
+
+/// File format of the per-object table. Both are written row group by row group, never held
+/// whole in memory.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ObjectsFormat {
+    /// `objects.csv` (the default; nightly runs compare it with the previous run's).
+    #[default]
+    Csv,
+    /// `objects.parquet`: the same columns, typed (text, integers, floats, booleans; empty
+    /// cells are nulls), for catalogues whose CSV would be hundreds of megabytes.
+    Parquet,
+}
+
+impl ObjectsFormat {
+    /// The file name in the output folder.
+    pub fn file_name(self) -> &'static str {
+        match self {
+            ObjectsFormat::Csv => "objects.csv",
+            ObjectsFormat::Parquet => "objects.parquet",
+        }
+    }
 }

@@ -44,7 +44,8 @@ impl Cell {
     pub fn opt(x: Option<f64>) -> Self {
         Cell::Float(x)
     }
-    fn render(&self) -> String {
+    /// The cell as CSV text (floats round-trip; missing values empty).
+    pub fn render(&self) -> String {
         match self {
             Cell::Text(s) => s.clone(),
             Cell::Float(x) => fmt_f64(*x),
