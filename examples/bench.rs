@@ -101,7 +101,7 @@ fn grid_run(label: &str, n: usize, settings: &TheorySettings, wd: bool) -> Theor
     );
     for c in &g.interpolation_checks {
         println!(
-            "  {label}: interpolation of {}: max relative error {:.2e} over {} off-node samples (worst at Υ = {:?}, τ = {:?})",
+            "  {label}: interpolation of {}: max relative error {:.2e} over {} off-node samples (worst at ϒ = {:?}, τ = {:?})",
             c.quantity, c.max_relative_error, c.samples, c.worst_upsilon, c.worst_tau
         );
         let key = if c.quantity.starts_with("break-up") {
@@ -128,7 +128,7 @@ fn main() {
     println!("RESULT threads {threads}");
     println!("dwarfbound theory benchmark (dev profile, our crate at opt-level 3; {threads} rayon threads)");
 
-    // One modified Lane–Emden solve, Υ = 0.1, τ = 0.1 (density-squared), rtol 1e-10, atol 1e-12,
+    // One modified Lane–Emden solve, ϒ = 0.1, τ = 0.1 (density-squared), rtol 1e-10, atol 1e-12,
     // from ξ0 = 1e-4 like the scipy script and the grid.
     for (key, nn, extra) in [
         ("le_n15", 1.5, &[][..]),

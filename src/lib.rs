@@ -1,13 +1,13 @@
 //! dwarfbound: confront catalogues of very-low-mass stars, brown dwarfs and white dwarfs with
 //! the mass limits predicted by stellar structure in scalar-tensor gravity with broken Vainshtein
-//! screening (parameter Υ) and pressure anisotropy (parameter τ).
+//! screening (parameter ϒ) and pressure anisotropy (parameter τ).
 //!
 //! The modules follow the pipeline:
 //!
 //! * [`catalogue`] reads and vets catalogues (CSV, Parquet, FITS, VOTable, ECSV) into canonical
 //!   objects, quarantining bad rows with a reason;
 //! * [`theory`] solves the modified stellar-structure equations and evaluates the bounds over a
-//!   (Υ, τ) grid; it knows nothing of catalogues;
+//!   (ϒ, τ) grid; it knows nothing of catalogues;
 //! * [`confront`] confronts every object with every grid point (likelihoods, allowed regions,
 //!   tensions, drivers);
 //! * [`report`] writes tables, maps and the human-readable report; it computes no physics;

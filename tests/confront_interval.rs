@@ -1,4 +1,4 @@
-//! The Υ interval at τ = 0 end to end: it does not depend on the grid spacing, and a grid
+//! The ϒ interval at τ = 0 end to end: it does not depend on the grid spacing, and a grid
 //! without a τ = 0 row reports no interval rather than an open one.
 
 mod common;
@@ -14,10 +14,10 @@ fn interval95(out: &Path) -> (f64, f64) {
     (i["lower"].as_f64().unwrap(), i["upper"].as_f64().unwrap())
 }
 
-// Source: convergence of the same computation under grid refinement (the 95.45 % Υ interval at
+// Source: convergence of the same computation under grid refinement (the 95.45 % ϒ interval at
 // τ = 0 must not depend on the grid spacing beyond its stated precision). The regression
-// (white dwarfs of the demo, τ = 0): 10 Υ points gave [-0.0034, 0.0025], 201 points on
-// [-0.1, 0.1] gave [-0.0249, 0.0092], because the radius term was interpolated linearly along Υ.
+// (white dwarfs of the demo, τ = 0): 10 ϒ points gave [-0.0034, 0.0025], 201 points on
+// [-0.1, 0.1] gave [-0.0249, 0.0092], because the radius term was interpolated linearly along ϒ.
 // With the radius systematic shared by all white dwarfs the interval is wider (measured
 // [-0.0545, 0.1170] on 10 points, [-0.0547, 0.1171] on 91), so the fine grid reaches 0.15.
 #[test]

@@ -8,7 +8,7 @@ use std::path::Path;
 
 use common::{col, confront, demo, path_str, read_csv, text};
 
-/// Confronts `catalogues` at standard gravity only (Υ = τ = 0) into `out`, which must succeed.
+/// Confronts `catalogues` at standard gravity only (ϒ = τ = 0) into `out`, which must succeed.
 fn confront_standard_gravity(catalogues: &[&str], out: &Path) {
     let mut args = catalogues.to_vec();
     args.extend(["--upsilon", "0", "--tau", "0"]);

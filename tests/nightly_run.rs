@@ -285,7 +285,7 @@ fn an_empty_stale_lock_file_does_not_block_forever() {
     run_ok(dir.path(), &cfg);
 }
 
-/// Writes a config over the three demo catalogues with the given Υ axis (τ: three points).
+/// Writes a config over the three demo catalogues with the given ϒ axis (τ: three points).
 fn grid_config(dir: &Path, name: &str, upsilon: &str) -> PathBuf {
     let text = format!(
         "output = \"out\"\n\
@@ -316,7 +316,7 @@ fn cache_entries(dir: &Path) -> Vec<PathBuf> {
 #[test]
 fn a_valid_cache_entry_of_another_grid_is_not_reused_and_the_note_says_why() {
     // Issue 13, item 4: an entry with a valid checksum but another config's grid (45 instead
-    // of 46 Υ points) must not be served.
+    // of 46 ϒ points) must not be served.
     let dir = tempfile::tempdir().unwrap();
     let c45 = grid_config(dir.path(), "g45.toml", "-0.3:0.6:45");
     let c46 = grid_config(dir.path(), "g46.toml", "-0.3:0.6:46");

@@ -102,14 +102,14 @@ fn ignition_model_b() {
     assert_eq!(v["mmhb_model"], "ignition-temperature");
     assert!((f(&v, "/mmhb_raw_msun") - 0.10899329).abs() < 1e-8);
     assert_eq!(f(&v, "/mmhb_msun"), 0.075);
-    // docs/bounds.md §0: Φ_B(Υ) = ω(Υ)/ω(0) = 0.99266 at Υ = 0.1 (computed there).
+    // docs/bounds.md §0: Φ_B(ϒ) = ω(ϒ)/ω(0) = 0.99266 at ϒ = 0.1 (computed there).
     let v = json_of(&["--upsilon", "0.1", "--json", "--mmhb-model", "ignition"]);
     assert!((f(&v, "/mmhb_phi") - 0.99266).abs() < 5e-6);
 }
 
 #[test]
 fn point_without_a_star_reports_reasons_not_nan() {
-    // docs/structure.md §1.4: no regular centre for Υ ≤ −2/3 at τ = 0.
+    // docs/structure.md §1.4: no regular centre for ϒ ≤ −2/3 at τ = 0.
     let out = predict(&["--upsilon=-0.7", "--json"]);
     assert!(out.status.success());
     let text = String::from_utf8(out.stdout).unwrap();
@@ -145,7 +145,7 @@ fn grid_writes_bounds_csv_with_failed_points() {
     let num = |r: &Vec<String>, c: &str| r[col(c)].parse::<f64>().unwrap();
     assert!((num(&rows[1], "upsilon") + 0.6).abs() < 1e-12);
     assert_eq!(num(&rows[5], "tau"), 0.0);
-    // docs/structure.md §1.4: Υ = −0.9 is below −2(1 − τ)/3 at every τ here; Υ = −0.6 only at
+    // docs/structure.md §1.4: ϒ = −0.9 is below −2(1 − τ)/3 at every τ here; ϒ = −0.6 only at
     // τ = 0.2 (bound −0.533).
     let no_model: Vec<usize> = rows
         .iter()
@@ -164,7 +164,7 @@ fn grid_writes_bounds_csv_with_failed_points() {
             assert!(!cell.eq_ignore_ascii_case("nan"));
         }
     }
-    // Standard-gravity row (Υ = 0, τ = 0): the anchor, round-trip floats.
+    // Standard-gravity row (ϒ = 0, τ = 0): the anchor, round-trip floats.
     let std_row = &rows[5 + 3];
     assert_eq!(std_row[col("upsilon")], "0");
     assert_eq!(std_row[col("mmhb_msun")], "0.075");

@@ -47,6 +47,7 @@ fn section_prefix(file: &str) -> Option<&'static str> {
         "structure.md" => Some("s"),
         "bounds.md" => Some("b"),
         "white-dwarfs.md" => Some("w"),
+        "rotation.md" => Some("r"),
         _ => None,
     }
 }

@@ -818,7 +818,7 @@ fn one_and_two_sided_tensions_never_share_a_heading() {
     input.side_by_side = Some(SideBySide {
         rows: vec![
             IntervalRow {
-                parameter: "Υ".into(),
+                parameter: "ϒ".into(),
                 method: "profile over τ".into(),
                 intervals: iv(Some(-0.2), None),
             },
@@ -829,7 +829,7 @@ fn one_and_two_sided_tensions_never_share_a_heading() {
             },
         ],
         hpd_regions: vec![],
-        prior: "Flat in Υ on [-0.3, 0.6] and flat in τ on [-0.3, 0.3].".into(),
+        prior: "Flat in ϒ on [-0.3, 0.6] and flat in τ on [-0.3, 0.3].".into(),
         formulas: vec![],
     });
     let r = render_report(&input, &synthetic_map(), &synthetic_curves()).unwrap();
@@ -848,13 +848,13 @@ fn one_and_two_sided_tensions_never_share_a_heading() {
             "report.{name}"
         );
         for needle in [
-            "σ at Υ = τ = 0 (one-sided)",
-            "σ at Υ = τ = 0 (two-sided, signed)",
+            "σ at ϒ = τ = 0 (one-sided)",
+            "σ at ϒ = τ = 0 (two-sided, signed)",
             "test (sidedness)",
             "mass–radius (two-sided)",
             "read three ways",
             "profile over τ",
-            "Flat in Υ on",
+            "Flat in ϒ on",
             "How to read them",
         ] {
             assert!(text.contains(needle), "report.{name} lacks {needle:?}");

@@ -1,15 +1,15 @@
-//! Calibration of the whole comparison, measured: synthetic catalogues drawn at a known (Υ, τ)
+//! Calibration of the whole comparison, measured: synthetic catalogues drawn at a known (ϒ, τ)
 //! with the shared systematics actually shifted by a draw from their prior, confronted through
 //! the engine with an invented analytic bound surface (no stellar structure is solved), and the
 //! rate at which the truth falls outside the 95.45 % two-parameter region (false exclusion) and
-//! outside the 95.45 % Υ interval at τ = 0 counted over seeds.
+//! outside the 95.45 % ϒ interval at τ = 0 counted over seeds.
 //!
 //! Target: a false-exclusion rate of 4.55 % within its binomial error; the fast tests fail above
 //! 8 % (the issue's acceptance rule). The full table (10⁵ objects, more seeds) is the ignored
 //! test `calibration_table`, run with
 //! `cargo test --test stats_calibration -- --ignored --nocapture`.
 //!
-//! Surface: MMHB = 0.075 (1 + 0.2 Υ + 0.5 τ) M☉, Chandrasekhar mass = 1.40 (1 − 0.3 Υ + 0.1 τ)
+//! Surface: MMHB = 0.075 (1 + 0.2 ϒ + 0.5 τ) M☉, Chandrasekhar mass = 1.40 (1 − 0.3 ϒ + 0.1 τ)
 //! M☉ — invented slopes of the size the theory gives, with different directions so that the
 //! two bounds together constrain both parameters.
 
@@ -146,7 +146,7 @@ fn fast_reduce() -> ReduceOptions {
     }
 }
 
-/// Whether the truth is excluded at 95.45 % in two parameters, and whether the Υ interval at
+/// Whether the truth is excluded at 95.45 % in two parameters, and whether the ϒ interval at
 /// τ = 0 (grid slice, Δχ² ≤ 4 against the slice minimum) misses it (only for τ_true = 0).
 fn outcome(case: &Case, seed: u64, opts: &EngineOptions) -> (bool, Option<bool>) {
     let s = surface();
@@ -201,7 +201,7 @@ fn options(systematics: Systematics, likelihood: LikelihoodChoice) -> EngineOpti
 /// Binomial acceptance of the issue: the false-exclusion rate must not exceed 8 %.
 const FAIL_ABOVE: f64 = 0.08;
 
-/// The one-parameter Υ interval at τ = 0 is read here on the coarse grid row (no sub-grid)
+/// The one-parameter ϒ interval at τ = 0 is read here on the coarse grid row (no sub-grid)
 /// and measured at 10–12 % misses on these catalogues (README, statistics section): the white
 /// dwarfs are drawn uniform up to the Chandrasekhar mass, a one-sided edge on which Δχ² is
 /// not χ²-distributed. This guard only catches a regression beyond that measured level.
@@ -226,7 +226,7 @@ const CROWDED_2_TO_1: Case = Case {
 };
 
 const CROWDED_1_TO_2_SHIFTED: Case = Case {
-    name: "10^4 crowding the MMHB, density 1:2, (Υ, τ) = (0.1, −0.05)",
+    name: "10^4 crowding the MMHB, density 1:2, (ϒ, τ) = (0.1, −0.05)",
     truth: (0.1, -0.05),
     n_low: 6000,
     n_high: 4000,
@@ -246,7 +246,7 @@ fn few_objects_false_exclusion_within_target() {
         },
     );
     eprintln!(
-        "{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}",
+        "{}: false exclusion {excl:.3}, ϒ-interval miss {miss:?}",
         FEW.name
     );
     assert!(excl <= FAIL_ABOVE, "false exclusion {excl}");
@@ -268,7 +268,7 @@ fn crowded_catalogue_false_exclusion_within_target() {
     let case = CROWDED_2_TO_1;
     let (excl, miss) = rates(&case, 200, &defaults);
     eprintln!(
-        "{}: false exclusion {excl:.3}, Υ-interval miss {miss:?}",
+        "{}: false exclusion {excl:.3}, ϒ-interval miss {miss:?}",
         case.name
     );
     assert!(excl <= FAIL_ABOVE, "{}: false exclusion {excl}", case.name);
@@ -299,7 +299,7 @@ fn calibration_table() {
             ..big(CROWDED_2_TO_1)
         },
     ];
-    println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) | Υ-interval miss at τ = 0 |");
+    println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) | ϒ-interval miss at τ = 0 |");
     println!("|---|---|---|---|---|");
     for case in cases {
         let seeds = if case.n_low + case.n_high > 20_000 {
@@ -335,7 +335,7 @@ fn calibration_table() {
 
 /// The 100 000-object standard-gravity catalogue of the issue (generator
 /// `tools/make_crowded_catalogue.py`, seed 1) must not exclude standard gravity. Measured on
-/// this branch: Δχ² = 2.11 at Υ = τ = 0 (95.45 % threshold 6.18); the per-object product
+/// this branch: Δχ² = 2.11 at ϒ = τ = 0 (95.45 % threshold 6.18); the per-object product
 /// likelihood of earlier versions gave Δχ² ≈ 1455.
 #[test]
 #[ignore = "needs python3 and about a minute; run with -- --ignored"]

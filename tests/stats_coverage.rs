@@ -1,9 +1,9 @@
-//! Coverage of the 95.45 % Υ interval on seeded synthetic catalogues (docs/bounds.md §8.7 and the
+//! Coverage of the 95.45 % ϒ interval on seeded synthetic catalogues (docs/bounds.md §8.7 and the
 //! confrontation issue's check), through the whole statistical chain: class curves, cubic
-//! interpolation of the bound along Υ, the 10× sub-grid slice and the interval ends.
+//! interpolation of the bound along ϒ, the 10× sub-grid slice and the interval ends.
 //!
-//! The bound is a simple invented function B(Υ) = 0.075 (1 + 0.1 Υ + 0.02 Υ²) M☉ (no theory
-//! needed), the truth is Υ = 0 (B = 0.075 M☉), true masses are flat on each side of the bound
+//! The bound is a simple invented function B(ϒ) = 0.075 (1 + 0.1 ϒ + 0.02 ϒ²) M☉ (no theory
+//! needed), the truth is ϒ = 0 (B = 0.075 M☉), true masses are flat on each side of the bound
 //! with 1–8 % Gaussian errors, the class label is the truth's side of the bound, and the floor is
 //! small (the synthetic bound is exact).
 

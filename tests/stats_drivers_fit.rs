@@ -5,7 +5,7 @@
 //! order in the shared shift); and the τ = 0 slice with the other floor treatment equals the
 //! slice of a run made with that treatment.
 //!
-//! Surface: MMHB = 0.075 (1 + 0.2 Υ + 0.5 τ), Chandrasekhar mass = 1.40 (1 − 0.3 Υ + 0.1 τ)
+//! Surface: MMHB = 0.075 (1 + 0.2 ϒ + 0.5 τ), Chandrasekhar mass = 1.40 (1 − 0.3 ϒ + 0.1 τ)
 //! (invented slopes, as in `tests/stats_calibration.rs`).
 
 use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};

@@ -1,7 +1,7 @@
-//! Profile intervals and the flat-prior posterior over the (Υ, τ) grid, against closed forms:
+//! Profile intervals and the flat-prior posterior over the (ϒ, τ) grid, against closed forms:
 //! a correlated Gaussian χ² surface (profile = marginal = ±kσ of each parameter; the
 //! two-parameter highest-density region is the Δχ² ≤ −2 ln(1 − p) ellipse) and a one-sided
-//! soft bound L = Φ((Υ − a)/s), flat in τ, whose profile and marginal ends follow from
+//! soft bound L = Φ((ϒ − a)/s), flat in τ, whose profile and marginal ends follow from
 //! ∫Φ(z) dz = zΦ(z) + φ(z).
 
 use dwarfbound::confront::profile::{posterior, profile_intervals};
@@ -44,12 +44,12 @@ fn gaussian_surface_profile_and_marginal_are_k_sigma() {
                 l.key()
             );
         };
-        close(p.upsilon[n].lower, ul, 1e-3, "profile Υ lower");
-        close(p.upsilon[n].upper, uu, 1e-3, "profile Υ upper");
+        close(p.upsilon[n].lower, ul, 1e-3, "profile ϒ lower");
+        close(p.upsilon[n].upper, uu, 1e-3, "profile ϒ upper");
         close(p.tau[n].lower, tl, 5e-4, "profile τ lower");
         close(p.tau[n].upper, tu, 5e-4, "profile τ upper");
-        close(post.upsilon[n].lower, ul, 2e-3, "posterior Υ lower");
-        close(post.upsilon[n].upper, uu, 2e-3, "posterior Υ upper");
+        close(post.upsilon[n].lower, ul, 2e-3, "posterior ϒ lower");
+        close(post.upsilon[n].upper, uu, 2e-3, "posterior ϒ upper");
         close(post.tau[n].lower, tl, 1e-3, "posterior τ lower");
         close(post.tau[n].upper, tu, 1e-3, "posterior τ upper");
         // The two-parameter HPD region of a Gaussian is the ellipse Δχ² ≤ −2 ln(1 − p)
@@ -62,7 +62,7 @@ fn gaussian_surface_profile_and_marginal_are_k_sigma() {
             l.key(),
             r.delta_chi2_at_edge
         );
-        // Its extent in Υ is mx ± √(Δχ²) σx (the ellipse's bounding box).
+        // Its extent in ϒ is mx ± √(Δχ²) σx (the ellipse's bounding box).
         let half = want.sqrt() * 0.1;
         assert!((r.upsilon_max - (0.05 + half)).abs() < 0.011);
         assert!((r.upsilon_min - (0.05 - half)).abs() < 0.011);
@@ -133,7 +133,7 @@ fn one_sided_bound_flat_in_tau_opens_the_right_ends() {
 
 #[test]
 fn points_without_a_model_carry_no_probability() {
-    // A Gaussian in Υ with the upper half of the grid missing (no model): the missing points
+    // A Gaussian in ϒ with the upper half of the grid missing (no model): the missing points
     // are neither in the profile nor in any credible region, and the upper ends close at the
     // last point with a model rather than at the grid edge.
     let u = axis(-0.5, 0.01, 101);

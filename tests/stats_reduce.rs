@@ -15,8 +15,8 @@ fn normal(rng: &mut SplitMix64) -> f64 {
     (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
 }
 
-/// Synthetic bound surfaces (smooth, invented for the test): the MMHB moves ~1 % per unit Υ and
-/// ~10 % per 0.1 in τ, the Chandrasekhar mass moves strongly with Υ (as docs/bounds.md §0 describes).
+/// Synthetic bound surfaces (smooth, invented for the test): the MMHB moves ~1 % per unit ϒ and
+/// ~10 % per 0.1 in τ, the Chandrasekhar mass moves strongly with ϒ (as docs/bounds.md §0 describes).
 fn mmhb(u: f64, t: f64) -> f64 {
     0.075 * (1.0 + 0.01 * u + 1.0 * t + 0.5 * t * t)
 }
@@ -24,7 +24,7 @@ fn mch(u: f64, t: f64) -> f64 {
     1.4563 * (1.0 + 0.1 * u - 0.02 * u * u + 0.3 * t)
 }
 
-/// A wide Chandrasekhar-mass range (±35 % in Υ, ±18 % in τ), for the refinement test.
+/// A wide Chandrasekhar-mass range (±35 % in ϒ, ±18 % in τ), for the refinement test.
 fn mch_wide(u: f64, t: f64) -> f64 {
     1.4563 * (1.0 + 0.35 * u - 0.1 * u * u + 0.9 * t)
 }

@@ -75,11 +75,11 @@ fn delta_chi2_thresholds() {
 
 #[test]
 fn map_regions_on_an_elliptical_bowl() {
-    // Source: closed form — for χ² = 37 + ((Υ−0.1)/0.2)² + ((τ+0.05)/0.05)² the region
+    // Source: closed form — for χ² = 37 + ((ϒ−0.1)/0.2)² + ((τ+0.05)/0.05)² the region
     // Δχ² ≤ q is the ellipse with semi-axes 0.2√q and 0.05√q about (0.1, −0.05).
     let ups: Vec<f64> = (0..81).map(|i| -1.0 + 0.025 * f64::from(i)).collect();
     let taus: Vec<f64> = (0..81).map(|j| -0.2 + 0.005 * f64::from(j)).collect();
-    let mut chi2 = Vec::new(); // τ outer, Υ inner, as every grid vector
+    let mut chi2 = Vec::new(); // τ outer, ϒ inner, as every grid vector
     for &t in &taus {
         for &u in &ups {
             chi2.push(37.0 + ((u - 0.1) / 0.2).powi(2) + ((t + 0.05) / 0.05).powi(2));
@@ -126,7 +126,7 @@ fn map_regions_on_an_elliptical_bowl() {
 
 #[test]
 fn slice_intervals_closed_open_and_disjoint() {
-    // Source: closed form — Δχ² = ((Υ − c)/s)² crosses q at c ± s√q.
+    // Source: closed form — Δχ² = ((ϒ − c)/s)² crosses q at c ± s√q.
     let x = refine_axis(
         &(0..=20)
             .map(|i| -1.0 + 0.1 * f64::from(i))
@@ -231,7 +231,7 @@ fn crowding_warning_and_population_term() {
     assert!(PopulationTerm::new((0.1, 0.05), &hb, &bd).is_err());
 }
 
-/// A small slice problem: bound B(Υ) = 0.075 (1 + 0.2 Υ) on Υ ∈ [−1, 1], a few stars and brown
+/// A small slice problem: bound B(ϒ) = 0.075 (1 + 0.2 ϒ) on ϒ ∈ [−1, 1], a few stars and brown
 /// dwarfs, one tight star that pins the upper end and one lone tight brown dwarf.
 fn slice_problem() -> (Vec<f64>, Vec<f64>, [Vec<Measurement>; 2], f64) {
     let fine = refine_axis(
@@ -343,7 +343,7 @@ fn drivers_match_brute_force_leave_one_out() {
 #[test]
 fn upsilon_slice_through_the_reduction_matches_the_direct_slice() {
     // Source: docs/bounds.md §8.4–8.5 — the interval from class curves and a cubic interpolation
-    // of the coarse bounds along Υ equals the interval from the direct sum on the fine axis.
+    // of the coarse bounds along ϒ equals the interval from the direct sum on the fine axis.
     let (fine, bound, classes, floor) = slice_problem();
     let coarse: Vec<f64> = (0..=40).map(|i| -1.0 + 0.05 * f64::from(i)).collect();
     let coarse_b: Vec<f64> = coarse.iter().map(|u| 0.075 * (1.0 + 0.2 * u)).collect();
@@ -374,10 +374,10 @@ fn upsilon_slice_through_the_reduction_matches_the_direct_slice() {
 #[test]
 fn map_regions_ties_go_to_the_smallest_upsilon_then_tau() {
     // The tie rule documented on map_regions (common practice, no source): a flat minimum is
-    // reported at its smallest Υ, then its smallest τ, whatever the storage order.
+    // reported at its smallest ϒ, then its smallest τ, whatever the storage order.
     let ups = [-0.2, -0.1, 0.0];
     let taus = [0.0, 0.1];
-    // τ outer, Υ inner: the minimum 1 sits at (Υ, τ) = (−0.1, 0) and (−0.2, 0.1).
+    // τ outer, ϒ inner: the minimum 1 sits at (ϒ, τ) = (−0.1, 0) and (−0.2, 0.1).
     let chi2 = [5.0, 1.0, 5.0, 1.0, 5.0, 5.0];
     let r = map_regions(&ups, &taus, &chi2).unwrap();
     assert_eq!((r.best.i_upsilon, r.best.j_tau), (0, 1));

@@ -475,7 +475,7 @@ mod schonberg_chandrasekhar {
             0.080,
             6e-3,
         );
-        // Υ ≠ 0: 0.37 λ² × the fit ratio at the default λ (definition, docs/bounds.md §7.2).
+        // ϒ ≠ 0: 0.37 λ² × the fit ratio at the default λ (definition, docs/bounds.md §7.2).
         let q1 = sc_fraction(0.1, 0.0, &p, ScVariant::FullFit).unwrap();
         let ratio = core_envelope_fit(lambda, 0.1, 3.0, InterfaceCondition::ContinuousPTilde)
             .unwrap()
@@ -491,7 +491,7 @@ mod schonberg_chandrasekhar {
         let t = sc_fraction(0.0, 0.1, &p, ScVariant::FullFit).unwrap();
         let t_a = sc_fraction_with(0.0, 0.1, Anisotropy::DensitySquared, &p, ScVariant::FullFit);
         assert_eq!(t, t_a.unwrap());
-        // Υ at the existence bound: typed error, never NaN.
+        // ϒ at the existence bound: typed error, never NaN.
         assert!(sc_fraction(-0.7, 0.0, &p, ScVariant::FullFit).is_err());
     }
 
@@ -514,7 +514,7 @@ mod schonberg_chandrasekhar {
                 Anisotropy::Gradient,
             ] {
                 let q = core_envelope_fit_with(lambda, u, 0.0, a, 3.0, c).unwrap().q;
-                assert_eq!(q, q_before, "{a:?} Υ = {u}");
+                assert_eq!(q, q_before, "{a:?} ϒ = {u}");
                 assert_eq!(bonnor_ebert_with(u, 0.0, a).unwrap().c_be, c_be_before);
             }
             assert_eq!(core_envelope_fit(lambda, u, 3.0, c).unwrap().q, q_before);
@@ -523,7 +523,7 @@ mod schonberg_chandrasekhar {
 
     /// Gradient ansatz: G → (1 − τ)G everywhere inside matter (the theory notes' anisotropy section, exact), so
     /// the dimensionless core mass fraction is the τ = 0 one and C_BE = P_s M_c² G³/c_s⁸ in
-    /// true-G units is C_BE(Υ, 0)/(1 − τ)³, with ζ_BE scaled by 1/√(1 − τ). Closed-form
+    /// true-G units is C_BE(ϒ, 0)/(1 − τ)³, with ζ_BE scaled by 1/√(1 − τ). Closed-form
     /// rescaling identity, to 1e-10 (issue acceptance).
     #[test]
     fn gradient_ansatz_is_an_exact_rescaling_of_g() {
@@ -535,7 +535,7 @@ mod schonberg_chandrasekhar {
             for t in [-0.3, 0.1, 0.3, 0.6] {
                 let s = 1.0 - t;
                 let q = core_envelope_fit_with(lambda, u, t, Anisotropy::Gradient, 3.0, c).unwrap();
-                assert_rel("q_fit(Υ, τ) = q_fit(Υ, 0)", q.q, q0.q, 1e-10);
+                assert_rel("q_fit(ϒ, τ) = q_fit(ϒ, 0)", q.q, q0.q, 1e-10);
                 assert_rel(
                     "ζ_f scales as 1/√(1−τ)",
                     q.zeta_f * s.sqrt(),
@@ -565,10 +565,10 @@ mod schonberg_chandrasekhar {
         }
     }
 
-    /// Sign behaviour. Υ > 0 lowers the fraction and Υ < 0 raises it (the modified-gravity factor table checked above).
+    /// Sign behaviour. ϒ > 0 lowers the fraction and ϒ < 0 raises it (the modified-gravity factor table checked above).
     /// τ of the density-squared ansatz does the OPPOSITE of what the issue expected: τ > 0 cancels
     /// the fraction τρ/ρ̄ of gravity (density-squared ansatz), i.e. weakens the core's self-gravity
-    /// most at its centre (central series φ ≈ (1 + 3Υ/2 − τ)ζ²/6), so a larger core fits under
+    /// most at its centre (central series φ ≈ (1 + 3ϒ/2 − τ)ζ²/6), so a larger core fits under
     /// the same envelope and q rises; τ < 0 lowers it. The gradient ansatz leaves it unchanged
     /// (previous test). Values are this implementation's (computed, no published number).
     #[test]
@@ -583,10 +583,10 @@ mod schonberg_chandrasekhar {
             assert!(r(0.2, 0.0, v) < 1.0 && r(-0.2, 0.0, v) > 1.0, "{v:?}");
             for u in [-0.2, 0.0, 0.2] {
                 let (lo, mid, hi) = (r(u, -0.1, v), r(u, 0.0, v), r(u, 0.1, v));
-                assert!(lo < mid && mid < hi, "{v:?} Υ = {u}: {lo} {mid} {hi}");
+                assert!(lo < mid && mid < hi, "{v:?} ϒ = {u}: {lo} {mid} {hi}");
             }
         }
-        // Computed here (full fit, λ = 0.62/1.33): τ = ±0.1 at Υ = 0 moves q by +4.5 %/−3.7 %.
+        // Computed here (full fit, λ = 0.62/1.33): τ = ±0.1 at ϒ = 0 moves q by +4.5 %/−3.7 %.
         assert_rel(
             "τ = 0.1",
             r(0.0, 0.1, ScVariant::FullFit),
@@ -612,7 +612,7 @@ mod schonberg_chandrasekhar {
                 assert!(q.q_sc.is_finite() && q.q_sc > 0.0, "{a:?} τ = {t}");
             }
         }
-        // No regular centre: Υ ≤ −2(1 − τ)/3 for the density-squared ansatz (existence bound).
+        // No regular centre: ϒ ≤ −2(1 − τ)/3 for the density-squared ansatz (existence bound).
         let e = sc_fraction_with(-0.5, 0.3, Anisotropy::DensitySquared, &p, v).unwrap_err();
         assert_eq!(e.code(), "no-regular-centre");
         // The gradient ansatz needs τ < 1; no ansatz needs τ = 0.
@@ -682,7 +682,7 @@ mod with_lane_emden {
 
     #[test]
     fn phi_a_of_upsilon_eight_digits() {
-        // docs/bounds.md §9 (computed): Φ_A at Υ = 0.027, 0.1, −0.1.
+        // docs/bounds.md §9 (computed): Φ_A at ϒ = 0.027, 0.1, −0.1.
         let p = ModelAParams::default();
         let r = reference();
         for (u, want) in [
@@ -706,7 +706,7 @@ mod with_lane_emden {
         let p = ModelAParams::default();
         let r = reference();
         let rows: [(f64, f64, f64, f64); 9] = [
-            // (Υ, Φ_A, Φ_B, abs tolerance)
+            // (ϒ, Φ_A, Φ_B, abs tolerance)
             (-0.5, 0.9831, 1.0918, 6e-5),
             (-0.3, 0.9871, 1.0385, 6e-5),
             (-0.1, 0.9950, 1.0096, 6e-5),
@@ -721,7 +721,7 @@ mod with_lane_emden {
             let c = solve(u, 0.0, Anisotropy::None);
             assert_abs("Phi_A", phi_a(&c, &r, &p, 1.0).unwrap(), want_a, tol);
             assert_abs("Phi_B", phi_b(&c, &r).unwrap(), want_b, tol);
-            // Opposite signs of the two models' shifts for Υ ≠ 0 (docs/bounds.md §3).
+            // Opposite signs of the two models' shifts for ϒ ≠ 0 (docs/bounds.md §3).
             assert!((want_a - 1.0) * (want_b - 1.0) < 0.0);
         }
     }
@@ -784,7 +784,7 @@ mod with_lane_emden {
 
     #[test]
     fn no_regular_centre_is_a_typed_error() {
-        // docs/structure.md §1.4: Υ ≤ −2/3 has no regular centre.
+        // docs/structure.md §1.4: ϒ ≤ −2/3 has no regular centre.
         let e = PolytropeConstants::solve(-0.7, 0.0, Anisotropy::None, 9.73).unwrap_err();
         assert_eq!(e.code(), "no-regular-centre");
     }

@@ -99,7 +99,7 @@ fn standard_gravity_values() {
     let b = p.breakup.ok().unwrap();
     assert!((b.period_min() - 22.3).abs() < 0.05, "{}", b.period_min());
     assert!((b.radius_rjup() - 0.731).abs() < 5e-4);
-    // docs/bounds.md §7: q_SC = 0.37 λ² at Υ = 0 (Schönberg & Chandrasekhar 1942 coefficient).
+    // docs/bounds.md §7: q_SC = 0.37 λ² at ϒ = 0 (Schönberg & Chandrasekhar 1942 coefficient).
     let sc = p.sc.ok().unwrap();
     assert!(rel(sc.q_sc, 0.37 * (0.62f64 / 1.33).powi(2)) < 1e-14);
     // docs/structure.md §4.4 (computed there): R = 8840.9 / 5716.4 / 4165.0 km at 0.6 / 1.0 / 1.2 M☉.
@@ -118,20 +118,20 @@ fn standard_gravity_values() {
 fn modified_values_from_the_theory_notes() {
     let s = exact_settings();
     let ev = PointEvaluator::new(&s).unwrap();
-    // docs/structure.md §4.1 (computed): M_Ch = 1.57072 at Υ = 0.3; 1.6911 / 1.2841 at τ = ±0.2.
+    // docs/structure.md §4.1 (computed): M_Ch = 1.57072 at ϒ = 0.3; 1.6911 / 1.2841 at τ = ±0.2.
     for (u, t, m_ch) in [(0.3, 0.0, 1.57072), (0.0, 0.2, 1.6911), (0.0, -0.2, 1.2841)] {
         let p = ev.evaluate(u, t, false);
         let c = p.chandrasekhar.ok().unwrap().value_msun;
         assert!((c - m_ch).abs() < 6e-5, "({u}, {t}): {c}");
     }
-    // docs/bounds.md §9 (computed): Φ_A = 1.0014617 / 1.0056268 / 0.9949816 at Υ = 0.027 / 0.1 / −0.1.
+    // docs/bounds.md §9 (computed): Φ_A = 1.0014617 / 1.0056268 / 0.9949816 at ϒ = 0.027 / 0.1 / −0.1.
     for (u, phi) in [(0.027, 1.0014617), (0.1, 1.0056268), (-0.1, 0.9949816)] {
         let p = ev.evaluate(u, 0.0, false);
         let m = p.mmhb.ok().unwrap();
         assert!((m.phi - phi).abs() < 1e-7, "{u}: {}", m.phi);
         assert!((m.value_msun - 0.075 * phi).abs() < 1e-8);
     }
-    // docs/structure.md §5.4 (computed): 0.08 M☉ at Υ = 0.1 / −0.2 / 0.3 and τ = 0.2: 23.7 / 19.6 /
+    // docs/structure.md §5.4 (computed): 0.08 M☉ at ϒ = 0.1 / −0.2 / 0.3 and τ = 0.2: 23.7 / 19.6 /
     // 26.9 / 25.8 min.
     for (u, t, pmin) in [
         (0.1, 0.0, 23.7),
@@ -239,7 +239,7 @@ fn breakup_radius_agrees_with_an_independent_root_search() {
 
 #[test]
 fn failed_points_are_kept_with_their_reason() {
-    // docs/structure.md §1.4: no regular centre for Υ ≤ −2(1 − τ)/3 (ansatz a).
+    // docs/structure.md §1.4: no regular centre for ϒ ≤ −2(1 − τ)/3 (ansatz a).
     let g = compute(
         axis(-0.9, 0.0, 4),
         axis(0.0, 0.2, 2),
@@ -248,7 +248,7 @@ fn failed_points_are_kept_with_their_reason() {
     )
     .unwrap();
     assert_eq!(g.points.len(), 8);
-    // Υ = −0.9 fails at both τ; Υ = −0.6 fails at τ = 0.2 (bound −0.533).
+    // ϒ = −0.9 fails at both τ; ϒ = −0.6 fails at τ = 0.2 (bound −0.533).
     let failed: Vec<(usize, usize)> = (0..g.points.len())
         .filter(|&i| g.points[i].first_failure().is_some())
         .map(|i| g.coords(i))
@@ -266,7 +266,7 @@ fn failed_points_are_kept_with_their_reason() {
         }
         assert!(p.warnings.contains(&Warning::BelowRelativisticBound));
     }
-    // −2/3 < Υ = −0.6 < −4/9 at τ = 0: a model, with the Babichev et al. 2016 warning.
+    // −2/3 < ϒ = −0.6 < −4/9 at τ = 0: a model, with the Babichev et al. 2016 warning.
     let p = g.point(g.index(1, 0)).unwrap();
     assert!(p.first_failure().is_none());
     assert!(p.warnings.contains(&Warning::BelowRelativisticBound));
@@ -352,9 +352,9 @@ fn interpolated_values_agree_with_exact_solves() {
     assert_eq!(g.interpolation_checks.len(), 3);
     for c in &g.interpolation_checks {
         assert!(c.samples > 0, "{}", c.quantity);
-        // The SC factor steepens near the existence bound (1 + 3Υ/2 − τ → 0; this grid's corner
-        // Υ = −0.3, τ = 0.3 is at 0.25 of standard gravity's), and by default it is solved on
-        // every 8th Υ and τ only (it enters no likelihood; it is reported with this measured
+        // The SC factor steepens near the existence bound (1 + 3ϒ/2 − τ → 0; this grid's corner
+        // ϒ = −0.3, τ = 0.3 is at 0.25 of standard gravity's), and by default it is solved on
+        // every 8th ϒ and τ only (it enters no likelihood; it is reported with this measured
         // error): 5e-3 there, far below its theory uncertainty of several per cent (full fit vs
         // core factor).
         let tol = if c.quantity.starts_with("Schönberg") {

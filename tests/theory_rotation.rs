@@ -91,12 +91,12 @@ fn spherical_part_matches_a_direct_solution_at_small_v() {
         // below 1e-6 (n = 3 has v_crit ≈ 3.6e-3).
         assert!(
             rel(s.mass_coefficient, dm) < 1e-6,
-            "mass n={n} Υ={u} τ={t}: {} vs {dm}",
+            "mass n={n} ϒ={u} τ={t}: {} vs {dm}",
             s.mass_coefficient
         );
         assert!(
             rel(s.mean_radius_coefficient, dr) < 1e-6,
-            "radius n={n} Υ={u} τ={t}: {} vs {dr}",
+            "radius n={n} ϒ={u} τ={t}: {} vs {dr}",
             s.mean_radius_coefficient
         );
     }
@@ -210,7 +210,7 @@ fn breakup_curve_reference_floor() {
     assert_eq!(wd[1].as_ref().unwrap_err().code(), "above-chandrasekhar");
     // 0.6 M☉, μ_e = 2: 34.0 s (theory check values, full EOS, Roche).
     assert!((wd[0].as_ref().unwrap().period_s - 34.0).abs() < 0.1);
-    // Υ enters only through R(M): P ∝ R^{3/2} at fixed M (the exterior is screened).
+    // ϒ enters only through R(M): P ∝ R^{3/2} at fixed M (the exterior is screened).
     let t3 = WdMassRadius::new(0.3, 0.0, Anisotropy::None, &WdTableOptions::default()).unwrap();
     let p3 = breakup_curve(&t3, 8.0 / 7.0, &[0.08], BreakupModel::Roche)[0]
         .clone()
@@ -218,7 +218,7 @@ fn breakup_curve_reference_floor() {
     let p0 = curve[3].as_ref().unwrap();
     let want = p0.period_s * (p3.radius_rsun / p0.radius_rsun).powf(1.5);
     assert!(rel(p3.period_s, want) < 1e-12);
-    // 26.9 min at Υ = 0.3 (theory check values).
+    // 26.9 min at ϒ = 0.3 (theory check values).
     assert!(
         (p3.period_s / 60.0 - 26.9).abs() < 0.1,
         "{}",

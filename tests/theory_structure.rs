@@ -106,7 +106,7 @@ fn standard_derived_constants_n_n_w_n_gamma() {
 
 #[test]
 fn j_9_73_standard_gravity_bounds_md() {
-    // docs/bounds.md §1 sanity condition (computed there): J_9.73 = 0.2096067060 at Υ = τ = 0.
+    // docs/bounds.md §1 sanity condition (computed there): J_9.73 = 0.2096067060 at ϒ = τ = 0.
     let s = ModifiedLaneEmden::new(1.5, 0.0, 0.0, Anisotropy::None)
         .unwrap()
         .solve(&LaneEmdenOptions::with_extra_powers(&[9.73]))
@@ -128,12 +128,12 @@ fn j_9_73_standard_gravity_bounds_md() {
 
 #[test]
 fn n0_closed_form_with_upsilon_and_tau() {
-    // docs/structure.md §3.6 (verified there): n = 0, ansatz (a): θ = 1 − aξ², a = (1 + 3Υ/2 − τ)/6,
-    // ξ1 = √(6/(1 + 3Υ/2 − τ)), ω = ξ1³/3 (interior only).
+    // docs/structure.md §3.6 (verified there): n = 0, ansatz (a): θ = 1 − aξ², a = (1 + 3ϒ/2 − τ)/6,
+    // ξ1 = √(6/(1 + 3ϒ/2 − τ)), ω = ξ1³/3 (interior only).
     for (u, t) in [(0.3, 0.0), (-0.2, 0.2), (0.6, -0.2), (-0.5, -0.1)] {
         let s = le(0.0, u, t, Anisotropy::DensitySquared);
         let xi1 = (6.0 / (1.0 + 1.5 * u - t)).sqrt();
-        assert!(rel(s.xi1, xi1) < 1e-9, "Υ = {u}, τ = {t}: {}", s.xi1);
+        assert!(rel(s.xi1, xi1) < 1e-9, "ϒ = {u}, τ = {t}: {}", s.xi1);
         assert!(rel(s.omega, xi1.powi(3) / 3.0) < 1e-9);
     }
 }
@@ -167,18 +167,18 @@ fn modified_values_of_structure_md_3_6() {
             .unwrap();
         // printed to 6 decimals: half a unit of the last digit
         let ok = |a: f64, b: f64| (a - b).abs() <= 5.000_1e-7;
-        assert!(ok(s.xi1, xi1), "Υ = {u}");
-        assert!(ok(s.omega, omega), "Υ = {u}");
-        assert!(ok(s.density_contrast(), delta), "Υ = {u}");
-        assert!(ok(s.gamma(), gamma), "Υ = {u}");
-        assert!(ok(s.extra_integral(9.73).unwrap(), j), "Υ = {u}");
+        assert!(ok(s.xi1, xi1), "ϒ = {u}");
+        assert!(ok(s.omega, omega), "ϒ = {u}");
+        assert!(ok(s.density_contrast(), delta), "ϒ = {u}");
+        assert!(ok(s.gamma(), gamma), "ϒ = {u}");
+        assert!(ok(s.extra_integral(9.73).unwrap(), j), "ϒ = {u}");
     }
 }
 
 #[test]
 fn surface_slope_identities_of_structure_md_3_4() {
-    // docs/structure.md §3.4 (computed there): n = 3, Υ = 0.3, τ = 0.2 ansatz b: ω = 3.04219,
-    // −ξ1²θ′ = 2.43376 = (1 − τ)ω; n = 1, Υ = 0.3: ω = 2.9421, −ξ1²θ′ = 1.5400 = ω/D(ξ1).
+    // docs/structure.md §3.4 (computed there): n = 3, ϒ = 0.3, τ = 0.2 ansatz b: ω = 3.04219,
+    // −ξ1²θ′ = 2.43376 = (1 − τ)ω; n = 1, ϒ = 0.3: ω = 2.9421, −ξ1²θ′ = 1.5400 = ω/D(ξ1).
     let s = le(3.0, 0.3, 0.2, Anisotropy::Gradient);
     assert!((s.omega - 3.04219).abs() < 5e-6);
     assert!((s.surface_slope - 2.43376).abs() < 5e-6);
@@ -272,7 +272,7 @@ fn against_independent_scipy_reference() {
 #[test]
 fn surface_methods_agree() {
     // docs/structure.md §6 item 2 (computed there): event-plus-Newton and variable-swap surface
-    // location agree to ≤ 1e-10 on n ∈ {3/2, 3}, Υ ∈ {−0.5, −0.2, 0, 0.1, 0.3, 0.6},
+    // location agree to ≤ 1e-10 on n ∈ {3/2, 3}, ϒ ∈ {−0.5, −0.2, 0, 0.1, 0.3, 0.6},
     // τ ∈ {−0.2, 0, 0.2}.
     let mut en = LaneEmdenOptions::with_extra_powers(&[9.73]);
     en.surface = SurfaceMethod::EventNewton;
@@ -299,7 +299,7 @@ fn surface_methods_agree() {
 
 #[test]
 fn typed_errors_at_existence_bounds() {
-    // docs/structure.md §1.4: ansatz a needs Υ > −2(1 − τ)/3; ansatz b and isotropic Υ > −2/3.
+    // docs/structure.md §1.4: ansatz a needs ϒ > −2(1 − τ)/3; ansatz b and isotropic ϒ > −2/3.
     for (u, t, ans) in [
         (-2.0 / 3.0, 0.0, Anisotropy::None),
         (-0.7, 0.0, Anisotropy::None),
@@ -314,7 +314,7 @@ fn typed_errors_at_existence_bounds() {
             "{u} {t}: {e}"
         );
     }
-    // Just inside the bound a star exists (docs/structure.md §1.4: n = 3/2, Υ = −0.6666: ξ1 → 2.54,
+    // Just inside the bound a star exists (docs/structure.md §1.4: n = 3/2, ϒ = −0.6666: ξ1 → 2.54,
     // ω → 3.30; n = 3: ξ1 → 3.92, ω → 1.681; computed there).
     let s = le(1.5, -0.6666, 0.0, Anisotropy::None);
     assert!(
@@ -327,10 +327,10 @@ fn typed_errors_at_existence_bounds() {
         (s.xi1 - 3.92).abs() < 0.01 && (s.omega - 1.681).abs() < 0.001,
         "{s:?}"
     );
-    // Relativistic bound Υ > −4/9 (Babichev et al. 2016): a warning, not an error.
+    // Relativistic bound ϒ > −4/9 (Babichev et al. 2016): a warning, not an error.
     assert!(le(1.5, -0.45, 0.0, Anisotropy::None).below_relativistic_bound);
     assert!(!le(1.5, -0.44, 0.0, Anisotropy::None).below_relativistic_bound);
-    // 0 < n < 1 with Υ ≠ 0 (docs/structure.md §1.3, §3.5.5), n ≥ 5, τ ≠ 0 without ansatz, τ ≥ 1 (b).
+    // 0 < n < 1 with ϒ ≠ 0 (docs/structure.md §1.3, §3.5.5), n ≥ 5, τ ≠ 0 without ansatz, τ ≥ 1 (b).
     assert!(matches!(
         ModifiedLaneEmden::new(0.5, -0.1, 0.0, Anisotropy::None),
         Err(TheoryError::UnsupportedIndex { .. })
@@ -351,20 +351,20 @@ fn typed_errors_at_existence_bounds() {
         ModifiedLaneEmden::new(1.5, f64::NAN, 0.0, Anisotropy::None),
         Err(TheoryError::InvalidParameter { .. })
     ));
-    // Very large Υ: θ ∝ ξ^{−4/3} creeps towards 0 without a surface (n = 3/2; from the
-    // asymptotic form of the §3.2 system, θ′ ≈ −(4/3)θ/ξ when the Υ terms dominate).
+    // Very large ϒ: θ ∝ ξ^{−4/3} creeps towards 0 without a surface (n = 3/2; from the
+    // asymptotic form of the §3.2 system, θ′ ≈ −(4/3)θ/ξ when the ϒ terms dominate).
     assert!(matches!(
         solve_lane_emden(1.5, 50.0, 0.0, Anisotropy::None),
         Err(TheoryError::NoSurface { .. })
     ));
-    // 0 < n < 1 at Υ = 0 is fine.
+    // 0 < n < 1 at ϒ = 0 is fine.
     let s = le(0.5, 0.0, 0.0, Anisotropy::None);
     assert!(s.xi1 > 2.4 && s.xi1 < 3.2);
 }
 
 #[test]
 fn vanishing_denominator_is_a_typed_error() {
-    // n = 1: D = 1 + Υξ²/4 vanishes at ξ = 2/√(−Υ) (docs/structure.md §1.3). In the supported
+    // n = 1: D = 1 + ϒξ²/4 vanishes at ξ = 2/√(−ϒ) (docs/structure.md §1.3). In the supported
     // domain the surface comes first (as the spec found), so the guard is checked on the
     // right-hand side itself: at and beyond that ξ the derivatives are refused with the reason.
     let le = ModifiedLaneEmden::new(1.0, -0.5, 0.0, Anisotropy::None).unwrap();
@@ -381,7 +381,7 @@ fn vanishing_denominator_is_a_typed_error() {
     }
     assert!(le.derivatives(xi0 * 0.99, 0.5, 1.0).is_ok());
     // …and the solve itself stays regular with D(ξ1) → 0 as the bound nears (D(ξ1) ≈ 0.004
-    // at Υ = −0.66, docs/structure.md §1.3, computed there): −ξ1²θ′ = ω/D(ξ1) becomes large.
+    // at ϒ = −0.66, docs/structure.md §1.3, computed there): −ξ1²θ′ = ω/D(ξ1) becomes large.
     let s = solve_lane_emden(1.0, -0.66, 0.0, Anisotropy::None).unwrap();
     let d1 = 1.0 - 0.66 * s.xi1 * s.xi1 / 4.0;
     assert!((d1 - 0.004).abs() < 0.0015, "{d1}");
@@ -429,7 +429,7 @@ fn chandrasekhar_mass_modified() {
     ];
     for (u, t, m) in cases {
         let got = chandrasekhar_mass_msun(u, t, Anisotropy::DensitySquared, 2.0).unwrap();
-        assert!((got - m).abs() < 5.0001e-5, "Υ = {u}, τ = {t}: {got}");
+        assert!((got - m).abs() < 5.0001e-5, "ϒ = {u}, τ = {t}: {got}");
     }
     // Ansatz b: the τ = 0 value times (1 − τ)^{−3/2} (docs/structure.md §2.2, exact); 2.035 M☉ at
     // τ = 0.2 (§2.3, computed).
@@ -464,8 +464,8 @@ fn full_eos_radii_of_structure_md_4_4() {
         );
         assert!(rel(r.central_density_kg_m3 * 1e-3, rho_c_cgs) < 2e-3, "{m}");
     }
-    // Modified examples (docs/structure.md §4.4, computed there): R(1.0 M☉) = 6074.0 km at Υ = 0.1,
-    // 5025.7 km at Υ = −0.2, 7064.5 km at τ = 0.2 (ansatz a).
+    // Modified examples (docs/structure.md §4.4, computed there): R(1.0 M☉) = 6074.0 km at ϒ = 0.1,
+    // 5025.7 km at ϒ = −0.2, 7064.5 km at τ = 0.2 (ansatz a).
     for (u, tau, r_km) in [(0.1, 0.0, 6074.0), (-0.2, 0.0, 5025.7), (0.0, 0.2, 7064.5)] {
         let tab = WdMassRadius::new(
             u,
@@ -475,7 +475,7 @@ fn full_eos_radii_of_structure_md_4_4() {
         )
         .unwrap();
         let r = tab.radius_rsun(1.0, 2.0).unwrap() * KM_PER_RSUN;
-        assert!(rel(r, r_km) < 1e-4, "Υ = {u}, τ = {tau}: {r}");
+        assert!(rel(r, r_km) < 1e-4, "ϒ = {u}, τ = {tau}: {r}");
     }
 }
 
@@ -517,7 +517,7 @@ fn full_eos_low_density_limit_is_the_n32_polytrope() {
 #[test]
 fn full_eos_high_density_limit_is_the_chandrasekhar_mass() {
     // docs/structure.md §4.1 (verified there): at x_c = 1e4 the full-EOS mass equals the n = 3
-    // Lane–Emden value ω₃(Υ,τ) to < 1e-7; M(x_c) ≈ M_Ch(1 − k/x_c²), k ≈ 5.5 / 7.1 / 3.5.
+    // Lane–Emden value ω₃(ϒ,τ) to < 1e-7; M(x_c) ≈ M_Ch(1 − k/x_c²), k ≈ 5.5 / 7.1 / 3.5.
     for (u, t, k) in [(0.0, 0.0, 5.5), (0.3, 0.0, 7.1), (-0.2, 0.2, 3.5)] {
         let eos = ChandrasekharEos::new(u, t, Anisotropy::DensitySquared).unwrap();
         let w3 = omega3(u, t, Anisotropy::DensitySquared).unwrap();
@@ -549,7 +549,7 @@ fn mu_e_scaling_is_exact() {
 #[test]
 fn gradient_ansatz_white_dwarfs_rescale_exactly() {
     // docs/structure.md §2.2 (verified there to 1e-10): at fixed central density M → M(1−τ)^{−3/2},
-    // R → R(1−τ)^{−1/2}; hence R_b(M) = R_{(Υ,0)}(M(1−τ)^{3/2})/√(1−τ).
+    // R → R(1−τ)^{−1/2}; hence R_b(M) = R_{(ϒ,0)}(M(1−τ)^{3/2})/√(1−τ).
     for (u, tau) in [(0.0, 0.2), (0.3, -0.2), (-0.3, 0.4)] {
         let s = 1.0 - tau;
         let b = ChandrasekharEos::new(u, tau, Anisotropy::Gradient).unwrap();
@@ -715,7 +715,7 @@ fn cold_degenerate_floor_near_22_minutes() {
     assert!((p - 22.3).abs() < 0.051, "{p}");
     let p = breakup_period_s(0.08, r, BreakupModel::ScfN32).unwrap() / 60.0;
     assert!((p - 23.0).abs() < 0.051, "{p}");
-    // Modified (docs/structure.md §5.4, computed there): 23.7 / 19.6 / 26.9 min at Υ = 0.1 / −0.2 /
+    // Modified (docs/structure.md §5.4, computed there): 23.7 / 19.6 / 26.9 min at ϒ = 0.1 / −0.2 /
     // 0.3 and 25.8 min at τ = 0.2 (ansatz a).
     for (u, tau, p_min) in [
         (0.1, 0.0, 23.7),
@@ -730,7 +730,7 @@ fn cold_degenerate_floor_near_22_minutes() {
         let tab = WdMassRadius::new(u, tau, Anisotropy::DensitySquared, &opts).unwrap();
         let r = tab.radius_rsun(0.08, mu_e).unwrap();
         let p = breakup_period_s(0.08, r, BreakupModel::Roche).unwrap() / 60.0;
-        assert!((p - p_min).abs() < 0.051, "Υ = {u}, τ = {tau}: {p}");
+        assert!((p - p_min).abs() < 0.051, "ϒ = {u}, τ = {tau}: {p}");
     }
 }
 
@@ -787,7 +787,7 @@ proptest! {
 
     #[test]
     fn zero_upsilon_tau_is_the_standard_equation(n in 1.0f64..4.5, ans in anis()) {
-        // Υ = τ = 0 in every ansatz is the classical Lane–Emden equation θ″ + 2θ′/ξ = −θⁿ,
+        // ϒ = τ = 0 in every ansatz is the classical Lane–Emden equation θ″ + 2θ′/ξ = −θⁿ,
         // whose solution has ω = −ξ1²θ′(ξ1) (Chandrasekhar 1939, Ch. IV).
         let s = solve_lane_emden(n, 0.0, 0.0, ans).unwrap();
         let le = ModifiedLaneEmden::new(n, 0.0, 0.0, ans).unwrap();

@@ -41,7 +41,7 @@ fn radius_sigma(out: &Path, id: &str) -> Option<f64> {
         .ok()
 }
 
-/// The Υ interval at τ = 0 (95.45 %) of a finished run.
+/// The ϒ interval at τ = 0 (95.45 %) of a finished run.
 fn interval_cl95(out: &Path) -> (f64, f64) {
     let s = summary(out);
     let interval = &s["upsilon_interval_at_tau0"]["cl95"];

@@ -5,7 +5,7 @@
 //! flat prior on every true mass; when many objects of two classes crowd a bound with unequal
 //! densities on its two sides it pulls the fit toward the sparser side. Here a smooth mass
 //! function φ(m) of *all* objects of the classes that meet at the bound (whatever their labels)
-//! is deconvolved once on a uniform mass grid, independently of Υ and τ, by the EM iteration of
+//! is deconvolved once on a uniform mass grid, independently of ϒ and τ, by the EM iteration of
 //! a mixture with fixed components — Richardson–Lucy (Lucy 1974, AJ 79, 745), the
 //! one-dimensional case of extreme deconvolution (Bovy, Hogg & Roweis 2011, AoAS 5, 1657) —
 //! with a Gaussian smoothing step after each iteration (smoothed EM, Silverman, Jones, Wilson &

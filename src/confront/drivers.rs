@@ -1,4 +1,4 @@
-//! Leave-one-out influence: which objects move the Υ interval at τ = 0, and by how much.
+//! Leave-one-out influence: which objects move the ϒ interval at τ = 0, and by how much.
 //!
 //! Because ℓ is a sum over objects, removing object i is exact and cheap: the slice without it
 //! is χ² + 2 ln P_i along the slice (`docs/bounds.md` §8.6). Only objects whose −2 ln P_i
@@ -61,14 +61,14 @@ impl Default for DriverOptions {
 }
 
 /// One class on the τ = 0 slice: its objects, its floor and its bound at every point of the
-/// fine Υ axis (class values; each object applies its own scale).
+/// fine ϒ axis (class values; each object applies its own scale).
 #[derive(Debug, Clone, Copy)]
 pub struct SliceClass<'a> {
     /// All objects of the class, in the caller's order.
     pub measurements: &'a [Measurement],
     /// The class's theory floor, M☉.
     pub floor_msun: f64,
-    /// The class bound B_c(Υ, 0) on the fine axis, M☉.
+    /// The class bound B_c(ϒ, 0) on the fine axis, M☉.
     pub bound_fine_msun: &'a [f64],
 }
 
@@ -79,7 +79,7 @@ pub struct Driver {
     pub class: usize,
     /// Position of the object within its class's measurements.
     pub index: usize,
-    /// max(|Δlower|, |Δupper|) in Υ; +∞ when an end opens or closes.
+    /// max(|Δlower|, |Δupper|) in ϒ; +∞ when an end opens or closes.
     pub shift: f64,
     /// The interval without this object.
     pub interval_without: Interval,
@@ -98,7 +98,7 @@ pub struct DriverReport {
     pub drivers: Vec<Driver>,
 }
 
-/// Leave-one-out drivers of the Υ interval at τ = 0 (`docs/bounds.md` §8.6).
+/// Leave-one-out drivers of the ϒ interval at τ = 0 (`docs/bounds.md` §8.6).
 ///
 /// `chi2_fine` is the full slice χ² on `upsilon_fine` (the same values the interval was taken
 /// from); each candidate's slice is recomputed exactly as χ² + 2 ln P_i, with its own minimum.
@@ -249,7 +249,7 @@ pub fn slice_drivers(
     Ok(out)
 }
 
-/// Leave-one-out shifts of the Υ interval at τ = 0 (at `opts.level`) from removing each white
+/// Leave-one-out shifts of the ϒ interval at τ = 0 (at `opts.level`) from removing each white
 /// dwarf's radius term: (object index, shift), +∞ when an end opens or closes; objects that
 /// do not move it are left out. With per-object radius floors this is exact, since the
 /// likelihood is a sum: the slice without the object is the slice minus its own term on the
@@ -291,7 +291,7 @@ pub fn radius_drivers(
 pub struct SliceDriver {
     /// Index of the object in the caller's list.
     pub object: usize,
-    /// max(|Δlower|, |Δupper|) in Υ; +∞ when an end opens or closes.
+    /// max(|Δlower|, |Δupper|) in ϒ; +∞ when an end opens or closes.
     pub shift: f64,
     /// The test whose removal gives that shift: its mass bound (one-sided) or, for a white
     /// dwarf, the mass–radius relation (two-sided); a white dwarf found through both keeps the

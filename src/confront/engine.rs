@@ -45,9 +45,9 @@ use super::wd_radius::{self, ObjectRadius, RadiusOptions, ResolvedCore, WdQuery,
 use crate::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
 
 /// The bounds over the grid, as the comparator needs them. Index `i` runs over grid points in
-/// row-major order: τ outer, Υ inner (`i = j_tau * n_upsilon + i_upsilon`).
+/// row-major order: τ outer, ϒ inner (`i = j_tau * n_upsilon + i_upsilon`).
 pub trait BoundSurface: Sync {
-    /// Υ values (ascending).
+    /// ϒ values (ascending).
     fn upsilon(&self) -> &[f64];
     /// τ values (ascending).
     fn tau(&self) -> &[f64];
@@ -184,7 +184,7 @@ pub struct ObjectUse {
 /// The result over the grid.
 #[derive(Debug)]
 pub struct Confrontation {
-    /// Number of Υ values.
+    /// Number of ϒ values.
     pub n_upsilon: usize,
     /// Number of τ values.
     pub n_tau: usize,

@@ -1,6 +1,6 @@
-//! Confrontation of vetted objects with the theory's bounds over a (Υ, τ) grid.
+//! Confrontation of vetted objects with the theory's bounds over a (ϒ, τ) grid.
 //!
-//! Every grid vector in this module (and in the whole program) is indexed τ outer, Υ inner:
+//! Every grid vector in this module (and in the whole program) is indexed τ outer, ϒ inner:
 //! `j_tau · n_upsilon + i_upsilon` (see [`engine::BoundSurface`]).
 
 pub mod calibrated;

@@ -9,7 +9,7 @@
 //! - **profile** (the default): min_δ [f(δ) + (δ/σ)²]. Δχ² regions of the profiled χ² are the
 //!   frequentist regions with the nuisance treated as a constrained parameter; for a Gaussian
 //!   prior and a likelihood linear in δ they are exact (Wilks' theorem applies unchanged), and
-//!   the profile never depends on a prior over Υ, τ.
+//!   the profile never depends on a prior over ϒ, τ.
 //! - **marginalise**: −2 ln ∫ N(δ; 0, σ²) exp(−f(δ)/2) dδ by adaptive Gauss–Hermite quadrature
 //!   centred at the mode and scaled by the curvature there (Liu & Pierce 1994, Biometrika 81,
 //!   624), which stays accurate when many objects make the integrand much narrower than σ.

@@ -1,12 +1,12 @@
-//! Profile-likelihood intervals and a flat-prior posterior over the (Υ, τ) grid, the two other
+//! Profile-likelihood intervals and a flat-prior posterior over the (ϒ, τ) grid, the two other
 //! one-parameter readings researchers expect beside the τ = 0 slice.
 //!
-//! - **Profile.** The interval of Υ over τ is {Υ : min_τ χ²(Υ, τ) − min χ² ≤ k²}, and likewise
-//!   for τ over Υ (one-parameter thresholds 1, 4, 9). The minimum over the other axis is taken
+//! - **Profile.** The interval of ϒ over τ is {ϒ : min_τ χ²(ϒ, τ) − min χ² ≤ k²}, and likewise
+//!   for τ over ϒ (one-parameter thresholds 1, 4, 9). The minimum over the other axis is taken
 //!   on its grid nodes and refined by the parabola through the smallest node and its two
 //!   neighbours (exact for a surface quadratic in that parameter); ends are located by linear
 //!   interpolation of the crossing, and an end reached at the grid edge is open.
-//! - **Posterior.** Flat priors on the grid's Υ and τ ranges, so the posterior density is
+//! - **Posterior.** Flat priors on the grid's ϒ and τ ranges, so the posterior density is
 //!   ∝ exp(−χ²/2) there (zero at points without a model); integrals use the trapezoid rule on
 //!   the grid. Credible regions are highest-posterior-density (HPD) sets of grid points; the
 //!   marginal credible interval of each parameter is the HPD interval of its marginal density
@@ -17,7 +17,7 @@
 //!
 //! ```
 //! use dwarfbound::confront::profile::{posterior, profile_intervals};
-//! // χ² = (Υ/0.1)² + (τ/0.05)² on a fine grid: every 95.45 % interval is ±2σ.
+//! // χ² = (ϒ/0.1)² + (τ/0.05)² on a fine grid: every 95.45 % interval is ±2σ.
 //! let u: Vec<f64> = (0..=240).map(|i| -0.6 + 0.005 * i as f64).collect();
 //! let t: Vec<f64> = (0..=120).map(|j| -0.3 + 0.005 * j as f64).collect();
 //! let chi2: Vec<f64> = t.iter()
@@ -35,11 +35,11 @@ use super::regions::{interval_from_slice, Interval, Level};
 /// Profile intervals of each parameter over the other, at the three levels of [`Level::ALL`].
 #[derive(Debug, Clone, PartialEq)]
 pub struct ProfileIntervals {
-    /// min over τ of χ² at each Υ node (+∞ where no τ has a model).
+    /// min over τ of χ² at each ϒ node (+∞ where no τ has a model).
     pub upsilon_profile: Vec<f64>,
-    /// min over Υ of χ² at each τ node.
+    /// min over ϒ of χ² at each τ node.
     pub tau_profile: Vec<f64>,
-    /// Υ intervals (one-parameter Δχ² ≤ 1, 4, 9 of the profile); `None` ends are open.
+    /// ϒ intervals (one-parameter Δχ² ≤ 1, 4, 9 of the profile); `None` ends are open.
     pub upsilon: [Interval; 3],
     /// τ intervals.
     pub tau: [Interval; 3],
@@ -91,7 +91,7 @@ fn check_grid(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<(), StatsErr
             chi2.len()
         )));
     }
-    for (name, a) in [("Υ", upsilon), ("τ", tau)] {
+    for (name, a) in [("ϒ", upsilon), ("τ", tau)] {
         if a.iter().any(|v| !v.is_finite()) || a.windows(2).any(|w| w[1] <= w[0]) {
             return Err(StatsError::InvalidInput(format!(
                 "the {name} axis must be finite and strictly increasing"
@@ -122,8 +122,8 @@ fn intervals_of(x: &[f64], profile: &[f64]) -> Result<[Interval; 3], StatsError>
     Ok(out)
 }
 
-/// Profile intervals of Υ (over τ) and of τ (over Υ) from a χ² map `chi2[j·n_Υ + i]` (τ outer,
-/// Υ inner; non-finite = no model).
+/// Profile intervals of ϒ (over τ) and of τ (over ϒ) from a χ² map `chi2[j·n_ϒ + i]` (τ outer,
+/// ϒ inner; non-finite = no model).
 pub fn profile_intervals(
     upsilon: &[f64],
     tau: &[f64],
@@ -151,9 +151,9 @@ pub fn profile_intervals(
 /// One highest-posterior-density region of the grid: its bounding box and size.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct HpdRegion {
-    /// Smallest Υ in the region.
+    /// Smallest ϒ in the region.
     pub upsilon_min: f64,
-    /// Largest Υ in the region.
+    /// Largest ϒ in the region.
     pub upsilon_max: f64,
     /// Smallest τ in the region.
     pub tau_min: f64,
@@ -171,11 +171,11 @@ pub struct HpdRegion {
 /// The flat-prior posterior over the grid.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Posterior {
-    /// Marginal density of Υ at each Υ node (normalised to 1 over the Υ range).
+    /// Marginal density of ϒ at each ϒ node (normalised to 1 over the ϒ range).
     pub marginal_upsilon: Vec<f64>,
     /// Marginal density of τ at each τ node.
     pub marginal_tau: Vec<f64>,
-    /// HPD intervals of the marginal of Υ at the three levels; `None` ends are open.
+    /// HPD intervals of the marginal of ϒ at the three levels; `None` ends are open.
     pub upsilon: [Interval; 3],
     /// HPD intervals of the marginal of τ.
     pub tau: [Interval; 3],
@@ -262,7 +262,7 @@ fn hpd_interval(x: &[f64], f: &[f64], probability: f64) -> Interval {
     }
 }
 
-/// The posterior with flat priors on the grid's Υ and τ ranges from a χ² map (τ outer, Υ
+/// The posterior with flat priors on the grid's ϒ and τ ranges from a χ² map (τ outer, ϒ
 /// inner; non-finite = no model, posterior density 0 there).
 pub fn posterior(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<Posterior, StatsError> {
     check_grid(upsilon, tau, chi2)?;
@@ -362,6 +362,6 @@ pub fn prior_text(upsilon: &[f64], tau: &[f64]) -> String {
     };
     let ((u0, u1), (t0, t1)) = (ends(upsilon), ends(tau));
     format!(
-        "Flat in Υ on [{u0}, {u1}] and flat in τ on [{t0}, {t1}] (the grid's ranges), zero where the grid has no model; posterior ∝ exp(−χ²/2), integrated by the trapezoid rule on the grid."
+        "Flat in ϒ on [{u0}, {u1}] and flat in τ on [{t0}, {t1}] (the grid's ranges), zero where the grid has no model; posterior ∝ exp(−χ²/2), integrated by the trapezoid rule on the grid."
     )
 }

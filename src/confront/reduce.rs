@@ -1,6 +1,6 @@
 //! The one-dimensional reduction of a catalogue class to a log-likelihood curve in the bound.
 //!
-//! Every object of a class depends on a grid point (Υ, τ) only through the class's one scalar
+//! Every object of a class depends on a grid point (ϒ, τ) only through the class's one scalar
 //! bound B, so L_c(B) = Σ_i ln P_i(B) is tabulated once on N_B nodes and every grid point is a
 //! spline evaluation: no object × grid term (`docs/bounds.md` §8.5). Objects that cannot
 //! contribute over the tabulated range are skipped (their total effect is bounded and
@@ -658,7 +658,7 @@ pub enum SplineEnd {
 }
 
 /// An interpolating cubic spline on strictly increasing abscissae, used for the class curves
-/// and for interpolating bounds along the Υ axis. Outside the nodes it extends the end pieces.
+/// and for interpolating bounds along the ϒ axis. Outside the nodes it extends the end pieces.
 #[derive(Debug, Clone)]
 pub struct CubicSpline {
     x: Vec<f64>,

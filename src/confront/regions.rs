@@ -1,15 +1,15 @@
-//! Confidence regions and absolute consistency from a χ² surface over the (Υ, τ) grid.
+//! Confidence regions and absolute consistency from a χ² surface over the (ϒ, τ) grid.
 //!
 //! This module turns χ² = −2 ln L into what a report states (`docs/bounds.md` §8.4, §8.7): the
 //! best grid point, the Δχ² thresholds, the bounding box of the region allowed at each level,
-//! the one-parameter interval in Υ on the τ = 0 slice (ends located on a finer sub-grid and by
+//! the one-parameter interval in ϒ on the τ = 0 slice (ends located on a finer sub-grid and by
 //! linear interpolation of the crossing; an end the slice does not close is open, never the grid
 //! edge), the Šidák test of whether any grid point is consistent at all, the crowding warning,
 //! and the optional population-aware term.
 //!
 //! ```
 //! use dwarfbound::confront::regions::{interval_from_slice, Level};
-//! // A parabola χ² = ((Υ − 0.1)/0.05)² on a fine axis: the 95.45 % interval is 0.1 ± 0.1.
+//! // A parabola χ² = ((ϒ − 0.1)/0.05)² on a fine axis: the 95.45 % interval is 0.1 ± 0.1.
 //! let x: Vec<f64> = (0..=400).map(|i| -0.5 + 0.0025 * i as f64).collect();
 //! let chi2: Vec<f64> = x.iter().map(|u| ((u - 0.1) / 0.05f64).powi(2)).collect();
 //! let iv = interval_from_slice(&x, &chi2, Level::Cl95.dchi2(1)).unwrap();
@@ -105,11 +105,11 @@ fn chi2_quantile(probability: f64, dof: u32) -> f64 {
 /// The best grid point of a χ² map.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct BestFit {
-    /// Index along the Υ axis.
+    /// Index along the ϒ axis.
     pub i_upsilon: usize,
     /// Index along the τ axis.
     pub j_tau: usize,
-    /// Υ there.
+    /// ϒ there.
     pub upsilon: f64,
     /// τ there.
     pub tau: f64,
@@ -120,9 +120,9 @@ pub struct BestFit {
 /// Bounding box of the grid points allowed at one level (`summary.json` `allowed.<level>`).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AllowedBox {
-    /// Smallest allowed Υ.
+    /// Smallest allowed ϒ.
     pub upsilon_min: f64,
-    /// Largest allowed Υ.
+    /// Largest allowed ϒ.
     pub upsilon_max: f64,
     /// Smallest allowed τ.
     pub tau_min: f64,
@@ -138,12 +138,12 @@ pub struct AllowedBox {
 ///
 /// Grid vectors here use the one index order of the whole program (the theory grid's, the
 /// comparator's [`crate::confront::engine::BoundSurface`], `grid.csv` and the report's maps):
-/// τ outer, Υ inner, index `j_tau · n_upsilon + i_upsilon`.
+/// τ outer, ϒ inner, index `j_tau · n_upsilon + i_upsilon`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MapRegions {
     /// The best grid point.
     pub best: BestFit,
-    /// Δχ² at every grid point, τ outer and Υ inner (index j·n_Υ + i); +∞ where χ² was not
+    /// Δχ² at every grid point, τ outer and ϒ inner (index j·n_ϒ + i); +∞ where χ² was not
     /// finite.
     pub delta_chi2: Vec<f64>,
     /// Allowed region per level, in the order of [`Level::ALL`], for 2 dof.
@@ -167,10 +167,10 @@ impl MapRegions {
     }
 }
 
-/// Best fit, Δχ² and the allowed boxes of a χ² map `chi2[j·n_Υ + i]` (τ outer, Υ inner) on
+/// Best fit, Δχ² and the allowed boxes of a χ² map `chi2[j·n_ϒ + i]` (τ outer, ϒ inner) on
 /// axes `upsilon`, `tau` (two-parameter thresholds, as in the paper's statistics section).
 /// Non-finite entries (grid points without a model) are never best and never allowed. Ties for
-/// the best point go to the smallest Υ, then the smallest τ, whatever the storage order.
+/// the best point go to the smallest ϒ, then the smallest τ, whatever the storage order.
 pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegions, StatsError> {
     let (nu, nt) = (upsilon.len(), tau.len());
     if nu == 0 || nt == 0 || chi2.len() != nu * nt {
@@ -314,7 +314,7 @@ pub fn interval_from_slice(
 }
 
 /// A coarse axis refined `factor` times: (n − 1)·factor + 1 points, the coarse nodes included
-/// exactly (the 10× Υ sub-grid of `docs/bounds.md` §8.4).
+/// exactly (the 10× ϒ sub-grid of `docs/bounds.md` §8.4).
 pub fn refine_axis(axis: &[f64], factor: usize) -> Result<Vec<f64>, StatsError> {
     if axis.len() < 2
         || factor == 0
@@ -336,14 +336,14 @@ pub fn refine_axis(axis: &[f64], factor: usize) -> Result<Vec<f64>, StatsError> 
     Ok(fine)
 }
 
-/// The τ = 0 slice evaluated on a refined Υ axis, with its intervals at the three levels.
+/// The τ = 0 slice evaluated on a refined ϒ axis, with its intervals at the three levels.
 #[derive(Debug, Clone, PartialEq)]
 pub struct UpsilonSlice {
-    /// The refined Υ axis.
+    /// The refined ϒ axis.
     pub upsilon_fine: Vec<f64>,
     /// χ² at each point of it.
     pub chi2_fine: Vec<f64>,
-    /// Υ of the slice minimum.
+    /// ϒ of the slice minimum.
     pub best_upsilon: f64,
     /// The slice minimum.
     pub chi2_min: f64,
@@ -351,10 +351,10 @@ pub struct UpsilonSlice {
     pub intervals: [Interval; 3],
 }
 
-/// The one-parameter Υ interval at τ = 0 (`docs/bounds.md` §8.4): `chi2_at(Υ)` is evaluated on the
+/// The one-parameter ϒ interval at τ = 0 (`docs/bounds.md` §8.4): `chi2_at(ϒ)` is evaluated on the
 /// `axis` refined `refine` times (10 in the spec). The caller builds it from the class curves
-/// and the bounds interpolated along Υ, e.g. with [`crate::confront::reduce::CubicSpline`]:
-/// χ²(Υ) = −2 Σ_c L_c(B_c(Υ, 0)).
+/// and the bounds interpolated along ϒ, e.g. with [`crate::confront::reduce::CubicSpline`]:
+/// χ²(ϒ) = −2 Σ_c L_c(B_c(ϒ, 0)).
 pub fn upsilon_slice(
     axis: &[f64],
     refine: usize,

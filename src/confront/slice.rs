@@ -1,9 +1,9 @@
-//! The one-parameter view at τ = 0: the joint likelihood along Υ on a 10× finer axis, from
-//! which the Υ interval is read and on which the drivers are found.
+//! The one-parameter view at τ = 0: the joint likelihood along ϒ on a 10× finer axis, from
+//! which the ϒ interval is read and on which the drivers are found.
 //!
-//! The mass classes depend on a grid point only through their bound, which is smooth in Υ, so
+//! The mass classes depend on a grid point only through their bound, which is smooth in ϒ, so
 //! each bound is interpolated along the coarse τ = 0 row (not-a-knot cubic) and the class curve
-//! is evaluated on the fine axis. The white-dwarf radius term is sharply curved in Υ, so the
+//! is evaluated on the fine axis. The white-dwarf radius term is sharply curved in ϒ, so the
 //! predicted radii are interpolated instead and the likelihood is evaluated exactly at each fine
 //! point. The paper's statistics section defines the interval; this module only builds the
 //! slice it is read from.
@@ -44,11 +44,11 @@ use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
 use super::wd_radius::{radius_term, RadiusTerm};
 
-/// The Υ interval at τ = 0 is read on a grid this many times finer than the Υ axis (the
+/// The ϒ interval at τ = 0 is read on a grid this many times finer than the ϒ axis (the
 /// paper's statistics section: 10).
 pub const SLICE_REFINE: usize = 10;
 
-/// The τ = 0 slice of the joint likelihood on the fine Υ axis, with what the driver analysis
+/// The τ = 0 slice of the joint likelihood on the fine ϒ axis, with what the driver analysis
 /// needs to take one object out of it.
 #[derive(Debug, Clone)]
 pub struct SliceResult {
@@ -68,10 +68,10 @@ pub struct SliceResult {
 }
 
 /// The τ = 0 slice of `conf` (computed on `surface`), or `None` when the grid
-/// has no τ = 0 row or fewer than two Υ values with a model on it.
+/// has no τ = 0 row or fewer than two ϒ values with a model on it.
 ///
-/// The slice uses the contiguous run of Υ values with a model on the τ = 0 row that holds the
-/// most points: failures sit at the low-Υ existence bound, and a spline must not cross them.
+/// The slice uses the contiguous run of ϒ values with a model on the τ = 0 row that holds the
+/// most points: failures sit at the low-ϒ existence bound, and a spline must not cross them.
 pub fn tau0_slice(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
@@ -121,7 +121,7 @@ pub fn tau0_slice(
         j0,
     };
     let (radius_fine, radius_total) = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
-    // The spin term is smooth in Υ (its floor is 5 % of the period): linear along the row.
+    // The spin term is smooth in ϒ (its floor is 5 % of the period): linear along the row.
     let spin_coarse: Vec<f64> = (0..axis.len())
         .map(|i| conf.per_term[Term::Spin as usize][j0 * conf.n_upsilon + a + i].unwrap_or(0.0))
         .collect();
@@ -139,7 +139,7 @@ pub fn tau0_slice(
         .enumerate()
         .map(|(k, &u)| {
             // The mass terms with their shared systematics eliminated (and the population
-            // term, if any), at the bounds interpolated along Υ.
+            // term, if any), at the bounds interpolated along ϒ.
             let at = |want: fn(Term) -> bool| {
                 splines
                     .iter()
@@ -167,8 +167,8 @@ pub fn tau0_slice(
     }))
 }
 
-/// The part of the τ = 0 row the slice uses: its Υ values, the index of the first of them on
-/// the Υ axis, and the row's τ index.
+/// The part of the τ = 0 row the slice uses: its ϒ values, the index of the first of them on
+/// the ϒ axis, and the row's τ index.
 struct Row<'a> {
     axis: &'a [f64],
     first: usize,
@@ -181,9 +181,9 @@ type PerObjectFine = Vec<(usize, Vec<f64>)>;
 /// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
 /// and the whole radius term there (shared systematic eliminated).
 ///
-/// The term is sharply curved in Υ (radii are measured to a few per cent), so interpolating it
+/// The term is sharply curved in ϒ (radii are measured to a few per cent), so interpolating it
 /// between coarse grid points would overstate Δχ² between them and make the interval depend on
-/// the grid spacing. The predicted radius R(M; Υ) is smooth in Υ, so it is interpolated instead
+/// the grid spacing. The predicted radius R(M; ϒ) is smooth in ϒ, so it is interpolated instead
 /// (not-a-knot cubic along the coarse axis, per quadrature mass node) and the likelihood is
 /// evaluated exactly at every fine point. Where a node's radius is missing at a coarse point
 /// (mass above the maximum), the neighbouring interval falls back to linear interpolation or

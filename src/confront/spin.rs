@@ -1,12 +1,12 @@
 //! The spin test: every object with a measured rotation period must spin slower than mass
-//! shedding, P_obs ≥ P_break(M, R; Υ, τ), and the first-order slow-rotation correction that a
+//! shedding, P_obs ≥ P_break(M, R; ϒ, τ), and the first-order slow-rotation correction that a
 //! measured spin makes to that object's own bound.
 //!
 //! One job: turn each spinning object into one more one-sided term of the likelihood and into
 //! per-object corrections. Maximum spin is one of the classic white-dwarf tests of this theory
 //! class (Jain, Kouvaris & Nielsen 2016, PRL 116, 151103). The break-up period is the Roche one,
-//! P_break = 2πκ√(R³/(GM)) with κ = (3/2)^{3/2} (`docs/rotation.md#2-break-up-period-curve`): the
-//! exterior gravity is standard (screened), and Υ, τ enter only through the radius R inside.
+//! P_break = 2πκ√(R³/(GM)) with κ = (3/2)^{3/2} (`docs/rotation.md#r2`): the
+//! exterior gravity is standard (screened), and ϒ, τ enter only through the radius R inside.
 //! That radius is, per object, and said in `objects.csv` (`spin_radius_source`):
 //!
 //! * `measured` — the catalogue's radius when given (then the test does not depend on the grid);
@@ -29,13 +29,13 @@
 //! far more precise than the floor.
 //!
 //! Slow rotation (Chandrasekhar 1933, MNRAS 93, 390, in the modified theory:
-//! `docs/rotation.md#1-slow-rotation-chandrasekhars-first-order-expansion`): with
+//! `docs/rotation.md#r1`): with
 //! v = Ω²/(2πGρ_c), a brown dwarf or star faces an MMHB raised by the factor 1 + v·(d ln M/dv) of
 //! an n = 3/2 polytrope at fixed central conditions (applied as the object's bound scale), and a
 //! white dwarf's radius at fixed mass grows by v·(d ln R/dv)|_M of the polytrope whose index
 //! matches the local slope of its cold mass–radius relation. ρ_c is that polytrope's central
 //! density for the object's radius at (or nearest to) standard gravity; the coefficients are
-//! those of Υ = τ = 0 (their change with Υ and τ is a product of two small quantities). Beyond
+//! those of ϒ = τ = 0 (their change with ϒ and τ is a product of two small quantities). Beyond
 //! the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit; n_eff ≥ 2.95 counts as
 //! beyond: near the Chandrasekhar mass the radius at fixed mass does not respond linearly) the
 //! object is flagged `spin_beyond_first_order` and left uncorrected.
@@ -546,7 +546,7 @@ pub struct SpinVerdict {
     /// Where the radius comes from.
     pub source: SpinRadiusSource,
     /// Break-up period at the nominal mass at standard gravity, s (`None` when the grid has no
-    /// Υ = τ = 0 point or no model there).
+    /// ϒ = τ = 0 point or no model there).
     pub breakup_standard_s: Option<f64>,
     /// Break-up period at the nominal mass at the best fit, s.
     pub breakup_best_s: Option<f64>,

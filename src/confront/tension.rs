@@ -1,4 +1,4 @@
-//! Per-object verdicts at the two reference points, standard gravity (Υ = τ = 0) and the best
+//! Per-object verdicts at the two reference points, standard gravity (ϒ = τ = 0) and the best
 //! fit: each object's bound, tension and probability there, the list of objects in tension with
 //! standard gravity, the Šidák verdict on whether the best fit is consistent at all, and the
 //! crowding check around the MMHB.

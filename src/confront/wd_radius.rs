@@ -1,13 +1,13 @@
 //! The white-dwarf radius test: which objects take it, with which floor, and its likelihood.
 //!
 //! A white dwarf with a measured radius is compared with the radius the theory predicts at its
-//! mass. The prediction is anchored: R(M; Υ, τ) = R_std(M) × R_c(M; Υ, τ)/R_c(M; 0, 0), where
+//! mass. The prediction is anchored: R(M; ϒ, τ) = R_std(M) × R_c(M; ϒ, τ)/R_c(M; 0, 0), where
 //! R_std is the standard-gravity radius of the finite-temperature model (or the user's own
 //! `radius_model`) and R_c the zero-temperature radius of the structure solver at the grid
 //! point. The ratio carries the modified gravity; the anchor carries temperature, envelope and
 //! composition. Where the anchored ratio is only approximate (hot or helium-core stars at large
-//! |Υ|) a theory error 0.5 |Υ| (R_hot/R_cold − 1) R is added in quadrature (the size of the
-//! deviation measured against full finite-temperature solves in Υ; see `docs/white-dwarfs.md` §8).
+//! |ϒ|) a theory error 0.5 |ϒ| (R_hot/R_cold − 1) R is added in quadrature (the size of the
+//! deviation measured against full finite-temperature solves in ϒ; see `docs/white-dwarfs.md` §8).
 //!
 //! This module decides the domain and the floors (documented statistics choices, see
 //! [`RadiusOptions`]); the numbers of the model come through [`WdStandard`] from whoever
@@ -191,10 +191,10 @@ pub struct WdQuery {
 pub struct WdStandard {
     /// The model's standard-gravity radius, R☉.
     pub radius_rsun: f64,
-    /// The zero-temperature radius of the grid's structure solver at Υ = τ = 0, R☉ (the
+    /// The zero-temperature radius of the grid's structure solver at ϒ = τ = 0, R☉ (the
     /// denominator of the anchored ratio; same model as `BoundSurface::wd_radii_rsun`).
     pub cold_rsun: f64,
-    /// R_hot/R_cold of the finite-temperature model (1 for the cold model), for the Υ error.
+    /// R_hot/R_cold of the finite-temperature model (1 for the cold model), for the ϒ error.
     pub hot_over_cold: f64,
     /// Fractional 1σ radius error from an unknown hydrogen layer (half of thick − thin).
     pub envelope_fraction: f64,
@@ -313,7 +313,7 @@ pub const LN_L_RADIUS_FLOOR: f64 = -1e4;
 
 impl ObjectRadius {
     /// Predicted radius and its theory 1σ at node `k`, given the cold radius of the grid point
-    /// at that node and the point's Υ; `None` where no model exists.
+    /// at that node and the point's ϒ; `None` where no model exists.
     pub fn predicted(
         &self,
         k: usize,
@@ -424,7 +424,7 @@ pub struct RadiusTerm {
 
 /// The radius term at one grid point: `cold_at_point` holds the structure solver's cold radius
 /// at every object's mass nodes, object after object (as [`ObjectRadius::ln_likelihood`] takes
-/// them one by one), `upsilon` the point's Υ. With `shared`, every prediction is scaled by one
+/// them one by one), `upsilon` the point's ϒ. With `shared`, every prediction is scaled by one
 /// common factor (1 + δ), δ ~ N(0, σ²), eliminated by [`eliminate_smooth`]; without, the term is
 /// the plain sum over objects.
 pub fn radius_term(

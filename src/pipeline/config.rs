@@ -60,7 +60,7 @@ pub struct Config {
     /// Catalogues to read.
     #[serde(rename = "catalogue", default)]
     pub catalogues: Vec<CatalogueEntry>,
-    /// The (Υ, τ) grid.
+    /// The (ϒ, τ) grid.
     pub grid: GridConfig,
     /// Model choices.
     #[serde(default)]
@@ -94,7 +94,7 @@ pub struct CatalogueEntry {
 #[derive(Debug, Clone, Deserialize, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct GridConfig {
-    /// Υ axis.
+    /// ϒ axis.
     pub upsilon: String,
     /// τ axis.
     pub tau: String,
@@ -198,7 +198,7 @@ impl Default for StatisticsConfig {
 pub struct AlarmConfig {
     /// Fire when an object is in tension now that was not in the previous run.
     pub new_tension: bool,
-    /// Fire when an end of the 95.45 % Υ interval at τ = 0 moved by more than this.
+    /// Fire when an end of the 95.45 % ϒ interval at τ = 0 moved by more than this.
     pub interval_shift: f64,
     /// Fire when the 95.45 % allowed fraction of the grid changed by more than this (absolute).
     pub area_change: f64,

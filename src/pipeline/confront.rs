@@ -257,7 +257,7 @@ pub fn run_confrontation(
     let profile = profile_intervals(surface.upsilon(), surface.tau(), &joint)?;
     let post = posterior(surface.upsilon(), surface.tau(), &joint)?;
 
-    // 4. Drivers of the Υ interval on the τ = 0 slice, under the likelihood used.
+    // 4. Drivers of the ϒ interval on the τ = 0 slice, under the likelihood used.
     let drivers = match &slice {
         Some(s) => slice_drivers_in_fit(&conf, s, &DriverOptions::default())?,
         None => Vec::new(),
@@ -418,7 +418,7 @@ fn write_outputs(
     Ok((summary, difference))
 }
 
-/// Tension of each object with standard gravity (Υ = τ = 0) under the default model (anchored
+/// Tension of each object with standard gravity (ϒ = τ = 0) under the default model (anchored
 /// MMHB with its floor, Newtonian Chandrasekhar mass with its floor): (object index, σ) for
 /// objects above `threshold_sigma`, largest first. Used by `vet` to flag objects before any
 /// grid is computed; the age rule is not applied here (every object is flagged on its mass).

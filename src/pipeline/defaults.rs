@@ -20,7 +20,7 @@ use crate::theory::mmhb::{MmhbMode, RAW_FLOOR_MODEL_A_MSUN, RAW_FLOOR_MODEL_B_MS
 use crate::theory::point::TheorySettings;
 use crate::theory::Axis;
 
-/// Default Υ axis of `confront` when none is given: the range of the README's grid example
+/// Default ϒ axis of `confront` when none is given: the range of the README's grid example
 /// (`--upsilon=-0.3:0.6:91`) at half its resolution, which keeps a first run quick.
 pub const DEFAULT_UPSILON: Axis = Axis {
     start: -0.3,

@@ -260,9 +260,9 @@ pub struct RunDifference {
     pub new_tensions: Vec<(String, f64)>,
     /// Tensions before that are no longer tensions.
     pub resolved_tensions: Vec<String>,
-    /// 95.45 % Υ interval at τ = 0, before and now ([lower, upper], `None` = open).
+    /// 95.45 % ϒ interval at τ = 0, before and now ([lower, upper], `None` = open).
     pub interval_before: Option<[Option<f64>; 2]>,
-    /// 95.45 % Υ interval at τ = 0 now.
+    /// 95.45 % ϒ interval at τ = 0 now.
     pub interval_now: Option<[Option<f64>; 2]>,
     /// Largest move of an interval end (infinite if an end opened or closed).
     pub interval_shift: Option<f64>,
@@ -438,11 +438,11 @@ pub fn difference(
         if s > alarms.interval_shift {
             d.alarms.push(if s.is_finite() {
                 format!(
-                    "the 95.45 % Υ interval at τ = 0 moved by {s:.4} (tolerance {})",
+                    "the 95.45 % ϒ interval at τ = 0 moved by {s:.4} (tolerance {})",
                     alarms.interval_shift
                 )
             } else {
-                "an end of the 95.45 % Υ interval at τ = 0 opened or closed".to_string()
+                "an end of the 95.45 % ϒ interval at τ = 0 opened or closed".to_string()
             });
         }
     }
@@ -515,7 +515,7 @@ impl RunDifference {
         if let (Some(a), Some(b)) = (self.interval_before, self.interval_now) {
             if self.interval_shift.is_some_and(|s| s > 0.0) {
                 out.push(format!(
-                    "95.45 % Υ interval at τ = 0: [{}, {}] → [{}, {}]",
+                    "95.45 % ϒ interval at τ = 0: [{}, {}] → [{}, {}]",
                     end(a[0]),
                     end(a[1]),
                     end(b[0]),

@@ -2,7 +2,7 @@
 //! `summary.json` (the keys the README documents), from an [`OutputContext`] that borrows every
 //! result of the run. Selection and formatting only: every number was computed upstream.
 //!
-//! Grid vectors follow the program's one index order, τ outer and Υ inner (`j · n_Υ + i`),
+//! Grid vectors follow the program's one index order, τ outer and ϒ inner (`j · n_ϒ + i`),
 //! which is also the row order of `grid.csv`.
 //!
 //! ```text
@@ -116,7 +116,7 @@ pub(crate) struct OutputContext<'a> {
     pub slice: Option<&'a SliceResult>,
     /// The τ = 0 slice under the other treatment of the theory floors, and that treatment.
     pub slice_other_floor: Option<(Systematics, &'a SliceResult)>,
-    /// Profile intervals of Υ over τ and of τ over Υ.
+    /// Profile intervals of ϒ over τ and of τ over ϒ.
     pub profile: &'a ProfileIntervals,
     /// The flat-prior posterior.
     pub posterior: &'a Posterior,

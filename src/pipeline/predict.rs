@@ -1,4 +1,4 @@
-//! `predict`: the theory alone, and what it prints or writes. At one (Υ, τ) every bound and
+//! `predict`: the theory alone, and what it prints or writes. At one (ϒ, τ) every bound and
 //! the Lane–Emden constants, as readable text or as the `--json` document whose keys the README
 //! documents (the contract lives here, in [`point_json`]); over a grid, `bounds.csv` and the
 //! bounds figure, with a short account of what was written. The numbers come from
@@ -92,7 +92,7 @@ pub fn breakup_curves_json(table: &WdMassRadius, s: &TheorySettings) -> Value {
 /// Bounds-figure rows: at most this many τ values.
 const FIGURE_TAU_ROWS: usize = 5;
 
-/// Every bound at one (Υ, τ), white-dwarf table included.
+/// Every bound at one (ϒ, τ), white-dwarf table included.
 pub fn predict_point(
     settings: &TheorySettings,
     upsilon: f64,
@@ -107,7 +107,7 @@ pub fn predict_point(
 pub struct GridPrediction {
     /// Number of grid points.
     pub points: usize,
-    /// Number of Υ values.
+    /// Number of ϒ values.
     pub n_upsilon: usize,
     /// Number of τ values.
     pub n_tau: usize,
@@ -119,7 +119,7 @@ pub struct GridPrediction {
     pub notes: Vec<String>,
 }
 
-/// Computes the grid and writes `bounds.csv` and, for at least two Υ values, the bounds figure
+/// Computes the grid and writes `bounds.csv` and, for at least two ϒ values, the bounds figure
 /// (`bounds.svg`, `bounds.png`) into `dir`.
 pub fn predict_grid(
     upsilon: Axis,
@@ -145,7 +145,7 @@ pub fn predict_grid(
             files.push(path.display().to_string());
         }
     } else {
-        notes.push("the bounds figure needs at least two Υ values; not drawn".to_string());
+        notes.push("the bounds figure needs at least two ϒ values; not drawn".to_string());
     }
     let fig = breakup_figure(upsilon, tau, settings)?;
     let svg = render_breakup_svg(&fig).map_err(|e| PipelineError::Internal(e.to_string()))?;
@@ -166,8 +166,8 @@ pub fn predict_grid(
 }
 
 /// The break-up figure of a prediction: the minimum period against mass for each class's cold
-/// structure, at the τ of the grid nearest 0 and at up to three Υ values (the ends of the axis
-/// and the value nearest 0), so that it shows how Υ moves the floor.
+/// structure, at the τ of the grid nearest 0 and at up to three ϒ values (the ends of the axis
+/// and the value nearest 0), so that it shows how ϒ moves the floor.
 fn breakup_figure(
     upsilon: Axis,
     tau: Axis,
@@ -194,7 +194,7 @@ fn breakup_figure(
     let mut wd = Vec::new();
     for u in ups {
         let p = ev.evaluate(u, t0, true);
-        let label = format!("Υ = {}, τ = {}", fmt_sig(u, 4), fmt_sig(t0, 4));
+        let label = format!("ϒ = {}, τ = {}", fmt_sig(u, 4), fmt_sig(t0, 4));
         let Some(table) = p.white_dwarf.as_ref().and_then(|w| w.ok()) else {
             continue;
         };
@@ -275,7 +275,7 @@ pub fn json_text(doc: &Value) -> Result<String, PipelineError> {
         .map_err(|e| PipelineError::Internal(format!("cannot write JSON: {e}")))
 }
 
-/// MMHB, Chandrasekhar mass and break-up period against Υ for a few τ.
+/// MMHB, Chandrasekhar mass and break-up period against ϒ for a few τ.
 fn figure_curves(grid: &TheoryGrid) -> BoundsCurves {
     let rows = grid.representative_tau_rows(FIGURE_TAU_ROWS);
     let curves = grid.curves(&rows);
@@ -438,7 +438,7 @@ pub fn point_text(p: &PointBounds, s: &TheorySettings) -> String {
             .unwrap_or_default()
     };
     w(format!(
-        "dwarfbound predict: Υ = {}, τ = {} (anisotropy: {})",
+        "dwarfbound predict: ϒ = {}, τ = {} (anisotropy: {})",
         p.upsilon,
         p.tau,
         s.anisotropy.name()
@@ -458,12 +458,12 @@ pub fn point_text(p: &PointBounds, s: &TheorySettings) -> String {
             ));
             if let Some(a) = m.anchor_msun {
                 w(format!(
-                    "  anchored: {} M☉ × Φ, Φ = MMHB(Υ,τ)/MMHB(0,0) = {}",
+                    "  anchored: {} M☉ × Φ, Φ = MMHB(ϒ,τ)/MMHB(0,0) = {}",
                     g(a),
                     fmt_sig(m.phi, 9)
                 ));
             } else {
-                w(format!("  Φ = MMHB(Υ,τ)/MMHB(0,0) = {}", fmt_sig(m.phi, 9)));
+                w(format!("  Φ = MMHB(ϒ,τ)/MMHB(0,0) = {}", fmt_sig(m.phi, 9)));
             }
             w(format!(
                 "  raw analytic value       {} M☉",
@@ -485,7 +485,7 @@ pub fn point_text(p: &PointBounds, s: &TheorySettings) -> String {
                 g(c.floor_msun)
             ));
             w(format!(
-                "  Newtonian pure-EOS value {} M☉, ω₃(Υ,τ)/ω₃(0,0) = {}",
+                "  Newtonian pure-EOS value {} M☉, ω₃(ϒ,τ)/ω₃(0,0) = {}",
                 g(c.newtonian_mu_e2_msun),
                 fmt_sig(c.omega3_ratio, 9)
             ));

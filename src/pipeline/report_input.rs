@@ -239,14 +239,14 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     let mut rows = Vec::new();
     if let Some(sl) = ctx.slice {
         rows.push(IntervalRow {
-            parameter: "Υ".into(),
+            parameter: "ϒ".into(),
             method: format!("{} — the headline", floor_words(used)),
             intervals: level_rows(&sl.slice.intervals),
         });
     }
     if let Some((other, sl)) = ctx.slice_other_floor {
         rows.push(IntervalRow {
-            parameter: "Υ".into(),
+            parameter: "ϒ".into(),
             method: floor_words(other).to_string(),
             intervals: level_rows(&sl.slice.intervals),
         });
@@ -254,18 +254,18 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     let p = ctx.profile;
     let post = ctx.posterior;
     rows.push(IntervalRow {
-        parameter: "Υ".into(),
+        parameter: "ϒ".into(),
         method: "profile over τ".into(),
         intervals: level_rows(&p.upsilon),
     });
     rows.push(IntervalRow {
-        parameter: "Υ".into(),
+        parameter: "ϒ".into(),
         method: "posterior, marginal (highest density)".into(),
         intervals: level_rows(&post.upsilon),
     });
     rows.push(IntervalRow {
         parameter: "τ".into(),
-        method: "profile over Υ".into(),
+        method: "profile over ϒ".into(),
         intervals: level_rows(&p.tau),
     });
     rows.push(IntervalRow {

@@ -51,7 +51,7 @@ impl Default for StatisticsSettings {
 pub struct ConfrontSettings {
     /// Catalogues in order.
     pub catalogues: Vec<CatalogueInput>,
-    /// Υ axis.
+    /// ϒ axis.
     pub upsilon: Axis,
     /// τ axis.
     pub tau: Axis,

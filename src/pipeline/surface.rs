@@ -24,13 +24,13 @@ use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
 use crate::theory::white_dwarf::WdMassRadius;
 
-/// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, Υ
+/// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, ϒ
 /// inner).
 pub struct GridSurface<'a> {
     grid: &'a TheoryGrid,
     upsilon: Vec<f64>,
     tau: Vec<f64>,
-    /// The zero-temperature mass–radius table at Υ = τ = 0 (the anchored ratio's denominator).
+    /// The zero-temperature mass–radius table at ϒ = τ = 0 (the anchored ratio's denominator).
     standard_cold: Option<&'a WdMassRadius>,
     /// Which standard-gravity radius anchors the white-dwarf radius test.
     wd_model: WdRadiusModel,
@@ -107,7 +107,7 @@ impl GridSurface<'_> {
     /// The general-relativistic correction R_TOV/R_Newton of the query's core at its mass (cold
     /// Salpeter matter, standard gravity; tabulated once per core), or `None` at or above the
     /// core's TOV maximum mass: the standard-gravity edge of the radius model. The modified
-    /// theory still enters only through the Newtonian-order ratio R_c(M; Υ, τ)/R_c(M; 0, 0).
+    /// theory still enters only through the Newtonian-order ratio R_c(M; ϒ, τ)/R_c(M; 0, 0).
     fn tov_factor(q: &WdQuery) -> Option<f64> {
         let core = match q.core {
             ResolvedCore::Helium => Core::Helium,

@@ -519,7 +519,7 @@ pub(crate) fn build(
             numeric: vec![false, false, false, true, true],
         };
         blocks.push(Block::Para(vec![t(format!(
-            "Objects in tension above {thr} σ at Υ = τ = 0. Look at these first: a measurement \
+            "Objects in tension above {thr} σ at ϒ = τ = 0. Look at these first: a measurement \
              problem, a misclassified object, or physics."
         ))]));
         if !mass.is_empty() {
@@ -800,8 +800,8 @@ fn side_by_side_blocks(sb: &SideBySide, blocks: &mut Vec<Block>) {
         blocks.push(Block::Table {
             header: vec![
                 "credible region (highest posterior density)".into(),
-                "Υ min".into(),
-                "Υ max".into(),
+                "ϒ min".into(),
+                "ϒ max".into(),
                 "τ min".into(),
                 "τ max".into(),
                 "fraction of grid".into(),

@@ -309,7 +309,7 @@ pub struct DriverRow {
 /// One row of the table of one-parameter intervals shown beside the τ = 0 slice.
 #[derive(Debug, Clone, PartialEq)]
 pub struct IntervalRow {
-    /// The parameter, `"Υ"` or `"τ"`.
+    /// The parameter, `"ϒ"` or `"τ"`.
     pub parameter: String,
     /// How the interval is read, e.g. `"profile over τ"`.
     pub method: String,

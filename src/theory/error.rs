@@ -1,6 +1,6 @@
 //! Why a structure solve has no model: one typed reason per physical or numerical failure.
 //!
-//! Outside the physical range of (n, Υ, τ) no static star exists; the theory then returns a
+//! Outside the physical range of (n, ϒ, τ) no static star exists; the theory then returns a
 //! [`TheoryError`] that names the reason, and grids record it per point instead of a NaN
 //! (`docs/structure.md` §1.3–1.4, §3.7). [`TheoryError::code`] gives a short, stable tag for tables.
 //!
@@ -9,7 +9,7 @@
 //! use dwarfbound::theory::lane_emden::ModifiedLaneEmden;
 //! use dwarfbound::theory::Anisotropy;
 //!
-//! // Υ ≤ −2/3 leaves no regular centre (docs/structure.md §1.4).
+//! // ϒ ≤ −2/3 leaves no regular centre (docs/structure.md §1.4).
 //! let err = ModifiedLaneEmden::new(1.5, -0.7, 0.0, Anisotropy::None).unwrap_err();
 //! assert!(matches!(err, TheoryError::NoRegularCentre { .. }));
 //! assert_eq!(err.code(), "no-regular-centre");
@@ -19,22 +19,22 @@
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum TheoryError {
     /// The central expansion θ ≈ 1 − aξ² has a ≤ 0: gravity at the centre does not pull
-    /// inwards, no regular static star exists (Υ ≤ −2(1−τ)/3 for ansatz (a), Υ ≤ −2/3 for (b)).
+    /// inwards, no regular static star exists (ϒ ≤ −2(1−τ)/3 for ansatz (a), ϒ ≤ −2/3 for (b)).
     #[error(
-        "no regular centre: central coefficient a = {a:.6e} ≤ 0 at Υ = {upsilon}, τ = {tau} \
-         (a star needs Υ > {upsilon_min:.6})"
+        "no regular centre: central coefficient a = {a:.6e} ≤ 0 at ϒ = {upsilon}, τ = {tau} \
+         (a star needs ϒ > {upsilon_min:.6})"
     )]
     NoRegularCentre {
         /// The central coefficient a of θ ≈ 1 − aξ².
         a: f64,
-        /// Υ asked for.
+        /// ϒ asked for.
         upsilon: f64,
         /// τ asked for.
         tau: f64,
-        /// The existence bound on Υ at this τ and ansatz.
+        /// The existence bound on ϒ at this τ and ansatz.
         upsilon_min: f64,
     },
-    /// The denominator D = 1 + κπΥGρr²/c_s² of the explicit pressure gradient fell to ≤ 1e-9:
+    /// The denominator D = 1 + κπϒGρr²/c_s² of the explicit pressure gradient fell to ≤ 1e-9:
     /// the gradient is undetermined and no regular solution passes (`docs/structure.md` §1.3).
     #[error("the structure equation's denominator vanishes (D = {d:.3e}) at ξ = {xi:.6}")]
     DenominatorVanishes {
@@ -57,12 +57,12 @@ pub enum TheoryError {
         /// Why it is refused.
         why: &'static str,
     },
-    /// A white-dwarf mass at or above the Chandrasekhar mass M_Ch(Υ, τ, μ_e): no model exists.
+    /// A white-dwarf mass at or above the Chandrasekhar mass M_Ch(ϒ, τ, μ_e): no model exists.
     #[error("mass {mass_msun} M☉ is not below the Chandrasekhar mass {m_ch_msun:.6} M☉")]
     AboveChandrasekhar {
         /// The mass asked for, M☉.
         mass_msun: f64,
-        /// The Chandrasekhar mass at this (Υ, τ, μ_e), M☉.
+        /// The Chandrasekhar mass at this (ϒ, τ, μ_e), M☉.
         m_ch_msun: f64,
     },
     /// A parameter outside its domain (non-finite, τ ≥ 1, μ_e ≤ 0, …).

@@ -1,10 +1,10 @@
-//! Every bound over a (Υ, τ) grid, in parallel, with failures recorded per point.
+//! Every bound over a (ϒ, τ) grid, in parallel, with failures recorded per point.
 //!
 //! One job: evaluate [`PointBounds`] at every point of a rectangular grid (or a contiguous shard
 //! of it) and keep the white-dwarf mass–radius tables the confrontation needs, in a
 //! [`TheoryGrid`] that serialises to deterministic bytes for the content-addressed cache.
 //!
-//! Layout: points are **row-major with τ outer and Υ inner**: index = i_τ · n_Υ + i_Υ, and the
+//! Layout: points are **row-major with τ outer and ϒ inner**: index = i_τ · n_ϒ + i_ϒ, and the
 //! values are [`grid_value`] (an axis value, with rounding residues of zero made exactly 0). A
 //! shard `I/N` (1-based) owns the contiguous index range ⌊(I−1)T/N⌋ .. ⌊IT/N⌋ of the T points;
 //! it solves the interpolation nodes its points need (every shard solves all white-dwarf node
@@ -12,7 +12,7 @@
 //! [`TheoryGrid::merge`] joins shards into a grid identical to an unsharded run.
 //!
 //! Shortcuts, each exact or measured:
-//! * gradient ansatz: only τ = 0 is solved (once per Υ column) and every τ follows from the
+//! * gradient ansatz: only τ = 0 is solved (once per ϒ column) and every τ follows from the
 //!   exact rescaling G → (1 − τ)G (`docs/structure.md` §2.2, §3.7);
 //! * the Schönberg–Chandrasekhar fraction exists only at τ = 0 (`docs/bounds.md` §7.2), so it is
 //!   solved along the τ = 0 row alone and refused with its reason elsewhere;
@@ -110,7 +110,7 @@ pub struct GridOptions {
 pub struct TheoryGrid {
     /// [`GRID_FORMAT`].
     pub format: String,
-    /// The Υ axis.
+    /// The ϒ axis.
     pub upsilon: Axis,
     /// The τ axis.
     pub tau: Axis,
@@ -120,7 +120,7 @@ pub struct TheoryGrid {
     pub shard: Option<Shard>,
     /// Row-major index of `points[0]`.
     pub first_index: usize,
-    /// The points of `first_index ..`, row-major (τ outer, Υ inner).
+    /// The points of `first_index ..`, row-major (τ outer, ϒ inner).
     pub points: Vec<PointBounds>,
     /// Measured errors of every interpolation between solved nodes that this grid used (the
     /// break-up reference correction, the SC factor, white-dwarf radii), one entry per
@@ -140,7 +140,7 @@ pub struct GridIdentity {
     pub grid_format: String,
     /// The theory settings and what they fix.
     pub theory: SettingsIdentity,
-    /// The Υ axis.
+    /// The ϒ axis.
     pub upsilon: Axis,
     /// The τ axis.
     pub tau: Axis,
@@ -351,10 +351,10 @@ pub fn compute(
         })
         .collect();
 
-    // 3. Schönberg–Chandrasekhar factor on a (Υ, τ) node lattice (every `sc_grid_stride`-th
+    // 3. Schönberg–Chandrasekhar factor on a (ϒ, τ) node lattice (every `sc_grid_stride`-th
     //    value of each axis), interpolated in between; exact where a stencil node has no value.
     //    Gradient ansatz: the factor does not depend on τ (an exact identity), so one row of
-    //    Υ-nodes at τ = 0 serves every τ.
+    //    ϒ-nodes at τ = 0 serves every τ.
     pb.set_message("Schönberg–Chandrasekhar");
     let one_row = Axis {
         start: 0.0,
@@ -528,12 +528,12 @@ impl TheoryGrid {
         }
     }
 
-    /// Row-major index of (i_Υ, i_τ): i_τ · n_Υ + i_Υ.
+    /// Row-major index of (i_ϒ, i_τ): i_τ · n_ϒ + i_ϒ.
     pub fn index(&self, i_upsilon: usize, i_tau: usize) -> usize {
         i_tau * self.upsilon.count + i_upsilon
     }
 
-    /// (i_Υ, i_τ) of a row-major index.
+    /// (i_ϒ, i_τ) of a row-major index.
     pub fn coords(&self, index: usize) -> (usize, usize) {
         (index % self.upsilon.count, index / self.upsilon.count)
     }
@@ -630,7 +630,7 @@ impl TheoryGrid {
                 }
             }
             if !(p.upsilon.is_finite() && p.tau.is_finite()) {
-                return Err(GridError::Format(format!("point {i}: non-finite Υ or τ")));
+                return Err(GridError::Format(format!("point {i}: non-finite ϒ or τ")));
             }
         }
         Ok(g)
@@ -701,7 +701,7 @@ impl TheoryGrid {
         Ok(out)
     }
 
-    /// The bound curves against Υ for the τ rows `tau_rows` (fine indices): for each row,
+    /// The bound curves against ϒ for the τ rows `tau_rows` (fine indices): for each row,
     /// (τ, MMHB values, Chandrasekhar values, break-up periods in minutes), `None` where there is
     /// no model. For plotting; the values are those of the points.
     pub fn curves(&self, tau_rows: &[usize]) -> Vec<BoundCurves> {
@@ -729,7 +729,7 @@ impl TheoryGrid {
     }
 
     /// Up to `max` τ rows spread evenly over the axis (first and last included), τ = 0 added
-    /// when the axis has it: the rows a bounds-against-Υ figure shows.
+    /// when the axis has it: the rows a bounds-against-ϒ figure shows.
     pub fn representative_tau_rows(&self, max: usize) -> Vec<usize> {
         let n = self.tau.count;
         let take = max.max(1).min(n);
@@ -758,7 +758,7 @@ impl TheoryGrid {
     }
 }
 
-/// Bound curves along Υ at one τ (see [`TheoryGrid::curves`]).
+/// Bound curves along ϒ at one τ (see [`TheoryGrid::curves`]).
 #[derive(Debug, Clone, PartialEq)]
 pub struct BoundCurves {
     /// τ of the row.

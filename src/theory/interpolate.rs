@@ -1,4 +1,4 @@
-//! Interpolation in (Υ, τ) between solved nodes of a grid, and its measured error.
+//! Interpolation in (ϒ, τ) between solved nodes of a grid, and its measured error.
 //!
 //! One job: pick the nodes of an axis (every `stride`-th point and the last), the cubic
 //! Lagrange stencil of a fine point, and the tensor-product interpolation of vector values
@@ -23,7 +23,7 @@ use serde::{Deserialize, Serialize};
 use crate::theory::outcome::Failure;
 use crate::theory::{grid_value, Axis};
 
-/// The measured error of an interpolation in (Υ, τ) between solved nodes.
+/// The measured error of an interpolation in (ϒ, τ) between solved nodes.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct InterpolationCheck {
     /// What was compared.
@@ -32,7 +32,7 @@ pub struct InterpolationCheck {
     pub samples: usize,
     /// Largest |interpolated/exact − 1| over the samples (and, for tables, over the test masses).
     pub max_relative_error: f64,
-    /// Υ of the worst sample (absent without samples).
+    /// ϒ of the worst sample (absent without samples).
     pub worst_upsilon: Option<f64>,
     /// τ of the worst sample.
     pub worst_tau: Option<f64>,
@@ -81,11 +81,11 @@ pub fn lagrange_weights(xs: &[f64], x: f64) -> Vec<f64> {
         .collect()
 }
 
-/// Node values on a 2-D node grid, keyed by (τ-node position, Υ-node position).
+/// Node values on a 2-D node grid, keyed by (τ-node position, ϒ-node position).
 pub(crate) type NodeValues<T> = BTreeMap<(usize, usize), Result<T, Failure>>;
 
 /// Tensor-product interpolation of vector values at fine point (iu, it) from node values
-/// (`get(τ-node position, Υ-node position)`). `None` if a stencil node is missing or failed.
+/// (`get(τ-node position, ϒ-node position)`). `None` if a stencil node is missing or failed.
 pub(crate) fn interpolate_2d<'a>(
     get: impl Fn(usize, usize) -> Option<&'a [f64]>,
     upsilon: &Axis,

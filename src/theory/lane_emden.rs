@@ -1,15 +1,15 @@
-//! The modified Lane–Emden problem: polytropes with partly broken Vainshtein screening (Υ) and
+//! The modified Lane–Emden problem: polytropes with partly broken Vainshtein screening (ϒ) and
 //! pressure anisotropy (τ).
 //!
 //! One job: solve the first-order system of `docs/structure.md` §3.2,
 //!
-//!   θ′ = −p [μ + c ξ³ θⁿ] / { ξ² [1 + κ (nΥ/4) ξ² θ^{n−1}] },   μ′ = ξ² θⁿ,
+//!   θ′ = −p [μ + c ξ³ θⁿ] / { ξ² [1 + κ (nϒ/4) ξ² θ^{n−1}] },   μ′ = ξ² θⁿ,
 //!
-//! with (p, c, κ) = (1, Υ/2, 1) isotropic, (1, Υ/2 − τ/3, 1) for the density-squared ansatz (a)
-//! and (1 − τ, Υ/2, 1 − τ) for the gradient ansatz (b), from the central series (§3.3) to the
+//! with (p, c, κ) = (1, ϒ/2, 1) isotropic, (1, ϒ/2 − τ/3, 1) for the density-squared ansatz (a)
+//! and (1 − τ, ϒ/2, 1 − τ) for the gradient ansatz (b), from the central series (§3.3) to the
 //! surface θ = 0, reached by a change of variable near the surface or by a terminal event on
 //! the dense output plus one Newton step (§3.5; [`SurfaceMethod`]). Results are in the true-G
-//! length unit of `docs/bounds.md` §1. Standard gravity (Υ = τ = 0) is the classical Lane–Emden
+//! length unit of `docs/bounds.md` §1. Standard gravity (ϒ = τ = 0) is the classical Lane–Emden
 //! equation (Chandrasekhar 1939, Ch. IV).
 //!
 //! Speed (one solve is the unit of every grid): Dormand–Prince 8(5,3) ([`crate::theory::ode`]),
@@ -35,7 +35,7 @@ use crate::theory::Anisotropy;
 /// (`docs/structure.md` §1.3 and §3.5.4).
 pub const DENOMINATOR_FLOOR: f64 = 1e-9;
 
-/// Relativistic existence bound Υ₁ > −4/9 of Babichev, Koyama, Langlois, Saito & Sakstein 2016
+/// Relativistic existence bound ϒ₁ > −4/9 of Babichev, Koyama, Langlois, Saito & Sakstein 2016
 /// (arXiv:1606.06627, abstract). Below it a solution is still returned, with a warning flag.
 pub const UPSILON_RELATIVISTIC_MIN: f64 = -4.0 / 9.0;
 
@@ -65,7 +65,7 @@ pub struct LaneEmdenOptions {
 pub enum SurfaceMethod {
     /// Integrate in ξ until θ changes sign, find the root on the dense output, then one Newton
     /// step ξ1 ← ξ_e − θ/θ′ (§3.5.3 method i). Near the surface θ^{n−1} makes θ″ singular for
-    /// 1 < n < 2 with Υ ≠ 0, so the steps that straddle it shrink to ~1e-5; and max(θ, 0)ⁿ is
+    /// 1 < n < 2 with ϒ ≠ 0, so the steps that straddle it shrink to ~1e-5; and max(θ, 0)ⁿ is
     /// not smooth at θ = 0, so the last step (which straddles the surface) is integrated again
     /// from its start to the root.
     EventNewton,
@@ -104,7 +104,7 @@ impl LaneEmdenOptions {
     }
 }
 
-/// The modified Lane–Emden system at one (n, Υ, τ, ansatz), validated.
+/// The modified Lane–Emden system at one (n, ϒ, τ, ansatz), validated.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ModifiedLaneEmden {
     n: f64,
@@ -155,7 +155,7 @@ impl IndexPowers {
 pub struct LaneEmdenSolution {
     /// Polytropic index.
     pub n: f64,
-    /// Υ.
+    /// ϒ.
     pub upsilon: f64,
     /// τ.
     pub tau: f64,
@@ -169,7 +169,7 @@ pub struct LaneEmdenSolution {
     pub surface_slope: f64,
     /// (k, J_k) for each requested extra integral, in the order asked.
     pub extra_integrals: Vec<(f64, f64)>,
-    /// Warning, not an error: Υ is below the relativistic existence bound −4/9 of Babichev et
+    /// Warning, not an error: ϒ is below the relativistic existence bound −4/9 of Babichev et
     /// al. 2016 (theoretically disfavoured, `docs/structure.md` §1.4).
     pub below_relativistic_bound: bool,
 }
@@ -303,12 +303,12 @@ fn pos_pow(theta: f64, k: f64) -> f64 {
 }
 
 impl ModifiedLaneEmden {
-    /// Validates (n, Υ, τ, ansatz) and sets up the system.
+    /// Validates (n, ϒ, τ, ansatz) and sets up the system.
     ///
-    /// Errors: n outside [0, 5) or 0 < n < 1 with Υ ≠ 0 (`UnsupportedIndex`, §3.5.5; n = 0 with
-    /// Υ ≠ 0 is kept as the closed-form test case of §3.6, interior only); non-finite Υ or τ,
+    /// Errors: n outside [0, 5) or 0 < n < 1 with ϒ ≠ 0 (`UnsupportedIndex`, §3.5.5; n = 0 with
+    /// ϒ ≠ 0 is kept as the closed-form test case of §3.6, interior only); non-finite ϒ or τ,
     /// τ ≠ 0 without an ansatz, τ ≥ 1 for ansatz (b) (`InvalidParameter`); central coefficient
-    /// a ≤ 0, i.e. Υ ≤ −2(1−τ)/3 for (a) and Υ ≤ −2/3 for (b) (`NoRegularCentre`, §1.4).
+    /// a ≤ 0, i.e. ϒ ≤ −2(1−τ)/3 for (a) and ϒ ≤ −2/3 for (b) (`NoRegularCentre`, §1.4).
     pub fn new(
         n: f64,
         upsilon: f64,
@@ -332,7 +332,7 @@ impl ModifiedLaneEmden {
         if n > 0.0 && n < 1.0 && upsilon != 0.0 {
             return Err(TheoryError::UnsupportedIndex {
                 n,
-                why: "0 < n < 1 is supported only for Υ = 0 (for Υ < 0 the denominator always \
+                why: "0 < n < 1 is supported only for ϒ = 0 (for ϒ < 0 the denominator always \
                       vanishes at the surface; docs/structure.md §1.3, §3.5.5)",
             });
         }
@@ -393,7 +393,7 @@ impl ModifiedLaneEmden {
         ]
     }
 
-    /// D = 1 + κ(nΥ/4)ξ²θ^{n−1} (θ clamped at 0; exactly 1 when Υ = 0).
+    /// D = 1 + κ(nϒ/4)ξ²θ^{n−1} (θ clamped at 0; exactly 1 when ϒ = 0).
     pub fn denominator(&self, xi: f64, theta: f64) -> f64 {
         if self.upsilon == 0.0 {
             return 1.0;
@@ -403,7 +403,7 @@ impl ModifiedLaneEmden {
     }
 
     /// (max(θ, 0)ⁿ, max(θ, 0)^{n−1}), the second only meaningful where D uses it (n ≥ 1 when
-    /// Υ ≠ 0). Fast paths of [`IndexPowers`].
+    /// ϒ ≠ 0). Fast paths of [`IndexPowers`].
     #[inline(always)]
     fn index_powers(&self, theta: f64) -> (f64, f64) {
         match self.powers {
@@ -665,7 +665,7 @@ impl ModifiedLaneEmden {
             let theta = s * s;
             let xi = z[0];
             if xi.is_nan() || xi > opts.xi_max {
-                // θ creeping towards 0 without reaching it (e.g. θ ∝ ξ^{−4/3} at very large Υ).
+                // θ creeping towards 0 without reaching it (e.g. θ ∝ ξ^{−4/3} at very large ϒ).
                 return Err(TheoryError::NoSurface { xi_reached: xi });
             }
             let (dt, dm, tn) = self.rates(xi, theta, z[1])?;
@@ -754,7 +754,7 @@ impl ModifiedLaneEmden {
     }
 }
 
-/// Convenience: solve (n, Υ, τ, ansatz) with default options.
+/// Convenience: solve (n, ϒ, τ, ansatz) with default options.
 pub fn solve_lane_emden(
     n: f64,
     upsilon: f64,

@@ -1,7 +1,7 @@
 //! Minimum hydrogen-burning mass (MMHB) of a fully convective n = 3/2 polytrope, in two models,
 //! and the anchored bound that confronts catalogues (`docs/bounds.md` §2–§4).
 //!
-//! The modified gravity (Υ) and the anisotropy (τ) reach the MMHB only through three Lane–Emden
+//! The modified gravity (ϒ) and the anisotropy (τ) reach the MMHB only through three Lane–Emden
 //! constants of the n = 3/2 polytrope: ξ1, ω and J_k = ∫ξ²θ^k dξ. They come in as a plain
 //! [`PolytropeConstants`] so that every formula here can be tested with injected constants,
 //! independently of the structure solver.
@@ -12,7 +12,7 @@
 //!   finding and minimisation ([`model_a_numeric`]).
 //! * Model B, ignition temperature (the textbook criterion, e.g. Stevenson 1991, ARA&A 29, 163):
 //!   the mass whose peak central temperature reaches T_ign ([`model_b`]).
-//! * Anchoring ([`evaluate`]): the analytic model supplies only the ratio Φ = MMHB(Υ,τ)/MMHB(0,0),
+//! * Anchoring ([`evaluate`]): the analytic model supplies only the ratio Φ = MMHB(ϒ,τ)/MMHB(0,0),
 //!   applied to a standard-gravity value from evolutionary models, because the raw analytic
 //!   values (0.099 / 0.109 M☉) lie above measured hydrogen-burning stars.
 //!
@@ -121,7 +121,7 @@ pub struct PolytropeConstants {
 }
 
 impl PolytropeConstants {
-    /// Standard-gravity (Υ = τ = 0) constants at the default k = 9.73: ξ1 = 3.6537537362,
+    /// Standard-gravity (ϒ = τ = 0) constants at the default k = 9.73: ξ1 = 3.6537537362,
     /// ω = 2.7140551201 (Chandrasekhar 1939 / Horedt 2004 tables: 3.65375, 2.71406, verified in
     /// `docs/bounds.md` §1), J_9.73 = 0.2096067060 (computed there). For tests and examples; a grid
     /// should take its reference from the same solver as its other points.
@@ -158,7 +158,7 @@ impl PolytropeConstants {
         Ok(c)
     }
 
-    /// Solves the n = 3/2 modified Lane–Emden problem at (Υ, τ, ansatz) with J_k and returns
+    /// Solves the n = 3/2 modified Lane–Emden problem at (ϒ, τ, ansatz) with J_k and returns
     /// its constants (default solver options: rtol 1e-12).
     pub fn solve(
         upsilon: f64,
@@ -331,7 +331,7 @@ impl ModelAParams {
         }
     }
 
-    /// ψ* = (s − β)/[α(E − s + β)], the degeneracy at the minimum; the same at every (Υ, τ).
+    /// ψ* = (s − β)/[α(E − s + β)], the degeneracy at the minimum; the same at every (ϒ, τ).
     pub fn psi_star(&self) -> f64 {
         let x = self.exponents();
         (self.s - x.beta) / (self.alpha() * (x.e - self.s + x.beta))
@@ -474,7 +474,7 @@ impl ModelAState {
     }
 }
 
-/// Result of model A at one (Υ, τ): the raw analytic MMHB and the state at the minimum.
+/// Result of model A at one (ϒ, τ): the raw analytic MMHB and the state at the minimum.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ModelAResult {
     /// Raw (unanchored) MMHB, M☉.
@@ -593,9 +593,9 @@ pub fn model_a_numeric(
     })
 }
 
-/// Φ_A = MMHB_A(Υ,τ)/MMHB_A(0,0) from the exact exponents (`docs/bounds.md` §2.4):
+/// Φ_A = MMHB_A(ϒ,τ)/MMHB_A(0,0) from the exact exponents (`docs/bounds.md` §2.4):
 /// (γ/γ₀)^{E/p} (δ/δ₀)^{−D/p} [(ω/J_k)/(ω₀/J_k,0)]^{1/p} × g_factor^{4a/((1+a)p)}.
-/// `reference` holds the Υ = τ = 0 constants (always with exterior gravity). Independent of
+/// `reference` holds the ϒ = τ = 0 constants (always with exterior gravity). Independent of
 /// ε₀, b₁, κ_R, ν and μ_ph.
 pub fn phi_a(
     le: &PolytropeConstants,
@@ -651,7 +651,7 @@ impl ModelBParams {
     }
 }
 
-/// Result of model B at one (Υ, τ).
+/// Result of model B at one (ϒ, τ).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ModelBResult {
     /// Raw MMHB = (T_ign/C_T)^{3/4}, M☉.
@@ -699,7 +699,7 @@ pub fn model_b(le: &PolytropeConstants, params: &ModelBParams) -> Result<ModelBR
     })
 }
 
-/// Φ_B = MMHB_B(Υ,τ)/MMHB_B(0,0); identically ω/ω₀ (`docs/bounds.md` §3).
+/// Φ_B = MMHB_B(ϒ,τ)/MMHB_B(0,0); identically ω/ω₀ (`docs/bounds.md` §3).
 pub fn phi_b(le: &PolytropeConstants, reference: &PolytropeConstants) -> Result<f64, BoundError> {
     let p = ModelBParams::default();
     finite_result(
@@ -708,7 +708,7 @@ pub fn phi_b(le: &PolytropeConstants, reference: &PolytropeConstants) -> Result<
     )
 }
 
-/// Which analytic model supplies the MMHB (and its Υ, τ dependence).
+/// Which analytic model supplies the MMHB (and its ϒ, τ dependence).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case")]
 pub enum MmhbModel {
@@ -778,7 +778,7 @@ pub const RAW_FLOOR_MODEL_B_MSUN: f64 = 0.014;
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case", tag = "mode")]
 pub enum MmhbMode {
-    /// Bound = anchor × Φ(Υ,τ): the model supplies only the fractional shift (the default).
+    /// Bound = anchor × Φ(ϒ,τ): the model supplies only the fractional shift (the default).
     Anchored {
         /// Standard-gravity MMHB, M☉.
         anchor_msun: f64,
@@ -811,7 +811,7 @@ impl MmhbMode {
 /// Everything that selects an MMHB bound; the same at every grid point.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, Default)]
 pub struct MmhbConfig {
-    /// Which model supplies the bound and its Υ, τ dependence.
+    /// Which model supplies the bound and its ϒ, τ dependence.
     pub model: MmhbModel,
     /// Anchored (default) or raw.
     pub mode: MmhbMode,
@@ -820,11 +820,11 @@ pub struct MmhbConfig {
     /// Parameters of model B.
     pub model_b: ModelBParams,
     /// Add the model difference |Φ_A − Φ_B| × (anchor, or the raw standard-gravity value) to the
-    /// floor in quadrature (optional in `docs/bounds.md` §4, for Υ far from zero; default off).
+    /// floor in quadrature (optional in `docs/bounds.md` §4, for ϒ far from zero; default off).
     pub model_difference_in_floor: bool,
 }
 
-/// The MMHB bound at one (Υ, τ), with what a report must state about it.
+/// The MMHB bound at one (ϒ, τ), with what a report must state about it.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct MmhbBound {
     /// The bound used against data (anchored or raw), M☉.
@@ -840,7 +840,7 @@ pub struct MmhbBound {
     pub anchor_msun: Option<f64>,
     /// Raw analytic MMHB of the selected model at this point, M☉.
     pub raw_msun: f64,
-    /// Φ = raw(Υ,τ)/raw(0,0) of the selected model.
+    /// Φ = raw(ϒ,τ)/raw(0,0) of the selected model.
     pub phi: f64,
     /// The model-difference term included in `floor_msun`, M☉ (when asked for).
     pub model_difference_msun: Option<f64>,
@@ -848,8 +848,8 @@ pub struct MmhbBound {
     pub photosphere_g_factor: f64,
 }
 
-/// The MMHB bound at one grid point. `le` and `reference` are the n = 3/2 constants at (Υ, τ)
-/// and at Υ = τ = 0 (from the same solver, so that its errors cancel in Φ);
+/// The MMHB bound at one grid point. `le` and `reference` are the n = 3/2 constants at (ϒ, τ)
+/// and at ϒ = τ = 0 (from the same solver, so that its errors cancel in Φ);
 /// `photosphere_g_factor` is 1 for exterior gravity, or the effective factor of an anisotropy
 /// that reaches the photosphere when the user asks for it (model A only, `docs/bounds.md` §2.6).
 pub fn evaluate(

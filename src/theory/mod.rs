@@ -1,4 +1,4 @@
-//! The theory: modified stellar structure and the bounds it predicts over a (Υ, τ) grid.
+//! The theory: modified stellar structure and the bounds it predicts over a (ϒ, τ) grid.
 //!
 //! Specified in `docs/structure.md` and `docs/bounds.md`. This module
 //! knows nothing of catalogues: it maps parameters to bounds (minimum hydrogen-burning mass,
@@ -105,7 +105,7 @@ impl Axis {
 }
 
 /// The i-th value of a grid axis: [`Axis::value`], except that a value within a few rounding
-/// errors of zero is exactly 0 (so that `-0.9:0.3:5` has the standard-gravity point Υ = 0, not
+/// errors of zero is exactly 0 (so that `-0.9:0.3:5` has the standard-gravity point ϒ = 0, not
 /// −1.1e-16, and a τ = 0 row is recognised). Every point of a grid carries this value.
 pub fn grid_value(axis: &Axis, i: usize) -> f64 {
     let v = axis.value(i);

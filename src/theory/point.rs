@@ -1,6 +1,6 @@
-//! Every bound of the theory at one (Υ, τ) point, from one set of [`TheorySettings`].
+//! Every bound of the theory at one (ϒ, τ) point, from one set of [`TheorySettings`].
 //!
-//! One job: turn (Υ, τ) and the settings into a [`PointBounds`]: the modified Lane–Emden
+//! One job: turn (ϒ, τ) and the settings into a [`PointBounds`]: the modified Lane–Emden
 //! constants for n = 3/2 and n = 3, the minimum hydrogen-burning mass (raw, anchored, floor,
 //! Φ), the Chandrasekhar mass, the Schönberg–Chandrasekhar fraction, the break-up period of a
 //! stated reference object, warnings, and (on request) the white-dwarf mass–radius table.
@@ -89,7 +89,7 @@ pub struct MmhbValues {
     pub raw_msun: f64,
     /// 1σ theory floor, M☉.
     pub floor_msun: f64,
-    /// Φ = raw(Υ,τ)/raw(0,0).
+    /// Φ = raw(ϒ,τ)/raw(0,0).
     pub phi: f64,
     /// The anchor, M☉ (anchored mode only).
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -107,9 +107,9 @@ pub struct MmhbValues {
 pub struct ChandrasekharValues {
     /// The bound used against data for μ_e = 2 (Newtonian or anchored), M☉.
     pub value_msun: f64,
-    /// Newtonian pure-EOS M_Ch(Υ, τ) for μ_e = 2, M☉.
+    /// Newtonian pure-EOS M_Ch(ϒ, τ) for μ_e = 2, M☉.
     pub newtonian_mu_e2_msun: f64,
-    /// ω₃(Υ,τ)/ω₃(0,0).
+    /// ω₃(ϒ,τ)/ω₃(0,0).
     pub omega3_ratio: f64,
     /// 1σ theory floor, M☉.
     pub floor_msun: f64,
@@ -118,13 +118,13 @@ pub struct ChandrasekharValues {
 /// The Schönberg–Chandrasekhar fraction at one point (`docs/bounds.md` §7; τ = 0 only).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ScValues {
-    /// q_SC(Υ) = coefficient × λ² × ratio.
+    /// q_SC(ϒ) = coefficient × λ² × ratio.
     pub q_sc: f64,
-    /// q_SC(Υ)/q_SC(0).
+    /// q_SC(ϒ)/q_SC(0).
     pub ratio: f64,
     /// λ = μ_env/μ_core.
     pub lambda: f64,
-    /// True when the ratio was interpolated in Υ between solved grid nodes.
+    /// True when the ratio was interpolated in ϒ between solved grid nodes.
     pub interpolated: bool,
 }
 
@@ -135,10 +135,10 @@ pub struct BreakupValues {
     pub period_h: f64,
     /// Non-rotating radius of the reference object, R☉.
     pub radius_rsun: f64,
-    /// Full-EOS radius over the n = 3/2 polytrope radius at the same (Υ, τ, M, μ_e): the
+    /// Full-EOS radius over the n = 3/2 polytrope radius at the same (ϒ, τ, M, μ_e): the
     /// relativistic-electron correction (≈ 0.99).
     pub polytrope_correction: f64,
-    /// True when `polytrope_correction` was interpolated in (Υ, τ) between solved grid nodes.
+    /// True when `polytrope_correction` was interpolated in (ϒ, τ) between solved grid nodes.
     pub interpolated: bool,
 }
 
@@ -158,7 +158,7 @@ impl BreakupValues {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Warning {
-    /// −2/3 < Υ < −4/9: below the relativistic existence bound Υ₁ > −4/9 of Babichev, Koyama,
+    /// −2/3 < ϒ < −4/9: below the relativistic existence bound ϒ₁ > −4/9 of Babichev, Koyama,
     /// Langlois, Saito & Sakstein 2016 (arXiv:1606.06627); theoretically disfavoured.
     BelowRelativisticBound,
     /// The Chandrasekhar mass is Newtonian order: towards M_Ch, GM/(Rc²) grows without bound and
@@ -201,10 +201,10 @@ impl Warning {
     }
 }
 
-/// Every bound at one (Υ, τ).
+/// Every bound at one (ϒ, τ).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PointBounds {
-    /// Υ.
+    /// ϒ.
     pub upsilon: f64,
     /// τ (of the settings' anisotropy ansatz).
     pub tau: f64,
@@ -341,7 +341,7 @@ impl PointEvaluator {
         &self.settings
     }
 
-    /// Solves both Lane–Emden problems at (Υ, τ). For the gradient ansatz only τ = 0 is solved
+    /// Solves both Lane–Emden problems at (ϒ, τ). For the gradient ansatz only τ = 0 is solved
     /// and τ follows by the exact rescaling G → (1 − τ)G (`docs/structure.md` §2.2).
     pub fn lane_emden(&self, upsilon: f64, tau: f64) -> LaneEmdenPair {
         if self.settings.anisotropy == Anisotropy::Gradient {
@@ -358,7 +358,7 @@ impl PointEvaluator {
         }
     }
 
-    /// The τ = 0 solutions at Υ (for the gradient ansatz, to be rescaled).
+    /// The τ = 0 solutions at ϒ (for the gradient ansatz, to be rescaled).
     pub fn lane_emden_tau0(&self, upsilon: f64) -> LaneEmdenPair {
         let solve = |n: f64, opts: &LaneEmdenOptions| {
             ModifiedLaneEmden::new(n, upsilon, 0.0, Anisotropy::Gradient)
@@ -383,7 +383,7 @@ impl PointEvaluator {
         }
     }
 
-    /// The SC fraction at (Υ, τ) for the settings' ansatz. The standard-gravity fit is solved
+    /// The SC fraction at (ϒ, τ) for the settings' ansatz. The standard-gravity fit is solved
     /// once per evaluator (see [`PointEvaluator::with_sc_reference`]).
     pub fn sc(&self, upsilon: f64, tau: f64) -> Outcome<ScValues> {
         self.sc_ratio(upsilon, tau)
@@ -391,7 +391,7 @@ impl PointEvaluator {
     }
 
     /// Solves and keeps the standard-gravity SC fit, so that [`PointEvaluator::sc`] needs one fit
-    /// per Υ instead of two. Harmless if the fit fails (each point then reports why).
+    /// per ϒ instead of two. Harmless if the fit fails (each point then reports why).
     pub fn with_sc_reference(mut self) -> Self {
         if self.settings.sc_variant == ScVariant::FullFit {
             let p = &self.settings.sc;
@@ -407,11 +407,11 @@ impl PointEvaluator {
         self
     }
 
-    /// q_SC(Υ, τ)/q_SC(0, 0) at (Υ, τ), or why not.
+    /// q_SC(ϒ, τ)/q_SC(0, 0) at (ϒ, τ), or why not.
     pub fn sc_ratio(&self, upsilon: f64, tau: f64) -> Outcome<f64> {
         let p = &self.settings.sc;
         let a = self.settings.anisotropy;
-        // `sc_fraction_with` validates everything; at Υ = τ = 0 it fits nothing.
+        // `sc_fraction_with` validates everything; at ϒ = τ = 0 it fits nothing.
         let (u_check, t_check) = if self.sc_reference_q.is_some() {
             (0.0, 0.0)
         } else {
@@ -419,7 +419,7 @@ impl PointEvaluator {
         };
         let checked = schonberg::sc_fraction_with(u_check, t_check, a, p, self.settings.sc_variant)
             .and_then(|q| {
-                // Validates (Υ, τ, ansatz) when the fit itself is skipped above.
+                // Validates (ϒ, τ, ansatz) when the fit itself is skipped above.
                 ModifiedLaneEmden::new(p.n_env, upsilon, tau, a)?;
                 Ok(q)
             });
@@ -427,7 +427,7 @@ impl PointEvaluator {
             (Err(e), _) => Outcome::Failed(e.into()),
             (Ok(q), None) => Outcome::Ok(q.ratio),
             (Ok(_), Some(_)) if upsilon == 0.0 && tau == 0.0 => Outcome::Ok(1.0),
-            // The same arithmetic as `sc_fraction_with`, with the Υ = τ = 0 fit solved once. The
+            // The same arithmetic as `sc_fraction_with`, with the ϒ = τ = 0 fit solved once. The
             // gradient ansatz's factor is its τ = 0 value exactly (G-rescaling; checked in the
             // Schönberg–Chandrasekhar tests), so grids solve one row of it.
             (Ok(_), Some(q0)) => schonberg::core_envelope_fit_with(
@@ -455,9 +455,9 @@ impl PointEvaluator {
         }
     }
 
-    /// The reference object's full-EOS radius over its n = 3/2 polytrope radius at (Υ, τ),
+    /// The reference object's full-EOS radius over its n = 3/2 polytrope radius at (ϒ, τ),
     /// solved exactly (a secant search on ln x_c started from the polytrope, 3–4 full-EOS
-    /// models). `le15` is the n = 3/2 solution at (Υ, τ).
+    /// models). `le15` is the n = 3/2 solution at (ϒ, τ).
     pub fn breakup_correction(
         &self,
         upsilon: f64,
@@ -518,7 +518,7 @@ impl PointEvaluator {
         })
     }
 
-    /// The white-dwarf table at (Υ, τ) (gradient ansatz: the τ = 0 table rescaled).
+    /// The white-dwarf table at (ϒ, τ) (gradient ansatz: the τ = 0 table rescaled).
     pub fn wd_table(&self, upsilon: f64, tau: f64) -> Result<WdMassRadius, TheoryError> {
         let opts = self.settings.wd_table_options();
         match self.settings.anisotropy {
@@ -635,7 +635,7 @@ impl PointEvaluator {
         }
     }
 
-    /// Every bound at (Υ, τ), each solved exactly; with the white-dwarf table when asked.
+    /// Every bound at (ϒ, τ), each solved exactly; with the white-dwarf table when asked.
     pub fn evaluate(&self, upsilon: f64, tau: f64, with_wd_table: bool) -> PointBounds {
         let le = self.lane_emden(upsilon, tau);
         let sc = self.sc(upsilon, tau);
@@ -660,7 +660,7 @@ pub fn polytrope_radius_dimless(m: f64, xi1: f64, omega: f64) -> f64 {
 }
 
 /// η_s of the full-EOS model of dimensionless mass `m`: a secant search on ln x_c started from
-/// the n = 3/2 polytrope with ω of the same (Υ, τ), ending with a linear interpolation of
+/// the n = 3/2 polytrope with ω of the same (ϒ, τ), ending with a linear interpolation of
 /// ln η in ln m between the last two models (error ≲ curvature × the two last mass residuals).
 fn radius_at_mass_dimless(
     eos: &ChandrasekharEos,
@@ -728,7 +728,7 @@ pub fn point_bounds(
     Ok(PointEvaluator::new(settings)?.evaluate(upsilon, tau, with_wd_table))
 }
 
-/// All bounds in standard gravity (Υ = τ = 0) with these settings, white-dwarf table included.
+/// All bounds in standard gravity (ϒ = τ = 0) with these settings, white-dwarf table included.
 pub fn standard_point(settings: &TheorySettings) -> Result<PointBounds, SettingsError> {
     point_bounds(0.0, 0.0, settings, true)
 }

@@ -6,7 +6,7 @@
 //! rotation, point-mass gravity, equatorial radius 3/2 of the polar one at shedding);
 //! κ = 1.8911 for an n = 3/2 polytrope from the self-consistent-field models of `docs/structure.md`
 //! §5.2 (computed there with the method of Hachisu 1986, ApJS 61, 479; mass-matched basis).
-//! Υ and τ enter only through R(M): the exterior is screened and the break-up condition is
+//! ϒ and τ enter only through R(M): the exterior is screened and the break-up condition is
 //! unmodified (§5.3).
 //!
 //! ```
@@ -102,9 +102,9 @@ pub struct BreakupCurvePoint {
 }
 
 /// The minimum spin period P_break(M) over `masses_msun` for the cold, fully degenerate
-/// structure of `table` (built at one grid point (Υ, τ, ansatz)) with electron molecular weight
+/// structure of `table` (built at one grid point (ϒ, τ, ansatz)) with electron molecular weight
 /// `mu_e`: μ_e = 2 for white dwarfs, 2/(1 + X) for the cold hydrogen-rich floor of brown dwarfs
-/// and very-low-mass stars (the project's theory check values use X = 0.75). Υ and τ enter only through
+/// and very-low-mass stars (the project's theory check values use X = 0.75). ϒ and τ enter only through
 /// R(M); the exterior gravity and the break-up condition are standard (the exterior is screened). Each mass gets its
 /// own result: a mass at or above the Chandrasekhar mass is a typed error, never NaN.
 ///

@@ -1,16 +1,16 @@
 //! Schönberg–Chandrasekhar (SC) fraction: the largest fraction of a star's mass that an
-//! isothermal core can hold under a lighter envelope, and how Υ and τ shift it.
+//! isothermal core can hold under a lighter envelope, and how ϒ and τ shift it.
 //!
 //! The classic value q_SC ≈ 0.37 λ², λ = μ_env/μ_core (Schönberg & Chandrasekhar 1942, ApJ 96,
 //! 161), came from radiative-envelope models this module does not rebuild. Instead an isothermal
 //! core is fitted to an n_env = 3 polytropic envelope (the modified Lane–Emden system started at
-//! the interface) and the fit supplies only the ratio q_fit(λ,Υ,τ)/q_fit(λ,0,0); the tool
-//! reports q_SC = 0.37 λ² × that ratio. With Υ ≠ 0 the density jump at the core edge turns
+//! the interface) and the fit supplies only the ratio q_fit(λ,ϒ,τ)/q_fit(λ,0,0); the tool
+//! reports q_SC = 0.37 λ² × that ratio. With ϒ ≠ 0 the density jump at the core edge turns
 //! ρ·d²M/dr² into a δ-function, so the pressure itself is discontinuous there and
-//! P̃ = P + (πGΥ/2) r² ρ² is what must match.
+//! P̃ = P + (πGϒ/2) r² ρ² is what must match.
 //!
 //! Anisotropy enters the core exactly as it enters the Lane–Emden system (its n → ∞ limit, with
-//! the same (p, c, κ) coefficients): φ′[1 + κ(Υ/4)ζ²e^{−φ}] = p[m/ζ² + cζe^{−φ}]. For the
+//! the same (p, c, κ) coefficients): φ′[1 + κ(ϒ/4)ζ²e^{−φ}] = p[m/ζ² + cζe^{−φ}]. For the
 //! density-squared ansatz σ is finite at the jump and the interface condition is unchanged; for
 //! the gradient ansatz G → (1 − τ)G everywhere inside matter, jump included, so the
 //! dimensionless fraction does not depend on τ at all (an exact identity the tests check).
@@ -39,7 +39,7 @@ use std::f64::consts::PI;
 const RTOL: f64 = 1e-12;
 /// Start of the core integration (central series below it).
 const ZETA0: f64 = 1e-4;
-/// Smallest allowed denominator 1 + (Υ/4)ζ²e^{−φ} (or its envelope analogue) before the
+/// Smallest allowed denominator 1 + (ϒ/4)ζ²e^{−φ} (or its envelope analogue) before the
 /// pressure gradient is declared undetermined (`docs/structure.md` §1.3).
 const D_MIN: f64 = 1e-9;
 
@@ -59,14 +59,14 @@ fn ode_failure<E: std::fmt::Display>(what: &str, e: OdeError<E>) -> BoundError {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case")]
 pub enum InterfaceCondition {
-    /// P̃ = P + (πGΥ/2) r² ρ² continuous (with T): the correct condition (`docs/bounds.md` §7.2).
+    /// P̃ = P + (πGϒ/2) r² ρ² continuous (with T): the correct condition (`docs/bounds.md` §7.2).
     #[default]
     ContinuousPTilde,
-    /// P continuous, the jump term ignored: wrong for Υ ≠ 0, kept only as a diagnostic.
+    /// P continuous, the jump term ignored: wrong for ϒ ≠ 0, kept only as a diagnostic.
     ContinuousPressure,
 }
 
-/// The structure of the core at one (Υ, τ, ansatz): the (p, c, κ) coefficients of the
+/// The structure of the core at one (ϒ, τ, ansatz): the (p, c, κ) coefficients of the
 /// modified Lane–Emden system, reused for the isothermal core (its n → ∞ limit).
 #[derive(Debug, Clone, Copy, PartialEq)]
 struct Core {
@@ -79,7 +79,7 @@ struct Core {
 }
 
 impl Core {
-    /// Validates (Υ, τ, ansatz) through the Lane–Emden system of index `n_env` (regular centre,
+    /// Validates (ϒ, τ, ansatz) through the Lane–Emden system of index `n_env` (regular centre,
     /// τ < 1 for the gradient ansatz, τ = 0 without an ansatz) and takes its coefficients.
     fn new(upsilon: f64, tau: f64, anisotropy: Anisotropy, n_env: f64) -> Result<Self, BoundError> {
         if !upsilon.is_finite() {
@@ -100,14 +100,14 @@ impl Core {
         })
     }
 
-    /// The isotropic core at Υ (τ = 0).
+    /// The isotropic core at ϒ (τ = 0).
     fn isotropic(upsilon: f64) -> Result<Self, BoundError> {
         Core::new(upsilon, 0.0, Anisotropy::None, 3.0)
     }
 
-    /// Right-hand side, y = (φ, m): φ′[1 + κ(Υ/4)ζ²e^{−φ}] = p[m/ζ² + cζe^{−φ}], m′ = ζ²e^{−φ}.
-    /// For τ = 0 (p = κ = 1, c = Υ/2) every operation rounds exactly as the isotropic form
-    /// (m/ζ² + (Υ/2)ζe^{−φ})/(1 + (Υ/4)ζ²e^{−φ}) did before anisotropy was added.
+    /// Right-hand side, y = (φ, m): φ′[1 + κ(ϒ/4)ζ²e^{−φ}] = p[m/ζ² + cζe^{−φ}], m′ = ζ²e^{−φ}.
+    /// For τ = 0 (p = κ = 1, c = ϒ/2) every operation rounds exactly as the isotropic form
+    /// (m/ζ² + (ϒ/2)ζe^{−φ})/(1 + (ϒ/4)ζ²e^{−φ}) did before anisotropy was added.
     fn rhs(&self, zeta: f64, y: &[f64; 2]) -> Result<[f64; 2], String> {
         let w = (-y[0]).exp();
         let d = 1.0 + self.kappa * 0.25 * self.upsilon * zeta * zeta * w;
@@ -123,7 +123,7 @@ impl Core {
     }
 
     /// Central series at ζ₀: φ = Aζ², m = ζ³/3 − Aζ⁵/5, A = p(1 + 3c)/6 (the Lane–Emden
-    /// central coefficient; (1 + 3Υ/2 − τ)/6 for the density-squared ansatz).
+    /// central coefficient; (1 + 3ϒ/2 − τ)/6 for the density-squared ansatz).
     fn start(&self) -> [f64; 2] {
         let a = self.p * (1.0 + 3.0 * self.c) / 6.0;
         let z = ZETA0;
@@ -160,7 +160,7 @@ pub struct BonnorEbert {
     pub zeta: f64,
 }
 
-/// The Bonnor–Ebert constant C_BE(Υ) = max_ζ e^{−φ(ζ)} m(ζ)²/(4π) of the modified isothermal
+/// The Bonnor–Ebert constant C_BE(ϒ) = max_ζ e^{−φ(ζ)} m(ζ)²/(4π) of the modified isothermal
 /// core (Bonnor 1956, MNRAS 116, 351; Ebert 1955, Z. Astrophys. 37, 217: 1.40 at ζ = 6.451).
 /// The maximum is located as the first zero of d/dζ[e^{−φ}m²] ∝ 2ζ²e^{−φ} − φ′m, found as an
 /// integration event, so ζ is accurate to near machine precision rather than to √ε.
@@ -223,7 +223,7 @@ fn q_at(
     let w_e = match interface {
         InterfaceCondition::ContinuousPressure => lambda * w_c,
         InterfaceCondition::ContinuousPTilde => {
-            // w_c + A w_c² = w_e/λ + A w_e², A = κ(Υ/8)ζ_f²; the root continuous with Υ → 0.
+            // w_c + A w_c² = w_e/λ + A w_e², A = κ(ϒ/8)ζ_f²; the root continuous with ϒ → 0.
             // κ = 1 − τ for the gradient ansatz (its G → (1 − τ)G reaches the δ-function too);
             // the density-squared σ is finite at the jump and adds nothing there.
             let a = core.kappa * upsilon * zeta_f * zeta_f / 8.0;
@@ -248,7 +248,7 @@ fn q_at(
     let r_e = ((n_env + 1.0) * p_e).sqrt() / w_e;
     let xi_f = zeta_f / r_e;
     let mu_f = m / (r_e.powi(3) * w_e);
-    // The envelope obeys the modified Lane–Emden system with the core's (Υ, τ, ansatz), started
+    // The envelope obeys the modified Lane–Emden system with the core's (ϒ, τ, ansatz), started
     // at the interface instead of the centre.
     let envelope = ModifiedLaneEmden::new(n_env, upsilon, core.tau, core.anisotropy)?;
     let opts = OdeOptions::new(RTOL, 1e-15, 1e-3 * xi_f);
@@ -281,7 +281,7 @@ fn q_at(
     }
 }
 
-/// The best core–envelope fit at one (λ, Υ).
+/// The best core–envelope fit at one (λ, ϒ).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct CoreEnvelopeFit {
     /// Maximum core mass fraction q_fit over the core edge.
@@ -304,7 +304,7 @@ fn validate_fit_inputs(lambda: f64, n_env: f64) -> Result<(), BoundError> {
     Ok(())
 }
 
-/// The maximum over ζ_f of the core mass fraction q = μ_f/μ₁ of an isothermal core (Υ-modified)
+/// The maximum over ζ_f of the core mass fraction q = μ_f/μ₁ of an isothermal core (ϒ-modified)
 /// fitted to a polytropic envelope of index `n_env` (`docs/bounds.md` §7.1–7.2). The maximum is
 /// bracketed on a log-spaced scan of ζ_f ∈ [0.5, 60] and refined by Brent's method.
 pub fn core_envelope_fit(
@@ -421,10 +421,10 @@ impl ScParams {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case")]
 pub enum ScVariant {
-    /// q_fit(λ,Υ)/q_fit(λ,0) from the full core–envelope fit (the default).
+    /// q_fit(λ,ϒ)/q_fit(λ,0) from the full core–envelope fit (the default).
     #[default]
     FullFit,
-    /// √(C_BE(Υ)/C_BE(0)) from the core alone; the difference to the full fit is the SC theory
+    /// √(C_BE(ϒ)/C_BE(0)) from the core alone; the difference to the full fit is the SC theory
     /// uncertainty (`docs/bounds.md` §7.2).
     CoreFactorOnly,
 }
@@ -439,12 +439,12 @@ impl ScVariant {
     }
 }
 
-/// The SC fraction at one Υ.
+/// The SC fraction at one ϒ.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ScFraction {
-    /// q_SC(Υ) = classic coefficient × λ² × ratio.
+    /// q_SC(ϒ) = classic coefficient × λ² × ratio.
     pub q_sc: f64,
-    /// The modified-gravity factor q_SC(Υ)/q_SC(0).
+    /// The modified-gravity factor q_SC(ϒ)/q_SC(0).
     pub ratio: f64,
     /// λ = μ_env/μ_core used.
     pub lambda: f64,
@@ -452,7 +452,7 @@ pub struct ScFraction {
     pub variant: ScVariant,
 }
 
-/// The Schönberg–Chandrasekhar fraction q_SC(Υ, τ) = 0.37 λ² × [modified-gravity factor]
+/// The Schönberg–Chandrasekhar fraction q_SC(ϒ, τ) = 0.37 λ² × [modified-gravity factor]
 /// with τ the strength of the density-squared ansatz (the project's
 /// default meaning of τ). See [`sc_fraction_with`] for another ansatz.
 pub fn sc_fraction(
@@ -464,8 +464,8 @@ pub fn sc_fraction(
     sc_fraction_with(upsilon, tau, Anisotropy::DensitySquared, params, variant)
 }
 
-/// The Schönberg–Chandrasekhar fraction at (Υ, τ) for the given anisotropy ansatz: 0.37 λ² ×
-/// q_fit(λ,Υ,τ)/q_fit(λ,0,0) (full fit) or × √(C_BE(Υ,τ)/C_BE(0,0)) (core factor only).
+/// The Schönberg–Chandrasekhar fraction at (ϒ, τ) for the given anisotropy ansatz: 0.37 λ² ×
+/// q_fit(λ,ϒ,τ)/q_fit(λ,0,0) (full fit) or × √(C_BE(ϒ,τ)/C_BE(0,0)) (core factor only).
 ///
 /// For the gradient ansatz the whole problem is the τ = 0 one with G → (1 − τ)G; the mass
 /// fraction is dimensionless and so exactly independent of τ. The full fit is nevertheless
@@ -488,7 +488,7 @@ pub fn sc_fraction_with(
         )));
     }
     validate_fit_inputs(lambda, params.n_env)?;
-    // Validates (Υ, τ, ansatz) even where nothing is fitted below.
+    // Validates (ϒ, τ, ansatz) even where nothing is fitted below.
     Core::new(upsilon, tau, anisotropy, params.n_env)?;
     let ratio = if upsilon == 0.0 && tau == 0.0 {
         1.0

@@ -50,8 +50,8 @@ pub struct SettingsError {
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, Default)]
 #[serde(rename_all = "kebab-case", tag = "mode")]
 pub enum ChandrasekharMode {
-    /// The Newtonian, pure-EOS value 5.82519/μ_e² M☉ × ω₃(Υ,τ)/ω₃(0,0): conservative for
-    /// excluding Υ < 0 (every neglected effect lowers the real maximum). The default.
+    /// The Newtonian, pure-EOS value 5.82519/μ_e² M☉ × ω₃(ϒ,τ)/ω₃(0,0): conservative for
+    /// excluding ϒ < 0 (every neglected effect lowers the real maximum). The default.
     #[default]
     Newtonian,
     /// A realistic standard-gravity maximum (for μ_e = 2; it scales as (2/μ_e)²) times the same
@@ -140,7 +140,7 @@ impl BreakupReference {
 pub struct Numerics {
     /// Relative tolerance of every Lane–Emden solve (default 1e-10; absolute tolerance 1e-2 of
     /// it). Against rtol 1e-13 the constants ξ1, ω, J_k agree to ≤ 2e-10 over
-    /// Υ ∈ [−0.66, 0.6], τ ∈ [−0.3, 0.3].
+    /// ϒ ∈ [−0.66, 0.6], τ ∈ [−0.3, 0.3].
     pub lane_emden_rtol: f64,
     /// Where the Lane–Emden central series hands over to the integrator (default 1e-4, the
     /// ξ₀ of `docs/structure.md` §3.3).
@@ -155,13 +155,13 @@ pub struct Numerics {
     /// White-dwarf table models per decade of x_c (default 12).
     pub wd_points_per_decade: usize,
     /// In a grid, white-dwarf tables are solved at every `wd_grid_stride`-th point of each axis
-    /// (and the last) and interpolated in (Υ, τ) in between; 1 solves every point (default 8).
+    /// (and the last) and interpolated in (ϒ, τ) in between; 1 solves every point (default 8).
     pub wd_grid_stride: usize,
     /// In a grid, the break-up reference radius correction (full EOS over polytrope, ≈ 0.998) is
     /// solved at every `breakup_grid_stride`-th point and interpolated in between; 1 solves
     /// every point (default 4).
     pub breakup_grid_stride: usize,
-    /// In a grid, the Schönberg–Chandrasekhar factor is solved at every `sc_grid_stride`-th Υ
+    /// In a grid, the Schönberg–Chandrasekhar factor is solved at every `sc_grid_stride`-th ϒ
     /// and τ (and on the τ = 0 row, which stays exact) and interpolated in between; 1 solves
     /// every point. Default 8: one fit costs about 30 ms, so a 91 × 61 grid needs ~100 fits
     /// instead of ~1 400 at stride 2; the price is a relative interpolation error of about 3e-3

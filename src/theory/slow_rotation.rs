@@ -3,10 +3,10 @@
 //!
 //! One job: Chandrasekhar's expansion of rotating polytropes (Chandrasekhar 1933, MNRAS 93, 390),
 //! Θ(ξ, μ) = θ(ξ) + v[ψ₀(ξ) + A₂ψ₂(ξ)P₂(μ)], v = Ω²/(2πGρ_c), applied to the modified
-//! Lane–Emden equation with the Υ and τ terms. The derivation is written out in the project's
-//! docs (`docs/rotation.md`). In short, with D = 1 + κ(nΥ/4)ξ²θ^{n−1} and (p, c, κ) the
-//! coefficients of the modified Lane–Emden system, the variable u = θ + κ(Υ/4)ξ²θⁿ obeys
-//! ξ²u′ = −pμ + eξ³θⁿ + p v ξ³/3 with e = κΥ/2 − pc (τ/3 for the density-squared ansatz,
+//! Lane–Emden equation with the ϒ and τ terms. The derivation is written out in the project's
+//! docs (`docs/rotation.md`). In short, with D = 1 + κ(nϒ/4)ξ²θ^{n−1} and (p, c, κ) the
+//! coefficients of the modified Lane–Emden system, the variable u = θ + κ(ϒ/4)ξ²θⁿ obeys
+//! ξ²u′ = −pμ + eξ³θⁿ + p v ξ³/3 with e = κϒ/2 − pc (τ/3 for the density-squared ansatz,
 //! 0 otherwise). Its perturbations χ = Dψ give
 //!
 //! * spherical part: ξ²χ₀′ = −p m₀ + e n ξ³ θ^{n−1} χ₀/D + p ξ³/3,  m₀′ = n ξ² θ^{n−1} χ₀/D;
@@ -14,8 +14,8 @@
 //!   falls as ξ⁻³: A₂ = −(5/6) p ξ₁² / (3χ₂(ξ₁) + ξ₁χ₂′(ξ₁)).
 //!
 //! The bound-relevant changes (mass, volume-equivalent radius) come from ψ₀ alone: the P₂ part
-//! averages to zero over angle at first order. The P₂ part (the shape) is given where the Υ
-//! term can be written as a potential (πGΥr²ρ) — every case except the density-squared
+//! averages to zero over angle at first order. The P₂ part (the shape) is given where the ϒ
+//! term can be written as a potential (πGϒr²ρ) — every case except the density-squared
 //! anisotropy with τ ≠ 0, whose radial force has a curl off spherical symmetry, so that no
 //! barotropic rigidly rotating equilibrium exists at first order in its naive extension.
 //!
@@ -93,12 +93,12 @@ pub struct SlowRotationShape {
     pub polar_radius_coefficient: f64,
 }
 
-/// First-order rotation coefficients of one polytrope (index n) at (Υ, τ, ansatz).
+/// First-order rotation coefficients of one polytrope (index n) at (ϒ, τ, ansatz).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct SlowRotation {
     /// Polytropic index.
     pub n: f64,
-    /// Υ.
+    /// ϒ.
     pub upsilon: f64,
     /// τ.
     pub tau: f64,
@@ -194,10 +194,10 @@ fn rhs(le: &ModifiedLaneEmden, e: f64, xi: f64, y: &State) -> Result<State, Theo
     Ok([dtheta, dmu, dchi0, dm0, dchi2, d2chi2])
 }
 
-/// The first-order rotation coefficients of the polytrope of index n at (Υ, τ, ansatz).
+/// The first-order rotation coefficients of the polytrope of index n at (ϒ, τ, ansatz).
 ///
-/// Supported: 1 < n < 5 for any (Υ, τ) with a model, and n = 1 at Υ = 0 (where the surface
-/// matching needs a smooth Υ term, see `docs/rotation.md`). Errors are the structure's typed
+/// Supported: 1 < n < 5 for any (ϒ, τ) with a model, and n = 1 at ϒ = 0 (where the surface
+/// matching needs a smooth ϒ term, see `docs/rotation.md`). Errors are the structure's typed
 /// errors (no regular centre, vanishing denominator, no surface, unsupported index).
 pub fn slow_rotation(
     n: f64,
@@ -209,8 +209,8 @@ pub fn slow_rotation(
     if !(n > 1.0 || (n == 1.0 && upsilon == 0.0)) {
         return Err(TheoryError::UnsupportedIndex {
             n,
-            why: "slow rotation needs 1 < n < 5 (n = 1 only at Υ = 0): the surface matching \
-                  needs a Υ term that is smooth across the surface",
+            why: "slow rotation needs 1 < n < 5 (n = 1 only at ϒ = 0): the surface matching \
+                  needs a ϒ term that is smooth across the surface",
         });
     }
     let (p, c, kappa) = le.coefficients();

@@ -1,11 +1,11 @@
 //! The white-dwarf mass–radius tables of a grid: solved on a sub-grid of nodes, interpolated
-//! in (Υ, τ) in between, solved exactly where interpolation is not possible, with the
+//! in (ϒ, τ) in between, solved exactly where interpolation is not possible, with the
 //! interpolation error measured at build time.
 //!
 //! One job: build and query [`WdGrid`]. Tables are solved at every `numerics.wd_grid_stride`-th
 //! point of each axis (and the last) and interpolated by tensor-product cubic Lagrange
 //! polynomials of ln(m/(m_Ch − m)) and ln η at each tabulated x_c, with the point's own exact
-//! m_Ch = ω₃(Υ, τ); points whose stencil touches a node without a model are solved exactly.
+//! m_Ch = ω₃(ϒ, τ); points whose stencil touches a node without a model are solved exactly.
 //! For the gradient ansatz only τ = 0 is solved and every τ follows by the exact rescaling
 //! G → (1 − τ)G.
 //!
@@ -43,7 +43,7 @@ use crate::theory::{grid_value, Anisotropy, Axis};
 
 /// The parts of a grid (or shard) that its white-dwarf tables depend on.
 pub(crate) struct GridPoints<'a> {
-    /// The Υ axis.
+    /// The ϒ axis.
     pub upsilon: Axis,
     /// The τ axis.
     pub tau: Axis,
@@ -72,12 +72,12 @@ impl GridPoints<'_> {
 /// White-dwarf tables of a grid: solved on nodes, interpolated elsewhere (see the module docs).
 #[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct WdGrid {
-    /// Fine Υ indices of the nodes.
+    /// Fine ϒ indices of the nodes.
     pub upsilon_nodes: Vec<usize>,
     /// Fine τ indices of the nodes; empty for the gradient ansatz, whose tables are solved at
     /// τ = 0 and rescaled exactly.
     pub tau_nodes: Vec<usize>,
-    /// Node tables, τ-node outer, Υ-node inner (one row at τ = 0 for the gradient ansatz).
+    /// Node tables, τ-node outer, ϒ-node inner (one row at τ = 0 for the gradient ansatz).
     pub node_tables: Vec<Outcome<WdMassRadius>>,
     /// Points of this grid (fine index) whose table was solved directly, because a node of
     /// their interpolation stencil has no model or the interpolated table was not valid.

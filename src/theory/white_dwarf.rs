@@ -1,8 +1,8 @@
 //! White dwarfs: the Chandrasekhar mass and the zero-temperature mass–radius relation with
-//! Υ and τ.
+//! ϒ and τ.
 //!
-//! One job: turn (Υ, τ, ansatz) into (i) the Chandrasekhar mass M_Ch(Υ, τ, μ_e) =
-//! M_Ch,GR(μ_e)·ω₃(Υ,τ)/ω₃(0,0) (`docs/structure.md` §4.1) and (ii) a compact dimensionless table of
+//! One job: turn (ϒ, τ, ansatz) into (i) the Chandrasekhar mass M_Ch(ϒ, τ, μ_e) =
+//! M_Ch,GR(μ_e)·ω₃(ϒ,τ)/ω₃(0,0) (`docs/structure.md` §4.1) and (ii) a compact dimensionless table of
 //! the full Chandrasekhar-EOS models (Chandrasekhar 1935, MNRAS 95, 207; §4.2–4.3), from which
 //! R(M; μ_e) follows for every μ_e by the exact scaling ℓ ∝ 1/μ_e, 𝓜 ∝ 1/μ_e². Everything is
 //! Newtonian order: [`WdRadius::post_newtonian_warning`] flags GM/(Rc²) > 5e-4 (§4.5).
@@ -78,14 +78,14 @@ fn check_mu_e(mu_e: f64) -> Result<(), TheoryError> {
     }
 }
 
-/// ω₃(Υ, τ) of the modified n = 3 Lane–Emden problem (true-G units).
+/// ω₃(ϒ, τ) of the modified n = 3 Lane–Emden problem (true-G units).
 pub fn omega3(upsilon: f64, tau: f64, anisotropy: Anisotropy) -> Result<f64, TheoryError> {
     Ok(ModifiedLaneEmden::new(3.0, upsilon, tau, anisotropy)?
         .solve(&LaneEmdenOptions::default())?
         .omega)
 }
 
-/// M_Ch(Υ, τ, μ_e) = M_Ch,GR(μ_e)·ω₃(Υ,τ)/ω₃(0,0) in M☉ (`docs/structure.md` §4.1). Exact because
+/// M_Ch(ϒ, τ, μ_e) = M_Ch,GR(μ_e)·ω₃(ϒ,τ)/ω₃(0,0) in M☉ (`docs/structure.md` §4.1). Exact because
 /// the modified n = 3 problem stays scale-free, so the mass is still independent of ρ_c.
 pub fn chandrasekhar_mass_msun(
     upsilon: f64,
@@ -103,7 +103,7 @@ pub fn chandrasekhar_mass_msun(
 /// The structure equations of §4.3 for the full zero-temperature Chandrasekhar EOS, in
 /// u = y − 1 = √(1+x²) − 1 (no cancellation at low density) and η = r/ℓ, m = M/𝓜:
 ///
-///   du/dη = −p [m + c η³ x³] / { η² [1 + κ (3Υ/4) η² (1+u) x] },   dm/dη = η² x³,
+///   du/dη = −p [m + c η³ x³] / { η² [1 + κ (3ϒ/4) η² (1+u) x] },   dm/dη = η² x³,
 ///
 /// with (p, c, κ) of the Lane–Emden table (`docs/structure.md` §3.2).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -126,10 +126,10 @@ pub struct WdModel {
 }
 
 impl ChandrasekharEos {
-    /// Validates (Υ, τ, ansatz) with the same rules as the Lane–Emden problem (the regular-centre
+    /// Validates (ϒ, τ, ansatz) with the same rules as the Lane–Emden problem (the regular-centre
     /// condition is the same: a = p(1/3 + c)/2 > 0).
     pub fn new(upsilon: f64, tau: f64, anisotropy: Anisotropy) -> Result<Self, TheoryError> {
-        // Reuse the Lane–Emden validation (n = 3 shares every condition on Υ, τ).
+        // Reuse the Lane–Emden validation (n = 3 shares every condition on ϒ, τ).
         let le = ModifiedLaneEmden::new(3.0, upsilon, tau, anisotropy)?;
         let (p, c, kappa) = le.coefficients();
         Ok(Self {
@@ -281,8 +281,8 @@ impl Default for WdTableOptions {
     }
 }
 
-/// The dimensionless mass–radius table of one (Υ, τ, ansatz): m(x_c), η(x_c) on log-spaced x_c,
-/// plus m_Ch = ω₃(Υ, τ). It serves every μ_e through M = 𝓜(μ_e)m, R = ℓ(μ_e)η. Interpolation:
+/// The dimensionless mass–radius table of one (ϒ, τ, ansatz): m(x_c), η(x_c) on log-spaced x_c,
+/// plus m_Ch = ω₃(ϒ, τ). It serves every μ_e through M = 𝓜(μ_e)m, R = ℓ(μ_e)η. Interpolation:
 /// local degree-5 polynomials of log m and log η in log x_c (both nearly linear at either end),
 /// the target mass bracketed between monotone table entries and the root polished on the
 /// interpolant; below the table the n = 3/2 law R ∝ M^{−1/3}, above it m = m_Ch(1 − k/x_c²),
@@ -401,7 +401,7 @@ impl IntervalPoly {
 }
 
 impl WdMassRadius {
-    /// Solves the full-EOS models of the table and ω₃(Υ, τ). For the gradient ansatz the
+    /// Solves the full-EOS models of the table and ω₃(ϒ, τ). For the gradient ansatz the
     /// models are integrated directly; [`WdMassRadius::rescaled_to_gradient`] gives the same
     /// table from a τ = 0 one by the exact G-rescaling (§2.2).
     pub fn new(
@@ -529,7 +529,7 @@ impl WdMassRadius {
         )
     }
 
-    /// Υ of the table.
+    /// ϒ of the table.
     pub fn upsilon(&self) -> f64 {
         self.upsilon
     }
@@ -559,12 +559,12 @@ impl WdMassRadius {
         &self.radius_dimless
     }
 
-    /// m_Ch = ω₃(Υ, τ), the limit of m as x_c → ∞.
+    /// m_Ch = ω₃(ϒ, τ), the limit of m as x_c → ∞.
     pub fn mass_ch_dimless(&self) -> f64 {
         self.mass_ch_dimless
     }
 
-    /// M_Ch(Υ, τ, μ_e) in M☉ = 𝓜(μ_e)·ω₃(Υ,τ).
+    /// M_Ch(ϒ, τ, μ_e) in M☉ = 𝓜(μ_e)·ω₃(ϒ,τ).
     pub fn max_mass_msun(&self, mu_e: f64) -> f64 {
         mass_unit_msun(mu_e) * self.mass_ch_dimless
     }
@@ -657,7 +657,7 @@ impl WdMassRadius {
     }
 
     /// R(M; μ_e) with central density and the post-Newtonian flag. Errors:
-    /// `AboveChandrasekhar` when M ≥ M_Ch(Υ, τ, μ_e); `InvalidParameter` for M ≤ 0 or bad μ_e.
+    /// `AboveChandrasekhar` when M ≥ M_Ch(ϒ, τ, μ_e); `InvalidParameter` for M ≤ 0 or bad μ_e.
     pub fn radius(&self, mass_msun: f64, mu_e: f64) -> Result<WdRadius, TheoryError> {
         check_mu_e(mu_e)?;
         if !(mass_msun.is_finite() && mass_msun > 0.0) {

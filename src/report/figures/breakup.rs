@@ -10,7 +10,7 @@
 //!         label: "white dwarfs".into(),
 //!         unit: "s".into(),
 //!         lines: vec![BreakupLine {
-//!             label: "Υ = 0, τ = 0".into(),
+//!             label: "ϒ = 0, τ = 0".into(),
 //!             mass_msun: vec![0.6, 1.0],
 //!             period: vec![Some(34.0), Some(14.0)],
 //!         }],

@@ -1,12 +1,12 @@
 //! Zero-temperature white dwarfs with the Salpeter (1961) lattice term, in the modified theory.
 //!
-//! One job: R(M; composition, Υ) of a cold white dwarf whose pressure is the Chandrasekhar
+//! One job: R(M; composition, ϒ) of a cold white dwarf whose pressure is the Chandrasekhar
 //! electron pressure plus the electrostatic lattice term P_C = −K⟨Z^{5/3}⟩/⟨Z⟩ n_e^{4/3}
 //! (Salpeter 1961, ApJ 134, 669; the leading term only, as in the project's white-dwarf notes).
 //! With u = √(1+x²) − 1 the structure equation is
 //!
-//!   du/dr = −μ_e m_u G [M_r/r² + 2πΥρr] / { D [m_e c² − c₁(1+u)/x] },
-//!   D = 1 + πΥGr² μ_e m_u (dρ/du)/[m_e c² − c₁(1+u)/x],  dρ/du = 3ρ₀x(1+u),
+//!   du/dr = −μ_e m_u G [M_r/r² + 2πϒρr] / { D [m_e c² − c₁(1+u)/x] },
+//!   D = 1 + πϒGr² μ_e m_u (dρ/du)/[m_e c² − c₁(1+u)/x],  dρ/du = 3ρ₀x(1+u),
 //!
 //! c₁ = 4K⟨Z^{5/3}⟩/⟨Z⟩/((3π²)^{1/3}λ_e). The lattice term makes the surface a zero-pressure
 //! point at finite density (u₀ > 0, ≈ 13 g cm⁻³ for carbon), where u falls linearly; without it
@@ -33,7 +33,7 @@ use crate::theory::ode::{self, OdeError, OdeMethod, OdeOptions, Stop};
 use crate::theory::roots::brent_root;
 use crate::theory::white_dwarf::length_unit_m;
 
-/// The cold structure problem for one composition and Υ.
+/// The cold structure problem for one composition and ϒ.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ColdWd {
     mu_e: f64,
@@ -44,7 +44,7 @@ pub struct ColdWd {
     u_surface: f64,
     /// K⟨Z^{5/3}⟩/⟨Z⟩ of P_C = −K n_e^{4/3} (0 without the lattice term).
     k_lattice: f64,
-    /// General relativity (TOV) instead of the Newtonian equation (Υ = 0 only).
+    /// General relativity (TOV) instead of the Newtonian equation (ϒ = 0 only).
     relativistic: bool,
 }
 
@@ -67,13 +67,13 @@ pub(crate) fn ode_error(e: OdeError<HotWdError>) -> HotWdError {
 }
 
 impl ColdWd {
-    /// The problem for `comp` at Υ, with or without the lattice term.
+    /// The problem for `comp` at ϒ, with or without the lattice term.
     pub fn new(comp: &Composition, upsilon: f64, lattice: bool) -> Result<Self, HotWdError> {
         if !(upsilon.is_finite() && upsilon > -2.0 / 3.0) {
             return Err(HotWdError::InvalidParameter {
                 name: "upsilon",
                 value: upsilon,
-                why: "needs Υ > −2/3 (regular centre)",
+                why: "needs ϒ > −2/3 (regular centre)",
             });
         }
         let lam = compton_wavelength_m();
@@ -198,7 +198,7 @@ impl ColdWd {
             } else {
                 1e-4 / x_c.sqrt()
             };
-        // Central series: u = u_c − μ_e m_u G ρ_c (4π/3 + 2πΥ) r²/(2 dP/du|_c), M = 4πρ_c r³/3.
+        // Central series: u = u_c − μ_e m_u G ρ_c (4π/3 + 2πϒ) r²/(2 dP/du|_c), M = 4πρ_c r³/3.
         let k = self.mu_e * M_U_KG * G_SI * rho_c * (4.0 * PI / 3.0 + 2.0 * PI * self.upsilon)
             / (2.0 * dp_c);
         let mut y0 = [u_c - k * r0 * r0, 4.0 * PI * rho_c * r0.powi(3) / 3.0];
@@ -322,7 +322,7 @@ impl ColdWd {
 }
 
 /// R_TOV(M)/R_Newton(M) of the cold Salpeter model at standard gravity: the general-relativistic
-/// correction to the radius, for combining with the Newtonian-order Υ ratio at the high-mass end.
+/// correction to the radius, for combining with the Newtonian-order ϒ ratio at the high-mass end.
 pub fn tov_radius_ratio(mass_msun: f64, core: Core) -> Result<f64, HotWdError> {
     let comp = core.composition();
     let gr = ColdWd::relativistic(&comp)?.model_of_mass(mass_msun)?;
@@ -338,7 +338,7 @@ pub fn tov_maximum_mass_msun(core: Core) -> Result<f64, HotWdError> {
 }
 
 /// Radius (R☉) of a zero-temperature white dwarf of mass `mass_msun` with core `core` and the
-/// Salpeter lattice term, at Υ: the T = 0 limit of the finite-temperature model and the
+/// Salpeter lattice term, at ϒ: the T = 0 limit of the finite-temperature model and the
 /// starting point of its radius scan.
 pub fn cold_salpeter_radius_rsun(
     mass_msun: f64,
@@ -373,7 +373,7 @@ mod tests {
     #[test]
     fn without_lattice_matches_project_cold_model_with_upsilon() {
         // The project's own T = 0 solver (white_dwarf.rs, checked there against docs/structure.md
-        // §4.4): at Υ = 0.1 R(1.0 M☉) = 6074.0 km (docs/structure.md §4.4, computed there).
+        // §4.4): at ϒ = 0.1 R(1.0 M☉) = 6074.0 km (docs/structure.md §4.4, computed there).
         let wd = ColdWd::new(&Composition::carbon_oxygen(), 0.1, false).unwrap();
         let r = wd.model_of_mass(1.0).unwrap().radius_rsun * R_SUN_NOMINAL_M / 1e3;
         assert!((r - 6074.0).abs() < 0.1, "{r}");

@@ -1,7 +1,7 @@
 //! White dwarfs at finite temperature with hydrogen and helium envelopes, in Newtonian gravity
-//! with the Υ term acting throughout.
+//! with the ϒ term acting throughout.
 //!
-//! One job: the photospheric radius R(M, Teff; core, envelope; Υ) of a white dwarf whose
+//! One job: the photospheric radius R(M, Teff; core, envelope; ϒ) of a white dwarf whose
 //! isothermal, Fermi–Dirac core lies under a helium and a hydrogen layer, found by shooting on R
 //! from the photosphere to the centre; plus the zero-temperature radius with the Salpeter (1961)
 //! lattice term, and a precomputed standard-gravity table of both for fast lookups. The method,
@@ -11,7 +11,7 @@
 //!
 //! Submodules: [`eos`] (matter), [`opacity`] (transport), [`cold`] (T = 0 with the lattice
 //! term, and its general-relativistic (TOV) counterpart at standard gravity), [`shoot`] (the hot
-//! solve), [`table`] (the precomputed R_hot and R_cold at Υ = 0), [`tov`] (the TOV/Newtonian
+//! solve), [`table`] (the precomputed R_hot and R_cold at ϒ = 0), [`tov`] (the TOV/Newtonian
 //! radius ratio and maximum mass per core, tabulated once).
 //!
 //! ```

@@ -1,7 +1,7 @@
 //! The finite-temperature white dwarf by whole-star shooting on the photospheric radius, with
-//! the Υ term acting in the envelope and in the core.
+//! the ϒ term acting in the envelope and in the core.
 //!
-//! One job: R(M, Teff; core, envelope; Υ). For a trial R the star is integrated inward from the
+//! One job: R(M, Teff; core, envelope; ϒ). For a trial R the star is integrated inward from the
 //! photosphere (τ = 2/3, T = Teff, P from the surface gravity and opacity; Eddington grey
 //! limit) through the hydrogen and helium layers in the variable ln P with state
 //! (r, m_above, ln T, η) — the mass *above* keeps a 1e-10 M hydrogen layer above the solver's
@@ -10,12 +10,12 @@
 //! large) and −M_r/M if the centre is reached, or the electrons turn ultra-relativistic
 //! (η k T > 60 m_e c²) or T > 3e9 K, with mass left (R too small). F rises with R and changes
 //! sign at the model; it is one-sided steep, so the root is bracketed by a scan up from 0.98 of
-//! the cold (Salpeter, same Υ) radius in factors of 1.04 and polished by Brent's method.
+//! the cold (Salpeter, same ϒ) radius in factors of 1.04 and polished by Brent's method.
 //!
 //! With a non-barotropic EOS ρ(η, T) the modified hydrostatic equation is solved for P′
 //! explicitly: ρ′ = A P′ + B T′, A = (∂ρ/∂P)_T, B = (∂ρ/∂T)_P, so in radiative (or conductive)
-//! layers P′ = −Gρ[M_r/r² + 2πΥρr + πΥr²B T′_rad]/(1 + πΥGρr²A), and in convective layers
-//! (Schwarzschild: ∇_rad > ∇_ad) P′ = −Gρ[M_r/r² + 2πΥρr]/(1 + πΥGρr²(A + B∇_ad T/P)).
+//! layers P′ = −Gρ[M_r/r² + 2πϒρr + πϒr²B T′_rad]/(1 + πϒGρr²A), and in convective layers
+//! (Schwarzschild: ∇_rad > ∇_ad) P′ = −Gρ[M_r/r² + 2πϒρr]/(1 + πϒGρr²(A + B∇_ad T/P)).
 //! A denominator ≤ 1e-9 has no static solution and is a typed error. One model takes about
 //! 0.1–0.3 s (10–35 trial integrations; measured in the dev profile, opt-level 3).
 //!
@@ -70,7 +70,7 @@ impl Default for HotOptions {
 pub struct HotModel {
     /// Photospheric radius, R☉.
     pub radius_rsun: f64,
-    /// The zero-temperature Salpeter radius at the same Υ, R☉.
+    /// The zero-temperature Salpeter radius at the same ϒ, R☉.
     pub cold_radius_rsun: f64,
     /// Temperature of the isothermal core (at q = 1e-2), K.
     pub core_temperature_k: f64,
@@ -80,7 +80,7 @@ pub struct HotModel {
     pub integrations: usize,
 }
 
-/// The star being shot: fixed M, Teff, Υ and layers.
+/// The star being shot: fixed M, Teff, ϒ and layers.
 struct Star {
     mass_kg: f64,
     teff_k: f64,
@@ -626,7 +626,7 @@ mod tests {
 
     #[test]
     fn upsilon_ratios() {
-        // Independent scipy integration (docs/white-dwarfs.md, §8 table): R_hot(Υ)/R_hot(0).
+        // Independent scipy integration (docs/white-dwarfs.md, §8 table): R_hot(ϒ)/R_hot(0).
         use rayon::prelude::*;
         let cases = [
             (0.6, 30e3, Core::CarbonOxygen, 0.1, 1.052817),
@@ -647,10 +647,10 @@ mod tests {
     #[test]
     fn helium_core_at_60_kk_and_negative_upsilon_has_a_model() {
         // The independent integration (docs/white-dwarfs.md §8) reported "no model (D → 0)" for
-        // 0.3 M☉ He, thick H, 60 kK, Υ = −0.1. Here the solve succeeds: the central mismatch
+        // 0.3 M☉ He, thick H, 60 kK, ϒ = −0.1. Here the solve succeeds: the central mismatch
         // changes sign between accepted trial radii, Brent converges to 1e-9 R_cold, and the
         // integration at the root completes with D > 1e-9 everywhere (otherwise it returns an
-        // error). The solution lies on a smooth branch in Υ: R(Υ) at −0.09, −0.10, −0.11 is
+        // error). The solution lies on a smooth branch in ϒ: R(ϒ) at −0.09, −0.10, −0.11 is
         // monotone with a second difference far below the first.
         use rayon::prelude::*;
         let ups = [-0.09, -0.10, -0.11];
@@ -663,7 +663,7 @@ mod tests {
         let (d1, d2) = (r[0] - r[2], r[0] - 2.0 * r[1] + r[2]);
         assert!(d2.abs() < 0.1 * d1.abs(), "{r:?}");
         // Continuous with standard gravity: R(−0.1)/R(0) = 0.9034, against 1/1.1168 = 0.895 for
-        // the Υ = +0.1 response of the same star (§8 table).
+        // the ϒ = +0.1 response of the same star (§8 table).
         let r0 = 0.050817;
         assert!((r[1] / r0 - 0.9034).abs() < 1e-3, "{}", r[1] / r0);
     }
@@ -673,7 +673,7 @@ mod tests {
         // Spec §7.2: 0.2 M☉ thick H at 60 kK has no model (F never changes sign).
         let e = hot_radius_rsun(0.2, 60e3, Core::Helium, Envelope::Thick, 0.0).unwrap_err();
         assert_eq!(e.code(), "no-bracket");
-        // A vanishing denominator is a typed error, never NaN (spec §2): Υ = −0.6 with a
+        // A vanishing denominator is a typed error, never NaN (spec §2): ϒ = −0.6 with a
         // contrived steep compressibility.
         let star = Star {
             mass_kg: msun_kg(),

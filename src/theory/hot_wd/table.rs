@@ -1,8 +1,8 @@
-//! The precomputed standard-gravity (Υ = 0) radii of finite-temperature white dwarfs, with
+//! The precomputed standard-gravity (ϒ = 0) radii of finite-temperature white dwarfs, with
 //! O(1) interpolated lookups.
 //!
 //! One job: serve R_hot(M, Teff; core, envelope) and the zero-temperature Salpeter radius
-//! R_cold(M; core) at Υ = 0 per catalogue object and grid point, without a structure solve
+//! R_cold(M; core) at ϒ = 0 per catalogue object and grid point, without a structure solve
 //! (a lookup: about 0.3 µs, measured). A hot model takes about 0.1–0.3 s, so the grid is
 //! solved once by `cargo run --example make_wd_hot_table` (the dev profile builds this crate at
 //! opt-level 3; measured 308 s wall for the 1122 nodes on 2 busy cores), written to
@@ -98,9 +98,9 @@ impl TableSpec {
 /// One lookup.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct TableRadius {
-    /// R_hot(M, Teff; core, envelope) at Υ = 0, R☉.
+    /// R_hot(M, Teff; core, envelope) at ϒ = 0, R☉.
     pub radius_rsun: f64,
-    /// R_cold(M; core) with the Salpeter term at Υ = 0, R☉ (so R_hot/R_cold is at hand).
+    /// R_cold(M; core) with the Salpeter term at ϒ = 0, R☉ (so R_hot/R_cold is at hand).
     pub cold_radius_rsun: f64,
     /// Estimated interpolation error of `radius_rsun`, R☉ (see the module paragraph).
     pub interpolation_error_rsun: f64,
@@ -247,7 +247,7 @@ impl HotWdTable {
             .map(|&(_, m0, n)| (m0, self.spec.mass(m0, n - 1)))
     }
 
-    /// R_cold(M; core) at Υ = 0 with the Salpeter term (cubic in M), R☉.
+    /// R_cold(M; core) at ϒ = 0 with the Salpeter term (cubic in M), R☉.
     pub fn cold_radius_rsun(&self, mass_msun: f64, core: Core) -> Result<f64, HotWdError> {
         let b = self.block(core, Envelope::Thick)?;
         let x = self.mass_position(b, mass_msun)?;
@@ -269,7 +269,7 @@ impl HotWdTable {
         Ok(((mass_msun - b.m0) / self.spec.mass_step).clamp(0.0, (b.masses - 1) as f64))
     }
 
-    /// R_hot(M, Teff; core, envelope) at Υ = 0 with R_cold and an error estimate (O(1): direct
+    /// R_hot(M, Teff; core, envelope) at ϒ = 0 with R_cold and an error estimate (O(1): direct
     /// index arithmetic on the uniform grid, at most 16 nodes read).
     pub fn radius_rsun(
         &self,
@@ -356,7 +356,7 @@ pub fn nodes(spec: &TableSpec) -> Vec<Node> {
     out
 }
 
-/// One CSV row for a node: the full hot solve at Υ = 0 and the cold Salpeter radius.
+/// One CSV row for a node: the full hot solve at ϒ = 0 and the cold Salpeter radius.
 pub fn solve_node(node: &Node) -> Result<String, HotWdError> {
     let &(core, envelope, mass, teff) = node;
     let cold = ColdWd::new(&core.composition(), 0.0, true)?.model_of_mass(mass)?;

@@ -5,7 +5,7 @@
 //! Tolman–Oppenheimer–Volkoff and in the Newtonian equation, [`super::cold::ColdWd`]) and the TOV
 //! maximum mass, for multiplying the Newtonian standard-gravity radius R_std(M, Teff, core, layer)
 //! at the high-mass end. The modified theory keeps entering as the Newtonian-order ratio
-//! R_c(M; Υ, τ)/R_c(M; 0, 0); this correction is at Υ = τ = 0 only. Applying the cold ratio to
+//! R_c(M; ϒ, τ)/R_c(M; 0, 0); this correction is at ϒ = τ = 0 only. Applying the cold ratio to
 //! a hot star is an assumption: the correction is set by the compactness of the degenerate core,
 //! which holds almost all the mass (GM/(Rc²) = 2.6e-4 at 1 M☉), and temperature and envelope
 //! change that little.
