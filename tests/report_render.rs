@@ -784,9 +784,27 @@ fn data_figures_appear_in_both_pages_and_as_files() {
         &data,
     )
     .unwrap();
-    for stem in stems {
+    for stem in &stems {
         for ext in ["svg", "png"] {
             assert!(dir.path().join(format!("{stem}.{ext}")).is_file());
+        }
+    }
+    // A later report without those figures in the same folder removes them: a stale figure
+    // would be read as this run's (common practice, no source).
+    write_report_with(
+        dir.path(),
+        &input,
+        &synthetic_map(),
+        &synthetic_curves(),
+        &dwarfbound::report::DataFigures::default(),
+    )
+    .unwrap();
+    for stem in stems {
+        for ext in ["svg", "png"] {
+            assert!(
+                !dir.path().join(format!("{stem}.{ext}")).exists(),
+                "{stem}.{ext}"
+            );
         }
     }
 }

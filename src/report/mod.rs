@@ -203,6 +203,14 @@ pub fn write_report(
     write_report_with(dir, input, map, curves, &DataFigures::default())
 }
 
+/// The figures a report draws only when it has their data (file stems).
+const OPTIONAL_FIGURES: [&str; 4] = [
+    "allowed_zoom",
+    "profile_tau0",
+    "mass_bounds",
+    "wd_mass_radius",
+];
+
 /// As [`write_report`], plus the data-against-theory figures of `data` (`<stem>.svg` and
 /// `<stem>.png` each, before the two pages that show them).
 pub fn write_report_with(
@@ -216,6 +224,21 @@ pub fn write_report_with(
     for (stem, svg, png) in &r.data_figures {
         write_atomic(&dir.join(format!("{stem}.svg")), svg.as_bytes())?;
         write_atomic(&dir.join(format!("{stem}.png")), png)?;
+    }
+    // A figure this report does not draw must not survive from an earlier report in the same
+    // folder: a reader would take it for this run's.
+    for stem in OPTIONAL_FIGURES {
+        if r.data_figures.iter().any(|(s, _, _)| *s == stem) {
+            continue;
+        }
+        for ext in ["svg", "png"] {
+            let path = dir.join(format!("{stem}.{ext}"));
+            match std::fs::remove_file(&path) {
+                Ok(()) => {}
+                Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+                Err(e) => return Err(OutputError::new(&path, e).into()),
+            }
+        }
     }
     let files: [(&str, &[u8]); 6] = [
         ("allowed.svg", r.allowed_svg.as_bytes()),

@@ -19,8 +19,10 @@ use crate::report::figure_data::ProfileTau0;
 use crate::report::input::{AllowedMap, ClassOutline};
 use crate::report::ReportError;
 
-/// Below this fraction of the grid's points inside the outermost level, the map gets a zoom.
-pub const ZOOM_BELOW_FRACTION: f64 = 0.10;
+/// Below this fraction of the grid's points inside the outermost level, the map gets a zoom:
+/// a region in under a quarter of the cells is drawn by few blocks, and the padded window is
+/// still a small part of the plane.
+pub const ZOOM_BELOW_FRACTION: f64 = 0.25;
 
 /// Grid steps of padding around the region in the zoomed window.
 const PAD_STEPS: usize = 2;
@@ -229,7 +231,7 @@ mod tests {
         assert!(z.fraction_of_grid < ZOOM_BELOW_FRACTION);
     }
 
-    /// A region over 10 % of the grid gets no zoom (the rule of the feature).
+    /// A region over a quarter of the grid gets no zoom (the rule of the feature).
     #[test]
     fn large_region_gets_none() {
         let cells: Vec<(usize, usize)> = (0..5).flat_map(|i| (0..5).map(move |j| (i, j))).collect();
