@@ -96,6 +96,7 @@ fn profile() -> ProfileTau0 {
             .zip([0.02, 0.04, 0.06])
             .map(|(l, e)| (l.to_string(), Some(-e), Some(e)))
             .collect(),
+        profile_over_tau: vec![],
     }
 }
 
@@ -205,4 +206,25 @@ fn mass_panels_have_a_title_per_object_and_mark_tension() {
     let mut bad = m.clone();
     bad.panels[0].bound_standard_msun = f64::NAN;
     assert!(render_mass_bounds_svg(&bad).is_err());
+}
+
+/// The profile over τ is drawn beside the τ = 0 slice, with its key, only when given (the
+/// honest-inference issue's item 5 as a figure).
+#[test]
+fn profile_figure_shows_the_profile_over_tau_when_given() {
+    let without = render_profile_svg(&profile()).unwrap();
+    assert!(!without.contains("profiled"));
+    let mut p = profile();
+    // A wider closed-form profile: Δχ² = (ϒ/0.04)², the slice's Gaussian twice as wide.
+    p.profile_over_tau = (0..=40)
+        .map(|k| {
+            let u = -0.2 + 0.01 * k as f64;
+            (u, (u / 0.04).powi(2))
+        })
+        .collect();
+    let with = render_profile_svg(&p).unwrap();
+    assert!(with.contains("profiled") && with.contains("over τ"));
+    assert!(with.contains("profiled over τ") || with.contains("along τ = 0 and profiled"));
+    p.profile_over_tau.push((0.3, f64::NAN));
+    assert!(render_profile_svg(&p).is_err());
 }

@@ -714,6 +714,7 @@ fn small_data_figures() -> DataFigures {
                 ("68.27 %".into(), Some(-0.05), Some(0.05)),
                 ("95.45 %".into(), Some(-0.1), Some(0.1)),
             ],
+            profile_over_tau: vec![(-0.5, 50.0), (0.0, 0.0), (0.5, 50.0)],
         }),
         wd_mass_radius: Some(WdMassRadius {
             points: vec![WdPoint {

@@ -251,7 +251,32 @@ fn profile_tau0(ctx: &OutputContext<'_>) -> Option<ProfileTau0> {
             .zip(&sl.intervals)
             .map(|(&l, i)| (label(l), i.lower, i.upper))
             .collect(),
+        profile_over_tau: profile_over_tau(ctx),
     })
+}
+
+/// The profile of ϒ over τ on the grid's ϒ nodes (Δχ² relative to its minimum), or empty with
+/// a single τ (then it is the slice itself).
+fn profile_over_tau(ctx: &OutputContext<'_>) -> Vec<(f64, f64)> {
+    let chi2 = &ctx.profile.upsilon_profile;
+    let upsilon = ctx.grid.upsilon.values();
+    if ctx.grid.tau.values().len() < 2 || chi2.len() != upsilon.len() {
+        return Vec::new();
+    }
+    let min = chi2
+        .iter()
+        .copied()
+        .filter(|c| c.is_finite())
+        .fold(f64::INFINITY, f64::min);
+    if !min.is_finite() {
+        return Vec::new();
+    }
+    upsilon
+        .iter()
+        .zip(chi2)
+        .filter(|(_, c)| c.is_finite())
+        .map(|(&u, &c)| (u, c - min))
+        .collect()
 }
 
 /// Each class's masses against its bound, or `None` when no object has a mass test.

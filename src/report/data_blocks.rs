@@ -46,8 +46,16 @@ pub(crate) fn blocks(data: &DataFigures, rendered: Rendered) -> Vec<Block> {
             caption: vec![t(format!(
                 "The joint Δχ² of all classes along τ = 0 against ϒ, on the 10× finer axis the \
                  interval is read from; dashed: the one-parameter thresholds; ticks: the interval \
-                 ends where the curve crosses them ({}); diamond: standard gravity.",
-                ends.join("; ")
+                 ends where the curve crosses them ({}); diamond: standard gravity.{}",
+                ends.join("; "),
+                if p.profile_over_tau.is_empty() {
+                    ""
+                } else {
+                    " Orange, dashed: the profile of ϒ over τ (the minimum over τ at each ϒ \
+                     node of the grid, relative to the global minimum), whose crossings give the \
+                     profile intervals; it lies under the τ = 0 curve wherever another τ fits \
+                     better."
+                }
             ))],
         });
     }

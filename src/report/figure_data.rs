@@ -11,6 +11,7 @@
 //!     delta_chi2: vec![4.0, 0.0, 4.0],
 //!     thresholds: vec![("68.27 %".into(), 1.0), ("95.45 %".into(), 4.0)],
 //!     intervals: vec![("95.45 %".into(), Some(-0.1), Some(0.1))],
+//!     profile_over_tau: vec![],
 //! };
 //! let figs = DataFigures { wd_mass_radius: None, profile_tau0: Some(profile), mass_bounds: None };
 //! assert!(figs.validate().is_ok());
@@ -108,6 +109,9 @@ pub struct ProfileTau0 {
     pub thresholds: Vec<(String, f64)>,
     /// (level label, lower end, upper end); `None` = open at that end.
     pub intervals: Vec<(String, Option<f64>, Option<f64>)>,
+    /// The profile over τ on the grid's ϒ nodes: (ϒ, Δχ² of min over τ, relative to the global
+    /// minimum), drawn beside the slice; empty when the grid has a single τ.
+    pub profile_over_tau: Vec<(f64, f64)>,
 }
 
 /// How an object stands in its class's mass test.
@@ -255,6 +259,10 @@ impl ProfileTau0 {
         if !self.upsilon.windows(2).all(|w| w[1] > w[0])
             || !self.delta_chi2.iter().all(|d| d.is_finite())
             || !self.thresholds.iter().all(|t| t.1.is_finite())
+            || !self
+                .profile_over_tau
+                .iter()
+                .all(|(u, d)| u.is_finite() && d.is_finite())
         {
             return Err(bad("profile along τ = 0: unordered axis or non-finite Δχ²"));
         }

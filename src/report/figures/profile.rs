@@ -1,6 +1,7 @@
 //! The Δχ² profile along τ = 0: the one-parameter Δχ² of the τ = 0 slice against ϒ on the fine
 //! axis, with the 1/4/9 thresholds as dashed lines and the ends of each interval marked where
-//! the curve crosses its threshold.
+//! the curve crosses its threshold; beside it, dashed, the profile of ϒ over τ (min over τ at
+//! each ϒ node of the grid), whose crossings are the profile intervals.
 //!
 //! ```no_run
 //! # fn demo(p: &dwarfbound::report::ProfileTau0) -> Result<(), dwarfbound::report::ReportError> {
@@ -23,6 +24,9 @@ use super::kit::{
 use crate::report::figure_data::ProfileTau0;
 use crate::report::text::fmt_sig;
 use crate::report::ReportError;
+
+/// Colour of the profile over τ (an orange, distinct from the blue threshold lines).
+const OVER_TAU: RGBColor = RGBColor(205, 105, 15);
 
 /// Pixel size of the profile figure.
 pub const PROFILE_SIZE: (u32, u32) = (1000, 560);
@@ -56,6 +60,12 @@ fn zoom(p: &ProfileTau0, y_hi: f64) -> (f64, f64) {
     let (lo, hi) = inside.fold((f64::INFINITY, f64::NEG_INFINITY), |a, u| {
         (a.0.min(u), a.1.max(u))
     });
+    // The profile over τ's part under the top counts too (within the computed axis).
+    let (lo, hi) = p
+        .profile_over_tau
+        .iter()
+        .filter(|(u, d)| *d <= y_hi && *u >= first && *u <= last)
+        .fold((lo, hi), |a, (u, _)| (a.0.min(*u), a.1.max(*u)));
     if !lo.is_finite() {
         return (first, last);
     }
@@ -81,7 +91,11 @@ fn draw<DB: DrawingBackend>(
     let (width, _) = root.dim_in_pixel();
     pen.text(
         root,
-        "One-parameter Δχ² along τ = 0",
+        if p.profile_over_tau.is_empty() {
+            "One-parameter Δχ² along τ = 0"
+        } else {
+            "One-parameter Δχ²: along τ = 0 and profiled over τ"
+        },
         &text_style(22.0).pos(Pos::new(HPos::Center, VPos::Top)),
         (width as i32 / 2, 10),
     )?;
@@ -104,7 +118,7 @@ fn draw<DB: DrawingBackend>(
         root,
         &chart,
         (10, 8),
-        "ϒ (dimensionless), τ = 0",
+        "ϒ (dimensionless)",
         "Δχ²",
         (15.0, 18.0),
         pen,
@@ -132,6 +146,21 @@ fn draw<DB: DrawingBackend>(
             &label,
             (b.0 + 8, b.1),
         )?;
+    }
+    // The profile over τ (grid nodes), dashed, under the slice.
+    let over: Vec<(f64, f64)> = p.profile_over_tau.clone();
+    for piece in clip_polyline(&over, x, (0.0, y_hi)) {
+        let px: Vec<(f64, f64)> = piece
+            .iter()
+            .map(|q| {
+                let c = chart.backend_coord(q);
+                (c.0 as f64, c.1 as f64)
+            })
+            .collect();
+        for dash in dash_polyline(&px, &[10.0, 6.0]) {
+            root.draw(&PathElement::new(to_px(&dash), OVER_TAU.stroke_width(2)))
+                .map_err(err)?;
+        }
     }
     // The profile itself.
     let pts: Vec<(f64, f64)> = p
@@ -170,5 +199,26 @@ fn draw<DB: DrawingBackend>(
     draw_standard_marker(root, (right + 16, top + 12), 7)?;
     pen.text(root, "ϒ = 0 (standard", &label, (right + 30, top + 12))?;
     pen.text(root, "gravity)", &label, (right + 30, top + 30))?;
+    let key = |y: i32| (right + 8, top + y);
+    root.draw(&PathElement::new(
+        vec![key(58), (key(58).0 + 18, key(58).1)],
+        INK.stroke_width(2),
+    ))
+    .map_err(err)?;
+    pen.text(root, "τ = 0", &label, (right + 30, top + 58))?;
+    if !p.profile_over_tau.is_empty() {
+        for dash in dash_polyline(
+            &[
+                (key(82).0 as f64, key(82).1 as f64),
+                (key(82).0 as f64 + 18.0, key(82).1 as f64),
+            ],
+            &[6.0, 3.0],
+        ) {
+            root.draw(&PathElement::new(to_px(&dash), OVER_TAU.stroke_width(2)))
+                .map_err(err)?;
+        }
+        pen.text(root, "profiled", &label, (right + 30, top + 82))?;
+        pen.text(root, "over τ", &label, (right + 30, top + 100))?;
+    }
     Ok(())
 }
