@@ -59,4 +59,10 @@ fn objects_parquet_matches_objects_csv() {
             assert_eq!(rendered, row[c], "{name}, row {}", k + 1);
         }
     }
+    // A run in the other format into the same folder leaves no stale table beside the new one
+    // (an older objects.csv would be read as this run's).
+    let o = confront(&args, &csv_out);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(!csv_out.join("objects.csv").exists());
+    assert!(csv_out.join("objects.parquet").exists());
 }

@@ -405,6 +405,12 @@ fn write_outputs(
             .map_err(|e| PipelineError::Internal(e.to_string()))?,
     )?;
     objects_file.commit()?;
+    let stale = out_dir.join(format.other_file_name());
+    match std::fs::remove_file(&stale) {
+        Ok(()) => {}
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+        Err(e) => return Err(OutputError::new(&stale, e).into()),
+    }
     // Test hook: simulate a run killed mid-write (tests/nightly_run.rs). Harmless otherwise.
     if std::env::var_os("DWARFBOUND_TEST_ABORT_MID_WRITE").is_some() {
         std::process::abort();

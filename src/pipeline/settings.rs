@@ -83,4 +83,13 @@ impl ObjectsFormat {
             ObjectsFormat::Parquet => "objects.parquet",
         }
     }
+
+    /// The file name of the other format, which a run in this one removes from its folder (an
+    /// older per-object table beside the new one would be read as this run's).
+    pub fn other_file_name(self) -> &'static str {
+        match self {
+            ObjectsFormat::Csv => ObjectsFormat::Parquet.file_name(),
+            ObjectsFormat::Parquet => ObjectsFormat::Csv.file_name(),
+        }
+    }
 }
