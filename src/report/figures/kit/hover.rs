@@ -6,22 +6,7 @@
 //! assert!(svg.contains("<title>WD 0001"));
 //! ```
 
-/// Escapes the five XML special characters of `s`.
-fn escape_xml(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for c in s.chars() {
-        match c {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&apos;"),
-            c if c.is_control() => out.push(' '),
-            c => out.push(c),
-        }
-    }
-    out
-}
+use crate::report::text::escape_html;
 
 /// Inserts one invisible, hoverable disc of radius 7 px per `(x, y, title)` before the closing
 /// `</svg>`; the discs come last so they sit above the drawing.
@@ -34,7 +19,7 @@ pub(crate) fn add_hover_titles(svg: String, items: &[(i32, i32, String)]) -> Str
         layer.push_str(&format!(
             "<circle cx=\"{x}\" cy=\"{y}\" r=\"7\" fill=\"#fff\" fill-opacity=\"0\" \
              pointer-events=\"all\"><title>{}</title></circle>\n",
-            escape_xml(title)
+            escape_html(title)
         ));
     }
     layer.push_str("</g>\n");
