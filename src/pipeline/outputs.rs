@@ -223,6 +223,7 @@ impl OutputContext<'_> {
         &self,
         k: usize,
         driver: Option<(usize, f64)>,
+        sv: Option<&SpinVerdict>,
         copies: &[(usize, f64)],
     ) -> Vec<Cell> {
         let r = &self.verdicts[k];
@@ -264,7 +265,6 @@ impl OutputContext<'_> {
                     .unwrap_or_default(),
             ),
         ];
-        let sv = self.spin_verdicts.iter().find(|v| v.index == k);
         let hours = |x: Option<f64>| x.map(|s| s / 3600.0);
         let (spin_v, spin_change) = match sv.map(|v| v.slow) {
             Some(SlowRotationStatus::Corrected { v, change }) => (Some(v), Some(change)),
@@ -298,6 +298,11 @@ impl OutputContext<'_> {
             .into_iter()
             .map(|(rank, k, shift)| (k, (rank, shift)))
             .collect()
+    }
+
+    /// The spin test of each object that has one (looked up once per table, not per row).
+    fn spins_by_object(&self) -> std::collections::HashMap<usize, &SpinVerdict> {
+        self.spin_verdicts.iter().map(|v| (v.index, v)).collect()
     }
 
     /// Writes the per-object table, one row per accepted object, in `format`, row by row (CSV)
@@ -335,8 +340,9 @@ impl OutputContext<'_> {
         let (header, copies, _) = objects_header();
         w.write_record(&header).map_err(fail)?;
         let drivers = self.drivers_by_object();
+        let spins = self.spins_by_object();
         for k in 0..self.verdicts.len() {
-            let row = self.object_row(k, drivers.get(&k).copied(), &copies);
+            let row = self.object_row(k, drivers.get(&k).copied(), spins.get(&k).copied(), &copies);
             w.write_record(row.iter().map(Cell::render)).map_err(fail)?;
             if k.is_multiple_of(65_536) {
                 bar.set_position(k as u64);
@@ -371,6 +377,7 @@ impl OutputContext<'_> {
             .collect();
         let mut writer = ParquetWriter::new(out).batched(&schema).map_err(fail)?;
         let drivers = self.drivers_by_object();
+        let spins = self.spins_by_object();
         let n = self.verdicts.len();
         let mut start = 0;
         while start < n || (n == 0 && start == 0) {
@@ -380,7 +387,8 @@ impl OutputContext<'_> {
             let mut float: Vec<Vec<Option<f64>>> = vec![Vec::new(); header.len()];
             let mut boolean: Vec<Vec<Option<bool>>> = vec![Vec::new(); header.len()];
             for k in start..end {
-                let row = self.object_row(k, drivers.get(&k).copied(), &copies);
+                let row =
+                    self.object_row(k, drivers.get(&k).copied(), spins.get(&k).copied(), &copies);
                 for (c, cell) in row.into_iter().enumerate() {
                     match (kinds[c], cell) {
                         (ColumnKind::Text, Cell::Text(t)) => text[c].push(Some(t)),
