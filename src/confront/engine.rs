@@ -28,7 +28,8 @@
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
 //!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
 //!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     rotation_period_h: None, rotation_period_err_h: None, mu_e: None, teff_k: None,
+//!     teff_err_k: None, core: None,
 //!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
 //!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! let c = confront(&[star], &Flat, &EngineOptions::default()).unwrap();

@@ -24,9 +24,9 @@
 //! of the radius test: P = Σ_k w_k Φ((P_obs − P_k)/(f P_k)) / Σ_k w_k over the nodes that have a
 //! model, with f the fractional theory floor ([`SpinOptions::floor_fraction`], 5 % by default:
 //! Roche against self-consistent κ is 3 %, the radius model 3 % in R, i.e. 4.5 % in P; 15 % on
-//! the cold hydrogen-rich radius). The
-//! period itself is taken as exact: catalogues carry no period error, and published periods are
-//! far more precise than the floor.
+//! the cold hydrogen-rich radius). A measured period error σ_P (`rotation_period_err`) adds in
+//! quadrature: Φ((P_obs − P_k)/√((f P_k)² + σ_P²)); without one the period is taken as exact
+//! (published periods are usually far more precise than the floor).
 //!
 //! Slow rotation (Chandrasekhar 1933, MNRAS 93, 390, in the modified theory:
 //! `docs/rotation.md#r1`): with
@@ -141,6 +141,8 @@ pub struct ObjectSpin {
     pub index: usize,
     /// Observed rotation period, s.
     pub period_s: f64,
+    /// 1σ error of the observed period, s (0 when the catalogue gives none).
+    pub period_err_s: f64,
     /// μe of the structure whose radius is used.
     pub mu_e: f64,
     /// Where the radius comes from.
@@ -182,12 +184,25 @@ pub fn ln_p_spin(
     breakup: &[Option<f64>],
     floor_fraction: f64,
 ) -> Option<f64> {
-    ln_p_side(period, nodes, breakup, floor_fraction, 1.0)
+    ln_p_side(period, 0.0, nodes, breakup, floor_fraction, 1.0)
 }
 
-/// ln P (`sign` = 1) or ln(1 − P) (`sign` = −1) of [`ln_p_spin`].
+/// [`ln_p_spin`] with a 1σ error `period_err` on the observed period (same unit), added to the
+/// floor in quadrature: ln[Σ w_k Φ((P − P_k)/√((f P_k)² + σ_P²)) / Σ w_k].
+pub fn ln_p_spin_with_error(
+    period: f64,
+    period_err: f64,
+    nodes: &[(f64, f64)],
+    breakup: &[Option<f64>],
+    floor_fraction: f64,
+) -> Option<f64> {
+    ln_p_side(period, period_err, nodes, breakup, floor_fraction, 1.0)
+}
+
+/// ln P (`sign` = 1) or ln(1 − P) (`sign` = −1) of [`ln_p_spin_with_error`].
 fn ln_p_side(
     period: f64,
+    period_err: f64,
     nodes: &[(f64, f64)],
     breakup: &[Option<f64>],
     floor_fraction: f64,
@@ -202,7 +217,7 @@ fn ln_p_side(
         if *w <= 0.0 {
             continue;
         }
-        let sigma = (floor_fraction * pb).max(f64::MIN_POSITIVE);
+        let sigma = (floor_fraction * pb).hypot(period_err).max(f64::MIN_POSITIVE);
         terms.push(w.ln() + ln_normal_cdf(sign * (period - pb) / sigma));
         weight += w;
     }
@@ -248,9 +263,10 @@ impl ObjectSpin {
             .map(|(((m, _), s), c)| self.breakup_s(m, *s, *c))
             .collect();
         let (node_pb, nominal) = pb.split_at(self.nodes.len());
+        let (p, e) = (self.period_s, self.period_err_s);
         SpinAt {
-            ln_p: ln_p_spin(self.period_s, &self.nodes, node_pb, floor_fraction),
-            ln_q: ln_p_side(self.period_s, &self.nodes, node_pb, floor_fraction, -1.0),
+            ln_p: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, 1.0),
+            ln_q: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, -1.0),
             breakup_s: nominal.first().copied().flatten(),
         }
     }
@@ -387,6 +403,7 @@ pub fn prepare(
         let mut spin = ObjectSpin {
             index: k,
             period_s: period_h * 3600.0,
+            period_err_s: o.rotation_period_err_h.map_or(0.0, |e| e * 3600.0),
             mu_e,
             source,
             nodes,
@@ -559,6 +576,11 @@ pub struct SpinVerdict {
     /// Largest minus smallest −2 ln P of this object's test over the grid: how much it can
     /// move the map.
     pub delta_chi2_span: f64,
+    /// Largest −2 ln P of this object's test over the grid (0 when no point has a model): a
+    /// test whose maximum is tiny constrains nothing.
+    pub max_minus_two_ln_p: f64,
+    /// ln P of the test at the best fit (the Šidák consistency count uses it).
+    pub ln_p_best: Option<f64>,
     /// The slow-rotation outcome.
     pub slow: SlowRotationStatus,
 }
@@ -623,6 +645,8 @@ pub fn spin_verdicts(
                 sigma_best: best_at.as_ref().and_then(sigma),
                 breakup_range_s: range,
                 delta_chi2_span: if hi >= lo { hi - lo } else { 0.0 },
+                max_minus_two_ln_p: if hi >= lo { hi } else { 0.0 },
+                ln_p_best: best_at.and_then(|a| a.ln_p),
                 slow: s.slow,
             }
         })
@@ -653,8 +677,20 @@ mod tests {
         assert!((ln_p - 0.5f64.ln()).abs() < 1e-15);
         assert_eq!(ln_p_spin(2.0, &[(0.5, 1.0)], &[None], 0.05), None);
         // The complement: ln(1 − P) of the same test.
-        let q = ln_p_side(1.0, &[(0.5, 1.0)], &[Some(1.0 / 0.95)], 0.05, -1.0).unwrap();
+        let q = ln_p_side(1.0, 0.0, &[(0.5, 1.0)], &[Some(1.0 / 0.95)], 0.05, -1.0).unwrap();
         assert!((q.exp() - (1.0 - 0.158_655_253_931_457)).abs() < 1e-12);
+    }
+
+    #[test]
+    fn period_error_adds_to_the_floor_in_quadrature() {
+        // Break-up 1.0, floor 5 % (0.05), period error 0.12: σ = √(0.05² + 0.12²) = 0.13
+        // (closed form), and the observed 0.87 is 1σ short: P = Φ(−1) = 0.158655253931457
+        // (Abramowitz & Stegun 1964, table 26.1).
+        let ln_p = ln_p_spin_with_error(0.87, 0.12, &[(0.5, 1.0)], &[Some(1.0)], 0.05).unwrap();
+        assert!((ln_p.exp() - 0.158_655_253_931_457).abs() < 1e-12);
+        // No error: the floor alone, as in ln_p_spin.
+        let a = ln_p_spin_with_error(0.95, 0.0, &[(0.5, 1.0)], &[Some(1.0)], 0.05);
+        assert_eq!(a, ln_p_spin(0.95, &[(0.5, 1.0)], &[Some(1.0)], 0.05));
     }
 
     #[test]
@@ -678,6 +714,7 @@ mod tests {
         let spin = ObjectSpin {
             index: 0,
             period_s: 100.0,
+            period_err_s: 0.0,
             mu_e: 2.0,
             source: SpinRadiusSource::Cold,
             nodes: vec![(m, 1.0)],
