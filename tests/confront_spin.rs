@@ -373,3 +373,96 @@ fn spin_enters_the_consistency_count_and_the_drivers() {
     );
     assert_eq!(field(&h, &rows, "BD-spin", "driver_test"), "spin");
 }
+
+// Source: the definition of the first-order MMHB factor at a grid point (docs/rotation.md §3):
+// f = 1 + v (d ln M/dv) with the n = 3/2 coefficients of the point's (ϒ, τ) and
+// v = Ω²/(2πGρ_c), ρ_c = (ξ₁³/(3ω)) · 3M/(4πR³) with the object's radius there; at ϒ = τ = 0 it
+// must be the standard factor the mass test already carries (the old, ϒ = τ = 0 value), so the
+// spin term adds exactly nothing there. G is CODATA 2018, M☉ and R☉ the IAU 2015 B3 nominal
+// values (through the crate's constants).
+#[test]
+fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
+    use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions, Term};
+    use dwarfbound::confront::prob::ln_prob_consistent;
+    use dwarfbound::confront::spin::spins_at;
+    use dwarfbound::theory::slow_rotation::slow_rotation;
+    use dwarfbound::theory::Anisotropy;
+    // 3 h: v ≈ 1.6e-3, below the first-order threshold 3.3e-3 of n = 3/2 at standard gravity
+    // (at large ϒ the threshold falls below v: the factor stays the standard one there).
+    let mut bd = swelling_spinner();
+    bd.rotation_period_h = Some(3.0);
+    bd.rotation_period_err_h = None;
+    let objects = [bd];
+    let opts = EngineOptions::default();
+    let surface = SwellingRadius;
+    let conf = run_engine(&objects, &surface, &opts).unwrap();
+    let spin = &conf.spins[0];
+    let m = spin.mmhb.expect("a corrected brown dwarf carries its MMHB correction");
+    let factor = |u: f64| {
+        let c = slow_rotation(1.5, u, 0.0, Anisotropy::None).unwrap();
+        let r = swelling_radius_rsun(0.06, u) * dwarfbound::constants::R_SUN_NOMINAL_M;
+        let mass = 0.06 * dwarfbound::constants::msun_kg();
+        let rho_c = c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass
+            / (4.0 * std::f64::consts::PI * r.powi(3));
+        let omega = 2.0 * std::f64::consts::PI / (3.0 * 3600.0);
+        let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
+        // Beyond that point's first-order threshold the factor stays the standard one.
+        (v <= c.v_max).then_some(1.0 + v * c.mass_coefficient)
+    };
+    // The standard factor is the old, ϒ = τ = 0 one.
+    let f0 = factor(0.0).unwrap();
+    assert!((m.factor_standard - f0).abs() < 1e-13);
+    assert!((conf.uses[0].measurement.scale - f0).abs() < 1e-13);
+    let mut moved = 0;
+    for (i, &u) in surface.upsilon().iter().enumerate() {
+        let at = spins_at(&conf.spins, &surface, i)[0];
+        let f = at.mmhb_factor.unwrap();
+        let want = factor(u).unwrap_or(f0);
+        assert!((f - want).abs() < 1e-12, "ϒ = {u}: {f} vs {want}");
+        let mut scaled = m.measurement;
+        scaled.scale = m.measurement.scale / m.factor_standard * f;
+        let want = -2.0
+            * (ln_prob_consistent(&scaled, 0.075, opts.mmhb_floor_msun)
+                - ln_prob_consistent(&m.measurement, 0.075, opts.mmhb_floor_msun));
+        assert!((at.mmhb_change - want).abs() < 1e-12, "ϒ = {u}");
+        if u == 0.0 {
+            assert_eq!(at.mmhb_change, 0.0);
+        } else if factor(u).is_some() {
+            assert!(at.mmhb_change != 0.0 && (f - m.factor_standard).abs() > 1e-5, "ϒ = {u}");
+            moved += 1;
+        }
+        // The grid's spin term is the break-up test plus that change.
+        let grid = conf.per_term[Term::Spin as usize][i].unwrap();
+        assert!((grid - (-2.0 * at.ln_p.unwrap() + at.mmhb_change)).abs() < 1e-12);
+    }
+    assert!(moved >= 4, "{moved} points with a point-specific factor");
+}
+
+// Invented object (not a measurement): a 0.06 M☉ brown dwarf spinning slowly (5 h, within first
+// order). On the real grid its MMHB factor is taken at each point (docs/rotation.md §3): at
+// ϒ = τ = 0 the spin term adds nothing beyond the break-up test (P ≈ 1 there, so ≈ 0), and away
+// from it a small, non-zero change (the factor moves by a fraction of a per cent of the MMHB).
+#[test]
+fn slow_spinner_gets_the_grid_points_mmhb_factor() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run(
+        dir.path(),
+        "id,class,mass,mass_err,age,rotation_period\n\
+         BD-5h,brown_dwarf,0.072,0.003,5,5\n",
+        &["--upsilon=-0.2:0.2:5", "--tau", "0"],
+    );
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    let flags = field(&h, &rows, "BD-5h", "flags");
+    assert!(flags.contains("spin_corrected"), "{flags}");
+    let (gh, grid) = read_csv(&out.join("grid.csv"));
+    let (iu, is) = (col(&gh, "upsilon"), col(&gh, "minus_two_ln_l_spin"));
+    for r in &grid {
+        let u: f64 = r[iu].parse().unwrap();
+        let s: f64 = r[is].parse().unwrap();
+        if u == 0.0 {
+            assert!(s.abs() < 1e-9, "ϒ = 0: {s}");
+        } else {
+            assert!(s != 0.0 && s.abs() < 0.5, "ϒ = {u}: {s}");
+        }
+    }
+}

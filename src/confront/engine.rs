@@ -65,6 +65,16 @@ pub trait BoundSurface: Sync {
     /// is this radius times the ratio of [`BoundSurface::wd_radii_rsun`] at the point to
     /// [`WdStandard::cold_rsun`].
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>>;
+    /// First-order slow-rotation coefficients of the n = 3/2 polytrope at point `i`: the
+    /// structure behind the MMHB's slow-rotation correction of a spinning brown dwarf or star
+    /// (`docs/rotation.md`). The default solves them at the point's (ϒ, τ) without anisotropy;
+    /// a theory grid answers for its own ansatz. `None` where no model exists.
+    fn slow_rotation_n32(&self, i: usize) -> Option<crate::theory::slow_rotation::SlowRotation> {
+        let nu = self.upsilon().len().max(1);
+        let (u, t) = (*self.upsilon().get(i % nu)?, *self.tau().get(i / nu)?);
+        crate::theory::slow_rotation::slow_rotation(1.5, u, t, crate::theory::Anisotropy::None)
+            .ok()
+    }
 }
 
 /// Choices of the comparison (defaults from `docs/bounds.md` §4–§5 and `docs/structure.md` §4.6).

@@ -126,7 +126,12 @@ pub fn tau0_slice(
         j0,
     };
     let (radius_fine, radius_total) = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
-    let spin_fine_per_object = spin_terms_on_fine_axis(conf, surface, &row, &fine)?;
+    let mmhb_fine: Option<Vec<f64>> = splines
+        .iter()
+        .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf))
+        .map(|(_, sp)| fine.iter().map(|&u| sp.eval(u)).collect());
+    let spin_fine_per_object =
+        spin_terms_on_fine_axis(conf, surface, &row, &fine, mmhb_fine.as_deref())?;
     let spin_fine: Vec<f64> = (0..fine.len())
         .map(|k| spin_fine_per_object.iter().map(|(_, v)| v[k]).sum())
         .collect();
@@ -280,12 +285,16 @@ fn cold_radii_on_fine_axis(
 /// per cent of it, so the term can be as sharply curved in ϒ as the radius term. The cold radii
 /// of each object's mass nodes are interpolated along the row ([`cold_radii_on_fine_axis`]) and
 /// the test is evaluated exactly at every fine point (equal to the grid's values at the coarse
-/// points). A test without a model at a fine point adds nothing there, as on the grid.
+/// points). A test without a model at a fine point adds nothing there, as on the grid. A
+/// corrected brown dwarf's or star's MMHB change ([`super::spin::MmhbSlowRotation`]) is added at
+/// the fine point's MMHB (`mmhb_fine`, the class spline) with its factor interpolated along the
+/// row (not-a-knot cubic: the factor is smooth in ϒ).
 fn spin_terms_on_fine_axis(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     fine: &[f64],
+    mmhb_fine: Option<&[f64]>,
 ) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
     if conf.spins.is_empty() {
         return Ok(Vec::new());
@@ -296,18 +305,39 @@ fn spin_terms_on_fine_axis(
         .flat_map(super::spin::ObjectSpin::queries)
         .collect();
     let per_query = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &queries)?;
+    // The MMHB factors of corrected objects at the coarse points of the row.
+    let coarse: Vec<Vec<super::spin::SpinAt>> = if conf.spins.iter().any(|s| s.mmhb.is_some()) {
+        (0..row.axis.len())
+            .into_par_iter()
+            .map(|i| {
+                super::spin::spins_at(&conf.spins, surface, row.j0 * conf.n_upsilon + row.first + i)
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
     let mut out = Vec::with_capacity(conf.spins.len());
     let mut at = 0;
-    for s in &conf.spins {
+    for (j, s) in conf.spins.iter().enumerate() {
         let n = s.n_queries();
         let mine = &per_query[at..at + n];
         at += n;
-        let values = (0..fine.len())
+        let mut values: Vec<f64> = (0..fine.len())
             .map(|k| {
                 let cold: Vec<Option<f64>> = mine.iter().map(|v| v[k]).collect();
                 -2.0 * s.at(&cold).ln_p.unwrap_or(0.0)
             })
             .collect();
+        if let (Some(m), Some(b)) = (&s.mmhb, mmhb_fine) {
+            let f: Vec<f64> = coarse
+                .iter()
+                .map(|c| c[j].mmhb_factor.unwrap_or(m.factor_standard))
+                .collect();
+            let spline = CubicSpline::new(row.axis, &f, SplineEnd::NotAKnot)?;
+            for ((v, &u), &b) in values.iter_mut().zip(fine).zip(b) {
+                *v += m.minus_two_ln_l_change(spline.eval(u), b);
+            }
+        }
         out.push((s.index, values));
     }
     Ok(out)

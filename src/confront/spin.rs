@@ -34,8 +34,9 @@
 //! an n = 3/2 polytrope at fixed central conditions (applied as the object's bound scale), and a
 //! white dwarf's radius at fixed mass grows by v·(d ln R/dv)|_M of the polytrope whose index
 //! matches the local slope of its cold mass–radius relation. ρ_c is that polytrope's central
-//! density for the object's radius at (or nearest to) standard gravity; the coefficients are
-//! those of ϒ = τ = 0 (their change with ϒ and τ is a product of two small quantities). Beyond
+//! density for the object's radius at (or nearest to) standard gravity, with the coefficients of
+//! ϒ = τ = 0; a brown dwarf's or star's factor is then carried to every grid point with that
+//! point's own coefficients ([`MmhbSlowRotation`]; white dwarfs keep the standard ones). Beyond
 //! the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit; n_eff ≥ 2.95 counts as
 //! beyond: near the Chandrasekhar mass the radius at fixed mass does not respond linearly) the
 //! object is flagged `spin_beyond_first_order` and left uncorrected.
@@ -54,7 +55,7 @@
 use rayon::prelude::*;
 
 use super::engine::{radius_mass_nodes, BoundSurface, EngineOptions, ObjectUse};
-use super::prob::ln_normal_cdf;
+use super::prob::{ln_normal_cdf, ln_prob_consistent, Measurement};
 use super::wd_radius::{ObjectRadius, WdQuery, WdRadiusModel};
 use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
 use crate::theory::rotation::{breakup_period_s, BreakupModel};
@@ -161,8 +162,76 @@ pub struct ObjectSpin {
     pub slow: SlowRotationStatus,
     /// The factor applied to the object's white-dwarf radius prediction (1 when none).
     pub radius_factor: f64,
+    /// A corrected brown dwarf's or star's MMHB correction, carried to each grid point.
+    pub mmhb: Option<MmhbSlowRotation>,
     /// 1σ theory floor of its break-up period, as a fraction of it.
     pub floor_fraction: f64,
+}
+
+/// The slow-rotation change of one brown dwarf's or star's MMHB at every grid point.
+///
+/// The object's mass test runs inside its class's term with the standard-gravity factor
+/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`ObjectUse::measurement`]'s scale). At a grid point the
+/// first-order factor is f = 1 + v (d ln M/dv), with the coefficients of the n = 3/2 polytrope
+/// of that point's (ϒ, τ) ([`BoundSurface::slow_rotation_n32`]) and v = Ω²/(2πGρ_c) from that
+/// polytrope's central density for the object's radius there (measured, or cold at the point).
+/// The spin term carries the difference, −2 ln P(m | f B) + 2 ln P(m | f₀ B), so that the mass
+/// test is in effect taken at the point's factor: exact with per-object floors; with a shared
+/// systematic the difference is taken at zero shift (first order in a product of two small
+/// quantities). Where first order fails at a point (v above that point's threshold, or no
+/// model), the factor stays f₀.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MmhbSlowRotation {
+    /// Ω² of the observed period, s⁻².
+    pub omega2_per_s2: f64,
+    /// The object's mass test as the engine runs it (scale including f₀).
+    pub measurement: Measurement,
+    /// f₀, the standard-gravity factor inside `measurement`.
+    pub factor_standard: f64,
+    /// The MMHB floor of the mass test, M☉.
+    pub floor_msun: f64,
+}
+
+impl MmhbSlowRotation {
+    /// The first-order MMHB factor at a point with coefficients `coeffs` and the object's radius
+    /// there (f₀ where either is missing or first order fails).
+    pub fn factor_at(
+        &self,
+        mass_msun: f64,
+        coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
+        radius_rsun: Option<f64>,
+    ) -> f64 {
+        let (Some(c), Some(r)) = (coeffs, radius_rsun) else {
+            return self.factor_standard;
+        };
+        let contrast = c.xi1.powi(3) / (3.0 * c.omega);
+        let rho_c = central_density_kg_m3(mass_msun, r, contrast);
+        let v = self.omega2_per_s2 / (2.0 * std::f64::consts::PI * crate::constants::G_SI * rho_c);
+        match c.at(v) {
+            Ok(ch) if ch.mass.is_finite() => 1.0 + ch.mass,
+            _ => self.factor_standard,
+        }
+    }
+
+    /// −2 ln P of the mass test at MMHB `bound_msun` with the factor `factor`, minus the same
+    /// with f₀: what the spin term adds at that point.
+    pub fn minus_two_ln_l_change(&self, factor: f64, bound_msun: f64) -> f64 {
+        if !self.measurement.informative() || factor == self.factor_standard {
+            return 0.0;
+        }
+        let at = Measurement {
+            scale: self.measurement.scale / self.factor_standard * factor,
+            ..self.measurement
+        };
+        let d = -2.0
+            * (ln_prob_consistent(&at, bound_msun, self.floor_msun)
+                - ln_prob_consistent(&self.measurement, bound_msun, self.floor_msun));
+        if d.is_finite() {
+            d
+        } else {
+            0.0
+        }
+    }
 }
 
 /// The spin test at one grid point.
@@ -174,6 +243,10 @@ pub struct SpinAt {
     pub ln_q: Option<f64>,
     /// Break-up period at the nominal mass, s (`None` without a model there).
     pub breakup_s: Option<f64>,
+    /// A corrected brown dwarf's or star's MMHB factor at the point ([`MmhbSlowRotation`]).
+    pub mmhb_factor: Option<f64>,
+    /// What the spin term adds for that factor at the point's MMHB (0 without one).
+    pub mmhb_change: f64,
 }
 
 /// ln P that P_obs ≥ P_break, marginalised over the mass nodes: ln[Σ w_k Φ((P − P_k)/(f P_k)) /
@@ -253,7 +326,36 @@ impl ObjectSpin {
         breakup_period_s(mass_msun, radius, BreakupModel::Roche).ok()
     }
 
-    /// The test at one point, given the cold radii there for [`ObjectSpin::queries`].
+    /// The object's radius at its nominal mass given the cold radius there (measured when
+    /// given).
+    pub fn nominal_radius_rsun(&self, cold_nominal: Option<f64>) -> Option<f64> {
+        match self.source {
+            SpinRadiusSource::Measured => self.measured_rsun,
+            _ => Some(cold_nominal? * self.scale.last().copied().flatten()?),
+        }
+    }
+
+    /// The test at a point with n = 3/2 slow-rotation coefficients `coeffs` and MMHB
+    /// `mmhb_msun`, given the cold radii there for [`ObjectSpin::queries`]: [`ObjectSpin::at`]
+    /// with the MMHB correction of [`MmhbSlowRotation`] carried to the point.
+    pub fn at_point(
+        &self,
+        cold: &[Option<f64>],
+        coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
+        mmhb_msun: Option<f64>,
+    ) -> SpinAt {
+        let mut at = self.at(cold);
+        if let Some(m) = &self.mmhb {
+            let radius = self.nominal_radius_rsun(cold.get(self.nodes.len()).copied().flatten());
+            let f = m.factor_at(self.mass_msun, coeffs, radius);
+            at.mmhb_factor = Some(f);
+            at.mmhb_change = mmhb_msun.map_or(0.0, |b| m.minus_two_ln_l_change(f, b));
+        }
+        at
+    }
+
+    /// The test at one point, given the cold radii there for [`ObjectSpin::queries`] (the
+    /// break-up test alone, without the MMHB correction of [`ObjectSpin::at_point`]).
     pub fn at(&self, cold: &[Option<f64>]) -> SpinAt {
         let floor_fraction = self.floor_fraction;
         let pb: Vec<Option<f64>> = self
@@ -268,6 +370,8 @@ impl ObjectSpin {
             ln_p: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, 1.0),
             ln_q: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, -1.0),
             breakup_s: nominal.first().copied().flatten(),
+            mmhb_factor: None,
+            mmhb_change: 0.0,
         }
     }
 }
@@ -276,6 +380,17 @@ impl ObjectSpin {
 pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> Vec<SpinAt> {
     let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
     let cold = surface.wd_radii_rsun(i, &queries);
+    let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
+    let coeffs = if any_mmhb {
+        surface.slow_rotation_n32(i)
+    } else {
+        None
+    };
+    let mmhb = if any_mmhb {
+        surface.mmhb_msun(i)
+    } else {
+        None
+    };
     let mut at = 0;
     spins
         .iter()
@@ -283,7 +398,7 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
             let n = s.n_queries();
             let slice = cold.get(at..at + n).unwrap_or(&[]);
             at += n;
-            s.at(slice)
+            s.at_point(slice, coeffs.as_ref(), mmhb)
         })
         .collect()
 }
@@ -303,7 +418,7 @@ pub fn minus_two_ln_l_grid(
             Some(
                 spins_at(spins, surface, i)
                     .iter()
-                    .map(|a| -2.0 * a.ln_p.unwrap_or(0.0))
+                    .map(|a| -2.0 * a.ln_p.unwrap_or(0.0) + a.mmhb_change)
                     .sum(),
             )
         })
@@ -412,6 +527,7 @@ pub fn prepare(
             measured_rsun: o.radius_rsun,
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
+            mmhb: None,
             floor_fraction: if source == SpinRadiusSource::Cold && !is_wd {
                 so.cold_hydrogen_floor_fraction
             } else {
@@ -432,6 +548,15 @@ pub fn prepare(
                         spin.radius_factor = 1.0 + change;
                     } else {
                         u.measurement.scale *= 1.0 + change;
+                        if u.mass_term.is_some() {
+                            let omega = 2.0 * std::f64::consts::PI / spin.period_s;
+                            spin.mmhb = Some(MmhbSlowRotation {
+                                omega2_per_s2: omega * omega,
+                                measurement: u.measurement,
+                                factor_standard: 1.0 + change,
+                                floor_msun: opts.mmhb_floor_msun,
+                            });
+                        }
                     }
                     u.flags.push("spin_corrected".to_string());
                 }
@@ -723,6 +848,7 @@ mod tests {
             measured_rsun: None,
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
+            mmhb: None,
             floor_fraction: 0.05,
         };
         let at = spin.at(&[Some(r), Some(r)]);

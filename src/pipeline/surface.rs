@@ -22,6 +22,7 @@ use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandar
 use crate::theory::grid::{self, TheoryGrid};
 use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
+use crate::theory::slow_rotation::{slow_rotation, SlowRotation};
 use crate::theory::white_dwarf::WdMassRadius;
 
 /// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, ϒ
@@ -34,6 +35,9 @@ pub struct GridSurface<'a> {
     standard_cold: Option<&'a WdMassRadius>,
     /// Which standard-gravity radius anchors the white-dwarf radius test.
     wd_model: WdRadiusModel,
+    /// The n = 3/2 slow-rotation coefficients per point, solved on first use (only runs with a
+    /// spinning brown dwarf or star ask).
+    slow_n32: std::sync::OnceLock<Vec<Option<SlowRotation>>>,
 }
 
 impl<'a> GridSurface<'a> {
@@ -56,6 +60,7 @@ impl<'a> GridSurface<'a> {
             tau,
             standard_cold,
             wd_model,
+            slow_n32: std::sync::OnceLock::new(),
         }
     }
 
@@ -138,6 +143,22 @@ impl BoundSurface for GridSurface<'_> {
             Some(Outcome::Ok(t)) => t.radii_rsun(queries),
             _ => vec![None; queries.len()],
         }
+    }
+    fn slow_rotation_n32(&self, i: usize) -> Option<SlowRotation> {
+        let all = self.slow_n32.get_or_init(|| {
+            use rayon::prelude::*;
+            let nu = self.upsilon.len();
+            let ansatz = self.grid.settings.anisotropy;
+            (0..nu * self.tau.len())
+                .into_par_iter()
+                .map(|k| {
+                    // Only where the grid has a model: the coefficients belong to that structure.
+                    self.grid.point(k)?.mmhb.ok()?;
+                    slow_rotation(1.5, self.upsilon[k % nu], self.tau[k / nu], ansatz).ok()
+                })
+                .collect()
+        });
+        all.get(i).copied().flatten()
     }
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>> {
         let Some(cold) = self.standard_cold else {
