@@ -397,13 +397,15 @@ fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
     let surface = SwellingRadius;
     let conf = run_engine(&objects, &surface, &opts).unwrap();
     let spin = &conf.spins[0];
-    let m = spin.mmhb.expect("a corrected brown dwarf carries its MMHB correction");
+    let m = spin
+        .mmhb
+        .expect("a corrected brown dwarf carries its MMHB correction");
     let factor = |u: f64| {
         let c = slow_rotation(1.5, u, 0.0, Anisotropy::None).unwrap();
         let r = swelling_radius_rsun(0.06, u) * dwarfbound::constants::R_SUN_NOMINAL_M;
         let mass = 0.06 * dwarfbound::constants::msun_kg();
-        let rho_c = c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass
-            / (4.0 * std::f64::consts::PI * r.powi(3));
+        let rho_c =
+            c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass / (4.0 * std::f64::consts::PI * r.powi(3));
         let omega = 2.0 * std::f64::consts::PI / (3.0 * 3600.0);
         let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
         // Beyond that point's first-order threshold the factor stays the standard one.
@@ -428,7 +430,10 @@ fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
         if u == 0.0 {
             assert_eq!(at.mmhb_change, 0.0);
         } else if factor(u).is_some() {
-            assert!(at.mmhb_change != 0.0 && (f - m.factor_standard).abs() > 1e-5, "ϒ = {u}");
+            assert!(
+                at.mmhb_change != 0.0 && (f - m.factor_standard).abs() > 1e-5,
+                "ϒ = {u}"
+            );
             moved += 1;
         }
         // The grid's spin term is the break-up test plus that change.

@@ -174,7 +174,10 @@ fn against_independent_scipy_reference() {
             _ => direct += 1,
         }
     }
-    assert!(linear >= 4 && direct >= 10, "{linear} linear, {direct} direct rows");
+    assert!(
+        linear >= 4 && direct >= 10,
+        "{linear} linear, {direct} direct rows"
+    );
     // n = 3: the mass does not depend on ρ_c, so there is no fixed-mass radius coefficient; a
     // spinning star holds more mass at fixed ρ_c, its equator moves out and its pole in.
     let s3 = slow_rotation(3.0, 0.0, 0.0, Anisotropy::None).unwrap();

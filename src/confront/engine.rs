@@ -72,8 +72,7 @@ pub trait BoundSurface: Sync {
     fn slow_rotation_n32(&self, i: usize) -> Option<crate::theory::slow_rotation::SlowRotation> {
         let nu = self.upsilon().len().max(1);
         let (u, t) = (*self.upsilon().get(i % nu)?, *self.tau().get(i / nu)?);
-        crate::theory::slow_rotation::slow_rotation(1.5, u, t, crate::theory::Anisotropy::None)
-            .ok()
+        crate::theory::slow_rotation::slow_rotation(1.5, u, t, crate::theory::Anisotropy::None).ok()
     }
 }
 

@@ -310,7 +310,11 @@ fn spin_terms_on_fine_axis(
         (0..row.axis.len())
             .into_par_iter()
             .map(|i| {
-                super::spin::spins_at(&conf.spins, surface, row.j0 * conf.n_upsilon + row.first + i)
+                super::spin::spins_at(
+                    &conf.spins,
+                    surface,
+                    row.j0 * conf.n_upsilon + row.first + i,
+                )
             })
             .collect()
     } else {

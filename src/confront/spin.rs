@@ -290,7 +290,9 @@ fn ln_p_side(
         if *w <= 0.0 {
             continue;
         }
-        let sigma = (floor_fraction * pb).hypot(period_err).max(f64::MIN_POSITIVE);
+        let sigma = (floor_fraction * pb)
+            .hypot(period_err)
+            .max(f64::MIN_POSITIVE);
         terms.push(w.ln() + ln_normal_cdf(sign * (period - pb) / sigma));
         weight += w;
     }
@@ -386,11 +388,7 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
     } else {
         None
     };
-    let mmhb = if any_mmhb {
-        surface.mmhb_msun(i)
-    } else {
-        None
-    };
+    let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
     let mut at = 0;
     spins
         .iter()

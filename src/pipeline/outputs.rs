@@ -26,9 +26,7 @@ use crate::confront::regions::Interval;
 use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
 use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
-use crate::confront::tension::{
-    mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest, TestKey,
-};
+use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest, TestKey};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
