@@ -168,6 +168,15 @@ pub struct ObjectSpin {
     pub floor_fraction: f64,
 }
 
+/// A generous bound on how far a first-order MMHB factor can move from its standard value: the
+/// factor is at most 1 + v_max (d ln M/dv) = 1 + 0.1 v_crit (d ln M/dv), about 1 % for n = 3/2
+/// (0.94 % at standard gravity, 0.78 % at ϒ = 0.3).
+pub const MMHB_FACTOR_RANGE: f64 = 0.05;
+
+/// A change of −2 ln L this small moves no interval end or verdict (Δχ² levels are read to far
+/// coarser precision).
+pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
+
 /// The slow-rotation change of one brown dwarf's or star's MMHB at every grid point.
 ///
 /// The object's mass test runs inside its class's term with the standard-gravity factor
@@ -179,7 +188,8 @@ pub struct ObjectSpin {
 /// test is in effect taken at the point's factor: exact with per-object floors; with a shared
 /// systematic the difference is taken at zero shift (first order in a product of two small
 /// quantities). Where first order fails at a point (v above that point's threshold, or no
-/// model), the factor stays f₀.
+/// model), the factor stays f₀; so it does where the mass test cannot feel it
+/// ([`MmhbSlowRotation::matters_at`]), which saves the point's ODE.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MmhbSlowRotation {
     /// Ω² of the observed period, s⁻².
@@ -211,6 +221,20 @@ impl MmhbSlowRotation {
             Ok(ch) if ch.mass.is_finite() => 1.0 + ch.mass,
             _ => self.factor_standard,
         }
+    }
+
+    /// Whether the factor can matter at MMHB `bound_msun`: the change of −2 ln P for a factor
+    /// [`MMHB_FACTOR_RANGE`] away from f₀ on either side exceeds [`MMHB_CHANGE_NEGLIGIBLE`].
+    /// Where it cannot (an object far on the safe side of that bound), the point's coefficients
+    /// are not solved and the factor stays f₀.
+    pub fn matters_at(&self, bound_msun: f64) -> bool {
+        [1.0 - MMHB_FACTOR_RANGE, 1.0 + MMHB_FACTOR_RANGE]
+            .iter()
+            .any(|r| {
+                self.minus_two_ln_l_change(self.factor_standard * r, bound_msun)
+                    .abs()
+                    > MMHB_CHANGE_NEGLIGIBLE
+            })
     }
 
     /// −2 ln P of the mass test at MMHB `bound_msun` with the factor `factor`, minus the same
@@ -383,12 +407,20 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
     let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
     let cold = surface.wd_radii_rsun(i, &queries);
     let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
-    let coeffs = if any_mmhb {
+    let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
+    // The point's coefficients are solved only where some corrected object's mass test can
+    // feel them (one ODE per point).
+    let needed = mmhb.is_some_and(|b| {
+        spins
+            .iter()
+            .filter_map(|s| s.mmhb.as_ref())
+            .any(|m| m.matters_at(b))
+    });
+    let coeffs = if needed {
         surface.slow_rotation_n32(i)
     } else {
         None
     };
-    let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
     let mut at = 0;
     spins
         .iter()

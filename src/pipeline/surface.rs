@@ -35,9 +35,10 @@ pub struct GridSurface<'a> {
     standard_cold: Option<&'a WdMassRadius>,
     /// Which standard-gravity radius anchors the white-dwarf radius test.
     wd_model: WdRadiusModel,
-    /// The n = 3/2 slow-rotation coefficients per point, solved on first use (only runs with a
-    /// spinning brown dwarf or star ask).
-    slow_n32: std::sync::OnceLock<Vec<Option<SlowRotation>>>,
+    /// The n = 3/2 slow-rotation coefficients per point, each solved on first use (only runs
+    /// with a slowly spinning brown dwarf or star ask, and only where its mass test is
+    /// sensitive to them).
+    slow_n32: Vec<std::sync::OnceLock<Option<SlowRotation>>>,
 }
 
 impl<'a> GridSurface<'a> {
@@ -60,7 +61,9 @@ impl<'a> GridSurface<'a> {
             tau,
             standard_cold,
             wd_model,
-            slow_n32: std::sync::OnceLock::new(),
+            slow_n32: (0..grid.upsilon.count * grid.tau.count)
+                .map(|_| std::sync::OnceLock::new())
+                .collect(),
         }
     }
 
@@ -145,20 +148,13 @@ impl BoundSurface for GridSurface<'_> {
         }
     }
     fn slow_rotation_n32(&self, i: usize) -> Option<SlowRotation> {
-        let all = self.slow_n32.get_or_init(|| {
-            use rayon::prelude::*;
-            let nu = self.upsilon.len();
+        let nu = self.upsilon.len();
+        *self.slow_n32.get(i)?.get_or_init(|| {
+            // Only where the grid has a model: the coefficients belong to that structure.
+            self.grid.point(i)?.mmhb.ok()?;
             let ansatz = self.grid.settings.anisotropy;
-            (0..nu * self.tau.len())
-                .into_par_iter()
-                .map(|k| {
-                    // Only where the grid has a model: the coefficients belong to that structure.
-                    self.grid.point(k)?.mmhb.ok()?;
-                    slow_rotation(1.5, self.upsilon[k % nu], self.tau[k / nu], ansatz).ok()
-                })
-                .collect()
-        });
-        all.get(i).copied().flatten()
+            slow_rotation(1.5, self.upsilon[i % nu], self.tau[i / nu], ansatz).ok()
+        })
     }
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>> {
         let Some(cold) = self.standard_cold else {
