@@ -193,3 +193,281 @@ fn predict_out_writes_the_break_up_figure() {
     let png = std::fs::read(dir.path().join("breakup.png")).unwrap();
     assert!(png.starts_with(b"\x89PNG"));
 }
+
+/// A surface whose cold radius is a cubic in ϒ, R(M, ϒ) = 0.1 R☉ (M/0.06)^{−1/3}
+/// (1 + 0.8ϒ + 0.6ϒ² − 0.5ϒ³), at a constant MMHB: the not-a-knot spline along the coarse row
+/// reproduces a cubic exactly, so the spin term evaluated on the fine axis must equal the test
+/// evaluated directly with the radius at each fine ϒ (closed form, by construction).
+struct SwellingRadius;
+
+fn swelling_radius_rsun(mass_msun: f64, upsilon: f64) -> f64 {
+    let u = upsilon;
+    0.1 * (mass_msun / 0.06).powf(-1.0 / 3.0) * (1.0 + 0.8 * u + 0.6 * u * u - 0.5 * u * u * u)
+}
+
+impl dwarfbound::confront::engine::BoundSurface for SwellingRadius {
+    fn upsilon(&self) -> &[f64] {
+        &[-0.3, -0.2, -0.1, 0.0, 0.1, 0.2, 0.3, 0.4, 0.5]
+    }
+    fn tau(&self) -> &[f64] {
+        &[0.0]
+    }
+    fn mmhb_msun(&self, _i: usize) -> Option<f64> {
+        Some(0.075)
+    }
+    fn chandrasekhar_mu2_msun(&self, _i: usize) -> Option<f64> {
+        Some(1.4563)
+    }
+    fn wd_radii_rsun(&self, i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> {
+        let u = self.upsilon()[i];
+        q.iter()
+            .map(|&(m, _)| Some(swelling_radius_rsun(m, u)))
+            .collect()
+    }
+    fn wd_standard_radii(
+        &self,
+        q: &[dwarfbound::confront::wd_radius::WdQuery],
+    ) -> Vec<Option<dwarfbound::confront::wd_radius::WdStandard>> {
+        vec![None; q.len()]
+    }
+}
+
+/// Invented object (not a measurement): a 0.06 ± 0.003 M☉ brown dwarf spinning in 0.8 h,
+/// 1σ period error 0.01 h. On [`SwellingRadius`] its break-up period is ≈ 40 min at ϒ = 0 and
+/// grows as R^{3/2} with ϒ, so the spin test closes the upper end of the ϒ interval alone.
+fn swelling_spinner() -> dwarfbound::catalogue::CatalogueObject {
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+    CatalogueObject {
+        id: "BD-spin".into(),
+        class: ObjectClass::BrownDwarf,
+        mass_msun: 0.06,
+        mass_err_lo_msun: Some(0.003),
+        mass_err_hi_msun: Some(0.003),
+        mass_limit: MassLimit::None,
+        radius_rsun: None,
+        radius_err_rsun: None,
+        age_gyr: Some(5.0),
+        age_err_gyr: None,
+        rotation_period_h: Some(0.8),
+        rotation_period_err_h: Some(0.01),
+        mu_e: None,
+        teff_k: None,
+        teff_err_k: None,
+        core: None,
+        envelope: None,
+        radius_model_rsun: None,
+        mass_method: Default::default(),
+        reference: None,
+        source_file: "a.csv".into(),
+        source_row: 1,
+    }
+}
+
+// Source: the closed-form radius of [`SwellingRadius`] (a cubic in ϒ, reproduced exactly by the
+// not-a-knot spline), so the fine-axis spin term must equal the direct evaluation to rounding;
+// linear interpolation of the coarse term, the previous method, misses it by far more.
+#[test]
+fn spin_term_on_the_fine_axis_equals_a_direct_evaluation() {
+    use dwarfbound::confront::engine::{confront as run_engine, EngineOptions};
+    use dwarfbound::confront::slice::tau0_slice;
+    let objects = [swelling_spinner()];
+    let conf = run_engine(&objects, &SwellingRadius, &EngineOptions::default()).unwrap();
+    assert_eq!(conf.spins.len(), 1);
+    assert!((conf.spins[0].period_err_s - 36.0).abs() < 1e-12);
+    let s = tau0_slice(&conf, &SwellingRadius).unwrap().unwrap();
+    let fine = &s.slice.upsilon_fine;
+    let (k, values) = &s.spin_fine_per_object[0];
+    assert_eq!(*k, 0);
+    let spin = &conf.spins[0];
+    let mut worst_linear: f64 = 0.0;
+    let axis = [-0.3, -0.2, -0.1, 0.0, 0.1, 0.2, 0.3, 0.4, 0.5];
+    let direct = |u: f64| {
+        let cold: Vec<Option<f64>> = spin
+            .queries()
+            .map(|(m, _)| Some(swelling_radius_rsun(m, u)))
+            .collect();
+        -2.0 * spin.at(&cold).ln_p.unwrap()
+    };
+    for (j, &u) in fine.iter().enumerate() {
+        let want = direct(u);
+        assert!(
+            (values[j] - want).abs() < 1e-9 * want.max(1.0),
+            "ϒ = {u}: {} vs {want}",
+            values[j]
+        );
+        assert!((s.spin_fine[j] - values[j]).abs() < 1e-12);
+        // What linear interpolation between the coarse points gave.
+        let i = axis.partition_point(|&a| a <= u).clamp(1, axis.len() - 1);
+        let t = (u - axis[i - 1]) / (axis[i] - axis[i - 1]);
+        let linear = direct(axis[i - 1]) + t * (direct(axis[i]) - direct(axis[i - 1]));
+        worst_linear = worst_linear.max((linear - want).abs());
+    }
+    assert!(worst_linear > 1e-3, "{worst_linear}");
+}
+
+// Source: leave-one-out is exact for the spin term (a sum over objects with nothing shared,
+// docs/rotation.md §3): without its only spin test the slice of [`SwellingRadius`] is flat in ϒ,
+// so removing it opens the upper end (an infinite shift), and the drivers name the spin test.
+#[test]
+fn spin_tests_are_leave_one_out_drivers() {
+    use dwarfbound::confront::drivers::{slice_drivers_in_fit, spin_drivers, DriverOptions};
+    use dwarfbound::confront::engine::{confront as run_engine, EngineOptions};
+    use dwarfbound::confront::slice::tau0_slice;
+    use dwarfbound::confront::tension::TensionTest;
+    let objects = [swelling_spinner()];
+    let conf = run_engine(&objects, &SwellingRadius, &EngineOptions::default()).unwrap();
+    let s = tau0_slice(&conf, &SwellingRadius).unwrap().unwrap();
+    let opts = DriverOptions::default();
+    let alone = spin_drivers(&s, &opts).unwrap();
+    assert_eq!(alone.len(), 1);
+    assert_eq!(alone[0].0, 0);
+    assert!(alone[0].1.is_infinite(), "{alone:?}");
+    let drivers = slice_drivers_in_fit(&conf, &s, &opts).unwrap();
+    let d = drivers.iter().find(|d| d.object == 0).unwrap();
+    assert_eq!(d.test, TensionTest::Spin);
+    assert!(d.shift.is_infinite());
+}
+
+// Invented objects (not measurements). Source for the expectations: a 0.06 M☉ cold
+// hydrogen-rich body breaks up at ≈ 30 min at standard gravity (between the check values 35.7
+// and 25.5 min at 0.05 and 0.07 M☉, docs/rotation.md §2), and its radius grows with ϒ, so one
+// spinning in 33 min (15 % floor) is on the safe side at ϒ = 0 and fails towards ϒ = 0.6. It is
+// then an informative test of the Šidák count and a driver of the interval's upper end. Its
+// period error (0.01 h) is written back in objects.csv.
+#[test]
+fn spin_enters_the_consistency_count_and_the_drivers() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run(
+        dir.path(),
+        "id,class,mass,mass_err,age,rotation_period,rotation_period_err\n\
+         BD-spin,brown_dwarf,0.06,0.002,5,0.55,0.01\n\
+         BD-slow,brown_dwarf,0.05,0.002,5,10,\n\
+         HB-1,hburning,0.09,0.004,5,,\n",
+        &["--upsilon=-0.2:0.6:9", "--tau", "0"],
+    );
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    assert_eq!(field(&h, &rows, "BD-spin", "rotation_period_err_h"), "0.01");
+    assert_eq!(field(&h, &rows, "BD-slow", "rotation_period_err_h"), "");
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let worst = summary["consistency"]["worst"].as_array().unwrap();
+    assert!(
+        worst
+            .iter()
+            .any(|w| w["id"] == "BD-spin" && w["test"] == "spin"),
+        "{worst:?}"
+    );
+    // BD-slow spins far slower than break-up everywhere: not counted.
+    assert!(
+        !worst
+            .iter()
+            .any(|w| w["id"] == "BD-slow" && w["test"] == "spin"),
+        "{worst:?}"
+    );
+    let drivers = summary["drivers"].as_array().unwrap();
+    assert!(
+        drivers
+            .iter()
+            .any(|d| d["id"] == "BD-spin" && d["test"] == "spin"),
+        "{drivers:?}"
+    );
+    assert_eq!(field(&h, &rows, "BD-spin", "driver_test"), "spin");
+}
+
+// Source: the definition of the first-order MMHB factor at a grid point (docs/rotation.md §3):
+// f = 1 + v (d ln M/dv) with the n = 3/2 coefficients of the point's (ϒ, τ) and
+// v = Ω²/(2πGρ_c), ρ_c = (ξ₁³/(3ω)) · 3M/(4πR³) with the object's radius there; at ϒ = τ = 0 it
+// must be the standard factor the mass test already carries (the old, ϒ = τ = 0 value), so the
+// spin term adds exactly nothing there. G is CODATA 2018, M☉ and R☉ the IAU 2015 B3 nominal
+// values (through the crate's constants).
+#[test]
+fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
+    use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions, Term};
+    use dwarfbound::confront::prob::ln_prob_consistent;
+    use dwarfbound::confront::spin::spins_at;
+    use dwarfbound::theory::slow_rotation::slow_rotation;
+    use dwarfbound::theory::Anisotropy;
+    // 3 h: v ≈ 1.6e-3, below the first-order threshold 3.3e-3 of n = 3/2 at standard gravity
+    // (at large ϒ the threshold falls below v: the factor stays the standard one there).
+    let mut bd = swelling_spinner();
+    bd.rotation_period_h = Some(3.0);
+    bd.rotation_period_err_h = None;
+    let objects = [bd];
+    let opts = EngineOptions::default();
+    let surface = SwellingRadius;
+    let conf = run_engine(&objects, &surface, &opts).unwrap();
+    let spin = &conf.spins[0];
+    let m = spin
+        .mmhb
+        .expect("a corrected brown dwarf carries its MMHB correction");
+    let factor = |u: f64| {
+        let c = slow_rotation(1.5, u, 0.0, Anisotropy::None).unwrap();
+        let r = swelling_radius_rsun(0.06, u) * dwarfbound::constants::R_SUN_NOMINAL_M;
+        let mass = 0.06 * dwarfbound::constants::msun_kg();
+        let rho_c =
+            c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass / (4.0 * std::f64::consts::PI * r.powi(3));
+        let omega = 2.0 * std::f64::consts::PI / (3.0 * 3600.0);
+        let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
+        // Beyond that point's first-order threshold the factor stays the standard one.
+        (v <= c.v_max).then_some(1.0 + v * c.mass_coefficient)
+    };
+    // The standard factor is the old, ϒ = τ = 0 one.
+    let f0 = factor(0.0).unwrap();
+    assert!((m.factor_standard - f0).abs() < 1e-13);
+    assert!((conf.uses[0].measurement.scale - f0).abs() < 1e-13);
+    let mut moved = 0;
+    for (i, &u) in surface.upsilon().iter().enumerate() {
+        let at = spins_at(&conf.spins, &surface, i)[0];
+        let f = at.mmhb_factor.unwrap();
+        let want = factor(u).unwrap_or(f0);
+        assert!((f - want).abs() < 1e-12, "ϒ = {u}: {f} vs {want}");
+        let mut scaled = m.measurement;
+        scaled.scale = m.measurement.scale / m.factor_standard * f;
+        let want = -2.0
+            * (ln_prob_consistent(&scaled, 0.075, opts.mmhb_floor_msun)
+                - ln_prob_consistent(&m.measurement, 0.075, opts.mmhb_floor_msun));
+        assert!((at.mmhb_change - want).abs() < 1e-12, "ϒ = {u}");
+        if u == 0.0 {
+            assert_eq!(at.mmhb_change, 0.0);
+        } else if factor(u).is_some() {
+            assert!(
+                at.mmhb_change != 0.0 && (f - m.factor_standard).abs() > 1e-5,
+                "ϒ = {u}"
+            );
+            moved += 1;
+        }
+        // The grid's spin term is the break-up test plus that change.
+        let grid = conf.per_term[Term::Spin as usize][i].unwrap();
+        assert!((grid - (-2.0 * at.ln_p.unwrap() + at.mmhb_change)).abs() < 1e-12);
+    }
+    assert!(moved >= 4, "{moved} points with a point-specific factor");
+}
+
+// Invented object (not a measurement): a 0.06 M☉ brown dwarf spinning slowly (5 h, within first
+// order). On the real grid its MMHB factor is taken at each point (docs/rotation.md §3): at
+// ϒ = τ = 0 the spin term adds nothing beyond the break-up test (P ≈ 1 there, so ≈ 0), and away
+// from it a small, non-zero change (the factor moves by a fraction of a per cent of the MMHB).
+#[test]
+fn slow_spinner_gets_the_grid_points_mmhb_factor() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run(
+        dir.path(),
+        "id,class,mass,mass_err,age,rotation_period\n\
+         BD-5h,brown_dwarf,0.072,0.003,5,5\n",
+        &["--upsilon=-0.2:0.2:5", "--tau", "0"],
+    );
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    let flags = field(&h, &rows, "BD-5h", "flags");
+    assert!(flags.contains("spin_corrected"), "{flags}");
+    let (gh, grid) = read_csv(&out.join("grid.csv"));
+    let (iu, is) = (col(&gh, "upsilon"), col(&gh, "minus_two_ln_l_spin"));
+    for r in &grid {
+        let u: f64 = r[iu].parse().unwrap();
+        let s: f64 = r[is].parse().unwrap();
+        if u == 0.0 {
+            assert!(s.abs() < 1e-9, "ϒ = 0: {s}");
+        } else {
+            assert!(s != 0.0 && s.abs() < 0.5, "ϒ = {u}: {s}");
+        }
+    }
+}

@@ -90,6 +90,7 @@ fn object(id: usize, class: ObjectClass, truth: f64, rng: &mut SplitMix64) -> Ca
         age_gyr: Some(5.0),
         age_err_gyr: None,
         rotation_period_h: None,
+        rotation_period_err_h: None,
         mu_e: None,
         teff_k: None,
         teff_err_k: None,

@@ -63,6 +63,7 @@ fn good_catalogue_is_accepted_whole_and_converted() {
             "age",
             "age_err",
             "rotation_period",
+            "rotation_period_err",
             "mu_e",
             "teff",
             "teff_err",
@@ -372,4 +373,33 @@ fn format_flag_overrides_the_extension() {
     );
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(r.stdout.contains("7 accepted"));
+}
+
+/// `rotation_period_err` inherits the period's unit (like every error column), is converted to
+/// hours, is quarantined when not positive and reads NaN as "no value" (README, catalogue
+/// columns). 0.5 d = 12 h, 0.01 d = 0.24 h.
+#[test]
+fn rotation_period_error_inherits_the_unit_and_is_vetted() {
+    let dir = tempfile::tempdir().unwrap();
+    let cat = dir.path().join("spins.csv");
+    std::fs::write(
+        &cat,
+        "id,class,mass,mass_err,rotation_period[d],rotation_period_err\n\
+         S1,brown_dwarf,0.06,0.005,0.5,0.01\n\
+         S2,brown_dwarf,0.06,0.005,0.5,nan\n\
+         S3,brown_dwarf,0.06,0.005,0.5,-0.01\n",
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let r = vet(&[path_str(&cat)], &out);
+    assert_eq!(r.code, 0, "{} {}", r.stdout, r.stderr);
+    let (h, rows) = read_csv(&out.join("accepted.csv"));
+    assert_eq!(rows.len(), 2);
+    let err: f64 = rows[0][col(&h, "rotation_period_err")].parse().unwrap();
+    assert!((err - 0.24).abs() < 1e-14, "{err}");
+    assert_eq!(rows[1][col(&h, "rotation_period_err")], "");
+    let (qh, q) = read_csv(&out.join("quarantine.csv"));
+    assert_eq!(q.len(), 1);
+    assert_eq!(q[0][col(&qh, "column")], "rotation_period_err");
+    assert_eq!(q[0][col(&qh, "reason")], "not positive");
 }

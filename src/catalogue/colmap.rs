@@ -28,7 +28,7 @@ use super::error::CatalogueError;
 use super::units::{self, Quantity};
 
 /// Canonical column names of the README, in output order.
-pub const CANONICAL_COLUMNS: [&str; 20] = [
+pub const CANONICAL_COLUMNS: [&str; 21] = [
     "id",
     "class",
     "mass",
@@ -41,6 +41,7 @@ pub const CANONICAL_COLUMNS: [&str; 20] = [
     "age",
     "age_err",
     "rotation_period",
+    "rotation_period_err",
     "mu_e",
     "teff",
     "teff_err",
@@ -61,7 +62,7 @@ pub fn column_quantity(canonical: &str) -> Option<Quantity> {
         "radius" | "radius_err" | "radius_model" => Quantity::Radius,
         "teff" | "teff_err" => Quantity::Temperature,
         "age" | "age_err" => Quantity::Age,
-        "rotation_period" => Quantity::RotationPeriod,
+        "rotation_period" | "rotation_period_err" => Quantity::RotationPeriod,
         "mu_e" => Quantity::Dimensionless,
         _ => return None,
     })

@@ -15,7 +15,7 @@ use super::vet::{CatalogueObject, QuarantinedRow};
 use crate::output::fmt_f64;
 
 /// Header of `accepted.csv`.
-pub const ACCEPTED_COLUMNS: [&str; 21] = [
+pub const ACCEPTED_COLUMNS: [&str; 22] = [
     "id",
     "class",
     "mass",
@@ -27,6 +27,7 @@ pub const ACCEPTED_COLUMNS: [&str; 21] = [
     "age",
     "age_err",
     "rotation_period",
+    "rotation_period_err",
     "mu_e",
     "teff",
     "teff_err",
@@ -66,6 +67,7 @@ pub fn write_accepted(
             fmt_f64(o.age_gyr),
             fmt_f64(o.age_err_gyr),
             fmt_f64(o.rotation_period_h),
+            fmt_f64(o.rotation_period_err_h),
             fmt_f64(o.mu_e),
             fmt_f64(o.teff_k),
             fmt_f64(o.teff_err_k),
@@ -74,7 +76,7 @@ pub fn write_accepted(
         ]
     };
     for o in objects {
-        let [mass, lo, hi, radius, radius_err, age, age_err, period, mu_e, teff, teff_err, radius_model, source_row] =
+        let [mass, lo, hi, radius, radius_err, age, age_err, period, period_err, mu_e, teff, teff_err, radius_model, source_row] =
             row(o);
         w.write_record([
             o.id.as_str(),
@@ -88,6 +90,7 @@ pub fn write_accepted(
             &age,
             &age_err,
             &period,
+            &period_err,
             &mu_e,
             &teff,
             &teff_err,

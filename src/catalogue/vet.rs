@@ -46,7 +46,7 @@
 //! | mass_err_lo / mass_err_hi | `only one of mass_err_lo and mass_err_hi given` | a split error with one side empty |
 //! | mass_err | `both mass_err and mass_err_lo/mass_err_hi given (ambiguous)` | a row fills the symmetric and the split error: which one the author meant is a guess, so the row is quarantined (a file may carry both columns, each row filling one) |
 //! | mass_err, mass_err_lo, mass_err_hi | `not positive` | error ≤ 0 (also when given with a limit) |
-//! | radius, radius_err, age, age_err, rotation_period | `not positive` | value ≤ 0 |
+//! | radius, radius_err, age, age_err, rotation_period, rotation_period_err | `not positive` | value ≤ 0 |
 //! | mu_e | `mu_e outside [1, 3]` | μ_e < 1 or > 3 |
 //! | teff, teff_err, radius_model | `not positive` | value ≤ 0 |
 //! | core | `unknown core (expected he, co or one)` | anything else (any case; `c/o`, `o/ne` accepted) |
@@ -291,6 +291,8 @@ pub struct CatalogueObject {
     pub age_err_gyr: Option<f64>,
     /// Rotation period, h.
     pub rotation_period_h: Option<f64>,
+    /// 1σ rotation-period error, h (the spin test adds it to the break-up floor in quadrature).
+    pub rotation_period_err_h: Option<f64>,
     /// Mean molecular weight per electron, if given (consumers default to 2).
     pub mu_e: Option<f64>,
     /// Effective temperature, K.
@@ -428,7 +430,7 @@ struct Col {
 /// times, so a hash map here was a measurable share of vetting a large file.
 #[derive(Debug, Default)]
 struct Layout {
-    cols: [Option<Col>; 20],
+    cols: [Option<Col>; 21],
 }
 
 /// Position of a canonical column name in `CANONICAL_COLUMNS` (a `match`, not a search).
@@ -446,14 +448,15 @@ fn slot(canonical: &str) -> Option<usize> {
         "age" => 9,
         "age_err" => 10,
         "rotation_period" => 11,
-        "mu_e" => 12,
-        "teff" => 13,
-        "teff_err" => 14,
-        "core" => 15,
-        "envelope" => 16,
-        "radius_model" => 17,
-        "mass_method" => 18,
-        "ref" => 19,
+        "rotation_period_err" => 12,
+        "mu_e" => 13,
+        "teff" => 14,
+        "teff_err" => 15,
+        "core" => 16,
+        "envelope" => 17,
+        "radius_model" => 18,
+        "mass_method" => 19,
+        "ref" => 20,
         _ => return None,
     })
 }
@@ -568,6 +571,7 @@ fn resolve(
         ("age", None),
         ("age_err", Some("age")),
         ("rotation_period", None),
+        ("rotation_period_err", Some("rotation_period")),
         ("mu_e", None),
         ("teff", None),
         ("teff_err", Some("teff")),
@@ -681,12 +685,13 @@ fn cell_number(cell: CellRef<'_>) -> Result<Option<f64>, &'static str> {
 /// Optional columns in which NaN means "no value", as FITS and VOTable define it, so that the
 /// same table vets alike from every format (ECSV and CSV carry NaN as a number). In the
 /// required columns (mass and its errors) NaN stays a quarantine reason.
-const NAN_IS_MISSING: [&str; 9] = [
+const NAN_IS_MISSING: [&str; 10] = [
     "radius",
     "radius_err",
     "age",
     "age_err",
     "rotation_period",
+    "rotation_period_err",
     "mu_e",
     "teff",
     "teff_err",
@@ -871,6 +876,7 @@ fn vet_row(
     let age_gyr = view.positive("age")?;
     let age_err_gyr = view.positive("age_err")?;
     let rotation_period_h = view.positive("rotation_period")?;
+    let rotation_period_err_h = view.positive("rotation_period_err")?;
     let mu_e = match view.raw("mu_e")? {
         None => None,
         Some((v, unit)) => {
@@ -937,6 +943,7 @@ fn vet_row(
         age_gyr,
         age_err_gyr,
         rotation_period_h,
+        rotation_period_err_h,
         mu_e,
         teff_k,
         teff_err_k,

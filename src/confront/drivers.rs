@@ -204,9 +204,10 @@ fn end_shift(before: Option<f64>, after: Option<f64>) -> f64 {
 /// The drivers of one confrontation's τ = 0 slice: (object index, shift), largest shift first
 /// (ties by object index), at most `opts.top`.
 ///
-/// The mass classes go through [`leave_one_out`]. White dwarfs feed the radius term too, which
-/// that analysis does not see: each one's radius contribution is taken out of the slice the
-/// same way ([`radius_drivers`]), and an object found by both keeps its larger shift.
+/// The mass classes go through [`leave_one_out`]. White dwarfs feed the radius term too, and
+/// spinning objects the spin term, which that analysis does not see: each one's radius and
+/// spin contributions are taken out of the slice the same way ([`radius_drivers`],
+/// [`spin_drivers`]), and an object found by more than one keeps its largest shift.
 pub fn slice_drivers(
     conf: &Confrontation,
     s: &SliceResult,
@@ -238,7 +239,10 @@ pub fn slice_drivers(
         .iter()
         .map(|d| (per_class[d.class].1[d.index], d.shift))
         .collect();
-    for (k, shift) in radius_drivers(s, opts)? {
+    for (k, shift) in radius_drivers(s, opts)?
+        .into_iter()
+        .chain(spin_drivers(s, opts)?)
+    {
         match out.iter_mut().find(|(j, _)| *j == k) {
             Some(row) => row.1 = row.1.max(shift),
             None => out.push((k, shift)),
@@ -260,11 +264,32 @@ pub fn radius_drivers(
     s: &SliceResult,
     opts: &DriverOptions,
 ) -> Result<Vec<(usize, f64)>, StatsError> {
+    remove_each(s, &s.radius_fine, opts)
+}
+
+/// Leave-one-out shifts of the ϒ interval at τ = 0 (at `opts.level`) from removing each
+/// object's spin test: (object index, shift), +∞ when an end opens or closes; objects that do
+/// not move it are left out. Exact: the spin term is a sum over objects with nothing shared, so
+/// the slice without the object is the slice minus its own −2 ln P on the fine axis.
+pub fn spin_drivers(
+    s: &SliceResult,
+    opts: &DriverOptions,
+) -> Result<Vec<(usize, f64)>, StatsError> {
+    remove_each(s, &s.spin_fine_per_object, opts)
+}
+
+/// The shift of the interval from subtracting each object's own contribution along the fine
+/// axis from the slice: (object index, shift) for the objects that move it.
+fn remove_each(
+    s: &SliceResult,
+    per_object: &[(usize, Vec<f64>)],
+    opts: &DriverOptions,
+) -> Result<Vec<(usize, f64)>, StatsError> {
     let fine = &s.slice.upsilon_fine;
     let dchi2 = opts.level.dchi2(1);
     let baseline = interval_from_slice(fine, &s.slice.chi2_fine, dchi2)?;
     let mut out = Vec::new();
-    for (k, contrib) in &s.radius_fine {
+    for (k, contrib) in per_object {
         let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
             - contrib.iter().copied().fold(f64::INFINITY, f64::min);
         if spread <= opts.candidate_min_minus_two_ln_p {
@@ -293,9 +318,9 @@ pub struct SliceDriver {
     pub object: usize,
     /// max(|Δlower|, |Δupper|) in ϒ; +∞ when an end opens or closes.
     pub shift: f64,
-    /// The test whose removal gives that shift: its mass bound (one-sided) or, for a white
-    /// dwarf, the mass–radius relation (two-sided); a white dwarf found through both keeps the
-    /// larger shift.
+    /// The test whose removal gives that shift: its mass bound (one-sided), for a white dwarf
+    /// the mass–radius relation (two-sided), or its spin test (one-sided); an object found
+    /// through more than one keeps the largest shift.
     pub test: TensionTest,
 }
 
@@ -312,7 +337,7 @@ pub struct SliceDriver {
 /// whose −2 ln P at δ̂ exceeds `opts.candidate_min_minus_two_ln_p` at one of the two fine points
 /// where the shifted bound B + δ̂(B) is extreme (ln P is monotone in the shifted bound).
 /// White-dwarf radius terms are taken out as [`radius_drivers`] does (exact with per-object
-/// floors).
+/// floors), spin tests as [`spin_drivers`] does (exact).
 pub fn slice_drivers_in_fit(
     conf: &Confrontation,
     s: &SliceResult,
@@ -388,17 +413,23 @@ pub fn slice_drivers_in_fit(
         })
         .collect::<Result<_, StatsError>>()?;
     out.retain(|d| d.shift > 0.0);
-    for (k, shift) in radius_drivers(s, opts)? {
+    let radius = radius_drivers(s, opts)?
+        .into_iter()
+        .map(|(k, shift)| (k, shift, TensionTest::MassRadius));
+    let spin = spin_drivers(s, opts)?
+        .into_iter()
+        .map(|(k, shift)| (k, shift, TensionTest::Spin));
+    for (k, shift, test) in radius.chain(spin) {
         match out.iter_mut().find(|d| d.object == k) {
             Some(d) if shift > d.shift => {
                 d.shift = shift;
-                d.test = TensionTest::MassRadius;
+                d.test = test;
             }
             Some(_) => {}
             None => out.push(SliceDriver {
                 object: k,
                 shift,
-                test: TensionTest::MassRadius,
+                test,
             }),
         }
     }

@@ -28,7 +28,8 @@
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
 //!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
 //!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     rotation_period_h: None, rotation_period_err_h: None, mu_e: None, teff_k: None,
+//!     teff_err_k: None, core: None,
 //!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
 //!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! let c = confront(&[star], &Flat, &EngineOptions::default()).unwrap();
@@ -64,6 +65,15 @@ pub trait BoundSurface: Sync {
     /// is this radius times the ratio of [`BoundSurface::wd_radii_rsun`] at the point to
     /// [`WdStandard::cold_rsun`].
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>>;
+    /// First-order slow-rotation coefficients of the n = 3/2 polytrope at point `i`: the
+    /// structure behind the MMHB's slow-rotation correction of a spinning brown dwarf or star
+    /// (`docs/rotation.md`). The default solves them at the point's (ϒ, τ) without anisotropy;
+    /// a theory grid answers for its own ansatz. `None` where no model exists.
+    fn slow_rotation_n32(&self, i: usize) -> Option<crate::theory::slow_rotation::SlowRotation> {
+        let nu = self.upsilon().len().max(1);
+        let (u, t) = (*self.upsilon().get(i % nu)?, *self.tau().get(i / nu)?);
+        crate::theory::slow_rotation::slow_rotation(1.5, u, t, crate::theory::Anisotropy::None).ok()
+    }
 }
 
 /// Choices of the comparison (defaults from `docs/bounds.md` §4–§5 and `docs/structure.md` §4.6).

@@ -3,8 +3,9 @@
 //!
 //! The mass classes depend on a grid point only through their bound, which is smooth in ϒ, so
 //! each bound is interpolated along the coarse τ = 0 row (not-a-knot cubic) and the class curve
-//! is evaluated on the fine axis. The white-dwarf radius term is sharply curved in ϒ, so the
-//! predicted radii are interpolated instead and the likelihood is evaluated exactly at each fine
+//! is evaluated on the fine axis. The white-dwarf radius term and the spin term (a break-up
+//! period ∝ R^{3/2} against a floor of a few per cent) are sharply curved in ϒ, so the predicted
+//! cold radii are interpolated instead and both likelihoods are evaluated exactly at each fine
 //! point. The paper's statistics section defines the interval; this module only builds the
 //! slice it is read from.
 //!
@@ -25,7 +26,8 @@
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.076,
 //!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
 //!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     rotation_period_h: None, rotation_period_err_h: None, mu_e: None, teff_k: None,
+//!     teff_err_k: None, core: None,
 //!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
 //!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! let objects = [star];
@@ -65,6 +67,9 @@ pub struct SliceResult {
     pub radius_total_fine: Vec<f64>,
     /// The spin term's −2 ln L along the fine axis (zero without spin tests).
     pub spin_fine: Vec<f64>,
+    /// Per object with a spin test: (object index, its −2 ln P along the fine axis), so that the
+    /// driver analysis can take one spin test out of the slice.
+    pub spin_fine_per_object: Vec<(usize, Vec<f64>)>,
 }
 
 /// The τ = 0 slice of `conf` (computed on `surface`), or `None` when the grid
@@ -121,19 +126,15 @@ pub fn tau0_slice(
         j0,
     };
     let (radius_fine, radius_total) = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
-    // The spin term is smooth in ϒ (its floor is 5 % of the period): linear along the row.
-    let spin_coarse: Vec<f64> = (0..axis.len())
-        .map(|i| conf.per_term[Term::Spin as usize][j0 * conf.n_upsilon + a + i].unwrap_or(0.0))
+    let mmhb_fine: Option<Vec<f64>> = splines
+        .iter()
+        .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf))
+        .map(|(_, sp)| fine.iter().map(|&u| sp.eval(u)).collect());
+    let spin_fine_per_object =
+        spin_terms_on_fine_axis(conf, surface, &row, &fine, mmhb_fine.as_deref())?;
+    let spin_fine: Vec<f64> = (0..fine.len())
+        .map(|k| spin_fine_per_object.iter().map(|(_, v)| v[k]).sum())
         .collect();
-    let spin_fine = |u: f64| {
-        if axis.len() < 2 {
-            return spin_coarse.first().copied().unwrap_or(0.0);
-        }
-        let j = axis.partition_point(|&v| v <= u).clamp(1, axis.len() - 1);
-        let t = (u - axis[j - 1]) / (axis[j] - axis[j - 1]);
-        spin_coarse[j - 1] + t * (spin_coarse[j] - spin_coarse[j - 1])
-    };
-    let spin_fine: Vec<f64> = fine.iter().map(|&u| spin_fine(u)).collect();
     let chi2_fine: Vec<f64> = fine
         .iter()
         .enumerate()
@@ -164,6 +165,7 @@ pub fn tau0_slice(
         radius_fine,
         radius_total_fine: radius_total,
         spin_fine,
+        spin_fine_per_object,
     }))
 }
 
@@ -197,10 +199,9 @@ fn radius_terms_on_fine_axis(
     row: &Row<'_>,
     fine: &[f64],
 ) -> Result<(PerObjectFine, Vec<f64>), StatsError> {
-    let nu = conf.n_upsilon;
-    let axis = row.axis;
     // One batched lookup per coarse point for every object's nodes (a point's table is
-    // resampled once, not once per object).
+    // resampled once, not once per object), then per node (object after object, in the order
+    // of `all_queries`) its cold radius along the fine axis.
     let all_queries: Vec<(f64, f64)> = conf
         .radius_objects
         .iter()
@@ -209,13 +210,48 @@ fn radius_terms_on_fine_axis(
             r.nodes.iter().map(move |&(m, _)| (m, mu_e))
         })
         .collect();
+    let per_node = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &all_queries)?;
+    // At each fine point the radius term of all objects together (the shared scale, if any, is
+    // eliminated there); fine points in parallel, collected in order.
+    let terms: Vec<RadiusTerm> = fine
+        .par_iter()
+        .enumerate()
+        .map(|(k, &upsilon)| {
+            let cold: Vec<Option<f64>> = per_node.iter().map(|v| v[k]).collect();
+            radius_term(
+                &conf.radius_objects,
+                &cold,
+                upsilon,
+                conf.radius_shared.as_ref(),
+            )
+        })
+        .collect();
+    let per_object = conf
+        .radius_objects
+        .iter()
+        .enumerate()
+        .map(|(j, r)| (r.index, terms.iter().map(|t| t.per_object[j]).collect()))
+        .collect();
+    let total = terms.iter().map(|t| t.minus_two_ln_l).collect();
+    Ok((per_object, total))
+}
+
+/// Cold radii of `queries` along the fine τ = 0 axis, one vector per query: looked up once per
+/// coarse point (batched), then interpolated per query along the row (not-a-knot cubic; linear
+/// where a neighbouring point has no radius, `None` where neither has one).
+fn cold_radii_on_fine_axis(
+    surface: &dyn BoundSurface,
+    row: &Row<'_>,
+    nu: usize,
+    fine: &[f64],
+    queries: &[(f64, f64)],
+) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
+    let axis = row.axis;
     let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
         .into_par_iter()
-        .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, &all_queries))
+        .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, queries))
         .collect();
-    // Per node (object after object, in the order of `all_queries`): its cold radius along the
-    // fine axis, spline-interpolated between coarse points (linear where a point has no model).
-    let per_node: Vec<Vec<Option<f64>>> = (0..all_queries.len())
+    (0..queries.len())
         .into_par_iter()
         .map(|q| {
             let ys: Vec<Option<f64>> = coarse_all.iter().map(|c| c[q]).collect();
@@ -240,30 +276,75 @@ fn radius_terms_on_fine_axis(
                 })
                 .collect())
         })
-        .collect::<Result<_, StatsError>>()?;
-    // At each fine point the radius term of all objects together (the shared scale, if any, is
-    // eliminated there); fine points in parallel, collected in order.
-    let terms: Vec<RadiusTerm> = fine
-        .par_iter()
-        .enumerate()
-        .map(|(k, &upsilon)| {
-            let cold: Vec<Option<f64>> = per_node.iter().map(|v| v[k]).collect();
-            radius_term(
-                &conf.radius_objects,
-                &cold,
-                upsilon,
-                conf.radius_shared.as_ref(),
-            )
-        })
-        .collect();
-    let per_object = conf
-        .radius_objects
+        .collect()
+}
+
+/// −2 ln P of each spin test along the fine τ = 0 axis: (object index, values).
+///
+/// Evaluated as the radius term is: the break-up period goes as R^{3/2} and the floor is a few
+/// per cent of it, so the term can be as sharply curved in ϒ as the radius term. The cold radii
+/// of each object's mass nodes are interpolated along the row ([`cold_radii_on_fine_axis`]) and
+/// the test is evaluated exactly at every fine point (equal to the grid's values at the coarse
+/// points). A test without a model at a fine point adds nothing there, as on the grid. A
+/// corrected brown dwarf's or star's MMHB change ([`super::spin::MmhbSlowRotation`]) is added at
+/// the fine point's MMHB (`mmhb_fine`, the class spline) with its factor interpolated along the
+/// row (not-a-knot cubic: the factor is smooth in ϒ).
+fn spin_terms_on_fine_axis(
+    conf: &Confrontation,
+    surface: &dyn BoundSurface,
+    row: &Row<'_>,
+    fine: &[f64],
+    mmhb_fine: Option<&[f64]>,
+) -> Result<Vec<(usize, Vec<f64>)>, StatsError> {
+    if conf.spins.is_empty() {
+        return Ok(Vec::new());
+    }
+    let queries: Vec<(f64, f64)> = conf
+        .spins
         .iter()
-        .enumerate()
-        .map(|(j, r)| (r.index, terms.iter().map(|t| t.per_object[j]).collect()))
+        .flat_map(super::spin::ObjectSpin::queries)
         .collect();
-    let total = terms.iter().map(|t| t.minus_two_ln_l).collect();
-    Ok((per_object, total))
+    let per_query = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &queries)?;
+    // The MMHB factors of corrected objects at the coarse points of the row.
+    let coarse: Vec<Vec<super::spin::SpinAt>> = if conf.spins.iter().any(|s| s.mmhb.is_some()) {
+        (0..row.axis.len())
+            .into_par_iter()
+            .map(|i| {
+                super::spin::spins_at(
+                    &conf.spins,
+                    surface,
+                    row.j0 * conf.n_upsilon + row.first + i,
+                )
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let mut out = Vec::with_capacity(conf.spins.len());
+    let mut at = 0;
+    for (j, s) in conf.spins.iter().enumerate() {
+        let n = s.n_queries();
+        let mine = &per_query[at..at + n];
+        at += n;
+        let mut values: Vec<f64> = (0..fine.len())
+            .map(|k| {
+                let cold: Vec<Option<f64>> = mine.iter().map(|v| v[k]).collect();
+                -2.0 * s.at(&cold).ln_p.unwrap_or(0.0)
+            })
+            .collect();
+        if let (Some(m), Some(b)) = (&s.mmhb, mmhb_fine) {
+            let f: Vec<f64> = coarse
+                .iter()
+                .map(|c| c[j].mmhb_factor.unwrap_or(m.factor_standard))
+                .collect();
+            let spline = CubicSpline::new(row.axis, &f, SplineEnd::NotAKnot)?;
+            for ((v, &u), &b) in values.iter_mut().zip(fine).zip(b) {
+                *v += m.minus_two_ln_l_change(spline.eval(u), b);
+            }
+        }
+        out.push((s.index, values));
+    }
+    Ok(out)
 }
 
 /// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
@@ -369,6 +450,7 @@ pub fn tau0_slice_other_floor(
             radius_fine: main.radius_fine.clone(),
             radius_total_fine: main.radius_total_fine.clone(),
             spin_fine: main.spin_fine.clone(),
+            spin_fine_per_object: main.spin_fine_per_object.clone(),
         },
     ))
 }

@@ -24,9 +24,9 @@
 //! of the radius test: P = Σ_k w_k Φ((P_obs − P_k)/(f P_k)) / Σ_k w_k over the nodes that have a
 //! model, with f the fractional theory floor ([`SpinOptions::floor_fraction`], 5 % by default:
 //! Roche against self-consistent κ is 3 %, the radius model 3 % in R, i.e. 4.5 % in P; 15 % on
-//! the cold hydrogen-rich radius). The
-//! period itself is taken as exact: catalogues carry no period error, and published periods are
-//! far more precise than the floor.
+//! the cold hydrogen-rich radius). A measured period error σ_P (`rotation_period_err`) adds in
+//! quadrature: Φ((P_obs − P_k)/√((f P_k)² + σ_P²)); without one the period is taken as exact
+//! (published periods are usually far more precise than the floor).
 //!
 //! Slow rotation (Chandrasekhar 1933, MNRAS 93, 390, in the modified theory:
 //! `docs/rotation.md#r1`): with
@@ -34,8 +34,9 @@
 //! an n = 3/2 polytrope at fixed central conditions (applied as the object's bound scale), and a
 //! white dwarf's radius at fixed mass grows by v·(d ln R/dv)|_M of the polytrope whose index
 //! matches the local slope of its cold mass–radius relation. ρ_c is that polytrope's central
-//! density for the object's radius at (or nearest to) standard gravity; the coefficients are
-//! those of ϒ = τ = 0 (their change with ϒ and τ is a product of two small quantities). Beyond
+//! density for the object's radius at (or nearest to) standard gravity, with the coefficients of
+//! ϒ = τ = 0; a brown dwarf's or star's factor is then carried to every grid point with that
+//! point's own coefficients ([`MmhbSlowRotation`]; white dwarfs keep the standard ones). Beyond
 //! the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit; n_eff ≥ 2.95 counts as
 //! beyond: near the Chandrasekhar mass the radius at fixed mass does not respond linearly) the
 //! object is flagged `spin_beyond_first_order` and left uncorrected.
@@ -54,7 +55,7 @@
 use rayon::prelude::*;
 
 use super::engine::{radius_mass_nodes, BoundSurface, EngineOptions, ObjectUse};
-use super::prob::ln_normal_cdf;
+use super::prob::{ln_normal_cdf, ln_prob_consistent, Measurement};
 use super::wd_radius::{ObjectRadius, WdQuery, WdRadiusModel};
 use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
 use crate::theory::rotation::{breakup_period_s, BreakupModel};
@@ -141,6 +142,8 @@ pub struct ObjectSpin {
     pub index: usize,
     /// Observed rotation period, s.
     pub period_s: f64,
+    /// 1σ error of the observed period, s (0 when the catalogue gives none).
+    pub period_err_s: f64,
     /// μe of the structure whose radius is used.
     pub mu_e: f64,
     /// Where the radius comes from.
@@ -159,8 +162,100 @@ pub struct ObjectSpin {
     pub slow: SlowRotationStatus,
     /// The factor applied to the object's white-dwarf radius prediction (1 when none).
     pub radius_factor: f64,
+    /// A corrected brown dwarf's or star's MMHB correction, carried to each grid point.
+    pub mmhb: Option<MmhbSlowRotation>,
     /// 1σ theory floor of its break-up period, as a fraction of it.
     pub floor_fraction: f64,
+}
+
+/// A generous bound on how far a first-order MMHB factor can move from its standard value: the
+/// factor is at most 1 + v_max (d ln M/dv) = 1 + 0.1 v_crit (d ln M/dv), about 1 % for n = 3/2
+/// (0.94 % at standard gravity, 0.78 % at ϒ = 0.3).
+pub const MMHB_FACTOR_RANGE: f64 = 0.05;
+
+/// A change of −2 ln L this small moves no interval end or verdict (Δχ² levels are read to far
+/// coarser precision).
+pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
+
+/// The slow-rotation change of one brown dwarf's or star's MMHB at every grid point.
+///
+/// The object's mass test runs inside its class's term with the standard-gravity factor
+/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`ObjectUse::measurement`]'s scale). At a grid point the
+/// first-order factor is f = 1 + v (d ln M/dv), with the coefficients of the n = 3/2 polytrope
+/// of that point's (ϒ, τ) ([`BoundSurface::slow_rotation_n32`]) and v = Ω²/(2πGρ_c) from that
+/// polytrope's central density for the object's radius there (measured, or cold at the point).
+/// The spin term carries the difference, −2 ln P(m | f B) + 2 ln P(m | f₀ B), so that the mass
+/// test is in effect taken at the point's factor: exact with per-object floors; with a shared
+/// systematic the difference is taken at zero shift (first order in a product of two small
+/// quantities). Where first order fails at a point (v above that point's threshold, or no
+/// model), the factor stays f₀; so it does where the mass test cannot feel it
+/// ([`MmhbSlowRotation::matters_at`]), which saves the point's ODE.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MmhbSlowRotation {
+    /// Ω² of the observed period, s⁻².
+    pub omega2_per_s2: f64,
+    /// The object's mass test as the engine runs it (scale including f₀).
+    pub measurement: Measurement,
+    /// f₀, the standard-gravity factor inside `measurement`.
+    pub factor_standard: f64,
+    /// The MMHB floor of the mass test, M☉.
+    pub floor_msun: f64,
+}
+
+impl MmhbSlowRotation {
+    /// The first-order MMHB factor at a point with coefficients `coeffs` and the object's radius
+    /// there (f₀ where either is missing or first order fails).
+    pub fn factor_at(
+        &self,
+        mass_msun: f64,
+        coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
+        radius_rsun: Option<f64>,
+    ) -> f64 {
+        let (Some(c), Some(r)) = (coeffs, radius_rsun) else {
+            return self.factor_standard;
+        };
+        let contrast = c.xi1.powi(3) / (3.0 * c.omega);
+        let rho_c = central_density_kg_m3(mass_msun, r, contrast);
+        let v = self.omega2_per_s2 / (2.0 * std::f64::consts::PI * crate::constants::G_SI * rho_c);
+        match c.at(v) {
+            Ok(ch) if ch.mass.is_finite() => 1.0 + ch.mass,
+            _ => self.factor_standard,
+        }
+    }
+
+    /// Whether the factor can matter at MMHB `bound_msun`: the change of −2 ln P for a factor
+    /// [`MMHB_FACTOR_RANGE`] away from f₀ on either side exceeds [`MMHB_CHANGE_NEGLIGIBLE`].
+    /// Where it cannot (an object far on the safe side of that bound), the point's coefficients
+    /// are not solved and the factor stays f₀.
+    pub fn matters_at(&self, bound_msun: f64) -> bool {
+        [1.0 - MMHB_FACTOR_RANGE, 1.0 + MMHB_FACTOR_RANGE]
+            .iter()
+            .any(|r| {
+                self.minus_two_ln_l_change(self.factor_standard * r, bound_msun)
+                    .abs()
+                    > MMHB_CHANGE_NEGLIGIBLE
+            })
+    }
+
+    /// −2 ln P of the mass test at MMHB `bound_msun` with the factor `factor`, minus the same
+    /// with f₀: what the spin term adds at that point.
+    pub fn minus_two_ln_l_change(&self, factor: f64, bound_msun: f64) -> f64 {
+        if !self.measurement.informative() || factor == self.factor_standard {
+            return 0.0;
+        }
+        let at = Measurement {
+            scale: self.measurement.scale / self.factor_standard * factor,
+            ..self.measurement
+        };
+        let d = -2.0
+            * (ln_prob_consistent(&at, bound_msun, self.floor_msun)
+                - ln_prob_consistent(&self.measurement, bound_msun, self.floor_msun));
+        if d.is_finite() {
+            d
+        } else {
+            0.0
+        }
+    }
 }
 
 /// The spin test at one grid point.
@@ -172,6 +267,10 @@ pub struct SpinAt {
     pub ln_q: Option<f64>,
     /// Break-up period at the nominal mass, s (`None` without a model there).
     pub breakup_s: Option<f64>,
+    /// A corrected brown dwarf's or star's MMHB factor at the point ([`MmhbSlowRotation`]).
+    pub mmhb_factor: Option<f64>,
+    /// What the spin term adds for that factor at the point's MMHB (0 without one).
+    pub mmhb_change: f64,
 }
 
 /// ln P that P_obs ≥ P_break, marginalised over the mass nodes: ln[Σ w_k Φ((P − P_k)/(f P_k)) /
@@ -182,12 +281,25 @@ pub fn ln_p_spin(
     breakup: &[Option<f64>],
     floor_fraction: f64,
 ) -> Option<f64> {
-    ln_p_side(period, nodes, breakup, floor_fraction, 1.0)
+    ln_p_side(period, 0.0, nodes, breakup, floor_fraction, 1.0)
 }
 
-/// ln P (`sign` = 1) or ln(1 − P) (`sign` = −1) of [`ln_p_spin`].
+/// [`ln_p_spin`] with a 1σ error `period_err` on the observed period (same unit), added to the
+/// floor in quadrature: ln[Σ w_k Φ((P − P_k)/√((f P_k)² + σ_P²)) / Σ w_k].
+pub fn ln_p_spin_with_error(
+    period: f64,
+    period_err: f64,
+    nodes: &[(f64, f64)],
+    breakup: &[Option<f64>],
+    floor_fraction: f64,
+) -> Option<f64> {
+    ln_p_side(period, period_err, nodes, breakup, floor_fraction, 1.0)
+}
+
+/// ln P (`sign` = 1) or ln(1 − P) (`sign` = −1) of [`ln_p_spin_with_error`].
 fn ln_p_side(
     period: f64,
+    period_err: f64,
     nodes: &[(f64, f64)],
     breakup: &[Option<f64>],
     floor_fraction: f64,
@@ -202,7 +314,9 @@ fn ln_p_side(
         if *w <= 0.0 {
             continue;
         }
-        let sigma = (floor_fraction * pb).max(f64::MIN_POSITIVE);
+        let sigma = (floor_fraction * pb)
+            .hypot(period_err)
+            .max(f64::MIN_POSITIVE);
         terms.push(w.ln() + ln_normal_cdf(sign * (period - pb) / sigma));
         weight += w;
     }
@@ -238,7 +352,36 @@ impl ObjectSpin {
         breakup_period_s(mass_msun, radius, BreakupModel::Roche).ok()
     }
 
-    /// The test at one point, given the cold radii there for [`ObjectSpin::queries`].
+    /// The object's radius at its nominal mass given the cold radius there (measured when
+    /// given).
+    pub fn nominal_radius_rsun(&self, cold_nominal: Option<f64>) -> Option<f64> {
+        match self.source {
+            SpinRadiusSource::Measured => self.measured_rsun,
+            _ => Some(cold_nominal? * self.scale.last().copied().flatten()?),
+        }
+    }
+
+    /// The test at a point with n = 3/2 slow-rotation coefficients `coeffs` and MMHB
+    /// `mmhb_msun`, given the cold radii there for [`ObjectSpin::queries`]: [`ObjectSpin::at`]
+    /// with the MMHB correction of [`MmhbSlowRotation`] carried to the point.
+    pub fn at_point(
+        &self,
+        cold: &[Option<f64>],
+        coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
+        mmhb_msun: Option<f64>,
+    ) -> SpinAt {
+        let mut at = self.at(cold);
+        if let Some(m) = &self.mmhb {
+            let radius = self.nominal_radius_rsun(cold.get(self.nodes.len()).copied().flatten());
+            let f = m.factor_at(self.mass_msun, coeffs, radius);
+            at.mmhb_factor = Some(f);
+            at.mmhb_change = mmhb_msun.map_or(0.0, |b| m.minus_two_ln_l_change(f, b));
+        }
+        at
+    }
+
+    /// The test at one point, given the cold radii there for [`ObjectSpin::queries`] (the
+    /// break-up test alone, without the MMHB correction of [`ObjectSpin::at_point`]).
     pub fn at(&self, cold: &[Option<f64>]) -> SpinAt {
         let floor_fraction = self.floor_fraction;
         let pb: Vec<Option<f64>> = self
@@ -248,10 +391,13 @@ impl ObjectSpin {
             .map(|(((m, _), s), c)| self.breakup_s(m, *s, *c))
             .collect();
         let (node_pb, nominal) = pb.split_at(self.nodes.len());
+        let (p, e) = (self.period_s, self.period_err_s);
         SpinAt {
-            ln_p: ln_p_spin(self.period_s, &self.nodes, node_pb, floor_fraction),
-            ln_q: ln_p_side(self.period_s, &self.nodes, node_pb, floor_fraction, -1.0),
+            ln_p: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, 1.0),
+            ln_q: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, -1.0),
             breakup_s: nominal.first().copied().flatten(),
+            mmhb_factor: None,
+            mmhb_change: 0.0,
         }
     }
 }
@@ -260,6 +406,21 @@ impl ObjectSpin {
 pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> Vec<SpinAt> {
     let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
     let cold = surface.wd_radii_rsun(i, &queries);
+    let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
+    let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
+    // The point's coefficients are solved only where some corrected object's mass test can
+    // feel them (one ODE per point).
+    let needed = mmhb.is_some_and(|b| {
+        spins
+            .iter()
+            .filter_map(|s| s.mmhb.as_ref())
+            .any(|m| m.matters_at(b))
+    });
+    let coeffs = if needed {
+        surface.slow_rotation_n32(i)
+    } else {
+        None
+    };
     let mut at = 0;
     spins
         .iter()
@@ -267,7 +428,7 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
             let n = s.n_queries();
             let slice = cold.get(at..at + n).unwrap_or(&[]);
             at += n;
-            s.at(slice)
+            s.at_point(slice, coeffs.as_ref(), mmhb)
         })
         .collect()
 }
@@ -287,7 +448,7 @@ pub fn minus_two_ln_l_grid(
             Some(
                 spins_at(spins, surface, i)
                     .iter()
-                    .map(|a| -2.0 * a.ln_p.unwrap_or(0.0))
+                    .map(|a| -2.0 * a.ln_p.unwrap_or(0.0) + a.mmhb_change)
                     .sum(),
             )
         })
@@ -387,6 +548,7 @@ pub fn prepare(
         let mut spin = ObjectSpin {
             index: k,
             period_s: period_h * 3600.0,
+            period_err_s: o.rotation_period_err_h.map_or(0.0, |e| e * 3600.0),
             mu_e,
             source,
             nodes,
@@ -395,6 +557,7 @@ pub fn prepare(
             measured_rsun: o.radius_rsun,
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
+            mmhb: None,
             floor_fraction: if source == SpinRadiusSource::Cold && !is_wd {
                 so.cold_hydrogen_floor_fraction
             } else {
@@ -415,6 +578,15 @@ pub fn prepare(
                         spin.radius_factor = 1.0 + change;
                     } else {
                         u.measurement.scale *= 1.0 + change;
+                        if u.mass_term.is_some() {
+                            let omega = 2.0 * std::f64::consts::PI / spin.period_s;
+                            spin.mmhb = Some(MmhbSlowRotation {
+                                omega2_per_s2: omega * omega,
+                                measurement: u.measurement,
+                                factor_standard: 1.0 + change,
+                                floor_msun: opts.mmhb_floor_msun,
+                            });
+                        }
                     }
                     u.flags.push("spin_corrected".to_string());
                 }
@@ -559,6 +731,11 @@ pub struct SpinVerdict {
     /// Largest minus smallest −2 ln P of this object's test over the grid: how much it can
     /// move the map.
     pub delta_chi2_span: f64,
+    /// Largest −2 ln P of this object's test over the grid (0 when no point has a model): a
+    /// test whose maximum is tiny constrains nothing.
+    pub max_minus_two_ln_p: f64,
+    /// ln P of the test at the best fit (the Šidák consistency count uses it).
+    pub ln_p_best: Option<f64>,
     /// The slow-rotation outcome.
     pub slow: SlowRotationStatus,
 }
@@ -623,6 +800,8 @@ pub fn spin_verdicts(
                 sigma_best: best_at.as_ref().and_then(sigma),
                 breakup_range_s: range,
                 delta_chi2_span: if hi >= lo { hi - lo } else { 0.0 },
+                max_minus_two_ln_p: if hi >= lo { hi } else { 0.0 },
+                ln_p_best: best_at.and_then(|a| a.ln_p),
                 slow: s.slow,
             }
         })
@@ -653,8 +832,20 @@ mod tests {
         assert!((ln_p - 0.5f64.ln()).abs() < 1e-15);
         assert_eq!(ln_p_spin(2.0, &[(0.5, 1.0)], &[None], 0.05), None);
         // The complement: ln(1 − P) of the same test.
-        let q = ln_p_side(1.0, &[(0.5, 1.0)], &[Some(1.0 / 0.95)], 0.05, -1.0).unwrap();
+        let q = ln_p_side(1.0, 0.0, &[(0.5, 1.0)], &[Some(1.0 / 0.95)], 0.05, -1.0).unwrap();
         assert!((q.exp() - (1.0 - 0.158_655_253_931_457)).abs() < 1e-12);
+    }
+
+    #[test]
+    fn period_error_adds_to_the_floor_in_quadrature() {
+        // Break-up 1.0, floor 5 % (0.05), period error 0.12: σ = √(0.05² + 0.12²) = 0.13
+        // (closed form), and the observed 0.87 is 1σ short: P = Φ(−1) = 0.158655253931457
+        // (Abramowitz & Stegun 1964, table 26.1).
+        let ln_p = ln_p_spin_with_error(0.87, 0.12, &[(0.5, 1.0)], &[Some(1.0)], 0.05).unwrap();
+        assert!((ln_p.exp() - 0.158_655_253_931_457).abs() < 1e-12);
+        // No error: the floor alone, as in ln_p_spin.
+        let a = ln_p_spin_with_error(0.95, 0.0, &[(0.5, 1.0)], &[Some(1.0)], 0.05);
+        assert_eq!(a, ln_p_spin(0.95, &[(0.5, 1.0)], &[Some(1.0)], 0.05));
     }
 
     #[test]
@@ -678,6 +869,7 @@ mod tests {
         let spin = ObjectSpin {
             index: 0,
             period_s: 100.0,
+            period_err_s: 0.0,
             mu_e: 2.0,
             source: SpinRadiusSource::Cold,
             nodes: vec![(m, 1.0)],
@@ -686,6 +878,7 @@ mod tests {
             measured_rsun: None,
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
+            mmhb: None,
             floor_fraction: 0.05,
         };
         let at = spin.at(&[Some(r), Some(r)]);

@@ -14,7 +14,8 @@
 //! let dwarf = CatalogueObject { id: "B1".into(), class: ObjectClass::BrownDwarf, mass_msun: 0.095,
 //!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
 //!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, mu_e: None, teff_k: None, teff_err_k: None, core: None,
+//!     rotation_period_h: None, rotation_period_err_h: None, mu_e: None, teff_k: None,
+//!     teff_err_k: None, core: None,
 //!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
 //!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! // A brown dwarf 0.02 M☉ above an MMHB of 0.075 M☉ (floor 0.005 M☉) is on the wrong side.
@@ -31,6 +32,7 @@ use super::prob::Measurement;
 use super::regions::{
     absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
 };
+use super::spin::SpinVerdict;
 use super::wd_radius::ObjectRadius;
 use crate::catalogue::{CatalogueObject, ObjectClass};
 
@@ -64,6 +66,8 @@ pub enum TensionTest {
     MassBound,
     /// The white-dwarf mass–radius relation (two-sided).
     MassRadius,
+    /// The spin (break-up) test (one-sided: positive = spinning faster than break-up).
+    Spin,
 }
 
 impl TensionTest {
@@ -72,14 +76,16 @@ impl TensionTest {
         match self {
             TensionTest::MassBound => "mass_bound",
             TensionTest::MassRadius => "mass_radius",
+            TensionTest::Spin => "spin",
         }
     }
 
-    /// How its σ reads: `one-sided` (mass bound: positive = wrong side of the bound) or
-    /// `two-sided` (mass–radius: signed, positive = larger than the model).
+    /// How its σ reads: `one-sided` (mass bound: positive = wrong side of the bound; spin:
+    /// positive = faster than break-up) or `two-sided` (mass–radius: signed, positive = larger
+    /// than the model).
     pub fn sidedness(self) -> &'static str {
         match self {
-            TensionTest::MassBound => "one-sided",
+            TensionTest::MassBound | TensionTest::Spin => "one-sided",
             TensionTest::MassRadius => "two-sided",
         }
     }
@@ -217,10 +223,13 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
 ///
 /// N_inf counts the informative objects the one-dimensional reduction did not skip: objects that
 /// cannot constrain any grid point must not dilute the look-elsewhere factor (the paper's
-/// statistics section).
+/// statistics section). Keys of the returned tests: the object index for a mass test, plus the
+/// object count for a radius test, plus twice the object count for a spin test
+/// ([`TestKey`] decodes them).
 pub fn consistency_at_best(
     conf: &Confrontation,
     verdicts: &[ObjectVerdict],
+    spins: &[SpinVerdict],
 ) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
     let mut counted = BTreeSet::new();
     for (term, curve) in &conf.curves {
@@ -243,13 +252,54 @@ pub fn consistency_at_best(
             ln_ps.push((n_obj + k, ln_p.min(0.0)));
         }
     }
+    // The spin tests, one-sided like the mass tests, each with its own ln P at the best fit;
+    // counted only where the test can constrain some grid point (−2 ln P above the drivers'
+    // candidate threshold somewhere), for the same reason as the mass tests.
+    for v in spins {
+        if v.max_minus_two_ln_p <= SPIN_INFORMATIVE_MIN_MINUS_TWO_LN_P {
+            continue;
+        }
+        if let Some(l) = v.ln_p_best.filter(|l| l.is_finite()) {
+            ln_ps.push((2 * n_obj + v.index, l.min(0.0)));
+        }
+    }
     let failing = verdict_failures(&ln_ps);
     (absolute_consistency(&ln_ps, WORST_LISTED), failing)
 }
 
+/// A spin test enters the Šidák count when its −2 ln P exceeds this somewhere on the grid (the
+/// drivers' candidate threshold, `docs/bounds.md` §8.6): a test that no grid point can fail
+/// constrains nothing and must not dilute the look-elsewhere factor.
+pub const SPIN_INFORMATIVE_MIN_MINUS_TWO_LN_P: f64 = 2e-3;
+
+/// Which test a key of [`consistency_at_best`] names, and whose.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TestKey {
+    /// Index of the object.
+    pub object: usize,
+    /// The test.
+    pub test: TensionTest,
+}
+
+impl TestKey {
+    /// Decodes a key of [`consistency_at_best`] for a catalogue of `n_objects` objects.
+    pub fn decode(key: usize, n_objects: usize) -> Self {
+        let n = n_objects.max(1);
+        let test = match key / n {
+            0 => TensionTest::MassBound,
+            1 => TensionTest::MassRadius,
+            _ => TensionTest::Spin,
+        };
+        Self {
+            object: key % n,
+            test,
+        }
+    }
+}
+
 /// Tests that fail at the best fit: p below the per-test Šidák level 1 − 0.9545^{1/N}, so that
 /// they are exactly the tests that make the catalogue verdict fail; smallest first. Keys as in
-/// [`consistency_at_best`] (≥ the object count: a radius test).
+/// [`consistency_at_best`] ([`TestKey`]).
 fn verdict_failures(ln_ps: &[(usize, f64)]) -> Vec<(usize, f64)> {
     let n = ln_ps.len().max(1) as f64;
     let per_test = -(super::regions::Level::Cl95.probability().ln() / n).exp_m1();

@@ -278,7 +278,7 @@ pub fn run_confrontation(
     let spin_verdicts = crate::confront::spin::spin_verdicts(&conf.spins, &surface, best_index);
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
-    let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts);
+    let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts, &spin_verdicts);
     let crowd = best_point
         .mmhb
         .ok()
@@ -328,6 +328,7 @@ pub fn run_confrontation(
                 let what = match t.test {
                     TensionTest::MassBound => o.class.label().to_string(),
                     TensionTest::MassRadius => format!("{} (radius)", o.class.label()),
+                    TensionTest::Spin => format!("{} (spin)", o.class.label()),
                 };
                 (o.id.clone(), what, t.sigma)
             })

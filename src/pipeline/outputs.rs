@@ -26,14 +26,14 @@ use crate::confront::regions::Interval;
 use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
 use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
-use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest};
+use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest, TestKey};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
 
 /// Columns of the per-object table (`objects.csv` / `objects.parquet`) under their current
 /// names; the deprecated old names of renamed columns follow them (see [`objects_header`]).
-pub(crate) const OBJECTS_COLUMNS: [&str; 33] = [
+pub(crate) const OBJECTS_COLUMNS: [&str; 34] = [
     "id",
     "class",
     "source_file",
@@ -60,6 +60,7 @@ pub(crate) const OBJECTS_COLUMNS: [&str; 33] = [
     "radius_sigma_best",
     "driver_test",
     "rotation_period_h",
+    "rotation_period_err_h",
     "breakup_period_standard_h",
     "breakup_period_best_h",
     "spin_sigma_standard",
@@ -78,12 +79,12 @@ enum ColumnKind {
     Bool,
 }
 
-const OBJECTS_KINDS: [ColumnKind; 33] = {
+const OBJECTS_KINDS: [ColumnKind; 34] = {
     use ColumnKind::{Bool, Float, Int, Text};
     [
         Text, Text, Text, Int, Float, Float, Float, Text, Float, Float, Float, Float, Bool, Text,
         Float, Float, Float, Float, Float, Int, Float, Bool, Float, Float, Text, Float, Float,
-        Float, Float, Float, Text, Float, Float,
+        Float, Float, Float, Float, Text, Float, Float,
     ]
 };
 
@@ -134,7 +135,7 @@ pub(crate) struct OutputContext<'a> {
     pub best_index: usize,
     pub cache_note: Option<String>,
     pub since_previous: Option<Vec<String>>,
-    /// Tests failing at the best fit (key as in `consistency.worst`; ≥ n_objects = radius).
+    /// Tests failing at the best fit (key as in `consistency.worst`, decoded by `TestKey`).
     pub verdict_failures: Vec<(usize, f64)>,
 }
 
@@ -189,6 +190,11 @@ impl OutputContext<'_> {
         match self.driver_test(k)? {
             TensionTest::MassBound => self.sigma_best_in_fit(k),
             TensionTest::MassRadius => self.verdicts[k].radius_sigma_best,
+            TensionTest::Spin => self
+                .spin_verdicts
+                .iter()
+                .find(|v| v.index == k)
+                .and_then(|v| v.sigma_best),
         }
     }
 
@@ -273,6 +279,7 @@ impl OutputContext<'_> {
         };
         row.extend([
             Cell::Float(o.rotation_period_h),
+            Cell::Float(o.rotation_period_err_h),
             Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
             Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
             Cell::Float(sv.and_then(|v| v.sigma_standard)),
@@ -604,9 +611,9 @@ impl OutputContext<'_> {
             .worst
             .iter()
             .map(|&(k, lnp)| {
-                let n = self.vetted.objects.len();
-                let o = self.object(k % n);
-                let test = if k >= n { "mass_radius" } else { "mass_bound" };
+                let key = TestKey::decode(k, self.vetted.objects.len());
+                let o = self.object(key.object);
+                let test = key.test.name();
                 json!({"id": o.id, "class": o.class.label(), "probability": lnp.exp(), "test": test})
             })
             .collect();
@@ -614,9 +621,9 @@ impl OutputContext<'_> {
             .verdict_failures
             .iter()
             .map(|&(k, lnp)| {
-                let n = self.vetted.objects.len();
-                let o = self.object(k % n);
-                let test = if k >= n { "mass_radius" } else { "mass_bound" };
+                let key = TestKey::decode(k, self.vetted.objects.len());
+                let o = self.object(key.object);
+                let test = key.test.name();
                 json!({"id": o.id, "class": o.class.label(), "test": test, "probability": lnp.exp()})
             })
             .collect();
@@ -679,7 +686,7 @@ impl OutputContext<'_> {
                 "p_catalogue": self.consistency.p_cat,
                 "n_informative": self.consistency.n_informative,
                 "worst": worst,
-                "method": "Šidák over every test in the likelihood at the best fit: one-sided mass-bound probabilities (product form, whole floor per object) and two-sided radius p-values 2Φ(−|z|)",
+                "method": "Šidák over every test in the likelihood at the best fit: one-sided mass-bound probabilities (product form, whole floor per object), two-sided radius p-values 2Φ(−|z|) and one-sided spin (break-up) probabilities of the spin tests that can constrain some grid point",
                 "failing": failing,
             },
             "statistics": self.statistics_json(),
@@ -690,7 +697,7 @@ impl OutputContext<'_> {
                 "method": "one-parameter Δχ² ≤ 1, 4, 9 of min over the other parameter of the joint χ² on the grid (three-point parabola at the minimum); null = open (reaches the grid edge)",
             },
             "posterior": self.posterior_json(),
-            "drivers_method": "leave-one-out under the likelihood used, on the τ = 0 slice: each mass-bound object removed from its bound's term with the shared shift eliminated again without it (per-object floors: its ln P subtracted; calibrated bounds: the mass function held fixed), and each white dwarf's radius term removed",
+            "drivers_method": "leave-one-out under the likelihood used, on the τ = 0 slice: each mass-bound object removed from its bound's term with the shared shift eliminated again without it (per-object floors: its ln P subtracted; calibrated bounds: the mass function held fixed), each white dwarf's radius term removed, and each spin test removed",
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,

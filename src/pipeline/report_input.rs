@@ -7,7 +7,7 @@ use super::error::PipelineError;
 use super::outputs::OutputContext;
 use crate::confront::engine::{BoundSurface, Term};
 use crate::confront::regions::Level;
-use crate::confront::tension::TensionTest;
+use crate::confront::tension::{TensionTest, TestKey};
 use crate::report::text::fmt_sig;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
@@ -692,14 +692,14 @@ pub(crate) fn write_report_files(
                 .worst
                 .iter()
                 .map(|&(k, lnp)| {
-                    // Keys ≥ the object count are radius tests (pipeline/confront.rs).
-                    let n = ctx.vetted.objects.len();
-                    let o = &ctx.vetted.objects[k % n];
+                    // Keys name the test as well as the object (confront::tension::TestKey).
+                    let key = TestKey::decode(k, ctx.vetted.objects.len());
+                    let o = &ctx.vetted.objects[key.object];
                     WorstObject {
-                        id: if k >= n {
-                            format!("{} (radius)", o.id)
-                        } else {
-                            o.id.clone()
+                        id: match key.test {
+                            TensionTest::MassBound => o.id.clone(),
+                            TensionTest::MassRadius => format!("{} (radius)", o.id),
+                            TensionTest::Spin => format!("{} (spin)", o.id),
                         },
                         class: o.class.label().into(),
                         probability: lnp.exp(),
@@ -719,6 +719,10 @@ pub(crate) fn write_report_files(
                         TensionTest::MassBound => {
                             (o.class.label().to_string(), mass_text(ctx, k))
                         }
+                        TensionTest::Spin => (
+                            format!("{} (spin test)", o.class.label()),
+                            mass_text(ctx, k),
+                        ),
                         TensionTest::MassRadius => (
                             format!("{} (mass–radius test)", o.class.label()),
                             format!(
@@ -737,6 +741,7 @@ pub(crate) fn write_report_files(
                         sigma_best_fit: match t.test {
                             TensionTest::MassBound => ctx.sigma_best(k),
                             TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best,
+                            TensionTest::Spin => ctx.driver_sigma(k),
                         },
                         two_sided: t.test == TensionTest::MassRadius,
                     }
@@ -757,6 +762,7 @@ pub(crate) fn write_report_files(
                 },
                 test: match ctx.driver_test(k) {
                     Some(TensionTest::MassRadius) => "mass–radius (two-sided)".into(),
+                    Some(TensionTest::Spin) => "spin, break-up (one-sided)".into(),
                     _ => "mass bound (one-sided)".into(),
                 },
                 sigma_best_fit: ctx.driver_sigma(k),

@@ -22,6 +22,7 @@ use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandar
 use crate::theory::grid::{self, TheoryGrid};
 use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
+use crate::theory::slow_rotation::{slow_rotation, SlowRotation};
 use crate::theory::white_dwarf::WdMassRadius;
 
 /// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, ϒ
@@ -34,6 +35,10 @@ pub struct GridSurface<'a> {
     standard_cold: Option<&'a WdMassRadius>,
     /// Which standard-gravity radius anchors the white-dwarf radius test.
     wd_model: WdRadiusModel,
+    /// The n = 3/2 slow-rotation coefficients per point, each solved on first use (only runs
+    /// with a slowly spinning brown dwarf or star ask, and only where its mass test is
+    /// sensitive to them).
+    slow_n32: Vec<std::sync::OnceLock<Option<SlowRotation>>>,
 }
 
 impl<'a> GridSurface<'a> {
@@ -56,6 +61,9 @@ impl<'a> GridSurface<'a> {
             tau,
             standard_cold,
             wd_model,
+            slow_n32: (0..grid.upsilon.count * grid.tau.count)
+                .map(|_| std::sync::OnceLock::new())
+                .collect(),
         }
     }
 
@@ -138,6 +146,15 @@ impl BoundSurface for GridSurface<'_> {
             Some(Outcome::Ok(t)) => t.radii_rsun(queries),
             _ => vec![None; queries.len()],
         }
+    }
+    fn slow_rotation_n32(&self, i: usize) -> Option<SlowRotation> {
+        let nu = self.upsilon.len();
+        *self.slow_n32.get(i)?.get_or_init(|| {
+            // Only where the grid has a model: the coefficients belong to that structure.
+            self.grid.point(i)?.mmhb.ok()?;
+            let ansatz = self.grid.settings.anisotropy;
+            slow_rotation(1.5, self.upsilon[i % nu], self.tau[i / nu], ansatz).ok()
+        })
     }
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>> {
         let Some(cold) = self.standard_cold else {
