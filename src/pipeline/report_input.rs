@@ -232,8 +232,10 @@ fn level_rows(iv: &[crate::confront::regions::Interval; 3]) -> Vec<UpsilonInterv
 fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     use crate::confront::mass_terms::Systematics;
     let floor_words = |sy: Systematics| match sy {
-        Systematics::Shared => "slice at τ = 0, shared systematic (one shift per bound)",
-        Systematics::PerObject => "slice at τ = 0, per-object floors",
+        Systematics::Shared => {
+            "slice at τ = 0, shared systematics (one shift per bound, one white-dwarf radius scale)"
+        }
+        Systematics::PerObject => "slice at τ = 0, per-object floors (mass and radius)",
     };
     let used = ctx.eopts.mass_terms.systematics;
     let mut rows = Vec::new();
@@ -293,7 +295,7 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     ];
     if ctx.slice_other_floor.is_some() {
         formulas.push(
-            "The two τ = 0 rows differ only in the mass bounds' theory floors: one shift per bound shared by all its objects (eliminated as a nuisance parameter), or the whole floor as an independent error per object, which averages away with many objects. The second was computed in the same run, from the same objects and grid.".to_string(),
+            "The two τ = 0 rows differ only in how the theory floors are shared: one shift per mass bound shared by all its objects and one radius scale (1 + δ) shared by every white dwarf in the radius test (each eliminated as a nuisance parameter), or the whole floor as an independent error per object, which averages away with many objects. The second was computed in the same run, from the same objects, grid and white-dwarf radii.".to_string(),
         );
     }
     Some(SideBySide {
