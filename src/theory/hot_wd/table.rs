@@ -5,7 +5,7 @@
 //! R_cold(M; core) at ϒ = 0 per catalogue object and grid point, without a structure solve
 //! (a lookup: about 0.3 µs, measured). A hot model takes about 0.1–0.3 s, so the grid is
 //! solved once by `cargo run --example make_wd_hot_table` (the dev profile builds this crate at
-//! opt-level 3; measured 308 s wall for the 1122 nodes on 2 busy cores), written to
+//! opt-level 3; measured 140–185 s wall for the 1122 nodes on 2 busy cores), written to
 //! `assets/wd_hot_table.csv` and embedded here with `include_str!`; a test re-solves a few
 //! nodes and compares.
 //!
@@ -27,7 +27,8 @@
 //!
 //! let table = HotWdTable::standard().unwrap();
 //! let r = table.radius_rsun(0.6, 20_000.0, Core::CarbonOxygen, Envelope::Thick).unwrap();
-//! assert!((r.radius_rsun / 0.013516 - 1.0).abs() < 2e-3);
+//! // 0.013458 R☉ by a direct solve (0.013516 with the lattice term alone, docs/white-dwarfs.md §7.2).
+//! assert!((r.radius_rsun / 0.013458 - 1.0).abs() < 2e-3);
 //! assert!(r.radius_rsun > r.cold_radius_rsun);
 //! ```
 
