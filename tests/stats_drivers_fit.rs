@@ -2,18 +2,22 @@
 //! brute-force recomputation: with per-object floors and the product likelihood the in-fit
 //! leave-one-out equals the exact product-form one; with the shared systematic each driver's
 //! shift equals the interval of the catalogue confronted again without that object (to first
-//! order in the shared shift); and the τ = 0 slice with the other floor treatment equals the
-//! slice of a run made with that treatment.
+//! order in the shared shift), and so does each white dwarf's with the shared radius scale
+//! (re-fitted without it); and the τ = 0 slice with the other floor treatment (mass floors and
+//! the radius scale) equals the slice of a run made with that treatment.
 //!
 //! Surface: MMHB = 0.075 (1 + 0.2 ϒ + 0.5 τ), Chandrasekhar mass = 1.40 (1 − 0.3 ϒ + 0.1 τ)
 //! (invented slopes, as in `tests/stats_calibration.rs`).
 
 use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
-use dwarfbound::confront::drivers::{slice_drivers, slice_drivers_in_fit, DriverOptions};
+use dwarfbound::confront::drivers::{
+    radius_drivers, slice_drivers, slice_drivers_in_fit, DriverOptions,
+};
 use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
 use dwarfbound::confront::mass_terms::{LikelihoodChoice, Systematics};
 use dwarfbound::confront::slice::{tau0_slice, tau0_slice_other_floor};
-use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
+use dwarfbound::confront::tension::TensionTest;
+use dwarfbound::confront::wd_radius::{WdQuery, WdRadiusModel, WdStandard};
 
 struct Surface {
     u: Vec<f64>,
@@ -181,5 +185,170 @@ fn other_floor_slice_equals_a_run_with_that_floor() {
         for (a, b) in alt.slice.chi2_fine.iter().zip(&direct.slice.chi2_fine) {
             assert!((a - b).abs() < 1e-9, "{a} vs {b}");
         }
+    }
+}
+
+/// The surface of [`surface`] with white-dwarf radii: the cold radius 0.0125 (M/0.6)^{−1/3}
+/// (1 + 0.6 ϒ) R☉ at every grid point (an invented smooth law), and the same radius at ϒ = 0 as
+/// the standard one (the zero-temperature model: no finite-temperature or envelope terms).
+struct WdSurface(Surface);
+
+fn cold_radius(m: f64, upsilon: f64) -> f64 {
+    0.0125 * (m / 0.6).powf(-1.0 / 3.0) * (1.0 + 0.6 * upsilon)
+}
+
+impl BoundSurface for WdSurface {
+    fn upsilon(&self) -> &[f64] {
+        self.0.upsilon()
+    }
+    fn tau(&self) -> &[f64] {
+        self.0.tau()
+    }
+    fn mmhb_msun(&self, i: usize) -> Option<f64> {
+        self.0.mmhb_msun(i)
+    }
+    fn chandrasekhar_mu2_msun(&self, i: usize) -> Option<f64> {
+        self.0.chandrasekhar_mu2_msun(i)
+    }
+    fn wd_radii_rsun(&self, i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> {
+        let u = self.0.u[i % self.0.u.len()];
+        q.iter().map(|&(m, _)| Some(cold_radius(m, u))).collect()
+    }
+    fn wd_standard_radii(&self, q: &[WdQuery]) -> Vec<Option<WdStandard>> {
+        q.iter()
+            .map(|w| {
+                let r = cold_radius(w.mass_msun, 0.0);
+                Some(WdStandard {
+                    radius_rsun: r,
+                    cold_rsun: r,
+                    hot_over_cold: 1.0,
+                    envelope_fraction: 0.0,
+                    dln_r_dteff_per_k: 0.0,
+                })
+            })
+            .collect()
+    }
+}
+
+/// White dwarfs far below the Chandrasekhar mass (their mass terms are flat) with radii 1–2 %
+/// from the law of [`WdSurface`] at several offsets, so that each moves the τ = 0 interval
+/// through its radius, and a few stars for the MMHB.
+fn radius_catalogue() -> Vec<CatalogueObject> {
+    let mut out: Vec<CatalogueObject> = catalogue()
+        .into_iter()
+        .filter(|o| o.class != ObjectClass::WhiteDwarf)
+        .collect();
+    for (k, &(m, offset, err)) in [
+        (0.55, 0.04, 0.012),
+        (0.62, -0.01, 0.015),
+        (0.70, 0.02, 0.010),
+        (0.80, 0.06, 0.020),
+        (0.90, -0.03, 0.015),
+        (0.60, 0.00, 0.010),
+    ]
+    .iter()
+    .enumerate()
+    {
+        let mut o = object(100 + k, ObjectClass::WhiteDwarf, m, 0.01);
+        let r = cold_radius(m, 0.0) * (1.0 + offset);
+        o.radius_rsun = Some(r);
+        o.radius_err_rsun = Some(err * r);
+        out.push(o);
+    }
+    out
+}
+
+fn radius_options(systematics: Systematics) -> EngineOptions {
+    let mut o = options(systematics);
+    o.radius.model = WdRadiusModel::Cold;
+    o
+}
+
+#[test]
+fn radius_drivers_refit_the_shared_scale_like_a_rerun_without_the_object() {
+    let s = WdSurface(surface());
+    let objects = radius_catalogue();
+    let opts = radius_options(Systematics::Shared);
+    let conf = confront(&objects, &s, &opts).unwrap();
+    assert!(conf.radius_shared.is_some() && conf.radius_objects.len() == 6);
+    let slice = tau0_slice(&conf, &s).unwrap().unwrap();
+    let d = DriverOptions::default();
+    let fit = slice_drivers_in_fit(&conf, &slice, &d).unwrap();
+    // The first-order estimate: the same slice without the kept cold radii, so the scale is
+    // held at its fitted value.
+    let mut held = slice.clone();
+    held.radius_nodes_fine.clear();
+    let approx = radius_drivers(&conf, &held, &d).unwrap();
+    let base = slice.slice.intervals[1];
+    let shift = |a: Option<f64>, b: Option<f64>| match (a, b) {
+        (Some(a), Some(b)) => (a - b).abs(),
+        (None, None) => 0.0,
+        _ => f64::INFINITY,
+    };
+    let mut radius_drivers_seen = 0;
+    let mut largest_first_order_error: f64 = 0.0;
+    for d in fit.iter().filter(|d| d.test == TensionTest::MassRadius) {
+        radius_drivers_seen += 1;
+        // Brute force: the whole comparison again without the object (shared scale re-fitted
+        // by the engine), as in the mass-bound test above.
+        let rest: Vec<CatalogueObject> = objects
+            .iter()
+            .enumerate()
+            .filter(|(k, _)| *k != d.object)
+            .map(|(_, o)| o.clone())
+            .collect();
+        let c2 = confront(&rest, &s, &opts).unwrap();
+        let s2 = tau0_slice(&c2, &s).unwrap().unwrap();
+        let iv = s2.slice.intervals[1];
+        let brute = shift(base.lower, iv.lower).max(shift(base.upper, iv.upper));
+        assert!(
+            (brute - d.shift).abs() <= 1e-6 || (brute.is_infinite() && d.shift.is_infinite()),
+            "object {}: in fit {} vs rerun {brute}",
+            d.object,
+            d.shift
+        );
+        if let Some(a) = approx.iter().find(|a| a.0 == d.object) {
+            largest_first_order_error = largest_first_order_error.max((a.1 - brute).abs());
+        }
+    }
+    assert!(radius_drivers_seen >= 3, "{fit:?}");
+    println!("largest error of the held-scale estimate: {largest_first_order_error:.2e}");
+    assert!(
+        largest_first_order_error > 1e-4,
+        "the refit must matter here: {largest_first_order_error}"
+    );
+}
+
+#[test]
+fn other_floor_slice_switches_the_shared_radius_scale_too() {
+    let s = WdSurface(surface());
+    let objects = radius_catalogue();
+    for (run, other) in [
+        (Systematics::Shared, Systematics::PerObject),
+        (Systematics::PerObject, Systematics::Shared),
+    ] {
+        let conf = confront(&objects, &s, &radius_options(run)).unwrap();
+        let main = tau0_slice(&conf, &s).unwrap().unwrap();
+        let (which, alt) = tau0_slice_other_floor(&conf, &s, &radius_options(run), &main).unwrap();
+        assert_eq!(which, other);
+        let direct_conf = confront(&objects, &s, &radius_options(other)).unwrap();
+        assert_eq!(
+            direct_conf.radius_shared.is_some(),
+            other == Systematics::Shared
+        );
+        let direct = tau0_slice(&direct_conf, &s).unwrap().unwrap();
+        for (a, b) in alt.radius_total_fine.iter().zip(&direct.radius_total_fine) {
+            assert!((a - b).abs() < 1e-9, "radius term {a} vs {b}");
+        }
+        for (a, b) in alt.slice.chi2_fine.iter().zip(&direct.slice.chi2_fine) {
+            assert!((a - b).abs() < 1e-9, "{a} vs {b}");
+        }
+        // The radius term is not the run's: the shared scale changes it.
+        let differs = alt
+            .radius_total_fine
+            .iter()
+            .zip(&main.radius_total_fine)
+            .any(|(a, b)| (a - b).abs() > 1e-3);
+        assert!(differs);
     }
 }

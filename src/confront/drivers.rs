@@ -8,8 +8,8 @@
 //! per-object decomposition is exact for the per-object theory floor and the product
 //! likelihood; [`slice_drivers`] applies it to a whole confrontation in that form, white-dwarf
 //! radius terms included. [`slice_drivers_in_fit`] takes each object out under the likelihood
-//! the run actually uses (shared shift at its profiled value, calibrated probabilities), which
-//! is what the pipeline reports.
+//! the run actually uses (shared shifts and the shared radius scale fitted again without the
+//! object, calibrated probabilities), which is what the pipeline reports.
 //!
 //! ```
 //! use dwarfbound::confront::drivers::{leave_one_out, DriverOptions, SliceClass};
@@ -36,7 +36,7 @@ use super::mass_terms::BoundTerm;
 use super::nuisance::eliminate;
 use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
-use super::slice::SliceResult;
+use super::slice::{radius_total_fine, SliceResult};
 use super::tension::TensionTest;
 
 /// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
@@ -239,7 +239,7 @@ pub fn slice_drivers(
         .iter()
         .map(|d| (per_class[d.class].1[d.index], d.shift))
         .collect();
-    for (k, shift) in radius_drivers(s, opts)?
+    for (k, shift) in radius_drivers(conf, s, opts)?
         .into_iter()
         .chain(spin_drivers(s, opts)?)
     {
@@ -257,14 +257,73 @@ pub fn slice_drivers(
 /// dwarf's radius term: (object index, shift), +∞ when an end opens or closes; objects that
 /// do not move it are left out. With per-object radius floors this is exact, since the
 /// likelihood is a sum: the slice without the object is the slice minus its own term on the
-/// fine axis. With the shared radius scale the object's term is taken at the scale fitted with
-/// every object, not re-fitted without it, so the shift is approximate (a single object rarely
-/// moves a scale that all of them share).
+/// fine axis. With the shared radius scale the scale is fitted again without the object: the
+/// whole radius term is rebuilt from the slice's cold radii without it and the scale eliminated
+/// again at every fine point ([`radius_total_fine`]), which is what a run without the object
+/// gives. That costs a whole radius term per candidate, so it is done for the 2 × `opts.top`
+/// candidates with the largest shifts at the scale held at its fitted value (the first-order
+/// estimate, which ranks them); any further candidates keep that estimate.
 pub fn radius_drivers(
+    conf: &Confrontation,
     s: &SliceResult,
     opts: &DriverOptions,
 ) -> Result<Vec<(usize, f64)>, StatsError> {
-    remove_each(s, &s.radius_fine, opts)
+    let fine = &s.slice.upsilon_fine;
+    let dchi2 = opts.level.dchi2(1);
+    let baseline = interval_from_slice(fine, &s.slice.chi2_fine, dchi2)?;
+    let shift_of = |without: &[f64]| -> Result<f64, StatsError> {
+        let iv = interval_from_slice(fine, without, dchi2)?;
+        Ok(end_shift(baseline.lower, iv.lower).max(end_shift(baseline.upper, iv.upper)))
+    };
+    // (position among the radius objects, object index, shift at the scale held fixed)
+    let mut held: Vec<(usize, usize, f64)> = Vec::new();
+    for (pos, (k, contrib)) in s.radius_fine.iter().enumerate() {
+        let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+            - contrib.iter().copied().fold(f64::INFINITY, f64::min);
+        if spread <= opts.candidate_min_minus_two_ln_p {
+            continue; // a constant offset cannot move a Δχ² crossing
+        }
+        let without: Vec<f64> = s
+            .slice
+            .chi2_fine
+            .iter()
+            .zip(contrib)
+            .map(|(c, r)| c - r)
+            .collect();
+        held.push((pos, *k, shift_of(&without)?));
+    }
+    let refit = conf.radius_shared.as_ref().filter(|_| {
+        !s.radius_nodes_fine.is_empty()
+            && s.radius_fine.len() == conf.radius_objects.len()
+            && s.radius_total_fine.len() == fine.len()
+    });
+    if let Some(shared) = refit {
+        held.sort_by(|a, b| b.2.total_cmp(&a.2).then(a.1.cmp(&b.1)));
+        let n_refit = held.len().min(2 * opts.top);
+        let exact: Vec<f64> = held[..n_refit]
+            .iter()
+            .map(|&(pos, _, _)| {
+                let radius = radius_total_fine(s, &conf.radius_objects, Some(pos), Some(shared));
+                let without: Vec<f64> = s
+                    .slice
+                    .chi2_fine
+                    .iter()
+                    .zip(&s.radius_total_fine)
+                    .zip(&radius)
+                    .map(|((c, all), r)| c - all + r)
+                    .collect();
+                shift_of(&without)
+            })
+            .collect::<Result<_, StatsError>>()?;
+        for (h, e) in held.iter_mut().zip(exact) {
+            h.2 = e;
+        }
+    }
+    Ok(held
+        .into_iter()
+        .filter(|h| h.2 > 0.0)
+        .map(|(_, k, shift)| (k, shift))
+        .collect())
 }
 
 /// Leave-one-out shifts of the ϒ interval at τ = 0 (at `opts.level`) from removing each
@@ -337,7 +396,8 @@ pub struct SliceDriver {
 /// whose −2 ln P at δ̂ exceeds `opts.candidate_min_minus_two_ln_p` at one of the two fine points
 /// where the shifted bound B + δ̂(B) is extreme (ln P is monotone in the shifted bound).
 /// White-dwarf radius terms are taken out as [`radius_drivers`] does (exact with per-object
-/// floors), spin tests as [`spin_drivers`] does (exact).
+/// floors; with the shared radius scale, the scale is fitted again without the object), spin
+/// tests as [`spin_drivers`] does (exact).
 pub fn slice_drivers_in_fit(
     conf: &Confrontation,
     s: &SliceResult,
@@ -413,7 +473,7 @@ pub fn slice_drivers_in_fit(
         })
         .collect::<Result<_, StatsError>>()?;
     out.retain(|d| d.shift > 0.0);
-    let radius = radius_drivers(s, opts)?
+    let radius = radius_drivers(conf, s, opts)?
         .into_iter()
         .map(|(k, shift)| (k, shift, TensionTest::MassRadius));
     let spin = spin_drivers(s, opts)?

@@ -41,10 +41,11 @@ use rayon::prelude::*;
 
 use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term};
 use super::mass_terms::{BoundTerm, Systematics};
+use super::nuisance::SharedNuisance;
 use super::prob::{Measurement, StatsError};
 use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
-use super::wd_radius::{radius_term, RadiusTerm};
+use super::wd_radius::{radius_term, shared_nuisance, split_floor, ObjectRadius, RadiusTerm};
 
 /// The ϒ interval at τ = 0 is read on a grid this many times finer than the ϒ axis (the
 /// paper's statistics section: 10).
@@ -65,6 +66,11 @@ pub struct SliceResult {
     /// The radius terms' −2 ln L of all objects together along the fine axis (with a shared
     /// radius systematic not the sum of `radius_fine`: the scale is eliminated jointly).
     pub radius_total_fine: Vec<f64>,
+    /// Per fine point, the structure solver's cold radius at every radius object's mass nodes
+    /// (object after object, as [`radius_term`] takes them): what the radius term is built
+    /// from, kept so that it can be rebuilt without one object or with another floor
+    /// treatment ([`radius_total_fine`]). Empty in the slice of [`tau0_slice_other_floor`].
+    pub radius_nodes_fine: Vec<Vec<Option<f64>>>,
     /// The spin term's −2 ln L along the fine axis (zero without spin tests).
     pub spin_fine: Vec<f64>,
     /// Per object with a spin test: (object index, its −2 ln P along the fine axis), so that the
@@ -125,7 +131,8 @@ pub fn tau0_slice(
         first: a,
         j0,
     };
-    let (radius_fine, radius_total) = radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
+    let (radius_fine, radius_total, radius_nodes_fine) =
+        radius_terms_on_fine_axis(conf, surface, &row, &fine)?;
     let mmhb_fine: Option<Vec<f64>> = splines
         .iter()
         .find(|(t, _)| matches!(t, Term::HBurning | Term::BrownDwarf))
@@ -164,6 +171,7 @@ pub fn tau0_slice(
         bounds_fine,
         radius_fine,
         radius_total_fine: radius_total,
+        radius_nodes_fine,
         spin_fine,
         spin_fine_per_object,
     }))
@@ -179,6 +187,9 @@ struct Row<'a> {
 
 /// (object index, its −2 ln L along the fine axis) per white dwarf with a radius term.
 type PerObjectFine = Vec<(usize, Vec<f64>)>;
+
+/// Per fine point, the cold radius at every radius object's mass nodes.
+type NodesFine = Vec<Vec<Option<f64>>>;
 
 /// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
 /// and the whole radius term there (shared systematic eliminated).
@@ -198,7 +209,7 @@ fn radius_terms_on_fine_axis(
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     fine: &[f64],
-) -> Result<(PerObjectFine, Vec<f64>), StatsError> {
+) -> Result<(PerObjectFine, Vec<f64>, NodesFine), StatsError> {
     // One batched lookup per coarse point for every object's nodes (a point's table is
     // resampled once, not once per object), then per node (object after object, in the order
     // of `all_queries`) its cold radius along the fine axis.
@@ -211,16 +222,21 @@ fn radius_terms_on_fine_axis(
         })
         .collect();
     let per_node = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &all_queries)?;
+    // Per fine point, every node's cold radius (the layout `radius_term` takes).
+    let nodes_fine: NodesFine = (0..fine.len())
+        .into_par_iter()
+        .map(|k| per_node.iter().map(|v| v[k]).collect())
+        .collect();
+    drop(per_node);
     // At each fine point the radius term of all objects together (the shared scale, if any, is
     // eliminated there); fine points in parallel, collected in order.
     let terms: Vec<RadiusTerm> = fine
         .par_iter()
-        .enumerate()
-        .map(|(k, &upsilon)| {
-            let cold: Vec<Option<f64>> = per_node.iter().map(|v| v[k]).collect();
+        .zip(&nodes_fine)
+        .map(|(&upsilon, cold)| {
             radius_term(
                 &conf.radius_objects,
-                &cold,
+                cold,
                 upsilon,
                 conf.radius_shared.as_ref(),
             )
@@ -233,7 +249,47 @@ fn radius_terms_on_fine_axis(
         .map(|(j, r)| (r.index, terms.iter().map(|t| t.per_object[j]).collect()))
         .collect();
     let total = terms.iter().map(|t| t.minus_two_ln_l).collect();
-    Ok((per_object, total))
+    Ok((per_object, total, nodes_fine))
+}
+
+/// The whole radius term along `s`'s fine axis, rebuilt from the cold radii the slice kept
+/// (`s.radius_nodes_fine`) for `objects` — the confrontation's radius objects, or copies of
+/// them with another split of the floor — without the object at position `skip` (its mass
+/// nodes dropped too), with the shared scale `shared` eliminated again at every fine point.
+/// With `skip` this is the exact leave-one-out of a white dwarf under a shared radius scale;
+/// with `skip = None` and the run's own objects and scale it returns `s.radius_total_fine`.
+pub fn radius_total_fine(
+    s: &SliceResult,
+    objects: &[ObjectRadius],
+    skip: Option<usize>,
+    shared: Option<&SharedNuisance>,
+) -> Vec<f64> {
+    let (kept, ranges): (Vec<ObjectRadius>, Vec<(usize, usize)>) = {
+        let mut at = 0;
+        let mut kept = Vec::new();
+        let mut ranges = Vec::new();
+        for (j, r) in objects.iter().enumerate() {
+            let range = (at, at + r.nodes.len());
+            at = range.1;
+            if Some(j) != skip {
+                kept.push(r.clone());
+                ranges.push(range);
+            }
+        }
+        (kept, ranges)
+    };
+    s.slice
+        .upsilon_fine
+        .par_iter()
+        .zip(&s.radius_nodes_fine)
+        .map(|(&upsilon, all)| {
+            let cold: Vec<Option<f64>> = ranges
+                .iter()
+                .flat_map(|&(a, b)| (a..b).map(|q| all.get(q).copied().flatten()))
+                .collect();
+            radius_term(&kept, &cold, upsilon, shared).minus_two_ln_l
+        })
+        .collect()
 }
 
 /// Cold radii of `queries` along the fine τ = 0 axis, one vector per query: looked up once per
@@ -347,13 +403,15 @@ fn spin_terms_on_fine_axis(
     Ok(out)
 }
 
-/// The τ = 0 slice under the other treatment of the mass bounds' theory floors than the one
-/// `eopts` asks for (per-object floors when the run shares them, shared when it does not), in
-/// the same run: each mass bound's term is rebuilt from the same objects and the same grid
-/// range of the bound, and evaluated at the bounds of `main` (the run's own slice) along its
-/// fine axis; the radius terms and any population term are `main`'s. Returns the other
-/// treatment and its slice. Reports show the two intervals side by side, which is the effect
-/// of the shared systematic.
+/// The τ = 0 slice under the other treatment of the theory floors than the one `eopts` asks
+/// for (per-object floors when the run shares them, shared when it does not), in the same run:
+/// each mass bound's term is rebuilt from the same objects and the same grid range of the
+/// bound, and evaluated at the bounds of `main` (the run's own slice) along its fine axis; the
+/// white-dwarf radius term is rebuilt from the same cold radii with each object's total floor
+/// split again (the shared radius scale (1 + δ) is on exactly when the floors are shared, as in
+/// a run made with that treatment) and its scale eliminated again at every fine point; the spin
+/// and any population term are `main`'s. Returns the other treatment and its slice. Reports
+/// show the two intervals side by side, which is the effect of the shared systematics.
 pub fn tau0_slice_other_floor(
     conf: &Confrontation,
     surface: &dyn BoundSurface,
@@ -409,6 +467,27 @@ pub fn tau0_slice_other_floor(
             ms.iter().map(|(t, v)| (*t, v.as_slice())).collect();
         terms.push((bound, BoundTerm::build(&refs, floor, range, &mt)?));
     }
+    // The radius term under the other treatment: total floors split again, scale on or off.
+    let other_shared = shared_nuisance(&eopts.radius, &mt);
+    let other_sigma = other_shared.map_or(0.0, |n| n.sigma);
+    let radius_objects: Vec<ObjectRadius> = conf
+        .radius_objects
+        .iter()
+        .map(|r| {
+            let (floor_fraction, shared_fraction) =
+                split_floor(r.floor_fraction.hypot(r.shared_fraction), other_sigma);
+            ObjectRadius {
+                floor_fraction,
+                shared_fraction,
+                ..r.clone()
+            }
+        })
+        .collect();
+    let radius_total = if radius_objects.is_empty() || main.radius_nodes_fine.is_empty() {
+        main.radius_total_fine.clone()
+    } else {
+        radius_total_fine(main, &radius_objects, None, other_shared.as_ref())
+    };
     let fine = &main.slice.upsilon_fine;
     let along = |want: fn(Term) -> bool| {
         main.bounds_fine
@@ -424,7 +503,7 @@ pub fn tau0_slice_other_floor(
                 mmhb_fine.and_then(|v| v.get(k).copied()),
                 chandra_fine.and_then(|v| v.get(k).copied()),
             );
-            let mut s: f64 = main.radius_total_fine.get(k).copied().unwrap_or(0.0)
+            let mut s: f64 = radius_total.get(k).copied().unwrap_or(0.0)
                 + main.spin_fine.get(k).copied().unwrap_or(0.0);
             for (bound, t) in &terms {
                 let b = match bound {
@@ -448,7 +527,8 @@ pub fn tau0_slice_other_floor(
             slice,
             bounds_fine: main.bounds_fine.clone(),
             radius_fine: main.radius_fine.clone(),
-            radius_total_fine: main.radius_total_fine.clone(),
+            radius_total_fine: radius_total,
+            radius_nodes_fine: Vec::new(),
             spin_fine: main.spin_fine.clone(),
             spin_fine_per_object: main.spin_fine_per_object.clone(),
         },

@@ -697,7 +697,7 @@ impl OutputContext<'_> {
                 "method": "one-parameter Δχ² ≤ 1, 4, 9 of min over the other parameter of the joint χ² on the grid (three-point parabola at the minimum); null = open (reaches the grid edge)",
             },
             "posterior": self.posterior_json(),
-            "drivers_method": "leave-one-out under the likelihood used, on the τ = 0 slice: each mass-bound object removed from its bound's term with the shared shift eliminated again without it (per-object floors: its ln P subtracted; calibrated bounds: the mass function held fixed), each white dwarf's radius term removed, and each spin test removed",
+            "drivers_method": "leave-one-out under the likelihood used, on the τ = 0 slice: each mass-bound object removed from its bound's term with the shared shift eliminated again without it (per-object floors: its ln P subtracted; calibrated bounds: the mass function held fixed), each white dwarf's radius term removed (with the shared radius scale: the whole radius term rebuilt without it and the scale eliminated again), and each spin test removed",
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,

@@ -232,8 +232,10 @@ fn level_rows(iv: &[crate::confront::regions::Interval; 3]) -> Vec<UpsilonInterv
 fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     use crate::confront::mass_terms::Systematics;
     let floor_words = |sy: Systematics| match sy {
-        Systematics::Shared => "slice at τ = 0, shared systematic (one shift per bound)",
-        Systematics::PerObject => "slice at τ = 0, per-object floors",
+        Systematics::Shared => {
+            "slice at τ = 0, shared systematics (one shift per bound, one white-dwarf radius scale)"
+        }
+        Systematics::PerObject => "slice at τ = 0, per-object floors (mass and radius)",
     };
     let used = ctx.eopts.mass_terms.systematics;
     let mut rows = Vec::new();
@@ -293,7 +295,7 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     ];
     if ctx.slice_other_floor.is_some() {
         formulas.push(
-            "The two τ = 0 rows differ only in the mass bounds' theory floors: one shift per bound shared by all its objects (eliminated as a nuisance parameter), or the whole floor as an independent error per object, which averages away with many objects. The second was computed in the same run, from the same objects and grid.".to_string(),
+            "The two τ = 0 rows differ only in how the theory floors are shared: one shift per mass bound shared by all its objects and one radius scale (1 + δ) shared by every white dwarf in the radius test (each eliminated as a nuisance parameter), or the whole floor as an independent error per object, which averages away with many objects. The second was computed in the same run, from the same objects, grid and white-dwarf radii.".to_string(),
         );
     }
     Some(SideBySide {
@@ -591,7 +593,7 @@ pub(crate) fn write_report_files(
                     t.chandrasekhar_mode.name()
                 ),
                 crate::confront::wd_radius::WdRadiusModel::Hot => format!(
-                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(ϒ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice term, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, with the general-relativistic correction R_TOV/R_Newton of the same cold matter at standard gravity (−0.05 % at 0.6 M☉, −0.27 % at 1.0 M☉, −2.8 % at 1.3 M☉ for C/O; objects above the core's TOV maximum mass, 1.3816 M☉ for C/O, are outside the model), times the ratio R_cold(M; ϒ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point, so that the modified theory enters at Newtonian order (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation (docs/white-dwarfs.md)",
+                    "Chandrasekhar mass {} (5.82519/μe² M☉ × ω₃(ϒ,τ)/ω₃(0,0)), Newtonian order; radii: finite-temperature white dwarfs (Fermi–Dirac electrons, ions, radiation, Salpeter's electrostatic lattice, exchange and Thomas–Fermi terms, H and He layers over a He, C/O or O/Ne core, Kramers and conductive opacities, isothermal core) at standard gravity, tabulated in mass and Teff, with the general-relativistic correction R_TOV/R_Newton of the same cold matter at standard gravity (−0.05 % at 0.6 M☉, −0.26 % at 1.0 M☉, −2.7 % at 1.3 M☉ for C/O; objects above the core's TOV maximum mass, 1.3836 M☉ for C/O, are outside the model), times the ratio R_cold(M; ϒ, τ)/R_cold(M; 0, 0) of the zero-temperature structure at the grid point, so that the modified theory enters at Newtonian order (anchored; the error of the anchoring is carried as a theory error). Idealised: fully ionised envelopes, no neutrino cooling, no residual hydrogen burning, no crystallisation (docs/white-dwarfs.md)",
                     t.chandrasekhar_mode.name()
                 ),
             },

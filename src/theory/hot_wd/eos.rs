@@ -1,6 +1,26 @@
 //! Equation of state of white-dwarf matter at finite temperature: relativistic Fermi–Dirac
-//! electrons, ideal ions, radiation and the Salpeter (1961) lattice term, with the analytic
-//! derivatives the structure equations need.
+//! electrons, ideal ions, radiation and Salpeter's (1961) electrostatic corrections (lattice,
+//! exchange, Thomas–Fermi), with the analytic derivatives the structure equations need.
+//!
+//! Salpeter's corrections are zero-temperature expansions in the electron density n_e (Fermi
+//! momentum x = p_F/(m_e c) = λ_e(3π²n_e)^{1/3}). What is included, per unit volume:
+//! - lattice (ion sphere): P_C = −(3/10)(4π/3)^{1/3}⟨Z^{5/3}⟩/⟨Z⟩ e′² n_e^{4/3};
+//! - exchange of the relativistic electron gas: ε_x = −(e′²/(4π³λ_e⁴)) x⁴ Φ(x),
+//!   Φ = 1 − (3/2)[(x√(1+x²) − asinh x)/x²]², so P_x = −(e′²/(12π³λ_e⁴)) x⁴ (Φ + xΦ′)
+//!   (non-relativistically −(3/4)(3/π)^{1/3}e′²n_e^{1/3} per electron, i.e. 0.458 e′²/a_e,
+//!   Salpeter's value; the relativistic factor Φ is the Akhiezer–Berestetskii form as quoted by
+//!   MacDonald & Vosko 1979 — from memory);
+//! - Thomas–Fermi (the electrons' linear response to the ion inside its neutral cell, electron
+//!   number conserved): per electron −(162/175)(4/(9π))^{2/3} α² ⟨Z^{7/3}⟩/⟨Z⟩ m_e c² √(1+x²),
+//!   i.e. Salpeter's −(324/175)(4/(9π))^{2/3}Z^{4/3} Ry non-relativistically (coefficient from
+//!   memory, re-derived here from the ion-sphere potential), so
+//!   P_TF = −(54/175)(4/(9π))^{2/3} α² ⟨Z^{7/3}⟩/⟨Z⟩ m_e c² n_e x²/√(1+x²).
+//!
+//! Left out: the correlation energy of the electron gas (Gell-Mann–Brueckner, per electron
+//! 0.0622 ln r_s − 0.096 Ry; its pressure −0.0207 Ry n_e is ≲ 10⁻³ of the exchange pressure at
+//! white-dwarf densities, r_s ≲ 0.05) and Salpeter's higher-order terms in Z^{2/3}α/x.
+//! The corrections are applied at every temperature as functions of n_e alone (a stated choice,
+//! as for the lattice term: in the non-degenerate layers they are negligible against n k_B T).
 //!
 //! One job: map (η, T, composition) to n_e, ρ, P and ∂/∂η, ∂/∂T of ρ and P. η is the electrons'
 //! kinetic chemical potential in units of k_B T (no positrons; fully ionised matter). The
@@ -47,6 +67,134 @@ pub fn coulomb_coupling_j_m() -> f64 {
 /// (3/10)(4π/3)^{1/3} e′² (ion-sphere energy −(9/10)Z²e′²/a per ion, Salpeter 1961, ApJ 134, 669).
 pub fn lattice_coefficient() -> f64 {
     0.3 * (4.0 * PI / 3.0).cbrt() * coulomb_coupling_j_m()
+}
+
+/// Fine-structure constant α = e′²/(ħc), from the CODATA 2018 constants.
+pub fn fine_structure() -> f64 {
+    coulomb_coupling_j_m() / (HBAR_SI * C_SI)
+}
+
+/// g(x) = (x√(1+x²) − asinh x)/x² and its first two derivatives (series below x = 0.1, where
+/// the closed form cancels).
+fn exchange_g(x: f64) -> (f64, f64, f64) {
+    if x < 0.1 {
+        let x2 = x * x;
+        let g = x * (2.0 / 3.0 + x2 * (-0.2 + x2 * (3.0 / 28.0 - x2 * 5.0 / 72.0)));
+        let g1 = 2.0 / 3.0 + x2 * (-0.6 + x2 * (15.0 / 28.0 - x2 * 35.0 / 72.0));
+        let g2 = x * (-1.2 + x2 * (15.0 / 7.0 - x2 * 35.0 / 12.0));
+        (g, g1, g2)
+    } else {
+        let gam = (1.0 + x * x).sqrt();
+        let g = (x * gam - x.asinh()) / (x * x);
+        let g1 = 2.0 / gam - 2.0 * g / x;
+        let g2 = -2.0 * x / (gam * gam * gam) - 2.0 * g1 / x + 2.0 * g / (x * x);
+        (g, g1, g2)
+    }
+}
+
+/// Fermi momentum x = p_F/(m_e c) of electrons at density `n_e` (m⁻³) at T = 0.
+pub fn fermi_momentum(n_e: f64) -> f64 {
+    compton_wavelength_m() * (3.0 * PI * PI * n_e).cbrt()
+}
+
+/// One electrostatic correction at density n_e: pressure, dP/dn_e and energy density (SI).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Correction {
+    /// Pressure, Pa.
+    pub p: f64,
+    /// dP/dn_e, J.
+    pub dp_dn: f64,
+    /// Energy density, J m⁻³.
+    pub e: f64,
+}
+
+impl std::ops::Add for Correction {
+    type Output = Correction;
+    fn add(self, o: Correction) -> Correction {
+        Correction {
+            p: self.p + o.p,
+            dp_dn: self.dp_dn + o.dp_dn,
+            e: self.e + o.e,
+        }
+    }
+}
+
+/// Salpeter's lattice term −K⟨Z^{5/3}⟩/⟨Z⟩ n_e^{4/3} (`factor` = ⟨Z^{5/3}⟩/⟨Z⟩; energy 3P).
+pub fn lattice_correction(n_e: f64, factor: f64) -> Correction {
+    if factor == 0.0 || n_e <= 0.0 {
+        return Correction::default();
+    }
+    let p = -lattice_coefficient() * factor * n_e.powf(4.0 / 3.0);
+    Correction {
+        p,
+        dp_dn: 4.0 / 3.0 * p / n_e,
+        e: 3.0 * p,
+    }
+}
+
+/// Exchange energy of the relativistic degenerate electron gas (see the module paragraph):
+/// ε_x = −A x⁴Φ, P_x = −(A/3)x⁴(Φ + xΦ′), A = e′²/(4π³λ_e⁴).
+pub fn exchange_correction(n_e: f64) -> Correction {
+    if n_e <= 0.0 {
+        return Correction::default();
+    }
+    let lam = compton_wavelength_m();
+    let a = coulomb_coupling_j_m() / (4.0 * PI * PI * PI * lam.powi(4));
+    let x = fermi_momentum(n_e);
+    let (g, g1, g2) = exchange_g(x);
+    let phi = 1.0 - 1.5 * g * g;
+    let phi1 = -3.0 * g * g1;
+    let phi2 = -3.0 * (g1 * g1 + g * g2);
+    let psi = phi + x * phi1;
+    let psi1 = 2.0 * phi1 + x * phi2;
+    let x3 = x * x * x;
+    let p = -a / 3.0 * x3 * x * psi;
+    let dp_dx = -a / 3.0 * (4.0 * x3 * psi + x3 * x * psi1);
+    Correction {
+        p,
+        // dx/dn = x/(3n).
+        dp_dn: dp_dx * x / (3.0 * n_e),
+        e: -a * x3 * x * phi,
+    }
+}
+
+/// Thomas–Fermi correction (see the module paragraph), `factor` = ⟨Z^{7/3}⟩/⟨Z⟩:
+/// P_TF = −B n_e x²/γ, dP/dn = −B (x²/γ)(5/3 − x²/(3γ²)), ε_TF = −3B n_e γ, γ = √(1+x²).
+pub fn thomas_fermi_correction(n_e: f64, factor: f64) -> Correction {
+    if factor == 0.0 || n_e <= 0.0 {
+        return Correction::default();
+    }
+    let alpha = fine_structure();
+    let b = 54.0 / 175.0
+        * (4.0 / (9.0 * PI)).powf(2.0 / 3.0)
+        * alpha
+        * alpha
+        * factor
+        * electron_rest_energy_j();
+    let x = fermi_momentum(n_e);
+    let g2 = 1.0 + x * x;
+    let gam = g2.sqrt();
+    let w = x * x / gam;
+    Correction {
+        p: -b * n_e * w,
+        dp_dn: -b * w * (5.0 / 3.0 - x * x / (3.0 * g2)),
+        e: -3.0 * b * n_e * gam,
+    }
+}
+
+/// All of `comp`'s electrostatic corrections at n_e (each weighted by its factor in `comp`, so a
+/// composition from [`Composition::with_electrostatics`] switches them).
+pub fn electrostatic_correction(n_e: f64, comp: &Composition) -> Correction {
+    let mut c = lattice_correction(n_e, comp.lattice_factor);
+    if comp.exchange_factor != 0.0 {
+        let x = exchange_correction(n_e);
+        c = c + Correction {
+            p: x.p * comp.exchange_factor,
+            dp_dn: x.dp_dn * comp.exchange_factor,
+            e: x.e * comp.exchange_factor,
+        };
+    }
+    c + thomas_fermi_correction(n_e, comp.thomas_fermi_factor)
 }
 
 /// The electron gas alone: number density, pressure and their derivatives (SI units).
@@ -171,14 +319,16 @@ impl Sums {
 }
 
 /// The quadrature rule that follows η (see the module paragraph): with lo = max(0, η − 30),
-/// hi = max(η, 0) + 45, [0, lo] (or [0, 6] when lo = 0) in t = √x by 40 (16) Gauss–Legendre
-/// points, then panels of width ≤ 5 with 12 points each up to hi.
+/// hi = max(η, 0) + 45, [0, max(lo, 6)] in t = √x by 40 Gauss–Legendre points (16 while
+/// lo ≤ 6), then panels of width ≤ 5 with 12 points each up to hi. The first segment always
+/// holds the √x end point: a plain panel starting just above x = 0 (as when lo was allowed to
+/// be small but positive, 30 < η < 36) integrates √x to only ~1e-5.
 fn integrate(eta: f64, beta: f64) -> Sums {
     let r = rules();
     let mut s = Sums::default();
     let lo = (eta - 30.0).max(0.0);
     let hi = eta.max(0.0) + 45.0;
-    let (first_end, rule) = if lo > 0.0 {
+    let (first_end, rule) = if lo > 6.0 {
         (lo, &r.g40)
     } else {
         (6.0, &r.g16)
@@ -231,15 +381,15 @@ pub fn electrons(eta: f64, t_k: f64) -> ElectronGas {
 }
 
 /// The full matter state of [`MatterState`]:
-/// P = P_e + n_e k_B T/Z̄ + aT⁴/3 + P_C, P_C = −K ⟨Z^{5/3}⟩/⟨Z⟩ n_e^{4/3} (Salpeter 1961 lattice
-/// term, applied at every density and temperature — a stated choice; its smaller exchange,
-/// Thomas–Fermi and correlation terms are not included).
+/// P = P_e + n_e k_B T/Z̄ + aT⁴/3 + P_C + P_x + P_TF, the last three Salpeter's (1961) lattice,
+/// exchange and Thomas–Fermi terms of the module paragraph as `comp` carries them, applied at
+/// every density and temperature (a stated choice).
 pub fn matter(eta: f64, t_k: f64, comp: &Composition) -> MatterState {
     let e = electrons(eta, t_k);
     let a = radiation_constant_si();
-    let kc = lattice_coefficient() * comp.lattice_factor;
-    let p_c = -kc * e.n.powf(4.0 / 3.0);
-    let dpc_dn = 4.0 / 3.0 * p_c / e.n;
+    let corr = electrostatic_correction(e.n, comp);
+    let p_c = corr.p;
+    let dpc_dn = corr.dp_dn;
     let ion_per_e = K_B_SI * t_k / comp.zbar;
     let p_rad = a * t_k.powi(4) / 3.0;
     let p = e.p + e.n * ion_per_e + p_rad + p_c;
@@ -277,7 +427,7 @@ pub fn zero_t_density_m3(x: f64) -> f64 {
     x * x * x / (3.0 * PI * PI * lam * lam * lam)
 }
 
-/// η at which the matter pressure (electrons, ions, radiation and the lattice term) equals
+/// η at which the matter pressure (electrons, ions, radiation and the electrostatic terms) equals
 /// `p_pa` at temperature `t_k`: the first upward crossing in a scan from η = −200 (steps of 4
 /// up to η = 10, then factors of 1.5 up to 1e7), polished by Brent's method; `None` without
 /// one. The first crossing matters: with the lattice term, cool non-degenerate gas can have
@@ -405,6 +555,84 @@ mod tests {
         assert!((pc / chandrasekhar_pressure_pa(x) / expected - 1.0).abs() < 1e-6);
         // 50:50 C/O factor 3.6510 (spec §3.3).
         assert!((Composition::carbon_oxygen().lattice_factor - 3.6510).abs() < 1e-4);
+    }
+
+    #[test]
+    fn exchange_and_thomas_fermi_limits() {
+        // Non-relativistic exchange: −(3/4)(3/π)^{1/3} e′² n^{1/3} per electron, so
+        // P_x = ε_x/3 and P_x/P_C = 0.25(3/π)^{1/3}/(0.3(4π/3)^{1/3}) = 0.509073 (Z = 1; the
+        // "0.458/0.9" of Salpeter 1961, closed form).
+        let n = zero_t_density_m3(1e-4);
+        let x = exchange_correction(n);
+        let per_e = -0.75 * (3.0 / PI).cbrt() * coulomb_coupling_j_m() * n.cbrt();
+        assert!((x.e / n / per_e - 1.0).abs() < 1e-6);
+        assert!((x.p / (x.e / 3.0) - 1.0).abs() < 1e-6);
+        let ratio = x.p / lattice_correction(n, 1.0).p;
+        assert!((ratio - 0.509_073).abs() < 1e-5, "{ratio}");
+        // Ultra-relativistic: Φ → −1/2 (closed form of the Akhiezer–Berestetskii factor), so
+        // ε_x → −½ of its non-relativistic form and P_x = ε_x/3 again.
+        let n = zero_t_density_m3(1e4);
+        let x = exchange_correction(n);
+        let nonrel = -0.75 * (3.0 / PI).cbrt() * coulomb_coupling_j_m() * n.cbrt() * n;
+        assert!((x.e / nonrel + 0.5).abs() < 1e-6, "{}", x.e / nonrel);
+        // Thomas–Fermi, non-relativistic: −(324/175)(4/(9π))^{2/3} Z^{4/3} Ry per electron
+        // (Salpeter 1961, from memory; Ry = α²m_ec²/2), density-independent, hence no pressure
+        // at this order.
+        let n = zero_t_density_m3(1e-3);
+        let z = 6.0f64;
+        let tf = thomas_fermi_correction(n, z.powf(7.0 / 3.0) / z);
+        let ry = 0.5 * fine_structure().powi(2) * electron_rest_energy_j();
+        let want = -324.0 / 175.0 * (4.0 / (9.0 * PI)).powf(2.0 / 3.0) * z.powf(4.0 / 3.0) * ry;
+        assert!((tf.e / n / want - 1.0).abs() < 1e-6);
+        assert!(tf.p.abs() < 1e-5 * tf.e.abs());
+        // 50:50 C/O: ⟨Z^{7/3}⟩/⟨Z⟩ = (6^{4/3} + 8^{4/3})/2 = 13.4515 (equal electrons per mass).
+        let f = Composition::carbon_oxygen().thomas_fermi_factor;
+        assert!(
+            (f - 0.5 * (6f64.powf(4.0 / 3.0) + 16.0)).abs() < 1e-9,
+            "{f}"
+        );
+    }
+
+    #[test]
+    fn correction_derivatives_match_finite_differences() {
+        // dP/dn and the T = 0 relation dε/dn = (ε + P)/n (Gibbs–Duhem), by central differences
+        // (common practice), across the series/closed-form switch of the exchange factor.
+        let comp = Composition::carbon_oxygen();
+        for x in [0.02, 0.0999, 0.1001, 0.5, 3.0, 40.0] {
+            let n = zero_t_density_m3(x);
+            let h = 1e-5 * n;
+            let (a, b, c) = (
+                electrostatic_correction(n + h, &comp),
+                electrostatic_correction(n - h, &comp),
+                electrostatic_correction(n, &comp),
+            );
+            let dp = (a.p - b.p) / (2.0 * h);
+            let de = (a.e - b.e) / (2.0 * h);
+            assert!(
+                (dp / c.dp_dn - 1.0).abs() < 1e-6,
+                "x = {x}: {dp} {}",
+                c.dp_dn
+            );
+            assert!((de / ((c.e + c.p) / n) - 1.0).abs() < 1e-6, "x = {x}");
+        }
+    }
+
+    #[test]
+    fn quadrature_is_continuous_in_eta() {
+        // Across the rule's switches (η = 30, 36) n_e and P_e move smoothly: over a step of
+        // 2e-6 in η they change as their analytic η-derivatives say, to 1e-10 (first-order
+        // Taylor; common practice for checking a piecewise rule). Before the first segment
+        // was kept to [0, ≥ 6], n_e jumped by 5e-6 just above η = 30.
+        for eta in [30.0, 36.0] {
+            let (a, b, c) = (
+                electrons(eta - 1e-6, 1e7),
+                electrons(eta + 1e-6, 1e7),
+                electrons(eta, 1e7),
+            );
+            let dn = (b.n - a.n) / c.n - 2e-6 * c.dn_deta / c.n;
+            let dp = (b.p - a.p) / c.p - 2e-6 * c.dp_deta / c.p;
+            assert!(dn.abs() < 1e-10 && dp.abs() < 1e-10, "η = {eta}: {dn} {dp}");
+        }
     }
 
     #[test]

@@ -33,7 +33,9 @@ use std::str::FromStr;
 
 use crate::theory::error::TheoryError;
 
-pub use cold::{cold_salpeter_radius_rsun, tov_maximum_mass_msun, tov_radius_ratio};
+pub use cold::{
+    cold_radius_rsun, cold_salpeter_radius_rsun, tov_maximum_mass_msun, tov_radius_ratio,
+};
 pub use shoot::{hot_radius_rsun, HotModel, HotOptions};
 pub use table::{HotWdTable, TableRadius};
 
@@ -171,6 +173,22 @@ impl FromStr for Envelope {
     }
 }
 
+/// Which of Salpeter's (1961, ApJ 134, 669) zero-temperature electrostatic corrections to the
+/// free-electron pressure the equation of state carries. The default is all of them that matter
+/// at white-dwarf densities; the others reproduce earlier results of the tool.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub enum Electrostatics {
+    /// The bare Fermi–Dirac electron gas (Chandrasekhar's equation of state at T = 0).
+    None,
+    /// The ion-sphere lattice term only (the tool's model before exchange and Thomas–Fermi were
+    /// added; kept so those results can be reproduced).
+    Lattice,
+    /// Lattice, exchange and Thomas–Fermi terms (Salpeter 1961, as used by Hamada & Salpeter
+    /// 1961); the correlation energy is left out (see [`eos`]).
+    #[default]
+    Salpeter,
+}
+
 /// A fully ionised mixture and the averages the EOS and opacities need (species with integer
 /// A, so μ_e = 2 exactly for He, C, O).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -181,6 +199,11 @@ pub struct Composition {
     pub zbar: f64,
     /// ⟨Z^{5/3}⟩/⟨Z⟩ = Σ(X Z^{5/3}/A)/Σ(X Z/A), the lattice-term factor (linear mixing).
     pub lattice_factor: f64,
+    /// ⟨Z^{7/3}⟩/⟨Z⟩ = Σ(X Z^{7/3}/A)/Σ(X Z/A), the Thomas–Fermi factor (linear mixing; the
+    /// correction per ion cell grows as Z^{7/3}, per electron as Z^{4/3}).
+    pub thomas_fermi_factor: f64,
+    /// 1 with the electron exchange term, 0 without (it depends on n_e only, not on Z).
+    pub exchange_factor: f64,
     /// Σ X Z²/A (free–free opacity).
     pub z2_over_a: f64,
     /// Z_eff = Σ(X Z²/A)/Σ(X Z/A) (electron–ion collisions in conduction).
@@ -193,12 +216,14 @@ impl Composition {
     /// From (Z, A, X) triples; X are normalised to sum 1.
     pub fn new(species: &[(f64, f64, f64)]) -> Self {
         let xs: f64 = species.iter().map(|s| s.2).sum();
-        let (mut ze, mut ion, mut z53, mut z2, mut metals) = (0.0, 0.0, 0.0, 0.0, 0.0);
+        let (mut ze, mut ion, mut z53, mut z73, mut z2, mut metals) =
+            (0.0, 0.0, 0.0, 0.0, 0.0, 0.0);
         for &(z, a, x) in species {
             let x = x / xs;
             ze += x * z / a;
             ion += x / a;
             z53 += x * z.powf(5.0 / 3.0) / a;
+            z73 += x * z.powf(7.0 / 3.0) / a;
             z2 += x * z * z / a;
             if z > 2.0 {
                 metals += x;
@@ -208,6 +233,8 @@ impl Composition {
             mu_e: 1.0 / ze,
             zbar: ze / ion,
             lattice_factor: z53 / ze,
+            thomas_fermi_factor: z73 / ze,
+            exchange_factor: 1.0,
             z2_over_a: z2,
             z_eff: z2 / ze,
             metals,
@@ -227,6 +254,25 @@ impl Composition {
     /// 50:50 carbon (6, 12) and oxygen (8, 16) by mass.
     pub fn carbon_oxygen() -> Self {
         Self::new(&[(6.0, 12.0, 0.5), (8.0, 16.0, 0.5)])
+    }
+
+    /// The same matter with only the electrostatic terms `e` keeps (their factors set to 0).
+    pub fn with_electrostatics(self, e: Electrostatics) -> Self {
+        let (lattice, salpeter) = match e {
+            Electrostatics::None => (false, false),
+            Electrostatics::Lattice => (true, false),
+            Electrostatics::Salpeter => (true, true),
+        };
+        Self {
+            lattice_factor: if lattice { self.lattice_factor } else { 0.0 },
+            thomas_fermi_factor: if salpeter {
+                self.thomas_fermi_factor
+            } else {
+                0.0
+            },
+            exchange_factor: if salpeter { self.exchange_factor } else { 0.0 },
+            ..self
+        }
     }
 
     /// Mean molecular weight of the ideal ion + electron gas, μ = μ_e/(1 + 1/Z̄).
