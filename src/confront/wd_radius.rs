@@ -660,4 +660,74 @@ mod tests {
         let ln_l = o.ln_likelihood(&[Some(0.0120)], 0.0);
         assert!((ln_l + 0.5 * (2.0 * std::f64::consts::PI * s2).ln()).abs() < 1e-12);
     }
+
+    /// The flattened evaluation of the radius term agrees with the object-by-object mixture
+    /// (`ObjectRadius::ln_likelihood`, the definition Σ_k w_k N(R_obs; R_k, σ_k)) to rounding,
+    /// over objects with several mass nodes, a node without a model and a floored object.
+    #[test]
+    fn flattened_radius_term_matches_the_definition() {
+        let std = |r: f64| WdStandard {
+            radius_rsun: r,
+            cold_rsun: 0.95 * r,
+            hot_over_cold: 1.05,
+            envelope_fraction: 0.01,
+            dln_r_dteff_per_k: 1e-6,
+        };
+        let objects: Vec<ObjectRadius> = (0..6)
+            .map(|i| {
+                let m0 = 0.5 + 0.07 * f64::from(i);
+                let nodes: Vec<(f64, f64)> = (0..9)
+                    .map(|k| {
+                        (
+                            m0 + 0.01 * f64::from(k - 4),
+                            0.11 - 0.01 * f64::from((k - 4i32).abs()),
+                        )
+                    })
+                    .collect();
+                let standard = nodes
+                    .iter()
+                    .enumerate()
+                    .map(|(k, &(m, _))| (k != 7).then(|| std(0.0125 - 0.004 * (m - 0.6))))
+                    .collect();
+                ObjectRadius {
+                    index: i as usize,
+                    // The last object sits 10⁴ σ off: its term is floored.
+                    radius_rsun: if i == 5 {
+                        1.0
+                    } else {
+                        0.0126 + 0.0001 * f64::from(i)
+                    },
+                    radius_err_rsun: 0.0002 + 0.00005 * f64::from(i),
+                    nodes,
+                    standard,
+                    floor_fraction: 0.02,
+                    shared_fraction: 0.025,
+                    teff_err_k: 300.0,
+                    at_nominal: None,
+                    mass_sigma_msun: 0.02,
+                }
+            })
+            .collect();
+        let cold: Vec<Option<f64>> = objects
+            .iter()
+            .flat_map(|o| {
+                o.nodes
+                    .iter()
+                    .map(|&(m, _)| Some(0.95 * (0.0127 - 0.004 * (m - 0.6))))
+            })
+            .collect();
+        let upsilon = 0.1;
+        let plain = radius_term(&objects, &cold, upsilon, None);
+        let mut at = 0;
+        for (o, got) in objects.iter().zip(&plain.per_object) {
+            let reference = -2.0 * o.ln_likelihood(&cold[at..at + o.nodes.len()], upsilon);
+            at += o.nodes.len();
+            assert!(
+                (got - reference).abs() <= 1e-13 * reference.abs(),
+                "{got} vs {reference}"
+            );
+        }
+        assert_eq!(plain.per_object[5], -2.0 * LN_L_RADIUS_FLOOR);
+        assert!((plain.minus_two_ln_l - plain.per_object.iter().sum::<f64>()).abs() < 1e-9);
+    }
 }
