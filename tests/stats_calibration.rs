@@ -403,9 +403,18 @@ fn calibration_table() {
             },
             small,
         ),
-        (wd_only(10, "10 white dwarfs at the Chandrasekhar edge"), small),
-        (wd_only(30, "30 white dwarfs at the Chandrasekhar edge"), small),
-        (wd_only(100, "100 white dwarfs at the Chandrasekhar edge"), small),
+        (
+            wd_only(10, "10 white dwarfs at the Chandrasekhar edge"),
+            small,
+        ),
+        (
+            wd_only(30, "30 white dwarfs at the Chandrasekhar edge"),
+            small,
+        ),
+        (
+            wd_only(100, "100 white dwarfs at the Chandrasekhar edge"),
+            small,
+        ),
         (
             Case {
                 name: "10^5 crowding the MMHB, density 2:1, standard gravity",
@@ -533,8 +542,16 @@ fn interval_miss_diagnosis() {
     for case in cases {
         for (label, lik, edge) in [
             ("product", LikelihoodChoice::Product, false),
-            ("calibrated, labels only", LikelihoodChoice::Calibrated, false),
-            ("calibrated, truncated population", LikelihoodChoice::Calibrated, true),
+            (
+                "calibrated, labels only",
+                LikelihoodChoice::Calibrated,
+                false,
+            ),
+            (
+                "calibrated, truncated population",
+                LikelihoodChoice::Calibrated,
+                true,
+            ),
         ] {
             let mut opts = options(Systematics::Shared, lik);
             opts.mass_terms.calibrated.edge_truncation = edge;

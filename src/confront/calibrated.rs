@@ -17,6 +17,11 @@
 //! bound. P_i depends on the grid point only through B, so the class is still tabulated once in
 //! B ([`CalibratedCurve`]) and every grid point is an interpolation.
 //!
+//! At a one-sided edge (every object facing the bound on the same side of it, e.g. white dwarfs
+//! below the Chandrasekhar mass) P_i is replaced by the likelihood of the population truncated
+//! at each object's own bound, with the truncated distribution's normalisation
+//! (docs/bounds.md#b8-12).
+//!
 //! **Stopping and smoothing rule.** φ starts flat; each iteration is one EM step followed by a
 //! Gaussian smoothing of width `smoothing` × the median measurement error of the objects used
 //! (default ¼: structure finer than a quarter of a typical error cannot be recovered and is not
@@ -331,9 +336,9 @@ impl GaussianSmoother {
 pub struct CalibratedOptions {
     /// The deconvolution.
     pub deconvolve: DeconvolveOptions,
-    /// Whether a one-sided edge uses the truncated-population probabilities of
-    /// [`EdgeKernel`] (default true; false keeps the label probabilities alone, for the
-    /// coverage comparison).
+    /// Whether a one-sided edge uses the truncated-population probabilities
+    /// (docs/bounds.md#b8-12; default true; false keeps the label probabilities alone, for
+    /// the coverage comparison).
     pub edge_truncation: bool,
 }
 
@@ -969,7 +974,7 @@ fn regularise(p: f64, m: &Measurement, b: f64, scatter: f64, tail_offset: f64) -
     }
 }
 
-/// P̃_i at every node of the curve for a one-sided edge ([`EdgeKernel`]): the far allowed
+/// P̃_i at every node of the curve for a one-sided edge (`EdgeKernel`): the far allowed
 /// side of the posterior times the constant G there, plus the window around the node.
 fn tabulate_object_edge(
     index: usize,
