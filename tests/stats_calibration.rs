@@ -427,7 +427,17 @@ fn calibration_table() {
     ];
     println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) ± binomial error of 4.55 % | ϒ interval at τ = 0: miss (coverage) |");
     println!("|---|---|---|---|---|");
+    // Optional filters for partial runs: only catalogues whose name contains
+    // `DWARFBOUND_CAL_ONLY`, and only the default model with `DWARFBOUND_CAL_DEFAULT_ONLY=1`.
+    let only = std::env::var("DWARFBOUND_CAL_ONLY").ok();
+    let default_only = std::env::var("DWARFBOUND_CAL_DEFAULT_ONLY").is_ok_and(|v| v == "1");
     for (case, seeds) in cases {
+        if only
+            .as_ref()
+            .is_some_and(|o| !case.name.contains(o.as_str()))
+        {
+            continue;
+        }
         let mut labels_only = options(Systematics::Shared, LikelihoodChoice::Calibrated);
         labels_only.mass_terms.calibrated.edge_truncation = false;
         let models = [
@@ -452,7 +462,7 @@ fn calibration_table() {
                 (seeds / 4).max(10),
             ),
         ];
-        for (label, opts, n) in models {
+        for (label, opts, n) in models.into_iter().take(if default_only { 1 } else { 4 }) {
             let t0 = std::time::Instant::now();
             let (excl, miss) = rates(&case, n, &opts);
             println!(
