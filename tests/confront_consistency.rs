@@ -54,3 +54,32 @@ fn no_informative_object_is_not_a_consistent_verdict() {
     let md = std::fs::read_to_string(out.join("report.md")).unwrap();
     assert!(!md.contains("**Verdict:** consistent"), "{md}");
 }
+
+// Source: the verdict counts every test in the likelihood (docs/bounds.md#b8-10). A 0.60 M☉
+// white dwarf at 10 000 K has a radius near 0.013 R☉ in standard gravity (Hamada & Salpeter
+// 1961 give 0.0125 R☉ for a cold 0.6 M☉ carbon star, from memory; a hot hydrogen envelope adds a
+// few per cent); one listed at 0.030 ± 0.0005 R☉ fails its radius test by tens of σ at every
+// grid point, while its mass (far below the Chandrasekhar mass) passes. The verdict must say
+// "not consistent" and name it, with the radius test.
+#[test]
+fn failing_radius_test_makes_the_verdict_inconsistent_and_names_the_object() {
+    let dir = tempfile::tempdir().unwrap();
+    let csv = "id,class,mass,mass_err,radius,radius_err,teff,teff_err\n\
+               STAR1,hburning,0.30,0.01,,,,\n\
+               BD1,brown_dwarf,0.050,0.002,,,,\n\
+               BIGWD,white_dwarf,0.60,0.01,0.030,0.0005,10000,200\n";
+    let (o, out) = confront_coarse(dir.path(), csv);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let c = &summary(&out)["consistency"];
+    assert_eq!(c["consistent_cl95"].as_bool(), Some(false), "{c}");
+    let failing = c["failing"].as_array().expect("failing list");
+    assert!(
+        failing
+            .iter()
+            .any(|f| f["id"] == "BIGWD" && f["test"] == "mass_radius"),
+        "{c}"
+    );
+    let md = std::fs::read_to_string(out.join("report.md")).unwrap();
+    assert!(md.contains("not consistent"), "{md}");
+    assert!(md.contains("BIGWD"), "{md}");
+}

@@ -116,12 +116,17 @@ struct Case {
     n_high: usize,
     span: (f64, f64),
     n_wd: usize,
+    /// The shared shifts fixed at these multiples of their σ (MMHB, Chandrasekhar) instead of
+    /// drawn from their priors.
+    shift_sigma: Option<(f64, f64)>,
 }
 
 fn draw(case: &Case, seed: u64) -> Vec<CatalogueObject> {
     let mut rng = SplitMix64::new(seed);
-    let b = mmhb(case.truth.0, case.truth.1) + MMHB_FLOOR * normal(&mut rng);
-    let ch = chandra(case.truth.0, case.truth.1) + CH_FLOOR * normal(&mut rng);
+    let (z_b, z_ch) = (normal(&mut rng), normal(&mut rng));
+    let (z_b, z_ch) = case.shift_sigma.unwrap_or((z_b, z_ch));
+    let b = mmhb(case.truth.0, case.truth.1) + MMHB_FLOOR * z_b;
+    let ch = chandra(case.truth.0, case.truth.1) + CH_FLOOR * z_ch;
     let mut out = Vec::new();
     for _ in 0..case.n_low {
         let m = case.span.0 + (b - case.span.0) * rng.next_f64();
@@ -202,11 +207,11 @@ fn options(systematics: Systematics, likelihood: LikelihoodChoice) -> EngineOpti
 /// Binomial acceptance of the issue: the false-exclusion rate must not exceed 8 %.
 const FAIL_ABOVE: f64 = 0.08;
 
-/// The one-parameter ϒ interval at τ = 0 is read here on the coarse grid row (no sub-grid)
-/// and measured at 10–12 % misses on these catalogues (README, statistics section): the white
-/// dwarfs are drawn uniform up to the Chandrasekhar mass, a one-sided edge on which Δχ² is
-/// not χ²-distributed. This guard only catches a regression beyond that measured level.
-const INTERVAL_MISS_GUARD: f64 = 0.15;
+/// The one-parameter ϒ interval at τ = 0 (read here on the coarse grid row, no sub-grid) is
+/// held to the same 8 % line. Before the truncated-population probabilities of a one-sided edge
+/// it missed in 10–12 % of these catalogues, driven by the white dwarfs piled up to the
+/// Chandrasekhar mass.
+const INTERVAL_MISS_GUARD: f64 = FAIL_ABOVE;
 
 const FEW: Case = Case {
     name: "few objects, standard gravity",
@@ -215,6 +220,7 @@ const FEW: Case = Case {
     n_high: 12,
     span: (0.05, 0.11),
     n_wd: 10,
+    shift_sigma: None,
 };
 
 const CROWDED_2_TO_1: Case = Case {
@@ -224,6 +230,7 @@ const CROWDED_2_TO_1: Case = Case {
     n_high: 7500,
     span: (0.05, 0.125),
     n_wd: 20,
+    shift_sigma: None,
 };
 
 const CROWDED_1_TO_2_SHIFTED: Case = Case {
@@ -233,6 +240,7 @@ const CROWDED_1_TO_2_SHIFTED: Case = Case {
     n_high: 4000,
     span: (0.04, 0.10),
     n_wd: 20,
+    shift_sigma: None,
 };
 
 #[test]
@@ -282,54 +290,190 @@ fn crowded_catalogue_false_exclusion_within_target() {
     assert!(excl > 0.5, "the old default should fail here ({excl})");
 }
 
-/// The full table for the README (10⁵ objects, 400 seeds): prints one line per case and model.
+/// White dwarfs only, uniform in [1.0 M☉, B_Ch) with B_Ch the truth shifted by its shared
+/// draw: the one-sided Chandrasekhar edge on its own.
+const fn wd_only(n_wd: usize, name: &'static str) -> Case {
+    Case {
+        name,
+        truth: (0.0, 0.0),
+        n_low: 0,
+        n_high: 0,
+        span: (0.05, 0.11),
+        n_wd,
+        shift_sigma: None,
+    }
+}
+
 #[test]
-#[ignore = "minutes; prints the calibration table of the README"]
+fn chandrasekhar_edge_interval_coverage() {
+    // Target: the ϒ interval at τ = 0 (Δχ² ≤ 4, one parameter) misses the truth in 4.55 % of
+    // catalogues (definition of the level); fail above 8 % (the issue's rule). Before the
+    // truncation normalisation the calibrated likelihood missed in 6.0 % (10 white dwarfs)
+    // and 10 % (30), the product likelihood in 11.5 % and 57.5 %.
+    let defaults = EngineOptions {
+        reduce: fast_reduce(),
+        ..Default::default()
+    };
+    for case in [
+        wd_only(10, "10 white dwarfs at the edge"),
+        wd_only(30, "30 white dwarfs at the edge"),
+    ] {
+        let (excl, miss) = rates(&case, 200, &defaults);
+        eprintln!(
+            "{}: false exclusion {excl:.3}, ϒ-interval miss {miss:?}",
+            case.name
+        );
+        assert!(excl <= FAIL_ABOVE, "{}: false exclusion {excl}", case.name);
+        assert!(
+            miss.is_some_and(|m| m <= FAIL_ABOVE),
+            "{}: interval miss {miss:?}",
+            case.name
+        );
+    }
+    // The test has power: the label probabilities alone (no truncation) miss the truth well
+    // above the line with 30 white dwarfs at the edge (measured 10 % at 200 seeds before).
+    let mut labels_only = options(Systematics::Shared, LikelihoodChoice::Calibrated);
+    labels_only.mass_terms.calibrated.edge_truncation = false;
+    let (_, miss) = rates(&wd_only(30, "30 white dwarfs"), 200, &labels_only);
+    eprintln!("30 white dwarfs, label probabilities only: ϒ-interval miss {miss:?}");
+    assert!(miss.is_some_and(|m| m > FAIL_ABOVE), "{miss:?}");
+}
+
+#[test]
+fn anchor_shifted_by_one_sigma_gives_no_false_detection() {
+    // The issue's acceptance: the MMHB anchor (and the Chandrasekhar floor) shifted by +1σ or
+    // −1σ in the synthetic truth, for every seed, must not exclude the truth beyond the nominal
+    // rate; the line is the same 8 % (target 4.55 %, binomial error ±1.5 % at 200 seeds).
+    // A fixed 1σ shift costs 1 in χ² at the truth through the prior, so the rate sits above
+    // the rate with shifts drawn from the prior but must stay under the line.
+    let defaults = EngineOptions {
+        reduce: fast_reduce(),
+        ..Default::default()
+    };
+    for z in [1.0, -1.0] {
+        let case = Case {
+            name: "few objects, shared shifts fixed at ±1σ",
+            shift_sigma: Some((z, z)),
+            ..FEW
+        };
+        let (excl, miss) = rates(&case, 200, &defaults);
+        eprintln!(
+            "{} (z = {z}): false exclusion {excl:.3}, ϒ-interval miss {miss:?}",
+            case.name
+        );
+        assert!(excl <= FAIL_ABOVE, "z = {z}: false exclusion {excl}");
+        assert!(
+            miss.is_some_and(|m| m <= FAIL_ABOVE),
+            "z = {z}: interval miss {miss:?}"
+        );
+    }
+}
+
+/// Seeds from an environment variable, or the default.
+fn env_seeds(var: &str, default: u64) -> u64 {
+    std::env::var(var)
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(default)
+}
+
+/// The full table for the README: one line per catalogue and model, with the binomial error
+/// of the target rate at that many seeds (√(p(1 − p)/n), p = 0.0455) and the interval's
+/// coverage. Seeds: `DWARFBOUND_CAL_SEEDS` (default 400) for the small catalogues,
+/// `DWARFBOUND_CAL_SEEDS_1E4` (200) for 10⁴ objects and `DWARFBOUND_CAL_SEEDS_1E5` (40) for
+/// 10⁵; the other models than the default get a quarter of those (they are there to show what
+/// the default replaces). Lines are printed as they are measured.
+#[test]
+#[ignore = "tens of minutes; prints the calibration table of the README"]
 fn calibration_table() {
     let big = |c: Case| Case {
         n_low: c.n_low * 10,
         n_high: c.n_high * 10,
         ..c
     };
+    let small = env_seeds("DWARFBOUND_CAL_SEEDS", 400);
+    let mid = env_seeds("DWARFBOUND_CAL_SEEDS_1E4", 200);
+    let large = env_seeds("DWARFBOUND_CAL_SEEDS_1E5", 40);
     let cases = [
-        FEW,
-        CROWDED_2_TO_1,
-        CROWDED_1_TO_2_SHIFTED,
-        Case {
-            name: "10^5 crowding the MMHB, density 2:1, standard gravity",
-            ..big(CROWDED_2_TO_1)
-        },
+        (FEW, small),
+        (
+            Case {
+                name: "few objects, shared shifts fixed at +1σ",
+                shift_sigma: Some((1.0, 1.0)),
+                ..FEW
+            },
+            small,
+        ),
+        (
+            wd_only(10, "10 white dwarfs at the Chandrasekhar edge"),
+            small,
+        ),
+        (
+            wd_only(30, "30 white dwarfs at the Chandrasekhar edge"),
+            small,
+        ),
+        (
+            wd_only(100, "100 white dwarfs at the Chandrasekhar edge"),
+            small,
+        ),
+        (
+            Case {
+                name: "10^5 crowding the MMHB, density 2:1, standard gravity",
+                ..big(CROWDED_2_TO_1)
+            },
+            large,
+        ),
+        (CROWDED_2_TO_1, mid),
+        (CROWDED_1_TO_2_SHIFTED, mid),
     ];
-    println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) | ϒ-interval miss at τ = 0 |");
+    println!("| catalogue | model | seeds | false exclusion (95.45 %, 2 par.) ± binomial error of 4.55 % | ϒ interval at τ = 0: miss (coverage) |");
     println!("|---|---|---|---|---|");
-    for case in cases {
-        let seeds = if case.n_low + case.n_high > 20_000 {
-            200
-        } else {
-            400
-        };
-        for (label, opts) in [
+    // Optional filters for partial runs: only catalogues whose name contains
+    // `DWARFBOUND_CAL_ONLY`, and only the default model with `DWARFBOUND_CAL_DEFAULT_ONLY=1`.
+    let only = std::env::var("DWARFBOUND_CAL_ONLY").ok();
+    let default_only = std::env::var("DWARFBOUND_CAL_DEFAULT_ONLY").is_ok_and(|v| v == "1");
+    for (case, seeds) in cases {
+        if only
+            .as_ref()
+            .is_some_and(|o| !case.name.contains(o.as_str()))
+        {
+            continue;
+        }
+        let mut labels_only = options(Systematics::Shared, LikelihoodChoice::Calibrated);
+        labels_only.mass_terms.calibrated.edge_truncation = false;
+        let models = [
             (
                 "default (shared, profiled; auto likelihood)",
                 options(Systematics::Shared, LikelihoodChoice::Auto),
+                seeds,
+            ),
+            (
+                "calibrated, label probabilities only (before this version)",
+                labels_only,
+                (seeds / 4).max(10),
             ),
             (
                 "shared, product likelihood",
                 options(Systematics::Shared, LikelihoodChoice::Product),
+                (seeds / 4).max(10),
             ),
             (
                 "per-object floor, product (old default)",
                 options(Systematics::PerObject, LikelihoodChoice::Product),
+                (seeds / 4).max(10),
             ),
-        ] {
-            let (excl, miss) = rates(&case, seeds, &opts);
+        ];
+        for (label, opts, n) in models.into_iter().take(if default_only { 1 } else { 4 }) {
+            let t0 = std::time::Instant::now();
+            let (excl, miss) = rates(&case, n, &opts);
             println!(
-                "| {} | {label} | {seeds} | {:.3} ± {:.3} | {} |",
+                "| {} | {label} | {n} | {:.3} ± {:.3} | {} |",
                 case.name,
                 excl,
-                (excl.max(0.0455) * (1.0 - excl.max(0.0455)) / seeds as f64).sqrt(),
-                miss.map_or("—".to_string(), |m| format!("{m:.3}"))
+                (0.0455 * (1.0 - 0.0455) / n as f64).sqrt(),
+                miss.map_or("—".to_string(), |m| format!("{m:.3} ({:.3})", 1.0 - m))
             );
+            eprintln!("  ({:.0} s)", t0.elapsed().as_secs_f64());
         }
     }
 }
@@ -399,28 +543,29 @@ fn interval_miss_diagnosis() {
             n_wd: 0,
             ..FEW
         },
-        Case {
-            name: "white dwarfs only",
-            n_low: 0,
-            n_high: 0,
-            ..FEW
-        },
-        Case {
-            name: "30 white dwarfs only",
-            n_low: 0,
-            n_high: 0,
-            n_wd: 30,
-            ..FEW
-        },
+        wd_only(3, "3 white dwarfs only"),
+        wd_only(10, "10 white dwarfs only"),
+        wd_only(30, "30 white dwarfs only"),
+        wd_only(100, "100 white dwarfs only"),
     ];
     println!("| catalogue | likelihood | seeds | Δχ² > 1 | Δχ² > 4 | Δχ² > 9 | mean Δχ² |");
     println!("|---|---|---|---|---|---|---|");
     for case in cases {
-        for (label, lik) in [
-            ("product", LikelihoodChoice::Product),
-            ("calibrated", LikelihoodChoice::Calibrated),
+        for (label, lik, edge) in [
+            ("product", LikelihoodChoice::Product, false),
+            (
+                "calibrated, labels only",
+                LikelihoodChoice::Calibrated,
+                false,
+            ),
+            (
+                "calibrated, truncated population",
+                LikelihoodChoice::Calibrated,
+                true,
+            ),
         ] {
-            let opts = options(Systematics::Shared, lik);
+            let mut opts = options(Systematics::Shared, lik);
+            opts.mass_terms.calibrated.edge_truncation = edge;
             let d: Vec<f64> = seeds
                 .par_iter()
                 .map(|&s| slice_dchi2_at_truth(&case, s, &opts))

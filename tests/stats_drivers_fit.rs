@@ -352,3 +352,93 @@ fn other_floor_slice_switches_the_shared_radius_scale_too() {
         assert!(differs);
     }
 }
+
+/// A calibrated catalogue: 40 objects crowding the MMHB from both sides and 12 white dwarfs up
+/// to the Chandrasekhar mass (a one-sided edge), masses on a fixed pattern.
+fn calibrated_catalogue() -> Vec<CatalogueObject> {
+    let mut out = Vec::new();
+    for k in 0..20 {
+        let f = (k as f64 + 0.5) / 20.0;
+        out.push(object(
+            out.len(),
+            ObjectClass::BrownDwarf,
+            0.060 + 0.0145 * f,
+            0.002,
+        ));
+        out.push(object(
+            out.len(),
+            ObjectClass::HBurning,
+            0.0755 + 0.02 * f,
+            0.003,
+        ));
+    }
+    for k in 0..12 {
+        let f = (k as f64 + 0.5) / 12.0;
+        out.push(object(
+            out.len(),
+            ObjectClass::WhiteDwarf,
+            1.0 + 0.39 * f,
+            0.02,
+        ));
+    }
+    out
+}
+
+/// The drivers of a calibrated run hold the deconvolved mass function fixed; a re-run without
+/// the object estimates it again. The difference is the effect of not re-estimating it (the
+/// report prints shifts to 3 significant digits, so anything above ~0.5 % shows). Measured
+/// here: the heaviest of 12 white dwarfs at the Chandrasekhar edge moves the interval by 0.0662
+/// with φ fixed and by 0.0712 when φ is re-estimated without it (7.6 %), the second heaviest by
+/// 0.0181 against 0.0254 (40 %): at a sparsely populated edge the mass function depends visibly
+/// on its top objects, and holding it fixed understates their shifts. Not re-estimated in this
+/// version (docs/bounds.md#b8-6 says so); this test keeps the two within a factor of 2 so a
+/// regression shows. Smaller shifts are printed but not compared.
+#[test]
+fn calibrated_drivers_with_the_mass_function_held_fixed_match_a_rerun() {
+    let s = surface();
+    let objects = calibrated_catalogue();
+    let mut opts = EngineOptions::default();
+    opts.mass_terms.likelihood = LikelihoodChoice::Calibrated;
+    let conf = confront(&objects, &s, &opts).unwrap();
+    let slice = tau0_slice(&conf, &s).unwrap().unwrap();
+    let fit = slice_drivers_in_fit(&conf, &slice, &DriverOptions::default()).unwrap();
+    let base = slice.slice.intervals[1];
+    let mut worst: f64 = 0.0;
+    let mut compared = 0;
+    for d in fit.iter().filter(|d| d.shift.is_finite() && d.shift > 0.0) {
+        let rest: Vec<CatalogueObject> = objects
+            .iter()
+            .enumerate()
+            .filter(|(k, _)| *k != d.object)
+            .map(|(_, o)| o.clone())
+            .collect();
+        let c2 = confront(&rest, &s, &opts).unwrap();
+        let s2 = tau0_slice(&c2, &s).unwrap().unwrap();
+        let iv = s2.slice.intervals[1];
+        let shift = |a: Option<f64>, b: Option<f64>| match (a, b) {
+            (Some(a), Some(b)) => (a - b).abs(),
+            (None, None) => 0.0,
+            _ => f64::INFINITY,
+        };
+        let brute = shift(base.lower, iv.lower).max(shift(base.upper, iv.upper));
+        eprintln!(
+            "object {} ({:?}): shift with φ fixed {:.6}, re-run with φ re-estimated {brute:.6}",
+            d.object, objects[d.object].class, d.shift
+        );
+        if d.shift < 0.01 {
+            // Shifts below a few fine-grid steps (0.005) move with the interval's interpolation
+            // (measured here: up to a factor 2.5 either way for shifts of 0.0003–0.004).
+            continue;
+        }
+        worst = worst.max((brute - d.shift).abs() / d.shift);
+        compared += 1;
+        assert!(
+            brute <= 2.0 * d.shift + 1e-4 && d.shift <= 2.0 * brute + 1e-4,
+            "object {}: in fit {} vs rerun {brute}",
+            d.object,
+            d.shift
+        );
+    }
+    eprintln!("{compared} drivers compared; largest relative difference {worst:.4}");
+    assert!(compared > 0, "some object must drive the interval");
+}

@@ -17,6 +17,11 @@
 //! bound. P_i depends on the grid point only through B, so the class is still tabulated once in
 //! B ([`CalibratedCurve`]) and every grid point is an interpolation.
 //!
+//! At a one-sided edge (every object facing the bound on the same side of it, e.g. white dwarfs
+//! below the Chandrasekhar mass) P_i is replaced by the likelihood of the population truncated
+//! at each object's own bound, with the truncated distribution's normalisation
+//! (docs/bounds.md#b8-12).
+//!
 //! **Stopping and smoothing rule.** φ starts flat; each iteration is one EM step followed by a
 //! Gaussian smoothing of width `smoothing` × the median measurement error of the objects used
 //! (default ¼: structure finer than a quarter of a typical error cannot be recovered and is not
@@ -327,10 +332,145 @@ impl GaussianSmoother {
 }
 
 /// Settings of the calibrated class curve.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct CalibratedOptions {
     /// The deconvolution.
     pub deconvolve: DeconvolveOptions,
+    /// Whether a one-sided edge uses the truncated-population probabilities
+    /// (docs/bounds.md#b8-12; default true; false keeps the label probabilities alone, for
+    /// the coverage comparison).
+    pub edge_truncation: bool,
+}
+
+impl Default for CalibratedOptions {
+    fn default() -> Self {
+        Self {
+            deconvolve: DeconvolveOptions::default(),
+            edge_truncation: true,
+        }
+    }
+}
+
+/// The likelihood of a one-sided edge as the truncation point of the population.
+///
+/// When every object facing a bound must lie on the same side of it (only white dwarfs at the
+/// Chandrasekhar mass, say), the label probability P_i(B) of the module text can only grow as
+/// the bound moves away from the data. At the true edge each object near it keeps P_i < 1 (its
+/// posterior, with φ smoothed, leaks past the edge), the shortfalls add up over objects, and Δχ²
+/// at the truth is no longer χ²-distributed: the interval under-covers more the more objects
+/// sit at the edge. The fix is to write the likelihood of the masses under the population model
+/// *truncated* at the bound, with the truncated distribution's normalisation (the likelihood of
+/// a truncation point, Hall 1982, Ann. Stat. 10, 556; the same model gives the neutron-star
+/// maximum mass in Alsing, Silva & Berti 2018, MNRAS 478, 1377). Each object has its own bound
+/// B + ε, ε ~ N(0, s²) the per-object scatter, and its true mass is drawn from φ truncated
+/// there:
+///
+/// f(m | B) = φ(m) G(m, B),  G(m, B) = ∫ N(ε; 0, s²) 1[m ≤ B + ε] / F(B + ε) dε,
+///
+/// F(x) = ∫_{m ≤ x} φ (mirrored, m ≥ B + ε, for a lower edge). Relative to the untruncated
+/// model each object's likelihood is multiplied by P̃_i(B) = ∫ post_i(m) G(m, B) dm, which
+/// replaces P_i. Where the whole population lies inside the cut (F = 1) this is P_i again;
+/// near the edge 1/F ≥ 1 gives back exactly the probability that truncating a population
+/// removes from its tail, so the likelihood is flat once the bound has passed the data instead of
+/// rising to the grid edge; and a population lying beyond the bound is still penalised as
+/// before, because the truncated model cannot put mass where F vanishes. G is tabulated per
+/// node on the mass grid (ε on the same cells), so the cost per object and node stays
+/// O(window).
+#[derive(Debug, Clone)]
+struct EdgeKernel {
+    side: Side,
+    /// Half-width W in cells of the kernel window around the node's cell.
+    half: usize,
+    /// Per node: G on the far allowed side (constant there).
+    far: Vec<f64>,
+    /// Per node: G at cells K − W ..= K + W, K the node's cell.
+    window: Vec<Vec<f64>>,
+}
+
+/// ε weights on the cell grid: ω_j for j = −D..=D (tails folded into the end cells).
+fn epsilon_weights(scatter: f64, h: f64, d_half: usize) -> Vec<f64> {
+    if scatter <= 0.0 || d_half == 0 {
+        return vec![1.0];
+    }
+    let d = d_half as isize;
+    (-d..=d)
+        .map(|j| {
+            let lo = if j == -d {
+                0.0
+            } else {
+                normal_cdf((j as f64 - 0.5) * h / scatter)
+            };
+            let hi = if j == d {
+                1.0
+            } else {
+                normal_cdf((j as f64 + 0.5) * h / scatter)
+            };
+            hi - lo
+        })
+        .collect()
+}
+
+impl EdgeKernel {
+    /// G(k, B) for every cell k, B = a cut at fractional cell position `pos` (cell centres at
+    /// integers): a cut at x keeps cell k with weight a = clamp(½ + (x − k), 0, 1) (upper edge)
+    /// or clamp(½ − (x − k), 0, 1) (lower edge).
+    fn kernel_at(phi: &[f64], side: Side, omega: &[f64], pos: f64) -> Vec<f64> {
+        let n = phi.len();
+        let d = (omega.len() / 2) as f64;
+        // cumulative: cum[k] = Σ_{k' < k} φ
+        let mut cum = vec![0.0; n + 1];
+        for k in 0..n {
+            cum[k + 1] = cum[k] + phi[k];
+        }
+        let total = cum[n];
+        let keep = |k: usize, x: f64| -> f64 {
+            let t = x - k as f64;
+            match side {
+                Side::AtMost => (0.5 + t).clamp(0.0, 1.0),
+                Side::AtLeast => (0.5 - t).clamp(0.0, 1.0),
+            }
+        };
+        let mass_kept = |x: f64| -> f64 {
+            // Σ_k φ_k keep(k, x): full cells on the allowed side, the fractional cell(s) at x.
+            let f = (x + 0.5).floor();
+            let kk = f.clamp(0.0, n as f64) as usize;
+            let frac = if f >= 0.0 && (f as usize) < n {
+                phi[f as usize] * keep(f as usize, x)
+            } else {
+                0.0
+            };
+            match side {
+                Side::AtMost => cum[kk] + frac,
+                Side::AtLeast => {
+                    let above = if f + 1.0 <= n as f64 && f + 1.0 >= 0.0 {
+                        total - cum[(f + 1.0) as usize]
+                    } else if f + 1.0 < 0.0 {
+                        total
+                    } else {
+                        0.0
+                    };
+                    above + frac
+                }
+            }
+        };
+        let mut g = vec![0.0; n];
+        let tiny = 1e-300;
+        for (j, w) in omega.iter().enumerate() {
+            let x = pos + j as f64 - d;
+            let f = mass_kept(x);
+            if f <= tiny {
+                continue;
+            }
+            let c = w / f;
+            for (k, gk) in g.iter_mut().enumerate() {
+                let a = keep(k, x);
+                if a > 0.0 {
+                    *gk += c * a;
+                }
+            }
+        }
+        g
+    }
 }
 
 /// Below this, the calibrated P (whose posterior is cut at ±6σ and so ends abruptly) is
@@ -375,6 +515,11 @@ pub struct CalibratedCurve {
     /// Per class: informative positions (calibrated and flat), ascending.
     informative: Vec<Vec<usize>>,
     achieved_error: f64,
+    /// The truncated-population kernel of a one-sided edge; `None` when classes on both sides
+    /// meet at the bound.
+    edge: Option<EdgeKernel>,
+    /// ε weights of the per-object scatter on the cell grid (for direct evaluation).
+    omega: Vec<f64>,
 }
 
 impl CalibratedCurve {
@@ -443,6 +588,11 @@ impl CalibratedCurve {
             .filter(|&(m, _, _)| m >= dom.0 && m <= dom.1)
             .collect();
         let phi = deconvolve(&all, dom, dopts)?;
+        // A one-sided edge: every object facing the bound must lie on the same side of it.
+        let mut sides = classes.iter().flat_map(|ms| ms.iter()).map(|m| m.side);
+        let edge_side = sides
+            .next()
+            .filter(|&first| opts.edge_truncation && sides.all(|s| s == first));
         let h = phi.cell_msun;
         let n_cells = phi.weights.len();
         // Nodes: cell centres inside [b_lo − h, b_hi + h].
@@ -465,6 +615,40 @@ impl CalibratedCurve {
                 }
             })
             .collect();
+        let edge = edge_side.map(|side| {
+            let omega = epsilon_weights(scatter_msun, h, d_half);
+            let half = d_half + 1;
+            let per_node: Vec<(f64, Vec<f64>)> = (0..n_nodes)
+                .into_par_iter()
+                .map(|g| {
+                    let kc = node_first_cell + g;
+                    let full = EdgeKernel::kernel_at(&phi.weights, side, &omega, kc as f64);
+                    let far_cell = match side {
+                        Side::AtMost => kc.checked_sub(half + 1),
+                        Side::AtLeast => Some(kc + half + 1).filter(|&k| k < n_cells),
+                    };
+                    let far = far_cell.map_or(0.0, |k| full[k]);
+                    let win = (0..=2 * half)
+                        .map(|j| {
+                            let k = kc as isize + j as isize - half as isize;
+                            if k >= 0 && (k as usize) < n_cells {
+                                full[k as usize]
+                            } else {
+                                0.0
+                            }
+                        })
+                        .collect();
+                    (far, win)
+                })
+                .collect();
+            let (far, window) = per_node.into_iter().unzip();
+            EdgeKernel {
+                side,
+                half,
+                far,
+                window,
+            }
+        });
         let mut objects = Vec::new();
         let mut flat = Vec::new();
         let mut informative = Vec::new();
@@ -510,16 +694,19 @@ impl CalibratedCurve {
                         return None;
                     }
                     post.iter_mut().for_each(|v| *v /= tot);
-                    let mut o = tabulate_object(
-                        i,
-                        m,
-                        first,
-                        post,
-                        node_first_cell,
-                        n_nodes,
-                        d_half,
-                        &table,
-                    );
+                    let mut o = match &edge {
+                        Some(e) => tabulate_object_edge(i, m, first, post, node_first_cell, e),
+                        None => tabulate_object(
+                            i,
+                            m,
+                            first,
+                            post,
+                            node_first_cell,
+                            n_nodes,
+                            d_half,
+                            &table,
+                        ),
+                    };
                     // Join the flat-prior tail at the last node above the switch.
                     let ps = &o.p_nodes;
                     let join = (0..ps.len()).find(|&j| {
@@ -558,6 +745,8 @@ impl CalibratedCurve {
             flat,
             informative,
             achieved_error: f64::NAN,
+            edge,
+            omega: epsilon_weights(scatter_msun, h, d_half),
         };
         let xs: Vec<f64> = (0..n_nodes).map(|g| curve.node_b(g)).collect();
         let per_class: Vec<Vec<f64>> = (0..n_nodes)
@@ -626,7 +815,28 @@ impl CalibratedCurve {
         regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
     }
 
+    /// The edge kernel G(k, b) over every cell at an arbitrary bound b (direct evaluation).
+    fn edge_kernel_at(&self, b: f64) -> Option<Vec<f64>> {
+        self.edge.as_ref().map(|e| {
+            let pos = (b - self.phi.lo_msun) / self.phi.cell_msun - 0.5;
+            EdgeKernel::kernel_at(&self.phi.weights, e.side, &self.omega, pos)
+        })
+    }
+
+    fn ln_p_with_kernel(&self, o: &CalObject, kernel: &[f64], b: f64) -> f64 {
+        let p: f64 = o
+            .posterior
+            .iter()
+            .zip(&kernel[o.first_cell..])
+            .map(|(w, g)| w * g)
+            .sum();
+        regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+    }
+
     fn ln_p_direct(&self, o: &CalObject, b: f64) -> f64 {
+        if let Some(k) = self.edge_kernel_at(b) {
+            return self.ln_p_with_kernel(o, &k, b);
+        }
         let h = self.phi.cell_msun;
         let mut p = 0.0;
         for (j, w) in o.posterior.iter().enumerate() {
@@ -680,8 +890,12 @@ impl CalibratedCurve {
     fn exact_class(&self, class: usize, b_msun: f64) -> f64 {
         let mut acc = NeumaierSum::default();
         if let (Some(cal), Some(fl)) = (self.objects.get(class), self.flat.get(class)) {
+            let kernel = self.edge_kernel_at(b_msun);
             for o in cal {
-                acc.add(self.ln_p_direct(o, b_msun));
+                acc.add(match &kernel {
+                    Some(k) => self.ln_p_with_kernel(o, k, b_msun),
+                    None => self.ln_p_direct(o, b_msun),
+                });
             }
             for (_, m) in fl {
                 acc.add(ln_prob_consistent(m, b_msun, self.scatter_msun));
@@ -757,6 +971,56 @@ fn regularise(p: f64, m: &Measurement, b: f64, scatter: f64, tail_offset: f64) -
         p.ln()
     } else {
         ln_prob_consistent(m, b, scatter) + tail_offset
+    }
+}
+
+/// P̃_i at every node of the curve for a one-sided edge (`EdgeKernel`): the far allowed
+/// side of the posterior times the constant G there, plus the window around the node.
+fn tabulate_object_edge(
+    index: usize,
+    m: Measurement,
+    first_cell: usize,
+    post: Vec<f64>,
+    node_first_cell: usize,
+    e: &EdgeKernel,
+) -> CalObject {
+    let len = post.len() as isize;
+    let n_nodes = e.far.len();
+    let w = e.half as isize;
+    // prefix[j] = Σ_{k < j} post[k]
+    let mut prefix = vec![0.0; post.len() + 1];
+    for j in 0..post.len() {
+        prefix[j + 1] = prefix[j] + post[j];
+    }
+    let total = prefix[post.len()];
+    let p_nodes: Vec<f64> = (0..n_nodes)
+        .map(|g| {
+            // The node's cell in posterior indices.
+            let c = (node_first_cell + g) as isize - first_cell as isize;
+            let far_mass = match e.side {
+                // cells k < c − W
+                Side::AtMost => prefix[(c - w).clamp(0, len) as usize],
+                // cells k > c + W
+                Side::AtLeast => total - prefix[(c + w + 1).clamp(0, len) as usize],
+            };
+            let mut p = e.far[g] * far_mass;
+            for (j, gk) in e.window[g].iter().enumerate() {
+                let k = c + j as isize - w;
+                if k >= 0 && k < len {
+                    p += post[k as usize] * gk;
+                }
+            }
+            p.max(0.0)
+        })
+        .collect();
+    CalObject {
+        index,
+        measurement: m,
+        first_cell,
+        posterior: post,
+        first_node: 0,
+        p_nodes,
+        tail_offset: 0.0,
     }
 }
 

@@ -752,8 +752,8 @@ impl OutputContext<'_> {
             "nuisance_method": mt.method.name(),
             "likelihood_choice": mt.likelihood.name(),
             "auto_rule": format!(
-                "calibrated when at least {} objects of the bound's classes lie within {}σ of the grid's range of the bound",
-                mt.auto_min_near, mt.auto_z
+                "calibrated when at least {} objects of the bound's classes lie within {}σ of the grid's range of the bound, or at least {} when every one of them lies on the same side of it (a one-sided edge, which then uses the truncated-population probabilities)",
+                mt.auto_min_near, mt.auto_z, mt.auto_min_near_edge
             ),
             "bounds": bounds,
         })
