@@ -216,10 +216,9 @@ pub fn vet_streaming(
     let mut vetter: Option<RowVetter<'_>> = None;
     for &(offset, rows) in &slices {
         let df = guard::quietly(|| -> Result<DataFrame, String> {
-            let mut reader =
-                ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?)
-                    .with_slice(Some((offset, rows)))
-                    .with_columns(columns.clone());
+            let mut reader = ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?)
+                .with_slice(Some((offset, rows)))
+                .with_columns(columns.clone());
             reader.set_metadata(metadata.clone());
             finish(reader, columns.as_deref())
         })
@@ -262,7 +261,8 @@ pub fn vet_streaming(
         let mut slice_columns = Vec::with_capacity(df.width());
         for (col, text) in df.columns().iter().zip(&text) {
             let name = col.name().as_str();
-            let bad = |e: PolarsError| invalid(format!("column `{name}`: {}", one_line(&e.to_string())));
+            let bad =
+                |e: PolarsError| invalid(format!("column `{name}`: {}", one_line(&e.to_string())));
             let c = match text {
                 Some(t) => SliceColumn::Text(t.str().map_err(bad)?.iter().collect()),
                 None => SliceColumn::Cells(column_cells(col).map_err(bad)?),
@@ -388,10 +388,22 @@ mod tests {
         // duplicate id, a null mass, a NaN mass and an implausible brown dwarf among the rows.
         let n = 140_000usize;
         let ids: Vec<String> = (0..n)
-            .map(|i| if i == 100_001 { "S5".into() } else { format!("S{i}") })
+            .map(|i| {
+                if i == 100_001 {
+                    "S5".into()
+                } else {
+                    format!("S{i}")
+                }
+            })
             .collect();
         let class: Vec<&str> = (0..n)
-            .map(|i| if i % 3 == 0 { "brown_dwarf" } else { "hburning" })
+            .map(|i| {
+                if i % 3 == 0 {
+                    "brown_dwarf"
+                } else {
+                    "hburning"
+                }
+            })
             .collect();
         let mass: Vec<Option<f64>> = (0..n)
             .map(|i| match i {

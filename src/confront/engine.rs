@@ -227,9 +227,13 @@ impl Default for Flags {
 }
 
 impl Flags {
+    /// Raises a flag given as an owned name (as [`Flags::raise`]).
+    pub fn push(&mut self, flag: String) {
+        self.raise(&flag);
+    }
+
     /// Raises a flag (after those already raised).
-    pub fn push(&mut self, flag: impl AsRef<str>) {
-        let flag = flag.as_ref();
+    pub fn raise(&mut self, flag: &str) {
         let code = KNOWN_FLAGS.iter().position(|k| *k == flag);
         if let FlagStore::Inline { codes, len } = &mut self.0 {
             if let Some(c) = code.filter(|_| usize::from(*len) < INLINE_FLAGS) {
@@ -438,7 +442,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
             if term != Term::WhiteDwarfMass {
                 match o.age_gyr {
                     Some(age) if age < opts.age_min_mmhb_gyr => {
-                        flags.push("young");
+                        flags.raise("young");
                         if !opts.include_young {
                             excluded = Some(format!(
                                 "young (age {age} Gyr < {} Gyr)",
@@ -448,7 +452,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                     }
                     Some(_) => {}
                     None => {
-                        flags.push("age_unknown");
+                        flags.raise("age_unknown");
                         if opts.exclude_age_unknown {
                             excluded = Some("age unknown".to_string());
                         }
@@ -456,11 +460,11 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                 }
             }
             if !measurement.informative() {
-                flags.push("limit_uninformative");
+                flags.raise("limit_uninformative");
             }
             match o.mass_method {
                 MassMethod::Model => {
-                    flags.push("model_mass");
+                    flags.raise("model_mass");
                     if !opts.radius.include_model_masses && excluded.is_none() {
                         excluded = Some(
                             "mass from a standard-gravity model (circular for this test)"
@@ -468,7 +472,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                         );
                     }
                 }
-                MassMethod::Unknown => flags.push("mass_method_unknown"),
+                MassMethod::Unknown => flags.raise("mass_method_unknown"),
                 MassMethod::Dynamical | MassMethod::Redshift => {}
             }
             let is_wd = o.class == ObjectClass::WhiteDwarf;
@@ -477,12 +481,12 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
             if radius_term {
                 if let Some((flag, why)) = wd_radius::radius_domain(o, &opts.radius) {
                     if flag != "model_mass" {
-                        flags.push(flag);
+                        flags.raise(flag);
                     }
                     radius_excluded = Some(why);
                     radius_term = false;
                 } else if o.radius_model_rsun.is_some() {
-                    flags.push("radius_anchored");
+                    flags.raise("radius_anchored");
                 }
             }
             ObjectUse {
@@ -662,7 +666,7 @@ pub fn confront(
             }
             let u = &mut uses[r.index];
             u.radius_term = false;
-            u.flags.push("outside_model");
+            u.flags.raise("outside_model");
             u.radius_excluded = Some(
                 "no finite-temperature model at its mass, Teff and core (outside the model's table \
                  or no hydrostatic solution)"
@@ -954,19 +958,19 @@ mod tests {
         // storage is not allowed to change it (common practice, no source).
         let mut f = Flags::default();
         assert!(f.is_empty());
-        f.push("age_unknown");
+        f.raise("age_unknown");
         f.push("mass_method_unknown".to_string());
         assert_eq!(f.join(";"), "age_unknown;mass_method_unknown");
         assert!(f.contains("age_unknown") && !f.contains("young"));
-        f.push("a_new_flag");
-        f.push("young");
+        f.raise("a_new_flag");
+        f.raise("young");
         assert_eq!(
             f.iter().collect::<Vec<_>>(),
             ["age_unknown", "mass_method_unknown", "a_new_flag", "young"]
         );
         let mut many = Flags::default();
         for _ in 0..20 {
-            many.push("elm");
+            many.raise("elm");
         }
         assert_eq!(many.iter().count(), 20);
     }
