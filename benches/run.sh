@@ -106,6 +106,8 @@ work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 results="$work/results.txt"
 : >"$results"
+# The load average beside the numbers: on a shared machine the wall-clock ratios move with it.
+echo "loadavg_start $(cut -d' ' -f1 /proc/loadavg)" >>"$results"
 
 measure() { # measure KEY COMMAND...: wall seconds and peak MB of one run, appended to $results
     local key=$1
@@ -159,6 +161,7 @@ measure confront_csv_1000000_single_point "$BIN" confront "$data/scale_1000000.c
     --upsilon=0 --tau=0 --out "$work/c1"
 measure confront_parquet_1000000 "$BIN" confront "$data/scale_1000000.parquet" "${GRID[@]}" \
     --cache "$cache" --out "$work/c"
+echo "loadavg_end $(cut -d' ' -f1 /proc/loadavg)" >>"$results"
 
 python3 - "$results" "$(git rev-parse --short HEAD 2>/dev/null || echo unknown)" "$(nproc)" "${BENCH_JSON:-target/bench-catalogue.json}" <<'PY'
 import json, sys
@@ -179,7 +182,8 @@ rows = [
     ("vet 10^6 / polars read, CPU", r["vet_csv_1000000_cpu_s"] / r["polars_csv_1000000_cpu_s"], "-"),
 ]
 print()
-print(f"== catalogue ratios ({sys.argv[3]} cores, commit {sys.argv[2]}; wall clock unless CPU) ==")
+print(f"== catalogue ratios ({sys.argv[3]} cores, commit {sys.argv[2]}; wall clock unless CPU;"
+      f" load average {r['loadavg_start']:.1f} at the start, {r['loadavg_end']:.1f} at the end) ==")
 for what, value, target in rows:
     print(f"  {what:34s} {value:8.2f}   (target {target})")
 print()

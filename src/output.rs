@@ -169,9 +169,21 @@ impl Drop for AtomicFile {
 /// Formats a float so that it round-trips exactly (Rust's shortest representation), or an empty
 /// string for a missing value. NaN and infinities never reach an output file.
 pub fn fmt_f64(x: Option<f64>) -> String {
+    let mut s = String::new();
+    push_f64(&mut s, x);
+    s
+}
+
+/// Appends what [`fmt_f64`] returns to `buf`: the large tables format every number into one
+/// reused buffer instead of a new string per cell.
+pub fn push_f64(buf: &mut String, x: Option<f64>) {
+    use std::fmt::Write;
     match x {
         // −0 prints as 0: the sign of a zero carries no information in a table.
-        Some(v) if v.is_finite() => format!("{}", if v == 0.0 { 0.0 } else { v }),
-        _ => String::new(),
+        Some(v) if v.is_finite() => {
+            // Writing into a String cannot fail.
+            let _ = write!(buf, "{}", if v == 0.0 { 0.0 } else { v });
+        }
+        _ => {}
     }
 }

@@ -12,7 +12,7 @@
 //! ```
 
 use super::vet::{CatalogueObject, QuarantinedRow};
-use crate::output::fmt_f64;
+use crate::output::push_f64;
 
 /// Header of `accepted.csv`.
 pub const ACCEPTED_COLUMNS: [&str; 22] = [
@@ -57,54 +57,54 @@ pub fn write_accepted(
 ) -> Result<(), csv::Error> {
     let mut w = csv::Writer::from_writer(out);
     w.write_record(ACCEPTED_COLUMNS)?;
-    let row = |o: &CatalogueObject| {
-        [
-            fmt_f64(Some(o.mass_msun)),
-            fmt_f64(o.mass_err_lo_msun),
-            fmt_f64(o.mass_err_hi_msun),
-            fmt_f64(o.radius_rsun),
-            fmt_f64(o.radius_err_rsun),
-            fmt_f64(o.age_gyr),
-            fmt_f64(o.age_err_gyr),
-            fmt_f64(o.rotation_period_h),
-            fmt_f64(o.rotation_period_err_h),
-            fmt_f64(o.mu_e),
-            fmt_f64(o.teff_k),
-            fmt_f64(o.teff_err_k),
-            fmt_f64(o.radius_model_rsun),
-            o.source_row.to_string(),
-        ]
+    // One reused buffer for every number: no string is allocated per cell.
+    let mut num = String::new();
+    let mut row = String::new();
+    let mut number = |w: &mut csv::Writer<_>, x: Option<f64>| -> Result<(), csv::Error> {
+        num.clear();
+        push_f64(&mut num, x);
+        w.write_field(&num)
     };
     for o in objects {
-        let [mass, lo, hi, radius, radius_err, age, age_err, period, period_err, mu_e, teff, teff_err, radius_model, source_row] =
-            row(o);
-        w.write_record([
-            o.id.as_str(),
-            o.class.label(),
-            &mass,
-            &lo,
-            &hi,
-            o.mass_limit.label(),
-            &radius,
-            &radius_err,
-            &age,
-            &age_err,
-            &period,
-            &period_err,
-            &mu_e,
-            &teff,
-            &teff_err,
-            o.core.map_or("", |c| c.label()),
-            o.envelope.map_or("", |e| e.label()),
-            &radius_model,
-            o.mass_method.label(),
-            o.reference.as_deref().unwrap_or_default(),
-            &o.source_file,
-            &source_row,
-        ])?;
+        w.write_field(&o.id)?;
+        w.write_field(o.class.label())?;
+        number(&mut w, Some(o.mass_msun))?;
+        number(&mut w, o.mass_err_lo_msun)?;
+        number(&mut w, o.mass_err_hi_msun)?;
+        w.write_field(o.mass_limit.label())?;
+        for x in [
+            o.radius_rsun,
+            o.radius_err_rsun,
+            o.age_gyr,
+            o.age_err_gyr,
+            o.rotation_period_h,
+            o.rotation_period_err_h,
+            o.mu_e,
+            o.teff_k,
+            o.teff_err_k,
+        ] {
+            number(&mut w, x)?;
+        }
+        w.write_field(o.core.map_or("", |c| c.label()))?;
+        w.write_field(o.envelope.map_or("", |e| e.label()))?;
+        number(&mut w, o.radius_model_rsun)?;
+        w.write_field(o.mass_method.label())?;
+        w.write_field(o.reference.as_deref().unwrap_or_default())?;
+        w.write_field(o.source_file.as_bytes())?;
+        w.write_field(itoa(o.source_row, &mut row))?;
+        w.write_record(None::<&[u8]>)?;
     }
     w.flush()?;
     Ok(())
+}
+
+/// `n` in decimal, written into `buf` (reused).
+fn itoa(n: usize, buf: &mut String) -> &str {
+    use std::fmt::Write;
+    buf.clear();
+    // Writing into a String cannot fail.
+    let _ = write!(buf, "{n}");
+    buf
 }
 
 /// `quarantine.csv` as bytes.

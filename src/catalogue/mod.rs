@@ -32,5 +32,5 @@ pub use colmap::ColumnMap;
 pub use error::CatalogueError;
 pub use vet::{
     vet_files, vet_table, CatalogueObject, CatalogueTally, CoreLabel, EnvelopeLabel, MassLimit,
-    MassMethod, ObjectClass, QuarantinedRow, Vetted,
+    MassMethod, ObjectClass, QuarantinedRow, SourceFile, Vetted,
 };

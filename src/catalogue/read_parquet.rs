@@ -7,6 +7,11 @@
 //! survive. Parquet carries no standard unit metadata: units come from the column map or the
 //! defaults. Rows are numbered from 1 in file order.
 //!
+//! [`vet_streaming`] is the path `vet` and `confront` take: it reads a few row groups at a time
+//! (about [`CHUNK_ROWS`] rows) through polars' row slice and vets each slice before reading the
+//! next, so that the file is never held as a table of cells; [`read`] returns the whole table
+//! like every other reader.
+//!
 //! Only the columns the caller names ([`ReadOptions::columns`](super::table::ReadOptions)) are
 //! decoded, so an unused column of a type we do not translate (timestamp, struct, list,
 //! decimal, float16, map, …) never makes a file unreadable. The decoder runs inside
@@ -24,9 +29,11 @@ use std::path::Path;
 
 use polars::prelude::*;
 
+use super::colmap::ColumnMap;
 use super::error::CatalogueError;
 use super::guard;
-use super::table::{Cell, ColumnMeta, RawRow, RawTable};
+use super::table::{Cell, CellRef, ColumnMeta, RawRow, RawTable};
+use super::vet::{CatalogueObject, CatalogueTally, QuarantinedRow, RowVetter};
 
 /// Largest integer magnitude an `f64` holds exactly.
 const EXACT_INT_F64: u64 = 1 << 53;
@@ -45,43 +52,11 @@ pub fn read(path: &Path, wanted: Option<&[String]>) -> Result<RawTable, Catalogu
     };
     // polars may panic on corrupt files; a bad input file must be exit 2, not a crash.
     let df = guard::quietly(|| -> Result<DataFrame, String> {
-        let text = |e: PolarsError| one_line(&e.to_string());
         let mut reader = ParquetReader::new(file);
-        let columns = match wanted {
-            None => None,
-            Some(wanted) => {
-                let schema = reader.schema().map_err(text)?;
-                let mut keep: Vec<String> = Vec::new();
-                for name in wanted {
-                    let Some(field) = schema.get(name.as_str()) else {
-                        continue;
-                    };
-                    if is_container(field.dtype()) {
-                        return Err(format!(
-                            "column `{name}` holds {:?} values (a container type), which \
-                             cannot be read as a number or text",
-                            field.dtype()
-                        ));
-                    }
-                    if !keep.contains(name) {
-                        keep.push(name.clone());
-                    }
-                }
-                Some(keep)
-            }
-        };
-        let read = columns.as_ref().map(|c| c.join(", "));
-        reader
-            .with_columns(columns)
-            .finish()
-            .map_err(|e| match read {
-                Some(names) => format!("{} (reading columns {names})", text(e)),
-                None => text(e),
-            })
+        let columns = select_columns(&mut reader, wanted)?;
+        finish(reader.with_columns(columns.clone()), columns.as_deref())
     })
-    .map_err(|_| {
-        invalid("the Parquet decoder failed on this file (corrupt or unsupported content)".into())
-    })?
+    .map_err(|_| invalid(DECODER_FAILED.into()))?
     .map_err(invalid)?;
     let height = df.height();
     let width = df.width();
@@ -117,6 +92,205 @@ pub fn read(path: &Path, wanted: Option<&[String]>) -> Result<RawTable, Catalogu
         rows,
         malformed: Vec::new(),
     })
+}
+
+/// The one-line reason of a panic in the decoder.
+const DECODER_FAILED: &str =
+    "the Parquet decoder failed on this file (corrupt or unsupported content)";
+
+/// Rows read (and vetted) at a time by [`vet_streaming`]: whole row groups are read until at
+/// least this many rows are in hand, so a row group is never decoded twice.
+pub const CHUNK_ROWS: usize = 65_536;
+
+/// The columns of `wanted` present in the file, in `wanted`'s order without repeats (`None`:
+/// all); a container-typed one is an error.
+fn select_columns(
+    reader: &mut ParquetReader<std::fs::File>,
+    wanted: Option<&[String]>,
+) -> Result<Option<Vec<String>>, String> {
+    let Some(wanted) = wanted else {
+        return Ok(None);
+    };
+    let schema = reader.schema().map_err(|e| one_line(&e.to_string()))?;
+    let mut keep: Vec<String> = Vec::new();
+    for name in wanted {
+        let Some(field) = schema.get(name.as_str()) else {
+            continue;
+        };
+        if is_container(field.dtype()) {
+            return Err(format!(
+                "column `{name}` holds {:?} values (a container type), which \
+                 cannot be read as a number or text",
+                field.dtype()
+            ));
+        }
+        if !keep.contains(name) {
+            keep.push(name.clone());
+        }
+    }
+    Ok(Some(keep))
+}
+
+/// Runs a configured reader; the error names the columns read.
+fn finish(
+    reader: ParquetReader<std::fs::File>,
+    columns: Option<&[String]>,
+) -> Result<DataFrame, String> {
+    reader.finish().map_err(|e| {
+        let text = one_line(&e.to_string());
+        match columns {
+            Some(names) => format!("{text} (reading columns {})", names.join(", ")),
+            None => text,
+        }
+    })
+}
+
+/// One column of a slice, ready to be viewed cell by cell without allocating per cell.
+enum SliceColumn<'a> {
+    /// Numbers (and the rare integer beyond 2⁵³ as exact text), as [`column_cells`] gives.
+    Cells(Vec<Cell>),
+    /// Text borrowed from the decoded column.
+    Text(Vec<Option<&'a str>>),
+}
+
+impl SliceColumn<'_> {
+    fn get(&self, row: usize) -> CellRef<'_> {
+        match self {
+            SliceColumn::Cells(c) => c.get(row).map_or(CellRef::Missing, Cell::as_ref),
+            SliceColumn::Text(t) => match t.get(row) {
+                Some(Some(s)) => CellRef::Text(s),
+                _ => CellRef::Missing,
+            },
+        }
+    }
+}
+
+/// Reads and vets a Parquet file a slice of row groups at a time (about [`CHUNK_ROWS`] rows):
+/// memory holds one slice's cells, the accepted objects, the quarantined rows and the ids, not
+/// the file. Gives exactly what [`read`] followed by [`vet_table`](super::vet::vet_table) gives,
+/// with the same messages.
+pub fn vet_streaming(
+    path: &Path,
+    label: &str,
+    map: Option<&ColumnMap>,
+    wanted: &[String],
+) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
+    let unreadable = |e: std::io::Error| CatalogueError::Unreadable {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    };
+    let file = std::fs::File::open(path).map_err(unreadable)?;
+    let invalid = |reason: String| CatalogueError::Invalid {
+        path: path.to_path_buf(),
+        format: "parquet",
+        reason,
+    };
+    // The file's metadata and the columns to read, once.
+    let (metadata, columns) = guard::quietly(|| -> Result<_, String> {
+        let mut reader = ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?);
+        let metadata = reader
+            .get_metadata()
+            .map_err(|e| one_line(&e.to_string()))?
+            .clone();
+        let columns = select_columns(&mut reader, Some(wanted))?;
+        Ok((metadata, columns))
+    })
+    .map_err(|_| invalid(DECODER_FAILED.into()))?
+    .map_err(invalid)?;
+    // Slices of whole row groups; a file without rows is read once, for its columns.
+    let mut slices: Vec<(usize, usize)> = Vec::new();
+    let mut start = 0;
+    let mut len = 0;
+    for rg in &metadata.row_groups {
+        len += rg.num_rows();
+        if len >= CHUNK_ROWS {
+            slices.push((start, len));
+            start += len;
+            len = 0;
+        }
+    }
+    if len > 0 || slices.is_empty() {
+        slices.push((start, len.max(1)));
+    }
+    let bar = crate::progress::bar(metadata.num_rows as u64, "reading catalogue", false);
+    let mut vetter: Option<RowVetter<'_>> = None;
+    for &(offset, rows) in &slices {
+        let df = guard::quietly(|| -> Result<DataFrame, String> {
+            let mut reader = ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?)
+                .with_slice(Some((offset, rows)))
+                .with_columns(columns.clone());
+            reader.set_metadata(metadata.clone());
+            finish(reader, columns.as_deref())
+        })
+        .map_err(|_| invalid(DECODER_FAILED.into()))?
+        .map_err(invalid)?;
+        let v = match &mut vetter {
+            Some(v) => v,
+            None => {
+                let metas: Vec<ColumnMeta> = df
+                    .columns()
+                    .iter()
+                    .map(|c| ColumnMeta {
+                        name: c.name().as_str().to_string(),
+                        unit: None,
+                        ucd: None,
+                    })
+                    .collect();
+                let v = vetter.insert(RowVetter::new(label, &metas, map)?);
+                // The row count comes from the file: never trusted beyond one row per byte.
+                let bytes = file.metadata().map_or(0, |m| m.len());
+                v.reserve(metadata.num_rows.min(usize::try_from(bytes).unwrap_or(0)));
+                v
+            }
+        };
+        let height = df.height();
+        // Text columns are cast first and kept, so that their cells can borrow from them.
+        let text: Vec<Option<Column>> = df
+            .columns()
+            .iter()
+            .map(|c| {
+                let d = c.dtype();
+                if d.is_float() || d.is_integer() {
+                    Ok(None)
+                } else {
+                    c.cast(&DataType::String).map(Some)
+                }
+            })
+            .collect::<PolarsResult<_>>()
+            .map_err(|e| invalid(one_line(&e.to_string())))?;
+        let mut slice_columns = Vec::with_capacity(df.width());
+        for (col, text) in df.columns().iter().zip(&text) {
+            let name = col.name().as_str();
+            let bad =
+                |e: PolarsError| invalid(format!("column `{name}`: {}", one_line(&e.to_string())));
+            let c = match text {
+                Some(t) => SliceColumn::Text(t.str().map_err(bad)?.iter().collect()),
+                None => SliceColumn::Cells(column_cells(col).map_err(bad)?),
+            };
+            let n = match &c {
+                SliceColumn::Cells(v) => v.len(),
+                SliceColumn::Text(v) => v.len(),
+            };
+            if n != height {
+                return Err(invalid(format!(
+                    "column `{name}` has {n} values for {height} rows"
+                )));
+            }
+            slice_columns.push(c);
+        }
+        let mut cells: Vec<CellRef<'_>> = Vec::with_capacity(slice_columns.len());
+        for r in 0..height {
+            cells.clear();
+            cells.extend(slice_columns.iter().map(|c| c.get(r)));
+            v.push(offset + r + 1, &cells, None);
+        }
+        bar.inc(height as u64);
+    }
+    bar.finish_and_clear();
+    match vetter {
+        Some(v) => v.finish(),
+        None => Err(invalid(DECODER_FAILED.into())),
+    }
 }
 
 /// Types whose values are containers of other values (struct, list, map, union): no cell text.
@@ -205,6 +379,59 @@ mod tests {
         assert_eq!(t.rows[0].cells[2], Cell::Number(3.0));
         assert_eq!(t.rows[1].cells[2], Cell::Text("9007199254740993".into()));
         assert_eq!(t.rows[2].cells[3], Cell::Number(1.5));
+    }
+
+    #[test]
+    fn streaming_vet_equals_vetting_the_whole_table() {
+        // The streaming path must give exactly what reading the table and vetting it gives
+        // (common practice, no source): here across slices of several row groups, with a
+        // duplicate id, a null mass, a NaN mass and an implausible brown dwarf among the rows.
+        let n = 140_000usize;
+        let ids: Vec<String> = (0..n)
+            .map(|i| {
+                if i == 100_001 {
+                    "S5".into()
+                } else {
+                    format!("S{i}")
+                }
+            })
+            .collect();
+        let class: Vec<&str> = (0..n)
+            .map(|i| {
+                if i % 3 == 0 {
+                    "brown_dwarf"
+                } else {
+                    "hburning"
+                }
+            })
+            .collect();
+        let mass: Vec<Option<f64>> = (0..n)
+            .map(|i| match i {
+                7 => None,
+                70_000 => Some(f64::NAN),
+                99_999 => Some(0.5),
+                _ => Some(0.05 + (i % 100) as f64 * 1e-3),
+            })
+            .collect();
+        let err: Vec<f64> = (0..n).map(|i| 0.001 + (i % 7) as f64 * 1e-4).collect();
+        let mut df = df!("id" => ids, "class" => class, "mass" => mass, "mass_err" => err).unwrap();
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("s.parquet");
+        let mut f = std::fs::File::create(&path).unwrap();
+        ParquetWriter::new(&mut f)
+            .with_row_group_size(Some(30_000))
+            .finish(&mut df)
+            .unwrap();
+        let wanted: Vec<String> = ["id", "class", "mass", "mass_err"]
+            .iter()
+            .map(|c| c.to_string())
+            .collect();
+        let streamed = vet_streaming(&path, "s.parquet", None, &wanted).unwrap();
+        let table = read(&path, Some(&wanted)).unwrap();
+        let whole = crate::catalogue::vet::vet_table("s.parquet", &table, None).unwrap();
+        assert_eq!(streamed, whole);
+        assert_eq!(streamed.2.rows_in, n);
+        assert_eq!(streamed.1.len(), 4);
     }
 
     #[test]

@@ -184,11 +184,110 @@ pub struct ObjectUse {
     pub radius_excluded: Option<String>,
     /// Flags for `objects.csv` (`young`, `age_unknown`, `limit_uninformative`, `model_mass`,
     /// `mass_method_unknown`, `no_teff`, `elm`, `no_hot_model`, `radius_anchored`).
-    pub flags: Vec<String>,
+    pub flags: Flags,
     /// Core of a white dwarf after the default by mass.
     pub core: Option<ResolvedCore>,
     /// μe used for a white dwarf.
     pub mu_e: f64,
+}
+
+/// The flag names objects carry, each stored in a [`Flags`] as its index here.
+const KNOWN_FLAGS: [&str; 16] = [
+    "young",
+    "age_unknown",
+    "limit_uninformative",
+    "model_mass",
+    "mass_method_unknown",
+    "no_teff",
+    "elm",
+    "no_hot_model",
+    "radius_anchored",
+    "outside_model",
+    "spin_mass_limit",
+    "spin_radius_measured",
+    "spin_radius_finite-temperature",
+    "spin_radius_cold",
+    "spin_corrected",
+    "spin_beyond_first_order",
+];
+
+/// Most flags one object can carry without spilling to the heap.
+const INLINE_FLAGS: usize = 14;
+
+/// The flags of one object, in the order they were raised. Every object has some (a catalogue
+/// without ages flags them all `age_unknown`), so a list of strings per object was a third of
+/// the memory of a large confrontation; the known names are kept as one-byte indices inline,
+/// and a list spills to strings only for a name outside [`KNOWN_FLAGS`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Flags(FlagStore);
+
+#[derive(Debug, Clone, PartialEq)]
+enum FlagStore {
+    Inline { codes: [u8; INLINE_FLAGS], len: u8 },
+    Spilled(Vec<String>),
+}
+
+impl Default for Flags {
+    fn default() -> Self {
+        Flags(FlagStore::Inline {
+            codes: [0; INLINE_FLAGS],
+            len: 0,
+        })
+    }
+}
+
+impl Flags {
+    /// Raises a flag given as an owned name (as [`Flags::raise`]).
+    pub fn push(&mut self, flag: String) {
+        self.raise(&flag);
+    }
+
+    /// Raises a flag (after those already raised).
+    pub fn raise(&mut self, flag: &str) {
+        let code = KNOWN_FLAGS.iter().position(|k| *k == flag);
+        if let FlagStore::Inline { codes, len } = &mut self.0 {
+            if let Some(c) = code.filter(|_| usize::from(*len) < INLINE_FLAGS) {
+                codes[usize::from(*len)] = c as u8;
+                *len += 1;
+                return;
+            }
+            let spilled = codes[..usize::from(*len)]
+                .iter()
+                .map(|&c| KNOWN_FLAGS[usize::from(c)].to_string())
+                .collect();
+            self.0 = FlagStore::Spilled(spilled);
+        }
+        if let FlagStore::Spilled(v) = &mut self.0 {
+            v.push(flag.to_string());
+        }
+    }
+
+    /// The flags in the order they were raised.
+    pub fn iter(&self) -> impl Iterator<Item = &str> + '_ {
+        let (inline, spilled): (&[u8], &[String]) = match &self.0 {
+            FlagStore::Inline { codes, len } => (&codes[..usize::from(*len)], &[]),
+            FlagStore::Spilled(v) => (&[], v),
+        };
+        inline
+            .iter()
+            .map(|&c| KNOWN_FLAGS[usize::from(c)])
+            .chain(spilled.iter().map(String::as_str))
+    }
+
+    /// The flags joined by `sep` (the `flags` cell of `objects.csv`).
+    pub fn join(&self, sep: &str) -> String {
+        self.iter().collect::<Vec<_>>().join(sep)
+    }
+
+    /// Whether `flag` is raised.
+    pub fn contains(&self, flag: &str) -> bool {
+        self.iter().any(|f| f == flag)
+    }
+
+    /// Whether no flag is raised.
+    pub fn is_empty(&self) -> bool {
+        self.iter().next().is_none()
+    }
 }
 
 /// The result over the grid.
@@ -343,7 +442,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
         .map(|(index, o)| {
             let mu_e = o.mu_e.unwrap_or(opts.default_mu_e);
             let measurement = measurement_of(o, mu_e);
-            let mut flags = Vec::new();
+            let mut flags = Flags::default();
             let mut excluded = None;
             let term = match o.class {
                 ObjectClass::HBurning => Term::HBurning,
@@ -353,7 +452,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
             if term != Term::WhiteDwarfMass {
                 match o.age_gyr {
                     Some(age) if age < opts.age_min_mmhb_gyr => {
-                        flags.push("young".to_string());
+                        flags.raise("young");
                         if !opts.include_young {
                             excluded = Some(format!(
                                 "young (age {age} Gyr < {} Gyr)",
@@ -363,7 +462,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                     }
                     Some(_) => {}
                     None => {
-                        flags.push("age_unknown".to_string());
+                        flags.raise("age_unknown");
                         if opts.exclude_age_unknown {
                             excluded = Some("age unknown".to_string());
                         }
@@ -371,11 +470,11 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                 }
             }
             if !measurement.informative() {
-                flags.push("limit_uninformative".to_string());
+                flags.raise("limit_uninformative");
             }
             match o.mass_method {
                 MassMethod::Model => {
-                    flags.push("model_mass".to_string());
+                    flags.raise("model_mass");
                     if !opts.radius.include_model_masses && excluded.is_none() {
                         excluded = Some(
                             "mass from a standard-gravity model (circular for this test)"
@@ -383,7 +482,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                         );
                     }
                 }
-                MassMethod::Unknown => flags.push("mass_method_unknown".to_string()),
+                MassMethod::Unknown => flags.raise("mass_method_unknown"),
                 MassMethod::Dynamical | MassMethod::Redshift => {}
             }
             let is_wd = o.class == ObjectClass::WhiteDwarf;
@@ -392,12 +491,12 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
             if radius_term {
                 if let Some((flag, why)) = wd_radius::radius_domain(o, &opts.radius) {
                     if flag != "model_mass" {
-                        flags.push(flag.to_string());
+                        flags.raise(flag);
                     }
                     radius_excluded = Some(why);
                     radius_term = false;
                 } else if o.radius_model_rsun.is_some() {
-                    flags.push("radius_anchored".to_string());
+                    flags.raise("radius_anchored");
                 }
             }
             ObjectUse {
@@ -577,7 +676,7 @@ pub fn confront(
             }
             let u = &mut uses[r.index];
             u.radius_term = false;
-            u.flags.push("outside_model".to_string());
+            u.flags.raise("outside_model");
             u.radius_excluded = Some(
                 "no finite-temperature model at its mass, Teff and core (outside the model's table \
                  or no hydrostatic solution)"
@@ -856,5 +955,33 @@ pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) ->
             };
             Some(-d / s)
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::Flags;
+
+    #[test]
+    fn flags_keep_their_order_inline_and_spilled() {
+        // The flags cell of objects.csv lists flags in the order they were raised (README);
+        // storage is not allowed to change it (common practice, no source).
+        let mut f = Flags::default();
+        assert!(f.is_empty());
+        f.raise("age_unknown");
+        f.push("mass_method_unknown".to_string());
+        assert_eq!(f.join(";"), "age_unknown;mass_method_unknown");
+        assert!(f.contains("age_unknown") && !f.contains("young"));
+        f.raise("a_new_flag");
+        f.raise("young");
+        assert_eq!(
+            f.iter().collect::<Vec<_>>(),
+            ["age_unknown", "mass_method_unknown", "a_new_flag", "young"]
+        );
+        let mut many = Flags::default();
+        for _ in 0..20 {
+            many.raise("elm");
+        }
+        assert_eq!(many.iter().count(), 20);
     }
 }

@@ -230,7 +230,10 @@ pub fn run_confrontation(
     eopts.radius.cold_floor_fraction = settings.theory.wd_radius_floor_fraction;
     let surface = GridSurface::new(&grid, standard_cold, eopts.radius.model);
 
-    // 3. Comparison over the grid: likelihood maps, allowed regions, the τ = 0 slice.
+    // 3. Comparison over the grid: likelihood maps, allowed regions, the τ = 0 slice. Steps 3–6
+    // share one progress bar (stderr, terminal only): each can take seconds on a large catalogue.
+    let steps = crate::progress::Steps::new(5, "confronting");
+    steps.step("likelihood over the grid");
     let conf = engine::confront(&vetted.objects, &surface, &eopts)?;
     if conf.joint.iter().all(Option::is_none) {
         return Err(PipelineError::Settings(
@@ -247,6 +250,7 @@ pub fn run_confrontation(
     let best_point = grid
         .point(best_index)
         .ok_or_else(|| PipelineError::Internal("best point outside the grid".into()))?;
+    steps.step("τ = 0 slice");
     let slice = tau0_slice(&conf, &surface)?;
     // The same slice with the other treatment of the theory floors (shared or per object),
     // and the profile and flat-prior posterior readings of the map.
@@ -254,16 +258,19 @@ pub fn run_confrontation(
         Some(s) => Some(tau0_slice_other_floor(&conf, &surface, &eopts, s)?),
         None => None,
     };
+    steps.step("profile and posterior");
     let profile = profile_intervals(surface.upsilon(), surface.tau(), &joint)?;
     let post = posterior(surface.upsilon(), surface.tau(), &joint)?;
 
     // 4. Drivers of the ϒ interval on the τ = 0 slice, under the likelihood used.
+    steps.step("drivers");
     let drivers = match &slice {
         Some(s) => slice_drivers_in_fit(&conf, s, &DriverOptions::default())?,
         None => Vec::new(),
     };
 
     // 5. Per-object verdicts at standard gravity and at the best fit; tensions.
+    steps.step("per-object verdicts");
     let verdicts = object_verdicts(
         &vetted.objects,
         &conf.uses,
@@ -283,6 +290,8 @@ pub fn run_confrontation(
         .mmhb
         .ok()
         .map(|m| crowding_at(&conf, m.value_msun, eopts.mmhb_floor_msun));
+
+    steps.finish();
 
     // 7. Outputs.
     let mut ctx = OutputContext {

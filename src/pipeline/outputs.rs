@@ -240,7 +240,7 @@ impl OutputContext<'_> {
         let mut row = vec![
             Cell::Text(o.id.clone()),
             Cell::Text(o.class.label().into()),
-            Cell::Text(o.source_file.clone()),
+            Cell::Text(o.source_file.to_string()),
             Cell::Int(o.source_row as i64),
             Cell::Float(Some(o.mass_msun)),
             Cell::Float(o.mass_err_lo_msun),
