@@ -276,22 +276,7 @@ pub fn radius_drivers(
         Ok(end_shift(baseline.lower, iv.lower).max(end_shift(baseline.upper, iv.upper)))
     };
     // (position among the radius objects, object index, shift at the scale held fixed)
-    let mut held: Vec<(usize, usize, f64)> = Vec::new();
-    for (pos, (k, contrib)) in s.radius_fine.iter().enumerate() {
-        let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
-            - contrib.iter().copied().fold(f64::INFINITY, f64::min);
-        if spread <= opts.candidate_min_minus_two_ln_p {
-            continue; // a constant offset cannot move a Δχ² crossing
-        }
-        let without: Vec<f64> = s
-            .slice
-            .chi2_fine
-            .iter()
-            .zip(contrib)
-            .map(|(c, r)| c - r)
-            .collect();
-        held.push((pos, *k, shift_of(&without)?));
-    }
+    let mut held = held_shifts(s, &s.radius_fine, opts)?;
     let refit = conf.radius_shared.as_ref().filter(|_| {
         !s.radius_nodes_fine.is_empty()
             && s.radius_fine.len() == conf.radius_objects.len()
@@ -334,21 +319,26 @@ pub fn spin_drivers(
     s: &SliceResult,
     opts: &DriverOptions,
 ) -> Result<Vec<(usize, f64)>, StatsError> {
-    remove_each(s, &s.spin_fine_per_object, opts)
+    Ok(held_shifts(s, &s.spin_fine_per_object, opts)?
+        .into_iter()
+        .filter(|h| h.2 > 0.0)
+        .map(|(_, k, shift)| (k, shift))
+        .collect())
 }
 
 /// The shift of the interval from subtracting each object's own contribution along the fine
-/// axis from the slice: (object index, shift) for the objects that move it.
-fn remove_each(
+/// axis from the slice, for every candidate (an object whose contribution is not flat):
+/// (position in `per_object`, object index, shift), zero shifts included.
+fn held_shifts(
     s: &SliceResult,
     per_object: &[(usize, Vec<f64>)],
     opts: &DriverOptions,
-) -> Result<Vec<(usize, f64)>, StatsError> {
+) -> Result<Vec<(usize, usize, f64)>, StatsError> {
     let fine = &s.slice.upsilon_fine;
     let dchi2 = opts.level.dchi2(1);
     let baseline = interval_from_slice(fine, &s.slice.chi2_fine, dchi2)?;
     let mut out = Vec::new();
-    for (k, contrib) in per_object {
+    for (pos, (k, contrib)) in per_object.iter().enumerate() {
         let spread = contrib.iter().copied().fold(f64::NEG_INFINITY, f64::max)
             - contrib.iter().copied().fold(f64::INFINITY, f64::min);
         if spread <= opts.candidate_min_minus_two_ln_p {
@@ -363,9 +353,7 @@ fn remove_each(
             .collect();
         let iv = interval_from_slice(fine, &without, dchi2)?;
         let shift = end_shift(baseline.lower, iv.lower).max(end_shift(baseline.upper, iv.upper));
-        if shift > 0.0 {
-            out.push((*k, shift));
-        }
+        out.push((pos, *k, shift));
     }
     Ok(out)
 }
