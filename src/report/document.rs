@@ -10,7 +10,7 @@
 //! ```
 
 use super::figures::outline_style_name;
-use super::input::{AllowedMap, ReportInput, Shift, SideBySide, Warning};
+use super::input::{AllowedMap, AllowedRange, ReportInput, Shift, SideBySide, Warning};
 use super::text::{fmt_end, fmt_opt, fmt_param, fmt_prob, fmt_sig};
 
 /// A run of text with its emphasis.
@@ -120,6 +120,35 @@ fn id_list(ids: &[String]) -> String {
         s.push_str(&format!(" and {} more", ids.len() - MAX_IDS_LISTED));
     }
     s
+}
+
+/// The table of a region's extent per level (the allowed region, or a credible region): one
+/// row per level with its ϒ and τ ranges and its share of the grid.
+fn range_table(first_header: &str, ranges: &[AllowedRange]) -> Block {
+    Block::Table {
+        header: vec![
+            first_header.into(),
+            "ϒ min".into(),
+            "ϒ max".into(),
+            "τ min".into(),
+            "τ max".into(),
+            "fraction of grid".into(),
+        ],
+        rows: ranges
+            .iter()
+            .map(|a| {
+                vec![
+                    vec![t(a.level.clone())],
+                    vec![t(fmt_opt(a.upsilon_min, 4))],
+                    vec![t(fmt_opt(a.upsilon_max, 4))],
+                    vec![t(fmt_opt(a.tau_min, 4))],
+                    vec![t(fmt_opt(a.tau_max, 4))],
+                    vec![t(fmt_sig(a.fraction_of_grid, 3))],
+                ]
+            })
+            .collect(),
+        numeric: vec![false, true, true, true, true, true],
+    }
 }
 
 fn interval_text(lower: Option<f64>, upper: Option<f64>) -> String {
@@ -390,31 +419,7 @@ pub(crate) fn build(
     });
     blocks.extend(zoom_section);
     blocks.push(Block::Subheading("Extent of the allowed region".into()));
-    blocks.push(Block::Table {
-        header: vec![
-            "level".into(),
-            "ϒ min".into(),
-            "ϒ max".into(),
-            "τ min".into(),
-            "τ max".into(),
-            "fraction of grid".into(),
-        ],
-        rows: input
-            .allowed
-            .iter()
-            .map(|a| {
-                vec![
-                    vec![t(a.level.clone())],
-                    vec![t(fmt_opt(a.upsilon_min, 4))],
-                    vec![t(fmt_opt(a.upsilon_max, 4))],
-                    vec![t(fmt_opt(a.tau_min, 4))],
-                    vec![t(fmt_opt(a.tau_max, 4))],
-                    vec![t(fmt_sig(a.fraction_of_grid, 3))],
-                ]
-            })
-            .collect(),
-        numeric: vec![false, true, true, true, true, true],
-    });
+    blocks.push(range_table("level", &input.allowed));
     blocks.push(Block::Para(vec![t(
         "Grid extent of the points allowed at each level (two-parameter Δχ²); a value at a grid \
          end means the region may continue beyond the grid.",
@@ -797,31 +802,10 @@ fn side_by_side_blocks(sb: &SideBySide, blocks: &mut Vec<Block>) {
     ]));
     blocks.push(Block::Para(vec![b("Priors. "), t(sb.prior.clone())]));
     if !sb.hpd_regions.is_empty() {
-        blocks.push(Block::Table {
-            header: vec![
-                "credible region (highest posterior density)".into(),
-                "ϒ min".into(),
-                "ϒ max".into(),
-                "τ min".into(),
-                "τ max".into(),
-                "fraction of grid".into(),
-            ],
-            rows: sb
-                .hpd_regions
-                .iter()
-                .map(|a| {
-                    vec![
-                        vec![t(a.level.clone())],
-                        vec![t(fmt_opt(a.upsilon_min, 4))],
-                        vec![t(fmt_opt(a.upsilon_max, 4))],
-                        vec![t(fmt_opt(a.tau_min, 4))],
-                        vec![t(fmt_opt(a.tau_max, 4))],
-                        vec![t(fmt_sig(a.fraction_of_grid, 3))],
-                    ]
-                })
-                .collect(),
-            numeric: vec![false, true, true, true, true, true],
-        });
+        blocks.push(range_table(
+            "credible region (highest posterior density)",
+            &sb.hpd_regions,
+        ));
     }
     if !sb.formulas.is_empty() {
         blocks.push(Block::List(
