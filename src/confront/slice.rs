@@ -191,6 +191,9 @@ type PerObjectFine = Vec<(usize, Vec<f64>)>;
 /// Per fine point, the cold radius at every radius object's mass nodes.
 type NodesFine = Vec<Vec<Option<f64>>>;
 
+/// Changes a coarse point's radii before they are interpolated: (grid index, radii).
+type AdjustRadii<'a> = dyn Fn(usize, &mut [Option<f64>]) + Sync + 'a;
+
 /// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
 /// and the whole radius term there (shared systematic eliminated).
 ///
@@ -313,7 +316,7 @@ fn cold_radii_on_fine_axis(
     nu: usize,
     fine: &[f64],
     queries: &[(f64, f64)],
-    adjust: Option<&(dyn Fn(usize, &mut [Option<f64>]) + Sync)>,
+    adjust: Option<&AdjustRadii<'_>>,
 ) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
     let axis = row.axis;
     let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())

@@ -35,11 +35,14 @@
 //! white dwarf's radius at fixed mass grows by v·(d ln R/dv)|_M of the polytrope whose index
 //! matches the local slope of its cold mass–radius relation. ρ_c is that polytrope's central
 //! density for the object's radius at (or nearest to) standard gravity, with the coefficients of
-//! ϒ = τ = 0; a brown dwarf's or star's factor is then carried to every grid point with that
-//! point's own coefficients ([`MmhbSlowRotation`]; white dwarfs keep the standard ones). Beyond
-//! the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit; n_eff ≥ 2.95 counts as
-//! beyond: near the Chandrasekhar mass the radius at fixed mass does not respond linearly) the
-//! object is flagged `spin_beyond_first_order` and left uncorrected.
+//! ϒ = τ = 0. Beyond the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit;
+//! n_eff ≥ 2.95 counts as beyond: near the Chandrasekhar mass the radius at fixed mass does not
+//! respond linearly) the object is flagged `spin_beyond_first_order` and left uncorrected. A
+//! corrected object's factor is then taken at every grid point with that point's own structure
+//! (coefficients from [`BoundSurface::slow_rotation_at`], a table interpolated in (ϒ, τ, n) on
+//! a theory grid): a brown dwarf's or star's through the spin term ([`MmhbSlowRotation`]), a
+//! white dwarf's on its predicted radius inside the radius term ([`RadiusCorrections`]; n_eff
+//! and ρ_c at the point too).
 //!
 //! ```
 //! use dwarfbound::confront::spin::{ln_p_spin, SpinOptions};
@@ -189,7 +192,7 @@ pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
 /// systematic the difference is taken at zero shift (first order in a product of two small
 /// quantities). Where first order fails at a point (v above that point's threshold, or no
 /// model), the factor stays f₀; so it does where the mass test cannot feel it
-/// ([`MmhbSlowRotation::matters_at`]), which saves the point's ODE.
+/// ([`MmhbSlowRotation::matters_at`]), which spares the point's lookup.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MmhbSlowRotation {
     /// Ω² of the observed period, s⁻².
@@ -408,8 +411,8 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
     let cold = surface.wd_radii_rsun(i, &queries);
     let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
     let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
-    // The point's coefficients are solved only where some corrected object's mass test can
-    // feel them (one ODE per point).
+    // The point's coefficients are looked up only where some corrected object's mass test can
+    // feel them.
     let needed = mmhb.is_some_and(|b| {
         spins
             .iter()

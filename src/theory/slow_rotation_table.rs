@@ -95,7 +95,8 @@ pub struct SlowRotationTable {
 fn lattice_axis(lo: f64, hi: f64) -> Vec<f64> {
     let (lo, hi) = (lo.min(0.0), hi.max(0.0));
     let span = hi - lo;
-    if !(span > 0.0) {
+    // A single value (or NaN): zero alone.
+    if span.is_nan() || span <= 0.0 {
         return vec![0.0];
     }
     let k = (3.0 / (span * LATTICE_PER_UNIT)).ceil().max(1.0);
