@@ -31,12 +31,12 @@
 //! let at = table.at(0.0, 0.0, 1.5).unwrap();
 //! let direct = slow_rotation(1.5, 0.0, 0.0, Anisotropy::None).unwrap();
 //! assert_eq!(at.mass_coefficient, direct.mass_coefficient);
-//! // Off the lattice, the interpolation is within its measured error of a direct solve.
+//! // Off the lattice, within the measured error (4e-4, docs/rotation.md §3) of a direct solve.
 //! let at = table.at(0.13, -0.07, 2.2).unwrap();
 //! let direct = slow_rotation(2.2, 0.13, -0.07, Anisotropy::DensitySquared).unwrap();
 //! let got = at.radius_at_fixed_mass_coefficient.unwrap();
 //! let want = direct.radius_at_fixed_mass_coefficient.unwrap();
-//! assert!((got / want - 1.0).abs() < 1e-5);
+//! assert!((got / want - 1.0).abs() < 4e-4);
 //! ```
 
 use std::collections::BTreeMap;
