@@ -708,3 +708,121 @@ fn fast_white_dwarfs_with_radii_take_the_radius_test_with_their_factor() {
     let k = col(&gh, "minus_two_ln_l_white_dwarf_radius");
     assert!(grows.iter().all(|r| r[k].parse::<f64>().is_ok()));
 }
+
+// Source: the definition of the factor (docs/rotation.md §3) with the coefficients solved
+// directly (`slow_rotation` at the point's ϒ, τ and the grid's density-squared ansatz) against
+// the theory grid's surface, whose coefficients come from the interpolated table: they agree to
+// the table's measured error (4e-4 of the coefficient, so of f − 1; docs/rotation.md §3), and at
+// ϒ = τ = 0 the factor is the standard one exactly (the table answers there with the direct
+// isotropic solve, the one the standard correction has always used). Invented object (not a
+// measurement): the 70 s white dwarf at 1.27 M☉ with a measured radius of 0.0052 R☉.
+#[test]
+fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
+    use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions};
+    use dwarfbound::confront::spin::SlowRotationStatus;
+    use dwarfbound::pipeline::surface::GridSurface;
+    use dwarfbound::theory::grid::{compute, GridOptions};
+    use dwarfbound::theory::point::{standard_point, TheorySettings};
+    use dwarfbound::theory::slow_rotation::slow_rotation;
+    use dwarfbound::theory::{Anisotropy, Axis};
+    let settings = TheorySettings::default();
+    assert_eq!(settings.anisotropy, Anisotropy::DensitySquared);
+    let grid = compute(
+        Axis {
+            start: -0.2,
+            stop: 0.2,
+            count: 5,
+        },
+        Axis {
+            start: -0.1,
+            stop: 0.1,
+            count: 3,
+        },
+        &settings,
+        &GridOptions {
+            with_wd_tables: true,
+            quiet: true,
+            ..GridOptions::default()
+        },
+    )
+    .unwrap();
+    let standard = standard_point(&settings).unwrap();
+    let cold = standard.white_dwarf.as_ref().and_then(|t| t.ok());
+    let opts = EngineOptions::default();
+    let surface = GridSurface::new(&grid, cold, opts.radius.model);
+    let wd = CatalogueObject {
+        id: "WD-70s".into(),
+        class: ObjectClass::WhiteDwarf,
+        mass_msun: 1.27,
+        mass_err_lo_msun: Some(0.02),
+        mass_err_hi_msun: Some(0.02),
+        mass_limit: MassLimit::None,
+        radius_rsun: Some(0.0052),
+        radius_err_rsun: Some(0.0003),
+        age_gyr: None,
+        age_err_gyr: None,
+        rotation_period_h: Some(70.0 / 3600.0),
+        rotation_period_err_h: None,
+        mu_e: None,
+        teff_k: Some(20_000.0),
+        teff_err_k: Some(500.0),
+        core: None,
+        envelope: None,
+        radius_model_rsun: None,
+        mass_method: MassMethod::Dynamical,
+        reference: None,
+        source_file: "a.csv".into(),
+        source_row: 1,
+    };
+    let conf = run_engine(&[wd], &surface, &opts).unwrap();
+    let spin = &conf.spins[0];
+    assert!(
+        matches!(spin.slow, SlowRotationStatus::Corrected { .. }),
+        "{:?} {:?}",
+        spin.slow,
+        conf.uses[0].flags
+    );
+    let (ups, taus) = (surface.upsilon().to_vec(), surface.tau().to_vec());
+    let definition = |i: usize, anisotropy: Anisotropy| {
+        let (u, t) = (ups[i % 5], taus[i / 5]);
+        let m = 1.27;
+        let h = 1e-3 * m;
+        let r = surface.wd_radii_rsun(i, &[(m - h, 2.0), (m + h, 2.0)]);
+        let (lo, hi) = (r[0].unwrap(), r[1].unwrap());
+        let s = (hi.ln() - lo.ln()) / ((m + h).ln() - (m - h).ln());
+        let n_eff = (1.0 - 3.0 * s) / (1.0 - s);
+        let n = (n_eff.clamp(1.05, 2.95) * 100.0).round() / 100.0;
+        let c = slow_rotation(n, u, t, anisotropy).unwrap();
+        let radius = 0.0052 * dwarfbound::constants::R_SUN_NOMINAL_M;
+        let mass = m * dwarfbound::constants::msun_kg();
+        let rho_c = c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass
+            / (4.0 * std::f64::consts::PI * radius.powi(3));
+        let omega = 2.0 * std::f64::consts::PI / 70.0;
+        let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
+        if v > c.v_max || n_eff >= 2.95 {
+            1.0
+        } else {
+            1.0 + v * c.radius_at_fixed_mass_coefficient.unwrap()
+        }
+    };
+    let i_std = 7;
+    assert_eq!((ups[i_std % 5], taus[i_std / 5]), (0.0, 0.0));
+    assert_eq!(spin.radius_factor, definition(i_std, Anisotropy::None));
+    assert_eq!(spin.radius_factor_at(&surface, i_std), spin.radius_factor);
+    let mut corrected_elsewhere = 0;
+    for i in (0..15).filter(|&i| i != i_std) {
+        let want = definition(i, Anisotropy::DensitySquared);
+        let got = spin.radius_factor_at(&surface, i);
+        assert!(
+            (got - want).abs() <= 4e-4 * (want - 1.0).abs() + 1e-15,
+            "point {i}: {got} vs {want}"
+        );
+        if want != 1.0 {
+            corrected_elsewhere += 1;
+        }
+    }
+    // f − 1 runs from 1.2e-3 to 4.7e-3 over this grid (f₀ − 1 = 1.5e-3): first order holds at
+    // every point.
+    assert_eq!(corrected_elsewhere, 14);
+}
