@@ -697,10 +697,10 @@ fn wd_slow_rotation(spin: &ObjectSpin, surface: &dyn BoundSurface, i: usize) -> 
 impl ObjectSpin {
     /// A white dwarf's slow-rotation factor on its radius at grid point `i`:
     /// f(ϒ, τ) = 1 + v(ϒ, τ) (d ln R/dv)|_M(n_eff; ϒ, τ), with everything taken at the point
-    /// (the standard correction's recipe, at the point). 1 (no correction) for an object not corrected at standard
-    /// gravity, and at a point where first order fails (v above that point's threshold,
-    /// n_eff ≥ 2.95) or there is no model: the correction is made only where first order holds.
-    /// At the standard point it is [`ObjectSpin::radius_factor`] exactly.
+    /// (the standard correction's recipe, at the point). 1 (no correction) for an object not
+    /// corrected at standard gravity, and at a point where first order fails (v above that
+    /// point's threshold, n_eff ≥ 2.95) or there is no model: the correction is made only where
+    /// first order holds. At the standard point it is [`ObjectSpin::radius_factor`] exactly.
     pub fn radius_factor_at(&self, surface: &dyn BoundSurface, i: usize) -> f64 {
         if self.radius_factor == 1.0 {
             return 1.0;

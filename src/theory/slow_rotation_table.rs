@@ -3,13 +3,13 @@
 //! an ODE.
 //!
 //! One job: answer [`slow_rotation`] at any (ϒ, τ, n) of a grid's range for one ansatz, cheaply
-//! and to a measured accuracy. The lattice has nodes every [`LATTICE_STEP`] (0.05) in ϒ and τ (finer on
-//! a narrow axis, so that a cubic stencil fits; ϒ = τ = 0 always among them) and at the indices
-//! [`INDEX_NODES`] (1.05 to 3 in steps of 0.15, n = 3/2 exactly among them). Each index is one
-//! slab of the lattice, solved (one first-order ODE per node, `docs/rotation.md` §1.2) the
-//! first time some lookup needs it; the surface values ξ₁, ω, ψ₀, m₀ and d ln R/dv are
-//! interpolated with tensor-product cubic Lagrange stencils and the coefficients assembled from
-//! them as the direct solve assembles them.
+//! and to a measured accuracy. The lattice has nodes every [`LATTICE_STEP`] (0.05) in ϒ and τ
+//! (finer on a narrow axis, so that a cubic stencil fits; ϒ = τ = 0 always among them) and at
+//! the indices [`INDEX_NODES`] (1.05 to 3 in steps of 0.15, n = 3/2 exactly among them). Each
+//! index is one slab of the lattice, solved (one first-order ODE per node, `docs/rotation.md`
+//! §1.2) the first time some lookup needs it; the surface values ξ₁, ω, ψ₀, m₀ and d ln R/dv
+//! are interpolated with tensor-product cubic Lagrange stencils and the coefficients assembled
+//! from them as the direct solve assembles them.
 //!
 //! Standard gravity anchors the table: at ϒ = τ = 0 it returns the direct solve at that index
 //! (cached per index), and elsewhere each interpolated value is carried by its change from the
