@@ -471,3 +471,358 @@ fn slow_spinner_gets_the_grid_points_mmhb_factor() {
         }
     }
 }
+
+/// A surface whose cold white-dwarf radius is a Chandrasekhar-like relation swelling with ϒ and
+/// τ, R = 0.0125 R☉ (M/0.6)^{−1/3} √((1 − (M/1.44)^{4/3}) / (1 − (0.6/1.44)^{4/3}))
+/// (1 + 0.5ϒ + 0.2τ), with the cold model as the standard radius and the density-squared
+/// slow-rotation coefficients solved directly at each point (no table): what the white dwarf's
+/// slow-rotation factor at each grid point is defined from (docs/rotation.md §3).
+struct SpinningWd;
+
+const SPINNING_WD_UPSILON: [f64; 5] = [-0.2, -0.1, 0.0, 0.1, 0.2];
+
+fn spinning_wd_radius_rsun(mass_msun: f64, upsilon: f64, tau: f64) -> Option<f64> {
+    let x = |m: f64| 1.0 - (m / 1.44).powf(4.0 / 3.0);
+    (mass_msun < 1.44).then(|| {
+        0.0125
+            * (mass_msun / 0.6).powf(-1.0 / 3.0)
+            * (x(mass_msun) / x(0.6)).sqrt()
+            * (1.0 + 0.5 * upsilon + 0.2 * tau)
+    })
+}
+
+impl dwarfbound::confront::engine::BoundSurface for SpinningWd {
+    fn upsilon(&self) -> &[f64] {
+        &SPINNING_WD_UPSILON
+    }
+    fn tau(&self) -> &[f64] {
+        &[0.0, 0.1]
+    }
+    fn mmhb_msun(&self, _i: usize) -> Option<f64> {
+        Some(0.075)
+    }
+    fn chandrasekhar_mu2_msun(&self, _i: usize) -> Option<f64> {
+        Some(1.4563)
+    }
+    fn wd_radii_rsun(&self, i: usize, q: &[(f64, f64)]) -> Vec<Option<f64>> {
+        let (u, t) = (SPINNING_WD_UPSILON[i % 5], [0.0, 0.1][i / 5]);
+        q.iter()
+            .map(|&(m, _)| spinning_wd_radius_rsun(m, u, t))
+            .collect()
+    }
+    fn wd_standard_radii(
+        &self,
+        q: &[dwarfbound::confront::wd_radius::WdQuery],
+    ) -> Vec<Option<dwarfbound::confront::wd_radius::WdStandard>> {
+        q.iter()
+            .map(|q| {
+                spinning_wd_radius_rsun(q.mass_msun, 0.0, 0.0).map(|r| {
+                    dwarfbound::confront::wd_radius::WdStandard {
+                        radius_rsun: r,
+                        cold_rsun: r,
+                        hot_over_cold: 1.0,
+                        envelope_fraction: 0.0,
+                        dln_r_dteff_per_k: 0.0,
+                    }
+                })
+            })
+            .collect()
+    }
+    fn slow_rotation_at(
+        &self,
+        i: usize,
+        n: f64,
+    ) -> Option<dwarfbound::theory::slow_rotation::SlowRotation> {
+        let (u, t) = (SPINNING_WD_UPSILON[i % 5], [0.0, 0.1][i / 5]);
+        dwarfbound::theory::slow_rotation::slow_rotation(
+            n,
+            u,
+            t,
+            dwarfbound::theory::Anisotropy::DensitySquared,
+        )
+        .ok()
+    }
+}
+
+/// Invented object (not a measurement): a 0.9 ± 0.02 M☉ white dwarf of measured radius
+/// 0.0091 ± 0.0002 R☉ spinning in 150 s (v ≈ 2e-4, within first order at every point).
+fn spinning_white_dwarf() -> dwarfbound::catalogue::CatalogueObject {
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+    CatalogueObject {
+        id: "WD-150s".into(),
+        class: ObjectClass::WhiteDwarf,
+        mass_msun: 0.9,
+        mass_err_lo_msun: Some(0.02),
+        mass_err_hi_msun: Some(0.02),
+        mass_limit: MassLimit::None,
+        radius_rsun: Some(0.0091),
+        radius_err_rsun: Some(0.0002),
+        age_gyr: None,
+        age_err_gyr: None,
+        rotation_period_h: Some(150.0 / 3600.0),
+        rotation_period_err_h: None,
+        mu_e: None,
+        teff_k: None,
+        teff_err_k: None,
+        core: None,
+        envelope: None,
+        radius_model_rsun: None,
+        mass_method: Default::default(),
+        reference: None,
+        source_file: "a.csv".into(),
+        source_row: 1,
+    }
+}
+
+// Source: the definition of a white dwarf's slow-rotation factor at a grid point
+// (docs/rotation.md §3): n_eff = (1 − 3s)/(1 − s) from the local slope s = d ln R/d ln M of the
+// cold relation at the point (central difference, h = 1e-3 M, index rounded to 0.01 as the
+// standard correction does), the coefficients of that polytrope at the point's (ϒ, τ), ρ_c =
+// (ξ₁³/(3ω)) · 3M/(4πR³) with the measured radius, v = Ω²/(2πGρ_c), f = 1 + v (d ln R/dv)|_M.
+// At ϒ = τ = 0 it must be the standard factor exactly. The radius term at each point must be the
+// radius term of the predictions multiplied by f there (inside the mixture, the shared radius
+// scale eliminated with them), and the τ = 0 slice must agree with the grid at its coarse points.
+// G is CODATA 2018, M☉ and R☉ the IAU 2015 B3 nominal values (through the crate's constants).
+#[test]
+fn white_dwarf_radius_factor_is_taken_at_each_grid_point() {
+    use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions, Term};
+    use dwarfbound::confront::slice::tau0_slice;
+    use dwarfbound::confront::spin::SlowRotationStatus;
+    use dwarfbound::confront::wd_radius::{radius_term, WdRadiusModel};
+    use dwarfbound::theory::slow_rotation::slow_rotation;
+    use dwarfbound::theory::Anisotropy;
+    let mut opts = EngineOptions::default();
+    opts.radius.model = WdRadiusModel::Cold;
+    let surface = SpinningWd;
+    let objects = [spinning_white_dwarf()];
+    let conf = run_engine(&objects, &surface, &opts).unwrap();
+    let spin = &conf.spins[0];
+    assert!(
+        matches!(spin.slow, SlowRotationStatus::Corrected { .. }),
+        "{:?}",
+        spin.slow
+    );
+    assert_eq!(conf.radius_objects.len(), 1);
+    let definition = |i: usize| {
+        let (u, t) = (SPINNING_WD_UPSILON[i % 5], [0.0, 0.1][i / 5]);
+        let m = 0.9;
+        let h = 1e-3 * m;
+        let r = |m: f64| spinning_wd_radius_rsun(m, u, t).unwrap();
+        let s = (r(m + h).ln() - r(m - h).ln()) / ((m + h).ln() - (m - h).ln());
+        let n = (((1.0 - 3.0 * s) / (1.0 - s)) * 100.0).round() / 100.0;
+        let c = slow_rotation(n, u, t, Anisotropy::DensitySquared).unwrap();
+        let radius = 0.0091 * dwarfbound::constants::R_SUN_NOMINAL_M;
+        let mass = m * dwarfbound::constants::msun_kg();
+        let rho_c = c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass
+            / (4.0 * std::f64::consts::PI * radius.powi(3));
+        let omega = 2.0 * std::f64::consts::PI / 150.0;
+        let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
+        assert!(v <= c.v_max && n < 2.95, "first order holds at every point");
+        1.0 + v * c.radius_at_fixed_mass_coefficient.unwrap()
+    };
+    let f0 = spin.radius_factor;
+    assert!((f0 - definition(2)).abs() < 1e-13, "{f0}");
+    assert!(f0 > 1.0 && f0 < 1.01, "{f0}");
+    let shared = conf.radius_shared.as_ref();
+    let mut moved = 0;
+    for i in 0..10 {
+        let f = spin.radius_factor_at(&surface, i);
+        assert!((f - definition(i)).abs() < 1e-13, "point {i}: {f}");
+        if i == 2 {
+            // Standard gravity: the standard factor itself.
+            assert_eq!(f, f0);
+        } else if (f - f0).abs() > 1e-7 {
+            moved += 1;
+        }
+        // The radius term: every prediction multiplied by f at the point (the standard radii
+        // carry f₀ already), the shared scale eliminated with them.
+        let mut r = conf.radius_objects[0].clone();
+        for s in r.standard.iter_mut().flatten() {
+            s.radius_rsun *= f / f0;
+        }
+        let u = SPINNING_WD_UPSILON[i % 5];
+        let cold = surface.wd_radii_rsun(
+            i,
+            &r.nodes.iter().map(|&(m, _)| (m, 2.0)).collect::<Vec<_>>(),
+        );
+        let want = radius_term(std::slice::from_ref(&r), &cold, u, shared).minus_two_ln_l;
+        let got = conf.per_term[Term::WhiteDwarfRadius as usize][i].unwrap();
+        assert!(
+            (got - want).abs() < 1e-9 * want.abs().max(1.0),
+            "point {i}: {got} vs {want}"
+        );
+        let plain = radius_term(&conf.radius_objects, &cold, u, shared).minus_two_ln_l;
+        if i == 2 {
+            assert_eq!(got, plain);
+        } else {
+            assert!(
+                (got - plain).abs() > 1e-9,
+                "point {i}: the factor moved nothing"
+            );
+        }
+    }
+    assert!(moved >= 8, "{moved} points with a point-specific factor");
+    // The τ = 0 slice on its fine axis passes through the grid's radius term at the coarse points.
+    let s = tau0_slice(&conf, &surface).unwrap().unwrap();
+    for (i, &u) in SPINNING_WD_UPSILON.iter().enumerate() {
+        let k = s
+            .slice
+            .upsilon_fine
+            .iter()
+            .position(|&x| (x - u).abs() < 1e-12)
+            .unwrap();
+        let grid = conf.per_term[Term::WhiteDwarfRadius as usize][i].unwrap();
+        assert!(
+            (s.radius_total_fine[k] - grid).abs() < 1e-9 * grid.abs().max(1.0),
+            "ϒ = {u}: {} vs {grid}",
+            s.radius_total_fine[k]
+        );
+    }
+}
+
+// Acceptance of issue 14 with the radius test on the real grid (invented objects, not
+// measurements): the 13 s and 70 s white dwarfs at 1.22 and 1.27 M☉, now with a measured radius,
+// are confronted without error; the 70 s one is corrected at standard gravity (first order holds
+// there, docs/rotation.md §1.4) and takes the radius test with its factor at each grid point,
+// which needs the slow-rotation table at its effective index on a grid with τ ≠ 0.
+#[test]
+fn fast_white_dwarfs_with_radii_take_the_radius_test_with_their_factor() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run(
+        dir.path(),
+        "id,class,mass,mass_err,radius,radius_err,teff,teff_err,rotation_period,mass_method\n\
+         WD-13s,white_dwarf,1.22,0.02,0.0058,0.0003,20000,500,0.0036111111111,dynamical\n\
+         WD-70s,white_dwarf,1.27,0.02,0.0052,0.0003,20000,500,0.019444444444,dynamical\n",
+        &["--upsilon=-0.2:0.2:5", "--tau=-0.1:0.1:3"],
+    );
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    assert!(field(&h, &rows, "WD-70s", "flags").contains("spin_corrected"));
+    for id in ["WD-13s", "WD-70s"] {
+        assert_eq!(field(&h, &rows, id, "spin_radius_source"), "measured");
+        let z: f64 = field(&h, &rows, id, "radius_sigma_standard")
+            .parse()
+            .unwrap_or_else(|_| panic!("{id}: no radius tension"));
+        assert!(z.is_finite());
+    }
+    let (gh, grows) = read_csv(&out.join("grid.csv"));
+    let k = col(&gh, "minus_two_ln_l_white_dwarf_radius");
+    assert!(grows.iter().all(|r| r[k].parse::<f64>().is_ok()));
+}
+
+// Source: the definition of the factor (docs/rotation.md §3) with the coefficients solved
+// directly (`slow_rotation` at the point's ϒ, τ and the grid's density-squared ansatz) against
+// the theory grid's surface, whose coefficients come from the interpolated table: they agree to
+// the table's measured error (4e-4 of the coefficient, so of f − 1; docs/rotation.md §3), and at
+// ϒ = τ = 0 the factor is the standard one exactly (the table answers there with the direct
+// isotropic solve, the one the standard correction has always used). Invented object (not a
+// measurement): the 70 s white dwarf at 1.27 M☉ with a measured radius of 0.0052 R☉.
+#[test]
+fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
+    use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions};
+    use dwarfbound::confront::spin::SlowRotationStatus;
+    use dwarfbound::pipeline::surface::GridSurface;
+    use dwarfbound::theory::grid::{compute, GridOptions};
+    use dwarfbound::theory::point::{standard_point, TheorySettings};
+    use dwarfbound::theory::slow_rotation::slow_rotation;
+    use dwarfbound::theory::{Anisotropy, Axis};
+    let settings = TheorySettings::default();
+    assert_eq!(settings.anisotropy, Anisotropy::DensitySquared);
+    let grid = compute(
+        Axis {
+            start: -0.2,
+            stop: 0.2,
+            count: 5,
+        },
+        Axis {
+            start: -0.1,
+            stop: 0.1,
+            count: 3,
+        },
+        &settings,
+        &GridOptions {
+            with_wd_tables: true,
+            quiet: true,
+            ..GridOptions::default()
+        },
+    )
+    .unwrap();
+    let standard = standard_point(&settings).unwrap();
+    let cold = standard.white_dwarf.as_ref().and_then(|t| t.ok());
+    let opts = EngineOptions::default();
+    let surface = GridSurface::new(&grid, cold, opts.radius.model);
+    let wd = CatalogueObject {
+        id: "WD-70s".into(),
+        class: ObjectClass::WhiteDwarf,
+        mass_msun: 1.27,
+        mass_err_lo_msun: Some(0.02),
+        mass_err_hi_msun: Some(0.02),
+        mass_limit: MassLimit::None,
+        radius_rsun: Some(0.0052),
+        radius_err_rsun: Some(0.0003),
+        age_gyr: None,
+        age_err_gyr: None,
+        rotation_period_h: Some(70.0 / 3600.0),
+        rotation_period_err_h: None,
+        mu_e: None,
+        teff_k: Some(20_000.0),
+        teff_err_k: Some(500.0),
+        core: None,
+        envelope: None,
+        radius_model_rsun: None,
+        mass_method: MassMethod::Dynamical,
+        reference: None,
+        source_file: "a.csv".into(),
+        source_row: 1,
+    };
+    let conf = run_engine(&[wd], &surface, &opts).unwrap();
+    let spin = &conf.spins[0];
+    assert!(
+        matches!(spin.slow, SlowRotationStatus::Corrected { .. }),
+        "{:?} {:?}",
+        spin.slow,
+        conf.uses[0].flags
+    );
+    let (ups, taus) = (surface.upsilon().to_vec(), surface.tau().to_vec());
+    let definition = |i: usize, anisotropy: Anisotropy| {
+        let (u, t) = (ups[i % 5], taus[i / 5]);
+        let m = 1.27;
+        let h = 1e-3 * m;
+        let r = surface.wd_radii_rsun(i, &[(m - h, 2.0), (m + h, 2.0)]);
+        let (lo, hi) = (r[0].unwrap(), r[1].unwrap());
+        let s = (hi.ln() - lo.ln()) / ((m + h).ln() - (m - h).ln());
+        let n_eff = (1.0 - 3.0 * s) / (1.0 - s);
+        let n = (n_eff.clamp(1.05, 2.95) * 100.0).round() / 100.0;
+        let c = slow_rotation(n, u, t, anisotropy).unwrap();
+        let radius = 0.0052 * dwarfbound::constants::R_SUN_NOMINAL_M;
+        let mass = m * dwarfbound::constants::msun_kg();
+        let rho_c = c.xi1.powi(3) / (3.0 * c.omega) * 3.0 * mass
+            / (4.0 * std::f64::consts::PI * radius.powi(3));
+        let omega = 2.0 * std::f64::consts::PI / 70.0;
+        let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
+        if v > c.v_max || n_eff >= 2.95 {
+            1.0
+        } else {
+            1.0 + v * c.radius_at_fixed_mass_coefficient.unwrap()
+        }
+    };
+    let i_std = 7;
+    assert_eq!((ups[i_std % 5], taus[i_std / 5]), (0.0, 0.0));
+    assert_eq!(spin.radius_factor, definition(i_std, Anisotropy::None));
+    assert_eq!(spin.radius_factor_at(&surface, i_std), spin.radius_factor);
+    let mut corrected_elsewhere = 0;
+    for i in (0..15).filter(|&i| i != i_std) {
+        let want = definition(i, Anisotropy::DensitySquared);
+        let got = spin.radius_factor_at(&surface, i);
+        assert!(
+            (got - want).abs() <= 4e-4 * (want - 1.0).abs() + 1e-15,
+            "point {i}: {got} vs {want}"
+        );
+        if want != 1.0 {
+            corrected_elsewhere += 1;
+        }
+    }
+    // f − 1 runs from 1.2e-3 to 4.7e-3 over this grid (f₀ − 1 = 1.5e-3): first order holds at
+    // every point.
+    assert_eq!(corrected_elsewhere, 14);
+}

@@ -286,3 +286,97 @@ fn shape_part_gives_the_published_love_numbers() {
     assert!(rel(k2(1.5), 2.0 * 0.143_279) < 4e-6, "{}", k2(1.5));
     assert!(rel(k2(3.0), 2.0 * 0.014_443_0) < 4e-6, "{}", k2(3.0));
 }
+
+/// Largest relative error of the slow-rotation table against direct solves (what the bounds use:
+/// d ln M/dv, d ln R/dv at fixed mass, the central-density contrast ξ₁³/(3ω) and v_max), over
+/// off-node (ϒ, τ, n) points of the demo's grid range, for one ansatz. Returns (worst error,
+/// where).
+fn table_error(anisotropy: Anisotropy) -> (f64, String) {
+    use dwarfbound::theory::slow_rotation_table::SlowRotationTable;
+    let table = SlowRotationTable::new((-0.3, 0.6), (-0.3, 0.3), anisotropy);
+    let taus: &[f64] = if anisotropy == Anisotropy::None {
+        &[0.0]
+    } else {
+        &[-0.275, -0.125, 0.025, 0.175, 0.275]
+    };
+    let mut worst = (0.0, String::new());
+    for &n in &[1.5, 1.125, 1.275, 1.425, 1.575, 2.025, 2.475, 2.925] {
+        let mut worst_n: f64 = 0.0;
+        for &t in taus {
+            for &u in &[-0.275, -0.125, 0.025, 0.175, 0.325, 0.575] {
+                let a = table.at(u, t, n).unwrap();
+                let d = slow_rotation(n, u, t, anisotropy).unwrap();
+                let contrast = |s: &dwarfbound::theory::slow_rotation::SlowRotation| {
+                    s.xi1.powi(3) / (3.0 * s.omega)
+                };
+                let errs = [
+                    ("d ln M/dv", rel(a.mass_coefficient, d.mass_coefficient)),
+                    (
+                        "d ln R/dv|_M",
+                        rel(
+                            a.radius_at_fixed_mass_coefficient.unwrap(),
+                            d.radius_at_fixed_mass_coefficient.unwrap(),
+                        ),
+                    ),
+                    ("contrast", rel(contrast(&a), contrast(&d))),
+                    ("v_max", rel(a.v_max, d.v_max)),
+                ];
+                for (what, e) in errs {
+                    worst_n = worst_n.max(e);
+                    if e > worst.0 {
+                        worst = (e, format!("{what} at ϒ = {u}, τ = {t}, n = {n}"));
+                    }
+                }
+            }
+        }
+        println!("{anisotropy:?} n = {n}: {worst_n:.2e}");
+    }
+    worst
+}
+
+// Source: direct solves of the first-order equations (`slow_rotation`, itself checked above
+// against the scipy reference and Chandrasekhar's n = 1 closed forms) at off-node points: cell
+// centres of the lattice in ϒ and τ (steps 0.05), and indices halfway between the index nodes
+// (steps 0.15) and at the node n = 3/2. The tolerance is the measured interpolation error
+// (docs/rotation.md §3). The gradient ansatz (worst 8.7e-5 when measured) is left out to keep
+// the test short: its table differs only in the lattice's values.
+#[test]
+fn slow_rotation_table_against_direct_solves() {
+    let (e, at) = table_error(Anisotropy::DensitySquared);
+    println!("density-squared: worst relative error {e:.3e} ({at})");
+    let (i, at_i) = table_error(Anisotropy::None);
+    println!("isotropic: worst relative error {i:.3e} ({at_i})");
+    assert!(e < TABLE_TOLERANCE, "{e} at {at}");
+    assert!(i < TABLE_TOLERANCE, "{i} at {at_i}");
+}
+
+/// The tolerance of the table check: the measured worst error (3.55e-4, density-squared, d ln M/dv
+/// at ϒ = −0.275, τ = 0.275, n = 1.125), rounded up.
+const TABLE_TOLERANCE: f64 = 4e-4;
+
+// Source: the table's definition (docs/rotation.md §3): standard gravity is the direct solve, and
+// on a lattice node at n = 3/2 the interpolation is the node's own solve, moved by the
+// standard-gravity anchor (zero where the anisotropic solve at τ = 0 equals the isotropic one).
+#[test]
+fn slow_rotation_table_is_exact_on_its_anchors() {
+    use dwarfbound::theory::slow_rotation_table::SlowRotationTable;
+    let table = SlowRotationTable::new((-0.3, 0.6), (-0.3, 0.3), Anisotropy::DensitySquared);
+    assert_eq!(table.slabs_solved(), 0);
+    for n in [1.5, 1.83, 2.94] {
+        let a = table.at(0.0, 0.0, n).unwrap();
+        let d = slow_rotation(n, 0.0, 0.0, Anisotropy::None).unwrap();
+        assert_eq!(a.mass_coefficient, d.mass_coefficient);
+        assert_eq!(
+            a.radius_at_fixed_mass_coefficient,
+            d.radius_at_fixed_mass_coefficient
+        );
+        assert_eq!((a.xi1, a.omega, a.v_max), (d.xi1, d.omega, d.v_max));
+    }
+    // Standard gravity needs no slab.
+    assert_eq!(table.slabs_solved(), 0);
+    let a = table.at(0.3, -0.2, 1.5).unwrap();
+    let d = slow_rotation(1.5, 0.3, -0.2, Anisotropy::DensitySquared).unwrap();
+    assert!(rel(a.mass_coefficient, d.mass_coefficient) < 1e-12);
+    // One slab (n = 3/2) was solved for it.
+    assert_eq!(table.slabs_solved(), 1);
+}

@@ -65,14 +65,25 @@ pub trait BoundSurface: Sync {
     /// is this radius times the ratio of [`BoundSurface::wd_radii_rsun`] at the point to
     /// [`WdStandard::cold_rsun`].
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>>;
-    /// First-order slow-rotation coefficients of the n = 3/2 polytrope at point `i`: the
-    /// structure behind the MMHB's slow-rotation correction of a spinning brown dwarf or star
-    /// (`docs/rotation.md`). The default solves them at the point's (ϒ, τ) without anisotropy;
-    /// a theory grid answers for its own ansatz. `None` where no model exists.
-    fn slow_rotation_n32(&self, i: usize) -> Option<crate::theory::slow_rotation::SlowRotation> {
+    /// First-order slow-rotation coefficients of the polytrope of index `n` at point `i`
+    /// (`docs/rotation.md` §1.2): the structure behind a spinning white dwarf's radius
+    /// correction (n its effective index there). The default solves them at the point's (ϒ, τ)
+    /// without anisotropy; a theory grid answers for its own ansatz from a table interpolated
+    /// in (ϒ, τ, n). `None` where no model exists.
+    fn slow_rotation_at(
+        &self,
+        i: usize,
+        n: f64,
+    ) -> Option<crate::theory::slow_rotation::SlowRotation> {
         let nu = self.upsilon().len().max(1);
         let (u, t) = (*self.upsilon().get(i % nu)?, *self.tau().get(i / nu)?);
-        crate::theory::slow_rotation::slow_rotation(1.5, u, t, crate::theory::Anisotropy::None).ok()
+        crate::theory::slow_rotation::slow_rotation(n, u, t, crate::theory::Anisotropy::None).ok()
+    }
+    /// First-order slow-rotation coefficients of the n = 3/2 polytrope at point `i`: the
+    /// structure behind the MMHB's slow-rotation correction of a spinning brown dwarf or star
+    /// (`docs/rotation.md`). The default is [`BoundSurface::slow_rotation_at`] with n = 3/2.
+    fn slow_rotation_n32(&self, i: usize) -> Option<crate::theory::slow_rotation::SlowRotation> {
+        self.slow_rotation_at(i, 1.5)
     }
 }
 
@@ -695,11 +706,14 @@ pub fn confront(
             .collect();
         let ups = surface.upsilon();
         let shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
+        let spun = super::spin::RadiusCorrections::new(&spins, &radius_objects);
         per_term[Term::WhiteDwarfRadius.index()] = (0..n)
             .into_par_iter()
             .map(|i| {
                 chandra[i]?;
-                let radii = surface.wd_radii_rsun(i, &queries);
+                let mut radii = surface.wd_radii_rsun(i, &queries);
+                // Spinning white dwarfs: the point's own slow-rotation factor, inside the term.
+                spun.apply(&spins, surface, i, &mut radii);
                 let upsilon = ups[i % nu];
                 let term =
                     wd_radius::radius_term(&radius_objects, &radii, upsilon, shared.as_ref());

@@ -191,6 +191,9 @@ type PerObjectFine = Vec<(usize, Vec<f64>)>;
 /// Per fine point, the cold radius at every radius object's mass nodes.
 type NodesFine = Vec<Vec<Option<f64>>>;
 
+/// Changes a coarse point's radii before they are interpolated: (grid index, radii).
+type AdjustRadii<'a> = dyn Fn(usize, &mut [Option<f64>]) + Sync + 'a;
+
 /// −2 ln L of each white dwarf's radius term along the fine τ = 0 axis: (object index, values),
 /// and the whole radius term there (shared systematic eliminated).
 ///
@@ -221,7 +224,18 @@ fn radius_terms_on_fine_axis(
             r.nodes.iter().map(move |&(m, _)| (m, mu_e))
         })
         .collect();
-    let per_node = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &all_queries)?;
+    // Spinning white dwarfs carry their slow-rotation factor at each coarse point (as on the
+    // grid), and the corrected radii are interpolated along the row.
+    let spun = super::spin::RadiusCorrections::new(&conf.spins, &conf.radius_objects);
+    let adjust = |i: usize, radii: &mut [Option<f64>]| spun.apply(&conf.spins, surface, i, radii);
+    let per_node = cold_radii_on_fine_axis(
+        surface,
+        row,
+        conf.n_upsilon,
+        fine,
+        &all_queries,
+        (!spun.is_empty()).then_some(&adjust),
+    )?;
     // Per fine point, every node's cold radius (the layout `radius_term` takes).
     let nodes_fine: NodesFine = (0..fine.len())
         .into_par_iter()
@@ -294,18 +308,27 @@ pub fn radius_total_fine(
 
 /// Cold radii of `queries` along the fine τ = 0 axis, one vector per query: looked up once per
 /// coarse point (batched), then interpolated per query along the row (not-a-knot cubic; linear
-/// where a neighbouring point has no radius, `None` where neither has one).
+/// where a neighbouring point has no radius, `None` where neither has one). `adjust`, if given,
+/// changes each coarse point's radii (grid index, radii) before they are interpolated.
 fn cold_radii_on_fine_axis(
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     nu: usize,
     fine: &[f64],
     queries: &[(f64, f64)],
+    adjust: Option<&AdjustRadii<'_>>,
 ) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
     let axis = row.axis;
     let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
         .into_par_iter()
-        .map(|i| surface.wd_radii_rsun(row.j0 * nu + row.first + i, queries))
+        .map(|i| {
+            let at = row.j0 * nu + row.first + i;
+            let mut radii = surface.wd_radii_rsun(at, queries);
+            if let Some(f) = adjust {
+                f(at, &mut radii);
+            }
+            radii
+        })
         .collect();
     (0..queries.len())
         .into_par_iter()
@@ -360,7 +383,7 @@ fn spin_terms_on_fine_axis(
         .iter()
         .flat_map(super::spin::ObjectSpin::queries)
         .collect();
-    let per_query = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &queries)?;
+    let per_query = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &queries, None)?;
     // The MMHB factors of corrected objects at the coarse points of the row.
     let coarse: Vec<Vec<super::spin::SpinAt>> = if conf.spins.iter().any(|s| s.mmhb.is_some()) {
         (0..row.axis.len())

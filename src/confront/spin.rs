@@ -35,11 +35,14 @@
 //! white dwarf's radius at fixed mass grows by v·(d ln R/dv)|_M of the polytrope whose index
 //! matches the local slope of its cold mass–radius relation. ρ_c is that polytrope's central
 //! density for the object's radius at (or nearest to) standard gravity, with the coefficients of
-//! ϒ = τ = 0; a brown dwarf's or star's factor is then carried to every grid point with that
-//! point's own coefficients ([`MmhbSlowRotation`]; white dwarfs keep the standard ones). Beyond
-//! the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit; n_eff ≥ 2.95 counts as
-//! beyond: near the Chandrasekhar mass the radius at fixed mass does not respond linearly) the
-//! object is flagged `spin_beyond_first_order` and left uncorrected.
+//! ϒ = τ = 0. Beyond the first-order threshold v > v_max = 0.1 v_crit (Ω > 0.32 Ω_crit;
+//! n_eff ≥ 2.95 counts as beyond: near the Chandrasekhar mass the radius at fixed mass does not
+//! respond linearly) the object is flagged `spin_beyond_first_order` and left uncorrected. A
+//! corrected object's factor is then taken at every grid point with that point's own structure
+//! (coefficients from [`BoundSurface::slow_rotation_at`], a table interpolated in (ϒ, τ, n) on
+//! a theory grid): a brown dwarf's or star's through the spin term ([`MmhbSlowRotation`]), a
+//! white dwarf's on its predicted radius inside the radius term ([`RadiusCorrections`]; n_eff
+//! and ρ_c at the point too).
 //!
 //! ```
 //! use dwarfbound::confront::spin::{ln_p_spin, SpinOptions};
@@ -189,7 +192,7 @@ pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
 /// systematic the difference is taken at zero shift (first order in a product of two small
 /// quantities). Where first order fails at a point (v above that point's threshold, or no
 /// model), the factor stays f₀; so it does where the mass test cannot feel it
-/// ([`MmhbSlowRotation::matters_at`]), which saves the point's ODE.
+/// ([`MmhbSlowRotation::matters_at`]), which spares the point's lookup.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MmhbSlowRotation {
     /// Ω² of the observed period, s⁻².
@@ -408,8 +411,8 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
     let cold = surface.wd_radii_rsun(i, &queries);
     let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
     let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
-    // The point's coefficients are solved only where some corrected object's mass test can
-    // feel them (one ODE per point).
+    // The point's coefficients are looked up only where some corrected object's mass test can
+    // feel them.
     let needed = mmhb.is_some_and(|b| {
         spins
             .iter()
@@ -651,17 +654,16 @@ fn mmhb_slow_rotation(
     status_of(c.at(v).map(|x| x.mass), v)
 }
 
-fn wd_slow_rotation(
-    spin: &ObjectSpin,
-    surface: &dyn BoundSurface,
-    i_std: usize,
-) -> SlowRotationStatus {
+/// A white dwarf's first-order radius change at grid point `i` (`docs/rotation.md` §3): the
+/// effective index n_eff from the local slope of the cold mass–radius relation at the point
+/// (rounded to 0.01 and kept within [1.05, 2.95]), the coefficients of that polytrope at the
+/// point's (ϒ, τ) ([`BoundSurface::slow_rotation_at`]), ρ_c of that polytrope for the object's
+/// radius there (measured, or the cold radius at the point), and the change
+/// v (d ln R/dv)|_M. At the standard point this is the object's standard correction.
+fn wd_slow_rotation(spin: &ObjectSpin, surface: &dyn BoundSurface, i: usize) -> SlowRotationStatus {
     let m = spin.mass_msun;
     let h = 1e-3 * m;
-    let radii = surface.wd_radii_rsun(
-        i_std,
-        &[(m - h, spin.mu_e), (m, spin.mu_e), (m + h, spin.mu_e)],
-    );
+    let radii = surface.wd_radii_rsun(i, &[(m - h, spin.mu_e), (m, spin.mu_e), (m + h, spin.mu_e)]);
     let (Some(lo), Some(mid), Some(hi)) = (
         radii.first().copied().flatten(),
         radii.get(1).copied().flatten(),
@@ -673,7 +675,7 @@ fn wd_slow_rotation(
     let n = effective_index(slope);
     // ρ_c of the matching polytrope; v from it even where the index is too close to 3.
     let index = (n.clamp(1.05, WD_MAX_EFFECTIVE_INDEX) * 100.0).round() / 100.0;
-    let Ok(c) = slow_rotation(index, 0.0, 0.0, Anisotropy::None) else {
+    let Some(c) = surface.slow_rotation_at(i, index) else {
         return SlowRotationStatus::NotApplied;
     };
     let radius = spin.measured_rsun.unwrap_or(mid);
@@ -692,8 +694,28 @@ fn wd_slow_rotation(
     status_of(change, v)
 }
 
+impl ObjectSpin {
+    /// A white dwarf's slow-rotation factor on its radius at grid point `i`:
+    /// f(ϒ, τ) = 1 + v(ϒ, τ) (d ln R/dv)|_M(n_eff; ϒ, τ), with everything taken at the point
+    /// (the standard correction's recipe, at the point). 1 (no correction) for an object not
+    /// corrected at standard gravity, and at a point where first order fails (v above that
+    /// point's threshold, n_eff ≥ 2.95) or there is no model: the correction is made only where
+    /// first order holds. At the standard point it is [`ObjectSpin::radius_factor`] exactly.
+    pub fn radius_factor_at(&self, surface: &dyn BoundSurface, i: usize) -> f64 {
+        if self.radius_factor == 1.0 {
+            return 1.0;
+        }
+        match wd_slow_rotation(self, surface, i) {
+            SlowRotationStatus::Corrected { change, .. } => 1.0 + change,
+            _ => 1.0,
+        }
+    }
+}
+
 /// Multiplies the predicted radius of every white dwarf with a slow-rotation correction by its
-/// factor (the standard radii of its radius test).
+/// standard-gravity factor f₀ (the standard radii of its radius test, and so its
+/// standard-gravity tension). At the other grid points [`RadiusCorrections`] carries each
+/// prediction from f₀ to that point's own factor.
 pub fn correct_radius_tests(radius_objects: &mut [ObjectRadius], spins: &[ObjectSpin]) {
     for s in spins.iter().filter(|s| s.radius_factor != 1.0) {
         for r in radius_objects.iter_mut().filter(|r| r.index == s.index) {
@@ -703,6 +725,74 @@ pub fn correct_radius_tests(radius_objects: &mut [ObjectRadius], spins: &[Object
             if let Some((c, slope)) = r.at_nominal.as_mut() {
                 c.radius_rsun *= s.radius_factor;
                 *slope *= s.radius_factor;
+            }
+        }
+    }
+}
+
+/// The white dwarfs whose radius test carries a slow-rotation factor, located in the radius
+/// term's layout once per confrontation, so that at each grid point their predictions move from
+/// the standard factor f₀ to the point's own f(ϒ, τ).
+///
+/// The radius term predicts R_std(M) · R_c(M; ϒ, τ)/R_c(M; 0, 0) per mass node, and
+/// [`correct_radius_tests`] has put f₀ into R_std. Scaling the object's cold radii at the point
+/// by f(ϒ, τ)/f₀ before the term is formed makes the prediction R_std · f(ϒ, τ) · ratio inside
+/// every mixture component, so the shared radius scale is eliminated with the corrected radii
+/// (not a difference added afterwards). At the standard point the ratio is exactly 1.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct RadiusCorrections {
+    /// (position in the spins, first and end of its nodes in the radius term's layout).
+    entries: Vec<(usize, usize, usize)>,
+}
+
+impl RadiusCorrections {
+    /// Locates each corrected white dwarf of `spins` among `radius_objects` (in the order the
+    /// radius term lays out their mass nodes).
+    pub fn new(spins: &[ObjectSpin], radius_objects: &[ObjectRadius]) -> Self {
+        let mut first_node = std::collections::BTreeMap::new();
+        let mut at = 0;
+        for r in radius_objects {
+            first_node.insert(r.index, (at, at + r.nodes.len()));
+            at += r.nodes.len();
+        }
+        let entries = spins
+            .iter()
+            .enumerate()
+            .filter(|(_, s)| s.radius_factor != 1.0)
+            .filter_map(|(k, s)| first_node.get(&s.index).map(|&(a, b)| (k, a, b)))
+            .collect();
+        Self { entries }
+    }
+
+    /// Whether any radius test carries a factor.
+    pub fn is_empty(&self) -> bool {
+        self.entries.is_empty()
+    }
+
+    /// Scales the cold radii `cold_at_point` of grid point `i` (every radius object's nodes,
+    /// object after object) by each corrected object's f(ϒ, τ)/f₀.
+    pub fn apply(
+        &self,
+        spins: &[ObjectSpin],
+        surface: &dyn BoundSurface,
+        i: usize,
+        cold_at_point: &mut [Option<f64>],
+    ) {
+        for &(k, a, b) in &self.entries {
+            let Some(s) = spins.get(k) else {
+                continue;
+            };
+            let ratio = s.radius_factor_at(surface, i) / s.radius_factor;
+            if ratio == 1.0 {
+                continue;
+            }
+            for r in cold_at_point
+                .get_mut(a..b.min(cold_at_point.len()))
+                .unwrap_or(&mut [])
+                .iter_mut()
+                .flatten()
+            {
+                *r *= ratio;
             }
         }
     }

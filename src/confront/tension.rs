@@ -32,7 +32,7 @@ use super::prob::Measurement;
 use super::regions::{
     absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
 };
-use super::spin::SpinVerdict;
+use super::spin::{ObjectSpin, SpinVerdict};
 use super::wd_radius::ObjectRadius;
 use crate::catalogue::{CatalogueObject, ObjectClass};
 
@@ -130,6 +130,7 @@ pub fn object_verdicts(
     objects: &[CatalogueObject],
     uses: &[ObjectUse],
     radius_objects: &[ObjectRadius],
+    spins: &[ObjectSpin],
     standard: &ReferencePoint,
     best: &ReferencePoint,
     surface: &dyn BoundSurface,
@@ -167,7 +168,17 @@ pub fn object_verdicts(
             let radius_sigma_standard = radius.and_then(ObjectRadius::standard_tension);
             let radius_sigma_best = radius.and_then(|r| {
                 let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
-                r.tension_at(cold.first().copied().flatten(), best_upsilon)
+                // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
+                let spun = spins
+                    .iter()
+                    .find(|s| s.index == k && s.radius_factor != 1.0)
+                    .map_or(1.0, |s| {
+                        s.radius_factor_at(surface, best_index) / s.radius_factor
+                    });
+                r.tension_at(
+                    cold.first().copied().flatten().map(|c| c * spun),
+                    best_upsilon,
+                )
             });
             ObjectVerdict {
                 bound_standard: bs.map(|b| b * scale),

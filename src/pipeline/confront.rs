@@ -275,6 +275,7 @@ pub fn run_confrontation(
         &vetted.objects,
         &conf.uses,
         &conf.radius_objects,
+        &conf.spins,
         &class_bounds(&standard),
         &class_bounds(best_point),
         &surface,

@@ -22,7 +22,8 @@ use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandar
 use crate::theory::grid::{self, TheoryGrid};
 use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
-use crate::theory::slow_rotation::{slow_rotation, SlowRotation};
+use crate::theory::slow_rotation::SlowRotation;
+use crate::theory::slow_rotation_table::SlowRotationTable;
 use crate::theory::white_dwarf::WdMassRadius;
 
 /// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, ϒ
@@ -35,10 +36,10 @@ pub struct GridSurface<'a> {
     standard_cold: Option<&'a WdMassRadius>,
     /// Which standard-gravity radius anchors the white-dwarf radius test.
     wd_model: WdRadiusModel,
-    /// The n = 3/2 slow-rotation coefficients per point, each solved on first use (only runs
-    /// with a slowly spinning brown dwarf or star ask, and only where its mass test is
-    /// sensitive to them).
-    slow_n32: Vec<std::sync::OnceLock<Option<SlowRotation>>>,
+    /// The first-order slow-rotation coefficients over the grid's (ϒ, τ) and the polytropic
+    /// indices of spinning objects: a lattice solved one index slab at a time on first use
+    /// (only runs with a slowly spinning object ask), interpolated at each point.
+    slow: SlowRotationTable,
 }
 
 impl<'a> GridSurface<'a> {
@@ -61,9 +62,11 @@ impl<'a> GridSurface<'a> {
             tau,
             standard_cold,
             wd_model,
-            slow_n32: (0..grid.upsilon.count * grid.tau.count)
-                .map(|_| std::sync::OnceLock::new())
-                .collect(),
+            slow: SlowRotationTable::new(
+                (grid.upsilon.start, grid.upsilon.stop),
+                (grid.tau.start, grid.tau.stop),
+                grid.settings.anisotropy,
+            ),
         }
     }
 
@@ -148,13 +151,15 @@ impl BoundSurface for GridSurface<'_> {
         }
     }
     fn slow_rotation_n32(&self, i: usize) -> Option<SlowRotation> {
+        // Only where the grid has an MMHB: the coefficients belong to that structure.
+        self.grid.point(i)?.mmhb.ok()?;
+        self.slow_rotation_at(i, 1.5)
+    }
+    fn slow_rotation_at(&self, i: usize, n: f64) -> Option<SlowRotation> {
+        self.grid.point(i)?;
         let nu = self.upsilon.len();
-        *self.slow_n32.get(i)?.get_or_init(|| {
-            // Only where the grid has a model: the coefficients belong to that structure.
-            self.grid.point(i)?.mmhb.ok()?;
-            let ansatz = self.grid.settings.anisotropy;
-            slow_rotation(1.5, self.upsilon[i % nu], self.tau[i / nu], ansatz).ok()
-        })
+        let (u, t) = (*self.upsilon.get(i % nu)?, *self.tau.get(i / nu)?);
+        self.slow.at(u, t, n).ok()
     }
     fn wd_standard_radii(&self, queries: &[WdQuery]) -> Vec<Option<WdStandard>> {
         let Some(cold) = self.standard_cold else {

@@ -20,6 +20,7 @@ pub mod schonberg;
 pub mod settings;
 pub mod shard;
 pub mod slow_rotation;
+pub mod slow_rotation_table;
 pub mod wd_grid;
 pub mod white_dwarf;
 

@@ -251,15 +251,6 @@ pub fn slow_rotation(
     let d1 = le.denominator(xi1, 0.0);
     let slope = le.derivatives(xi1, 0.0, omega)?[0].abs();
     let psi0 = chi0 / d1;
-    let mass_coefficient = m0 / omega;
-    let mean_radius_coefficient = psi0 / (xi1 * slope);
-    let radius_at_fixed_mass_coefficient = if (n - 3.0).abs() < 1e-12 {
-        None
-    } else {
-        // R ∝ ρ_c^{(1−n)/(2n)} ξ_R and M ∝ ρ_c^{(3−n)/(2n)} μ at fixed K: at fixed M,
-        // δ ln ρ_c = −(2n/(3−n)) δ ln μ, so δ ln R = −((1−n)/(3−n)) δ ln μ + δ ln ξ_R.
-        Some(mean_radius_coefficient - (1.0 - n) / (3.0 - n) * mass_coefficient)
-    };
     let shape = if anisotropy == Anisotropy::DensitySquared && tau != 0.0 {
         None
     } else {
@@ -272,37 +263,96 @@ pub fn slow_rotation(
             polar_radius_coefficient: (psi0 + a2_psi2) * per,
         })
     };
-    let v_crit = 2.0 * omega / (1.5_f64.powi(3) * xi1.powi(3));
-    let out = SlowRotation {
-        n,
-        upsilon,
-        tau,
-        anisotropy,
-        xi1,
-        omega,
-        psi0_surface: psi0,
-        m0_surface: m0,
-        mass_coefficient,
-        mean_radius_coefficient,
-        radius_at_fixed_mass_coefficient,
+    SlowRotation::assemble(
+        SurfaceValues {
+            n,
+            upsilon,
+            tau,
+            anisotropy,
+            xi1,
+            omega,
+            psi0,
+            m0,
+            mean_radius_coefficient: psi0 / (xi1 * slope),
+        },
         shape,
-        v_max: FIRST_ORDER_MAX_FRACTION_OF_BREAKUP * v_crit,
-    };
-    let finite = [
-        out.xi1,
-        out.omega,
-        out.mass_coefficient,
-        out.mean_radius_coefficient,
-        out.v_max,
-    ]
-    .iter()
-    .all(|x| x.is_finite())
-        && out.shape.is_none_or(|s| s.a2_psi2.is_finite());
-    if !finite {
-        return Err(TheoryError::NumericalFailure {
-            xi: xi1,
-            why: "non-finite first-order rotation coefficient",
-        });
+    )
+}
+
+/// What the first-order solution gives at the surface, from which every coefficient of
+/// [`SlowRotation`] follows: the one place where they are combined, shared by the direct solve
+/// and the interpolated table ([`crate::theory::slow_rotation_table`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct SurfaceValues {
+    pub n: f64,
+    pub upsilon: f64,
+    pub tau: f64,
+    pub anisotropy: Anisotropy,
+    pub xi1: f64,
+    pub omega: f64,
+    pub psi0: f64,
+    pub m0: f64,
+    /// ψ₀(ξ₁)/(ξ₁|θ′(ξ₁)|).
+    pub mean_radius_coefficient: f64,
+}
+
+impl SlowRotation {
+    /// The coefficients from the surface values (derived quantities computed here only).
+    pub(crate) fn assemble(
+        s: SurfaceValues,
+        shape: Option<SlowRotationShape>,
+    ) -> Result<SlowRotation, TheoryError> {
+        let SurfaceValues {
+            n,
+            upsilon,
+            tau,
+            anisotropy,
+            xi1,
+            omega,
+            psi0,
+            m0,
+            mean_radius_coefficient,
+        } = s;
+        let mass_coefficient = m0 / omega;
+        let radius_at_fixed_mass_coefficient = if (n - 3.0).abs() < 1e-12 {
+            None
+        } else {
+            // R ∝ ρ_c^{(1−n)/(2n)} ξ_R and M ∝ ρ_c^{(3−n)/(2n)} μ at fixed K: at fixed M,
+            // δ ln ρ_c = −(2n/(3−n)) δ ln μ, so δ ln R = −((1−n)/(3−n)) δ ln μ + δ ln ξ_R.
+            Some(mean_radius_coefficient - (1.0 - n) / (3.0 - n) * mass_coefficient)
+        };
+        let v_crit = 2.0 * omega / (1.5_f64.powi(3) * xi1.powi(3));
+        let out = SlowRotation {
+            n,
+            upsilon,
+            tau,
+            anisotropy,
+            xi1,
+            omega,
+            psi0_surface: psi0,
+            m0_surface: m0,
+            mass_coefficient,
+            mean_radius_coefficient,
+            radius_at_fixed_mass_coefficient,
+            shape,
+            v_max: FIRST_ORDER_MAX_FRACTION_OF_BREAKUP * v_crit,
+        };
+        let finite = [
+            out.xi1,
+            out.omega,
+            out.mass_coefficient,
+            out.mean_radius_coefficient,
+            out.v_max,
+        ]
+        .iter()
+        .all(|x| x.is_finite())
+            && out.shape.is_none_or(|s| s.a2_psi2.is_finite());
+        if !finite {
+            return Err(TheoryError::NumericalFailure {
+                xi: xi1,
+                why: "non-finite first-order rotation coefficient",
+            });
+        }
+        Ok(out)
     }
-    Ok(out)
 }
