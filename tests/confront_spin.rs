@@ -801,7 +801,8 @@ fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
         let omega = 2.0 * std::f64::consts::PI / 70.0;
         let v = omega * omega / (2.0 * std::f64::consts::PI * dwarfbound::constants::G_SI * rho_c);
         if v > c.v_max || n_eff >= 2.95 {
-            1.0
+            // Beyond first order at this point: the standard factor is kept.
+            spin.radius_factor
         } else {
             1.0 + v * c.radius_at_fixed_mass_coefficient.unwrap()
         }

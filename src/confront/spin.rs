@@ -698,16 +698,18 @@ impl ObjectSpin {
     /// A white dwarf's slow-rotation factor on its radius at grid point `i`:
     /// f(ϒ, τ) = 1 + v(ϒ, τ) (d ln R/dv)|_M(n_eff; ϒ, τ), with everything taken at the point
     /// (the standard correction's recipe, at the point). 1 (no correction) for an object not
-    /// corrected at standard gravity, and at a point where first order fails (v above that
-    /// point's threshold, n_eff ≥ 2.95) or there is no model: the correction is made only where
-    /// first order holds. At the standard point it is [`ObjectSpin::radius_factor`] exactly.
+    /// corrected at standard gravity. At a point where first order fails (v above that point's
+    /// threshold, n_eff ≥ 2.95) or there is no model, the standard factor f₀, as for the MMHB:
+    /// dropping to the uncorrected radius there would make the prediction jump at the threshold
+    /// and move it away from a rotating star's, which is at least as large as first order says.
+    /// At the standard point it is [`ObjectSpin::radius_factor`] exactly.
     pub fn radius_factor_at(&self, surface: &dyn BoundSurface, i: usize) -> f64 {
         if self.radius_factor == 1.0 {
             return 1.0;
         }
         match wd_slow_rotation(self, surface, i) {
             SlowRotationStatus::Corrected { change, .. } => 1.0 + change,
-            _ => 1.0,
+            _ => self.radius_factor,
         }
     }
 }
