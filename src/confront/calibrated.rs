@@ -38,6 +38,9 @@
 //! assert!((ratio - 1.0).abs() < 0.05, "{ratio}");
 //! ```
 
+use std::collections::HashMap;
+use std::sync::{Arc, Mutex};
+
 use rayon::prelude::*;
 
 use super::prob::{ln_prob_consistent, normal_cdf, MassKind, Measurement, Side, StatsError};
@@ -479,12 +482,22 @@ impl EdgeKernel {
 /// wrong side, where the calibrated value carries no information anyway.
 const TAIL_SWITCH: f64 = 1e-6;
 
-/// One object's calibrated label probability, tabulated at the curve's nodes.
+/// One object on the calibrated path: only what its tables are recomputed from. Its
+/// posterior over the mass cells and its P at the nodes (about a kilobyte per object) are
+/// rebuilt on demand ([`CalibratedCurve::object_table`]), so memory does not grow with the
+/// catalogue by more than this record per object.
 #[derive(Debug, Clone)]
 struct CalObject {
     /// Position in the caller's list of the class.
     index: usize,
     measurement: Measurement,
+    /// ln P − ln P_flat where the tail takes over (0 if it never does on the nodes).
+    tail_offset: f64,
+}
+
+/// One object's tables, rebuilt from its measurement and the mass function whenever needed.
+#[derive(Debug)]
+struct ObjectTable {
     /// First mass cell of its posterior.
     first_cell: usize,
     /// Posterior probability of each cell from `first_cell`.
@@ -492,8 +505,23 @@ struct CalObject {
     /// First node with a tabulated P, and P there onwards.
     first_node: isize,
     p_nodes: Vec<f64>,
-    /// ln P − ln P_flat where the tail takes over (0 if it never does on the nodes).
-    tail_offset: f64,
+}
+
+/// Objects whose tables are built at a time while the curve is tabulated: enough to keep
+/// both cores busy, few enough that the tables in hand stay a few megabytes.
+const TABULATION_CHUNK: usize = 4096;
+
+/// Rebuilt tables kept for objects queried one by one ([`CalibratedCurve::ln_p`]): the
+/// leave-one-out drivers ask about the same object at thousands of bounds. Emptied when full,
+/// so it holds at most this many tables whatever the catalogue.
+const TABLE_CACHE_LEN: usize = 1024;
+
+/// Maps a measurement to class units: (mass, σ₋, σ₊), widths 0 for a limit.
+fn unit(m: &Measurement) -> (f64, f64, f64) {
+    match m.kind {
+        MassKind::Measured { lo, hi } => (m.mass_msun / m.scale, lo / m.scale, hi / m.scale),
+        _ => (m.mass_msun / m.scale, 0.0, 0.0),
+    }
 }
 
 /// The calibrated log-likelihood of one or more classes that meet at a bound, tabulated in B
@@ -520,6 +548,14 @@ pub struct CalibratedCurve {
     edge: Option<EdgeKernel>,
     /// ε weights of the per-object scatter on the cell grid (for direct evaluation).
     omega: Vec<f64>,
+    /// Each object's likelihood window, σ (the deconvolution's).
+    window_sigma: f64,
+    /// Half-width D of the Gaussian step table, cells.
+    d_half: usize,
+    /// Gaussian step table T[d] = Φ(d h / s) for d in −D..=D.
+    step_table: Vec<f64>,
+    /// Tables of recently queried objects, keyed by (class, position); see [`TABLE_CACHE_LEN`].
+    cache: Mutex<HashMap<(usize, usize), Arc<ObjectTable>>>,
 }
 
 impl CalibratedCurve {
@@ -527,6 +563,12 @@ impl CalibratedCurve {
     /// order; class units, i.e. masses and widths divided by each object's scale), over the
     /// bound range `range_msun` (not padded), with per-object scatter `scatter_msun` of the
     /// bound (≥ 0).
+    ///
+    /// The class sums at the nodes (and the direct sums that measure the achieved error) are
+    /// accumulated object by object in a fixed order, [`TABULATION_CHUNK`] objects' tables at
+    /// a time, which are then dropped: the result is the same to the bit as holding every
+    /// table, and the memory does not grow with the number of objects beyond one small record
+    /// each.
     pub fn build(
         classes: &[&[Measurement]],
         scatter_msun: f64,
@@ -549,14 +591,6 @@ impl CalibratedCurve {
         // Candidates: informative measured objects that matter somewhere in the range.
         let tiny = 1e-13;
         let mut cand_sigma: Vec<f64> = Vec::new();
-        let unit = |m: &Measurement| -> (f64, f64, f64) {
-            match m.kind {
-                MassKind::Measured { lo, hi } => {
-                    (m.mass_msun / m.scale, lo / m.scale, hi / m.scale)
-                }
-                _ => (m.mass_msun / m.scale, 0.0, 0.0),
-            }
-        };
         let flat_floor = scatter_msun;
         for ms in classes {
             for m in ms.iter() {
@@ -578,6 +612,7 @@ impl CalibratedCurve {
             .get((cand_sigma.len() * 9) / 10)
             .copied()
             .unwrap_or(0.01 * b_hi);
+        drop(cand_sigma);
         let margin = w * q90 + 4.0 * scatter_msun;
         let dom = ((b_lo - margin).max(0.0), b_hi + margin);
         let all: Vec<(f64, f64, f64)> = classes
@@ -588,6 +623,7 @@ impl CalibratedCurve {
             .filter(|&(m, _, _)| m >= dom.0 && m <= dom.1)
             .collect();
         let phi = deconvolve(&all, dom, dopts)?;
+        drop(all);
         // A one-sided edge: every object facing the bound must lie on the same side of it.
         let mut sides = classes.iter().flat_map(|ms| ms.iter()).map(|m| m.side);
         let edge_side = sides
@@ -599,13 +635,12 @@ impl CalibratedCurve {
         let node_first_cell = (((b_lo - dom.0) / h).floor() as usize).saturating_sub(1);
         let node_last_cell = ((((b_hi - dom.0) / h).ceil() as usize) + 1).min(n_cells - 1);
         let n_nodes = node_last_cell + 1 - node_first_cell;
-        // Gaussian step table T[d] = Φ(d h / s) for d in −D..=D.
         let d_half = if scatter_msun > 0.0 {
             ((6.0 * scatter_msun / h).ceil() as usize).max(1)
         } else {
             0
         };
-        let table: Vec<f64> = (0..=2 * d_half)
+        let step_table: Vec<f64> = (0..=2 * d_half)
             .map(|j| {
                 let d = j as f64 - d_half as f64;
                 if scatter_msun > 0.0 {
@@ -649,6 +684,39 @@ impl CalibratedCurve {
                 window,
             }
         });
+        let mut curve = Self {
+            phi,
+            scatter_msun,
+            node_first_cell,
+            n_nodes,
+            spline: CubicSpline::natural(&[b_lo, b_hi], &[0.0, 0.0])?,
+            class_splines: Vec::new(),
+            objects: Vec::new(),
+            flat: Vec::new(),
+            informative: Vec::new(),
+            achieved_error: f64::NAN,
+            edge,
+            omega: epsilon_weights(scatter_msun, h, d_half),
+            window_sigma: w,
+            d_half,
+            step_table,
+            cache: Mutex::new(HashMap::new()),
+        };
+        let xs: Vec<f64> = (0..n_nodes).map(|g| curve.node_b(g)).collect();
+        // Achieved error: spline against the direct sum (each object's posterior integrated at
+        // the exact B) at a dozen node midpoints spread over the range. The direct sums are
+        // accumulated in the same pass as the node sums, while each object's table is in hand.
+        let check_bs: Vec<f64> = (0..n_nodes.saturating_sub(1))
+            .step_by((n_nodes / 12).max(1))
+            .map(|g| 0.5 * (xs[g] + xs[g + 1]))
+            .collect();
+        let check_kernels: Vec<Option<Vec<f64>>> = check_bs
+            .par_iter()
+            .map(|&b| curve.edge_kernel_at(b))
+            .collect();
+        // Per class: the node sums (per node) and the direct sums (per check point).
+        let mut node_totals: Vec<Vec<f64>> = Vec::new();
+        let mut check_totals: Vec<Vec<f64>> = Vec::new();
         let mut objects = Vec::new();
         let mut flat = Vec::new();
         let mut informative = Vec::new();
@@ -678,50 +746,43 @@ impl CalibratedCurve {
                     fl.push((i, *m));
                 }
             }
-            let cal: Vec<CalObject> = cal_idx
-                .par_iter()
-                .filter_map(|&i| {
-                    let m = ms[i];
-                    let (m0, a, b) = unit(&m);
-                    let (first, row) = kernel_row(m0, a, b, phi.lo_msun, h, n_cells, w);
-                    let mut post: Vec<f64> = row
-                        .iter()
-                        .zip(&phi.weights[first..])
-                        .map(|(k, p)| k * p)
-                        .collect();
-                    let tot: f64 = post.iter().sum();
-                    if tot.is_nan() || tot <= 0.0 {
-                        return None;
+            let mut node_acc = vec![NeumaierSum::default(); n_nodes];
+            let mut check_acc = vec![NeumaierSum::default(); check_bs.len()];
+            let mut cal: Vec<CalObject> = Vec::new();
+            for chunk in cal_idx.chunks(TABULATION_CHUNK) {
+                let done: Vec<Option<(CalObject, ObjectTable)>> = chunk
+                    .par_iter()
+                    .map(|&i| {
+                        let m = ms[i];
+                        let t = curve.object_table(&m)?;
+                        let o = CalObject {
+                            index: i,
+                            measurement: m,
+                            tail_offset: curve.tail_offset(&m, &t),
+                        };
+                        Some((o, t))
+                    })
+                    .collect();
+                node_acc.par_iter_mut().enumerate().for_each(|(g, acc)| {
+                    let b = curve.node_b(g);
+                    for (o, t) in done.iter().flatten() {
+                        acc.add(curve.ln_p_cal(o, t, g as f64, b));
                     }
-                    post.iter_mut().for_each(|v| *v /= tot);
-                    let mut o = match &edge {
-                        Some(e) => tabulate_object_edge(i, m, first, post, node_first_cell, e),
-                        None => tabulate_object(
-                            i,
-                            m,
-                            first,
-                            post,
-                            node_first_cell,
-                            n_nodes,
-                            d_half,
-                            &table,
-                        ),
-                    };
-                    // Join the flat-prior tail at the last node above the switch.
-                    let ps = &o.p_nodes;
-                    let join = (0..ps.len()).find(|&j| {
-                        ps[j] >= TAIL_SWITCH
-                            && ((j + 1 < ps.len() && ps[j + 1] < TAIL_SWITCH)
-                                || (j > 0 && ps[j - 1] < TAIL_SWITCH))
+                });
+                check_acc
+                    .par_iter_mut()
+                    .zip(&check_bs)
+                    .zip(&check_kernels)
+                    .for_each(|((acc, &b), kernel)| {
+                        for (o, t) in done.iter().flatten() {
+                            acc.add(match kernel {
+                                Some(k) => curve.ln_p_with_kernel(o, t, k, b),
+                                None => curve.ln_p_direct_with(o, t, b),
+                            });
+                        }
                     });
-                    if let Some(j) = join {
-                        let g = (o.first_node + j as isize) as usize;
-                        let b = phi.centre(node_first_cell + g);
-                        o.tail_offset = ps[j].ln() - ln_prob_consistent(&m, b, scatter_msun);
-                    }
-                    Some(o)
-                })
-                .collect();
+                cal.extend(done.into_iter().flatten().map(|(o, _)| o));
+            }
             // Objects whose posterior vanished on the grid fall back to the flat prior.
             let kept: std::collections::BTreeSet<usize> = cal.iter().map(|o| o.index).collect();
             for &i in &cal_idx {
@@ -730,50 +791,42 @@ impl CalibratedCurve {
                 }
             }
             fl.sort_by_key(|x| x.0);
+            node_acc.par_iter_mut().enumerate().for_each(|(g, acc)| {
+                let b = curve.node_b(g);
+                for (_, m) in &fl {
+                    acc.add(ln_prob_consistent(m, b, scatter_msun));
+                }
+            });
+            for (acc, &b) in check_acc.iter_mut().zip(&check_bs) {
+                for (_, m) in &fl {
+                    acc.add(ln_prob_consistent(m, b, scatter_msun));
+                }
+            }
+            node_totals.push(node_acc.iter().map(NeumaierSum::total).collect());
+            check_totals.push(check_acc.iter().map(NeumaierSum::total).collect());
             objects.push(cal);
             flat.push(fl);
             informative.push(inf);
         }
-        let mut curve = Self {
-            phi,
-            scatter_msun,
-            node_first_cell,
-            n_nodes,
-            spline: CubicSpline::natural(&[b_lo, b_hi], &[0.0, 0.0])?,
-            class_splines: Vec::new(),
-            objects,
-            flat,
-            informative,
-            achieved_error: f64::NAN,
-            edge,
-            omega: epsilon_weights(scatter_msun, h, d_half),
-        };
-        let xs: Vec<f64> = (0..n_nodes).map(|g| curve.node_b(g)).collect();
-        let per_class: Vec<Vec<f64>> = (0..n_nodes)
-            .into_par_iter()
-            .map(|g| curve.sums_at_node(g))
-            .collect();
+        curve.objects = objects;
+        curve.flat = flat;
+        curve.informative = informative;
         let n_classes = curve.objects.len();
-        let ys: Vec<f64> = per_class.iter().map(|v| v.iter().sum()).collect();
+        let ys: Vec<f64> = (0..n_nodes)
+            .map(|g| node_totals.iter().map(|v| v[g]).sum())
+            .collect();
         curve.spline = CubicSpline::new(&xs, &ys, SplineEnd::NotAKnot)?;
         curve.class_splines = (0..n_classes)
-            .map(|c| {
-                let yc: Vec<f64> = per_class.iter().map(|v| v[c]).collect();
-                CubicSpline::new(&xs, &yc, SplineEnd::NotAKnot)
-            })
+            .map(|c| CubicSpline::new(&xs, &node_totals[c], SplineEnd::NotAKnot))
             .collect::<Result<_, _>>()?;
-        // Achieved error: spline against the direct sum (each object's posterior integrated at
-        // the exact B) at a dozen node midpoints spread over the range.
-        let checks: Vec<usize> = (0..n_nodes.saturating_sub(1))
-            .step_by((n_nodes / 12).max(1))
-            .collect();
-        curve.achieved_error = checks
-            .par_iter()
-            .map(|&g| {
-                let b = 0.5 * (xs[g] + xs[g + 1]);
-                (curve.spline.eval(b) - curve.exact(b)).abs()
+        curve.achieved_error = check_bs
+            .iter()
+            .enumerate()
+            .map(|(k, &b)| {
+                let exact: f64 = check_totals.iter().map(|v| v[k]).sum();
+                (curve.spline.eval(b) - exact).abs()
             })
-            .reduce(|| 0.0, f64::max);
+            .fold(0.0, f64::max);
         Ok(curve)
     }
 
@@ -781,36 +834,74 @@ impl CalibratedCurve {
         self.phi.centre(self.node_first_cell + g)
     }
 
-    fn sums_at_node(&self, g: usize) -> Vec<f64> {
-        let b = self.node_b(g);
-        self.objects
+    /// An object's posterior over the mass cells and its P at the nodes; `None` when its
+    /// posterior vanishes on the grid (such an object is kept on the flat-prior formula).
+    fn object_table(&self, m: &Measurement) -> Option<ObjectTable> {
+        let h = self.phi.cell_msun;
+        let n_cells = self.phi.weights.len();
+        let (m0, a, b) = unit(m);
+        let (first, row) = kernel_row(m0, a, b, self.phi.lo_msun, h, n_cells, self.window_sigma);
+        let mut post: Vec<f64> = row
             .iter()
-            .zip(&self.flat)
-            .map(|(cal, fl)| {
-                let mut acc = NeumaierSum::default();
-                for o in cal {
-                    acc.add(self.ln_p_cal(o, g as f64, b));
-                }
-                for (_, m) in fl {
-                    acc.add(ln_prob_consistent(m, b, self.scatter_msun));
-                }
-                acc.total()
-            })
-            .collect()
+            .zip(&self.phi.weights[first..])
+            .map(|(k, p)| k * p)
+            .collect();
+        let tot: f64 = post.iter().sum();
+        if tot.is_nan() || tot <= 0.0 {
+            return None;
+        }
+        post.iter_mut().for_each(|v| *v /= tot);
+        let (first_node, p_nodes) = match &self.edge {
+            Some(e) => tabulate_object_edge(first, &post, self.node_first_cell, e),
+            None => tabulate_object(
+                m.side,
+                first,
+                &post,
+                self.node_first_cell,
+                self.n_nodes,
+                self.d_half,
+                &self.step_table,
+            ),
+        };
+        Some(ObjectTable {
+            first_cell: first,
+            posterior: post,
+            first_node,
+            p_nodes,
+        })
+    }
+
+    /// ln P − ln P_flat at the last node above the switch, where the flat-prior tail joins
+    /// (0 if P never crosses the switch on the nodes).
+    fn tail_offset(&self, m: &Measurement, t: &ObjectTable) -> f64 {
+        let ps = &t.p_nodes;
+        let join = (0..ps.len()).find(|&j| {
+            ps[j] >= TAIL_SWITCH
+                && ((j + 1 < ps.len() && ps[j + 1] < TAIL_SWITCH)
+                    || (j > 0 && ps[j - 1] < TAIL_SWITCH))
+        });
+        match join {
+            Some(j) => {
+                let g = (t.first_node + j as isize) as usize;
+                let b = self.phi.centre(self.node_first_cell + g);
+                ps[j].ln() - ln_prob_consistent(m, b, self.scatter_msun)
+            }
+            None => 0.0,
+        }
     }
 
     /// ln P of a calibrated object at fractional node position `t` (bound value `b`).
-    fn ln_p_cal(&self, o: &CalObject, t: f64, b: f64) -> f64 {
-        let rel = t - o.first_node as f64;
-        let last = o.p_nodes.len() as f64 - 1.0;
+    fn ln_p_cal(&self, o: &CalObject, tab: &ObjectTable, t: f64, b: f64) -> f64 {
+        let rel = t - tab.first_node as f64;
+        let last = tab.p_nodes.len() as f64 - 1.0;
         let p = if rel <= 0.0 {
-            o.p_nodes.first().copied().unwrap_or(0.0)
+            tab.p_nodes.first().copied().unwrap_or(0.0)
         } else if rel >= last {
-            o.p_nodes.last().copied().unwrap_or(0.0)
+            tab.p_nodes.last().copied().unwrap_or(0.0)
         } else {
             let j = rel.floor() as usize;
             let f = rel - j as f64;
-            o.p_nodes[j] * (1.0 - f) + o.p_nodes[j + 1] * f
+            tab.p_nodes[j] * (1.0 - f) + tab.p_nodes[j + 1] * f
         };
         regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
     }
@@ -823,24 +914,22 @@ impl CalibratedCurve {
         })
     }
 
-    fn ln_p_with_kernel(&self, o: &CalObject, kernel: &[f64], b: f64) -> f64 {
-        let p: f64 = o
+    fn ln_p_with_kernel(&self, o: &CalObject, tab: &ObjectTable, kernel: &[f64], b: f64) -> f64 {
+        let p: f64 = tab
             .posterior
             .iter()
-            .zip(&kernel[o.first_cell..])
+            .zip(&kernel[tab.first_cell..])
             .map(|(w, g)| w * g)
             .sum();
         regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
     }
 
-    fn ln_p_direct(&self, o: &CalObject, b: f64) -> f64 {
-        if let Some(k) = self.edge_kernel_at(b) {
-            return self.ln_p_with_kernel(o, &k, b);
-        }
+    /// ln P at an arbitrary b from the posterior in `tab`, without an edge kernel.
+    fn ln_p_direct_with(&self, o: &CalObject, tab: &ObjectTable, b: f64) -> f64 {
         let h = self.phi.cell_msun;
         let mut p = 0.0;
-        for (j, w) in o.posterior.iter().enumerate() {
-            let c = self.phi.centre(o.first_cell + j);
+        for (j, w) in tab.posterior.iter().enumerate() {
+            let c = self.phi.centre(tab.first_cell + j);
             let d = match o.measurement.side {
                 Side::AtLeast => c - b,
                 Side::AtMost => b - c,
@@ -887,15 +976,26 @@ impl CalibratedCurve {
         self.exact_class(class, b_msun)
     }
 
+    /// The direct sum of one class; each object's table is rebuilt ([`TABULATION_CHUNK`] at a
+    /// time, summed in order).
     fn exact_class(&self, class: usize, b_msun: f64) -> f64 {
         let mut acc = NeumaierSum::default();
         if let (Some(cal), Some(fl)) = (self.objects.get(class), self.flat.get(class)) {
             let kernel = self.edge_kernel_at(b_msun);
-            for o in cal {
-                acc.add(match &kernel {
-                    Some(k) => self.ln_p_with_kernel(o, k, b_msun),
-                    None => self.ln_p_direct(o, b_msun),
-                });
+            for chunk in cal.chunks(TABULATION_CHUNK) {
+                let terms: Vec<f64> = chunk
+                    .par_iter()
+                    .map(|o| match self.object_table(&o.measurement) {
+                        Some(tab) => match &kernel {
+                            Some(k) => self.ln_p_with_kernel(o, &tab, k, b_msun),
+                            None => self.ln_p_direct_with(o, &tab, b_msun),
+                        },
+                        None => ln_prob_consistent(&o.measurement, b_msun, self.scatter_msun),
+                    })
+                    .collect();
+                for x in terms {
+                    acc.add(x);
+                }
             }
             for (_, m) in fl {
                 acc.add(ln_prob_consistent(m, b_msun, self.scatter_msun));
@@ -904,12 +1004,35 @@ impl CalibratedCurve {
         acc.total()
     }
 
-    fn ln_p_object(&self, o: &CalObject, b: f64) -> f64 {
+    /// An object's table, from the cache of recent queries or rebuilt (and then cached).
+    fn cached_table(&self, class: usize, o: &CalObject) -> Option<Arc<ObjectTable>> {
+        let key = (class, o.index);
+        if let Some(t) = self.cache.lock().ok().and_then(|c| c.get(&key).cloned()) {
+            return Some(t);
+        }
+        let t = Arc::new(self.object_table(&o.measurement)?);
+        if let Ok(mut c) = self.cache.lock() {
+            if c.len() >= TABLE_CACHE_LEN {
+                c.clear();
+            }
+            c.insert(key, Arc::clone(&t));
+        }
+        Some(t)
+    }
+
+    fn ln_p_object(&self, class: usize, o: &CalObject, b: f64) -> f64 {
         let t = (b - self.node_b(0)) / self.phi.cell_msun;
+        // Not `None` for an object kept at build (its table is rebuilt identically).
+        let Some(tab) = self.cached_table(class, o) else {
+            return ln_prob_consistent(&o.measurement, b, self.scatter_msun);
+        };
         if t >= 0.0 && t <= (self.n_nodes - 1) as f64 {
-            self.ln_p_cal(o, t, b)
+            self.ln_p_cal(o, &tab, t, b)
         } else {
-            self.ln_p_direct(o, b)
+            match self.edge_kernel_at(b) {
+                Some(k) => self.ln_p_with_kernel(o, &tab, &k, b),
+                None => self.ln_p_direct_with(o, &tab, b),
+            }
         }
     }
 
@@ -927,7 +1050,7 @@ impl CalibratedCurve {
             return 0.0;
         };
         if let Ok(k) = cal.binary_search_by_key(&index, |o| o.index) {
-            return self.ln_p_object(&cal[k], b_msun);
+            return self.ln_p_object(class, &cal[k], b_msun);
         }
         if let Some((_, m)) = self.flat[class].iter().find(|(i, _)| *i == index) {
             return ln_prob_consistent(m, b_msun, self.scatter_msun);
@@ -977,13 +1100,11 @@ fn regularise(p: f64, m: &Measurement, b: f64, scatter: f64, tail_offset: f64) -
 /// P̃_i at every node of the curve for a one-sided edge (`EdgeKernel`): the far allowed
 /// side of the posterior times the constant G there, plus the window around the node.
 fn tabulate_object_edge(
-    index: usize,
-    m: Measurement,
     first_cell: usize,
-    post: Vec<f64>,
+    post: &[f64],
     node_first_cell: usize,
     e: &EdgeKernel,
-) -> CalObject {
+) -> (isize, Vec<f64>) {
     let len = post.len() as isize;
     let n_nodes = e.far.len();
     let w = e.half as isize;
@@ -1013,30 +1134,20 @@ fn tabulate_object_edge(
             p.max(0.0)
         })
         .collect();
-    CalObject {
-        index,
-        measurement: m,
-        first_cell,
-        posterior: post,
-        first_node: 0,
-        p_nodes,
-        tail_offset: 0.0,
-    }
+    (0, p_nodes)
 }
 
 /// P_i at every node of the curve from the object's posterior over cells: P(g) =
 /// Σ_k w_k T[k − g] (at least) or Σ_k w_k T[g − k] (at most), T the Gaussian step table.
-#[allow(clippy::too_many_arguments)]
 fn tabulate_object(
-    index: usize,
-    m: Measurement,
+    side: Side,
     first_cell: usize,
-    post: Vec<f64>,
+    post: &[f64],
     node_first_cell: usize,
     n_nodes: usize,
     d_half: usize,
     table: &[f64],
-) -> CalObject {
+) -> (isize, Vec<f64>) {
     let len = post.len();
     // suffix[j] = Σ_{k ≥ j} post[k]
     let mut suffix = vec![0.0; len + 1];
@@ -1062,7 +1173,7 @@ fn tabulate_object(
         for j in (cell - dh).max(0)..=(cell + dh).min(len as isize - 1) {
             p += post[j as usize] * table[(j - cell + dh) as usize];
         }
-        let p = match m.side {
+        let p = match side {
             Side::AtLeast => p,
             Side::AtMost => (1.0 - p).max(0.0),
         };
@@ -1073,18 +1184,10 @@ fn tabulate_object(
         // Entirely outside the node range: constant on the nodes.
         // Cells all below the nodes: the mass is below every B (P(m ≥ B) = 0); all above: 1.
         let p_at_least = if node_hi < 0 { 0.0 } else { 1.0 };
-        p_nodes.push(match m.side {
+        p_nodes.push(match side {
             Side::AtLeast => p_at_least,
             Side::AtMost => 1.0 - p_at_least,
         });
     }
-    CalObject {
-        index,
-        measurement: m,
-        first_cell,
-        posterior: post,
-        first_node: g0,
-        p_nodes,
-        tail_offset: 0.0,
-    }
+    (g0, p_nodes)
 }

@@ -314,6 +314,9 @@ pub struct Confrontation {
     pub joint: Vec<Option<f64>>,
     /// How each object was used.
     pub uses: Vec<ObjectUse>,
+    /// Per use: its position among the uses of its mass term ([`Confrontation::members`]
+    /// order; `u32::MAX` without one), so that an object's term is found without a scan.
+    pub term_positions: Vec<u32>,
     /// The class curves of the mass terms (for errors, counts and per-object evaluation).
     pub curves: Vec<(Term, ClassCurve)>,
     /// The population-aware term, when asked for.
@@ -405,11 +408,15 @@ impl Confrontation {
             Bound::Mmhb
         };
         let t = self.bound_term(bound)?;
-        let pos = self
-            .uses
-            .iter()
-            .filter(|v| v.mass_term == Some(term))
-            .position(|v| v.index == k)?;
+        // `uses` is in object order, so use k is object k; the scan is only a fallback.
+        let pos = match self.term_positions.get(k) {
+            Some(&p) if u.index == k && p != u32::MAX => p as usize,
+            _ => self
+                .uses
+                .iter()
+                .filter(|v| v.mass_term == Some(term))
+                .position(|v| v.index == k)?,
+        };
         Some(t.ln_p_object(term, pos, &u.measurement, class_bound_msun))
     }
 }
@@ -741,12 +748,14 @@ pub fn confront(
             }
         }
     }
+    let term_positions = term_positions(&uses);
     Ok(Confrontation {
         n_upsilon: nu,
         n_tau: nt,
         per_term,
         joint,
         uses,
+        term_positions,
         curves,
         population,
         radius_objects,
@@ -754,6 +763,21 @@ pub fn confront(
         bounds,
         spins,
     })
+}
+
+/// Each use's position among the uses of its own mass term (`u32::MAX` without one).
+fn term_positions(uses: &[ObjectUse]) -> Vec<u32> {
+    let mut next = [0u32; 5];
+    uses.iter()
+        .map(|u| match u.mass_term {
+            Some(t) => {
+                let p = next[t.index()];
+                next[t.index()] += 1;
+                p
+            }
+            None => u32::MAX,
+        })
+        .collect()
 }
 
 /// The radius tests of the objects that take one: mass nodes, the standard model at each node
