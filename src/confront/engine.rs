@@ -701,9 +701,12 @@ pub fn confront(
                 chandra[i]?;
                 let radii = surface.wd_radii_rsun(i, &queries);
                 let upsilon = ups[i % nu];
-                let term =
-                    wd_radius::radius_term(&radius_objects, &radii, upsilon, shared.as_ref());
-                Some(term.minus_two_ln_l)
+                Some(wd_radius::radius_total(
+                    &radius_objects,
+                    &radii,
+                    upsilon,
+                    shared.as_ref(),
+                ))
             })
             .collect();
     }
