@@ -513,14 +513,36 @@ struct Component {
     c: f64,
     r: f64,
     th2: f64,
+    /// An integer with c/σ_R < 2^lq (+∞ where c/σ_R is not a normal number): bounds the
+    /// component's prefactor c (σ_R² + th² s²)^{−1/2} at every scale, for the skip test.
+    lq: f64,
+    /// The largest `lq` of this component and the object's later ones (for the early stop).
+    lq_rest: f64,
+}
+
+/// One object's run of components with what its evaluation needs.
+#[derive(Debug, Clone, Copy)]
+struct Span {
+    first: usize,
+    end: usize,
+    /// Measured radius R, R☉.
+    big_r: f64,
+    /// σ_R².
+    e2: f64,
+    /// The largest th² of its components (NaN if any is NaN).
+    th2_max: f64,
+    /// Whether the predicted radii never increase from one component to the next (then, at
+    /// a given scale, R − r s only grows once it is ≥ 0, and so does every later exponent's
+    /// size: the loop may stop early).
+    falling: bool,
 }
 
 /// Every object's components at one grid point, flattened (constants hoisted out of the
 /// evaluations of the shared scale).
 struct Mixtures {
     components: Vec<Component>,
-    /// (first component, end, measured R, σ_R²) per object.
-    objects: Vec<(usize, usize, f64, f64)>,
+    /// Each object's components and constants.
+    objects: Vec<Span>,
 }
 
 impl Mixtures {
@@ -532,6 +554,8 @@ impl Mixtures {
         for o in objects {
             let end = (at + o.nodes.len()).min(cold_at_point.len());
             let first = components.len();
+            let e2 = o.radius_err_rsun * o.radius_err_rsun;
+            let inv_e = (1.0 / e2).sqrt();
             for (k, ((_, w), cold)) in o
                 .nodes
                 .iter()
@@ -539,20 +563,44 @@ impl Mixtures {
                 .enumerate()
             {
                 if let Some((r, th)) = o.predicted(k, *cold, upsilon) {
+                    let c = w * inv_sqrt_2pi;
+                    let q = c * inv_e;
                     components.push(Component {
-                        c: w * inv_sqrt_2pi,
+                        c,
                         r,
                         th2: th * th,
+                        lq: if q.is_normal() && q > 0.0 {
+                            f64::from(((q.to_bits() >> 52) & 0x7ff) as i32 - 1022)
+                        } else {
+                            f64::INFINITY
+                        },
+                        lq_rest: f64::INFINITY,
                     });
                 }
             }
             at = end;
-            spans.push((
+            // NaN if any th² is (then nothing of the object is skipped).
+            let th2_max = components[first..].iter().fold(0.0, |m: f64, k| {
+                if m.is_nan() || k.th2.is_nan() {
+                    f64::NAN
+                } else {
+                    m.max(k.th2)
+                }
+            });
+            let mut rest = f64::NEG_INFINITY;
+            for k in components[first..].iter_mut().rev() {
+                rest = rest.max(k.lq);
+                k.lq_rest = rest;
+            }
+            let falling = components[first..].windows(2).all(|w| w[1].r <= w[0].r);
+            spans.push(Span {
                 first,
-                components.len(),
-                o.radius_rsun,
-                o.radius_err_rsun * o.radius_err_rsun,
-            ));
+                end: components.len(),
+                big_r: o.radius_rsun,
+                e2,
+                th2_max,
+                falling,
+            });
         }
         Self {
             components,
@@ -563,20 +611,40 @@ impl Mixtures {
     /// −2 ln L of object `i` with every prediction and theory error scaled by `scale`.
     ///
     /// A component whose value cannot change the running sum (below a quarter of its last
-    /// place, known from the exponent alone) is skipped without its exp: the sum is the same
-    /// to the bit, and most of an object's nodes far out in its mass tail are such components.
+    /// place) is skipped without its division, square root and exp: the sum is the same to
+    /// the bit, and many of an object's nodes far out in its mass tail are such components.
+    /// The test bounds the value from above with quantities known per object: the exponent
+    /// with the largest theory variance of the object (its smallest 1/(σ_R² + th² s²); every
+    /// rounding involved is monotone, so the computed exponent is at most the bound) and the
+    /// prefactor by c/σ_R. Where the predicted radii fall along the components and R − r s is
+    /// already ≥ 0, every later component's bound is smaller still (the roundings are monotone
+    /// again) and the running sum only grows, so once the bound with the largest later
+    /// prefactor is negligible the loop stops.
     fn minus_two_ln_l(&self, i: usize, scale: f64) -> f64 {
-        let (a, b, big_r, e2) = self.objects[i];
+        let Span {
+            first,
+            end,
+            big_r,
+            e2,
+            th2_max,
+            falling,
+        } = self.objects[i];
+        let inv_min = 1.0 / (e2 + th2_max * scale * scale);
         let mut total = 0.0;
-        for k in &self.components[a..b] {
-            let inv = 1.0 / (e2 + k.th2 * scale * scale);
+        let mut limit = f64::NEG_INFINITY;
+        for k in &self.components[first..end] {
             let d = big_r - k.r * scale;
-            let x = -0.5 * d * d * inv;
-            let root = inv.sqrt();
-            if cannot_change(total, k.c * root, x) {
+            let half_d2 = -0.5 * d * d;
+            let bound = half_d2 * inv_min;
+            if negligible(limit, k.lq, bound) {
+                if falling && d >= 0.0 && negligible(limit, k.lq_rest, bound) {
+                    break;
+                }
                 continue;
             }
-            total += k.c * x.exp() * root;
+            let inv = 1.0 / (e2 + k.th2 * scale * scale);
+            total += k.c * (half_d2 * inv).exp() * inv.sqrt();
+            limit = skip_limit(total);
         }
         -2.0 * floored_ln(total)
     }
@@ -612,26 +680,26 @@ impl Mixtures {
     }
 }
 
-/// Whether adding q·eˣ (q > 0, the product rounded as the caller rounds it) to `total` would
-/// leave `total` unchanged to the bit, decided from exponents without computing eˣ: with
-/// 2^(lq−1) ≤ q < 2^lq and 2^lt ≤ total, a value below 2^(lt−56) is under a quarter of half the
-/// last place of `total` (2^(lt−53)), so round-to-nearest returns `total` (the margin covers
-/// the roundings of x·log₂e, exp and the products). Below x = −746, eˣ is 0 in floating point,
-/// so the value is 0 whatever `total` is. Non-finite or subnormal inputs are never skipped.
-fn cannot_change(total: f64, q: f64, x: f64) -> bool {
-    if !(q.is_normal() && q > 0.0) {
-        return false;
+/// The skip test's threshold for a running sum: ⌊log₂ total⌋ − 56 where `total` is a positive
+/// normal number, −∞ otherwise (nothing is skipped against it then, see [`negligible`]).
+fn skip_limit(total: f64) -> f64 {
+    if total.is_normal() && total > 0.0 {
+        f64::from(((total.to_bits() >> 52) & 0x7ff) as i32 - 1079)
+    } else {
+        f64::NEG_INFINITY
     }
-    if x < -746.0 {
-        return true;
-    }
-    if !(total.is_normal() && total > 0.0) {
-        return false;
-    }
-    let floor_log2 = |v: f64| ((v.to_bits() >> 52) & 0x7ff) as i32 - 1023;
-    let lt = floor_log2(total);
-    let lq = floor_log2(q) + 1;
-    x * std::f64::consts::LOG2_E < f64::from(lt - lq - 56)
+}
+
+/// Whether a component of value at most 2^lq·eˣ (a prefactor below 2^lq, an exponent at most x,
+/// rounded as the caller rounds them) leaves a running sum with threshold `limit` (from
+/// [`skip_limit`]) unchanged to the bit, decided from exponents without computing eˣ: with
+/// 2^lt ≤ total, a value below 2^(lt−56) is under a quarter of half the last place of `total`
+/// (2^(lt−53)), so round-to-nearest returns `total` (the margin covers the roundings of
+/// x·log₂e, exp and the products). Below x = −746, eˣ is 0 in floating point, so the value is 0
+/// whatever the sum. An infinite `lq` (a prefactor bound that is not a normal number) or a NaN
+/// exponent is never skipped.
+fn negligible(limit: f64, lq: f64, x: f64) -> bool {
+    (x < -746.0 && lq.is_finite()) || x * std::f64::consts::LOG2_E < limit - lq
 }
 
 /// ln of a likelihood, floored at [`LN_L_RADIUS_FLOOR`] (also where it is 0).
@@ -895,13 +963,14 @@ mod tests {
         let mut skipped = 0;
         for step in -40..=40 {
             let scale = 1.0 + 0.005 * f64::from(step);
-            for (i, &(a, b, big_r, e2)) in mix.objects.iter().enumerate() {
+            for (i, sp) in mix.objects.iter().enumerate() {
+                let (big_r, e2) = (sp.big_r, sp.e2);
+                let inv_min = 1.0 / (e2 + sp.th2_max * scale * scale);
                 let mut total = 0.0;
-                for k in &mix.components[a..b] {
+                for k in &mix.components[sp.first..sp.end] {
                     let inv = 1.0 / (e2 + k.th2 * scale * scale);
                     let d = big_r - k.r * scale;
-                    let x = -0.5 * d * d * inv;
-                    if cannot_change(total, k.c * inv.sqrt(), x) {
+                    if negligible(skip_limit(total), k.lq, -0.5 * d * d * inv_min) {
                         skipped += 1;
                     }
                     total += k.c * (-0.5 * d * d * inv).exp() * inv.sqrt();
