@@ -36,7 +36,7 @@ use super::mass_terms::BoundTerm;
 use super::nuisance::eliminate;
 use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
-use super::slice::{radius_total_fine, SliceResult};
+use super::slice::{radius_totals_fine_leaving_out, SliceResult};
 use super::tension::TensionTest;
 
 /// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
@@ -259,7 +259,7 @@ pub fn slice_drivers(
 /// likelihood is a sum: the slice without the object is the slice minus its own term on the
 /// fine axis. With the shared radius scale the scale is fitted again without the object: the
 /// whole radius term is rebuilt from the slice's cold radii without it and the scale eliminated
-/// again at every fine point ([`radius_total_fine`]), which is what a run without the object
+/// again at every fine point ([`radius_totals_fine_leaving_out`]), which is what a run without the object
 /// gives. That costs a whole radius term per candidate, so it is done for the 2 × `opts.top`
 /// candidates with the largest shifts at the scale held at its fitted value (the first-order
 /// estimate, which ranks them); any further candidates keep that estimate.
@@ -285,16 +285,18 @@ pub fn radius_drivers(
     if let Some(shared) = refit {
         held.sort_by(|a, b| b.2.total_cmp(&a.2).then(a.1.cmp(&b.1)));
         let n_refit = held.len().min(2 * opts.top);
-        let exact: Vec<f64> = held[..n_refit]
+        let positions: Vec<usize> = held[..n_refit].iter().map(|h| h.0).collect();
+        let refitted =
+            radius_totals_fine_leaving_out(s, &conf.radius_objects, &positions, Some(shared));
+        let exact: Vec<f64> = refitted
             .iter()
-            .map(|&(pos, _, _)| {
-                let radius = radius_total_fine(s, &conf.radius_objects, Some(pos), Some(shared));
+            .map(|radius| {
                 let without: Vec<f64> = s
                     .slice
                     .chi2_fine
                     .iter()
                     .zip(&s.radius_total_fine)
-                    .zip(&radius)
+                    .zip(radius)
                     .map(|((c, all), r)| c - all + r)
                     .collect();
                 shift_of(&without)

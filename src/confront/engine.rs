@@ -722,9 +722,12 @@ pub fn confront(
                 // Spinning white dwarfs: the point's own slow-rotation factor, inside the term.
                 spun.apply(&spins, surface, i, &mut radii);
                 let upsilon = ups[i % nu];
-                let term =
-                    wd_radius::radius_term(&radius_objects, &radii, upsilon, shared.as_ref());
-                Some(term.minus_two_ln_l)
+                Some(wd_radius::radius_total(
+                    &radius_objects,
+                    &radii,
+                    upsilon,
+                    shared.as_ref(),
+                ))
             })
             .collect();
     }

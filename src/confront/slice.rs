@@ -45,7 +45,10 @@ use super::nuisance::SharedNuisance;
 use super::prob::{Measurement, StatsError};
 use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
-use super::wd_radius::{radius_term, shared_nuisance, split_floor, ObjectRadius, RadiusTerm};
+use super::wd_radius::{
+    radius_term, radius_total, radius_totals_leaving_out, shared_nuisance, split_floor,
+    ObjectRadius, RadiusTerm,
+};
 
 /// The ϒ interval at τ = 0 is read on a grid this many times finer than the ϒ axis (the
 /// paper's statistics section: 10).
@@ -278,31 +281,40 @@ pub fn radius_total_fine(
     skip: Option<usize>,
     shared: Option<&SharedNuisance>,
 ) -> Vec<f64> {
-    let (kept, ranges): (Vec<ObjectRadius>, Vec<(usize, usize)>) = {
-        let mut at = 0;
-        let mut kept = Vec::new();
-        let mut ranges = Vec::new();
-        for (j, r) in objects.iter().enumerate() {
-            let range = (at, at + r.nodes.len());
-            at = range.1;
-            if Some(j) != skip {
-                kept.push(r.clone());
-                ranges.push(range);
-            }
-        }
-        (kept, ranges)
-    };
-    s.slice
+    match skip {
+        Some(j) => radius_totals_fine_leaving_out(s, objects, &[j], shared)
+            .pop()
+            .unwrap_or_default(),
+        None => s
+            .slice
+            .upsilon_fine
+            .par_iter()
+            .zip(&s.radius_nodes_fine)
+            .map(|(&upsilon, all)| radius_total(objects, all, upsilon, shared))
+            .collect(),
+    }
+}
+
+/// [`radius_total_fine`] without each object of `leave_out` in turn (positions in `objects`):
+/// one vector along the fine axis per entry, the same values to the bit. All of them are
+/// computed together, a fine point at a time, so that each point's mixtures are flattened once
+/// and the searches share the scales they have in common
+/// ([`super::wd_radius::radius_totals_leaving_out`]).
+pub fn radius_totals_fine_leaving_out(
+    s: &SliceResult,
+    objects: &[ObjectRadius],
+    leave_out: &[usize],
+    shared: Option<&SharedNuisance>,
+) -> Vec<Vec<f64>> {
+    let per_point: Vec<Vec<f64>> = s
+        .slice
         .upsilon_fine
         .par_iter()
         .zip(&s.radius_nodes_fine)
-        .map(|(&upsilon, all)| {
-            let cold: Vec<Option<f64>> = ranges
-                .iter()
-                .flat_map(|&(a, b)| (a..b).map(|q| all.get(q).copied().flatten()))
-                .collect();
-            radius_term(&kept, &cold, upsilon, shared).minus_two_ln_l
-        })
+        .map(|(&upsilon, all)| radius_totals_leaving_out(objects, all, upsilon, shared, leave_out))
+        .collect();
+    (0..leave_out.len())
+        .map(|c| per_point.iter().map(|p| p[c]).collect())
         .collect()
 }
 

@@ -24,7 +24,7 @@
 //! ```
 
 use super::mass_terms::{MassTermOptions, Systematics};
-use super::nuisance::{eliminate_smooth, SharedNuisance};
+use super::nuisance::{eliminate_smooth_value, SharedNuisance};
 use crate::catalogue::{CatalogueObject, CoreLabel, EnvelopeLabel, MassLimit, MassMethod};
 
 /// Which standard-gravity white-dwarf radius the radius test uses.
@@ -425,10 +425,11 @@ pub struct RadiusTerm {
 /// The radius term at one grid point: `cold_at_point` holds the structure solver's cold radius
 /// at every object's mass nodes, object after object (as [`ObjectRadius::ln_likelihood`] takes
 /// them one by one), `upsilon` the point's ϒ. With `shared`, every prediction is scaled by one
-/// common factor (1 + δ), δ ~ N(0, σ²), eliminated by [`eliminate_smooth`]; without, the term is
-/// the plain sum over objects. The objects' mixture components are flattened once per point
-/// with their constants hoisted, so each of the elimination's ≈ 15 evaluations is one pass of
-/// one exp and one square root per component.
+/// common factor (1 + δ), δ ~ N(0, σ²), eliminated by
+/// [`super::nuisance::eliminate_smooth`]; without, the term is the plain sum over objects. The
+/// objects' mixture components are flattened once per point with their constants hoisted, so
+/// each of the elimination's ≈ 15 evaluations is one pass of one exp and one square root per
+/// component.
 pub fn radius_term(
     objects: &[ObjectRadius],
     cold_at_point: &[Option<f64>],
@@ -436,19 +437,7 @@ pub fn radius_term(
     shared: Option<&SharedNuisance>,
 ) -> RadiusTerm {
     let mix = Mixtures::new(objects, cold_at_point, upsilon);
-    let (minus_two_ln_l, delta_hat) = match shared {
-        None => (mix.total(1.0), 0.0),
-        Some(n) => {
-            let f = |d: f64| -> f64 {
-                if d <= -1.0 {
-                    return f64::INFINITY;
-                }
-                mix.total(1.0 + d)
-            };
-            let e = eliminate_smooth(&f, n);
-            (e.minus_two_ln_l, e.delta_hat)
-        }
-    };
+    let (minus_two_ln_l, delta_hat) = mix.eliminate(None, shared, &|d| mix.total(None, 1.0 + d));
     RadiusTerm {
         minus_two_ln_l,
         delta_hat,
@@ -456,6 +445,64 @@ pub fn radius_term(
             .map(|i| mix.minus_two_ln_l(i, 1.0 + delta_hat))
             .collect(),
     }
+}
+
+/// [`radius_term`]'s `minus_two_ln_l` alone (bit for bit), without the pass over every object
+/// at δ̂ that only the per-object values need: what the grid's map takes.
+pub fn radius_total(
+    objects: &[ObjectRadius],
+    cold_at_point: &[Option<f64>],
+    upsilon: f64,
+    shared: Option<&SharedNuisance>,
+) -> f64 {
+    let mix = Mixtures::new(objects, cold_at_point, upsilon);
+    mix.eliminate(None, shared, &|d| mix.total(None, 1.0 + d)).0
+}
+
+/// The whole radius term at one point without each object of `leave_out` in turn (positions
+/// in `objects`), the shared scale eliminated again each time: bit for bit what
+/// [`radius_total`] gives for the objects without that one (and its nodes), at the cost of one
+/// flattening for all of them. Every evaluation's per-object values are kept by scale, so the
+/// searches share the scales they have in common (each starts from the same probes around
+/// δ = 0) instead of recomputing them; a sum without one object adds the same values in the
+/// same order as the reduced set would.
+pub fn radius_totals_leaving_out(
+    objects: &[ObjectRadius],
+    cold_at_point: &[Option<f64>],
+    upsilon: f64,
+    shared: Option<&SharedNuisance>,
+    leave_out: &[usize],
+) -> Vec<f64> {
+    let mix = Mixtures::new(objects, cold_at_point, upsilon);
+    // (δ's bits, every object's −2 ln L at 1 + δ).
+    let seen: std::cell::RefCell<Vec<(u64, Vec<f64>)>> = std::cell::RefCell::new(Vec::new());
+    leave_out
+        .iter()
+        .map(|&skip| {
+            let f = |d: f64| -> f64 {
+                let key = d.to_bits();
+                let mut seen = seen.borrow_mut();
+                let at = match seen.iter().position(|(k, _)| *k == key) {
+                    Some(at) => at,
+                    None => {
+                        let values = (0..objects.len())
+                            .map(|i| mix.minus_two_ln_l(i, 1.0 + d))
+                            .collect();
+                        seen.push((key, values));
+                        seen.len() - 1
+                    }
+                };
+                seen[at]
+                    .1
+                    .iter()
+                    .enumerate()
+                    .filter(|&(i, _)| i != skip)
+                    .map(|(_, v)| *v)
+                    .sum()
+            };
+            mix.eliminate(Some(skip), shared, &f).0
+        })
+        .collect()
 }
 
 /// One mixture component of an object's radius likelihood at a grid point: weight over
@@ -525,11 +572,34 @@ impl Mixtures {
         -2.0 * floored_ln(total)
     }
 
-    /// Σ_i −2 ln L_i at `scale`, in object order.
-    fn total(&self, scale: f64) -> f64 {
+    /// Σ_i −2 ln L_i at `scale`, in object order, without object `skip`.
+    fn total(&self, skip: Option<usize>, scale: f64) -> f64 {
         (0..self.objects.len())
+            .filter(|&i| Some(i) != skip)
             .map(|i| self.minus_two_ln_l(i, scale))
             .sum()
+    }
+
+    /// (−2 ln L, δ̂) of the objects without `skip`: `f(δ)` is their Σ −2 ln L_i at 1 + δ, the
+    /// shared scale eliminated when there is one (δ ≤ −1 is no radius at all), else f(0).
+    fn eliminate(
+        &self,
+        skip: Option<usize>,
+        shared: Option<&SharedNuisance>,
+        f: &dyn Fn(f64) -> f64,
+    ) -> (f64, f64) {
+        match shared {
+            None => (self.total(skip, 1.0), 0.0),
+            Some(n) => {
+                let g = |d: f64| -> f64 {
+                    if d <= -1.0 {
+                        return f64::INFINITY;
+                    }
+                    f(d)
+                };
+                eliminate_smooth_value(&g, n)
+            }
+        }
     }
 }
 
@@ -729,5 +799,97 @@ mod tests {
         }
         assert_eq!(plain.per_object[5], -2.0 * LN_L_RADIUS_FLOOR);
         assert!((plain.minus_two_ln_l - plain.per_object.iter().sum::<f64>()).abs() < 1e-9);
+    }
+
+    /// Objects with several mass nodes, a node without a model and a floored object (shared by
+    /// the tests below), with their cold radii object after object.
+    fn mixture_objects() -> (Vec<ObjectRadius>, Vec<Option<f64>>) {
+        let std = |r: f64| WdStandard {
+            radius_rsun: r,
+            cold_rsun: 0.95 * r,
+            hot_over_cold: 1.05,
+            envelope_fraction: 0.01,
+            dln_r_dteff_per_k: 1e-6,
+        };
+        let objects: Vec<ObjectRadius> = (0..7)
+            .map(|i| {
+                let m0 = 0.5 + 0.07 * f64::from(i);
+                let nodes: Vec<(f64, f64)> = (0..25)
+                    .map(|k| {
+                        let z = f64::from(k - 12) / 2.0;
+                        (m0 + 0.03 * z, (-0.5 * z * z).exp() / 5.0)
+                    })
+                    .collect();
+                let standard = nodes
+                    .iter()
+                    .enumerate()
+                    .map(|(k, &(m, _))| (k != 7).then(|| std(0.0125 - 0.004 * (m - 0.6))))
+                    .collect();
+                ObjectRadius {
+                    index: i as usize,
+                    radius_rsun: if i == 5 {
+                        1.0
+                    } else {
+                        0.0126 + 0.0001 * f64::from(i)
+                    },
+                    radius_err_rsun: 0.00005 + 0.00003 * f64::from(i),
+                    nodes,
+                    standard,
+                    floor_fraction: 0.005,
+                    shared_fraction: 0.025,
+                    teff_err_k: 300.0,
+                    at_nominal: None,
+                    mass_sigma_msun: 0.03,
+                }
+            })
+            .collect();
+        let cold = objects
+            .iter()
+            .flat_map(|o| {
+                o.nodes
+                    .iter()
+                    .map(|&(m, _)| Some(0.95 * (0.0127 - 0.004 * (m - 0.6))))
+            })
+            .collect();
+        (objects, cold)
+    }
+
+    /// The whole term without one object, computed for several objects at once, is the term of
+    /// the objects without it to the bit (definition: [`radius_total`] of the reduced set), and
+    /// [`radius_total`] is [`radius_term`]'s value to the bit.
+    #[test]
+    fn leaving_out_matches_the_reduced_set_to_the_bit() {
+        let (objects, cold) = mixture_objects();
+        let n = SharedNuisance {
+            sigma: 0.025,
+            method: crate::confront::nuisance::NuisanceMethod::Profile,
+            reach_sigma: 8.0,
+        };
+        for shared in [None, Some(&n)] {
+            let whole = radius_term(&objects, &cold, 0.1, shared);
+            assert_eq!(
+                radius_total(&objects, &cold, 0.1, shared).to_bits(),
+                whole.minus_two_ln_l.to_bits()
+            );
+            let leave: Vec<usize> = vec![3, 0, 6, 5];
+            let got = radius_totals_leaving_out(&objects, &cold, 0.1, shared, &leave);
+            for (&j, got) in leave.iter().zip(&got) {
+                let mut at = 0;
+                let (mut kept, mut kept_cold) = (Vec::new(), Vec::new());
+                for (i, o) in objects.iter().enumerate() {
+                    if i != j {
+                        kept.push(o.clone());
+                        kept_cold.extend_from_slice(&cold[at..at + o.nodes.len()]);
+                    }
+                    at += o.nodes.len();
+                }
+                let want = radius_total(&kept, &kept_cold, 0.1, shared);
+                assert_eq!(
+                    got.to_bits(),
+                    want.to_bits(),
+                    "without {j}: {got} vs {want}"
+                );
+            }
+        }
     }
 }

@@ -707,10 +707,21 @@ impl WdMassRadius {
     pub fn radii_rsun(&self, queries: &[(f64, f64)]) -> Vec<Option<f64>> {
         let n = self.mass_dimless.len();
         let mut polys: Vec<Option<IntervalPoly>> = vec![None; n.saturating_sub(1)];
+        // Queries come object after object with one μe each: the units of the last μe are
+        // kept (the same values, computed once per run of equal μe).
+        let mut units: Option<(u64, f64, f64)> = None;
         queries
             .iter()
             .map(|&(mass_msun, mu_e)| {
-                let m = mass_msun / mass_unit_msun(mu_e);
+                let (mass_unit, length_unit) = match units {
+                    Some((bits, mu, l)) if bits == mu_e.to_bits() => (mu, l),
+                    _ => {
+                        let u = (mass_unit_msun(mu_e), length_unit_m(mu_e));
+                        units = Some((mu_e.to_bits(), u.0, u.1));
+                        u
+                    }
+                };
+                let m = mass_msun / mass_unit;
                 let inside = check_mu_e(mu_e).is_ok()
                     && mass_msun.is_finite()
                     && m > self.mass_dimless[0]
@@ -722,7 +733,7 @@ impl WdMassRadius {
                 let i = self.mass_dimless.partition_point(|v| *v <= m) - 1;
                 let poly = polys[i].get_or_insert_with(|| self.interval_poly(i));
                 let ln_eta = poly.eval(m.log10()) * std::f64::consts::LN_10;
-                Some(length_unit_m(mu_e) * ln_eta.exp() / R_SUN_NOMINAL_M)
+                Some(length_unit * ln_eta.exp() / R_SUN_NOMINAL_M)
             })
             .collect()
     }
