@@ -400,6 +400,12 @@ impl ObjectSpin {
         self.at_with(cold, true)
     }
 
+    /// ln P of the test at one point ([`ObjectSpin::at`]'s `ln_p`), without ln(1 − P): what the
+    /// sums over grid points use.
+    pub fn ln_p_at(&self, cold: &[Option<f64>]) -> Option<f64> {
+        self.at_with(cold, false).ln_p
+    }
+
     /// [`ObjectSpin::at`], with ln(1 − P) only when `with_ln_q` (the grid sums use ln P alone;
     /// ln(1 − P) is one more normal CDF per node, needed only for the verdicts' z).
     fn at_with(&self, cold: &[Option<f64>], with_ln_q: bool) -> SpinAt {
@@ -431,8 +437,9 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
     spins_at_with(spins, surface, i, true)
 }
 
-/// [`spins_at`], with ln(1 − P) only when `with_ln_q` (`None` otherwise).
-fn spins_at_with(
+/// [`spins_at`], with ln(1 − P) only when `with_ln_q` (`None` otherwise): sums over grid
+/// points and the MMHB factors need ln P alone, and ln(1 − P) costs one more normal CDF per node.
+pub fn spins_at_with(
     spins: &[ObjectSpin],
     surface: &dyn BoundSurface,
     i: usize,
