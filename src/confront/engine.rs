@@ -332,6 +332,8 @@ pub struct Confrontation {
     pub bounds: Vec<(Bound, BoundTerm)>,
     /// The spin tests, prepared (one per object with a rotation period and a measured mass).
     pub spins: Vec<super::spin::ObjectSpin>,
+    /// Each spin test's span over the grid (one per entry of `spins`), for its verdict.
+    pub spin_spans: Vec<super::spin::SpinSpan>,
 }
 
 /// The two mass bounds of the comparison.
@@ -684,7 +686,8 @@ pub fn confront(
     }
     let mut radius_objects = prepare_radius_objects(objects, &uses, surface, opts);
     super::spin::correct_radius_tests(&mut radius_objects, &spins);
-    per_term[Term::Spin.index()] = super::spin::minus_two_ln_l_grid(&spins, surface, n);
+    let (spin_grid, spin_spans) = super::spin::minus_two_ln_l_grid(&spins, surface, n);
+    per_term[Term::Spin.index()] = spin_grid;
     if opts.radius.model == wd_radius::WdRadiusModel::Hot {
         // No finite-temperature model at the object's own mass and Teff (outside the table, or
         // no hydrostatic solution): left out of the radius test, flagged, never silently.
@@ -765,6 +768,7 @@ pub fn confront(
         radius_shared: wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms),
         bounds,
         spins,
+        spin_spans,
     })
 }
 

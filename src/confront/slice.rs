@@ -401,10 +401,11 @@ fn spin_terms_on_fine_axis(
         (0..row.axis.len())
             .into_par_iter()
             .map(|i| {
-                super::spin::spins_at(
+                super::spin::spins_at_with(
                     &conf.spins,
                     surface,
                     row.j0 * conf.n_upsilon + row.first + i,
+                    false,
                 )
             })
             .collect()
@@ -420,7 +421,7 @@ fn spin_terms_on_fine_axis(
         let mut values: Vec<f64> = (0..fine.len())
             .map(|k| {
                 let cold: Vec<Option<f64>> = mine.iter().map(|v| v[k]).collect();
-                -2.0 * s.at(&cold).ln_p.unwrap_or(0.0)
+                -2.0 * s.ln_p_at(&cold).unwrap_or(0.0)
             })
             .collect();
         if let (Some(m), Some(b)) = (&s.mmhb, mmhb_fine) {

@@ -373,7 +373,18 @@ impl ObjectSpin {
         coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
         mmhb_msun: Option<f64>,
     ) -> SpinAt {
-        let mut at = self.at(cold);
+        self.at_point_with(cold, coeffs, mmhb_msun, true)
+    }
+
+    /// [`ObjectSpin::at_point`], with ln(1 − P) only when `with_ln_q`.
+    fn at_point_with(
+        &self,
+        cold: &[Option<f64>],
+        coeffs: Option<&crate::theory::slow_rotation::SlowRotation>,
+        mmhb_msun: Option<f64>,
+        with_ln_q: bool,
+    ) -> SpinAt {
+        let mut at = self.at_with(cold, with_ln_q);
         if let Some(m) = &self.mmhb {
             let radius = self.nominal_radius_rsun(cold.get(self.nodes.len()).copied().flatten());
             let f = m.factor_at(self.mass_msun, coeffs, radius);
@@ -386,6 +397,18 @@ impl ObjectSpin {
     /// The test at one point, given the cold radii there for [`ObjectSpin::queries`] (the
     /// break-up test alone, without the MMHB correction of [`ObjectSpin::at_point`]).
     pub fn at(&self, cold: &[Option<f64>]) -> SpinAt {
+        self.at_with(cold, true)
+    }
+
+    /// ln P of the test at one point ([`ObjectSpin::at`]'s `ln_p`), without ln(1 − P): what the
+    /// sums over grid points use.
+    pub fn ln_p_at(&self, cold: &[Option<f64>]) -> Option<f64> {
+        self.at_with(cold, false).ln_p
+    }
+
+    /// [`ObjectSpin::at`], with ln(1 − P) only when `with_ln_q` (the grid sums use ln P alone;
+    /// ln(1 − P) is one more normal CDF per node, needed only for the verdicts' z).
+    fn at_with(&self, cold: &[Option<f64>], with_ln_q: bool) -> SpinAt {
         let floor_fraction = self.floor_fraction;
         let pb: Vec<Option<f64>> = self
             .queries()
@@ -397,7 +420,11 @@ impl ObjectSpin {
         let (p, e) = (self.period_s, self.period_err_s);
         SpinAt {
             ln_p: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, 1.0),
-            ln_q: ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, -1.0),
+            ln_q: if with_ln_q {
+                ln_p_side(p, e, &self.nodes, node_pb, floor_fraction, -1.0)
+            } else {
+                None
+            },
             breakup_s: nominal.first().copied().flatten(),
             mmhb_factor: None,
             mmhb_change: 0.0,
@@ -407,6 +434,17 @@ impl ObjectSpin {
 
 /// The spin tests of every object at grid point `i`, in the order of `spins`.
 pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> Vec<SpinAt> {
+    spins_at_with(spins, surface, i, true)
+}
+
+/// [`spins_at`], with ln(1 − P) only when `with_ln_q` (`None` otherwise): sums over grid
+/// points and the MMHB factors need ln P alone, and ln(1 − P) costs one more normal CDF per node.
+pub fn spins_at_with(
+    spins: &[ObjectSpin],
+    surface: &dyn BoundSurface,
+    i: usize,
+    with_ln_q: bool,
+) -> Vec<SpinAt> {
     let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
     let cold = surface.wd_radii_rsun(i, &queries);
     let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
@@ -431,31 +469,87 @@ pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> V
             let n = s.n_queries();
             let slice = cold.get(at..at + n).unwrap_or(&[]);
             at += n;
-            s.at_point(slice, coeffs.as_ref(), mmhb)
+            s.at_point_with(slice, coeffs.as_ref(), mmhb, with_ln_q)
         })
         .collect()
 }
 
-/// −2 ln L of the spin term at every grid point (0 where no object spins).
+/// One object's spin test over the whole grid: what its verdict reports besides the standard
+/// and best points, gathered in the grid pass ([`minus_two_ln_l_grid`]) so that the verdicts
+/// need not solve every point's test a second time.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpinSpan {
+    /// Smallest and largest break-up period at the nominal mass over the grid, s.
+    pub breakup_range_s: Option<(f64, f64)>,
+    /// Smallest −2 ln P over the grid (+∞ where no point has a model).
+    pub lo: f64,
+    /// Largest −2 ln P over the grid (−∞ where no point has a model).
+    pub hi: f64,
+}
+
+impl Default for SpinSpan {
+    fn default() -> Self {
+        Self {
+            breakup_range_s: None,
+            lo: f64::INFINITY,
+            hi: f64::NEG_INFINITY,
+        }
+    }
+}
+
+impl SpinSpan {
+    /// Takes one more grid point's test into the span (points in grid order).
+    fn add(&mut self, a: &SpinAt) {
+        if let Some(p) = a.breakup_s {
+            self.breakup_range_s = Some(
+                self.breakup_range_s
+                    .map_or((p, p), |(lo, hi)| (lo.min(p), hi.max(p))),
+            );
+        }
+        if let Some(l) = a.ln_p {
+            self.lo = self.lo.min(-2.0 * l);
+            self.hi = self.hi.max(-2.0 * l);
+        }
+    }
+}
+
+/// Grid points whose spin tests are held at once in [`minus_two_ln_l_grid`]: enough for both
+/// cores to share, few enough that memory does not grow with the grid.
+const SPIN_POINTS_PER_BATCH: usize = 64;
+
+/// −2 ln L of the spin term at every grid point (0 where no object spins), and each object's
+/// [`SpinSpan`] over the grid (in the order of `spins`). Points are solved in parallel, a batch
+/// at a time, and folded into the spans in grid order.
 pub fn minus_two_ln_l_grid(
     spins: &[ObjectSpin],
     surface: &dyn BoundSurface,
     n_points: usize,
-) -> Vec<Option<f64>> {
+) -> (Vec<Option<f64>>, Vec<SpinSpan>) {
+    let mut spans = vec![SpinSpan::default(); spins.len()];
     if spins.is_empty() {
-        return vec![Some(0.0); n_points];
+        return (vec![Some(0.0); n_points], spans);
     }
-    (0..n_points)
-        .into_par_iter()
-        .map(|i| {
-            Some(
-                spins_at(spins, surface, i)
-                    .iter()
+    let mut totals = Vec::with_capacity(n_points);
+    let mut start = 0;
+    while start < n_points {
+        let end = (start + SPIN_POINTS_PER_BATCH).min(n_points);
+        let batch: Vec<Vec<SpinAt>> = (start..end)
+            .into_par_iter()
+            .map(|i| spins_at_with(spins, surface, i, false))
+            .collect();
+        for at in &batch {
+            totals.push(Some(
+                at.iter()
                     .map(|a| -2.0 * a.ln_p.unwrap_or(0.0) + a.mmhb_change)
                     .sum(),
-            )
-        })
-        .collect()
+            ));
+            for (span, a) in spans.iter_mut().zip(at) {
+                span.add(a);
+            }
+        }
+        start = end;
+    }
+    (totals, spans)
 }
 
 /// The grid point at (or nearest to) standard gravity.
@@ -832,10 +926,12 @@ pub struct SpinVerdict {
     pub slow: SlowRotationStatus,
 }
 
-/// The spin verdicts of every prepared object (in the order of `spins`), from one pass over
-/// the grid.
+/// The spin verdicts of every prepared object (in the order of `spins`): the grid-wide spans
+/// from the grid pass (`spans`, from [`minus_two_ln_l_grid`], one per spin), the tests at the
+/// standard and best points solved here.
 pub fn spin_verdicts(
     spins: &[ObjectSpin],
+    spans: &[SpinSpan],
     surface: &dyn BoundSurface,
     best_index: usize,
 ) -> Vec<SpinVerdict> {
@@ -849,10 +945,13 @@ pub fn spin_verdicts(
         .position(|&t| t == 0.0)
         .zip(surface.upsilon().iter().position(|&u| u == 0.0))
         .map(|(j, i)| j * nu + i);
-    let all: Vec<Vec<SpinAt>> = (0..nu * nt)
-        .into_par_iter()
-        .map(|i| spins_at(spins, surface, i))
-        .collect();
+    let solve = |i: usize| (i < nu * nt).then(|| spins_at(spins, surface, i));
+    let std_all = standard.and_then(solve);
+    let best_all = if Some(best_index) == standard {
+        std_all.clone()
+    } else {
+        solve(best_index)
+    };
     // z = −Φ⁻¹(P); above P = ½ from 1 − P (the test with the sides swapped), so that objects far
     // on the safe side keep a finite z instead of P rounding to 1.
     let sigma = |a: &SpinAt| {
@@ -868,20 +967,10 @@ pub fn spin_verdicts(
         .iter()
         .enumerate()
         .map(|(k, s)| {
-            let at = |i: usize| all.get(i).map(|v| v[k]);
-            let std_at = standard.and_then(at);
-            let best_at = at(best_index);
-            let mut range: Option<(f64, f64)> = None;
-            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-            for v in &all {
-                if let Some(p) = v[k].breakup_s {
-                    range = Some(range.map_or((p, p), |(a, b)| (a.min(p), b.max(p))));
-                }
-                if let Some(l) = v[k].ln_p {
-                    lo = lo.min(-2.0 * l);
-                    hi = hi.max(-2.0 * l);
-                }
-            }
+            let std_at = std_all.as_ref().map(|v| v[k]);
+            let best_at = best_all.as_ref().map(|v| v[k]);
+            let span = spans.get(k).copied().unwrap_or_default();
+            let (lo, hi) = (span.lo, span.hi);
             SpinVerdict {
                 index: s.index,
                 period_s: s.period_s,
@@ -890,7 +979,7 @@ pub fn spin_verdicts(
                 breakup_best_s: best_at.and_then(|a| a.breakup_s),
                 sigma_standard: std_at.as_ref().and_then(sigma),
                 sigma_best: best_at.as_ref().and_then(sigma),
-                breakup_range_s: range,
+                breakup_range_s: span.breakup_range_s,
                 delta_chi2_span: if hi >= lo { hi - lo } else { 0.0 },
                 max_minus_two_ln_p: if hi >= lo { hi } else { 0.0 },
                 ln_p_best: best_at.and_then(|a| a.ln_p),

@@ -283,7 +283,8 @@ pub fn run_confrontation(
         &eopts,
     );
     let tensions = tensions_above(&verdicts, settings.statistics.tension_sigma);
-    let spin_verdicts = crate::confront::spin::spin_verdicts(&conf.spins, &surface, best_index);
+    let spin_verdicts =
+        crate::confront::spin::spin_verdicts(&conf.spins, &conf.spin_spans, &surface, best_index);
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
     let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts, &spin_verdicts);
