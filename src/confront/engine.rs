@@ -316,7 +316,8 @@ pub struct Confrontation {
     pub uses: Vec<ObjectUse>,
     /// Per use: its position among the uses of its mass term ([`Confrontation::members`]
     /// order; `u32::MAX` without one), so that an object's term is found without a scan.
-    pub term_positions: Vec<u32>,
+    /// Derived from `uses` when the comparison is built, so not public.
+    term_positions: Vec<u32>,
     /// The class curves of the mass terms (for errors, counts and per-object evaluation).
     pub curves: Vec<(Term, ClassCurve)>,
     /// The population-aware term, when asked for.
@@ -410,15 +411,13 @@ impl Confrontation {
             Bound::Mmhb
         };
         let t = self.bound_term(bound)?;
-        // `uses` is in object order, so use k is object k; the scan is only a fallback.
-        let pos = match self.term_positions.get(k) {
-            Some(&p) if u.index == k && p != u32::MAX => p as usize,
-            _ => self
-                .uses
-                .iter()
-                .filter(|v| v.mass_term == Some(term))
-                .position(|v| v.index == k)?,
-        };
+        // `uses` and `term_positions` are built together in object order (use k is object k).
+        debug_assert_eq!(u.index, k);
+        let pos = self
+            .term_positions
+            .get(k)
+            .copied()
+            .filter(|&p| p != u32::MAX)? as usize;
         Some(t.ln_p_object(term, pos, &u.measurement, class_bound_msun))
     }
 }
