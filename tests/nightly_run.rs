@@ -451,11 +451,15 @@ fn a_run_killed_with_sigkill_leaves_a_partial_folder_that_the_next_run_removes()
         .spawn()
         .unwrap();
     // The run folder and its lock exist from before the theory grid is computed (a first run:
-    // several seconds) until the run completes. Poll for them, then kill -9.
+    // several seconds) until the run completes. Poll for them, then kill -9. The lock must hold
+    // its owner's pid: a lock file still empty is respected for two seconds as one being
+    // written (src/pipeline/lock.rs), so a kill in that instant would leave a folder the next
+    // run rightly does not remove yet (seen once under load).
     let partial = loop {
-        let found = run_folders(dir.path())
-            .into_iter()
-            .find(|d| d.join(dwarfbound::pipeline::lock::LOCK_FILE).exists());
+        let found = run_folders(dir.path()).into_iter().find(|d| {
+            std::fs::read_to_string(d.join(dwarfbound::pipeline::lock::LOCK_FILE))
+                .is_ok_and(|t| t.starts_with("pid = ") && t.ends_with('\n'))
+        });
         if let Some(d) = found {
             break d;
         }
