@@ -38,9 +38,6 @@
 //! assert!((ratio - 1.0).abs() < 0.05, "{ratio}");
 //! ```
 
-use std::collections::HashMap;
-use std::sync::{Arc, Mutex};
-
 use rayon::prelude::*;
 
 use super::prob::{ln_prob_consistent, normal_cdf, MassKind, Measurement, Side, StatsError};
@@ -507,14 +504,40 @@ struct ObjectTable {
     p_nodes: Vec<f64>,
 }
 
+/// One object of a [`CalibratedCurve`] as a function of the bound, with its table built once
+/// ([`CalibratedCurve::object`]).
+#[derive(Debug)]
+pub struct ObjectCurve<'a> {
+    curve: &'a CalibratedCurve,
+    what: ObjectWhat<'a>,
+}
+
+#[derive(Debug)]
+enum ObjectWhat<'a> {
+    /// On the calibrated path, with its table (`None` if its posterior vanished on the grid).
+    Calibrated(&'a CalObject, Option<ObjectTable>),
+    /// On the flat-prior product formula.
+    Flat(&'a Measurement),
+    /// Not informative over the range: ln P = 0.
+    Uninformative,
+}
+
+impl ObjectCurve<'_> {
+    /// ln P of the object at bound `b_msun` (class units), the same to the bit as
+    /// [`CalibratedCurve::ln_p`].
+    pub fn ln_p(&self, b_msun: f64) -> f64 {
+        let c = self.curve;
+        match &self.what {
+            ObjectWhat::Calibrated(o, tab) => c.ln_p_object(o, tab.as_ref(), b_msun),
+            ObjectWhat::Flat(m) => ln_prob_consistent(m, b_msun, c.scatter_msun),
+            ObjectWhat::Uninformative => 0.0,
+        }
+    }
+}
+
 /// Objects whose tables are built at a time while the curve is tabulated: enough to keep
 /// both cores busy, few enough that the tables in hand stay a few megabytes.
 const TABULATION_CHUNK: usize = 4096;
-
-/// Rebuilt tables kept for objects queried one by one ([`CalibratedCurve::ln_p`]): the
-/// leave-one-out drivers ask about the same object at thousands of bounds. Emptied when full,
-/// so it holds at most this many tables whatever the catalogue.
-const TABLE_CACHE_LEN: usize = 1024;
 
 /// Maps a measurement to class units: (mass, σ₋, σ₊), widths 0 for a limit.
 fn unit(m: &Measurement) -> (f64, f64, f64) {
@@ -554,8 +577,6 @@ pub struct CalibratedCurve {
     d_half: usize,
     /// Gaussian step table T[d] = Φ(d h / s) for d in −D..=D.
     step_table: Vec<f64>,
-    /// Tables of recently queried objects, keyed by (class, position); see [`TABLE_CACHE_LEN`].
-    cache: Mutex<HashMap<(usize, usize), Arc<ObjectTable>>>,
 }
 
 impl CalibratedCurve {
@@ -700,7 +721,6 @@ impl CalibratedCurve {
             window_sigma: w,
             d_half,
             step_table,
-            cache: Mutex::new(HashMap::new()),
         };
         let xs: Vec<f64> = (0..n_nodes).map(|g| curve.node_b(g)).collect();
         // Achieved error: spline against the direct sum (each object's posterior integrated at
@@ -1004,34 +1024,20 @@ impl CalibratedCurve {
         acc.total()
     }
 
-    /// An object's table, from the cache of recent queries or rebuilt (and then cached).
-    fn cached_table(&self, class: usize, o: &CalObject) -> Option<Arc<ObjectTable>> {
-        let key = (class, o.index);
-        if let Some(t) = self.cache.lock().ok().and_then(|c| c.get(&key).cloned()) {
-            return Some(t);
-        }
-        let t = Arc::new(self.object_table(&o.measurement)?);
-        if let Ok(mut c) = self.cache.lock() {
-            if c.len() >= TABLE_CACHE_LEN {
-                c.clear();
-            }
-            c.insert(key, Arc::clone(&t));
-        }
-        Some(t)
-    }
-
-    fn ln_p_object(&self, class: usize, o: &CalObject, b: f64) -> f64 {
+    /// ln P of a calibrated object at bound `b` from its table (`None`: its posterior vanished
+    /// on the grid, so it is on the flat-prior formula).
+    fn ln_p_object(&self, o: &CalObject, tab: Option<&ObjectTable>, b: f64) -> f64 {
         let t = (b - self.node_b(0)) / self.phi.cell_msun;
         // Not `None` for an object kept at build (its table is rebuilt identically).
-        let Some(tab) = self.cached_table(class, o) else {
+        let Some(tab) = tab else {
             return ln_prob_consistent(&o.measurement, b, self.scatter_msun);
         };
         if t >= 0.0 && t <= (self.n_nodes - 1) as f64 {
-            self.ln_p_cal(o, &tab, t, b)
+            self.ln_p_cal(o, tab, t, b)
         } else {
             match self.edge_kernel_at(b) {
-                Some(k) => self.ln_p_with_kernel(o, &tab, &k, b),
-                None => self.ln_p_direct_with(o, &tab, b),
+                Some(k) => self.ln_p_with_kernel(o, tab, &k, b),
+                None => self.ln_p_direct_with(o, tab, b),
             }
         }
     }
@@ -1044,18 +1050,31 @@ impl CalibratedCurve {
     }
 
     /// ln P of object `index` (position in its class's list) of class `class` at bound `b`;
-    /// 0 for an object that is not informative over the range.
+    /// 0 for an object that is not informative over the range. Rebuilds the object's table:
+    /// a caller asking about one object at many bounds holds [`CalibratedCurve::object`].
     pub fn ln_p(&self, class: usize, index: usize, b_msun: f64) -> f64 {
-        let Some(cal) = self.objects.get(class) else {
-            return 0.0;
+        self.object(class, index).ln_p(b_msun)
+    }
+
+    /// Object `index` of class `class` as a function of the bound, its table built once here:
+    /// the leave-one-out drivers ask about one object at every point of the fine axis. (A
+    /// shared cache of rebuilt tables did this before; behind a lock, with thousands of
+    /// candidates evicting each other, it cost more than the tables at 10⁵ objects.)
+    pub fn object(&self, class: usize, index: usize) -> ObjectCurve<'_> {
+        let what = match self.objects.get(class) {
+            None => ObjectWhat::Uninformative,
+            Some(cal) => match cal.binary_search_by_key(&index, |o| o.index) {
+                Ok(k) => {
+                    let o = &cal[k];
+                    ObjectWhat::Calibrated(o, self.object_table(&o.measurement))
+                }
+                Err(_) => match self.flat[class].binary_search_by_key(&index, |f| f.0) {
+                    Ok(k) => ObjectWhat::Flat(&self.flat[class][k].1),
+                    Err(_) => ObjectWhat::Uninformative,
+                },
+            },
         };
-        if let Ok(k) = cal.binary_search_by_key(&index, |o| o.index) {
-            return self.ln_p_object(class, &cal[k], b_msun);
-        }
-        if let Some((_, m)) = self.flat[class].iter().find(|(i, _)| *i == index) {
-            return ln_prob_consistent(m, b_msun, self.scatter_msun);
-        }
-        0.0
+        ObjectCurve { curve: self, what }
     }
 
     /// Positions of the informative objects of class `class`, ascending.

@@ -415,30 +415,40 @@ pub fn slice_drivers_in_fit(
             (1..shifted.len()).fold(0, |k, j| if better(shifted[j], shifted[k]) { j } else { k })
         };
         let (k_lo, k_hi) = (arg(|a, b| a < b), arg(|a, b| a > b));
-        for (pos, &k) in conf.members(*term).iter().enumerate() {
-            let m = &conf.uses[k].measurement;
-            if !m.informative() {
-                continue;
-            }
-            let weight = [k_lo, k_hi]
-                .iter()
-                .map(|&kk| -2.0 * bt.ln_p_object(*term, pos, m, b_fine[kk]))
-                .fold(f64::NEG_INFINITY, f64::max);
-            if weight > opts.candidate_min_minus_two_ln_p {
-                candidates.push((k, *term, pos, b_fine.as_slice(), bt));
-            }
+        // Every informative member's weight at the two ends (a table built per object, in
+        // parallel; collected in order).
+        let chosen: Vec<Option<(usize, usize)>> = conf
+            .members(*term)
+            .par_iter()
+            .enumerate()
+            .map(|(pos, &k)| {
+                let m = &conf.uses[k].measurement;
+                if !m.informative() {
+                    return None;
+                }
+                let ot = bt.object(*term, pos, m);
+                let weight = [k_lo, k_hi]
+                    .iter()
+                    .map(|&kk| -2.0 * ot.ln_p(b_fine[kk]))
+                    .fold(f64::NEG_INFINITY, f64::max);
+                (weight > opts.candidate_min_minus_two_ln_p).then_some((k, pos))
+            })
+            .collect();
+        for (k, pos) in chosen.into_iter().flatten() {
+            candidates.push((k, *term, pos, b_fine.as_slice(), bt));
         }
     }
     let mut out: Vec<SliceDriver> = candidates
         .par_iter()
         .map(|&(k, term, pos, b_fine, bt)| {
             let m = &conf.uses[k].measurement;
+            let ot = bt.object(term, pos, m);
             let without: Vec<f64> = match bt.nuisance() {
                 // No shared shift: the likelihood is a sum, removal is a subtraction.
                 None => chi2
                     .iter()
                     .zip(b_fine)
-                    .map(|(&c, &b)| c + 2.0 * bt.ln_p_object(term, pos, m, b))
+                    .map(|(&c, &b)| c + 2.0 * ot.ln_p(b))
                     .collect(),
                 // A shared shift: the bound's term without the object, the shift eliminated
                 // again at each point, replaces the term with it.
@@ -447,8 +457,7 @@ pub fn slice_drivers_in_fit(
                     .zip(b_fine)
                     .map(|(&c, &b)| {
                         let f = |d: f64| {
-                            bt.data_minus_two_ln_l(b + d)
-                                + 2.0 * bt.ln_p_object_at_shifted(term, pos, m, b + d)
+                            bt.data_minus_two_ln_l(b + d) + 2.0 * ot.ln_p_at_shifted(b + d)
                         };
                         c - bt.minus_two_ln_l(b) + eliminate(&f, &n).minus_two_ln_l
                     })

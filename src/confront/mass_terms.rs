@@ -166,6 +166,39 @@ enum Classes {
     Calibrated(Box<CalibratedCurve>),
 }
 
+/// One object of a bound's term as a function of the bound ([`BoundTerm::object`]).
+#[derive(Debug)]
+pub struct ObjectTerm<'a> {
+    bound: &'a BoundTerm,
+    what: ObjectTermWhat<'a>,
+}
+
+#[derive(Debug)]
+enum ObjectTermWhat<'a> {
+    /// The object's class is not a class of this bound: ln P = 0.
+    Absent,
+    Product(&'a Measurement),
+    Calibrated(super::calibrated::ObjectCurve<'a>),
+}
+
+impl ObjectTerm<'_> {
+    /// ln P at a bound already shifted, B + δ.
+    pub fn ln_p_at_shifted(&self, shifted_b_msun: f64) -> f64 {
+        match &self.what {
+            ObjectTermWhat::Absent => 0.0,
+            ObjectTermWhat::Product(m) => {
+                ln_prob_consistent(m, shifted_b_msun, self.bound.scatter_msun)
+            }
+            ObjectTermWhat::Calibrated(oc) => oc.ln_p(shifted_b_msun),
+        }
+    }
+
+    /// ln P at bound B with the shared shift at its profiled value δ̂(B).
+    pub fn ln_p(&self, b_msun: f64) -> f64 {
+        self.ln_p_at_shifted(b_msun + self.bound.delta_hat(b_msun))
+    }
+}
+
 /// One bound's term of the likelihood.
 #[derive(Debug)]
 pub struct BoundTerm {
@@ -414,13 +447,21 @@ impl BoundTerm {
         m: &Measurement,
         shifted_b_msun: f64,
     ) -> f64 {
-        let Some(c) = self.terms.iter().position(|t| *t == term) else {
-            return 0.0;
+        self.object(term, index, m).ln_p_at_shifted(shifted_b_msun)
+    }
+
+    /// Object `index` (position in its class's list) of class `term` as a function of the
+    /// bound, prepared once (its calibrated table built) for a caller that asks at many
+    /// bounds; the values are those of [`BoundTerm::ln_p_object_at_shifted`] to the bit.
+    pub fn object<'a>(&'a self, term: Term, index: usize, m: &'a Measurement) -> ObjectTerm<'a> {
+        let what = match self.terms.iter().position(|t| *t == term) {
+            None => ObjectTermWhat::Absent,
+            Some(c) => match &self.classes {
+                Classes::Product(_) => ObjectTermWhat::Product(m),
+                Classes::Calibrated(cc) => ObjectTermWhat::Calibrated(cc.object(c, index)),
+            },
         };
-        match &self.classes {
-            Classes::Product(_) => ln_prob_consistent(m, shifted_b_msun, self.scatter_msun),
-            Classes::Calibrated(cc) => cc.ln_p(c, index, shifted_b_msun),
-        }
+        ObjectTerm { bound: self, what }
     }
 
     /// The classes of this bound, in order.
