@@ -36,14 +36,39 @@ pub fn bar(len: u64, msg: &'static str, bytes: bool) -> indicatif::ProgressBar {
 /// terminal. Call [`Steps::step`] as each step starts and [`Steps::finish`] at the end.
 pub struct Steps {
     bar: indicatif::ProgressBar,
+    /// With `DWARFBOUND_TIMINGS` set: the step under way, its start (wall) and the process's
+    /// CPU seconds then; each step's wall and CPU time go to stderr when it ends (for the
+    /// developers' stage tables, DEVELOPERS.md).
+    timing: Option<std::sync::Mutex<(&'static str, std::time::Instant, f64)>>,
+}
+
+/// CPU seconds (user + system, all threads) of this process so far, from `/proc/self/stat`
+/// (Linux; NaN elsewhere). Clock ticks assumed 100 per second, the Linux default.
+pub fn process_cpu_s() -> f64 {
+    std::fs::read_to_string("/proc/self/stat")
+        .ok()
+        .and_then(|s| {
+            // Fields after the command name (which may hold spaces) start at the last ')'.
+            let rest = &s[s.rfind(')')? + 2..];
+            let f: Vec<&str> = rest.split_whitespace().collect();
+            let utime: f64 = f.get(11)?.parse().ok()?;
+            let stime: f64 = f.get(12)?.parse().ok()?;
+            Some((utime + stime) / 100.0)
+        })
+        .unwrap_or(f64::NAN)
 }
 
 impl Steps {
     /// A bar of `len` steps labelled `msg`.
     pub fn new(len: u64, msg: &'static str) -> Steps {
+        let timing = std::env::var_os("DWARFBOUND_TIMINGS").map(|_| {
+            eprintln!("timing: {msg}: start at {:.2} CPU-s", process_cpu_s());
+            std::sync::Mutex::new(("", std::time::Instant::now(), process_cpu_s()))
+        });
         if !std::io::stderr().is_terminal() {
             return Steps {
                 bar: indicatif::ProgressBar::hidden(),
+                timing,
             };
         }
         let bar = indicatif::ProgressBar::new(len);
@@ -55,11 +80,28 @@ impl Steps {
         );
         bar.set_prefix(msg);
         bar.enable_steady_tick(std::time::Duration::from_millis(250));
-        Steps { bar }
+        Steps { bar, timing }
+    }
+
+    /// Prints the step that ends now (timings on) and starts `next`.
+    fn lap(&self, next: &'static str) {
+        if let Some(Ok(mut t)) = self.timing.as_ref().map(|t| t.lock()) {
+            let cpu = process_cpu_s();
+            if !t.0.is_empty() {
+                eprintln!(
+                    "timing: {:<28} {:7.3} s wall {:7.3} CPU-s",
+                    t.0,
+                    t.1.elapsed().as_secs_f64(),
+                    cpu - t.2
+                );
+            }
+            *t = (next, std::time::Instant::now(), cpu);
+        }
     }
 
     /// Marks the previous step done and names the one starting now.
     pub fn step(&self, what: &'static str) {
+        self.lap(what);
         if self.bar.message().is_empty() {
             self.bar.set_position(0);
         } else {
@@ -70,6 +112,7 @@ impl Steps {
 
     /// Removes the bar.
     pub fn finish(&self) {
+        self.lap("");
         self.bar.finish_and_clear();
     }
 }

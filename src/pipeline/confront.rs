@@ -294,6 +294,7 @@ pub fn run_confrontation(
         .map(|m| crowding_at(&conf, m.value_msun, eopts.mmhb_floor_msun));
 
     steps.finish();
+    let outputs_started = std::time::Instant::now();
 
     // 7. Outputs.
     let mut ctx = OutputContext {
@@ -329,6 +330,14 @@ pub fn run_confrontation(
             acc.2 + t.rows_quarantined,
         )
     });
+    if std::env::var_os("DWARFBOUND_TIMINGS").is_some() {
+        eprintln!(
+            "timing: {:<28} {:7.3} s wall, process total {:.2} CPU-s",
+            "outputs",
+            outputs_started.elapsed().as_secs_f64(),
+            crate::progress::process_cpu_s()
+        );
+    }
     Ok(ConfrontOutcome {
         summary,
         consistent: consistency.consistent_cl95,
