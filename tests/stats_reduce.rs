@@ -194,6 +194,32 @@ fn refinement_meets_the_target_on_a_wide_range() {
         let b = range.0 + (range.1 - range.0) * f64::from(k) / 50.0;
         assert!((refined.eval(b) - refined.exact(b)).abs() < 1e-6);
     }
+    // The refinement reuses the previous round's node sums and check sums: the curve must be
+    // the one tabulated directly at the final node count, to the bit (common practice, no
+    // source: a cache must not change what it caches).
+    let direct = ClassCurve::build(
+        &classes[2],
+        0.03,
+        range,
+        &ReduceOptions {
+            n_nodes: refined.n_nodes(),
+            target_error: None,
+            ..ReduceOptions::default()
+        },
+    )
+    .unwrap();
+    assert_eq!(
+        direct.achieved_error().to_bits(),
+        refined.achieved_error().to_bits()
+    );
+    for k in 0..=500 {
+        let b = range.0 + (range.1 - range.0) * f64::from(k) / 500.0;
+        assert_eq!(
+            direct.eval(b).to_bits(),
+            refined.eval(b).to_bits(),
+            "at {b}"
+        );
+    }
 }
 
 #[test]

@@ -176,29 +176,51 @@ impl ClassCurve {
             curve.informative_indices.push(i);
             kept.push((*m, smoothing_width_in_bound(m, b_abs, floor_msun)));
         }
-        // Tabulate; with a target error, double the node density until it is met.
+        // Tabulate; with a target error, double the node density until it is met. A doubling
+        // keeps every node of the previous round (node k of n is node 2k of 2n − 1, to the
+        // bit), so while the smooth objects stay the same their sums there, and the exact sums
+        // at the (seeded, so unchanged) check points, are reused: the same values, half the
+        // evaluations or less.
         let mut n = opts.n_nodes;
+        let check_points = check_points(opts, b_lo, b_hi);
+        let mut previous: Option<(Vec<bool>, Vec<f64>, Vec<f64>)> = None;
         loop {
             let step = (b_hi - b_lo) / (n - 1) as f64;
             curve.smooth.clear();
             curve.sharp.clear();
+            let mut is_smooth = Vec::with_capacity(kept.len());
             for &(m, width) in &kept {
                 if width < opts.sharp_nodes * step {
                     curve.sharp.push(m);
+                    is_smooth.push(false);
                 } else {
                     curve.smooth.push(m);
+                    is_smooth.push(true);
                 }
             }
+            let reuse = previous
+                .take()
+                .filter(|(was, old, _)| *was == is_smooth && 2 * old.len() - 1 == n);
             let nodes: Vec<f64> = (0..n).map(|k| node(b_lo, b_hi, n, k)).collect();
             let values: Vec<f64> = nodes
                 .par_iter()
-                .map(|&b| sum_ln_p(&curve.smooth, b, floor_msun))
+                .enumerate()
+                .map(|(k, &b)| match &reuse {
+                    Some((_, old, _)) if k % 2 == 0 => old[k / 2],
+                    _ => sum_ln_p(&curve.smooth, b, floor_msun),
+                })
                 .collect();
             curve.spline = CubicSpline::new(&nodes, &values, SplineEnd::NotAKnot)?;
             curve.n_nodes = n;
-            curve.achieved_error = measure_error(opts, b_lo, b_hi, |b| {
-                (curve.spline.eval(b) - sum_ln_p(&curve.smooth, b, floor_msun)).abs()
-            });
+            let exact: Vec<f64> = match reuse {
+                Some((_, _, exact)) => exact,
+                None => check_points
+                    .par_iter()
+                    .map(|&b| sum_ln_p(&curve.smooth, b, floor_msun))
+                    .collect(),
+            };
+            curve.achieved_error = max_error(&check_points, &exact, |b| curve.spline.eval(b));
+            previous = Some((is_smooth, values, exact));
             let good_enough = match opts.target_error {
                 Some(target) => curve.achieved_error.is_nan() || curve.achieved_error <= target,
                 None => true,
@@ -565,6 +587,27 @@ fn sum_ln_p(objects: &[Measurement], b: f64, floor_msun: f64) -> f64 {
         acc.add(ln_prob_consistent(m, b, floor_msun));
     }
     acc.total()
+}
+
+/// The seeded check points of [`measure_error`] (none when `n_check` is 0).
+fn check_points(opts: &ReduceOptions, lo: f64, hi: f64) -> Vec<f64> {
+    let mut rng = SplitMix64::new(opts.check_seed);
+    (0..opts.n_check)
+        .map(|_| lo + (hi - lo) * rng.next_f64())
+        .collect()
+}
+
+/// [`measure_error`] with the exact values at the check points given: the largest
+/// |approximation − exact| (NaN without check points).
+fn max_error(points: &[f64], exact: &[f64], approx: impl Fn(f64) -> f64 + Sync) -> f64 {
+    if points.is_empty() {
+        return f64::NAN;
+    }
+    points
+        .par_iter()
+        .zip(exact)
+        .map(|(&b, e)| (approx(b) - e).abs())
+        .reduce(|| 0.0, f64::max)
 }
 
 fn measure_error(opts: &ReduceOptions, lo: f64, hi: f64, err: impl Fn(f64) -> f64 + Sync) -> f64 {
