@@ -472,6 +472,9 @@ struct Layout {
 }
 
 /// Position of a canonical column name in `CANONICAL_COLUMNS` (a `match`, not a search).
+/// Always inlined, like the row accessors below: every caller names a literal column, so the
+/// match folds to a constant at compile time (it was a string comparison per cell, perf).
+#[inline(always)]
 fn slot(canonical: &str) -> Option<usize> {
     Some(match canonical {
         "id" => 0,
@@ -500,6 +503,7 @@ fn slot(canonical: &str) -> Option<usize> {
 }
 
 impl Layout {
+    #[inline(always)]
     fn get(&self, canonical: &str) -> Option<&Col> {
         self.cols[slot(canonical)?].as_ref()
     }
@@ -764,6 +768,7 @@ struct RowView<'a> {
 }
 
 impl<'a> RowView<'a> {
+    #[inline(always)]
     fn cell(&self, canonical: &str) -> Option<(&'a Col, CellRef<'a>)> {
         let col = self.layout.get(canonical)?;
         Some((
@@ -775,10 +780,12 @@ impl<'a> RowView<'a> {
         ))
     }
 
+    #[inline(always)]
     fn text(&self, canonical: &str) -> Option<Cow<'a, str>> {
         self.cell(canonical).and_then(|(_, c)| cell_text(c))
     }
 
+    #[inline(always)]
     fn fail(&self, canonical: &str, why: &str) -> Fail {
         let name = self
             .layout
@@ -788,6 +795,7 @@ impl<'a> RowView<'a> {
     }
 
     /// Raw number and unit of a column; `Ok(None)` when the column is absent or empty.
+    #[inline(always)]
     fn raw(&self, canonical: &str) -> Result<Option<(f64, Unit)>, Fail> {
         let Some((col, cell)) = self.cell(canonical) else {
             return Ok(None);
@@ -805,6 +813,7 @@ impl<'a> RowView<'a> {
     }
 
     /// A strictly positive linear quantity in canonical units.
+    #[inline(always)]
     fn positive(&self, canonical: &str) -> Result<Option<f64>, Fail> {
         match self.raw(canonical)? {
             None => Ok(None),
@@ -826,6 +835,7 @@ impl<'a> RowView<'a> {
     }
 
     /// A mass error in M☉, propagated through a logarithm if its unit is one.
+    #[inline(always)]
     fn mass_error(&self, canonical: &str, mass_msun: f64) -> Result<Option<f64>, Fail> {
         match self.raw(canonical)? {
             None => Ok(None),
