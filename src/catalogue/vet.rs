@@ -1179,6 +1179,20 @@ struct IdEntry {
     len: usize,
 }
 
+/// What [`RowVetter::vet_one`] makes of one row before the ids' check.
+// The object inline: an outcome is moved once, into the accepted objects; a box would be an
+// allocation per row.
+#[allow(clippy::large_enum_variant)]
+#[derive(Debug)]
+pub enum RowOutcome {
+    /// The reader could only partly parse the row (quarantined whatever its id).
+    Malformed(QuarantinedRow),
+    /// Every column passed; the id as read when it differs from the object's normalised id.
+    Accepted(CatalogueObject, Option<Box<str>>),
+    /// A column failed (the entry carries the id as read).
+    Rejected(QuarantinedRow),
+}
+
 /// Vets the rows of one table as they come, in file order, so that a large catalogue is never
 /// held as a table of cells: only the accepted objects, the quarantined rows and one entry per
 /// id are kept.
@@ -1223,7 +1237,19 @@ impl<'m> RowVetter<'m> {
     /// Vets one data row: `cells` in the table's column order, `malformed` the reader's reason
     /// when it could only partly parse the row.
     pub fn push(&mut self, row_number: usize, cells: &[CellRef<'_>], malformed: Option<&str>) {
-        self.rows_in += 1;
+        let outcome = self.vet_one(row_number, cells, malformed);
+        self.accept(outcome);
+    }
+
+    /// The part of [`RowVetter::push`] that depends on the row alone (every check but the
+    /// ids'): rows may go through it in parallel, as long as their outcomes reach
+    /// [`RowVetter::accept`] in row order.
+    pub fn vet_one(
+        &self,
+        row_number: usize,
+        cells: &[CellRef<'_>],
+        malformed: Option<&str>,
+    ) -> RowOutcome {
         let view = RowView {
             layout: &self.layout,
             cells,
@@ -1237,15 +1263,42 @@ impl<'m> RowVetter<'m> {
             reason,
         };
         if let Some(why) = malformed {
-            let q = quarantined(
+            return RowOutcome::Malformed(quarantined(
                 reason::WHOLE_ROW.to_string(),
                 format!("{}{why}", reason::MALFORMED_PREFIX),
-            );
-            self.quarantine.push(q);
-            return;
+            ));
         }
+        match vet_row(&view, self.map, &self.source_file, row_number) {
+            Ok(obj) => {
+                // The id as read, kept only when it is not the normalised id itself.
+                let raw = id
+                    .as_deref()
+                    .filter(|raw| *raw != obj.id)
+                    .map(Box::<str>::from);
+                RowOutcome::Accepted(obj, raw)
+            }
+            Err((c, w)) => RowOutcome::Rejected(quarantined(c, w)),
+        }
+    }
+
+    /// Applies the ids' check to a row's outcome, in row order, and keeps the result: a
+    /// repeated spelling is a duplicate, a second spelling a lookalike (checked before every
+    /// other column, as in the module table).
+    pub fn accept(&mut self, outcome: RowOutcome) {
+        self.rows_in += 1;
+        let (row, raw) = match &outcome {
+            RowOutcome::Malformed(q) => {
+                self.quarantine.push(q.clone());
+                return;
+            }
+            RowOutcome::Accepted(obj, raw) => (
+                obj.source_row,
+                Some(raw.as_deref().unwrap_or(obj.id.as_str())),
+            ),
+            RowOutcome::Rejected(q) => (q.row, q.id.as_deref()),
+        };
         // An id of invisible characters only is left to `vet_row` (missing id).
-        if let Some(raw) = id.as_deref() {
+        if let Some(raw) = raw {
             let key = normalised(raw);
             if !key.is_empty() {
                 let failure = match self.ids.find(key.as_ref()) {
@@ -1268,19 +1321,26 @@ impl<'m> RowVetter<'m> {
                     }
                 };
                 if let Some(why) = failure {
-                    let (c, w) = view.fail("id", why);
-                    let q = quarantined(c, w);
+                    let column = self
+                        .layout
+                        .get("id")
+                        .map_or("id".to_string(), |c| c.name.clone());
+                    let q = QuarantinedRow {
+                        file: self.path_label.clone(),
+                        row,
+                        id: Some(raw.to_string()),
+                        column,
+                        reason: why.to_string(),
+                    };
                     self.quarantine.push(q);
                     return;
                 }
             }
         }
-        match vet_row(&view, self.map, &self.source_file, row_number) {
-            Ok(obj) => self.objects.push(obj),
-            Err((c, w)) => {
-                let q = quarantined(c, w);
-                self.quarantine.push(q);
-            }
+        match outcome {
+            RowOutcome::Accepted(obj, _) => self.objects.push(obj),
+            RowOutcome::Rejected(q) => self.quarantine.push(q),
+            RowOutcome::Malformed(_) => {}
         }
     }
 
