@@ -190,7 +190,8 @@ pub fn fmt_f64(x: Option<f64>) -> String {
 pub fn push_f64(buf: &mut String, x: Option<f64>) {
     match x {
         // −0 prints as 0: the sign of a zero carries no information in a table.
-        Some(v) if v == 0.0 => buf.push('0'),
+        // (A float pattern compares with `==`: −0 matches too.)
+        Some(0.0) => buf.push('0'),
         Some(v) if v.is_finite() => {
             let mut digits = ryu::Buffer::new();
             if !push_plain(buf, digits.format_finite(v)) {

@@ -523,9 +523,7 @@ fn vet_blocks(
             .map(|(before, block)| {
                 let mut splitter = Splitter::new(ncols);
                 let mut out = Vec::new();
-                let mut row_number = *before;
-                for line in lines(block).flatten() {
-                    row_number += 1;
+                for (row_number, line) in (*before + 1..).zip(lines(block).flatten()) {
                     splitter.row(line, |cells, malformed| {
                         out.push(shared.vet_one(row_number, cells, malformed))
                     });
