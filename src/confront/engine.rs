@@ -458,7 +458,15 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
     objects
         .iter()
         .enumerate()
-        .map(|(index, o)| {
+        .map(|(index, o)| plan_one(index, o, opts))
+        .collect()
+}
+
+/// [`plan`] for object `index` alone (a use depends on its own object only): a quick look
+/// over a large catalogue need not hold every use at once.
+pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
+    {
+        {
             let mu_e = o.mu_e.unwrap_or(opts.default_mu_e);
             let measurement = measurement_of(o, mu_e);
             let mut flags = Flags::default();
@@ -529,8 +537,8 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
                 mu_e,
                 core: is_wd.then(|| ResolvedCore::resolve(o.core, o.mass_msun)),
             }
-        })
-        .collect()
+        }
+    }
 }
 
 /// Why a comparison could not be made.
@@ -973,6 +981,27 @@ pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) ->
     if ln_p <= -std::f64::consts::LN_2 {
         return Some(tension_sigma(ln_p));
     }
+    safe_side_tension(u, class_bound_msun, opts)
+}
+
+/// [`tension_of`] where it is positive: `Some(z)` (the same value) when P ≤ ½, `None` for an
+/// object on the safe side (P > ½, z < 0) without evaluating the opposite side's probability.
+/// A caller that keeps only tensions above a threshold of 1σ or more loses nothing: on the
+/// safe side z = Φ⁻¹(1 − P) ≤ 0 up to rounding.
+pub fn wrong_side_tension(
+    u: &ObjectUse,
+    class_bound_msun: f64,
+    opts: &EngineOptions,
+) -> Option<f64> {
+    let ln_p = ln_p_object(u, class_bound_msun, opts)?;
+    if !u.measurement.informative() || ln_p > -std::f64::consts::LN_2 {
+        return None;
+    }
+    Some(tension_sigma(ln_p))
+}
+
+/// The safe-side branch of [`tension_of`] (P > ½): z from 1 − P.
+fn safe_side_tension(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
     let m = &u.measurement;
     let floor = match u.mass_term? {
         Term::WhiteDwarfMass => opts.chandrasekhar_floor_msun,
@@ -980,12 +1009,14 @@ pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) ->
     };
     match m.kind {
         MassKind::Measured { .. } => {
-            let mut flipped = u.clone();
-            flipped.measurement.side = match m.side {
+            // What `ln_p_object` computes for the flipped side (only the measurement is
+            // needed: a clone of the whole use was a String and flags per object).
+            let mut flipped = *m;
+            flipped.side = match m.side {
                 Side::AtLeast => Side::AtMost,
                 Side::AtMost => Side::AtLeast,
             };
-            let ln_q = ln_p_object(&flipped, class_bound_msun, opts)?;
+            let ln_q = ln_prob_consistent(&flipped, class_bound_msun, floor);
             Some(super::prob::normal_quantile_from_ln(ln_q))
         }
         MassKind::UpperLimit { sigma } | MassKind::LowerLimit { sigma } => {
