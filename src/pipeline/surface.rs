@@ -26,7 +26,7 @@ use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
 use crate::theory::slow_rotation::SlowRotation;
 use crate::theory::slow_rotation_table::SlowRotationTable;
-use crate::theory::white_dwarf::WdMassRadius;
+use crate::theory::white_dwarf::{RadiusQueries, WdMassRadius};
 
 /// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, ϒ
 /// inner).
@@ -143,6 +143,12 @@ impl BoundSurface for GridSurface<'_> {
             // query is one polynomial evaluation (no root search per query).
             Some(Outcome::Ok(t)) => t.radii_rsun(queries),
             _ => vec![None; queries.len()],
+        }
+    }
+    fn wd_radii_prepared(&self, i: usize, queries: &RadiusQueries) -> Vec<Option<f64>> {
+        match self.grid.wd_table(i) {
+            Some(Outcome::Ok(t)) => t.radii_rsun_prepared(queries),
+            _ => vec![None; queries.pairs().len()],
         }
     }
     fn slow_rotation_n32(&self, i: usize) -> Option<SlowRotation> {
