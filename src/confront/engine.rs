@@ -44,6 +44,7 @@ use super::reduce::{ClassCurve, ReduceOptions};
 use super::regions::PopulationTerm;
 use super::wd_radius::{self, ObjectRadius, RadiusOptions, ResolvedCore, WdQuery, WdStandard};
 use crate::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
+use crate::theory::white_dwarf::RadiusQueries;
 
 /// The bounds over the grid, as the comparator needs them. Index `i` runs over grid points in
 /// row-major order: τ outer, ϒ inner (`i = j_tau * n_upsilon + i_upsilon`).
@@ -60,6 +61,12 @@ pub trait BoundSurface: Sync {
     /// above the maximum mass or where no model exists. Batched because looking up a grid
     /// point's mass–radius table costs far more than one radius from it.
     fn wd_radii_rsun(&self, i: usize, queries: &[(f64, f64)]) -> Vec<Option<f64>>;
+    /// [`BoundSurface::wd_radii_rsun`] of queries prepared once for every point they are asked
+    /// at (what depends on the query alone is not worked out again per point); the same
+    /// values. The default asks [`BoundSurface::wd_radii_rsun`].
+    fn wd_radii_prepared(&self, i: usize, queries: &RadiusQueries) -> Vec<Option<f64>> {
+        self.wd_radii_rsun(i, queries.pairs())
+    }
     /// The standard-gravity radius model for each query (mass, Teff, core, envelope), asked
     /// once per confrontation; `None` where the model has no star. The radius at a grid point
     /// is this radius times the ratio of [`BoundSurface::wd_radii_rsun`] at the point to
@@ -714,13 +721,15 @@ pub fn confront(
         });
     }
     if !radius_objects.is_empty() {
-        let queries: Vec<(f64, f64)> = radius_objects
-            .iter()
-            .flat_map(|r| {
-                let mu_e = uses[r.index].mu_e;
-                r.nodes.iter().map(move |&(m, _)| (m, mu_e))
-            })
-            .collect();
+        let queries = RadiusQueries::new(
+            &radius_objects
+                .iter()
+                .flat_map(|r| {
+                    let mu_e = uses[r.index].mu_e;
+                    r.nodes.iter().map(move |&(m, _)| (m, mu_e))
+                })
+                .collect::<Vec<_>>(),
+        );
         let ups = surface.upsilon();
         let shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
         let spun = super::spin::RadiusCorrections::new(&spins, &radius_objects);
@@ -728,7 +737,7 @@ pub fn confront(
             .into_par_iter()
             .map(|i| {
                 chandra[i]?;
-                let mut radii = surface.wd_radii_rsun(i, &queries);
+                let mut radii = surface.wd_radii_prepared(i, &queries);
                 // Spinning white dwarfs: the point's own slow-rotation factor, inside the term.
                 spun.apply(&spins, surface, i, &mut radii);
                 let upsilon = ups[i % nu];

@@ -49,6 +49,7 @@ use super::wd_radius::{
     radius_term, radius_total, radius_totals_leaving_out, shared_nuisance, split_floor,
     ObjectRadius, RadiusTerm,
 };
+use crate::theory::white_dwarf::RadiusQueries;
 
 /// The ϒ interval at τ = 0 is read on a grid this many times finer than the ϒ axis (the
 /// paper's statistics section: 10).
@@ -331,11 +332,12 @@ fn cold_radii_on_fine_axis(
     adjust: Option<&AdjustRadii<'_>>,
 ) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
     let axis = row.axis;
+    let prepared = RadiusQueries::new(queries);
     let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
         .into_par_iter()
         .map(|i| {
             let at = row.j0 * nu + row.first + i;
-            let mut radii = surface.wd_radii_rsun(at, queries);
+            let mut radii = surface.wd_radii_prepared(at, &prepared);
             if let Some(f) = adjust {
                 f(at, &mut radii);
             }
@@ -390,12 +392,9 @@ fn spin_terms_on_fine_axis(
     if conf.spins.is_empty() {
         return Ok(Vec::new());
     }
-    let queries: Vec<(f64, f64)> = conf
-        .spins
-        .iter()
-        .flat_map(super::spin::ObjectSpin::queries)
-        .collect();
-    let per_query = cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, &queries, None)?;
+    let prepared = super::spin::spin_queries(&conf.spins);
+    let per_query =
+        cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, prepared.pairs(), None)?;
     // The MMHB factors of corrected objects at the coarse points of the row.
     let coarse: Vec<Vec<super::spin::SpinAt>> = if conf.spins.iter().any(|s| s.mmhb.is_some()) {
         (0..row.axis.len())
@@ -403,6 +402,7 @@ fn spin_terms_on_fine_axis(
             .map(|i| {
                 super::spin::spins_at_with(
                     &conf.spins,
+                    &prepared,
                     surface,
                     row.j0 * conf.n_upsilon + row.first + i,
                     false,

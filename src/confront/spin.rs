@@ -63,6 +63,7 @@ use super::wd_radius::{ObjectRadius, WdQuery, WdRadiusModel};
 use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
 use crate::theory::rotation::{breakup_period_s, BreakupModel};
 use crate::theory::slow_rotation::{rotation_parameter_v, slow_rotation, SlowRotationError};
+use crate::theory::white_dwarf::RadiusQueries;
 use crate::theory::Anisotropy;
 
 /// Largest effective polytropic index for which a white dwarf's radius is corrected at first
@@ -434,19 +435,31 @@ impl ObjectSpin {
 
 /// The spin tests of every object at grid point `i`, in the order of `spins`.
 pub fn spins_at(spins: &[ObjectSpin], surface: &dyn BoundSurface, i: usize) -> Vec<SpinAt> {
-    spins_at_with(spins, surface, i, true)
+    spins_at_with(spins, &spin_queries(spins), surface, i, true)
+}
+
+/// The radius queries of every object of `spins` ([`ObjectSpin::queries`], in order), prepared
+/// once for the many points [`spins_at_with`] asks them at.
+pub fn spin_queries(spins: &[ObjectSpin]) -> RadiusQueries {
+    RadiusQueries::new(
+        &spins
+            .iter()
+            .flat_map(ObjectSpin::queries)
+            .collect::<Vec<_>>(),
+    )
 }
 
 /// [`spins_at`], with ln(1 − P) only when `with_ln_q` (`None` otherwise): sums over grid
 /// points and the MMHB factors need ln P alone, and ln(1 − P) costs one more normal CDF per node.
+/// `queries` are [`spin_queries`] of `spins`.
 pub fn spins_at_with(
     spins: &[ObjectSpin],
+    queries: &RadiusQueries,
     surface: &dyn BoundSurface,
     i: usize,
     with_ln_q: bool,
 ) -> Vec<SpinAt> {
-    let queries: Vec<(f64, f64)> = spins.iter().flat_map(ObjectSpin::queries).collect();
-    let cold = surface.wd_radii_rsun(i, &queries);
+    let cold = surface.wd_radii_prepared(i, queries);
     let any_mmhb = spins.iter().any(|s| s.mmhb.is_some());
     let mmhb = if any_mmhb { surface.mmhb_msun(i) } else { None };
     // The point's coefficients are looked up only where some corrected object's mass test can
@@ -529,13 +542,14 @@ pub fn minus_two_ln_l_grid(
     if spins.is_empty() {
         return (vec![Some(0.0); n_points], spans);
     }
+    let queries = spin_queries(spins);
     let mut totals = Vec::with_capacity(n_points);
     let mut start = 0;
     while start < n_points {
         let end = (start + SPIN_POINTS_PER_BATCH).min(n_points);
         let batch: Vec<Vec<SpinAt>> = (start..end)
             .into_par_iter()
-            .map(|i| spins_at_with(spins, surface, i, false))
+            .map(|i| spins_at_with(spins, &queries, surface, i, false))
             .collect();
         for at in &batch {
             totals.push(Some(

@@ -207,17 +207,28 @@ pub fn run_confrontation(
     let vetted = vet_all(&settings.catalogues)?;
     let checksums = checksum_files(&settings.catalogues)?;
 
-    // 2. Theory: the grid, the standard-gravity point, and the floors the latter sets.
-    let (grid, from_cache, cache_note) = match theory {
-        TheorySource::Compute { cache } => theory_grid(
-            settings.upsilon,
-            settings.tau,
-            &settings.theory,
-            None,
-            cache,
-        )?,
-        TheorySource::Given(g) => (*g, false, None),
-    };
+    // 2. Theory: the grid, the standard-gravity point, and the floors the latter sets. The
+    // standard white-dwarf tables the comparison will ask for are computed meanwhile (in
+    // parallel, not one after another inside step 3; the same values).
+    let (grid, ()) = rayon::join(
+        || match theory {
+            TheorySource::Compute { cache } => theory_grid(
+                settings.upsilon,
+                settings.tau,
+                &settings.theory,
+                None,
+                cache,
+            ),
+            TheorySource::Given(g) => Ok((*g, false, None)),
+        },
+        || {
+            super::surface::warm_standard_tables(
+                &vetted.objects,
+                settings.statistics.engine.radius.model,
+            )
+        },
+    );
+    let (grid, from_cache, cache_note) = grid?;
     if !grid.is_complete() {
         return Err(PipelineError::Settings(
             "the theory grid is incomplete (a shard?): merge all shards first".into(),

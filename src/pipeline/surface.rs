@@ -15,7 +15,9 @@
 //! assert_eq!(surface.upsilon().len(), 3);
 //! ```
 
-use crate::catalogue::EnvelopeLabel;
+use rayon::prelude::*;
+
+use crate::catalogue::{CatalogueObject, EnvelopeLabel, ObjectClass};
 use crate::confront::engine::BoundSurface;
 use crate::confront::tension::ReferencePoint;
 use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandard};
@@ -24,7 +26,7 @@ use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
 use crate::theory::slow_rotation::SlowRotation;
 use crate::theory::slow_rotation_table::SlowRotationTable;
-use crate::theory::white_dwarf::WdMassRadius;
+use crate::theory::white_dwarf::{RadiusQueries, WdMassRadius};
 
 /// The theory grid seen as the comparator's [`BoundSurface`] (same index order: τ outer, ϒ
 /// inner).
@@ -80,11 +82,7 @@ impl<'a> GridSurface<'a> {
     /// spread when the layer is not stated and d ln R/d Teff.
     fn hot_standard(table: &HotWdTable, q: &WdQuery, cold_rsun: f64) -> Option<WdStandard> {
         let teff = q.teff_k?;
-        let core = match q.core {
-            ResolvedCore::Helium => Core::Helium,
-            ResolvedCore::CarbonOxygen => Core::CarbonOxygen,
-            ResolvedCore::OxygenNeon => Core::OxygenNeon,
-        };
+        let core = hot_core(q.core);
         let at = |t: f64, e: Envelope| table.radius_rsun(q.mass_msun, t, core, e).ok();
         let envelope = match q.envelope {
             Some(EnvelopeLabel::Thin) => Envelope::Thin,
@@ -120,12 +118,9 @@ impl GridSurface<'_> {
     /// core's TOV maximum mass: the standard-gravity edge of the radius model. The modified
     /// theory still enters only through the Newtonian-order ratio R_c(M; ϒ, τ)/R_c(M; 0, 0).
     fn tov_factor(q: &WdQuery) -> Option<f64> {
-        let core = match q.core {
-            ResolvedCore::Helium => Core::Helium,
-            ResolvedCore::CarbonOxygen => Core::CarbonOxygen,
-            ResolvedCore::OxygenNeon => Core::OxygenNeon,
-        };
-        tov::tov_correction(core).ok()?.ratio(q.mass_msun)
+        tov::tov_correction(hot_core(q.core))
+            .ok()?
+            .ratio(q.mass_msun)
     }
 }
 
@@ -148,6 +143,12 @@ impl BoundSurface for GridSurface<'_> {
             // query is one polynomial evaluation (no root search per query).
             Some(Outcome::Ok(t)) => t.radii_rsun(queries),
             _ => vec![None; queries.len()],
+        }
+    }
+    fn wd_radii_prepared(&self, i: usize, queries: &RadiusQueries) -> Vec<Option<f64>> {
+        match self.grid.wd_table(i) {
+            Some(Outcome::Ok(t)) => t.radii_rsun_prepared(queries),
+            _ => vec![None; queries.pairs().len()],
         }
     }
     fn slow_rotation_n32(&self, i: usize) -> Option<SlowRotation> {
@@ -205,6 +206,51 @@ impl BoundSurface for GridSurface<'_> {
             })
             .collect()
     }
+}
+
+/// The finite-temperature model's core of a resolved white-dwarf core.
+fn hot_core(core: ResolvedCore) -> Core {
+    match core {
+        ResolvedCore::Helium => Core::Helium,
+        ResolvedCore::CarbonOxygen => Core::CarbonOxygen,
+        ResolvedCore::OxygenNeon => Core::OxygenNeon,
+    }
+}
+
+/// Computes beforehand, in parallel, the standard-gravity white-dwarf tables that the radius
+/// and spin tests of these objects will ask for: the finite-temperature table and one
+/// relativistic correction per core (≈ 0.1 s each, [`tov::tov_correction`]). Otherwise the
+/// first query of each core computes its correction on the comparison's single thread, one core
+/// after another. Called alongside the theory grid; the values are the same whichever thread
+/// computes them (each is cached once per process), so no output changes. Nothing to do for
+/// the zero-temperature model, which asks for neither.
+pub fn warm_standard_tables(objects: &[CatalogueObject], model: WdRadiusModel) {
+    if model != WdRadiusModel::Hot {
+        return;
+    }
+    let asked: Vec<Core> = Core::ALL
+        .into_iter()
+        .filter(|&c| {
+            objects.iter().any(|o| {
+                o.class == ObjectClass::WhiteDwarf
+                    && (o.radius_rsun.is_some() || o.rotation_period_h.is_some())
+                    && hot_core(ResolvedCore::resolve(o.core, o.mass_msun)) == c
+            })
+        })
+        .collect();
+    if asked.is_empty() {
+        return;
+    }
+    rayon::join(
+        || {
+            let _ = HotWdTable::standard();
+        },
+        || {
+            asked.par_iter().for_each(|&c| {
+                let _ = tov::tov_correction(c);
+            })
+        },
+    );
 }
 
 /// The class bounds of one theory point (the MMHB and Chandrasekhar mass used against data).

@@ -28,6 +28,8 @@ pub mod text;
 
 use std::path::Path;
 
+use rayon::prelude::*;
+
 pub use figure_data::{
     DataFigures, MassBounds, MassMark, MassObject, MassPanel, ModelCurve, ProfileTau0,
     WdMassRadius, WdPoint, WdPointFlag,
@@ -128,39 +130,84 @@ pub fn render_report_with(
 ) -> Result<RenderedReport, ReportError> {
     input.validate()?;
     data.validate()?;
-    let allowed_svg = render_allowed_svg(map)?;
-    let allowed_png = render_allowed_png(map)?;
-    let bounds_svg = render_bounds_svg(curves)?;
-    let bounds_png = render_bounds_png(curves)?;
-    let mut data_figures = Vec::new();
     let zoom = zoom_of(map, data.profile_tau0.as_ref());
-    let mut zoom_section = Vec::new();
+    // Rasterising and encoding the PNGs is most of the drawing time, and each figure is
+    // independent of the others: they are drawn in parallel, each by the same code as before
+    // (so the same bytes), while the SVGs are drawn here; results keep the fixed order below.
+    type PngJob<'a> = Box<dyn Fn() -> Result<Vec<u8>, ReportError> + Send + Sync + 'a>;
+    let mut png_jobs: Vec<PngJob<'_>> = vec![
+        Box::new(|| render_allowed_png(map)),
+        Box::new(|| render_bounds_png(curves)),
+    ];
     if let Some(z) = &zoom {
-        let svg = render_zoom_svg(z)?;
-        zoom_section = data_blocks::zoom_blocks(z, svg.clone());
-        data_figures.push(("allowed_zoom", svg, render_zoom_png(z)?));
+        png_jobs.push(Box::new(move || render_zoom_png(z)));
     }
     if let Some(p) = &data.profile_tau0 {
-        data_figures.push((
-            "profile_tau0",
-            render_profile_svg(p)?,
-            render_profile_png(p)?,
-        ));
+        png_jobs.push(Box::new(move || render_profile_png(p)));
     }
     if let Some(m) = &data.mass_bounds {
-        data_figures.push((
-            "mass_bounds",
-            render_mass_bounds_svg(m)?,
-            render_mass_bounds_png(m)?,
-        ));
+        png_jobs.push(Box::new(move || render_mass_bounds_png(m)));
     }
     if let Some(w) = &data.wd_mass_radius {
-        data_figures.push((
-            "wd_mass_radius",
-            render_wd_mass_radius_svg(w)?,
-            render_wd_mass_radius_png(w)?,
-        ));
+        png_jobs.push(Box::new(move || render_wd_mass_radius_png(w)));
     }
+    let (pngs, svgs) = rayon::join(
+        || {
+            png_jobs
+                .par_iter()
+                .map(|job| job())
+                .collect::<Vec<Result<Vec<u8>, ReportError>>>()
+        },
+        || -> Result<_, ReportError> {
+            let mut data_svgs = Vec::new();
+            if let Some(z) = &zoom {
+                data_svgs.push(("allowed_zoom", render_zoom_svg(z)?));
+            }
+            if let Some(p) = &data.profile_tau0 {
+                data_svgs.push(("profile_tau0", render_profile_svg(p)?));
+            }
+            if let Some(m) = &data.mass_bounds {
+                data_svgs.push(("mass_bounds", render_mass_bounds_svg(m)?));
+            }
+            if let Some(w) = &data.wd_mass_radius {
+                data_svgs.push(("wd_mass_radius", render_wd_mass_radius_svg(w)?));
+            }
+            Ok((
+                render_allowed_svg(map)?,
+                render_bounds_svg(curves)?,
+                data_svgs,
+            ))
+        },
+    );
+    // A drawing error (a bug: the inputs were validated above) is reported SVGs first, then
+    // the PNGs in order.
+    let (allowed_svg, bounds_svg, data_svgs, allowed_png, bounds_png, data_pngs) = {
+        let mut pngs = pngs.into_iter();
+        let mut next_png = || pngs.next().unwrap_or(Ok(Vec::new()));
+        let (allowed_svg, bounds_svg, data_svgs) = svgs?;
+        let (allowed_png, bounds_png) = (next_png()?, next_png()?);
+        let data_pngs = data_svgs
+            .iter()
+            .map(|_| next_png())
+            .collect::<Result<Vec<_>, _>>()?;
+        (
+            allowed_svg,
+            bounds_svg,
+            data_svgs,
+            allowed_png,
+            bounds_png,
+            data_pngs,
+        )
+    };
+    let mut zoom_section = Vec::new();
+    if let Some(z) = &zoom {
+        zoom_section = data_blocks::zoom_blocks(z, data_svgs[0].1.clone());
+    }
+    let data_figures: Vec<(&'static str, String, Vec<u8>)> = data_svgs
+        .into_iter()
+        .zip(data_pngs)
+        .map(|((stem, svg), png)| (stem, svg, png))
+        .collect();
     let svg_of = |stem: &str| {
         data_figures
             .iter()

@@ -383,6 +383,70 @@ impl Stencil {
     }
 }
 
+/// (mass M☉, μ_e) queries of [`WdMassRadius::radii_rsun_prepared`] with what depends on the
+/// query alone worked out once: the dimensionless mass m, log₁₀ m and the length unit.
+///
+/// Why: a confrontation asks every grid point's table (over a thousand) for the same queries;
+/// m and log₁₀ m were recomputed for each table although no table enters them.
+///
+/// ```
+/// use dwarfbound::theory::white_dwarf::RadiusQueries;
+/// let q = RadiusQueries::new(&[(0.6, 2.0), (0.8, 2.0)]);
+/// assert_eq!(q.pairs().len(), 2);
+/// ```
+#[derive(Debug, Clone, Default)]
+pub struct RadiusQueries {
+    pairs: Vec<(f64, f64)>,
+    prepared: Vec<PreparedQuery>,
+}
+
+#[derive(Debug, Clone, Copy)]
+struct PreparedQuery {
+    /// μ_e valid and the mass finite (else the table is not asked).
+    valid: bool,
+    m: f64,
+    log10_m: f64,
+    length_unit: f64,
+}
+
+impl RadiusQueries {
+    /// Prepares `pairs` (mass M☉, μ_e), in order.
+    pub fn new(pairs: &[(f64, f64)]) -> Self {
+        // Queries come object after object with one μe each: the units of the last μe are
+        // kept (the same values, computed once per run of equal μe).
+        let mut units: Option<(u64, f64, f64)> = None;
+        let prepared = pairs
+            .iter()
+            .map(|&(mass_msun, mu_e)| {
+                let (mass_unit, length_unit) = match units {
+                    Some((bits, mu, l)) if bits == mu_e.to_bits() => (mu, l),
+                    _ => {
+                        let u = (mass_unit_msun(mu_e), length_unit_m(mu_e));
+                        units = Some((mu_e.to_bits(), u.0, u.1));
+                        u
+                    }
+                };
+                let m = mass_msun / mass_unit;
+                PreparedQuery {
+                    valid: check_mu_e(mu_e).is_ok() && mass_msun.is_finite(),
+                    m,
+                    log10_m: m.log10(),
+                    length_unit,
+                }
+            })
+            .collect();
+        Self {
+            pairs: pairs.to_vec(),
+            prepared,
+        }
+    }
+
+    /// The (mass M☉, μ_e) queries, in order.
+    pub fn pairs(&self) -> &[(f64, f64)] {
+        &self.pairs
+    }
+}
+
 /// A polynomial in Newton form through [`INTERVAL_POINTS`] nodes.
 #[derive(Debug, Clone, Copy)]
 struct IntervalPoly {
@@ -705,35 +769,40 @@ impl WdMassRadius {
     /// other queries came with it. Masses outside the tabulated range (the analytic ends) take
     /// the direct path.
     pub fn radii_rsun(&self, queries: &[(f64, f64)]) -> Vec<Option<f64>> {
+        self.radii_rsun_prepared(&RadiusQueries::new(queries))
+    }
+
+    /// [`WdMassRadius::radii_rsun`] of queries prepared once ([`RadiusQueries`]) for many
+    /// tables: the same arithmetic, so the same bits.
+    pub fn radii_rsun_prepared(&self, queries: &RadiusQueries) -> Vec<Option<f64>> {
         let n = self.mass_dimless.len();
         let mut polys: Vec<Option<IntervalPoly>> = vec![None; n.saturating_sub(1)];
-        // Queries come object after object with one μe each: the units of the last μe are
-        // kept (the same values, computed once per run of equal μe).
-        let mut units: Option<(u64, f64, f64)> = None;
+        // Queries come object after object, each object's masses ascending: the interval of the
+        // last query is tried before the binary search (the same interval whenever it holds m:
+        // the table's masses are sorted, so it is the one the search would find).
+        let mut last = 0;
         queries
+            .pairs
             .iter()
-            .map(|&(mass_msun, mu_e)| {
-                let (mass_unit, length_unit) = match units {
-                    Some((bits, mu, l)) if bits == mu_e.to_bits() => (mu, l),
-                    _ => {
-                        let u = (mass_unit_msun(mu_e), length_unit_m(mu_e));
-                        units = Some((mu_e.to_bits(), u.0, u.1));
-                        u
-                    }
-                };
-                let m = mass_msun / mass_unit;
-                let inside = check_mu_e(mu_e).is_ok()
-                    && mass_msun.is_finite()
+            .zip(&queries.prepared)
+            .map(|(&(mass_msun, mu_e), q)| {
+                let m = q.m;
+                let inside = q.valid
                     && m > self.mass_dimless[0]
                     && m < self.mass_dimless[n - 1]
                     && m < self.mass_ch_dimless;
                 if !inside {
                     return self.radius_rsun(mass_msun, mu_e).ok();
                 }
-                let i = self.mass_dimless.partition_point(|v| *v <= m) - 1;
+                let i = if self.mass_dimless[last] <= m && m < self.mass_dimless[last + 1] {
+                    last
+                } else {
+                    self.mass_dimless.partition_point(|v| *v <= m) - 1
+                };
+                last = i;
                 let poly = polys[i].get_or_insert_with(|| self.interval_poly(i));
-                let ln_eta = poly.eval(m.log10()) * std::f64::consts::LN_10;
-                Some(length_unit * ln_eta.exp() / R_SUN_NOMINAL_M)
+                let ln_eta = poly.eval(q.log10_m) * std::f64::consts::LN_10;
+                Some(q.length_unit * ln_eta.exp() / R_SUN_NOMINAL_M)
             })
             .collect()
     }
@@ -868,6 +937,26 @@ mod tests {
                 let k = queries.iter().position(|x| x == q).unwrap();
                 assert_eq!(alone[0].map(f64::to_bits), batch[k].map(f64::to_bits));
             }
+            // Nor on their order (the last query's interval is tried first): every query
+            // reversed, to the bit (internal consistency; no outside source).
+            let reversed: Vec<(f64, f64)> = queries.iter().rev().copied().collect();
+            let back = table.radii_rsun(&reversed);
+            for (a, b) in batch.iter().zip(back.iter().rev()) {
+                assert_eq!(a.map(f64::to_bits), b.map(f64::to_bits));
+            }
+            // Queries prepared once answer every table as its own batch does.
+            let prepared = RadiusQueries::new(&queries);
+            let again = table.radii_rsun_prepared(&prepared);
+            assert_eq!(
+                again
+                    .iter()
+                    .map(|x| x.map(f64::to_bits))
+                    .collect::<Vec<_>>(),
+                batch
+                    .iter()
+                    .map(|x| x.map(f64::to_bits))
+                    .collect::<Vec<_>>()
+            );
         }
     }
 }
