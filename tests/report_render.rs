@@ -271,9 +271,14 @@ fn synthetic_input(consistent: bool) -> ReportInput {
             },
         ],
         reduction_error: Some(ReductionError {
-            max_abs_delta_chi2: 6.5e-8,
-            nodes: 257,
-            check_points: 300,
+            terms: vec![TermTabulation {
+                bound: "MMHB".into(),
+                likelihood: "product".into(),
+                data_nodes: 257,
+                table_nodes: Some(257),
+                check_points: 300,
+                max_abs_delta_chi2: 6.5e-8,
+            }],
         }),
         warnings: vec![
             Warning::Crowding {

@@ -825,6 +825,11 @@ impl CubicSpline {
                 / 6.0
     }
 
+    /// Number of nodes.
+    pub fn n_nodes(&self) -> usize {
+        self.x.len()
+    }
+
     /// First and last abscissa.
     pub fn domain(&self) -> (f64, f64) {
         (self.x[0], self.x[self.x.len() - 1])

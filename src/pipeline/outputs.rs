@@ -637,7 +637,9 @@ impl OutputContext<'_> {
             .map(|(term, c)| {
                 json!({
                     "class": term.name(),
-                    "nodes": self.eopts.reduce.n_nodes,
+                    "likelihood_use": "counts and per-object tensions only (flat prior, whole floor per object), not the likelihood: its terms and their errors are statistics.bounds",
+                    "nodes": c.n_nodes(),
+                    "check_points": self.eopts.reduce.n_check,
                     "informative": c.n_informative(),
                     "skipped": c.n_skipped(),
                     "max_abs_minus_two_ln_l_error": 2.0 * c.achieved_error(),
@@ -743,6 +745,13 @@ impl OutputContext<'_> {
                     "per_object_scatter_msun": t.scatter_msun(),
                     "shift_at_best_fit_msun": opt_json(b_best.map(|b| t.delta_hat(b))),
                     "max_abs_minus_two_ln_l_error": opt_json(Some(t.achieved_error())),
+                    "tabulation": {
+                        "data_nodes": t.data_nodes(),
+                        "eliminated_table_nodes": t.table_nodes(),
+                        "check_points": t.n_check(),
+                        "data_term_max_abs_minus_two_ln_l_error_over_whole_range":
+                            opt_json(Some(t.data_error_over_range())),
+                    },
                     "mass_function": mf,
                 })
             })

@@ -13,7 +13,7 @@ use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow,
     ModelDescription, ReductionError, ReportInput, Shift, SideBySide, TensionRow, TensionTable,
-    UpsilonInterval, Warning, WorstObject,
+    TermTabulation, UpsilonInterval, Warning, WorstObject,
 };
 use crate::theory::point::Warning as TheoryWarning;
 
@@ -514,17 +514,25 @@ pub(crate) fn write_report_files(
             "No ϒ interval at τ = 0: the grid has no τ = 0 row with a model on at least two ϒ values.".into(),
         ));
     }
-    let reduction_error = ctx
-        .conf
-        .curves
-        .iter()
-        .map(|(_, c)| 2.0 * c.achieved_error())
-        .fold(None, |a: Option<f64>, e| Some(a.map_or(e, |a| a.max(e))))
-        .map(|e| ReductionError {
-            max_abs_delta_chi2: e,
-            nodes: ctx.eopts.reduce.n_nodes,
-            check_points: 256,
-        });
+    let reduction_error = Some(ReductionError {
+        terms: ctx
+            .conf
+            .bounds
+            .iter()
+            .map(|(bound, t)| TermTabulation {
+                bound: match bound {
+                    crate::confront::engine::Bound::Mmhb => "MMHB".into(),
+                    crate::confront::engine::Bound::Chandrasekhar => "Chandrasekhar mass".into(),
+                },
+                likelihood: t.model().name().into(),
+                data_nodes: t.data_nodes(),
+                table_nodes: t.table_nodes(),
+                check_points: t.n_check(),
+                max_abs_delta_chi2: t.achieved_error(),
+            })
+            .collect(),
+    })
+    .filter(|r| !r.terms.is_empty());
     let input = ReportInput {
         title: "dwarfbound: allowed (ϒ, τ) from very-low-mass stars, brown dwarfs and white dwarfs"
             .into(),

@@ -694,18 +694,36 @@ pub(crate) fn build(
         ],
     ];
     grid_items.push(match &input.reduction_error {
-        Some(r) => vec![
-            b("Reduction error: "),
-            t(format!(
-                "each class's likelihood was tabulated on {} nodes in its bound's value and \
-                 interpolated; the largest difference from the direct sum found at {} check \
-                 points is {} in Δχ².",
-                r.nodes,
-                r.check_points,
-                fmt_sig(r.max_abs_delta_chi2, 2)
-            )),
-        ],
-        None => vec![
+        Some(r) if !r.terms.is_empty() => {
+            let parts: Vec<String> = r
+                .terms
+                .iter()
+                .map(|x| {
+                    format!(
+                        "{} ({}): {} nodes in the bound{}, {} check points, {} in Δχ²",
+                        x.bound,
+                        x.likelihood,
+                        x.data_nodes,
+                        match x.table_nodes {
+                            Some(n) => format!(", the shared shift eliminated on {n} nodes"),
+                            None => String::new(),
+                        },
+                        x.check_points,
+                        fmt_sig(x.max_abs_delta_chi2, 2)
+                    )
+                })
+                .collect();
+            vec![
+                b("Reduction error: "),
+                t(format!(
+                    "each bound's term of the likelihood was tabulated in the bound's value and \
+                     interpolated; the largest difference from its direct evaluation found at \
+                     the check points — {}.",
+                    parts.join("; ")
+                )),
+            ]
+        }
+        _ => vec![
             b("Reduction error: "),
             t("not applicable (the likelihood was summed directly)."),
         ],

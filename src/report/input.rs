@@ -346,16 +346,30 @@ pub struct ClassContribution {
     pub summary: String,
 }
 
-/// The measured error of the one-dimensional reduction (each class's log-likelihood tabulated in
-/// its bound and interpolated over the grid).
+/// The measured error of the one-dimensional reduction: each bound's term of the likelihood
+/// tabulated in its bound and interpolated over the grid, one entry per term as the fit uses it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ReductionError {
-    /// Largest |Δχ²_reduced − Δχ²_direct| found.
-    pub max_abs_delta_chi2: f64,
-    /// Tabulation nodes per class.
-    pub nodes: usize,
-    /// Number of random B values the spline was checked at.
+    /// One per bound's term, in the likelihood's order.
+    pub terms: Vec<TermTabulation>,
+}
+
+/// How one bound's term was tabulated and how far the table was found from the direct
+/// evaluation.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TermTabulation {
+    /// The bound, as the report names it ("MMHB", "Chandrasekhar mass").
+    pub bound: String,
+    /// The likelihood model ("calibrated", "product").
+    pub likelihood: String,
+    /// Nodes of the data term in the bound.
+    pub data_nodes: usize,
+    /// Nodes of the table of the term with the shared shift eliminated, if there is one.
+    pub table_nodes: Option<usize>,
+    /// Bound values the table was checked at.
     pub check_points: usize,
+    /// Largest |Δχ²_tabulated − Δχ²_direct| found.
+    pub max_abs_delta_chi2: f64,
 }
 
 /// Warnings the confrontation raised; each has a fixed explanation in the report.
@@ -597,7 +611,9 @@ impl ReportInput {
             finite("class −2 ln L", c.minus_two_ln_l_at_best_fit)?;
         }
         if let Some(r) = &self.reduction_error {
-            finite("reduction error", r.max_abs_delta_chi2)?;
+            for t in &r.terms {
+                finite("reduction error", t.max_abs_delta_chi2)?;
+            }
         }
         for w in &self.warnings {
             if let Warning::PostNewtonianWhiteDwarf {

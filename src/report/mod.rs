@@ -46,7 +46,7 @@ pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow, Level,
     ModelDescription, ReductionError, ReportInput, Shift, SideBySide, StandardGravityStatus,
-    TensionRow, TensionTable, UpsilonInterval, Warning, WorstObject,
+    TensionRow, TensionTable, TermTabulation, UpsilonInterval, Warning, WorstObject,
 };
 
 use crate::output::{write_atomic, OutputError};
