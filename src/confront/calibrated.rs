@@ -742,9 +742,12 @@ impl CalibratedCurve {
             .step_by((n_nodes / 12).max(1))
             .map(|g| 0.5 * (xs[g] + xs[g + 1]))
             .collect();
-        let check_kernels: Vec<Option<Vec<f64>>> = check_bs
+        // What each cell contributes to P at each check point, computed once per point (the
+        // same terms, to the bit, as evaluating each object's cells there: one normal CDF per
+        // cell and object was half of the build at 10⁵ objects).
+        let check_cells: Vec<CellProbabilities> = check_bs
             .par_iter()
-            .map(|&b| curve.edge_kernel_at(b))
+            .map(|&b| curve.cell_probabilities(b))
             .collect();
         // Per class: the node sums (per node) and the direct sums (per check point).
         let mut node_totals: Vec<Vec<f64>> = Vec::new();
@@ -804,13 +807,10 @@ impl CalibratedCurve {
                 check_acc
                     .par_iter_mut()
                     .zip(&check_bs)
-                    .zip(&check_kernels)
-                    .for_each(|((acc, &b), kernel)| {
+                    .zip(&check_cells)
+                    .for_each(|((acc, &b), cells)| {
                         for (o, t) in done.iter().flatten() {
-                            acc.add(match kernel {
-                                Some(k) => curve.ln_p_with_kernel(o, t, k, b),
-                                None => curve.ln_p_direct_with(o, t, b),
-                            });
+                            acc.add(curve.ln_p_from_cells(o, t.first_cell, &t.posterior, cells, b));
                         }
                     });
                 cal.extend(done.into_iter().flatten().map(|(o, _)| o));
