@@ -30,8 +30,8 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 
 use super::prob::{
-    effective_floor_msun, ln_prob_consistent, validate_floor, MassKind, Measurement, Side,
-    StatsError,
+    effective_floor_msun, ln_prob_consistent, validate_floor, MassKind, Measurement, PreparedLnP,
+    Side, StatsError,
 };
 
 /// Settings of the reduction; the defaults are those of `docs/bounds.md` §8.5.
@@ -201,13 +201,18 @@ impl ClassCurve {
             let reuse = previous
                 .take()
                 .filter(|(was, old, _)| *was == is_smooth && 2 * old.len() - 1 == n);
+            let prepared: Vec<PreparedLnP> = curve
+                .smooth
+                .iter()
+                .map(|m| PreparedLnP::new(m, floor_msun))
+                .collect();
             let nodes: Vec<f64> = (0..n).map(|k| node(b_lo, b_hi, n, k)).collect();
             let values: Vec<f64> = nodes
                 .par_iter()
                 .enumerate()
                 .map(|(k, &b)| match &reuse {
                     Some((_, old, _)) if k % 2 == 0 => old[k / 2],
-                    _ => sum_ln_p(&curve.smooth, b, floor_msun),
+                    _ => sum_prepared(&prepared, b),
                 })
                 .collect();
             curve.spline = CubicSpline::new(&nodes, &values, SplineEnd::NotAKnot)?;
@@ -216,7 +221,7 @@ impl ClassCurve {
                 Some((_, _, exact)) => exact,
                 None => check_points
                     .par_iter()
-                    .map(|&b| sum_ln_p(&curve.smooth, b, floor_msun))
+                    .map(|&b| sum_prepared(&prepared, b))
                     .collect(),
             };
             curve.achieved_error = max_error(&check_points, &exact, |b| curve.spline.eval(b));
@@ -579,6 +584,15 @@ fn node(a: f64, b: f64, n: usize, k: usize) -> f64 {
     } else {
         a + (b - a) * (k as f64 / (n - 1) as f64)
     }
+}
+
+/// [`sum_ln_p`] of prepared objects (the same terms in the same order, so the same bits).
+fn sum_prepared(objects: &[PreparedLnP], b: f64) -> f64 {
+    let mut acc = NeumaierSum::default();
+    for p in objects {
+        acc.add(p.ln_p(b));
+    }
+    acc.total()
 }
 
 fn sum_ln_p(objects: &[Measurement], b: f64, floor_msun: f64) -> f64 {
