@@ -27,6 +27,8 @@
 
 use std::collections::BTreeSet;
 
+use rayon::prelude::*;
+
 use super::engine::{self, BoundSurface, Confrontation, EngineOptions, ObjectUse, Term};
 use super::prob::Measurement;
 use super::regions::{
@@ -142,8 +144,22 @@ pub fn object_verdicts(
         .get(best_index % surface.upsilon().len().max(1))
         .copied()
         .unwrap_or(0.0);
+    // Each object's radius test and spin, found by position (a search of the lists per object
+    // was quadratic in a catalogue of white dwarfs with radii).
+    let mut radius_of: Vec<Option<&ObjectRadius>> = vec![None; objects.len()];
+    for r in radius_objects {
+        if let Some(slot) = radius_of.get_mut(r.index) {
+            slot.get_or_insert(r);
+        }
+    }
+    let mut spin_of: Vec<Option<&ObjectSpin>> = vec![None; objects.len()];
+    for sp in spins.iter().filter(|s| s.radius_factor != 1.0) {
+        if let Some(slot) = spin_of.get_mut(sp.index) {
+            slot.get_or_insert(sp);
+        }
+    }
     objects
-        .iter()
+        .par_iter()
         .zip(uses)
         .enumerate()
         .map(|(k, (o, u))| {
@@ -161,20 +177,14 @@ pub fn object_verdicts(
                 b.and_then(|b| engine::tension_of(&as_used, b, eopts))
                     .filter(|z| z.is_finite())
             };
-            let radius = radius_objects
-                .iter()
-                .find(|r| r.index == k)
-                .filter(|_| u.radius_term);
+            let radius = radius_of[k].filter(|_| u.radius_term);
             let radius_sigma_standard = radius.and_then(ObjectRadius::standard_tension);
             let radius_sigma_best = radius.and_then(|r| {
                 let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
                 // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
-                let spun = spins
-                    .iter()
-                    .find(|s| s.index == k && s.radius_factor != 1.0)
-                    .map_or(1.0, |s| {
-                        s.radius_factor_at(surface, best_index) / s.radius_factor
-                    });
+                let spun = spin_of[k].map_or(1.0, |s| {
+                    s.radius_factor_at(surface, best_index) / s.radius_factor
+                });
                 r.tension_at(
                     cold.first().copied().flatten().map(|c| c * spun),
                     best_upsilon,
@@ -351,7 +361,6 @@ pub fn mass_tensions(
     eopts: &EngineOptions,
     threshold_sigma: f64,
 ) -> Vec<(usize, f64)> {
-    use rayon::prelude::*;
     // One use at a time (the uses of a million objects were 144 MB held only for this), in
     // parallel; the order is fixed by the sort below. Above a threshold of 1σ the safe side
     // (P > ½, z ≤ 0) cannot pass, so its exact z is not computed.
