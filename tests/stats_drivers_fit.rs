@@ -277,7 +277,7 @@ fn radius_drivers_refit_the_shared_scale_like_a_rerun_without_the_object() {
     // The first-order estimate: the same slice without the kept cold radii, so the scale is
     // held at its fitted value.
     let mut held = slice.clone();
-    held.radius_nodes_fine.clear();
+    held.radius_nodes_fine = Default::default();
     let approx = radius_drivers(&conf, &held, &d).unwrap();
     let base = slice.slice.intervals[1];
     let shift = |a: Option<f64>, b: Option<f64>| match (a, b) {

@@ -74,7 +74,7 @@ pub struct SliceResult {
     /// (object after object, as [`radius_term`] takes them): what the radius term is built
     /// from, kept so that it can be rebuilt without one object or with another floor
     /// treatment ([`radius_total_fine`]). Empty in the slice of [`tau0_slice_other_floor`].
-    pub radius_nodes_fine: Vec<Vec<Option<f64>>>,
+    pub radius_nodes_fine: FineRadii,
     /// The spin term's −2 ln L along the fine axis (zero without spin tests).
     pub spin_fine: Vec<f64>,
     /// Per object with a spin test: (object index, its −2 ln P along the fine axis), so that the
@@ -192,8 +192,66 @@ struct Row<'a> {
 /// (object index, its −2 ln L along the fine axis) per white dwarf with a radius term.
 type PerObjectFine = Vec<(usize, Vec<f64>)>;
 
-/// Per fine point, the cold radius at every radius object's mass nodes.
-type NodesFine = Vec<Vec<Option<f64>>>;
+/// The cold radii of a list of queries (mass, μe) along the fine τ = 0 axis, kept as each
+/// query's interpolant along the coarse row and evaluated at a fine point on demand
+/// ([`FineRadii::at`]). Holding every fine point's radii instead (fine points × queries, with
+/// the refined axis ten times the row) cost ~1 MB per white dwarf with a radius on a 201-point
+/// row: gigabytes for a catalogue of ten thousand.
+#[derive(Debug, Clone, Default)]
+pub struct FineRadii {
+    axis: Vec<f64>,
+    fine: Vec<f64>,
+    per_query: Vec<QueryAlongRow>,
+}
+
+/// One query's cold radii at the coarse points of the row, and their not-a-knot spline when
+/// every point has one.
+#[derive(Debug, Clone)]
+struct QueryAlongRow {
+    ys: Vec<Option<f64>>,
+    spline: Option<CubicSpline>,
+}
+
+impl FineRadii {
+    /// Number of fine points (0 when nothing was kept).
+    pub fn len(&self) -> usize {
+        self.fine.len()
+    }
+
+    /// Whether nothing was kept.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Every query's cold radius at fine point `k`, in the order of the queries.
+    pub fn at(&self, k: usize) -> Vec<Option<f64>> {
+        let x = self.fine[k];
+        self.per_query.iter().map(|q| self.value(q, x)).collect()
+    }
+
+    /// One query's cold radius at every fine point.
+    fn along(&self, q: usize) -> Vec<Option<f64>> {
+        let q = &self.per_query[q];
+        self.fine.iter().map(|&x| self.value(q, x)).collect()
+    }
+
+    /// The spline's value inside the row, or linear between two points that have a radius,
+    /// `None` where either lacks one.
+    fn value(&self, q: &QueryAlongRow, x: f64) -> Option<f64> {
+        let axis = &self.axis;
+        match &q.spline {
+            Some(sp) => Some(sp.eval(x)),
+            None => {
+                let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
+                let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
+                match (q.ys[j - 1], q.ys[j]) {
+                    (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
+                    _ => None,
+                }
+            }
+        }
+    }
+}
 
 /// Changes a coarse point's radii before they are interpolated: (grid index, radii).
 type AdjustRadii<'a> = dyn Fn(usize, &mut [Option<f64>]) + Sync + 'a;
@@ -216,7 +274,7 @@ fn radius_terms_on_fine_axis(
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     fine: &[f64],
-) -> Result<(PerObjectFine, Vec<f64>, NodesFine), StatsError> {
+) -> Result<(PerObjectFine, Vec<f64>, FineRadii), StatsError> {
     // One batched lookup per coarse point for every object's nodes (a point's table is
     // resampled once, not once per object), then per node (object after object, in the order
     // of `all_queries`) its cold radius along the fine axis.
@@ -232,7 +290,7 @@ fn radius_terms_on_fine_axis(
     // grid), and the corrected radii are interpolated along the row.
     let spun = super::spin::RadiusCorrections::new(&conf.spins, &conf.radius_objects);
     let adjust = |i: usize, radii: &mut [Option<f64>]| spun.apply(&conf.spins, surface, i, radii);
-    let per_node = cold_radii_on_fine_axis(
+    let nodes_fine = fine_radii(
         surface,
         row,
         conf.n_upsilon,
@@ -240,21 +298,16 @@ fn radius_terms_on_fine_axis(
         &all_queries,
         (!spun.is_empty()).then_some(&adjust),
     )?;
-    // Per fine point, every node's cold radius (the layout `radius_term` takes).
-    let nodes_fine: NodesFine = (0..fine.len())
-        .into_par_iter()
-        .map(|k| per_node.iter().map(|v| v[k]).collect())
-        .collect();
-    drop(per_node);
     // At each fine point the radius term of all objects together (the shared scale, if any, is
-    // eliminated there); fine points in parallel, collected in order.
+    // eliminated there) from every node's cold radius there (the layout `radius_term` takes);
+    // fine points in parallel, collected in order.
     let terms: Vec<RadiusTerm> = fine
         .par_iter()
-        .zip(&nodes_fine)
-        .map(|(&upsilon, cold)| {
+        .enumerate()
+        .map(|(k, &upsilon)| {
             radius_term(
                 &conf.radius_objects,
-                cold,
+                &nodes_fine.at(k),
                 upsilon,
                 conf.radius_shared.as_ref(),
             )
@@ -290,8 +343,8 @@ pub fn radius_total_fine(
             .slice
             .upsilon_fine
             .par_iter()
-            .zip(&s.radius_nodes_fine)
-            .map(|(&upsilon, all)| radius_total(objects, all, upsilon, shared))
+            .enumerate()
+            .map(|(k, &upsilon)| radius_total(objects, &s.radius_nodes_fine.at(k), upsilon, shared))
             .collect(),
     }
 }
@@ -311,26 +364,35 @@ pub fn radius_totals_fine_leaving_out(
         .slice
         .upsilon_fine
         .par_iter()
-        .zip(&s.radius_nodes_fine)
-        .map(|(&upsilon, all)| radius_totals_leaving_out(objects, all, upsilon, shared, leave_out))
+        .enumerate()
+        .map(|(k, &upsilon)| {
+            radius_totals_leaving_out(
+                objects,
+                &s.radius_nodes_fine.at(k),
+                upsilon,
+                shared,
+                leave_out,
+            )
+        })
         .collect();
     (0..leave_out.len())
         .map(|c| per_point.iter().map(|p| p[c]).collect())
         .collect()
 }
 
-/// Cold radii of `queries` along the fine τ = 0 axis, one vector per query: looked up once per
-/// coarse point (batched), then interpolated per query along the row (not-a-knot cubic; linear
-/// where a neighbouring point has no radius, `None` where neither has one). `adjust`, if given,
-/// changes each coarse point's radii (grid index, radii) before they are interpolated.
-fn cold_radii_on_fine_axis(
+/// Cold radii of `queries` along the fine τ = 0 axis: looked up once per coarse point
+/// (batched), then interpolated per query along the row (not-a-knot cubic; linear where a
+/// neighbouring point has no radius, `None` where neither has one), evaluated on demand.
+/// `adjust`, if given, changes each coarse point's radii (grid index, radii) before they are
+/// interpolated.
+fn fine_radii(
     surface: &dyn BoundSurface,
     row: &Row<'_>,
     nu: usize,
     fine: &[f64],
     queries: &[(f64, f64)],
     adjust: Option<&AdjustRadii<'_>>,
-) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
+) -> Result<FineRadii, StatsError> {
     let axis = row.axis;
     let prepared = RadiusQueries::new(queries);
     let coarse_all: Vec<Vec<Option<f64>>> = (0..axis.len())
@@ -344,7 +406,7 @@ fn cold_radii_on_fine_axis(
             radii
         })
         .collect();
-    (0..queries.len())
+    let per_query = (0..queries.len())
         .into_par_iter()
         .map(|q| {
             let ys: Vec<Option<f64>> = coarse_all.iter().map(|c| c[q]).collect();
@@ -354,22 +416,30 @@ fn cold_radii_on_fine_axis(
             } else {
                 None
             };
-            Ok(fine
-                .iter()
-                .map(|&x| match &spline {
-                    Some(sp) => Some(sp.eval(x)),
-                    None => {
-                        let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
-                        let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
-                        match (ys[j - 1], ys[j]) {
-                            (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
-                            _ => None,
-                        }
-                    }
-                })
-                .collect())
+            Ok(QueryAlongRow { ys, spline })
         })
-        .collect()
+        .collect::<Result<_, StatsError>>()?;
+    Ok(FineRadii {
+        axis: axis.to_vec(),
+        fine: fine.to_vec(),
+        per_query,
+    })
+}
+
+/// [`fine_radii`] as one vector along the fine axis per query (for the few spin tests).
+fn cold_radii_on_fine_axis(
+    surface: &dyn BoundSurface,
+    row: &Row<'_>,
+    nu: usize,
+    fine: &[f64],
+    queries: &[(f64, f64)],
+    adjust: Option<&AdjustRadii<'_>>,
+) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
+    let radii = fine_radii(surface, row, nu, fine, queries, adjust)?;
+    Ok((0..queries.len())
+        .into_par_iter()
+        .map(|q| radii.along(q))
+        .collect())
 }
 
 /// −2 ln P of each spin test along the fine τ = 0 axis: (object index, values).
@@ -564,7 +634,7 @@ pub fn tau0_slice_other_floor(
             bounds_fine: main.bounds_fine.clone(),
             radius_fine: main.radius_fine.clone(),
             radius_total_fine: radius_total,
-            radius_nodes_fine: Vec::new(),
+            radius_nodes_fine: FineRadii::default(),
             spin_fine: main.spin_fine.clone(),
             spin_fine_per_object: main.spin_fine_per_object.clone(),
         },
