@@ -58,6 +58,36 @@ fn batched_direct_sums_equal_the_direct_sum_to_the_bit() {
     }
 }
 
+#[test]
+fn an_object_asked_once_equals_its_whole_table_to_the_bit() {
+    // `objects.csv` and the drivers' weights ask for one object's P at one or two bounds and
+    // form only the nodes read (common practice, no source: a shortcut must give what the full
+    // table gives), inside the tabulated range, outside it, and for a one-sided edge.
+    let (hb, bd) = mmhb_classes();
+    let wd = wd_class();
+    let opts = CalibratedOptions::default();
+    let two = CalibratedCurve::build(&[&hb, &bd], 0.002, (0.06, 0.095), &opts).unwrap();
+    let edge = CalibratedCurve::build(&[&wd], 0.012, (1.1, 1.6), &opts).unwrap();
+    let mut checked = 0;
+    for (c, n_classes, (a, z)) in [(&two, 2, (0.05, 0.11)), (&edge, 1, (1.0, 1.7))] {
+        for class in 0..n_classes {
+            for &i in c.informative_indices(class) {
+                let (full, light) = (c.object(class, i), c.object_light(class, i));
+                for k in 0..=60 {
+                    let b = a + (z - a) * f64::from(k) / 60.0;
+                    assert_eq!(
+                        full.ln_p(b).to_bits(),
+                        light.ln_p(b).to_bits(),
+                        "class {class} object {i} at B = {b}"
+                    );
+                    checked += 1;
+                }
+            }
+        }
+    }
+    assert!(checked > 10_000, "{checked}");
+}
+
 fn term_check(classes: &[(Term, &[Measurement])], floor: f64, range: (f64, f64)) -> (f64, f64) {
     let opts = MassTermOptions {
         likelihood: LikelihoodChoice::Calibrated,

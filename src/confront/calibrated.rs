@@ -528,6 +528,9 @@ pub struct ObjectCurve<'a> {
 enum ObjectWhat<'a> {
     /// On the calibrated path, with its table (`None` if its posterior vanished on the grid).
     Calibrated(&'a CalObject, Option<ObjectTable>),
+    /// As `Calibrated`, with P at the nodes formed only where asked: the posterior (in a table
+    /// without `p_nodes`) and how each node's value is formed.
+    Light(&'a CalObject, Option<(ObjectTable, ObjectNodes)>),
     /// On the flat-prior product formula.
     Flat(&'a Measurement),
     /// Not informative over the range: ln P = 0.
@@ -541,6 +544,10 @@ impl ObjectCurve<'_> {
         let c = self.curve;
         match &self.what {
             ObjectWhat::Calibrated(o, tab) => c.ln_p_object(o, tab.as_ref(), b_msun),
+            ObjectWhat::Light(o, None) => {
+                ln_prob_consistent(&o.measurement, b_msun, c.scatter_msun)
+            }
+            ObjectWhat::Light(o, Some((tab, nodes))) => c.ln_p_light(o, tab, nodes, b_msun),
             ObjectWhat::Flat(m) => ln_prob_consistent(m, b_msun, c.scatter_msun),
             ObjectWhat::Uninformative => 0.0,
         }
@@ -1169,10 +1176,81 @@ impl CalibratedCurve {
     }
 
     /// ln P of object `index` (position in its class's list) of class `class` at bound `b`;
-    /// 0 for an object that is not informative over the range. Rebuilds the object's table:
+    /// 0 for an object that is not informative over the range. Rebuilds the object's posterior:
     /// a caller asking about one object at many bounds holds [`CalibratedCurve::object`].
     pub fn ln_p(&self, class: usize, index: usize, b_msun: f64) -> f64 {
-        self.object(class, index).ln_p(b_msun)
+        self.object_light(class, index).ln_p(b_msun)
+    }
+
+    /// As [`CalibratedCurve::object`] for a caller with one or two queries: the object's
+    /// posterior is built, but P only at the nodes a query reads (the same values to the bit);
+    /// the whole table at the nodes was most of the cost of `objects.csv`'s σ in the fit and
+    /// of the drivers' candidate weights at 10⁶ objects. At a one-sided edge it is the table.
+    pub fn object_light(&self, class: usize, index: usize) -> ObjectCurve<'_> {
+        if self.edge.is_some() {
+            return self.object(class, index);
+        }
+        let found = self.objects.get(class).and_then(|cal| {
+            cal.binary_search_by_key(&index, |o| o.index)
+                .ok()
+                .map(|k| &cal[k])
+        });
+        match found {
+            Some(o) => {
+                let m = &o.measurement;
+                let prepared = self.object_posterior(m).map(|(first, post)| {
+                    let nodes = ObjectNodes::new(
+                        m.side,
+                        first,
+                        &post,
+                        self.node_first_cell,
+                        self.n_nodes,
+                        self.d_half,
+                    );
+                    let tab = ObjectTable {
+                        first_cell: first,
+                        posterior: post,
+                        first_node: nodes.g0,
+                        p_nodes: Vec::new(),
+                    };
+                    (tab, nodes)
+                });
+                ObjectCurve {
+                    curve: self,
+                    what: ObjectWhat::Light(o, prepared),
+                }
+            }
+            None => self.object(class, index),
+        }
+    }
+
+    /// [`CalibratedCurve::ln_p_object`] of a light object: inside the nodes the interpolation
+    /// of [`CalibratedCurve::ln_p_cal`] between the two values it reads, each formed as the
+    /// table forms it; outside, the same direct evaluation from the posterior.
+    fn ln_p_light(&self, o: &CalObject, tab: &ObjectTable, nodes: &ObjectNodes, b: f64) -> f64 {
+        let t = (b - self.node_b(0)) / self.phi.cell_msun;
+        if t >= 0.0 && t <= (self.n_nodes - 1) as f64 {
+            let post = &tab.posterior;
+            let table = &self.step_table;
+            let rel = t - nodes.g0 as f64;
+            let n = nodes.len();
+            let last = n as f64 - 1.0;
+            let p = if rel <= 0.0 {
+                nodes.p(0, post, table)
+            } else if rel >= last {
+                nodes.p(n - 1, post, table)
+            } else {
+                let j = rel.floor() as usize;
+                let f = rel - j as f64;
+                nodes.p(j, post, table) * (1.0 - f) + nodes.p(j + 1, post, table) * f
+            };
+            regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+        } else {
+            match self.edge_kernel_at(b) {
+                Some(k) => self.ln_p_with_kernel(o, tab, &k, b),
+                None => self.ln_p_direct_with(o, tab, b),
+            }
+        }
     }
 
     /// Object `index` of class `class` as a function of the bound, its table built once here:
@@ -1275,8 +1353,98 @@ fn tabulate_object_edge(
     (0, p_nodes)
 }
 
-/// P_i at every node of the curve from the object's posterior over cells: P(g) =
-/// Σ_k w_k T[k − g] (at least) or Σ_k w_k T[g − k] (at most), T the Gaussian step table.
+/// Where an object's P is tabulated on the nodes and how each value is formed: P at node g
+/// is Σ_k post[k] T[k − cell(g)] for "at least" (T[d] = 1 beyond the table's +D, 0 below −D,
+/// so the cells above the window enter through a suffix sum), 1 − that for "at most". Kept
+/// apart from the loop so that one node can be evaluated alone
+/// ([`CalibratedCurve::object_light`]) with the same operations as the whole table.
+#[derive(Debug)]
+struct ObjectNodes {
+    side: Side,
+    /// suffix[j] = Σ_{k ≥ j} post[k].
+    suffix: Vec<f64>,
+    /// First and last node with a value (last < first: the posterior misses every node).
+    g0: isize,
+    g1: isize,
+    /// The node range's position relative to the posterior's first cell.
+    offset: isize,
+    dh: isize,
+    /// The constant P when the posterior lies entirely outside the nodes.
+    outside: f64,
+}
+
+impl ObjectNodes {
+    fn new(
+        side: Side,
+        first_cell: usize,
+        post: &[f64],
+        node_first_cell: usize,
+        n_nodes: usize,
+        d_half: usize,
+    ) -> Self {
+        let len = post.len();
+        let mut suffix = vec![0.0; len + 1];
+        for j in (0..len).rev() {
+            suffix[j] = suffix[j + 1] + post[j];
+        }
+        let dh = d_half as isize;
+        let node_lo = first_cell as isize - dh - 1 - node_first_cell as isize;
+        let node_hi = (first_cell + len) as isize + dh + 1 - node_first_cell as isize;
+        let g0 = node_lo.max(0);
+        let g1 = node_hi.min(n_nodes as isize - 1);
+        // Cells all below the nodes: the mass is below every B (P(m ≥ B) = 0); all above: 1.
+        let p_at_least = if node_hi < 0 { 0.0 } else { 1.0 };
+        let outside = match side {
+            Side::AtLeast => p_at_least,
+            Side::AtMost => 1.0 - p_at_least,
+        };
+        ObjectNodes {
+            side,
+            suffix,
+            g0,
+            g1,
+            offset: node_first_cell as isize - first_cell as isize,
+            dh,
+            outside,
+        }
+    }
+
+    /// Number of tabulated values (1 when the posterior misses every node).
+    fn len(&self) -> usize {
+        if self.g1 < self.g0 {
+            1
+        } else {
+            (self.g1 - self.g0 + 1) as usize
+        }
+    }
+
+    /// The `j`-th tabulated value (node g0 + j).
+    fn p(&self, j: usize, post: &[f64], table: &[f64]) -> f64 {
+        if self.g1 < self.g0 {
+            return self.outside;
+        }
+        let len = post.len();
+        let dh = self.dh;
+        let cell = self.g0 + j as isize + self.offset; // node's cell in post
+        let mut p = 0.0;
+        let above = cell + dh + 1;
+        if above <= 0 {
+            p += self.suffix[0];
+        } else if (above as usize) < len {
+            p += self.suffix[above as usize];
+        }
+        for j in (cell - dh).max(0)..=(cell + dh).min(len as isize - 1) {
+            p += post[j as usize] * table[(j - cell + dh) as usize];
+        }
+        let p = match self.side {
+            Side::AtLeast => p,
+            Side::AtMost => (1.0 - p).max(0.0),
+        };
+        p.clamp(0.0, 1.0)
+    }
+}
+
+/// P̃_i at every node of the curve where it is not constant (see [`ObjectNodes`]).
 fn tabulate_object(
     side: Side,
     first_cell: usize,
@@ -1286,46 +1454,7 @@ fn tabulate_object(
     d_half: usize,
     table: &[f64],
 ) -> (isize, Vec<f64>) {
-    let len = post.len();
-    // suffix[j] = Σ_{k ≥ j} post[k]
-    let mut suffix = vec![0.0; len + 1];
-    for j in (0..len).rev() {
-        suffix[j] = suffix[j + 1] + post[j];
-    }
-    let dh = d_half as isize;
-    let node_lo = first_cell as isize - dh - 1 - node_first_cell as isize;
-    let node_hi = (first_cell + len) as isize + dh + 1 - node_first_cell as isize;
-    let g0 = node_lo.max(0);
-    let g1 = node_hi.min(n_nodes as isize - 1);
-    let mut p_nodes = Vec::new();
-    for g in g0..=g1.max(g0) {
-        let cell = g + node_first_cell as isize - first_cell as isize; // node's cell in post
-                                                                       // Σ over k of post[k] T[k − cell] for at-least; T[d] = 1 for d > D, 0 for d < −D.
-        let mut p = 0.0;
-        let above = cell + dh + 1;
-        if above <= 0 {
-            p += suffix[0];
-        } else if (above as usize) < len {
-            p += suffix[above as usize];
-        }
-        for j in (cell - dh).max(0)..=(cell + dh).min(len as isize - 1) {
-            p += post[j as usize] * table[(j - cell + dh) as usize];
-        }
-        let p = match side {
-            Side::AtLeast => p,
-            Side::AtMost => (1.0 - p).max(0.0),
-        };
-        p_nodes.push(p.clamp(0.0, 1.0));
-    }
-    if g1 < g0 {
-        p_nodes.clear();
-        // Entirely outside the node range: constant on the nodes.
-        // Cells all below the nodes: the mass is below every B (P(m ≥ B) = 0); all above: 1.
-        let p_at_least = if node_hi < 0 { 0.0 } else { 1.0 };
-        p_nodes.push(match side {
-            Side::AtLeast => p_at_least,
-            Side::AtMost => 1.0 - p_at_least,
-        });
-    }
-    (g0, p_nodes)
+    let nodes = ObjectNodes::new(side, first_cell, post, node_first_cell, n_nodes, d_half);
+    let p_nodes = (0..nodes.len()).map(|j| nodes.p(j, post, table)).collect();
+    (nodes.g0, p_nodes)
 }

@@ -429,7 +429,7 @@ pub fn slice_drivers_in_fit(
                 if !m.informative() {
                     return None;
                 }
-                let ot = bt.object(*term, pos, m);
+                let ot = bt.object_light(*term, pos, m);
                 let weight = [k_lo, k_hi]
                     .iter()
                     .map(|&kk| -2.0 * ot.ln_p(b_fine[kk]))

@@ -543,7 +543,26 @@ impl BoundTerm {
         m: &Measurement,
         shifted_b_msun: f64,
     ) -> f64 {
-        self.object(term, index, m).ln_p_at_shifted(shifted_b_msun)
+        self.object_light(term, index, m)
+            .ln_p_at_shifted(shifted_b_msun)
+    }
+
+    /// As [`BoundTerm::object`] for a caller with one or two queries (a calibrated object's P
+    /// formed only at the nodes read; [`CalibratedCurve::object_light`]).
+    pub fn object_light<'a>(
+        &'a self,
+        term: Term,
+        index: usize,
+        m: &'a Measurement,
+    ) -> ObjectTerm<'a> {
+        let what = match self.terms.iter().position(|t| *t == term) {
+            None => ObjectTermWhat::Absent,
+            Some(c) => match &self.classes {
+                Classes::Product(_) => ObjectTermWhat::Product(m),
+                Classes::Calibrated(cc) => ObjectTermWhat::Calibrated(cc.object_light(c, index)),
+            },
+        };
+        ObjectTerm { bound: self, what }
     }
 
     /// Object `index` (position in its class's list) of class `term` as a function of the
