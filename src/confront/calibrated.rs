@@ -917,6 +917,21 @@ impl CalibratedCurve {
         Some((first, post))
     }
 
+    /// Probability that a true mass `d` above the bound is still above it with the per-object
+    /// scatter: Φ(d/s), or a linear step one cell wide without scatter.
+    fn step_probability(&self, d: f64) -> f64 {
+        let h = self.phi.cell_msun;
+        if self.scatter_msun > 0.0 {
+            normal_cdf(d / self.scatter_msun)
+        } else if d.abs() < 0.5 * h {
+            0.5 + d / h
+        } else if d > 0.0 {
+            1.0
+        } else {
+            0.0
+        }
+    }
+
     /// What a mass cell contributes to P at bound `b`, for every cell: the edge kernel G(k, b)
     /// at a one-sided edge, else the probability of each label for a true mass at the cell's
     /// centre (the terms of [`CalibratedCurve::ln_p_direct_with`], computed once per b).
@@ -924,18 +939,7 @@ impl CalibratedCurve {
         if let Some(k) = self.edge_kernel_at(b) {
             return CellProbabilities::Edge(k);
         }
-        let h = self.phi.cell_msun;
-        let step = |d: f64| {
-            if self.scatter_msun > 0.0 {
-                normal_cdf(d / self.scatter_msun)
-            } else if d.abs() < 0.5 * h {
-                0.5 + d / h
-            } else if d > 0.0 {
-                1.0
-            } else {
-                0.0
-            }
-        };
+        let step = |d: f64| self.step_probability(d);
         let (at_least, at_most) = (0..self.phi.weights.len())
             .map(|k| {
                 let c = self.phi.centre(k);
@@ -1072,7 +1076,6 @@ impl CalibratedCurve {
 
     /// ln P at an arbitrary b from the posterior in `tab`, without an edge kernel.
     fn ln_p_direct_with(&self, o: &CalObject, tab: &ObjectTable, b: f64) -> f64 {
-        let h = self.phi.cell_msun;
         let mut p = 0.0;
         for (j, w) in tab.posterior.iter().enumerate() {
             let c = self.phi.centre(tab.first_cell + j);
@@ -1080,15 +1083,7 @@ impl CalibratedCurve {
                 Side::AtLeast => c - b,
                 Side::AtMost => b - c,
             };
-            p += w * if self.scatter_msun > 0.0 {
-                normal_cdf(d / self.scatter_msun)
-            } else if d.abs() < 0.5 * h {
-                0.5 + d / h
-            } else if d > 0.0 {
-                1.0
-            } else {
-                0.0
-            };
+            p += w * self.step_probability(d);
         }
         regularise(
             p.min(1.0),
