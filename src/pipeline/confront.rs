@@ -418,7 +418,7 @@ fn write_outputs(
             housekeeping: n.housekeeping.clone(),
             ..super::history::difference(
                 n.previous.as_deref(),
-                &super::history::parse_objects(&objects_file.read_back()?),
+                &super::history::parse_objects(&objects_file.read_back()?[..]),
                 &summary,
                 ctx.settings.statistics.tension_sigma,
                 &n.alarms,
