@@ -88,14 +88,7 @@ const HERMITE_ORDER: usize = 24;
 /// values of `f` are treated as +∞.
 pub fn eliminate(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
     let sigma = n.sigma;
-    let g = |d: f64| {
-        let v = f(d);
-        if v.is_finite() {
-            v + (d / sigma).powi(2)
-        } else {
-            f64::INFINITY
-        }
-    };
+    let g = |d: f64| penalised(f, sigma, d);
     let steps = ((2.0 * n.reach_sigma * SCAN_PER_SIGMA).ceil() as usize).max(4);
     let h = 2.0 * n.reach_sigma * sigma / steps as f64;
     let x = |k: usize| -n.reach_sigma * sigma + h * k as f64;

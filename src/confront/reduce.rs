@@ -625,13 +625,10 @@ fn max_error(points: &[f64], exact: &[f64], approx: impl Fn(f64) -> f64 + Sync) 
 }
 
 fn measure_error(opts: &ReduceOptions, lo: f64, hi: f64, err: impl Fn(f64) -> f64 + Sync) -> f64 {
-    if opts.n_check == 0 {
+    let points = check_points(opts, lo, hi);
+    if points.is_empty() {
         return f64::NAN;
     }
-    let mut rng = SplitMix64::new(opts.check_seed);
-    let points: Vec<f64> = (0..opts.n_check)
-        .map(|_| lo + (hi - lo) * rng.next_f64())
-        .collect();
     points.par_iter().map(|&b| err(b)).reduce(|| 0.0, f64::max)
 }
 
