@@ -1042,18 +1042,22 @@ impl CalibratedCurve {
 
     /// ln P of a calibrated object at fractional node position `t` (bound value `b`).
     fn ln_p_cal(&self, o: &CalObject, tab: &ObjectTable, t: f64, b: f64) -> f64 {
-        let rel = t - tab.first_node as f64;
-        let last = tab.p_nodes.len() as f64 - 1.0;
-        let p = if rel <= 0.0 {
-            tab.p_nodes.first().copied().unwrap_or(0.0)
-        } else if rel >= last {
-            tab.p_nodes.last().copied().unwrap_or(0.0)
-        } else {
-            let j = rel.floor() as usize;
-            let f = rel - j as f64;
-            tab.p_nodes[j] * (1.0 - f) + tab.p_nodes[j + 1] * f
-        };
+        let p = between_nodes(t, tab.first_node, tab.p_nodes.len(), |j| tab.p_nodes[j]);
         regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+    }
+
+    /// Fractional node position of bound `b`, if it lies within the nodes.
+    fn node_position(&self, b: f64) -> Option<f64> {
+        let t = (b - self.node_b(0)) / self.phi.cell_msun;
+        (t >= 0.0 && t <= (self.n_nodes - 1) as f64).then_some(t)
+    }
+
+    /// ln P of a calibrated object at a bound outside the nodes, from its posterior directly.
+    fn ln_p_off_nodes(&self, o: &CalObject, tab: &ObjectTable, b: f64) -> f64 {
+        match self.edge_kernel_at(b) {
+            Some(k) => self.ln_p_with_kernel(o, tab, &k, b),
+            None => self.ln_p_direct_with(o, tab, b),
+        }
     }
 
     /// The edge kernel G(k, b) over every cell at an arbitrary bound b (direct evaluation).
@@ -1148,18 +1152,13 @@ impl CalibratedCurve {
     /// ln P of a calibrated object at bound `b` from its table (`None`: its posterior vanished
     /// on the grid, so it is on the flat-prior formula).
     fn ln_p_object(&self, o: &CalObject, tab: Option<&ObjectTable>, b: f64) -> f64 {
-        let t = (b - self.node_b(0)) / self.phi.cell_msun;
         // Not `None` for an object kept at build (its table is rebuilt identically).
         let Some(tab) = tab else {
             return ln_prob_consistent(&o.measurement, b, self.scatter_msun);
         };
-        if t >= 0.0 && t <= (self.n_nodes - 1) as f64 {
-            self.ln_p_cal(o, tab, t, b)
-        } else {
-            match self.edge_kernel_at(b) {
-                Some(k) => self.ln_p_with_kernel(o, tab, &k, b),
-                None => self.ln_p_direct_with(o, tab, b),
-            }
+        match self.node_position(b) {
+            Some(t) => self.ln_p_cal(o, tab, t, b),
+            None => self.ln_p_off_nodes(o, tab, b),
         }
     }
 
@@ -1223,28 +1222,14 @@ impl CalibratedCurve {
     /// of [`CalibratedCurve::ln_p_cal`] between the two values it reads, each formed as the
     /// table forms it; outside, the same direct evaluation from the posterior.
     fn ln_p_light(&self, o: &CalObject, tab: &ObjectTable, nodes: &ObjectNodes, b: f64) -> f64 {
-        let t = (b - self.node_b(0)) / self.phi.cell_msun;
-        if t >= 0.0 && t <= (self.n_nodes - 1) as f64 {
-            let post = &tab.posterior;
-            let table = &self.step_table;
-            let rel = t - nodes.g0 as f64;
-            let n = nodes.len();
-            let last = n as f64 - 1.0;
-            let p = if rel <= 0.0 {
-                nodes.p(0, post, table)
-            } else if rel >= last {
-                nodes.p(n - 1, post, table)
-            } else {
-                let j = rel.floor() as usize;
-                let f = rel - j as f64;
-                nodes.p(j, post, table) * (1.0 - f) + nodes.p(j + 1, post, table) * f
-            };
-            regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
-        } else {
-            match self.edge_kernel_at(b) {
-                Some(k) => self.ln_p_with_kernel(o, tab, &k, b),
-                None => self.ln_p_direct_with(o, tab, b),
+        match self.node_position(b) {
+            Some(t) => {
+                let p = between_nodes(t, nodes.g0, nodes.len(), |j| {
+                    nodes.p(j, &tab.posterior, &self.step_table)
+                });
+                regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
             }
+            None => self.ln_p_off_nodes(o, tab, b),
         }
     }
 
@@ -1297,6 +1282,26 @@ impl CalibratedCurve {
     /// Number of tabulation nodes.
     pub fn n_nodes(&self) -> usize {
         self.n_nodes
+    }
+}
+
+/// P at fractional node position `t` from the `n` values of a table starting at node
+/// `first_node` (value `j` from `p`): linear between nodes, constant beyond the table's ends,
+/// 0 for an empty table.
+fn between_nodes(t: f64, first_node: isize, n: usize, p: impl Fn(usize) -> f64) -> f64 {
+    if n == 0 {
+        return 0.0;
+    }
+    let rel = t - first_node as f64;
+    let last = n as f64 - 1.0;
+    if rel <= 0.0 {
+        p(0)
+    } else if rel >= last {
+        p(n - 1)
+    } else {
+        let j = rel.floor() as usize;
+        let f = rel - j as f64;
+        p(j) * (1.0 - f) + p(j + 1) * f
     }
 }
 
