@@ -25,7 +25,7 @@
 //! assert!(t.minus_two_ln_l(0.075) < 1.0);
 //! ```
 
-use super::calibrated::{CalibratedCurve, CalibratedOptions};
+use super::calibrated::{CalibratedCurve, CalibratedOptions, ObjectCurve};
 use super::engine::Term;
 use super::nuisance::{eliminate, NuisanceMethod, SharedNuisance};
 use super::prob::{ln_prob_consistent, MassKind, Measurement, StatsError};
@@ -178,7 +178,7 @@ enum ObjectTermWhat<'a> {
     /// The object's class is not a class of this bound: ln P = 0.
     Absent,
     Product(&'a Measurement),
-    Calibrated(super::calibrated::ObjectCurve<'a>),
+    Calibrated(ObjectCurve<'a>),
 }
 
 impl ObjectTerm<'_> {
@@ -387,6 +387,7 @@ impl BoundTerm {
                 term.table_error = per_check.iter().map(|p| p.0).fold(0.0, f64::max);
                 term.term_error = match &term.classes {
                     Classes::Calibrated(c) => {
+                        term.n_check = checks.len();
                         let bs: Vec<f64> = per_check.iter().flat_map(|p| p.1.clone()).collect();
                         let exact = c.exact_at(&bs);
                         let mut data_err = bs
@@ -407,9 +408,6 @@ impl BoundTerm {
                         term.product_error()
                     }
                 };
-                if matches!(term.classes, Classes::Calibrated(_)) {
-                    term.n_check = checks.len();
-                }
                 term.table = Some((sf, sd));
             }
         } else {
@@ -555,25 +553,30 @@ impl BoundTerm {
         index: usize,
         m: &'a Measurement,
     ) -> ObjectTerm<'a> {
-        let what = match self.terms.iter().position(|t| *t == term) {
-            None => ObjectTermWhat::Absent,
-            Some(c) => match &self.classes {
-                Classes::Product(_) => ObjectTermWhat::Product(m),
-                Classes::Calibrated(cc) => ObjectTermWhat::Calibrated(cc.object_light(c, index)),
-            },
-        };
-        ObjectTerm { bound: self, what }
+        self.object_with(term, index, m, CalibratedCurve::object_light)
     }
 
     /// Object `index` (position in its class's list) of class `term` as a function of the
     /// bound, prepared once (its calibrated table built) for a caller that asks at many
     /// bounds; the values are those of [`BoundTerm::ln_p_object_at_shifted`] to the bit.
     pub fn object<'a>(&'a self, term: Term, index: usize, m: &'a Measurement) -> ObjectTerm<'a> {
+        self.object_with(term, index, m, CalibratedCurve::object)
+    }
+
+    /// [`BoundTerm::object`] or [`BoundTerm::object_light`]: `calibrated` prepares a
+    /// calibrated object (class position, index in its class).
+    fn object_with<'a>(
+        &'a self,
+        term: Term,
+        index: usize,
+        m: &'a Measurement,
+        calibrated: fn(&'a CalibratedCurve, usize, usize) -> ObjectCurve<'a>,
+    ) -> ObjectTerm<'a> {
         let what = match self.terms.iter().position(|t| *t == term) {
             None => ObjectTermWhat::Absent,
             Some(c) => match &self.classes {
                 Classes::Product(_) => ObjectTermWhat::Product(m),
-                Classes::Calibrated(cc) => ObjectTermWhat::Calibrated(cc.object(c, index)),
+                Classes::Calibrated(cc) => ObjectTermWhat::Calibrated(calibrated(cc, c, index)),
             },
         };
         ObjectTerm { bound: self, what }
