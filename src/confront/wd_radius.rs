@@ -736,13 +736,6 @@ mod tests {
     /// over objects with several mass nodes, a node without a model and a floored object.
     #[test]
     fn flattened_radius_term_matches_the_definition() {
-        let std = |r: f64| WdStandard {
-            radius_rsun: r,
-            cold_rsun: 0.95 * r,
-            hot_over_cold: 1.05,
-            envelope_fraction: 0.01,
-            dln_r_dteff_per_k: 1e-6,
-        };
         let objects: Vec<ObjectRadius> = (0..6)
             .map(|i| {
                 let m0 = 0.5 + 0.07 * f64::from(i);
@@ -754,38 +747,10 @@ mod tests {
                         )
                     })
                     .collect();
-                let standard = nodes
-                    .iter()
-                    .enumerate()
-                    .map(|(k, &(m, _))| (k != 7).then(|| std(0.0125 - 0.004 * (m - 0.6))))
-                    .collect();
-                ObjectRadius {
-                    index: i as usize,
-                    // The last object sits 10⁴ σ off: its term is floored.
-                    radius_rsun: if i == 5 {
-                        1.0
-                    } else {
-                        0.0126 + 0.0001 * f64::from(i)
-                    },
-                    radius_err_rsun: 0.0002 + 0.00005 * f64::from(i),
-                    nodes,
-                    standard,
-                    floor_fraction: 0.02,
-                    shared_fraction: 0.025,
-                    teff_err_k: 300.0,
-                    at_nominal: None,
-                    mass_sigma_msun: 0.02,
-                }
+                mixture_object(i, nodes, 0.0002 + 0.00005 * f64::from(i), 0.02, 0.02)
             })
             .collect();
-        let cold: Vec<Option<f64>> = objects
-            .iter()
-            .flat_map(|o| {
-                o.nodes
-                    .iter()
-                    .map(|&(m, _)| Some(0.95 * (0.0127 - 0.004 * (m - 0.6))))
-            })
-            .collect();
+        let cold = mixture_cold(&objects);
         let upsilon = 0.1;
         let plain = radius_term(&objects, &cold, upsilon, None);
         let mut at = 0;
@@ -804,13 +769,6 @@ mod tests {
     /// Objects with several mass nodes, a node without a model and a floored object (shared by
     /// the tests below), with their cold radii object after object.
     fn mixture_objects() -> (Vec<ObjectRadius>, Vec<Option<f64>>) {
-        let std = |r: f64| WdStandard {
-            radius_rsun: r,
-            cold_rsun: 0.95 * r,
-            hot_over_cold: 1.05,
-            envelope_fraction: 0.01,
-            dln_r_dteff_per_k: 1e-6,
-        };
         let objects: Vec<ObjectRadius> = (0..7)
             .map(|i| {
                 let m0 = 0.5 + 0.07 * f64::from(i);
@@ -820,38 +778,62 @@ mod tests {
                         (m0 + 0.03 * z, (-0.5 * z * z).exp() / 5.0)
                     })
                     .collect();
-                let standard = nodes
-                    .iter()
-                    .enumerate()
-                    .map(|(k, &(m, _))| (k != 7).then(|| std(0.0125 - 0.004 * (m - 0.6))))
-                    .collect();
-                ObjectRadius {
-                    index: i as usize,
-                    radius_rsun: if i == 5 {
-                        1.0
-                    } else {
-                        0.0126 + 0.0001 * f64::from(i)
-                    },
-                    radius_err_rsun: 0.00005 + 0.00003 * f64::from(i),
-                    nodes,
-                    standard,
-                    floor_fraction: 0.005,
-                    shared_fraction: 0.025,
-                    teff_err_k: 300.0,
-                    at_nominal: None,
-                    mass_sigma_msun: 0.03,
-                }
+                mixture_object(i, nodes, 0.00005 + 0.00003 * f64::from(i), 0.005, 0.03)
             })
             .collect();
-        let cold = objects
+        let cold = mixture_cold(&objects);
+        (objects, cold)
+    }
+
+    /// Test object `i` with mass `nodes` (node 7 without a model), its radius error, floor and
+    /// mass σ; object 5 sits 10⁴ σ off, so its term is floored.
+    fn mixture_object(
+        i: i32,
+        nodes: Vec<(f64, f64)>,
+        radius_err_rsun: f64,
+        floor_fraction: f64,
+        mass_sigma_msun: f64,
+    ) -> ObjectRadius {
+        let std = |r: f64| WdStandard {
+            radius_rsun: r,
+            cold_rsun: 0.95 * r,
+            hot_over_cold: 1.05,
+            envelope_fraction: 0.01,
+            dln_r_dteff_per_k: 1e-6,
+        };
+        let standard = nodes
+            .iter()
+            .enumerate()
+            .map(|(k, &(m, _))| (k != 7).then(|| std(0.0125 - 0.004 * (m - 0.6))))
+            .collect();
+        ObjectRadius {
+            index: i as usize,
+            radius_rsun: if i == 5 {
+                1.0
+            } else {
+                0.0126 + 0.0001 * f64::from(i)
+            },
+            radius_err_rsun,
+            nodes,
+            standard,
+            floor_fraction,
+            shared_fraction: 0.025,
+            teff_err_k: 300.0,
+            at_nominal: None,
+            mass_sigma_msun,
+        }
+    }
+
+    /// Every node's cold radius, object after object (an invented smooth law).
+    fn mixture_cold(objects: &[ObjectRadius]) -> Vec<Option<f64>> {
+        objects
             .iter()
             .flat_map(|o| {
                 o.nodes
                     .iter()
                     .map(|&(m, _)| Some(0.95 * (0.0127 - 0.004 * (m - 0.6))))
             })
-            .collect();
-        (objects, cold)
+            .collect()
     }
 
     /// The whole term without one object, computed for several objects at once, is the term of
