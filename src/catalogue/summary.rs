@@ -115,6 +115,11 @@ impl ClassAccumulator {
         }
     }
 
+    /// One empty accumulator per class, in the order hburning, brown dwarf, white dwarf.
+    fn per_class() -> [Self; 3] {
+        std::array::from_fn(|_| Self::new())
+    }
+
     fn add(&mut self, o: &CatalogueObject) {
         self.count += 1;
         if o.mass_limit != super::vet::MassLimit::None {
@@ -152,11 +157,7 @@ impl ClassAccumulator {
 
 /// The three classes' accumulators over `objects`, in one pass.
 fn accumulate<'a>(objects: impl Iterator<Item = &'a CatalogueObject>) -> [ClassAccumulator; 3] {
-    let mut acc = [
-        ClassAccumulator::new(),
-        ClassAccumulator::new(),
-        ClassAccumulator::new(),
-    ];
+    let mut acc = ClassAccumulator::per_class();
     for o in objects {
         let k = match o.class {
             ObjectClass::HBurning => 0,
@@ -176,11 +177,7 @@ impl VetSummary {
         let mut start = 0;
         // The classes over all catalogues merge the catalogues' accumulators when these cover
         // every object (always, unless the tallies disagree with the objects).
-        let mut all = [
-            ClassAccumulator::new(),
-            ClassAccumulator::new(),
-            ClassAccumulator::new(),
-        ];
+        let mut all = ClassAccumulator::per_class();
         let catalogues = v
             .tallies
             .iter()
