@@ -1454,22 +1454,26 @@ fn tabulate_object(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::confront::reduce::SplitMix64;
 
-    fn draw(n: usize, lo: f64, hi: f64, rel_err: f64, side: Side, seed: u64) -> Vec<Measurement> {
-        let mut rng = SplitMix64::new(seed);
-        (0..n)
-            .map(|_| {
-                let m = lo + (hi - lo) * rng.next_f64();
-                let s = rel_err * m * (0.5 + rng.next_f64());
-                Measurement {
-                    mass_msun: m,
-                    kind: MassKind::Measured { lo: s, hi: 1.2 * s },
-                    side,
-                    scale: 1.0,
-                }
-            })
-            .collect()
+    /// `n` masses evenly spread over [lo, hi] (cell midpoints), asymmetric errors of 2–6 ×
+    /// `rel_err` cycling through a stride, so that neighbours differ in width.
+    fn lattice(n: usize, lo: f64, hi: f64, rel_err: f64, side: Side) -> Vec<Measurement> {
+        let mut out = Vec::with_capacity(n);
+        for i in 0..n {
+            let m = lo + (hi - lo) * (i as f64 + 0.5) / n as f64;
+            let width = rel_err * m * (0.5 + ((i * 37) % 11) as f64 / 11.0);
+            let kind = MassKind::Measured {
+                lo: width,
+                hi: 0.8 * width,
+            };
+            out.push(Measurement {
+                mass_msun: m,
+                kind,
+                side,
+                scale: 1.0,
+            });
+        }
+        out
     }
 
     /// The per-class direct sum the slow way: each object's whole table rebuilt, its
@@ -1496,27 +1500,37 @@ mod tests {
     #[test]
     fn direct_sum_from_cell_contributions_equals_the_per_object_tables_to_the_bit() {
         // Common practice, no source: a shortcut must give what the long way gives. Invented
-        // objects (seeded draw): stars and brown dwarfs meeting at an MMHB near 0.075 M☉, and
+        // objects (an even lattice): stars and brown dwarfs meeting at an MMHB near 0.075 M☉, and
         // white dwarfs below a one-sided edge near 1.3 M☉; bounds inside and outside the
         // tabulated ranges.
-        let hb = draw(300, 0.074, 0.10, 0.04, Side::AtLeast, 11);
-        let bd = draw(150, 0.05, 0.076, 0.04, Side::AtMost, 12);
-        let wd = draw(120, 0.9, 1.33, 0.02, Side::AtMost, 13);
+        let hb = lattice(300, 0.074, 0.10, 0.04, Side::AtLeast);
+        let bd = lattice(150, 0.05, 0.076, 0.04, Side::AtMost);
+        let wd = lattice(120, 0.9, 1.33, 0.02, Side::AtMost);
         let opts = CalibratedOptions::default();
-        let two = CalibratedCurve::build(&[&hb, &bd], 0.002, (0.06, 0.095), &opts).unwrap();
-        let edge = CalibratedCurve::build(&[&wd], 0.012, (1.1, 1.6), &opts).unwrap();
+        let curves = [
+            (
+                CalibratedCurve::build(&[&hb, &bd], 0.002, (0.06, 0.095), &opts),
+                2,
+                0.05,
+                0.11,
+            ),
+            (
+                CalibratedCurve::build(&[&wd], 0.012, (1.1, 1.6), &opts),
+                1,
+                1.0,
+                1.7,
+            ),
+        ];
         let mut checked = 0;
-        for (c, n_classes, (a, z)) in [(&two, 2, (0.05, 0.11)), (&edge, 1, (1.0, 1.7))] {
-            for class in 0..n_classes {
-                for k in 0..=16 {
-                    let b = a + (z - a) * f64::from(k) / 16.0;
-                    assert_eq!(
-                        c.exact_class(class, b).to_bits(),
-                        exact_class_by_tables(c, class, b).to_bits(),
-                        "class {class}, B = {b}"
-                    );
-                    checked += 1;
-                }
+        for (built, n_classes, a, z) in curves {
+            let c = built.unwrap();
+            let queries = (0..n_classes).flat_map(|class| {
+                (0..=16).map(move |k| (class, a + (z - a) * f64::from(k) / 16.0))
+            });
+            for (class, b) in queries {
+                let (fast, slow) = (c.exact_class(class, b), exact_class_by_tables(&c, class, b));
+                assert_eq!(fast.to_bits(), slow.to_bits(), "class {class}, B = {b}");
+                checked += 1;
             }
         }
         assert_eq!(checked, 51);
