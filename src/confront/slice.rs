@@ -229,10 +229,13 @@ impl FineRadii {
         self.per_query.iter().map(|q| self.value(q, x)).collect()
     }
 
-    /// One query's cold radius at every fine point.
-    fn along(&self, q: usize) -> Vec<Option<f64>> {
-        let q = &self.per_query[q];
-        self.fine.iter().map(|&x| self.value(q, x)).collect()
+    /// Every query's cold radii along the whole fine axis, one vector per query (for the few
+    /// spin tests, which read each query at every fine point).
+    fn along_each(&self) -> Vec<Vec<Option<f64>>> {
+        self.per_query
+            .par_iter()
+            .map(|q| self.fine.iter().map(|&x| self.value(q, x)).collect())
+            .collect()
     }
 
     /// The spline's value inside the row, or linear between two points that have a radius,
@@ -426,27 +429,11 @@ fn fine_radii(
     })
 }
 
-/// [`fine_radii`] as one vector along the fine axis per query (for the few spin tests).
-fn cold_radii_on_fine_axis(
-    surface: &dyn BoundSurface,
-    row: &Row<'_>,
-    nu: usize,
-    fine: &[f64],
-    queries: &[(f64, f64)],
-    adjust: Option<&AdjustRadii<'_>>,
-) -> Result<Vec<Vec<Option<f64>>>, StatsError> {
-    let radii = fine_radii(surface, row, nu, fine, queries, adjust)?;
-    Ok((0..queries.len())
-        .into_par_iter()
-        .map(|q| radii.along(q))
-        .collect())
-}
-
 /// −2 ln P of each spin test along the fine τ = 0 axis: (object index, values).
 ///
 /// Evaluated as the radius term is: the break-up period goes as R^{3/2} and the floor is a few
 /// per cent of it, so the term can be as sharply curved in ϒ as the radius term. The cold radii
-/// of each object's mass nodes are interpolated along the row ([`cold_radii_on_fine_axis`]) and
+/// of each object's mass nodes are interpolated along the row ([`fine_radii`]) and
 /// the test is evaluated exactly at every fine point (equal to the grid's values at the coarse
 /// points). A test without a model at a fine point adds nothing there, as on the grid. A
 /// corrected brown dwarf's or star's MMHB change ([`super::spin::MmhbSlowRotation`]) is added at
@@ -464,7 +451,7 @@ fn spin_terms_on_fine_axis(
     }
     let prepared = super::spin::spin_queries(&conf.spins);
     let per_query =
-        cold_radii_on_fine_axis(surface, row, conf.n_upsilon, fine, prepared.pairs(), None)?;
+        fine_radii(surface, row, conf.n_upsilon, fine, prepared.pairs(), None)?.along_each();
     // The MMHB factors of corrected objects at the coarse points of the row.
     let coarse: Vec<Vec<super::spin::SpinAt>> = if conf.spins.iter().any(|s| s.mmhb.is_some()) {
         (0..row.axis.len())
