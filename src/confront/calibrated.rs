@@ -879,15 +879,14 @@ impl CalibratedCurve {
         let (first, post) = self.object_posterior(m)?;
         let (first_node, p_nodes) = match &self.edge {
             Some(e) => tabulate_object_edge(first, &post, self.node_first_cell, e),
-            None => tabulate_object(
-                m.side,
-                first,
-                &post,
-                self.node_first_cell,
-                self.n_nodes,
-                self.d_half,
-                &self.step_table,
-            ),
+            None => {
+                // P̃_i at every node of the curve where it is not constant.
+                let nodes = self.object_nodes(m.side, first, &post);
+                let p_nodes = (0..nodes.len())
+                    .map(|j| nodes.p(j, &post, &self.step_table))
+                    .collect();
+                (nodes.g0, p_nodes)
+            }
         };
         Some(ObjectTable {
             first_cell: first,
@@ -895,6 +894,19 @@ impl CalibratedCurve {
             first_node,
             p_nodes,
         })
+    }
+
+    /// The nodes at which an object's P is not constant, for its posterior `post` from cell
+    /// `first` (this curve's nodes and step table width).
+    fn object_nodes(&self, side: Side, first: usize, post: &[f64]) -> ObjectNodes {
+        ObjectNodes::new(
+            side,
+            first,
+            post,
+            self.node_first_cell,
+            self.n_nodes,
+            self.d_half,
+        )
     }
 
     /// An object's posterior over the mass cells: (first cell, probabilities); `None` when it
@@ -1185,14 +1197,7 @@ impl CalibratedCurve {
             Some(o) => {
                 let m = &o.measurement;
                 let prepared = self.object_posterior(m).map(|(first, post)| {
-                    let nodes = ObjectNodes::new(
-                        m.side,
-                        first,
-                        &post,
-                        self.node_first_cell,
-                        self.n_nodes,
-                        self.d_half,
-                    );
+                    let nodes = self.object_nodes(m.side, first, &post);
                     let tab = ObjectTable {
                         first_cell: first,
                         posterior: post,
@@ -1434,21 +1439,6 @@ impl ObjectNodes {
         };
         p.clamp(0.0, 1.0)
     }
-}
-
-/// P̃_i at every node of the curve where it is not constant (see [`ObjectNodes`]).
-fn tabulate_object(
-    side: Side,
-    first_cell: usize,
-    post: &[f64],
-    node_first_cell: usize,
-    n_nodes: usize,
-    d_half: usize,
-    table: &[f64],
-) -> (isize, Vec<f64>) {
-    let nodes = ObjectNodes::new(side, first_cell, post, node_first_cell, n_nodes, d_half);
-    let p_nodes = (0..nodes.len()).map(|j| nodes.p(j, post, table)).collect();
-    (nodes.g0, p_nodes)
 }
 
 #[cfg(test)]
