@@ -229,8 +229,11 @@ pub fn deconvolve(
                     let denom: f64 = r.iter().zip(&phi[*a..]).map(|(k, p)| k * p).sum();
                     if denom > 0.0 {
                         ll += denom.ln();
-                        for (j, (k, p)) in r.iter().zip(&phi[*a..]).enumerate() {
-                            acc[a + j] += k * p / denom;
+                        // Zipped slices, not indices: without bounds checks the update of the
+                        // cells vectorises (the same operations per cell, so the same bits).
+                        let cells = acc[*a..].iter_mut().zip(&phi[*a..]);
+                        for ((x, p), k) in cells.zip(r) {
+                            *x += k * p / denom;
                         }
                     }
                 }
