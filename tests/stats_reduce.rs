@@ -5,7 +5,8 @@ use dwarfbound::confront::prob::{ln_normal_cdf, ln_prob_consistent, MassKind, Me
 use rayon::prelude::*;
 
 use dwarfbound::confront::reduce::{
-    bound_range, ClassCurve, ReduceOptions, SharedFloorCurve, SharedFloorOptions, SplitMix64,
+    bound_range, ClassCounts, ClassCurve, ReduceOptions, SharedFloorCurve, SharedFloorOptions,
+    SplitMix64,
 };
 
 /// Standard normal deviate by Box–Muller (Box & Muller 1958, Ann. Math. Statist. 29, 610).
@@ -241,6 +242,34 @@ fn skipped_objects_are_bounded_and_counted() {
     assert_eq!(curve.n_informative(), 0);
     assert!(curve.eval(0.075).abs() <= curve.skip_error_bound());
     assert!(curve.exact(0.075).abs() <= curve.skip_error_bound());
+}
+
+#[test]
+fn class_counts_sort_objects_as_the_curve_does() {
+    // The counts (and the Šidák test's N_inf) come from `ClassCounts` without tabulating;
+    // they must be the curve's (common practice, no source: a shortcut gives what the long way
+    // gives). Seeded synthetic catalogue with limits and split errors, three classes, each
+    // against its own bound range.
+    let [hb, bd, wd] = catalogue(4000, 31);
+    let grid: Vec<(f64, f64)> = (0..21)
+        .flat_map(|i| (0..21).map(move |j| (-0.3 + 0.045 * i as f64, -0.1 + 0.01 * j as f64)))
+        .collect();
+    let mmhb_values: Vec<f64> = grid.iter().map(|&(u, t)| mmhb(u, t)).collect();
+    let mch_values: Vec<f64> = grid.iter().map(|&(u, t)| mch(u, t)).collect();
+    let opts = ReduceOptions::default();
+    for (ms, values, floor) in [
+        (&hb, &mmhb_values, 0.005),
+        (&bd, &mmhb_values, 0.005),
+        (&wd, &mch_values, 0.03),
+    ] {
+        let range = bound_range(values).unwrap();
+        let curve = ClassCurve::build(ms, floor, range, &opts).unwrap();
+        let counts = ClassCounts::new(ms, floor, range, &opts).unwrap();
+        assert_eq!(counts.informative_indices(), curve.informative_indices());
+        assert_eq!(counts.n_skipped(), curve.n_skipped());
+        assert_eq!(counts.n_uninformative(), curve.n_uninformative());
+        assert!(counts.n_informative() > 0);
+    }
 }
 
 #[test]

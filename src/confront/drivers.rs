@@ -215,7 +215,7 @@ pub fn slice_drivers(
     opts: &DriverOptions,
 ) -> Result<Vec<(usize, f64)>, StatsError> {
     let mut per_class: Vec<(Term, Vec<usize>, Vec<Measurement>)> = Vec::new();
-    for (term, _) in &conf.curves {
+    for (term, _) in &conf.class_counts {
         let idx = conf.members(*term);
         let ms = idx.iter().map(|&k| conf.uses[k].measurement).collect();
         per_class.push((*term, idx, ms));

@@ -1,9 +1,9 @@
 //! The comparator: every vetted object against every grid point, without an N × G term.
 //!
 //! Each mass test depends on a grid point only through one scalar bound (the MMHB for
-//! `hburning` and `brown_dwarf`, the Chandrasekhar mass for `white_dwarf`), so each class is
-//! reduced once to a tabulated log-likelihood curve in the bound's value ([`ClassCurve`],
-//! `docs/bounds.md` §8.5) and the grid is evaluated by interpolation. White dwarfs with a
+//! `hburning` and `brown_dwarf`, the Chandrasekhar mass for `white_dwarf`), so each bound's term
+//! is tabulated once in the bound's value ([`BoundTerm`], `docs/bounds.md` §8.5) and the grid
+//! is evaluated by interpolation. White dwarfs with a
 //! measured radius also confront the modified mass–radius relation; that term depends on the
 //! object's own mass, so it is evaluated per object and grid point from the tabulated R(M).
 //! Objects with a rotation period add one more term, the spin test of [`super::spin`], which
@@ -40,7 +40,7 @@ use rayon::prelude::*;
 
 use super::mass_terms::{BoundTerm, MassTermOptions};
 use super::prob::{ln_prob_consistent, tension_sigma, MassKind, Measurement, Side, StatsError};
-use super::reduce::{ClassCurve, ReduceOptions};
+use super::reduce::{ClassCounts, ReduceOptions};
 use super::regions::PopulationTerm;
 use super::wd_radius::{self, ObjectRadius, RadiusOptions, ResolvedCore, WdQuery, WdStandard};
 use crate::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
@@ -325,8 +325,9 @@ pub struct Confrontation {
     /// order; `u32::MAX` without one), so that an object's term is found without a scan.
     /// Derived from `uses` when the comparison is built, so not public.
     term_positions: Vec<u32>,
-    /// The class curves of the mass terms (for errors, counts and per-object evaluation).
-    pub curves: Vec<(Term, ClassCurve)>,
+    /// Each mass term's objects sorted into informative, skipped and uninformative over its
+    /// bound's range (the counts and the Šidák test's N_inf).
+    pub class_counts: Vec<(Term, ClassCounts)>,
     /// The population-aware term, when asked for.
     pub population: Option<PopulationTerm>,
     /// The radius tests, prepared (nodes and standard model per object).
@@ -335,8 +336,7 @@ pub struct Confrontation {
     /// parameter (`None` with per-object floors).
     pub radius_shared: Option<super::nuisance::SharedNuisance>,
     /// The mass terms actually in the likelihood, one per bound (MMHB, Chandrasekhar mass)
-    /// that some object faces. `curves` above are the plain per-object-floor class curves,
-    /// kept for counts and per-object tensions.
+    /// that some object faces.
     pub bounds: Vec<(Bound, BoundTerm)>,
     /// The spin tests, prepared (one per object with a rotation period and a measured mass).
     pub spins: Vec<super::spin::ObjectSpin>,
@@ -575,7 +575,7 @@ pub fn confront(
     let mmhb: Vec<Option<f64>> = (0..n).map(|i| surface.mmhb_msun(i)).collect();
     let chandra: Vec<Option<f64>> = (0..n).map(|i| surface.chandrasekhar_mu2_msun(i)).collect();
 
-    let mut curves = Vec::new();
+    let mut class_counts = Vec::new();
     for (term, values, floor) in [
         (Term::HBurning, &mmhb, opts.mmhb_floor_msun),
         (Term::BrownDwarf, &mmhb, opts.mmhb_floor_msun),
@@ -597,7 +597,7 @@ pub fn confront(
         let Some(range) = super::reduce::bound_range(&finite) else {
             continue;
         };
-        curves.push((term, ClassCurve::build(&ms, floor, range, &opts.reduce)?));
+        class_counts.push((term, ClassCounts::new(&ms, floor, range, &opts.reduce)?));
     }
 
     let mut bounds: Vec<(Bound, BoundTerm)> = Vec::new();
@@ -778,7 +778,7 @@ pub fn confront(
         joint,
         uses,
         term_positions,
-        curves,
+        class_counts,
         population,
         radius_objects,
         radius_shared: wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms),

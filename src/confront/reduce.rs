@@ -75,6 +75,115 @@ impl Default for ReduceOptions {
     }
 }
 
+/// Where one object stands in a class over a bound range.
+enum Standing {
+    /// A limit in the uninformative direction (P = 1).
+    Uninformative,
+    /// ln P > −ε_skip over the whole range: it cannot matter anywhere.
+    Skipped,
+    /// It can constrain some bound in the range.
+    Informative,
+}
+
+/// Classifies one object over the bound range [b_lo, b_hi] (`docs/bounds.md` §8.5).
+fn classify(m: &Measurement, floor_msun: f64, (b_lo, b_hi): (f64, f64), eps_skip: f64) -> Standing {
+    if !m.informative() {
+        return Standing::Uninformative;
+    }
+    // P_i is monotone in B: its smallest value over the range is at the far end.
+    let worst_b = match m.side {
+        Side::AtLeast => b_hi,
+        Side::AtMost => b_lo,
+    };
+    if ln_prob_consistent(m, worst_b, floor_msun) > -eps_skip {
+        Standing::Skipped
+    } else {
+        Standing::Informative
+    }
+}
+
+/// The bound range padded by `opts.pad_fraction` of its width on each side.
+fn padded_range(
+    bound_range_msun: (f64, f64),
+    opts: &ReduceOptions,
+) -> Result<(f64, f64), StatsError> {
+    let (lo, hi) = check_range(bound_range_msun)?;
+    let width = hi - lo;
+    let pad = if width > 0.0 {
+        opts.pad_fraction * width
+    } else {
+        opts.pad_fraction * lo.abs().max(1e-3)
+    };
+    Ok((lo - pad, hi + pad))
+}
+
+/// A class's objects sorted as [`ClassCurve::build`] sorts them, without tabulating the curve:
+/// what the counts and the Šidák test's N_inf need (`docs/bounds.md` §8.4) where the likelihood
+/// itself is another term's (`mass_terms::BoundTerm`). One ln P per object, where the curve
+/// costs one per object and node.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ClassCounts {
+    informative_indices: Vec<usize>,
+    n_skipped: usize,
+    n_uninformative: usize,
+}
+
+impl ClassCounts {
+    /// Sorts `measurements` (all objects of the class, in the caller's order) over the class's
+    /// bound range padded as [`ClassCurve::build`] pads it, with the class's theory floor;
+    /// the same informative and skipped objects as the curve's.
+    pub fn new(
+        measurements: &[Measurement],
+        floor_msun: f64,
+        bound_range_msun: (f64, f64),
+        opts: &ReduceOptions,
+    ) -> Result<Self, StatsError> {
+        validate_floor(floor_msun)?;
+        let range = padded_range(bound_range_msun, opts)?;
+        if range.1 <= range.0 {
+            return Err(StatsError::InvalidInput(format!(
+                "tabulation range [{}, {}] M☉ is empty",
+                range.0, range.1
+            )));
+        }
+        let mut counts = Self {
+            informative_indices: Vec::new(),
+            n_skipped: 0,
+            n_uninformative: 0,
+        };
+        for (i, m) in measurements.iter().enumerate() {
+            m.validate(i)?;
+            match classify(m, floor_msun, range, opts.eps_skip) {
+                Standing::Uninformative => counts.n_uninformative += 1,
+                Standing::Skipped => counts.n_skipped += 1,
+                Standing::Informative => counts.informative_indices.push(i),
+            }
+        }
+        Ok(counts)
+    }
+
+    /// Positions (in the caller's slice) of the informative objects, ascending: the N_inf of
+    /// the Šidák test.
+    pub fn informative_indices(&self) -> &[usize] {
+        &self.informative_indices
+    }
+
+    /// Number of informative objects.
+    pub fn n_informative(&self) -> usize {
+        self.informative_indices.len()
+    }
+
+    /// Number of informative objects that cannot matter anywhere over the range.
+    pub fn n_skipped(&self) -> usize {
+        self.n_skipped
+    }
+
+    /// Number of limits in the uninformative direction.
+    pub fn n_uninformative(&self) -> usize {
+        self.n_uninformative
+    }
+}
+
 /// The tabulated log-likelihood curve L_c(B) of one class (per-object theory floor, §8.1–8.2).
 #[derive(Debug)]
 pub struct ClassCurve {
@@ -106,14 +215,12 @@ impl ClassCurve {
         bound_range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
-        let (lo, hi) = check_range(bound_range_msun)?;
-        let width = hi - lo;
-        let pad = if width > 0.0 {
-            opts.pad_fraction * width
-        } else {
-            opts.pad_fraction * lo.abs().max(1e-3)
-        };
-        Self::build_on_range(measurements, floor_msun, (lo - pad, hi + pad), opts)
+        Self::build_on_range(
+            measurements,
+            floor_msun,
+            padded_range(bound_range_msun, opts)?,
+            opts,
+        )
     }
 
     /// As [`ClassCurve::build`] with the tabulation range taken as given (no padding).
@@ -159,22 +266,17 @@ impl ClassCurve {
         let b_abs = b_lo.abs().max(b_hi.abs());
         let mut kept: Vec<(Measurement, f64)> = Vec::new();
         for (i, m) in measurements.iter().enumerate() {
-            if !m.informative() {
-                curve.n_uninformative += 1;
-                continue;
+            match classify(m, floor_msun, (b_lo, b_hi), opts.eps_skip) {
+                Standing::Uninformative => curve.n_uninformative += 1,
+                Standing::Skipped => {
+                    curve.skipped.push(*m);
+                    curve.skipped_indices.push(i);
+                }
+                Standing::Informative => {
+                    curve.informative_indices.push(i);
+                    kept.push((*m, smoothing_width_in_bound(m, b_abs, floor_msun)));
+                }
             }
-            // P_i is monotone in B: its smallest value over the range is at the far end.
-            let worst_b = match m.side {
-                Side::AtLeast => b_hi,
-                Side::AtMost => b_lo,
-            };
-            if ln_prob_consistent(m, worst_b, floor_msun) > -opts.eps_skip {
-                curve.skipped.push(*m);
-                curve.skipped_indices.push(i);
-                continue;
-            }
-            curve.informative_indices.push(i);
-            kept.push((*m, smoothing_width_in_bound(m, b_abs, floor_msun)));
         }
         // Tabulate; with a target error, double the node density until it is met. A doubling
         // keeps every node of the previous round (node k of n is node 2k of 2n − 1, to the

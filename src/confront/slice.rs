@@ -116,7 +116,7 @@ pub fn tau0_slice(
     let axis: Vec<f64> = surface.upsilon()[a..b].to_vec();
     let idx = |i: usize| j0 * nu + i;
     let mut splines: Vec<(Term, CubicSpline)> = Vec::new();
-    for (term, _) in &conf.curves {
+    for (term, _) in &conf.class_counts {
         let ys: Vec<f64> = (a..b)
             .map(|i| {
                 let i = idx(i);

@@ -253,9 +253,9 @@ pub fn consistency_at_best(
     spins: &[SpinVerdict],
 ) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
     let mut counted = BTreeSet::new();
-    for (term, curve) in &conf.curves {
+    for (term, counts) in &conf.class_counts {
         let members = conf.members(*term);
-        counted.extend(curve.informative_indices().iter().map(|&j| members[j]));
+        counted.extend(counts.informative_indices().iter().map(|&j| members[j]));
     }
     let mut ln_ps: Vec<(usize, f64)> = verdicts
         .iter()

@@ -653,19 +653,15 @@ impl OutputContext<'_> {
         let best = &self.regions.best;
         let t = &self.settings.theory;
         let mmhb_mode = t.mmhb_mode.name();
-        let reduction: Vec<Value> = self
+        let class_counts: Vec<Value> = self
             .conf
-            .curves
+            .class_counts
             .iter()
             .map(|(term, c)| {
                 json!({
                     "class": term.name(),
-                    "likelihood_use": "counts and per-object tensions only (flat prior, whole floor per object), not the likelihood: its terms and their errors are statistics.bounds",
-                    "nodes": c.n_nodes(),
-                    "check_points": self.eopts.reduce.n_check,
                     "informative": c.n_informative(),
                     "skipped": c.n_skipped(),
-                    "max_abs_minus_two_ln_l_error": 2.0 * c.achieved_error(),
                 })
             })
             .collect();
@@ -726,7 +722,7 @@ impl OutputContext<'_> {
             "tension_threshold_sigma": self.settings.statistics.tension_sigma,
             "tensions": tensions,
             "drivers": drivers,
-            "reduction": reduction,
+            "class_counts": class_counts,
             "crowding_warning": self.crowd.is_some_and(|c| c.warn),
         })
     }

@@ -341,7 +341,7 @@ pub(crate) fn write_report_files(
         }
         let n_informative = ctx
             .conf
-            .curves
+            .class_counts
             .iter()
             .find(|(tt, _)| *tt == term)
             .map_or(n_objects, |(_, c)| c.n_informative());
