@@ -14,6 +14,12 @@
 //!   centred at the mode and scaled by the curvature there (Liu & Pierce 1994, Biometrika 81,
 //!   624), which stays accurate when many objects make the integrand much narrower than σ.
 //!
+//! The minimum over δ is found by a scan with golden-section refinement ([`eliminate`], any
+//! term), by Newton steps on finite differences ([`eliminate_smooth`], a smooth term given as
+//! values only), or by Newton steps with the term's exact slope and curvature
+//! ([`eliminate_newton_value`], a smooth term that supplies them, converged to rounding level so
+//! that the result does not depend on where the search starts).
+//!
 //! ```
 //! use dwarfbound::confront::nuisance::{eliminate, NuisanceMethod, SharedNuisance};
 //! // A quadratic term f(δ) = ((δ − 1)/s)²: profiling gives (1/(s² + σ²)) exactly.

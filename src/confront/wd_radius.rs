@@ -603,31 +603,46 @@ impl Mixtures {
     /// value is [`Mixtures::minus_two_ln_l`]'s to the bit (the same operations in the same
     /// order), and each component's one exp serves all three.
     ///
-    /// A component is t = c v^{−1/2} exp(−u²/(2v)) with u = R − r s, v = σ_R² + th² s², so
-    /// with φ = ln t (up to ln c), v′ = 2 th² s, v″ = 2 th², a = u/v, q = v′/v:
-    /// φ′ = −q/2 + r a + a² v′/2 and
-    /// φ″ = −v″/(2v) + q²/2 − r²/v − 2 r a q + a² v″/2 − a² q v′; t′ = t φ′,
+    /// A component is t = c v^{−1/2} exp(−u²/(2v)) with u = R − r s, v = σ_R² + th² s²; with
+    /// φ = ln t, a = u/v and w = a² − 1/v:
+    /// φ′ = th² s w + r a and
+    /// φ″ + φ′² = (th² + r²) w + (th² s)² (w² − 2(w + a²)/v) + 2 r a th² s (w − 2/v)
+    /// (checked symbolically, and against finite differences in the tests); t′ = t φ′,
     /// t″ = t (φ″ + φ′²). With L = Σ t: (−2 ln L)′ = −2 L′/L and
     /// (−2 ln L)″ = −2 L″/L + 2 (L′/L)². A floored term is flat (both derivatives 0).
+    ///
+    /// The components go in blocks: the exponents first, then the exps alone, then the sums
+    /// (every floating-point register is caller-saved across a call to `exp`, so a loop that
+    /// kept its four sums and the derivative terms live across it spilled them to the stack at
+    /// every component — perf: the arithmetic then cost more than the exps).
     fn local(&self, i: usize, scale: f64) -> Local {
+        const BLOCK: usize = 32;
         let (a, b, big_r, e2) = self.objects[i];
         let (mut total, mut d1, mut d2, mut mag) = (0.0, 0.0, 0.0, 0.0);
-        for k in &self.components[a..b] {
-            let inv = 1.0 / (e2 + k.th2 * scale * scale);
-            let d = big_r - k.r * scale;
-            let t = k.c * (-0.5 * d * d * inv).exp() * inv.sqrt();
-            total += t;
-            let v1 = 2.0 * k.th2 * scale;
-            let v2 = 2.0 * k.th2;
-            let av = d * inv;
-            let q = v1 * inv;
-            let p1 = -0.5 * q + k.r * av + 0.5 * av * av * v1;
-            let p2 = -0.5 * v2 * inv + 0.5 * q * q - k.r * k.r * inv - 2.0 * k.r * av * q
-                + 0.5 * av * av * v2
-                - av * av * q * v1;
-            d1 += t * p1;
-            d2 += t * (p2 + p1 * p1);
-            mag += (t * p1).abs();
+        for block in self.components[a..b].chunks(BLOCK) {
+            let (mut inv, mut dev, mut ex) = ([0.0; BLOCK], [0.0; BLOCK], [0.0; BLOCK]);
+            for (((k, inv), dev), ex) in block.iter().zip(&mut inv).zip(&mut dev).zip(&mut ex) {
+                *inv = 1.0 / (e2 + k.th2 * scale * scale);
+                *dev = big_r - k.r * scale;
+                *ex = -0.5 * *dev * *dev * *inv;
+            }
+            for ex in &mut ex[..block.len()] {
+                *ex = ex.exp();
+            }
+            for (((k, &inv), &dev), &ex) in block.iter().zip(&inv).zip(&dev).zip(&ex) {
+                let t = k.c * ex * inv.sqrt();
+                total += t;
+                let th2s = k.th2 * scale;
+                let av = dev * inv;
+                let w = av * av - inv;
+                let p1 = th2s * w + k.r * av;
+                let p2 = (k.th2 + k.r * k.r) * w
+                    + th2s * th2s * (w * w - 2.0 * inv * (w + av * av))
+                    + 2.0 * k.r * av * th2s * (w - 2.0 * inv);
+                d1 += t * p1;
+                d2 += t * p2;
+                mag += (t * p1).abs();
+            }
         }
         let value = -2.0 * floored_ln(total);
         if total > 0.0 && total.ln() > LN_L_RADIUS_FLOOR {
