@@ -154,9 +154,9 @@ pub fn eliminate(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
 /// posterior width (g then within ~1e-8 of its minimum) or it stops at ±reach·σ; about 10
 /// evaluations of `f` against ≈ 100 for the scan. Where a step fails (non-finite values, no positive curvature, no
 /// descent, no convergence in 20 steps) it falls back to [`eliminate`]. The finite
-/// differences are taken at up to half the posterior width, so the point where the search
-/// stops is where their slope vanishes, not the true slope: g(δ̂) can sit above the minimum
-/// by more than the 1e-8 the step criterion suggests (up to 6e-7 on the demo's radius term).
+/// differences are taken at up to half the posterior width, so the search stops where their
+/// slope vanishes, not the true one (our reading of why g(δ̂) sat up to 6e-7 above the
+/// minimum on the demo's radius term, more than the 1e-8 the step criterion suggests).
 /// Kept for terms given as values only.
 pub fn eliminate_smooth(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
     match newton_profile(f, n) {
@@ -279,7 +279,7 @@ const SLOPE_ROUNDING_EPS: f64 = 64.0;
 ///
 /// The search is safeguarded as [`eliminate_smooth`]'s is: every step at most 2σ, δ kept on
 /// ±reach·σ, and where a step fails (non-finite values, no positive curvature, no convergence
-/// in [`NEWTON_MAX_STEPS`] steps) it falls back to the scan [`eliminate`]. Where a full step
+/// in 40 steps) it falls back to the scan [`eliminate`]. Where a full step
 /// raises g by more than rounding (1e-9 relative, [`eliminate_smooth`]'s tolerance), the
 /// step is halved (backtracking); once the slope has changed sign between two points, the
 /// minimum is bracketed and a step leaving the bracket is replaced by its midpoint. It stops
