@@ -46,7 +46,7 @@ use super::prob::{Measurement, StatsError};
 use super::reduce::{bound_range, CubicSpline, SplineEnd};
 use super::regions::{self, UpsilonSlice};
 use super::wd_radius::{
-    radius_term, radius_total, radius_totals_leaving_out, shared_nuisance, split_floor,
+    radius_term_from, radius_total_from, radius_totals_leaving_out, shared_nuisance, split_floor,
     ObjectRadius, RadiusTerm,
 };
 use crate::theory::white_dwarf::RadiusQueries;
@@ -54,6 +54,11 @@ use crate::theory::white_dwarf::RadiusQueries;
 /// The ϒ interval at τ = 0 is read on a grid this many times finer than the ϒ axis (the
 /// paper's statistics section: 10).
 pub const SLICE_REFINE: usize = 10;
+
+/// Fine points per block of the radius term along the fine axis: blocks run in parallel, the
+/// points of a block in order, each point's shared-scale search starting at the previous
+/// point's δ̂. Fixed (not set by the thread count), so that the outputs are too.
+const FINE_BLOCK: usize = 16;
 
 /// The τ = 0 slice of the joint likelihood on the fine ϒ axis, with what the driver analysis
 /// needs to take one object out of it.
@@ -71,7 +76,7 @@ pub struct SliceResult {
     /// radius systematic not the sum of `radius_fine`: the scale is eliminated jointly).
     pub radius_total_fine: Vec<f64>,
     /// Per fine point, the structure solver's cold radius at every radius object's mass nodes
-    /// (object after object, as [`radius_term`] takes them): what the radius term is built
+    /// (object after object, as [`super::wd_radius::radius_term`] takes them): what the radius term is built
     /// from, kept so that it can be rebuilt without one object or with another floor
     /// treatment ([`radius_total_fine`]). Empty in the slice of [`tau0_slice_other_floor`].
     pub radius_nodes_fine: FineRadii,
@@ -304,17 +309,28 @@ fn radius_terms_on_fine_axis(
     // At each fine point the radius term of all objects together (the shared scale, if any, is
     // eliminated there) from every node's cold radius there (the layout `radius_term` takes);
     // fine points in parallel, collected in order.
-    let terms: Vec<RadiusTerm> = fine
-        .par_iter()
-        .enumerate()
-        .map(|(k, &upsilon)| {
-            radius_term(
-                &conf.radius_objects,
-                &nodes_fine.at(k),
-                upsilon,
-                conf.radius_shared.as_ref(),
-            )
+    // Blocks of FINE_BLOCK points in parallel, in order within a block, each search starting
+    // at the previous point's δ̂ (the blocks are fixed, so the outputs do not depend on the
+    // number of threads).
+    let terms: Vec<RadiusTerm> = (0..fine.len().div_ceil(FINE_BLOCK))
+        .into_par_iter()
+        .map(|block| {
+            let mut start = 0.0;
+            (block * FINE_BLOCK..((block + 1) * FINE_BLOCK).min(fine.len()))
+                .map(|k| {
+                    let t = radius_term_from(
+                        &conf.radius_objects,
+                        &nodes_fine.at(k),
+                        fine[k],
+                        conf.radius_shared.as_ref(),
+                        start,
+                    );
+                    start = t.delta_hat;
+                    t
+                })
+                .collect::<Vec<_>>()
         })
+        .flatten()
         .collect();
     let per_object = conf
         .radius_objects
@@ -342,13 +358,30 @@ pub fn radius_total_fine(
         Some(j) => radius_totals_fine_leaving_out(s, objects, &[j], shared)
             .pop()
             .unwrap_or_default(),
-        None => s
-            .slice
-            .upsilon_fine
-            .par_iter()
-            .enumerate()
-            .map(|(k, &upsilon)| radius_total(objects, &s.radius_nodes_fine.at(k), upsilon, shared))
-            .collect(),
+        None => {
+            let fine = &s.slice.upsilon_fine;
+            // As in `radius_terms_on_fine_axis`: fixed blocks, warm starts within a block.
+            (0..fine.len().div_ceil(FINE_BLOCK))
+                .into_par_iter()
+                .map(|block| {
+                    let mut start = 0.0;
+                    (block * FINE_BLOCK..((block + 1) * FINE_BLOCK).min(fine.len()))
+                        .map(|k| {
+                            let (value, delta_hat) = radius_total_from(
+                                objects,
+                                &s.radius_nodes_fine.at(k),
+                                fine[k],
+                                shared,
+                                start,
+                            );
+                            start = delta_hat;
+                            value
+                        })
+                        .collect::<Vec<_>>()
+                })
+                .flatten()
+                .collect()
+        }
     }
 }
 

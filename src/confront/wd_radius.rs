@@ -24,7 +24,7 @@
 //! ```
 
 use super::mass_terms::{MassTermOptions, Systematics};
-use super::nuisance::{eliminate_smooth_value, SharedNuisance};
+use super::nuisance::{eliminate_newton_value, Local, SharedNuisance};
 use crate::catalogue::{CatalogueObject, CoreLabel, EnvelopeLabel, MassLimit, MassMethod};
 
 /// Which standard-gravity white-dwarf radius the radius test uses.
@@ -426,46 +426,95 @@ pub struct RadiusTerm {
 /// at every object's mass nodes, object after object (as [`ObjectRadius::ln_likelihood`] takes
 /// them one by one), `upsilon` the point's ϒ. With `shared`, every prediction is scaled by one
 /// common factor (1 + δ), δ ~ N(0, σ²), eliminated by
-/// [`super::nuisance::eliminate_smooth`]; without, the term is the plain sum over objects. The
+/// [`super::nuisance::eliminate_newton_value`] from δ = 0 with the term's exact first and
+/// second derivatives in the scale; without, the term is the plain sum over objects. The
 /// objects' mixture components are flattened once per point with their constants hoisted, so
-/// each of the elimination's ≈ 15 evaluations is one pass of one exp and one square root per
-/// component.
+/// each of the search's ≈ 5 evaluations is one pass of one exp and one square root per
+/// component (which serve the value and both derivatives), and the per-object values at δ̂
+/// are those of the search's last evaluation.
 pub fn radius_term(
     objects: &[ObjectRadius],
     cold_at_point: &[Option<f64>],
     upsilon: f64,
     shared: Option<&SharedNuisance>,
 ) -> RadiusTerm {
+    radius_term_from(objects, cold_at_point, upsilon, shared, 0.0)
+}
+
+/// [`radius_term`] with the shared scale's search started at `start` (a neighbouring point's
+/// δ̂, say): the same minimum to rounding, found in fewer steps when the start is close.
+/// Callers pass a start only where the order of the points is fixed (not by the thread
+/// that happens to run them), so that the outputs do not depend on the number of threads.
+pub fn radius_term_from(
+    objects: &[ObjectRadius],
+    cold_at_point: &[Option<f64>],
+    upsilon: f64,
+    shared: Option<&SharedNuisance>,
+    start: f64,
+) -> RadiusTerm {
     let mix = Mixtures::new(objects, cold_at_point, upsilon);
-    let (minus_two_ln_l, delta_hat) = mix.eliminate(None, shared, &|d| mix.total(None, 1.0 + d));
+    // (δ's bits, every object's term there) of the search's last evaluation.
+    let last: std::cell::RefCell<Option<(u64, Vec<Local>)>> = std::cell::RefCell::new(None);
+    let at = |d: f64| -> Local {
+        let locals = mix.locals(None, 1.0 + d);
+        let sum = Mixtures::sum(&locals, None);
+        *last.borrow_mut() = Some((d.to_bits(), locals));
+        sum
+    };
+    let (minus_two_ln_l, delta_hat) = mix.eliminate(None, shared, start, &at);
+    let per_object = match last.into_inner() {
+        Some((bits, locals)) if bits == delta_hat.to_bits() => {
+            locals.iter().map(|l| l.value).collect()
+        }
+        _ => (0..objects.len())
+            .map(|i| mix.minus_two_ln_l(i, 1.0 + delta_hat))
+            .collect(),
+    };
     RadiusTerm {
         minus_two_ln_l,
         delta_hat,
-        per_object: (0..objects.len())
-            .map(|i| mix.minus_two_ln_l(i, 1.0 + delta_hat))
-            .collect(),
+        per_object,
     }
 }
 
-/// [`radius_term`]'s `minus_two_ln_l` alone (bit for bit), without the pass over every object
-/// at δ̂ that only the per-object values need: what the grid's map takes.
+/// [`radius_term`]'s `minus_two_ln_l` alone (bit for bit), without keeping the per-object
+/// values that only [`radius_term`] returns: what the grid's map takes.
 pub fn radius_total(
     objects: &[ObjectRadius],
     cold_at_point: &[Option<f64>],
     upsilon: f64,
     shared: Option<&SharedNuisance>,
 ) -> f64 {
+    radius_total_from(objects, cold_at_point, upsilon, shared, 0.0).0
+}
+
+/// [`radius_total`] with the search started at `start` (see [`radius_term_from`]), and the
+/// δ̂ it found (0 without a shared scale), for the next point's start.
+pub fn radius_total_from(
+    objects: &[ObjectRadius],
+    cold_at_point: &[Option<f64>],
+    upsilon: f64,
+    shared: Option<&SharedNuisance>,
+    start: f64,
+) -> (f64, f64) {
     let mix = Mixtures::new(objects, cold_at_point, upsilon);
-    mix.eliminate(None, shared, &|d| mix.total(None, 1.0 + d)).0
+    mix.eliminate(None, shared, start, &|d| mix.local_total(None, 1.0 + d))
 }
 
 /// The whole radius term at one point without each object of `leave_out` in turn (positions
-/// in `objects`), the shared scale eliminated again each time: bit for bit what
-/// [`radius_total`] gives for the objects without that one (and its nodes), at the cost of one
-/// flattening for all of them. Every evaluation's per-object values are kept by scale, so the
-/// searches share the scales they have in common (each starts from the same probes around
-/// δ = 0) instead of recomputing them; a sum without one object adds the same values in the
-/// same order as the reduced set would.
+/// in `objects`), the shared scale eliminated again each time, at the cost of one flattening
+/// for all of them.
+///
+/// Without a shared scale this is [`radius_total`] of the objects without that one, to the bit.
+/// With one, the scale is first profiled for all objects (from δ = 0, as [`radius_total`]
+/// does), and each reduced set's search starts at that δ̂ — removing one object moves δ̂ by
+/// little, so one or two Newton steps find the reduced set's minimum, the first from the
+/// per-object values already in hand. Each evaluation sums the reduced set's own values (and
+/// derivatives) in object order, so at any scale it is the reduced set's sum to the bit; "the
+/// whole sum minus the object's value" is not (it rounds differently, and loses digits to
+/// cancellation when the object's term is large, e.g. floored). Because the search is
+/// converged to rounding level, the result agrees with [`radius_total`] of the reduced set to
+/// a few ulps, not to the bit (the two searches start from different points).
 pub fn radius_totals_leaving_out(
     objects: &[ObjectRadius],
     cold_at_point: &[Option<f64>],
@@ -474,33 +523,36 @@ pub fn radius_totals_leaving_out(
     leave_out: &[usize],
 ) -> Vec<f64> {
     let mix = Mixtures::new(objects, cold_at_point, upsilon);
-    // (δ's bits, every object's −2 ln L at 1 + δ).
-    let seen: std::cell::RefCell<Vec<(u64, Vec<f64>)>> = std::cell::RefCell::new(Vec::new());
+    let Some(n) = shared else {
+        return leave_out
+            .iter()
+            .map(|&skip| mix.total(Some(skip), 1.0))
+            .collect();
+    };
+    let last: std::cell::RefCell<Option<(u64, Vec<Local>)>> = std::cell::RefCell::new(None);
+    let at = |d: f64| -> Local {
+        let locals = mix.locals(None, 1.0 + d);
+        let sum = Mixtures::sum(&locals, None);
+        *last.borrow_mut() = Some((d.to_bits(), locals));
+        sum
+    };
+    let (_, delta_all) = mix.eliminate(None, Some(n), 0.0, &at);
+    // Every object's term at the whole set's δ̂, where each reduced search starts.
+    let at_start = match last.into_inner() {
+        Some((bits, locals)) if bits == delta_all.to_bits() => locals,
+        _ => mix.locals(None, 1.0 + delta_all),
+    };
     leave_out
         .iter()
         .map(|&skip| {
-            let f = |d: f64| -> f64 {
-                let key = d.to_bits();
-                let mut seen = seen.borrow_mut();
-                let at = match seen.iter().position(|(k, _)| *k == key) {
-                    Some(at) => at,
-                    None => {
-                        let values = (0..objects.len())
-                            .map(|i| mix.minus_two_ln_l(i, 1.0 + d))
-                            .collect();
-                        seen.push((key, values));
-                        seen.len() - 1
-                    }
-                };
-                seen[at]
-                    .1
-                    .iter()
-                    .enumerate()
-                    .filter(|&(i, _)| i != skip)
-                    .map(|(_, v)| *v)
-                    .sum()
+            let at = |d: f64| -> Local {
+                if d.to_bits() == delta_all.to_bits() {
+                    Mixtures::sum(&at_start, Some(skip))
+                } else {
+                    mix.local_total(Some(skip), 1.0 + d)
+                }
             };
-            mix.eliminate(Some(skip), shared, &f).0
+            mix.eliminate(Some(skip), Some(n), delta_all, &at).0
         })
         .collect()
 }
@@ -572,6 +624,127 @@ impl Mixtures {
         -2.0 * floored_ln(total)
     }
 
+    /// Object `i`'s −2 ln L at `scale` with its first and second derivatives in the scale: the
+    /// value is [`Mixtures::minus_two_ln_l`]'s to the bit (the same operations in the same
+    /// order), and each component's one exp serves all three.
+    ///
+    /// A component is t = c v^{−1/2} exp(−u²/(2v)) with u = R − r s, v = σ_R² + th² s²; with
+    /// φ = ln t, a = u/v and w = a² − 1/v:
+    /// φ′ = th² s w + r a and
+    /// φ″ + φ′² = (th² + r²) w + (th² s)² (w² − 2(w + a²)/v) + 2 r a th² s (w − 2/v)
+    /// (checked symbolically, and against finite differences in the tests); t′ = t φ′,
+    /// t″ = t (φ″ + φ′²). With L = Σ t: (−2 ln L)′ = −2 L′/L and
+    /// (−2 ln L)″ = −2 L″/L + 2 (L′/L)². A floored term is flat (both derivatives 0).
+    ///
+    /// The components go in blocks: the exponents first, then the exps alone, then the sums
+    /// (every floating-point register is caller-saved across a call to `exp`, so a loop that
+    /// kept its four sums and the derivative terms live across it spilled them to the stack at
+    /// every component — perf: the arithmetic then cost more than the exps).
+    fn local(&self, i: usize, scale: f64) -> Local {
+        const BLOCK: usize = 32;
+        let (a, b, big_r, e2) = self.objects[i];
+        let (mut total, mut d1, mut d2, mut mag) = (0.0, 0.0, 0.0, 0.0);
+        for block in self.components[a..b].chunks(BLOCK) {
+            let (mut inv, mut dev, mut ex) = ([0.0; BLOCK], [0.0; BLOCK], [0.0; BLOCK]);
+            for (((k, inv), dev), ex) in block.iter().zip(&mut inv).zip(&mut dev).zip(&mut ex) {
+                *inv = 1.0 / (e2 + k.th2 * scale * scale);
+                *dev = big_r - k.r * scale;
+                *ex = -0.5 * *dev * *dev * *inv;
+            }
+            for ex in &mut ex[..block.len()] {
+                *ex = ex.exp();
+            }
+            for (((k, &inv), &dev), &ex) in block.iter().zip(&inv).zip(&dev).zip(&ex) {
+                let t = k.c * ex * inv.sqrt();
+                total += t;
+                let th2s = k.th2 * scale;
+                let av = dev * inv;
+                let w = av * av - inv;
+                let p1 = th2s * w + k.r * av;
+                let p2 = (k.th2 + k.r * k.r) * w
+                    + th2s * th2s * (w * w - 2.0 * inv * (w + av * av))
+                    + 2.0 * k.r * av * th2s * (w - 2.0 * inv);
+                d1 += t * p1;
+                d2 += t * p2;
+                mag += (t * p1).abs();
+            }
+        }
+        let value = -2.0 * floored_ln(total);
+        if total > 0.0 && total.ln() > LN_L_RADIUS_FLOOR {
+            let (l1, l2) = (d1 / total, d2 / total);
+            Local {
+                value,
+                slope: -2.0 * l1,
+                curvature: -2.0 * l2 + 2.0 * l1 * l1,
+                slope_magnitude: 2.0 * mag / total,
+            }
+        } else {
+            Local {
+                value,
+                slope: 0.0,
+                curvature: 0.0,
+                slope_magnitude: 0.0,
+            }
+        }
+    }
+
+    /// Every object's [`Mixtures::local`] at `scale`, in object order (`skip`'s left at 0).
+    fn locals(&self, skip: Option<usize>, scale: f64) -> Vec<Local> {
+        (0..self.objects.len())
+            .map(|i| {
+                if Some(i) == skip {
+                    Local {
+                        value: 0.0,
+                        slope: 0.0,
+                        curvature: 0.0,
+                        slope_magnitude: 0.0,
+                    }
+                } else {
+                    self.local(i, scale)
+                }
+            })
+            .collect()
+    }
+
+    /// The sums over objects (in object order, without `skip`) of per-object terms: the value
+    /// is added up as [`Mixtures::total`] adds it, so it is the same to the bit.
+    fn sum(locals: &[Local], skip: Option<usize>) -> Local {
+        let kept = || {
+            locals
+                .iter()
+                .enumerate()
+                .filter(move |&(i, _)| Some(i) != skip)
+                .map(|(_, l)| l)
+        };
+        Local {
+            value: kept().map(|l| l.value).sum(),
+            slope: kept().map(|l| l.slope).sum(),
+            curvature: kept().map(|l| l.curvature).sum(),
+            slope_magnitude: kept().map(|l| l.slope_magnitude).sum(),
+        }
+    }
+
+    /// [`Mixtures::sum`] of the objects without `skip` at `scale`, without keeping the
+    /// per-object terms.
+    fn local_total(&self, skip: Option<usize>, scale: f64) -> Local {
+        let mut out = Local {
+            value: 0.0,
+            slope: 0.0,
+            curvature: 0.0,
+            slope_magnitude: 0.0,
+        };
+        let mut values = Vec::with_capacity(self.objects.len());
+        for i in (0..self.objects.len()).filter(|&i| Some(i) != skip) {
+            let l = self.local(i, scale);
+            values.push(l.value);
+            out.slope += l.slope;
+            out.curvature += l.curvature;
+            out.slope_magnitude += l.slope_magnitude;
+        }
+        out.value = values.into_iter().sum();
+        out
+    }
+
     /// Σ_i −2 ln L_i at `scale`, in object order, without object `skip`.
     fn total(&self, skip: Option<usize>, scale: f64) -> f64 {
         (0..self.objects.len())
@@ -580,24 +753,38 @@ impl Mixtures {
             .sum()
     }
 
-    /// (−2 ln L, δ̂) of the objects without `skip`: `f(δ)` is their Σ −2 ln L_i at 1 + δ, the
-    /// shared scale eliminated when there is one (δ ≤ −1 is no radius at all), else f(0).
+    /// (−2 ln L, δ̂) of the objects without `skip`: `at(δ)` is their Σ −2 ln L_i at 1 + δ with
+    /// its derivatives in δ, the shared scale eliminated when there is one (by
+    /// [`eliminate_newton_value`] from `start`; δ ≤ −1 is no radius at all), else the plain
+    /// sum at scale 1.
     fn eliminate(
         &self,
         skip: Option<usize>,
         shared: Option<&SharedNuisance>,
-        f: &dyn Fn(f64) -> f64,
+        start: f64,
+        at: &dyn Fn(f64) -> Local,
     ) -> (f64, f64) {
         match shared {
             None => (self.total(skip, 1.0), 0.0),
             Some(n) => {
-                let g = |d: f64| -> f64 {
+                let local = |d: f64| -> Local {
+                    if d <= -1.0 {
+                        return Local {
+                            value: f64::INFINITY,
+                            slope: f64::NAN,
+                            curvature: f64::NAN,
+                            slope_magnitude: 0.0,
+                        };
+                    }
+                    at(d)
+                };
+                let value = |d: f64| -> f64 {
                     if d <= -1.0 {
                         return f64::INFINITY;
                     }
-                    f(d)
+                    self.total(skip, 1.0 + d)
                 };
-                eliminate_smooth_value(&g, n)
+                eliminate_newton_value(&local, &value, n, start)
             }
         }
     }
@@ -837,10 +1024,12 @@ mod tests {
     }
 
     /// The whole term without one object, computed for several objects at once, is the term of
-    /// the objects without it to the bit (definition: [`radius_total`] of the reduced set), and
-    /// [`radius_total`] is [`radius_term`]'s value to the bit.
+    /// the objects without it (definition: [`radius_total`] of the reduced set): to the bit
+    /// without a shared scale; with one, to rounding (the searches start from different δ, both
+    /// converge to rounding level), and at any one scale the reduced sum is the reduced set's
+    /// sum to the bit. [`radius_total`] is [`radius_term`]'s value to the bit.
     #[test]
-    fn leaving_out_matches_the_reduced_set_to_the_bit() {
+    fn leaving_out_matches_the_reduced_set() {
         let (objects, cold) = mixture_objects();
         let n = SharedNuisance {
             sigma: 0.025,
@@ -855,6 +1044,7 @@ mod tests {
             );
             let leave: Vec<usize> = vec![3, 0, 6, 5];
             let got = radius_totals_leaving_out(&objects, &cold, 0.1, shared, &leave);
+            let mix = Mixtures::new(&objects, &cold, 0.1);
             for (&j, got) in leave.iter().zip(&got) {
                 let mut at = 0;
                 let (mut kept, mut kept_cold) = (Vec::new(), Vec::new());
@@ -866,12 +1056,111 @@ mod tests {
                     at += o.nodes.len();
                 }
                 let want = radius_total(&kept, &kept_cold, 0.1, shared);
+                if shared.is_none() {
+                    assert_eq!(got.to_bits(), want.to_bits(), "without {j}");
+                } else {
+                    assert!(
+                        (got - want).abs() <= 1e-14 * want.abs(),
+                        "without {j}: {got} vs {want}"
+                    );
+                }
+                let reduced = Mixtures::new(&kept, &kept_cold, 0.1);
+                for scale in [0.97, 1.0, 1.013_7] {
+                    let sum = Mixtures::sum(&mix.locals(None, scale), Some(j));
+                    assert_eq!(sum.value.to_bits(), reduced.total(None, scale).to_bits());
+                    let direct = mix.local_total(Some(j), scale);
+                    assert_eq!(sum.value.to_bits(), direct.value.to_bits());
+                    assert_eq!(sum.slope.to_bits(), direct.slope.to_bits());
+                }
+            }
+        }
+    }
+
+    /// Each object's analytic slope and curvature in the scale against central differences of
+    /// its value (Richardson-extrapolated from steps 2e-4 and 1e-4 of the scale; the
+    /// tolerances are the differences' own truncation and rounding), and the value against
+    /// [`Mixtures::minus_two_ln_l`] to the bit, over several scales, the node without a model
+    /// and the floored object (flat: both derivatives 0).
+    #[test]
+    fn analytic_derivatives_match_finite_differences() {
+        let (objects, cold) = mixture_objects();
+        let mix = Mixtures::new(&objects, &cold, 0.1);
+        for i in 0..objects.len() {
+            for scale in [0.9, 0.98, 1.0, 1.02, 1.1] {
+                let l = mix.local(i, scale);
                 assert_eq!(
-                    got.to_bits(),
-                    want.to_bits(),
-                    "without {j}: {got} vs {want}"
+                    l.value.to_bits(),
+                    mix.minus_two_ln_l(i, scale).to_bits(),
+                    "object {i} at {scale}"
+                );
+                if i == 5 {
+                    assert_eq!((l.slope, l.curvature), (0.0, 0.0));
+                    continue;
+                }
+                let f = |s: f64| mix.minus_two_ln_l(i, s);
+                // Central differences at h and h/2, combined by Richardson extrapolation
+                // ((4 D(h/2) − D(h))/3: the h² error cancels).
+                let d1 = |h: f64| (f(scale + h) - f(scale - h)) / (2.0 * h);
+                let d2 = |h: f64| (f(scale + h) - 2.0 * f(scale) + f(scale - h)) / (h * h);
+                let h = 2e-4;
+                let slope = (4.0 * d1(h / 2.0) - d1(h)) / 3.0;
+                let curv = (4.0 * d2(h / 2.0) - d2(h)) / 3.0;
+                assert!(
+                    (l.slope - slope).abs() <= 1e-7 * (1.0 + l.slope.abs()),
+                    "object {i} at {scale}: slope {} vs {slope}",
+                    l.slope
+                );
+                assert!(
+                    (l.curvature - curv).abs() <= 1e-5 * (1.0 + l.curvature.abs()),
+                    "object {i} at {scale}: curvature {} vs {curv}",
+                    l.curvature
                 );
             }
         }
+        // The sum over objects is `total`'s to the bit.
+        let sum = Mixtures::sum(&mix.locals(None, 1.01), None);
+        assert_eq!(sum.value.to_bits(), mix.total(None, 1.01).to_bits());
+    }
+
+    /// The analytic search converges where the scan and a tight bisection of the slope say the
+    /// minimum is, and from any start to the same value (to rounding): the result does not
+    /// depend on the search's path.
+    #[test]
+    fn analytic_search_is_path_independent() {
+        let (objects, cold) = mixture_objects();
+        let mix = Mixtures::new(&objects, &cold, 0.1);
+        let n = SharedNuisance {
+            sigma: 0.025,
+            method: crate::confront::nuisance::NuisanceMethod::Profile,
+            reach_sigma: 8.0,
+        };
+        let at = |d: f64| mix.local_total(None, 1.0 + d);
+        let (v0, d0) = mix.eliminate(None, Some(&n), 0.0, &at);
+        for start in [-0.1, -0.03, 0.01, 0.05, 0.19] {
+            let (v, d) = mix.eliminate(None, Some(&n), start, &at);
+            assert!(
+                (v - v0).abs() <= 4.0 * f64::EPSILON * v0.abs(),
+                "{v} vs {v0}"
+            );
+            assert!((d - d0).abs() <= 1e-9 * n.sigma, "{d} vs {d0}");
+        }
+        // Bisection of g′ = f′ + 2δ/σ² (a reference that uses only the slope's sign).
+        let slope = |d: f64| at(d).slope + 2.0 * d / (n.sigma * n.sigma);
+        let (mut lo, mut hi) = (-0.2, 0.2);
+        assert!(slope(lo) < 0.0 && slope(hi) > 0.0);
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if mid == lo || mid == hi {
+                break;
+            }
+            if slope(mid) < 0.0 {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        assert!((d0 - lo).abs() <= 1e-12, "{d0} vs bisection {lo}");
+        let scan = crate::confront::nuisance::eliminate(&|d| mix.total(None, 1.0 + d), &n);
+        assert!((scan.minus_two_ln_l - v0).abs() < 1e-7);
     }
 }
