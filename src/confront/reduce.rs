@@ -117,6 +117,19 @@ fn padded_range(
     Ok((lo - pad, hi + pad))
 }
 
+/// The floor checked and the range checked and not empty: what every reduction of a class
+/// over a range first needs.
+fn usable_range(floor_msun: f64, range_msun: (f64, f64)) -> Result<(f64, f64), StatsError> {
+    validate_floor(floor_msun)?;
+    let (b_lo, b_hi) = check_range(range_msun)?;
+    if b_hi <= b_lo {
+        return Err(StatsError::InvalidInput(format!(
+            "tabulation range [{b_lo}, {b_hi}] M☉ is empty"
+        )));
+    }
+    Ok((b_lo, b_hi))
+}
+
 /// A class's objects sorted as [`ClassCurve::build`] sorts them, without tabulating the curve:
 /// what the counts and the Šidák test's N_inf need (`docs/bounds.md` §8.4) where the likelihood
 /// itself is another term's (`mass_terms::BoundTerm`). One ln P per object, where the curve
@@ -138,14 +151,7 @@ impl ClassCounts {
         bound_range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
-        validate_floor(floor_msun)?;
-        let range = padded_range(bound_range_msun, opts)?;
-        if range.1 <= range.0 {
-            return Err(StatsError::InvalidInput(format!(
-                "tabulation range [{}, {}] M☉ is empty",
-                range.0, range.1
-            )));
-        }
+        let range = usable_range(floor_msun, padded_range(bound_range_msun, opts)?)?;
         let mut counts = Self {
             informative_indices: Vec::new(),
             n_skipped: 0,
@@ -230,13 +236,7 @@ impl ClassCurve {
         range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
-        validate_floor(floor_msun)?;
-        let (b_lo, b_hi) = check_range(range_msun)?;
-        if b_hi <= b_lo {
-            return Err(StatsError::InvalidInput(format!(
-                "tabulation range [{b_lo}, {b_hi}] M☉ is empty"
-            )));
-        }
+        let (b_lo, b_hi) = usable_range(floor_msun, range_msun)?;
         if opts.n_nodes < 4 {
             return Err(StatsError::InvalidInput(format!(
                 "at least 4 tabulation nodes are needed, got {}",
@@ -501,14 +501,7 @@ impl SharedFloorCurve {
                     .into(),
             ));
         }
-        let (lo, hi) = check_range(bound_range_msun)?;
-        let width = hi - lo;
-        let pad = if width > 0.0 {
-            opts.pad_fraction * width
-        } else {
-            opts.pad_fraction * lo.abs().max(1e-3)
-        };
-        let (b_lo, b_hi) = (lo - pad, hi + pad);
+        let (b_lo, b_hi) = padded_range(bound_range_msun, opts)?;
         let reach = shared.eps_max * floor_msun;
         let inner_opts = ReduceOptions {
             n_nodes: shared.inner_nodes,
