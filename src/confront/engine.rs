@@ -13,7 +13,7 @@
 //! synthetic bounds and knows nothing of how the bounds were solved.
 //!
 //! ```
-//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
 //! use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
 //! use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
 //! struct Flat;
@@ -26,11 +26,11 @@
 //!     fn wd_standard_radii(&self, q: &[WdQuery]) -> Vec<Option<WdStandard>> { vec![None; q.len()] }
 //! }
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
-//!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
-//!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, rotation_period_err_h: None, mu_e: None, teff_k: None,
-//!     teff_err_k: None, core: None,
-//!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
+//!     mass_err_lo_msun: OptF64::some(0.002), mass_err_hi_msun: OptF64::some(0.002), mass_limit: MassLimit::None,
+//!     radius_rsun: OptF64::NONE, radius_err_rsun: OptF64::NONE, age_gyr: OptF64::some(5.0), age_err_gyr: OptF64::NONE,
+//!     rotation_period_h: OptF64::NONE, rotation_period_err_h: OptF64::NONE, mu_e: OptF64::NONE, teff_k: OptF64::NONE,
+//!     teff_err_k: OptF64::NONE, core: None,
+//!     envelope: None, radius_model_rsun: OptF64::NONE, mass_method: Default::default(),
 //!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! let c = confront(&[star], &Flat, &EngineOptions::default()).unwrap();
 //! assert_eq!(c.joint.len(), 3);
@@ -435,15 +435,19 @@ pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
         ObjectClass::HBurning => Side::AtLeast,
         ObjectClass::BrownDwarf | ObjectClass::WhiteDwarf => Side::AtMost,
     };
-    let sigma = match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+    let sigma = match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
         (Some(a), Some(b)) => Some(a.max(b)),
         (Some(a), None) | (None, Some(a)) => Some(a),
         (None, None) => None,
     };
     let kind = match o.mass_limit {
         MassLimit::None => MassKind::Measured {
-            lo: o.mass_err_lo_msun.unwrap_or(0.0),
-            hi: o.mass_err_hi_msun.or(o.mass_err_lo_msun).unwrap_or(0.0),
+            lo: o.mass_err_lo_msun.get().unwrap_or(0.0),
+            hi: o
+                .mass_err_hi_msun
+                .get()
+                .or(o.mass_err_lo_msun.get())
+                .unwrap_or(0.0),
         },
         MassLimit::Upper => MassKind::UpperLimit { sigma },
         MassLimit::Lower => MassKind::LowerLimit { sigma },
@@ -474,7 +478,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
 pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
     {
         {
-            let mu_e = o.mu_e.unwrap_or(opts.default_mu_e);
+            let mu_e = o.mu_e.get().unwrap_or(opts.default_mu_e);
             let measurement = measurement_of(o, mu_e);
             let mut flags = Flags::default();
             let mut excluded = None;
@@ -484,7 +488,7 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                 ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
             };
             if term != Term::WhiteDwarfMass {
-                match o.age_gyr {
+                match o.age_gyr.get() {
                     Some(age) if age < opts.age_min_mmhb_gyr => {
                         flags.raise("young");
                         if !opts.include_young {
@@ -815,7 +819,7 @@ pub fn prepare_radius_objects(
     let mut queries: Vec<WdQuery> = Vec::new();
     for u in uses.iter().filter(|u| u.radius_term) {
         let o = &objects[u.index];
-        let (Some(r), Some(e)) = (o.radius_rsun, o.radius_err_rsun) else {
+        let (Some(r), Some(e)) = (o.radius_rsun.get(), o.radius_err_rsun.get()) else {
             continue;
         };
         let core = u
@@ -827,14 +831,14 @@ pub fn prepare_radius_objects(
         let shared =
             wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms).map_or(0.0, |n| n.sigma);
         let (floor_fraction, shared_fraction) = wd_radius::split_floor(
-            wd_radius::floor_fraction(&opts.radius, core, o.teff_k),
+            wd_radius::floor_fraction(&opts.radius, core, o.teff_k.get()),
             shared,
         );
         for &(m, _) in &nodes {
             queries.push(WdQuery {
                 mass_msun: m,
                 mu_e: u.mu_e,
-                teff_k: o.teff_k,
+                teff_k: o.teff_k.get(),
                 core,
                 envelope: o.envelope,
             });
@@ -847,9 +851,9 @@ pub fn prepare_radius_objects(
             standard: Vec::new(),
             floor_fraction,
             shared_fraction,
-            teff_err_k: o.teff_err_k.unwrap_or(0.0),
+            teff_err_k: o.teff_err_k.get().unwrap_or(0.0),
             at_nominal: None,
-            mass_sigma_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+            mass_sigma_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
                 (Some(a), Some(b)) => 0.5 * (a + b),
                 (Some(a), None) | (None, Some(a)) => a,
                 (None, None) => 0.0,
@@ -869,7 +873,7 @@ pub fn prepare_radius_objects(
             nominal_queries.push(WdQuery {
                 mass_msun: m,
                 mu_e: u.mu_e,
-                teff_k: o.teff_k,
+                teff_k: o.teff_k.get(),
                 core,
                 envelope: o.envelope,
             });
@@ -898,7 +902,7 @@ pub fn prepare_radius_objects(
             }
             _ => None,
         };
-        if let Some(model_rsun) = o.radius_model_rsun {
+        if let Some(model_rsun) = o.radius_model_rsun.get() {
             // The user's model radius anchors the standard radius at the nominal mass; the
             // tool's model only carries its mass dependence to the other nodes.
             let scale = at_nominal
@@ -936,8 +940,12 @@ const RADIUS_QUADRATURE_NODES: usize = 41;
 /// an object is marginalised: composite Simpson over [m − 6σ₋, m + 6σ₊] of the split-normal
 /// density (normalisation 2/(√(2π)(σ₋+σ₊))); a single node of weight 1 for an exact mass.
 pub fn radius_mass_nodes(o: &CatalogueObject) -> Vec<(f64, f64)> {
-    let lo = o.mass_err_lo_msun.unwrap_or(0.0);
-    let hi = o.mass_err_hi_msun.or(o.mass_err_lo_msun).unwrap_or(0.0);
+    let lo = o.mass_err_lo_msun.get().unwrap_or(0.0);
+    let hi = o
+        .mass_err_hi_msun
+        .get()
+        .or(o.mass_err_lo_msun.get())
+        .unwrap_or(0.0);
     let m0 = o.mass_msun;
     if lo <= 0.0 && hi <= 0.0 {
         return vec![(m0, 1.0)];

@@ -242,17 +242,17 @@ impl OutputContext<'_> {
         let o = self.object(k);
         let u = &self.conf.uses[k];
         let mut row = vec![
-            Cell::Text(o.id.clone()),
+            Cell::Text(o.id.to_string()),
             Cell::Text(o.class.label().into()),
             Cell::Text(o.source_file.to_string()),
             Cell::Int(o.source_row as i64),
             Cell::Float(Some(o.mass_msun)),
-            Cell::Float(o.mass_err_lo_msun),
-            Cell::Float(o.mass_err_hi_msun),
+            Cell::Float(o.mass_err_lo_msun.get()),
+            Cell::Float(o.mass_err_hi_msun.get()),
             Cell::Text(o.mass_limit.label().into()),
-            Cell::Float(o.radius_rsun),
-            Cell::Float(o.radius_err_rsun),
-            Cell::Float(o.age_gyr),
+            Cell::Float(o.radius_rsun.get()),
+            Cell::Float(o.radius_err_rsun.get()),
+            Cell::Float(o.age_gyr.get()),
             Cell::Float(Some(u.mu_e)),
             Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
             Cell::Text(u.flags.join(";")),
@@ -282,8 +282,8 @@ impl OutputContext<'_> {
             _ => (None, None),
         };
         row.extend([
-            Cell::Float(o.rotation_period_h),
-            Cell::Float(o.rotation_period_err_h),
+            Cell::Float(o.rotation_period_h.get()),
+            Cell::Float(o.rotation_period_err_h.get()),
             Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
             Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
             Cell::Float(sv.and_then(|v| v.sigma_standard)),

@@ -184,7 +184,7 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
     for u in &ctx.conf.uses {
         let k = u.index;
         let o = ctx.vetted.objects.get(k)?;
-        let Some(radius_rsun) = o.radius_rsun.filter(|r| *r > 0.0) else {
+        let Some(radius_rsun) = o.radius_rsun.get().filter(|r| *r > 0.0) else {
             continue;
         };
         if o.class.label() != "white_dwarf" || o.mass_msun <= 0.0 {
@@ -203,15 +203,15 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
             WdPointFlag::OutsideModel
         };
         points.push(WdPoint {
-            id: o.id.clone(),
+            id: o.id.to_string(),
             mass_msun: o.mass_msun,
-            mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+            mass_err_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
                 (Some(a), Some(b)) => Some((a, b)),
                 _ => None,
             },
             radius_rsun,
-            radius_err_rsun: o.radius_err_rsun,
-            teff_k: o.teff_k,
+            radius_err_rsun: o.radius_err_rsun.get(),
+            teff_k: o.teff_k.get(),
             sigma: ctx
                 .verdicts
                 .get(k)
@@ -337,9 +337,9 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
                 MassMark::LeftOut
             };
             objects.push(MassObject {
-                id: o.id.clone(),
+                id: o.id.to_string(),
                 mass_msun: o.mass_msun,
-                mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+                mass_err_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
                     (Some(a), Some(b)) => Some((a, b)),
                     _ => None,
                 },

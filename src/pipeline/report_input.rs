@@ -23,7 +23,7 @@ const RELATIVISTIC_BOUND_UPSILON: f64 = -4.0 / 9.0;
 
 fn mass_text(ctx: &OutputContext<'_>, k: usize) -> String {
     let o = &ctx.vetted.objects[k];
-    let err = match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+    let err = match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
         (Some(a), Some(b)) if a == b => format!(" ± {a:.4}"),
         (Some(a), Some(b)) => format!(" −{a:.4}/+{b:.4}"),
         _ => String::new(),
@@ -416,7 +416,7 @@ pub(crate) fn write_report_files(
         .objects
         .iter()
         .filter(|o| o.class.label() == "white_dwarf" && o.mass_msun > 1.253)
-        .map(|o| o.id.clone())
+        .map(|o| o.id.to_string())
         .collect();
     if !pn_ids.is_empty() {
         warnings.push(Warning::PostNewtonianWhiteDwarf {
@@ -707,7 +707,7 @@ pub(crate) fn write_report_files(
                     let o = &ctx.vetted.objects[key.object];
                     WorstObject {
                         id: match key.test {
-                            TensionTest::MassBound => o.id.clone(),
+                            TensionTest::MassBound => o.id.to_string(),
                             TensionTest::MassRadius => format!("{} (radius)", o.id),
                             TensionTest::Spin => format!("{} (spin)", o.id),
                         },
@@ -738,13 +738,13 @@ pub(crate) fn write_report_files(
                             format!(
                                 "{}; R = {:.5} ± {:.5} R☉",
                                 mass_text(ctx, k),
-                                o.radius_rsun.unwrap_or(0.0),
-                                o.radius_err_rsun.unwrap_or(0.0)
+                                o.radius_rsun.get().unwrap_or(0.0),
+                                o.radius_err_rsun.get().unwrap_or(0.0)
                             ),
                         ),
                     };
                     TensionRow {
-                        id: o.id.clone(),
+                        id: o.id.to_string(),
                         class,
                         mass_text: text,
                         sigma_standard_gravity: t.sigma,
@@ -763,7 +763,7 @@ pub(crate) fn write_report_files(
             .into_iter()
             .map(|(rank, k, shift)| DriverRow {
                 rank,
-                id: ctx.vetted.objects[k].id.clone(),
+                id: ctx.vetted.objects[k].id.to_string(),
                 class: ctx.vetted.objects[k].class.label().into(),
                 shift: if shift.is_finite() {
                     Shift::Finite(shift)
