@@ -196,10 +196,11 @@ pub struct ObjectUse {
     pub measurement: Measurement,
     /// Whether it feeds the mass–radius term.
     pub radius_term: bool,
-    /// Why it is left out of its mass test, if it is (`young`, `age_unknown`, `model mass`).
-    pub excluded: Option<String>,
+    /// Why it is left out of its mass test, if it is ([`LeftOut::Young`],
+    /// [`LeftOut::AgeUnknown`] or [`LeftOut::ModelMass`]).
+    pub excluded: Option<LeftOut>,
     /// Why a white dwarf with a radius is left out of the radius test, if it is.
-    pub radius_excluded: Option<String>,
+    pub radius_excluded: Option<LeftOut>,
     /// Flags for `objects.csv` (`young`, `age_unknown`, `limit_uninformative`, `model_mass`,
     /// `mass_method_unknown`, `no_teff`, `elm`, `no_hot_model`, `radius_anchored`).
     pub flags: Flags,
@@ -207,6 +208,55 @@ pub struct ObjectUse {
     pub core: Option<ResolvedCore>,
     /// μe used for a white dwarf.
     pub mu_e: f64,
+}
+
+/// Why an object is left out of a test. A code rather than a sentence: every object has an
+/// [`ObjectUse`], and two `Option<String>`s were 48 of its bytes in each of a million uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum LeftOut {
+    /// Younger than [`EngineOptions::age_min_mmhb_gyr`] (the MMHB test; `docs/bounds.md` §5).
+    Young,
+    /// No age, and [`EngineOptions::exclude_age_unknown`] asks to leave such objects out.
+    AgeUnknown,
+    /// Mass from a standard-gravity model: circular for a test of that model.
+    ModelMass,
+    /// A white dwarf without Teff in the finite-temperature radius test.
+    NoTeff,
+    /// An extremely-low-mass white dwarf, below [`RadiusOptions::elm_max_msun`].
+    Elm,
+    /// No finite-temperature model at the white dwarf's mass, Teff and core.
+    OutsideModel,
+}
+
+impl LeftOut {
+    /// The `objects.csv` flag that goes with it.
+    pub fn flag(self) -> &'static str {
+        match self {
+            LeftOut::Young => "young",
+            LeftOut::AgeUnknown => "age_unknown",
+            LeftOut::ModelMass => "model_mass",
+            LeftOut::NoTeff => "no_teff",
+            LeftOut::Elm => "elm",
+            LeftOut::OutsideModel => "outside_model",
+        }
+    }
+
+    /// The reason in words.
+    pub fn reason(self) -> &'static str {
+        match self {
+            LeftOut::Young => "young: below the minimum age of the MMHB test",
+            LeftOut::AgeUnknown => "age unknown",
+            LeftOut::ModelMass => "mass from a standard-gravity model (circular for this test)",
+            LeftOut::NoTeff => {
+                "no Teff: the finite-temperature correction (3–30 %) exceeds the floor"
+            }
+            LeftOut::Elm => "extremely low mass: outside the model's domain",
+            LeftOut::OutsideModel => {
+                "no finite-temperature model at its mass, Teff and core (outside the model's \
+                 table or no hydrostatic solution)"
+            }
+        }
+    }
 }
 
 /// The flag names objects carry, each stored in a [`Flags`] as its index here.
@@ -235,14 +285,20 @@ const INLINE_FLAGS: usize = 14;
 /// The flags of one object, in the order they were raised. Every object has some (a catalogue
 /// without ages flags them all `age_unknown`), so a list of strings per object was a third of
 /// the memory of a large confrontation; the known names are kept as one-byte indices inline,
-/// and a list spills to strings only for a name outside [`KNOWN_FLAGS`].
+/// and a list spills to strings only for a name outside [`KNOWN_FLAGS`] (boxed, so that the
+/// rare spilled list does not make every object's flags 24 bytes instead of 16).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Flags(FlagStore);
 
 #[derive(Debug, Clone, PartialEq)]
 enum FlagStore {
-    Inline { codes: [u8; INLINE_FLAGS], len: u8 },
-    Spilled(Vec<String>),
+    Inline {
+        codes: [u8; INLINE_FLAGS],
+        len: u8,
+    },
+    // A thin pointer, deliberately: a `Vec` or boxed slice here makes every `Flags` 24 bytes.
+    #[allow(clippy::box_collection)]
+    Spilled(Box<Vec<String>>),
 }
 
 impl Default for Flags {
@@ -273,7 +329,7 @@ impl Flags {
                 .iter()
                 .map(|&c| KNOWN_FLAGS[usize::from(c)].to_string())
                 .collect();
-            self.0 = FlagStore::Spilled(spilled);
+            self.0 = FlagStore::Spilled(Box::new(spilled));
         }
         if let FlagStore::Spilled(v) = &mut self.0 {
             v.push(flag.to_string());
@@ -492,17 +548,14 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                     Some(age) if age < opts.age_min_mmhb_gyr => {
                         flags.raise("young");
                         if !opts.include_young {
-                            excluded = Some(format!(
-                                "young (age {age} Gyr < {} Gyr)",
-                                opts.age_min_mmhb_gyr
-                            ));
+                            excluded = Some(LeftOut::Young);
                         }
                     }
                     Some(_) => {}
                     None => {
                         flags.raise("age_unknown");
                         if opts.exclude_age_unknown {
-                            excluded = Some("age unknown".to_string());
+                            excluded = Some(LeftOut::AgeUnknown);
                         }
                     }
                 }
@@ -514,10 +567,7 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                 MassMethod::Model => {
                     flags.raise("model_mass");
                     if !opts.radius.include_model_masses && excluded.is_none() {
-                        excluded = Some(
-                            "mass from a standard-gravity model (circular for this test)"
-                                .to_string(),
-                        );
+                        excluded = Some(LeftOut::ModelMass);
                     }
                 }
                 MassMethod::Unknown => flags.raise("mass_method_unknown"),
@@ -527,9 +577,9 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
             let mut radius_excluded = None;
             let mut radius_term = is_wd && wd_radius::has_radius_measurement(o);
             if radius_term {
-                if let Some((flag, why)) = wd_radius::radius_domain(o, &opts.radius) {
-                    if flag != "model_mass" {
-                        flags.raise(flag);
+                if let Some(why) = wd_radius::radius_domain(o, &opts.radius) {
+                    if why != LeftOut::ModelMass {
+                        flags.raise(why.flag());
                     }
                     radius_excluded = Some(why);
                     radius_term = false;
@@ -715,12 +765,8 @@ pub fn confront(
             }
             let u = &mut uses[r.index];
             u.radius_term = false;
-            u.flags.raise("outside_model");
-            u.radius_excluded = Some(
-                "no finite-temperature model at its mass, Teff and core (outside the model's table \
-                 or no hydrostatic solution)"
-                    .to_string(),
-            );
+            u.flags.raise(LeftOut::OutsideModel.flag());
+            u.radius_excluded = Some(LeftOut::OutsideModel);
             false
         });
     }
@@ -1052,7 +1098,15 @@ fn safe_side_tension(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions)
 
 #[cfg(test)]
 mod tests {
-    use super::Flags;
+    use super::{Flags, ObjectUse};
+
+    #[test]
+    fn a_use_stays_compact() {
+        // One use per object is held until the outputs are written (a million of them in a
+        // large run): 144 bytes before the reasons became codes and the spilled flags a box.
+        assert_eq!(std::mem::size_of::<ObjectUse>(), 88);
+        assert_eq!(std::mem::size_of::<Flags>(), 16);
+    }
 
     #[test]
     fn flags_keep_their_order_inline_and_spilled() {

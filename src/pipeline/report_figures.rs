@@ -12,7 +12,7 @@
 
 use super::outputs::OutputContext;
 use crate::catalogue::ObjectClass;
-use crate::confront::engine::Term;
+use crate::confront::engine::{LeftOut, Term};
 use crate::confront::regions::Level;
 use crate::confront::wd_radius::WdRadiusModel;
 use crate::report::{
@@ -325,11 +325,7 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
             let has = |f: &str| u.flags.iter().any(|g| g == f);
             let mark = if u.mass_term.is_some() {
                 MassMark::InFit
-            } else if u
-                .excluded
-                .as_deref()
-                .is_some_and(|e| e.starts_with("young"))
-            {
+            } else if u.excluded == Some(LeftOut::Young) {
                 MassMark::Young
             } else if has("model_mass") {
                 MassMark::ModelMass

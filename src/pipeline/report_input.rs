@@ -5,7 +5,7 @@ use std::path::Path;
 
 use super::error::PipelineError;
 use super::outputs::OutputContext;
-use crate::confront::engine::{BoundSurface, Term};
+use crate::confront::engine::{BoundSurface, LeftOut, Term};
 use crate::confront::regions::Level;
 use crate::confront::tension::{TensionTest, TestKey};
 use crate::report::text::fmt_sig;
@@ -437,14 +437,15 @@ pub(crate) fn write_report_files(
     if let Some(n) = &ctx.cache_note {
         warnings.push(Warning::Other(n.clone()));
     }
-    let left_out: Vec<&str> = ctx
-        .conf
-        .uses
-        .iter()
-        .filter_map(|u| u.excluded.as_deref())
-        .collect();
-    let n_young = left_out.iter().filter(|e| e.starts_with("young")).count();
-    let n_no_age = left_out.iter().filter(|e| e.starts_with("age")).count();
+    let left_out = |why: LeftOut| {
+        ctx.conf
+            .uses
+            .iter()
+            .filter(|u| u.excluded == Some(why))
+            .count()
+    };
+    let n_young = left_out(LeftOut::Young);
+    let n_no_age = left_out(LeftOut::AgeUnknown);
     let count_flag = |flag: &str| {
         ctx.conf
             .uses
