@@ -36,6 +36,8 @@
 //! assert_eq!(c.joint.len(), 3);
 //! ```
 
+use std::sync::Arc;
+
 use rayon::prelude::*;
 
 use super::mass_terms::{BoundTerm, MassTermOptions};
@@ -629,21 +631,32 @@ pub fn confront(
     let mmhb: Vec<Option<f64>> = (0..n).map(|i| surface.mmhb_msun(i)).collect();
     let chandra: Vec<Option<f64>> = (0..n).map(|i| surface.chandrasekhar_mu2_msun(i)).collect();
 
+    // Each mass term's measurements in object order, made once: kept by its class curve and
+    // lent to the bound terms and the population term (a copy for each was ≈ 100 MB at 10⁶
+    // objects).
+    let class_list = |t: Term| -> Arc<[Measurement]> {
+        uses.iter()
+            .filter(|u| u.mass_term == Some(t))
+            .map(|u| u.measurement)
+            .collect()
+    };
+    let (hb, bd, wd) = (
+        class_list(Term::HBurning),
+        class_list(Term::BrownDwarf),
+        class_list(Term::WhiteDwarfMass),
+    );
+
     let mut curves = Vec::new();
-    for (term, values, floor) in [
-        (Term::HBurning, &mmhb, opts.mmhb_floor_msun),
-        (Term::BrownDwarf, &mmhb, opts.mmhb_floor_msun),
+    for (term, ms, values, floor) in [
+        (Term::HBurning, &hb, &mmhb, opts.mmhb_floor_msun),
+        (Term::BrownDwarf, &bd, &mmhb, opts.mmhb_floor_msun),
         (
             Term::WhiteDwarfMass,
+            &wd,
             &chandra,
             opts.chandrasekhar_floor_msun,
         ),
     ] {
-        let ms: Vec<Measurement> = uses
-            .iter()
-            .filter(|u| u.mass_term == Some(term))
-            .map(|u| u.measurement)
-            .collect();
         if ms.is_empty() {
             continue;
         }
@@ -651,22 +664,12 @@ pub fn confront(
         let Some(range) = super::reduce::bound_range(&finite) else {
             continue;
         };
-        curves.push((term, ClassCurve::build(&ms, floor, range, &opts.reduce)?));
+        let curve = ClassCurve::build_shared(Arc::clone(ms), floor, range, &opts.reduce)?;
+        curves.push((term, curve));
     }
 
     let mut bounds: Vec<(Bound, BoundTerm)> = Vec::new();
     {
-        let pick = |t: Term| -> Vec<Measurement> {
-            uses.iter()
-                .filter(|u| u.mass_term == Some(t))
-                .map(|u| u.measurement)
-                .collect()
-        };
-        let (hb, bd, wd) = (
-            pick(Term::HBurning),
-            pick(Term::BrownDwarf),
-            pick(Term::WhiteDwarfMass),
-        );
         let mut mt = opts.mass_terms.clone();
         mt.reduce = opts.reduce.clone();
         for (bound, values, floor, classes) in [
@@ -674,16 +677,13 @@ pub fn confront(
                 Bound::Mmhb,
                 &mmhb,
                 opts.mmhb_floor_msun,
-                vec![
-                    (Term::HBurning, hb.as_slice()),
-                    (Term::BrownDwarf, bd.as_slice()),
-                ],
+                vec![(Term::HBurning, &hb[..]), (Term::BrownDwarf, &bd[..])],
             ),
             (
                 Bound::Chandrasekhar,
                 &chandra,
                 opts.chandrasekhar_floor_msun,
-                vec![(Term::WhiteDwarfMass, wd.as_slice())],
+                vec![(Term::WhiteDwarfMass, &wd[..])],
             ),
         ] {
             let classes: Vec<(Term, &[Measurement])> = classes
@@ -702,13 +702,7 @@ pub fn confront(
     }
     let population = match opts.population_window_msun {
         Some(window) => {
-            let pick = |t: Term| -> Vec<Measurement> {
-                uses.iter()
-                    .filter(|u| u.mass_term == Some(t))
-                    .map(|u| u.measurement)
-                    .collect()
-            };
-            let term = PopulationTerm::new(window, &pick(Term::HBurning), &pick(Term::BrownDwarf))?;
+            let term = PopulationTerm::new(window, &hb, &bd)?;
             let finite: Vec<f64> = mmhb.iter().flatten().copied().collect();
             if let Some((lo, hi)) = super::reduce::bound_range(&finite) {
                 if !term.covers(lo, hi) {

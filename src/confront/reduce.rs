@@ -26,6 +26,7 @@
 //! ```
 
 use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Arc;
 
 use rayon::prelude::*;
 
@@ -76,6 +77,10 @@ impl Default for ReduceOptions {
 }
 
 /// The tabulated log-likelihood curve L_c(B) of one class (per-object theory floor, §8.1–8.2).
+///
+/// The class's measurements are held once, in the caller's order, and may be shared with the
+/// caller ([`ClassCurve::build_shared`]); the tabulated, sharp and skipped objects are
+/// positions into them (copies of the measurements were ≈ 85 MB at 10⁶ objects).
 #[derive(Debug)]
 pub struct ClassCurve {
     b_lo_msun: f64,
@@ -84,9 +89,11 @@ pub struct ClassCurve {
     floor_replaced: bool,
     n_nodes: usize,
     spline: CubicSpline,
-    smooth: Vec<Measurement>,
-    sharp: Vec<Measurement>,
-    skipped: Vec<Measurement>,
+    measurements: Arc<[Measurement]>,
+    /// Positions of the tabulated objects, ascending.
+    smooth: Vec<u32>,
+    /// Positions of the objects summed exactly at every evaluation, ascending.
+    sharp: Vec<u32>,
     informative_indices: Vec<usize>,
     skipped_indices: Vec<usize>,
     n_uninformative: usize,
@@ -106,6 +113,18 @@ impl ClassCurve {
         bound_range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
+        Self::build_shared(Arc::from(measurements), floor_msun, bound_range_msun, opts)
+    }
+
+    /// As [`ClassCurve::build`], keeping `measurements` themselves rather than a copy: a
+    /// caller that holds the class's list anyway (the comparator, for the mass terms) then
+    /// holds it once.
+    pub fn build_shared(
+        measurements: Arc<[Measurement]>,
+        floor_msun: f64,
+        bound_range_msun: (f64, f64),
+        opts: &ReduceOptions,
+    ) -> Result<Self, StatsError> {
         let (lo, hi) = check_range(bound_range_msun)?;
         let width = hi - lo;
         let pad = if width > 0.0 {
@@ -113,7 +132,7 @@ impl ClassCurve {
         } else {
             opts.pad_fraction * lo.abs().max(1e-3)
         };
-        Self::build_on_range(measurements, floor_msun, (lo - pad, hi + pad), opts)
+        Self::build_on_range_shared(measurements, floor_msun, (lo - pad, hi + pad), opts)
     }
 
     /// As [`ClassCurve::build`] with the tabulation range taken as given (no padding).
@@ -123,7 +142,22 @@ impl ClassCurve {
         range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
+        Self::build_on_range_shared(Arc::from(measurements), floor_msun, range_msun, opts)
+    }
+
+    fn build_on_range_shared(
+        measurements: Arc<[Measurement]>,
+        floor_msun: f64,
+        range_msun: (f64, f64),
+        opts: &ReduceOptions,
+    ) -> Result<Self, StatsError> {
         validate_floor(floor_msun)?;
+        if u32::try_from(measurements.len()).is_err() {
+            return Err(StatsError::InvalidInput(format!(
+                "{} objects in one class: at most 2³² − 1 are supported",
+                measurements.len()
+            )));
+        }
         let (b_lo, b_hi) = check_range(range_msun)?;
         if b_hi <= b_lo {
             return Err(StatsError::InvalidInput(format!(
@@ -146,9 +180,9 @@ impl ClassCurve {
             floor_replaced: floor_msun <= 0.0,
             n_nodes: opts.n_nodes,
             spline: CubicSpline::linear_placeholder(b_lo, b_hi),
+            measurements: Arc::clone(&measurements),
             smooth: Vec::new(),
             sharp: Vec::new(),
-            skipped: Vec::new(),
             informative_indices: Vec::new(),
             skipped_indices: Vec::new(),
             n_uninformative: 0,
@@ -157,7 +191,9 @@ impl ClassCurve {
             out_of_range_calls: AtomicUsize::new(0),
         };
         let b_abs = b_lo.abs().max(b_hi.abs());
-        let mut kept: Vec<(Measurement, f64)> = Vec::new();
+        // (position, smoothing width) of each informative object that is not skipped; positions
+        // fit in a u32 (checked above).
+        let mut kept: Vec<(u32, f64)> = Vec::new();
         for (i, m) in measurements.iter().enumerate() {
             if !m.informative() {
                 curve.n_uninformative += 1;
@@ -169,12 +205,11 @@ impl ClassCurve {
                 Side::AtMost => b_lo,
             };
             if ln_prob_consistent(m, worst_b, floor_msun) > -opts.eps_skip {
-                curve.skipped.push(*m);
                 curve.skipped_indices.push(i);
                 continue;
             }
             curve.informative_indices.push(i);
-            kept.push((*m, smoothing_width_in_bound(m, b_abs, floor_msun)));
+            kept.push((i as u32, smoothing_width_in_bound(m, b_abs, floor_msun)));
         }
         // Tabulate; with a target error, double the node density until it is met. A doubling
         // keeps every node of the previous round (node k of n is node 2k of 2n − 1, to the
@@ -189,12 +224,12 @@ impl ClassCurve {
             curve.smooth.clear();
             curve.sharp.clear();
             let mut is_smooth = Vec::with_capacity(kept.len());
-            for &(m, width) in &kept {
+            for &(at, width) in &kept {
                 if width < opts.sharp_nodes * step {
-                    curve.sharp.push(m);
+                    curve.sharp.push(at);
                     is_smooth.push(false);
                 } else {
-                    curve.smooth.push(m);
+                    curve.smooth.push(at);
                     is_smooth.push(true);
                 }
             }
@@ -204,7 +239,7 @@ impl ClassCurve {
             let prepared: Vec<PreparedLnP> = curve
                 .smooth
                 .iter()
-                .map(|m| PreparedLnP::new(m, floor_msun))
+                .map(|&at| PreparedLnP::new(&measurements[at as usize], floor_msun))
                 .collect();
             let nodes: Vec<f64> = (0..n).map(|k| node(b_lo, b_hi, n, k)).collect();
             let values: Vec<f64> = nodes
@@ -235,14 +270,30 @@ impl ClassCurve {
             }
             n = 2 * n - 1;
         }
+        // Held as long as the comparison: no growth slack.
+        curve.smooth.shrink_to_fit();
+        curve.sharp.shrink_to_fit();
+        curve.informative_indices.shrink_to_fit();
+        curve.skipped_indices.shrink_to_fit();
         Ok(curve)
+    }
+
+    /// The measurements at `positions`, in that order.
+    fn at<'a>(&'a self, positions: &'a [u32]) -> impl Iterator<Item = &'a Measurement> + 'a {
+        positions.iter().map(|&at| &self.measurements[at as usize])
+    }
+
+    /// The class's measurements, all of them in the caller's order (the positions of
+    /// [`ClassCurve::informative_indices`] and [`ClassCurve::skipped_indices`] index them).
+    pub fn measurements(&self) -> &[Measurement] {
+        &self.measurements
     }
 
     /// L_c(B): the spline plus the exact sum over sharp objects inside the tabulated range; the
     /// exact sum over every object (skipped ones included) outside it.
     pub fn eval(&self, b_msun: f64) -> f64 {
         if b_msun >= self.b_lo_msun && b_msun <= self.b_hi_msun {
-            self.spline.eval(b_msun) + sum_ln_p(&self.sharp, b_msun, self.floor_msun)
+            self.spline.eval(b_msun) + sum_ln_p(self.at(&self.sharp), b_msun, self.floor_msun)
         } else {
             self.out_of_range_calls.fetch_add(1, Ordering::Relaxed);
             self.exact(b_msun)
@@ -253,10 +304,16 @@ impl ClassCurve {
     /// reference the reduction is measured against; cost O(N)).
     pub fn exact(&self, b_msun: f64) -> f64 {
         let mut acc = NeumaierSum::default();
-        for group in [&self.smooth, &self.sharp, &self.skipped] {
-            for m in group.iter() {
-                acc.add(ln_prob_consistent(m, b_msun, self.floor_msun));
-            }
+        let skipped = self
+            .skipped_indices
+            .iter()
+            .map(|&at| &self.measurements[at]);
+        for m in self
+            .at(&self.smooth)
+            .chain(self.at(&self.sharp))
+            .chain(skipped)
+        {
+            acc.add(ln_prob_consistent(m, b_msun, self.floor_msun));
         }
         acc.total()
     }
@@ -276,12 +333,12 @@ impl ClassCurve {
     /// Where each sharp object's probability changes, in class-bound units (mass or limit over
     /// the object's scale): the breakpoints a quadrature across B must respect.
     pub fn sharp_transitions_msun(&self) -> impl Iterator<Item = f64> + '_ {
-        self.sharp.iter().map(|m| m.mass_msun / m.scale)
+        self.at(&self.sharp).map(|m| m.mass_msun / m.scale)
     }
 
     /// Upper bound on |ln L| lost by skipping objects: N_skipped × ε_skip (`docs/bounds.md` §8.5).
     pub fn skip_error_bound(&self) -> f64 {
-        self.skipped.len() as f64 * self.eps_skip
+        self.skipped_indices.len() as f64 * self.eps_skip
     }
 
     /// The tabulated range [B_lo, B_hi] in M☉, padding included.
@@ -296,7 +353,7 @@ impl ClassCurve {
 
     /// Number of informative objects skipped as negligible over the range.
     pub fn n_skipped(&self) -> usize {
-        self.skipped.len()
+        self.skipped_indices.len()
     }
 
     /// Number of objects summed exactly at each evaluation because they are sharper than the
@@ -595,7 +652,7 @@ fn sum_prepared(objects: &[PreparedLnP], b: f64) -> f64 {
     acc.total()
 }
 
-fn sum_ln_p(objects: &[Measurement], b: f64, floor_msun: f64) -> f64 {
+fn sum_ln_p<'a>(objects: impl Iterator<Item = &'a Measurement>, b: f64, floor_msun: f64) -> f64 {
     let mut acc = NeumaierSum::default();
     for m in objects {
         acc.add(ln_prob_consistent(m, b, floor_msun));
