@@ -215,7 +215,7 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
             sigma: ctx
                 .verdicts
                 .get(k)
-                .and_then(|v| v.radius_sigma_standard)
+                .and_then(|v| v.radius_sigma_standard.get())
                 .filter(|s| s.is_finite()),
             flag,
         });
@@ -319,8 +319,8 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
             // (4/μe² for white dwarfs, 1 otherwise).
             let scale = u.measurement.scale;
             if scale > 0.0 {
-                standard = standard.or(v.bound_standard.map(|b| b / scale));
-                best = best.or(v.bound_best.map(|b| b / scale));
+                standard = standard.or(v.bound_standard.get().map(|b| b / scale));
+                best = best.or(v.bound_best.get().map(|b| b / scale));
             }
             let has = |f: &str| u.flags.iter().any(|g| g == f);
             let mark = if u.mass_term.is_some() {
@@ -340,8 +340,8 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
                     _ => None,
                 },
                 sigma: (
-                    v.sigma_standard.filter(|s| s.is_finite()),
-                    v.sigma_best.filter(|s| s.is_finite()),
+                    v.sigma_standard.get().filter(|s| s.is_finite()),
+                    v.sigma_best.get().filter(|s| s.is_finite()),
                 ),
                 mark,
             });

@@ -751,7 +751,7 @@ pub(crate) fn write_report_files(
                         sigma_standard_gravity: t.sigma,
                         sigma_best_fit: match t.test {
                             TensionTest::MassBound => ctx.sigma_best(k),
-                            TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best,
+                            TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best.get(),
                             TensionTest::Spin => ctx.driver_sigma(k),
                         },
                         two_sided: t.test == TensionTest::MassRadius,
