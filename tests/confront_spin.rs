@@ -236,26 +236,26 @@ impl dwarfbound::confront::engine::BoundSurface for SwellingRadius {
 /// 1σ period error 0.01 h. On [`SwellingRadius`] its break-up period is ≈ 40 min at ϒ = 0 and
 /// grows as R^{3/2} with ϒ, so the spin test closes the upper end of the ϒ interval alone.
 fn swelling_spinner() -> dwarfbound::catalogue::CatalogueObject {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
     CatalogueObject {
         id: "BD-spin".into(),
         class: ObjectClass::BrownDwarf,
         mass_msun: 0.06,
-        mass_err_lo_msun: Some(0.003),
-        mass_err_hi_msun: Some(0.003),
+        mass_err_lo_msun: OptF64::some(0.003),
+        mass_err_hi_msun: OptF64::some(0.003),
         mass_limit: MassLimit::None,
-        radius_rsun: None,
-        radius_err_rsun: None,
-        age_gyr: Some(5.0),
-        age_err_gyr: None,
-        rotation_period_h: Some(0.8),
-        rotation_period_err_h: Some(0.01),
-        mu_e: None,
-        teff_k: None,
-        teff_err_k: None,
+        radius_rsun: OptF64::NONE,
+        radius_err_rsun: OptF64::NONE,
+        age_gyr: OptF64::some(5.0),
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::some(0.8),
+        rotation_period_err_h: OptF64::some(0.01),
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::NONE,
+        teff_err_k: OptF64::NONE,
         core: None,
         envelope: None,
-        radius_model_rsun: None,
+        radius_model_rsun: OptF64::NONE,
         mass_method: Default::default(),
         reference: None,
         source_file: "a.csv".into(),
@@ -390,8 +390,8 @@ fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
     // 3 h: v ≈ 1.6e-3, below the first-order threshold 3.3e-3 of n = 3/2 at standard gravity
     // (at large ϒ the threshold falls below v: the factor stays the standard one there).
     let mut bd = swelling_spinner();
-    bd.rotation_period_h = Some(3.0);
-    bd.rotation_period_err_h = None;
+    bd.rotation_period_h = dwarfbound::catalogue::OptF64::some(3.0);
+    bd.rotation_period_err_h = dwarfbound::catalogue::OptF64::NONE;
     let objects = [bd];
     let opts = EngineOptions::default();
     let surface = SwellingRadius;
@@ -547,26 +547,26 @@ impl dwarfbound::confront::engine::BoundSurface for SpinningWd {
 /// Invented object (not a measurement): a 0.9 ± 0.02 M☉ white dwarf of measured radius
 /// 0.0091 ± 0.0002 R☉ spinning in 150 s (v ≈ 2e-4, within first order at every point).
 fn spinning_white_dwarf() -> dwarfbound::catalogue::CatalogueObject {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
     CatalogueObject {
         id: "WD-150s".into(),
         class: ObjectClass::WhiteDwarf,
         mass_msun: 0.9,
-        mass_err_lo_msun: Some(0.02),
-        mass_err_hi_msun: Some(0.02),
+        mass_err_lo_msun: OptF64::some(0.02),
+        mass_err_hi_msun: OptF64::some(0.02),
         mass_limit: MassLimit::None,
-        radius_rsun: Some(0.0091),
-        radius_err_rsun: Some(0.0002),
-        age_gyr: None,
-        age_err_gyr: None,
-        rotation_period_h: Some(150.0 / 3600.0),
-        rotation_period_err_h: None,
-        mu_e: None,
-        teff_k: None,
-        teff_err_k: None,
+        radius_rsun: OptF64::some(0.0091),
+        radius_err_rsun: OptF64::some(0.0002),
+        age_gyr: OptF64::NONE,
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::some(150.0 / 3600.0),
+        rotation_period_err_h: OptF64::NONE,
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::NONE,
+        teff_err_k: OptF64::NONE,
         core: None,
         envelope: None,
-        radius_model_rsun: None,
+        radius_model_rsun: OptF64::NONE,
         mass_method: Default::default(),
         reference: None,
         source_file: "a.csv".into(),
@@ -718,7 +718,7 @@ fn fast_white_dwarfs_with_radii_take_the_radius_test_with_their_factor() {
 // measurement): the 70 s white dwarf at 1.27 M☉ with a measured radius of 0.0052 R☉.
 #[test]
 fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass, OptF64};
     use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions};
     use dwarfbound::confront::spin::SlowRotationStatus;
     use dwarfbound::pipeline::surface::GridSurface;
@@ -755,21 +755,21 @@ fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
         id: "WD-70s".into(),
         class: ObjectClass::WhiteDwarf,
         mass_msun: 1.27,
-        mass_err_lo_msun: Some(0.02),
-        mass_err_hi_msun: Some(0.02),
+        mass_err_lo_msun: OptF64::some(0.02),
+        mass_err_hi_msun: OptF64::some(0.02),
         mass_limit: MassLimit::None,
-        radius_rsun: Some(0.0052),
-        radius_err_rsun: Some(0.0003),
-        age_gyr: None,
-        age_err_gyr: None,
-        rotation_period_h: Some(70.0 / 3600.0),
-        rotation_period_err_h: None,
-        mu_e: None,
-        teff_k: Some(20_000.0),
-        teff_err_k: Some(500.0),
+        radius_rsun: OptF64::some(0.0052),
+        radius_err_rsun: OptF64::some(0.0003),
+        age_gyr: OptF64::NONE,
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::some(70.0 / 3600.0),
+        rotation_period_err_h: OptF64::NONE,
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::some(20_000.0),
+        teff_err_k: OptF64::some(500.0),
         core: None,
         envelope: None,
-        radius_model_rsun: None,
+        radius_model_rsun: OptF64::NONE,
         mass_method: MassMethod::Dynamical,
         reference: None,
         source_file: "a.csv".into(),

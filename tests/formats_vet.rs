@@ -58,21 +58,27 @@ fn every_format_vets_to_the_same_objects_and_quarantine() {
             );
             close(Some(a.mass_msun), Some(b.mass_msun), "mass", &a.id, file);
             close(
-                a.mass_err_lo_msun,
-                b.mass_err_lo_msun,
+                a.mass_err_lo_msun.get(),
+                b.mass_err_lo_msun.get(),
                 "mass_err_lo",
                 &a.id,
                 file,
             );
             close(
-                a.mass_err_hi_msun,
-                b.mass_err_hi_msun,
+                a.mass_err_hi_msun.get(),
+                b.mass_err_hi_msun.get(),
                 "mass_err_hi",
                 &a.id,
                 file,
             );
-            close(a.radius_rsun, b.radius_rsun, "radius", &a.id, file);
-            close(a.age_gyr, b.age_gyr, "age", &a.id, file);
+            close(
+                a.radius_rsun.get(),
+                b.radius_rsun.get(),
+                "radius",
+                &a.id,
+                file,
+            );
+            close(a.age_gyr.get(), b.age_gyr.get(), "age", &a.id, file);
         }
         let q = |v: &dwarfbound::catalogue::Vetted| -> Vec<(usize, Option<String>, String)> {
             v.quarantine

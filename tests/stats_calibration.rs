@@ -15,7 +15,7 @@
 
 use rayon::prelude::*;
 
-use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
 use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
 use dwarfbound::confront::mass_terms::{LikelihoodChoice, Systematics};
 use dwarfbound::confront::reduce::{ReduceOptions, SplitMix64};
@@ -79,24 +79,24 @@ fn normal(rng: &mut SplitMix64) -> f64 {
 fn object(id: usize, class: ObjectClass, truth: f64, rng: &mut SplitMix64) -> CatalogueObject {
     let sigma = (0.01 + 0.07 * rng.next_f64()) * truth;
     CatalogueObject {
-        id: format!("o{id}"),
+        id: format!("o{id}").into(),
         class,
         mass_msun: truth + sigma * normal(rng),
-        mass_err_lo_msun: Some(sigma),
-        mass_err_hi_msun: Some(sigma),
+        mass_err_lo_msun: OptF64::some(sigma),
+        mass_err_hi_msun: OptF64::some(sigma),
         mass_limit: MassLimit::None,
-        radius_rsun: None,
-        radius_err_rsun: None,
-        age_gyr: Some(5.0),
-        age_err_gyr: None,
-        rotation_period_h: None,
-        rotation_period_err_h: None,
-        mu_e: None,
-        teff_k: None,
-        teff_err_k: None,
+        radius_rsun: OptF64::NONE,
+        radius_err_rsun: OptF64::NONE,
+        age_gyr: OptF64::some(5.0),
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::NONE,
+        rotation_period_err_h: OptF64::NONE,
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::NONE,
+        teff_err_k: OptF64::NONE,
         core: None,
         envelope: None,
-        radius_model_rsun: None,
+        radius_model_rsun: OptF64::NONE,
         mass_method: Default::default(),
         reference: None,
         source_file: "synthetic".into(),

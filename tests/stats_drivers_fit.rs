@@ -9,7 +9,7 @@
 //! Surface: MMHB = 0.075 (1 + 0.2 ϒ + 0.5 τ), Chandrasekhar mass = 1.40 (1 − 0.3 ϒ + 0.1 τ)
 //! (invented slopes, as in `tests/stats_calibration.rs`).
 
-use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
 use dwarfbound::confront::drivers::{
     radius_drivers, slice_drivers, slice_drivers_in_fit, DriverOptions,
 };
@@ -56,24 +56,24 @@ fn surface() -> Surface {
 
 fn object(id: usize, class: ObjectClass, mass: f64, sigma: f64) -> CatalogueObject {
     CatalogueObject {
-        id: format!("o{id}"),
+        id: format!("o{id}").into(),
         class,
         mass_msun: mass,
-        mass_err_lo_msun: Some(sigma),
-        mass_err_hi_msun: Some(sigma),
+        mass_err_lo_msun: OptF64::some(sigma),
+        mass_err_hi_msun: OptF64::some(sigma),
         mass_limit: MassLimit::None,
-        radius_rsun: None,
-        radius_err_rsun: None,
-        age_gyr: Some(5.0),
-        age_err_gyr: None,
-        rotation_period_h: None,
-        rotation_period_err_h: None,
-        mu_e: None,
-        teff_k: None,
-        teff_err_k: None,
+        radius_rsun: OptF64::NONE,
+        radius_err_rsun: OptF64::NONE,
+        age_gyr: OptF64::some(5.0),
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::NONE,
+        rotation_period_err_h: OptF64::NONE,
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::NONE,
+        teff_err_k: OptF64::NONE,
         core: None,
         envelope: None,
-        radius_model_rsun: None,
+        radius_model_rsun: OptF64::NONE,
         mass_method: Default::default(),
         reference: None,
         source_file: "synthetic".into(),
@@ -251,8 +251,8 @@ fn radius_catalogue() -> Vec<CatalogueObject> {
     {
         let mut o = object(100 + k, ObjectClass::WhiteDwarf, m, 0.01);
         let r = cold_radius(m, 0.0) * (1.0 + offset);
-        o.radius_rsun = Some(r);
-        o.radius_err_rsun = Some(err * r);
+        o.radius_rsun = OptF64::some(r);
+        o.radius_err_rsun = OptF64::some(err * r);
         out.push(o);
     }
     out

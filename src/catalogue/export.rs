@@ -114,8 +114,8 @@ fn push_rows(buf: &mut Vec<u8>, objects: &[CatalogueObject]) {
         buf.push(b',');
         label(buf, o.class.label());
         number(buf, Some(o.mass_msun));
-        number(buf, o.mass_err_lo_msun);
-        number(buf, o.mass_err_hi_msun);
+        number(buf, o.mass_err_lo_msun.get());
+        number(buf, o.mass_err_hi_msun.get());
         label(buf, o.mass_limit.label());
         for x in [
             o.radius_rsun,
@@ -128,11 +128,11 @@ fn push_rows(buf: &mut Vec<u8>, objects: &[CatalogueObject]) {
             o.teff_k,
             o.teff_err_k,
         ] {
-            number(buf, x);
+            number(buf, x.get());
         }
         label(buf, o.core.map_or("", |c| c.label()));
         label(buf, o.envelope.map_or("", |e| e.label()));
-        number(buf, o.radius_model_rsun);
+        number(buf, o.radius_model_rsun.get());
         label(buf, o.mass_method.label());
         push_field(buf, o.reference.as_deref().unwrap_or_default().as_bytes());
         buf.push(b',');

@@ -17,6 +17,7 @@ pub mod colmap;
 pub mod error;
 pub mod export;
 pub mod guard;
+pub mod opt_f64;
 pub mod summary;
 pub mod table;
 pub mod units;
@@ -30,6 +31,7 @@ mod read_votable;
 
 pub use colmap::ColumnMap;
 pub use error::CatalogueError;
+pub use opt_f64::OptF64;
 pub use vet::{
     vet_files, vet_table, CatalogueObject, CatalogueTally, CoreLabel, EnvelopeLabel, MassLimit,
     MassMethod, ObjectClass, QuarantinedRow, SourceFile, Vetted,

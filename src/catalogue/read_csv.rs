@@ -621,7 +621,7 @@ mod tests {
         std::fs::write(&path, text).unwrap();
         let (objects, q, tally) = vet_streaming(&path, "l.csv", None).unwrap();
         assert_eq!(objects.len(), 1);
-        assert_eq!(objects[0].id, "X");
+        assert_eq!(&*objects[0].id, "X");
         let rows: Vec<(usize, &str)> = q.iter().map(|q| (q.row, q.reason.as_str())).collect();
         let why = super::super::vet::reason::LOOKALIKE_ID;
         assert_eq!(rows, vec![(1, why), (3, why), (4, why)]);

@@ -127,7 +127,7 @@ impl ClassAccumulator {
         }
         self.lo = self.lo.min(o.mass_msun);
         self.hi = self.hi.max(o.mass_msun);
-        if let (Some(a), Some(b)) = (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+        if let (Some(a), Some(b)) = (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
             self.errs.push(0.5 * (a + b));
         }
     }

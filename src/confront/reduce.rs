@@ -26,6 +26,7 @@
 //! ```
 
 use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Arc;
 
 use rayon::prelude::*;
 
@@ -191,6 +192,10 @@ impl ClassCounts {
 }
 
 /// The tabulated log-likelihood curve L_c(B) of one class (per-object theory floor, §8.1–8.2).
+///
+/// The class's measurements are held once, in the caller's order, and may be shared with the
+/// caller ([`ClassCurve::build_shared`]); the tabulated, sharp and skipped objects are
+/// positions into them (copies of the measurements were ≈ 85 MB at 10⁶ objects).
 #[derive(Debug)]
 pub struct ClassCurve {
     b_lo_msun: f64,
@@ -199,9 +204,11 @@ pub struct ClassCurve {
     floor_replaced: bool,
     n_nodes: usize,
     spline: CubicSpline,
-    smooth: Vec<Measurement>,
-    sharp: Vec<Measurement>,
-    skipped: Vec<Measurement>,
+    measurements: Arc<[Measurement]>,
+    /// Positions of the tabulated objects, ascending.
+    smooth: Vec<u32>,
+    /// Positions of the objects summed exactly at every evaluation, ascending.
+    sharp: Vec<u32>,
     informative_indices: Vec<usize>,
     skipped_indices: Vec<usize>,
     n_uninformative: usize,
@@ -237,6 +244,12 @@ impl ClassCurve {
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
         let (b_lo, b_hi) = usable_range(floor_msun, range_msun)?;
+        if u32::try_from(measurements.len()).is_err() {
+            return Err(StatsError::InvalidInput(format!(
+                "{} objects in one class: at most 2³² − 1 are supported",
+                measurements.len()
+            )));
+        }
         if opts.n_nodes < 4 {
             return Err(StatsError::InvalidInput(format!(
                 "at least 4 tabulation nodes are needed, got {}",
@@ -253,9 +266,9 @@ impl ClassCurve {
             floor_replaced: floor_msun <= 0.0,
             n_nodes: opts.n_nodes,
             spline: CubicSpline::linear_placeholder(b_lo, b_hi),
+            measurements: Arc::from(measurements),
             smooth: Vec::new(),
             sharp: Vec::new(),
-            skipped: Vec::new(),
             informative_indices: Vec::new(),
             skipped_indices: Vec::new(),
             n_uninformative: 0,
@@ -264,17 +277,16 @@ impl ClassCurve {
             out_of_range_calls: AtomicUsize::new(0),
         };
         let b_abs = b_lo.abs().max(b_hi.abs());
-        let mut kept: Vec<(Measurement, f64)> = Vec::new();
+        // (position, smoothing width) of each informative object that is not skipped; positions
+        // fit in a u32 (checked above).
+        let mut kept: Vec<(u32, f64)> = Vec::new();
         for (i, m) in measurements.iter().enumerate() {
             match classify(m, floor_msun, (b_lo, b_hi), opts.eps_skip) {
                 Standing::Uninformative => curve.n_uninformative += 1,
-                Standing::Skipped => {
-                    curve.skipped.push(*m);
-                    curve.skipped_indices.push(i);
-                }
+                Standing::Skipped => curve.skipped_indices.push(i),
                 Standing::Informative => {
                     curve.informative_indices.push(i);
-                    kept.push((*m, smoothing_width_in_bound(m, b_abs, floor_msun)));
+                    kept.push((i as u32, smoothing_width_in_bound(m, b_abs, floor_msun)));
                 }
             }
         }
@@ -291,12 +303,12 @@ impl ClassCurve {
             curve.smooth.clear();
             curve.sharp.clear();
             let mut is_smooth = Vec::with_capacity(kept.len());
-            for &(m, width) in &kept {
+            for &(at, width) in &kept {
                 if width < opts.sharp_nodes * step {
-                    curve.sharp.push(m);
+                    curve.sharp.push(at);
                     is_smooth.push(false);
                 } else {
-                    curve.smooth.push(m);
+                    curve.smooth.push(at);
                     is_smooth.push(true);
                 }
             }
@@ -306,7 +318,7 @@ impl ClassCurve {
             let prepared: Vec<PreparedLnP> = curve
                 .smooth
                 .iter()
-                .map(|m| PreparedLnP::new(m, floor_msun))
+                .map(|&at| PreparedLnP::new(&measurements[at as usize], floor_msun))
                 .collect();
             let nodes: Vec<f64> = (0..n).map(|k| node(b_lo, b_hi, n, k)).collect();
             let values: Vec<f64> = nodes
@@ -337,14 +349,30 @@ impl ClassCurve {
             }
             n = 2 * n - 1;
         }
+        // Held as long as the comparison: no growth slack.
+        curve.smooth.shrink_to_fit();
+        curve.sharp.shrink_to_fit();
+        curve.informative_indices.shrink_to_fit();
+        curve.skipped_indices.shrink_to_fit();
         Ok(curve)
+    }
+
+    /// The measurements at `positions`, in that order.
+    fn at<'a>(&'a self, positions: &'a [u32]) -> impl Iterator<Item = &'a Measurement> + 'a {
+        positions.iter().map(|&at| &self.measurements[at as usize])
+    }
+
+    /// The class's measurements, all of them in the caller's order (the positions of
+    /// [`ClassCurve::informative_indices`] and [`ClassCurve::skipped_indices`] index them).
+    pub fn measurements(&self) -> &[Measurement] {
+        &self.measurements
     }
 
     /// L_c(B): the spline plus the exact sum over sharp objects inside the tabulated range; the
     /// exact sum over every object (skipped ones included) outside it.
     pub fn eval(&self, b_msun: f64) -> f64 {
         if b_msun >= self.b_lo_msun && b_msun <= self.b_hi_msun {
-            self.spline.eval(b_msun) + sum_ln_p(&self.sharp, b_msun, self.floor_msun)
+            self.spline.eval(b_msun) + sum_ln_p(self.at(&self.sharp), b_msun, self.floor_msun)
         } else {
             self.out_of_range_calls.fetch_add(1, Ordering::Relaxed);
             self.exact(b_msun)
@@ -355,10 +383,16 @@ impl ClassCurve {
     /// reference the reduction is measured against; cost O(N)).
     pub fn exact(&self, b_msun: f64) -> f64 {
         let mut acc = NeumaierSum::default();
-        for group in [&self.smooth, &self.sharp, &self.skipped] {
-            for m in group.iter() {
-                acc.add(ln_prob_consistent(m, b_msun, self.floor_msun));
-            }
+        let skipped = self
+            .skipped_indices
+            .iter()
+            .map(|&at| &self.measurements[at]);
+        for m in self
+            .at(&self.smooth)
+            .chain(self.at(&self.sharp))
+            .chain(skipped)
+        {
+            acc.add(ln_prob_consistent(m, b_msun, self.floor_msun));
         }
         acc.total()
     }
@@ -378,12 +412,12 @@ impl ClassCurve {
     /// Where each sharp object's probability changes, in class-bound units (mass or limit over
     /// the object's scale): the breakpoints a quadrature across B must respect.
     pub fn sharp_transitions_msun(&self) -> impl Iterator<Item = f64> + '_ {
-        self.sharp.iter().map(|m| m.mass_msun / m.scale)
+        self.at(&self.sharp).map(|m| m.mass_msun / m.scale)
     }
 
     /// Upper bound on |ln L| lost by skipping objects: N_skipped × ε_skip (`docs/bounds.md` §8.5).
     pub fn skip_error_bound(&self) -> f64 {
-        self.skipped.len() as f64 * self.eps_skip
+        self.skipped_indices.len() as f64 * self.eps_skip
     }
 
     /// The tabulated range [B_lo, B_hi] in M☉, padding included.
@@ -398,7 +432,7 @@ impl ClassCurve {
 
     /// Number of informative objects skipped as negligible over the range.
     pub fn n_skipped(&self) -> usize {
-        self.skipped.len()
+        self.skipped_indices.len()
     }
 
     /// Number of objects summed exactly at each evaluation because they are sharper than the
@@ -690,7 +724,7 @@ fn sum_prepared(objects: &[PreparedLnP], b: f64) -> f64 {
     acc.total()
 }
 
-fn sum_ln_p(objects: &[Measurement], b: f64, floor_msun: f64) -> f64 {
+fn sum_ln_p<'a>(objects: impl Iterator<Item = &'a Measurement>, b: f64, floor_msun: f64) -> f64 {
     let mut acc = NeumaierSum::default();
     for m in objects {
         acc.add(ln_prob_consistent(m, b, floor_msun));

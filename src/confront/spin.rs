@@ -610,7 +610,7 @@ pub fn prepare(
     let mut out = Vec::new();
     let mut n32 = None;
     for (k, o) in objects.iter().enumerate() {
-        let Some(period_h) = o.rotation_period_h else {
+        let Some(period_h) = o.rotation_period_h.get() else {
             continue;
         };
         let u = &mut uses[k];
@@ -634,7 +634,7 @@ pub fn prepare(
                 .map(|&m| WdQuery {
                     mass_msun: m,
                     mu_e,
-                    teff_k: o.teff_k,
+                    teff_k: o.teff_k.get(),
                     core,
                     envelope: o.envelope,
                 })
@@ -659,13 +659,13 @@ pub fn prepare(
         let mut spin = ObjectSpin {
             index: k,
             period_s: period_h * 3600.0,
-            period_err_s: o.rotation_period_err_h.map_or(0.0, |e| e * 3600.0),
+            period_err_s: o.rotation_period_err_h.get().map_or(0.0, |e| e * 3600.0),
             mu_e,
             source,
             nodes,
             mass_msun: o.mass_msun,
             scale,
-            measured_rsun: o.radius_rsun,
+            measured_rsun: o.radius_rsun.get(),
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
             mmhb: None,

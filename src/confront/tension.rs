@@ -8,15 +8,15 @@
 //! rest of the comparator, knows nothing of how the theory solved them.
 //!
 //! ```
-//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass};
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
 //! use dwarfbound::confront::engine::EngineOptions;
 //! use dwarfbound::confront::tension::{mass_tensions, ReferencePoint};
 //! let dwarf = CatalogueObject { id: "B1".into(), class: ObjectClass::BrownDwarf, mass_msun: 0.095,
-//!     mass_err_lo_msun: Some(0.002), mass_err_hi_msun: Some(0.002), mass_limit: MassLimit::None,
-//!     radius_rsun: None, radius_err_rsun: None, age_gyr: Some(5.0), age_err_gyr: None,
-//!     rotation_period_h: None, rotation_period_err_h: None, mu_e: None, teff_k: None,
-//!     teff_err_k: None, core: None,
-//!     envelope: None, radius_model_rsun: None, mass_method: Default::default(),
+//!     mass_err_lo_msun: OptF64::some(0.002), mass_err_hi_msun: OptF64::some(0.002), mass_limit: MassLimit::None,
+//!     radius_rsun: OptF64::NONE, radius_err_rsun: OptF64::NONE, age_gyr: OptF64::some(5.0), age_err_gyr: OptF64::NONE,
+//!     rotation_period_h: OptF64::NONE, rotation_period_err_h: OptF64::NONE, mu_e: OptF64::NONE, teff_k: OptF64::NONE,
+//!     teff_err_k: OptF64::NONE, core: None,
+//!     envelope: None, radius_model_rsun: OptF64::NONE, mass_method: Default::default(),
 //!     reference: None, source_file: "a.csv".into(), source_row: 1 };
 //! // A brown dwarf 0.02 M☉ above an MMHB of 0.075 M☉ (floor 0.005 M☉) is on the wrong side.
 //! let point = ReferencePoint { mmhb_msun: Some(0.075), chandrasekhar_mu2_msun: Some(1.4563) };
@@ -36,7 +36,7 @@ use super::regions::{
 };
 use super::spin::{ObjectSpin, SpinVerdict};
 use super::wd_radius::ObjectRadius;
-use crate::catalogue::{CatalogueObject, ObjectClass};
+use crate::catalogue::{CatalogueObject, ObjectClass, OptF64};
 
 /// How many of the least probable objects the consistency verdict names.
 const WORST_LISTED: usize = 5;
@@ -106,22 +106,25 @@ pub struct Tension {
 
 /// One object's results at the two reference points (bounds scaled to the object, e.g. by
 /// (2/μe)² for a white dwarf).
+///
+/// One per object, held while the outputs are written: the optional numbers are [`OptF64`]
+/// (56 bytes in all; seven `Option<f64>` were 112).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ObjectVerdict {
     /// Its class bound at standard gravity, M☉.
-    pub bound_standard: Option<f64>,
+    pub bound_standard: OptF64,
     /// Its class bound at the best fit, M☉.
-    pub bound_best: Option<f64>,
+    pub bound_best: OptF64,
     /// Tension with its class bound at standard gravity, σ.
-    pub sigma_standard: Option<f64>,
+    pub sigma_standard: OptF64,
     /// Tension with its class bound at the best fit, σ.
-    pub sigma_best: Option<f64>,
+    pub sigma_best: OptF64,
     /// ln P of its mass test at the best fit, for objects in the fit with an informative mass.
-    pub ln_p_best: Option<f64>,
+    pub ln_p_best: OptF64,
     /// Signed tension of its radius with the standard-gravity mass–radius relation, σ.
-    pub radius_sigma_standard: Option<f64>,
+    pub radius_sigma_standard: OptF64,
     /// Signed tension of its radius at the best fit, σ (enters the verdict).
-    pub radius_sigma_best: Option<f64>,
+    pub radius_sigma_best: OptF64,
 }
 
 /// Each object's verdicts at `standard` and `best`, in the order of `objects` (`uses` is the
@@ -191,17 +194,17 @@ pub fn object_verdicts(
                 )
             });
             ObjectVerdict {
-                bound_standard: bs.map(|b| b * scale),
-                bound_best: bb.map(|b| b * scale),
-                sigma_standard: sigma(bs),
-                sigma_best: sigma(bb),
+                bound_standard: bs.map(|b| b * scale).into(),
+                bound_best: bb.map(|b| b * scale).into(),
+                sigma_standard: sigma(bs).into(),
+                sigma_best: sigma(bb).into(),
                 ln_p_best: if u.mass_term.is_some() && u.measurement.informative() {
-                    bb.and_then(|b| engine::ln_p_object(u, b, eopts))
+                    bb.and_then(|b| engine::ln_p_object(u, b, eopts)).into()
                 } else {
-                    None
+                    OptF64::NONE
                 },
-                radius_sigma_standard,
-                radius_sigma_best,
+                radius_sigma_standard: radius_sigma_standard.into(),
+                radius_sigma_best: radius_sigma_best.into(),
             }
         })
         .collect()
@@ -213,7 +216,7 @@ pub fn object_verdicts(
 pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<Tension> {
     let mut tensions: Vec<Tension> = Vec::new();
     for (k, r) in verdicts.iter().enumerate() {
-        if let Some(z) = r.sigma_standard.filter(|&z| z > threshold_sigma) {
+        if let Some(z) = r.sigma_standard.get().filter(|&z| z > threshold_sigma) {
             tensions.push(Tension {
                 object: k,
                 sigma: z,
@@ -222,6 +225,7 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
         }
         if let Some(z) = r
             .radius_sigma_standard
+            .get()
             .filter(|z| z.abs() > threshold_sigma)
         {
             tensions.push(Tension {
@@ -261,14 +265,14 @@ pub fn consistency_at_best(
         .iter()
         .enumerate()
         .filter(|(k, _)| counted.contains(k))
-        .filter_map(|(k, r)| r.ln_p_best.map(|l| (k, l)))
+        .filter_map(|(k, r)| r.ln_p_best.get().map(|l| (k, l)))
         .collect();
     // Every test in the likelihood enters the verdict: the radius tests too, each as its
     // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
     // dwarf's two tests stay distinct).
     let n_obj = verdicts.len();
     for (k, r) in verdicts.iter().enumerate() {
-        if let Some(z) = r.radius_sigma_best.filter(|z| z.is_finite()) {
+        if let Some(z) = r.radius_sigma_best.get().filter(|z| z.is_finite()) {
             let ln_p = super::prob::ln_normal_cdf(-z.abs()) + std::f64::consts::LN_2;
             ln_ps.push((n_obj + k, ln_p.min(0.0)));
         }
@@ -408,4 +412,13 @@ pub fn mass_sigma_in_fit(
     let ln_p = conf.ln_p_in_fit(k, b)?;
     let z = super::prob::tension_sigma(ln_p);
     z.is_finite().then_some(z)
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn a_verdict_stays_compact() {
+        // One verdict per object is held while the outputs are written (see its doc comment).
+        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 56);
+    }
 }

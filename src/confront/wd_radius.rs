@@ -23,6 +23,7 @@
 //! assert!((f - (0.055f64.powi(2) + 0.04f64.powi(2)).sqrt()).abs() < 1e-12);
 //! ```
 
+use super::engine::LeftOut;
 use super::mass_terms::{MassTermOptions, Systematics};
 use super::nuisance::{eliminate_newton_value, Local, SharedNuisance};
 use crate::catalogue::{CatalogueObject, CoreLabel, EnvelopeLabel, MassLimit, MassMethod};
@@ -245,32 +246,20 @@ pub fn split_floor(total: f64, shared: f64) -> (f64, f64) {
     ((total * total - s * s).max(0.0).sqrt(), s)
 }
 
-/// Why a white dwarf with a radius is left out of the radius test (or `None`), with the flag
-/// for `objects.csv`.
-pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<(&'static str, String)> {
+/// Why a white dwarf with a radius is left out of the radius test (or `None`); its
+/// [`LeftOut::flag`] is the flag for `objects.csv`.
+pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<LeftOut> {
     if o.mass_method == MassMethod::Model && !opts.include_model_masses {
-        return Some((
-            "model_mass",
-            "mass from a standard-gravity model (circular for this test)".into(),
-        ));
+        return Some(LeftOut::ModelMass);
     }
     if opts.model == WdRadiusModel::Cold || o.radius_model_rsun.is_some() {
         return None;
     }
     if o.teff_k.is_none() {
-        return Some((
-            "no_teff",
-            "no Teff: the finite-temperature correction (3–30 %) exceeds the floor".into(),
-        ));
+        return Some(LeftOut::NoTeff);
     }
     if !opts.include_out_of_domain && o.mass_msun < opts.elm_max_msun {
-        return Some((
-            "elm",
-            format!(
-                "extremely low mass (< {} M☉): outside the model's domain",
-                opts.elm_max_msun
-            ),
-        ));
+        return Some(LeftOut::Elm);
     }
     None
 }

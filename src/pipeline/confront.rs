@@ -100,6 +100,8 @@ pub fn vet_all(inputs: &[CatalogueInput]) -> Result<Vetted, PipelineError> {
         crate::catalogue::vet::append(&mut all.quarantine, v.quarantine);
         all.tallies.extend(v.tallies);
     }
+    // Held until every output is written: no spare capacity (see `vet_files`).
+    all.objects.shrink_to_fit();
     Ok(all)
 }
 
@@ -361,7 +363,7 @@ pub fn run_confrontation(
                     TensionTest::MassRadius => format!("{} (radius)", o.class.label()),
                     TensionTest::Spin => format!("{} (spin)", o.class.label()),
                 };
-                (o.id.clone(), what, t.sigma)
+                (o.id.to_string(), what, t.sigma)
             })
             .collect(),
         theory_from_cache: from_cache,

@@ -165,7 +165,7 @@ fn opt_json(x: Option<f64>) -> Value {
 impl OutputContext<'_> {
     /// Tension of object `k` at the best fit, if it has one.
     pub(crate) fn sigma_best(&self, k: usize) -> Option<f64> {
-        self.verdicts[k].sigma_best
+        self.verdicts[k].sigma_best.get()
     }
 
     /// Drivers as (rank, object index, shift), by rank.
@@ -193,7 +193,7 @@ impl OutputContext<'_> {
     pub(crate) fn driver_sigma(&self, k: usize) -> Option<f64> {
         match self.driver_test(k)? {
             TensionTest::MassBound => self.sigma_best_in_fit(k),
-            TensionTest::MassRadius => self.verdicts[k].radius_sigma_best,
+            TensionTest::MassRadius => self.verdicts[k].radius_sigma_best.get(),
             TensionTest::Spin => self
                 .spin_verdicts
                 .iter()
@@ -242,25 +242,25 @@ impl OutputContext<'_> {
         let o = self.object(k);
         let u = &self.conf.uses[k];
         let mut row = vec![
-            Cell::Text(o.id.clone()),
+            Cell::Text(o.id.to_string()),
             Cell::Text(o.class.label().into()),
             Cell::Text(o.source_file.to_string()),
             Cell::Int(o.source_row as i64),
             Cell::Float(Some(o.mass_msun)),
-            Cell::Float(o.mass_err_lo_msun),
-            Cell::Float(o.mass_err_hi_msun),
+            Cell::Float(o.mass_err_lo_msun.get()),
+            Cell::Float(o.mass_err_hi_msun.get()),
             Cell::Text(o.mass_limit.label().into()),
-            Cell::Float(o.radius_rsun),
-            Cell::Float(o.radius_err_rsun),
-            Cell::Float(o.age_gyr),
+            Cell::Float(o.radius_rsun.get()),
+            Cell::Float(o.radius_err_rsun.get()),
+            Cell::Float(o.age_gyr.get()),
             Cell::Float(Some(u.mu_e)),
             Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
             Cell::Text(u.flags.join(";")),
-            Cell::Float(r.bound_standard),
-            Cell::Float(r.bound_best),
-            Cell::Float(r.sigma_standard),
-            Cell::Float(r.sigma_best),
-            Cell::Float(r.radius_sigma_standard),
+            Cell::Float(r.bound_standard.get()),
+            Cell::Float(r.bound_best.get()),
+            Cell::Float(r.sigma_standard.get()),
+            Cell::Float(r.sigma_best.get()),
+            Cell::Float(r.radius_sigma_standard.get()),
             match driver_rank {
                 Some(x) => Cell::Int(x as i64),
                 None => Cell::Text(String::new()),
@@ -268,7 +268,7 @@ impl OutputContext<'_> {
             Cell::Float(driver_shift.filter(|s| s.is_finite())),
             Cell::Bool(driver_shift.map(|s| s.is_infinite())),
             Cell::Float(self.sigma_best_in_fit(k)),
-            Cell::Float(r.radius_sigma_best),
+            Cell::Float(r.radius_sigma_best.get()),
             Cell::Text(
                 self.driver_test(k)
                     .map(|t| t.name().to_string())
@@ -282,8 +282,8 @@ impl OutputContext<'_> {
             _ => (None, None),
         };
         row.extend([
-            Cell::Float(o.rotation_period_h),
-            Cell::Float(o.rotation_period_err_h),
+            Cell::Float(o.rotation_period_h.get()),
+            Cell::Float(o.rotation_period_err_h.get()),
             Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
             Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
             Cell::Float(sv.and_then(|v| v.sigma_standard)),

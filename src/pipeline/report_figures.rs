@@ -12,7 +12,7 @@
 
 use super::outputs::OutputContext;
 use crate::catalogue::ObjectClass;
-use crate::confront::engine::Term;
+use crate::confront::engine::{LeftOut, Term};
 use crate::confront::regions::Level;
 use crate::confront::wd_radius::WdRadiusModel;
 use crate::report::{
@@ -184,7 +184,7 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
     for u in &ctx.conf.uses {
         let k = u.index;
         let o = ctx.vetted.objects.get(k)?;
-        let Some(radius_rsun) = o.radius_rsun.filter(|r| *r > 0.0) else {
+        let Some(radius_rsun) = o.radius_rsun.get().filter(|r| *r > 0.0) else {
             continue;
         };
         if o.class.label() != "white_dwarf" || o.mass_msun <= 0.0 {
@@ -203,19 +203,19 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
             WdPointFlag::OutsideModel
         };
         points.push(WdPoint {
-            id: o.id.clone(),
+            id: o.id.to_string(),
             mass_msun: o.mass_msun,
-            mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+            mass_err_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
                 (Some(a), Some(b)) => Some((a, b)),
                 _ => None,
             },
             radius_rsun,
-            radius_err_rsun: o.radius_err_rsun,
-            teff_k: o.teff_k,
+            radius_err_rsun: o.radius_err_rsun.get(),
+            teff_k: o.teff_k.get(),
             sigma: ctx
                 .verdicts
                 .get(k)
-                .and_then(|v| v.radius_sigma_standard)
+                .and_then(|v| v.radius_sigma_standard.get())
                 .filter(|s| s.is_finite()),
             flag,
         });
@@ -319,17 +319,13 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
             // (4/μe² for white dwarfs, 1 otherwise).
             let scale = u.measurement.scale;
             if scale > 0.0 {
-                standard = standard.or(v.bound_standard.map(|b| b / scale));
-                best = best.or(v.bound_best.map(|b| b / scale));
+                standard = standard.or(v.bound_standard.get().map(|b| b / scale));
+                best = best.or(v.bound_best.get().map(|b| b / scale));
             }
             let has = |f: &str| u.flags.iter().any(|g| g == f);
             let mark = if u.mass_term.is_some() {
                 MassMark::InFit
-            } else if u
-                .excluded
-                .as_deref()
-                .is_some_and(|e| e.starts_with("young"))
-            {
+            } else if u.excluded == Some(LeftOut::Young) {
                 MassMark::Young
             } else if has("model_mass") {
                 MassMark::ModelMass
@@ -337,15 +333,15 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
                 MassMark::LeftOut
             };
             objects.push(MassObject {
-                id: o.id.clone(),
+                id: o.id.to_string(),
                 mass_msun: o.mass_msun,
-                mass_err_msun: match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+                mass_err_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
                     (Some(a), Some(b)) => Some((a, b)),
                     _ => None,
                 },
                 sigma: (
-                    v.sigma_standard.filter(|s| s.is_finite()),
-                    v.sigma_best.filter(|s| s.is_finite()),
+                    v.sigma_standard.get().filter(|s| s.is_finite()),
+                    v.sigma_best.get().filter(|s| s.is_finite()),
                 ),
                 mark,
             });

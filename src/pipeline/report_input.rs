@@ -5,7 +5,7 @@ use std::path::Path;
 
 use super::error::PipelineError;
 use super::outputs::OutputContext;
-use crate::confront::engine::{BoundSurface, Term};
+use crate::confront::engine::{BoundSurface, LeftOut, Term};
 use crate::confront::regions::Level;
 use crate::confront::tension::{TensionTest, TestKey};
 use crate::report::text::fmt_sig;
@@ -23,7 +23,7 @@ const RELATIVISTIC_BOUND_UPSILON: f64 = -4.0 / 9.0;
 
 fn mass_text(ctx: &OutputContext<'_>, k: usize) -> String {
     let o = &ctx.vetted.objects[k];
-    let err = match (o.mass_err_lo_msun, o.mass_err_hi_msun) {
+    let err = match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
         (Some(a), Some(b)) if a == b => format!(" ± {a:.4}"),
         (Some(a), Some(b)) => format!(" −{a:.4}/+{b:.4}"),
         _ => String::new(),
@@ -416,7 +416,7 @@ pub(crate) fn write_report_files(
         .objects
         .iter()
         .filter(|o| o.class.label() == "white_dwarf" && o.mass_msun > 1.253)
-        .map(|o| o.id.clone())
+        .map(|o| o.id.to_string())
         .collect();
     if !pn_ids.is_empty() {
         warnings.push(Warning::PostNewtonianWhiteDwarf {
@@ -437,14 +437,15 @@ pub(crate) fn write_report_files(
     if let Some(n) = &ctx.cache_note {
         warnings.push(Warning::Other(n.clone()));
     }
-    let left_out: Vec<&str> = ctx
-        .conf
-        .uses
-        .iter()
-        .filter_map(|u| u.excluded.as_deref())
-        .collect();
-    let n_young = left_out.iter().filter(|e| e.starts_with("young")).count();
-    let n_no_age = left_out.iter().filter(|e| e.starts_with("age")).count();
+    let left_out = |why: LeftOut| {
+        ctx.conf
+            .uses
+            .iter()
+            .filter(|u| u.excluded == Some(why))
+            .count()
+    };
+    let n_young = left_out(LeftOut::Young);
+    let n_no_age = left_out(LeftOut::AgeUnknown);
     let count_flag = |flag: &str| {
         ctx.conf
             .uses
@@ -707,7 +708,7 @@ pub(crate) fn write_report_files(
                     let o = &ctx.vetted.objects[key.object];
                     WorstObject {
                         id: match key.test {
-                            TensionTest::MassBound => o.id.clone(),
+                            TensionTest::MassBound => o.id.to_string(),
                             TensionTest::MassRadius => format!("{} (radius)", o.id),
                             TensionTest::Spin => format!("{} (spin)", o.id),
                         },
@@ -738,19 +739,19 @@ pub(crate) fn write_report_files(
                             format!(
                                 "{}; R = {:.5} ± {:.5} R☉",
                                 mass_text(ctx, k),
-                                o.radius_rsun.unwrap_or(0.0),
-                                o.radius_err_rsun.unwrap_or(0.0)
+                                o.radius_rsun.get().unwrap_or(0.0),
+                                o.radius_err_rsun.get().unwrap_or(0.0)
                             ),
                         ),
                     };
                     TensionRow {
-                        id: o.id.clone(),
+                        id: o.id.to_string(),
                         class,
                         mass_text: text,
                         sigma_standard_gravity: t.sigma,
                         sigma_best_fit: match t.test {
                             TensionTest::MassBound => ctx.sigma_best(k),
-                            TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best,
+                            TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best.get(),
                             TensionTest::Spin => ctx.driver_sigma(k),
                         },
                         two_sided: t.test == TensionTest::MassRadius,
@@ -763,7 +764,7 @@ pub(crate) fn write_report_files(
             .into_iter()
             .map(|(rank, k, shift)| DriverRow {
                 rank,
-                id: ctx.vetted.objects[k].id.clone(),
+                id: ctx.vetted.objects[k].id.to_string(),
                 class: ctx.vetted.objects[k].class.label().into(),
                 shift: if shift.is_finite() {
                     Shift::Finite(shift)
