@@ -62,32 +62,59 @@ pub fn write_accepted(
     out: &mut impl std::io::Write,
     objects: &[CatalogueObject],
 ) -> Result<(), csv::Error> {
-    use rayon::prelude::*;
-    let mut header: Vec<u8> = Vec::new();
-    for (i, h) in ACCEPTED_COLUMNS.iter().enumerate() {
-        if i > 0 {
-            header.push(b',');
-        }
-        push_field(&mut header, h.as_bytes());
-    }
-    header.push(b'\n');
-    out.write_all(&header)?;
-    let batch = ROWS_PER_BLOCK * 2 * rayon::current_num_threads().max(1);
-    for objects in objects.chunks(batch) {
-        let blocks: Vec<Vec<u8>> = objects
-            .par_chunks(ROWS_PER_BLOCK)
-            .map(|block| {
-                let mut buf = Vec::with_capacity(block.len() * 128);
-                push_rows(&mut buf, block);
-                buf
-            })
-            .collect();
-        for b in blocks {
-            out.write_all(&b)?;
-        }
-    }
-    out.flush()?;
+    let mut w = AcceptedWriter::new(out)?;
+    w.write(objects)?;
+    w.finish()?;
     Ok(())
+}
+
+/// `accepted.csv` written a batch of objects at a time, as they are vetted (`vet` holds no
+/// more than a batch; see [`crate::catalogue::vet::ObjectSink`]). Each row depends on its
+/// object alone, so the bytes are [`write_accepted`]'s however the objects are cut.
+pub struct AcceptedWriter<W: std::io::Write> {
+    out: W,
+}
+
+impl<W: std::io::Write> AcceptedWriter<W> {
+    /// Writes the header.
+    pub fn new(mut out: W) -> Result<Self, csv::Error> {
+        let mut header: Vec<u8> = Vec::new();
+        for (i, h) in ACCEPTED_COLUMNS.iter().enumerate() {
+            if i > 0 {
+                header.push(b',');
+            }
+            push_field(&mut header, h.as_bytes());
+        }
+        header.push(b'\n');
+        out.write_all(&header)?;
+        Ok(Self { out })
+    }
+
+    /// Writes the rows of `objects`, formatted in parallel blocks.
+    pub fn write(&mut self, objects: &[CatalogueObject]) -> Result<(), csv::Error> {
+        use rayon::prelude::*;
+        let batch = ROWS_PER_BLOCK * 2 * rayon::current_num_threads().max(1);
+        for objects in objects.chunks(batch) {
+            let blocks: Vec<Vec<u8>> = objects
+                .par_chunks(ROWS_PER_BLOCK)
+                .map(|block| {
+                    let mut buf = Vec::with_capacity(block.len() * 128);
+                    push_rows(&mut buf, block);
+                    buf
+                })
+                .collect();
+            for b in blocks {
+                self.out.write_all(&b)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// Flushes and returns the output.
+    pub fn finish(mut self) -> Result<W, csv::Error> {
+        self.out.flush()?;
+        Ok(self.out)
+    }
 }
 
 /// Objects per block of `accepted.csv` formatted at once (~0.8 MB of text).

@@ -33,7 +33,7 @@ use super::colmap::ColumnMap;
 use super::error::CatalogueError;
 use super::guard;
 use super::table::{Cell, CellRef, ColumnMeta, RawRow, RawTable};
-use super::vet::{CatalogueObject, CatalogueTally, QuarantinedRow, RowVetter};
+use super::vet::{CatalogueObject, CatalogueTally, ObjectSink, QuarantinedRow, RowVetter};
 
 /// Largest integer magnitude an `f64` holds exactly.
 const EXACT_INT_F64: u64 = 1 << 53;
@@ -174,6 +174,7 @@ pub fn vet_streaming(
     label: &str,
     map: Option<&ColumnMap>,
     wanted: &[String],
+    mut sink: Option<&mut dyn ObjectSink>,
 ) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
     let unreadable = |e: std::io::Error| CatalogueError::Unreadable {
         path: path.to_path_buf(),
@@ -236,7 +237,8 @@ pub fn vet_streaming(
                         ucd: None,
                     })
                     .collect();
-                let v = vetter.insert(RowVetter::new(label, &metas, map)?);
+                let v =
+                    vetter.insert(RowVetter::new(label, &metas, map)?.streaming(sink.is_some()));
                 // The row count comes from the file: never trusted beyond one row per byte.
                 let bytes = file.metadata().map_or(0, |m| m.len());
                 v.reserve(metadata.num_rows.min(usize::try_from(bytes).unwrap_or(0)));
@@ -284,11 +286,12 @@ pub fn vet_streaming(
             cells.extend(slice_columns.iter().map(|c| c.get(r)));
             v.push(offset + r + 1, &cells, None);
         }
+        v.hand_over(super::vet::reborrow(&mut sink));
         bar.inc(height as u64);
     }
     bar.finish_and_clear();
     match vetter {
-        Some(v) => v.finish(),
+        Some(v) => v.finish_into(sink),
         None => Err(invalid(DECODER_FAILED.into())),
     }
 }
@@ -426,7 +429,7 @@ mod tests {
             .iter()
             .map(|c| c.to_string())
             .collect();
-        let streamed = vet_streaming(&path, "s.parquet", None, &wanted).unwrap();
+        let streamed = vet_streaming(&path, "s.parquet", None, &wanted, None).unwrap();
         let table = read(&path, Some(&wanted)).unwrap();
         let whole = crate::catalogue::vet::vet_table("s.parquet", &table, None).unwrap();
         assert_eq!(streamed, whole);

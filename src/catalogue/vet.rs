@@ -1200,6 +1200,21 @@ pub enum RowOutcome {
     Rejected(QuarantinedRow),
 }
 
+/// Takes the accepted objects while the catalogues are read, so that a caller that needs each
+/// object only once (`vet`: `accepted.csv`, the summary, the first look at the tensions) never
+/// holds them all: a million objects were 272 MB of memory, and their page faults, copies and
+/// frees a third of `vet` (perf). See [`vet_files_into`].
+pub trait ObjectSink {
+    /// A new catalogue begins (its objects follow, then the next catalogue's).
+    fn begin_catalogue(&mut self);
+    /// The next accepted objects, in file and row order.
+    fn accepted(&mut self, objects: &[CatalogueObject]);
+    /// A lookalike id concerns objects already handed over: they should have been quarantined,
+    /// so everything the sink was given is void and the caller must vet again while holding the
+    /// objects ([`vet_files`]). Rare: only a file with two spellings of one id.
+    fn spoiled(&mut self);
+}
+
 /// Vets the rows of one table as they come, in file order, so that a large catalogue is never
 /// held as a table of cells: only the accepted objects, the quarantined rows and one entry per
 /// id are kept.
@@ -1219,6 +1234,10 @@ pub struct RowVetter<'m> {
     rows_in: usize,
     objects: Vec<CatalogueObject>,
     quarantine: Vec<QuarantinedRow>,
+    /// Objects handed to a sink so far ([`RowVetter::hand_over`]).
+    handed: usize,
+    /// Whether the accepted objects go to a sink (then they are not reserved room for).
+    streaming: bool,
 }
 
 impl<'m> RowVetter<'m> {
@@ -1238,7 +1257,37 @@ impl<'m> RowVetter<'m> {
             rows_in: 0,
             objects: Vec::new(),
             quarantine: Vec::new(),
+            handed: 0,
+            streaming: false,
         })
+    }
+
+    /// Marks the accepted objects as going to a sink ([`RowVetter::hand_over`],
+    /// [`RowVetter::finish_into`]) rather than kept: [`RowVetter::reserve`] then reserves no
+    /// room for them.
+    pub fn streaming(mut self, yes: bool) -> Self {
+        self.streaming = yes;
+        self
+    }
+
+    /// Hands the objects accepted so far to `sink`, if there is one (a reader calls it after
+    /// each block of rows). Once a lookalike id has been seen the objects are kept instead:
+    /// [`RowVetter::finish_into`] must be able to move the rows it concerns to the quarantine.
+    pub fn hand_over(&mut self, sink: Option<&mut dyn ObjectSink>) {
+        if !self.any_lookalike {
+            self.give_to(sink);
+        }
+    }
+
+    fn give_to(&mut self, sink: Option<&mut dyn ObjectSink>) {
+        if self.objects.is_empty() {
+            return;
+        }
+        if let Some(sink) = sink {
+            sink.accepted(&self.objects);
+            self.handed += self.objects.len();
+            self.objects.clear();
+        }
     }
 
     /// Vets one data row: `cells` in the table's column order, `malformed` the reader's reason
@@ -1354,7 +1403,9 @@ impl<'m> RowVetter<'m> {
     /// Makes room for `rows` more rows (a reader that knows the count: one allocation instead
     /// of a doubling series, whose last step briefly holds the old and the new array).
     pub fn reserve(&mut self, rows: usize) {
-        self.objects.reserve(rows);
+        if !self.streaming {
+            self.objects.reserve(rows);
+        }
         self.ids.reserve(rows);
     }
 
@@ -1371,18 +1422,37 @@ impl<'m> RowVetter<'m> {
 
     /// Settles the lookalike ids and checks rows in = accepted + quarantined.
     pub fn finish(
+        self,
+    ) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
+        self.finish_into(None)
+    }
+
+    /// [`RowVetter::finish`], handing the remaining accepted objects to `sink` (if any); a
+    /// lookalike id after objects were handed over spoils the sink ([`ObjectSink::spoiled`]).
+    pub fn finish_into(
         mut self,
+        mut sink: Option<&mut dyn ObjectSink>,
     ) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
         if self.any_lookalike {
+            if self.handed > 0 {
+                // Some of the rows the lookalike concerns may have been handed over already.
+                if let Some(s) = sink.as_deref_mut() {
+                    s.spoiled();
+                }
+            }
             self.settle_lookalikes();
         }
         let tally = CatalogueTally {
             path: self.path_label.clone(),
             rows_in: self.rows_in,
-            rows_accepted: self.objects.len(),
+            rows_accepted: self.handed + self.objects.len(),
             rows_quarantined: self.quarantine.len(),
         };
         check_reconciled(&tally)?;
+        if self.handed == 0 || !self.any_lookalike {
+            // Settled: the rest can go (all of it when nothing went before the lookalike).
+            self.give_to(sink);
+        }
         Ok((self.objects, self.quarantine, tally))
     }
 
@@ -1478,6 +1548,19 @@ pub fn vet_files(
     map: Option<&ColumnMap>,
     opts: &ReadOptions,
 ) -> Result<Vetted, CatalogueError> {
+    vet_files_into(paths, map, opts, None)
+}
+
+/// [`vet_files`], handing the accepted objects to `sink` as they are vetted instead of keeping
+/// them: the result's `objects` is then empty (its quarantine and tallies are complete). If
+/// the sink was told [`ObjectSink::spoiled`], what it was given is void: call [`vet_files`].
+/// The objects the sink sees, in order and catalogue by catalogue, are exactly `vet_files`'s.
+pub fn vet_files_into(
+    paths: &[PathBuf],
+    map: Option<&ColumnMap>,
+    opts: &ReadOptions,
+    mut sink: Option<&mut dyn ObjectSink>,
+) -> Result<Vetted, CatalogueError> {
     let mut opts = opts.clone();
     if opts.table.is_none() {
         opts.table = map.and_then(|m| m.table.clone());
@@ -1500,10 +1583,15 @@ pub fn vet_files(
             Some(f) => Some(f),
             None => Format::from_path(path),
         };
+        if let Some(s) = reborrow(&mut sink) {
+            s.begin_catalogue();
+        }
         let (objects, quarantine, tally) = match format {
-            Some(Format::Csv) => super::read_csv::vet_streaming(path, &label, map)?,
+            Some(Format::Csv) => {
+                super::read_csv::vet_streaming(path, &label, map, reborrow(&mut sink))?
+            }
             Some(Format::Parquet) => super::guard::quietly(|| {
-                super::read_parquet::vet_streaming(path, &label, map, &wanted)
+                super::read_parquet::vet_streaming(path, &label, map, &wanted, reborrow(&mut sink))
             })
             .unwrap_or_else(|_| {
                 Err(CatalogueError::Invalid {
@@ -1515,7 +1603,14 @@ pub fn vet_files(
             })?,
             _ => {
                 let table = read_table_columns(path, &opts, Some(&wanted))?;
-                vet_table(&label, &table, map)?
+                let (objects, quarantine, tally) = vet_table(&label, &table, map)?;
+                match reborrow(&mut sink) {
+                    Some(s) => {
+                        s.accepted(&objects);
+                        (Vec::new(), quarantine, tally)
+                    }
+                    None => (objects, quarantine, tally),
+                }
             }
         };
         append(&mut out.objects, objects);
@@ -1523,6 +1618,17 @@ pub fn vet_files(
         out.tallies.push(tally);
     }
     Ok(out)
+}
+
+/// The sink for one call, its trait object's lifetime shortened to the call (a coercion that
+/// `Option::as_deref_mut` cannot make).
+pub(crate) fn reborrow<'a>(
+    sink: &'a mut Option<&mut dyn ObjectSink>,
+) -> Option<&'a mut dyn ObjectSink> {
+    match sink {
+        Some(s) => Some(&mut **s),
+        None => None,
+    }
 }
 
 #[cfg(test)]
