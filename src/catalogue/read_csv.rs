@@ -28,7 +28,7 @@ use super::colmap::ColumnMap;
 use super::error::CatalogueError;
 use super::table::{Cell, CellRef, ColumnMeta, RawRow, RawTable};
 use super::vet::{
-    CatalogueObject, CatalogueTally, ObjectSink, QuarantinedRow, RowOutcome, RowVetter,
+    BlockOutcomes, CatalogueObject, CatalogueTally, ObjectSink, QuarantinedRow, RowVetter,
 };
 
 /// Splits `mass[jupiterMass]` into (`mass`, `Some("jupiterMass")`); the unit runs from the first
@@ -465,6 +465,8 @@ fn vet_blocks(
     let mut carry: Vec<u8> = Vec::new();
     let mut eof = false;
     let mut first_row_seen = false;
+    // Each block's outcomes, kept from round to round (their capacity is reused).
+    let mut outcomes: Vec<BlockOutcomes> = Vec::new();
     while !eof {
         // A few blocks of whole lines, each with the number of rows before it.
         let mut blocks: Vec<(usize, Vec<u8>)> = Vec::with_capacity(batch);
@@ -524,23 +526,23 @@ fn vet_blocks(
             rows_before += rows;
         }
         let shared: &RowVetter<'_> = vetter;
-        let outcomes: Vec<Vec<RowOutcome>> = blocks
+        if outcomes.len() < blocks.len() {
+            outcomes.resize_with(blocks.len(), BlockOutcomes::default);
+        }
+        blocks
             .par_iter()
-            .map(|(before, block)| {
+            .zip(outcomes.par_iter_mut())
+            .for_each(|((before, block), out)| {
                 let mut splitter = Splitter::new(ncols);
-                let mut out = Vec::new();
                 for (row_number, line) in (*before + 1..).zip(lines(block).flatten()) {
                     splitter.row(line, |cells, malformed| {
-                        out.push(shared.vet_one(row_number, cells, malformed))
+                        shared.vet_into(out, row_number, cells, malformed)
                     });
                 }
-                out
-            })
-            .collect();
-        for o in outcomes.into_iter().flatten() {
-            vetter.accept(o);
+            });
+        for out in &mut outcomes[..blocks.len()] {
+            vetter.accept_block(out, super::vet::reborrow(&mut sink));
         }
-        vetter.hand_over(super::vet::reborrow(&mut sink));
         bar.set_position(consumed);
     }
     Ok(())

@@ -1186,6 +1186,26 @@ struct IdEntry {
     len: usize,
 }
 
+/// The outcomes of a block of rows before the ids' check ([`RowVetter::vet_into`],
+/// [`RowVetter::accept_block`]): the objects that passed every other check side by side, so
+/// that they can be handed over as they lie, and one event per row in row order.
+#[derive(Debug, Default)]
+pub struct BlockOutcomes {
+    objects: Vec<CatalogueObject>,
+    events: Vec<RowEvent>,
+}
+
+/// One row of a [`BlockOutcomes`].
+#[derive(Debug)]
+enum RowEvent {
+    /// The next object of the block; the id as read when it differs from the normalised id.
+    Object(Option<Box<str>>),
+    /// The reader could only partly parse the row.
+    Malformed(QuarantinedRow),
+    /// A column failed.
+    Rejected(QuarantinedRow),
+}
+
 /// What [`RowVetter::vet_one`] makes of one row before the ids' check.
 // The object inline: an outcome is moved once, into the accepted objects; a box would be an
 // allocation per row.
@@ -1342,62 +1362,130 @@ impl<'m> RowVetter<'m> {
     /// other column, as in the module table).
     pub fn accept(&mut self, outcome: RowOutcome) {
         self.rows_in += 1;
-        let (row, raw) = match &outcome {
-            RowOutcome::Malformed(q) => {
-                self.quarantine.push(q.clone());
-                return;
+        match outcome {
+            RowOutcome::Malformed(q) => self.quarantine.push(q),
+            RowOutcome::Accepted(obj, raw) => {
+                let raw = raw.as_deref().unwrap_or(obj.id.as_str());
+                match self.id_failure(obj.source_row, Some(raw)) {
+                    Some(q) => self.quarantine.push(q),
+                    None => self.objects.push(obj),
+                }
             }
-            RowOutcome::Accepted(obj, raw) => (
-                obj.source_row,
-                Some(raw.as_deref().unwrap_or(obj.id.as_str())),
-            ),
-            RowOutcome::Rejected(q) => (q.row, q.id.as_deref()),
-        };
-        // An id of invisible characters only is left to `vet_row` (missing id).
-        if let Some(raw) = raw {
-            let key = normalised(raw);
-            if !key.is_empty() {
-                let failure = match self.ids.find(key.as_ref()) {
-                    None => {
-                        let first_raw = (raw != key).then(|| raw.into());
-                        self.ids.insert(key.as_ref(), first_raw);
-                        None
+            RowOutcome::Rejected(q) => {
+                let failure = self.id_failure(q.row, q.id.as_deref());
+                self.quarantine.push(failure.unwrap_or(q));
+            }
+        }
+    }
+
+    /// [`RowVetter::vet_one`] into a block's outcomes (rows may go through it in parallel,
+    /// one block each, as long as the blocks reach [`RowVetter::accept_block`] in row order).
+    pub fn vet_into(
+        &self,
+        block: &mut BlockOutcomes,
+        row_number: usize,
+        cells: &[CellRef<'_>],
+        malformed: Option<&str>,
+    ) {
+        match self.vet_one(row_number, cells, malformed) {
+            RowOutcome::Accepted(obj, raw) => {
+                block.objects.push(obj);
+                block.events.push(RowEvent::Object(raw));
+            }
+            RowOutcome::Malformed(q) => block.events.push(RowEvent::Malformed(q)),
+            RowOutcome::Rejected(q) => block.events.push(RowEvent::Rejected(q)),
+        }
+    }
+
+    /// [`RowVetter::accept`] for every row of a block, in row order, leaving `block` empty
+    /// (its capacity kept for the next block). The block's objects that pass the ids' check
+    /// go to `sink` as they lie, or are kept; no object is moved one at a time (moving each
+    /// 272-byte object through the outcome and into the kept vector was ~7 % of `vet`, perf).
+    pub fn accept_block(&mut self, block: &mut BlockOutcomes, sink: Option<&mut dyn ObjectSink>) {
+        let mut next_object = 0;
+        let mut failed_objects: Vec<usize> = Vec::new();
+        for event in block.events.drain(..) {
+            self.rows_in += 1;
+            match event {
+                RowEvent::Malformed(q) => self.quarantine.push(q),
+                RowEvent::Rejected(q) => {
+                    let failure = self.id_failure(q.row, q.id.as_deref());
+                    self.quarantine.push(failure.unwrap_or(q));
+                }
+                RowEvent::Object(raw) => {
+                    let obj = &block.objects[next_object];
+                    let raw = raw.as_deref().unwrap_or(obj.id.as_str());
+                    if let Some(q) = self.id_failure(obj.source_row, Some(raw)) {
+                        self.quarantine.push(q);
+                        failed_objects.push(next_object);
                     }
-                    Some(at) => {
-                        let first = self.ids.first_raw.get(&at).map_or(key.as_ref(), |b| &**b);
-                        if first != raw {
-                            self.ids.lookalike.insert(at);
-                            self.any_lookalike = true;
-                        }
-                        Some(if self.ids.is_lookalike(at) {
-                            reason::LOOKALIKE_ID
-                        } else {
-                            reason::DUPLICATE_ID
-                        })
-                    }
-                };
-                if let Some(why) = failure {
-                    let column = self
-                        .layout
-                        .get("id")
-                        .map_or("id".to_string(), |c| c.name.clone());
-                    let q = QuarantinedRow {
-                        file: self.path_label.clone(),
-                        row,
-                        id: Some(raw.to_string()),
-                        column,
-                        reason: why.to_string(),
-                    };
-                    self.quarantine.push(q);
-                    return;
+                    next_object += 1;
                 }
             }
         }
-        match outcome {
-            RowOutcome::Accepted(obj, _) => self.objects.push(obj),
-            RowOutcome::Rejected(q) => self.quarantine.push(q),
-            RowOutcome::Malformed(_) => {}
+        if !failed_objects.is_empty() {
+            let mut failed = failed_objects.into_iter().peekable();
+            let mut k = 0;
+            block.objects.retain(|_| {
+                let drop = failed.peek() == Some(&k);
+                if drop {
+                    failed.next();
+                }
+                k += 1;
+                !drop
+            });
         }
+        match sink {
+            Some(sink) if !self.any_lookalike && self.objects.is_empty() => {
+                if !block.objects.is_empty() {
+                    sink.accepted(&block.objects);
+                    self.handed += block.objects.len();
+                }
+                block.objects.clear();
+            }
+            _ => self.objects.append(&mut block.objects),
+        }
+    }
+
+    /// The ids' check of one row (`raw`: its id as read): the quarantine entry when the id is a
+    /// duplicate or a lookalike, else `None` (a new id is recorded).
+    fn id_failure(&mut self, row: usize, raw: Option<&str>) -> Option<QuarantinedRow> {
+        // An id of invisible characters only is left to `vet_row` (missing id).
+        let raw = raw?;
+        let key = normalised(raw);
+        if key.is_empty() {
+            return None;
+        }
+        let why = match self.ids.find(key.as_ref()) {
+            None => {
+                let first_raw = (raw != key).then(|| raw.into());
+                self.ids.insert(key.as_ref(), first_raw);
+                return None;
+            }
+            Some(at) => {
+                let first = self.ids.first_raw.get(&at).map_or(key.as_ref(), |b| &**b);
+                if first != raw {
+                    self.ids.lookalike.insert(at);
+                    self.any_lookalike = true;
+                }
+                if self.ids.is_lookalike(at) {
+                    reason::LOOKALIKE_ID
+                } else {
+                    reason::DUPLICATE_ID
+                }
+            }
+        };
+        let column = self
+            .layout
+            .get("id")
+            .map_or("id".to_string(), |c| c.name.clone());
+        Some(QuarantinedRow {
+            file: self.path_label.clone(),
+            row,
+            id: Some(raw.to_string()),
+            column,
+            reason: why.to_string(),
+        })
     }
 
     /// Makes room for `rows` more rows (a reader that knows the count: one allocation instead
