@@ -465,8 +465,12 @@ fn vet_blocks(
     let mut carry: Vec<u8> = Vec::new();
     let mut eof = false;
     let mut first_row_seen = false;
-    // Each block's outcomes, kept from round to round (their capacity is reused).
+    // Each block's outcomes, kept from round to round (their capacity is reused): `outcomes`
+    // is being filled, `ready` (its first `ready_blocks`) waits for the ids' check.
     let mut outcomes: Vec<BlockOutcomes> = Vec::new();
+    let mut ready: Vec<BlockOutcomes> = Vec::new();
+    let mut ready_blocks = 0;
+    let checker = vetter.checker();
     while !eof {
         // A few blocks of whole lines, each with the number of rows before it.
         let mut blocks: Vec<(usize, Vec<u8>)> = Vec::with_capacity(batch);
@@ -525,25 +529,40 @@ fn vet_blocks(
             blocks.push((rows_before, block));
             rows_before += rows;
         }
-        let shared: &RowVetter<'_> = vetter;
         if outcomes.len() < blocks.len() {
             outcomes.resize_with(blocks.len(), BlockOutcomes::default);
         }
-        blocks
-            .par_iter()
-            .zip(outcomes.par_iter_mut())
-            .for_each(|((before, block), out)| {
-                let mut splitter = Splitter::new(ncols);
-                for (row_number, line) in (*before + 1..).zip(lines(block).flatten()) {
-                    splitter.row(line, |cells, malformed| {
-                        shared.vet_into(out, row_number, cells, malformed)
-                    });
+        // The ids of the previous round's rows are checked (and its objects handed over)
+        // while this round's rows are vetted: the ids' check is serial, and the other core
+        // would otherwise wait for it.
+        let (checking, vetting) = (&mut ready[..ready_blocks], &mut outcomes[..]);
+        let (vetter_ids, sink_now) = (&mut *vetter, &mut sink);
+        rayon::join(
+            || {
+                for out in checking {
+                    vetter_ids.accept_block(out, super::vet::reborrow(sink_now));
                 }
-            });
-        for out in &mut outcomes[..blocks.len()] {
-            vetter.accept_block(out, super::vet::reborrow(&mut sink));
-        }
+            },
+            || {
+                blocks
+                    .par_iter()
+                    .zip(vetting.par_iter_mut())
+                    .for_each(|((before, block), out)| {
+                        let mut splitter = Splitter::new(ncols);
+                        for (row_number, line) in (*before + 1..).zip(lines(block).flatten()) {
+                            splitter.row(line, |cells, malformed| {
+                                checker.vet_into(out, row_number, cells, malformed)
+                            });
+                        }
+                    })
+            },
+        );
+        std::mem::swap(&mut ready, &mut outcomes);
+        ready_blocks = blocks.len();
         bar.set_position(consumed);
+    }
+    for out in &mut ready[..ready_blocks] {
+        vetter.accept_block(out, super::vet::reborrow(&mut sink));
     }
     Ok(())
 }

@@ -466,7 +466,7 @@ struct Col {
 /// The canonical columns found in one table, by their slot in
 /// [`CANONICAL_COLUMNS`](super::colmap::CANONICAL_COLUMNS): a row looks its columns up ~20
 /// times, so a hash map here was a measurable share of vetting a large file.
-#[derive(Debug, Default)]
+#[derive(Debug, Default, Clone)]
 struct Layout {
     cols: [Option<Col>; 21],
 }
@@ -1223,8 +1223,9 @@ pub enum RowOutcome {
 /// Takes the accepted objects while the catalogues are read, so that a caller that needs each
 /// object only once (`vet`: `accepted.csv`, the summary, the first look at the tensions) never
 /// holds them all: a million objects were 272 MB of memory, and their page faults, copies and
-/// frees a third of `vet` (perf). See [`vet_files_into`].
-pub trait ObjectSink {
+/// frees a third of `vet` (perf). See [`vet_files_into`]. `Send`: the CSV reader checks the
+/// ids, and hands the objects over, on whichever thread is free while the next rows are vetted.
+pub trait ObjectSink: Send {
     /// A new catalogue begins (its objects follow, then the next catalogue's).
     fn begin_catalogue(&mut self);
     /// The next accepted objects, in file and row order.
@@ -1233,6 +1234,78 @@ pub trait ObjectSink {
     /// so everything the sink was given is void and the caller must vet again while holding the
     /// objects ([`vet_files`]). Rare: only a file with two spellings of one id.
     fn spoiled(&mut self);
+}
+
+/// The checks of a row that depend on the row alone (every check but the ids'), for one
+/// table's resolved columns: cheap to clone, and shared by the threads that vet rows in
+/// parallel while the [`RowVetter`] that made it checks the ids of earlier rows.
+#[derive(Debug, Clone)]
+pub struct RowChecker<'m> {
+    path_label: String,
+    source_file: SourceFile,
+    layout: Layout,
+    map: Option<&'m ColumnMap>,
+}
+
+impl RowChecker<'_> {
+    /// The part of [`RowVetter::push`] that depends on the row alone (every check but the
+    /// ids'): rows may go through it in parallel, as long as their outcomes reach
+    /// [`RowVetter::accept`] in row order.
+    pub fn vet_one(
+        &self,
+        row_number: usize,
+        cells: &[CellRef<'_>],
+        malformed: Option<&str>,
+    ) -> RowOutcome {
+        let view = RowView {
+            layout: &self.layout,
+            cells,
+        };
+        let id = view.text("id");
+        let quarantined = |column: String, reason: String| QuarantinedRow {
+            file: self.path_label.clone(),
+            row: row_number,
+            id: id.as_deref().map(str::to_string),
+            column,
+            reason,
+        };
+        if let Some(why) = malformed {
+            return RowOutcome::Malformed(quarantined(
+                reason::WHOLE_ROW.to_string(),
+                format!("{}{why}", reason::MALFORMED_PREFIX),
+            ));
+        }
+        match vet_row(&view, self.map, &self.source_file, row_number) {
+            Ok(obj) => {
+                // The id as read, kept only when it is not the normalised id itself.
+                let raw = id
+                    .as_deref()
+                    .filter(|raw| *raw != obj.id)
+                    .map(Box::<str>::from);
+                RowOutcome::Accepted(obj, raw)
+            }
+            Err((c, w)) => RowOutcome::Rejected(quarantined(c, w)),
+        }
+    }
+
+    /// [`RowChecker::vet_one`] into a block's outcomes (rows may go through it in parallel,
+    /// one block each, as long as the blocks reach [`RowVetter::accept_block`] in row order).
+    pub fn vet_into(
+        &self,
+        block: &mut BlockOutcomes,
+        row_number: usize,
+        cells: &[CellRef<'_>],
+        malformed: Option<&str>,
+    ) {
+        match self.vet_one(row_number, cells, malformed) {
+            RowOutcome::Accepted(obj, raw) => {
+                block.objects.push(obj);
+                block.events.push(RowEvent::Object(raw));
+            }
+            RowOutcome::Malformed(q) => block.events.push(RowEvent::Malformed(q)),
+            RowOutcome::Rejected(q) => block.events.push(RowEvent::Rejected(q)),
+        }
+    }
 }
 
 /// Vets the rows of one table as they come, in file order, so that a large catalogue is never
@@ -1245,10 +1318,7 @@ pub trait ObjectSink {
 /// concerns are moved to the quarantine in [`RowVetter::finish`] (a rare path); the result is
 /// the same as checking all ids before the rows.
 pub struct RowVetter<'m> {
-    path_label: String,
-    source_file: SourceFile,
-    layout: Layout,
-    map: Option<&'m ColumnMap>,
+    check: RowChecker<'m>,
     ids: IdTable,
     any_lookalike: bool,
     rows_in: usize,
@@ -1268,10 +1338,12 @@ impl<'m> RowVetter<'m> {
         map: Option<&'m ColumnMap>,
     ) -> Result<Self, CatalogueError> {
         Ok(Self {
-            path_label: path_label.to_string(),
-            source_file: SourceFile::from(path_label),
-            layout: resolve(Path::new(path_label), columns, map)?,
-            map,
+            check: RowChecker {
+                path_label: path_label.to_string(),
+                source_file: SourceFile::from(path_label),
+                layout: resolve(Path::new(path_label), columns, map)?,
+                map,
+            },
             ids: IdTable::default(),
             any_lookalike: false,
             rows_in: 0,
@@ -1319,42 +1391,21 @@ impl<'m> RowVetter<'m> {
 
     /// The part of [`RowVetter::push`] that depends on the row alone (every check but the
     /// ids'): rows may go through it in parallel, as long as their outcomes reach
-    /// [`RowVetter::accept`] in row order.
+    /// [`RowVetter::accept`] in row order. See [`RowChecker::vet_one`].
     pub fn vet_one(
         &self,
         row_number: usize,
         cells: &[CellRef<'_>],
         malformed: Option<&str>,
     ) -> RowOutcome {
-        let view = RowView {
-            layout: &self.layout,
-            cells,
-        };
-        let id = view.text("id");
-        let quarantined = |column: String, reason: String| QuarantinedRow {
-            file: self.path_label.clone(),
-            row: row_number,
-            id: id.as_deref().map(str::to_string),
-            column,
-            reason,
-        };
-        if let Some(why) = malformed {
-            return RowOutcome::Malformed(quarantined(
-                reason::WHOLE_ROW.to_string(),
-                format!("{}{why}", reason::MALFORMED_PREFIX),
-            ));
-        }
-        match vet_row(&view, self.map, &self.source_file, row_number) {
-            Ok(obj) => {
-                // The id as read, kept only when it is not the normalised id itself.
-                let raw = id
-                    .as_deref()
-                    .filter(|raw| *raw != obj.id)
-                    .map(Box::<str>::from);
-                RowOutcome::Accepted(obj, raw)
-            }
-            Err((c, w)) => RowOutcome::Rejected(quarantined(c, w)),
-        }
+        self.check.vet_one(row_number, cells, malformed)
+    }
+
+    /// The row-only checks, detached from the ids' state: a reader vets the next rows with
+    /// them while this vetter checks the ids of the rows before (see
+    /// [`RowVetter::accept_block`]).
+    pub fn checker(&self) -> RowChecker<'m> {
+        self.check.clone()
     }
 
     /// Applies the ids' check to a row's outcome, in row order, and keeps the result: a
@@ -1378,8 +1429,7 @@ impl<'m> RowVetter<'m> {
         }
     }
 
-    /// [`RowVetter::vet_one`] into a block's outcomes (rows may go through it in parallel,
-    /// one block each, as long as the blocks reach [`RowVetter::accept_block`] in row order).
+    /// [`RowChecker::vet_into`] with this vetter's checks.
     pub fn vet_into(
         &self,
         block: &mut BlockOutcomes,
@@ -1387,14 +1437,7 @@ impl<'m> RowVetter<'m> {
         cells: &[CellRef<'_>],
         malformed: Option<&str>,
     ) {
-        match self.vet_one(row_number, cells, malformed) {
-            RowOutcome::Accepted(obj, raw) => {
-                block.objects.push(obj);
-                block.events.push(RowEvent::Object(raw));
-            }
-            RowOutcome::Malformed(q) => block.events.push(RowEvent::Malformed(q)),
-            RowOutcome::Rejected(q) => block.events.push(RowEvent::Rejected(q)),
-        }
+        self.check.vet_into(block, row_number, cells, malformed);
     }
 
     /// [`RowVetter::accept`] for every row of a block, in row order, leaving `block` empty
@@ -1476,11 +1519,12 @@ impl<'m> RowVetter<'m> {
             }
         };
         let column = self
+            .check
             .layout
             .get("id")
             .map_or("id".to_string(), |c| c.name.clone());
         Some(QuarantinedRow {
-            file: self.path_label.clone(),
+            file: self.check.path_label.clone(),
             row,
             id: Some(raw.to_string()),
             column,
@@ -1531,7 +1575,7 @@ impl<'m> RowVetter<'m> {
             self.settle_lookalikes();
         }
         let tally = CatalogueTally {
-            path: self.path_label.clone(),
+            path: self.check.path_label.clone(),
             rows_in: self.rows_in,
             rows_accepted: self.handed + self.objects.len(),
             rows_quarantined: self.quarantine.len(),
@@ -1551,6 +1595,7 @@ impl<'m> RowVetter<'m> {
         let ids = &self.ids;
         let lookalike = |key: &str| ids.find(key).is_some_and(|at| ids.is_lookalike(at));
         let id_col = self
+            .check
             .layout
             .get("id")
             .map_or("id".to_string(), |c| c.name.clone());
@@ -1571,7 +1616,7 @@ impl<'m> RowVetter<'m> {
         for o in objects {
             match ids.find(o.id.as_str()).filter(|&at| ids.is_lookalike(at)) {
                 Some(at) => self.quarantine.push(QuarantinedRow {
-                    file: self.path_label.clone(),
+                    file: self.check.path_label.clone(),
                     row: o.source_row,
                     id: Some(
                         ids.first_raw
