@@ -683,11 +683,24 @@ pub fn normalise_id(raw: &str) -> String {
 /// are slow next to a file read).
 fn normalised(raw: &str) -> Cow<'_, str> {
     if raw.bytes().all(|b| (0x20..0x7F).contains(&b)) {
-        return Cow::Borrowed(raw.trim());
+        return Cow::Borrowed(trim(raw));
     }
     use unicode_normalization::UnicodeNormalization;
     let cleaned: String = raw.nfc().filter(|c| !is_invisible(*c)).collect();
     Cow::Owned(cleaned.trim().to_string())
+}
+
+/// `str::trim`, answered from the first and last bytes when both are printable ASCII (no
+/// white space can be trimmed then): almost every cell of a catalogue, and the general trim
+/// decodes characters from both ends (≈ 3 % of `vet` on a million rows, perf).
+#[inline]
+fn trim(s: &str) -> &str {
+    let printable = |b: Option<&u8>| b.is_some_and(|&b| (0x21..0x7F).contains(&b));
+    if printable(s.as_bytes().first()) && printable(s.as_bytes().last()) {
+        s
+    } else {
+        s.trim()
+    }
 }
 
 /// Text of a cell for text columns; `None` when empty.
@@ -695,7 +708,7 @@ fn cell_text(cell: CellRef<'_>) -> Option<Cow<'_, str>> {
     match cell {
         CellRef::Missing => None,
         CellRef::Text(s) => {
-            let t = s.trim();
+            let t = trim(s);
             (!t.is_empty()).then_some(Cow::Borrowed(t))
         }
         CellRef::Number(v) => Some(Cow::Owned(if v.fract() == 0.0 && v.abs() < 1e15 {
@@ -715,7 +728,7 @@ fn cell_number(cell: CellRef<'_>) -> Result<Option<f64>, &'static str> {
         CellRef::Missing => return Ok(None),
         CellRef::Number(v) => v,
         CellRef::Text(s) => {
-            let t = s.trim();
+            let t = trim(s);
             if t.is_empty() {
                 return Ok(None);
             }
@@ -751,7 +764,7 @@ fn cell_is_nan(cell: CellRef<'_>) -> bool {
         CellRef::Number(v) => v.is_nan(),
         // Only text that starts like `nan` (any case, optional sign) can parse as NaN.
         CellRef::Text(t) => {
-            let t = t.trim();
+            let t = trim(t);
             let b = t.trim_start_matches(['+', '-']).as_bytes();
             b.len() >= 3
                 && b[..3].eq_ignore_ascii_case(b"nan")
@@ -2031,6 +2044,20 @@ mod tests {
                     proptest::prop_assert!(e.is_finite() && e > 0.0);
                 }
             }
+        }
+    }
+
+    proptest::proptest! {
+        /// The shortcut trims what `str::trim` trims (the standard library is the reference),
+        /// on text mixing ASCII, ASCII and Unicode white space and other characters.
+        #[test]
+        fn trim_shortcut_equals_str_trim(parts in proptest::collection::vec(
+            proptest::sample::select(vec![
+                "a", " ", "\t", "\n", "\u{a0}", "\u{2003}", "é", "~", "!", "\u{7f}", "\u{1}",
+                "\u{200b}", "0.5",
+            ]), 0..8)) {
+            let text = parts.concat();
+            proptest::prop_assert_eq!(trim(&text), text.trim());
         }
     }
 
