@@ -1499,7 +1499,17 @@ impl<'m> RowVetter<'m> {
                 }
                 block.objects.clear();
             }
-            _ => self.objects.append(&mut block.objects),
+            _ => {
+                // Grown to the powers of two that pushing one object at a time reached (an
+                // append reserves only what it needs, and its doublings then end elsewhere:
+                // up to 1.8 times the objects' bytes of capacity at 10⁶ objects).
+                let needed = self.objects.len() + block.objects.len();
+                if needed > self.objects.capacity() {
+                    let target = needed.max(2 * self.objects.capacity()).next_power_of_two();
+                    self.objects.reserve_exact(target - self.objects.len());
+                }
+                self.objects.append(&mut block.objects);
+            }
         }
     }
 
