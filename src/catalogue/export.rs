@@ -62,32 +62,69 @@ pub fn write_accepted(
     out: &mut impl std::io::Write,
     objects: &[CatalogueObject],
 ) -> Result<(), csv::Error> {
-    use rayon::prelude::*;
-    let mut header: Vec<u8> = Vec::new();
-    for (i, h) in ACCEPTED_COLUMNS.iter().enumerate() {
-        if i > 0 {
-            header.push(b',');
-        }
-        push_field(&mut header, h.as_bytes());
-    }
-    header.push(b'\n');
-    out.write_all(&header)?;
-    let batch = ROWS_PER_BLOCK * 2 * rayon::current_num_threads().max(1);
-    for objects in objects.chunks(batch) {
-        let blocks: Vec<Vec<u8>> = objects
-            .par_chunks(ROWS_PER_BLOCK)
-            .map(|block| {
-                let mut buf = Vec::with_capacity(block.len() * 128);
-                push_rows(&mut buf, block);
-                buf
-            })
-            .collect();
-        for b in blocks {
-            out.write_all(&b)?;
-        }
-    }
-    out.flush()?;
+    let mut w = AcceptedWriter::new(out)?;
+    w.write(objects)?;
+    w.finish()?;
     Ok(())
+}
+
+/// `accepted.csv` written a batch of objects at a time, as they are vetted (`vet` holds no
+/// more than a batch; see [`crate::catalogue::vet::ObjectSink`]). Each row depends on its
+/// object alone, so the bytes are [`write_accepted`]'s however the objects are cut.
+pub struct AcceptedWriter<W: std::io::Write> {
+    out: W,
+    /// One text buffer per block of a batch, kept from batch to batch: a fresh megabyte per
+    /// block was mapped, faulted in and unmapped again every time (perf: page faults).
+    buffers: Vec<Vec<u8>>,
+}
+
+impl<W: std::io::Write> AcceptedWriter<W> {
+    /// Writes the header.
+    pub fn new(mut out: W) -> Result<Self, csv::Error> {
+        let mut header: Vec<u8> = Vec::new();
+        for (i, h) in ACCEPTED_COLUMNS.iter().enumerate() {
+            if i > 0 {
+                header.push(b',');
+            }
+            push_field(&mut header, h.as_bytes());
+        }
+        header.push(b'\n');
+        out.write_all(&header)?;
+        Ok(Self {
+            out,
+            buffers: Vec::new(),
+        })
+    }
+
+    /// Writes the rows of `objects`, formatted in parallel blocks.
+    pub fn write(&mut self, objects: &[CatalogueObject]) -> Result<(), csv::Error> {
+        use rayon::prelude::*;
+        let batch = ROWS_PER_BLOCK * 2 * rayon::current_num_threads().max(1);
+        for objects in objects.chunks(batch) {
+            let blocks = objects.len().div_ceil(ROWS_PER_BLOCK);
+            if self.buffers.len() < blocks {
+                self.buffers.resize_with(blocks, Vec::new);
+            }
+            objects
+                .par_chunks(ROWS_PER_BLOCK)
+                .zip(self.buffers.par_iter_mut())
+                .for_each(|(block, buf)| {
+                    buf.clear();
+                    buf.reserve(block.len() * 128);
+                    push_rows(buf, block);
+                });
+            for b in &self.buffers[..blocks] {
+                self.out.write_all(b)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// Flushes and returns the output.
+    pub fn finish(mut self) -> Result<W, csv::Error> {
+        self.out.flush()?;
+        Ok(self.out)
+    }
 }
 
 /// Objects per block of `accepted.csv` formatted at once (~0.8 MB of text).
@@ -95,11 +132,18 @@ const ROWS_PER_BLOCK: usize = 8192;
 
 /// Appends the rows of `objects` to `buf`.
 fn push_rows(buf: &mut Vec<u8>, objects: &[CatalogueObject]) {
-    // One reused buffer for every number: no string is allocated per cell.
+    // One reused buffer for every number: no string is allocated per cell. It keeps the last
+    // value's text, so a value written again (a symmetric error is written on both sides) is
+    // copied, not formatted again: the text depends on the bits alone.
     let mut num = String::new();
+    let mut last: Option<u64> = None;
     let mut number = |buf: &mut Vec<u8>, x: Option<f64>| {
-        num.clear();
-        push_f64(&mut num, x);
+        let bits = x.map(f64::to_bits);
+        if bits != last {
+            num.clear();
+            push_f64(&mut num, x);
+            last = bits;
+        }
         // A formatted number holds digits, `-` and `.` only: never quoted.
         buf.extend_from_slice(num.as_bytes());
         buf.push(b',');

@@ -27,7 +27,9 @@ use std::path::Path;
 use super::colmap::ColumnMap;
 use super::error::CatalogueError;
 use super::table::{Cell, CellRef, ColumnMeta, RawRow, RawTable};
-use super::vet::{CatalogueObject, CatalogueTally, QuarantinedRow, RowOutcome, RowVetter};
+use super::vet::{
+    BlockOutcomes, CatalogueObject, CatalogueTally, ObjectSink, QuarantinedRow, RowVetter,
+};
 
 /// Splits `mass[jupiterMass]` into (`mass`, `Some("jupiterMass")`); the unit runs from the first
 /// `[` to the last `]`, so that `mass[[solMass]]` carries the CDS log unit `[solMass]`.
@@ -98,28 +100,30 @@ pub fn read(path: &Path) -> Result<RawTable, CatalogueError> {
 /// Reads and vets a CSV file in one pass, without building a table of cells: memory holds the
 /// accepted objects, the quarantined rows and the ids, not the file. Gives exactly what
 /// [`read`] followed by [`vet_table`](super::vet::vet_table) gives; the rows are vetted in
-/// parallel blocks ([`vet_blocks`]).
+/// parallel blocks ([`vet_blocks`]). With a `sink`, the accepted objects go there block by
+/// block instead (see [`RowVetter::with_sink`]).
 pub fn vet_streaming(
     path: &Path,
     label: &str,
     map: Option<&ColumnMap>,
+    mut sink: Option<&mut dyn ObjectSink>,
 ) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
     let len = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
     let bar = crate::progress::bar(len, "reading catalogue", true);
     let mut input = open(path)?;
     let (columns, consumed) = read_header(path, &mut input)?;
-    let mut vetter = RowVetter::new(label, &columns, map)?;
+    let mut vetter = RowVetter::new(label, &columns, map)?.streaming(sink.is_some());
     vet_blocks(
         path,
         &mut input,
         &mut vetter,
+        super::vet::reborrow(&mut sink),
         columns.len(),
-        consumed,
-        len,
+        (consumed, len),
         &bar,
     )?;
     bar.finish_and_clear();
-    vetter.finish()
+    vetter.finish_into(sink)
 }
 
 fn open(path: &Path) -> Result<std::io::BufReader<std::fs::File>, CatalogueError> {
@@ -443,14 +447,16 @@ fn lines(block: &[u8]) -> impl Iterator<Item = Option<&[u8]>> {
 /// row boundary. The rows of a few blocks go through [`RowVetter::vet_one`] in parallel, each
 /// block numbering its rows from the count of the blocks before it; their outcomes then reach
 /// [`RowVetter::accept`] (the ids' check) in file order, so the result is the one-row-at-a-time
-/// result, row numbers, duplicates and lookalikes included.
+/// result, row numbers, duplicates and lookalikes included. `(consumed, len)`: the bytes read
+/// before the first row and the file's length; after each few blocks the accepted objects go
+/// to `sink`, if any.
 fn vet_blocks(
     path: &Path,
     input: &mut impl std::io::Read,
     vetter: &mut RowVetter<'_>,
+    mut sink: Option<&mut dyn ObjectSink>,
     ncols: usize,
-    mut consumed: u64,
-    len: u64,
+    (mut consumed, len): (u64, u64),
     bar: &indicatif::ProgressBar,
 ) -> Result<(), CatalogueError> {
     use rayon::prelude::*;
@@ -459,6 +465,12 @@ fn vet_blocks(
     let mut carry: Vec<u8> = Vec::new();
     let mut eof = false;
     let mut first_row_seen = false;
+    // Each block's outcomes, kept from round to round (their capacity is reused): `outcomes`
+    // is being filled, `ready` (its first `ready_blocks`) waits for the ids' check.
+    let mut outcomes: Vec<BlockOutcomes> = Vec::new();
+    let mut ready: Vec<BlockOutcomes> = Vec::new();
+    let mut ready_blocks = 0;
+    let checker = vetter.checker();
     while !eof {
         // A few blocks of whole lines, each with the number of rows before it.
         let mut blocks: Vec<(usize, Vec<u8>)> = Vec::with_capacity(batch);
@@ -517,24 +529,40 @@ fn vet_blocks(
             blocks.push((rows_before, block));
             rows_before += rows;
         }
-        let shared: &RowVetter<'_> = vetter;
-        let outcomes: Vec<Vec<RowOutcome>> = blocks
-            .par_iter()
-            .map(|(before, block)| {
-                let mut splitter = Splitter::new(ncols);
-                let mut out = Vec::new();
-                for (row_number, line) in (*before + 1..).zip(lines(block).flatten()) {
-                    splitter.row(line, |cells, malformed| {
-                        out.push(shared.vet_one(row_number, cells, malformed))
-                    });
-                }
-                out
-            })
-            .collect();
-        for o in outcomes.into_iter().flatten() {
-            vetter.accept(o);
+        if outcomes.len() < blocks.len() {
+            outcomes.resize_with(blocks.len(), BlockOutcomes::default);
         }
+        // The ids of the previous round's rows are checked (and its objects handed over)
+        // while this round's rows are vetted: the ids' check is serial, and the other core
+        // would otherwise wait for it.
+        let (checking, vetting) = (&mut ready[..ready_blocks], &mut outcomes[..]);
+        let (vetter_ids, sink_now) = (&mut *vetter, &mut sink);
+        rayon::join(
+            || {
+                for out in checking {
+                    vetter_ids.accept_block(out, super::vet::reborrow(sink_now));
+                }
+            },
+            || {
+                blocks
+                    .par_iter()
+                    .zip(vetting.par_iter_mut())
+                    .for_each(|((before, block), out)| {
+                        let mut splitter = Splitter::new(ncols);
+                        for (row_number, line) in (*before + 1..).zip(lines(block).flatten()) {
+                            splitter.row(line, |cells, malformed| {
+                                checker.vet_into(out, row_number, cells, malformed)
+                            });
+                        }
+                    })
+            },
+        );
+        std::mem::swap(&mut ready, &mut outcomes);
+        ready_blocks = blocks.len();
         bar.set_position(consumed);
+    }
+    for out in &mut ready[..ready_blocks] {
+        vetter.accept_block(out, super::vet::reborrow(&mut sink));
     }
     Ok(())
 }
@@ -606,7 +634,7 @@ mod tests {
             std::fs::write(&path, &text).unwrap();
             let table = read(&path).unwrap();
             let expected = super::super::vet::vet_table("s.csv", &table, None).unwrap();
-            let got = vet_streaming(&path, "s.csv", None).unwrap();
+            let got = vet_streaming(&path, "s.csv", None, None).unwrap();
             proptest::prop_assert_eq!(got, expected);
         }
     }
@@ -619,7 +647,7 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let path = dir.path().join("l.csv");
         std::fs::write(&path, text).unwrap();
-        let (objects, q, tally) = vet_streaming(&path, "l.csv", None).unwrap();
+        let (objects, q, tally) = vet_streaming(&path, "l.csv", None, None).unwrap();
         assert_eq!(objects.len(), 1);
         assert_eq!(&*objects[0].id, "X");
         let rows: Vec<(usize, &str)> = q.iter().map(|q| (q.row, q.reason.as_str())).collect();

@@ -33,7 +33,9 @@ use super::colmap::ColumnMap;
 use super::error::CatalogueError;
 use super::guard;
 use super::table::{Cell, CellRef, ColumnMeta, RawRow, RawTable};
-use super::vet::{CatalogueObject, CatalogueTally, QuarantinedRow, RowVetter};
+use super::vet::{
+    BlockOutcomes, CatalogueObject, CatalogueTally, ObjectSink, QuarantinedRow, RowVetter,
+};
 
 /// Largest integer magnitude an `f64` holds exactly.
 const EXACT_INT_F64: u64 = 1 << 53;
@@ -145,6 +147,9 @@ fn finish(
     })
 }
 
+/// Rows of a slice vetted as one parallel task.
+const PARALLEL_ROWS: usize = 8192;
+
 /// One column of a slice, ready to be viewed cell by cell without allocating per cell.
 enum SliceColumn<'a> {
     /// Numbers (and the rare integer beyond 2⁵³ as exact text), as [`column_cells`] gives.
@@ -174,6 +179,7 @@ pub fn vet_streaming(
     label: &str,
     map: Option<&ColumnMap>,
     wanted: &[String],
+    mut sink: Option<&mut dyn ObjectSink>,
 ) -> Result<(Vec<CatalogueObject>, Vec<QuarantinedRow>, CatalogueTally), CatalogueError> {
     let unreadable = |e: std::io::Error| CatalogueError::Unreadable {
         path: path.to_path_buf(),
@@ -214,6 +220,7 @@ pub fn vet_streaming(
     }
     let bar = crate::progress::bar(metadata.num_rows as u64, "reading catalogue", false);
     let mut vetter: Option<RowVetter<'_>> = None;
+    let mut outcomes: Vec<BlockOutcomes> = Vec::new();
     for &(offset, rows) in &slices {
         let df = guard::quietly(|| -> Result<DataFrame, String> {
             let mut reader = ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?)
@@ -236,7 +243,8 @@ pub fn vet_streaming(
                         ucd: None,
                     })
                     .collect();
-                let v = vetter.insert(RowVetter::new(label, &metas, map)?);
+                let v =
+                    vetter.insert(RowVetter::new(label, &metas, map)?.streaming(sink.is_some()));
                 // The row count comes from the file: never trusted beyond one row per byte.
                 let bytes = file.metadata().map_or(0, |m| m.len());
                 v.reserve(metadata.num_rows.min(usize::try_from(bytes).unwrap_or(0)));
@@ -278,17 +286,36 @@ pub fn vet_streaming(
             }
             slice_columns.push(c);
         }
-        let mut cells: Vec<CellRef<'_>> = Vec::with_capacity(slice_columns.len());
-        for r in 0..height {
-            cells.clear();
-            cells.extend(slice_columns.iter().map(|c| c.get(r)));
-            v.push(offset + r + 1, &cells, None);
+        // The slice's rows in parallel runs of PARALLEL_ROWS, accepted in row order (as the
+        // CSV reader's blocks).
+        let runs = height.div_ceil(PARALLEL_ROWS);
+        if outcomes.len() < runs {
+            outcomes.resize_with(runs, BlockOutcomes::default);
+        }
+        {
+            use rayon::prelude::*;
+            let shared: &RowVetter<'_> = v;
+            let slice_columns = &slice_columns;
+            outcomes[..runs]
+                .par_iter_mut()
+                .enumerate()
+                .for_each(|(k, out)| {
+                    let mut cells: Vec<CellRef<'_>> = Vec::with_capacity(slice_columns.len());
+                    for r in k * PARALLEL_ROWS..((k + 1) * PARALLEL_ROWS).min(height) {
+                        cells.clear();
+                        cells.extend(slice_columns.iter().map(|c| c.get(r)));
+                        shared.vet_into(out, offset + r + 1, &cells, None);
+                    }
+                });
+        }
+        for out in &mut outcomes[..runs] {
+            v.accept_block(out, super::vet::reborrow(&mut sink));
         }
         bar.inc(height as u64);
     }
     bar.finish_and_clear();
     match vetter {
-        Some(v) => v.finish(),
+        Some(v) => v.finish_into(sink),
         None => Err(invalid(DECODER_FAILED.into())),
     }
 }
@@ -426,7 +453,7 @@ mod tests {
             .iter()
             .map(|c| c.to_string())
             .collect();
-        let streamed = vet_streaming(&path, "s.parquet", None, &wanted).unwrap();
+        let streamed = vet_streaming(&path, "s.parquet", None, &wanted, None).unwrap();
         let table = read(&path, Some(&wanted)).unwrap();
         let whole = crate::catalogue::vet::vet_table("s.parquet", &table, None).unwrap();
         assert_eq!(streamed, whole);

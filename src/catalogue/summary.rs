@@ -158,6 +158,15 @@ impl ClassAccumulator {
 /// The three classes' accumulators over `objects`, in one pass.
 fn accumulate<'a>(objects: impl Iterator<Item = &'a CatalogueObject>) -> [ClassAccumulator; 3] {
     let mut acc = ClassAccumulator::per_class();
+    accumulate_into(&mut acc, objects);
+    acc
+}
+
+/// Adds `objects` to the three classes' accumulators.
+fn accumulate_into<'a>(
+    acc: &mut [ClassAccumulator; 3],
+    objects: impl Iterator<Item = &'a CatalogueObject>,
+) {
     for o in objects {
         let k = match o.class {
             ObjectClass::HBurning => 0,
@@ -166,7 +175,51 @@ fn accumulate<'a>(objects: impl Iterator<Item = &'a CatalogueObject>) -> [ClassA
         };
         acc[k].add(o);
     }
-    acc
+}
+
+/// The summary gathered while the objects stream past (`vet` never holds them all): one
+/// class accumulator per catalogue, fed in catalogue order.
+///
+/// ```
+/// use dwarfbound::catalogue::summary::{SummaryBuilder, VetSummary};
+/// use dwarfbound::catalogue::vet::Vetted;
+/// let s = SummaryBuilder::default().finish(&Vetted::default());
+/// assert_eq!(s, VetSummary::from_vetted(&Vetted::default()));
+/// ```
+#[derive(Default)]
+pub struct SummaryBuilder {
+    catalogues: Vec<[ClassAccumulator; 3]>,
+}
+
+impl SummaryBuilder {
+    /// The next catalogue's objects follow.
+    pub fn begin_catalogue(&mut self) {
+        self.catalogues.push(ClassAccumulator::per_class());
+    }
+
+    /// Adds accepted objects of the current catalogue.
+    pub fn add(&mut self, objects: &[CatalogueObject]) {
+        if self.catalogues.is_empty() {
+            self.begin_catalogue();
+        }
+        if let Some(acc) = self.catalogues.last_mut() {
+            accumulate_into(acc, objects.iter());
+        }
+    }
+
+    /// The summary of the catalogues fed, with the counts and quarantine of `v` (whose
+    /// `objects` may be empty: they were fed here instead). The same numbers as
+    /// [`VetSummary::from_vetted`] on the objects held (min, max, counts and the multiset of
+    /// errors do not depend on how the objects were cut into batches).
+    pub fn finish(self, v: &Vetted) -> VetSummary {
+        let mut accs = self.catalogues.into_iter();
+        let per_catalogue: Vec<[ClassAccumulator; 3]> = v
+            .tallies
+            .iter()
+            .map(|_| accs.next().unwrap_or_else(ClassAccumulator::per_class))
+            .collect();
+        VetSummary::assemble(v, per_catalogue, None)
+    }
 }
 
 impl VetSummary {
@@ -175,18 +228,36 @@ impl VetSummary {
         // Objects are in catalogue order, `rows_accepted` per catalogue (the same path may
         // be given twice, so the path alone does not identify a catalogue's objects).
         let mut start = 0;
-        // The classes over all catalogues merge the catalogues' accumulators when these cover
-        // every object (always, unless the tallies disagree with the objects).
-        let mut all = ClassAccumulator::per_class();
-        let catalogues = v
+        let per_catalogue: Vec<[ClassAccumulator; 3]> = v
             .tallies
             .iter()
             .map(|t: &CatalogueTally| {
                 let end = (start + t.rows_accepted).min(v.objects.len());
                 let mine = &v.objects[start.min(end)..end];
                 start = end;
-                let acc = accumulate(mine.iter());
-                for (a, c) in all.iter_mut().zip(&acc) {
+                accumulate(mine.iter())
+            })
+            .collect();
+        // The classes over all catalogues merge the catalogues' accumulators when these cover
+        // every object (always, unless the tallies disagree with the objects).
+        let all = (start != v.objects.len()).then(|| accumulate(v.objects.iter()));
+        Self::assemble(v, per_catalogue, all)
+    }
+
+    /// The summary from each catalogue's accumulators (and, when given, the accumulators over
+    /// all catalogues; otherwise the catalogues' are merged).
+    fn assemble(
+        v: &Vetted,
+        per_catalogue: Vec<[ClassAccumulator; 3]>,
+        all: Option<[ClassAccumulator; 3]>,
+    ) -> VetSummary {
+        let mut merged = ClassAccumulator::per_class();
+        let catalogues = v
+            .tallies
+            .iter()
+            .zip(per_catalogue)
+            .map(|(t, acc)| {
+                for (a, c) in merged.iter_mut().zip(&acc) {
                     a.merge(c);
                 }
                 CatalogueSummary {
@@ -203,12 +274,9 @@ impl VetSummary {
                 }
             })
             .collect();
-        if start != v.objects.len() {
-            all = accumulate(v.objects.iter());
-        }
         let classes = ObjectClass::ALL
             .iter()
-            .zip(all)
+            .zip(all.unwrap_or(merged))
             .map(|(c, a)| a.summary(*c))
             .collect();
         let mut counts: BTreeMap<(String, String), usize> = BTreeMap::new();

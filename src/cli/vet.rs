@@ -10,11 +10,11 @@
 //! ```
 
 use super::{CliError, Exit, ReadArgs, VetArgs};
-use crate::catalogue::export::{quarantine_csv, write_accepted};
-use crate::catalogue::summary::VetSummary;
+use crate::catalogue::export::quarantine_csv;
 use crate::catalogue::table::ReadOptions;
-use crate::catalogue::{vet_files, CatalogueError, ColumnMap};
-use crate::output::{write_atomic, AtomicFile};
+use crate::catalogue::{CatalogueError, ColumnMap};
+use crate::output::write_atomic;
+use crate::pipeline::vet_stream::vet_to_accepted;
 
 impl From<CatalogueError> for CliError {
     fn from(e: CatalogueError) -> Self {
@@ -52,34 +52,35 @@ const TENSION_SIGMA: f64 = 3.0;
 /// Runs `vet`.
 pub fn run(args: VetArgs) -> Result<Exit, CliError> {
     let (map, opts) = args.read.resolve()?;
-    let vetted = vet_files(&args.catalogs, map.as_ref(), &opts)?;
-
-    // Flag objects in tension with standard gravity under the default model, as a first look;
+    let accepted_path = args.out.join("accepted.csv");
+    let quarantine_path = args.out.join("quarantine.csv");
+    // One pass: `accepted.csv` is written, the summary gathered and objects in tension with
+    // standard gravity (default model) flagged as a first look while the files are read;
     // `confront` does the full comparison.
-    let tensions =
-        crate::pipeline::confront::standard_gravity_tensions(&vetted.objects, TENSION_SIGMA)?;
+    let streamed = vet_to_accepted(
+        &args.catalogs,
+        map.as_ref(),
+        &opts,
+        &accepted_path,
+        TENSION_SIGMA,
+    )?;
+    let vetted = &streamed.vetted;
+    let tensions = &streamed.tensions;
 
     let quarantined = quarantine_csv(&vetted.quarantine)
         .map_err(|e| CliError::internal(format!("formatting quarantine.csv: {e}")))?;
-    let accepted_path = args.out.join("accepted.csv");
-    let quarantine_path = args.out.join("quarantine.csv");
-    // Streamed into its temporary file, then renamed into place like every output.
-    let mut accepted = AtomicFile::create(&accepted_path)?;
-    write_accepted(&mut accepted, &vetted.objects)
-        .map_err(|e| CliError::internal(format!("writing accepted.csv: {e}")))?;
-    accepted.commit()?;
+    streamed.accepted.commit()?;
     write_atomic(&quarantine_path, &quarantined)?;
 
-    let summary = VetSummary::from_vetted(&vetted);
+    let summary = &streamed.summary;
     let tension_rows: Vec<serde_json::Value> = tensions
         .iter()
-        .map(|&(k, z)| {
-            let o = &vetted.objects[k];
-            serde_json::json!({"id": o.id, "class": o.class.label(), "source_file": o.source_file, "sigma": z})
+        .map(|t| {
+            serde_json::json!({"id": t.id, "class": t.class.label(), "source_file": t.source_file, "sigma": t.sigma})
         })
         .collect();
     if args.json {
-        let mut value = serde_json::to_value(&summary)
+        let mut value = serde_json::to_value(summary)
             .map_err(|e| CliError::internal(format!("formatting the JSON summary: {e}")))?;
         if let Some(obj) = value.as_object_mut() {
             obj.insert(
@@ -100,20 +101,20 @@ pub fn run(args: VetArgs) -> Result<Exit, CliError> {
             println!(
                 "in tension with standard gravity (default model: anchored MMHB 0.075 ± 0.005 Msun, Chandrasekhar mass 5.82519/mu_e^2 ± 0.03 Msun), above {TENSION_SIGMA}σ:"
             );
-            for &(k, z) in &tensions {
-                let o = &vetted.objects[k];
+            for t in tensions {
                 println!(
-                    "  {:<16} {:<12} {z:.2}σ  ({})",
-                    o.id,
-                    o.class.label(),
-                    o.source_file
+                    "  {:<16} {:<12} {:.2}σ  ({})",
+                    t.id,
+                    t.class.label(),
+                    t.sigma,
+                    t.source_file
                 );
             }
         }
         println!(
             "wrote {} ({} objects) and {} ({} rows)",
             accepted_path.display(),
-            vetted.objects.len(),
+            streamed.accepted_count,
             quarantine_path.display(),
             vetted.quarantine.len()
         );

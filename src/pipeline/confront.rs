@@ -466,14 +466,35 @@ pub fn standard_gravity_tensions(
     objects: &[crate::catalogue::CatalogueObject],
     threshold_sigma: f64,
 ) -> Result<Vec<(usize, f64)>, PipelineError> {
-    let p = standard_point(&TheorySettings::default())
-        .map_err(|e| PipelineError::Settings(e.to_string()))?;
-    let mut eopts = engine_options(&EngineOptions::default(), &p);
-    eopts.include_young = true;
-    Ok(mass_tensions(
-        objects,
-        &class_bounds(&p),
-        &eopts,
-        threshold_sigma,
-    ))
+    Ok(StandardGravityLook::new(threshold_sigma)?.tensions(objects))
+}
+
+/// [`standard_gravity_tensions`] prepared once (the standard point solved, the options set)
+/// for objects that arrive in batches (`vet` does not hold them all): each object's tension
+/// depends on that object alone, so the batches' results, re-indexed and sorted as
+/// [`mass_tensions`] sorts, are the whole catalogue's.
+pub struct StandardGravityLook {
+    point: crate::confront::tension::ReferencePoint,
+    eopts: EngineOptions,
+    threshold_sigma: f64,
+}
+
+impl StandardGravityLook {
+    /// Solves the standard point under the default settings.
+    pub fn new(threshold_sigma: f64) -> Result<Self, PipelineError> {
+        let p = standard_point(&TheorySettings::default())
+            .map_err(|e| PipelineError::Settings(e.to_string()))?;
+        let mut eopts = engine_options(&EngineOptions::default(), &p);
+        eopts.include_young = true;
+        Ok(Self {
+            point: class_bounds(&p),
+            eopts,
+            threshold_sigma,
+        })
+    }
+
+    /// (index in `objects`, σ) above the threshold, largest first (ties by index).
+    pub fn tensions(&self, objects: &[crate::catalogue::CatalogueObject]) -> Vec<(usize, f64)> {
+        mass_tensions(objects, &self.point, &self.eopts, self.threshold_sigma)
+    }
 }

@@ -18,3 +18,4 @@ mod report_figures;
 mod report_input;
 pub mod settings;
 pub mod surface;
+pub mod vet_stream;
