@@ -170,6 +170,16 @@ for k in 1 2 3; do
     measure "confront_demo_cached_run$k" "$BIN" confront "${DEMO[@]}" --cache "$work/demo-cache" --out "$work/demo"
 done
 measure confront_demo_uncached "$BIN" confront "${DEMO[@]}" --out "$work/demo"
+# White dwarfs with radii: the radius term costs grid points x white dwarfs x mass nodes (its
+# shared radius scale is profiled at every point), a different scaling from the mass terms'.
+# 2000 invented white dwarfs (tools/make_wd_radius_catalogue.py), 46 x 51 grid, cached.
+wdr="$data/wd_radii_2000.csv"
+if [ ! -s "$wdr" ]; then
+    python3 tools/make_wd_radius_catalogue.py --n 2000 --out "$wdr"
+fi
+WDGRID=(--upsilon=-0.3:0.6:46 --tau=-0.3:0.3:51)
+"$BIN" confront "$wdr" "${WDGRID[@]}" --cache "$work/wd-cache" --out "$work/wd" >/dev/null 2>&1
+measure confront_wd_radii_2000 "$BIN" confront "$wdr" "${WDGRID[@]}" --cache "$work/wd-cache" --out "$work/wd"
 echo "loadavg_end $(cut -d' ' -f1 /proc/loadavg)" >>"$results"
 
 python3 - "$results" "$(git rev-parse --short HEAD 2>/dev/null || echo unknown)" "$(nproc)" "${BENCH_JSON:-target/bench-catalogue.json}" <<'PY'
@@ -220,6 +230,8 @@ print(f"  confront csv 10^6, single grid point: {r['confront_csv_1000000_single_
       f"{r['confront_csv_1000000_single_point_peak_mb']:.0f} MB")
 print(f"  confront parquet 10^6, 201^2 cached: {r['confront_parquet_1000000_s']:.2f} s, "
       f"{r['confront_parquet_1000000_peak_mb']:.0f} MB")
+print(f"  confront 2000 white dwarfs with radii, 46x51 cached: {r['confront_wd_radii_2000_s']:.2f} s, "
+      f"{r['confront_wd_radii_2000_cpu_s']:.2f} CPU-s, {r['confront_wd_radii_2000_peak_mb']:.0f} MB")
 out = {"commit": sys.argv[2], "cores": int(sys.argv[3]), "polars": polars_version, "results": r,
        "ratios": {what: value for what, value, _ in rows}}
 with open(sys.argv[4], "w") as f:
