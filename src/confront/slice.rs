@@ -43,7 +43,7 @@ use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term};
 use super::mass_terms::{BoundTerm, Systematics};
 use super::nuisance::SharedNuisance;
 use super::prob::{Measurement, StatsError};
-use super::reduce::{bound_range, CubicSpline, SplineEnd};
+use super::reduce::{bound_range, CubicSpline, SplineEnd, SplineWeights};
 use super::regions::{self, UpsilonSlice};
 use super::wd_radius::{
     radius_term_from, radius_total_from, radius_totals_leaving_out, shared_nuisance, split_floor,
@@ -231,25 +231,47 @@ impl FineRadii {
     /// Every query's cold radius at fine point `k`, in the order of the queries.
     pub fn at(&self, k: usize) -> Vec<Option<f64>> {
         let x = self.fine[k];
-        self.per_query.iter().map(|q| self.value(q, x)).collect()
+        let w = self.weights(x);
+        self.per_query
+            .iter()
+            .map(|q| self.value(q, x, w.as_ref()))
+            .collect()
+    }
+
+    /// The spline weights at `x`, shared by every query's spline (all are on the row's axis).
+    fn weights(&self, x: f64) -> Option<SplineWeights> {
+        self.per_query
+            .iter()
+            .find_map(|q| q.spline.as_ref())
+            .map(|sp| sp.weights(x))
     }
 
     /// Every query's cold radii along the whole fine axis, one vector per query (for the few
     /// spin tests, which read each query at every fine point).
     fn along_each(&self) -> Vec<Vec<Option<f64>>> {
+        let weights: Vec<Option<SplineWeights>> =
+            self.fine.iter().map(|&x| self.weights(x)).collect();
         self.per_query
             .par_iter()
-            .map(|q| self.fine.iter().map(|&x| self.value(q, x)).collect())
+            .map(|q| {
+                self.fine
+                    .iter()
+                    .zip(&weights)
+                    .map(|(&x, w)| self.value(q, x, w.as_ref()))
+                    .collect()
+            })
             .collect()
     }
 
     /// The spline's value inside the row, or linear between two points that have a radius,
     /// `None` where either lacks one.
-    fn value(&self, q: &QueryAlongRow, x: f64) -> Option<f64> {
+    /// `w`: the spline weights at `x` ([`FineRadii::weights`]).
+    fn value(&self, q: &QueryAlongRow, x: f64, w: Option<&SplineWeights>) -> Option<f64> {
         let axis = &self.axis;
-        match &q.spline {
-            Some(sp) => Some(sp.eval(x)),
-            None => {
+        match (&q.spline, w) {
+            (Some(sp), Some(w)) => Some(sp.eval_with(w)),
+            (Some(sp), None) => Some(sp.eval(x)),
+            (None, _) => {
                 let j = axis.partition_point(|&v| v <= x).clamp(1, axis.len() - 1);
                 let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
                 match (q.ys[j - 1], q.ys[j]) {
