@@ -236,30 +236,14 @@ impl dwarfbound::confront::engine::BoundSurface for SwellingRadius {
 /// 1σ period error 0.01 h. On [`SwellingRadius`] its break-up period is ≈ 40 min at ϒ = 0 and
 /// grows as R^{3/2} with ϒ, so the spin test closes the upper end of the ϒ interval alone.
 fn swelling_spinner() -> dwarfbound::catalogue::CatalogueObject {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+    use dwarfbound::catalogue::{CatalogueObject, ObjectClass, OptF64};
     CatalogueObject {
         id: "BD-spin".into(),
-        class: ObjectClass::BrownDwarf,
-        mass_msun: 0.06,
-        mass_err_lo_msun: OptF64::some(0.003),
-        mass_err_hi_msun: OptF64::some(0.003),
-        mass_limit: MassLimit::None,
-        radius_rsun: OptF64::NONE,
-        radius_err_rsun: OptF64::NONE,
-        age_gyr: OptF64::some(5.0),
-        age_err_gyr: OptF64::NONE,
         rotation_period_h: OptF64::some(0.8),
         rotation_period_err_h: OptF64::some(0.01),
-        mu_e: OptF64::NONE,
-        teff_k: OptF64::NONE,
-        teff_err_k: OptF64::NONE,
-        core: None,
-        envelope: None,
-        radius_model_rsun: OptF64::NONE,
-        mass_method: Default::default(),
-        reference: None,
         source_file: "a.csv".into(),
         source_row: 1,
+        ..common::measured_object(1, ObjectClass::BrownDwarf, 0.06, 0.003)
     }
 }
 
@@ -547,30 +531,16 @@ impl dwarfbound::confront::engine::BoundSurface for SpinningWd {
 /// Invented object (not a measurement): a 0.9 ± 0.02 M☉ white dwarf of measured radius
 /// 0.0091 ± 0.0002 R☉ spinning in 150 s (v ≈ 2e-4, within first order at every point).
 fn spinning_white_dwarf() -> dwarfbound::catalogue::CatalogueObject {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+    use dwarfbound::catalogue::{CatalogueObject, ObjectClass, OptF64};
     CatalogueObject {
         id: "WD-150s".into(),
-        class: ObjectClass::WhiteDwarf,
-        mass_msun: 0.9,
-        mass_err_lo_msun: OptF64::some(0.02),
-        mass_err_hi_msun: OptF64::some(0.02),
-        mass_limit: MassLimit::None,
         radius_rsun: OptF64::some(0.0091),
         radius_err_rsun: OptF64::some(0.0002),
         age_gyr: OptF64::NONE,
-        age_err_gyr: OptF64::NONE,
         rotation_period_h: OptF64::some(150.0 / 3600.0),
-        rotation_period_err_h: OptF64::NONE,
-        mu_e: OptF64::NONE,
-        teff_k: OptF64::NONE,
-        teff_err_k: OptF64::NONE,
-        core: None,
-        envelope: None,
-        radius_model_rsun: OptF64::NONE,
-        mass_method: Default::default(),
-        reference: None,
         source_file: "a.csv".into(),
         source_row: 1,
+        ..common::measured_object(1, ObjectClass::WhiteDwarf, 0.9, 0.02)
     }
 }
 

@@ -13,9 +13,11 @@
 //! M☉ — invented slopes of the size the theory gives, with different directions so that the
 //! two bounds together constrain both parameters.
 
+mod common;
+
 use rayon::prelude::*;
 
-use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+use dwarfbound::catalogue::{CatalogueObject, ObjectClass};
 use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
 use dwarfbound::confront::mass_terms::{LikelihoodChoice, Systematics};
 use dwarfbound::confront::reduce::{ReduceOptions, SplitMix64};
@@ -78,30 +80,7 @@ fn normal(rng: &mut SplitMix64) -> f64 {
 
 fn object(id: usize, class: ObjectClass, truth: f64, rng: &mut SplitMix64) -> CatalogueObject {
     let sigma = (0.01 + 0.07 * rng.next_f64()) * truth;
-    CatalogueObject {
-        id: format!("o{id}").into(),
-        class,
-        mass_msun: truth + sigma * normal(rng),
-        mass_err_lo_msun: OptF64::some(sigma),
-        mass_err_hi_msun: OptF64::some(sigma),
-        mass_limit: MassLimit::None,
-        radius_rsun: OptF64::NONE,
-        radius_err_rsun: OptF64::NONE,
-        age_gyr: OptF64::some(5.0),
-        age_err_gyr: OptF64::NONE,
-        rotation_period_h: OptF64::NONE,
-        rotation_period_err_h: OptF64::NONE,
-        mu_e: OptF64::NONE,
-        teff_k: OptF64::NONE,
-        teff_err_k: OptF64::NONE,
-        core: None,
-        envelope: None,
-        radius_model_rsun: OptF64::NONE,
-        mass_method: Default::default(),
-        reference: None,
-        source_file: "synthetic".into(),
-        source_row: id,
-    }
+    common::measured_object(id, class, truth + sigma * normal(rng), sigma)
 }
 
 /// One synthetic catalogue: the truth's bounds are shifted by shared draws from their priors

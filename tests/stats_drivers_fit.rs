@@ -9,7 +9,9 @@
 //! Surface: MMHB = 0.075 (1 + 0.2 ϒ + 0.5 τ), Chandrasekhar mass = 1.40 (1 − 0.3 ϒ + 0.1 τ)
 //! (invented slopes, as in `tests/stats_calibration.rs`).
 
-use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+mod common;
+
+use dwarfbound::catalogue::{CatalogueObject, ObjectClass, OptF64};
 use dwarfbound::confront::drivers::{
     radius_drivers, slice_drivers, slice_drivers_in_fit, DriverOptions,
 };
@@ -55,30 +57,7 @@ fn surface() -> Surface {
 }
 
 fn object(id: usize, class: ObjectClass, mass: f64, sigma: f64) -> CatalogueObject {
-    CatalogueObject {
-        id: format!("o{id}").into(),
-        class,
-        mass_msun: mass,
-        mass_err_lo_msun: OptF64::some(sigma),
-        mass_err_hi_msun: OptF64::some(sigma),
-        mass_limit: MassLimit::None,
-        radius_rsun: OptF64::NONE,
-        radius_err_rsun: OptF64::NONE,
-        age_gyr: OptF64::some(5.0),
-        age_err_gyr: OptF64::NONE,
-        rotation_period_h: OptF64::NONE,
-        rotation_period_err_h: OptF64::NONE,
-        mu_e: OptF64::NONE,
-        teff_k: OptF64::NONE,
-        teff_err_k: OptF64::NONE,
-        core: None,
-        envelope: None,
-        radius_model_rsun: OptF64::NONE,
-        mass_method: Default::default(),
-        reference: None,
-        source_file: "synthetic".into(),
-        source_row: id,
-    }
+    common::measured_object(id, class, mass, sigma)
 }
 
 /// A few objects near both bounds, so that several of them move the τ = 0 interval.

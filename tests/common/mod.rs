@@ -142,3 +142,38 @@ pub fn config(dir: &Path, with_next_night: bool, extra: &str) -> PathBuf {
     std::fs::write(&p, text).unwrap();
     p
 }
+
+/// An invented object with a symmetric mass error, an age of 5 Gyr and nothing else measured:
+/// the synthetic catalogues of the statistics tests (id `o<id>`, source row `id`).
+pub fn measured_object(
+    id: usize,
+    class: dwarfbound::catalogue::ObjectClass,
+    mass_msun: f64,
+    sigma_msun: f64,
+) -> dwarfbound::catalogue::CatalogueObject {
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, OptF64};
+    CatalogueObject {
+        id: format!("o{id}").into(),
+        class,
+        mass_msun,
+        mass_err_lo_msun: OptF64::some(sigma_msun),
+        mass_err_hi_msun: OptF64::some(sigma_msun),
+        mass_limit: MassLimit::None,
+        radius_rsun: OptF64::NONE,
+        radius_err_rsun: OptF64::NONE,
+        age_gyr: OptF64::some(5.0),
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::NONE,
+        rotation_period_err_h: OptF64::NONE,
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::NONE,
+        teff_err_k: OptF64::NONE,
+        core: None,
+        envelope: None,
+        radius_model_rsun: OptF64::NONE,
+        mass_method: Default::default(),
+        reference: None,
+        source_file: "synthetic".into(),
+        source_row: id,
+    }
+}
