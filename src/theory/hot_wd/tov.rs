@@ -27,6 +27,8 @@
 
 use std::sync::OnceLock;
 
+use rayon::prelude::*;
+
 use crate::theory::hot_wd::cold::{tov_radius_ratio, ColdModel, ColdWd};
 use crate::theory::hot_wd::{Core, Electrostatics, HotWdError};
 
@@ -74,8 +76,11 @@ fn lagrange(nodes: &[(f64, f64)], x: f64) -> Option<f64> {
     Some(y)
 }
 
+/// The models at `n` log-spaced central values, solved in parallel (each is independent) and
+/// kept in order; the first failure in that order is the error, as in a serial loop.
 fn sequence(wd: &ColdWd, ln_lo: f64, ln_hi: f64, n: usize) -> Result<Vec<(f64, f64)>, HotWdError> {
-    (0..n)
+    let models: Vec<Result<(f64, f64), HotWdError>> = (0..n)
+        .into_par_iter()
         .map(|k| {
             let lnu = ln_lo + (ln_hi - ln_lo) * k as f64 / (n - 1) as f64;
             let ColdModel {
@@ -85,7 +90,8 @@ fn sequence(wd: &ColdWd, ln_lo: f64, ln_hi: f64, n: usize) -> Result<Vec<(f64, f
             } = wd.model(lnu.exp())?;
             Ok((mass_msun.ln(), radius_rsun.ln()))
         })
-        .collect()
+        .collect();
+    models.into_iter().collect()
 }
 
 impl TovCorrection {
@@ -94,14 +100,22 @@ impl TovCorrection {
         let comp = core.composition();
         let gr = ColdWd::relativistic(&comp, Electrostatics::default())?;
         let newton = ColdWd::new(&comp, 0.0, Electrostatics::default())?;
-        let top = gr.maximum_mass()?;
         // The lightest central value that `model_of_mass` also uses (≈ 0.01–0.05 M☉).
         let ln_lo = (1e-3f64).max(3.0 * gr.surface_u()).ln();
-        let mut relativistic = sequence(&gr, ln_lo, top.u_c.ln(), SEQUENCE_POINTS)?;
-        // Keep the strictly increasing part (the last node is the maximum itself).
-        relativistic.dedup_by(|b, a| b.0 <= a.0);
-        relativistic.truncate(relativistic.len().saturating_sub(DIRECT_NEAR_MAXIMUM));
-        let newtonian = sequence(&newton, ln_lo, 1e4f64.ln(), SEQUENCE_POINTS)?;
+        // The Newtonian sequence does not wait for the relativistic maximum.
+        let (relativistic, newtonian) = rayon::join(
+            || -> Result<_, HotWdError> {
+                let top = gr.maximum_mass()?;
+                let mut relativistic = sequence(&gr, ln_lo, top.u_c.ln(), SEQUENCE_POINTS)?;
+                // Keep the strictly increasing part (the last node is the maximum itself).
+                relativistic.dedup_by(|b, a| b.0 <= a.0);
+                relativistic.truncate(relativistic.len().saturating_sub(DIRECT_NEAR_MAXIMUM));
+                Ok((top, relativistic))
+            },
+            || sequence(&newton, ln_lo, 1e4f64.ln(), SEQUENCE_POINTS),
+        );
+        let (top, relativistic) = relativistic?;
+        let newtonian = newtonian?;
         Ok(Self {
             core,
             maximum_mass_msun: top.mass_msun,
