@@ -15,10 +15,11 @@
 //!   624), which stays accurate when many objects make the integrand much narrower than σ.
 //!
 //! The minimum over δ is found by a scan with golden-section refinement ([`eliminate`], any
-//! term), by Newton steps on finite differences ([`eliminate_smooth`], a smooth term given as
-//! values only), or by Newton steps with the term's exact slope and curvature
+//! term) or by Newton steps with the term's exact slope and curvature
 //! ([`eliminate_newton_value`], a smooth term that supplies them, converged to rounding level so
-//! that the result does not depend on where the search starts).
+//! that the result does not depend on where the search starts). A Newton search on finite
+//! differences of values, used before for the white-dwarf radius term, stopped where the
+//! differenced slope vanished (up to 6e-7 above the minimum on the demo) and was removed.
 //!
 //! ```
 //! use dwarfbound::confront::nuisance::{eliminate, NuisanceMethod, SharedNuisance};
@@ -145,42 +146,6 @@ pub fn eliminate(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
     }
 }
 
-/// As [`eliminate`], for a smooth term that is close to quadratic in δ near its minimum (a sum
-/// of many Gaussian-like terms given as values only; a term that can supply its exact
-/// derivatives, like the white-dwarf radius term, uses [`eliminate_newton_value`]), at a
-/// fraction of the cost: Newton steps on g = f + (δ/σ)² from δ = 0 with central
-/// differences (step 0.1σ, shrunk to half the posterior width once the curvature is known),
-/// each step at most 2σ and only taken if g decreases, until the next step is below 1e-4 of the
-/// posterior width (g then within ~1e-8 of its minimum) or it stops at ±reach·σ; about 10
-/// evaluations of `f` against ≈ 100 for the scan. Where a step fails (non-finite values, no positive curvature, no
-/// descent, no convergence in 20 steps) it falls back to [`eliminate`]. The finite
-/// differences are taken at up to half the posterior width, so the search stops where their
-/// slope vanishes, not the true one (our reading of why g(δ̂) sat up to 6e-7 above the
-/// minimum on the demo's radius term, more than the 1e-8 the step criterion suggests).
-/// Kept for terms given as values only.
-pub fn eliminate_smooth(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
-    match newton_profile(f, n) {
-        Some((d, g0)) => Eliminated {
-            minus_two_ln_l: finish_smooth(f, n, d, g0),
-            delta_hat: d,
-            data_term: f(d),
-        },
-        None => eliminate(f, n),
-    }
-}
-
-/// [`eliminate_smooth`]'s −2 ln L and δ̂ (bit for bit the same), without the data term f(δ̂):
-/// for callers that need only the eliminated value, one evaluation of `f` fewer.
-pub fn eliminate_smooth_value(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> (f64, f64) {
-    match newton_profile(f, n) {
-        Some((d, g0)) => (finish_smooth(f, n, d, g0), d),
-        None => {
-            let e = eliminate(f, n);
-            (e.minus_two_ln_l, e.delta_hat)
-        }
-    }
-}
-
 /// The eliminated value once the Newton search has found (δ̂, g(δ̂)).
 fn finish_smooth(f: &dyn Fn(f64) -> f64, n: &SharedNuisance, d: f64, g0: f64) -> f64 {
     match n.method {
@@ -199,50 +164,6 @@ fn penalised(f: &dyn Fn(f64) -> f64, sigma: f64, d: f64) -> f64 {
     } else {
         f64::INFINITY
     }
-}
-
-/// The Newton search of [`eliminate_smooth`]: (δ̂, g(δ̂)), or `None` where it must fall back to
-/// the scan.
-fn newton_profile(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Option<(f64, f64)> {
-    let sigma = n.sigma;
-    let reach = n.reach_sigma * sigma;
-    let g = |d: f64| penalised(f, sigma, d);
-    let mut d = 0.0;
-    let mut g0 = g(d);
-    let mut h = 0.1 * sigma;
-    for _ in 0..20 {
-        if !g0.is_finite() {
-            return None;
-        }
-        let (gp, gm) = (g(d + h), g(d - h));
-        let curv = (gp - 2.0 * g0 + gm) / (h * h);
-        let slope = (gp - gm) / (2.0 * h);
-        if !(curv.is_finite() && curv > 0.0 && slope.is_finite()) {
-            return None;
-        }
-        let step = (-slope / curv).clamp(-2.0 * sigma, 2.0 * sigma);
-        // Δg = 1 at the posterior's 1σ width √(2/g''): a step far below it changes g by
-        // nothing that matters (≤ 1e-8 here), so the minimum is found.
-        let width = (2.0 / curv).sqrt();
-        if step.abs() <= 1e-4 * width.min(sigma) {
-            return Some((d, g0));
-        }
-        let nd = (d + step).clamp(-reach, reach);
-        if nd == d {
-            // At the edge of the search range and pushing outwards: the constrained minimum
-            // (the prior penalty there is reach², so such points are far from any region).
-            return Some((d, g0));
-        }
-        let ng = g(nd);
-        if !(ng.is_finite() && ng <= g0 + 1e-9 * (1.0 + g0.abs())) {
-            return None;
-        }
-        d = nd;
-        g0 = ng;
-        // Sample well inside the posterior width.
-        h = h.min(0.5 * width).max(1e-6 * sigma);
-    }
-    None
 }
 
 /// A smooth term's value and its first two derivatives in δ at one point: what
@@ -271,22 +192,19 @@ const NEWTON_STEP_TOL: f64 = 1e-10;
 /// is rounding noise; common practice, no source).
 const SLOPE_ROUNDING_EPS: f64 = 64.0;
 
-/// As [`eliminate_smooth_value`], for a term that also supplies its first and second
+/// [`eliminate`]'s −2 ln L and δ̂ for a smooth term that also supplies its first and second
 /// derivatives (`local`; `f` is the same term's value alone, bit for bit `local(δ).value`):
 /// Newton's method with the exact curvature, converged to rounding level, so that δ̂ and the
 /// eliminated value do not depend on the starting point `start` (a caller that knows a nearby
 /// δ̂, say of the same objects but one, starts there and saves most of the steps).
 ///
-/// The search is safeguarded as [`eliminate_smooth`]'s is: every step at most 2σ, δ kept on
-/// ±reach·σ, and where a step fails (non-finite values, no positive curvature, no convergence
-/// in 40 steps) it falls back to the scan [`eliminate`]. Where a full step
-/// raises g by more than rounding (1e-9 relative, [`eliminate_smooth`]'s tolerance), the
+/// The search is safeguarded: every step at most 2σ, δ kept on ±reach·σ, and where a step fails
+/// (non-finite values, no positive curvature, no convergence in 40 steps) it falls back to the
+/// scan [`eliminate`]. Where a full step raises g by more than rounding (1e-9 relative), the
 /// step is halved (backtracking); once the slope has changed sign between two points, the
 /// minimum is bracketed and a step leaving the bracket is replaced by its midpoint. It stops
 /// when |step| ≤ 1e-10 of the posterior width √(2/g″) (and of σ) or |g′| is at rounding
-/// level — each evaluation gives value, slope and curvature, about 5 evaluations in all
-/// against ≈ 12 value-only evaluations of [`eliminate_smooth`] (which stops at 1e-4 of the
-/// width, so its g(δ̂) depends on its path at the 1e-8 level).
+/// level — each evaluation gives value, slope and curvature, about 5 evaluations in all.
 pub fn eliminate_newton_value(
     local: &dyn Fn(f64) -> Local,
     f: &dyn Fn(f64) -> f64,
@@ -483,68 +401,6 @@ mod tests {
         assert!((s4 - 0.75 * rp).abs() < 1e-11);
     }
 
-    /// The Newton elimination agrees with the scan on a quadratic (closed form 1/(s² + σ²)) and
-    /// on a non-quadratic sum of Gaussian mixtures, for both methods.
-    #[test]
-    fn smooth_elimination_matches_the_scan() {
-        let (s, sigma) = (0.5, 1.0);
-        for method in [NuisanceMethod::Profile, NuisanceMethod::Marginalise] {
-            let n = SharedNuisance {
-                sigma,
-                method,
-                reach_sigma: 8.0,
-            };
-            let quad = |d: f64| ((d - 1.0) / s).powi(2);
-            let (a, b) = (eliminate(&quad, &n), eliminate_smooth(&quad, &n));
-            assert!((a.minus_two_ln_l - b.minus_two_ln_l).abs() < 1e-8);
-            assert!((a.delta_hat - b.delta_hat).abs() < 1e-6);
-            if method == NuisanceMethod::Profile {
-                assert!((b.minus_two_ln_l - 1.0 / (s * s + sigma * sigma)).abs() < 1e-9);
-            }
-            // −2 ln of two-component mixtures in (1 + δ), like the radius term.
-            let mix = |d: f64| -> f64 {
-                [(1.03, 0.02), (0.97, 0.03), (1.08, 0.05)]
-                    .iter()
-                    .map(|&(r, e)| {
-                        let p = 0.7 * (-0.5 * ((r - (1.0 + d)) / e).powi(2)).exp()
-                            + 0.3 * (-0.5 * ((r - 1.02 * (1.0 + d)) / e).powi(2)).exp();
-                        -2.0 * p.ln()
-                    })
-                    .sum()
-            };
-            let n = SharedNuisance { sigma: 0.025, ..n };
-            // The Newton path must converge on its own (no fall-back to the ≈ 100-evaluation
-            // scan): count the evaluations.
-            let calls = std::cell::Cell::new(0usize);
-            let counted = |d: f64| {
-                calls.set(calls.get() + 1);
-                mix(d)
-            };
-            let b = eliminate_smooth(&counted, &n);
-            let budget = if method == NuisanceMethod::Profile {
-                25
-            } else {
-                60
-            };
-            assert!(
-                calls.get() <= budget,
-                "{method:?}: {} evaluations",
-                calls.get()
-            );
-            // The value-only variant is the same search: the same bits.
-            let (v, d) = eliminate_smooth_value(&mix, &n);
-            assert_eq!(v.to_bits(), b.minus_two_ln_l.to_bits());
-            assert_eq!(d.to_bits(), b.delta_hat.to_bits());
-            let a = eliminate(&mix, &n);
-            assert!(
-                (a.minus_two_ln_l - b.minus_two_ln_l).abs() < 1e-7,
-                "{method:?}: {} vs {}",
-                a.minus_two_ln_l,
-                b.minus_two_ln_l
-            );
-        }
-    }
-
     /// The analytic search on a quadratic, f(δ) = ((δ − 1)/s)²: the profile is 1/(s² + σ²) and
     /// δ̂ = σ²/(s² + σ²) (closed form), reached in one Newton step from any start; on a
     /// non-quadratic mixture it agrees with the scan and with itself from other starts; a term
@@ -610,6 +466,19 @@ mod tests {
             assert!((v - v0).abs() <= 4.0 * f64::EPSILON * v0.abs());
             assert!((d - d0).abs() <= 1e-9 * n.sigma);
         }
+        // Marginalising: the quadrature is centred at the same mode, so it agrees with the
+        // scan's marginalisation as the profile does.
+        let marg = SharedNuisance {
+            method: NuisanceMethod::Marginalise,
+            ..n
+        };
+        let (v, _) = eliminate_newton_value(&mix, &|d| mix(d).value, &marg, 0.0);
+        let scan = eliminate(&|d| mix(d).value, &marg);
+        assert!(
+            (scan.minus_two_ln_l - v).abs() < 1e-7,
+            "{} vs {v}",
+            scan.minus_two_ln_l
+        );
         // Concave everywhere: no Newton step is safe, the scan decides (bit for bit).
         let n = SharedNuisance { sigma: 1.0, ..n };
         let concave = |d: f64| Local {
