@@ -442,27 +442,11 @@ pub fn radius_term_from(
     start: f64,
 ) -> RadiusTerm {
     let mix = Mixtures::new(objects, cold_at_point, upsilon);
-    // (δ's bits, every object's term there) of the search's last evaluation.
-    let last: std::cell::RefCell<Option<(u64, Vec<Local>)>> = std::cell::RefCell::new(None);
-    let at = |d: f64| -> Local {
-        let locals = mix.locals(None, 1.0 + d);
-        let sum = Mixtures::sum(&locals, None);
-        *last.borrow_mut() = Some((d.to_bits(), locals));
-        sum
-    };
-    let (minus_two_ln_l, delta_hat) = mix.eliminate(None, shared, start, &at);
-    let per_object = match last.into_inner() {
-        Some((bits, locals)) if bits == delta_hat.to_bits() => {
-            locals.iter().map(|l| l.value).collect()
-        }
-        _ => (0..objects.len())
-            .map(|i| mix.minus_two_ln_l(i, 1.0 + delta_hat))
-            .collect(),
-    };
+    let (minus_two_ln_l, delta_hat, at_hat) = mix.eliminate_keeping_terms(shared, start);
     RadiusTerm {
         minus_two_ln_l,
         delta_hat,
-        per_object,
+        per_object: at_hat.iter().map(|l| l.value).collect(),
     }
 }
 
@@ -518,19 +502,8 @@ pub fn radius_totals_leaving_out(
             .map(|&skip| mix.total(Some(skip), 1.0))
             .collect();
     };
-    let last: std::cell::RefCell<Option<(u64, Vec<Local>)>> = std::cell::RefCell::new(None);
-    let at = |d: f64| -> Local {
-        let locals = mix.locals(None, 1.0 + d);
-        let sum = Mixtures::sum(&locals, None);
-        *last.borrow_mut() = Some((d.to_bits(), locals));
-        sum
-    };
-    let (_, delta_all) = mix.eliminate(None, Some(n), 0.0, &at);
     // Every object's term at the whole set's δ̂, where each reduced search starts.
-    let at_start = match last.into_inner() {
-        Some((bits, locals)) if bits == delta_all.to_bits() => locals,
-        _ => mix.locals(None, 1.0 + delta_all),
-    };
+    let (_, delta_all, at_start) = mix.eliminate_keeping_terms(Some(n), 0.0);
     leave_out
         .iter()
         .map(|&skip| {
@@ -740,6 +713,31 @@ impl Mixtures {
             .filter(|&i| Some(i) != skip)
             .map(|i| self.minus_two_ln_l(i, scale))
             .sum()
+    }
+
+    /// (−2 ln L, δ̂) of all objects from `start` (as [`Mixtures::eliminate`]), with every
+    /// object's term and its derivatives at δ̂: the search's last evaluation is usually at δ̂,
+    /// so its per-object terms are kept instead of being computed again (their values are
+    /// [`Mixtures::minus_two_ln_l`]'s to the bit either way).
+    fn eliminate_keeping_terms(
+        &self,
+        shared: Option<&SharedNuisance>,
+        start: f64,
+    ) -> (f64, f64, Vec<Local>) {
+        // (δ's bits, every object's term there) of the search's last evaluation.
+        let last: std::cell::RefCell<Option<(u64, Vec<Local>)>> = std::cell::RefCell::new(None);
+        let at = |d: f64| -> Local {
+            let locals = self.locals(None, 1.0 + d);
+            let sum = Mixtures::sum(&locals, None);
+            *last.borrow_mut() = Some((d.to_bits(), locals));
+            sum
+        };
+        let (value, delta_hat) = self.eliminate(None, shared, start, &at);
+        let terms = match last.into_inner() {
+            Some((bits, locals)) if bits == delta_hat.to_bits() => locals,
+            _ => self.locals(None, 1.0 + delta_hat),
+        };
+        (value, delta_hat, terms)
     }
 
     /// (−2 ln L, δ̂) of the objects without `skip`: `at(δ)` is their Σ −2 ln L_i at 1 + δ with
