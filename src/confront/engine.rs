@@ -777,32 +777,22 @@ pub fn confront(
         // Rows of constant τ in parallel, each along ϒ in order: the shared scale's search at
         // a point starts at the previous point's δ̂ (fewer Newton steps), and since a row is
         // always run in the same order the outputs do not depend on the number of threads.
-        let rows: Vec<Vec<Option<f64>>> = (0..n.div_ceil(nu.max(1)))
-            .into_par_iter()
-            .map(|row| {
-                let mut start = 0.0;
-                (row * nu..((row + 1) * nu).min(n))
-                    .map(|i| {
-                        chandra[i]?;
-                        let mut radii = surface.wd_radii_prepared(i, &queries);
-                        // Spinning white dwarfs: the point's own slow-rotation factor, inside
-                        // the term.
-                        spun.apply(&spins, surface, i, &mut radii);
-                        let upsilon = ups[i % nu];
-                        let (value, delta_hat) = wd_radius::radius_total_from(
-                            &radius_objects,
-                            &radii,
-                            upsilon,
-                            shared.as_ref(),
-                            start,
-                        );
-                        start = delta_hat;
-                        Some(value)
-                    })
-                    .collect()
-            })
-            .collect();
-        per_term[Term::WhiteDwarfRadius.index()] = rows.into_iter().flatten().collect();
+        per_term[Term::WhiteDwarfRadius.index()] = wd_radius::warm_started(n, nu, |i, start| {
+            if chandra[i].is_none() {
+                return (None, start);
+            }
+            let mut radii = surface.wd_radii_prepared(i, &queries);
+            // Spinning white dwarfs: the point's own slow-rotation factor, inside the term.
+            spun.apply(&spins, surface, i, &mut radii);
+            let (value, delta_hat) = wd_radius::radius_total_from(
+                &radius_objects,
+                &radii,
+                ups[i % nu],
+                shared.as_ref(),
+                start,
+            );
+            (Some(value), delta_hat)
+        });
     }
     // A point is usable only where every bound that some object needs exists.
     let joint = (0..n)

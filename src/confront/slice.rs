@@ -47,7 +47,7 @@ use super::reduce::{bound_range, CubicSpline, SplineEnd, SplineWeights};
 use super::regions::{self, UpsilonSlice};
 use super::wd_radius::{
     radius_term_from, radius_total_from, radius_totals_leaving_out, shared_nuisance, split_floor,
-    ObjectRadius, RadiusTerm,
+    warm_started, ObjectRadius, RadiusTerm,
 };
 use crate::theory::white_dwarf::RadiusQueries;
 
@@ -329,31 +329,18 @@ fn radius_terms_on_fine_axis(
         (!spun.is_empty()).then_some(&adjust),
     )?;
     // At each fine point the radius term of all objects together (the shared scale, if any, is
-    // eliminated there) from every node's cold radius there (the layout `radius_term` takes);
-    // fine points in parallel, collected in order.
-    // Blocks of FINE_BLOCK points in parallel, in order within a block, each search starting
-    // at the previous point's δ̂ (the blocks are fixed, so the outputs do not depend on the
-    // number of threads).
-    let terms: Vec<RadiusTerm> = (0..fine.len().div_ceil(FINE_BLOCK))
-        .into_par_iter()
-        .map(|block| {
-            let mut start = 0.0;
-            (block * FINE_BLOCK..((block + 1) * FINE_BLOCK).min(fine.len()))
-                .map(|k| {
-                    let t = radius_term_from(
-                        &conf.radius_objects,
-                        &nodes_fine.at(k),
-                        fine[k],
-                        conf.radius_shared.as_ref(),
-                        start,
-                    );
-                    start = t.delta_hat;
-                    t
-                })
-                .collect::<Vec<_>>()
-        })
-        .flatten()
-        .collect();
+    // eliminated there) from every node's cold radius there (the layout `radius_term` takes).
+    let terms: Vec<RadiusTerm> = warm_started(fine.len(), FINE_BLOCK, |k, start| {
+        let t = radius_term_from(
+            &conf.radius_objects,
+            &nodes_fine.at(k),
+            fine[k],
+            conf.radius_shared.as_ref(),
+            start,
+        );
+        let delta_hat = t.delta_hat;
+        (t, delta_hat)
+    });
     let per_object = conf
         .radius_objects
         .iter()
@@ -382,27 +369,9 @@ pub fn radius_total_fine(
             .unwrap_or_default(),
         None => {
             let fine = &s.slice.upsilon_fine;
-            // As in `radius_terms_on_fine_axis`: fixed blocks, warm starts within a block.
-            (0..fine.len().div_ceil(FINE_BLOCK))
-                .into_par_iter()
-                .map(|block| {
-                    let mut start = 0.0;
-                    (block * FINE_BLOCK..((block + 1) * FINE_BLOCK).min(fine.len()))
-                        .map(|k| {
-                            let (value, delta_hat) = radius_total_from(
-                                objects,
-                                &s.radius_nodes_fine.at(k),
-                                fine[k],
-                                shared,
-                                start,
-                            );
-                            start = delta_hat;
-                            value
-                        })
-                        .collect::<Vec<_>>()
-                })
-                .flatten()
-                .collect()
+            warm_started(fine.len(), FINE_BLOCK, |k, start| {
+                radius_total_from(objects, &s.radius_nodes_fine.at(k), fine[k], shared, start)
+            })
         }
     }
 }

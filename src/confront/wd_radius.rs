@@ -23,6 +23,8 @@
 //! assert!((f - (0.055f64.powi(2) + 0.04f64.powi(2)).sqrt()).abs() < 1e-12);
 //! ```
 
+use rayon::prelude::*;
+
 use super::engine::LeftOut;
 use super::mass_terms::{MassTermOptions, Systematics};
 use super::nuisance::{eliminate_newton_value, Local, SharedNuisance};
@@ -516,6 +518,34 @@ pub fn radius_totals_leaving_out(
             };
             mix.eliminate(Some(skip), Some(n), delta_all, &at).0
         })
+        .collect()
+}
+
+/// `point(k, start)` for k in 0..n, each returning (result, δ̂): fixed blocks of `block`
+/// consecutive points in parallel, the points of a block in order, each point's shared-scale
+/// search starting at the previous point's δ̂ (0 at a block's first; a point without a term
+/// returns the start it was given). The blocks do not depend on the thread count, so neither
+/// do the results: how the grid's rows of constant τ and the τ = 0 slice's fine axis warm-start
+/// [`radius_total_from`] and [`radius_term_from`].
+pub fn warm_started<T: Send>(
+    n: usize,
+    block: usize,
+    point: impl Fn(usize, f64) -> (T, f64) + Sync,
+) -> Vec<T> {
+    let block = block.max(1);
+    (0..n.div_ceil(block))
+        .into_par_iter()
+        .map(|b| {
+            let mut start = 0.0;
+            (b * block..((b + 1) * block).min(n))
+                .map(|k| {
+                    let (result, delta_hat) = point(k, start);
+                    start = delta_hat;
+                    result
+                })
+                .collect::<Vec<_>>()
+        })
+        .flatten()
         .collect()
 }
 
