@@ -167,8 +167,8 @@ fn penalised(f: &dyn Fn(f64) -> f64, sigma: f64, d: f64) -> f64 {
 }
 
 /// A smooth term's value and its first two derivatives in δ at one point: what
-/// [`eliminate_newton_value`] needs from each evaluation.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// [`eliminate_newton_value`] needs from each evaluation (`Default`: a term that adds nothing).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct Local {
     /// f(δ): −2 ln L of the data (non-finite where the term does not exist).
     pub value: f64,

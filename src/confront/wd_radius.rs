@@ -673,9 +673,7 @@ impl Mixtures {
         } else {
             Local {
                 value,
-                slope: 0.0,
-                curvature: 0.0,
-                slope_magnitude: 0.0,
+                ..Local::default()
             }
         }
     }
@@ -685,12 +683,7 @@ impl Mixtures {
         (0..self.objects.len())
             .map(|i| {
                 if Some(i) == skip {
-                    Local {
-                        value: 0.0,
-                        slope: 0.0,
-                        curvature: 0.0,
-                        slope_magnitude: 0.0,
-                    }
+                    Local::default()
                 } else {
                     self.local(i, scale)
                 }
@@ -719,12 +712,7 @@ impl Mixtures {
     /// [`Mixtures::sum`] of the objects without `skip` at `scale`, without keeping the
     /// per-object terms.
     fn local_total(&self, skip: Option<usize>, scale: f64) -> Local {
-        let mut out = Local {
-            value: 0.0,
-            slope: 0.0,
-            curvature: 0.0,
-            slope_magnitude: 0.0,
-        };
+        let mut out = Local::default();
         let mut values = Vec::with_capacity(self.objects.len());
         for i in (0..self.objects.len()).filter(|&i| Some(i) != skip) {
             let l = self.local(i, scale);
@@ -790,7 +778,7 @@ impl Mixtures {
                             value: f64::INFINITY,
                             slope: f64::NAN,
                             curvature: f64::NAN,
-                            slope_magnitude: 0.0,
+                            ..Local::default()
                         };
                     }
                     at(d)
