@@ -235,6 +235,9 @@ fn split_cdf(x: f64, m0: f64, lo: f64, hi: f64) -> f64 {
     }
 }
 
+/// The rows the EM reads: (first cell, values) per object, or per group on the grouped path.
+type KernelRows = Vec<(usize, Vec<f64>)>;
+
 /// One object's likelihood averaged over each cell of a grid: (first cell, values). Empty when
 /// the object's window misses the grid.
 fn kernel_row(
@@ -281,7 +284,7 @@ pub fn deconvolve(
     let h = (hi - lo) / n as f64;
     // Exact: one row per object, weight 1. Grouped (prototype): one row per group at its
     // members' mean, weighted by its count.
-    let (rows, weights): (Vec<(usize, Vec<f64>)>, Option<Vec<f64>>) =
+    let (rows, weights): (KernelRows, Option<Vec<f64>>) =
         if objects.len() <= opts.grouping.exact_up_to {
             let rows = objects
                 .par_iter()
