@@ -110,9 +110,10 @@ fn repeating_the_catalogue_adds_no_rows() {
 #[test]
 fn grouped_fit_moves_far_less_than_its_counting_error() {
     // The yardstick is the Poisson error of each cell's weight, √(w/N) (common practice, no
-    // source); the deconvolved weights' own bootstrap error is larger (≈ 1.5–2× here), so
-    // this is the stricter test. Measured: max |Δw| / √(w/N) ≈ 0.01 (mass step 0.1 σ,
-    // σ step 5 %); the line is 0.1.
+    // source). The fit's own bootstrap error is smaller, the smoothing averaging neighbouring
+    // cells (0.2–0.7 × √(w/N), median 0.45, on the scale catalogue's 10⁵ and 10⁶ objects),
+    // so the line of 0.03 is about 0.07 bootstrap σ. Measured: max |Δw| / √(w/N) = 0.003
+    // (mass step 0.1 σ, σ step 5 %).
     let objs = scale_like(40_000, 3);
     let (a, b) = (fit(&objs, exact()), fit(&objs, grouped()));
     let n = a.n_objects as f64;
@@ -127,7 +128,7 @@ fn grouped_fit_moves_far_less_than_its_counting_error() {
         "grouped: {} rows for {} objects; max |Δw| / Poisson error {worst:.4}",
         b.n_rows, b.n_objects
     );
-    assert!(worst < 0.1, "{worst}");
+    assert!(worst < 0.03, "{worst}");
     assert!(b.n_rows < a.n_rows, "{} vs {}", b.n_rows, a.n_rows);
 }
 
