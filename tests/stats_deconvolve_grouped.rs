@@ -150,3 +150,25 @@ fn zero_widths_are_grouped_without_failing() {
     assert!((total - 1.0).abs() < 1e-12, "{total}");
     assert!(g.weights.iter().all(|w| w.is_finite() && *w >= 0.0));
 }
+
+#[test]
+fn grouping_steps_must_be_positive() {
+    // Source: the design (a zero step would put every mass in one group, or divide by zero).
+    let objs = scale_like(100, 4);
+    for (c, r) in [
+        (0.0, 0.05),
+        (0.1, 0.0),
+        (f64::NAN, 0.05),
+        (0.1, f64::INFINITY),
+    ] {
+        let opts = DeconvolveOptions {
+            grouping: Grouping {
+                exact_up_to: 0,
+                mass_step_sigma: c,
+                sigma_step: r,
+            },
+            ..DeconvolveOptions::default()
+        };
+        assert!(deconvolve(&objs, (0.0, 0.175), &opts).is_err(), "{c} {r}");
+    }
+}

@@ -280,6 +280,14 @@ pub fn deconvolve(
             opts.n_cells
         )));
     }
+    let g = &opts.grouping;
+    let positive = |x: f64| x > 0.0 && x.is_finite();
+    if !(positive(g.mass_step_sigma) && positive(g.sigma_step)) {
+        return Err(StatsError::InvalidInput(format!(
+            "grouping steps {} σ in mass and {} in ln σ must be positive",
+            g.mass_step_sigma, g.sigma_step
+        )));
+    }
     let n = opts.n_cells;
     let h = (hi - lo) / n as f64;
     // Exact: one row per object, weight 1. Grouped (prototype): one row per group at its
