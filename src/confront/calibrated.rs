@@ -28,6 +28,20 @@
 //! needed by posteriors that are a full error wide); the iteration stops when the mean
 //! log-likelihood per object changes by less than `tol` (1e-7) or after `max_iter` (200) steps.
 //!
+//! **Grouped rows (PROTOTYPE: changes results above the threshold).** Each EM step reads every
+//! object's kernel row (its likelihood averaged over the cells within ±6σ, ~110 cells), so the
+//! exact fit holds memory in proportion to the catalogue (325 MB at 10⁶ objects). Above
+//! [`Grouping::exact_up_to`] objects (16 384) the objects are grouped instead, in one pass, by
+//! σ₋ and σ₊ on a logarithmic grid (5 % steps) and by measured mass in steps of 0.1 σ; each
+//! non-empty group is one row, computed at its members' mean (mass, σ₋, σ₊) and weighted by
+//! their count — the EM of the grouped data. The mean keeps the error second order in the
+//! spread inside a group (its first-order terms cancel); a single-member group is its object.
+//! The number of groups is bounded by the grids, not by N: per σ-cell at most
+//! (grid width)/(0.1 σ) mass steps of rows ~12 σ/h cells long, i.e. about 12 × 600/0.1 cells
+//! whatever σ is. Up to the threshold every object has its own row and the result is the
+//! exact fit, to the bit. Measured on the invented scale catalogue (10⁶ objects, 350 088 in
+//! the MMHB's fit): DEVELOPERS.md, "What remains for memory independent of N".
+//!
 //! ```
 //! use dwarfbound::confront::calibrated::{deconvolve, DeconvolveOptions};
 //! // 2000 exact-ish masses uniform on [0.05, 0.10] with 0.002 errors: φ is flat inside.
@@ -56,6 +70,9 @@ pub struct DeconvolveOptions {
     pub smoothing: f64,
     /// Each object's likelihood is cut at this many σ on each side (default 6).
     pub window_sigma: f64,
+    /// When the fit holds one row per group of similar objects instead of one per object
+    /// (prototype, see [`Grouping`]).
+    pub grouping: Grouping,
 }
 
 impl Default for DeconvolveOptions {
@@ -66,8 +83,92 @@ impl Default for DeconvolveOptions {
             tol: 1e-7,
             smoothing: 0.25,
             window_sigma: 6.0,
+            grouping: Grouping::default(),
         }
     }
+}
+
+/// PROTOTYPE, changes results above `exact_up_to`: the grouped form of the EM's sufficient
+/// statistics (see the module text, "Grouped rows"). Objects are grouped by σ₋ and σ₊ on a
+/// logarithmic grid of relative step `sigma_step` and by measured mass in steps of
+/// `mass_step_sigma` × the lower edge of the smaller σ-cell; each non-empty group is one kernel
+/// row, computed at the group's mean mass and mean widths and weighted by its count.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Grouping {
+    /// Up to this many objects every object has its own row (the exact fit, default 16 384:
+    /// about 15 MB of rows); above it the objects are grouped.
+    pub exact_up_to: usize,
+    /// Mass step of a group in units of its σ (default 0.1).
+    pub mass_step_sigma: f64,
+    /// Relative step of the logarithmic σ₋ and σ₊ grids (default 0.05, i.e. 5 %).
+    pub sigma_step: f64,
+}
+
+impl Default for Grouping {
+    fn default() -> Self {
+        Self {
+            exact_up_to: 16_384,
+            mass_step_sigma: 0.1,
+            sigma_step: 0.05,
+        }
+    }
+}
+
+/// One group of the grouped form: its key, count and the sums of its members' (mass, σ₋, σ₊).
+#[derive(Debug, Clone, Copy)]
+struct GroupSums {
+    key: (i32, i32, i64),
+    count: u64,
+    sum: [f64; 3],
+}
+
+/// The grouping key of an object: (σ₋ cell, σ₊ cell, mass step). A zero width has its own
+/// σ cell (`i32::MIN`); the mass step is `mass_step_sigma` × the smaller positive σ-cell edge,
+/// or × the mass-grid cell `h` when both widths are zero (the row is then a step at m0).
+fn group_key(m: f64, lo: f64, hi: f64, grid_lo: f64, h: f64, g: &Grouping) -> (i32, i32, i64) {
+    let ln_step = g.sigma_step.ln_1p();
+    let cell = |s: f64| {
+        if s > 0.0 {
+            (s.ln() / ln_step).floor() as i32
+        } else {
+            i32::MIN
+        }
+    };
+    let (ka, kb) = (cell(lo), cell(hi));
+    let edge = match (ka, kb) {
+        (i32::MIN, i32::MIN) => h,
+        (i32::MIN, k) | (k, i32::MIN) => (k as f64 * ln_step).exp(),
+        (a, b) => (a.min(b) as f64 * ln_step).exp(),
+    };
+    let km = ((m - grid_lo) / (g.mass_step_sigma * edge)).floor() as i64;
+    (ka, kb, km)
+}
+
+/// Groups `objects` (one pass, in order) and returns each non-empty group's sums, sorted by key
+/// so that the rows and the EM's sums do not depend on hashing.
+fn group_objects(
+    objects: &[(f64, f64, f64)],
+    grid_lo: f64,
+    h: f64,
+    g: &Grouping,
+) -> Vec<GroupSums> {
+    let mut map: std::collections::HashMap<(i32, i32, i64), (u64, [f64; 3])> =
+        std::collections::HashMap::new();
+    for &(m, a, b) in objects {
+        let e = map
+            .entry(group_key(m, a, b, grid_lo, h, g))
+            .or_insert((0, [0.0; 3]));
+        e.0 += 1;
+        e.1[0] += m;
+        e.1[1] += a;
+        e.1[2] += b;
+    }
+    let mut groups: Vec<GroupSums> = map
+        .into_iter()
+        .map(|(key, (count, sum))| GroupSums { key, count, sum })
+        .collect();
+    groups.sort_unstable_by_key(|g| g.key);
+    groups
 }
 
 /// A deconvolved mass function on a uniform grid: probability per cell.
@@ -81,6 +182,9 @@ pub struct MassFunction {
     pub weights: Vec<f64>,
     /// Objects that entered the estimate.
     pub n_objects: usize,
+    /// Kernel rows held by the fit: one per object on the exact path, one per group on the
+    /// grouped path (prototype; what its memory grows with).
+    pub n_rows: usize,
     /// EM iterations done.
     pub iterations: usize,
     /// Whether the stopping rule was met before `max_iter`.
@@ -131,6 +235,9 @@ fn split_cdf(x: f64, m0: f64, lo: f64, hi: f64) -> f64 {
     }
 }
 
+/// The rows the EM reads: (first cell, values) per object, or per group on the grouped path.
+type KernelRows = Vec<(usize, Vec<f64>)>;
+
 /// One object's likelihood averaged over each cell of a grid: (first cell, values). Empty when
 /// the object's window misses the grid.
 fn kernel_row(
@@ -173,13 +280,39 @@ pub fn deconvolve(
             opts.n_cells
         )));
     }
+    let g = &opts.grouping;
+    let positive = |x: f64| x > 0.0 && x.is_finite();
+    if !(positive(g.mass_step_sigma) && positive(g.sigma_step)) {
+        return Err(StatsError::InvalidInput(format!(
+            "grouping steps {} σ in mass and {} in ln σ must be positive",
+            g.mass_step_sigma, g.sigma_step
+        )));
+    }
     let n = opts.n_cells;
     let h = (hi - lo) / n as f64;
-    let rows: Vec<(usize, Vec<f64>)> = objects
-        .par_iter()
-        .map(|&(m, a, b)| kernel_row(m, a, b, lo, h, n, opts.window_sigma))
-        .filter(|(_, r)| r.iter().any(|&v| v > 0.0))
-        .collect();
+    // Exact: one row per object, weight 1. Grouped (prototype): one row per group at its
+    // members' mean, weighted by its count.
+    let (rows, weights): (KernelRows, Option<Vec<f64>>) =
+        if objects.len() <= opts.grouping.exact_up_to {
+            let rows = objects
+                .par_iter()
+                .map(|&(m, a, b)| kernel_row(m, a, b, lo, h, n, opts.window_sigma))
+                .filter(|(_, r)| r.iter().any(|&v| v > 0.0))
+                .collect();
+            (rows, None)
+        } else {
+            let groups = group_objects(objects, lo, h, &opts.grouping);
+            let (rows, weights): (Vec<_>, Vec<f64>) = groups
+                .par_iter()
+                .map(|g| {
+                    let c = g.count as f64;
+                    let (m, a, b) = (g.sum[0] / c, g.sum[1] / c, g.sum[2] / c);
+                    (kernel_row(m, a, b, lo, h, n, opts.window_sigma), c)
+                })
+                .filter(|((_, r), _)| r.iter().any(|&v| v > 0.0))
+                .unzip();
+            (rows, Some(weights))
+        };
     let mut sig: Vec<f64> = objects
         .iter()
         .filter(|(m, _, _)| *m >= lo && *m <= hi)
@@ -201,7 +334,10 @@ pub fn deconvolve(
     let mut phi = GaussianSmoother::new(median / h, n).apply(&start);
     let total: f64 = phi.iter().sum();
     phi.iter_mut().for_each(|v| *v /= total);
-    let n_obj = rows.len();
+    let n_rows = rows.len();
+    let n_obj = weights
+        .as_ref()
+        .map_or(n_rows, |w| w.iter().sum::<f64>() as usize);
     let mut prev_ll = f64::NEG_INFINITY;
     let mut iterations = 0;
     let mut converged = false;
@@ -211,6 +347,7 @@ pub fn deconvolve(
             cell_msun: h,
             weights: phi,
             n_objects: 0,
+            n_rows,
             iterations,
             converged: true,
             smoothing_msun,
@@ -220,20 +357,24 @@ pub fn deconvolve(
         iterations += 1;
         // Fixed chunks, summed in order: the result does not depend on the thread count.
         let chunk = 256;
+        // A weight of 1 (the exact path) multiplies exactly, so that path's sums are the
+        // same bits as before the grouped form existed.
         let partials: Vec<(Vec<f64>, f64)> = rows
             .par_chunks(chunk)
-            .map(|rs| {
+            .enumerate()
+            .map(|(c, rs)| {
                 let mut acc = vec![0.0; n];
                 let mut ll = 0.0;
-                for (a, r) in rs {
+                for (i, (a, r)) in rs.iter().enumerate() {
+                    let w = weights.as_ref().map_or(1.0, |w| w[c * chunk + i]);
                     let denom: f64 = r.iter().zip(&phi[*a..]).map(|(k, p)| k * p).sum();
                     if denom > 0.0 {
-                        ll += denom.ln();
+                        ll += w * denom.ln();
                         // Zipped slices, not indices: without bounds checks the update of the
                         // cells vectorises (the same operations per cell, so the same bits).
                         let cells = acc[*a..].iter_mut().zip(&phi[*a..]);
                         for ((x, p), k) in cells.zip(r) {
-                            *x += k * p / denom;
+                            *x += w * (k * p / denom);
                         }
                     }
                 }
@@ -267,6 +408,7 @@ pub fn deconvolve(
         cell_msun: h,
         weights: phi,
         n_objects: n_obj,
+        n_rows,
         iterations,
         converged,
         smoothing_msun,
