@@ -1,5 +1,4 @@
-//! Measures what the grouped form of the mass-function fit (prototype,
-//! `calibrated::Grouping`) changes: the deconvolved mass function of the stars and brown dwarfs
+//! Measures what the grouped form of the mass-function fit (`calibrated::Grouping`) changes: the deconvolved mass function of the stars and brown dwarfs
 //! of a four-column catalogue (`id,class,mass,mass_err`, e.g. the invented scale catalogue of
 //! `tools/make_scale_catalogue.py`) on the mass grid `[lo, hi]` M☉, exact and grouped, with the
 //! exact fit's own bootstrap error (objects resampled with replacement, seeded).

@@ -269,7 +269,7 @@ fn crowded_catalogue_false_exclusion_within_target() {
     assert!(excl > 0.5, "the old default should fail here ({excl})");
 }
 
-/// The grouped mass-function fit (prototype, `calibrated::Grouping`) forced on the crowded
+/// The grouped mass-function fit (`calibrated::Grouping`) forced on the crowded
 /// 10⁴ catalogue: its 10⁴ objects are below the grouping threshold, so the test above runs the
 /// exact fit. Same target and line. Measured at 200 seeds: false exclusion 0.020 and ϒ-interval
 /// miss 0.015, the exact fit's rates on the same seeds.

@@ -1,4 +1,4 @@
-//! The grouped form of the mass-function fit (prototype, `calibrated::Grouping`): exact below
+//! The grouped form of the mass-function fit (`calibrated::Grouping`): exact below
 //! its threshold, the same fit when every group is one object, rows that do not grow when the
 //! catalogue is repeated, and a change far inside the fit's statistical error on a catalogue of
 //! the scale benchmark's kind. The catalogues are invented (seeded draws), not measurements.

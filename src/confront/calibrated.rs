@@ -28,8 +28,8 @@
 //! needed by posteriors that are a full error wide); the iteration stops when the mean
 //! log-likelihood per object changes by less than `tol` (1e-7) or after `max_iter` (200) steps.
 //!
-//! **Grouped rows (PROTOTYPE: changes results above the threshold).** Each EM step reads every
-//! object's kernel row (its likelihood averaged over the cells within ±6σ, ~110 cells), so the
+//! **Grouped rows (above 16 384 objects; a deliberate, measured approximation).** Each EM step
+//! reads every object's kernel row (its likelihood averaged over the cells within ±6σ, ~110 cells), so the
 //! exact fit holds memory in proportion to the catalogue (325 MB at 10⁶ objects). Above
 //! [`Grouping::exact_up_to`] objects (16 384) the objects are grouped instead, in one pass, by
 //! σ₋ and σ₊ on a logarithmic grid (5 % steps) and by measured mass in steps of 0.1 σ; each
@@ -71,7 +71,7 @@ pub struct DeconvolveOptions {
     /// Each object's likelihood is cut at this many σ on each side (default 6).
     pub window_sigma: f64,
     /// When the fit holds one row per group of similar objects instead of one per object
-    /// (prototype, see [`Grouping`]).
+    /// (see [`Grouping`]).
     pub grouping: Grouping,
 }
 
@@ -88,7 +88,7 @@ impl Default for DeconvolveOptions {
     }
 }
 
-/// PROTOTYPE, changes results above `exact_up_to`: the grouped form of the EM's sufficient
+/// Above `exact_up_to` objects, the grouped form of the EM's sufficient
 /// statistics (see the module text, "Grouped rows"). Objects are grouped by σ₋ and σ₊ on a
 /// logarithmic grid of relative step `sigma_step` and by measured mass in steps of
 /// `mass_step_sigma` × the lower edge of the smaller σ-cell; each non-empty group is one kernel
@@ -183,8 +183,11 @@ pub struct MassFunction {
     /// Objects that entered the estimate.
     pub n_objects: usize,
     /// Kernel rows held by the fit: one per object on the exact path, one per group on the
-    /// grouped path (prototype; what its memory grows with).
+    /// grouped path (what its memory grows with).
     pub n_rows: usize,
+    /// Whether the objects were grouped (more than [`Grouping::exact_up_to`] of them): the
+    /// report says so, since the grouped fit is an approximation.
+    pub grouped: bool,
     /// EM iterations done.
     pub iterations: usize,
     /// Whether the stopping rule was met before `max_iter`.
@@ -290,7 +293,7 @@ pub fn deconvolve(
     }
     let n = opts.n_cells;
     let h = (hi - lo) / n as f64;
-    // Exact: one row per object, weight 1. Grouped (prototype): one row per group at its
+    // Exact: one row per object, weight 1. Grouped: one row per group at its
     // members' mean, weighted by its count.
     let (rows, weights): (KernelRows, Option<Vec<f64>>) =
         if objects.len() <= opts.grouping.exact_up_to {
@@ -348,6 +351,7 @@ pub fn deconvolve(
             weights: phi,
             n_objects: 0,
             n_rows,
+            grouped: weights.is_some(),
             iterations,
             converged: true,
             smoothing_msun,
@@ -409,6 +413,7 @@ pub fn deconvolve(
         weights: phi,
         n_objects: n_obj,
         n_rows,
+        grouped: weights.is_some(),
         iterations,
         converged,
         smoothing_msun,

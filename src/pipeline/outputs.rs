@@ -748,6 +748,8 @@ impl OutputContext<'_> {
                 let mf = t.mass_function().map(|m| {
                     json!({
                         "objects": m.n_objects,
+                        "fit": if m.grouped { "grouped" } else { "exact" },
+                        "rows": m.n_rows,
                         "iterations": m.iterations,
                         "converged": m.converged,
                         "smoothing_msun": m.smoothing_msun,

@@ -612,11 +612,20 @@ pub(crate) fn write_report_files(
                     .bounds
                     .iter()
                     .map(|(b, t)| format!(
-                        "{}: {} ({})",
+                        "{}: {}{} ({})",
                         b.name(),
                         match t.model() {
                             crate::confront::mass_terms::LikelihoodModel::Product => "product over objects of the probability of lying on the allowed side of the bound (exact split-normal)",
                             crate::confront::mass_terms::LikelihoodModel::Calibrated => "calibrated: each label's probability with a mass function deconvolved from all objects of the bound's classes as the prior on the true mass",
+                        },
+                        match t.mass_function() {
+                            Some(m) if m.grouped => format!(
+                                ", fitted to {} objects grouped into {} rows of similar mass and error (docs/bounds.md §8.9: an approximation, used above {} objects)",
+                                m.n_objects,
+                                m.n_rows,
+                                crate::confront::calibrated::Grouping::default().exact_up_to
+                            ),
+                            _ => String::new(),
                         },
                         t.rule()
                     ))
