@@ -38,32 +38,50 @@ const CURVE_STEP_MSUN: f64 = 0.01;
 /// evenly (every k-th in catalogue order, deterministic), and the panel's title says so.
 const MAX_PANEL_OBJECTS: usize = 5_000;
 
-/// Thins a panel's objects to [`MAX_PANEL_OBJECTS`]: those above `tension_sigma` (at standard
-/// gravity or at the best fit) are all kept, the others every k-th. Returns the note for the
-/// title, or `None` when nothing was left out.
-fn thin_panel(objects: &mut Vec<MassObject>, tension_sigma: f64) -> Option<String> {
-    let n = objects.len();
-    if n <= MAX_PANEL_OBJECTS {
-        return None;
+/// Which of a panel's objects are drawn: at most [`MAX_PANEL_OBJECTS`], those above the tension
+/// threshold (at standard gravity or at the best fit) all, the others every `step`-th. Decided
+/// from the counts alone, so that a million-object panel never builds the objects it drops
+/// (their ids were the largest allocation of a 10⁶-object run).
+struct Thinning {
+    n: usize,
+    step: usize,
+    seen_others: usize,
+}
+
+impl Thinning {
+    /// From the panel's object count and how many of them are in tension.
+    fn new(n: usize, n_tension: usize) -> Self {
+        let step = if n <= MAX_PANEL_OBJECTS {
+            1
+        } else {
+            let room = MAX_PANEL_OBJECTS.saturating_sub(n_tension).max(1);
+            (n - n_tension).div_ceil(room).max(1)
+        };
+        Self {
+            n,
+            step,
+            seen_others: 0,
+        }
     }
-    let in_tension = |o: &MassObject| {
-        o.sigma.0.is_some_and(|s| s > tension_sigma) || o.sigma.1.is_some_and(|s| s > tension_sigma)
-    };
-    let n_tension = objects.iter().filter(|o| in_tension(o)).count();
-    let room = MAX_PANEL_OBJECTS.saturating_sub(n_tension).max(1);
-    let step = (n - n_tension).div_ceil(room).max(1);
-    let mut k = 0usize;
-    objects.retain(|o| {
-        if in_tension(o) {
+
+    /// Whether the next object (in order) is drawn.
+    fn keep(&mut self, in_tension: bool) -> bool {
+        if in_tension || self.n <= MAX_PANEL_OBJECTS {
             return true;
         }
-        k += 1;
-        (k - 1).is_multiple_of(step)
-    });
-    Some(format!(
-        " — {} of {n} objects drawn (all in tension, every {step}th of the others; objects.csv lists all)",
-        objects.len()
-    ))
+        self.seen_others += 1;
+        (self.seen_others - 1).is_multiple_of(self.step)
+    }
+
+    /// The note for the title, or `None` when nothing was left out.
+    fn note(&self, drawn: usize) -> Option<String> {
+        (self.n > MAX_PANEL_OBJECTS).then(|| {
+            format!(
+                " — {drawn} of {} objects drawn (all in tension, every {}th of the others; objects.csv lists all)",
+                self.n, self.step
+            )
+        })
+    }
 }
 
 /// Masses from `lo` to `hi` in steps of [`CURVE_STEP_MSUN`] (both ends included).
@@ -300,27 +318,50 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
             Term::WhiteDwarfMass => ctx.eopts.chandrasekhar_floor_msun,
             _ => ctx.eopts.mmhb_floor_msun,
         };
-        let mut objects = Vec::new();
+        let tension_sigma = ctx.settings.statistics.tension_sigma;
+        // The panel's objects in order, with their use and verdict.
+        let members = || {
+            ctx.conf.uses.iter().filter_map(move |u| {
+                let k = u.index;
+                let (o, v) = (ctx.vetted.objects.get(k)?, ctx.verdicts.get(k)?);
+                let class_term = match o.class {
+                    ObjectClass::HBurning => Term::HBurning,
+                    ObjectClass::BrownDwarf => Term::BrownDwarf,
+                    ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
+                };
+                (class_term == term && o.mass_msun > 0.0).then_some((u, o, v))
+            })
+        };
+        let sigma_of = |v: &crate::confront::tension::ObjectVerdict| {
+            (
+                v.sigma_standard.get().filter(|s| s.is_finite()),
+                v.sigma_best.get().filter(|s| s.is_finite()),
+            )
+        };
+        let in_tension = |s: (Option<f64>, Option<f64>)| {
+            s.0.is_some_and(|x| x > tension_sigma) || s.1.is_some_and(|x| x > tension_sigma)
+        };
+        // First pass: the counts that decide the thinning, and the bound's class values.
+        let (mut n, mut n_tension) = (0usize, 0usize);
         let (mut standard, mut best) = (None, None);
-        for u in &ctx.conf.uses {
-            let k = u.index;
-            let (Some(o), Some(v)) = (ctx.vetted.objects.get(k), ctx.verdicts.get(k)) else {
-                continue;
-            };
-            let class_term = match o.class {
-                ObjectClass::HBurning => Term::HBurning,
-                ObjectClass::BrownDwarf => Term::BrownDwarf,
-                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
-            };
-            if class_term != term || o.mass_msun <= 0.0 {
-                continue;
-            }
+        for (u, _, v) in members() {
+            n += 1;
+            n_tension += usize::from(in_tension(sigma_of(v)));
             // The class value (μe = 2): an object's own bound is the class's times its scale
             // (4/μe² for white dwarfs, 1 otherwise).
             let scale = u.measurement.scale;
             if scale > 0.0 {
                 standard = standard.or(v.bound_standard.get().map(|b| b / scale));
                 best = best.or(v.bound_best.get().map(|b| b / scale));
+            }
+        }
+        // Second pass: only the objects drawn are built.
+        let mut thinning = Thinning::new(n, n_tension);
+        let mut objects = Vec::new();
+        for (u, o, v) in members() {
+            let sigma = sigma_of(v);
+            if !thinning.keep(in_tension(sigma)) {
+                continue;
             }
             let has = |f: &str| u.flags.iter().any(|g| g == f);
             let mark = if u.mass_term.is_some() {
@@ -339,15 +380,12 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
                     (Some(a), Some(b)) => Some((a, b)),
                     _ => None,
                 },
-                sigma: (
-                    v.sigma_standard.get().filter(|s| s.is_finite()),
-                    v.sigma_best.get().filter(|s| s.is_finite()),
-                ),
+                sigma,
                 mark,
             });
         }
         if let (Some(bound_standard_msun), false) = (standard, objects.is_empty()) {
-            let note = thin_panel(&mut objects, ctx.settings.statistics.tension_sigma);
+            let note = thinning.note(objects.len());
             panels.push(MassPanel {
                 title: format!("{title}{}", note.unwrap_or_default()),
                 bound_label: bound_label.into(),
