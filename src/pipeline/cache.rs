@@ -71,6 +71,14 @@ impl Cache {
         }
     }
 
+    /// A cache in the subfolder `name` of this one: for entries that must not count against
+    /// the theory grids' retention ([`Cache::prune`] looks at this folder's own entries only).
+    pub fn subfolder(&self, name: &str) -> Cache {
+        Cache {
+            dir: self.dir.join(name),
+        }
+    }
+
     /// The key for a canonical description of everything that determines the entry.
     pub fn key(description: &str) -> String {
         sha256_hex(description.as_bytes())

@@ -212,6 +212,10 @@ pub fn run_confrontation(
     // 2. Theory: the grid, the standard-gravity point, and the floors the latter sets. The
     // standard white-dwarf tables the comparison will ask for are computed meanwhile (in
     // parallel, not one after another inside step 3; the same values).
+    let tables_cache = match &theory {
+        TheorySource::Compute { cache } => *cache,
+        TheorySource::Given(_) => None,
+    };
     let (grid, ()) = rayon::join(
         || match theory {
             TheorySource::Compute { cache } => theory_grid(
@@ -227,6 +231,7 @@ pub fn run_confrontation(
             super::surface::warm_standard_tables(
                 &vetted.objects,
                 settings.statistics.engine.radius.model,
+                tables_cache,
             )
         },
     );

@@ -21,6 +21,7 @@ use crate::catalogue::{CatalogueObject, EnvelopeLabel, ObjectClass};
 use crate::confront::engine::BoundSurface;
 use crate::confront::tension::ReferencePoint;
 use crate::confront::wd_radius::{ResolvedCore, WdQuery, WdRadiusModel, WdStandard};
+use crate::pipeline::cache::{Cache, Lookup};
 use crate::theory::grid::{self, TheoryGrid};
 use crate::theory::hot_wd::{table::HotWdTable, tov, Core, Envelope};
 use crate::theory::point::{Outcome, PointBounds};
@@ -222,9 +223,16 @@ fn hot_core(core: ResolvedCore) -> Core {
 /// relativistic correction per core (≈ 0.1 s each, [`tov::tov_correction`]). Otherwise the
 /// first query of each core computes its correction on the comparison's single thread, one core
 /// after another. Called alongside the theory grid; the values are the same whichever thread
-/// computes them (each is cached once per process), so no output changes. Nothing to do for
-/// the zero-temperature model, which asks for neither.
-pub fn warm_standard_tables(objects: &[CatalogueObject], model: WdRadiusModel) {
+/// computes them (each is cached once per process), so no output changes. With a theory
+/// `cache`, each core's correction is read from it when present (bit for bit what was
+/// computed; [`tov_cache`]) and stored after it is computed: on a nightly run with a cached
+/// grid the corrections were the longest step before the comparison. Nothing to do for the
+/// zero-temperature model, which asks for neither.
+pub fn warm_standard_tables(
+    objects: &[CatalogueObject],
+    model: WdRadiusModel,
+    cache: Option<&Cache>,
+) {
     if model != WdRadiusModel::Hot {
         return;
     }
@@ -246,11 +254,95 @@ pub fn warm_standard_tables(objects: &[CatalogueObject], model: WdRadiusModel) {
             let _ = HotWdTable::standard();
         },
         || {
-            asked.par_iter().for_each(|&c| {
-                let _ = tov::tov_correction(c);
+            asked.par_iter().for_each(|&c| match cache {
+                Some(cache) => tov_cache::warm(cache, c),
+                None => {
+                    let _ = tov::tov_correction(c);
+                }
             })
         },
     );
+}
+
+/// The relativistic corrections kept in the theory cache (subfolder `standard-tables`, one
+/// entry per core and tool version; [`super::cache`] verifies each entry's checksum and
+/// description). The payload is the correction's parts as little-endian `f64` bits, so a
+/// correction read back is the one computed, to the bit.
+pub mod tov_cache {
+    use super::*;
+
+    /// Subfolder of the theory cache that holds the standard-gravity tables.
+    const FOLDER: &str = "standard-tables";
+    /// First bytes of a payload (its format).
+    const PAYLOAD_MAGIC: &[u8] = b"tov-correction-1\n";
+
+    /// What determines an entry: the core and the tool version (as for the theory grids).
+    fn description(core: Core) -> String {
+        format!(
+            r#"{{"entry":"tov_correction","core":"{core:?}","version":"{}"}}"#,
+            env!("CARGO_PKG_VERSION")
+        )
+    }
+
+    /// The correction's parts as bytes.
+    pub fn encode(t: &tov::TovCorrection) -> Vec<u8> {
+        let (_, max, rel, newt) = t.parts();
+        let mut b = PAYLOAD_MAGIC.to_vec();
+        b.extend_from_slice(&max.to_le_bytes());
+        for seq in [rel, newt] {
+            b.extend_from_slice(&(seq.len() as u64).to_le_bytes());
+            for (x, y) in seq {
+                b.extend_from_slice(&x.to_le_bytes());
+                b.extend_from_slice(&y.to_le_bytes());
+            }
+        }
+        b
+    }
+
+    /// The correction of `core` from bytes written by [`encode`]; `None` if they are not.
+    pub fn decode(core: Core, bytes: &[u8]) -> Option<tov::TovCorrection> {
+        let mut rest = bytes.strip_prefix(PAYLOAD_MAGIC)?;
+        let mut take = || -> Option<[u8; 8]> {
+            let (head, tail) = rest.split_first_chunk::<8>()?;
+            rest = tail;
+            Some(*head)
+        };
+        let max = f64::from_le_bytes(take()?);
+        let mut seqs = Vec::with_capacity(2);
+        for _ in 0..2 {
+            let n = usize::try_from(u64::from_le_bytes(take()?)).ok()?;
+            let mut seq = Vec::with_capacity(n.min(1 << 16));
+            for _ in 0..n {
+                let x = f64::from_le_bytes(take()?);
+                seq.push((x, f64::from_le_bytes(take()?)));
+            }
+            seqs.push(seq);
+        }
+        let newt = seqs.pop()?;
+        let rel = seqs.pop()?;
+        if !rest.is_empty() {
+            return None;
+        }
+        tov::TovCorrection::from_parts(core, max, rel, newt)
+    }
+
+    /// Makes the process's correction of `core` available: from `cache` when a verified entry
+    /// is there, else computed and stored (best effort: a cache that cannot be written costs
+    /// the computation next time, nothing else).
+    pub fn warm(cache: &Cache, core: Core) {
+        let cache = cache.subfolder(FOLDER);
+        let description = description(core);
+        let key = Cache::key(&description);
+        if let Lookup::Hit(bytes) = cache.load(&key, &description) {
+            if let Some(t) = decode(core, &bytes) {
+                tov::provide(t);
+                return;
+            }
+        }
+        if let Ok(t) = tov::tov_correction(core) {
+            let _ = cache.store(&key, &description, &encode(t));
+        }
+    }
 }
 
 /// The class bounds of one theory point (the MMHB and Chandrasekhar mass used against data).
@@ -258,5 +350,51 @@ pub fn class_bounds(p: &PointBounds) -> ReferencePoint {
     ReferencePoint {
         mmhb_msun: p.mmhb.ok().map(|m| m.value_msun),
         chandrasekhar_mu2_msun: p.chandrasekhar.ok().map(|c| c.value_msun),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::tov_cache::{decode, encode, warm};
+    use super::*;
+
+    #[test]
+    fn a_kept_relativistic_correction_reads_back_bit_for_bit() {
+        // The reference is the correction computed in this process (tov.rs checks it against
+        // direct root-found TOV solves); what the cache returns must equal it exactly.
+        let core = Core::Helium;
+        let computed = tov::tov_correction(core).unwrap();
+        let bytes = encode(computed);
+        assert_eq!(decode(core, &bytes).as_ref(), Some(computed));
+        // Truncated, extended or foreign bytes are refused, not misread.
+        assert!(decode(core, &bytes[..bytes.len() - 1]).is_none());
+        let mut longer = bytes.clone();
+        longer.push(0);
+        assert!(decode(core, &longer).is_none());
+        assert!(decode(core, b"something else").is_none());
+        let mut unsorted = bytes.clone();
+        let first_x = PAYLOAD_OFFSET_OF_FIRST_NODE;
+        unsorted[first_x..first_x + 8].copy_from_slice(&1e3f64.to_le_bytes());
+        assert!(decode(core, &unsorted).is_none());
+    }
+
+    /// Where the first node's ln M starts in a payload: magic, maximum mass, count.
+    const PAYLOAD_OFFSET_OF_FIRST_NODE: usize = b"tov-correction-1\n".len() + 8 + 8;
+
+    #[test]
+    fn warming_with_a_cache_stores_the_correction_it_serves() {
+        let dir = tempfile::tempdir().unwrap();
+        let cache = Cache::new(dir.path());
+        let core = Core::Helium;
+        warm(&cache, core);
+        let folder = dir.path().join("standard-tables");
+        let entries: Vec<_> = std::fs::read_dir(&folder).unwrap().collect();
+        assert_eq!(entries.len(), 1);
+        // The grids' retention does not see it.
+        assert!(cache.prune(0, None).is_empty());
+        assert_eq!(std::fs::read_dir(&folder).unwrap().count(), 1);
+        // A second warm reads it (the process already has the correction either way).
+        warm(&cache, core);
+        assert_eq!(std::fs::read_dir(&folder).unwrap().count(), 1);
     }
 }

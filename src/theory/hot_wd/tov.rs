@@ -39,6 +39,9 @@ const SEQUENCE_POINTS: usize = 128;
 /// dR/dM → ∞); masses above the last kept node are solved directly.
 const DIRECT_NEAR_MAXIMUM: usize = 4;
 
+/// A sequence of models as (ln M, ln R) pairs, increasing in M.
+pub type Sequence = [(f64, f64)];
+
 /// The correction for one core.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TovCorrection {
@@ -124,6 +127,44 @@ impl TovCorrection {
         })
     }
 
+    /// The tabulated parts: (core, TOV maximum mass in M☉, (ln M, ln R) of the TOV sequence,
+    /// (ln M, ln R) of the Newtonian sequence). With [`TovCorrection::from_parts`], lets a
+    /// caller keep a computed correction between runs (the theory does no file IO itself).
+    pub fn parts(&self) -> (Core, f64, &Sequence, &Sequence) {
+        (
+            self.core,
+            self.maximum_mass_msun,
+            &self.relativistic,
+            &self.newtonian,
+        )
+    }
+
+    /// A correction from parts kept by a caller (see [`TovCorrection::parts`]); `None` unless
+    /// they have the shape [`TovCorrection::compute`] gives: a finite positive maximum mass, and
+    /// each sequence finite, strictly increasing in ln M and long enough to interpolate.
+    pub fn from_parts(
+        core: Core,
+        maximum_mass_msun: f64,
+        relativistic: Vec<(f64, f64)>,
+        newtonian: Vec<(f64, f64)>,
+    ) -> Option<Self> {
+        let good = |s: &[(f64, f64)]| {
+            s.len() >= STENCIL
+                && s.iter().all(|p| p.0.is_finite() && p.1.is_finite())
+                && s.windows(2).all(|w| w[1].0 > w[0].0)
+        };
+        (maximum_mass_msun.is_finite()
+            && maximum_mass_msun > 0.0
+            && good(&relativistic)
+            && good(&newtonian))
+        .then_some(Self {
+            core,
+            maximum_mass_msun,
+            relativistic,
+            newtonian,
+        })
+    }
+
     /// The TOV maximum mass of the core, M☉: the standard-gravity edge of the radius model.
     pub fn maximum_mass_msun(&self) -> f64 {
         self.maximum_mass_msun
@@ -146,20 +187,34 @@ impl TovCorrection {
     }
 }
 
-/// The cached correction of `core` (computed at first use, once per process).
+/// The process's corrections, one slot per core of [`Core::ALL`].
+static CORRECTIONS: [OnceLock<Result<TovCorrection, HotWdError>>; 5] = [
+    OnceLock::new(),
+    OnceLock::new(),
+    OnceLock::new(),
+    OnceLock::new(),
+    OnceLock::new(),
+];
+
+/// The slot of `core` in [`CORRECTIONS`].
+fn slot(core: Core) -> &'static OnceLock<Result<TovCorrection, HotWdError>> {
+    &CORRECTIONS[Core::ALL.iter().position(|c| *c == core).unwrap_or(0)]
+}
+
+/// The cached correction of `core` (computed at first use, once per process, unless
+/// [`provide`]d before).
 pub fn tov_correction(core: Core) -> Result<&'static TovCorrection, HotWdError> {
-    static CACHE: [OnceLock<Result<TovCorrection, HotWdError>>; 5] = [
-        OnceLock::new(),
-        OnceLock::new(),
-        OnceLock::new(),
-        OnceLock::new(),
-        OnceLock::new(),
-    ];
-    let k = Core::ALL.iter().position(|c| *c == core).unwrap_or(0);
-    CACHE[k]
+    slot(core)
         .get_or_init(|| TovCorrection::compute(core))
         .as_ref()
         .map_err(Clone::clone)
+}
+
+/// Installs a correction kept from an earlier run (e.g. by the pipeline's theory cache) as the
+/// process's correction of its core, so that it is not computed again. Returns `false` (and
+/// changes nothing) when that core's correction is already there.
+pub fn provide(correction: TovCorrection) -> bool {
+    slot(correction.core).set(Ok(correction)).is_ok()
 }
 
 #[cfg(test)]
