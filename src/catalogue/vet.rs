@@ -1152,12 +1152,43 @@ impl IdTable {
         self.lookalike.contains(&at)
     }
 
+    /// The record of `key` if seen; else records it (with `first_raw()`, its first spelling
+    /// when that differs) and returns `None`. One hash and, unless the index must grow, one
+    /// probe per row: `find` then `insert` hashed and probed every new id twice.
+    fn find_or_insert(
+        &mut self,
+        key: &str,
+        first_raw: impl FnOnce() -> Option<Box<str>>,
+    ) -> Option<usize> {
+        let hash = Self::hash(key);
+        if !self.tags.is_empty() {
+            let (slot, found) = self.probe(key, hash);
+            if found.is_some() {
+                return found;
+            }
+            if (self.entries.len() + 1) * 4 <= self.tags.len() * 3 {
+                self.place(slot, hash, key, first_raw());
+                return None;
+            }
+        }
+        self.grow_for(1);
+        let (slot, _) = self.probe(key, hash);
+        self.place(slot, hash, key, first_raw());
+        None
+    }
+
     /// Records a new id (the caller has checked it is not there).
+    #[cfg(test)]
     fn insert(&mut self, key: &str, first_raw: Option<Box<str>>) {
         self.grow_for(1);
-        let at = self.entries.len();
         let hash = Self::hash(key);
         let (slot, _) = self.probe(key, hash);
+        self.place(slot, hash, key, first_raw);
+    }
+
+    /// Puts a new id in the empty `slot` that probing for it found (room already made).
+    fn place(&mut self, slot: usize, hash: u64, key: &str, first_raw: Option<Box<str>>) {
+        let at = self.entries.len();
         self.tags[slot] = Self::tag(hash);
         self.slots[slot] = at;
         self.entries.push(IdEntry {
@@ -1528,12 +1559,11 @@ impl<'m> RowVetter<'m> {
         if key.is_empty() {
             return None;
         }
-        let why = match self.ids.find(key.as_ref()) {
-            None => {
-                let first_raw = (raw != key).then(|| raw.into());
-                self.ids.insert(key.as_ref(), first_raw);
-                return None;
-            }
+        let why = match self
+            .ids
+            .find_or_insert(key.as_ref(), || (raw != key).then(|| raw.into()))
+        {
+            None => return None,
             Some(at) => {
                 let first = self.ids.first_raw.get(&at).map_or(key.as_ref(), |b| &**b);
                 if first != raw {
