@@ -273,6 +273,11 @@ pub struct RunDifference {
     pub area_before: Option<f64>,
     /// 95.45 % allowed fraction now.
     pub area_now: Option<f64>,
+    /// Changes of statistical method between the two runs, per bound, in words: the likelihood
+    /// (the automatic rule may choose differently as the catalogue grows) and the mass-function
+    /// fit (exact, or grouped above 16 384 objects). Part of a change of the results is then the
+    /// method's, not the data's.
+    pub method_changes: Vec<String>,
     /// Alarm rules that fired, in words.
     pub alarms: Vec<String>,
     /// Housekeeping of the run history done by this run, in words: partial run folders of
@@ -369,6 +374,49 @@ fn area95(summary: &serde_json::Value) -> Option<f64> {
         .as_f64()
 }
 
+/// Per bound of `summary.json` (`statistics.bounds[]`): its likelihood and its mass-function
+/// fit (`exact`/`grouped`; absent without a calibrated likelihood or in an older run).
+fn methods(summary: &serde_json::Value) -> BTreeMap<String, [Option<String>; 2]> {
+    let text = |v: Option<&serde_json::Value>| v.and_then(|x| x.as_str()).map(str::to_string);
+    summary
+        .get("statistics")
+        .and_then(|s| s.get("bounds"))
+        .and_then(|b| b.as_array())
+        .map(|bounds| {
+            bounds
+                .iter()
+                .filter_map(|b| {
+                    let name = text(b.get("bound"))?;
+                    let fit = b.get("mass_function").and_then(|m| m.get("fit"));
+                    Some((name, [text(b.get("likelihood")), text(fit)]))
+                })
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+/// The method changes between two runs' summaries, in words ([`RunDifference::method_changes`]).
+fn method_changes(before: &serde_json::Value, now: &serde_json::Value) -> Vec<String> {
+    let (before, now) = (methods(before), methods(now));
+    let word = |x: &Option<String>| x.clone().unwrap_or_else(|| "none".to_string());
+    let mut out = Vec::new();
+    for (bound, m_now) in &now {
+        let Some(m_before) = before.get(bound) else {
+            continue;
+        };
+        for (k, what) in ["likelihood", "mass-function fit"].iter().enumerate() {
+            if m_before[k] != m_now[k] {
+                out.push(format!(
+                    "the {bound} bound's {what} changed from {} to {}",
+                    word(&m_before[k]),
+                    word(&m_now[k])
+                ));
+            }
+        }
+    }
+    out
+}
+
 /// Catalogue columns compared to decide whether an object "changed".
 const VALUE_COLUMNS: &[&str] = &[
     "class",
@@ -403,6 +451,10 @@ pub fn difference(
     let before_summary = read_summary(prev);
     d.interval_before = before_summary.as_ref().and_then(interval95);
     d.area_before = before_summary.as_ref().and_then(area95);
+    d.method_changes = before_summary
+        .as_ref()
+        .map(|b| method_changes(b, now_summary))
+        .unwrap_or_default();
 
     let keys_now: BTreeSet<&String> = now_objects.keys().collect();
     let keys_before: BTreeSet<&String> = before_objects.keys().collect();
@@ -549,6 +601,11 @@ impl RunDifference {
                 ));
             }
         }
+        for m in &self.method_changes {
+            out.push(format!(
+                "method: {m} (docs/bounds.md §8.9; part of the change is the method's)"
+            ));
+        }
         for a in &self.alarms {
             out.push(format!("ALARM: {a}"));
         }
@@ -582,6 +639,29 @@ mod tests {
             parse_objects(no_age.as_bytes())["x.csv:A"].values,
             parse_objects(empty_age.as_bytes())["x.csv:A"].values
         );
+    }
+
+    #[test]
+    fn a_change_of_method_between_runs_is_named() {
+        // Two summaries as `confront` writes them (statistics.bounds[]): the MMHB's fit went
+        // from exact to grouped, the Chandrasekhar bound's likelihood from product to calibrated.
+        let before = serde_json::json!({"statistics": {"bounds": [
+            {"bound": "mmhb", "likelihood": "calibrated", "mass_function": {"fit": "exact"}},
+            {"bound": "chandrasekhar", "likelihood": "product", "mass_function": null}]}});
+        let now = serde_json::json!({"statistics": {"bounds": [
+            {"bound": "mmhb", "likelihood": "calibrated", "mass_function": {"fit": "grouped"}},
+            {"bound": "chandrasekhar", "likelihood": "calibrated", "mass_function": {"fit": "exact"}}]}});
+        assert_eq!(
+            method_changes(&before, &now),
+            vec![
+                "the chandrasekhar bound's likelihood changed from product to calibrated",
+                "the chandrasekhar bound's mass-function fit changed from none to exact",
+                "the mmhb bound's mass-function fit changed from exact to grouped",
+            ]
+        );
+        assert!(method_changes(&now, &now).is_empty());
+        // An older run without the keys: only what both say is compared.
+        assert!(method_changes(&serde_json::json!({}), &now).is_empty());
     }
 
     /// A run folder under `<output>/runs/` holding the given files.
