@@ -2015,6 +2015,8 @@ mod tests {
         assert_eq!(std::mem::size_of::<CatalogueObject>(), 80);
         assert_eq!(std::mem::size_of::<ObjectId>(), 24);
         assert_eq!(std::mem::size_of::<Details>(), 8);
+        // The side record, allocated only for a row that fills one of its columns.
+        assert_eq!(std::mem::size_of::<ObjectDetails>(), 104);
     }
 
     #[test]
