@@ -237,14 +237,16 @@ impl dwarfbound::confront::engine::BoundSurface for SwellingRadius {
 /// grows as R^{3/2} with ϒ, so the spin test closes the upper end of the ϒ interval alone.
 fn swelling_spinner() -> dwarfbound::catalogue::CatalogueObject {
     use dwarfbound::catalogue::{CatalogueObject, ObjectClass, OptF64};
-    CatalogueObject {
+    let mut o = CatalogueObject {
         id: "BD-spin".into(),
-        rotation_period_h: OptF64::some(0.8),
-        rotation_period_err_h: OptF64::some(0.01),
         source_file: "a.csv".into(),
         source_row: 1,
         ..common::measured_object(1, ObjectClass::BrownDwarf, 0.06, 0.003)
-    }
+    };
+    let d = o.details_mut();
+    d.rotation_period_h = OptF64::some(0.8);
+    d.rotation_period_err_h = OptF64::some(0.01);
+    o
 }
 
 // Source: the closed-form radius of [`SwellingRadius`] (a cubic in ϒ, reproduced exactly by the
@@ -374,8 +376,8 @@ fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
     // 3 h: v ≈ 1.6e-3, below the first-order threshold 3.3e-3 of n = 3/2 at standard gravity
     // (at large ϒ the threshold falls below v: the factor stays the standard one there).
     let mut bd = swelling_spinner();
-    bd.rotation_period_h = dwarfbound::catalogue::OptF64::some(3.0);
-    bd.rotation_period_err_h = dwarfbound::catalogue::OptF64::NONE;
+    bd.details_mut().rotation_period_h = dwarfbound::catalogue::OptF64::some(3.0);
+    bd.details_mut().rotation_period_err_h = dwarfbound::catalogue::OptF64::NONE;
     let objects = [bd];
     let opts = EngineOptions::default();
     let surface = SwellingRadius;
@@ -532,16 +534,18 @@ impl dwarfbound::confront::engine::BoundSurface for SpinningWd {
 /// 0.0091 ± 0.0002 R☉ spinning in 150 s (v ≈ 2e-4, within first order at every point).
 fn spinning_white_dwarf() -> dwarfbound::catalogue::CatalogueObject {
     use dwarfbound::catalogue::{CatalogueObject, ObjectClass, OptF64};
-    CatalogueObject {
+    let mut o = CatalogueObject {
         id: "WD-150s".into(),
-        radius_rsun: OptF64::some(0.0091),
-        radius_err_rsun: OptF64::some(0.0002),
-        age_gyr: OptF64::NONE,
-        rotation_period_h: OptF64::some(150.0 / 3600.0),
         source_file: "a.csv".into(),
         source_row: 1,
         ..common::measured_object(1, ObjectClass::WhiteDwarf, 0.9, 0.02)
-    }
+    };
+    let d = o.details_mut();
+    d.radius_rsun = OptF64::some(0.0091);
+    d.radius_err_rsun = OptF64::some(0.0002);
+    d.age_gyr = OptF64::NONE;
+    d.rotation_period_h = OptF64::some(150.0 / 3600.0);
+    o
 }
 
 // Source: the definition of a white dwarf's slow-rotation factor at a grid point
@@ -688,7 +692,9 @@ fn fast_white_dwarfs_with_radii_take_the_radius_test_with_their_factor() {
 // measurement): the 70 s white dwarf at 1.27 M☉ with a measured radius of 0.0052 R☉.
 #[test]
 fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass, OptF64};
+    use dwarfbound::catalogue::{
+        CatalogueObject, MassLimit, MassMethod, ObjectClass, ObjectDetails, OptF64,
+    };
     use dwarfbound::confront::engine::{confront as run_engine, BoundSurface, EngineOptions};
     use dwarfbound::confront::spin::SlowRotationStatus;
     use dwarfbound::pipeline::surface::GridSurface;
@@ -728,20 +734,16 @@ fn white_dwarf_factor_on_the_theory_grid_matches_its_definition() {
         mass_err_lo_msun: OptF64::some(0.02),
         mass_err_hi_msun: OptF64::some(0.02),
         mass_limit: MassLimit::None,
-        radius_rsun: OptF64::some(0.0052),
-        radius_err_rsun: OptF64::some(0.0003),
-        age_gyr: OptF64::NONE,
-        age_err_gyr: OptF64::NONE,
-        rotation_period_h: OptF64::some(70.0 / 3600.0),
-        rotation_period_err_h: OptF64::NONE,
-        mu_e: OptF64::NONE,
-        teff_k: OptF64::some(20_000.0),
-        teff_err_k: OptF64::some(500.0),
-        core: None,
-        envelope: None,
-        radius_model_rsun: OptF64::NONE,
         mass_method: MassMethod::Dynamical,
-        reference: None,
+        details: ObjectDetails {
+            radius_rsun: OptF64::some(0.0052),
+            radius_err_rsun: OptF64::some(0.0003),
+            rotation_period_h: OptF64::some(70.0 / 3600.0),
+            teff_k: OptF64::some(20_000.0),
+            teff_err_k: OptF64::some(500.0),
+            ..Default::default()
+        }
+        .into(),
         source_file: "a.csv".into(),
         source_row: 1,
     };

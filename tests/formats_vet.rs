@@ -72,13 +72,13 @@ fn every_format_vets_to_the_same_objects_and_quarantine() {
                 file,
             );
             close(
-                a.radius_rsun.get(),
-                b.radius_rsun.get(),
+                a.radius_rsun().get(),
+                b.radius_rsun().get(),
                 "radius",
                 &a.id,
                 file,
             );
-            close(a.age_gyr.get(), b.age_gyr.get(), "age", &a.id, file);
+            close(a.age_gyr().get(), b.age_gyr().get(), "age", &a.id, file);
         }
         let q = |v: &dwarfbound::catalogue::Vetted| -> Vec<(usize, Option<String>, String)> {
             v.quarantine

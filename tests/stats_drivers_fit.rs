@@ -230,8 +230,8 @@ fn radius_catalogue() -> Vec<CatalogueObject> {
     {
         let mut o = object(100 + k, ObjectClass::WhiteDwarf, m, 0.01);
         let r = cold_radius(m, 0.0) * (1.0 + offset);
-        o.radius_rsun = OptF64::some(r);
-        o.radius_err_rsun = OptF64::some(err * r);
+        o.details_mut().radius_rsun = OptF64::some(r);
+        o.details_mut().radius_err_rsun = OptF64::some(err * r);
         out.push(o);
     }
     out

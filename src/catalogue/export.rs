@@ -162,23 +162,23 @@ fn push_rows(buf: &mut Vec<u8>, objects: &[CatalogueObject]) {
         number(buf, o.mass_err_hi_msun.get());
         label(buf, o.mass_limit.label());
         for x in [
-            o.radius_rsun,
-            o.radius_err_rsun,
-            o.age_gyr,
-            o.age_err_gyr,
-            o.rotation_period_h,
-            o.rotation_period_err_h,
-            o.mu_e,
-            o.teff_k,
-            o.teff_err_k,
+            o.radius_rsun(),
+            o.radius_err_rsun(),
+            o.age_gyr(),
+            o.age_err_gyr(),
+            o.rotation_period_h(),
+            o.rotation_period_err_h(),
+            o.mu_e(),
+            o.teff_k(),
+            o.teff_err_k(),
         ] {
             number(buf, x.get());
         }
-        label(buf, o.core.map_or("", |c| c.label()));
-        label(buf, o.envelope.map_or("", |e| e.label()));
-        number(buf, o.radius_model_rsun.get());
+        label(buf, o.core().map_or("", |c| c.label()));
+        label(buf, o.envelope().map_or("", |e| e.label()));
+        number(buf, o.radius_model_rsun().get());
         label(buf, o.mass_method.label());
-        push_field(buf, o.reference.as_deref().unwrap_or_default().as_bytes());
+        push_field(buf, o.reference().unwrap_or_default().as_bytes());
         buf.push(b',');
         push_field(buf, o.source_file.as_bytes());
         buf.push(b',');

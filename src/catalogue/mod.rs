@@ -33,6 +33,7 @@ pub use colmap::ColumnMap;
 pub use error::CatalogueError;
 pub use opt_f64::OptF64;
 pub use vet::{
-    vet_files, vet_table, CatalogueObject, CatalogueTally, CoreLabel, EnvelopeLabel, MassLimit,
-    MassMethod, ObjectClass, QuarantinedRow, SourceFile, Vetted,
+    vet_files, vet_table, CatalogueObject, CatalogueTally, CoreLabel, Details, EnvelopeLabel,
+    MassLimit, MassMethod, ObjectClass, ObjectDetails, ObjectId, QuarantinedRow, SourceFile,
+    Vetted,
 };

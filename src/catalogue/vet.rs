@@ -270,12 +270,28 @@ impl MassMethod {
 /// One accepted object in canonical units.
 ///
 /// A catalogue may hold millions, all in memory until the outputs are written, so the layout
-/// is compact (160 bytes; it was 272): optional numbers are [`OptF64`] (8 bytes, where
-/// `Option<f64>` takes 16), texts are boxed `str`s without spare capacity.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+/// is compact (80 bytes; it was 160, and 272 before that): what every test reads (id, class,
+/// mass and its errors, the limit, the mass method, the source) is inline, and the columns a
+/// large catalogue rarely fills sit in one boxed [`ObjectDetails`], allocated only for a row
+/// that has at least one of them. Read those through the accessors (`radius_rsun()`, …). The
+/// id is an [`ObjectId`], inline up to 24 bytes (no allocation for an ordinary id).
+///
+/// ```
+/// use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, ObjectDetails, OptF64};
+/// let wd = CatalogueObject {
+///     id: "WD 0001".into(), class: ObjectClass::WhiteDwarf, mass_msun: 0.6,
+///     mass_err_lo_msun: OptF64::some(0.02), mass_err_hi_msun: OptF64::some(0.02),
+///     mass_limit: MassLimit::None, mass_method: Default::default(),
+///     details: ObjectDetails { radius_rsun: OptF64::some(0.0125), ..Default::default() }.into(),
+///     source_file: "invented.csv".into(), source_row: 1,
+/// };
+/// assert_eq!(wd.radius_rsun().get(), Some(0.0125));
+/// assert_eq!(wd.age_gyr().get(), None);
+/// ```
+#[derive(Debug, Clone, PartialEq)]
 pub struct CatalogueObject {
     /// Identifier, unique within its catalogue.
-    pub id: Box<str>,
+    pub id: ObjectId,
     /// Class after the column map's relabelling.
     pub class: ObjectClass,
     /// Best mass estimate (or the limit), M☉.
@@ -286,6 +302,25 @@ pub struct CatalogueObject {
     pub mass_err_hi_msun: OptF64,
     /// Whether the mass is a limit.
     pub mass_limit: MassLimit,
+    /// Where the mass came from.
+    pub mass_method: MassMethod,
+    /// The optional columns other than the mass errors (radius, age, spin, μe, Teff, core,
+    /// envelope, model radius, reference); empty, and no allocation, when none is given.
+    pub details: Details,
+    /// The catalogue file as given on the command line.
+    pub source_file: SourceFile,
+    /// 1-based data row in that file.
+    pub source_row: usize,
+}
+
+/// An object's identifier: a string stored inline up to 24 bytes (`compact_str`), so that the
+/// ids of a million objects are not a million allocations; it reads as a `&str`.
+pub type ObjectId = compact_str::CompactString;
+
+/// The optional columns of an object that large catalogues rarely fill, held apart from
+/// [`CatalogueObject`] (see [`Details`]). Missing numbers are [`OptF64::NONE`].
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ObjectDetails {
     /// Radius, R☉.
     pub radius_rsun: OptF64,
     /// 1σ radius error, R☉.
@@ -310,14 +345,186 @@ pub struct CatalogueObject {
     pub envelope: Option<EnvelopeLabel>,
     /// The user's own standard-gravity model radius, R☉ (anchors the radius test).
     pub radius_model_rsun: OptF64,
-    /// Where the mass came from.
-    pub mass_method: MassMethod,
     /// Free-text reference.
     pub reference: Option<Box<str>>,
-    /// The catalogue file as given on the command line.
-    pub source_file: SourceFile,
-    /// 1-based data row in that file.
-    pub source_row: usize,
+}
+
+impl ObjectDetails {
+    /// Nothing given: what an object without a side record reads as.
+    pub const NONE: ObjectDetails = ObjectDetails {
+        radius_rsun: OptF64::NONE,
+        radius_err_rsun: OptF64::NONE,
+        age_gyr: OptF64::NONE,
+        age_err_gyr: OptF64::NONE,
+        rotation_period_h: OptF64::NONE,
+        rotation_period_err_h: OptF64::NONE,
+        mu_e: OptF64::NONE,
+        teff_k: OptF64::NONE,
+        teff_err_k: OptF64::NONE,
+        core: None,
+        envelope: None,
+        radius_model_rsun: OptF64::NONE,
+        reference: None,
+    };
+
+    /// Whether no column is given (such a record is not allocated).
+    pub fn is_empty(&self) -> bool {
+        let numbers = [
+            self.radius_rsun,
+            self.radius_err_rsun,
+            self.age_gyr,
+            self.age_err_gyr,
+            self.rotation_period_h,
+            self.rotation_period_err_h,
+            self.mu_e,
+            self.teff_k,
+            self.teff_err_k,
+            self.radius_model_rsun,
+        ];
+        numbers.iter().all(|v| v.is_none())
+            && self.core.is_none()
+            && self.envelope.is_none()
+            && self.reference.is_none()
+    }
+}
+
+/// An object's [`ObjectDetails`], boxed only when one of them is given: the scale catalogues
+/// of issue 12 have none, and the record inline would double the object. Reads as the record
+/// (all missing when absent); two `Details` are equal when their records are.
+#[derive(Clone, Default)]
+pub struct Details(Option<Box<ObjectDetails>>);
+
+/// What an object without a side record reads as.
+static NO_DETAILS: ObjectDetails = ObjectDetails::NONE;
+
+impl Details {
+    /// The record for writing, allocated on first use.
+    pub fn make_mut(&mut self) -> &mut ObjectDetails {
+        self.0.get_or_insert_with(Default::default)
+    }
+
+    /// Whether a record is allocated (a test of the layout, not of content).
+    pub fn is_allocated(&self) -> bool {
+        self.0.is_some()
+    }
+}
+
+impl From<ObjectDetails> for Details {
+    /// Boxes the record unless it is empty.
+    fn from(d: ObjectDetails) -> Self {
+        Details((!d.is_empty()).then(|| Box::new(d)))
+    }
+}
+
+impl std::ops::Deref for Details {
+    type Target = ObjectDetails;
+    fn deref(&self) -> &ObjectDetails {
+        self.0.as_deref().unwrap_or(&NO_DETAILS)
+    }
+}
+
+impl PartialEq for Details {
+    fn eq(&self, other: &Self) -> bool {
+        **self == **other
+    }
+}
+
+impl std::fmt::Debug for Details {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        (**self).fmt(f)
+    }
+}
+
+impl CatalogueObject {
+    /// Radius, R☉.
+    pub fn radius_rsun(&self) -> OptF64 {
+        self.details.radius_rsun
+    }
+    /// 1σ radius error, R☉.
+    pub fn radius_err_rsun(&self) -> OptF64 {
+        self.details.radius_err_rsun
+    }
+    /// Age, Gyr.
+    pub fn age_gyr(&self) -> OptF64 {
+        self.details.age_gyr
+    }
+    /// 1σ age error, Gyr.
+    pub fn age_err_gyr(&self) -> OptF64 {
+        self.details.age_err_gyr
+    }
+    /// Rotation period, h.
+    pub fn rotation_period_h(&self) -> OptF64 {
+        self.details.rotation_period_h
+    }
+    /// 1σ rotation-period error, h.
+    pub fn rotation_period_err_h(&self) -> OptF64 {
+        self.details.rotation_period_err_h
+    }
+    /// Mean molecular weight per electron, if given (consumers default to 2).
+    pub fn mu_e(&self) -> OptF64 {
+        self.details.mu_e
+    }
+    /// Effective temperature, K.
+    pub fn teff_k(&self) -> OptF64 {
+        self.details.teff_k
+    }
+    /// 1σ effective-temperature error, K.
+    pub fn teff_err_k(&self) -> OptF64 {
+        self.details.teff_err_k
+    }
+    /// White-dwarf core composition, if stated.
+    pub fn core(&self) -> Option<CoreLabel> {
+        self.details.core
+    }
+    /// White-dwarf hydrogen layer, if stated.
+    pub fn envelope(&self) -> Option<EnvelopeLabel> {
+        self.details.envelope
+    }
+    /// The user's own standard-gravity model radius, R☉.
+    pub fn radius_model_rsun(&self) -> OptF64 {
+        self.details.radius_model_rsun
+    }
+    /// Free-text reference.
+    pub fn reference(&self) -> Option<&str> {
+        self.details.reference.as_deref()
+    }
+    /// The optional columns for writing (the side record is allocated on first use).
+    pub fn details_mut(&mut self) -> &mut ObjectDetails {
+        self.details.make_mut()
+    }
+}
+
+impl serde::Serialize for CatalogueObject {
+    /// The flat form the object had before its optional columns moved to [`ObjectDetails`]
+    /// (same fields, same order), so that anything serialising objects reads the same.
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeStruct;
+        let d = &*self.details;
+        let mut s = serializer.serialize_struct("CatalogueObject", 22)?;
+        s.serialize_field("id", self.id.as_str())?;
+        s.serialize_field("class", &self.class)?;
+        s.serialize_field("mass_msun", &self.mass_msun)?;
+        s.serialize_field("mass_err_lo_msun", &self.mass_err_lo_msun)?;
+        s.serialize_field("mass_err_hi_msun", &self.mass_err_hi_msun)?;
+        s.serialize_field("mass_limit", &self.mass_limit)?;
+        s.serialize_field("radius_rsun", &d.radius_rsun)?;
+        s.serialize_field("radius_err_rsun", &d.radius_err_rsun)?;
+        s.serialize_field("age_gyr", &d.age_gyr)?;
+        s.serialize_field("age_err_gyr", &d.age_err_gyr)?;
+        s.serialize_field("rotation_period_h", &d.rotation_period_h)?;
+        s.serialize_field("rotation_period_err_h", &d.rotation_period_err_h)?;
+        s.serialize_field("mu_e", &d.mu_e)?;
+        s.serialize_field("teff_k", &d.teff_k)?;
+        s.serialize_field("teff_err_k", &d.teff_err_k)?;
+        s.serialize_field("core", &d.core)?;
+        s.serialize_field("envelope", &d.envelope)?;
+        s.serialize_field("radius_model_rsun", &d.radius_model_rsun)?;
+        s.serialize_field("mass_method", &self.mass_method)?;
+        s.serialize_field("reference", &d.reference)?;
+        s.serialize_field("source_file", &self.source_file)?;
+        s.serialize_field("source_row", &self.source_row)?;
+        s.end()
+    }
 }
 
 /// The catalogue file an object came from, as given on the command line. Every object of a
@@ -889,7 +1096,7 @@ fn vet_row(
 ) -> Result<CatalogueObject, Fail> {
     let id = view
         .text("id")
-        .map(|raw| normalise_id(&raw))
+        .map(|raw| ObjectId::from(normalised(&raw)))
         .filter(|id| !id.is_empty())
         .ok_or_else(|| view.fail("id", reason::MISSING_ID))?;
     let label = view
@@ -1004,26 +1211,29 @@ fn vet_row(
     }
 
     Ok(CatalogueObject {
-        id: id.into_boxed_str(),
+        id,
         class,
         mass_msun,
         mass_err_lo_msun: err_lo.into(),
         mass_err_hi_msun: err_hi.into(),
         mass_limit,
-        radius_rsun: radius_rsun.into(),
-        radius_err_rsun: radius_err_rsun.into(),
-        age_gyr: age_gyr.into(),
-        age_err_gyr: age_err_gyr.into(),
-        rotation_period_h: rotation_period_h.into(),
-        rotation_period_err_h: rotation_period_err_h.into(),
-        mu_e: mu_e.into(),
-        teff_k: teff_k.into(),
-        teff_err_k: teff_err_k.into(),
-        core,
-        envelope,
-        radius_model_rsun: radius_model_rsun.into(),
         mass_method,
-        reference: view.text("ref").map(Box::<str>::from),
+        details: ObjectDetails {
+            radius_rsun: radius_rsun.into(),
+            radius_err_rsun: radius_err_rsun.into(),
+            age_gyr: age_gyr.into(),
+            age_err_gyr: age_err_gyr.into(),
+            rotation_period_h: rotation_period_h.into(),
+            rotation_period_err_h: rotation_period_err_h.into(),
+            mu_e: mu_e.into(),
+            teff_k: teff_k.into(),
+            teff_err_k: teff_err_k.into(),
+            core,
+            envelope,
+            radius_model_rsun: radius_model_rsun.into(),
+            reference: view.text("ref").map(Box::<str>::from),
+        }
+        .into(),
         source_file: source_file.clone(),
         source_row: row_number,
     })
@@ -1828,8 +2038,110 @@ mod tests {
     #[test]
     fn an_object_stays_compact() {
         // The layout documented on `CatalogueObject` (a million of them are held at once);
-        // a new field that grows it should be a decision, not an accident.
-        assert_eq!(std::mem::size_of::<CatalogueObject>(), 160);
+        // a new field that grows it should be a decision, not an accident. 80 bytes: the id
+        // (24, inline up to 24 bytes), mass and its two errors, the source row, the source
+        // file and the side record's pointer (8 each) and three one-byte enums, padded to 8.
+        // It was 160 with the rarely filled columns inline.
+        assert_eq!(std::mem::size_of::<CatalogueObject>(), 80);
+        assert_eq!(std::mem::size_of::<ObjectId>(), 24);
+        assert_eq!(std::mem::size_of::<Details>(), 8);
+        // The side record, allocated only for a row that fills one of its columns.
+        assert_eq!(std::mem::size_of::<ObjectDetails>(), 104);
+    }
+
+    #[test]
+    fn the_side_record_is_allocated_only_for_a_row_that_fills_it() {
+        // Source: the layout's purpose (module docs); common practice, no source.
+        let t = table(
+            &["id", "class", "mass", "mass_err", "radius", "ref"],
+            &[
+                &["a", "white_dwarf", "0.6", "0.02", "", ""],
+                &["b", "white_dwarf", "0.6", "0.02", "0.0125", ""],
+                &["c", "white_dwarf", "0.6", "0.02", "", "Invented 2026"],
+            ],
+        );
+        let (objs, q, _) = vet_table("t.csv", &t, None).unwrap();
+        assert!(q.is_empty());
+        let allocated: Vec<bool> = objs.iter().map(|o| o.details.is_allocated()).collect();
+        assert_eq!(allocated, [false, true, true]);
+        assert_eq!(objs[0].radius_rsun(), None);
+        assert_eq!(objs[1].radius_rsun(), Some(0.0125));
+        assert_eq!(objs[2].reference(), Some("Invented 2026"));
+        // An allocated but empty record reads, compares and serialises as no record.
+        let mut touched = objs[0].clone();
+        touched.details_mut().age_gyr = OptF64::NONE;
+        assert!(touched.details.is_allocated());
+        assert_eq!(touched, objs[0]);
+        assert_eq!(
+            serde_json::to_string(&touched).unwrap(),
+            serde_json::to_string(&objs[0]).unwrap()
+        );
+    }
+
+    #[test]
+    fn an_object_serialises_as_the_flat_record_it_was() {
+        // Source: the JSON that `#[derive(serde::Serialize)]` gave the flat 160-byte struct
+        // (every column a field, in this order) at b428666, captured from a test run there.
+        let full = CatalogueObject {
+            id: "WD 1".into(),
+            class: ObjectClass::WhiteDwarf,
+            mass_msun: 0.6,
+            mass_err_lo_msun: OptF64::some(0.01),
+            mass_err_hi_msun: OptF64::some(0.02),
+            mass_limit: MassLimit::Upper,
+            mass_method: MassMethod::Redshift,
+            details: ObjectDetails {
+                radius_rsun: OptF64::some(0.0125),
+                radius_err_rsun: OptF64::some(0.001),
+                age_gyr: OptF64::some(2.5),
+                age_err_gyr: OptF64::some(0.5),
+                rotation_period_h: OptF64::some(30.0),
+                rotation_period_err_h: OptF64::some(1.5),
+                mu_e: OptF64::some(2.0),
+                teff_k: OptF64::some(12000.0),
+                teff_err_k: OptF64::some(200.0),
+                core: Some(CoreLabel::Co),
+                envelope: Some(EnvelopeLabel::Thin),
+                radius_model_rsun: OptF64::some(0.013),
+                reference: Some("Invented 2026".into()),
+            }
+            .into(),
+            source_file: "a.csv".into(),
+            source_row: 7,
+        };
+        let bare = CatalogueObject {
+            class: ObjectClass::BrownDwarf,
+            mass_err_lo_msun: OptF64::NONE,
+            mass_err_hi_msun: OptF64::NONE,
+            mass_limit: MassLimit::None,
+            mass_method: MassMethod::Unknown,
+            details: Details::default(),
+            ..full.clone()
+        };
+        assert_eq!(
+            serde_json::to_string(&full).unwrap(),
+            concat!(
+                r#"{"id":"WD 1","class":"white_dwarf","mass_msun":0.6,"mass_err_lo_msun":0.01,"#,
+                r#""mass_err_hi_msun":0.02,"mass_limit":"upper","radius_rsun":0.0125,"#,
+                r#""radius_err_rsun":0.001,"age_gyr":2.5,"age_err_gyr":0.5,"#,
+                r#""rotation_period_h":30.0,"rotation_period_err_h":1.5,"mu_e":2.0,"#,
+                r#""teff_k":12000.0,"teff_err_k":200.0,"core":"co","envelope":"thin","#,
+                r#""radius_model_rsun":0.013,"mass_method":"redshift","#,
+                r#""reference":"Invented 2026","source_file":"a.csv","source_row":7}"#
+            )
+        );
+        assert_eq!(
+            serde_json::to_string(&bare).unwrap(),
+            concat!(
+                r#"{"id":"WD 1","class":"brown_dwarf","mass_msun":0.6,"mass_err_lo_msun":null,"#,
+                r#""mass_err_hi_msun":null,"mass_limit":"none","radius_rsun":null,"#,
+                r#""radius_err_rsun":null,"age_gyr":null,"age_err_gyr":null,"#,
+                r#""rotation_period_h":null,"rotation_period_err_h":null,"mu_e":null,"#,
+                r#""teff_k":null,"teff_err_k":null,"core":null,"envelope":null,"#,
+                r#""radius_model_rsun":null,"mass_method":"unknown","reference":null,"#,
+                r#""source_file":"a.csv","source_row":7}"#
+            )
+        );
     }
 
     #[test]
@@ -1858,7 +2170,7 @@ mod tests {
         let (objs, q, _) = vet_table("t.csv", &t, None).unwrap();
         assert_eq!((objs.len(), q.len()), (1, 2));
         let o = &objs[0];
-        for v in [o.radius_rsun, o.age_gyr, o.mu_e, o.teff_k] {
+        for v in [o.radius_rsun(), o.age_gyr(), o.mu_e(), o.teff_k()] {
             assert_eq!(v.get(), None);
         }
         assert!(q.iter().all(|q| q.reason == reason::NOT_FINITE));

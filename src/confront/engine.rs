@@ -13,7 +13,7 @@
 //! synthetic bounds and knows nothing of how the bounds were solved.
 //!
 //! ```
-//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, ObjectDetails, OptF64};
 //! use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
 //! use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
 //! struct Flat;
@@ -27,11 +27,9 @@
 //! }
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.09,
 //!     mass_err_lo_msun: OptF64::some(0.002), mass_err_hi_msun: OptF64::some(0.002), mass_limit: MassLimit::None,
-//!     radius_rsun: OptF64::NONE, radius_err_rsun: OptF64::NONE, age_gyr: OptF64::some(5.0), age_err_gyr: OptF64::NONE,
-//!     rotation_period_h: OptF64::NONE, rotation_period_err_h: OptF64::NONE, mu_e: OptF64::NONE, teff_k: OptF64::NONE,
-//!     teff_err_k: OptF64::NONE, core: None,
-//!     envelope: None, radius_model_rsun: OptF64::NONE, mass_method: Default::default(),
-//!     reference: None, source_file: "a.csv".into(), source_row: 1 };
+//!     mass_method: Default::default(),
+//!     details: ObjectDetails { age_gyr: OptF64::some(5.0), ..Default::default() }.into(),
+//!     source_file: "a.csv".into(), source_row: 1 };
 //! let c = confront(&[star], &Flat, &EngineOptions::default()).unwrap();
 //! assert_eq!(c.joint.len(), 3);
 //! ```
@@ -534,7 +532,7 @@ pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse>
 pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
     {
         {
-            let mu_e = o.mu_e.get().unwrap_or(opts.default_mu_e);
+            let mu_e = o.mu_e().get().unwrap_or(opts.default_mu_e);
             let measurement = measurement_of(o, mu_e);
             let mut flags = Flags::default();
             let mut excluded = None;
@@ -544,7 +542,7 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                 ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
             };
             if term != Term::WhiteDwarfMass {
-                match o.age_gyr.get() {
+                match o.age_gyr().get() {
                     Some(age) if age < opts.age_min_mmhb_gyr => {
                         flags.raise("young");
                         if !opts.include_young {
@@ -583,7 +581,7 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                     }
                     radius_excluded = Some(why);
                     radius_term = false;
-                } else if o.radius_model_rsun.is_some() {
+                } else if o.radius_model_rsun().is_some() {
                     flags.raise("radius_anchored");
                 }
             }
@@ -596,7 +594,7 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                 radius_excluded,
                 flags,
                 mu_e,
-                core: is_wd.then(|| ResolvedCore::resolve(o.core, o.mass_msun)),
+                core: is_wd.then(|| ResolvedCore::resolve(o.core(), o.mass_msun)),
             }
         }
     }
@@ -859,28 +857,28 @@ pub fn prepare_radius_objects(
     let mut queries: Vec<WdQuery> = Vec::new();
     for u in uses.iter().filter(|u| u.radius_term) {
         let o = &objects[u.index];
-        let (Some(r), Some(e)) = (o.radius_rsun.get(), o.radius_err_rsun.get()) else {
+        let (Some(r), Some(e)) = (o.radius_rsun().get(), o.radius_err_rsun().get()) else {
             continue;
         };
         let core = u
             .core
-            .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun));
+            .unwrap_or_else(|| ResolvedCore::resolve(o.core(), o.mass_msun));
         let nodes = radius_mass_nodes(o);
         // The part of the floor common to every white dwarf (the structure model itself) is
         // one shared scale; what is left is the object's own (docs/white-dwarfs.md §13.1).
         let shared =
             wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms).map_or(0.0, |n| n.sigma);
         let (floor_fraction, shared_fraction) = wd_radius::split_floor(
-            wd_radius::floor_fraction(&opts.radius, core, o.teff_k.get()),
+            wd_radius::floor_fraction(&opts.radius, core, o.teff_k().get()),
             shared,
         );
         for &(m, _) in &nodes {
             queries.push(WdQuery {
                 mass_msun: m,
                 mu_e: u.mu_e,
-                teff_k: o.teff_k.get(),
+                teff_k: o.teff_k().get(),
                 core,
-                envelope: o.envelope,
+                envelope: o.envelope(),
             });
         }
         out.push(ObjectRadius {
@@ -891,7 +889,7 @@ pub fn prepare_radius_objects(
             standard: Vec::new(),
             floor_fraction,
             shared_fraction,
-            teff_err_k: o.teff_err_k.get().unwrap_or(0.0),
+            teff_err_k: o.teff_err_k().get().unwrap_or(0.0),
             at_nominal: None,
             mass_sigma_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
                 (Some(a), Some(b)) => 0.5 * (a + b),
@@ -907,15 +905,15 @@ pub fn prepare_radius_objects(
         let u = &uses[r.index];
         let core = u
             .core
-            .unwrap_or_else(|| ResolvedCore::resolve(o.core, o.mass_msun));
+            .unwrap_or_else(|| ResolvedCore::resolve(o.core(), o.mass_msun));
         let h = 1e-4 * o.mass_msun;
         for m in [o.mass_msun, o.mass_msun + h, o.mass_msun - h] {
             nominal_queries.push(WdQuery {
                 mass_msun: m,
                 mu_e: u.mu_e,
-                teff_k: o.teff_k.get(),
+                teff_k: o.teff_k().get(),
                 core,
-                envelope: o.envelope,
+                envelope: o.envelope(),
             });
         }
     }
@@ -942,7 +940,7 @@ pub fn prepare_radius_objects(
             }
             _ => None,
         };
-        if let Some(model_rsun) = o.radius_model_rsun.get() {
+        if let Some(model_rsun) = o.radius_model_rsun().get() {
             // The user's model radius anchors the standard radius at the nominal mass; the
             // tool's model only carries its mass dependence to the other nodes.
             let scale = at_nominal

@@ -10,7 +10,7 @@
 //! slice it is read from.
 //!
 //! ```
-//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, ObjectDetails, OptF64};
 //! use dwarfbound::confront::engine::{confront, BoundSurface, EngineOptions};
 //! use dwarfbound::confront::slice::{tau0_slice, SLICE_REFINE};
 //! use dwarfbound::confront::wd_radius::{WdQuery, WdStandard};
@@ -25,11 +25,9 @@
 //! }
 //! let star = CatalogueObject { id: "S1".into(), class: ObjectClass::HBurning, mass_msun: 0.076,
 //!     mass_err_lo_msun: OptF64::some(0.002), mass_err_hi_msun: OptF64::some(0.002), mass_limit: MassLimit::None,
-//!     radius_rsun: OptF64::NONE, radius_err_rsun: OptF64::NONE, age_gyr: OptF64::some(5.0), age_err_gyr: OptF64::NONE,
-//!     rotation_period_h: OptF64::NONE, rotation_period_err_h: OptF64::NONE, mu_e: OptF64::NONE, teff_k: OptF64::NONE,
-//!     teff_err_k: OptF64::NONE, core: None,
-//!     envelope: None, radius_model_rsun: OptF64::NONE, mass_method: Default::default(),
-//!     reference: None, source_file: "a.csv".into(), source_row: 1 };
+//!     mass_method: Default::default(),
+//!     details: ObjectDetails { age_gyr: OptF64::some(5.0), ..Default::default() }.into(),
+//!     source_file: "a.csv".into(), source_row: 1 };
 //! let objects = [star];
 //! let opts = EngineOptions::default();
 //! let conf = confront(&objects, &Tilted, &opts).unwrap();

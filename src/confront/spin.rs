@@ -610,7 +610,7 @@ pub fn prepare(
     let mut out = Vec::new();
     let mut n32 = None;
     for (k, o) in objects.iter().enumerate() {
-        let Some(period_h) = o.rotation_period_h.get() else {
+        let Some(period_h) = o.rotation_period_h().get() else {
             continue;
         };
         let u = &mut uses[k];
@@ -623,20 +623,20 @@ pub fn prepare(
         let nodes = radius_mass_nodes(o);
         let n_q = nodes.len() + 1;
         let masses: Vec<f64> = nodes.iter().map(|&(m, _)| m).chain([o.mass_msun]).collect();
-        let (source, scale) = if o.radius_rsun.is_some() {
+        let (source, scale) = if o.radius_rsun().is_some() {
             (SpinRadiusSource::Measured, vec![Some(1.0); n_q])
-        } else if is_wd && opts.radius.model == WdRadiusModel::Hot && o.teff_k.is_some() {
+        } else if is_wd && opts.radius.model == WdRadiusModel::Hot && o.teff_k().is_some() {
             let core = u
                 .core
-                .unwrap_or_else(|| super::wd_radius::ResolvedCore::resolve(o.core, o.mass_msun));
+                .unwrap_or_else(|| super::wd_radius::ResolvedCore::resolve(o.core(), o.mass_msun));
             let queries: Vec<WdQuery> = masses
                 .iter()
                 .map(|&m| WdQuery {
                     mass_msun: m,
                     mu_e,
-                    teff_k: o.teff_k.get(),
+                    teff_k: o.teff_k().get(),
                     core,
-                    envelope: o.envelope,
+                    envelope: o.envelope(),
                 })
                 .collect();
             let std = surface.wd_standard_radii(&queries);
@@ -659,13 +659,13 @@ pub fn prepare(
         let mut spin = ObjectSpin {
             index: k,
             period_s: period_h * 3600.0,
-            period_err_s: o.rotation_period_err_h.get().map_or(0.0, |e| e * 3600.0),
+            period_err_s: o.rotation_period_err_h().get().map_or(0.0, |e| e * 3600.0),
             mu_e,
             source,
             nodes,
             mass_msun: o.mass_msun,
             scale,
-            measured_rsun: o.radius_rsun.get(),
+            measured_rsun: o.radius_rsun().get(),
             slow: SlowRotationStatus::NotApplied,
             radius_factor: 1.0,
             mmhb: None,

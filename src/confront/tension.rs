@@ -8,16 +8,14 @@
 //! rest of the comparator, knows nothing of how the theory solved them.
 //!
 //! ```
-//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, OptF64};
+//! use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectClass, ObjectDetails, OptF64};
 //! use dwarfbound::confront::engine::EngineOptions;
 //! use dwarfbound::confront::tension::{mass_tensions, ReferencePoint};
 //! let dwarf = CatalogueObject { id: "B1".into(), class: ObjectClass::BrownDwarf, mass_msun: 0.095,
 //!     mass_err_lo_msun: OptF64::some(0.002), mass_err_hi_msun: OptF64::some(0.002), mass_limit: MassLimit::None,
-//!     radius_rsun: OptF64::NONE, radius_err_rsun: OptF64::NONE, age_gyr: OptF64::some(5.0), age_err_gyr: OptF64::NONE,
-//!     rotation_period_h: OptF64::NONE, rotation_period_err_h: OptF64::NONE, mu_e: OptF64::NONE, teff_k: OptF64::NONE,
-//!     teff_err_k: OptF64::NONE, core: None,
-//!     envelope: None, radius_model_rsun: OptF64::NONE, mass_method: Default::default(),
-//!     reference: None, source_file: "a.csv".into(), source_row: 1 };
+//!     mass_method: Default::default(),
+//!     details: ObjectDetails { age_gyr: OptF64::some(5.0), ..Default::default() }.into(),
+//!     source_file: "a.csv".into(), source_row: 1 };
 //! // A brown dwarf 0.02 M☉ above an MMHB of 0.075 M☉ (floor 0.005 M☉) is on the wrong side.
 //! let point = ReferencePoint { mmhb_msun: Some(0.075), chandrasekhar_mu2_msun: Some(1.4563) };
 //! let t = mass_tensions(&[dwarf], &point, &EngineOptions::default(), 3.0);

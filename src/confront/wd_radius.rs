@@ -254,10 +254,10 @@ pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<LeftOu
     if o.mass_method == MassMethod::Model && !opts.include_model_masses {
         return Some(LeftOut::ModelMass);
     }
-    if opts.model == WdRadiusModel::Cold || o.radius_model_rsun.is_some() {
+    if opts.model == WdRadiusModel::Cold || o.radius_model_rsun().is_some() {
         return None;
     }
-    if o.teff_k.is_none() {
+    if o.teff_k().is_none() {
         return Some(LeftOut::NoTeff);
     }
     if !opts.include_out_of_domain && o.mass_msun < opts.elm_max_msun {
@@ -268,7 +268,7 @@ pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<LeftOu
 
 /// Whether an object has what the radius test needs at all.
 pub fn has_radius_measurement(o: &CatalogueObject) -> bool {
-    o.mass_limit == MassLimit::None && o.radius_rsun.is_some() && o.radius_err_rsun.is_some()
+    o.mass_limit == MassLimit::None && o.radius_rsun().is_some() && o.radius_err_rsun().is_some()
 }
 
 /// One object's radius test, prepared once per confrontation.

@@ -250,9 +250,9 @@ impl OutputContext<'_> {
             Cell::Float(o.mass_err_lo_msun.get()),
             Cell::Float(o.mass_err_hi_msun.get()),
             Cell::Text(o.mass_limit.label().into()),
-            Cell::Float(o.radius_rsun.get()),
-            Cell::Float(o.radius_err_rsun.get()),
-            Cell::Float(o.age_gyr.get()),
+            Cell::Float(o.radius_rsun().get()),
+            Cell::Float(o.radius_err_rsun().get()),
+            Cell::Float(o.age_gyr().get()),
             Cell::Float(Some(u.mu_e)),
             Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
             Cell::Text(u.flags.join(";")),
@@ -282,8 +282,8 @@ impl OutputContext<'_> {
             _ => (None, None),
         };
         row.extend([
-            Cell::Float(o.rotation_period_h.get()),
-            Cell::Float(o.rotation_period_err_h.get()),
+            Cell::Float(o.rotation_period_h().get()),
+            Cell::Float(o.rotation_period_err_h().get()),
             Cell::Float(hours(sv.and_then(|v| v.breakup_standard_s))),
             Cell::Float(hours(sv.and_then(|v| v.breakup_best_s))),
             Cell::Float(sv.and_then(|v| v.sigma_standard)),

@@ -202,7 +202,7 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
     for u in &ctx.conf.uses {
         let k = u.index;
         let o = ctx.vetted.objects.get(k)?;
-        let Some(radius_rsun) = o.radius_rsun.get().filter(|r| *r > 0.0) else {
+        let Some(radius_rsun) = o.radius_rsun().get().filter(|r| *r > 0.0) else {
             continue;
         };
         if o.class.label() != "white_dwarf" || o.mass_msun <= 0.0 {
@@ -228,8 +228,8 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
                 _ => None,
             },
             radius_rsun,
-            radius_err_rsun: o.radius_err_rsun.get(),
-            teff_k: o.teff_k.get(),
+            radius_err_rsun: o.radius_err_rsun().get(),
+            teff_k: o.teff_k().get(),
             sigma: ctx
                 .verdicts
                 .get(k)

@@ -748,8 +748,8 @@ pub(crate) fn write_report_files(
                             format!(
                                 "{}; R = {:.5} ± {:.5} R☉",
                                 mass_text(ctx, k),
-                                o.radius_rsun.get().unwrap_or(0.0),
-                                o.radius_err_rsun.get().unwrap_or(0.0)
+                                o.radius_rsun().get().unwrap_or(0.0),
+                                o.radius_err_rsun().get().unwrap_or(0.0)
                             ),
                         ),
                     };

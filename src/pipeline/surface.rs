@@ -241,8 +241,8 @@ pub fn warm_standard_tables(
         .filter(|&c| {
             objects.iter().any(|o| {
                 o.class == ObjectClass::WhiteDwarf
-                    && (o.radius_rsun.is_some() || o.rotation_period_h.is_some())
-                    && hot_core(ResolvedCore::resolve(o.core, o.mass_msun)) == c
+                    && (o.radius_rsun().is_some() || o.rotation_period_h().is_some())
+                    && hot_core(ResolvedCore::resolve(o.core(), o.mass_msun)) == c
             })
         })
         .collect();

@@ -31,14 +31,14 @@ use crate::catalogue::export::AcceptedWriter;
 use crate::catalogue::summary::{SummaryBuilder, VetSummary};
 use crate::catalogue::table::ReadOptions;
 use crate::catalogue::vet::{vet_files, vet_files_into, ObjectSink};
-use crate::catalogue::{CatalogueObject, ColumnMap, ObjectClass, SourceFile, Vetted};
+use crate::catalogue::{CatalogueObject, ColumnMap, ObjectClass, ObjectId, SourceFile, Vetted};
 use crate::output::AtomicFile;
 
 /// An object the first look flags: in tension with standard gravity above the threshold.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FlaggedObject {
     /// The object's id.
-    pub id: Box<str>,
+    pub id: ObjectId,
     /// Its class.
     pub class: ObjectClass,
     /// Its catalogue file.

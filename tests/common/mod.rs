@@ -151,7 +151,7 @@ pub fn measured_object(
     mass_msun: f64,
     sigma_msun: f64,
 ) -> dwarfbound::catalogue::CatalogueObject {
-    use dwarfbound::catalogue::{CatalogueObject, MassLimit, OptF64};
+    use dwarfbound::catalogue::{CatalogueObject, MassLimit, ObjectDetails, OptF64};
     CatalogueObject {
         id: format!("o{id}").into(),
         class,
@@ -159,20 +159,12 @@ pub fn measured_object(
         mass_err_lo_msun: OptF64::some(sigma_msun),
         mass_err_hi_msun: OptF64::some(sigma_msun),
         mass_limit: MassLimit::None,
-        radius_rsun: OptF64::NONE,
-        radius_err_rsun: OptF64::NONE,
-        age_gyr: OptF64::some(5.0),
-        age_err_gyr: OptF64::NONE,
-        rotation_period_h: OptF64::NONE,
-        rotation_period_err_h: OptF64::NONE,
-        mu_e: OptF64::NONE,
-        teff_k: OptF64::NONE,
-        teff_err_k: OptF64::NONE,
-        core: None,
-        envelope: None,
-        radius_model_rsun: OptF64::NONE,
         mass_method: Default::default(),
-        reference: None,
+        details: ObjectDetails {
+            age_gyr: OptF64::some(5.0),
+            ..Default::default()
+        }
+        .into(),
         source_file: "synthetic".into(),
         source_row: id,
     }
