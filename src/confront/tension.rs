@@ -30,7 +30,6 @@ use std::collections::BTreeSet;
 use rayon::prelude::*;
 
 use super::engine::{self, BoundSurface, Confrontation, EngineOptions, ObjectUse, Term};
-use super::prob::Measurement;
 use super::regions::{
     absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
 };
@@ -171,13 +170,13 @@ pub fn object_verdicts(
                 ObjectClass::BrownDwarf => Term::BrownDwarf,
                 ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
             };
-            let scale = u.measurement.scale;
+            let m = u.measurement(o);
+            let scale = m.scale;
             let bs = standard.class_bound(term);
             let bb = best.class_bound(term);
-            let mut as_used = u.clone();
-            as_used.mass_term = Some(term);
+            // Every object against its class's test, also one left out of the fit.
             let sigma = |b: Option<f64>| {
-                b.and_then(|b| engine::tension_of(&as_used, b, eopts))
+                b.and_then(|b| engine::tension_of(term, &m, b, eopts))
                     .filter(|z| z.is_finite())
             };
             let radius = radius_of[k].filter(|_| u.radius_term);
@@ -198,8 +197,8 @@ pub fn object_verdicts(
                 bound_best: bb.map(|b| b * scale).into(),
                 sigma_standard: sigma(bs).into(),
                 sigma_best: sigma(bb).into(),
-                ln_p_best: if u.mass_term.is_some() && u.measurement.informative() {
-                    bb.and_then(|b| engine::ln_p_object(u, b, eopts)).into()
+                ln_p_best: if u.mass_term.is_some() && m.informative() {
+                    bb.map(|b| engine::ln_p_object(term, &m, b, eopts)).into()
                 } else {
                     OptF64::NONE
                 },
@@ -338,17 +337,18 @@ fn verdict_failures(ln_ps: &[(usize, f64)]) -> Vec<(usize, f64)> {
 }
 
 /// The crowding check at an MMHB of `mmhb_msun` (the best fit's) with the MMHB floor
-/// `floor_msun`, over the objects in the hydrogen-burning and brown-dwarf tests.
-pub fn crowding_at(conf: &Confrontation, mmhb_msun: f64, floor_msun: f64) -> Crowding {
-    let of = |term: Term| -> Vec<Measurement> {
-        conf.members(term)
-            .iter()
-            .map(|&k| conf.uses[k].measurement)
-            .collect()
-    };
+/// `floor_msun`, over the objects in the hydrogen-burning and brown-dwarf tests (`objects` is
+/// the list the comparison was made of). Each measurement is made again as it is counted: two
+/// copies of them were 41 MB at 10⁶ objects, at the run's peak.
+pub fn crowding_at(
+    conf: &Confrontation,
+    objects: &[CatalogueObject],
+    mmhb_msun: f64,
+    floor_msun: f64,
+) -> Crowding {
     crowding(
-        &of(Term::HBurning),
-        &of(Term::BrownDwarf),
+        conf.member_measurements(objects, Term::HBurning),
+        conf.member_measurements(objects, Term::BrownDwarf),
         mmhb_msun,
         floor_msun,
         &CrowdingOptions::default(),
@@ -373,15 +373,16 @@ pub fn mass_tensions(
         .par_iter()
         .enumerate()
         .filter_map(|(index, o)| {
-            let u = engine::plan_one(index, o, eopts);
+            let u = engine::plan_one(o, eopts);
             let term = u.mass_term?;
             let b = point.class_bound(term)?;
+            let m = u.measurement(o);
             let z = if wrong_side_only {
-                engine::wrong_side_tension(&u, b, eopts)?
+                engine::wrong_side_tension(term, &m, b, eopts)?
             } else {
-                engine::tension_of(&u, b, eopts)?
+                engine::tension_of(term, &m, b, eopts)?
             };
-            (z.is_finite() && z > threshold_sigma).then_some((u.index, z))
+            (z.is_finite() && z > threshold_sigma).then_some((index, z))
         })
         .collect();
     out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
@@ -393,23 +394,24 @@ pub fn mass_tensions(
 /// probability in the fit ([`Confrontation::ln_p_in_fit`]: the bound's shared shift at its
 /// profiled value there, the per-object scatter, the calibrated probability where that model
 /// is used); above P = ½ through 1 − P, without loss of digits. `None` without an informative
-/// mass test or when P rounds to 1.
+/// mass test or when P rounds to 1. `objects` is the list the comparison was made of.
 pub fn mass_sigma_in_fit(
     conf: &Confrontation,
+    objects: &[CatalogueObject],
     surface: &dyn BoundSurface,
     k: usize,
     index: usize,
 ) -> Option<f64> {
     let u = conf.uses.get(k)?;
     let term = u.mass_term?;
-    if !u.measurement.informative() {
+    if !conf.measurement(objects, k)?.informative() {
         return None;
     }
     let b = match term {
         Term::WhiteDwarfMass => surface.chandrasekhar_mu2_msun(index),
         _ => surface.mmhb_msun(index),
     }?;
-    let ln_p = conf.ln_p_in_fit(k, b)?;
+    let ln_p = conf.ln_p_in_fit(objects, k, b)?;
     let z = super::prob::tension_sigma(ln_p);
     z.is_finite().then_some(z)
 }

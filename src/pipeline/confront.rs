@@ -268,7 +268,13 @@ pub fn run_confrontation(
     // The same slice with the other treatment of the theory floors (shared or per object),
     // and the profile and flat-prior posterior readings of the map.
     let slice_other_floor = match &slice {
-        Some(s) => Some(tau0_slice_other_floor(&conf, &surface, &eopts, s)?),
+        Some(s) => Some(tau0_slice_other_floor(
+            &conf,
+            &vetted.objects,
+            &surface,
+            &eopts,
+            s,
+        )?),
         None => None,
     };
     steps.step("profile and posterior");
@@ -278,7 +284,7 @@ pub fn run_confrontation(
     // 4. Drivers of the ϒ interval on the τ = 0 slice, under the likelihood used.
     steps.step("drivers");
     let drivers = match &slice {
-        Some(s) => slice_drivers_in_fit(&conf, s, &DriverOptions::default())?,
+        Some(s) => slice_drivers_in_fit(&conf, &vetted.objects, s, &DriverOptions::default())?,
         None => Vec::new(),
     };
 
@@ -304,7 +310,7 @@ pub fn run_confrontation(
     let crowd = best_point
         .mmhb
         .ok()
-        .map(|m| crowding_at(&conf, m.value_msun, eopts.mmhb_floor_msun));
+        .map(|m| crowding_at(&conf, &vetted.objects, m.value_msun, eopts.mmhb_floor_msun));
 
     steps.finish();
     let outputs_started = std::time::Instant::now();

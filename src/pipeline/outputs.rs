@@ -184,7 +184,13 @@ impl OutputContext<'_> {
 
     /// One-sided tension of object `k`'s mass test at the best fit under the likelihood used.
     pub(crate) fn sigma_best_in_fit(&self, k: usize) -> Option<f64> {
-        mass_sigma_in_fit(self.conf, self.surface, k, self.best_index)
+        mass_sigma_in_fit(
+            self.conf,
+            &self.vetted.objects,
+            self.surface,
+            k,
+            self.best_index,
+        )
     }
 
     /// The σ of the test through which object `k` drives the interval, at the best fit: the
@@ -254,7 +260,9 @@ impl OutputContext<'_> {
             Cell::Float(o.radius_err_rsun.get()),
             Cell::Float(o.age_gyr.get()),
             Cell::Float(Some(u.mu_e)),
-            Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
+            Cell::Bool(Some(
+                u.mass_term.is_some() && u.measurement(o).informative(),
+            )),
             Cell::Text(u.flags.join(";")),
             Cell::Float(r.bound_standard.get()),
             Cell::Float(r.bound_best.get()),

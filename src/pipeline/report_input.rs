@@ -330,9 +330,10 @@ pub(crate) fn write_report_files(
             .conf
             .uses
             .iter()
-            .filter(|u| match term {
+            .enumerate()
+            .filter(|(k, u)| match term {
                 Term::WhiteDwarfRadius => u.radius_term,
-                Term::Spin => ctx.conf.spins.iter().any(|s| s.index == u.index),
+                Term::Spin => ctx.conf.spins.iter().any(|s| s.index == *k),
                 _ => u.mass_term == Some(term),
             })
             .count();
