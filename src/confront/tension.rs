@@ -25,8 +25,6 @@
 //! assert!(t[0].1 > 3.0);
 //! ```
 
-use std::collections::BTreeSet;
-
 use rayon::prelude::*;
 
 use super::engine::{self, BoundSurface, Confrontation, EngineOptions, ObjectUse, Term};
@@ -57,6 +55,24 @@ impl ReferencePoint {
             Term::HBurning | Term::BrownDwarf => self.mmhb_msun,
             Term::WhiteDwarfRadius | Term::Spin => None,
         }
+    }
+
+    /// The bound object `o` faces at this point, M☉: its class's bound scaled to the object
+    /// by its use `u` (by (2/μe)² for a white dwarf, by the slow-rotation factor of a spinning
+    /// star), for every object, also one left out of the fit. Made when it is written rather
+    /// than held per object (one product).
+    pub fn object_bound(&self, o: &CatalogueObject, u: &ObjectUse) -> Option<f64> {
+        self.class_bound(class_term(o.class))
+            .map(|b| b * u.bound_scale)
+    }
+}
+
+/// The mass test of an object's class (whether or not the object is in it).
+fn class_term(class: ObjectClass) -> Term {
+    match class {
+        ObjectClass::HBurning => Term::HBurning,
+        ObjectClass::BrownDwarf => Term::BrownDwarf,
+        ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
     }
 }
 
@@ -103,23 +119,19 @@ pub struct Tension {
     pub test: TensionTest,
 }
 
-/// One object's results at the two reference points (bounds scaled to the object, e.g. by
-/// (2/μe)² for a white dwarf).
+/// One object's tensions at the two reference points.
 ///
-/// One per object, held while the outputs are written: the optional numbers are [`OptF64`]
-/// (56 bytes in all; seven `Option<f64>` were 112).
+/// One per object, held while the outputs are written, so it holds only what is costly to
+/// make again: the optional numbers are [`OptF64`] (seven `Option<f64>` were 112 bytes), and
+/// the object's bounds there ([`ReferencePoint::object_bound`], one product) and the ln P of
+/// its mass test at the best fit (asked only by [`consistency_at_best`], which makes it) are
+/// not held (56 → 32 bytes).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ObjectVerdict {
-    /// Its class bound at standard gravity, M☉.
-    pub bound_standard: OptF64,
-    /// Its class bound at the best fit, M☉.
-    pub bound_best: OptF64,
     /// Tension with its class bound at standard gravity, σ.
     pub sigma_standard: OptF64,
     /// Tension with its class bound at the best fit, σ.
     pub sigma_best: OptF64,
-    /// ln P of its mass test at the best fit, for objects in the fit with an informative mass.
-    pub ln_p_best: OptF64,
     /// Signed tension of its radius with the standard-gravity mass–radius relation, σ.
     pub radius_sigma_standard: OptF64,
     /// Signed tension of its radius at the best fit, σ (enters the verdict).
@@ -165,13 +177,8 @@ pub fn object_verdicts(
         .zip(uses)
         .enumerate()
         .map(|(k, (o, u))| {
-            let term = match o.class {
-                ObjectClass::HBurning => Term::HBurning,
-                ObjectClass::BrownDwarf => Term::BrownDwarf,
-                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
-            };
+            let term = class_term(o.class);
             let m = u.measurement(o);
-            let scale = m.scale;
             let bs = standard.class_bound(term);
             let bb = best.class_bound(term);
             // Every object against its class's test, also one left out of the fit.
@@ -193,15 +200,8 @@ pub fn object_verdicts(
                 )
             });
             ObjectVerdict {
-                bound_standard: bs.map(|b| b * scale).into(),
-                bound_best: bb.map(|b| b * scale).into(),
                 sigma_standard: sigma(bs).into(),
                 sigma_best: sigma(bb).into(),
-                ln_p_best: if u.mass_term.is_some() && m.informative() {
-                    bb.map(|b| engine::ln_p_object(term, &m, b, eopts)).into()
-                } else {
-                    OptF64::NONE
-                },
                 radius_sigma_standard: radius_sigma_standard.into(),
                 radius_sigma_best: radius_sigma_best.into(),
             }
@@ -249,22 +249,37 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
 /// cannot constrain any grid point must not dilute the look-elsewhere factor (the paper's
 /// statistics section). Keys of the returned tests: the object index for a mass test, plus the
 /// object count for a radius test, plus twice the object count for a spin test
-/// ([`TestKey`] decodes them).
+/// ([`TestKey`] decodes them). `objects` is the list the comparison was made of, `best` the
+/// best fit's bounds.
 pub fn consistency_at_best(
     conf: &Confrontation,
+    objects: &[CatalogueObject],
+    best: &ReferencePoint,
+    eopts: &EngineOptions,
     verdicts: &[ObjectVerdict],
     spins: &[SpinVerdict],
 ) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
-    let mut counted = BTreeSet::new();
+    let mut counted: Vec<usize> = Vec::new();
     for (term, counts) in &conf.class_counts {
         let members = conf.members(*term);
         counted.extend(counts.informative_indices().iter().map(|&j| members[j]));
     }
-    let mut ln_ps: Vec<(usize, f64)> = verdicts
-        .iter()
-        .enumerate()
-        .filter(|(k, _)| counted.contains(k))
-        .filter_map(|(k, r)| r.ln_p_best.get().map(|l| (k, l)))
+    counted.sort_unstable();
+    counted.dedup();
+    // The ln P of each counted object's mass test at the best fit, in object order: made here,
+    // the one place that asks for it, rather than held in every object's verdict.
+    let mut ln_ps: Vec<(usize, f64)> = counted
+        .par_iter()
+        .filter_map(|&k| {
+            let (o, u) = (objects.get(k)?, conf.uses.get(k)?);
+            let term = u.mass_term?;
+            let m = u.measurement(o);
+            if !m.informative() {
+                return None;
+            }
+            let b = best.class_bound(term)?;
+            Some((k, engine::ln_p_object(term, &m, b, eopts)))
+        })
         .collect();
     // Every test in the likelihood enters the verdict: the radius tests too, each as its
     // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
@@ -420,7 +435,9 @@ pub fn mass_sigma_in_fit(
 mod tests {
     #[test]
     fn a_verdict_stays_compact() {
-        // One verdict per object is held while the outputs are written (see its doc comment).
-        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 56);
+        // One verdict per object is held while the outputs are written (see its doc comment):
+        // 56 bytes while it also held the object's two bounds and its ln P at the best fit,
+        // each made again where it is asked for since.
+        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 32);
     }
 }

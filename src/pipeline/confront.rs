@@ -290,13 +290,14 @@ pub fn run_confrontation(
 
     // 5. Per-object verdicts at standard gravity and at the best fit; tensions.
     steps.step("per-object verdicts");
+    let (standard_bounds, best_bounds) = (class_bounds(&standard), class_bounds(best_point));
     let verdicts = object_verdicts(
         &vetted.objects,
         &conf.uses,
         &conf.radius_objects,
         &conf.spins,
-        &class_bounds(&standard),
-        &class_bounds(best_point),
+        &standard_bounds,
+        &best_bounds,
         &surface,
         best_index,
         &eopts,
@@ -306,7 +307,14 @@ pub fn run_confrontation(
         crate::confront::spin::spin_verdicts(&conf.spins, &conf.spin_spans, &surface, best_index);
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
-    let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts, &spin_verdicts);
+    let (consistency, verdict_failures) = consistency_at_best(
+        &conf,
+        &vetted.objects,
+        &best_bounds,
+        &eopts,
+        &verdicts,
+        &spin_verdicts,
+    );
     let crowd = best_point
         .mmhb
         .ok()
@@ -328,6 +336,8 @@ pub fn run_confrontation(
         profile: &profile,
         posterior: &post,
         verdicts: &verdicts,
+        standard_bounds,
+        best_bounds,
         spin_verdicts: &spin_verdicts,
         drivers: &drivers,
         tensions: &tensions,

@@ -26,7 +26,9 @@ use crate::confront::regions::Interval;
 use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
 use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
-use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest, TestKey};
+use crate::confront::tension::{
+    mass_sigma_in_fit, ObjectVerdict, ReferencePoint, Tension, TensionTest, TestKey,
+};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
@@ -127,6 +129,10 @@ pub(crate) struct OutputContext<'a> {
     pub posterior: &'a Posterior,
     /// Per object, in the order of `vetted.objects`.
     pub verdicts: &'a [ObjectVerdict],
+    /// The bounds at standard gravity (each object's is made from them when written).
+    pub standard_bounds: ReferencePoint,
+    /// The bounds at the best fit.
+    pub best_bounds: ReferencePoint,
     /// The spin tests, one per object with a rotation period and a measured mass.
     pub spin_verdicts: &'a [SpinVerdict],
     /// The drivers, by rank.
@@ -264,8 +270,8 @@ impl OutputContext<'_> {
                 u.mass_term.is_some() && u.measurement(o).informative(),
             )),
             Cell::Text(u.flags.join(";")),
-            Cell::Float(r.bound_standard.get()),
-            Cell::Float(r.bound_best.get()),
+            Cell::Float(self.standard_bounds.object_bound(o, u)),
+            Cell::Float(self.best_bounds.object_bound(o, u)),
             Cell::Float(r.sigma_standard.get()),
             Cell::Float(r.sigma_best.get()),
             Cell::Float(r.radius_sigma_standard.get()),

@@ -342,15 +342,15 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
         // First pass: the counts that decide the thinning, and the bound's class values.
         let (mut n, mut n_tension) = (0usize, 0usize);
         let (mut standard, mut best) = (None, None);
-        for (u, _, v) in members() {
+        for (u, o, v) in members() {
             n += 1;
             n_tension += usize::from(in_tension(sigma_of(v)));
             // The class value (μe = 2): an object's own bound is the class's times its scale
             // (4/μe² for white dwarfs, 1 otherwise).
             let scale = u.bound_scale;
             if scale > 0.0 {
-                standard = standard.or(v.bound_standard.get().map(|b| b / scale));
-                best = best.or(v.bound_best.get().map(|b| b / scale));
+                standard = standard.or(ctx.standard_bounds.object_bound(o, u).map(|b| b / scale));
+                best = best.or(ctx.best_bounds.object_bound(o, u).map(|b| b / scale));
             }
         }
         // Second pass: only the objects drawn are built.
