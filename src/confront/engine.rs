@@ -678,13 +678,19 @@ pub fn confront(
 
     // Each mass term's measurements in object order, made once: sorted for the counts and
     // lent to the bound terms and the population term (a copy for each was ≈ 100 MB at 10⁶
-    // objects).
+    // objects). Counted first and allocated to size: collected from a filter, a list grew by
+    // doubling to up to twice its length, and the lists are alive at the run's peak (while
+    // the bound terms are built).
     let class_list = |t: Term| -> Vec<Measurement> {
-        uses.iter()
-            .zip(objects)
-            .filter(|(u, _)| u.mass_term == Some(t))
-            .map(|(u, o)| u.measurement(o))
-            .collect()
+        let n = uses.iter().filter(|u| u.mass_term == Some(t)).count();
+        let mut list = Vec::with_capacity(n);
+        list.extend(
+            uses.iter()
+                .zip(objects)
+                .filter(|(u, _)| u.mass_term == Some(t))
+                .map(|(u, o)| u.measurement(o)),
+        );
+        list
     };
     let (hb, bd, wd) = (
         class_list(Term::HBurning),

@@ -119,23 +119,60 @@ pub struct Tension {
     pub test: TensionTest,
 }
 
-/// One object's tensions at the two reference points.
+/// One object's tensions with its class's mass bound at the two reference points.
 ///
 /// One per object, held while the outputs are written, so it holds only what is costly to
 /// make again: the optional numbers are [`OptF64`] (seven `Option<f64>` were 112 bytes), and
 /// the object's bounds there ([`ReferencePoint::object_bound`], one product) and the ln P of
 /// its mass test at the best fit (asked only by [`consistency_at_best`], which makes it) are
-/// not held (56 → 32 bytes).
+/// not held; the radius tensions, which only white dwarfs in the radius test have, are in
+/// [`Verdicts::radius`] (56 → 16 bytes).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ObjectVerdict {
     /// Tension with its class bound at standard gravity, σ.
     pub sigma_standard: OptF64,
     /// Tension with its class bound at the best fit, σ.
     pub sigma_best: OptF64,
+}
+
+/// The radius tensions of one white dwarf in the radius test.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RadiusVerdict {
+    /// Index of the object.
+    pub object: usize,
     /// Signed tension of its radius with the standard-gravity mass–radius relation, σ.
-    pub radius_sigma_standard: OptF64,
+    pub sigma_standard: Option<f64>,
     /// Signed tension of its radius at the best fit, σ (enters the verdict).
-    pub radius_sigma_best: OptF64,
+    pub sigma_best: Option<f64>,
+}
+
+/// Every object's verdicts ([`object_verdicts`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Verdicts {
+    /// Each object's mass-bound tensions, in object order.
+    pub objects: Vec<ObjectVerdict>,
+    /// The radius tensions of the objects in the radius test, by object index (ascending).
+    pub radius: Vec<RadiusVerdict>,
+}
+
+impl Verdicts {
+    /// Object `k`'s radius tensions, if it is in the radius test.
+    pub fn radius_of(&self, k: usize) -> Option<&RadiusVerdict> {
+        self.radius
+            .binary_search_by_key(&k, |r| r.object)
+            .ok()
+            .map(|i| &self.radius[i])
+    }
+
+    /// Object `k`'s signed radius tension at standard gravity, σ.
+    pub fn radius_sigma_standard(&self, k: usize) -> Option<f64> {
+        self.radius_of(k).and_then(|r| r.sigma_standard)
+    }
+
+    /// Object `k`'s signed radius tension at the best fit, σ.
+    pub fn radius_sigma_best(&self, k: usize) -> Option<f64> {
+        self.radius_of(k).and_then(|r| r.sigma_best)
+    }
 }
 
 /// Each object's verdicts at `standard` and `best`, in the order of `objects` (`uses` is the
@@ -152,69 +189,75 @@ pub fn object_verdicts(
     surface: &dyn BoundSurface,
     best_index: usize,
     eopts: &EngineOptions,
-) -> Vec<ObjectVerdict> {
+) -> Verdicts {
     let best_upsilon = surface
         .upsilon()
         .get(best_index % surface.upsilon().len().max(1))
         .copied()
         .unwrap_or(0.0);
-    // Each object's radius test and spin, found by position (a search of the lists per object
-    // was quadratic in a catalogue of white dwarfs with radii).
-    let mut radius_of: Vec<Option<&ObjectRadius>> = vec![None; objects.len()];
-    for r in radius_objects {
-        if let Some(slot) = radius_of.get_mut(r.index) {
-            slot.get_or_insert(r);
-        }
-    }
-    let mut spin_of: Vec<Option<&ObjectSpin>> = vec![None; objects.len()];
-    for sp in spins.iter().filter(|s| s.radius_factor != 1.0) {
-        if let Some(slot) = spin_of.get_mut(sp.index) {
-            slot.get_or_insert(sp);
-        }
-    }
-    objects
+    let mass = objects
         .par_iter()
         .zip(uses)
-        .enumerate()
-        .map(|(k, (o, u))| {
+        .map(|(o, u)| {
             let term = class_term(o.class);
             let m = u.measurement(o);
-            let bs = standard.class_bound(term);
-            let bb = best.class_bound(term);
             // Every object against its class's test, also one left out of the fit.
             let sigma = |b: Option<f64>| {
                 b.and_then(|b| engine::tension_of(term, &m, b, eopts))
                     .filter(|z| z.is_finite())
             };
-            let radius = radius_of[k].filter(|_| u.radius_term);
-            let radius_sigma_standard = radius.and_then(ObjectRadius::standard_tension);
-            let radius_sigma_best = radius.and_then(|r| {
-                let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
-                // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
-                let spun = spin_of[k].map_or(1.0, |s| {
-                    s.radius_factor_at(surface, best_index) / s.radius_factor
-                });
-                r.tension_at(
-                    cold.first().copied().flatten().map(|c| c * spun),
-                    best_upsilon,
-                )
-            });
             ObjectVerdict {
-                sigma_standard: sigma(bs).into(),
-                sigma_best: sigma(bb).into(),
-                radius_sigma_standard: radius_sigma_standard.into(),
-                radius_sigma_best: radius_sigma_best.into(),
+                sigma_standard: sigma(standard.class_bound(term)).into(),
+                sigma_best: sigma(best.class_bound(term)).into(),
             }
         })
-        .collect()
+        .collect();
+    // Each spinning white dwarf's spin test, found by index (the first one of an object).
+    let mut spin_of: std::collections::HashMap<usize, &ObjectSpin> = Default::default();
+    for sp in spins.iter().filter(|s| s.radius_factor != 1.0) {
+        spin_of.entry(sp.index).or_insert(sp);
+    }
+    // The radius tests by object index (an object's first test only; the engine makes them in
+    // object order, so the sort only guards the lookup).
+    let mut seen = std::collections::HashSet::new();
+    let mut tests: Vec<&ObjectRadius> = radius_objects
+        .iter()
+        .filter(|r| r.index < objects.len() && uses.get(r.index).is_some_and(|u| u.radius_term))
+        .filter(|r| seen.insert(r.index))
+        .collect();
+    tests.sort_by_key(|r| r.index);
+    let radius = tests
+        .par_iter()
+        .map(|r| {
+            let k = r.index;
+            let (o, u) = (&objects[k], &uses[k]);
+            let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
+            // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
+            let spun = spin_of.get(&k).map_or(1.0, |s| {
+                s.radius_factor_at(surface, best_index) / s.radius_factor
+            });
+            RadiusVerdict {
+                object: k,
+                sigma_standard: r.standard_tension(),
+                sigma_best: r.tension_at(
+                    cold.first().copied().flatten().map(|c| c * spun),
+                    best_upsilon,
+                ),
+            }
+        })
+        .collect();
+    Verdicts {
+        objects: mass,
+        radius,
+    }
 }
 
 /// The objects in tension with standard gravity above `threshold_sigma`, largest |σ| first (ties
 /// by object). Mass-bound tensions are one-sided (positive = wrong side of the bound); radius
 /// tensions are two-sided, listed by their absolute value.
-pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<Tension> {
+pub fn tensions_above(verdicts: &Verdicts, threshold_sigma: f64) -> Vec<Tension> {
     let mut tensions: Vec<Tension> = Vec::new();
-    for (k, r) in verdicts.iter().enumerate() {
+    for (k, r) in verdicts.objects.iter().enumerate() {
         if let Some(z) = r.sigma_standard.get().filter(|&z| z > threshold_sigma) {
             tensions.push(Tension {
                 object: k,
@@ -222,13 +265,13 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
                 test: TensionTest::MassBound,
             });
         }
-        if let Some(z) = r
-            .radius_sigma_standard
-            .get()
-            .filter(|z| z.abs() > threshold_sigma)
-        {
+    }
+    // After every mass-bound tension: the sort below is stable, so an object's two tests of
+    // equal |σ| keep the mass test first, as when both were pushed object by object.
+    for r in &verdicts.radius {
+        if let Some(z) = r.sigma_standard.filter(|z| z.abs() > threshold_sigma) {
             tensions.push(Tension {
-                object: k,
+                object: r.object,
                 sigma: z,
                 test: TensionTest::MassRadius,
             });
@@ -256,7 +299,7 @@ pub fn consistency_at_best(
     objects: &[CatalogueObject],
     best: &ReferencePoint,
     eopts: &EngineOptions,
-    verdicts: &[ObjectVerdict],
+    verdicts: &Verdicts,
     spins: &[SpinVerdict],
 ) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
     let mut counted: Vec<usize> = Vec::new();
@@ -284,11 +327,11 @@ pub fn consistency_at_best(
     // Every test in the likelihood enters the verdict: the radius tests too, each as its
     // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
     // dwarf's two tests stay distinct).
-    let n_obj = verdicts.len();
-    for (k, r) in verdicts.iter().enumerate() {
-        if let Some(z) = r.radius_sigma_best.get().filter(|z| z.is_finite()) {
+    let n_obj = verdicts.objects.len();
+    for r in &verdicts.radius {
+        if let Some(z) = r.sigma_best.filter(|z| z.is_finite()) {
             let ln_p = super::prob::ln_normal_cdf(-z.abs()) + std::f64::consts::LN_2;
-            ln_ps.push((n_obj + k, ln_p.min(0.0)));
+            ln_ps.push((n_obj + r.object, ln_p.min(0.0)));
         }
     }
     // The spin tests, one-sided like the mass tests, each with its own ln P at the best fit;
@@ -436,8 +479,9 @@ mod tests {
     #[test]
     fn a_verdict_stays_compact() {
         // One verdict per object is held while the outputs are written (see its doc comment):
-        // 56 bytes while it also held the object's two bounds and its ln P at the best fit,
-        // each made again where it is asked for since.
-        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 32);
+        // 56 bytes while it also held the object's two bounds and its ln P at the best fit
+        // (each made again where it is asked for since) and its two radius tensions (now in a
+        // list of the white dwarfs in the radius test, `Verdicts::radius`).
+        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 16);
     }
 }

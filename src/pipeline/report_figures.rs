@@ -231,8 +231,7 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
             teff_k: o.teff_k.get(),
             sigma: ctx
                 .verdicts
-                .get(k)
-                .and_then(|v| v.radius_sigma_standard.get())
+                .radius_sigma_standard(k)
                 .filter(|s| s.is_finite()),
             flag,
         });
@@ -321,7 +320,7 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
         // The panel's objects in order, with their use and verdict.
         let members = || {
             ctx.conf.uses.iter().enumerate().filter_map(move |(k, u)| {
-                let (o, v) = (ctx.vetted.objects.get(k)?, ctx.verdicts.get(k)?);
+                let (o, v) = (ctx.vetted.objects.get(k)?, ctx.verdicts.objects.get(k)?);
                 let class_term = match o.class {
                     ObjectClass::HBurning => Term::HBurning,
                     ObjectClass::BrownDwarf => Term::BrownDwarf,
