@@ -308,7 +308,7 @@ fn spin_tests_are_leave_one_out_drivers() {
     assert_eq!(alone.len(), 1);
     assert_eq!(alone[0].0, 0);
     assert!(alone[0].1.is_infinite(), "{alone:?}");
-    let drivers = slice_drivers_in_fit(&conf, &s, &opts).unwrap();
+    let drivers = slice_drivers_in_fit(&conf, &objects, &s, &opts).unwrap();
     let d = drivers.iter().find(|d| d.object == 0).unwrap();
     assert_eq!(d.test, TensionTest::Spin);
     assert!(d.shift.is_infinite());
@@ -400,7 +400,7 @@ fn mmhb_slow_rotation_factor_is_taken_at_the_grid_point() {
     // The standard factor is the old, ϒ = τ = 0 one.
     let f0 = factor(0.0).unwrap();
     assert!((m.factor_standard - f0).abs() < 1e-13);
-    assert!((conf.uses[0].measurement.scale - f0).abs() < 1e-13);
+    assert!((conf.uses[0].bound_scale - f0).abs() < 1e-13);
     let mut moved = 0;
     for (i, &u) in surface.upsilon().iter().enumerate() {
         let at = spins_at(&conf.spins, &surface, i)[0];

@@ -93,8 +93,8 @@ fn in_fit_drivers_equal_the_exact_product_leave_one_out_with_per_object_floors()
     let conf = confront(&objects, &s, &opts).unwrap();
     let slice = tau0_slice(&conf, &s).unwrap().unwrap();
     let d = DriverOptions::default();
-    let exact = slice_drivers(&conf, &slice, &opts, &d).unwrap();
-    let fit = slice_drivers_in_fit(&conf, &slice, &d).unwrap();
+    let exact = slice_drivers(&conf, &objects, &slice, &opts, &d).unwrap();
+    let fit = slice_drivers_in_fit(&conf, &objects, &slice, &d).unwrap();
     let exact: Vec<(usize, f64)> = exact.into_iter().filter(|e| e.1 > 0.0).collect();
     assert!(!fit.is_empty(), "some object must drive the interval");
     assert_eq!(exact.len(), fit.len());
@@ -117,7 +117,7 @@ fn in_fit_drivers_match_a_rerun_without_the_object_under_the_shared_systematic()
     let opts = options(Systematics::Shared);
     let conf = confront(&objects, &s, &opts).unwrap();
     let slice = tau0_slice(&conf, &s).unwrap().unwrap();
-    let fit = slice_drivers_in_fit(&conf, &slice, &DriverOptions::default()).unwrap();
+    let fit = slice_drivers_in_fit(&conf, &objects, &slice, &DriverOptions::default()).unwrap();
     assert!(!fit.is_empty());
     let base = slice.slice.intervals[1];
     for d in fit.iter().filter(|d| d.shift.is_finite()) {
@@ -157,7 +157,8 @@ fn other_floor_slice_equals_a_run_with_that_floor() {
     ] {
         let conf = confront(&objects, &s, &options(run)).unwrap();
         let main = tau0_slice(&conf, &s).unwrap().unwrap();
-        let (which, alt) = tau0_slice_other_floor(&conf, &s, &options(run), &main).unwrap();
+        let (which, alt) =
+            tau0_slice_other_floor(&conf, &objects, &s, &options(run), &main).unwrap();
         assert_eq!(which, other);
         let direct_conf = confront(&objects, &s, &options(other)).unwrap();
         let direct = tau0_slice(&direct_conf, &s).unwrap().unwrap();
@@ -252,7 +253,7 @@ fn radius_drivers_refit_the_shared_scale_like_a_rerun_without_the_object() {
     assert!(conf.radius_shared.is_some() && conf.radius_objects.len() == 6);
     let slice = tau0_slice(&conf, &s).unwrap().unwrap();
     let d = DriverOptions::default();
-    let fit = slice_drivers_in_fit(&conf, &slice, &d).unwrap();
+    let fit = slice_drivers_in_fit(&conf, &objects, &slice, &d).unwrap();
     // The first-order estimate: the same slice without the kept cold radii, so the scale is
     // held at its fitted value.
     let mut held = slice.clone();
@@ -308,7 +309,8 @@ fn other_floor_slice_switches_the_shared_radius_scale_too() {
     ] {
         let conf = confront(&objects, &s, &radius_options(run)).unwrap();
         let main = tau0_slice(&conf, &s).unwrap().unwrap();
-        let (which, alt) = tau0_slice_other_floor(&conf, &s, &radius_options(run), &main).unwrap();
+        let (which, alt) =
+            tau0_slice_other_floor(&conf, &objects, &s, &radius_options(run), &main).unwrap();
         assert_eq!(which, other);
         let direct_conf = confront(&objects, &s, &radius_options(other)).unwrap();
         assert_eq!(
@@ -380,7 +382,7 @@ fn calibrated_drivers_with_the_mass_function_held_fixed_match_a_rerun() {
     opts.mass_terms.likelihood = LikelihoodChoice::Calibrated;
     let conf = confront(&objects, &s, &opts).unwrap();
     let slice = tau0_slice(&conf, &s).unwrap().unwrap();
-    let fit = slice_drivers_in_fit(&conf, &slice, &DriverOptions::default()).unwrap();
+    let fit = slice_drivers_in_fit(&conf, &objects, &slice, &DriverOptions::default()).unwrap();
     let base = slice.slice.intervals[1];
     let mut worst: f64 = 0.0;
     let mut compared = 0;
@@ -446,12 +448,13 @@ fn screened_refits_give_the_drivers_of_refitting_every_candidate() {
     let opts = options(Systematics::Shared);
     let conf = confront(&objects, &s, &opts).unwrap();
     let slice = tau0_slice(&conf, &s).unwrap().unwrap();
-    let screened = slice_drivers_in_fit(&conf, &slice, &DriverOptions::default()).unwrap();
+    let screened =
+        slice_drivers_in_fit(&conf, &objects, &slice, &DriverOptions::default()).unwrap();
     let every = DriverOptions {
         top: 1000,
         ..DriverOptions::default()
     };
-    let mut all = slice_drivers_in_fit(&conf, &slice, &every).unwrap();
+    let mut all = slice_drivers_in_fit(&conf, &objects, &slice, &every).unwrap();
     assert!(
         all.len() > 2 * 10,
         "{} drivers: too few to screen",

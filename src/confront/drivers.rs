@@ -38,6 +38,7 @@ use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
 use super::slice::{radius_totals_fine_leaving_out, SliceResult};
 use super::tension::TensionTest;
+use crate::catalogue::CatalogueObject;
 
 /// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
 #[derive(Debug, Clone, PartialEq)]
@@ -210,6 +211,7 @@ fn end_shift(before: Option<f64>, after: Option<f64>) -> f64 {
 /// [`spin_drivers`]), and an object found by more than one keeps its largest shift.
 pub fn slice_drivers(
     conf: &Confrontation,
+    objects: &[CatalogueObject],
     s: &SliceResult,
     eopts: &EngineOptions,
     opts: &DriverOptions,
@@ -217,7 +219,7 @@ pub fn slice_drivers(
     let mut per_class: Vec<(Term, Vec<usize>, Vec<Measurement>)> = Vec::new();
     for (term, _) in &conf.class_counts {
         let idx = conf.members(*term);
-        let ms = idx.iter().map(|&k| conf.uses[k].measurement).collect();
+        let ms = conf.member_measurements(objects, *term).collect();
         per_class.push((*term, idx, ms));
     }
     let classes: Vec<SliceClass<'_>> = per_class
@@ -393,6 +395,7 @@ pub struct SliceDriver {
 /// tests as [`spin_drivers`] does (exact).
 pub fn slice_drivers_in_fit(
     conf: &Confrontation,
+    objects: &[CatalogueObject],
     s: &SliceResult,
     opts: &DriverOptions,
 ) -> Result<Vec<SliceDriver>, StatsError> {
@@ -425,11 +428,11 @@ pub fn slice_drivers_in_fit(
             .par_iter()
             .enumerate()
             .map(|(pos, &k)| {
-                let m = &conf.uses[k].measurement;
+                let m = conf.uses[k].measurement(&objects[k]);
                 if !m.informative() {
                     return None;
                 }
-                let ot = bt.object_light(*term, pos, m);
+                let ot = bt.object_light(*term, pos, &m);
                 let weight = [k_lo, k_hi]
                     .iter()
                     .map(|&kk| -2.0 * ot.ln_p(b_fine[kk]))
@@ -450,7 +453,8 @@ pub fn slice_drivers_in_fit(
     let held: Vec<f64> = candidates
         .par_iter()
         .map(|&(k, term, pos, b_fine, bt)| {
-            let ot = bt.object(term, pos, &conf.uses[k].measurement);
+            let m = conf.uses[k].measurement(&objects[k]);
+            let ot = bt.object(term, pos, &m);
             let without: Vec<f64> = chi2
                 .iter()
                 .zip(b_fine)
@@ -500,7 +504,8 @@ pub fn slice_drivers_in_fit(
                 // A shared shift: the bound's term without the object, the shift eliminated
                 // again at each point, replaces the term with it.
                 Some(n) => {
-                    let ot = bt.object(term, pos, &conf.uses[k].measurement);
+                    let m = conf.uses[k].measurement(&objects[k]);
+                    let ot = bt.object(term, pos, &m);
                     let without: Vec<f64> = chi2
                         .iter()
                         .zip(b_fine)

@@ -183,15 +183,21 @@ impl Term {
     }
 }
 
-/// How one object enters the comparison.
+/// How one object enters the comparison. Use `k` is object `k` of the caller's list (the
+/// uses are built in object order), so it holds no index.
+///
+/// One use per object is held until the outputs are written, so it keeps only what its object
+/// does not give: the statistics' view of the mass is derived again from the object
+/// ([`ObjectUse::measurement`]) and only its bound scale is held (the slow-rotation change of a
+/// spinning star's MMHB makes it more than the class's scale).
 #[derive(Debug, Clone, PartialEq)]
 pub struct ObjectUse {
-    /// Index into the caller's object list.
-    pub index: usize,
     /// The mass test it feeds (`None` if left out).
     pub mass_term: Option<Term>,
-    /// The statistics' view of its mass.
-    pub measurement: Measurement,
+    /// The scale of its bound ([`Measurement::scale`]): 4/μe² for a white dwarf, 1 for the
+    /// other classes, times the slow-rotation factor f₀ of a spinning star or brown dwarf
+    /// ([`super::spin::prepare`]).
+    pub bound_scale: f64,
     /// Whether it feeds the mass–radius term.
     pub radius_term: bool,
     /// Why it is left out of its mass test, if it is ([`LeftOut::Young`],
@@ -206,6 +212,16 @@ pub struct ObjectUse {
     pub core: Option<ResolvedCore>,
     /// μe used for a white dwarf.
     pub mu_e: f64,
+}
+
+impl ObjectUse {
+    /// The statistics' view of its object's mass (`o` must be the object this use was planned
+    /// for): what [`measurement_of`] makes of the object, at this use's bound scale. A few
+    /// comparisons, so it is made again wherever it is needed rather than held per object
+    /// (48 bytes each, a million of them in a large run).
+    pub fn measurement(&self, o: &CatalogueObject) -> Measurement {
+        measurement_scaled(o, self.bound_scale)
+    }
 }
 
 /// Why an object is left out of a test. A code rather than a sentence: every object has an
@@ -422,9 +438,30 @@ impl Confrontation {
     pub fn members(&self, term: Term) -> Vec<usize> {
         self.uses
             .iter()
-            .filter(|u| u.mass_term == Some(term))
-            .map(|u| u.index)
+            .enumerate()
+            .filter(|(_, u)| u.mass_term == Some(term))
+            .map(|(k, _)| k)
             .collect()
+    }
+
+    /// The statistics' view of object `k`'s mass as the comparison used it (`objects` is the
+    /// list the comparison was made of): [`ObjectUse::measurement`].
+    pub fn measurement(&self, objects: &[CatalogueObject], k: usize) -> Option<Measurement> {
+        Some(self.uses.get(k)?.measurement(objects.get(k)?))
+    }
+
+    /// The measurements of a mass term's objects, in [`Confrontation::members`] order, made
+    /// one at a time from `objects` (the list the comparison was made of).
+    pub fn member_measurements<'a>(
+        &'a self,
+        objects: &'a [CatalogueObject],
+        term: Term,
+    ) -> impl Iterator<Item = Measurement> + 'a {
+        self.uses
+            .iter()
+            .zip(objects)
+            .filter(move |(u, _)| u.mass_term == Some(term))
+            .map(|(u, o)| u.measurement(o))
     }
 
     /// −2 ln L of every mass term (shared systematics eliminated, population term included) at
@@ -460,10 +497,15 @@ impl Confrontation {
             .map(|(_, t)| t)
     }
 
-    /// ln P of object `k` (caller's index) in its mass test at the grid point's class bound,
-    /// under the likelihood actually used (shared shift at its profiled value). `None` without
-    /// a mass test.
-    pub fn ln_p_in_fit(&self, k: usize, class_bound_msun: f64) -> Option<f64> {
+    /// ln P of object `k` (caller's index; `objects` is the list the comparison was made of) in
+    /// its mass test at the grid point's class bound, under the likelihood actually used
+    /// (shared shift at its profiled value). `None` without a mass test.
+    pub fn ln_p_in_fit(
+        &self,
+        objects: &[CatalogueObject],
+        k: usize,
+        class_bound_msun: f64,
+    ) -> Option<f64> {
         let u = self.uses.get(k)?;
         let term = u.mass_term?;
         let bound = if term == Term::WhiteDwarfMass {
@@ -473,18 +515,32 @@ impl Confrontation {
         };
         let t = self.bound_term(bound)?;
         // `uses` and `term_positions` are built together in object order (use k is object k).
-        debug_assert_eq!(u.index, k);
         let pos = self
             .term_positions
             .get(k)
             .copied()
             .filter(|&p| p != u32::MAX)? as usize;
-        Some(t.ln_p_object(term, pos, &u.measurement, class_bound_msun))
+        let m = u.measurement(objects.get(k)?);
+        Some(t.ln_p_object(term, pos, &m, class_bound_msun))
     }
 }
 
 /// Maps a catalogue object to the statistics' measurement for its class.
 pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
+    measurement_scaled(o, class_scale(o.class, mu_e))
+}
+
+/// The bound scale of a class: 4/μe² for white dwarfs (B_Ch ∝ 1/μe²), 1 otherwise.
+fn class_scale(class: ObjectClass, mu_e: f64) -> f64 {
+    match class {
+        ObjectClass::WhiteDwarf => 4.0 / (mu_e * mu_e),
+        _ => 1.0,
+    }
+}
+
+/// [`measurement_of`] at a given bound scale (the one code that makes a measurement of an
+/// object, so that one made again is the same to the bit).
+fn measurement_scaled(o: &CatalogueObject, scale: f64) -> Measurement {
     let side = match o.class {
         ObjectClass::HBurning => Side::AtLeast,
         ObjectClass::BrownDwarf | ObjectClass::WhiteDwarf => Side::AtMost,
@@ -506,10 +562,6 @@ pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
         MassLimit::Upper => MassKind::UpperLimit { sigma },
         MassLimit::Lower => MassKind::LowerLimit { sigma },
     };
-    let scale = match o.class {
-        ObjectClass::WhiteDwarf => 4.0 / (mu_e * mu_e),
-        _ => 1.0,
-    };
     Measurement {
         mass_msun: o.mass_msun,
         kind,
@@ -520,16 +572,12 @@ pub fn measurement_of(o: &CatalogueObject, mu_e: f64) -> Measurement {
 
 /// Decides how each object enters the comparison (age rule of `docs/bounds.md` §5).
 pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Vec<ObjectUse> {
-    objects
-        .iter()
-        .enumerate()
-        .map(|(index, o)| plan_one(index, o, opts))
-        .collect()
+    objects.iter().map(|o| plan_one(o, opts)).collect()
 }
 
-/// [`plan`] for object `index` alone (a use depends on its own object only): a quick look
-/// over a large catalogue need not hold every use at once.
-pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
+/// [`plan`] for one object alone (a use depends on its own object only): a quick look over a
+/// large catalogue need not hold every use at once.
+pub fn plan_one(o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
     {
         {
             let mu_e = o.mu_e().get().unwrap_or(opts.default_mu_e);
@@ -586,9 +634,8 @@ pub fn plan_one(index: usize, o: &CatalogueObject, opts: &EngineOptions) -> Obje
                 }
             }
             ObjectUse {
-                index,
                 mass_term: if excluded.is_some() { None } else { Some(term) },
-                measurement,
+                bound_scale: measurement.scale,
                 radius_term,
                 excluded,
                 radius_excluded,
@@ -629,12 +676,19 @@ pub fn confront(
 
     // Each mass term's measurements in object order, made once: sorted for the counts and
     // lent to the bound terms and the population term (a copy for each was ≈ 100 MB at 10⁶
-    // objects).
+    // objects). Counted first and allocated to size: collected from a filter, a list grew by
+    // doubling to up to twice its length, and the lists are alive at the run's peak (while
+    // the bound terms are built).
     let class_list = |t: Term| -> Vec<Measurement> {
-        uses.iter()
-            .filter(|u| u.mass_term == Some(t))
-            .map(|u| u.measurement)
-            .collect()
+        let n = uses.iter().filter(|u| u.mass_term == Some(t)).count();
+        let mut list = Vec::with_capacity(n);
+        list.extend(
+            uses.iter()
+                .zip(objects)
+                .filter(|(u, _)| u.mass_term == Some(t))
+                .map(|(u, o)| u.measurement(o)),
+        );
+        list
     };
     let (hb, bd, wd) = (
         class_list(Term::HBurning),
@@ -855,8 +909,8 @@ pub fn prepare_radius_objects(
 ) -> Vec<ObjectRadius> {
     let mut out: Vec<ObjectRadius> = Vec::new();
     let mut queries: Vec<WdQuery> = Vec::new();
-    for u in uses.iter().filter(|u| u.radius_term) {
-        let o = &objects[u.index];
+    for (index, u) in uses.iter().enumerate().filter(|(_, u)| u.radius_term) {
+        let o = &objects[index];
         let (Some(r), Some(e)) = (o.radius_rsun().get(), o.radius_err_rsun().get()) else {
             continue;
         };
@@ -882,7 +936,7 @@ pub fn prepare_radius_objects(
             });
         }
         out.push(ObjectRadius {
-            index: u.index,
+            index,
             radius_rsun: r,
             radius_err_rsun: e,
             nodes,
@@ -1013,30 +1067,44 @@ pub fn radius_mass_nodes(o: &CatalogueObject) -> Vec<(f64, f64)> {
         .collect()
 }
 
-/// ln P of one object's mass test against a bound value of its class (scaled by μe for white
-/// dwarfs), with the class floor; `None` if the object has no mass test.
-pub fn ln_p_object(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
-    let floor = match u.mass_term? {
-        Term::WhiteDwarfMass => opts.chandrasekhar_floor_msun,
-        _ => opts.mmhb_floor_msun,
-    };
+/// ln P of one object's mass test `term` (its measurement `m`) against a bound value of its
+/// class (scaled by μe for white dwarfs), with the class floor.
+pub fn ln_p_object(
+    term: Term,
+    m: &Measurement,
+    class_bound_msun: f64,
+    opts: &EngineOptions,
+) -> f64 {
     // The measurement's own scale (μe of a white dwarf) is applied inside.
-    Some(ln_prob_consistent(&u.measurement, class_bound_msun, floor))
+    ln_prob_consistent(m, class_bound_msun, class_floor(term, opts))
 }
 
-/// Tension in σ of one object against its class bound (see [`ln_p_object`]): z = −Φ⁻¹(P),
-/// positive on the wrong side. For P > ½ it is computed from 1 − P (the probability of the
-/// opposite side), so that objects far on the safe side keep a finite, exact z instead of
-/// rounding P to 1. `None` for an object without a mass test or an uninformative limit.
-pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
-    let ln_p = ln_p_object(u, class_bound_msun, opts)?;
-    if !u.measurement.informative() {
+/// The theory floor of a mass term's bound (1σ, class value).
+fn class_floor(term: Term, opts: &EngineOptions) -> f64 {
+    match term {
+        Term::WhiteDwarfMass => opts.chandrasekhar_floor_msun,
+        _ => opts.mmhb_floor_msun,
+    }
+}
+
+/// Tension in σ of one object's mass test against its class bound (see [`ln_p_object`]):
+/// z = −Φ⁻¹(P), positive on the wrong side. For P > ½ it is computed from 1 − P (the
+/// probability of the opposite side), so that objects far on the safe side keep a finite,
+/// exact z instead of rounding P to 1. `None` for an uninformative limit.
+pub fn tension_of(
+    term: Term,
+    m: &Measurement,
+    class_bound_msun: f64,
+    opts: &EngineOptions,
+) -> Option<f64> {
+    let ln_p = ln_p_object(term, m, class_bound_msun, opts);
+    if !m.informative() {
         return None;
     }
     if ln_p <= -std::f64::consts::LN_2 {
         return Some(tension_sigma(ln_p));
     }
-    safe_side_tension(u, class_bound_msun, opts)
+    safe_side_tension(term, m, class_bound_msun, opts)
 }
 
 /// [`tension_of`] where it is positive: `Some(z)` (the same value) when P ≤ ½, `None` for an
@@ -1044,28 +1112,29 @@ pub fn tension_of(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) ->
 /// A caller that keeps only tensions above a threshold of 1σ or more loses nothing: on the
 /// safe side z = Φ⁻¹(1 − P) ≤ 0 up to rounding.
 pub fn wrong_side_tension(
-    u: &ObjectUse,
+    term: Term,
+    m: &Measurement,
     class_bound_msun: f64,
     opts: &EngineOptions,
 ) -> Option<f64> {
-    let ln_p = ln_p_object(u, class_bound_msun, opts)?;
-    if !u.measurement.informative() || ln_p > -std::f64::consts::LN_2 {
+    let ln_p = ln_p_object(term, m, class_bound_msun, opts);
+    if !m.informative() || ln_p > -std::f64::consts::LN_2 {
         return None;
     }
     Some(tension_sigma(ln_p))
 }
 
 /// The safe-side branch of [`tension_of`] (P > ½): z from 1 − P.
-fn safe_side_tension(u: &ObjectUse, class_bound_msun: f64, opts: &EngineOptions) -> Option<f64> {
-    let m = &u.measurement;
-    let floor = match u.mass_term? {
-        Term::WhiteDwarfMass => opts.chandrasekhar_floor_msun,
-        _ => opts.mmhb_floor_msun,
-    };
+fn safe_side_tension(
+    term: Term,
+    m: &Measurement,
+    class_bound_msun: f64,
+    opts: &EngineOptions,
+) -> Option<f64> {
+    let floor = class_floor(term, opts);
     match m.kind {
         MassKind::Measured { .. } => {
-            // What `ln_p_object` computes for the flipped side (only the measurement is
-            // needed: a clone of the whole use was a String and flags per object).
+            // What `ln_p_object` computes for the flipped side.
             let mut flipped = *m;
             flipped.side = match m.side {
                 Side::AtLeast => Side::AtMost,
@@ -1095,9 +1164,51 @@ mod tests {
     #[test]
     fn a_use_stays_compact() {
         // One use per object is held until the outputs are written (a million of them in a
-        // large run): 144 bytes before the reasons became codes and the spilled flags a box.
-        assert_eq!(std::mem::size_of::<ObjectUse>(), 88);
+        // large run): 144 bytes before the reasons became codes and the spilled flags a box,
+        // 88 while it held its measurement (48 bytes, made again from the object since) and
+        // its own index (use k is object k). What is left: the flags (16), μe and the bound
+        // scale (8 each), five one-byte codes, padded to 40.
+        assert_eq!(std::mem::size_of::<ObjectUse>(), 40);
         assert_eq!(std::mem::size_of::<Flags>(), 16);
+    }
+
+    #[test]
+    fn a_measurement_made_again_is_the_one_planned() {
+        // The use holds no measurement: every consumer makes it again from the object, and
+        // the outputs stay byte-identical only if that is the measurement the plan made, to
+        // the bit (common practice, no source). Each mass kind, both sides, μe ≠ 2.
+        // Objects read from a catalogue's text, as a run reads them.
+        let mut text = String::from("id,class,mass,mass_err_lo,mass_err_hi,mass_limit,mu_e\n");
+        let mut n = 0;
+        for class in ["hburning", "brown_dwarf", "white_dwarf"] {
+            for limit in ["", "upper", "lower"] {
+                for errs in ["0.01,0.03", ",0.02", ","] {
+                    for mu_e in ["", "2.3"] {
+                        n += 1;
+                        text += &format!("X{n},{class},0.6,{errs},{limit},{mu_e}\n");
+                    }
+                }
+            }
+        }
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("m.csv");
+        std::fs::write(&path, text).unwrap();
+        let objects = crate::catalogue::vet_files(&[path], None, &Default::default())
+            .unwrap()
+            .objects;
+        let kinds: std::collections::HashSet<_> = objects
+            .iter()
+            .map(|o| (o.class.label(), o.mass_limit.label(), o.mu_e().is_some()))
+            .collect();
+        assert!(kinds.len() >= 9, "{kinds:?}");
+        let opts = super::EngineOptions::default();
+        for o in &objects {
+            let u = super::plan_one(o, &opts);
+            let planned = super::measurement_of(o, u.mu_e);
+            let again = u.measurement(o);
+            assert_eq!(again, planned);
+            assert_eq!(again.scale.to_bits(), planned.scale.to_bits());
+        }
     }
 
     #[test]

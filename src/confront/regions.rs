@@ -470,22 +470,35 @@ pub struct Crowding {
 
 /// The §8.7 check: how many informative objects of each opposing MMHB class lie within
 /// `z_window` σ (in the sense of their own tension, floor included) of the MMHB at the best fit.
-pub fn crowding(
-    hburning: &[Measurement],
-    brown_dwarf: &[Measurement],
+///
+/// The classes are read once, in order, as any iterator of measurements (a slice's, or
+/// measurements made one at a time from the objects, so that a large catalogue's are not
+/// copied for a count).
+pub fn crowding<H, B>(
+    hburning: H,
+    brown_dwarf: B,
     mmhb_msun: f64,
     floor_msun: f64,
     opts: &CrowdingOptions,
-) -> Crowding {
-    let near = |ms: &[Measurement]| {
-        ms.iter()
-            .filter(|m| m.informative())
-            .filter(|m| {
-                tension_sigma(ln_prob_consistent(m, mmhb_msun, floor_msun)).abs() <= opts.z_window
-            })
-            .count()
+) -> Crowding
+where
+    H: IntoIterator,
+    H::Item: std::borrow::Borrow<Measurement>,
+    B: IntoIterator,
+    B::Item: std::borrow::Borrow<Measurement>,
+{
+    let near = |m: &Measurement| {
+        m.informative()
+            && tension_sigma(ln_prob_consistent(m, mmhb_msun, floor_msun)).abs() <= opts.z_window
     };
-    let (h, b) = (near(hburning), near(brown_dwarf));
+    let h = hburning
+        .into_iter()
+        .filter(|m| near(std::borrow::Borrow::borrow(m)))
+        .count();
+    let b = brown_dwarf
+        .into_iter()
+        .filter(|m| near(std::borrow::Borrow::borrow(m)))
+        .count();
     Crowding {
         n_hburning_near: h,
         n_brown_dwarf_near: b,

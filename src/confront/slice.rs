@@ -47,6 +47,7 @@ use super::wd_radius::{
     radius_term_from, radius_total_from, radius_totals_leaving_out, shared_nuisance, split_floor,
     warm_started, ObjectRadius, RadiusTerm,
 };
+use crate::catalogue::CatalogueObject;
 use crate::theory::white_dwarf::RadiusQueries;
 
 /// The ϒ interval at τ = 0 is read on a grid this many times finer than the ϒ axis (the
@@ -529,6 +530,7 @@ fn spin_terms_on_fine_axis(
 /// show the two intervals side by side, which is the effect of the shared systematics.
 pub fn tau0_slice_other_floor(
     conf: &Confrontation,
+    objects: &[CatalogueObject],
     surface: &dyn BoundSurface,
     eopts: &EngineOptions,
     main: &SliceResult,
@@ -557,11 +559,7 @@ pub fn tau0_slice_other_floor(
         let ms: Vec<(Term, Vec<Measurement>)> = classes
             .into_iter()
             .map(|t| {
-                let v = conf
-                    .members(t)
-                    .iter()
-                    .map(|&k| conf.uses[k].measurement)
-                    .collect::<Vec<_>>();
+                let v = conf.member_measurements(objects, t).collect::<Vec<_>>();
                 (t, v)
             })
             .filter(|(_, v)| !v.is_empty())

@@ -184,7 +184,7 @@ pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
 /// The slow-rotation change of one brown dwarf's or star's MMHB at every grid point.
 ///
 /// The object's mass test runs inside its class's term with the standard-gravity factor
-/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`ObjectUse::measurement`]'s scale). At a grid point the
+/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`ObjectUse::bound_scale`]). At a grid point the
 /// first-order factor is f = 1 + v (d ln M/dv), with the coefficients of the n = 3/2 polytrope
 /// of that point's (ϒ, τ) ([`BoundSurface::slow_rotation_n32`]) and v = Ω²/(2πGρ_c) from that
 /// polytrope's central density for the object's radius there (measured, or cold at the point).
@@ -688,12 +688,12 @@ pub fn prepare(
                     if is_wd {
                         spin.radius_factor = 1.0 + change;
                     } else {
-                        u.measurement.scale *= 1.0 + change;
+                        u.bound_scale *= 1.0 + change;
                         if u.mass_term.is_some() {
                             let omega = 2.0 * std::f64::consts::PI / spin.period_s;
                             spin.mmhb = Some(MmhbSlowRotation {
                                 omega2_per_s2: omega * omega,
-                                measurement: u.measurement,
+                                measurement: u.measurement(o),
                                 factor_standard: 1.0 + change,
                                 floor_msun: opts.mmhb_floor_msun,
                             });

@@ -23,12 +23,9 @@
 //! assert!(t[0].1 > 3.0);
 //! ```
 
-use std::collections::BTreeSet;
-
 use rayon::prelude::*;
 
 use super::engine::{self, BoundSurface, Confrontation, EngineOptions, ObjectUse, Term};
-use super::prob::Measurement;
 use super::regions::{
     absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
 };
@@ -56,6 +53,24 @@ impl ReferencePoint {
             Term::HBurning | Term::BrownDwarf => self.mmhb_msun,
             Term::WhiteDwarfRadius | Term::Spin => None,
         }
+    }
+
+    /// The bound object `o` faces at this point, M☉: its class's bound scaled to the object
+    /// by its use `u` (by (2/μe)² for a white dwarf, by the slow-rotation factor of a spinning
+    /// star), for every object, also one left out of the fit. Made when it is written rather
+    /// than held per object (one product).
+    pub fn object_bound(&self, o: &CatalogueObject, u: &ObjectUse) -> Option<f64> {
+        self.class_bound(class_term(o.class))
+            .map(|b| b * u.bound_scale)
+    }
+}
+
+/// The mass test of an object's class (whether or not the object is in it).
+fn class_term(class: ObjectClass) -> Term {
+    match class {
+        ObjectClass::HBurning => Term::HBurning,
+        ObjectClass::BrownDwarf => Term::BrownDwarf,
+        ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
     }
 }
 
@@ -102,27 +117,60 @@ pub struct Tension {
     pub test: TensionTest,
 }
 
-/// One object's results at the two reference points (bounds scaled to the object, e.g. by
-/// (2/μe)² for a white dwarf).
+/// One object's tensions with its class's mass bound at the two reference points.
 ///
-/// One per object, held while the outputs are written: the optional numbers are [`OptF64`]
-/// (56 bytes in all; seven `Option<f64>` were 112).
+/// One per object, held while the outputs are written, so it holds only what is costly to
+/// make again: the optional numbers are [`OptF64`] (seven `Option<f64>` were 112 bytes), and
+/// the object's bounds there ([`ReferencePoint::object_bound`], one product) and the ln P of
+/// its mass test at the best fit (asked only by [`consistency_at_best`], which makes it) are
+/// not held; the radius tensions, which only white dwarfs in the radius test have, are in
+/// [`Verdicts::radius`] (56 → 16 bytes).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ObjectVerdict {
-    /// Its class bound at standard gravity, M☉.
-    pub bound_standard: OptF64,
-    /// Its class bound at the best fit, M☉.
-    pub bound_best: OptF64,
     /// Tension with its class bound at standard gravity, σ.
     pub sigma_standard: OptF64,
     /// Tension with its class bound at the best fit, σ.
     pub sigma_best: OptF64,
-    /// ln P of its mass test at the best fit, for objects in the fit with an informative mass.
-    pub ln_p_best: OptF64,
+}
+
+/// The radius tensions of one white dwarf in the radius test.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RadiusVerdict {
+    /// Index of the object.
+    pub object: usize,
     /// Signed tension of its radius with the standard-gravity mass–radius relation, σ.
-    pub radius_sigma_standard: OptF64,
+    pub sigma_standard: Option<f64>,
     /// Signed tension of its radius at the best fit, σ (enters the verdict).
-    pub radius_sigma_best: OptF64,
+    pub sigma_best: Option<f64>,
+}
+
+/// Every object's verdicts ([`object_verdicts`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Verdicts {
+    /// Each object's mass-bound tensions, in object order.
+    pub objects: Vec<ObjectVerdict>,
+    /// The radius tensions of the objects in the radius test, by object index (ascending).
+    pub radius: Vec<RadiusVerdict>,
+}
+
+impl Verdicts {
+    /// Object `k`'s radius tensions, if it is in the radius test.
+    pub fn radius_of(&self, k: usize) -> Option<&RadiusVerdict> {
+        self.radius
+            .binary_search_by_key(&k, |r| r.object)
+            .ok()
+            .map(|i| &self.radius[i])
+    }
+
+    /// Object `k`'s signed radius tension at standard gravity, σ.
+    pub fn radius_sigma_standard(&self, k: usize) -> Option<f64> {
+        self.radius_of(k).and_then(|r| r.sigma_standard)
+    }
+
+    /// Object `k`'s signed radius tension at the best fit, σ.
+    pub fn radius_sigma_best(&self, k: usize) -> Option<f64> {
+        self.radius_of(k).and_then(|r| r.sigma_best)
+    }
 }
 
 /// Each object's verdicts at `standard` and `best`, in the order of `objects` (`uses` is the
@@ -139,81 +187,75 @@ pub fn object_verdicts(
     surface: &dyn BoundSurface,
     best_index: usize,
     eopts: &EngineOptions,
-) -> Vec<ObjectVerdict> {
+) -> Verdicts {
     let best_upsilon = surface
         .upsilon()
         .get(best_index % surface.upsilon().len().max(1))
         .copied()
         .unwrap_or(0.0);
-    // Each object's radius test and spin, found by position (a search of the lists per object
-    // was quadratic in a catalogue of white dwarfs with radii).
-    let mut radius_of: Vec<Option<&ObjectRadius>> = vec![None; objects.len()];
-    for r in radius_objects {
-        if let Some(slot) = radius_of.get_mut(r.index) {
-            slot.get_or_insert(r);
-        }
-    }
-    let mut spin_of: Vec<Option<&ObjectSpin>> = vec![None; objects.len()];
-    for sp in spins.iter().filter(|s| s.radius_factor != 1.0) {
-        if let Some(slot) = spin_of.get_mut(sp.index) {
-            slot.get_or_insert(sp);
-        }
-    }
-    objects
+    let mass = objects
         .par_iter()
         .zip(uses)
-        .enumerate()
-        .map(|(k, (o, u))| {
-            let term = match o.class {
-                ObjectClass::HBurning => Term::HBurning,
-                ObjectClass::BrownDwarf => Term::BrownDwarf,
-                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
-            };
-            let scale = u.measurement.scale;
-            let bs = standard.class_bound(term);
-            let bb = best.class_bound(term);
-            let mut as_used = u.clone();
-            as_used.mass_term = Some(term);
+        .map(|(o, u)| {
+            let term = class_term(o.class);
+            let m = u.measurement(o);
+            // Every object against its class's test, also one left out of the fit.
             let sigma = |b: Option<f64>| {
-                b.and_then(|b| engine::tension_of(&as_used, b, eopts))
+                b.and_then(|b| engine::tension_of(term, &m, b, eopts))
                     .filter(|z| z.is_finite())
             };
-            let radius = radius_of[k].filter(|_| u.radius_term);
-            let radius_sigma_standard = radius.and_then(ObjectRadius::standard_tension);
-            let radius_sigma_best = radius.and_then(|r| {
-                let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
-                // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
-                let spun = spin_of[k].map_or(1.0, |s| {
-                    s.radius_factor_at(surface, best_index) / s.radius_factor
-                });
-                r.tension_at(
-                    cold.first().copied().flatten().map(|c| c * spun),
-                    best_upsilon,
-                )
-            });
             ObjectVerdict {
-                bound_standard: bs.map(|b| b * scale).into(),
-                bound_best: bb.map(|b| b * scale).into(),
-                sigma_standard: sigma(bs).into(),
-                sigma_best: sigma(bb).into(),
-                ln_p_best: if u.mass_term.is_some() && u.measurement.informative() {
-                    bb.and_then(|b| engine::ln_p_object(u, b, eopts)).into()
-                } else {
-                    OptF64::NONE
-                },
-                radius_sigma_standard: radius_sigma_standard.into(),
-                radius_sigma_best: radius_sigma_best.into(),
+                sigma_standard: sigma(standard.class_bound(term)).into(),
+                sigma_best: sigma(best.class_bound(term)).into(),
             }
         })
-        .collect()
+        .collect();
+    // Each spinning white dwarf's spin test, found by index (the first one of an object).
+    let mut spin_of: std::collections::HashMap<usize, &ObjectSpin> = Default::default();
+    for sp in spins.iter().filter(|s| s.radius_factor != 1.0) {
+        spin_of.entry(sp.index).or_insert(sp);
+    }
+    // The radius tests by object index (an object's first test only; the engine makes them in
+    // object order, so the sort only guards the lookup).
+    let mut seen = std::collections::HashSet::new();
+    let mut tests: Vec<&ObjectRadius> = radius_objects
+        .iter()
+        .filter(|r| r.index < objects.len() && uses.get(r.index).is_some_and(|u| u.radius_term))
+        .filter(|r| seen.insert(r.index))
+        .collect();
+    tests.sort_by_key(|r| r.index);
+    let radius = tests
+        .par_iter()
+        .map(|r| {
+            let k = r.index;
+            let (o, u) = (&objects[k], &uses[k]);
+            let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
+            // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
+            let spun = spin_of.get(&k).map_or(1.0, |s| {
+                s.radius_factor_at(surface, best_index) / s.radius_factor
+            });
+            RadiusVerdict {
+                object: k,
+                sigma_standard: r.standard_tension(),
+                sigma_best: r.tension_at(
+                    cold.first().copied().flatten().map(|c| c * spun),
+                    best_upsilon,
+                ),
+            }
+        })
+        .collect();
+    Verdicts {
+        objects: mass,
+        radius,
+    }
 }
 
 /// The objects in tension with standard gravity above `threshold_sigma`, largest |σ| first (ties
 /// by object). Mass-bound tensions are one-sided (positive = wrong side of the bound); radius
 /// tensions are two-sided, listed by their absolute value.
-pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<Tension> {
+pub fn tensions_above(verdicts: &Verdicts, threshold_sigma: f64) -> Vec<Tension> {
     let mut tensions: Vec<Tension> = Vec::new();
-    for (k, r) in verdicts.iter().enumerate() {
+    for (k, r) in verdicts.objects.iter().enumerate() {
         if let Some(z) = r.sigma_standard.get().filter(|&z| z > threshold_sigma) {
             tensions.push(Tension {
                 object: k,
@@ -221,13 +263,13 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
                 test: TensionTest::MassBound,
             });
         }
-        if let Some(z) = r
-            .radius_sigma_standard
-            .get()
-            .filter(|z| z.abs() > threshold_sigma)
-        {
+    }
+    // After every mass-bound tension: the sort below is stable, so an object's two tests of
+    // equal |σ| keep the mass test first, as when both were pushed object by object.
+    for r in &verdicts.radius {
+        if let Some(z) = r.sigma_standard.filter(|z| z.abs() > threshold_sigma) {
             tensions.push(Tension {
-                object: k,
+                object: r.object,
                 sigma: z,
                 test: TensionTest::MassRadius,
             });
@@ -248,31 +290,46 @@ pub fn tensions_above(verdicts: &[ObjectVerdict], threshold_sigma: f64) -> Vec<T
 /// cannot constrain any grid point must not dilute the look-elsewhere factor (the paper's
 /// statistics section). Keys of the returned tests: the object index for a mass test, plus the
 /// object count for a radius test, plus twice the object count for a spin test
-/// ([`TestKey`] decodes them).
+/// ([`TestKey`] decodes them). `objects` is the list the comparison was made of, `best` the
+/// best fit's bounds.
 pub fn consistency_at_best(
     conf: &Confrontation,
-    verdicts: &[ObjectVerdict],
+    objects: &[CatalogueObject],
+    best: &ReferencePoint,
+    eopts: &EngineOptions,
+    verdicts: &Verdicts,
     spins: &[SpinVerdict],
 ) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
-    let mut counted = BTreeSet::new();
+    let mut counted: Vec<usize> = Vec::new();
     for (term, counts) in &conf.class_counts {
         let members = conf.members(*term);
         counted.extend(counts.informative_indices().iter().map(|&j| members[j]));
     }
-    let mut ln_ps: Vec<(usize, f64)> = verdicts
-        .iter()
-        .enumerate()
-        .filter(|(k, _)| counted.contains(k))
-        .filter_map(|(k, r)| r.ln_p_best.get().map(|l| (k, l)))
+    counted.sort_unstable();
+    counted.dedup();
+    // The ln P of each counted object's mass test at the best fit, in object order: made here,
+    // the one place that asks for it, rather than held in every object's verdict.
+    let mut ln_ps: Vec<(usize, f64)> = counted
+        .par_iter()
+        .filter_map(|&k| {
+            let (o, u) = (objects.get(k)?, conf.uses.get(k)?);
+            let term = u.mass_term?;
+            let m = u.measurement(o);
+            if !m.informative() {
+                return None;
+            }
+            let b = best.class_bound(term)?;
+            Some((k, engine::ln_p_object(term, &m, b, eopts)))
+        })
         .collect();
     // Every test in the likelihood enters the verdict: the radius tests too, each as its
     // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
     // dwarf's two tests stay distinct).
-    let n_obj = verdicts.len();
-    for (k, r) in verdicts.iter().enumerate() {
-        if let Some(z) = r.radius_sigma_best.get().filter(|z| z.is_finite()) {
+    let n_obj = verdicts.objects.len();
+    for r in &verdicts.radius {
+        if let Some(z) = r.sigma_best.filter(|z| z.is_finite()) {
             let ln_p = super::prob::ln_normal_cdf(-z.abs()) + std::f64::consts::LN_2;
-            ln_ps.push((n_obj + k, ln_p.min(0.0)));
+            ln_ps.push((n_obj + r.object, ln_p.min(0.0)));
         }
     }
     // The spin tests, one-sided like the mass tests, each with its own ln P at the best fit;
@@ -336,17 +393,18 @@ fn verdict_failures(ln_ps: &[(usize, f64)]) -> Vec<(usize, f64)> {
 }
 
 /// The crowding check at an MMHB of `mmhb_msun` (the best fit's) with the MMHB floor
-/// `floor_msun`, over the objects in the hydrogen-burning and brown-dwarf tests.
-pub fn crowding_at(conf: &Confrontation, mmhb_msun: f64, floor_msun: f64) -> Crowding {
-    let of = |term: Term| -> Vec<Measurement> {
-        conf.members(term)
-            .iter()
-            .map(|&k| conf.uses[k].measurement)
-            .collect()
-    };
+/// `floor_msun`, over the objects in the hydrogen-burning and brown-dwarf tests (`objects` is
+/// the list the comparison was made of). Each measurement is made again as it is counted: two
+/// copies of them were 41 MB at 10⁶ objects, at the run's peak.
+pub fn crowding_at(
+    conf: &Confrontation,
+    objects: &[CatalogueObject],
+    mmhb_msun: f64,
+    floor_msun: f64,
+) -> Crowding {
     crowding(
-        &of(Term::HBurning),
-        &of(Term::BrownDwarf),
+        conf.member_measurements(objects, Term::HBurning),
+        conf.member_measurements(objects, Term::BrownDwarf),
         mmhb_msun,
         floor_msun,
         &CrowdingOptions::default(),
@@ -371,15 +429,16 @@ pub fn mass_tensions(
         .par_iter()
         .enumerate()
         .filter_map(|(index, o)| {
-            let u = engine::plan_one(index, o, eopts);
+            let u = engine::plan_one(o, eopts);
             let term = u.mass_term?;
             let b = point.class_bound(term)?;
+            let m = u.measurement(o);
             let z = if wrong_side_only {
-                engine::wrong_side_tension(&u, b, eopts)?
+                engine::wrong_side_tension(term, &m, b, eopts)?
             } else {
-                engine::tension_of(&u, b, eopts)?
+                engine::tension_of(term, &m, b, eopts)?
             };
-            (z.is_finite() && z > threshold_sigma).then_some((u.index, z))
+            (z.is_finite() && z > threshold_sigma).then_some((index, z))
         })
         .collect();
     out.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
@@ -391,23 +450,24 @@ pub fn mass_tensions(
 /// probability in the fit ([`Confrontation::ln_p_in_fit`]: the bound's shared shift at its
 /// profiled value there, the per-object scatter, the calibrated probability where that model
 /// is used); above P = ½ through 1 − P, without loss of digits. `None` without an informative
-/// mass test or when P rounds to 1.
+/// mass test or when P rounds to 1. `objects` is the list the comparison was made of.
 pub fn mass_sigma_in_fit(
     conf: &Confrontation,
+    objects: &[CatalogueObject],
     surface: &dyn BoundSurface,
     k: usize,
     index: usize,
 ) -> Option<f64> {
     let u = conf.uses.get(k)?;
     let term = u.mass_term?;
-    if !u.measurement.informative() {
+    if !conf.measurement(objects, k)?.informative() {
         return None;
     }
     let b = match term {
         Term::WhiteDwarfMass => surface.chandrasekhar_mu2_msun(index),
         _ => surface.mmhb_msun(index),
     }?;
-    let ln_p = conf.ln_p_in_fit(k, b)?;
+    let ln_p = conf.ln_p_in_fit(objects, k, b)?;
     let z = super::prob::tension_sigma(ln_p);
     z.is_finite().then_some(z)
 }
@@ -416,7 +476,10 @@ pub fn mass_sigma_in_fit(
 mod tests {
     #[test]
     fn a_verdict_stays_compact() {
-        // One verdict per object is held while the outputs are written (see its doc comment).
-        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 56);
+        // One verdict per object is held while the outputs are written (see its doc comment):
+        // 56 bytes while it also held the object's two bounds and its ln P at the best fit
+        // (each made again where it is asked for since) and its two radius tensions (now in a
+        // list of the white dwarfs in the radius test, `Verdicts::radius`).
+        assert_eq!(std::mem::size_of::<super::ObjectVerdict>(), 16);
     }
 }

@@ -273,7 +273,13 @@ pub fn run_confrontation(
     // The same slice with the other treatment of the theory floors (shared or per object),
     // and the profile and flat-prior posterior readings of the map.
     let slice_other_floor = match &slice {
-        Some(s) => Some(tau0_slice_other_floor(&conf, &surface, &eopts, s)?),
+        Some(s) => Some(tau0_slice_other_floor(
+            &conf,
+            &vetted.objects,
+            &surface,
+            &eopts,
+            s,
+        )?),
         None => None,
     };
     steps.step("profile and posterior");
@@ -283,19 +289,20 @@ pub fn run_confrontation(
     // 4. Drivers of the ϒ interval on the τ = 0 slice, under the likelihood used.
     steps.step("drivers");
     let drivers = match &slice {
-        Some(s) => slice_drivers_in_fit(&conf, s, &DriverOptions::default())?,
+        Some(s) => slice_drivers_in_fit(&conf, &vetted.objects, s, &DriverOptions::default())?,
         None => Vec::new(),
     };
 
     // 5. Per-object verdicts at standard gravity and at the best fit; tensions.
     steps.step("per-object verdicts");
+    let (standard_bounds, best_bounds) = (class_bounds(&standard), class_bounds(best_point));
     let verdicts = object_verdicts(
         &vetted.objects,
         &conf.uses,
         &conf.radius_objects,
         &conf.spins,
-        &class_bounds(&standard),
-        &class_bounds(best_point),
+        &standard_bounds,
+        &best_bounds,
         &surface,
         best_index,
         &eopts,
@@ -305,11 +312,18 @@ pub fn run_confrontation(
         crate::confront::spin::spin_verdicts(&conf.spins, &conf.spin_spans, &surface, best_index);
 
     // 6. Absolute consistency at the best fit (Šidák) and the crowding warning.
-    let (consistency, verdict_failures) = consistency_at_best(&conf, &verdicts, &spin_verdicts);
+    let (consistency, verdict_failures) = consistency_at_best(
+        &conf,
+        &vetted.objects,
+        &best_bounds,
+        &eopts,
+        &verdicts,
+        &spin_verdicts,
+    );
     let crowd = best_point
         .mmhb
         .ok()
-        .map(|m| crowding_at(&conf, m.value_msun, eopts.mmhb_floor_msun));
+        .map(|m| crowding_at(&conf, &vetted.objects, m.value_msun, eopts.mmhb_floor_msun));
 
     steps.finish();
     let outputs_started = std::time::Instant::now();
@@ -327,6 +341,8 @@ pub fn run_confrontation(
         profile: &profile,
         posterior: &post,
         verdicts: &verdicts,
+        standard_bounds,
+        best_bounds,
         spin_verdicts: &spin_verdicts,
         drivers: &drivers,
         tensions: &tensions,

@@ -26,7 +26,9 @@ use crate::confront::regions::Interval;
 use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions};
 use crate::confront::slice::SliceResult;
 use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
-use crate::confront::tension::{mass_sigma_in_fit, ObjectVerdict, Tension, TensionTest, TestKey};
+use crate::confront::tension::{
+    mass_sigma_in_fit, ReferencePoint, Tension, TensionTest, TestKey, Verdicts,
+};
 use crate::report::{self, tables::Cell};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
@@ -126,7 +128,11 @@ pub(crate) struct OutputContext<'a> {
     /// The flat-prior posterior.
     pub posterior: &'a Posterior,
     /// Per object, in the order of `vetted.objects`.
-    pub verdicts: &'a [ObjectVerdict],
+    pub verdicts: &'a Verdicts,
+    /// The bounds at standard gravity (each object's is made from them when written).
+    pub standard_bounds: ReferencePoint,
+    /// The bounds at the best fit.
+    pub best_bounds: ReferencePoint,
     /// The spin tests, one per object with a rotation period and a measured mass.
     pub spin_verdicts: &'a [SpinVerdict],
     /// The drivers, by rank.
@@ -165,7 +171,7 @@ fn opt_json(x: Option<f64>) -> Value {
 impl OutputContext<'_> {
     /// Tension of object `k` at the best fit, if it has one.
     pub(crate) fn sigma_best(&self, k: usize) -> Option<f64> {
-        self.verdicts[k].sigma_best.get()
+        self.verdicts.objects[k].sigma_best.get()
     }
 
     /// Drivers as (rank, object index, shift), by rank.
@@ -184,7 +190,13 @@ impl OutputContext<'_> {
 
     /// One-sided tension of object `k`'s mass test at the best fit under the likelihood used.
     pub(crate) fn sigma_best_in_fit(&self, k: usize) -> Option<f64> {
-        mass_sigma_in_fit(self.conf, self.surface, k, self.best_index)
+        mass_sigma_in_fit(
+            self.conf,
+            &self.vetted.objects,
+            self.surface,
+            k,
+            self.best_index,
+        )
     }
 
     /// The σ of the test through which object `k` drives the interval, at the best fit: the
@@ -193,7 +205,7 @@ impl OutputContext<'_> {
     pub(crate) fn driver_sigma(&self, k: usize) -> Option<f64> {
         match self.driver_test(k)? {
             TensionTest::MassBound => self.sigma_best_in_fit(k),
-            TensionTest::MassRadius => self.verdicts[k].radius_sigma_best.get(),
+            TensionTest::MassRadius => self.verdicts.radius_sigma_best(k),
             TensionTest::Spin => self
                 .spin_verdicts
                 .iter()
@@ -236,7 +248,7 @@ impl OutputContext<'_> {
         sv: Option<&SpinVerdict>,
         copies: &[(usize, f64)],
     ) -> Vec<Cell> {
-        let r = &self.verdicts[k];
+        let r = &self.verdicts.objects[k];
         let driver_rank = driver.map(|d| d.0);
         let driver_shift = driver.map(|d| d.1);
         let o = self.object(k);
@@ -254,13 +266,15 @@ impl OutputContext<'_> {
             Cell::Float(o.radius_err_rsun().get()),
             Cell::Float(o.age_gyr().get()),
             Cell::Float(Some(u.mu_e)),
-            Cell::Bool(Some(u.mass_term.is_some() && u.measurement.informative())),
+            Cell::Bool(Some(
+                u.mass_term.is_some() && u.measurement(o).informative(),
+            )),
             Cell::Text(u.flags.join(";")),
-            Cell::Float(r.bound_standard.get()),
-            Cell::Float(r.bound_best.get()),
+            Cell::Float(self.standard_bounds.object_bound(o, u)),
+            Cell::Float(self.best_bounds.object_bound(o, u)),
             Cell::Float(r.sigma_standard.get()),
             Cell::Float(r.sigma_best.get()),
-            Cell::Float(r.radius_sigma_standard.get()),
+            Cell::Float(self.verdicts.radius_sigma_standard(k)),
             match driver_rank {
                 Some(x) => Cell::Int(x as i64),
                 None => Cell::Text(String::new()),
@@ -268,7 +282,7 @@ impl OutputContext<'_> {
             Cell::Float(driver_shift.filter(|s| s.is_finite())),
             Cell::Bool(driver_shift.map(|s| s.is_infinite())),
             Cell::Float(self.sigma_best_in_fit(k)),
-            Cell::Float(r.radius_sigma_best.get()),
+            Cell::Float(self.verdicts.radius_sigma_best(k)),
             Cell::Text(
                 self.driver_test(k)
                     .map(|t| t.name().to_string())
@@ -324,7 +338,7 @@ impl OutputContext<'_> {
         format: ObjectsFormat,
     ) -> Result<(), PipelineError> {
         let bar = crate::progress::bar(
-            self.verdicts.len() as u64,
+            self.verdicts.objects.len() as u64,
             match format {
                 ObjectsFormat::Csv => "writing objects.csv",
                 ObjectsFormat::Parquet => "writing objects.parquet",
@@ -355,7 +369,7 @@ impl OutputContext<'_> {
         // Rows built and rendered in parallel a block at a time (each row's σ in the fit
         // rebuilds the object's calibrated table: seconds at 10⁶ objects on one thread),
         // written in order.
-        let n = self.verdicts.len();
+        let n = self.verdicts.objects.len();
         let mut start = 0;
         while start < n {
             let end = (start + OBJECT_ROW_BLOCK).min(n);
@@ -404,7 +418,7 @@ impl OutputContext<'_> {
         let mut writer = ParquetWriter::new(out).batched(&schema).map_err(fail)?;
         let drivers = self.drivers_by_object();
         let spins = self.spins_by_object();
-        let n = self.verdicts.len();
+        let n = self.verdicts.objects.len();
         let mut start = 0;
         while start < n || (n == 0 && start == 0) {
             let end = (start + PARQUET_ROW_GROUP).min(n);

@@ -199,8 +199,7 @@ fn model_curves(ctx: &OutputContext<'_>) -> (Vec<ModelCurve>, usize, String) {
 /// The white-dwarf diagram, or `None` when no white dwarf has a radius.
 fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
     let mut points = Vec::new();
-    for u in &ctx.conf.uses {
-        let k = u.index;
+    for (k, u) in ctx.conf.uses.iter().enumerate() {
         let o = ctx.vetted.objects.get(k)?;
         let Some(radius_rsun) = o.radius_rsun().get().filter(|r| *r > 0.0) else {
             continue;
@@ -232,8 +231,7 @@ fn wd_mass_radius(ctx: &OutputContext<'_>) -> Option<WdMassRadius> {
             teff_k: o.teff_k().get(),
             sigma: ctx
                 .verdicts
-                .get(k)
-                .and_then(|v| v.radius_sigma_standard.get())
+                .radius_sigma_standard(k)
                 .filter(|s| s.is_finite()),
             flag,
         });
@@ -321,9 +319,8 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
         let tension_sigma = ctx.settings.statistics.tension_sigma;
         // The panel's objects in order, with their use and verdict.
         let members = || {
-            ctx.conf.uses.iter().filter_map(move |u| {
-                let k = u.index;
-                let (o, v) = (ctx.vetted.objects.get(k)?, ctx.verdicts.get(k)?);
+            ctx.conf.uses.iter().enumerate().filter_map(move |(k, u)| {
+                let (o, v) = (ctx.vetted.objects.get(k)?, ctx.verdicts.objects.get(k)?);
                 let class_term = match o.class {
                     ObjectClass::HBurning => Term::HBurning,
                     ObjectClass::BrownDwarf => Term::BrownDwarf,
@@ -344,15 +341,15 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
         // First pass: the counts that decide the thinning, and the bound's class values.
         let (mut n, mut n_tension) = (0usize, 0usize);
         let (mut standard, mut best) = (None, None);
-        for (u, _, v) in members() {
+        for (u, o, v) in members() {
             n += 1;
             n_tension += usize::from(in_tension(sigma_of(v)));
             // The class value (μe = 2): an object's own bound is the class's times its scale
             // (4/μe² for white dwarfs, 1 otherwise).
-            let scale = u.measurement.scale;
+            let scale = u.bound_scale;
             if scale > 0.0 {
-                standard = standard.or(v.bound_standard.get().map(|b| b / scale));
-                best = best.or(v.bound_best.get().map(|b| b / scale));
+                standard = standard.or(ctx.standard_bounds.object_bound(o, u).map(|b| b / scale));
+                best = best.or(ctx.best_bounds.object_bound(o, u).map(|b| b / scale));
             }
         }
         // Second pass: only the objects drawn are built.

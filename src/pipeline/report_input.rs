@@ -330,9 +330,10 @@ pub(crate) fn write_report_files(
             .conf
             .uses
             .iter()
-            .filter(|u| match term {
+            .enumerate()
+            .filter(|(k, u)| match term {
                 Term::WhiteDwarfRadius => u.radius_term,
-                Term::Spin => ctx.conf.spins.iter().any(|s| s.index == u.index),
+                Term::Spin => ctx.conf.spins.iter().any(|s| s.index == *k),
                 _ => u.mass_term == Some(term),
             })
             .count();
@@ -760,7 +761,7 @@ pub(crate) fn write_report_files(
                         sigma_standard_gravity: t.sigma,
                         sigma_best_fit: match t.test {
                             TensionTest::MassBound => ctx.sigma_best(k),
-                            TensionTest::MassRadius => ctx.verdicts[k].radius_sigma_best.get(),
+                            TensionTest::MassRadius => ctx.verdicts.radius_sigma_best(k),
                             TensionTest::Spin => ctx.driver_sigma(k),
                         },
                         two_sided: t.test == TensionTest::MassRadius,
