@@ -132,8 +132,13 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
             super::LikelihoodArg::Product => "product",
             super::LikelihoodArg::Calibrated => "calibrated",
         },
+        match args.mass_function_fit {
+            super::MassFunctionFitArg::Auto => "auto",
+            super::MassFunctionFitArg::Exact => "exact",
+            super::MassFunctionFitArg::Grouped => "grouped",
+        },
     )
-    .map_err(|(key, msg)| CliError::usage(format!("--{key} {msg}")))?;
+    .map_err(|(key, msg)| CliError::usage(format!("--{} {msg}", key.replace('_', "-"))))?;
     let settings = ConfrontSettings {
         catalogues: args
             .catalogs

@@ -291,6 +291,11 @@ pub struct ConfrontArgs {
     /// bound), `product` or `calibrated`.
     #[arg(long, value_enum, default_value_t = LikelihoodArg::Auto, value_name = "MODEL")]
     pub likelihood: LikelihoodArg,
+    /// The calibrated likelihood's mass-function fit: `auto` (default; exact up to 16 384
+    /// objects in one fit, grouped above, docs/bounds.md §8.9), `exact` (one row per object
+    /// whatever the size: memory grows with the catalogue) or `grouped`.
+    #[arg(long, value_enum, default_value_t = MassFunctionFitArg::Auto, value_name = "FIT")]
+    pub mass_function_fit: MassFunctionFitArg,
     /// Format of the per-object table: `csv` (objects.csv, the default) or `parquet`
     /// (objects.parquet, typed and compressed; for catalogues of millions of objects).
     #[arg(long, value_enum, default_value_t = ObjectsFormatArg::Csv, value_name = "FORMAT")]
@@ -386,6 +391,17 @@ pub enum NuisanceArg {
     Profile,
     /// Integrate over the shift.
     Marginalise,
+}
+
+/// `--mass-function-fit` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum MassFunctionFitArg {
+    /// Exact up to 16 384 objects in one fit, grouped above.
+    Auto,
+    /// One row per object, whatever the catalogue's size.
+    Exact,
+    /// Objects grouped by mass and error, whatever the catalogue's size.
+    Grouped,
 }
 
 /// `--likelihood` values.

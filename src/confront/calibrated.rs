@@ -104,6 +104,39 @@ pub struct Grouping {
     pub sigma_step: f64,
 }
 
+impl Grouping {
+    /// The fit chosen by name (`--mass-function-fit`, the nightly config's
+    /// `mass_function_fit`): `auto` (exact up to 16 384 objects in one fit, grouped above),
+    /// `exact` (one row per object whatever the catalogue's size: memory and time grow with it)
+    /// or `grouped` (always grouped, also for a small catalogue); `None` for another name.
+    pub fn from_name(name: &str) -> Option<Self> {
+        let auto = Self::default();
+        match name {
+            "auto" => Some(auto),
+            "exact" => Some(Self {
+                exact_up_to: usize::MAX,
+                ..auto
+            }),
+            "grouped" => Some(Self {
+                exact_up_to: 0,
+                ..auto
+            }),
+            _ => None,
+        }
+    }
+
+    /// The choice's name, as [`Grouping::from_name`] takes it (`exact up to N` for another
+    /// threshold set in code).
+    pub fn name(&self) -> String {
+        match self.exact_up_to {
+            0 => "grouped".into(),
+            usize::MAX => "exact".into(),
+            n if n == Self::default().exact_up_to => "auto".into(),
+            n => format!("exact up to {n}"),
+        }
+    }
+}
+
 impl Default for Grouping {
     fn default() -> Self {
         Self {
@@ -1674,6 +1707,20 @@ impl ObjectNodes {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_fit_choices_read_and_print_by_name() {
+        for name in ["auto", "exact", "grouped"] {
+            assert_eq!(Grouping::from_name(name).unwrap().name(), name);
+        }
+        assert_eq!(Grouping::from_name("auto"), Some(Grouping::default()));
+        assert_eq!(
+            Grouping::from_name("exact").unwrap().exact_up_to,
+            usize::MAX
+        );
+        assert_eq!(Grouping::from_name("grouped").unwrap().exact_up_to, 0);
+        assert!(Grouping::from_name("binned").is_none());
+    }
 
     /// `n` masses evenly spread over [lo, hi] (cell midpoints), asymmetric errors of 2–6 ×
     /// `rel_err` cycling through a stride, so that neighbours differ in width.

@@ -167,6 +167,9 @@ pub struct StatisticsConfig {
     pub nuisance: String,
     /// Likelihood of the class labels: `auto` (default), `product` or `calibrated`.
     pub likelihood: String,
+    /// The calibrated likelihood's mass-function fit: `auto` (default; exact up to 16 384
+    /// objects in one fit, grouped above), `exact` or `grouped` (docs/bounds.md §8.9).
+    pub mass_function_fit: String,
     /// Add the population-aware term of docs/bounds.md §8.7.
     pub population_aware: bool,
     /// Its mass window [lo, hi] around the MMHB, M☉ (must contain every MMHB of the grid).
@@ -186,6 +189,7 @@ impl Default for StatisticsConfig {
             floor: "shared".into(),
             nuisance: "profile".into(),
             likelihood: "auto".into(),
+            mass_function_fit: "auto".into(),
             population_aware: false,
             population_window_msun: [0.04, 0.11],
         }
@@ -234,12 +238,14 @@ impl Config {
 }
 
 /// Applies the statistics choices named in a config or on the command line (`floor`,
-/// `nuisance`, `likelihood`) to the engine options; on a bad value returns (key, message).
+/// `nuisance`, `likelihood`, `mass_function_fit`) to the engine options; on a bad value
+/// returns (key, message).
 pub fn apply_statistics_choices(
     engine: &mut crate::confront::engine::EngineOptions,
     floor: &str,
     nuisance: &str,
     likelihood: &str,
+    mass_function_fit: &str,
 ) -> Result<(), (&'static str, String)> {
     use crate::confront::mass_terms::{LikelihoodChoice, Systematics};
     use crate::confront::nuisance::NuisanceMethod;
@@ -255,6 +261,11 @@ pub fn apply_statistics_choices(
         "likelihood",
         format!("`{likelihood}` is not `auto`, `product` or `calibrated`"),
     ))?;
+    engine.mass_terms.calibrated.deconvolve.grouping =
+        crate::confront::calibrated::Grouping::from_name(mass_function_fit).ok_or((
+            "mass_function_fit",
+            format!("`{mass_function_fit}` is not `auto`, `exact` or `grouped`"),
+        ))?;
     Ok(())
 }
 

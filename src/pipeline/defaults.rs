@@ -228,6 +228,13 @@ pub fn defaults_toml() -> String {
     );
     line(
         &mut o,
+        "mass_function_fit",
+        &format!("\"{}\"", st.mass_function_fit),
+        "auto | exact | grouped; the calibrated likelihood's mass-function fit: auto is exact\n\
+         up to 16 384 objects in one fit and grouped above (docs/bounds.md §8.9).",
+    );
+    line(
+        &mut o,
         "population_aware",
         &st.population_aware.to_string(),
         "add the population-aware term (off: the calibrated likelihood covers crowding)\n\

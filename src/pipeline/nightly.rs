@@ -286,6 +286,7 @@ pub fn settings_from_config(
         &st.floor,
         &st.nuisance,
         &st.likelihood,
+        &st.mass_function_fit,
     )
     .map_err(|(key, msg)| bad(&format!("statistics.{key}"), msg))?;
     if st.population_aware {

@@ -795,6 +795,7 @@ impl OutputContext<'_> {
             "systematics": mt.systematics.name(),
             "nuisance_method": mt.method.name(),
             "likelihood_choice": mt.likelihood.name(),
+            "mass_function_fit_choice": mt.calibrated.deconvolve.grouping.name(),
             "auto_rule": format!(
                 "calibrated when at least {} objects of the bound's classes lie within {}σ of the grid's range of the bound, or at least {} when every one of them lies on the same side of it (a one-sided edge, which then uses the truncated-population probabilities)",
                 mt.auto_min_near, mt.auto_z, mt.auto_min_near_edge

@@ -621,10 +621,13 @@ pub(crate) fn write_report_files(
                         },
                         match t.mass_function() {
                             Some(m) if m.grouped => format!(
-                                ", fitted to {} objects grouped into {} rows of similar mass and error (docs/bounds.md §8.9: an approximation, used above {} objects)",
+                                ", fitted to {} objects grouped into {} rows of similar mass and error (docs/bounds.md §8.9: an approximation; {})",
                                 m.n_objects,
                                 m.n_rows,
-                                crate::confront::calibrated::Grouping::default().exact_up_to
+                                match ctx.eopts.mass_terms.calibrated.deconvolve.grouping.exact_up_to {
+                                    0 => "chosen with --mass-function-fit grouped".to_string(),
+                                    n => format!("used above {n} objects; --mass-function-fit exact fits every object"),
+                                }
                             ),
                             _ => String::new(),
                         },
