@@ -29,7 +29,10 @@ use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
 use crate::confront::tension::{
     mass_sigma_in_fit, ReferencePoint, Tension, TensionTest, TestKey, Verdicts,
 };
-use crate::report::{self, tables::Cell};
+use crate::report::{
+    self,
+    tables::{Cell, CsvRows},
+};
 use crate::theory::grid::TheoryGrid;
 use crate::theory::Axis;
 use rayon::prelude::*;
@@ -111,6 +114,10 @@ const PARQUET_ROW_GROUP: usize = 65_536;
 
 /// Rows of `objects.csv` built in parallel at a time (a few MB of text in hand).
 const OBJECT_ROW_BLOCK: usize = 8_192;
+
+/// Rows of `objects.csv` one thread renders into one text (a class's repeated numbers are
+/// formatted once per run; see [`CsvRows`]).
+const OBJECT_ROW_RUN: usize = 256;
 
 /// Everything the output writers need, borrowed from one confrontation.
 pub(crate) struct OutputContext<'a> {
@@ -358,38 +365,47 @@ impl OutputContext<'_> {
         out: &mut impl std::io::Write,
         bar: &indicatif::ProgressBar,
     ) -> Result<(), PipelineError> {
-        let fail = |e: csv::Error| PipelineError::Internal(format!("writing objects.csv: {e}"));
-        let mut w = csv::WriterBuilder::new()
-            .terminator(csv::Terminator::Any(b'\n'))
-            .from_writer(out);
+        let fail = |e: std::io::Error| PipelineError::Internal(format!("writing objects.csv: {e}"));
         let (header, copies, _) = objects_header();
-        w.write_record(&header).map_err(fail)?;
+        let mut text = String::new();
+        let header: Vec<Cell> = header.into_iter().map(Cell::Text).collect();
+        CsvRows::default().push(&mut text, &header);
+        out.write_all(text.as_bytes()).map_err(fail)?;
         let drivers = self.drivers_by_object();
         let spins = self.spins_by_object();
-        // Rows built and rendered in parallel a block at a time (each row's σ in the fit
-        // rebuilds the object's calibrated table: seconds at 10⁶ objects on one thread),
-        // written in order.
+        // Rows built and rendered in parallel a block at a time, in runs of rows that each
+        // thread renders into one text (each row's σ in the fit rebuilds the object's
+        // calibrated table: seconds at 10⁶ objects on one thread), written in order.
         let n = self.verdicts.objects.len();
         let mut start = 0;
         while start < n {
             let end = (start + OBJECT_ROW_BLOCK).min(n);
-            let rows: Vec<Vec<String>> = (start..end)
+            let runs: Vec<String> = (start..end)
+                .step_by(OBJECT_ROW_RUN)
+                .collect::<Vec<_>>()
                 .into_par_iter()
-                .map(|k| {
-                    self.object_row(k, drivers.get(&k).copied(), spins.get(&k).copied(), &copies)
-                        .iter()
-                        .map(Cell::render)
-                        .collect()
+                .map(|first| {
+                    let mut rows = CsvRows::default();
+                    let mut text = String::new();
+                    for k in first..(first + OBJECT_ROW_RUN).min(end) {
+                        let cells = self.object_row(
+                            k,
+                            drivers.get(&k).copied(),
+                            spins.get(&k).copied(),
+                            &copies,
+                        );
+                        rows.push(&mut text, &cells);
+                    }
+                    text
                 })
                 .collect();
-            for row in rows {
-                w.write_record(&row).map_err(fail)?;
+            for run in runs {
+                out.write_all(run.as_bytes()).map_err(fail)?;
             }
             bar.set_position(end as u64);
             start = end;
         }
-        w.flush()
-            .map_err(|e| PipelineError::Internal(format!("writing objects.csv: {e}")))
+        out.flush().map_err(fail)
     }
 
     fn write_objects_parquet(
