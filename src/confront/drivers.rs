@@ -37,8 +37,8 @@ use super::nuisance::eliminate;
 use super::prob::{ln_prob_consistent, Measurement, Side, StatsError};
 use super::regions::{interval_from_slice, Interval, Level};
 use super::slice::{radius_totals_fine_leaving_out, SliceResult};
-use super::tension::TensionTest;
-use crate::catalogue::CatalogueObject;
+use super::tension::{ReferencePoint, TensionTest};
+use crate::catalogue::{CatalogueObject, OptF64};
 
 /// Settings of the driver analysis (`docs/bounds.md` §8.6 defaults).
 #[derive(Debug, Clone, PartialEq)]
@@ -399,6 +399,28 @@ pub fn slice_drivers_in_fit(
     s: &SliceResult,
     opts: &DriverOptions,
 ) -> Result<Vec<SliceDriver>, StatsError> {
+    let none = ReferencePoint {
+        mmhb_msun: None,
+        chandrasekhar_mu2_msun: None,
+    };
+    Ok(slice_drivers_in_fit_and_ln_p_at(conf, objects, s, opts, &none)?.0)
+}
+
+/// [`slice_drivers_in_fit`], and beside it each object's ln P in the fit at the class bounds of
+/// `at` (the best fit's: what `objects.csv` turns into `sigma_best_in_fit`), taken from the
+/// same per-object posterior the candidates' weights are read from instead of a second one
+/// (each was ≈ 5 % of a 10⁶-object run). Per object, in object order: the value of
+/// [`Confrontation::ln_p_in_fit`] at its class bound of `at`, to the bit, where the object was
+/// weighed here (an informative member of a mass term on the slice); missing otherwise, for
+/// the caller to compute.
+pub fn slice_drivers_in_fit_and_ln_p_at(
+    conf: &Confrontation,
+    objects: &[CatalogueObject],
+    s: &SliceResult,
+    opts: &DriverOptions,
+    at: &ReferencePoint,
+) -> Result<(Vec<SliceDriver>, Vec<OptF64>), StatsError> {
+    let mut ln_p_at = vec![OptF64::NONE; conf.uses.len()];
     let fine = &s.slice.upsilon_fine;
     let chi2 = &s.slice.chi2_fine;
     let dchi2 = opts.level.dchi2(1);
@@ -423,8 +445,9 @@ pub fn slice_drivers_in_fit(
         let (k_lo, k_hi) = (arg(|a, b| a < b), arg(|a, b| a > b));
         // Every informative member's weight at the two ends (a table built per object, in
         // parallel; collected in order).
-        let chosen: Vec<Option<(usize, usize)>> = conf
-            .members(*term)
+        let b_at = at.class_bound(*term);
+        let members = conf.members(*term);
+        let weighed: Vec<Option<(bool, OptF64)>> = members
             .par_iter()
             .enumerate()
             .map(|(pos, &k)| {
@@ -437,11 +460,16 @@ pub fn slice_drivers_in_fit(
                     .iter()
                     .map(|&kk| -2.0 * ot.ln_p(b_fine[kk]))
                     .fold(f64::NEG_INFINITY, f64::max);
-                (weight > opts.candidate_min_minus_two_ln_p).then_some((k, pos))
+                let ln_p = b_at.map_or(OptF64::NONE, |b| OptF64::some(ot.ln_p(b)));
+                Some((weight > opts.candidate_min_minus_two_ln_p, ln_p))
             })
             .collect();
-        for (k, pos) in chosen.into_iter().flatten() {
-            candidates.push((k, *term, pos, b_fine.as_slice(), bt));
+        for ((pos, &k), w) in members.iter().enumerate().zip(weighed) {
+            let Some((chosen, ln_p)) = w else { continue };
+            ln_p_at[k] = ln_p;
+            if chosen {
+                candidates.push((k, *term, pos, b_fine.as_slice(), bt));
+            }
         }
     }
     let shift_of = |without: &[f64]| -> Result<f64, StatsError> {
@@ -549,5 +577,5 @@ pub fn slice_drivers_in_fit(
     }
     out.sort_by(|a, b| b.shift.total_cmp(&a.shift).then(a.object.cmp(&b.object)));
     out.truncate(opts.top);
-    Ok(out)
+    Ok((out, ln_p_at))
 }

@@ -47,7 +47,7 @@ use super::outputs::OutputContext;
 use super::surface::{class_bounds, GridSurface};
 use crate::catalogue::table::ReadOptions;
 use crate::catalogue::{export, vet_files, CatalogueError, ColumnMap, Vetted};
-use crate::confront::drivers::{slice_drivers_in_fit, DriverOptions};
+use crate::confront::drivers::{slice_drivers_in_fit_and_ln_p_at, DriverOptions};
 use crate::confront::engine::{self, BoundSurface, EngineOptions};
 use crate::confront::profile::{posterior, profile_intervals};
 use crate::confront::regions::map_regions;
@@ -288,9 +288,21 @@ pub fn run_confrontation(
 
     // 4. Drivers of the ϒ interval on the τ = 0 slice, under the likelihood used.
     steps.step("drivers");
-    let drivers = match &slice {
-        Some(s) => slice_drivers_in_fit(&conf, &vetted.objects, s, &DriverOptions::default())?,
-        None => Vec::new(),
+    // Each object's ln P in the fit at the best fit is read from the posterior the drivers'
+    // screening builds anyway (`objects.csv`'s σ in the fit; the same value to the bit).
+    let at_best = crate::confront::tension::ReferencePoint {
+        mmhb_msun: surface.mmhb_msun(best_index),
+        chandrasekhar_mu2_msun: surface.chandrasekhar_mu2_msun(best_index),
+    };
+    let (drivers, ln_p_in_fit_at_best) = match &slice {
+        Some(s) => slice_drivers_in_fit_and_ln_p_at(
+            &conf,
+            &vetted.objects,
+            s,
+            &DriverOptions::default(),
+            &at_best,
+        )?,
+        None => (Vec::new(), Vec::new()),
     };
 
     // 5. Per-object verdicts at standard gravity and at the best fit; tensions.
@@ -345,6 +357,7 @@ pub fn run_confrontation(
         best_bounds,
         spin_verdicts: &spin_verdicts,
         drivers: &drivers,
+        ln_p_in_fit_at_best: &ln_p_in_fit_at_best,
         tensions: &tensions,
         consistency: &consistency,
         crowd,

@@ -17,7 +17,7 @@ use serde_json::{json, Value};
 use super::error::PipelineError;
 use super::settings::{ConfrontSettings, ObjectsFormat};
 use super::surface::GridSurface;
-use crate::catalogue::{CatalogueObject, Vetted};
+use crate::catalogue::{CatalogueObject, OptF64, Vetted};
 use crate::confront::drivers::SliceDriver;
 use crate::confront::engine::{BoundSurface, Confrontation, EngineOptions, Term};
 use crate::confront::mass_terms::Systematics;
@@ -144,6 +144,9 @@ pub(crate) struct OutputContext<'a> {
     pub spin_verdicts: &'a [SpinVerdict],
     /// The drivers, by rank.
     pub drivers: &'a [SliceDriver],
+    /// Each object's ln P in the fit at the best fit where the drivers' screening read it
+    /// (`drivers::slice_drivers_in_fit_and_ln_p_at`), missing where it did not (made here).
+    pub ln_p_in_fit_at_best: &'a [OptF64],
     pub tensions: &'a [Tension],
     pub consistency: &'a AbsoluteConsistency,
     pub crowd: Option<Crowding>,
@@ -197,6 +200,11 @@ impl OutputContext<'_> {
 
     /// One-sided tension of object `k`'s mass test at the best fit under the likelihood used.
     pub(crate) fn sigma_best_in_fit(&self, k: usize) -> Option<f64> {
+        if let Some(ln_p) = self.ln_p_in_fit_at_best.get(k).and_then(|v| v.get()) {
+            // What `mass_sigma_in_fit` makes of the same ln P.
+            let z = crate::confront::prob::tension_sigma(ln_p);
+            return z.is_finite().then_some(z);
+        }
         mass_sigma_in_fit(
             self.conf,
             &self.vetted.objects,
