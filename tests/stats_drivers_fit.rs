@@ -467,3 +467,45 @@ fn screened_refits_give_the_drivers_of_refitting_every_candidate() {
         assert_eq!(a.shift.to_bits(), b.shift.to_bits(), "object {}", a.object);
     }
 }
+
+/// The ln P in the fit that the drivers' screening hands on (for `objects.csv`'s σ in the fit)
+/// is [`Confrontation::ln_p_in_fit`] at the same bound, to the bit — the reference is the
+/// function `objects.csv` called before — under both likelihoods and both floors; objects it
+/// did not weigh are left for the caller.
+#[test]
+fn the_screening_hands_on_each_objects_ln_p_in_the_fit_to_the_bit() {
+    use dwarfbound::confront::drivers::slice_drivers_in_fit_and_ln_p_at;
+    use dwarfbound::confront::tension::ReferencePoint;
+    let s = surface();
+    let objects = catalogue();
+    for likelihood in [LikelihoodChoice::Product, LikelihoodChoice::Calibrated] {
+        for systematics in [Systematics::Shared, Systematics::PerObject] {
+            let mut opts = options(systematics);
+            opts.mass_terms.likelihood = likelihood;
+            let conf = confront(&objects, &s, &opts).unwrap();
+            let slice = tau0_slice(&conf, &s).unwrap().unwrap();
+            let at = ReferencePoint {
+                mmhb_msun: Some(0.0752),
+                chandrasekhar_mu2_msun: Some(1.401),
+            };
+            let d = DriverOptions::default();
+            let (drivers, ln_p) =
+                slice_drivers_in_fit_and_ln_p_at(&conf, &objects, &slice, &d, &at).unwrap();
+            assert_eq!(
+                drivers,
+                slice_drivers_in_fit(&conf, &objects, &slice, &d).unwrap()
+            );
+            assert_eq!(ln_p.len(), objects.len());
+            let mut handed_on = 0;
+            for (k, v) in ln_p.iter().enumerate() {
+                let Some(v) = v.get() else { continue };
+                handed_on += 1;
+                let term = conf.uses[k].mass_term.unwrap();
+                let b = at.class_bound(term).unwrap();
+                let want = conf.ln_p_in_fit(&objects, k, b).unwrap();
+                assert_eq!(v.to_bits(), want.to_bits(), "object {k}: {v} vs {want}");
+            }
+            assert_eq!(handed_on, objects.len(), "{likelihood:?} {systematics:?}");
+        }
+    }
+}
