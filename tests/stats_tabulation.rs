@@ -8,9 +8,11 @@
 
 use dwarfbound::confront::calibrated::{CalibratedCurve, CalibratedOptions};
 use dwarfbound::confront::engine::Term;
-use dwarfbound::confront::mass_terms::{BoundTerm, LikelihoodChoice, MassTermOptions};
+use dwarfbound::confront::mass_terms::{BoundTerm, LikelihoodChoice, MassTermOptions, Systematics};
 use dwarfbound::confront::nuisance::eliminate;
-use dwarfbound::confront::prob::{MassKind, Measurement, Side};
+use dwarfbound::confront::prob::{
+    ClassMeasurements, MassKind, Measurement, MeasurementSource, Side,
+};
 use dwarfbound::confront::reduce::SplitMix64;
 
 fn draw(n: usize, lo: f64, hi: f64, rel_err: f64, side: Side, seed: u64) -> Vec<Measurement> {
@@ -142,4 +144,80 @@ fn reported_error_is_that_of_the_term_the_fit_reads_two_sided() {
 fn reported_error_is_that_of_the_term_the_fit_reads_one_sided_edge() {
     let wd = wd_class();
     term_check(&[(Term::WhiteDwarfMass, &wd)], 0.03, (1.15, 1.55));
+}
+
+/// The classes' measurements lent as a maker (made again at every read, as a run lends them)
+/// rather than as a held list.
+struct Remade(Vec<Measurement>);
+
+impl MeasurementSource for Remade {
+    fn len(&self) -> usize {
+        self.0.len()
+    }
+
+    fn measurement(&self, i: usize) -> Measurement {
+        self.0[i]
+    }
+}
+
+/// Classes held, the same classes made, floor, bound range.
+type Case<'a> = (
+    Vec<(Term, &'a [Measurement])>,
+    Vec<(Term, &'a Remade)>,
+    f64,
+    (f64, f64),
+);
+
+#[test]
+fn a_term_of_measurements_made_on_demand_is_the_term_of_a_held_list_to_the_bit() {
+    // A run lends the bound terms its classes as positions with each measurement made again
+    // where read; every sum must then be the one over the held list, in the same order
+    // (common practice, no source). Both likelihoods, both bounds, both floor treatments.
+    let (hb, bd) = mmhb_classes();
+    let wd = wd_class();
+    let (hb_r, bd_r, wd_r) = (Remade(hb.clone()), Remade(bd.clone()), Remade(wd.clone()));
+    let cases: [Case<'_>; 2] = [
+        (
+            vec![(Term::HBurning, &hb[..]), (Term::BrownDwarf, &bd[..])],
+            vec![(Term::HBurning, &hb_r), (Term::BrownDwarf, &bd_r)],
+            0.004,
+            (0.07, 0.08),
+        ),
+        (
+            vec![(Term::WhiteDwarfMass, &wd[..])],
+            vec![(Term::WhiteDwarfMass, &wd_r)],
+            0.03,
+            (1.3, 1.5),
+        ),
+    ];
+    for likelihood in [LikelihoodChoice::Product, LikelihoodChoice::Calibrated] {
+        for systematics in [Systematics::Shared, Systematics::PerObject] {
+            let opts = MassTermOptions {
+                likelihood,
+                systematics,
+                ..MassTermOptions::default()
+            };
+            for (held, made, floor, range) in &cases {
+                let made: Vec<(Term, ClassMeasurements<'_>)> = made
+                    .iter()
+                    .map(|&(t, r)| (t, ClassMeasurements::made(r)))
+                    .collect();
+                let a = BoundTerm::build(held, *floor, *range, &opts).unwrap();
+                let b = BoundTerm::build(&made, *floor, *range, &opts).unwrap();
+                assert_eq!(a.achieved_error().to_bits(), b.achieved_error().to_bits());
+                assert_eq!(
+                    a.data_error_over_range().to_bits(),
+                    b.data_error_over_range().to_bits()
+                );
+                for k in 0..=40 {
+                    let x = range.0 - 0.1 * (range.1 - range.0)
+                        + 1.2 * (range.1 - range.0) * k as f64 / 40.0;
+                    assert_eq!(a.minus_two_ln_l(x).to_bits(), b.minus_two_ln_l(x).to_bits());
+                    for (p, q) in a.split(x).iter().zip(b.split(x)) {
+                        assert_eq!((p.0, p.1.to_bits()), (q.0, q.1.to_bits()), "B = {x}");
+                    }
+                }
+            }
+        }
+    }
 }

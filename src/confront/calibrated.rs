@@ -54,7 +54,9 @@
 
 use rayon::prelude::*;
 
-use super::prob::{ln_prob_consistent, normal_cdf, MassKind, Measurement, Side, StatsError};
+use super::prob::{
+    ln_prob_consistent, normal_cdf, ClassMeasurements, MassKind, Measurement, Side, StatsError,
+};
 use super::reduce::{CubicSpline, NeumaierSum, SplineEnd};
 
 /// Settings of the deconvolution (defaults documented in the module text).
@@ -791,9 +793,24 @@ impl CalibratedCurve {
     /// accumulated object by object in a fixed order, [`TABULATION_CHUNK`] objects' tables at
     /// a time, which are then dropped: the result is the same to the bit as holding every
     /// table, and the memory does not grow with the number of objects beyond one small record
-    /// each.
-    pub fn build(
-        classes: &[&[Measurement]],
+    /// each. Each class is a slice or a [`ClassMeasurements`] (measurements made on demand:
+    /// only the objects kept below are copied).
+    pub fn build<'a, C>(
+        classes: &[C],
+        scatter_msun: f64,
+        range_msun: (f64, f64),
+        opts: &CalibratedOptions,
+    ) -> Result<Self, StatsError>
+    where
+        C: Into<ClassMeasurements<'a>> + Copy,
+    {
+        let classes: Vec<ClassMeasurements<'a>> = classes.iter().map(|&c| c.into()).collect();
+        Self::build_from(&classes, scatter_msun, range_msun, opts)
+    }
+
+    /// [`CalibratedCurve::build`] once its classes are views.
+    fn build_from(
+        classes: &[ClassMeasurements<'_>],
         scatter_msun: f64,
         range_msun: (f64, f64),
         opts: &CalibratedOptions,
@@ -824,8 +841,8 @@ impl CalibratedCurve {
                     Side::AtLeast => b_hi,
                     Side::AtMost => b_lo,
                 };
-                if ln_prob_consistent(m, worst, flat_floor) <= -tiny {
-                    let (_, a, b) = unit(m);
+                if ln_prob_consistent(&m, worst, flat_floor) <= -tiny {
+                    let (_, a, b) = unit(&m);
                     cand_sigma.push(a.max(b));
                 }
             }
@@ -842,7 +859,7 @@ impl CalibratedCurve {
             .iter()
             .flat_map(|ms| ms.iter())
             .filter(|m| matches!(m.kind, MassKind::Measured { .. }))
-            .map(unit)
+            .map(|m| unit(&m))
             .filter(|&(m, _, _)| m >= dom.0 && m <= dom.1)
             .collect();
         let phi = deconvolve(&all, dom, dopts)?;
@@ -957,18 +974,18 @@ impl CalibratedCurve {
                     Side::AtLeast => b_hi,
                     Side::AtMost => b_lo,
                 };
-                if ln_prob_consistent(m, worst, flat_floor) > -tiny {
+                if ln_prob_consistent(&m, worst, flat_floor) > -tiny {
                     continue;
                 }
                 inf.push(i);
-                let (m0, a, b) = unit(m);
+                let (m0, a, b) = unit(&m);
                 let inside = matches!(m.kind, MassKind::Measured { .. })
                     && m0 + w * b <= dom.1
                     && (m0 - w * a >= dom.0 || dom.0 == 0.0);
                 if inside {
                     cal_idx.push(i);
                 } else {
-                    fl.push((i, *m));
+                    fl.push((i, m));
                 }
             }
             let mut node_acc = vec![NeumaierSum::default(); n_nodes];
@@ -978,7 +995,7 @@ impl CalibratedCurve {
                 let done: Vec<Option<(CalObject, ObjectTable)>> = chunk
                     .par_iter()
                     .map(|&i| {
-                        let m = ms[i];
+                        let m = ms.get(i)?;
                         let t = curve.object_table(&m)?;
                         let o = CalObject {
                             index: i,
@@ -1009,7 +1026,7 @@ impl CalibratedCurve {
             let kept: std::collections::BTreeSet<usize> = cal.iter().map(|o| o.index).collect();
             for &i in &cal_idx {
                 if !kept.contains(&i) {
-                    fl.push((i, ms[i]));
+                    fl.extend(ms.get(i).map(|m| (i, m)));
                 }
             }
             fl.sort_by_key(|x| x.0);

@@ -37,7 +37,10 @@
 use rayon::prelude::*;
 
 use super::mass_terms::{BoundTerm, MassTermOptions};
-use super::prob::{ln_prob_consistent, tension_sigma, MassKind, Measurement, Side, StatsError};
+use super::prob::{
+    ln_prob_consistent, tension_sigma, ClassMeasurements, MassKind, Measurement, MeasurementSource,
+    Side, StatsError,
+};
 use super::reduce::{ClassCounts, ReduceOptions};
 use super::regions::PopulationTerm;
 use super::wd_radius::{self, ObjectRadius, RadiusOptions, ResolvedCore, WdQuery, WdStandard};
@@ -450,6 +453,16 @@ impl Confrontation {
         Some(self.uses.get(k)?.measurement(objects.get(k)?))
     }
 
+    /// A mass term's objects as positions, their measurements made on demand
+    /// ([`TermMembers`]; `objects` is the list the comparison was made of).
+    pub fn term_members<'a>(
+        &'a self,
+        objects: &'a [CatalogueObject],
+        term: Term,
+    ) -> Result<TermMembers<'a>, StatsError> {
+        TermMembers::new(objects, &self.uses, term)
+    }
+
     /// The measurements of a mass term's objects, in [`Confrontation::members`] order, made
     /// one at a time from `objects` (the list the comparison was made of).
     pub fn member_measurements<'a>(
@@ -522,6 +535,72 @@ impl Confrontation {
             .filter(|&p| p != u32::MAX)? as usize;
         let m = u.measurement(objects.get(k)?);
         Some(t.ln_p_object(term, pos, &m, class_bound_msun))
+    }
+}
+
+/// A mass term's objects, in object order, as positions in the object list: the class's
+/// measurements made on demand ([`ObjectUse::measurement`], the same to the bit) for the
+/// reductions, where a list of them would be 48 bytes per object against 4 here.
+#[derive(Debug, Clone)]
+pub struct TermMembers<'a> {
+    positions: Vec<u32>,
+    objects: &'a [CatalogueObject],
+    uses: &'a [ObjectUse],
+}
+
+impl<'a> TermMembers<'a> {
+    /// The objects of `term` (`uses` are the objects' uses, in the same order). More than
+    /// 2³² − 1 objects are refused.
+    pub fn new(
+        objects: &'a [CatalogueObject],
+        uses: &'a [ObjectUse],
+        term: Term,
+    ) -> Result<Self, StatsError> {
+        if u32::try_from(objects.len().min(uses.len())).is_err() {
+            return Err(StatsError::InvalidInput(format!(
+                "{} objects: at most 2³² − 1 are supported",
+                objects.len()
+            )));
+        }
+        let n = objects.len().min(uses.len());
+        let of_term = |u: &ObjectUse| u.mass_term == Some(term);
+        // Counted first and allocated to size: collected from a filter, a list grows by
+        // doubling to up to twice its length.
+        let mut positions = Vec::with_capacity(uses[..n].iter().filter(|u| of_term(u)).count());
+        positions.extend(
+            uses[..n]
+                .iter()
+                .enumerate()
+                .filter(|(_, u)| of_term(u))
+                .map(|(k, _)| k as u32),
+        );
+        Ok(Self {
+            positions,
+            objects,
+            uses,
+        })
+    }
+
+    /// The members' positions in the object list, ascending.
+    pub fn positions(&self) -> &[u32] {
+        &self.positions
+    }
+}
+
+impl MeasurementSource for TermMembers<'_> {
+    fn len(&self) -> usize {
+        self.positions.len()
+    }
+
+    fn measurement(&self, i: usize) -> Measurement {
+        let k = self.positions[i] as usize;
+        self.uses[k].measurement(&self.objects[k])
+    }
+}
+
+impl<'a> From<&'a TermMembers<'_>> for ClassMeasurements<'a> {
+    fn from(members: &'a TermMembers<'_>) -> Self {
+        ClassMeasurements::made(members)
     }
 }
 
@@ -674,35 +753,27 @@ pub fn confront(
     let mmhb: Vec<Option<f64>> = (0..n).map(|i| surface.mmhb_msun(i)).collect();
     let chandra: Vec<Option<f64>> = (0..n).map(|i| surface.chandrasekhar_mu2_msun(i)).collect();
 
-    // Each mass term's measurements in object order, made once: sorted for the counts and
-    // lent to the bound terms and the population term (a copy for each was ≈ 100 MB at 10⁶
-    // objects). Counted first and allocated to size: collected from a filter, a list grew by
-    // doubling to up to twice its length, and the lists are alive at the run's peak (while
-    // the bound terms are built).
-    let class_list = |t: Term| -> Vec<Measurement> {
-        let n = uses.iter().filter(|u| u.mass_term == Some(t)).count();
-        let mut list = Vec::with_capacity(n);
-        list.extend(
-            uses.iter()
-                .zip(objects)
-                .filter(|(u, _)| u.mass_term == Some(t))
-                .map(|(u, o)| u.measurement(o)),
-        );
-        list
-    };
+    // Each mass term's objects in object order, as positions (4 bytes each), their
+    // measurements made again wherever they are read: lists of the measurements themselves
+    // were 48 bytes per object, alive at the run's peak (while the bound terms are built).
+    let (hb_at, bd_at, wd_at) = (
+        TermMembers::new(objects, &uses, Term::HBurning)?,
+        TermMembers::new(objects, &uses, Term::BrownDwarf)?,
+        TermMembers::new(objects, &uses, Term::WhiteDwarfMass)?,
+    );
     let (hb, bd, wd) = (
-        class_list(Term::HBurning),
-        class_list(Term::BrownDwarf),
-        class_list(Term::WhiteDwarfMass),
+        ClassMeasurements::from(&hb_at),
+        ClassMeasurements::from(&bd_at),
+        ClassMeasurements::from(&wd_at),
     );
 
     let mut class_counts = Vec::new();
     for (term, ms, values, floor) in [
-        (Term::HBurning, &hb, &mmhb, opts.mmhb_floor_msun),
-        (Term::BrownDwarf, &bd, &mmhb, opts.mmhb_floor_msun),
+        (Term::HBurning, hb, &mmhb, opts.mmhb_floor_msun),
+        (Term::BrownDwarf, bd, &mmhb, opts.mmhb_floor_msun),
         (
             Term::WhiteDwarfMass,
-            &wd,
+            wd,
             &chandra,
             opts.chandrasekhar_floor_msun,
         ),
@@ -726,16 +797,16 @@ pub fn confront(
                 Bound::Mmhb,
                 &mmhb,
                 opts.mmhb_floor_msun,
-                vec![(Term::HBurning, &hb[..]), (Term::BrownDwarf, &bd[..])],
+                vec![(Term::HBurning, hb), (Term::BrownDwarf, bd)],
             ),
             (
                 Bound::Chandrasekhar,
                 &chandra,
                 opts.chandrasekhar_floor_msun,
-                vec![(Term::WhiteDwarfMass, &wd[..])],
+                vec![(Term::WhiteDwarfMass, wd)],
             ),
         ] {
-            let classes: Vec<(Term, &[Measurement])> = classes
+            let classes: Vec<(Term, ClassMeasurements<'_>)> = classes
                 .into_iter()
                 .filter(|(_, ms)| !ms.is_empty())
                 .collect();
@@ -751,7 +822,7 @@ pub fn confront(
     }
     let population = match opts.population_window_msun {
         Some(window) => {
-            let term = PopulationTerm::new(window, &hb, &bd)?;
+            let term = PopulationTerm::new(window, hb.iter(), bd.iter())?;
             let finite: Vec<f64> = mmhb.iter().flatten().copied().collect();
             if let Some((lo, hi)) = super::reduce::bound_range(&finite) {
                 if !term.covers(lo, hi) {
@@ -1159,7 +1230,7 @@ fn safe_side_tension(
 
 #[cfg(test)]
 mod tests {
-    use super::{Flags, ObjectUse};
+    use super::{ClassMeasurements, Flags, ObjectUse, Term};
 
     #[test]
     fn a_use_stays_compact() {
@@ -1208,6 +1279,20 @@ mod tests {
             let again = u.measurement(o);
             assert_eq!(again, planned);
             assert_eq!(again.scale.to_bits(), planned.scale.to_bits());
+        }
+        // A term's members lend the bound terms the same measurements, in object order.
+        let uses = super::plan(&objects, &opts);
+        for t in [Term::HBurning, Term::BrownDwarf, Term::WhiteDwarfMass] {
+            let members = super::TermMembers::new(&objects, &uses, t).unwrap();
+            let lent: Vec<_> = ClassMeasurements::from(&members).iter().collect();
+            let want: Vec<_> = uses
+                .iter()
+                .zip(&objects)
+                .filter(|(u, _)| u.mass_term == Some(t))
+                .map(|(u, o)| u.measurement(o))
+                .collect();
+            assert!(!want.is_empty());
+            assert_eq!(lent, want);
         }
     }
 

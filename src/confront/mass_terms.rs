@@ -28,7 +28,7 @@
 use super::calibrated::{CalibratedCurve, CalibratedOptions, ObjectCurve};
 use super::engine::Term;
 use super::nuisance::{eliminate, NuisanceMethod, SharedNuisance};
-use super::prob::{ln_prob_consistent, MassKind, Measurement, StatsError};
+use super::prob::{ln_prob_consistent, ClassMeasurements, MassKind, Measurement, StatsError};
 use super::reduce::{ClassCurve, CubicSpline, ReduceOptions, SplineEnd, SplitMix64};
 
 /// How the bound's theory floor enters.
@@ -226,9 +226,25 @@ const TERM_CHECKS: usize = 40;
 impl BoundTerm {
     /// Builds the term of the classes `classes` (each with all its objects, in the caller's
     /// order) facing one bound whose theory floor is `floor_msun` and whose values over the grid
-    /// span `bound_range_msun`.
-    pub fn build(
-        classes: &[(Term, &[Measurement])],
+    /// span `bound_range_msun`. Each class is a slice or a [`ClassMeasurements`] (measurements
+    /// made on demand, so that a large catalogue's are not all held while the term is built).
+    pub fn build<'a, C>(
+        classes: &[(Term, C)],
+        floor_msun: f64,
+        bound_range_msun: (f64, f64),
+        opts: &MassTermOptions,
+    ) -> Result<Self, StatsError>
+    where
+        C: Into<ClassMeasurements<'a>> + Copy,
+    {
+        let classes: Vec<(Term, ClassMeasurements<'a>)> =
+            classes.iter().map(|&(t, c)| (t, c.into())).collect();
+        Self::build_from(&classes, floor_msun, bound_range_msun, opts)
+    }
+
+    /// [`BoundTerm::build`] once its classes are views.
+    fn build_from(
+        classes: &[(Term, ClassMeasurements<'_>)],
         floor_msun: f64,
         bound_range_msun: (f64, f64),
         opts: &MassTermOptions,
@@ -324,11 +340,11 @@ impl BoundTerm {
             LikelihoodModel::Product => Classes::Product(
                 classes
                     .iter()
-                    .map(|(_, ms)| ClassCurve::build_on_range(ms, scatter, ext, &reduce))
+                    .map(|(_, ms)| ClassCurve::build_on_range(*ms, scatter, ext, &reduce))
                     .collect::<Result<_, _>>()?,
             ),
             LikelihoodModel::Calibrated => {
-                let refs: Vec<&[Measurement]> = classes.iter().map(|(_, ms)| *ms).collect();
+                let refs: Vec<ClassMeasurements<'_>> = classes.iter().map(|(_, ms)| *ms).collect();
                 Classes::Calibrated(Box::new(CalibratedCurve::build(
                     &refs,
                     scatter,

@@ -143,6 +143,114 @@ impl Measurement {
     }
 }
 
+/// The measurements of one class's objects, in the caller's order, as the reductions read
+/// them: held in a slice, or made on demand from a position. A large catalogue's list would be
+/// 48 bytes per object while the bound terms are built (the peak of a run), and each
+/// measurement is cheap to make again from its object, so a caller may lend a maker instead.
+#[derive(Clone, Copy)]
+pub struct ClassMeasurements<'a> {
+    len: usize,
+    source: Source<'a>,
+}
+
+#[derive(Clone, Copy)]
+enum Source<'a> {
+    Held(&'a [Measurement]),
+    Made(&'a dyn MeasurementSource),
+}
+
+/// Makes the measurements of a class's objects on demand, by position in the class (the
+/// objects themselves are held elsewhere, so a list of measurements need not be).
+pub trait MeasurementSource: Sync {
+    /// Number of objects in the class.
+    fn len(&self) -> usize;
+
+    /// Whether the class has no object.
+    fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The measurement of the object at position `i` (< [`MeasurementSource::len`]); the same
+    /// value, to the bit, every time it is asked for.
+    fn measurement(&self, i: usize) -> Measurement;
+}
+
+impl<'a> ClassMeasurements<'a> {
+    /// A list held by the caller.
+    pub fn held(measurements: &'a [Measurement]) -> Self {
+        Self {
+            len: measurements.len(),
+            source: Source::Held(measurements),
+        }
+    }
+
+    /// The measurements of `source`, each made again whenever it is read.
+    pub fn made(source: &'a dyn MeasurementSource) -> Self {
+        Self {
+            len: source.len(),
+            source: Source::Made(source),
+        }
+    }
+
+    /// Number of measurements.
+    pub fn len(&self) -> usize {
+        self.len
+    }
+
+    /// Whether there are none.
+    pub fn is_empty(&self) -> bool {
+        self.len == 0
+    }
+
+    /// The measurement at position `i` (`None` past the end).
+    pub fn get(&self, i: usize) -> Option<Measurement> {
+        if i >= self.len {
+            return None;
+        }
+        match self.source {
+            Source::Held(ms) => ms.get(i).copied(),
+            Source::Made(source) => Some(source.measurement(i)),
+        }
+    }
+
+    /// The measurements in order.
+    pub fn iter(&self) -> impl Iterator<Item = Measurement> + 'a {
+        let this = *self;
+        (0..self.len).filter_map(move |i| this.get(i))
+    }
+}
+
+impl std::fmt::Debug for ClassMeasurements<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let source = match self.source {
+            Source::Held(_) => "held",
+            Source::Made(_) => "made",
+        };
+        f.debug_struct("ClassMeasurements")
+            .field("len", &self.len)
+            .field("source", &source)
+            .finish()
+    }
+}
+
+impl<'a> From<&'a [Measurement]> for ClassMeasurements<'a> {
+    fn from(measurements: &'a [Measurement]) -> Self {
+        Self::held(measurements)
+    }
+}
+
+impl<'a> From<&'a Vec<Measurement>> for ClassMeasurements<'a> {
+    fn from(measurements: &'a Vec<Measurement>) -> Self {
+        Self::held(measurements)
+    }
+}
+
+impl<'a, const N: usize> From<&'a [Measurement; N]> for ClassMeasurements<'a> {
+    fn from(measurements: &'a [Measurement; N]) -> Self {
+        Self::held(measurements)
+    }
+}
+
 /// The floor actually used for a bound: the given one, or 1e-6 of the bound when it is zero
 /// (`docs/bounds.md` §8.1). The flag is true when the replacement happened, so the caller can warn.
 pub fn effective_floor_msun(bound_msun: f64, floor_msun: f64) -> (f64, bool) {

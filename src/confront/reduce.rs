@@ -26,13 +26,12 @@
 //! ```
 
 use std::sync::atomic::{AtomicUsize, Ordering};
-use std::sync::Arc;
 
 use rayon::prelude::*;
 
 use super::prob::{
-    effective_floor_msun, ln_prob_consistent, validate_floor, MassKind, Measurement, PreparedLnP,
-    Side, StatsError,
+    effective_floor_msun, ln_prob_consistent, validate_floor, ClassMeasurements, MassKind,
+    Measurement, PreparedLnP, Side, StatsError,
 };
 
 /// Settings of the reduction; the defaults are those of `docs/bounds.md` §8.5.
@@ -146,12 +145,13 @@ impl ClassCounts {
     /// Sorts `measurements` (all objects of the class, in the caller's order) over the class's
     /// bound range padded as [`ClassCurve::build`] pads it, with the class's theory floor;
     /// the same informative and skipped objects as the curve's.
-    pub fn new(
-        measurements: &[Measurement],
+    pub fn new<'a>(
+        measurements: impl Into<ClassMeasurements<'a>>,
         floor_msun: f64,
         bound_range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
+        let measurements = measurements.into();
         let range = usable_range(floor_msun, padded_range(bound_range_msun, opts)?)?;
         let mut counts = Self {
             informative_indices: Vec::new(),
@@ -160,7 +160,7 @@ impl ClassCounts {
         };
         for (i, m) in measurements.iter().enumerate() {
             m.validate(i)?;
-            match classify(m, floor_msun, range, opts.eps_skip) {
+            match classify(&m, floor_msun, range, opts.eps_skip) {
                 Standing::Uninformative => counts.n_uninformative += 1,
                 Standing::Skipped => counts.n_skipped += 1,
                 Standing::Informative => counts.informative_indices.push(i),
@@ -193,9 +193,10 @@ impl ClassCounts {
 
 /// The tabulated log-likelihood curve L_c(B) of one class (per-object theory floor, §8.1–8.2).
 ///
-/// The class's measurements are held once, in the caller's order, and may be shared with the
-/// caller ([`ClassCurve::build_shared`]); the tabulated, sharp and skipped objects are
-/// positions into them (copies of the measurements were ≈ 85 MB at 10⁶ objects).
+/// Only the measurements it reads again are held: those of the informative objects (the
+/// tabulated and sharp ones are positions into them) and of the skipped ones, each in the
+/// caller's order. The uninformative limits, and the caller's whole list, are not copied (a
+/// class of a large catalogue is mostly objects far from the bound).
 #[derive(Debug)]
 pub struct ClassCurve {
     b_lo_msun: f64,
@@ -204,10 +205,13 @@ pub struct ClassCurve {
     floor_replaced: bool,
     n_nodes: usize,
     spline: CubicSpline,
-    measurements: Arc<[Measurement]>,
-    /// Positions of the tabulated objects, ascending.
+    /// The informative objects' measurements, in `informative_indices` order.
+    informative: Box<[Measurement]>,
+    /// The skipped objects' measurements, in `skipped_indices` order.
+    skipped: Box<[Measurement]>,
+    /// Positions in `informative` of the tabulated objects, ascending.
     smooth: Vec<u32>,
-    /// Positions of the objects summed exactly at every evaluation, ascending.
+    /// Positions in `informative` of the objects summed exactly at every evaluation, ascending.
     sharp: Vec<u32>,
     informative_indices: Vec<usize>,
     skipped_indices: Vec<usize>,
@@ -222,8 +226,8 @@ impl ClassCurve {
     /// the class's theory floor (a value ≤ 0 becomes 1e-6 of the bound; see
     /// [`ClassCurve::floor_replaced`]) and the range [min, max] of the class's bound over the
     /// grid, which is padded by `opts.pad_fraction` of its width.
-    pub fn build(
-        measurements: &[Measurement],
+    pub fn build<'a>(
+        measurements: impl Into<ClassMeasurements<'a>>,
         floor_msun: f64,
         bound_range_msun: (f64, f64),
         opts: &ReduceOptions,
@@ -237,12 +241,13 @@ impl ClassCurve {
     }
 
     /// As [`ClassCurve::build`] with the tabulation range taken as given (no padding).
-    pub fn build_on_range(
-        measurements: &[Measurement],
+    pub fn build_on_range<'a>(
+        measurements: impl Into<ClassMeasurements<'a>>,
         floor_msun: f64,
         range_msun: (f64, f64),
         opts: &ReduceOptions,
     ) -> Result<Self, StatsError> {
+        let measurements = measurements.into();
         let (b_lo, b_hi) = usable_range(floor_msun, range_msun)?;
         if u32::try_from(measurements.len()).is_err() {
             return Err(StatsError::InvalidInput(format!(
@@ -266,7 +271,8 @@ impl ClassCurve {
             floor_replaced: floor_msun <= 0.0,
             n_nodes: opts.n_nodes,
             spline: CubicSpline::linear_placeholder(b_lo, b_hi),
-            measurements: Arc::from(measurements),
+            informative: Box::default(),
+            skipped: Box::default(),
             smooth: Vec::new(),
             sharp: Vec::new(),
             informative_indices: Vec::new(),
@@ -277,19 +283,30 @@ impl ClassCurve {
             out_of_range_calls: AtomicUsize::new(0),
         };
         let b_abs = b_lo.abs().max(b_hi.abs());
-        // (position, smoothing width) of each informative object that is not skipped; positions
-        // fit in a u32 (checked above).
+        // (position in `informative`, smoothing width) of each informative object that is not
+        // skipped; positions fit in a u32 (checked above).
         let mut kept: Vec<(u32, f64)> = Vec::new();
+        let mut informative: Vec<Measurement> = Vec::new();
+        let mut skipped: Vec<Measurement> = Vec::new();
         for (i, m) in measurements.iter().enumerate() {
-            match classify(m, floor_msun, (b_lo, b_hi), opts.eps_skip) {
+            match classify(&m, floor_msun, (b_lo, b_hi), opts.eps_skip) {
                 Standing::Uninformative => curve.n_uninformative += 1,
-                Standing::Skipped => curve.skipped_indices.push(i),
+                Standing::Skipped => {
+                    curve.skipped_indices.push(i);
+                    skipped.push(m);
+                }
                 Standing::Informative => {
                     curve.informative_indices.push(i);
-                    kept.push((i as u32, smoothing_width_in_bound(m, b_abs, floor_msun)));
+                    kept.push((
+                        informative.len() as u32,
+                        smoothing_width_in_bound(&m, b_abs, floor_msun),
+                    ));
+                    informative.push(m);
                 }
             }
         }
+        curve.informative = informative.into_boxed_slice();
+        curve.skipped = skipped.into_boxed_slice();
         // Tabulate; with a target error, double the node density until it is met. A doubling
         // keeps every node of the previous round (node k of n is node 2k of 2n − 1, to the
         // bit), so while the smooth objects stay the same their sums there, and the exact sums
@@ -318,7 +335,7 @@ impl ClassCurve {
             let prepared: Vec<PreparedLnP> = curve
                 .smooth
                 .iter()
-                .map(|&at| PreparedLnP::new(&measurements[at as usize], floor_msun))
+                .map(|&at| PreparedLnP::new(&curve.informative[at as usize], floor_msun))
                 .collect();
             let nodes: Vec<f64> = (0..n).map(|k| node(b_lo, b_hi, n, k)).collect();
             let values: Vec<f64> = nodes
@@ -357,15 +374,9 @@ impl ClassCurve {
         Ok(curve)
     }
 
-    /// The measurements at `positions`, in that order.
+    /// The informative measurements at `positions`, in that order.
     fn at<'a>(&'a self, positions: &'a [u32]) -> impl Iterator<Item = &'a Measurement> + 'a {
-        positions.iter().map(|&at| &self.measurements[at as usize])
-    }
-
-    /// The class's measurements, all of them in the caller's order (the positions of
-    /// [`ClassCurve::informative_indices`] and [`ClassCurve::skipped_indices`] index them).
-    pub fn measurements(&self) -> &[Measurement] {
-        &self.measurements
+        positions.iter().map(|&at| &self.informative[at as usize])
     }
 
     /// L_c(B): the spline plus the exact sum over sharp objects inside the tabulated range; the
@@ -383,14 +394,10 @@ impl ClassCurve {
     /// reference the reduction is measured against; cost O(N)).
     pub fn exact(&self, b_msun: f64) -> f64 {
         let mut acc = NeumaierSum::default();
-        let skipped = self
-            .skipped_indices
-            .iter()
-            .map(|&at| &self.measurements[at]);
         for m in self
             .at(&self.smooth)
             .chain(self.at(&self.sharp))
-            .chain(skipped)
+            .chain(self.skipped.iter())
         {
             acc.add(ln_prob_consistent(m, b_msun, self.floor_msun));
         }
@@ -544,7 +551,7 @@ impl SharedFloorCurve {
         let inner = classes
             .iter()
             .map(|ms| {
-                ClassCurve::build_on_range(ms, 0.0, (b_lo - reach, b_hi + reach), &inner_opts)
+                ClassCurve::build_on_range(*ms, 0.0, (b_lo - reach, b_hi + reach), &inner_opts)
             })
             .collect::<Result<Vec<_>, _>>()?;
         let n = shared.n_eps;

@@ -524,28 +524,39 @@ pub struct PopulationTerm {
 }
 
 impl PopulationTerm {
-    /// Counts the objects inside `window_msun` = (M_lo, M_hi), M_lo < M_hi.
-    pub fn new(
+    /// Counts the objects inside `window_msun` = (M_lo, M_hi), M_lo < M_hi. The classes are
+    /// read once, in order, as any iterator of measurements (as [`crowding`] reads them).
+    pub fn new<H, B>(
         window_msun: (f64, f64),
-        hburning: &[Measurement],
-        brown_dwarf: &[Measurement],
-    ) -> Result<Self, StatsError> {
+        hburning: H,
+        brown_dwarf: B,
+    ) -> Result<Self, StatsError>
+    where
+        H: IntoIterator,
+        H::Item: std::borrow::Borrow<Measurement>,
+        B: IntoIterator,
+        B::Item: std::borrow::Borrow<Measurement>,
+    {
         let (lo, hi) = window_msun;
         if !(lo.is_finite() && hi.is_finite() && lo < hi) {
             return Err(StatsError::InvalidInput(format!(
                 "mass window [{lo}, {hi}] M☉ is not an ordered pair"
             )));
         }
-        let count = |ms: &[Measurement]| {
-            ms.iter()
-                .filter(|m| m.informative() && m.mass_msun >= lo && m.mass_msun <= hi)
-                .count()
-        };
+        let inside = |m: &Measurement| m.informative() && m.mass_msun >= lo && m.mass_msun <= hi;
+        let n_hburning = hburning
+            .into_iter()
+            .filter(|m| inside(std::borrow::Borrow::borrow(m)))
+            .count();
+        let n_brown_dwarf = brown_dwarf
+            .into_iter()
+            .filter(|m| inside(std::borrow::Borrow::borrow(m)))
+            .count();
         Ok(Self {
             m_lo_msun: lo,
             m_hi_msun: hi,
-            n_hburning: count(hburning),
-            n_brown_dwarf: count(brown_dwarf),
+            n_hburning,
+            n_brown_dwarf,
         })
     }
 

@@ -37,10 +37,10 @@
 
 use rayon::prelude::*;
 
-use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term};
+use super::engine::{Bound, BoundSurface, Confrontation, EngineOptions, Term, TermMembers};
 use super::mass_terms::{BoundTerm, Systematics};
 use super::nuisance::SharedNuisance;
-use super::prob::{Measurement, StatsError};
+use super::prob::StatsError;
 use super::reduce::{bound_range, CubicSpline, SplineEnd, SplineWeights};
 use super::regions::{self, UpsilonSlice};
 use super::wd_radius::{
@@ -556,13 +556,14 @@ pub fn tau0_slice_other_floor(
             vec![Term::WhiteDwarfMass],
         ),
     ] {
-        let ms: Vec<(Term, Vec<Measurement>)> = classes
+        // Positions, the measurements made again where read: lists of them were 48 bytes per
+        // object, as large as the main run's peak.
+        let ms: Vec<(Term, TermMembers<'_>)> = classes
             .into_iter()
-            .map(|t| {
-                let v = conf.member_measurements(objects, t).collect::<Vec<_>>();
-                (t, v)
-            })
-            .filter(|(_, v)| !v.is_empty())
+            .map(|t| Ok((t, conf.term_members(objects, t)?)))
+            .collect::<Result<Vec<_>, StatsError>>()?
+            .into_iter()
+            .filter(|(_, v)| !v.positions().is_empty())
             .collect();
         if ms.is_empty() {
             continue;
@@ -576,8 +577,7 @@ pub fn tau0_slice_other_floor(
         let Some(range) = bound_range(&values) else {
             continue;
         };
-        let refs: Vec<(Term, &[Measurement])> =
-            ms.iter().map(|(t, v)| (*t, v.as_slice())).collect();
+        let refs: Vec<(Term, &TermMembers<'_>)> = ms.iter().map(|(t, v)| (*t, v)).collect();
         terms.push((bound, BoundTerm::build(&refs, floor, range, &mt)?));
     }
     // The radius term under the other treatment: total floors split again, scale on or off.
