@@ -272,6 +272,7 @@ pub fn run_confrontation(
     let slice = tau0_slice(&conf, &surface)?;
     // The same slice with the other treatment of the theory floors (shared or per object),
     // and the profile and flat-prior posterior readings of the map.
+    steps.step("τ = 0 slice, other floor");
     let slice_other_floor = match &slice {
         Some(s) => Some(tau0_slice_other_floor(
             &conf,
