@@ -36,10 +36,39 @@ pub fn bar(len: u64, msg: &'static str, bytes: bool) -> indicatif::ProgressBar {
 /// terminal. Call [`Steps::step`] as each step starts and [`Steps::finish`] at the end.
 pub struct Steps {
     bar: indicatif::ProgressBar,
-    /// With `DWARFBOUND_TIMINGS` set: the step under way, its start (wall) and the process's
-    /// CPU seconds then; each step's wall and CPU time go to stderr when it ends (for the
-    /// developers' stage tables, DEVELOPERS.md).
-    timing: Option<std::sync::Mutex<(&'static str, std::time::Instant, f64)>>,
+    timing: Laps,
+}
+
+/// With `DWARFBOUND_TIMINGS` set, the wall and CPU time of each named step of a stage, printed
+/// to stderr as the step ends (for the developers' stage tables, DEVELOPERS.md); nothing
+/// otherwise. [`Steps`] keeps one beside its bar; a stage without a bar (writing the outputs)
+/// uses one alone.
+pub struct Laps(Option<std::sync::Mutex<(&'static str, std::time::Instant, f64)>>);
+
+impl Laps {
+    /// Starts timing the stage `msg` (a line with the process's CPU seconds so far).
+    pub fn new(msg: &str) -> Laps {
+        Laps(std::env::var_os("DWARFBOUND_TIMINGS").map(|_| {
+            eprintln!("timing: {msg}: start at {:.2} CPU-s", process_cpu_s());
+            std::sync::Mutex::new(("", std::time::Instant::now(), process_cpu_s()))
+        }))
+    }
+
+    /// Prints the step that ends now (if one was named) and starts `next`.
+    pub fn lap(&self, next: &'static str) {
+        if let Some(Ok(mut t)) = self.0.as_ref().map(|t| t.lock()) {
+            let cpu = process_cpu_s();
+            if !t.0.is_empty() {
+                eprintln!(
+                    "timing: {:<28} {:7.3} s wall {:7.3} CPU-s",
+                    t.0,
+                    t.1.elapsed().as_secs_f64(),
+                    cpu - t.2
+                );
+            }
+            *t = (next, std::time::Instant::now(), cpu);
+        }
+    }
 }
 
 /// CPU seconds (user + system, all threads) of this process so far, from `/proc/self/stat`
@@ -61,10 +90,7 @@ pub fn process_cpu_s() -> f64 {
 impl Steps {
     /// A bar of `len` steps labelled `msg`.
     pub fn new(len: u64, msg: &'static str) -> Steps {
-        let timing = std::env::var_os("DWARFBOUND_TIMINGS").map(|_| {
-            eprintln!("timing: {msg}: start at {:.2} CPU-s", process_cpu_s());
-            std::sync::Mutex::new(("", std::time::Instant::now(), process_cpu_s()))
-        });
+        let timing = Laps::new(msg);
         if !std::io::stderr().is_terminal() {
             return Steps {
                 bar: indicatif::ProgressBar::hidden(),
@@ -83,25 +109,9 @@ impl Steps {
         Steps { bar, timing }
     }
 
-    /// Prints the step that ends now (timings on) and starts `next`.
-    fn lap(&self, next: &'static str) {
-        if let Some(Ok(mut t)) = self.timing.as_ref().map(|t| t.lock()) {
-            let cpu = process_cpu_s();
-            if !t.0.is_empty() {
-                eprintln!(
-                    "timing: {:<28} {:7.3} s wall {:7.3} CPU-s",
-                    t.0,
-                    t.1.elapsed().as_secs_f64(),
-                    cpu - t.2
-                );
-            }
-            *t = (next, std::time::Instant::now(), cpu);
-        }
-    }
-
     /// Marks the previous step done and names the one starting now.
     pub fn step(&self, what: &'static str) {
-        self.lap(what);
+        self.timing.lap(what);
         if self.bar.message().is_empty() {
             self.bar.set_position(0);
         } else {
@@ -112,7 +122,7 @@ impl Steps {
 
     /// Removes the bar.
     pub fn finish(&self) {
-        self.lap("");
+        self.timing.lap("");
         self.bar.finish_and_clear();
     }
 }

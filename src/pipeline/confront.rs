@@ -444,25 +444,15 @@ fn write_outputs(
     nightly: Option<&NightlyContext>,
 ) -> Result<(Value, Option<super::history::RunDifference>), PipelineError> {
     std::fs::create_dir_all(out_dir).map_err(|e| OutputError::new(out_dir, e))?;
-    // With DWARFBOUND_TIMINGS: each output's share of the outputs stage (wall, CPU so far).
-    let timings = std::env::var_os("DWARFBOUND_TIMINGS").is_some();
-    let mut last = std::time::Instant::now();
-    let mut mark = |what: &str| {
-        if timings {
-            eprintln!(
-                "timing:   {what:<26} {:7.3} s wall, process total {:.2} CPU-s",
-                last.elapsed().as_secs_f64(),
-                crate::progress::process_cpu_s()
-            );
-            last = std::time::Instant::now();
-        }
-    };
+    // With DWARFBOUND_TIMINGS: each output's share of the outputs stage.
+    let laps = crate::progress::Laps::new("outputs");
+    laps.lap(ctx.settings.objects_format.file_name());
     // The per-object table is streamed into its temporary file now and published in its turn
     // below (one row group at a time: never held whole in memory).
     let format = ctx.settings.objects_format;
     let mut objects_file = AtomicFile::create(&out_dir.join(format.file_name()))?;
     ctx.write_objects(&mut objects_file, format)?;
-    mark(format.file_name());
+    laps.lap("summary, comparison, quarantine");
     let mut summary = ctx.summary_json();
     let difference = match nightly {
         Some(n) => Some(super::history::RunDifference {
@@ -498,15 +488,15 @@ fn write_outputs(
     if std::env::var_os("DWARFBOUND_TEST_ABORT_MID_WRITE").is_some() {
         std::process::abort();
     }
-    mark("summary, comparison, quarantine");
+    laps.lap("grid.csv, summary.json");
     write_atomic(&out_dir.join("grid.csv"), &ctx.grid_csv()?)?;
     let mut summary_bytes =
         serde_json::to_vec_pretty(&summary).map_err(|e| PipelineError::Internal(e.to_string()))?;
     summary_bytes.push(b'\n');
     write_atomic(&out_dir.join("summary.json"), &summary_bytes)?;
-    mark("grid.csv, summary.json");
+    laps.lap("report and figures");
     super::report_input::write_report_files(ctx, out_dir, generated_at)?;
-    mark("report and figures");
+    laps.lap("");
     Ok((summary, difference))
 }
 
