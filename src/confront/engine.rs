@@ -1168,14 +1168,11 @@ pub fn tension_of(
     class_bound_msun: f64,
     opts: &EngineOptions,
 ) -> Option<f64> {
-    let ln_p = ln_p_object(term, m, class_bound_msun, opts);
     if !m.informative() {
         return None;
     }
-    if ln_p <= -std::f64::consts::LN_2 {
-        return Some(tension_sigma(ln_p));
-    }
-    safe_side_tension(term, m, class_bound_msun, opts)
+    wrong_side_tension(term, m, class_bound_msun, opts)
+        .or_else(|| safe_side_tension(term, m, class_bound_msun, opts))
 }
 
 /// [`tension_of`] where it is positive: `Some(z)` (the same value) when P ≤ ½, `None` for an
@@ -1189,7 +1186,9 @@ pub fn wrong_side_tension(
     opts: &EngineOptions,
 ) -> Option<f64> {
     let ln_p = ln_p_object(term, m, class_bound_msun, opts);
-    if !m.informative() || ln_p > -std::f64::consts::LN_2 {
+    // A NaN ln P, too, is left to `tension_of`'s safe-side path.
+    let wrong_side = ln_p <= -std::f64::consts::LN_2;
+    if !m.informative() || !wrong_side {
         return None;
     }
     Some(tension_sigma(ln_p))
