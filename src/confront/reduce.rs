@@ -261,9 +261,6 @@ impl ClassCurve {
                 opts.n_nodes
             )));
         }
-        for (i, m) in measurements.iter().enumerate() {
-            m.validate(i)?;
-        }
         let mut curve = Self {
             b_lo_msun: b_lo,
             b_hi_msun: b_hi,
@@ -288,7 +285,10 @@ impl ClassCurve {
         let mut kept: Vec<(u32, f64)> = Vec::new();
         let mut informative: Vec<Measurement> = Vec::new();
         let mut skipped: Vec<Measurement> = Vec::new();
+        // One pass: each measurement is checked where it is sorted (a view makes it anew at
+        // every pass over the class).
         for (i, m) in measurements.iter().enumerate() {
+            m.validate(i)?;
             match classify(&m, floor_msun, (b_lo, b_hi), opts.eps_skip) {
                 Standing::Uninformative => curve.n_uninformative += 1,
                 Standing::Skipped => {
