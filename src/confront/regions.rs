@@ -468,6 +468,19 @@ pub struct Crowding {
     pub warn: bool,
 }
 
+/// How many of `measurements` (owned or borrowed, read once in order) pass `keep`: the counts
+/// of [`crowding`] and [`PopulationTerm::new`].
+fn count_where<I>(measurements: I, keep: impl Fn(&Measurement) -> bool) -> usize
+where
+    I: IntoIterator,
+    I::Item: std::borrow::Borrow<Measurement>,
+{
+    measurements
+        .into_iter()
+        .filter(|m| keep(std::borrow::Borrow::borrow(m)))
+        .count()
+}
+
 /// The §8.7 check: how many informative objects of each opposing MMHB class lie within
 /// `z_window` σ (in the sense of their own tension, floor included) of the MMHB at the best fit.
 ///
@@ -491,14 +504,7 @@ where
         m.informative()
             && tension_sigma(ln_prob_consistent(m, mmhb_msun, floor_msun)).abs() <= opts.z_window
     };
-    let h = hburning
-        .into_iter()
-        .filter(|m| near(std::borrow::Borrow::borrow(m)))
-        .count();
-    let b = brown_dwarf
-        .into_iter()
-        .filter(|m| near(std::borrow::Borrow::borrow(m)))
-        .count();
+    let (h, b) = (count_where(hburning, near), count_where(brown_dwarf, near));
     Crowding {
         n_hburning_near: h,
         n_brown_dwarf_near: b,
@@ -544,14 +550,10 @@ impl PopulationTerm {
             )));
         }
         let inside = |m: &Measurement| m.informative() && m.mass_msun >= lo && m.mass_msun <= hi;
-        let n_hburning = hburning
-            .into_iter()
-            .filter(|m| inside(std::borrow::Borrow::borrow(m)))
-            .count();
-        let n_brown_dwarf = brown_dwarf
-            .into_iter()
-            .filter(|m| inside(std::borrow::Borrow::borrow(m)))
-            .count();
+        let (n_hburning, n_brown_dwarf) = (
+            count_where(hburning, inside),
+            count_where(brown_dwarf, inside),
+        );
         Ok(Self {
             m_lo_msun: lo,
             m_hi_msun: hi,
