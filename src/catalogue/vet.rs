@@ -1387,15 +1387,6 @@ impl IdTable {
         None
     }
 
-    /// Records a new id (the caller has checked it is not there).
-    #[cfg(test)]
-    fn insert(&mut self, key: &str, first_raw: Option<Box<str>>) {
-        self.grow_for(1);
-        let hash = Self::hash(key);
-        let (slot, _) = self.probe(key, hash);
-        self.place(slot, hash, key, first_raw);
-    }
-
     /// Puts a new id in the empty `slot` that probing for it found (room already made).
     fn place(&mut self, slot: usize, hash: u64, key: &str, first_raw: Option<Box<str>>) {
         let at = self.entries.len();
@@ -2502,7 +2493,8 @@ mod tests {
         for k in 0..20_000 {
             let id = format!("SC-{k:07}");
             assert_eq!(t.find(&id), None);
-            t.insert(&id, (k % 1000 == 0).then(|| format!(" {id}").into()));
+            let first_raw = (k % 1000 == 0).then(|| format!(" {id}").into());
+            assert_eq!(t.find_or_insert(&id, || first_raw), None);
         }
         for k in 0..20_000 {
             let id = format!("SC-{k:07}");
@@ -2510,6 +2502,10 @@ mod tests {
             assert_eq!(t.key(at), id);
             assert_eq!(t.first_raw.contains_key(&at), k % 1000 == 0);
         }
+        // A second sighting is found, not recorded again.
+        let at = t.find("SC-0000042").unwrap();
+        assert_eq!(t.find_or_insert("SC-0000042", || None), Some(at));
+        assert_eq!(t.entries.len(), 20_000);
         assert_eq!(t.find("SC-0020000"), None);
         assert_eq!(t.find(""), None);
     }
