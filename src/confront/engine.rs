@@ -227,6 +227,154 @@ impl ObjectUse {
     }
 }
 
+/// Every object's [`ObjectUse`], each distinct use held once: use `k` is object `k` of the
+/// caller's list.
+///
+/// Most objects of a catalogue share their use with thousands of others (a class, its flags,
+/// μe 2 and a bound scale of 1): held one per object, the uses were 40 MB of a million-object
+/// run from the comparison to the last output (heaptrack). Each object now keeps a 4-byte
+/// position in the list of distinct uses; a use that differs in any bit (a spinning star's
+/// scale, a white dwarf's own μe) is a distinct use of its own, so nothing is rounded.
+///
+/// ```
+/// use dwarfbound::confront::engine::{Flags, ObjectUse, ObjectUses, Term};
+/// let star = ObjectUse { mass_term: Some(Term::HBurning), bound_scale: 1.0, radius_term: false,
+///     excluded: None, radius_excluded: None, flags: Flags::default(), core: None, mu_e: 2.0 };
+/// let uses: ObjectUses = vec![star.clone(); 1000].into_iter().collect();
+/// assert_eq!((uses.len(), uses.distinct()), (1000, 1));
+/// assert_eq!(uses[999], star);
+/// ```
+#[derive(Debug, Clone, Default)]
+pub struct ObjectUses {
+    /// The distinct uses, in the order first met.
+    distinct: Vec<ObjectUse>,
+    /// Per object: its use's position in `distinct`.
+    which: Vec<u32>,
+}
+
+/// A use's bits, as the key that finds an equal use already held.
+#[derive(PartialEq, Eq, Hash)]
+struct UseBits {
+    mass_term: Option<Term>,
+    bound_scale: u64,
+    radius_term: bool,
+    excluded: Option<LeftOut>,
+    radius_excluded: Option<LeftOut>,
+    flags: Flags,
+    core: Option<ResolvedCore>,
+    mu_e: u64,
+}
+
+impl UseBits {
+    fn of(u: &ObjectUse) -> Self {
+        Self {
+            mass_term: u.mass_term,
+            bound_scale: u.bound_scale.to_bits(),
+            radius_term: u.radius_term,
+            excluded: u.excluded,
+            radius_excluded: u.radius_excluded,
+            flags: u.flags.clone(),
+            core: u.core,
+            mu_e: u.mu_e.to_bits(),
+        }
+    }
+}
+
+impl FromIterator<ObjectUse> for ObjectUses {
+    fn from_iter<I: IntoIterator<Item = ObjectUse>>(iter: I) -> Self {
+        let mut out = ObjectUses::default();
+        let mut seen: std::collections::HashMap<UseBits, u32> = Default::default();
+        for u in iter {
+            let key = UseBits::of(&u);
+            let at = match seen.get(&key) {
+                Some(&at) => at,
+                None => {
+                    let at = out.next_position();
+                    seen.insert(key, at);
+                    out.distinct.push(u);
+                    at
+                }
+            };
+            out.which.push(at);
+        }
+        out
+    }
+}
+
+impl ObjectUses {
+    /// The uses of `objects` ([`plan_one`] each). More than 2³² − 1 objects are refused.
+    pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Result<Self, EngineError> {
+        if u32::try_from(objects.len()).is_err() {
+            return Err(EngineError::Stats(StatsError::InvalidInput(format!(
+                "{} objects: at most 2³² − 1 are supported",
+                objects.len()
+            ))));
+        }
+        Ok(objects.iter().map(|o| plan_one(o, opts)).collect())
+    }
+
+    /// Number of objects.
+    pub fn len(&self) -> usize {
+        self.which.len()
+    }
+
+    /// Whether there is no object.
+    pub fn is_empty(&self) -> bool {
+        self.which.is_empty()
+    }
+
+    /// Number of distinct uses held.
+    pub fn distinct(&self) -> usize {
+        self.distinct.len()
+    }
+
+    /// Object `k`'s use.
+    pub fn get(&self, k: usize) -> Option<&ObjectUse> {
+        self.which
+            .get(k)
+            .and_then(|&at| self.distinct.get(at as usize))
+    }
+
+    /// Every object's use, in object order.
+    pub fn iter(&self) -> impl ExactSizeIterator<Item = &ObjectUse> + Clone + '_ {
+        self.which.iter().map(|&at| &self.distinct[at as usize])
+    }
+
+    /// [`ObjectUses::iter`] in parallel (indexed, so it zips with the objects).
+    pub fn par_iter(&self) -> impl IndexedParallelIterator<Item = &ObjectUse> + '_ {
+        self.which.par_iter().map(|&at| &self.distinct[at as usize])
+    }
+
+    /// Changes object `k`'s use alone (a spin test's scale and flags, a white dwarf left out of
+    /// the radius test): the changed use is held as a distinct one of its own, and the others
+    /// that shared it are untouched. Nothing happens for a `k` out of range.
+    pub(crate) fn update(&mut self, k: usize, change: impl FnOnce(&mut ObjectUse)) {
+        let Some(mut u) = self.get(k).cloned() else {
+            return;
+        };
+        change(&mut u);
+        if self.get(k) != Some(&u) {
+            let at = self.next_position();
+            self.distinct.push(u);
+            self.which[k] = at;
+        }
+    }
+
+    /// The position the next distinct use takes (below 2³² − 1: there are no more distinct
+    /// uses than objects, and [`ObjectUses::plan`] refuses more objects than that).
+    fn next_position(&self) -> u32 {
+        u32::try_from(self.distinct.len()).unwrap_or(u32::MAX)
+    }
+}
+
+impl std::ops::Index<usize> for ObjectUses {
+    type Output = ObjectUse;
+
+    fn index(&self, k: usize) -> &ObjectUse {
+        &self.distinct[self.which[k] as usize]
+    }
+}
+
 /// Why an object is left out of a test. A code rather than a sentence: every object has an
 /// [`ObjectUse`], and two `Option<String>`s were 48 of its bytes in each of a million uses.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -304,10 +452,10 @@ const INLINE_FLAGS: usize = 14;
 /// the memory of a large confrontation; the known names are kept as one-byte indices inline,
 /// and a list spills to strings only for a name outside [`KNOWN_FLAGS`] (boxed, so that the
 /// rare spilled list does not make every object's flags 24 bytes instead of 16).
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
 pub struct Flags(FlagStore);
 
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
 enum FlagStore {
     Inline {
         codes: [u8; INLINE_FLAGS],
@@ -393,7 +541,7 @@ pub struct Confrontation {
     /// Joint −2 ln L per grid point.
     pub joint: Vec<Option<f64>>,
     /// How each object was used.
-    pub uses: Vec<ObjectUse>,
+    pub uses: ObjectUses,
     /// Per use: its position among the uses of its mass term ([`Confrontation::members`]
     /// order; `u32::MAX` without one), so that an object's term is found without a scan.
     /// Derived from `uses` when the comparison is built, so not public.
@@ -545,7 +693,7 @@ impl Confrontation {
 pub struct TermMembers<'a> {
     positions: Vec<u32>,
     objects: &'a [CatalogueObject],
-    uses: &'a [ObjectUse],
+    uses: &'a ObjectUses,
 }
 
 impl<'a> TermMembers<'a> {
@@ -553,7 +701,7 @@ impl<'a> TermMembers<'a> {
     /// 2³² − 1 objects are refused.
     pub fn new(
         objects: &'a [CatalogueObject],
-        uses: &'a [ObjectUse],
+        uses: &'a ObjectUses,
         term: Term,
     ) -> Result<Self, StatsError> {
         if u32::try_from(objects.len().min(uses.len())).is_err() {
@@ -566,10 +714,10 @@ impl<'a> TermMembers<'a> {
         let of_term = |u: &ObjectUse| u.mass_term == Some(term);
         // Counted first and allocated to size: collected from a filter, a list grows by
         // doubling to up to twice its length.
-        let mut positions = Vec::with_capacity(uses[..n].iter().filter(|u| of_term(u)).count());
+        let mut positions = Vec::with_capacity(uses.iter().take(n).filter(|u| of_term(u)).count());
         positions.extend(
-            uses[..n]
-                .iter()
+            uses.iter()
+                .take(n)
                 .enumerate()
                 .filter(|(_, u)| of_term(u))
                 .map(|(k, _)| k as u32),
@@ -748,7 +896,7 @@ pub fn confront(
     if n == 0 {
         return Err(EngineError::Grid("the grid has no points".into()));
     }
-    let mut uses = plan(objects, opts);
+    let mut uses = ObjectUses::plan(objects, opts)?;
     let spins = super::spin::prepare(objects, &mut uses, surface, opts);
     let mmhb: Vec<Option<f64>> = (0..n).map(|i| surface.mmhb_msun(i)).collect();
     let chandra: Vec<Option<f64>> = (0..n).map(|i| surface.chandrasekhar_mu2_msun(i)).collect();
@@ -877,10 +1025,11 @@ pub fn confront(
             if r.at_nominal.is_some() {
                 return true;
             }
-            let u = &mut uses[r.index];
-            u.radius_term = false;
-            u.flags.raise(LeftOut::OutsideModel.flag());
-            u.radius_excluded = Some(LeftOut::OutsideModel);
+            uses.update(r.index, |u| {
+                u.radius_term = false;
+                u.flags.raise(LeftOut::OutsideModel.flag());
+                u.radius_excluded = Some(LeftOut::OutsideModel);
+            });
             false
         });
     }
@@ -956,7 +1105,7 @@ pub fn confront(
 }
 
 /// Each use's position among the uses of its own mass term (`u32::MAX` without one).
-fn term_positions(uses: &[ObjectUse]) -> Vec<u32> {
+fn term_positions(uses: &ObjectUses) -> Vec<u32> {
     let mut next = [0u32; 5];
     uses.iter()
         .map(|u| match u.mass_term {
@@ -974,7 +1123,7 @@ fn term_positions(uses: &[ObjectUse]) -> Vec<u32> {
 /// (asked of the surface once for all objects), floor and Teff error.
 pub fn prepare_radius_objects(
     objects: &[CatalogueObject],
-    uses: &[ObjectUse],
+    uses: &ObjectUses,
     surface: &dyn BoundSurface,
     opts: &EngineOptions,
 ) -> Vec<ObjectRadius> {
@@ -1279,8 +1428,13 @@ mod tests {
             assert_eq!(again, planned);
             assert_eq!(again.scale.to_bits(), planned.scale.to_bits());
         }
+        // Each distinct use is held once, and every object still reads its own plan.
+        let planned = super::plan(&objects, &opts);
+        let uses = super::ObjectUses::plan(&objects, &opts).unwrap();
+        assert_eq!(uses.len(), planned.len());
+        assert!(uses.distinct() < planned.len());
+        assert!(uses.iter().eq(planned.iter()));
         // A term's members lend the bound terms the same measurements, in object order.
-        let uses = super::plan(&objects, &opts);
         for t in [Term::HBurning, Term::BrownDwarf, Term::WhiteDwarfMass] {
             let members = super::TermMembers::new(&objects, &uses, t).unwrap();
             let lent: Vec<_> = ClassMeasurements::from(&members).iter().collect();
@@ -1293,6 +1447,40 @@ mod tests {
             assert!(!want.is_empty());
             assert_eq!(lent, want);
         }
+    }
+
+    #[test]
+    fn a_shared_use_changed_for_one_object_only() {
+        // A spin test or a radius left out changes one object's use; the objects that shared
+        // it keep theirs (common practice, no source).
+        let star = ObjectUse {
+            mass_term: Some(Term::HBurning),
+            bound_scale: 1.0,
+            radius_term: false,
+            excluded: None,
+            radius_excluded: None,
+            flags: Flags::default(),
+            core: None,
+            mu_e: 2.0,
+        };
+        let mut uses: super::ObjectUses = vec![star.clone(); 4].into_iter().collect();
+        assert_eq!(uses.distinct(), 1);
+        uses.update(2, |u| {
+            u.bound_scale *= 1.01;
+            u.flags.raise("spin_corrected");
+        });
+        uses.update(3, |_| {});
+        assert_eq!(uses.distinct(), 2);
+        assert_eq!((&uses[0], &uses[1], &uses[3]), (&star, &star, &star));
+        assert_eq!(uses[2].bound_scale, 1.01);
+        assert!(uses[2].flags.contains("spin_corrected"));
+        uses.update(9, |u| u.mu_e = 3.0);
+        assert_eq!(uses.len(), 4);
+        // A bound scale that differs in its last bit is a use of its own: nothing is rounded.
+        let mut close = star.clone();
+        close.bound_scale = f64::from_bits(1.0f64.to_bits() + 1);
+        let two: super::ObjectUses = [star.clone(), close.clone()].into_iter().collect();
+        assert_eq!((two.distinct(), &two[1]), (2, &close));
     }
 
     #[test]

@@ -57,7 +57,7 @@
 
 use rayon::prelude::*;
 
-use super::engine::{radius_mass_nodes, BoundSurface, EngineOptions, ObjectUse};
+use super::engine::{radius_mass_nodes, BoundSurface, EngineOptions, ObjectUses};
 use super::prob::{ln_normal_cdf, ln_prob_consistent, Measurement};
 use super::wd_radius::{ObjectRadius, WdQuery, WdRadiusModel};
 use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
@@ -184,7 +184,7 @@ pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
 /// The slow-rotation change of one brown dwarf's or star's MMHB at every grid point.
 ///
 /// The object's mass test runs inside its class's term with the standard-gravity factor
-/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`ObjectUse::bound_scale`]). At a grid point the
+/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`super::engine::ObjectUse::bound_scale`]). At a grid point the
 /// first-order factor is f = 1 + v (d ln M/dv), with the coefficients of the n = 3/2 polytrope
 /// of that point's (ϒ, τ) ([`BoundSurface::slow_rotation_n32`]) and v = Ω²/(2πGρ_c) from that
 /// polytrope's central density for the object's radius there (measured, or cold at the point).
@@ -601,7 +601,7 @@ pub fn effective_index(slope: f64) -> f64 {
 /// Objects with a mass limit are left out of the spin test (flag `spin_mass_limit`).
 pub fn prepare(
     objects: &[CatalogueObject],
-    uses: &mut [ObjectUse],
+    uses: &mut ObjectUses,
     surface: &dyn BoundSurface,
     opts: &EngineOptions,
 ) -> Vec<ObjectSpin> {
@@ -613,9 +613,13 @@ pub fn prepare(
         let Some(period_h) = o.rotation_period_h().get() else {
             continue;
         };
-        let u = &mut uses[k];
+        // Changed on a copy and put back: the uses of other objects may share this one.
+        let Some(mut u) = uses.get(k).cloned() else {
+            continue;
+        };
         if o.mass_limit != MassLimit::None {
             u.flags.push("spin_mass_limit".to_string());
+            uses.update(k, |held| *held = u);
             continue;
         }
         let is_wd = o.class == ObjectClass::WhiteDwarf;
@@ -707,6 +711,7 @@ pub fn prepare(
                 SlowRotationStatus::NotApplied => {}
             }
         }
+        uses.update(k, |held| *held = u);
         out.push(spin);
     }
     out

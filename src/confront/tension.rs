@@ -25,7 +25,9 @@
 
 use rayon::prelude::*;
 
-use super::engine::{self, BoundSurface, Confrontation, EngineOptions, ObjectUse, Term};
+use super::engine::{
+    self, BoundSurface, Confrontation, EngineOptions, ObjectUse, ObjectUses, Term,
+};
 use super::regions::{
     absolute_consistency, crowding, AbsoluteConsistency, Crowding, CrowdingOptions,
 };
@@ -179,7 +181,7 @@ impl Verdicts {
 #[allow(clippy::too_many_arguments)] // the two reference points and where the best one sits
 pub fn object_verdicts(
     objects: &[CatalogueObject],
-    uses: &[ObjectUse],
+    uses: &ObjectUses,
     radius_objects: &[ObjectRadius],
     spins: &[ObjectSpin],
     standard: &ReferencePoint,
@@ -195,7 +197,7 @@ pub fn object_verdicts(
         .unwrap_or(0.0);
     let mass = objects
         .par_iter()
-        .zip(uses)
+        .zip(uses.par_iter())
         .map(|(o, u)| {
             let term = class_term(o.class);
             let m = u.measurement(o);
