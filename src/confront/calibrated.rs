@@ -667,14 +667,58 @@ const TAIL_SWITCH: f64 = 1e-6;
 /// One object on the calibrated path: only what its tables are recomputed from. Its
 /// posterior over the mass cells and its P at the nodes (about a kilobyte per object) are
 /// rebuilt on demand ([`CalibratedCurve::object_table`]), so memory does not grow with the
-/// catalogue by more than this record per object.
+/// catalogue by more than this record per object. On this path the measurement is always a
+/// measured mass with its two widths, so it is kept as those numbers and made again
+/// ([`CalObject::measurement`], the same bits): 48 bytes, against 64 with the general
+/// [`Measurement`] and a `usize` position (a curve holds one per calibrated object, and a run
+/// holds two curves at once: the main one and the other floor's).
 #[derive(Debug, Clone)]
 struct CalObject {
-    /// Position in the caller's list of the class.
-    index: usize,
-    measurement: Measurement,
+    mass_msun: f64,
+    lo: f64,
+    hi: f64,
+    scale: f64,
     /// ln P − ln P_flat where the tail takes over (0 if it never does on the nodes).
     tail_offset: f64,
+    /// Position in the caller's list of the class.
+    index: u32,
+    side: Side,
+}
+
+impl CalObject {
+    /// The record of the measured object at `index`; `None` for a limit (never on this path).
+    fn new(index: u32, m: &Measurement, tail_offset: f64) -> Option<Self> {
+        let MassKind::Measured { lo, hi } = m.kind else {
+            return None;
+        };
+        Some(Self {
+            mass_msun: m.mass_msun,
+            lo,
+            hi,
+            scale: m.scale,
+            tail_offset,
+            index,
+            side: m.side,
+        })
+    }
+
+    /// The measurement it was made from, to the bit.
+    fn measurement(&self) -> Measurement {
+        Measurement {
+            mass_msun: self.mass_msun,
+            kind: MassKind::Measured {
+                lo: self.lo,
+                hi: self.hi,
+            },
+            side: self.side,
+            scale: self.scale,
+        }
+    }
+
+    /// Its position in the class, for the searches by position.
+    fn position(&self) -> usize {
+        self.index as usize
+    }
 }
 
 /// What each mass cell contributes to an object's P at one bound
@@ -730,7 +774,7 @@ impl ObjectCurve<'_> {
         match &self.what {
             ObjectWhat::Calibrated(o, tab) => c.ln_p_object(o, tab.as_ref(), b_msun),
             ObjectWhat::Light(o, None) => {
-                ln_prob_consistent(&o.measurement, b_msun, c.scatter_msun)
+                ln_prob_consistent(&o.measurement(), b_msun, c.scatter_msun)
             }
             ObjectWhat::Light(o, Some((tab, nodes))) => c.ln_p_light(o, tab, nodes, b_msun),
             ObjectWhat::Flat(m) => ln_prob_consistent(m, b_msun, c.scatter_msun),
@@ -825,6 +869,12 @@ impl CalibratedCurve {
             return Err(StatsError::InvalidFloor {
                 floor_msun: scatter_msun,
             });
+        }
+        if let Some(c) = classes.iter().find(|c| u32::try_from(c.len()).is_err()) {
+            return Err(StatsError::InvalidInput(format!(
+                "a class of {} objects: at most 2³² − 1 are supported",
+                c.len()
+            )));
         }
         let dopts = &opts.deconvolve;
         let w = dopts.window_sigma;
@@ -997,11 +1047,8 @@ impl CalibratedCurve {
                     .map(|&i| {
                         let m = ms.get(i)?;
                         let t = curve.object_table(&m)?;
-                        let o = CalObject {
-                            index: i,
-                            measurement: m,
-                            tail_offset: curve.tail_offset(&m, &t),
-                        };
+                        // Positions fit in 32 bits: longer classes are refused above.
+                        let o = CalObject::new(i as u32, &m, curve.tail_offset(&m, &t))?;
                         Some((o, t))
                     })
                     .collect();
@@ -1023,7 +1070,8 @@ impl CalibratedCurve {
                 cal.extend(done.into_iter().flatten().map(|(o, _)| o));
             }
             // Objects whose posterior vanished on the grid fall back to the flat prior.
-            let kept: std::collections::BTreeSet<usize> = cal.iter().map(|o| o.index).collect();
+            let kept: std::collections::BTreeSet<usize> =
+                cal.iter().map(CalObject::position).collect();
             for &i in &cal_idx {
                 if !kept.contains(&i) {
                     fl.extend(ms.get(i).map(|m| (i, m)));
@@ -1173,7 +1221,7 @@ impl CalibratedCurve {
         let p = match cells {
             CellProbabilities::Edge(k) => post.iter().zip(&k[first..]).map(|(w, g)| w * g).sum(),
             CellProbabilities::Label { at_least, at_most } => {
-                let q = match o.measurement.side {
+                let q = match o.side {
                     Side::AtLeast => at_least,
                     Side::AtMost => at_most,
                 };
@@ -1184,7 +1232,7 @@ impl CalibratedCurve {
                 p.min(1.0)
             }
         };
-        regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+        regularise(p, &o.measurement(), b, self.scatter_msun, o.tail_offset)
     }
 
     /// The direct sums L(b) = Σ ln P_i(b) over every class at each of `bs`, as
@@ -1217,7 +1265,7 @@ impl CalibratedCurve {
             for chunk in cal.chunks(TABULATION_CHUNK) {
                 let rows: Vec<Vec<f64>> = chunk
                     .par_iter()
-                    .map(|o| match self.object_posterior(&o.measurement) {
+                    .map(|o| match self.object_posterior(&o.measurement()) {
                         Some((first, post)) => bs
                             .iter()
                             .zip(cells)
@@ -1225,7 +1273,7 @@ impl CalibratedCurve {
                             .collect(),
                         None => bs
                             .iter()
-                            .map(|&b| ln_prob_consistent(&o.measurement, b, self.scatter_msun))
+                            .map(|&b| ln_prob_consistent(&o.measurement(), b, self.scatter_msun))
                             .collect(),
                     })
                     .collect();
@@ -1266,7 +1314,7 @@ impl CalibratedCurve {
     /// ln P of a calibrated object at fractional node position `t` (bound value `b`).
     fn ln_p_cal(&self, o: &CalObject, tab: &ObjectTable, t: f64, b: f64) -> f64 {
         let p = between_nodes(t, tab.first_node, tab.p_nodes.len(), |j| tab.p_nodes[j]);
-        regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+        regularise(p, &o.measurement(), b, self.scatter_msun, o.tail_offset)
     }
 
     /// Fractional node position of bound `b`, if it lies within the nodes.
@@ -1298,7 +1346,7 @@ impl CalibratedCurve {
             .zip(&kernel[tab.first_cell..])
             .map(|(w, g)| w * g)
             .sum();
-        regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+        regularise(p, &o.measurement(), b, self.scatter_msun, o.tail_offset)
     }
 
     /// ln P at an arbitrary b from the posterior in `tab`, without an edge kernel.
@@ -1306,7 +1354,7 @@ impl CalibratedCurve {
         let mut p = 0.0;
         for (j, w) in tab.posterior.iter().enumerate() {
             let c = self.phi.centre(tab.first_cell + j);
-            let d = match o.measurement.side {
+            let d = match o.side {
                 Side::AtLeast => c - b,
                 Side::AtMost => b - c,
             };
@@ -1314,7 +1362,7 @@ impl CalibratedCurve {
         }
         regularise(
             p.min(1.0),
-            &o.measurement,
+            &o.measurement(),
             b,
             self.scatter_msun,
             o.tail_offset,
@@ -1356,7 +1404,7 @@ impl CalibratedCurve {
     fn ln_p_object(&self, o: &CalObject, tab: Option<&ObjectTable>, b: f64) -> f64 {
         // Not `None` for an object kept at build (its table is rebuilt identically).
         let Some(tab) = tab else {
-            return ln_prob_consistent(&o.measurement, b, self.scatter_msun);
+            return ln_prob_consistent(&o.measurement(), b, self.scatter_msun);
         };
         match self.node_position(b) {
             Some(t) => self.ln_p_cal(o, tab, t, b),
@@ -1387,13 +1435,13 @@ impl CalibratedCurve {
             return self.object(class, index);
         }
         let found = self.objects.get(class).and_then(|cal| {
-            cal.binary_search_by_key(&index, |o| o.index)
+            cal.binary_search_by_key(&index, CalObject::position)
                 .ok()
                 .map(|k| &cal[k])
         });
         match found {
             Some(o) => {
-                let m = &o.measurement;
+                let m = &o.measurement();
                 let prepared = self.object_posterior(m).map(|(first, post)| {
                     let nodes = self.object_nodes(m.side, first, &post);
                     let tab = ObjectTable {
@@ -1422,7 +1470,7 @@ impl CalibratedCurve {
                 let p = between_nodes(t, nodes.g0, nodes.len(), |j| {
                     nodes.p(j, &tab.posterior, &self.step_table)
                 });
-                regularise(p, &o.measurement, b, self.scatter_msun, o.tail_offset)
+                regularise(p, &o.measurement(), b, self.scatter_msun, o.tail_offset)
             }
             None => self.ln_p_off_nodes(o, tab, b),
         }
@@ -1435,10 +1483,10 @@ impl CalibratedCurve {
     pub fn object(&self, class: usize, index: usize) -> ObjectCurve<'_> {
         let what = match self.objects.get(class) {
             None => ObjectWhat::Uninformative,
-            Some(cal) => match cal.binary_search_by_key(&index, |o| o.index) {
+            Some(cal) => match cal.binary_search_by_key(&index, CalObject::position) {
                 Ok(k) => {
                     let o = &cal[k];
-                    ObjectWhat::Calibrated(o, self.object_table(&o.measurement))
+                    ObjectWhat::Calibrated(o, self.object_table(&o.measurement()))
                 }
                 Err(_) => match self.flat[class].binary_search_by_key(&index, |f| f.0) {
                     Ok(k) => ObjectWhat::Flat(&self.flat[class][k].1),
@@ -1726,6 +1774,29 @@ mod tests {
     use super::*;
 
     #[test]
+    fn a_calibrated_object_stays_compact() {
+        // One per calibrated object in each curve held (two at once in a run); 64 bytes with
+        // the general measurement and a `usize` position.
+        assert_eq!(std::mem::size_of::<super::CalObject>(), 48);
+        let m = Measurement {
+            mass_msun: 0.0812,
+            kind: MassKind::Measured {
+                lo: 0.003,
+                hi: 0.0041,
+            },
+            side: Side::AtMost,
+            scale: 1.0 / 3.0,
+        };
+        let o = super::CalObject::new(7, &m, -0.25).unwrap();
+        assert_eq!((o.measurement(), o.position()), (m, 7));
+        let limit = Measurement {
+            kind: MassKind::UpperLimit { sigma: Some(0.01) },
+            ..m
+        };
+        assert!(super::CalObject::new(7, &limit, 0.0).is_none());
+    }
+
+    #[test]
     fn the_fit_choices_read_and_print_by_name() {
         for name in ["auto", "exact", "grouped"] {
             assert_eq!(Grouping::from_name(name).unwrap().name(), name);
@@ -1767,12 +1838,12 @@ mod tests {
         let mut acc = NeumaierSum::default();
         let kernel = c.edge_kernel_at(b);
         for o in &c.objects[class] {
-            acc.add(match c.object_table(&o.measurement) {
+            acc.add(match c.object_table(&o.measurement()) {
                 Some(tab) => match &kernel {
                     Some(k) => c.ln_p_with_kernel(o, &tab, k, b),
                     None => c.ln_p_direct_with(o, &tab, b),
                 },
-                None => ln_prob_consistent(&o.measurement, b, c.scatter_msun),
+                None => ln_prob_consistent(&o.measurement(), b, c.scatter_msun),
             });
         }
         for (_, m) in &c.flat[class] {
