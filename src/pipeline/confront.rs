@@ -489,7 +489,9 @@ fn write_outputs(
         std::process::abort();
     }
     laps.lap("grid.csv, summary.json");
-    write_atomic(&out_dir.join("grid.csv"), &ctx.grid_csv()?)?;
+    let mut grid_file = AtomicFile::create(&out_dir.join("grid.csv"))?;
+    ctx.write_grid_csv(&mut grid_file)?;
+    grid_file.commit()?;
     let mut summary_bytes =
         serde_json::to_vec_pretty(&summary).map_err(|e| PipelineError::Internal(e.to_string()))?;
     summary_bytes.push(b'\n');

@@ -91,12 +91,36 @@ fn for_file(file: &str) -> impl Iterator<Item = &'static Rename> + '_ {
 /// Appends, for each renamed column of `file` present in `header`, a column under its old name
 /// holding the same values (scaled where the unit changed).
 pub fn csv_with_deprecated(file: &str, header: &mut Vec<String>, rows: &mut [Vec<Cell>]) {
+    let columns = deprecated_columns(file, header);
+    for row in rows.iter_mut() {
+        columns.extend_row(row);
+    }
+}
+
+/// The deprecated columns of one table, for a table written a row at a time: what
+/// [`csv_with_deprecated`] adds, cell for cell ([`DeprecatedColumns::extend_row`]).
+#[derive(Debug)]
+pub struct DeprecatedColumns(Vec<(usize, &'static Rename)>);
+
+/// Appends to `header` the old name of each renamed column of `file` it holds, and gives the
+/// columns to add to each row.
+pub fn deprecated_columns(file: &str, header: &mut Vec<String>) -> DeprecatedColumns {
+    let mut columns = Vec::new();
     for rn in for_file(file) {
         let Some(at) = header.iter().position(|h| h == rn.new) else {
             continue;
         };
         header.push(rn.old.to_string());
-        for row in rows.iter_mut() {
+        columns.push((at, rn));
+    }
+    DeprecatedColumns(columns)
+}
+
+impl DeprecatedColumns {
+    /// Appends one row's deprecated cells: each a copy of its renamed column's cell, scaled
+    /// where the unit changed.
+    pub fn extend_row(&self, row: &mut Vec<Cell>) {
+        for &(at, rn) in &self.0 {
             let cell = match row.get(at) {
                 Some(Cell::Float(x)) => Cell::Float(x.map(|v| v * rn.old_per_new)),
                 Some(other) => other.clone(),

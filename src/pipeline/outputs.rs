@@ -497,8 +497,13 @@ impl OutputContext<'_> {
         Ok(())
     }
 
-    /// `grid.csv`: one row per grid point.
-    pub(crate) fn grid_csv(&self) -> Result<Vec<u8>, PipelineError> {
+    /// `grid.csv`: one row per grid point, written row by row into `out` (the rows of a
+    /// 201 × 201 grid held as cells were ≈ 40 MB at the end of a run, its peak).
+    pub(crate) fn write_grid_csv(
+        &self,
+        out: &mut impl std::io::Write,
+    ) -> Result<(), PipelineError> {
+        let fail = |e: std::io::Error| PipelineError::Internal(format!("writing grid.csv: {e}"));
         let (nu, nt) = (self.conf.n_upsilon, self.conf.n_tau);
         let mut header: Vec<String> = vec![
             "upsilon".into(),
@@ -524,7 +529,11 @@ impl OutputContext<'_> {
             ]
             .map(String::from),
         );
-        let mut rows = Vec::with_capacity(nu * nt);
+        let deprecated = super::names::deprecated_columns("grid.csv", &mut header);
+        let mut rows = CsvRows::default();
+        let mut text = String::new();
+        let header_cells: Vec<Cell> = header.iter().cloned().map(Cell::Text).collect();
+        rows.push(&mut text, &header_cells);
         for j in 0..nt {
             for i in 0..nu {
                 let k = j * nu + i;
@@ -555,13 +564,24 @@ impl OutputContext<'_> {
                 for l in Level::ALL {
                     row.push(Cell::Bool(Some(d.is_some_and(|d| d <= l.dchi2(2)))));
                 }
-                rows.push(row);
+                deprecated.extend_row(&mut row);
+                if row.len() != header.len() {
+                    return Err(PipelineError::Internal(format!(
+                        "grid.csv row {} has {} cells, the header has {}",
+                        k + 1,
+                        row.len(),
+                        header.len()
+                    )));
+                }
+                rows.push(&mut text, &row);
+                if text.len() >= 1 << 16 {
+                    out.write_all(text.as_bytes()).map_err(fail)?;
+                    text.clear();
+                }
             }
         }
-        super::names::csv_with_deprecated("grid.csv", &mut header, &mut rows);
-        let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
-        report::tables::csv_bytes(&header_refs, &rows)
-            .map_err(|e| PipelineError::Internal(e.to_string()))
+        out.write_all(text.as_bytes()).map_err(fail)?;
+        out.flush().map_err(fail)
     }
 
     /// The `summary.json` document (the keys the README documents, plus details).

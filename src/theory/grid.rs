@@ -597,8 +597,12 @@ impl TheoryGrid {
 
     /// Reads bytes written by [`TheoryGrid::to_json_bytes`]; refuses another format version.
     pub fn from_json_bytes(bytes: &[u8]) -> Result<TheoryGrid, GridError> {
-        let g: TheoryGrid =
+        let mut g: TheoryGrid =
             serde_json::from_slice(bytes).map_err(|e| GridError::Format(e.to_string()))?;
+        // A JSON array gives no length ahead, so the points grew by doubling: a 201 × 201 grid
+        // sat in room for 65 536 points (30 MB where 18 are used) for the whole run.
+        g.points.shrink_to_fit();
+        g.interpolation_checks.shrink_to_fit();
         if g.format != GRID_FORMAT {
             return Err(GridError::Format(format!(
                 "format `{}` is not `{GRID_FORMAT}`",
