@@ -184,14 +184,14 @@ pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
 /// The slow-rotation change of one brown dwarf's or star's MMHB at every grid point.
 ///
 /// The object's mass test runs inside its class's term with the standard-gravity factor
-/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`super::engine::ObjectUse::bound_scale`]). At a grid point the
-/// first-order factor is f = 1 + v (d ln M/dv), with the coefficients of the n = 3/2 polytrope
-/// of that point's (ϒ, τ) ([`BoundSurface::slow_rotation_n32`]) and v = Ω²/(2πGρ_c) from that
-/// polytrope's central density for the object's radius there (measured, or cold at the point).
-/// The spin term carries the difference, −2 ln P(m | f B) + 2 ln P(m | f₀ B), so that the mass
-/// test is in effect taken at the point's factor: exact with per-object floors; with a shared
-/// systematic the difference is taken at zero shift (first order in a product of two small
-/// quantities). Where first order fails at a point (v above that point's threshold, or no
+/// f₀ = 1 + v₀ (d ln M/dv)₀ on its bound ([`super::engine::ObjectUse::bound_scale`]). At a
+/// grid point the first-order factor is f = 1 + v (d ln M/dv), with the coefficients of the
+/// n = 3/2 polytrope of that point's (ϒ, τ) ([`BoundSurface::slow_rotation_n32`]) and
+/// v = Ω²/(2πGρ_c) from that polytrope's central density for the object's radius there
+/// (measured, or cold at the point). The spin term carries the difference,
+/// −2 ln P(m | f B) + 2 ln P(m | f₀ B), so that the mass test is in effect taken at the point's
+/// factor: exact with per-object floors; with a shared systematic the difference is taken at
+/// zero shift (first order in a product of two small quantities). Where first order fails at a point (v above that point's threshold, or no
 /// model), the factor stays f₀; so it does where the mass test cannot feel it
 /// ([`MmhbSlowRotation::matters_at`]), which spares the point's lookup.
 #[derive(Debug, Clone, Copy, PartialEq)]
