@@ -369,7 +369,7 @@ pub fn run_confrontation(
         since_previous: None,
         verdict_failures,
     };
-    let (summary, difference) = write_outputs(&mut ctx, out_dir, generated_at, nightly)?;
+    let written = write_outputs(&mut ctx, out_dir, generated_at, nightly)?;
 
     let rows_total = vetted.tallies.iter().fold((0, 0, 0), |acc, t| {
         (
@@ -378,6 +378,28 @@ pub fn run_confrontation(
             acc.2 + t.rows_quarantined,
         )
     });
+    let tension_lines = tensions
+        .iter()
+        .map(|t| {
+            let o = &vetted.objects[t.object];
+            let what = match t.test {
+                TensionTest::MassBound => o.class.label().to_string(),
+                TensionTest::MassRadius => format!("{} (radius)", o.class.label()),
+                TensionTest::Spin => format!("{} (spin)", o.class.label()),
+            };
+            (o.id.to_string(), what, t.sigma)
+        })
+        .collect();
+    // The report is rendered from its own parts: the objects, the comparison and the verdicts
+    // go first, so that its figures (bitmaps, SVG text) do not add to the run's peak memory
+    // (at 10⁶ objects the report stage was the peak).
+    drop(ctx);
+    drop((verdicts, drivers, ln_p_in_fit_at_best, conf, vetted));
+    drop(surface);
+    drop(grid);
+    written.laps.lap("report and figures");
+    super::report_input::write_report_parts(&written.report, out_dir)?;
+    written.laps.lap("");
     if std::env::var_os("DWARFBOUND_TIMINGS").is_some() {
         eprintln!(
             "timing: {:<28} {:7.3} s wall, process total {:.2} CPU-s",
@@ -387,24 +409,13 @@ pub fn run_confrontation(
         );
     }
     Ok(ConfrontOutcome {
-        summary,
+        summary: written.summary,
         consistent: consistency.consistent_cl95,
-        tensions: tensions
-            .iter()
-            .map(|t| {
-                let o = &vetted.objects[t.object];
-                let what = match t.test {
-                    TensionTest::MassBound => o.class.label().to_string(),
-                    TensionTest::MassRadius => format!("{} (radius)", o.class.label()),
-                    TensionTest::Spin => format!("{} (spin)", o.class.label()),
-                };
-                (o.id.to_string(), what, t.sigma)
-            })
-            .collect(),
+        tensions: tension_lines,
         theory_from_cache: from_cache,
         cache_note,
         rows: rows_total,
-        difference,
+        difference: written.difference,
     })
 }
 
@@ -434,15 +445,16 @@ fn engine_options(base: &EngineOptions, standard: &PointBounds) -> EngineOptions
     eopts
 }
 
-/// Writes every output file of a confrontation into `out_dir`, in a fixed order: quarantine,
-/// objects, grid, summary, then the report. Returns the summary document and, for a nightly
-/// run, the difference from the previous run (which the summary and the report then carry).
+/// Writes every output file of a confrontation into `out_dir` but the report, in a fixed
+/// order: quarantine, objects, grid, summary. Returns the summary document, for a nightly run
+/// the difference from the previous run (which the summary and the report then carry), and the
+/// report's parts.
 fn write_outputs(
     ctx: &mut OutputContext<'_>,
     out_dir: &Path,
     generated_at: &str,
     nightly: Option<&NightlyContext>,
-) -> Result<(Value, Option<super::history::RunDifference>), PipelineError> {
+) -> Result<Written, PipelineError> {
     std::fs::create_dir_all(out_dir).map_err(|e| OutputError::new(out_dir, e))?;
     // With DWARFBOUND_TIMINGS: each output's share of the outputs stage.
     let laps = crate::progress::Laps::new("outputs");
@@ -496,10 +508,24 @@ fn write_outputs(
         serde_json::to_vec_pretty(&summary).map_err(|e| PipelineError::Internal(e.to_string()))?;
     summary_bytes.push(b'\n');
     write_atomic(&out_dir.join("summary.json"), &summary_bytes)?;
-    laps.lap("report and figures");
-    super::report_input::write_report_files(ctx, out_dir, generated_at)?;
-    laps.lap("");
-    Ok((summary, difference))
+    laps.lap("report input");
+    let report = super::report_input::report_parts(ctx, generated_at)?;
+    Ok(Written {
+        summary,
+        difference,
+        report,
+        laps,
+    })
+}
+
+/// What [`write_outputs`] gives back: the summary, the nightly difference, and the report's
+/// parts, rendered by the caller once the per-object state is dropped (with the outputs'
+/// timing, to go on with).
+struct Written {
+    summary: Value,
+    difference: Option<super::history::RunDifference>,
+    report: super::report_input::ReportParts,
+    laps: crate::progress::Laps,
 }
 
 /// Tension of each object with standard gravity (ϒ = τ = 0) under the default model (anchored

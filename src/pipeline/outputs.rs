@@ -6,8 +6,9 @@
 //! which is also the row order of `grid.csv`.
 //!
 //! ```text
-//! run_confrontation ──► OutputContext ──► objects_csv / grid_csv / summary_json
-//!                                     └─► report_input::write_report_files
+//! run_confrontation ──► OutputContext ──► objects.csv / grid.csv / summary.json
+//!                                     └─► report_input::report_parts ──► (objects dropped)
+//!                                                                    ──► write_report_parts
 //! ```
 
 use std::collections::BTreeMap;

@@ -306,12 +306,37 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     })
 }
 
-/// Builds the report's inputs and writes report.html, report.md and the figures.
-pub(crate) fn write_report_files(
+/// Everything the report is rendered from, owned, so that it can be rendered after the
+/// comparison's per-object state is gone ([`report_parts`], [`write_report_parts`]).
+pub(crate) struct ReportParts {
+    input: ReportInput,
+    map: AllowedMap,
+    curves: BoundsCurves,
+    data: report::DataFigures,
+}
+
+/// Writes report.html, report.md and the figures from their parts. An unwritable output (a
+/// folder where a file should go, no permission) is the user's environment (exit 2); anything
+/// else the report refuses is a bug upstream (exit 1).
+pub(crate) fn write_report_parts(parts: &ReportParts, out_dir: &Path) -> Result<(), PipelineError> {
+    report::write_report_with(
+        out_dir,
+        &parts.input,
+        &parts.map,
+        &parts.curves,
+        &parts.data,
+    )
+    .map_err(|e| match e {
+        report::ReportError::Output(o) => PipelineError::Output(o),
+        other => PipelineError::Internal(other.to_string()),
+    })
+}
+
+/// Builds the report's inputs: the tables, the words and the figures' data (objects thinned).
+pub(crate) fn report_parts(
     ctx: &OutputContext<'_>,
-    out_dir: &Path,
     generated_at: &str,
-) -> Result<(), PipelineError> {
+) -> Result<ReportParts, PipelineError> {
     let (nu, nt) = (ctx.conf.n_upsilon, ctx.conf.n_tau);
     let s = ctx.settings;
     let t = &s.theory;
@@ -802,11 +827,10 @@ pub(crate) fn write_report_files(
         ],
     };
     let data = super::report_figures::data_figures(ctx);
-    report::write_report_with(out_dir, &input, &map, &curves, &data).map_err(|e| match e {
-        // An unwritable output (a folder where a file should go, no permission) is the user's
-        // environment (exit 2); anything else the report refuses is a bug upstream (exit 1).
-        report::ReportError::Output(o) => PipelineError::Output(o),
-        other => PipelineError::Internal(other.to_string()),
-    })?;
-    Ok(())
+    Ok(ReportParts {
+        input,
+        map,
+        curves,
+        data,
+    })
 }
