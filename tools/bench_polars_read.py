@@ -10,6 +10,9 @@ threads) and the process's peak resident memory peak_mb (interpreter and polars 
 
     pip install polars
     python3 tools/bench_polars_read.py FILE.csv|FILE.parquet
+
+With `--once` it reads the file once and prints nothing: benches/run.sh times that whole process
+(interpreter start, `import polars`, one read) with /usr/bin/time, as it times dwarfbound's.
 """
 
 import resource
@@ -26,6 +29,9 @@ def read(path: str):
 
 
 def main() -> None:
+    if sys.argv[1] == "--once":
+        assert read(sys.argv[2]).height > 0
+        return
     path = sys.argv[1]
     read(path)
     cpu = lambda: sum(resource.getrusage(resource.RUSAGE_SELF)[:2])
