@@ -181,6 +181,15 @@ impl Term {
         }
     }
 
+    /// The mass test of an object's class (whether or not the object is left out of it).
+    pub fn mass_test_of(class: ObjectClass) -> Term {
+        match class {
+            ObjectClass::HBurning => Term::HBurning,
+            ObjectClass::BrownDwarf => Term::BrownDwarf,
+            ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
+        }
+    }
+
     fn index(self) -> usize {
         self as usize
     }
@@ -811,11 +820,7 @@ pub fn plan_one(o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
             let measurement = measurement_of(o, mu_e);
             let mut flags = Flags::default();
             let mut excluded = None;
-            let term = match o.class {
-                ObjectClass::HBurning => Term::HBurning,
-                ObjectClass::BrownDwarf => Term::BrownDwarf,
-                ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
-            };
+            let term = Term::mass_test_of(o.class);
             if term != Term::WhiteDwarfMass {
                 match o.age_gyr().get() {
                     Some(age) if age < opts.age_min_mmhb_gyr => {

@@ -33,7 +33,7 @@ use super::regions::{
 };
 use super::spin::{ObjectSpin, SpinVerdict};
 use super::wd_radius::ObjectRadius;
-use crate::catalogue::{CatalogueObject, ObjectClass, OptF64};
+use crate::catalogue::{CatalogueObject, OptF64};
 
 /// How many of the least probable objects the consistency verdict names.
 const WORST_LISTED: usize = 5;
@@ -62,17 +62,8 @@ impl ReferencePoint {
     /// star), for every object, also one left out of the fit. Made when it is written rather
     /// than held per object (one product).
     pub fn object_bound(&self, o: &CatalogueObject, u: &ObjectUse) -> Option<f64> {
-        self.class_bound(class_term(o.class))
+        self.class_bound(Term::mass_test_of(o.class))
             .map(|b| b * u.bound_scale)
-    }
-}
-
-/// The mass test of an object's class (whether or not the object is in it).
-fn class_term(class: ObjectClass) -> Term {
-    match class {
-        ObjectClass::HBurning => Term::HBurning,
-        ObjectClass::BrownDwarf => Term::BrownDwarf,
-        ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
     }
 }
 
@@ -199,7 +190,7 @@ pub fn object_verdicts(
         .par_iter()
         .zip(uses.par_iter())
         .map(|(o, u)| {
-            let term = class_term(o.class);
+            let term = Term::mass_test_of(o.class);
             let m = u.measurement(o);
             // Every object against its class's test, also one left out of the fit.
             let sigma = |b: Option<f64>| {

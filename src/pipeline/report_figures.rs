@@ -11,7 +11,6 @@
 //! ```
 
 use super::outputs::OutputContext;
-use crate::catalogue::ObjectClass;
 use crate::confront::engine::{LeftOut, Term};
 use crate::confront::regions::Level;
 use crate::confront::wd_radius::WdRadiusModel;
@@ -321,12 +320,7 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
         let members = || {
             ctx.conf.uses.iter().enumerate().filter_map(move |(k, u)| {
                 let (o, v) = (ctx.vetted.objects.get(k)?, ctx.verdicts.objects.get(k)?);
-                let class_term = match o.class {
-                    ObjectClass::HBurning => Term::HBurning,
-                    ObjectClass::BrownDwarf => Term::BrownDwarf,
-                    ObjectClass::WhiteDwarf => Term::WhiteDwarfMass,
-                };
-                (class_term == term && o.mass_msun > 0.0).then_some((u, o, v))
+                (Term::mass_test_of(o.class) == term && o.mass_msun > 0.0).then_some((u, o, v))
             })
         };
         let sigma_of = |v: &crate::confront::tension::ObjectVerdict| {
