@@ -55,7 +55,8 @@
 use rayon::prelude::*;
 
 use super::prob::{
-    ln_prob_consistent, normal_cdf, ClassMeasurements, MassKind, Measurement, Side, StatsError,
+    check_u32_positions, ln_prob_consistent, normal_cdf, ClassMeasurements, MassKind, Measurement,
+    Side, StatsError,
 };
 use super::reduce::{CubicSpline, NeumaierSum, SplineEnd};
 
@@ -870,11 +871,8 @@ impl CalibratedCurve {
                 floor_msun: scatter_msun,
             });
         }
-        if let Some(c) = classes.iter().find(|c| u32::try_from(c.len()).is_err()) {
-            return Err(StatsError::InvalidInput(format!(
-                "a class of {} objects: at most 2³² − 1 are supported",
-                c.len()
-            )));
+        for c in classes {
+            check_u32_positions(c.len(), "in one class")?;
         }
         let dopts = &opts.deconvolve;
         let w = dopts.window_sigma;

@@ -38,8 +38,8 @@ use rayon::prelude::*;
 
 use super::mass_terms::{BoundTerm, MassTermOptions};
 use super::prob::{
-    ln_prob_consistent, tension_sigma, ClassMeasurements, MassKind, Measurement, MeasurementSource,
-    Side, StatsError,
+    check_u32_positions, ln_prob_consistent, tension_sigma, ClassMeasurements, MassKind,
+    Measurement, MeasurementSource, Side, StatsError,
 };
 use super::reduce::{ClassCounts, ReduceOptions};
 use super::regions::PopulationTerm;
@@ -313,12 +313,7 @@ impl FromIterator<ObjectUse> for ObjectUses {
 impl ObjectUses {
     /// The uses of `objects` ([`plan_one`] each). More than 2³² − 1 objects are refused.
     pub fn plan(objects: &[CatalogueObject], opts: &EngineOptions) -> Result<Self, EngineError> {
-        if u32::try_from(objects.len()).is_err() {
-            return Err(EngineError::Stats(StatsError::InvalidInput(format!(
-                "{} objects: at most 2³² − 1 are supported",
-                objects.len()
-            ))));
-        }
+        check_u32_positions(objects.len(), "in one comparison")?;
         Ok(objects.iter().map(|o| plan_one(o, opts)).collect())
     }
 
@@ -713,13 +708,8 @@ impl<'a> TermMembers<'a> {
         uses: &'a ObjectUses,
         term: Term,
     ) -> Result<Self, StatsError> {
-        if u32::try_from(objects.len().min(uses.len())).is_err() {
-            return Err(StatsError::InvalidInput(format!(
-                "{} objects: at most 2³² − 1 are supported",
-                objects.len()
-            )));
-        }
         let n = objects.len().min(uses.len());
+        check_u32_positions(n, "in one comparison")?;
         let of_term = |u: &ObjectUse| u.mass_term == Some(term);
         // Counted first and allocated to size: collected from a filter, a list grows by
         // doubling to up to twice its length.

@@ -143,6 +143,17 @@ impl Measurement {
     }
 }
 
+/// Refuses a list of `n` objects (`what`: which list, for the message) whose positions would not
+/// fit the 32-bit positions the reductions and the comparison keep per object.
+pub fn check_u32_positions(n: usize, what: &str) -> Result<(), StatsError> {
+    if u32::try_from(n).is_err() {
+        return Err(StatsError::InvalidInput(format!(
+            "{n} objects {what}: at most 2³² − 1 are supported"
+        )));
+    }
+    Ok(())
+}
+
 /// The measurements of one class's objects, in the caller's order, as the reductions read
 /// them: held in a slice, or made on demand from a position. A large catalogue's list would be
 /// 48 bytes per object while the bound terms are built (the peak of a run), and each

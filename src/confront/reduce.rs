@@ -30,8 +30,8 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 
 use super::prob::{
-    effective_floor_msun, ln_prob_consistent, validate_floor, ClassMeasurements, MassKind,
-    Measurement, PreparedLnP, Side, StatsError,
+    check_u32_positions, effective_floor_msun, ln_prob_consistent, validate_floor,
+    ClassMeasurements, MassKind, Measurement, PreparedLnP, Side, StatsError,
 };
 
 /// Settings of the reduction; the defaults are those of `docs/bounds.md` §8.5.
@@ -249,12 +249,7 @@ impl ClassCurve {
     ) -> Result<Self, StatsError> {
         let measurements = measurements.into();
         let (b_lo, b_hi) = usable_range(floor_msun, range_msun)?;
-        if u32::try_from(measurements.len()).is_err() {
-            return Err(StatsError::InvalidInput(format!(
-                "{} objects in one class: at most 2³² − 1 are supported",
-                measurements.len()
-            )));
-        }
+        check_u32_positions(measurements.len(), "in one class")?;
         if opts.n_nodes < 4 {
             return Err(StatsError::InvalidInput(format!(
                 "at least 4 tabulation nodes are needed, got {}",
