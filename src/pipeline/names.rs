@@ -88,31 +88,18 @@ fn for_file(file: &str) -> impl Iterator<Item = &'static Rename> + '_ {
     RENAMED.iter().filter(move |r| r.file.contains(file))
 }
 
-/// Appends, for each renamed column of `file` present in `header`, a column under its old name
-/// holding the same values (scaled where the unit changed).
-pub fn csv_with_deprecated(file: &str, header: &mut Vec<String>, rows: &mut [Vec<Cell>]) {
-    let columns = deprecated_columns(file, header);
-    for row in rows.iter_mut() {
-        columns.extend_row(row);
-    }
-}
-
-/// The deprecated columns of one table, for a table written a row at a time: what
-/// [`csv_with_deprecated`] adds, cell for cell ([`DeprecatedColumns::extend_row`]).
+/// The deprecated columns of one table written as cells a row at a time (`grid.csv`): for each
+/// renamed column of `file` present in the header, a column under its old name holding the same
+/// values, scaled where the unit changed ([`DeprecatedColumns::extend_row`]).
 #[derive(Debug)]
 pub struct DeprecatedColumns(Vec<(usize, &'static Rename)>);
 
-/// Appends to `header` the old name of each renamed column of `file` it holds, and gives the
-/// columns to add to each row.
+/// Appends to `header` the old name of each renamed column of `file` it holds (found as
+/// [`csv_text_deprecated`] finds them), and gives the columns to add to each row.
 pub fn deprecated_columns(file: &str, header: &mut Vec<String>) -> DeprecatedColumns {
-    let mut columns = Vec::new();
-    for rn in for_file(file) {
-        let Some(at) = header.iter().position(|h| h == rn.new) else {
-            continue;
-        };
-        header.push(rn.old.to_string());
-        columns.push((at, rn));
-    }
+    let names: Vec<&str> = header.iter().map(String::as_str).collect();
+    let columns = csv_text_deprecated(file, &names);
+    header.extend(columns.iter().map(|(_, rn)| rn.old.to_string()));
     DeprecatedColumns(columns)
 }
 
@@ -175,10 +162,10 @@ mod tests {
     #[test]
     fn csv_gets_the_old_column_scaled() {
         let mut header = vec!["upsilon".to_string(), "breakup_period_h".to_string()];
-        let mut rows = vec![vec![Cell::float(0.0), Cell::float(0.5)]];
-        csv_with_deprecated("grid.csv", &mut header, &mut rows);
+        let mut row = vec![Cell::float(0.0), Cell::float(0.5)];
+        deprecated_columns("grid.csv", &mut header).extend_row(&mut row);
         assert_eq!(header[2], "breakup_period_minutes");
         // 0.5 h = 30 min (definition of the hour).
-        assert_eq!(rows[0][2], Cell::float(30.0));
+        assert_eq!(row[2], Cell::float(30.0));
     }
 }
