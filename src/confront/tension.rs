@@ -460,7 +460,12 @@ pub fn mass_sigma_in_fit(
         Term::WhiteDwarfMass => surface.chandrasekhar_mu2_msun(index),
         _ => surface.mmhb_msun(index),
     }?;
-    let ln_p = conf.ln_p_in_fit(objects, k, b)?;
+    sigma_from_ln_p_in_fit(conf.ln_p_in_fit(objects, k, b)?)
+}
+
+/// [`mass_sigma_in_fit`] from an ln P in the fit already made (the drivers' screening hands
+/// them on): z = −Φ⁻¹(P), `None` when it is not finite.
+pub fn sigma_from_ln_p_in_fit(ln_p: f64) -> Option<f64> {
     let z = super::prob::tension_sigma(ln_p);
     z.is_finite().then_some(z)
 }

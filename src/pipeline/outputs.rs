@@ -28,7 +28,8 @@ use crate::confront::regions::{AbsoluteConsistency, Crowding, Level, MapRegions}
 use crate::confront::slice::SliceResult;
 use crate::confront::spin::{SlowRotationStatus, SpinVerdict};
 use crate::confront::tension::{
-    mass_sigma_in_fit, ReferencePoint, Tension, TensionTest, TestKey, Verdicts,
+    mass_sigma_in_fit, sigma_from_ln_p_in_fit, ReferencePoint, Tension, TensionTest, TestKey,
+    Verdicts,
 };
 use crate::report::{
     self,
@@ -202,9 +203,7 @@ impl OutputContext<'_> {
     /// One-sided tension of object `k`'s mass test at the best fit under the likelihood used.
     pub(crate) fn sigma_best_in_fit(&self, k: usize) -> Option<f64> {
         if let Some(ln_p) = self.ln_p_in_fit_at_best.get(k).and_then(|v| v.get()) {
-            // What `mass_sigma_in_fit` makes of the same ln P.
-            let z = crate::confront::prob::tension_sigma(ln_p);
-            return z.is_finite().then_some(z);
+            return sigma_from_ln_p_in_fit(ln_p);
         }
         mass_sigma_in_fit(
             self.conf,
