@@ -332,20 +332,17 @@ fn mass_bounds(ctx: &OutputContext<'_>) -> Option<MassBounds> {
         let in_tension = |s: (Option<f64>, Option<f64>)| {
             s.0.is_some_and(|x| x > tension_sigma) || s.1.is_some_and(|x| x > tension_sigma)
         };
-        // First pass: the counts that decide the thinning, and the bound's class values.
+        // First pass: the counts that decide the thinning.
         let (mut n, mut n_tension) = (0usize, 0usize);
-        let (mut standard, mut best) = (None, None);
-        for (u, o, v) in members() {
+        for (_, _, v) in members() {
             n += 1;
             n_tension += usize::from(in_tension(sigma_of(v)));
-            // The class value (μe = 2): an object's own bound is the class's times its scale
-            // (4/μe² for white dwarfs, 1 otherwise).
-            let scale = u.bound_scale;
-            if scale > 0.0 {
-                standard = standard.or(ctx.standard_bounds.object_bound(o, u).map(|b| b / scale));
-                best = best.or(ctx.best_bounds.object_bound(o, u).map(|b| b / scale));
-            }
         }
+        // The class values (μe = 2; an object's own bound is the class's times its scale).
+        let (standard, best) = (
+            ctx.standard_bounds.class_bound(term),
+            ctx.best_bounds.class_bound(term),
+        );
         // Second pass: only the objects drawn are built.
         let mut thinning = Thinning::new(n, n_tension);
         let mut objects = Vec::new();
