@@ -290,25 +290,22 @@ pub fn run_confrontation(
     // 4. Drivers of the ϒ interval on the τ = 0 slice, under the likelihood used.
     steps.step("drivers");
     // Each object's ln P in the fit at the best fit is read from the posterior the drivers'
-    // screening builds anyway (`objects.csv`'s σ in the fit; the same value to the bit).
-    let at_best = crate::confront::tension::ReferencePoint {
-        mmhb_msun: surface.mmhb_msun(best_index),
-        chandrasekhar_mu2_msun: surface.chandrasekhar_mu2_msun(best_index),
-    };
+    // screening builds anyway (`objects.csv`'s σ in the fit; the same value to the bit: the
+    // best point's class bounds are what the surface gives there).
+    let (standard_bounds, best_bounds) = (class_bounds(&standard), class_bounds(best_point));
     let (drivers, ln_p_in_fit_at_best) = match &slice {
         Some(s) => slice_drivers_in_fit_and_ln_p_at(
             &conf,
             &vetted.objects,
             s,
             &DriverOptions::default(),
-            &at_best,
+            &best_bounds,
         )?,
         None => (Vec::new(), Vec::new()),
     };
 
     // 5. Per-object verdicts at standard gravity and at the best fit; tensions.
     steps.step("per-object verdicts");
-    let (standard_bounds, best_bounds) = (class_bounds(&standard), class_bounds(best_point));
     let verdicts = object_verdicts(
         &vetted.objects,
         &conf.uses,
