@@ -746,6 +746,16 @@ struct ObjectTable {
     p_nodes: Vec<f64>,
 }
 
+impl ObjectTable {
+    /// ln P before the first and after the last tabulated node, where P is its end value and
+    /// that value is above the tail switch (so that ln P does not depend on the bound there);
+    /// `None` for an end on the tail, or without nodes.
+    fn constant_ends(&self) -> (Option<f64>, Option<f64>) {
+        let end = |p: Option<&f64>| p.filter(|&&p| p >= TAIL_SWITCH).map(|p| p.ln());
+        (end(self.p_nodes.first()), end(self.p_nodes.last()))
+    }
+}
+
 /// One object of a [`CalibratedCurve`] as a function of the bound, with its table built once
 /// ([`CalibratedCurve::object`]).
 #[derive(Debug)]
@@ -1050,10 +1060,29 @@ impl CalibratedCurve {
                         Some((o, t))
                     })
                     .collect();
+                // Beyond its tabulated nodes an object's P is its end value; where that is
+                // above the tail switch its logarithm does not depend on the node and is taken
+                // once (the same value, to the bit: most of the node sums at 10⁶ objects).
+                let ends: Vec<(Option<f64>, Option<f64>)> = done
+                    .iter()
+                    .map(|d| d.as_ref().map_or((None, None), |(_, t)| t.constant_ends()))
+                    .collect();
                 node_acc.par_iter_mut().enumerate().for_each(|(g, acc)| {
                     let b = curve.node_b(g);
-                    for (o, t) in done.iter().flatten() {
-                        acc.add(curve.ln_p_cal(o, t, g as f64, b));
+                    for ((o, t), ends) in done
+                        .iter()
+                        .zip(&ends)
+                        .filter_map(|(d, e)| Some((d.as_ref()?, e)))
+                    {
+                        let rel = g as isize - t.first_node;
+                        let constant = if rel <= 0 {
+                            ends.0
+                        } else if rel >= t.p_nodes.len() as isize - 1 {
+                            ends.1
+                        } else {
+                            None
+                        };
+                        acc.add(constant.unwrap_or_else(|| curve.ln_p_cal(o, t, g as f64, b)));
                     }
                 });
                 check_acc
