@@ -182,7 +182,7 @@ fn push_rows(buf: &mut Vec<u8>, objects: &[CatalogueObject]) {
         buf.push(b',');
         push_field(buf, o.source_file.as_bytes());
         buf.push(b',');
-        push_usize(buf, o.source_row);
+        push_usize(buf, o.source_row as usize);
         buf.push(b'\n');
     }
 }

@@ -272,7 +272,7 @@ impl OutputContext<'_> {
             Cell::Text(o.id.to_string()),
             Cell::Text(o.class.label().into()),
             Cell::Text(o.source_file.to_string()),
-            Cell::Int(o.source_row as i64),
+            Cell::Int(i64::from(o.source_row)),
             Cell::Float(Some(o.mass_msun)),
             Cell::Float(o.mass_err_lo_msun.get()),
             Cell::Float(o.mass_err_hi_msun.get()),

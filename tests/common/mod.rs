@@ -166,6 +166,6 @@ pub fn measured_object(
         }
         .into(),
         source_file: "synthetic".into(),
-        source_row: id,
+        source_row: u32::try_from(id).expect("a test catalogue of fewer than 2^32 objects"),
     }
 }
