@@ -383,3 +383,41 @@ fn map_regions_ties_go_to_the_smallest_upsilon_then_tau() {
     assert_eq!((r.best.i_upsilon, r.best.j_tau), (0, 1));
     assert_eq!((r.best.upsilon, r.best.tau), (-0.2, 0.1));
 }
+
+/// The worst objects and the smallest P are found without sorting a copy of every pair: the
+/// same verdict, to the bit, as a full sort by (ln P, key) (ties, NaN and −∞ included).
+#[test]
+fn absolute_consistency_matches_a_full_sort() {
+    let mut state = 0x2545_f491_4f6c_dd1d_u64;
+    let mut next = || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        state
+    };
+    for case in 0..200 {
+        let n = (next() % 40) as usize;
+        let pairs: Vec<(usize, f64)> = (0..n)
+            .map(|_| {
+                let key = (next() % 25) as usize;
+                let v = match next() % 10 {
+                    0 => f64::NEG_INFINITY,
+                    1 => f64::NAN,
+                    2 => -1.0,
+                    _ => -((next() % 1000) as f64) / 37.0,
+                };
+                (key, v)
+            })
+            .collect();
+        let n_worst = (case % 7) as usize;
+        let mut sorted = pairs.clone();
+        sorted.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+        let got = absolute_consistency(&pairs, n_worst);
+        let ln_p_min = sorted.first().map_or(0.0, |w| w.1);
+        assert_eq!(got.ln_p_min.to_bits(), ln_p_min.to_bits(), "case {case}");
+        assert_eq!(got.n_informative, n);
+        sorted.truncate(n_worst);
+        let bits = |v: &[(usize, f64)]| v.iter().map(|w| (w.0, w.1.to_bits())).collect::<Vec<_>>();
+        assert_eq!(bits(&got.worst), bits(&sorted), "case {case}");
+    }
+}

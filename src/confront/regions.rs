@@ -423,18 +423,30 @@ pub struct AbsoluteConsistency {
 /// Šidák test over the informative objects' ln P at the best fit, given as (caller's key,
 /// ln P) pairs; names the `n_worst` objects with the smallest P (ties by key, so deterministic).
 pub fn absolute_consistency(ln_p_at_best: &[(usize, f64)], n_worst: usize) -> AbsoluteConsistency {
-    let mut sorted: Vec<(usize, f64)> = ln_p_at_best.to_vec();
-    sorted.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
-    let ln_p_min = sorted.first().map_or(0.0, |w| w.1);
-    let n = sorted.len();
+    let order = |a: &(usize, f64), b: &(usize, f64)| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0));
+    // The smallest and the `n_worst` smallest, kept in order as they are met: a sorted copy of
+    // every pair was one more list of all informative objects at a large run's peak.
+    let mut smallest: Option<(usize, f64)> = None;
+    let mut worst: Vec<(usize, f64)> = Vec::with_capacity(n_worst.min(ln_p_at_best.len()) + 1);
+    for &x in ln_p_at_best {
+        if smallest.is_none_or(|s| order(&x, &s).is_lt()) {
+            smallest = Some(x);
+        }
+        if worst.len() < n_worst || worst.last().is_some_and(|w| order(&x, w).is_lt()) {
+            let at = worst.partition_point(|w| order(w, &x).is_le());
+            worst.insert(at, x);
+            worst.truncate(n_worst);
+        }
+    }
+    let ln_p_min = smallest.map_or(0.0, |w| w.1);
+    let n = ln_p_at_best.len();
     let p_cat = sidak_p(ln_p_min.exp(), n);
-    sorted.truncate(n_worst);
     AbsoluteConsistency {
         n_informative: n,
         ln_p_min,
         p_cat,
         consistent_cl95: p_cat >= 1.0 - Level::Cl95.probability(),
-        worst: sorted,
+        worst,
     }
 }
 

@@ -293,28 +293,46 @@ pub fn consistency_at_best(
     verdicts: &Verdicts,
     spins: &[SpinVerdict],
 ) -> (AbsoluteConsistency, Vec<(usize, f64)>) {
+    // Each term's informative members, found by walking its members once in object order
+    // (a list of every member's position was 8 bytes per object at a large run's peak).
     let mut counted: Vec<usize> = Vec::new();
     for (term, counts) in &conf.class_counts {
-        let members = conf.members(*term);
-        counted.extend(counts.informative_indices().iter().map(|&j| members[j]));
+        let mut informative = counts.informative_indices().iter().copied().peekable();
+        let members = (conf.uses.iter().enumerate())
+            .filter(|(_, u)| u.mass_term == Some(*term))
+            .map(|(k, _)| k);
+        for (j, k) in members.enumerate() {
+            if informative.peek() == Some(&j) {
+                informative.next();
+                counted.push(k);
+            }
+        }
     }
     counted.sort_unstable();
     counted.dedup();
     // The ln P of each counted object's mass test at the best fit, in object order: made here,
-    // the one place that asks for it, rather than held in every object's verdict.
+    // the one place that asks for it, rather than held in every object's verdict. Collected in
+    // place (one entry per counted object, the ones without a test marked and removed), not
+    // through the chunks of an unindexed collect that doubled the list at the peak.
+    const NO_TEST: usize = usize::MAX;
     let mut ln_ps: Vec<(usize, f64)> = counted
         .par_iter()
-        .filter_map(|&k| {
-            let (o, u) = (objects.get(k)?, conf.uses.get(k)?);
-            let term = u.mass_term?;
-            let m = u.measurement(o);
-            if !m.informative() {
-                return None;
-            }
-            let b = best.class_bound(term)?;
-            Some((k, engine::ln_p_object(term, &m, b, eopts)))
+        .map(|&k| {
+            let ln_p = || {
+                let (o, u) = (objects.get(k)?, conf.uses.get(k)?);
+                let term = u.mass_term?;
+                let m = u.measurement(o);
+                if !m.informative() {
+                    return None;
+                }
+                let b = best.class_bound(term)?;
+                Some(engine::ln_p_object(term, &m, b, eopts))
+            };
+            ln_p().map_or((NO_TEST, 0.0), |l| (k, l))
         })
         .collect();
+    drop(counted);
+    ln_ps.retain(|&(k, _)| k != NO_TEST);
     // Every test in the likelihood enters the verdict: the radius tests too, each as its
     // two-sided p = 2Φ(−|z|) at the best fit (keys offset by the object count so that a white
     // dwarf's two tests stay distinct).
