@@ -543,7 +543,18 @@ pub fn tau0_slice_other_floor(
     mt.systematics = other;
     mt.reduce = eopts.reduce.clone();
     let n = surface.upsilon().len() * surface.tau().len();
-    let mut terms: Vec<(Bound, BoundTerm)> = Vec::new();
+    let fine = &main.slice.upsilon_fine;
+    let along = |want: fn(Term) -> bool| {
+        main.bounds_fine
+            .iter()
+            .find(|(t, _)| want(*t))
+            .map(|(_, v)| v.as_slice())
+    };
+    let mmhb_fine = along(|t| matches!(t, Term::HBurning | Term::BrownDwarf));
+    let chandra_fine = along(|t| t == Term::WhiteDwarfMass);
+    // Each bound's term along the fine axis, read as soon as the term is built so that it is
+    // dropped before the next one is built (the two were held together at a large run's peak).
+    let mut terms: Vec<Vec<Option<f64>>> = Vec::new();
     for (bound, floor, classes) in [
         (
             Bound::Mmhb,
@@ -578,7 +589,19 @@ pub fn tau0_slice_other_floor(
             continue;
         };
         let refs: Vec<(Term, &TermMembers<'_>)> = ms.iter().map(|(t, v)| (*t, v)).collect();
-        terms.push((bound, BoundTerm::build(&refs, floor, range, &mt)?));
+        let term = BoundTerm::build(&refs, floor, range, &mt)?;
+        let along_fine = match bound {
+            Bound::Mmhb => mmhb_fine,
+            Bound::Chandrasekhar => chandra_fine,
+        };
+        terms.push(
+            (0..fine.len())
+                .map(|k| {
+                    let b = along_fine.and_then(|v| v.get(k).copied())?;
+                    Some(term.minus_two_ln_l(b))
+                })
+                .collect(),
+        );
     }
     // The radius term under the other treatment: total floors split again, scale on or off.
     let other_shared = shared_nuisance(&eopts.radius, &mt);
@@ -601,30 +624,14 @@ pub fn tau0_slice_other_floor(
     } else {
         radius_total_fine(main, &radius_objects, None, other_shared.as_ref())
     };
-    let fine = &main.slice.upsilon_fine;
-    let along = |want: fn(Term) -> bool| {
-        main.bounds_fine
-            .iter()
-            .find(|(t, _)| want(*t))
-            .map(|(_, v)| v.as_slice())
-    };
-    let mmhb_fine = along(|t| matches!(t, Term::HBurning | Term::BrownDwarf));
-    let chandra_fine = along(|t| t == Term::WhiteDwarfMass);
     let chi2_fine: Vec<f64> = (0..fine.len())
         .map(|k| {
-            let (mmhb, chandra) = (
-                mmhb_fine.and_then(|v| v.get(k).copied()),
-                chandra_fine.and_then(|v| v.get(k).copied()),
-            );
+            let mmhb = mmhb_fine.and_then(|v| v.get(k).copied());
             let mut s: f64 = radius_total.get(k).copied().unwrap_or(0.0)
                 + main.spin_fine.get(k).copied().unwrap_or(0.0);
-            for (bound, t) in &terms {
-                let b = match bound {
-                    Bound::Mmhb => mmhb,
-                    Bound::Chandrasekhar => chandra,
-                };
-                if let Some(b) = b {
-                    s += t.minus_two_ln_l(b);
+            for t in &terms {
+                if let Some(v) = t[k] {
+                    s += v;
                 }
             }
             if let (Some(pop), Some(b)) = (&conf.population, mmhb) {
