@@ -73,7 +73,7 @@ fn an_object_asked_once_equals_its_whole_table_to_the_bit() {
     let mut checked = 0;
     for (c, n_classes, (a, z)) in [(&two, 2, (0.05, 0.11)), (&edge, 1, (1.0, 1.7))] {
         for class in 0..n_classes {
-            for &i in c.informative_indices(class) {
+            for i in c.informative_indices(class) {
                 let (full, light) = (c.object(class, i), c.object_light(class, i));
                 for k in 0..=60 {
                     let b = a + (z - a) * f64::from(k) / 60.0;

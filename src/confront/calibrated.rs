@@ -183,14 +183,14 @@ fn group_key(m: f64, lo: f64, hi: f64, grid_lo: f64, h: f64, g: &Grouping) -> (i
 /// Groups `objects` (one pass, in order) and returns each non-empty group's sums, sorted by key
 /// so that the rows and the EM's sums do not depend on hashing.
 fn group_objects(
-    objects: &[(f64, f64, f64)],
+    objects: impl Iterator<Item = (f64, f64, f64)>,
     grid_lo: f64,
     h: f64,
     g: &Grouping,
 ) -> Vec<GroupSums> {
     let mut map: std::collections::HashMap<(i32, i32, i64), (u64, [f64; 3])> =
         std::collections::HashMap::new();
-    for &(m, a, b) in objects {
+    for (m, a, b) in objects {
         let e = map
             .entry(group_key(m, a, b, grid_lo, h, g))
             .or_insert((0, [0.0; 3]));
@@ -312,6 +312,21 @@ pub fn deconvolve(
     domain_msun: (f64, f64),
     opts: &DeconvolveOptions,
 ) -> Result<MassFunction, StatsError> {
+    deconvolve_passes(objects.len(), || objects.iter().copied(), domain_msun, opts)
+}
+
+/// [`deconvolve`] of the `n_objects` objects that `objects()` yields, in the same order at each
+/// call: the grouped fit reads them in a few passes and never holds them (at 10⁶ objects the
+/// list was 9 MB at the run's peak); the exact fit, a few thousand objects, collects them.
+fn deconvolve_passes<I>(
+    n_objects: usize,
+    objects: impl Fn() -> I,
+    domain_msun: (f64, f64),
+    opts: &DeconvolveOptions,
+) -> Result<MassFunction, StatsError>
+where
+    I: Iterator<Item = (f64, f64, f64)>,
+{
     let (lo, hi) = domain_msun;
     if !(lo.is_finite() && hi.is_finite() && hi > lo) || opts.n_cells < 8 {
         return Err(StatsError::InvalidInput(format!(
@@ -331,31 +346,31 @@ pub fn deconvolve(
     let h = (hi - lo) / n as f64;
     // Exact: one row per object, weight 1. Grouped: one row per group at its
     // members' mean, weighted by its count.
-    let (rows, weights): (KernelRows, Option<Vec<f64>>) =
-        if objects.len() <= opts.grouping.exact_up_to {
-            let rows = objects
-                .par_iter()
-                .map(|&(m, a, b)| kernel_row(m, a, b, lo, h, n, opts.window_sigma))
-                .filter(|(_, r)| r.iter().any(|&v| v > 0.0))
-                .collect();
-            (rows, None)
-        } else {
-            let groups = group_objects(objects, lo, h, &opts.grouping);
-            let (rows, weights): (Vec<_>, Vec<f64>) = groups
-                .par_iter()
-                .map(|g| {
-                    let c = g.count as f64;
-                    let (m, a, b) = (g.sum[0] / c, g.sum[1] / c, g.sum[2] / c);
-                    (kernel_row(m, a, b, lo, h, n, opts.window_sigma), c)
-                })
-                .filter(|((_, r), _)| r.iter().any(|&v| v > 0.0))
-                .unzip();
-            (rows, Some(weights))
-        };
-    let mut sig: Vec<f64> = objects
-        .iter()
+    let (rows, weights): (KernelRows, Option<Vec<f64>>) = if n_objects <= opts.grouping.exact_up_to
+    {
+        let rows = objects()
+            .collect::<Vec<_>>()
+            .par_iter()
+            .map(|&(m, a, b)| kernel_row(m, a, b, lo, h, n, opts.window_sigma))
+            .filter(|(_, r)| r.iter().any(|&v| v > 0.0))
+            .collect();
+        (rows, None)
+    } else {
+        let groups = group_objects(objects(), lo, h, &opts.grouping);
+        let (rows, weights): (Vec<_>, Vec<f64>) = groups
+            .par_iter()
+            .map(|g| {
+                let c = g.count as f64;
+                let (m, a, b) = (g.sum[0] / c, g.sum[1] / c, g.sum[2] / c);
+                (kernel_row(m, a, b, lo, h, n, opts.window_sigma), c)
+            })
+            .filter(|((_, r), _)| r.iter().any(|&v| v > 0.0))
+            .unzip();
+        (rows, Some(weights))
+    };
+    let mut sig: Vec<f64> = objects()
         .filter(|(m, _, _)| *m >= lo && *m <= hi)
-        .map(|&(_, a, b)| 0.5 * (a + b))
+        .map(|(_, a, b)| 0.5 * (a + b))
         .collect();
     sig.sort_by(f64::total_cmp);
     let median = sig.get(sig.len() / 2).copied().unwrap_or(0.0);
@@ -363,8 +378,8 @@ pub fn deconvolve(
     let smoother = GaussianSmoother::new(smoothing_msun / h, n);
     // Start from the smoothed histogram of the measured masses (plus a flat tenth, so no cell
     // starts at zero): EM converges in far fewer steps than from a flat start.
-    let mut start = vec![0.1 * objects.len().max(1) as f64 / n as f64; n];
-    for &(m, _, _) in objects {
+    let mut start = vec![0.1 * n_objects.max(1) as f64 / n as f64; n];
+    for (m, _, _) in objects() {
         let k = ((m - lo) / h).floor();
         if k >= 0.0 && (k as usize) < n {
             start[k as usize] += 1.0;
@@ -822,8 +837,6 @@ pub struct CalibratedCurve {
     /// Per class: objects kept on the flat-prior product formula (limits, errors too wide for
     /// the grid), as (index, measurement).
     flat: Vec<Vec<(usize, Measurement)>>,
-    /// Per class: informative positions (calibrated and flat), ascending.
-    informative: Vec<Vec<usize>>,
     achieved_error: f64,
     /// The truncated-population kernel of a one-sided edge; `None` when classes on both sides
     /// meet at the bound.
@@ -913,15 +926,15 @@ impl CalibratedCurve {
         drop(cand_sigma);
         let margin = w * q90 + 4.0 * scatter_msun;
         let dom = ((b_lo - margin).max(0.0), b_hi + margin);
-        let all: Vec<(f64, f64, f64)> = classes
-            .iter()
-            .flat_map(|ms| ms.iter())
-            .filter(|m| matches!(m.kind, MassKind::Measured { .. }))
-            .map(|m| unit(&m))
-            .filter(|&(m, _, _)| m >= dom.0 && m <= dom.1)
-            .collect();
-        let phi = deconvolve(&all, dom, dopts)?;
-        drop(all);
+        let in_domain = || {
+            classes
+                .iter()
+                .flat_map(|ms| ms.iter())
+                .filter(|m| matches!(m.kind, MassKind::Measured { .. }))
+                .map(|m| unit(&m))
+                .filter(|&(m, _, _)| m >= dom.0 && m <= dom.1)
+        };
+        let phi = deconvolve_passes(in_domain().count(), in_domain, dom, dopts)?;
         // A one-sided edge: every object facing the bound must lie on the same side of it.
         let mut sides = classes.iter().flat_map(|ms| ms.iter()).map(|m| m.side);
         let edge_side = sides
@@ -991,7 +1004,6 @@ impl CalibratedCurve {
             class_splines: Vec::new(),
             objects: Vec::new(),
             flat: Vec::new(),
-            informative: Vec::new(),
             achieved_error: f64::NAN,
             edge,
             omega: epsilon_weights(scatter_msun, h, d_half),
@@ -1019,11 +1031,9 @@ impl CalibratedCurve {
         let mut check_totals: Vec<Vec<f64>> = Vec::new();
         let mut objects = Vec::new();
         let mut flat = Vec::new();
-        let mut informative = Vec::new();
         for ms in classes {
             let mut cal_idx = Vec::new();
             let mut fl = Vec::new();
-            let mut inf = Vec::new();
             for (i, m) in ms.iter().enumerate() {
                 if !m.informative() {
                     continue;
@@ -1035,7 +1045,6 @@ impl CalibratedCurve {
                 if ln_prob_consistent(&m, worst, flat_floor) > -tiny {
                     continue;
                 }
-                inf.push(i);
                 let (m0, a, b) = unit(&m);
                 let inside = matches!(m.kind, MassKind::Measured { .. })
                     && m0 + w * b <= dom.1
@@ -1120,11 +1129,9 @@ impl CalibratedCurve {
             check_totals.push(check_acc.iter().map(NeumaierSum::total).collect());
             objects.push(cal);
             flat.push(fl);
-            informative.push(inf);
         }
         curve.objects = objects;
         curve.flat = flat;
-        curve.informative = informative;
         let n_classes = curve.objects.len();
         let ys: Vec<f64> = (0..n_nodes)
             .map(|g| node_totals.iter().map(|v| v[g]).sum())
@@ -1524,9 +1531,31 @@ impl CalibratedCurve {
         ObjectCurve { curve: self, what }
     }
 
-    /// Positions of the informative objects of class `class`, ascending.
-    pub fn informative_indices(&self, class: usize) -> &[usize] {
-        self.informative.get(class).map_or(&[], Vec::as_slice)
+    /// Positions of the informative objects of class `class` (calibrated and flat), ascending;
+    /// merged when asked rather than held (8 bytes per informative object at a large run's
+    /// peak).
+    pub fn informative_indices(&self, class: usize) -> Vec<usize> {
+        let (cal, flat) = match (self.objects.get(class), self.flat.get(class)) {
+            (Some(c), Some(f)) => (c.as_slice(), f.as_slice()),
+            _ => return Vec::new(),
+        };
+        let mut out = Vec::with_capacity(cal.len() + flat.len());
+        let (mut c, mut f) = (
+            cal.iter().map(CalObject::position).peekable(),
+            flat.iter().map(|x| x.0).peekable(),
+        );
+        while let (Some(&a), Some(&b)) = (c.peek(), f.peek()) {
+            if a < b {
+                out.push(a);
+                c.next();
+            } else {
+                out.push(b);
+                f.next();
+            }
+        }
+        out.extend(c);
+        out.extend(f);
+        out
     }
 
     /// Objects kept on the flat-prior formula (limits, or errors too wide for the grid).
