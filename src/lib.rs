@@ -16,12 +16,14 @@
 //! * [`cli`] is the thin command-line shell on top.
 //!
 //! [`constants`] holds every physical constant with its standard; [`output`] writes files
-//! atomically.
+//! atomically; [`progress`] draws the progress bars; [`heap`] gives freed memory back between
+//! the stages of a large run.
 
 pub mod catalogue;
 pub mod cli;
 pub mod confront;
 pub mod constants;
+pub mod heap;
 pub mod output;
 pub mod pipeline;
 pub mod progress;

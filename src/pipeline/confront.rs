@@ -247,6 +247,9 @@ pub fn run_confrontation(
     let mut eopts = engine_options(&settings.statistics.engine, &standard);
     eopts.radius.cold_floor_fraction = settings.theory.wd_radius_floor_fraction;
     let surface = GridSurface::new(&grid, standard_cold, eopts.radius.model);
+    // Between stages, what the last one freed goes back to the system (`heap`): the reading's
+    // and the grid parser's buffers here, each stage's temporary tables below.
+    crate::heap::release_freed();
 
     // 3. Comparison over the grid: likelihood maps, allowed regions, the τ = 0 slice. Steps 3–6
     // share one progress bar (stderr, terminal only): each can take seconds on a large catalogue.
@@ -283,6 +286,7 @@ pub fn run_confrontation(
         )?),
         None => None,
     };
+    crate::heap::release_freed();
     steps.step("profile and posterior");
     let profile = profile_intervals(surface.upsilon(), surface.tau(), &joint)?;
     let post = posterior(surface.upsilon(), surface.tau(), &joint)?;
@@ -305,6 +309,7 @@ pub fn run_confrontation(
     };
 
     // 5. Per-object verdicts at standard gravity and at the best fit; tensions.
+    crate::heap::release_freed();
     steps.step("per-object verdicts");
     let verdicts = object_verdicts(
         &vetted.objects,
@@ -336,6 +341,7 @@ pub fn run_confrontation(
         .map(|m| crowding_at(&conf, &vetted.objects, m.value_msun, eopts.mmhb_floor_msun));
 
     steps.finish();
+    crate::heap::release_freed();
     let outputs_started = std::time::Instant::now();
 
     // 7. Outputs.
