@@ -749,6 +749,27 @@ enum CellProbabilities {
     },
 }
 
+/// One object as the tabulation has it in hand: its table, ln P beyond its nodes where that
+/// is constant ([`ObjectTable::constant_ends`]) and ln P at the check points.
+struct Tabulated {
+    object: CalObject,
+    table: ObjectTable,
+    ends: (Option<f64>, Option<f64>),
+    at_checks: Vec<f64>,
+}
+
+/// The cells' contributions an object of label side `side` reads, from its first cell on.
+fn cell_row(side: Side, cells: &CellProbabilities, first: usize) -> &[f64] {
+    let all = match cells {
+        CellProbabilities::Edge(k) => k,
+        CellProbabilities::Label { at_least, at_most } => match side {
+            Side::AtLeast => at_least,
+            Side::AtMost => at_most,
+        },
+    };
+    all.get(first..).unwrap_or(&[])
+}
+
 /// One object's tables, rebuilt from its measurement and the mass function whenever needed.
 #[derive(Debug)]
 struct ObjectTable {
@@ -1059,30 +1080,36 @@ impl CalibratedCurve {
             let mut check_acc = vec![NeumaierSum::default(); check_bs.len()];
             let mut cal: Vec<CalObject> = Vec::new();
             for chunk in cal_idx.chunks(TABULATION_CHUNK) {
-                let done: Vec<Option<(CalObject, ObjectTable)>> = chunk
+                // Each object's table, with (while its posterior is in hand) its ln P at the
+                // check points and, beyond its tabulated nodes, where P is its end value above
+                // the tail switch, that ln P once (the same values, to the bit, as evaluated
+                // node by node: most of the node sums at 10⁶ objects).
+                let done: Vec<Option<Tabulated>> = chunk
                     .par_iter()
                     .map(|&i| {
                         let m = ms.get(i)?;
-                        let t = curve.object_table(&m)?;
+                        let table = curve.object_table(&m)?;
                         // Positions fit in 32 bits: longer classes are refused above.
-                        let o = CalObject::new(i as u32, &m, curve.tail_offset(&m, &t))?;
-                        Some((o, t))
+                        let object = CalObject::new(i as u32, &m, curve.tail_offset(&m, &table))?;
+                        let at_checks = curve.ln_ps_from_cells(
+                            &object,
+                            table.first_cell,
+                            &table.posterior,
+                            &check_cells,
+                            &check_bs,
+                        );
+                        Some(Tabulated {
+                            ends: table.constant_ends(),
+                            object,
+                            table,
+                            at_checks,
+                        })
                     })
-                    .collect();
-                // Beyond its tabulated nodes an object's P is its end value; where that is
-                // above the tail switch its logarithm does not depend on the node and is taken
-                // once (the same value, to the bit: most of the node sums at 10⁶ objects).
-                let ends: Vec<(Option<f64>, Option<f64>)> = done
-                    .iter()
-                    .map(|d| d.as_ref().map_or((None, None), |(_, t)| t.constant_ends()))
                     .collect();
                 node_acc.par_iter_mut().enumerate().for_each(|(g, acc)| {
                     let b = curve.node_b(g);
-                    for ((o, t), ends) in done
-                        .iter()
-                        .zip(&ends)
-                        .filter_map(|(d, e)| Some((d.as_ref()?, e)))
-                    {
+                    for d in done.iter().flatten() {
+                        let (t, ends) = (&d.table, d.ends);
                         let rel = g as isize - t.first_node;
                         let constant = if rel <= 0 {
                             ends.0
@@ -1091,19 +1118,17 @@ impl CalibratedCurve {
                         } else {
                             None
                         };
-                        acc.add(constant.unwrap_or_else(|| curve.ln_p_cal(o, t, g as f64, b)));
+                        acc.add(
+                            constant.unwrap_or_else(|| curve.ln_p_cal(&d.object, t, g as f64, b)),
+                        );
                     }
                 });
-                check_acc
-                    .par_iter_mut()
-                    .zip(&check_bs)
-                    .zip(&check_cells)
-                    .for_each(|((acc, &b), cells)| {
-                        for (o, t) in done.iter().flatten() {
-                            acc.add(curve.ln_p_from_cells(o, t.first_cell, &t.posterior, cells, b));
-                        }
-                    });
-                cal.extend(done.into_iter().flatten().map(|(o, _)| o));
+                for d in done.iter().flatten() {
+                    for (acc, &x) in check_acc.iter_mut().zip(&d.at_checks) {
+                        acc.add(x);
+                    }
+                }
+                cal.extend(done.into_iter().flatten().map(|d| d.object));
             }
             // Objects whose posterior vanished on the grid fall back to the flat prior.
             let kept: std::collections::BTreeSet<usize> =
@@ -1241,30 +1266,46 @@ impl CalibratedCurve {
         CellProbabilities::Label { at_least, at_most }
     }
 
-    /// ln P of an object from its posterior at `b`, the cells' contributions given: the same
-    /// value, to the bit, as [`CalibratedCurve::ln_p_with_kernel`] or
-    /// [`CalibratedCurve::ln_p_direct_with`].
-    fn ln_p_from_cells(
+    /// ln P of an object from its posterior at each of `bs`, the cells' contributions given
+    /// (`cells[k]` belongs to `bs[k]`): the same value, to the bit, as
+    /// [`CalibratedCurve::ln_p_with_kernel`] or [`CalibratedCurve::ln_p_direct_with`]. Four
+    /// bounds at a time: four running sums side by side, each over the cells in order (the
+    /// same values as one bound at a time), which the processor overlaps instead of waiting on
+    /// one sum.
+    fn ln_ps_from_cells(
         &self,
         o: &CalObject,
         first: usize,
         post: &[f64],
-        cells: &CellProbabilities,
-        b: f64,
-    ) -> f64 {
-        let p = match cells {
-            CellProbabilities::Edge(k) => post.iter().zip(&k[first..]).map(|(w, g)| w * g).sum(),
-            CellProbabilities::Label { at_least, at_most } => {
-                let q = match o.side {
-                    Side::AtLeast => at_least,
-                    Side::AtMost => at_most,
-                };
-                let mut p = 0.0;
-                for (w, x) in post.iter().zip(&q[first..]) {
-                    p += w * x;
-                }
-                p.min(1.0)
+        cells: &[CellProbabilities],
+        bs: &[f64],
+    ) -> Vec<f64> {
+        let mut out = Vec::with_capacity(bs.len());
+        for (cells4, bs4) in cells.chunks(4).zip(bs.chunks(4)) {
+            let rows: Vec<&[f64]> = cells4.iter().map(|c| cell_row(o.side, c, first)).collect();
+            let len = rows.iter().map(|r| r.len()).fold(post.len(), usize::min);
+            let row = |k: usize| &rows[k.min(rows.len() - 1)][..len];
+            let (r0, r1, r2, r3) = (row(0), row(1), row(2), row(3));
+            let mut p = [0.0f64; 4];
+            for (j, &w) in post[..len].iter().enumerate() {
+                p[0] += w * r0[j];
+                p[1] += w * r1[j];
+                p[2] += w * r2[j];
+                p[3] += w * r3[j];
             }
+            for ((c, &b), &p) in cells4.iter().zip(bs4).zip(&p) {
+                out.push(self.ln_p_from_cell_sum(o, c, p, b));
+            }
+        }
+        out
+    }
+
+    /// ln P from Σ posterior × cell contribution: capped at 1 for label probabilities, then
+    /// joined to the flat-prior tail below the switch.
+    fn ln_p_from_cell_sum(&self, o: &CalObject, cells: &CellProbabilities, p: f64, b: f64) -> f64 {
+        let p = match cells {
+            CellProbabilities::Edge(_) => p,
+            CellProbabilities::Label { .. } => p.min(1.0),
         };
         regularise(p, &o.measurement(), b, self.scatter_msun, o.tail_offset)
     }
@@ -1300,11 +1341,7 @@ impl CalibratedCurve {
                 let rows: Vec<Vec<f64>> = chunk
                     .par_iter()
                     .map(|o| match self.object_posterior(&o.measurement()) {
-                        Some((first, post)) => bs
-                            .iter()
-                            .zip(cells)
-                            .map(|(&b, c)| self.ln_p_from_cells(o, first, &post, c, b))
-                            .collect(),
+                        Some((first, post)) => self.ln_ps_from_cells(o, first, &post, cells, bs),
                         None => bs
                             .iter()
                             .map(|&b| ln_prob_consistent(&o.measurement(), b, self.scatter_msun))
@@ -1945,6 +1982,41 @@ mod tests {
             }
         }
         assert_eq!(checked, 51);
+    }
+
+    #[test]
+    fn bounds_four_at_a_time_equal_each_bound_alone_to_the_bit() {
+        // Common practice, no source: the side-by-side sums must be the one-at-a-time sums.
+        // Invented lattices as above; 1 to 9 bounds (whole groups of four and remainders),
+        // inside and outside the tabulated ranges, at a two-sided bound and a one-sided edge.
+        let hb = lattice(300, 0.074, 0.10, 0.04, Side::AtLeast);
+        let bd = lattice(150, 0.05, 0.076, 0.04, Side::AtMost);
+        let wd = lattice(120, 0.9, 1.33, 0.02, Side::AtMost);
+        let opts = CalibratedOptions::default();
+        let curves = [
+            (
+                CalibratedCurve::build(&[&hb, &bd], 0.002, (0.06, 0.095), &opts),
+                0.05,
+                0.11,
+            ),
+            (
+                CalibratedCurve::build(&[&wd], 0.012, (1.1, 1.6), &opts),
+                1.0,
+                1.7,
+            ),
+        ];
+        for (built, a, z) in curves {
+            let c = built.unwrap();
+            for n in 1..=9 {
+                let bs: Vec<f64> = (0..n)
+                    .map(|k| a + (z - a) * (k as f64 + 0.3) / n as f64)
+                    .collect();
+                let together = c.exact_at(&bs);
+                for (b, t) in bs.iter().zip(&together) {
+                    assert_eq!(t.to_bits(), c.exact(*b).to_bits(), "{n} bounds, B = {b}");
+                }
+            }
+        }
     }
 
     #[test]
