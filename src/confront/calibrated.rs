@@ -1945,33 +1945,29 @@ mod tests {
         acc.total()
     }
 
-    #[test]
-    fn direct_sum_from_cell_contributions_equals_the_per_object_tables_to_the_bit() {
-        // Common practice, no source: a shortcut must give what the long way gives. Invented
-        // objects (an even lattice): stars and brown dwarfs meeting at an MMHB near 0.075 M☉, and
-        // white dwarfs below a one-sided edge near 1.3 M☉; bounds inside and outside the
-        // tabulated ranges.
+    /// Two curves of invented objects (even lattices) with their class count and a span of
+    /// bounds reaching past the tabulated range: stars and brown dwarfs meeting at an MMHB near
+    /// 0.075 M☉, and white dwarfs below a one-sided edge near 1.3 M☉.
+    fn two_lattice_curves() -> [(CalibratedCurve, usize, f64, f64); 2] {
         let hb = lattice(300, 0.074, 0.10, 0.04, Side::AtLeast);
         let bd = lattice(150, 0.05, 0.076, 0.04, Side::AtMost);
         let wd = lattice(120, 0.9, 1.33, 0.02, Side::AtMost);
         let opts = CalibratedOptions::default();
-        let curves = [
-            (
-                CalibratedCurve::build(&[&hb, &bd], 0.002, (0.06, 0.095), &opts),
-                2,
-                0.05,
-                0.11,
-            ),
-            (
-                CalibratedCurve::build(&[&wd], 0.012, (1.1, 1.6), &opts),
-                1,
-                1.0,
-                1.7,
-            ),
-        ];
+        let build = |classes: &[&Vec<Measurement>], scatter, range| {
+            CalibratedCurve::build(classes, scatter, range, &opts).unwrap()
+        };
+        [
+            (build(&[&hb, &bd], 0.002, (0.06, 0.095)), 2, 0.05, 0.11),
+            (build(&[&wd], 0.012, (1.1, 1.6)), 1, 1.0, 1.7),
+        ]
+    }
+
+    #[test]
+    fn direct_sum_from_cell_contributions_equals_the_per_object_tables_to_the_bit() {
+        // Common practice, no source: a shortcut must give what the long way gives. Bounds
+        // inside and outside the tabulated ranges.
         let mut checked = 0;
-        for (built, n_classes, a, z) in curves {
-            let c = built.unwrap();
+        for (c, n_classes, a, z) in two_lattice_curves() {
             let queries = (0..n_classes).flat_map(|class| {
                 (0..=16).map(move |k| (class, a + (z - a) * f64::from(k) / 16.0))
             });
@@ -1987,26 +1983,9 @@ mod tests {
     #[test]
     fn bounds_four_at_a_time_equal_each_bound_alone_to_the_bit() {
         // Common practice, no source: the side-by-side sums must be the one-at-a-time sums.
-        // Invented lattices as above; 1 to 9 bounds (whole groups of four and remainders),
-        // inside and outside the tabulated ranges, at a two-sided bound and a one-sided edge.
-        let hb = lattice(300, 0.074, 0.10, 0.04, Side::AtLeast);
-        let bd = lattice(150, 0.05, 0.076, 0.04, Side::AtMost);
-        let wd = lattice(120, 0.9, 1.33, 0.02, Side::AtMost);
-        let opts = CalibratedOptions::default();
-        let curves = [
-            (
-                CalibratedCurve::build(&[&hb, &bd], 0.002, (0.06, 0.095), &opts),
-                0.05,
-                0.11,
-            ),
-            (
-                CalibratedCurve::build(&[&wd], 0.012, (1.1, 1.6), &opts),
-                1.0,
-                1.7,
-            ),
-        ];
-        for (built, a, z) in curves {
-            let c = built.unwrap();
+        // 1 to 9 bounds (whole groups of four and remainders), inside and outside the
+        // tabulated ranges, at a two-sided bound and a one-sided edge.
+        for (c, _, a, z) in two_lattice_curves() {
             for n in 1..=9 {
                 let bs: Vec<f64> = (0..n)
                     .map(|k| a + (z - a) * (k as f64 + 0.3) / n as f64)
