@@ -1111,16 +1111,22 @@ impl CalibratedCurve {
                     for d in done.iter().flatten() {
                         let (t, ends) = (&d.table, d.ends);
                         let rel = g as isize - t.first_node;
-                        let constant = if rel <= 0 {
-                            ends.0
-                        } else if rel >= t.p_nodes.len() as isize - 1 {
-                            ends.1
+                        let last = t.p_nodes.len() as isize - 1;
+                        let value = if rel > 0 && rel < last {
+                            // On a node inside the span: P there (what `between_nodes` gives at
+                            // a whole node, p(j)·1 + p(j+1)·0, is p(j) to the bit).
+                            regularise(
+                                t.p_nodes[rel as usize],
+                                &d.object.measurement(),
+                                b,
+                                curve.scatter_msun,
+                                d.object.tail_offset,
+                            )
                         } else {
-                            None
+                            let constant = if rel <= 0 { ends.0 } else { ends.1 };
+                            constant.unwrap_or_else(|| curve.ln_p_cal(&d.object, t, g as f64, b))
                         };
-                        acc.add(
-                            constant.unwrap_or_else(|| curve.ln_p_cal(&d.object, t, g as f64, b)),
-                        );
+                        acc.add(value);
                     }
                 });
                 for d in done.iter().flatten() {
