@@ -19,6 +19,9 @@
 //! atomically; [`progress`] draws the progress bars; [`heap`] gives freed memory back between
 //! the stages of a large run.
 
+// One `unsafe` call in the whole crate (`heap::release_freed`), allowed where it is made.
+#![deny(unsafe_code)]
+
 pub mod catalogue;
 pub mod cli;
 pub mod confront;

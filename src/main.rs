@@ -1,5 +1,7 @@
 //! The `dwarfbound` binary: parse the command line and hand over to the library.
 
+#![forbid(unsafe_code)]
+
 use clap::Parser;
 
 fn main() {
