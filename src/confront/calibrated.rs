@@ -1109,24 +1109,7 @@ impl CalibratedCurve {
                 node_acc.par_iter_mut().enumerate().for_each(|(g, acc)| {
                     let b = curve.node_b(g);
                     for d in done.iter().flatten() {
-                        let (t, ends) = (&d.table, d.ends);
-                        let rel = g as isize - t.first_node;
-                        let last = t.p_nodes.len() as isize - 1;
-                        let value = if rel > 0 && rel < last {
-                            // On a node inside the span: P there (what `between_nodes` gives at
-                            // a whole node, p(j)·1 + p(j+1)·0, is p(j) to the bit).
-                            regularise(
-                                t.p_nodes[rel as usize],
-                                &d.object.measurement(),
-                                b,
-                                curve.scatter_msun,
-                                d.object.tail_offset,
-                            )
-                        } else {
-                            let constant = if rel <= 0 { ends.0 } else { ends.1 };
-                            constant.unwrap_or_else(|| curve.ln_p_cal(&d.object, t, g as f64, b))
-                        };
-                        acc.add(value);
+                        acc.add(curve.ln_p_at_node(d, g, b));
                     }
                 });
                 for d in done.iter().flatten() {
@@ -1386,6 +1369,28 @@ impl CalibratedCurve {
             }
             None => 0.0,
         }
+    }
+
+    /// ln P of an object being tabulated at node `g` (bound value `b`): inside its span P at that node (what
+    /// [`between_nodes`] gives at a whole position, p(j)·1 + p(j+1)·0, is p(j) to the bit, and
+    /// its `floor` and conversions were most of the node sums' cost); beyond it, the end's ln P
+    /// taken once where it is constant ([`ObjectTable::constant_ends`]), else as any bound.
+    fn ln_p_at_node(&self, d: &Tabulated, g: usize, b: f64) -> f64 {
+        let t = &d.table;
+        let rel = g as isize - t.first_node;
+        let last = t.p_nodes.len() as isize - 1;
+        if rel > 0 && rel < last {
+            let o = &d.object;
+            return regularise(
+                t.p_nodes[rel as usize],
+                &o.measurement(),
+                b,
+                self.scatter_msun,
+                o.tail_offset,
+            );
+        }
+        let constant = if rel <= 0 { d.ends.0 } else { d.ends.1 };
+        constant.unwrap_or_else(|| self.ln_p_cal(&d.object, t, g as f64, b))
     }
 
     /// ln P of a calibrated object at fractional node position `t` (bound value `b`).
