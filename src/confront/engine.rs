@@ -679,14 +679,17 @@ impl Confrontation {
             Bound::Mmhb
         };
         let t = self.bound_term(bound)?;
-        // `uses` and `term_positions` are built together in object order (use k is object k).
-        let pos = self
-            .term_positions
-            .get(k)
-            .copied()
-            .filter(|&p| p != u32::MAX)? as usize;
+        let pos = self.term_position(k)?;
         let m = u.measurement(objects.get(k)?);
         Some(t.ln_p_object(term, pos, &m, class_bound_msun))
+    }
+
+    /// Object `k`'s position among the members of its mass term ([`Confrontation::members`]
+    /// order, the positions [`Confrontation::class_counts`] counts in); `None` without one.
+    pub fn term_position(&self, k: usize) -> Option<usize> {
+        // `uses` and `term_positions` are built together in object order (use k is object k).
+        let pos = self.term_positions.get(k).copied()?;
+        (pos != u32::MAX).then_some(pos as usize)
     }
 }
 
