@@ -191,9 +191,10 @@ pub const MMHB_CHANGE_NEGLIGIBLE: f64 = 1e-9;
 /// (measured, or cold at the point). The spin term carries the difference,
 /// −2 ln P(m | f B) + 2 ln P(m | f₀ B), so that the mass test is in effect taken at the point's
 /// factor: exact with per-object floors; with a shared systematic the difference is taken at
-/// zero shift (first order in a product of two small quantities). Where first order fails at a point (v above that point's threshold, or no
-/// model), the factor stays f₀; so it does where the mass test cannot feel it
-/// ([`MmhbSlowRotation::matters_at`]), which spares the point's lookup.
+/// zero shift (first order in a product of two small quantities). Where first order fails at a
+/// point (v above that point's threshold, or no model), the factor stays f₀; so it does where
+/// the mass test cannot feel it ([`MmhbSlowRotation::matters_at`]), which spares the point's
+/// lookup.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MmhbSlowRotation {
     /// Ω² of the observed period, s⁻².
