@@ -1646,7 +1646,9 @@ fn between_nodes(t: f64, first_node: isize, n: usize, p: impl Fn(usize) -> f64) 
     } else if rel >= last {
         p(n - 1)
     } else {
-        let j = rel.floor() as usize;
+        // rel > 0 here, so the truncating cast is the floor (`floor` was a libm call per
+        // query, 3 % of the drivers at 10⁶ objects).
+        let j = rel as usize;
         let f = rel - j as f64;
         p(j) * (1.0 - f) + p(j + 1) * f
     }

@@ -425,20 +425,32 @@ pub fn slice_drivers_in_fit_and_ln_p_at(
     let chi2 = &s.slice.chi2_fine;
     let dchi2 = opts.level.dchi2(1);
     let baseline = interval_from_slice(fine, chi2, dchi2)?;
-    // (object, term, position in its class, bound along the fine axis, bound term)
-    let mut candidates: Vec<(usize, Term, usize, &[f64], &BoundTerm)> = Vec::new();
-    for (term, b_fine) in &s.bounds_fine {
-        let bound = match term {
-            Term::WhiteDwarfMass => Bound::Chandrasekhar,
-            _ => Bound::Mmhb,
-        };
-        let Some(bt) = conf.bound_term(bound) else {
-            continue;
-        };
-        if b_fine.len() != fine.len() || b_fine.is_empty() {
-            continue;
-        }
-        let shifted: Vec<f64> = b_fine.iter().map(|&b| b + bt.delta_hat(b)).collect();
+    // Per mass term on the slice: its bound term, the bound B along the fine axis and the
+    // shifted bound B + δ̂(B) there — what every member's ln P is read at (`ObjectTerm::ln_p`
+    // forms the same sum; computed once here instead of once per member and point, where the
+    // spline of δ̂ was an eighth of the stage at 10⁶ objects).
+    let slice_terms: Vec<(Term, &[f64], Vec<f64>, &BoundTerm)> = s
+        .bounds_fine
+        .iter()
+        .filter_map(|(term, b_fine)| {
+            let bound = match term {
+                Term::WhiteDwarfMass => Bound::Chandrasekhar,
+                _ => Bound::Mmhb,
+            };
+            let bt = conf.bound_term(bound)?;
+            if b_fine.len() != fine.len() || b_fine.is_empty() {
+                return None;
+            }
+            let shifted = b_fine.iter().map(|&b| b + bt.delta_hat(b)).collect();
+            Some((*term, b_fine.as_slice(), shifted, bt))
+        })
+        .collect();
+    // (object, term, position in its class, bound along the fine axis, its shifted bound,
+    // bound term)
+    type Candidate<'a> = (usize, Term, usize, &'a [f64], &'a [f64], &'a BoundTerm);
+    let mut candidates: Vec<Candidate<'_>> = Vec::new();
+    for (term, b_fine, shifted, bt) in &slice_terms {
+        let (b_fine, bt) = (*b_fine, *bt);
         let arg = |better: fn(f64, f64) -> bool| {
             (1..shifted.len()).fold(0, |k, j| if better(shifted[j], shifted[k]) { j } else { k })
         };
@@ -458,7 +470,7 @@ pub fn slice_drivers_in_fit_and_ln_p_at(
                 let ot = bt.object_light(*term, pos, &m);
                 let weight = [k_lo, k_hi]
                     .iter()
-                    .map(|&kk| -2.0 * ot.ln_p(b_fine[kk]))
+                    .map(|&kk| -2.0 * ot.ln_p_at_shifted(shifted[kk]))
                     .fold(f64::NEG_INFINITY, f64::max);
                 let ln_p = b_at.map_or(OptF64::NONE, |b| OptF64::some(ot.ln_p(b)));
                 Some((weight > opts.candidate_min_minus_two_ln_p, ln_p))
@@ -468,7 +480,7 @@ pub fn slice_drivers_in_fit_and_ln_p_at(
             let Some((chosen, ln_p)) = w else { continue };
             ln_p_at[k] = ln_p;
             if chosen {
-                candidates.push((k, *term, pos, b_fine.as_slice(), bt));
+                candidates.push((k, *term, pos, b_fine, shifted.as_slice(), bt));
             }
         }
     }
@@ -480,13 +492,13 @@ pub fn slice_drivers_in_fit_and_ln_p_at(
     // sum, so removal is a subtraction; exact without a shared shift).
     let held: Vec<f64> = candidates
         .par_iter()
-        .map(|&(k, term, pos, b_fine, bt)| {
+        .map(|&(k, term, pos, _, shifted, bt)| {
             let m = conf.uses[k].measurement(&objects[k]);
             let ot = bt.object(term, pos, &m);
             let without: Vec<f64> = chi2
                 .iter()
-                .zip(b_fine)
-                .map(|(&c, &b)| c + 2.0 * ot.ln_p(b))
+                .zip(shifted)
+                .map(|(&c, &b)| c + 2.0 * ot.ln_p_at_shifted(b))
                 .collect();
             shift_of(&without)
         })
@@ -500,7 +512,7 @@ pub fn slice_drivers_in_fit_and_ln_p_at(
     // interval ends) is not refitted: its pull on δ̂ vanishes with it, and a refit would read
     // only the difference between the tabulated term and a fresh elimination.
     let mut order: Vec<usize> = (0..candidates.len())
-        .filter(|&i| candidates[i].4.nuisance().is_some() && held[i] > 0.0)
+        .filter(|&i| candidates[i].5.nuisance().is_some() && held[i] > 0.0)
         .collect();
     order.sort_by(|&a, &b| {
         held[b]
@@ -526,7 +538,7 @@ pub fn slice_drivers_in_fit_and_ln_p_at(
         .par_iter()
         .zip(&held)
         .zip(&refit)
-        .map(|((&(k, term, pos, b_fine, bt), &held), &refit)| {
+        .map(|((&(k, term, pos, b_fine, _, bt), &held), &refit)| {
             let shift = match bt.nuisance().filter(|_| refit) {
                 None => held,
                 // A shared shift: the bound's term without the object, the shift eliminated

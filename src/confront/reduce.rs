@@ -951,14 +951,9 @@ impl CubicSpline {
     pub fn weights(&self, t: f64) -> SplineWeights {
         let n = self.x.len();
         let i = match self.uniform_step {
-            Some(h) => {
-                let f = ((t - self.x[0]) / h).floor();
-                if f.is_nan() || f < 0.0 {
-                    0
-                } else {
-                    (f as usize).min(n - 2)
-                }
-            }
+            // The saturating cast is the floor here: a fraction ≥ 0 truncates down, anything
+            // below 0 (and NaN) gives 0, as the floor's check did (without a libm call).
+            Some(h) => (((t - self.x[0]) / h) as usize).min(n - 2),
             None => self
                 .x
                 .partition_point(|&xi| xi <= t)
