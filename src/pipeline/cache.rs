@@ -42,6 +42,22 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
     hex(&Sha256::digest(bytes))
 }
 
+/// SHA-256 of everything `reader` yields, as lowercase hex ([`sha256_hex`] of the same bytes),
+/// read a megabyte at a time: a catalogue's checksum without holding the file.
+pub fn sha256_hex_of(mut reader: impl std::io::Read) -> std::io::Result<String> {
+    use sha2::Digest as _;
+    let mut hasher = Sha256::new();
+    let mut buf = vec![0u8; 1 << 20];
+    loop {
+        match reader.read(&mut buf) {
+            Ok(0) => return Ok(hex(&hasher.finalize())),
+            Ok(n) => hasher.update(&buf[..n]),
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(e),
+        }
+    }
+}
+
 /// What a cache lookup found.
 #[derive(Debug)]
 pub enum Lookup {
@@ -273,6 +289,24 @@ fn json_differences(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_streamed_checksum_is_the_checksum_of_the_bytes() {
+        // FIPS 180-2's example "abc" (the standard's published digest), then lengths around
+        // the megabyte the stream is read in.
+        assert_eq!(
+            sha256_hex_of(&b"abc"[..]).unwrap(),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+        for n in [0, 1, (1 << 20) - 1, 1 << 20, (1 << 20) + 1, 3 << 20] {
+            let bytes: Vec<u8> = (0..n).map(|i| (i * 7 % 251) as u8).collect();
+            assert_eq!(
+                sha256_hex_of(&bytes[..]).unwrap(),
+                sha256_hex(&bytes),
+                "{n}"
+            );
+        }
+    }
 
     #[test]
     fn corrupt_entries_are_detected_and_removed() {

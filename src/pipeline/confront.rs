@@ -42,7 +42,7 @@ use std::path::{Path, PathBuf};
 
 use serde_json::Value;
 
-use super::cache::{self, sha256_hex, Cache, Lookup};
+use super::cache::{self, Cache, Lookup};
 use super::outputs::OutputContext;
 use super::surface::{class_bounds, GridSurface};
 use crate::catalogue::table::ReadOptions;
@@ -135,34 +135,70 @@ pub fn theory_grid(
     shard: Option<Shard>,
     cache: Option<&Cache>,
 ) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
-    let options = grid_options(shard);
-    let identity = GridIdentity::new(&upsilon, &tau, theory, &options);
+    match cached_theory_grid(upsilon, tau, theory, shard, cache) {
+        CachedGrid::Hit(g) => Ok((*g, true, None)),
+        CachedGrid::Miss(note) => computed_theory_grid(upsilon, tau, theory, shard, cache, note),
+    }
+}
+
+/// What the theory cache held for a grid ([`cached_theory_grid`]).
+pub enum CachedGrid {
+    /// A verified entry for exactly these axes and settings.
+    Hit(Box<TheoryGrid>),
+    /// None to use: the grid must be computed. The one-line note says why an entry was
+    /// discarded, if one was.
+    Miss(Option<String>),
+}
+
+/// The theory grid from the cache alone (never computed here): cheap enough to read while the
+/// catalogues are vetted, and nothing is lost if they turn out unusable.
+pub fn cached_theory_grid(
+    upsilon: Axis,
+    tau: Axis,
+    theory: &TheorySettings,
+    shard: Option<Shard>,
+    cache: Option<&Cache>,
+) -> CachedGrid {
+    let Some(cache) = cache else {
+        return CachedGrid::Miss(None);
+    };
+    let identity = GridIdentity::new(&upsilon, &tau, theory, &grid_options(shard));
     let description = identity.to_json();
     let key = Cache::key(&description);
-    let mut note = None;
-    if let Some(cache) = cache {
-        let discarded = |why: String| {
-            Some(format!(
-                "theory cache entry {} discarded and rebuilt: {why}",
-                cache.entry_path(&key).display()
-            ))
-        };
-        match cache.load(&key, &description) {
-            Lookup::Hit(bytes) => match TheoryGrid::from_json_bytes(&bytes) {
-                // The grid's own fields must say the same as the recorded description.
-                Ok(g) if g.identity() == identity => return Ok((g, true, None)),
-                Ok(g) => {
-                    note = discarded(cache::describe_difference(
-                        &g.identity().to_json(),
-                        &description,
-                    ))
-                }
-                Err(e) => note = discarded(format!("unreadable grid: {e}")),
-            },
-            Lookup::Corrupt(why) | Lookup::Mismatch(why) => note = discarded(why),
-            Lookup::Missing => {}
-        }
+    let discarded = |why: String| {
+        CachedGrid::Miss(Some(format!(
+            "theory cache entry {} discarded and rebuilt: {why}",
+            cache.entry_path(&key).display()
+        )))
+    };
+    match cache.load(&key, &description) {
+        Lookup::Hit(bytes) => match TheoryGrid::from_json_bytes(&bytes) {
+            // The grid's own fields must say the same as the recorded description.
+            Ok(g) if g.identity() == identity => CachedGrid::Hit(Box::new(g)),
+            Ok(g) => discarded(cache::describe_difference(
+                &g.identity().to_json(),
+                &description,
+            )),
+            Err(e) => discarded(format!("unreadable grid: {e}")),
+        },
+        Lookup::Corrupt(why) | Lookup::Mismatch(why) => discarded(why),
+        Lookup::Missing => CachedGrid::Miss(None),
     }
+}
+
+/// The theory grid computed (and stored in the cache, if one is given) after
+/// [`cached_theory_grid`] found none to use; `note` is what it said.
+fn computed_theory_grid(
+    upsilon: Axis,
+    tau: Axis,
+    theory: &TheorySettings,
+    shard: Option<Shard>,
+    cache: Option<&Cache>,
+    note: Option<String>,
+) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
+    let options = grid_options(shard);
+    let description = GridIdentity::new(&upsilon, &tau, theory, &options).to_json();
+    let key = Cache::key(&description);
     let g = grid::compute(upsilon, tau, theory, &options)
         .map_err(|e| PipelineError::Settings(e.to_string()))?;
     if let Some(cache) = cache {
@@ -205,27 +241,49 @@ pub fn run_confrontation(
     generated_at: &str,
     nightly: Option<&NightlyContext>,
 ) -> Result<ConfrontOutcome, PipelineError> {
-    // 1. Catalogues, and the checksum of each file.
-    let vetted = vet_all(&settings.catalogues)?;
-    let checksums = checksum_files(&settings.catalogues)?;
-
-    // 2. Theory: the grid, the standard-gravity point, and the floors the latter sets. The
-    // standard white-dwarf tables the comparison will ask for are computed meanwhile (in
-    // parallel, not one after another inside step 3; the same values).
+    // 1. Catalogues, and the checksum of each file. Meanwhile the theory grid is read from the
+    // cache, if it is there (the vetting leaves the second core idle part of the time; a grid
+    // that must be computed waits until the catalogues are known to be usable).
     let tables_cache = match &theory {
         TheorySource::Compute { cache } => *cache,
         TheorySource::Given(_) => None,
     };
+    let (vetted, (checksums, cached)) = rayon::join(
+        || vet_all(&settings.catalogues),
+        || {
+            let cached = match &theory {
+                TheorySource::Compute { cache } => Some(cached_theory_grid(
+                    settings.upsilon,
+                    settings.tau,
+                    &settings.theory,
+                    None,
+                    *cache,
+                )),
+                TheorySource::Given(_) => None,
+            };
+            (checksum_files(&settings.catalogues), cached)
+        },
+    );
+    let vetted = vetted?;
+    let checksums = checksums?;
+
+    // 2. Theory: the grid, the standard-gravity point, and the floors the latter sets. The
+    // standard white-dwarf tables the comparison will ask for are computed meanwhile (in
+    // parallel, not one after another inside step 3; the same values).
     let (grid, ()) = rayon::join(
         || match theory {
-            TheorySource::Compute { cache } => theory_grid(
-                settings.upsilon,
-                settings.tau,
-                &settings.theory,
-                None,
-                cache,
-            ),
             TheorySource::Given(g) => Ok((*g, false, None)),
+            TheorySource::Compute { cache } => match cached.unwrap_or(CachedGrid::Miss(None)) {
+                CachedGrid::Hit(g) => Ok((*g, true, None)),
+                CachedGrid::Miss(note) => computed_theory_grid(
+                    settings.upsilon,
+                    settings.tau,
+                    &settings.theory,
+                    None,
+                    cache,
+                    note,
+                ),
+            },
         },
         || {
             super::surface::warm_standard_tables(
@@ -426,11 +484,13 @@ pub fn run_confrontation(
 fn checksum_files(inputs: &[CatalogueInput]) -> Result<BTreeMap<String, String>, PipelineError> {
     let mut checksums = BTreeMap::new();
     for c in inputs {
-        let bytes = std::fs::read(&c.path).map_err(|e| CatalogueError::Unreadable {
-            path: c.path.clone(),
-            reason: e.to_string(),
-        })?;
-        checksums.insert(c.path.display().to_string(), sha256_hex(&bytes));
+        let digest = std::fs::File::open(&c.path)
+            .and_then(cache::sha256_hex_of)
+            .map_err(|e| CatalogueError::Unreadable {
+                path: c.path.clone(),
+                reason: e.to_string(),
+            })?;
+        checksums.insert(c.path.display().to_string(), digest);
     }
     Ok(checksums)
 }
