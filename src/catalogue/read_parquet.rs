@@ -8,9 +8,9 @@
 //! defaults. Rows are numbered from 1 in file order.
 //!
 //! [`vet_streaming`] is the path `vet` and `confront` take: it reads a few row groups at a time
-//! (about [`CHUNK_ROWS`] rows) through polars' row slice and vets each slice before reading the
-//! next, so that the file is never held as a table of cells; [`read`] returns the whole table
-//! like every other reader.
+//! (about [`CHUNK_ROWS`] rows) through polars' row slice and vets each slice while the next one
+//! is decoded, so that the file is never held as a table of cells (two slices at most);
+//! [`read`] returns the whole table like every other reader.
 //!
 //! Only the columns the caller names ([`ReadOptions::columns`](super::table::ReadOptions)) are
 //! decoded, so an unused column of a type we do not translate (timestamp, struct, list,
@@ -221,16 +221,7 @@ pub fn vet_streaming(
     let bar = crate::progress::bar(metadata.num_rows as u64, "reading catalogue", false);
     let mut vetter: Option<RowVetter<'_>> = None;
     let mut outcomes: Vec<BlockOutcomes> = Vec::new();
-    for &(offset, rows) in &slices {
-        let df = guard::quietly(|| -> Result<DataFrame, String> {
-            let mut reader = ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?)
-                .with_slice(Some((offset, rows)))
-                .with_columns(columns.clone());
-            reader.set_metadata(metadata.clone());
-            finish(reader, columns.as_deref())
-        })
-        .map_err(|_| invalid(DECODER_FAILED.into()))?
-        .map_err(invalid)?;
+    let mut vet_slice = |df: DataFrame, offset: usize| -> Result<(), CatalogueError> {
         let v = match &mut vetter {
             Some(v) => v,
             None => {
@@ -312,6 +303,32 @@ pub fn vet_streaming(
             v.accept_block(out, super::vet::reborrow(&mut sink));
         }
         bar.inc(height as u64);
+        Ok(())
+    };
+    let decode = |(offset, rows): (usize, usize)| -> Result<DataFrame, CatalogueError> {
+        guard::quietly(|| -> Result<DataFrame, String> {
+            let mut reader = ParquetReader::new(file.try_clone().map_err(|e| e.to_string())?)
+                .with_slice(Some((offset, rows)))
+                .with_columns(columns.clone());
+            reader.set_metadata(metadata.clone());
+            finish(reader, columns.as_deref())
+        })
+        .map_err(|_| invalid(DECODER_FAILED.into()))?
+        .map_err(invalid)
+    };
+    // Each slice is decoded while the one before it is vetted and accepted (both were
+    // serial: polars' decoding of a slice and the ids' check of its rows): the same rows in
+    // the same order, one more slice's columns in memory.
+    let mut pending = match slices.first() {
+        Some(&first) => Some(decode(first)?),
+        None => None,
+    };
+    for (i, &(offset, _)) in slices.iter().enumerate() {
+        let Some(df) = pending.take() else { break };
+        let following = slices.get(i + 1).copied();
+        let (decoded, vetted) = rayon::join(|| following.map(decode), || vet_slice(df, offset));
+        vetted?;
+        pending = decoded.transpose()?;
     }
     bar.finish_and_clear();
     match vetter {
