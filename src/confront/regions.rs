@@ -20,7 +20,7 @@ use std::f64::consts::FRAC_1_SQRT_2;
 
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
-use super::prob::{ln_prob_consistent, tension_sigma, Measurement, StatsError};
+use super::prob::{ln_normal_cdf, ln_prob_consistent, tension_sigma, Measurement, StatsError};
 
 /// The three conventional confidence levels, defined as the probability inside ±kσ of a
 /// Gaussian (k = 1, 2, 3): 68.27 %, 95.45 %, 99.73 %.
@@ -512,15 +512,59 @@ where
     B: IntoIterator,
     B::Item: std::borrow::Borrow<Measurement>,
 {
+    let window = SigmaWindow::new(opts.z_window);
     let near = |m: &Measurement| {
-        m.informative()
-            && tension_sigma(ln_prob_consistent(m, mmhb_msun, floor_msun)).abs() <= opts.z_window
+        m.informative() && window.contains(ln_prob_consistent(m, mmhb_msun, floor_msun))
     };
     let (h, b) = (count_where(hburning, near), count_where(brown_dwarf, near));
     Crowding {
         n_hburning_near: h,
         n_brown_dwarf_near: b,
         warn: h > opts.min_per_class && b > opts.min_per_class,
+    }
+}
+
+/// |tension_sigma(ln P)| ≤ z, decided from ln P itself where it lies clearly inside or outside
+/// [ln Φ(−z), ln Φ(z)] (σ = −Φ⁻¹(P) falls as ln P grows), and by inverting Φ only within a
+/// relative 10⁻⁹ of either end: the inversion (Newton's method, several ln Φ) was most of the
+/// crowding count, one per object of two classes. Newton's result is accurate to a few ulp,
+/// far inside that margin, so the answer is the inversion's for every ln P
+/// (`a_sigma_window_answers_as_the_inversion`).
+#[derive(Debug, Clone, Copy)]
+struct SigmaWindow {
+    z: f64,
+    /// Below: clearly |σ| > z (σ above z).
+    lo_out: f64,
+    /// Above (and below `hi_in`): clearly |σ| ≤ z.
+    lo_in: f64,
+    hi_in: f64,
+    /// Above: clearly |σ| > z (σ below −z, or ln P = 0).
+    hi_out: f64,
+}
+
+impl SigmaWindow {
+    const MARGIN: f64 = 1e-9;
+
+    fn new(z: f64) -> Self {
+        let (a, b) = (ln_normal_cdf(-z), ln_normal_cdf(z));
+        Self {
+            z,
+            lo_out: a - Self::MARGIN * a.abs(),
+            lo_in: a + Self::MARGIN * a.abs(),
+            hi_in: b - Self::MARGIN * b.abs(),
+            hi_out: b + Self::MARGIN * b.abs(),
+        }
+    }
+
+    fn contains(&self, ln_p: f64) -> bool {
+        if ln_p > self.lo_in && ln_p < self.hi_in {
+            true
+        } else if ln_p < self.lo_out || ln_p > self.hi_out {
+            false
+        } else {
+            // Near an end, at ln P = 0, or NaN.
+            tension_sigma(ln_p).abs() <= self.z
+        }
     }
 }
 
@@ -586,5 +630,46 @@ impl PopulationTerm {
         }
         -(self.n_hburning as f64) * (self.m_hi_msun - b_msun).ln()
             - (self.n_brown_dwarf as f64) * (b_msun - self.m_lo_msun).ln()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_sigma_window_answers_as_the_inversion() {
+        // Against |tension_sigma(ln P)| ≤ z itself (the definition; no other source): ln P
+        // spread over the whole range, and dense around both ends of each window, where the
+        // shortcut hands over to the inversion.
+        let mut rng = 0x2545_f491_4f6c_dd1du64;
+        let mut uniform = || {
+            rng ^= rng << 13;
+            rng ^= rng >> 7;
+            rng ^= rng << 17;
+            (rng >> 11) as f64 / (1u64 << 53) as f64
+        };
+        for z in [0.0, 0.5, 1.0, 2.0, 3.0, 5.0, 8.0, 30.0, -1.0] {
+            let w = SigmaWindow::new(z);
+            let mut lns: Vec<f64> = vec![0.0, -0.0, f64::NAN, f64::NEG_INFINITY, -1e-300];
+            for end in [ln_normal_cdf(-z), ln_normal_cdf(z)] {
+                for k in -2000..=2000 {
+                    lns.push(end * (1.0 + k as f64 * 1e-12));
+                    lns.push(end + k as f64 * f64::EPSILON * end.abs());
+                }
+            }
+            for _ in 0..20_000 {
+                lns.push(-(50.0 * uniform()).exp() + 1e-30);
+                lns.push(-700.0 * uniform());
+                lns.push(-(-700.0 * uniform()).exp());
+            }
+            for l in lns.into_iter().filter(|l| l.is_nan() || *l <= 0.0) {
+                assert_eq!(
+                    w.contains(l),
+                    tension_sigma(l).abs() <= z,
+                    "z = {z}, ln P = {l:e}"
+                );
+            }
+        }
     }
 }
