@@ -642,13 +642,8 @@ mod tests {
         // Against |tension_sigma(ln P)| ≤ z itself (the definition; no other source): ln P
         // spread over the whole range, and dense around both ends of each window, where the
         // shortcut hands over to the inversion.
-        let mut rng = 0x2545_f491_4f6c_dd1du64;
-        let mut uniform = || {
-            rng ^= rng << 13;
-            rng ^= rng >> 7;
-            rng ^= rng << 17;
-            (rng >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut rng = super::super::reduce::SplitMix64::new(17);
+        let mut uniform = || rng.next_f64();
         for z in [0.0, 0.5, 1.0, 2.0, 3.0, 5.0, 8.0, 30.0, -1.0] {
             let w = SigmaWindow::new(z);
             let mut lns: Vec<f64> = vec![0.0, -0.0, f64::NAN, f64::NEG_INFINITY, -1e-300];
