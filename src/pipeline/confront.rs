@@ -135,10 +135,8 @@ pub fn theory_grid(
     shard: Option<Shard>,
     cache: Option<&Cache>,
 ) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
-    match cached_theory_grid(upsilon, tau, theory, shard, cache) {
-        CachedGrid::Hit(g) => Ok((*g, true, None)),
-        CachedGrid::Miss(note) => computed_theory_grid(upsilon, tau, theory, shard, cache, note),
-    }
+    cached_theory_grid(upsilon, tau, theory, shard, cache)
+        .or_computed(upsilon, tau, theory, shard, cache)
 }
 
 /// What the theory cache held for a grid ([`cached_theory_grid`]).
@@ -186,28 +184,35 @@ pub fn cached_theory_grid(
     }
 }
 
-/// The theory grid computed (and stored in the cache, if one is given) after
-/// [`cached_theory_grid`] found none to use; `note` is what it said.
-fn computed_theory_grid(
-    upsilon: Axis,
-    tau: Axis,
-    theory: &TheorySettings,
-    shard: Option<Shard>,
-    cache: Option<&Cache>,
-    note: Option<String>,
-) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
-    let options = grid_options(shard);
-    let description = GridIdentity::new(&upsilon, &tau, theory, &options).to_json();
-    let key = Cache::key(&description);
-    let g = grid::compute(upsilon, tau, theory, &options)
-        .map_err(|e| PipelineError::Settings(e.to_string()))?;
-    if let Some(cache) = cache {
-        let bytes = g
-            .to_json_bytes()
-            .map_err(|e| PipelineError::Internal(e.to_string()))?;
-        cache.store(&key, &description, &bytes)?;
+impl CachedGrid {
+    /// The grid found, or else the grid computed (and stored in the cache, if one is given)
+    /// for the same axes and settings: [`theory_grid`]'s answer, with the note of a discarded
+    /// entry kept.
+    pub fn or_computed(
+        self,
+        upsilon: Axis,
+        tau: Axis,
+        theory: &TheorySettings,
+        shard: Option<Shard>,
+        cache: Option<&Cache>,
+    ) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
+        let note = match self {
+            CachedGrid::Hit(g) => return Ok((*g, true, None)),
+            CachedGrid::Miss(note) => note,
+        };
+        let options = grid_options(shard);
+        let description = GridIdentity::new(&upsilon, &tau, theory, &options).to_json();
+        let key = Cache::key(&description);
+        let g = grid::compute(upsilon, tau, theory, &options)
+            .map_err(|e| PipelineError::Settings(e.to_string()))?;
+        if let Some(cache) = cache {
+            let bytes = g
+                .to_json_bytes()
+                .map_err(|e| PipelineError::Internal(e.to_string()))?;
+            cache.store(&key, &description, &bytes)?;
+        }
+        Ok((g, false, note))
     }
-    Ok((g, false, note))
 }
 
 /// Where the theory grid comes from.
@@ -273,17 +278,15 @@ pub fn run_confrontation(
     let (grid, ()) = rayon::join(
         || match theory {
             TheorySource::Given(g) => Ok((*g, false, None)),
-            TheorySource::Compute { cache } => match cached.unwrap_or(CachedGrid::Miss(None)) {
-                CachedGrid::Hit(g) => Ok((*g, true, None)),
-                CachedGrid::Miss(note) => computed_theory_grid(
+            TheorySource::Compute { cache } => {
+                cached.unwrap_or(CachedGrid::Miss(None)).or_computed(
                     settings.upsilon,
                     settings.tau,
                     &settings.theory,
                     None,
                     cache,
-                    note,
-                ),
-            },
+                )
+            }
         },
         || {
             super::surface::warm_standard_tables(
