@@ -637,18 +637,31 @@ impl Mixtures {
         let (a, b, big_r, e2) = self.objects[i];
         let (mut total, mut d1, mut d2, mut mag) = (0.0, 0.0, 0.0, 0.0);
         for block in self.components[a..b].chunks(BLOCK) {
+            let n = block.len();
             let (mut inv, mut dev, mut ex) = ([0.0; BLOCK], [0.0; BLOCK], [0.0; BLOCK]);
             for (((k, inv), dev), ex) in block.iter().zip(&mut inv).zip(&mut dev).zip(&mut ex) {
                 *inv = 1.0 / (e2 + k.th2 * scale * scale);
                 *dev = big_r - k.r * scale;
                 *ex = -0.5 * *dev * *dev * *inv;
             }
-            for ex in &mut ex[..block.len()] {
+            for ex in &mut ex[..n] {
                 *ex = ex.exp();
             }
-            for (((k, &inv), &dev), &ex) in block.iter().zip(&inv).zip(&dev).zip(&ex) {
-                let t = k.c * ex * inv.sqrt();
-                total += t;
+            // Each component's term and its two derivative terms, side by side (no running
+            // sum, so the processor does several components at once), then the four sums in
+            // component order: the same operations on the same operands as one loop, so the
+            // same bits (perf on 2 000 white dwarfs with radii: the single loop was half of
+            // the drivers, waiting on its sums and one component at a time).
+            let (mut t, mut tp1, mut tp2) = ([0.0; BLOCK], [0.0; BLOCK], [0.0; BLOCK]);
+            for (((((k, &inv), &dev), &ex), t), (tp1, tp2)) in block
+                .iter()
+                .zip(&inv)
+                .zip(&dev)
+                .zip(&ex)
+                .zip(&mut t)
+                .zip(tp1.iter_mut().zip(&mut tp2))
+            {
+                *t = k.c * ex * inv.sqrt();
                 let th2s = k.th2 * scale;
                 let av = dev * inv;
                 let w = av * av - inv;
@@ -656,9 +669,14 @@ impl Mixtures {
                 let p2 = (k.th2 + k.r * k.r) * w
                     + th2s * th2s * (w * w - 2.0 * inv * (w + av * av))
                     + 2.0 * k.r * av * th2s * (w - 2.0 * inv);
-                d1 += t * p1;
-                d2 += t * p2;
-                mag += (t * p1).abs();
+                *tp1 = *t * p1;
+                *tp2 = *t * p2;
+            }
+            for ((&t, &tp1), &tp2) in t[..n].iter().zip(&tp1[..n]).zip(&tp2[..n]) {
+                total += t;
+                d1 += tp1;
+                d2 += tp2;
+                mag += tp1.abs();
             }
         }
         let value = -2.0 * floored_ln(total);
