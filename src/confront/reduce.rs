@@ -869,50 +869,11 @@ impl CubicSpline {
                 "spline abscissae must be finite and strictly increasing, values finite".into(),
             ));
         }
-        let h: Vec<f64> = x.windows(2).map(|w| w[1] - w[0]).collect();
-        let d: Vec<f64> = (0..n - 1).map(|i| (y[i + 1] - y[i]) / h[i]).collect();
-        let mut second = vec![0.0; n];
-        match (n, end) {
-            (2, _) => {}
-            (3, SplineEnd::NotAKnot) => {
-                let c = 2.0 * (d[1] - d[0]) / (h[0] + h[1]);
-                second.iter_mut().for_each(|s| *s = c);
-            }
-            _ => {
-                let k = n - 2; // unknowns M_1 … M_{n−2}
-                let mut sub = vec![0.0; k];
-                let mut diag = vec![0.0; k];
-                let mut sup = vec![0.0; k];
-                let mut rhs = vec![0.0; k];
-                for r in 0..k {
-                    let i = r + 1;
-                    sub[r] = h[i - 1];
-                    diag[r] = 2.0 * (h[i - 1] + h[i]);
-                    sup[r] = h[i];
-                    rhs[r] = 6.0 * (d[i] - d[i - 1]);
-                }
-                if end == SplineEnd::NotAKnot {
-                    // M_0 = ((h0+h1) M_1 − h0 M_2)/h1 folded into the first row, and the mirror
-                    // relation into the last one.
-                    let (h0, h1) = (h[0], h[1]);
-                    diag[0] += h0 * (h0 + h1) / h1;
-                    sup[0] -= h0 * h0 / h1;
-                    let (ha, hb) = (h[n - 3], h[n - 2]);
-                    diag[k - 1] += hb * (ha + hb) / ha;
-                    sub[k - 1] -= hb * hb / ha;
-                }
-                let interior = solve_tridiagonal(&sub, &diag, &sup, &rhs);
-                second[1..n - 1].copy_from_slice(&interior);
-                if end == SplineEnd::NotAKnot {
-                    let (h0, h1) = (h[0], h[1]);
-                    second[0] = ((h0 + h1) * second[1] - h0 * second[2]) / h1;
-                    let (ha, hb) = (h[n - 3], h[n - 2]);
-                    second[n - 1] = ((ha + hb) * second[n - 2] - hb * second[n - 3]) / ha;
-                }
-            }
-        }
-        let step = h[0];
-        let uniform = h.iter().all(|&hi| (hi - step).abs() <= 1e-12 * step);
+        let second = spline_second_derivatives(x, y, end);
+        let step = x[1] - x[0];
+        let uniform = x
+            .windows(2)
+            .all(|w| ((w[1] - w[0]) - step).abs() <= 1e-12 * step);
         Ok(Self {
             x: x.to_vec(),
             y: y.to_vec(),
@@ -975,10 +936,7 @@ impl CubicSpline {
 
     /// The spline's value with `w` from [`CubicSpline::weights`] of a spline on the same knots.
     pub fn eval_with(&self, w: &SplineWeights) -> f64 {
-        let i = w.i;
-        w.a * self.y[i]
-            + w.b * self.y[i + 1]
-            + (w.cubic_a * self.second[i] + w.cubic_b * self.second[i + 1]) * w.h * w.h / 6.0
+        w.eval_on(&self.y, &self.second)
     }
 
     /// Number of nodes.
@@ -992,6 +950,58 @@ impl CubicSpline {
     }
 }
 
+/// The second derivatives at the knots of the cubic spline through (x_i, y_i) with end
+/// condition `end`: what [`CubicSpline::new`] stores, for callers that hold many splines on
+/// the same knots in one flat table instead of one [`CubicSpline`] each
+/// ([`SplineWeights::eval_on`]). The caller has checked what `new` checks (≥ 2 points, as many
+/// values, finite, x strictly increasing).
+pub fn spline_second_derivatives(x: &[f64], y: &[f64], end: SplineEnd) -> Vec<f64> {
+    let n = x.len();
+    let h: Vec<f64> = x.windows(2).map(|w| w[1] - w[0]).collect();
+    let d: Vec<f64> = (0..n - 1).map(|i| (y[i + 1] - y[i]) / h[i]).collect();
+    let mut second = vec![0.0; n];
+    match (n, end) {
+        (2, _) => {}
+        (3, SplineEnd::NotAKnot) => {
+            let c = 2.0 * (d[1] - d[0]) / (h[0] + h[1]);
+            second.iter_mut().for_each(|s| *s = c);
+        }
+        _ => {
+            let k = n - 2; // unknowns M_1 … M_{n−2}
+            let mut sub = vec![0.0; k];
+            let mut diag = vec![0.0; k];
+            let mut sup = vec![0.0; k];
+            let mut rhs = vec![0.0; k];
+            for r in 0..k {
+                let i = r + 1;
+                sub[r] = h[i - 1];
+                diag[r] = 2.0 * (h[i - 1] + h[i]);
+                sup[r] = h[i];
+                rhs[r] = 6.0 * (d[i] - d[i - 1]);
+            }
+            if end == SplineEnd::NotAKnot {
+                // M_0 = ((h0+h1) M_1 − h0 M_2)/h1 folded into the first row, and the mirror
+                // relation into the last one.
+                let (h0, h1) = (h[0], h[1]);
+                diag[0] += h0 * (h0 + h1) / h1;
+                sup[0] -= h0 * h0 / h1;
+                let (ha, hb) = (h[n - 3], h[n - 2]);
+                diag[k - 1] += hb * (ha + hb) / ha;
+                sub[k - 1] -= hb * hb / ha;
+            }
+            let interior = solve_tridiagonal(&sub, &diag, &sup, &rhs);
+            second[1..n - 1].copy_from_slice(&interior);
+            if end == SplineEnd::NotAKnot {
+                let (h0, h1) = (h[0], h[1]);
+                second[0] = ((h0 + h1) * second[1] - h0 * second[2]) / h1;
+                let (ha, hb) = (h[n - 3], h[n - 2]);
+                second[n - 1] = ((ha + hb) * second[n - 2] - hb * second[n - 3]) / ha;
+            }
+        }
+    }
+    second
+}
+
 /// Where a point falls among a spline's knots, with its interpolation weights
 /// ([`CubicSpline::weights`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -1002,6 +1012,18 @@ pub struct SplineWeights {
     cubic_a: f64,
     cubic_b: f64,
     h: f64,
+}
+
+impl SplineWeights {
+    /// The value of the spline on these weights' knots whose values are `y` and second
+    /// derivatives `second` ([`spline_second_derivatives`]): [`CubicSpline::eval_with`]'s
+    /// arithmetic, so the same bits as holding the spline.
+    pub fn eval_on(&self, y: &[f64], second: &[f64]) -> f64 {
+        let i = self.i;
+        self.a * y[i]
+            + self.b * y[i + 1]
+            + (self.cubic_a * second[i] + self.cubic_b * second[i + 1]) * self.h * self.h / 6.0
+    }
 }
 
 /// Thomas algorithm for a tridiagonal system (diagonally dominant here, no pivoting needed).
@@ -1082,10 +1104,23 @@ mod tests {
             let points = (0..400)
                 .map(|_| lo + (hi - lo) * rng.next_f64())
                 .chain(xs.iter().copied());
+            // The flat form (`slice::FineRadii`): second derivatives alone, weights from a
+            // spline of other values on the same knots.
+            let seconds: Vec<Vec<f64>> = ys
+                .iter()
+                .map(|y| spline_second_derivatives(&xs, y, SplineEnd::NotAKnot))
+                .collect();
+            let knots = CubicSpline::new(&xs, &vec![0.0; xs.len()], SplineEnd::NotAKnot).unwrap();
             for t in points {
                 let w = splines[0].weights(t);
-                for sp in &splines {
+                let flat = knots.weights(t);
+                for ((sp, y), second) in splines.iter().zip(&ys).zip(&seconds) {
                     assert_eq!(sp.eval_with(&w).to_bits(), sp.eval(t).to_bits(), "t = {t}");
+                    assert_eq!(
+                        flat.eval_on(y, second).to_bits(),
+                        sp.eval(t).to_bits(),
+                        "t = {t}"
+                    );
                 }
             }
         }
