@@ -245,6 +245,34 @@ impl MassFunction {
     fn centre(&self, k: usize) -> f64 {
         self.lo_msun + (k as f64 + 0.5) * self.cell_msun
     }
+
+    /// Density per M☉ at `m_msun`, linear between cell centres (flat within half a cell of
+    /// the grid's ends, 0 outside it): for a caller that weighs nodes finer than a cell and
+    /// should not see the cells' steps.
+    pub fn density_linear(&self, m_msun: f64) -> f64 {
+        let n = self.weights.len();
+        let x = (m_msun - self.lo_msun) / self.cell_msun;
+        if n == 0 || !(0.0..=n as f64).contains(&x) {
+            return 0.0;
+        }
+        let t = (x - 0.5).clamp(0.0, (n - 1) as f64);
+        let k = (t as usize).min(n.saturating_sub(2));
+        let f = t - k as f64;
+        let next = self.weights.get(k + 1).copied().unwrap_or(self.weights[k]);
+        ((1.0 - f) * self.weights[k] + f * next) / self.cell_msun
+    }
+
+    /// The same mass function smoothed by a Gaussian of 1σ `width_msun` on its grid, each
+    /// cell's probability spread over the grid's cells only (renormalised, so the total is
+    /// kept), as the deconvolution's own smoothing step does.
+    pub fn smoothed(&self, width_msun: f64) -> MassFunction {
+        let smoother = GaussianSmoother::new(width_msun / self.cell_msun, self.weights.len());
+        MassFunction {
+            weights: smoother.apply(&self.weights),
+            smoothing_msun: self.smoothing_msun.hypot(width_msun.max(0.0)),
+            ..self.clone()
+        }
+    }
 }
 
 /// ∫_{−∞}^{x} of a split-normal likelihood in the true mass m, peak at `m0`, widths `lo` below

@@ -557,6 +557,10 @@ pub struct Confrontation {
     pub population: Option<PopulationTerm>,
     /// The radius tests, prepared (nodes and standard model per object).
     pub radius_objects: Vec<ObjectRadius>,
+    /// The prior on the radius objects' true masses when it is their own mass function
+    /// ([`wd_radius::RadiusMassPrior::Population`]; `None` with the flat prior or without
+    /// objects to estimate it from).
+    pub radius_mass_prior: Option<wd_radius::PopulationPrior>,
     /// The radius systematic shared by every white dwarf in the radius test, as a nuisance
     /// parameter (`None` with per-object floors).
     pub radius_shared: Option<super::nuisance::SharedNuisance>,
@@ -1031,6 +1035,8 @@ pub fn confront(
             false
         });
     }
+    // The prior on the true masses is the mass function of the objects actually in the test.
+    let radius_mass_prior = weigh_by_population(objects, &mut radius_objects, &opts.radius);
     if !radius_objects.is_empty() {
         let queries = RadiusQueries::new(
             &radius_objects
@@ -1095,6 +1101,7 @@ pub fn confront(
         class_counts,
         population,
         radius_objects,
+        radius_mass_prior,
         radius_shared: wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms),
         bounds,
         spins,
@@ -1241,6 +1248,38 @@ pub fn prepare_radius_objects(
         r.at_nominal = at_nominal;
     }
     out
+}
+
+/// With the population prior (the default), estimates the radius objects' mass function from
+/// their measured masses ([`wd_radius::PopulationPrior`]) and weighs every object's mass nodes
+/// by it; the prior is returned for the report. Nothing changes with the flat prior.
+fn weigh_by_population(
+    objects: &[CatalogueObject],
+    radius_objects: &mut [ObjectRadius],
+    opts: &wd_radius::RadiusOptions,
+) -> Option<wd_radius::PopulationPrior> {
+    if opts.mass_prior != wd_radius::RadiusMassPrior::Population {
+        return None;
+    }
+    // The widths as `radius_mass_nodes` reads them.
+    let masses: Vec<(f64, f64, f64)> = radius_objects
+        .iter()
+        .map(|r| {
+            let o = &objects[r.index];
+            let lo = o.mass_err_lo_msun.get().unwrap_or(0.0);
+            let hi = o
+                .mass_err_hi_msun
+                .get()
+                .or(o.mass_err_lo_msun.get())
+                .unwrap_or(0.0);
+            (o.mass_msun, lo, hi)
+        })
+        .collect();
+    let prior = wd_radius::PopulationPrior::estimate(&masses)?;
+    for r in radius_objects.iter_mut() {
+        prior.reweight(&mut r.nodes);
+    }
+    Some(prior)
 }
 
 /// Number of nodes of the mass quadrature of the radius term.

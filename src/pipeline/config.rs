@@ -156,6 +156,9 @@ pub struct StatisticsConfig {
     pub exclude_age_unknown: bool,
     /// Standard-gravity white-dwarf radius model: `hot` (default) or `cold`.
     pub wd_radius_model: String,
+    /// Prior on the white dwarfs' true masses in the radius test: `population` (default) or
+    /// `flat`.
+    pub wd_mass_prior: String,
     /// Keep objects with model-derived masses in their tests.
     pub include_model_masses: bool,
     /// Keep white dwarfs outside the radius model's domain in the radius test.
@@ -184,6 +187,7 @@ impl Default for StatisticsConfig {
             include_young: false,
             exclude_age_unknown: false,
             wd_radius_model: "hot".into(),
+            wd_mass_prior: "population".into(),
             include_model_masses: false,
             include_out_of_domain: false,
             floor: "shared".into(),

@@ -196,6 +196,14 @@ pub fn defaults_toml() -> String {
     );
     line(
         &mut o,
+        "wd_mass_prior",
+        &format!("\"{}\"", st.wd_mass_prior),
+        "population | flat; the prior on each white dwarf's true mass in the radius test: their own\n\
+         mass function, because a flat prior turns the population's peak into a false signal in\n\
+         large catalogues (docs/white-dwarfs.md).",
+    );
+    line(
+        &mut o,
         "include_model_masses",
         &st.include_model_masses.to_string(),
         "keep masses that came through a standard-gravity model in their tests (off: circular).",

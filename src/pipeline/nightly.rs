@@ -279,6 +279,10 @@ pub fn settings_from_config(
         .wd_radius_model
         .parse()
         .map_err(|e: String| bad("statistics.wd_radius_model", e))?;
+    statistics.engine.radius.mass_prior = st
+        .wd_mass_prior
+        .parse()
+        .map_err(|e: String| bad("statistics.wd_mass_prior", e))?;
     statistics.engine.radius.include_model_masses = st.include_model_masses;
     statistics.engine.radius.include_out_of_domain = st.include_out_of_domain;
     super::config::apply_statistics_choices(

@@ -756,6 +756,8 @@ impl OutputContext<'_> {
                     crate::confront::wd_radius::WdRadiusModel::Hot => self.eopts.radius.hot_floor_fraction,
                 },
                 "wd_radius_model": self.eopts.radius.model.name(),
+                "wd_mass_prior": self.eopts.radius.mass_prior.name(),
+                "wd_mass_prior_bandwidth_msun": self.conf.radius_mass_prior.as_ref().map(|p| p.bandwidth_msun()),
                 "include_model_masses": self.eopts.radius.include_model_masses,
                 "theory_floor": self.eopts.mass_terms.systematics.name(),
                 "population_window_msun": self.eopts.population_window_msun.map(|(a, b)| vec![a, b]),

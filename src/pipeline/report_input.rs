@@ -633,7 +633,7 @@ pub(crate) fn report_parts(
                 ),
             },
             likelihood: format!(
-                "{}; evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's mass{}",
+                "{}; evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's true mass with {}{}",
                 ctx.conf
                     .bounds
                     .iter()
@@ -660,6 +660,15 @@ pub(crate) fn report_parts(
                     ))
                     .collect::<Vec<_>>()
                     .join("; "),
+                match (ctx.eopts.radius.mass_prior, &ctx.conf.radius_mass_prior) {
+                    (_, Some(p)) => format!(
+                        "the white dwarfs' own mass function as the prior (deconvolved from the {} measured masses of the radius test and smoothed by {:.3} M☉, Silverman's bandwidth; docs/white-dwarfs.md)",
+                        p.n_objects(),
+                        p.bandwidth_msun()
+                    ),
+                    (crate::confront::wd_radius::RadiusMassPrior::Population, None) => "a flat prior (fewer than two white dwarfs with a mass error to estimate their mass function from)".to_string(),
+                    (crate::confront::wd_radius::RadiusMassPrior::Flat, None) => "a flat prior (chosen with --wd-mass-prior flat: with thousands of white dwarfs it turns their mass distribution's peak into a false signal; docs/white-dwarfs.md)".to_string(),
+                },
                 match ctx.eopts.population_window_msun {
                     Some((lo, hi)) => format!("; population-aware term of docs/bounds.md §8.7 with the mass window [{lo}, {hi}] M☉ (flat true-mass densities on either side of the MMHB, profiled)"),
                     None => String::new(),
