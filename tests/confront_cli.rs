@@ -147,6 +147,39 @@ fn one_white_dwarf_gives_the_analytic_probability() {
     assert!((z - z_expected).abs() < 1e-7, "tension {z} vs {z_expected}");
 }
 
+/// Every row quarantined: the run still writes its files, and says that nothing was tested
+/// instead of naming a "best fit" at the first grid point of a flat likelihood (common
+/// practice, no source).
+#[test]
+fn a_catalogue_without_a_usable_row_tests_nothing_and_names_no_best_fit() {
+    let dir = tempfile::tempdir().unwrap();
+    let cat = dir.path().join("bad.csv");
+    std::fs::write(
+        &cat,
+        "# Invented rows, not measurements: every Teff error is zero, so every row is quarantined.\n\
+         id,class,mass,mass_err,radius,radius_err,teff,teff_err\n\
+         A,white_dwarf,0.6,0.02,0.012,0.0003,10000,0\n\
+         B,white_dwarf,0.7,0.02,0.011,0.0003,10000,0\n",
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let o = confront(
+        &[cat.to_str().unwrap(), "--upsilon=-0.1:0.1:3", "--tau=0"],
+        &out,
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let stdout = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        stdout.contains("2 rows in, 0 accepted, 2 quarantined"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("nothing is tested"), "{stdout}");
+    assert!(!stdout.contains("best fit"), "{stdout}");
+    let md = std::fs::read_to_string(out.join("report.md")).unwrap();
+    assert!(md.contains("**Best fit:** none"), "{md}");
+    assert_eq!(summary(&out)["consistency"]["n_informative"], 0);
+}
+
 #[test]
 fn an_impossible_object_is_named_and_every_file_is_still_written() {
     let dir = tempfile::tempdir().unwrap();

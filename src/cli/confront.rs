@@ -25,6 +25,29 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
     let s = &o.summary;
     let (rin, racc, rq) = o.rows;
     println!("catalogues: {rin} rows in, {racc} accepted, {rq} quarantined");
+    if s["consistency"]["n_informative"].as_u64() == Some(0) {
+        // A flat likelihood has no best fit, interval or verdict worth a line.
+        println!("no object constrains the bounds on this grid: nothing is tested");
+    } else {
+        print_findings(o);
+    }
+    if let Some(note) = &o.cache_note {
+        eprintln!("dwarfbound: note: {note}");
+    }
+    println!(
+        "theory grid: {}",
+        if o.theory_from_cache {
+            "reused from the cache"
+        } else {
+            "computed"
+        }
+    );
+    println!("wrote {}/report.html and the other outputs", out.display());
+}
+
+/// The best fit, the headline interval, standard gravity's standing and the tensions.
+fn print_findings(o: &ConfrontOutcome) {
+    let s = &o.summary;
     let bf = &s["best_fit"];
     println!(
         "best fit: ϒ = {}, τ = {} (−2 ln L = {:.4})",
@@ -62,18 +85,6 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
             println!("  {id:<16} {class:<12} {z:.2}σ");
         }
     }
-    if let Some(note) = &o.cache_note {
-        eprintln!("dwarfbound: note: {note}");
-    }
-    println!(
-        "theory grid: {}",
-        if o.theory_from_cache {
-            "reused from the cache"
-        } else {
-            "computed"
-        }
-    );
-    println!("wrote {}/report.html and the other outputs", out.display());
 }
 
 /// Parses a mass window `LO:HI` in M☉.

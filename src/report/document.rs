@@ -268,7 +268,13 @@ pub(crate) fn build(
             fmt_sig(bf.minus_two_ln_l, 5)
         )),
     ];
-    if bf.on_grid_edge {
+    if cons.n_informative == 0 {
+        // The likelihood is flat: its "minimum" is the first grid point, which means nothing.
+        best = vec![
+            b("Best fit: "),
+            t("none — without an informative object the likelihood is flat over the grid."),
+        ];
+    } else if bf.on_grid_edge {
         best.push(t(
             "; on the edge of the grid, so the minimum may lie outside it — widen the grid.",
         ));
