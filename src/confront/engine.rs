@@ -1261,17 +1261,11 @@ fn weigh_by_population(
     if opts.mass_prior != wd_radius::RadiusMassPrior::Population {
         return None;
     }
-    // The widths as `radius_mass_nodes` reads them.
     let masses: Vec<(f64, f64, f64)> = radius_objects
         .iter()
         .map(|r| {
             let o = &objects[r.index];
-            let lo = o.mass_err_lo_msun.get().unwrap_or(0.0);
-            let hi = o
-                .mass_err_hi_msun
-                .get()
-                .or(o.mass_err_lo_msun.get())
-                .unwrap_or(0.0);
+            let (lo, hi) = radius_mass_widths(o);
             (o.mass_msun, lo, hi)
         })
         .collect();
@@ -1285,17 +1279,29 @@ fn weigh_by_population(
 /// Number of nodes of the mass quadrature of the radius term.
 const RADIUS_QUADRATURE_NODES: usize = 41;
 
-/// The mass nodes and weights (density × quadrature weight) over which the radius term of
-/// an object is marginalised: composite Simpson over [m − 6σ₋, m + 6σ₊] of the split-normal
-/// density (normalisation 2/(√(2π)(σ₋+σ₊))); a single node of weight 1 for an exact mass.
-pub fn radius_mass_nodes(o: &CatalogueObject) -> Vec<(f64, f64)> {
+/// The mass widths (σ₋, σ₊) of an object's radius term: the upper one defaults to the lower,
+/// a missing one is 0.
+fn radius_mass_widths(o: &CatalogueObject) -> (f64, f64) {
     let lo = o.mass_err_lo_msun.get().unwrap_or(0.0);
     let hi = o
         .mass_err_hi_msun
         .get()
         .or(o.mass_err_lo_msun.get())
         .unwrap_or(0.0);
-    let m0 = o.mass_msun;
+    (lo, hi)
+}
+
+/// The mass nodes and weights (density × quadrature weight) over which the radius term of
+/// an object is marginalised: [`split_normal_mass_nodes`] of its mass and widths.
+pub fn radius_mass_nodes(o: &CatalogueObject) -> Vec<(f64, f64)> {
+    let (lo, hi) = radius_mass_widths(o);
+    split_normal_mass_nodes(o.mass_msun, lo, hi)
+}
+
+/// Composite Simpson nodes over [m0 − 6σ₋, m0 + 6σ₊] of the split-normal density of a measured
+/// mass m0 (normalisation 2/(√(2π)(σ₋+σ₊))): (mass, density × quadrature weight), with the flat
+/// prior; a single node of weight 1 for an exact mass.
+pub fn split_normal_mass_nodes(m0: f64, lo: f64, hi: f64) -> Vec<(f64, f64)> {
     if lo <= 0.0 && hi <= 0.0 {
         return vec![(m0, 1.0)];
     }

@@ -1007,24 +1007,9 @@ mod tests {
     use super::*;
     use std::f64::consts::PI;
 
-    /// Simpson nodes of a symmetric mass measurement (as `engine::radius_mass_nodes` makes them).
+    /// The radius term's nodes of a symmetric mass measurement.
     fn simpson_nodes(m0: f64, s: f64) -> Vec<(f64, f64)> {
-        let (a, b, n) = (m0 - 6.0 * s, m0 + 6.0 * s, 41);
-        let h = (b - a) / (n - 1) as f64;
-        (0..n)
-            .map(|k| {
-                let m = a + h * k as f64;
-                let w = if k == 0 || k == n - 1 {
-                    1.0
-                } else if k % 2 == 1 {
-                    4.0
-                } else {
-                    2.0
-                };
-                let dens = (-0.5 * ((m - m0) / s).powi(2)).exp() / (s * (2.0 * PI).sqrt());
-                (m, w * dens * h / 3.0)
-            })
-            .collect()
+        crate::confront::engine::split_normal_mass_nodes(m0, s, s)
     }
 
     fn posterior_mean(nodes: &[(f64, f64)]) -> f64 {
