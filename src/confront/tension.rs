@@ -221,19 +221,21 @@ pub fn object_verdicts(
         .par_iter()
         .map(|r| {
             let k = r.index;
-            let (o, u) = (&objects[k], &uses[k]);
-            let cold = surface.wd_radii_rsun(best_index, &[(o.mass_msun, u.mu_e)]);
+            let u = &uses[k];
+            let queries: Vec<(f64, f64)> = r.nodes.iter().map(|&(m, _)| (m, u.mu_e)).collect();
             // A spinning white dwarf's slow-rotation factor at the best fit, as in the term.
             let spun = spin_of.get(&k).map_or(1.0, |s| {
                 s.radius_factor_at(surface, best_index) / s.radius_factor
             });
+            let cold: Vec<Option<f64>> = surface
+                .wd_radii_rsun(best_index, &queries)
+                .into_iter()
+                .map(|c| c.map(|c| c * spun))
+                .collect();
             RadiusVerdict {
                 object: k,
                 sigma_standard: r.standard_tension(),
-                sigma_best: r.tension_at(
-                    cold.first().copied().flatten().map(|c| c * spun),
-                    best_upsilon,
-                ),
+                sigma_best: r.marginal_tension(&cold, best_upsilon),
             }
         })
         .collect();
