@@ -148,4 +148,12 @@ fn a_peaked_population_drawn_in_standard_gravity_allows_it_with_the_population_p
     assert_eq!(s["model"]["wd_mass_prior"], "population");
     assert!(s["model"]["wd_mass_prior_bandwidth_msun"].as_f64().unwrap() > 0.0);
     assert_eq!(summary(&flat)["model"]["wd_mass_prior"], "flat");
+    // At this size the report says that the floor's assumed size matters.
+    let md = std::fs::read_to_string(population.join("report.md")).unwrap();
+    assert!(
+        md.contains(
+            "white dwarfs in the radius test: at this size the result depends on the assumed size"
+        ),
+        "no large-sample caution in report.md"
+    );
 }
