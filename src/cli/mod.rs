@@ -269,8 +269,8 @@ pub struct ConfrontArgs {
     pub wd_model: crate::confront::wd_radius::WdRadiusModel,
     /// Prior on each white dwarf's true mass where the radius test marginalises over it:
     /// `population` (the white dwarfs' own mass function, deconvolved from their measured
-    /// masses; the default) or `flat` (earlier versions, to reproduce old results; it biases
-    /// the test toward a false signal when there are thousands of white dwarfs).
+    /// masses; the default) or `flat` (earlier versions' likelihood, to reproduce old results;
+    /// it biases the test toward a false signal when there are thousands of white dwarfs).
     #[arg(long, value_name = "PRIOR", default_value = "population")]
     pub wd_mass_prior: crate::confront::wd_radius::RadiusMassPrior,
     /// Keep objects whose mass came through a standard-gravity model (`mass_method = model`)

@@ -152,7 +152,8 @@ impl Default for RadiusOptions {
 #[serde(rename_all = "snake_case")]
 pub enum RadiusMassPrior {
     /// Flat in the true mass: the weights are the mass measurement's likelihood (earlier
-    /// versions; kept to reproduce their results).
+    /// versions; kept to reproduce their likelihood — the radius tensions keep the
+    /// predictive-distribution form of [`ObjectRadius::marginal_tension`], with flat weights).
     Flat,
     /// The white dwarfs' own mass function ([`PopulationPrior`]): the default.
     Population,
