@@ -397,6 +397,7 @@ fn methods(summary: &serde_json::Value) -> BTreeMap<String, [Option<String>; 2]>
 
 /// The method changes between two runs' summaries, in words ([`RunDifference::method_changes`]).
 fn method_changes(before: &serde_json::Value, now: &serde_json::Value) -> Vec<String> {
+    let (before_summary, now_summary) = (before, now);
     let (before, now) = (methods(before), methods(now));
     let word = |x: &Option<String>| x.clone().unwrap_or_else(|| "none".to_string());
     let mut out = Vec::new();
@@ -413,6 +414,27 @@ fn method_changes(before: &serde_json::Value, now: &serde_json::Value) -> Vec<St
                 ));
             }
         }
+    }
+    // The white-dwarf radius test's prior on the true mass; a run without the key is from a
+    // version that used the flat prior. Named only when one of the runs estimated a population
+    // prior (its bandwidth is given), i.e. when it had white dwarfs to test.
+    let prior = |s: &serde_json::Value| {
+        let model = s.get("model");
+        let name = model
+            .and_then(|m| m.get("wd_mass_prior"))
+            .and_then(|x| x.as_str())
+            .unwrap_or("flat")
+            .to_string();
+        let estimated = model
+            .and_then(|m| m.get("wd_mass_prior_bandwidth_msun"))
+            .is_some_and(|b| b.is_number());
+        (name, estimated)
+    };
+    let ((p_before, e_before), (p_now, e_now)) = (prior(before_summary), prior(now_summary));
+    if p_before != p_now && (e_before || e_now) {
+        out.push(format!(
+            "the white-dwarf radius test's prior on the true mass changed from {p_before} to {p_now}"
+        ));
     }
     out
 }
@@ -662,6 +684,18 @@ mod tests {
         assert!(method_changes(&now, &now).is_empty());
         // An older run without the keys: only what both say is compared.
         assert!(method_changes(&serde_json::json!({}), &now).is_empty());
+        // The radius test's prior: an older run (no key) used the flat one.
+        let with_prior = serde_json::json!({"model": {"wd_mass_prior": "population",
+            "wd_mass_prior_bandwidth_msun": 0.05}});
+        assert_eq!(
+            method_changes(&serde_json::json!({}), &with_prior),
+            vec!["the white-dwarf radius test's prior on the true mass changed from flat to population"]
+        );
+        assert!(method_changes(&with_prior, &with_prior).is_empty());
+        // Without white dwarfs to test (no bandwidth in either run) nothing is said.
+        let untested = serde_json::json!({"model": {"wd_mass_prior": "population",
+            "wd_mass_prior_bandwidth_msun": null}});
+        assert!(method_changes(&serde_json::json!({}), &untested).is_empty());
     }
 
     /// A run folder under `<output>/runs/` holding the given files.
