@@ -1170,61 +1170,42 @@ pub fn prepare_radius_objects(
             shared_fraction,
             teff_err_k: o.teff_err_k().get().unwrap_or(0.0),
             at_nominal: None,
-            mass_sigma_msun: match (o.mass_err_lo_msun.get(), o.mass_err_hi_msun.get()) {
-                (Some(a), Some(b)) => 0.5 * (a + b),
-                (Some(a), None) | (None, Some(a)) => a,
-                (None, None) => 0.0,
-            },
         });
     }
-    // Three more queries per object: the nominal mass and m ± h for the slope dR/dM.
-    let mut nominal_queries: Vec<WdQuery> = Vec::new();
-    for r in &out {
-        let o = &objects[r.index];
-        let u = &uses[r.index];
-        let core = u
-            .core
-            .unwrap_or_else(|| ResolvedCore::resolve(o.core(), o.mass_msun));
-        let h = 1e-4 * o.mass_msun;
-        for m in [o.mass_msun, o.mass_msun + h, o.mass_msun - h] {
-            nominal_queries.push(WdQuery {
-                mass_msun: m,
+    // One more query per object: the nominal mass (its model anchors a user's radius_model, and
+    // without one the object is outside the hot model).
+    let nominal_queries: Vec<WdQuery> = out
+        .iter()
+        .map(|r| {
+            let o = &objects[r.index];
+            let u = &uses[r.index];
+            WdQuery {
+                mass_msun: o.mass_msun,
                 mu_e: u.mu_e,
                 teff_k: o.teff_k().get(),
-                core,
+                core: u
+                    .core
+                    .unwrap_or_else(|| ResolvedCore::resolve(o.core(), o.mass_msun)),
                 envelope: o.envelope(),
-            });
-        }
-    }
+            }
+        })
+        .collect();
     let n_nodes = queries.len();
     queries.extend(nominal_queries);
     let answers = surface.wd_standard_radii(&queries);
     let (node_answers, nominal_answers) = answers.split_at(n_nodes.min(answers.len()));
     let mut standard = node_answers.iter().copied();
-    let mut nominal = nominal_answers.chunks(3);
+    let mut nominal = nominal_answers.iter().copied();
     for r in &mut out {
         let o = &objects[r.index];
         let mut s: Vec<Option<WdStandard>> = standard.by_ref().take(r.nodes.len()).collect();
-        let probe = nominal.next().unwrap_or(&[]);
-        let h = 1e-4 * o.mass_msun;
-        let mut at_nominal = match probe {
-            [Some(c), plus, minus] => {
-                let slope = match (plus, minus) {
-                    (Some(p), Some(m)) => (p.radius_rsun - m.radius_rsun) / (2.0 * h),
-                    (None, Some(m)) => (c.radius_rsun - m.radius_rsun) / h,
-                    (Some(p), None) => (p.radius_rsun - c.radius_rsun) / h,
-                    (None, None) => 0.0,
-                };
-                Some((*c, slope))
-            }
-            _ => None,
-        };
+        let mut at_nominal = nominal.next().flatten();
         if let Some(model_rsun) = o.radius_model_rsun().get() {
             // The user's model radius anchors the standard radius at the nominal mass; the
             // tool's model only carries its mass dependence to the other nodes.
             let scale = at_nominal
-                .filter(|(c, _)| c.radius_rsun > 0.0)
-                .map(|(c, _)| model_rsun / c.radius_rsun);
+                .filter(|c| c.radius_rsun > 0.0)
+                .map(|c| model_rsun / c.radius_rsun);
             for x in s.iter_mut() {
                 *x = match (*x, scale) {
                     (Some(mut v), Some(k)) => {
@@ -1236,10 +1217,10 @@ pub fn prepare_radius_objects(
                 };
             }
             at_nominal = match (at_nominal, scale) {
-                (Some((mut c, slope)), Some(k)) => {
+                (Some(mut c), Some(k)) => {
                     c.radius_rsun *= k;
                     c.envelope_fraction = 0.0;
-                    Some((c, slope * k))
+                    Some(c)
                 }
                 _ => None,
             };

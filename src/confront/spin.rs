@@ -838,9 +838,8 @@ pub fn correct_radius_tests(radius_objects: &mut [ObjectRadius], spins: &[Object
             for x in r.standard.iter_mut().flatten() {
                 x.radius_rsun *= s.radius_factor;
             }
-            if let Some((c, slope)) = r.at_nominal.as_mut() {
+            if let Some(c) = r.at_nominal.as_mut() {
                 c.radius_rsun *= s.radius_factor;
-                *slope *= s.radius_factor;
             }
         }
     }

@@ -472,11 +472,10 @@ pub struct ObjectRadius {
     pub shared_fraction: f64,
     /// 1σ Teff error, K (0 when unknown).
     pub teff_err_k: f64,
-    /// The standard model at the nominal mass and its slope dR/dM (R☉ per M☉), for the
-    /// standard-gravity tension; `None` where there is no model at that mass.
-    pub at_nominal: Option<(WdStandard, f64)>,
-    /// 1σ of the nominal mass (mean of the two sides), M☉.
-    pub mass_sigma_msun: f64,
+    /// The standard model at the nominal mass (what a user's `radius_model` anchors); `None`
+    /// where there is no model at that mass, which leaves the object out of the hot model's
+    /// radius test.
+    pub at_nominal: Option<WdStandard>,
 }
 
 /// Smallest log-likelihood a radius term can contribute (keeps −2 ln L finite where the whole
@@ -571,33 +570,6 @@ impl ObjectRadius {
             -normal_quantile_from_ln(ln_above.min(0.0))
         };
         z.is_finite().then_some(z)
-    }
-
-    /// The first-order tension at the nominal mass of earlier versions: z = (R_obs − R) /
-    /// √(σ_R² + σ_th² + (dR/dM σ_M)²), the prediction carried to a grid point by the ratio of
-    /// `cold_at_nominal` (the structure solver's cold radius at the nominal mass there) to the
-    /// standard one, with the anchoring error and the whole floor. Kept for comparison with
-    /// [`ObjectRadius::marginal_tension`] (they agree for a mass known exactly).
-    pub fn tension_at(&self, cold_at_nominal: Option<f64>, upsilon: f64) -> Option<f64> {
-        let (s, slope) = self.at_nominal?;
-        let cold = cold_at_nominal?;
-        if s.cold_rsun.is_nan() || s.cold_rsun <= 0.0 {
-            return None;
-        }
-        let ratio = cold / s.cold_rsun;
-        let r = s.radius_rsun * ratio;
-        let teff = s.dln_r_dteff_per_k * self.teff_err_k;
-        let anchor = 0.5 * upsilon.abs() * (s.hot_over_cold - 1.0).max(0.0);
-        let th2 = (self.floor_fraction.powi(2)
-            + self.shared_fraction.powi(2)
-            + s.envelope_fraction.powi(2)
-            + teff.powi(2)
-            + anchor.powi(2))
-            * r
-            * r;
-        let s2 =
-            self.radius_err_rsun.powi(2) + th2 + (slope * ratio * self.mass_sigma_msun).powi(2);
-        Some((self.radius_rsun - r) / s2.sqrt())
     }
 
     /// ln of the likelihood of the measured radius marginalised over the true mass:
@@ -1188,8 +1160,7 @@ mod tests {
             floor_fraction: 0.0,
             shared_fraction: 0.025,
             teff_err_k: 0.0,
-            at_nominal: Some((std, 0.0)),
-            mass_sigma_msun: 0.0,
+            at_nominal: Some(std),
         };
         let cold = [Some(0.0120)];
         let plain = radius_term(std::slice::from_ref(&o), &cold, 0.0, None);
@@ -1232,8 +1203,7 @@ mod tests {
             floor_fraction: 0.02,
             shared_fraction: 0.0,
             teff_err_k: 0.0,
-            at_nominal: Some((std, 0.0)),
-            mass_sigma_msun: 0.0,
+            at_nominal: Some(std),
         };
         // At the nominal mass with no slope: the plain z.
         let z = o.standard_tension().unwrap();
@@ -1277,14 +1247,16 @@ mod tests {
             floor_fraction: 0.02,
             shared_fraction: 0.015,
             teff_err_k: 0.0,
-            at_nominal: Some((std_at(0.6), 0.0)),
-            mass_sigma_msun: 0.0,
+            at_nominal: Some(std_at(0.6)),
         };
-        // Exact mass: z = (R_obs − R)/√(σ_R² + (floor² + shared²) R²), as before.
+        // Exact mass: z = (R_obs − R)/√(σ_R² + (floor² + shared²) R²), the first-order formula
+        // of earlier versions (its slope term vanishes without a mass error).
         for radius in [0.0125, 0.0131, 0.0150] {
             let o = object(vec![(0.6, 1.0)], radius);
             let z = o.standard_tension().unwrap();
-            let first_order = o.tension_at(Some(0.0120), 0.0).unwrap();
+            let r = 0.0130;
+            let first_order = (radius - r)
+                / (0.0002f64.powi(2) + (0.02f64.powi(2) + 0.015f64.powi(2)) * r * r).sqrt();
             assert!((z - first_order).abs() < 1e-9, "{z} vs {first_order}");
         }
         // A mass error of 0.05 M☉: the mixture over the radius term's nodes.
@@ -1325,7 +1297,7 @@ mod tests {
                         )
                     })
                     .collect();
-                mixture_object(i, nodes, 0.0002 + 0.00005 * f64::from(i), 0.02, 0.02)
+                mixture_object(i, nodes, 0.0002 + 0.00005 * f64::from(i), 0.02)
             })
             .collect();
         let cold = mixture_cold(&objects);
@@ -1356,7 +1328,7 @@ mod tests {
                         (m0 + 0.03 * z, (-0.5 * z * z).exp() / 5.0)
                     })
                     .collect();
-                mixture_object(i, nodes, 0.00005 + 0.00003 * f64::from(i), 0.005, 0.03)
+                mixture_object(i, nodes, 0.00005 + 0.00003 * f64::from(i), 0.005)
             })
             .collect();
         let cold = mixture_cold(&objects);
@@ -1364,13 +1336,12 @@ mod tests {
     }
 
     /// Test object `i` with mass `nodes` (node 7 without a model), its radius error, floor and
-    /// mass σ; object 5 sits 10⁴ σ off, so its term is floored.
+    /// object 5 sits 10⁴ σ off, so its term is floored.
     fn mixture_object(
         i: i32,
         nodes: Vec<(f64, f64)>,
         radius_err_rsun: f64,
         floor_fraction: f64,
-        mass_sigma_msun: f64,
     ) -> ObjectRadius {
         let std = |r: f64| WdStandard {
             radius_rsun: r,
@@ -1398,7 +1369,6 @@ mod tests {
             shared_fraction: 0.025,
             teff_err_k: 300.0,
             at_nominal: None,
-            mass_sigma_msun,
         }
     }
 
