@@ -135,8 +135,42 @@ pub fn theory_grid(
     shard: Option<Shard>,
     cache: Option<&Cache>,
 ) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
-    cached_theory_grid(upsilon, tau, theory, shard, cache)
-        .or_computed(upsilon, tau, theory, shard, cache)
+    let request = GridRequest {
+        upsilon,
+        tau,
+        theory,
+        shard,
+        cache,
+    };
+    cached_theory_grid(&request).or_computed(&request)
+}
+
+/// One theory grid to look up in the cache and, failing that, to compute: its axes, settings and
+/// shard, and the cache (if any) it is read from and stored in.
+#[derive(Debug, Clone, Copy)]
+pub struct GridRequest<'a> {
+    /// The ϒ axis.
+    pub upsilon: Axis,
+    /// The τ axis.
+    pub tau: Axis,
+    /// The theory settings.
+    pub theory: &'a TheorySettings,
+    /// The shard of the grid, if only part of it is wanted.
+    pub shard: Option<Shard>,
+    /// The theory cache.
+    pub cache: Option<&'a Cache>,
+}
+
+impl GridRequest<'_> {
+    /// The grid's identity, whose JSON is the cache entry's description (and so its key).
+    fn identity(&self) -> GridIdentity {
+        GridIdentity::new(
+            &self.upsilon,
+            &self.tau,
+            self.theory,
+            &grid_options(self.shard),
+        )
+    }
 }
 
 /// What the theory cache held for a grid ([`cached_theory_grid`]).
@@ -150,17 +184,11 @@ pub enum CachedGrid {
 
 /// The theory grid from the cache alone (never computed here): cheap enough to read while the
 /// catalogues are vetted, and nothing is lost if they turn out unusable.
-pub fn cached_theory_grid(
-    upsilon: Axis,
-    tau: Axis,
-    theory: &TheorySettings,
-    shard: Option<Shard>,
-    cache: Option<&Cache>,
-) -> CachedGrid {
-    let Some(cache) = cache else {
+pub fn cached_theory_grid(request: &GridRequest<'_>) -> CachedGrid {
+    let Some(cache) = request.cache else {
         return CachedGrid::Miss(None);
     };
-    let identity = GridIdentity::new(&upsilon, &tau, theory, &grid_options(shard));
+    let identity = request.identity();
     let description = identity.to_json();
     let key = Cache::key(&description);
     let discarded = |why: String| {
@@ -185,33 +213,42 @@ pub fn cached_theory_grid(
 }
 
 impl CachedGrid {
-    /// The grid found, or else the grid computed (and stored in the cache, if one is given)
-    /// for the same axes and settings: [`theory_grid`]'s answer, with the note of a discarded
-    /// entry kept.
+    /// The grid found, or else the grid of `request` computed (and stored in its cache, if it
+    /// has one): [`theory_grid`]'s answer, with the note of a discarded entry kept.
     pub fn or_computed(
         self,
-        upsilon: Axis,
-        tau: Axis,
-        theory: &TheorySettings,
-        shard: Option<Shard>,
-        cache: Option<&Cache>,
+        request: &GridRequest<'_>,
     ) -> Result<(TheoryGrid, bool, Option<String>), PipelineError> {
         let note = match self {
             CachedGrid::Hit(g) => return Ok((*g, true, None)),
             CachedGrid::Miss(note) => note,
         };
-        let options = grid_options(shard);
-        let description = GridIdentity::new(&upsilon, &tau, theory, &options).to_json();
-        let key = Cache::key(&description);
-        let g = grid::compute(upsilon, tau, theory, &options)
-            .map_err(|e| PipelineError::Settings(e.to_string()))?;
-        if let Some(cache) = cache {
+        let g = grid::compute(
+            request.upsilon,
+            request.tau,
+            request.theory,
+            &grid_options(request.shard),
+        )
+        .map_err(|e| PipelineError::Settings(e.to_string()))?;
+        if let Some(cache) = request.cache {
+            let description = request.identity().to_json();
             let bytes = g
                 .to_json_bytes()
                 .map_err(|e| PipelineError::Internal(e.to_string()))?;
-            cache.store(&key, &description, &bytes)?;
+            cache.store(&Cache::key(&description), &description, &bytes)?;
         }
         Ok((g, false, note))
+    }
+}
+
+/// The whole grid of a confrontation's settings, through `cache`.
+fn grid_request<'a>(settings: &'a ConfrontSettings, cache: Option<&'a Cache>) -> GridRequest<'a> {
+    GridRequest {
+        upsilon: settings.upsilon,
+        tau: settings.tau,
+        theory: &settings.theory,
+        shard: None,
+        cache,
     }
 }
 
@@ -257,13 +294,9 @@ pub fn run_confrontation(
         || vet_all(&settings.catalogues),
         || {
             let cached = match &theory {
-                TheorySource::Compute { cache } => Some(cached_theory_grid(
-                    settings.upsilon,
-                    settings.tau,
-                    &settings.theory,
-                    None,
-                    *cache,
-                )),
+                TheorySource::Compute { cache } => {
+                    Some(cached_theory_grid(&grid_request(settings, *cache)))
+                }
                 TheorySource::Given(_) => None,
             };
             (checksum_files(&settings.catalogues), cached)
@@ -278,15 +311,9 @@ pub fn run_confrontation(
     let (grid, ()) = rayon::join(
         || match theory {
             TheorySource::Given(g) => Ok((*g, false, None)),
-            TheorySource::Compute { cache } => {
-                cached.unwrap_or(CachedGrid::Miss(None)).or_computed(
-                    settings.upsilon,
-                    settings.tau,
-                    &settings.theory,
-                    None,
-                    cache,
-                )
-            }
+            TheorySource::Compute { cache } => cached
+                .unwrap_or(CachedGrid::Miss(None))
+                .or_computed(&grid_request(settings, cache)),
         },
         || {
             super::surface::warm_standard_tables(
