@@ -552,13 +552,7 @@ impl ObjectRadius {
             above.push(ln_w + ln_normal_cdf(-d));
             weights.push(ln_w);
         }
-        let ln_sum = |v: &[f64]| -> f64 {
-            let top = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            if top == f64::NEG_INFINITY {
-                return top;
-            }
-            top + v.iter().map(|x| (x - top).exp()).sum::<f64>().ln()
-        };
+        let ln_sum = super::reduce::log_sum_exp;
         let total = ln_sum(&weights);
         if !total.is_finite() {
             return None;
