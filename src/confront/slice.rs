@@ -277,11 +277,8 @@ impl FineRadii {
         let n = axis.len();
         let span = q * n..(q + 1) * n;
         if self.complete[q] {
-            let (ys, second) = (&self.ys[span.clone()], &self.second[span]);
-            return Some(match w {
-                Some(w) => w.eval_on(ys, second),
-                None => self.knots.as_ref()?.weights(x).eval_on(ys, second),
-            });
+            // A complete query means `knots` exists, so its weights were given.
+            return w.map(|w| w.eval_on(&self.ys[span.clone()], &self.second[span]));
         }
         let j = axis.partition_point(|&v| v <= x).clamp(1, n - 1);
         let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
