@@ -1,6 +1,7 @@
 #!/usr/bin/env python3
 """Reproduces the tables of docs/white-dwarfs.md section 13.1: invented white dwarfs drawn in
-standard gravity, confronted with the flat and the population prior on the true mass.
+standard gravity, confronted with the flat and the population prior on the true mass, or
+(--vary floor) with the fixed and the fitted per-object radius floor.
 
 Each case draws true masses and Teff, asks dwarfbound for its own standard-gravity radius at
 each true mass (a probe run: mass error 1e-6 Msun, radius 0.012 +- 1 Rsun, so that the printed
@@ -8,7 +9,7 @@ each true mass (a probe run: mass error 1e-6 Msun, radius 0.012 +- 1 Rsun, so th
 prints the Delta chi^2 of standard gravity under each prior. INVENTED DATA: not measurements.
 
 Usage: python3 tools/check_wd_mass_prior.py [--bin target/debug/dwarfbound] [--n 5000]
-       [--grid 21] [--cache DIR] [--case NAME ...]
+       [--grid 21] [--cache DIR] [--case NAME ...] [--vary prior|floor] [--seed S]
 Standard library only. Each case takes a few tens of seconds per prior at 5 000 objects.
 """
 
@@ -76,6 +77,9 @@ def main():
     ap.add_argument("--cache", help="theory cache folder (faster reruns)")
     ap.add_argument("--seed", type=int, default=11, help="seed of the measurement noise")
     ap.add_argument("--case", nargs="*", default=list(CASES), choices=list(CASES))
+    ap.add_argument("--vary", choices=["prior", "floor"], default="prior",
+                    help="compare the two priors on the true mass (with the default floor) or the "
+                         "fixed and fitted per-object floor (with the default prior)")
     a = ap.parse_args()
     with tempfile.TemporaryDirectory() as work:
         radii = {}
@@ -96,12 +100,18 @@ def main():
                     f.write(f"X{i:06d},white_dwarf,{mass:.7f},{se:.5f},{rad:.8f},{0.03 * r:.8f},"
                             f"{t:.1f},{teff_err},dynamical,co,{layer}\n")
             row = [name]
-            for prior in ("flat", "population"):
-                out = os.path.join(work, f"{name}_{prior}")
-                confront(a.bin, cat, out, a.grid, a.cache, ("--wd-mass-prior", prior))
+            choices = (("--wd-mass-prior", ("flat", "population")) if a.vary == "prior"
+                       else ("--wd-floor-size", ("fixed", "fitted")))
+            for choice in choices[1]:
+                out = os.path.join(work, f"{name}_{choice}")
+                confront(a.bin, cat, out, a.grid, a.cache, (choices[0], choice))
                 with open(os.path.join(out, "summary.json"), encoding="utf-8") as f:
                     s = json.load(f)
-                row.append(f"{prior} {s['standard_gravity']['delta_chi2']:.2f}")
+                row.append(f"{choice} {s['standard_gravity']['delta_chi2']:.2f}")
+                scale = s["model"].get("wd_floor_scale")
+                if a.vary == "floor" and scale:
+                    row.append(f"(kappa applied {scale['applied']:.3f}, estimate "
+                               f"{scale['estimate']:.3f})")
             print("  ".join(row), flush=True)
 
 

@@ -124,6 +124,7 @@ pub fn run(args: ConfrontArgs) -> Result<Exit, CliError> {
     statistics.engine.include_young = args.include_young;
     statistics.engine.radius.model = args.wd_model;
     statistics.engine.radius.mass_prior = args.wd_mass_prior;
+    statistics.engine.radius.floor_fit = args.wd_floor_size;
     statistics.engine.radius.include_model_masses = args.include_model_masses;
     statistics.engine.radius.include_out_of_domain = args.include_out_of_domain;
     if let Some(w) = &args.population_window {

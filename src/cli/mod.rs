@@ -273,6 +273,13 @@ pub struct ConfrontArgs {
     /// it biases the test toward a false signal when there are thousands of white dwarfs).
     #[arg(long, value_name = "PRIOR", default_value = "population")]
     pub wd_mass_prior: crate::confront::wd_radius::RadiusMassPrior,
+    /// Size of the per-object floor of the radius test: `fitted` (the stated floor unless the
+    /// white dwarfs scatter less about standard gravity than it says, at 2σ; then shrunk only
+    /// to the widest floor they allow; never widened; the default) or `fixed` (the stated
+    /// floor always, as earlier versions; with thousands of white dwarfs a floor larger than
+    /// their real scatter pulls τ away from 0).
+    #[arg(long, value_name = "SIZE", default_value = "fitted")]
+    pub wd_floor_size: crate::confront::wd_radius::FloorFit,
     /// Keep objects whose mass came through a standard-gravity model (`mass_method = model`)
     /// in their tests, although that is circular.
     #[arg(long)]

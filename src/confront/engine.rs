@@ -561,6 +561,10 @@ pub struct Confrontation {
     /// ([`wd_radius::RadiusMassPrior::Population`]; `None` with the flat prior or without
     /// objects to estimate it from).
     pub radius_mass_prior: Option<wd_radius::PopulationPrior>,
+    /// The per-object radius floor's calibration on the data ([`wd_radius::FloorScale`]; `None`
+    /// with `--wd-floor-size fixed` or without white dwarfs in the radius test). Its
+    /// `applied` scale is already in every radius object's `floor_fraction`.
+    pub radius_floor_scale: Option<wd_radius::FloorScale>,
     /// The radius systematic shared by every white dwarf in the radius test, as a nuisance
     /// parameter (`None` with per-object floors).
     pub radius_shared: Option<super::nuisance::SharedNuisance>,
@@ -1037,6 +1041,16 @@ pub fn confront(
     }
     // The prior on the true masses is the mass function of the objects actually in the test.
     let radius_mass_prior = weigh_by_population(objects, &mut radius_objects, &opts.radius);
+    // Then the per-object floor's size, on the final objects with their final weights.
+    let radius_floor_scale = (opts.radius.floor_fit == wd_radius::FloorFit::Fitted)
+        .then(|| {
+            let shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
+            wd_radius::FloorScale::fit(&radius_objects, shared.as_ref())
+        })
+        .flatten();
+    if let Some(k) = &radius_floor_scale {
+        k.apply(&mut radius_objects);
+    }
     if !radius_objects.is_empty() {
         let queries = RadiusQueries::new(
             &radius_objects
@@ -1102,6 +1116,7 @@ pub fn confront(
         population,
         radius_objects,
         radius_mass_prior,
+        radius_floor_scale,
         radius_shared: wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms),
         bounds,
         spins,

@@ -106,8 +106,28 @@ pub fn eliminate(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
             best = (k, v);
         }
     }
-    let (mut a, mut b) = (x(best.0.saturating_sub(1)), x((best.0 + 1).min(steps)));
-    // Golden-section search (Kiefer 1953) on [a, b].
+    let (a, b) = (x(best.0.saturating_sub(1)), x((best.0 + 1).min(steps)));
+    let (mut delta_hat, mut gmin) = golden_section(&g, a, b, 1e-10 * sigma);
+    if best.1 < gmin {
+        delta_hat = x(best.0);
+        gmin = best.1;
+    }
+    let data_term = f(delta_hat);
+    let minus_two_ln_l = match n.method {
+        NuisanceMethod::Profile => gmin,
+        NuisanceMethod::Marginalise => marginalise(&g, delta_hat, gmin, sigma, n.reach_sigma),
+    };
+    Eliminated {
+        minus_two_ln_l,
+        delta_hat,
+        data_term,
+    }
+}
+
+/// Golden-section search (Kiefer 1953) for the minimum of `g` on [a, b], stopping when the
+/// bracket is narrower than `tol` (at most 60 steps): (x, g(x)) of the better inner point.
+pub(crate) fn golden_section(g: &dyn Fn(f64) -> f64, a: f64, b: f64, tol: f64) -> (f64, f64) {
+    let (mut a, mut b) = (a, b);
     let r = 0.5 * (5f64.sqrt() - 1.0);
     let (mut c, mut d) = (b - r * (b - a), a + r * (b - a));
     let (mut gc, mut gd) = (g(c), g(d));
@@ -125,24 +145,14 @@ pub fn eliminate(f: &dyn Fn(f64) -> f64, n: &SharedNuisance) -> Eliminated {
             d = a + r * (b - a);
             gd = g(d);
         }
-        if (b - a).abs() <= 1e-10 * sigma {
+        if (b - a).abs() <= tol {
             break;
         }
     }
-    let (mut delta_hat, mut gmin) = if gc < gd { (c, gc) } else { (d, gd) };
-    if best.1 < gmin {
-        delta_hat = x(best.0);
-        gmin = best.1;
-    }
-    let data_term = f(delta_hat);
-    let minus_two_ln_l = match n.method {
-        NuisanceMethod::Profile => gmin,
-        NuisanceMethod::Marginalise => marginalise(&g, delta_hat, gmin, sigma, n.reach_sigma),
-    };
-    Eliminated {
-        minus_two_ln_l,
-        delta_hat,
-        data_term,
+    if gc < gd {
+        (c, gc)
+    } else {
+        (d, gd)
     }
 }
 

@@ -159,6 +159,8 @@ pub struct StatisticsConfig {
     /// Prior on the white dwarfs' true masses in the radius test: `population` (default) or
     /// `flat`.
     pub wd_mass_prior: String,
+    /// Size of the radius test's per-object floor: `fitted` (default) or `fixed`.
+    pub wd_floor_size: String,
     /// Keep objects with model-derived masses in their tests.
     pub include_model_masses: bool,
     /// Keep white dwarfs outside the radius model's domain in the radius test.
@@ -188,6 +190,7 @@ impl Default for StatisticsConfig {
             exclude_age_unknown: false,
             wd_radius_model: "hot".into(),
             wd_mass_prior: "population".into(),
+            wd_floor_size: "fitted".into(),
             include_model_masses: false,
             include_out_of_domain: false,
             floor: "shared".into(),

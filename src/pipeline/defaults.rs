@@ -204,6 +204,15 @@ pub fn defaults_toml() -> String {
     );
     line(
         &mut o,
+        "wd_floor_size",
+        &format!("\"{}\"", st.wd_floor_size),
+        "fitted | fixed; the radius test's per-object floor: the stated size unless the white\n\
+         dwarfs scatter less about standard gravity than it says (2σ), then shrunk to the widest\n\
+         floor they allow, because a floor larger than the real scatter pulls τ in large\n\
+         catalogues (docs/white-dwarfs.md).",
+    );
+    line(
+        &mut o,
         "include_model_masses",
         &st.include_model_masses.to_string(),
         "keep masses that came through a standard-gravity model in their tests (off: circular).",

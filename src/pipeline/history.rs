@@ -436,6 +436,22 @@ fn method_changes(before: &serde_json::Value, now: &serde_json::Value) -> Vec<St
             "the white-dwarf radius test's prior on the true mass changed from {p_before} to {p_now}"
         ));
     }
+    // The per-object radius floor's scale (fitted to each night's white dwarfs, so it can move
+    // with the data alone); a run without it kept the stated floor (scale 1). Named only when
+    // one of the runs fitted it and the printed scale differs.
+    let scale = |s: &serde_json::Value| {
+        let fitted = s.get("model").and_then(|m| m.get("wd_floor_scale"));
+        let applied = fitted
+            .and_then(|k| k.get("applied"))
+            .and_then(|x| x.as_f64());
+        (format!("{:.3}", applied.unwrap_or(1.0)), applied.is_some())
+    };
+    let ((k_before, f_before), (k_now, f_now)) = (scale(before_summary), scale(now_summary));
+    if k_before != k_now && (f_before || f_now) {
+        out.push(format!(
+            "the white-dwarf radius test's per-object floor scale changed from {k_before} to {k_now}"
+        ));
+    }
     out
 }
 
@@ -696,6 +712,17 @@ mod tests {
         let untested = serde_json::json!({"model": {"wd_mass_prior": "population",
             "wd_mass_prior_bandwidth_msun": null}});
         assert!(method_changes(&serde_json::json!({}), &untested).is_empty());
+        // The fitted floor's scale: an older run kept the stated floor (scale 1).
+        let scaled = serde_json::json!({"model": {"wd_floor_scale": {"applied": 0.4819}}});
+        assert_eq!(
+            method_changes(&serde_json::json!({}), &scaled),
+            vec![
+                "the white-dwarf radius test's per-object floor scale changed from 1.000 to 0.482"
+            ]
+        );
+        assert!(method_changes(&scaled, &scaled).is_empty());
+        let stated = serde_json::json!({"model": {"wd_floor_scale": {"applied": 1.0}}});
+        assert!(method_changes(&serde_json::json!({}), &stated).is_empty());
     }
 
     /// A run folder under `<output>/runs/` holding the given files.

@@ -283,6 +283,10 @@ pub fn settings_from_config(
         .wd_mass_prior
         .parse()
         .map_err(|e: String| bad("statistics.wd_mass_prior", e))?;
+    statistics.engine.radius.floor_fit = st
+        .wd_floor_size
+        .parse()
+        .map_err(|e: String| bad("statistics.wd_floor_size", e))?;
     statistics.engine.radius.include_model_masses = st.include_model_masses;
     statistics.engine.radius.include_out_of_domain = st.include_out_of_domain;
     super::config::apply_statistics_choices(

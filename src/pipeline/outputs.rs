@@ -758,6 +758,13 @@ impl OutputContext<'_> {
                 "wd_radius_model": self.eopts.radius.model.name(),
                 "wd_mass_prior": self.eopts.radius.mass_prior.name(),
                 "wd_mass_prior_bandwidth_msun": self.conf.radius_mass_prior.as_ref().map(|p| p.bandwidth_msun()),
+                "wd_floor_size": self.eopts.radius.floor_fit.name(),
+                "wd_floor_scale": self.conf.radius_floor_scale.as_ref().map(|k| serde_json::json!({
+                    "applied": k.applied,
+                    "estimate": k.estimate,
+                    "interval_2sigma": [k.interval.0, k.interval.1],
+                    "delta_chi2_stated": k.delta_chi2_stated,
+                })),
                 "include_model_masses": self.eopts.radius.include_model_masses,
                 "theory_floor": self.eopts.mass_terms.systematics.name(),
                 "population_window_msun": self.eopts.population_window_msun.map(|(a, b)| vec![a, b]),

@@ -516,10 +516,13 @@ pub(crate) fn report_parts(
     // With thousands of white dwarfs in the radius test its statistical error falls below what
     // the floor's assumed size is known to: a floor larger than the real scatter then pulls τ
     // (docs/white-dwarfs.md §13.1: Δχ² ≈ 8 at 20 000 invented objects drawn in standard gravity).
+    // The fitted floor (the default) takes its size from the data; a fixed one keeps the risk.
     let n_radius = ctx.conf.radius_objects.len();
-    if n_radius >= LARGE_RADIUS_TEST {
+    if n_radius >= LARGE_RADIUS_TEST
+        && ctx.eopts.radius.floor_fit == crate::confront::wd_radius::FloorFit::Fixed
+    {
         warnings.push(Warning::Other(format!(
-            "{n_radius} white dwarfs in the radius test: at this size the result depends on the assumed size of the per-object theory floor (a floor larger than the real scatter pulls τ; docs/white-dwarfs.md §13.1); compare the shared-scale and per-object rows of the τ = 0 table before quoting a bound"
+            "{n_radius} white dwarfs in the radius test: at this size the result depends on the assumed size of the per-object theory floor (a floor larger than the real scatter pulls τ; docs/white-dwarfs.md §13.1), and it was kept fixed (--wd-floor-size fixed); compare the shared-scale and per-object rows of the τ = 0 table before quoting a bound, or let the data size the floor"
         )));
     }
     let n_anchored = count_flag("radius_anchored");
@@ -642,7 +645,7 @@ pub(crate) fn report_parts(
                 ),
             },
             likelihood: format!(
-                "{}; evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's true mass with {}{}",
+                "{}; evaluated through the one-dimensional reduction (§8.5); white-dwarf radii as a Gaussian likelihood marginalised over the object's true mass with {}{}{}",
                 ctx.conf
                     .bounds
                     .iter()
@@ -678,6 +681,7 @@ pub(crate) fn report_parts(
                     (crate::confront::wd_radius::RadiusMassPrior::Population, None) => "a flat prior (fewer than two white dwarfs with a mass error to estimate their mass function from)".to_string(),
                     (crate::confront::wd_radius::RadiusMassPrior::Flat, None) => "a flat prior (chosen with --wd-mass-prior flat: with thousands of white dwarfs it turns their mass distribution's peak into a false signal; docs/white-dwarfs.md)".to_string(),
                 },
+                floor_size_text(ctx),
                 match ctx.eopts.population_window_msun {
                     Some((lo, hi)) => format!("; population-aware term of docs/bounds.md §8.7 with the mass window [{lo}, {hi}] M☉ (flat true-mass densities on either side of the MMHB, profiled)"),
                     None => String::new(),
@@ -857,3 +861,35 @@ pub(crate) fn report_parts(
 /// floor's assumed size (docs/white-dwarfs.md §13.1: the pull was Δχ² ≈ 5 on average at 5 000
 /// invented objects, 8 at 20 000; a choice, at the low end of "thousands").
 const LARGE_RADIUS_TEST: usize = 2_000;
+
+/// The model line's account of the per-object radius floor's size (empty without a radius
+/// test).
+fn floor_size_text(ctx: &OutputContext<'_>) -> String {
+    use crate::confront::wd_radius::FloorFit;
+    match (&ctx.conf.radius_floor_scale, ctx.eopts.radius.floor_fit) {
+        (Some(k), _) if k.applied == 1.0 && k.delta_chi2_stated > 4.0 => format!(
+            "; the per-object radius floor at its stated size, although the white dwarfs scatter more about standard gravity than it says (its scale κ̂ = {:.3}, the stated size excluded at Δχ² = {:.1}): the floor is never widened by the data, the excess is left to the tensions and the consistency verdict (docs/white-dwarfs.md §13.2)",
+            k.estimate, k.delta_chi2_stated
+        ),
+        (Some(k), _) if k.applied == 1.0 => format!(
+            "; the per-object radius floor at its stated size (the white dwarfs' scatter about standard gravity allows it: its scale κ̂ = {:.3}, 2σ interval [{:.3}, {:.3}]; docs/white-dwarfs.md §13.2)",
+            k.estimate, k.interval.0, k.interval.1
+        ),
+        (Some(k), _) if k.applied < 1.0 => format!(
+            "; the per-object radius floor scaled by κ = {:.3}: the white dwarfs scatter less about standard gravity than the stated floor says ({}, the stated size excluded at Δχ² = {:.1}); κ is the upper end of its 2σ interval, the widest floor the data allow (docs/white-dwarfs.md §13.2)",
+            k.applied,
+            if k.estimate <= crate::confront::wd_radius::FLOOR_SCALE_RANGE.0 * (1.0 + 1e-9) {
+                format!("κ̂ at the search's lower end, {}: no scatter beyond the other terms", crate::confront::wd_radius::FLOOR_SCALE_RANGE.0)
+            } else {
+                format!("κ̂ = {:.3}", k.estimate)
+            },
+            k.delta_chi2_stated
+        ),
+        (Some(k), _) => format!(
+            "; the per-object radius floor scaled by κ = {:.3} (docs/white-dwarfs.md §13.2)",
+            k.applied
+        ),
+        (None, FloorFit::Fixed) if !ctx.conf.radius_objects.is_empty() => "; the per-object radius floor at its stated size (chosen with --wd-floor-size fixed: with thousands of white dwarfs a floor larger than their real scatter pulls τ; docs/white-dwarfs.md §13.2)".to_string(),
+        (None, _) => String::new(),
+    }
+}
