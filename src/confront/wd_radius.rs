@@ -333,7 +333,7 @@ impl FloorScale {
             }
             0.5 * (inner + outer)
         };
-        let (u_lo, u_hi) = (edge(lo), edge(hi));
+        let (u_lo, u_hi) = rayon::join(|| edge(lo), || edge(hi));
         let applied = if delta_chi2_stated > FLOOR_SCALE_DELTA && u_hat < 0.0 {
             u_hi.exp()
         } else {
