@@ -101,6 +101,17 @@ fn real_binary_white_dwarfs_allow_standard_gravity_with_a_finite_bound() {
         assert!(z.abs() < 2.0, "{id}: {z}σ");
     }
     assert!(radius_sigma(&out, "NN Ser").unwrap().abs() < 3.0);
+    // The per-object floor's size (docs/white-dwarfs.md §13.2): these published objects scatter
+    // about standard gravity as the stated floor says (measured: κ̂ = 1.32, 2σ interval
+    // [0.65, 2.55]), so it is kept as stated and the interval above is that of the stated floor.
+    let k = &s["model"]["wd_floor_scale"];
+    println!("floor scale: {k}");
+    assert_eq!(k["applied"].as_f64(), Some(1.0), "{k}");
+    let (k_lo, k_hi) = (
+        k["interval_2sigma"][0].as_f64().unwrap(),
+        k["interval_2sigma"][1].as_f64().unwrap(),
+    );
+    assert!(k_lo < 1.0 && 1.0 < k_hi, "{k}");
 }
 
 /// The part of the radius floor common to every white dwarf (the structure model itself) is one
