@@ -1041,13 +1041,16 @@ pub fn confront(
     }
     // The prior on the true masses is the mass function of the objects actually in the test.
     let radius_mass_prior = weigh_by_population(objects, &mut radius_objects, &opts.radius);
+    // The radius scale shared by every white dwarf (`None` with per-object floors), read by the
+    // floor's fit, the grid's radius term and the confrontation's record.
+    let radius_shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
     // Then the per-object floor's size, on the final objects with their final weights.
-    let radius_floor_scale = (opts.radius.floor_fit == wd_radius::FloorFit::Fitted)
-        .then(|| {
-            let shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
-            wd_radius::FloorScale::fit(&radius_objects, shared.as_ref())
-        })
-        .flatten();
+    let radius_floor_scale = match opts.radius.floor_fit {
+        wd_radius::FloorFit::Fitted => {
+            wd_radius::FloorScale::fit(&radius_objects, radius_shared.as_ref())
+        }
+        wd_radius::FloorFit::Fixed => None,
+    };
     if let Some(k) = &radius_floor_scale {
         k.apply(&mut radius_objects);
     }
@@ -1062,7 +1065,6 @@ pub fn confront(
                 .collect::<Vec<_>>(),
         );
         let ups = surface.upsilon();
-        let shared = wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms);
         let spun = super::spin::RadiusCorrections::new(&spins, &radius_objects);
         // Rows of constant τ in parallel, each along ϒ in order: the shared scale's search at
         // a point starts at the previous point's δ̂ (fewer Newton steps), and since a row is
@@ -1078,7 +1080,7 @@ pub fn confront(
                 &radius_objects,
                 &radii,
                 ups[i % nu],
-                shared.as_ref(),
+                radius_shared.as_ref(),
                 start,
             );
             (Some(value), delta_hat)
@@ -1117,7 +1119,7 @@ pub fn confront(
         radius_objects,
         radius_mass_prior,
         radius_floor_scale,
-        radius_shared: wd_radius::shared_nuisance(&opts.radius, &opts.mass_terms),
+        radius_shared,
         bounds,
         spins,
         spin_spans,

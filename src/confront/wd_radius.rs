@@ -334,17 +334,27 @@ impl FloorScale {
             0.5 * (inner + outer)
         };
         let (u_lo, u_hi) = rayon::join(|| edge(lo), || edge(hi));
-        let applied = if delta_chi2_stated > FLOOR_SCALE_DELTA && u_hat < 0.0 {
-            u_hi.exp()
-        } else {
-            1.0
-        };
-        Some(Self {
-            applied,
+        let mut scale = Self {
+            applied: 1.0,
             estimate: u_hat.exp(),
             interval: (u_lo.exp(), u_hi.exp()),
             delta_chi2_stated,
-        })
+        };
+        if scale.stated_excluded() && u_hat < 0.0 {
+            scale.applied = scale.interval.1;
+        }
+        Some(scale)
+    }
+
+    /// Whether the data exclude the stated size (κ = 1) at 2σ, in either direction.
+    pub fn stated_excluded(&self) -> bool {
+        self.delta_chi2_stated > FLOOR_SCALE_DELTA
+    }
+
+    /// Whether κ̂ sits at the search's lower end ([`FLOOR_SCALE_RANGE`]), so that it is an upper
+    /// limit: no scatter beyond the terms that are not scaled.
+    pub fn estimate_at_lower_end(&self) -> bool {
+        self.estimate <= FLOOR_SCALE_RANGE.0 * (1.0 + 1e-9)
     }
 
     /// Scales every object's per-object floor by [`FloorScale::applied`].

@@ -865,31 +865,36 @@ const LARGE_RADIUS_TEST: usize = 2_000;
 /// The model line's account of the per-object radius floor's size (empty without a radius
 /// test).
 fn floor_size_text(ctx: &OutputContext<'_>) -> String {
-    use crate::confront::wd_radius::FloorFit;
-    match (&ctx.conf.radius_floor_scale, ctx.eopts.radius.floor_fit) {
-        (Some(k), _) if k.applied == 1.0 && k.delta_chi2_stated > 4.0 => format!(
-            "; the per-object radius floor at its stated size, although the white dwarfs scatter more about standard gravity than it says (its scale κ̂ = {:.3}, the stated size excluded at Δχ² = {:.1}): the floor is never widened by the data, the excess is left to the tensions and the consistency verdict (docs/white-dwarfs.md §13.2)",
-            k.estimate, k.delta_chi2_stated
-        ),
-        (Some(k), _) if k.applied == 1.0 => format!(
-            "; the per-object radius floor at its stated size (the white dwarfs' scatter about standard gravity allows it: its scale κ̂ = {:.3}, 2σ interval [{:.3}, {:.3}]; docs/white-dwarfs.md §13.2)",
-            k.estimate, k.interval.0, k.interval.1
-        ),
-        (Some(k), _) if k.applied < 1.0 => format!(
+    use crate::confront::wd_radius::{FloorFit, FLOOR_SCALE_RANGE};
+    let Some(k) = &ctx.conf.radius_floor_scale else {
+        return if ctx.eopts.radius.floor_fit == FloorFit::Fixed
+            && !ctx.conf.radius_objects.is_empty()
+        {
+            "; the per-object radius floor at its stated size (chosen with --wd-floor-size fixed: with thousands of white dwarfs a floor larger than their real scatter pulls τ; docs/white-dwarfs.md §13.2)".to_string()
+        } else {
+            String::new()
+        };
+    };
+    if k.applied < 1.0 {
+        format!(
             "; the per-object radius floor scaled by κ = {:.3}: the white dwarfs scatter less about standard gravity than the stated floor says ({}, the stated size excluded at Δχ² = {:.1}); κ is the upper end of its 2σ interval, the widest floor the data allow (docs/white-dwarfs.md §13.2)",
             k.applied,
-            if k.estimate <= crate::confront::wd_radius::FLOOR_SCALE_RANGE.0 * (1.0 + 1e-9) {
-                format!("κ̂ at the search's lower end, {}: no scatter beyond the other terms", crate::confront::wd_radius::FLOOR_SCALE_RANGE.0)
+            if k.estimate_at_lower_end() {
+                format!("κ̂ at the search's lower end, {}: no scatter beyond the other terms", FLOOR_SCALE_RANGE.0)
             } else {
                 format!("κ̂ = {:.3}", k.estimate)
             },
             k.delta_chi2_stated
-        ),
-        (Some(k), _) => format!(
-            "; the per-object radius floor scaled by κ = {:.3} (docs/white-dwarfs.md §13.2)",
-            k.applied
-        ),
-        (None, FloorFit::Fixed) if !ctx.conf.radius_objects.is_empty() => "; the per-object radius floor at its stated size (chosen with --wd-floor-size fixed: with thousands of white dwarfs a floor larger than their real scatter pulls τ; docs/white-dwarfs.md §13.2)".to_string(),
-        (None, _) => String::new(),
+        )
+    } else if k.stated_excluded() {
+        format!(
+            "; the per-object radius floor at its stated size, although the white dwarfs scatter more about standard gravity than it says (its scale κ̂ = {:.3}, the stated size excluded at Δχ² = {:.1}): the floor is never widened by the data, the excess is left to the tensions and the consistency verdict (docs/white-dwarfs.md §13.2)",
+            k.estimate, k.delta_chi2_stated
+        )
+    } else {
+        format!(
+            "; the per-object radius floor at its stated size (the white dwarfs' scatter about standard gravity allows it: its scale κ̂ = {:.3}, 2σ interval [{:.3}, {:.3}]; docs/white-dwarfs.md §13.2)",
+            k.estimate, k.interval.0, k.interval.1
+        )
     }
 }
