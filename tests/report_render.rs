@@ -165,6 +165,7 @@ fn synthetic_input(consistent: bool) -> ReportInput {
             tau: -0.02,
             minus_two_ln_l: 3.25,
             on_grid_edge: false,
+            not_unique: None,
         },
         allowed: vec![
             AllowedRange {

@@ -122,6 +122,34 @@ fn map_regions_on_an_elliptical_bowl() {
     assert!(r.allowed_at(r.best.i_upsilon, r.best.j_tau, ups.len(), Level::Cl68));
     assert!(!r.allowed_at(0, 0, ups.len(), Level::Cl997));
     assert!(map_regions(&ups, &taus, &chi2[1..]).is_err());
+    // Closed form: Δχ² ≤ 0.01 needs |ϒ − 0.1| ≤ 0.02 and |τ + 0.05| ≤ 0.005, inside the best
+    // point's neighbours on this grid (steps 0.025 and 0.005): the best fit names a place.
+    assert!(r.best_unique);
+    assert_eq!(r.near_best.n_points, 3);
+}
+
+/// A plateau (every object agrees with a whole band of the grid, as for real brown dwarfs with
+/// dynamical masses) has no unique best point: closed form, χ² = max(0, τ − 0.05)² / 0.01² is
+/// exactly 0 for every τ ≤ 0.05 whatever ϒ, so every such point ties with the best one.
+#[test]
+fn a_flat_minimum_is_not_a_unique_best_fit() {
+    let ups: Vec<f64> = (0..10).map(|i| -0.3 + 0.1 * f64::from(i)).collect();
+    let taus: Vec<f64> = (0..7).map(|j| -0.3 + 0.1 * f64::from(j)).collect();
+    let mut chi2 = Vec::new();
+    for &t in &taus {
+        for _ in &ups {
+            chi2.push((t - 0.05).max(0.0).powi(2) / 1e-4);
+        }
+    }
+    let r = map_regions(&ups, &taus, &chi2).unwrap();
+    assert!(!r.best_unique);
+    // τ ∈ {−0.3, …, 0.0}: four rows of ten points.
+    assert_eq!(r.near_best.n_points, 40);
+    assert_eq!((r.near_best.tau_min, r.near_best.tau_max), (-0.3, taus[3]));
+    assert_eq!(
+        (r.near_best.upsilon_min, r.near_best.upsilon_max),
+        (-0.3, ups[9])
+    );
 }
 
 #[test]

@@ -49,8 +49,12 @@ pub(super) fn print_outcome(o: &ConfrontOutcome, out: &std::path::Path) {
 fn print_findings(o: &ConfrontOutcome) {
     let s = &o.summary;
     let bf = &s["best_fit"];
+    let plateau = match (bf["unique"].as_bool(), bf["points_within_0_01"].as_u64()) {
+        (Some(false), Some(n)) => format!("; not unique: {n} grid points within Δχ² 0.01"),
+        _ => String::new(),
+    };
     println!(
-        "best fit: ϒ = {}, τ = {} (−2 ln L = {:.4})",
+        "best fit: ϒ = {}, τ = {} (−2 ln L = {:.4}{plateau})",
         bf["upsilon"],
         bf["tau"],
         bf["minus_two_ln_l"].as_f64().unwrap_or(f64::NAN)

@@ -150,6 +150,13 @@ pub struct MapRegions {
     pub allowed: [AllowedBox; 3],
     /// Grid points whose χ² was not finite (no model there); never allowed.
     pub n_invalid: usize,
+    /// The grid points within [`INDISTINGUISHABLE_DCHI2`] of the best one, the best included.
+    pub near_best: AllowedBox,
+    /// Whether every point of `near_best` is the best point or one of its eight neighbours on
+    /// the grid: only then does the best fit name a place. A likelihood flat over part of the
+    /// grid (objects that all agree with every point there) has a lowest point that is rounding
+    /// noise, and the report says so instead of printing it as a finding.
+    pub best_unique: bool,
 }
 
 impl MapRegions {
@@ -166,6 +173,11 @@ impl MapRegions {
             .is_some_and(|&d| d <= level.dchi2(2))
     }
 }
+
+/// Δχ² below which a grid point cannot be told from the best one: 0.1σ in one parameter
+/// (a choice; the demo's best fit has no other point within it, an uninformative catalogue has
+/// a plateau of them).
+pub const INDISTINGUISHABLE_DCHI2: f64 = 0.01;
 
 /// Best fit, Δχ² and the allowed boxes of a χ² map `chi2[j·n_ϒ + i]` (τ outer, ϒ inner) on
 /// axes `upsilon`, `tau` (two-parameter thresholds, as in the paper's statistics section).
@@ -204,8 +216,7 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
         })
         .collect();
     let n_invalid = chi2.iter().filter(|c| !c.is_finite()).count();
-    let allowed = Level::ALL.map(|level| {
-        let thr = level.dchi2(2);
+    let within = |thr: f64| {
         let mut b = AllowedBox {
             upsilon_min: f64::INFINITY,
             upsilon_max: f64::NEG_INFINITY,
@@ -226,6 +237,12 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
         }
         b.fraction_of_grid = b.n_points as f64 / (nu * nt) as f64;
         b
+    };
+    let allowed = Level::ALL.map(|level| within(level.dchi2(2)));
+    let near_best = within(INDISTINGUISHABLE_DCHI2);
+    let best_unique = delta_chi2.iter().enumerate().all(|(k, &d)| {
+        d > INDISTINGUISHABLE_DCHI2
+            || ((k % nu).abs_diff(i_best) <= 1 && (k / nu).abs_diff(j_best) <= 1)
     });
     Ok(MapRegions {
         best: BestFit {
@@ -238,6 +255,8 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
         delta_chi2,
         allowed,
         n_invalid,
+        near_best,
+        best_unique,
     })
 }
 

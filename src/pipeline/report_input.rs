@@ -12,8 +12,8 @@ use crate::report::text::fmt_sig;
 use crate::report::{
     self, AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow,
-    ModelDescription, ReductionError, ReportInput, Shift, SideBySide, TensionRow, TensionTable,
-    TermTabulation, UpsilonInterval, Warning, WorstObject,
+    ModelDescription, NearBest, ReductionError, ReportInput, Shift, SideBySide, TensionRow,
+    TensionTable, TermTabulation, UpsilonInterval, Warning, WorstObject,
 };
 use crate::theory::point::Warning as TheoryWarning;
 
@@ -725,6 +725,15 @@ pub(crate) fn report_parts(
             on_grid_edge: best.i_upsilon == 0
                 || best.i_upsilon + 1 == nu
                 || (nt > 1 && (best.j_tau == 0 || best.j_tau + 1 == nt)),
+            not_unique: (!ctx.regions.best_unique).then(|| {
+                let n = &ctx.regions.near_best;
+                NearBest {
+                    n_points: n.n_points,
+                    fraction_of_grid: n.fraction_of_grid,
+                    upsilon: (n.upsilon_min, n.upsilon_max),
+                    tau: (n.tau_min, n.tau_max),
+                }
+            }),
         },
         allowed: Level::ALL
             .iter()

@@ -274,6 +274,25 @@ pub(crate) fn build(
             b("Best fit: "),
             t("none — without an informative object the likelihood is flat over the grid."),
         ];
+    } else if let Some(n) = &bf.not_unique {
+        // A plateau: the lowest point is rounding noise, not a finding (regions::INDISTINGUISHABLE_DCHI2).
+        best = vec![
+            b("Best fit: "),
+            t(format!(
+                "not unique — {} grid points ({} % of the grid), over ϒ [{}, {}] and τ [{}, {}], \
+                 lie within Δχ² ≤ 0.01 of the lowest −2 ln L ({} at ϒ = {}, τ = {}): the data do \
+                 not single out a point there.",
+                n.n_points,
+                fmt_sig(100.0 * n.fraction_of_grid, 3),
+                fmt_param(n.upsilon.0),
+                fmt_param(n.upsilon.1),
+                fmt_param(n.tau.0),
+                fmt_param(n.tau.1),
+                fmt_sig(bf.minus_two_ln_l, 5),
+                fmt_param(bf.upsilon),
+                fmt_param(bf.tau),
+            )),
+        ];
     } else if bf.on_grid_edge {
         best.push(t(
             "; on the edge of the grid, so the minimum may lie outside it — widen the grid.",

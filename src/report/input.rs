@@ -186,6 +186,22 @@ pub struct BestFit {
     pub minus_two_ln_l: f64,
     /// True when the best fit lies on the edge of the grid (the minimum may lie outside).
     pub on_grid_edge: bool,
+    /// When the best grid point is not unique: the points within Δχ² ≤ 0.01 of it, which reach
+    /// beyond its neighbours (`None`: the best fit names a place).
+    pub not_unique: Option<NearBest>,
+}
+
+/// Grid points that cannot be told from the best fit (Δχ² ≤ 0.01 of it).
+#[derive(Debug, Clone, PartialEq)]
+pub struct NearBest {
+    /// How many.
+    pub n_points: usize,
+    /// Their share of the grid.
+    pub fraction_of_grid: f64,
+    /// Smallest and largest ϒ among them.
+    pub upsilon: (f64, f64),
+    /// Smallest and largest τ among them.
+    pub tau: (f64, f64),
 }
 
 /// Extent of the region allowed at one level (two-parameter Δχ²).

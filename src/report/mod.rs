@@ -45,8 +45,9 @@ pub use figures::{
 pub use input::{
     AllowedMap, AllowedRange, AxisSpec, BestFit, BoundSeries, BoundsCurves, CatalogueSummary,
     ClassContribution, ClassOutline, Consistency, DriverRow, GridDescription, IntervalRow, Level,
-    ModelDescription, ReductionError, ReportInput, Shift, SideBySide, StandardGravityStatus,
-    TensionRow, TensionTable, TermTabulation, UpsilonInterval, Warning, WorstObject,
+    ModelDescription, NearBest, ReductionError, ReportInput, Shift, SideBySide,
+    StandardGravityStatus, TensionRow, TensionTable, TermTabulation, UpsilonInterval, Warning,
+    WorstObject,
 };
 
 use crate::output::{write_atomic, OutputError};

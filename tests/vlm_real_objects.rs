@@ -1,0 +1,156 @@
+//! Brown dwarfs and very-low-mass stars as they are: the MMHB test on real, published objects
+//! with measured masses, and the age and mass-provenance rules acting on them.
+//!
+//! The objects are in `tests/fixtures/real/vlm_dynamical_msun.csv` (solar masses) and
+//! `vlm_dynamical_mjup.csv` (Jupiter masses, as their papers give them); each row names its
+//! paper and whether its numbers were re-read ("verified") or read in a secondary summary.
+
+mod common;
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use common::{col, confront, fixture, path_str, read_csv, summary, text};
+
+/// ϒ barely moves the anchored MMHB (docs/bounds.md §6); τ moves it by ±10 % at ±0.1.
+const UPSILON: &str = "--upsilon=-0.3:0.6:46";
+const TAU: &str = "--tau=-0.3:0.3:7";
+
+/// (in_fit, flags, sigma_standard) of every object of a finished run, by id.
+fn objects(out: &Path) -> BTreeMap<String, (String, String, f64)> {
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    let (i_id, i_fit, i_flags, i_z) = (
+        col(&h, "id"),
+        col(&h, "in_fit"),
+        col(&h, "flags"),
+        col(&h, "sigma_standard"),
+    );
+    rows.iter()
+        .map(|r| {
+            let z = r[i_z].parse().unwrap_or(f64::NAN);
+            (r[i_id].clone(), (r[i_fit].clone(), r[i_flags].clone(), z))
+        })
+        .collect()
+}
+
+fn catalogues() -> (String, String) {
+    let a = fixture("real", "vlm_dynamical_msun.csv");
+    let b = fixture("real", "vlm_dynamical_mjup.csv");
+    (path_str(&a).to_string(), path_str(&b).to_string())
+}
+
+/// Source: the fixture's papers. Dupuy & Liu 2017 (ApJS 231, 15; abstract verified) find the
+/// stellar/substellar boundary at ≈ 70 M_Jup from dynamical masses; the anchored MMHB is
+/// 0.075 ± 0.005 M☉ (docs/bounds.md §4). Real objects weighed by orbits must therefore agree
+/// with standard gravity: the most massive old brown dwarf, ε Ind Ba (66.92 M_Jup = 0.0639 M☉,
+/// 3.5 Gyr), lies 2.2 floor-σ below the anchor and is the object nearest its bound. The young
+/// (Luhman 16 at 0.6–0.8 Gyr, 2MASS J0535−0546 at ~1 Myr) are left out by the 1 Gyr age cut, and
+/// the companions of single-lined orbits, whose masses scale with a model mass of their primary,
+/// by the provenance rule. With nothing near its bound the likelihood is flat over most of the
+/// grid, and the report must say that no point is singled out rather than print a best fit.
+#[test]
+fn real_dynamical_masses_allow_standard_gravity_and_the_rules_act_on_them() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("vlm");
+    let (a, b) = catalogues();
+    let o = confront(&[&a, &b, UPSILON, TAU], &out);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let s = summary(&out);
+    // Rows in = accepted + quarantined, per file (5 + 9 real objects, none bad).
+    let rows: Vec<(u64, u64, u64)> = s["catalogues"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| {
+            let n = |k: &str| c[k].as_u64().unwrap();
+            (n("rows_in"), n("rows_accepted"), n("rows_quarantined"))
+        })
+        .collect();
+    assert_eq!(rows, vec![(5, 5, 0), (9, 9, 0)]);
+    assert_eq!(s["standard_gravity"]["allowed_cl95"], true, "{}", text(&o));
+    assert_eq!(s["tensions"].as_array().map(Vec::len), Some(0));
+    assert_eq!(s["consistency"]["consistent_cl95"], true);
+
+    let objs = objects(&out);
+    for id in [
+        "Luhman 16 A",
+        "Luhman 16 B",
+        "2MASS J0535-0546 A",
+        "2MASS J0535-0546 B",
+    ] {
+        let (fit, flags, _) = &objs[id];
+        assert_eq!(fit, "false", "{id}");
+        assert!(flags.split(';').any(|f| f == "young"), "{id}: {flags}");
+    }
+    for id in [
+        "NGTS J0930-18 B",
+        "LHS 6343 C",
+        "TOI-263 b",
+        "EBLM J0555-57 Ab",
+    ] {
+        let (fit, flags, _) = &objs[id];
+        assert_eq!(fit, "false", "{id}");
+        assert!(flags.split(';').any(|f| f == "model_mass"), "{id}: {flags}");
+    }
+    let in_fit: Vec<&String> = objs
+        .iter()
+        .filter(|(_, (fit, _, _))| fit == "true")
+        .map(|(id, _)| id)
+        .collect();
+    assert_eq!(
+        in_fit,
+        [
+            "CM Dra A",
+            "CM Dra B",
+            "Gl 229 Ba",
+            "Gl 229 Bb",
+            "eps Ind Ba",
+            "eps Ind Bb"
+        ]
+    );
+    // ε Ind Ba: (0.0639 − 0.075)/0.005 ≈ −2.2 (negative = the consistent side); every other
+    // object in the fit lies further from its bound.
+    let (_, _, z_ba) = objs["eps Ind Ba"];
+    assert!((z_ba + 2.2).abs() < 0.05, "{z_ba}");
+    for id in &in_fit {
+        if id.as_str() != "eps Ind Ba" {
+            assert!(objs[*id].2 < z_ba, "{id}: {}", objs[*id].2);
+        }
+    }
+    // A flat likelihood: no unique best fit, said in the report and on the terminal.
+    assert_eq!(s["best_fit"]["unique"], false);
+    assert!(s["best_fit"]["points_within_0_01"].as_u64().unwrap() > 100);
+    let report = std::fs::read_to_string(out.join("report.md")).unwrap();
+    assert!(report.contains("**Best fit:** not unique"), "{report}");
+    assert!(!report.contains("widen the grid"));
+    assert!(text(&o).contains("not unique"), "{}", text(&o));
+}
+
+/// Source: the fixture's papers. Kept on request (`--include-model-masses`), the two stars of
+/// single-lined eclipsing binaries at the limit (EBLM J0555−57Ab, 85 ± 4 M_Jup; NGTS J0930−18 B,
+/// 0.0818 M☉) bound the MMHB from above, and so τ (Φ_A ≈ 1.10 at τ = 0.1, docs/bounds.md §3):
+/// standard gravity stays allowed and τ's 95.45 % profile interval closes from above inside the
+/// grid. Measured: τ < 0.166 on a 10 × 31 grid (ϒ barely matters).
+#[test]
+fn stars_at_the_limit_kept_on_request_bound_tau_from_above() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("vlm-model");
+    let (a, b) = catalogues();
+    let o = confront(
+        &[
+            &a,
+            &b,
+            "--upsilon=-0.3:0.6:10",
+            "--tau=-0.3:0.3:31",
+            "--include-model-masses",
+        ],
+        &out,
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let s = summary(&out);
+    assert_eq!(s["standard_gravity"]["allowed_cl95"], true);
+    let tau = &s["profile_intervals"]["tau"]["cl95"];
+    let upper = tau["upper"].as_f64().expect("τ's upper end closes");
+    assert!((0.12..0.22).contains(&upper), "{upper}");
+    assert!(tau["lower"].is_null(), "{tau}");
+}
