@@ -154,3 +154,63 @@ fn stars_at_the_limit_kept_on_request_bound_tau_from_above() {
     assert!((0.12..0.22).contains(&upper), "{upper}");
     assert!(tau["lower"].is_null(), "{tau}");
 }
+
+/// Source: Xuan et al. 2024 (Nature; abstract verified), which resolved Gl 229 B — weighed as one
+/// brown dwarf of 71.4 ± 0.6 M_Jup by Brandt et al. 2021, as that abstract quotes — into Ba and
+/// Bb of 38.1 and 34.4 M_Jup. A nightly run over the real objects (brown dwarfs, stars and the
+/// white dwarfs of `wd_binaries.csv`) before and after that update must name the change object
+/// by object and show its consequence: the most massive old brown dwarf was the one that bounded
+/// the MMHB from below, so the allowed region grows (measured on a 46 × 31 grid: 0.198 → 0.215
+/// of the grid at 95.45 %) while the ϒ interval at τ = 0, set by the white dwarfs' radii, moves
+/// by less than 10⁻⁴.
+#[test]
+fn a_real_catalogue_update_is_named_and_its_consequence_shown() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let mjup = fixture("real", "vlm_dynamical_mjup.csv");
+    let resolved = std::fs::read_to_string(&mjup).unwrap();
+    let before: String = resolved
+        .lines()
+        .filter(|l| !l.starts_with("Gl 229 B"))
+        .chain(std::iter::once(
+            "Gl 229 B,brown_dwarf,71.4,0.6,,,4.0,2.0,dynamical,\"Brandt et al. 2021, as quoted \
+             by Xuan et al. 2024 (verified): unresolved\"",
+        ))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    std::fs::write(d.join("bd.csv"), before).unwrap();
+    for name in ["vlm_dynamical_msun.csv", "wd_binaries.csv"] {
+        std::fs::copy(fixture("real", name), d.join(name)).unwrap();
+    }
+    let config = d.join("night.toml");
+    std::fs::write(
+        &config,
+        "output = \"out\"\n\
+         [[catalogue]]\npath = \"vlm_dynamical_msun.csv\"\n\
+         [[catalogue]]\npath = \"bd.csv\"\n\
+         [[catalogue]]\npath = \"wd_binaries.csv\"\n\
+         [grid]\nupsilon = \"-0.3:0.6:46\"\ntau = \"-0.3:0.3:31\"\n",
+    )
+    .unwrap();
+    let night = || common::bin(&["run", path_str(&config)], d);
+    let first = night();
+    assert_eq!(first.status.code(), Some(0), "{}", text(&first));
+    std::fs::write(d.join("bd.csv"), &resolved).unwrap();
+    let second = night();
+    assert_eq!(second.status.code(), Some(0), "{}", text(&second));
+    let s = summary(&d.join("out").join("latest"));
+    let since = &s["since_previous"];
+    assert_eq!(
+        since["added"],
+        serde_json::json!(["bd.csv:Gl 229 Ba", "bd.csv:Gl 229 Bb"])
+    );
+    assert_eq!(since["removed"], serde_json::json!(["bd.csv:Gl 229 B"]));
+    let (before, now) = (
+        since["area_before"].as_f64().unwrap(),
+        since["area_now"].as_f64().unwrap(),
+    );
+    assert!(now > before + 0.01, "{before} → {now}");
+    assert!(since["interval_shift"].as_f64().unwrap() < 1e-4, "{since}");
+    assert_eq!(s["standard_gravity"]["allowed_cl95"], true);
+    assert!(text(&second).contains("1 object(s) removed: bd.csv:Gl 229 B"));
+}
