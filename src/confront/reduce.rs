@@ -1020,9 +1020,20 @@ impl SplineWeights {
     /// arithmetic, so the same bits as holding the spline.
     pub fn eval_on(&self, y: &[f64], second: &[f64]) -> f64 {
         let i = self.i;
-        self.a * y[i]
-            + self.b * y[i + 1]
-            + (self.cubic_a * second[i] + self.cubic_b * second[i + 1]) * self.h * self.h / 6.0
+        self.eval_values(y[i], y[i + 1], second[i], second[i + 1])
+    }
+
+    /// The knot interval these weights are for: the spline reads knots `i` and `i + 1`.
+    pub fn interval(&self) -> usize {
+        self.i
+    }
+
+    /// [`SplineWeights::eval_on`] from the two knots' values and second derivatives alone (the
+    /// same arithmetic, so the same bits), for a caller whose tables are not one spline's rows.
+    pub fn eval_values(&self, y0: f64, y1: f64, second0: f64, second1: f64) -> f64 {
+        self.a * y0
+            + self.b * y1
+            + (self.cubic_a * second0 + self.cubic_b * second1) * self.h * self.h / 6.0
     }
 }
 

@@ -204,11 +204,14 @@ type PerObjectFine = Vec<(usize, Vec<f64>)>;
 /// the refined axis ten times the row) cost ~1 MB per white dwarf with a radius on a 201-point
 /// row: gigabytes for a catalogue of ten thousand.
 ///
-/// The interpolants are two flat tables, query after query, with the row's axis held once: the
-/// radius at each coarse point and the spline's second derivative there (17 bytes per query
-/// and point). One [`CubicSpline`] per query held its own copy of the axis and of the values
-/// besides, in four allocations: about 45 bytes per query and point, 90 MB of a 2 000-white-dwarf
-/// run's 250 MB peak (heaptrack), 2.7 GB at 20 000.
+/// The interpolants are two flat tables with the row's axis held once: the radius at each
+/// coarse point and the spline's second derivative there (17 bytes per query and point). One
+/// [`CubicSpline`] per query held its own copy of the axis and of the values besides, in four
+/// allocations: about 45 bytes per query and point, 90 MB of a 2 000-white-dwarf run's 250 MB
+/// peak (heaptrack), 2.7 GB at 20 000. The tables are point-major (every query at one coarse
+/// point, then the next): a fine point reads its two coarse points' rows front to back, where
+/// the query-major layout took a cache miss per query and knot (perf on 2 000 white dwarfs with
+/// radii: the evaluation was 12 % of the run, nearly all of it waiting on memory).
 #[derive(Debug, Clone, Default)]
 pub struct FineRadii {
     axis: Vec<f64>,
@@ -216,11 +219,12 @@ pub struct FineRadii {
     /// A spline on the row's axis (any values): where a fine point falls and its weights are
     /// the same for every query. `None` when no query has a radius at every coarse point.
     knots: Option<CubicSpline>,
-    /// Per query and coarse point (query-major): the cold radius, 0 where there is none.
+    /// Per coarse point and query (point-major, index `point · queries + query`): the cold
+    /// radius, 0 where there is none.
     ys: Vec<f64>,
-    /// Per query and coarse point: whether there is a radius.
+    /// Per coarse point and query: whether there is a radius.
     present: Vec<bool>,
-    /// Per query and coarse point: the not-a-knot spline's second derivative, for a query
+    /// Per coarse point and query: the not-a-knot spline's second derivative, for a query
     /// with a radius at every point (0 otherwise).
     second: Vec<f64>,
     /// Per query: whether it has a radius at every coarse point (and so a spline).
@@ -275,14 +279,17 @@ impl FineRadii {
     fn value(&self, q: usize, x: f64, w: Option<&SplineWeights>) -> Option<f64> {
         let axis = &self.axis;
         let n = axis.len();
-        let span = q * n..(q + 1) * n;
+        let nq = self.complete.len();
         if self.complete[q] {
             // A complete query means `knots` exists, so its weights were given.
-            return w.map(|w| w.eval_on(&self.ys[span.clone()], &self.second[span]));
+            return w.map(|w| {
+                let (k0, k1) = (w.interval() * nq + q, (w.interval() + 1) * nq + q);
+                w.eval_values(self.ys[k0], self.ys[k1], self.second[k0], self.second[k1])
+            });
         }
         let j = axis.partition_point(|&v| v <= x).clamp(1, n - 1);
         let t = (x - axis[j - 1]) / (axis[j] - axis[j - 1]);
-        let at = |i: usize| self.present[span.start + i].then(|| self.ys[span.start + i]);
+        let at = |i: usize| self.present[i * nq + q].then(|| self.ys[i * nq + q]);
         match (at(j - 1), at(j)) {
             (Some(y0), Some(y1)) => Some(y0 + t * (y1 - y0)),
             _ => None,
@@ -433,37 +440,27 @@ fn fine_radii(
     let n_queries = queries.len();
     let mut ys = vec![0.0; n_queries * n];
     let mut present = vec![false; n_queries * n];
-    // The coarse points' lookups a few at a time (each is every query's radius there, 16 bytes
-    // a query), each batch written into the query-major tables and dropped.
-    let batch = rayon::current_num_threads().max(1);
-    for first in (0..n).step_by(batch) {
-        let points: Vec<usize> = (first..(first + batch).min(n)).collect();
-        let coarse: Vec<Vec<Option<f64>>> = points
-            .par_iter()
-            .map(|&i| {
-                let at = row.j0 * nu + row.first + i;
-                let mut radii = surface.wd_radii_prepared(at, &prepared);
-                if let Some(f) = adjust {
-                    f(at, &mut radii);
+    // Each coarse point's lookup (every query's radius there) is its row of the point-major
+    // tables.
+    ys.par_chunks_mut(n_queries.max(1))
+        .zip(present.par_chunks_mut(n_queries.max(1)))
+        .enumerate()
+        .for_each(|(i, (y, p))| {
+            let at = row.j0 * nu + row.first + i;
+            let mut radii = surface.wd_radii_prepared(at, &prepared);
+            if let Some(f) = adjust {
+                f(at, &mut radii);
+            }
+            for ((y, p), r) in y.iter_mut().zip(p.iter_mut()).zip(&radii) {
+                if let Some(r) = *r {
+                    *y = r;
+                    *p = true;
                 }
-                radii
-            })
-            .collect();
-        ys.par_chunks_mut(n)
-            .zip(present.par_chunks_mut(n))
-            .enumerate()
-            .for_each(|(q, (y, p))| {
-                for (&i, c) in points.iter().zip(&coarse) {
-                    if let Some(Some(r)) = c.get(q) {
-                        y[i] = *r;
-                        p[i] = true;
-                    }
-                }
-            });
-    }
-    let complete: Vec<bool> = present
-        .par_chunks(n)
-        .map(|p| p.iter().all(|&x| x))
+            }
+        });
+    let complete: Vec<bool> = (0..n_queries)
+        .into_par_iter()
+        .map(|q| (0..n).all(|i| present[i * n_queries + q]))
         .collect();
     // The knots' spline checks the axis as each query's own spline did (≥ 2 strictly
     // increasing points), before any second derivative is formed on it.
@@ -472,21 +469,35 @@ fn fine_radii(
     } else {
         None
     };
+    // Each complete query's second derivatives from its own row (gathered across the
+    // point-major table), a block of queries at a time so that the transposed copies stay small.
     let mut second = vec![0.0; n_queries * n];
-    second
-        .par_chunks_mut(n)
-        .zip(ys.par_chunks(n))
-        .zip(complete.par_iter())
-        .try_for_each(|((s, y), &c)| -> Result<(), StatsError> {
-            if c {
+    const QUERY_BLOCK: usize = 4096;
+    for first in (0..n_queries).step_by(QUERY_BLOCK) {
+        let block: Vec<Option<Vec<f64>>> = (first..(first + QUERY_BLOCK).min(n_queries))
+            .into_par_iter()
+            .map(|q| -> Result<Option<Vec<f64>>, StatsError> {
+                if !complete[q] {
+                    return Ok(None);
+                }
+                let y: Vec<f64> = (0..n).map(|i| ys[i * n_queries + q]).collect();
                 if y.iter().any(|v| !v.is_finite()) {
                     // The error a spline through these values gives.
-                    CubicSpline::new(axis, y, SplineEnd::NotAKnot)?;
+                    CubicSpline::new(axis, &y, SplineEnd::NotAKnot)?;
                 }
-                s.copy_from_slice(&spline_second_derivatives(axis, y, SplineEnd::NotAKnot));
+                Ok(Some(spline_second_derivatives(
+                    axis,
+                    &y,
+                    SplineEnd::NotAKnot,
+                )))
+            })
+            .collect::<Result<_, StatsError>>()?;
+        for (q, s) in (first..).zip(block) {
+            for (i, v) in s.into_iter().flatten().enumerate() {
+                second[i * n_queries + q] = v;
             }
-            Ok(())
-        })?;
+        }
+    }
     Ok(FineRadii {
         axis: axis.to_vec(),
         fine: fine.to_vec(),
