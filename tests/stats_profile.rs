@@ -67,6 +67,43 @@ fn gaussian_surface_profile_and_marginal_are_k_sigma() {
         assert!((r.upsilon_max - (0.05 + half)).abs() < 0.011);
         assert!((r.upsilon_min - (0.05 - half)).abs() < 0.011);
     }
+    // Closed form: the marginals fall to e^(−k²/2) of their peak far inside the grid, so the
+    // data inform both parameters.
+    assert!(!post.upsilon_prior_dominated && !post.tau_prior_dominated);
+}
+
+/// Closed form: χ² = (τ/0.1)² (1 − ϒ/10) over ϒ ∈ [−0.3, 0.6] carries almost nothing on ϒ — its
+/// marginal ∝ (1 − ϒ/10)^{−1/2} on an untruncated τ axis moves by about 5 % across the grid, far
+/// inside e^{−1/2} — while τ's marginal is a Gaussian of width ≈ 0.1: ϒ is prior-dominated, τ is
+/// not. With χ² = (τ/0.1)² (1 + ϒ)², ϒ's marginal ∝ 1/(1 + ϒ) moves by a factor 1.6/0.7 = 2.29 >
+/// e^{1/2} across the grid: informed (though weakly: a factor (1.6/0.7)^{1/2} = 1.51 would not be).
+#[test]
+fn a_marginal_the_data_barely_move_is_prior_dominated() {
+    let u = axis(-0.3, 0.02, 46);
+    let t = axis(-0.6, 0.01, 121);
+    let surface = |f: &dyn Fn(f64, f64) -> f64| -> Vec<f64> {
+        t.iter()
+            .flat_map(|&tt| u.iter().map(move |&uu| f(uu, tt)))
+            .collect()
+    };
+    let flat = posterior(
+        &u,
+        &t,
+        &surface(&|uu, tt| (tt / 0.1).powi(2) * (1.0 - uu / 10.0)),
+    )
+    .unwrap();
+    assert!(flat.upsilon_prior_dominated);
+    assert!(!flat.tau_prior_dominated);
+    let informed = posterior(
+        &u,
+        &t,
+        &surface(&|uu, tt| (tt / 0.1).powi(2) * (1.0 + uu).powi(2)),
+    )
+    .unwrap();
+    assert!(!informed.upsilon_prior_dominated);
+    assert!(!dwarfbound::confront::profile::prior_dominated(&[1.0]));
+    assert!(dwarfbound::confront::profile::prior_dominated(&[1.0, 0.7]));
+    assert!(!dwarfbound::confront::profile::prior_dominated(&[1.0, 0.6]));
 }
 
 /// Φ(z) from libm's erfc (Φ(z) = ½ erfc(−z/√2), Abramowitz & Stegun 26.2.29).

@@ -123,6 +123,9 @@ fn real_dynamical_masses_allow_standard_gravity_and_the_rules_act_on_them() {
     let report = std::fs::read_to_string(out.join("report.md")).unwrap();
     assert!(report.contains("**Best fit:** not unique"), "{report}");
     assert!(!report.contains("widen the grid"));
+    // Nothing informs ϒ, so its credible interval is the prior's, and says so.
+    assert_eq!(s["posterior"]["upsilon_prior_dominated"], true);
+    assert!(report.contains("prior-dominated"), "{report}");
     assert!(text(&o).contains("not unique"), "{}", text(&o));
 }
 

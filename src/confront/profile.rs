@@ -181,6 +181,23 @@ pub struct Posterior {
     pub tau: [Interval; 3],
     /// Two-parameter HPD regions at the three levels.
     pub regions: [HpdRegion; 3],
+    /// Whether the data barely inform ϒ's marginal ([`prior_dominated`]).
+    pub upsilon_prior_dominated: bool,
+    /// Whether the data barely inform τ's marginal.
+    pub tau_prior_dominated: bool,
+}
+
+/// Whether a marginal density on ≥ 2 nodes stays within a factor e^{−1/2} of its largest value
+/// everywhere — the data move it by less than the equivalent of Δχ² = 1 over the whole axis
+/// (a choice). Its HPD interval then shows the grid's range and the flat prior, not the data: a
+/// credible "bound" from an uninformative catalogue is exactly what a reader must not take for
+/// a measurement.
+pub fn prior_dominated(marginal: &[f64]) -> bool {
+    let max = marginal.iter().copied().fold(0.0, f64::max);
+    marginal.len() >= 2
+        && max > 0.0
+        && max.is_finite()
+        && marginal.iter().all(|&v| v >= (-0.5f64).exp() * max)
 }
 
 /// Trapezoid weights of an axis (a single node weighs 1).
@@ -344,6 +361,8 @@ pub fn posterior(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<Posterior
         r
     });
     Ok(Posterior {
+        upsilon_prior_dominated: prior_dominated(&marginal_upsilon),
+        tau_prior_dominated: prior_dominated(&marginal_tau),
         marginal_upsilon,
         marginal_tau,
         upsilon: upsilon_iv,

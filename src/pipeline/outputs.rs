@@ -915,6 +915,8 @@ impl OutputContext<'_> {
             "prior": crate::confront::profile::prior_text(self.surface.upsilon(), self.surface.tau()),
             "upsilon": levels_json(&p.upsilon),
             "tau": levels_json(&p.tau),
+            "upsilon_prior_dominated": p.upsilon_prior_dominated,
+            "tau_prior_dominated": p.tau_prior_dominated,
             "hpd_regions": Value::Object(regions),
         })
     }

@@ -260,9 +260,16 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
         method: "profile over τ".into(),
         intervals: level_rows(&p.upsilon),
     });
+    let posterior_words = |dominated: bool| {
+        if dominated {
+            "posterior, marginal (highest density; prior-dominated, see below)".to_string()
+        } else {
+            "posterior, marginal (highest density)".to_string()
+        }
+    };
     rows.push(IntervalRow {
         parameter: "ϒ".into(),
-        method: "posterior, marginal (highest density)".into(),
+        method: posterior_words(post.upsilon_prior_dominated),
         intervals: level_rows(&post.upsilon),
     });
     rows.push(IntervalRow {
@@ -272,7 +279,7 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     });
     rows.push(IntervalRow {
         parameter: "τ".into(),
-        method: "posterior, marginal (highest density)".into(),
+        method: posterior_words(post.tau_prior_dominated),
         intervals: level_rows(&post.tau),
     });
     let hpd_regions = Level::ALL
@@ -293,6 +300,20 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     let mut formulas = vec![
         "Profile and posterior are read on the grid itself (no finer sub-grid): their ends are as precise as the grid spacing.".to_string(),
     ];
+    let dominated: Vec<&str> = [
+        ("ϒ", post.upsilon_prior_dominated),
+        ("τ", post.tau_prior_dominated),
+    ]
+    .iter()
+    .filter(|(_, d)| *d)
+    .map(|(p, _)| *p)
+    .collect();
+    if !dominated.is_empty() {
+        formulas.push(format!(
+            "Prior-dominated ({}): the marginal posterior changes by less than a factor e^(1/2), the equivalent of Δχ² = 1, over the whole grid, so the data barely inform it; its interval shows the grid's range and the flat prior, not a measurement (docs/bounds.md §8.11).",
+            dominated.join(" and ")
+        ));
+    }
     if ctx.slice_other_floor.is_some() {
         formulas.push(
             "The two τ = 0 rows differ only in how the theory floors are shared: one shift per mass bound shared by all its objects and one radius scale (1 + δ) shared by every white dwarf in the radius test (each eliminated as a nuisance parameter), or the whole floor as an independent error per object, which averages away with many objects. The second was computed in the same run, from the same objects, grid and white-dwarf radii.".to_string(),
