@@ -125,6 +125,9 @@ fn real_dynamical_masses_allow_standard_gravity_and_the_rules_act_on_them() {
     assert!(!report.contains("widen the grid"));
     // Nothing informs ϒ, so its credible interval is the prior's, and says so.
     assert_eq!(s["posterior"]["upsilon_prior_dominated"], true);
+    // An interval open at both ends has no end to move: the drivers section says so rather than
+    // that no object moves it.
+    assert!(report.contains("open at both ends on this grid, so there is no end"), "{report}");
     assert!(report.contains("prior-dominated"), "{report}");
     assert!(text(&o).contains("not unique"), "{}", text(&o));
 }

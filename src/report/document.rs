@@ -586,9 +586,19 @@ pub(crate) fn build(
             "Not computed: there is no ϒ interval at τ = 0 on this grid.",
         )]));
     } else if input.drivers.is_empty() {
-        blocks.push(Block::Para(vec![t(format!(
-            "No single object moves the {cl95} interval in ϒ at τ = 0 when left out."
-        ))]));
+        let main_open = intervals
+            .iter()
+            .find(|i| i.level == cl95)
+            .is_some_and(|i| i.lower.is_none() && i.upper.is_none());
+        blocks.push(Block::Para(vec![t(if main_open {
+            // Nothing to move: saying that no object moves it would read as robustness.
+            format!(
+                "None: the {cl95} interval in ϒ at τ = 0 is open at both ends on this grid, so \
+                 there is no end for an object to move."
+            )
+        } else {
+            format!("No single object moves the {cl95} interval in ϒ at τ = 0 when left out.")
+        })]));
     } else {
         blocks.push(Block::Para(vec![t(format!(
             "Leave-one-out influence: how far the {cl95} interval in ϒ at τ = 0 moves when one \
