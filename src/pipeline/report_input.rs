@@ -508,6 +508,12 @@ pub(crate) fn report_parts(
             format!("{n_model_mass} object(s) with masses from a standard-gravity model (mass_method = model: a mass–radius relation, log g, photometry or tracks) left out of their mass and radius tests: circular for a test of that model (flag model_mass; keep them with --include-model-masses)")
         }));
     }
+    let n_spin_model = count_flag("spin_model_mass");
+    if n_spin_model > 0 {
+        warnings.push(Warning::Other(format!(
+            "{n_spin_model} of them with a rotation period left out of the spin test too: the break-up period pairs the mass with the modified structure's radius, and a mass read off the standard mass–radius relation makes that circular (docs/rotation.md §3; flag spin_model_mass)"
+        )));
+    }
     let n_unknown = count_flag("mass_method_unknown");
     if n_unknown > 0 {
         warnings.push(Warning::Other(format!(
