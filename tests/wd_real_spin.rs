@@ -76,6 +76,11 @@ fn ae_aqr_spins_near_break_up_and_alone_bounds_upsilon_through_its_disputed_mass
     assert!(flags.split(';').any(|f| f == "spin_model_mass"), "{flags}");
     let report = std::fs::read_to_string(out.join("report.md")).unwrap();
     assert!(report.contains("left out of the spin test too"), "{report}");
+    // The summary says, where the interval is read, that one object holds its end.
+    assert!(
+        report.contains("An end rests on single objects: leaving out AE Aqr (spin"),
+        "{report}"
+    );
 
     // Kept on request, it spins far slower than its break-up period (≈ 6 s).
     let kept = dir.path().join("kept");

@@ -325,6 +325,20 @@ pub(crate) fn build(
         } else {
             p.push(t("."));
         }
+        // An end that one object alone holds is a finding about that object as much as about
+        // gravity: say so where the interval is read, not only in the drivers' table.
+        let single: Vec<String> = input
+            .drivers
+            .iter()
+            .filter(|d| d.shift == Shift::EndOpensOrCloses)
+            .map(|d| format!("{} ({})", d.id, d.test))
+            .collect();
+        if !single.is_empty() {
+            p.push(t(format!(
+                " An end rests on single objects: leaving out {} opens or closes it (see Drivers).",
+                single.join(", ")
+            )));
+        }
         summary.push(p);
     }
     let sg = &input.standard_gravity;
