@@ -310,8 +310,10 @@ fn side_by_side(ctx: &OutputContext<'_>) -> Option<SideBySide> {
     .collect();
     if !dominated.is_empty() {
         formulas.push(format!(
-            "Prior-dominated ({}): the marginal posterior changes by less than a factor e^(1/2), the equivalent of Δχ² = 1, over the whole grid, so the data barely inform it; its interval shows the grid's range and the flat prior, not a measurement (docs/bounds.md §8.11).",
-            dominated.join(" and ")
+            "Prior-dominated ({}): the marginal posterior changes by less than a factor e^({}/2), the equivalent of Δχ² = {}, over the whole grid, so the data barely inform it; its interval shows the grid's range and the flat prior, not a measurement (docs/bounds.md §8.11).",
+            dominated.join(" and "),
+            crate::confront::profile::PRIOR_DOMINATED_DCHI2,
+            crate::confront::profile::PRIOR_DOMINATED_DCHI2
         ));
     }
     if ctx.slice_other_floor.is_some() {
@@ -755,6 +757,7 @@ pub(crate) fn report_parts(
             not_unique: (!ctx.regions.best_unique).then(|| {
                 let n = &ctx.regions.near_best;
                 NearBest {
+                    dchi2: crate::confront::regions::INDISTINGUISHABLE_DCHI2,
                     n_points: n.n_points,
                     fraction_of_grid: n.fraction_of_grid,
                     upsilon: (n.upsilon_min, n.upsilon_max),

@@ -275,12 +275,12 @@ pub(crate) fn build(
             t("none — without an informative object the likelihood is flat over the grid."),
         ];
     } else if let Some(n) = &bf.not_unique {
-        // A plateau: the lowest point is rounding noise, not a finding (regions::INDISTINGUISHABLE_DCHI2).
+        // A plateau: the lowest point is rounding noise, not a finding.
         best = vec![
             b("Best fit: "),
             t(format!(
                 "not unique — {} grid points ({} % of the grid), over ϒ [{}, {}] and τ [{}, {}], \
-                 lie within Δχ² ≤ 0.01 of the lowest −2 ln L ({} at ϒ = {}, τ = {}): the data do \
+                 lie within Δχ² ≤ {} of the lowest −2 ln L ({} at ϒ = {}, τ = {}): the data do \
                  not single out a point there.",
                 n.n_points,
                 fmt_sig(100.0 * n.fraction_of_grid, 3),
@@ -288,6 +288,7 @@ pub(crate) fn build(
                 fmt_param(n.upsilon.1),
                 fmt_param(n.tau.0),
                 fmt_param(n.tau.1),
+                n.dchi2,
                 fmt_sig(bf.minus_two_ln_l, 5),
                 fmt_param(bf.upsilon),
                 fmt_param(bf.tau),

@@ -186,14 +186,16 @@ pub struct BestFit {
     pub minus_two_ln_l: f64,
     /// True when the best fit lies on the edge of the grid (the minimum may lie outside).
     pub on_grid_edge: bool,
-    /// When the best grid point is not unique: the points within Δχ² ≤ 0.01 of it, which reach
+    /// When the best grid point is not unique: the points within a small Δχ² of it, which reach
     /// beyond its neighbours (`None`: the best fit names a place).
     pub not_unique: Option<NearBest>,
 }
 
-/// Grid points that cannot be told from the best fit (Δχ² ≤ 0.01 of it).
+/// Grid points that cannot be told from the best fit (Δχ² ≤ `dchi2` of it).
 #[derive(Debug, Clone, PartialEq)]
 pub struct NearBest {
+    /// The Δχ² within which a point cannot be told from the best one.
+    pub dchi2: f64,
     /// How many.
     pub n_points: usize,
     /// Their share of the grid.
