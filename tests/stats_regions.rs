@@ -128,6 +128,31 @@ fn map_regions_on_an_elliptical_bowl() {
     assert_eq!(r.near_best.n_points, 3);
 }
 
+/// Closed form: a Gaussian χ² = (ϒ/σ)² + (τ/σ)² on a grid of forty points per σ has many points
+/// within Δχ² ≤ 0.01 of its minimum (a disc of radius 0.1σ: about 45 points, beyond the best's
+/// neighbours), but they are 0.44 % of the 68.27 % region (radius 1.515σ): the best fit still
+/// names a place. Made flat in ϒ, the near-best band is 6.6 % of that region: not unique.
+#[test]
+fn a_peaked_likelihood_on_a_fine_grid_keeps_its_best_fit() {
+    let s = 0.1;
+    let ups: Vec<f64> = (0..321).map(|i| -0.4 + 0.0025 * f64::from(i)).collect();
+    let taus = ups.clone();
+    let map = |f: &dyn Fn(f64, f64) -> f64| -> Vec<f64> {
+        taus.iter()
+            .flat_map(|&t| ups.iter().map(move |&u| f(u, t)))
+            .collect()
+    };
+    let peaked = map_regions(&ups, &taus, &map(&|u, t| (u / s).powi(2) + (t / s).powi(2))).unwrap();
+    assert!(
+        peaked.near_best.n_points > 9,
+        "{}",
+        peaked.near_best.n_points
+    );
+    assert!(peaked.best_unique);
+    let ridge = map_regions(&ups, &taus, &map(&|_, t| (t / s).powi(2))).unwrap();
+    assert!(!ridge.best_unique);
+}
+
 /// A plateau (every object agrees with a whole band of the grid, as for real brown dwarfs with
 /// dynamical masses) has no unique best point: closed form, χ² = max(0, τ − 0.05)² / 0.01² is
 /// exactly 0 for every τ ≤ 0.05 whatever ϒ, so every such point ties with the best one.

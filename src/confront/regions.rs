@@ -152,10 +152,12 @@ pub struct MapRegions {
     pub n_invalid: usize,
     /// The grid points within [`INDISTINGUISHABLE_DCHI2`] of the best one, the best included.
     pub near_best: AllowedBox,
-    /// Whether every point of `near_best` is the best point or one of its eight neighbours on
-    /// the grid: only then does the best fit name a place. A likelihood flat over part of the
-    /// grid (objects that all agree with every point there) has a lowest point that is rounding
-    /// noise, and the report says so instead of printing it as a finding.
+    /// Whether the best fit names a place: every point of `near_best` is the best point or one
+    /// of its eight neighbours, or `near_best` holds less than [`NOT_UNIQUE_SHARE`] of the
+    /// points allowed at 68.27 % (a peaked likelihood on a grid much finer than its width). A
+    /// likelihood flat over part of the grid (objects that all agree with every point there)
+    /// has a lowest point that is rounding noise, and the report says so instead of printing it
+    /// as a finding.
     pub best_unique: bool,
 }
 
@@ -178,6 +180,13 @@ impl MapRegions {
 /// (a choice; the demo's best fit has no other point within it, an uninformative catalogue has
 /// a plateau of them).
 pub const INDISTINGUISHABLE_DCHI2: f64 = 0.01;
+
+/// Share of the 68.27 % region (two parameters) above which the points within
+/// [`INDISTINGUISHABLE_DCHI2`] of the best make it not unique. For a Gaussian χ² the share is
+/// (0.1/1.515)² = 0.44 % whatever the grid (ellipses with semi-axes 0.1σ and 1.515σ); for a
+/// likelihood Gaussian in one direction and flat in the other it is 0.1/1.515 = 6.6 %, and for
+/// a plateau most of the region. 2 % lies between (a choice).
+pub const NOT_UNIQUE_SHARE: f64 = 0.02;
 
 /// Best fit, Δχ² and the allowed boxes of a χ² map `chi2[j·n_ϒ + i]` (τ outer, ϒ inner) on
 /// axes `upsilon`, `tau` (two-parameter thresholds, as in the paper's statistics section).
@@ -240,10 +249,12 @@ pub fn map_regions(upsilon: &[f64], tau: &[f64], chi2: &[f64]) -> Result<MapRegi
     };
     let allowed = Level::ALL.map(|level| within(level.dchi2(2)));
     let near_best = within(INDISTINGUISHABLE_DCHI2);
-    let best_unique = delta_chi2.iter().enumerate().all(|(k, &d)| {
+    let beside_best = delta_chi2.iter().enumerate().all(|(k, &d)| {
         d > INDISTINGUISHABLE_DCHI2
             || ((k % nu).abs_diff(i_best) <= 1 && (k / nu).abs_diff(j_best) <= 1)
     });
+    let best_unique =
+        beside_best || (near_best.n_points as f64) < NOT_UNIQUE_SHARE * allowed[0].n_points as f64;
     Ok(MapRegions {
         best: BestFit {
             i_upsilon: i_best,
