@@ -10,7 +10,7 @@ mod common;
 use std::collections::BTreeMap;
 use std::path::Path;
 
-use common::{col, confront, fixture, path_str, read_csv, summary, text};
+use common::{confront, fixture, object_columns, path_str, summary, text};
 
 /// ϒ barely moves the anchored MMHB (docs/bounds.md §6); τ moves it by ±10 % at ±0.1.
 const UPSILON: &str = "--upsilon=-0.3:0.6:46";
@@ -18,17 +18,11 @@ const TAU: &str = "--tau=-0.3:0.3:7";
 
 /// (in_fit, flags, sigma_standard) of every object of a finished run, by id.
 fn objects(out: &Path) -> BTreeMap<String, (String, String, f64)> {
-    let (h, rows) = read_csv(&out.join("objects.csv"));
-    let (i_id, i_fit, i_flags, i_z) = (
-        col(&h, "id"),
-        col(&h, "in_fit"),
-        col(&h, "flags"),
-        col(&h, "sigma_standard"),
-    );
-    rows.iter()
-        .map(|r| {
-            let z = r[i_z].parse().unwrap_or(f64::NAN);
-            (r[i_id].clone(), (r[i_fit].clone(), r[i_flags].clone(), z))
+    object_columns(out, &["in_fit", "flags", "sigma_standard"])
+        .into_iter()
+        .map(|(id, c)| {
+            let z = c[2].parse().unwrap_or(f64::NAN);
+            (id, (c[0].clone(), c[1].clone(), z))
         })
         .collect()
 }

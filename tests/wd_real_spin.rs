@@ -7,29 +7,23 @@ mod common;
 use std::collections::BTreeMap;
 use std::path::Path;
 
-use common::{col, confront, fixture, path_str, read_csv, summary, text};
+use common::{confront, fixture, object_columns, path_str, summary, text};
 
 const UPSILON: &str = "--upsilon=-0.3:0.6:46";
 const TAU: &str = "--tau=-0.3:0.3:7";
 
 /// (break-up period at standard gravity in s, spin σ at standard gravity, flags) by id.
 fn spins(out: &Path) -> BTreeMap<String, (Option<f64>, Option<f64>, String)> {
-    let (h, rows) = read_csv(&out.join("objects.csv"));
-    let (i_id, i_p, i_z, i_flags) = (
-        col(&h, "id"),
-        col(&h, "breakup_period_standard_h"),
-        col(&h, "spin_sigma_standard"),
-        col(&h, "flags"),
-    );
-    rows.iter()
-        .map(|r| {
-            let p = r[i_p].parse::<f64>().ok().map(|h| h * 3600.0);
-            (
-                r[i_id].clone(),
-                (p, r[i_z].parse().ok(), r[i_flags].clone()),
-            )
-        })
-        .collect()
+    object_columns(
+        out,
+        &["breakup_period_standard_h", "spin_sigma_standard", "flags"],
+    )
+    .into_iter()
+    .map(|(id, c)| {
+        let p = c[0].parse::<f64>().ok().map(|h| h * 3600.0);
+        (id, (p, c[1].parse().ok(), c[2].clone()))
+    })
+    .collect()
 }
 
 /// Source: AE Aqr's white dwarf, 0.63 ± 0.05 M☉ (Echevarría et al. 2008, from the radial

@@ -112,6 +112,20 @@ pub fn col(header: &[String], name: &str) -> usize {
         .unwrap_or_else(|| panic!("no column `{name}` in {header:?}"))
 }
 
+/// The columns `names` of every row of an output folder's `objects.csv`, by object id (the id
+/// column is `id`; ids are unique within these tests' catalogues).
+pub fn object_columns(
+    out: &Path,
+    names: &[&str],
+) -> std::collections::BTreeMap<String, Vec<String>> {
+    let (h, rows) = read_csv(&out.join("objects.csv"));
+    let idx: Vec<usize> = names.iter().map(|n| col(&h, n)).collect();
+    let i_id = col(&h, "id");
+    rows.iter()
+        .map(|r| (r[i_id].clone(), idx.iter().map(|&i| r[i].clone()).collect()))
+        .collect()
+}
+
 /// Writes a nightly config into `dir` over the three demo catalogues (plus `next_night.csv`
 /// when asked; the file is then `next.toml`, else `nightly.toml`), on a small grid that keeps
 /// the tests quick, with `extra` TOML appended.
