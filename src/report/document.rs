@@ -332,7 +332,11 @@ pub(crate) fn build(
             .drivers
             .iter()
             .filter(|d| d.shift == Shift::EndOpensOrCloses)
-            .map(|d| format!("{} ({})", d.id, d.test))
+            // "spin, break-up (one-sided)" reads "spin, break-up, one-sided" inside the brackets.
+            .map(|d| {
+                let test = d.test.replace(" (", ", ");
+                format!("{} ({})", d.id, test.trim_end_matches(')'))
+            })
             .collect();
         if !single.is_empty() {
             p.push(t(format!(
