@@ -845,7 +845,7 @@ pub fn plan_one(o: &CatalogueObject, opts: &EngineOptions) -> ObjectUse {
             match o.mass_method {
                 MassMethod::Model => {
                     flags.raise("model_mass");
-                    if !opts.radius.include_model_masses && excluded.is_none() {
+                    if opts.radius.leaves_out_model_mass(o) && excluded.is_none() {
                         excluded = Some(LeftOut::ModelMass);
                     }
                 }

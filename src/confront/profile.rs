@@ -193,17 +193,13 @@ pub const PRIOR_DOMINATED_DCHI2: f64 = 1.0;
 
 /// Whether a marginal density on ≥ 2 nodes stays within a factor e^{−1/2} of its largest value
 /// everywhere — the data move it by less than the equivalent of Δχ² = 1
-/// ([`PRIOR_DOMINATED_DCHI2`]) over the whole axis (a choice). Its HPD interval then shows the grid's range and the flat prior, not the data: a
-/// credible "bound" from an uninformative catalogue is exactly what a reader must not take for
-/// a measurement.
+/// ([`PRIOR_DOMINATED_DCHI2`]) over the whole axis (a choice). Its HPD interval then shows the
+/// grid's range and the flat prior, not the data: a credible "bound" from an uninformative
+/// catalogue is exactly what a reader must not take for a measurement.
 pub fn prior_dominated(marginal: &[f64]) -> bool {
     let max = marginal.iter().copied().fold(0.0, f64::max);
-    marginal.len() >= 2
-        && max > 0.0
-        && max.is_finite()
-        && marginal
-            .iter()
-            .all(|&v| v >= (-0.5 * PRIOR_DOMINATED_DCHI2).exp() * max)
+    let floor = (-0.5 * PRIOR_DOMINATED_DCHI2).exp() * max;
+    marginal.len() >= 2 && max > 0.0 && max.is_finite() && marginal.iter().all(|&v| v >= floor)
 }
 
 /// Trapezoid weights of an axis (a single node weighs 1).

@@ -117,6 +117,16 @@ pub struct BestFit {
     pub chi2_min: f64,
 }
 
+impl BestFit {
+    /// Whether the best point lies on the edge of an `n_upsilon` × `n_tau` grid, so that the
+    /// minimum may lie outside it (a single τ value has no τ edge).
+    pub fn on_grid_edge(&self, n_upsilon: usize, n_tau: usize) -> bool {
+        self.i_upsilon == 0
+            || self.i_upsilon + 1 == n_upsilon
+            || (n_tau > 1 && (self.j_tau == 0 || self.j_tau + 1 == n_tau))
+    }
+}
+
 /// Bounding box of the grid points allowed at one level (`summary.json` `allowed.<level>`).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AllowedBox {

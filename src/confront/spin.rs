@@ -60,7 +60,7 @@ use rayon::prelude::*;
 use super::engine::{radius_mass_nodes, BoundSurface, EngineOptions, ObjectUses};
 use super::prob::{ln_normal_cdf, ln_prob_consistent, Measurement};
 use super::wd_radius::{ObjectRadius, WdQuery, WdRadiusModel};
-use crate::catalogue::{CatalogueObject, MassLimit, MassMethod, ObjectClass};
+use crate::catalogue::{CatalogueObject, MassLimit, ObjectClass};
 use crate::theory::rotation::{breakup_period_s, BreakupModel};
 use crate::theory::slow_rotation::{rotation_parameter_v, slow_rotation, SlowRotationError};
 use crate::theory::white_dwarf::RadiusQueries;
@@ -600,11 +600,12 @@ pub fn effective_index(slope: f64) -> f64 {
 /// Prepares the spin test of every object with a rotation period, flags them in `uses`, and
 /// applies the slow-rotation change of the MMHB (brown dwarfs and stars: their bound scale).
 /// Objects with a mass limit are left out of the spin test (flag `spin_mass_limit`), and so are
-/// objects whose mass came from a standard-gravity model (`mass_method = model`; flag
-/// `spin_model_mass` beside the engine's `model_mass`) unless `--include-model-masses` keeps them: such a mass was read off the
-/// standard mass–radius relation (log g, photometry), while the test pairs it with the radius of
-/// the modified structure at the grid point — for a log g mass the break-up period is really
-/// 2πκ√(R/g) with the observed g, so the pairing is circular, as in the mass and radius tests.
+/// objects whose mass came from a standard-gravity model
+/// ([`super::wd_radius::RadiusOptions::leaves_out_model_mass`]; flag `spin_model_mass` beside
+/// the engine's `model_mass`): such a mass was read off the standard mass–radius relation
+/// (log g, photometry), while the test pairs it with the radius of the modified structure at
+/// the grid point — for a log g mass the break-up period is really 2πκ√(R/g) with the observed
+/// g, so the pairing is circular, as in the mass and radius tests.
 pub fn prepare(
     objects: &[CatalogueObject],
     uses: &mut ObjectUses,
@@ -628,7 +629,7 @@ pub fn prepare(
             uses.update(k, |held| *held = u);
             continue;
         }
-        if o.mass_method == MassMethod::Model && !opts.radius.include_model_masses {
+        if opts.radius.leaves_out_model_mass(o) {
             u.flags.push("spin_model_mass".to_string());
             uses.update(k, |held| *held = u);
             continue;

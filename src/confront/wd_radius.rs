@@ -118,6 +118,15 @@ pub struct RadiusOptions {
     pub floor_fit: FloorFit,
 }
 
+impl RadiusOptions {
+    /// Whether `o` is left out of its tests for a mass from a standard-gravity model
+    /// (`mass_method = model`, circular for a test of that model) — the one rule the mass
+    /// test, the radius test and the spin test share; `include_model_masses` keeps them.
+    pub fn leaves_out_model_mass(&self, o: &CatalogueObject) -> bool {
+        o.mass_method == MassMethod::Model && !self.include_model_masses
+    }
+}
+
 impl Default for RadiusOptions {
     fn default() -> Self {
         Self {
@@ -615,7 +624,7 @@ pub fn split_floor(total: f64, shared: f64) -> (f64, f64) {
 /// Why a white dwarf with a radius is left out of the radius test (or `None`); its
 /// [`LeftOut::flag`] is the flag for `objects.csv`.
 pub fn radius_domain(o: &CatalogueObject, opts: &RadiusOptions) -> Option<LeftOut> {
-    if o.mass_method == MassMethod::Model && !opts.include_model_masses {
+    if opts.leaves_out_model_mass(o) {
         return Some(LeftOut::ModelMass);
     }
     if opts.model == WdRadiusModel::Cold || o.radius_model_rsun().is_some() {

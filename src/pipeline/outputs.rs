@@ -775,8 +775,7 @@ impl OutputContext<'_> {
                 "upsilon": best.upsilon,
                 "tau": best.tau,
                 "minus_two_ln_l": best.chi2_min,
-                "on_grid_edge": best.i_upsilon == 0 || best.i_upsilon + 1 == self.conf.n_upsilon
-                    || (self.conf.n_tau > 1 && (best.j_tau == 0 || best.j_tau + 1 == self.conf.n_tau)),
+                "on_grid_edge": best.on_grid_edge(self.conf.n_upsilon, self.conf.n_tau),
                 "unique": self.regions.best_unique,
                 "points_within_0_01": self.regions.near_best.n_points,
             },

@@ -751,9 +751,7 @@ pub(crate) fn report_parts(
             upsilon: best.upsilon,
             tau: best.tau,
             minus_two_ln_l: best.chi2_min,
-            on_grid_edge: best.i_upsilon == 0
-                || best.i_upsilon + 1 == nu
-                || (nt > 1 && (best.j_tau == 0 || best.j_tau + 1 == nt)),
+            on_grid_edge: best.on_grid_edge(nu, nt),
             not_unique: (!ctx.regions.best_unique).then(|| {
                 let n = &ctx.regions.near_best;
                 NearBest {
